@@ -1,0 +1,48 @@
+#!/usr/bin/env node
+// Runs the whole test suite: unit tests, then the app build and the browser (end-to-end) tests.
+// Ends with the plain line "N passed, N failed" and exits non-zero on any failure.
+// `node scripts/test.mjs --unit` runs only the unit tests (no browser needed).
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, readFileSync, rmSync } from 'node:fs';
+import { join } from 'node:path';
+
+const unitOnly = process.argv.includes('--unit');
+const outDir = join('node_modules', '.gapwise-test');
+mkdirSync(outDir, { recursive: true });
+const env = { ...process.env, NO_COLOR: '1', FORCE_COLOR: '0' };
+
+let passed = 0;
+let failed = 0;
+let broken = false;
+
+function vitest(label, args) {
+  const out = join(outDir, `${label}.json`);
+  rmSync(out, { force: true });
+  const r = spawnSync('npx', ['vitest', 'run', ...args, '--reporter=default', '--reporter=json', `--outputFile=${out}`],
+    { stdio: 'inherit', env });
+  if (!existsSync(out)) {
+    console.error(`${label}: vitest wrote no results (exit ${r.status}).`);
+    broken = true;
+    return;
+  }
+  const j = JSON.parse(readFileSync(out, 'utf8'));
+  passed += j.numPassedTests;
+  failed += j.numFailedTests;
+  // A suite that fails to load counts as a failure even when no test inside it ran.
+  const badSuites = (j.testResults ?? []).filter((t) => t.status === 'failed' && (t.assertionResults ?? []).length === 0).length;
+  failed += badSuites;
+  if (r.status !== 0 && j.numFailedTests === 0 && badSuites === 0) broken = true;
+}
+
+vitest('unit', []);
+if (!unitOnly) {
+  const b = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { stdio: 'inherit', env });
+  if (b.status !== 0) {
+    console.error('The app build failed.');
+    failed += 1;
+  } else {
+    vitest('e2e', ['--config', 'vitest.e2e.config.ts', '--passWithNoTests']);
+  }
+}
+console.log(`${passed} passed, ${failed} failed`);
+process.exit(failed > 0 || broken ? 1 : 0);

@@ -1,0 +1,70 @@
+/**
+ * The one error type for problems a user must read and act on.
+ *
+ * `code` comes from a fixed list; `message` is one plain sentence naming the actual and the expected
+ * value; `file`, `row` (1-based line, header = line 1, or feature index) and `column` locate it when
+ * there is a place to point at. The CLI maps `kind` to its exit codes: input → 2, numeric → 3.
+ */
+
+export type ErrorCode =
+  | 'bad-file'            // the file cannot be read as the format it claims
+  | 'bad-value'           // a cell or property is not what it must be
+  | 'missing-column'      // a needed column is absent or ambiguous
+  | 'bad-crs'             // unknown or unusable coordinate reference system
+  | 'bad-geometry'        // GeoJSON geometry is invalid
+  | 'bad-model'           // the covariance model JSON is invalid
+  | 'bad-option'          // a command-line or API option is invalid
+  | 'too-few-samples'     // not enough samples for the requested operation
+  | 'constant-values'     // all values are identical; nothing to fit
+  | 'not-positive-definite' // a covariance matrix could not be factorised
+  | 'fit-failed'          // the optimiser found no finite likelihood
+  | 'cancelled';          // the user stopped the work
+
+const NUMERIC_CODES: ReadonlySet<ErrorCode> = new Set(['not-positive-definite', 'fit-failed']);
+
+export interface ErrorPlace {
+  file?: string;
+  /** 1-based line in a text file (header = line 1), or feature index in GeoJSON. */
+  row?: number;
+  column?: string;
+  /** The raw text that was rejected. */
+  raw?: string;
+}
+
+export class GapwiseError extends Error {
+  readonly code: ErrorCode;
+  readonly place: ErrorPlace;
+
+  constructor(code: ErrorCode, message: string, place: ErrorPlace = {}) {
+    super(message);
+    this.name = 'GapwiseError';
+    this.code = code;
+    this.place = place;
+  }
+
+  /** 'input' problems are the user's file or options; 'numeric' ones are the numbers failing. */
+  get kind(): 'input' | 'numeric' | 'cancelled' {
+    if (this.code === 'cancelled') return 'cancelled';
+    return NUMERIC_CODES.has(this.code) ? 'numeric' : 'input';
+  }
+
+  /** The message with its place, e.g. `samples.csv, line 14, column "Pb": "12,5x" is not a number.` */
+  describe(): string {
+    const parts: string[] = [];
+    if (this.place.file) parts.push(this.place.file);
+    if (this.place.row !== undefined) parts.push(`line ${this.place.row}`);
+    if (this.place.column !== undefined) parts.push(`column "${this.place.column}"`);
+    return parts.length ? `${parts.join(', ')}: ${this.message}` : this.message;
+  }
+
+  /** Plain data for postMessage and JSON reports. */
+  toJSON(): { code: ErrorCode; message: string; place: ErrorPlace } {
+    return { code: this.code, message: this.message, place: this.place };
+  }
+}
+
+/** A numerical outcome that is not a failure (jitter added, fit not converged, samples merged). */
+export interface Warning {
+  code: string;
+  message: string;
+}
