@@ -1,0 +1,98 @@
+/**
+ * The intake contract: what reading a samples file returns, shared by the app and the CLI.
+ * Implemented by src/io/intake.ts (`readSamples`). Everything here is plain data (postMessage-safe).
+ */
+import type { Samples } from '../core/samples.ts';
+import type { Warning } from '../core/errors.ts';
+
+export type NonDetectRule = 'half' | 'dl' | 'sqrt2';
+export type DuplicateRule = 'merge' | 'keep';
+
+export interface IntakeOptions {
+  /** Shown in messages ("samples.csv, line 14, ..."). */
+  fileName: string;
+  /** Detected from the extension / content when absent. */
+  format?: 'csv' | 'geojson';
+  /** Value column (property); detected when there is exactly one numeric candidate. */
+  value?: string;
+  x?: string;
+  y?: string;
+  /** Input CRS: 'EPSG:NNNN' or a proj string. Detected from column names (and ranges) when absent. */
+  crs?: string;
+  /** Working CRS; default: input if projected, else the WGS 84 UTM zone of the centroid. */
+  workCrs?: string;
+  /** Non-detect substitution: DL/2 (default, common practice), DL, DL/√2. */
+  nonDetect?: NonDetectRule;
+  /** Duplicate locations: merged by their mean (default) or kept. */
+  duplicates?: DuplicateRule;
+  /** Distance in working-CRS metres under which two locations count as one (default 0.01). */
+  duplicateTolerance?: number;
+}
+
+/** One row that was rejected or changed; nothing is dropped without one. */
+export interface ReportEntry {
+  /** 1-based line (header = line 1) for CSV, feature index (0-based) for GeoJSON. */
+  line?: number;
+  feature?: number;
+  field?: string;
+  raw?: string;
+  action: 'rejected' | 'changed' | 'merged' | 'flagged';
+  reason: string;
+}
+
+export interface CrsInfo {
+  /** As given or detected: 'EPSG:4326', 'EPSG:32633', or a proj string. */
+  input: string;
+  inputIsGeographic: boolean;
+  /** How the input CRS was chosen: 'given', or a sentence on the detection. */
+  detection: string;
+  work: string;
+  /** Metres per working-CRS unit (1 for the CRSs Gapwise picks). */
+  workUnit: string;
+}
+
+export interface ReadReport {
+  fileName: string;
+  format: 'csv' | 'geojson';
+  rowsRead: number;
+  rowsUsed: number;
+  columns: string[];
+  numericColumns: string[];
+  valueColumn: string;
+  /** Unit taken from the header, e.g. 'mg/kg' from 'Pb (mg/kg)'; '' when none. */
+  unit: string;
+  xColumn: string;
+  yColumn: string;
+  idColumn?: string;
+  crs: CrsInfo;
+  nonDetects: { count: number; rule: NonDetectRule; note: string };
+  duplicates: { groups: number; rule: DuplicateRule; tolerance: number };
+  outliers: number[];
+  entries: ReportEntry[];
+  warnings: Warning[];
+  /** Suggestion text for a log transform when the data are positive and skewed; '' otherwise. */
+  transformAdvice: string;
+  summary: { n: number; min: number; max: number; mean: number; median: number; sd: number; skewness: number };
+}
+
+/** One accepted sample as read, in the input CRS, with its flags. */
+export interface SampleRow {
+  id: string;
+  /** Input-CRS coordinates as read. */
+  inputX: number;
+  inputY: number;
+  value: number;
+  /** 'nd' non-detect, 'dup' merged duplicate, 'outlier'. */
+  flags: string[];
+  /** 1-based line or feature index of the source row(s). */
+  lines: number[];
+  /** The whole source row as text, for display (never as HTML). */
+  raw: Record<string, string>;
+}
+
+export interface IntakeResult {
+  /** In the working CRS, after non-detect substitution and duplicate handling. */
+  samples: Samples;
+  rows: SampleRow[];
+  report: ReadReport;
+}
