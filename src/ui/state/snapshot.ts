@@ -1,0 +1,192 @@
+/**
+ * The saved session: everything needed to put the work back after a reload — the file text as read,
+ * the user's choices, the chosen model and the grid settings — as one JSON-able object with a version.
+ * Results that can be recomputed (the read samples, variograms, surfaces) are not stored.
+ */
+import type { CovarianceModel } from '../../core/model.ts';
+import { parseModel } from '../../core/model.ts';
+import type { NonDetectRule } from '../../io/types.ts';
+
+export const SNAPSHOT_VERSION = 1;
+
+export type StepId = 'samples' | 'structure' | 'surface' | 'next' | 'report';
+export const STEP_IDS: readonly StepId[] = ['samples', 'structure', 'surface', 'next', 'report'];
+
+export type FitMethod = 'reml' | 'wls';
+export type SurfaceLayerId = 'mean' | 'sd' | 'exceed';
+export type BasemapChoice = 'none' | 'osm' | 'custom';
+
+export interface SourceFile {
+  fileName: string;
+  /** The file text exactly as read. */
+  text: string;
+  /** True for the invented demo data, so every view can label it. */
+  invented: boolean;
+}
+
+export interface SampleChoices {
+  value?: string;
+  x?: string;
+  y?: string;
+  crs?: string;
+  nonDetect?: NonDetectRule;
+  /** The unit shown beside values; '' uses the unit read from the header. */
+  unit: string;
+  transform: 'none' | 'log';
+}
+
+export interface StructureChoices {
+  /** Lag width in working-CRS metres; 0 = automatic. */
+  lagWidth: number;
+  /** Largest lag in metres; 0 = automatic (half the largest distance). */
+  maxLag: number;
+  directional: boolean;
+  cloud: boolean;
+  method: FitMethod;
+  /** Key of the candidate the user chose ('' = none yet). */
+  chosen: string;
+  /** The model in use (the chosen candidate, possibly edited). */
+  model: CovarianceModel | null;
+}
+
+export interface SurfaceChoices {
+  area: 'extent' | 'boundary';
+  /** Padding around the samples' extent as a fraction of its larger side. */
+  padding: number;
+  /** Cell size in metres; 0 = automatic. */
+  cellSize: number;
+  /** Exceedance threshold in data units; null = none set. */
+  threshold: number | null;
+  layer: SurfaceLayerId;
+  opacity: number;
+  hideUncertain: boolean;
+  /** sd level (data units) above which cells are hidden when hideUncertain is on. */
+  sdLimit: number | null;
+  /** The user asked for a surface; recomputed after a reload. */
+  wanted: boolean;
+}
+
+export interface MapChoices {
+  basemap: BasemapChoice;
+  customUrl: string;
+}
+
+export interface SessionSnapshot {
+  version: typeof SNAPSHOT_VERSION;
+  step: StepId;
+  source: SourceFile | null;
+  boundary: SourceFile | null;
+  samples: SampleChoices;
+  structure: StructureChoices;
+  surface: SurfaceChoices;
+  map: MapChoices;
+}
+
+/** A fresh session: nothing loaded, every choice at its default. */
+export function emptySnapshot(): SessionSnapshot {
+  return {
+    version: SNAPSHOT_VERSION,
+    step: 'samples',
+    source: null,
+    boundary: null,
+    samples: { unit: '', transform: 'none' },
+    structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null },
+    surface: {
+      area: 'extent', padding: 0.05, cellSize: 0, threshold: null, layer: 'mean', opacity: 0.8,
+      hideUncertain: false, sdLimit: null, wanted: false,
+    },
+    map: { basemap: 'none', customUrl: '' },
+  };
+}
+
+type Obj = Record<string, unknown>;
+const isObj = (v: unknown): v is Obj => typeof v === 'object' && v !== null && !Array.isArray(v);
+const str = (v: unknown, d: string): string => (typeof v === 'string' ? v : d);
+const optStr = (v: unknown): string | undefined => (typeof v === 'string' && v !== '' ? v : undefined);
+const num = (v: unknown, d: number, min = -Infinity, max = Infinity): number =>
+  typeof v === 'number' && Number.isFinite(v) && v >= min && v <= max ? v : d;
+const bool = (v: unknown, d: boolean): boolean => (typeof v === 'boolean' ? v : d);
+const oneOf = <T extends string>(v: unknown, options: readonly T[], d: T): T =>
+  typeof v === 'string' && (options as readonly string[]).includes(v) ? (v as T) : d;
+const optNum = (v: unknown): number | null => (typeof v === 'number' && Number.isFinite(v) ? v : null);
+
+function readSource(v: unknown): SourceFile | null {
+  if (!isObj(v) || typeof v.text !== 'string' || typeof v.fileName !== 'string') return null;
+  return { fileName: v.fileName, text: v.text, invented: v.invented === true };
+}
+
+function readModel(v: unknown): CovarianceModel | null {
+  if (v === null || v === undefined) return null;
+  try {
+    return parseModel(v);
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * Checks a stored value and returns a complete snapshot, each missing or malformed field replaced by
+ * its default; null when the value is not a snapshot of this version at all.
+ */
+export function parseSnapshot(input: unknown): SessionSnapshot | null {
+  if (!isObj(input) || input.version !== SNAPSHOT_VERSION) return null;
+  const d = emptySnapshot();
+  const s = isObj(input.samples) ? input.samples : {};
+  const st = isObj(input.structure) ? input.structure : {};
+  const su = isObj(input.surface) ? input.surface : {};
+  const m = isObj(input.map) ? input.map : {};
+  const nonDetect = oneOf(s.nonDetect, ['half', 'dl', 'sqrt2'] as const, 'half');
+  return {
+    version: SNAPSHOT_VERSION,
+    step: oneOf(input.step, STEP_IDS, d.step),
+    source: readSource(input.source),
+    boundary: readSource(input.boundary),
+    samples: {
+      value: optStr(s.value),
+      x: optStr(s.x),
+      y: optStr(s.y),
+      crs: optStr(s.crs),
+      nonDetect: s.nonDetect === undefined ? undefined : nonDetect,
+      unit: str(s.unit, ''),
+      transform: oneOf(s.transform, ['none', 'log'] as const, 'none'),
+    },
+    structure: {
+      lagWidth: num(st.lagWidth, 0, 0),
+      maxLag: num(st.maxLag, 0, 0),
+      directional: bool(st.directional, false),
+      cloud: bool(st.cloud, false),
+      method: oneOf(st.method, ['reml', 'wls'] as const, 'reml'),
+      chosen: str(st.chosen, ''),
+      model: readModel(st.model),
+    },
+    surface: {
+      area: oneOf(su.area, ['extent', 'boundary'] as const, 'extent'),
+      padding: num(su.padding, d.surface.padding, 0, 1),
+      cellSize: num(su.cellSize, 0, 0),
+      threshold: optNum(su.threshold),
+      layer: oneOf(su.layer, ['mean', 'sd', 'exceed'] as const, 'mean'),
+      opacity: num(su.opacity, d.surface.opacity, 0, 1),
+      hideUncertain: bool(su.hideUncertain, false),
+      sdLimit: optNum(su.sdLimit),
+      wanted: bool(su.wanted, false),
+    },
+    map: {
+      basemap: oneOf(m.basemap, ['none', 'osm', 'custom'] as const, 'none'),
+      customUrl: str(m.customUrl, ''),
+    },
+  };
+}
+
+/** JSON text of a snapshot (plain data only: no typed arrays, no functions). */
+export function serialiseSnapshot(snapshot: SessionSnapshot): string {
+  return JSON.stringify(snapshot);
+}
+
+/** The snapshot stored as text, or null when the text is not a readable snapshot. */
+export function deserialiseSnapshot(text: string): SessionSnapshot | null {
+  try {
+    return parseSnapshot(JSON.parse(text));
+  } catch {
+    return null;
+  }
+}

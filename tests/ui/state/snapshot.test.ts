@@ -1,0 +1,77 @@
+import { describe, expect, it } from 'vitest';
+import {
+  deserialiseSnapshot, emptySnapshot, parseSnapshot, serialiseSnapshot, type SessionSnapshot,
+} from '../../../src/ui/state/snapshot.ts';
+
+function fullSnapshot(): SessionSnapshot {
+  const s = emptySnapshot();
+  s.step = 'surface';
+  s.source = { fileName: 'pb.csv', text: 'x,y,"Pb (mg/kg)"\n1,2,<0.5\n3,4,"<b>12</b>"\n', invented: true };
+  s.boundary = { fileName: 'site.geojson', text: '{"type":"FeatureCollection","features":[]}', invented: false };
+  s.samples = { value: 'Pb (mg/kg)', x: 'x', y: 'y', crs: 'EPSG:27700', nonDetect: 'dl', unit: 'mg/kg', transform: 'log' };
+  s.structure = {
+    lagWidth: 25, maxLag: 400, directional: true, cloud: true, method: 'wls', chosen: 'matern-1.5',
+    model: {
+      structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1.2, scale: 150, nu: 1.5 }],
+      trend: 'constant', transform: 'log',
+    },
+  };
+  s.surface = {
+    area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, layer: 'exceed', opacity: 0.6,
+    hideUncertain: true, sdLimit: 40, wanted: true,
+  };
+  s.map = { basemap: 'custom', customUrl: 'http://127.0.0.1:8080/{z}/{x}/{y}.png' };
+  return s;
+}
+
+describe('serialiseSnapshot / deserialiseSnapshot', () => {
+  it('serialiseSnapshot then deserialiseSnapshot gives back every field', () => {
+    const s = fullSnapshot();
+    const back = deserialiseSnapshot(serialiseSnapshot(s));
+    expect(back).toEqual(s);
+  });
+
+  it('deserialiseSnapshot keeps the file text byte for byte, quotes, markup and newlines included', () => {
+    const s = fullSnapshot();
+    s.source!.text = '\uFEFFid;x;y;v\r\n"a""b";1;2;<script>alert(1)</script>\r\n';
+    expect(deserialiseSnapshot(serialiseSnapshot(s))!.source!.text).toBe(s.source!.text);
+  });
+
+  it('deserialiseSnapshot returns null for text that is not JSON or not this version', () => {
+    expect(deserialiseSnapshot('not json')).toBeNull();
+    expect(deserialiseSnapshot('{"version":99}')).toBeNull();
+    expect(deserialiseSnapshot('[]')).toBeNull();
+  });
+});
+
+describe('parseSnapshot', () => {
+  it('parseSnapshot fills defaults for missing parts', () => {
+    expect(parseSnapshot({ version: 1 })).toEqual(emptySnapshot());
+  });
+
+  it('parseSnapshot replaces malformed fields by their defaults and keeps the good ones', () => {
+    const s = parseSnapshot({
+      version: 1,
+      step: 'nowhere',
+      samples: { unit: 5, transform: 'sqrt', value: 'Pb' },
+      structure: { lagWidth: -3, maxLag: 'x', method: 'ols', model: { structures: 'no' } },
+      surface: { opacity: 3, cellSize: 10, threshold: 'high', layer: 'exceed' },
+      map: { basemap: 'satellite', customUrl: 7 },
+    })!;
+    expect(s.step).toBe('samples');
+    expect(s.samples).toEqual({ value: 'Pb', x: undefined, y: undefined, crs: undefined, nonDetect: undefined, unit: '', transform: 'none' });
+    expect(s.structure.lagWidth).toBe(0);
+    expect(s.structure.maxLag).toBe(0);
+    expect(s.structure.method).toBe('reml');
+    expect(s.structure.model).toBeNull();
+    expect(s.surface.opacity).toBe(0.8);
+    expect(s.surface.cellSize).toBe(10);
+    expect(s.surface.threshold).toBeNull();
+    expect(s.surface.layer).toBe('exceed');
+    expect(s.map).toEqual({ basemap: 'none', customUrl: '' });
+  });
+
+  it('parseSnapshot drops a source without text', () => {
+    expect(parseSnapshot({ version: 1, source: { fileName: 'a.csv' } })!.source).toBeNull();
+  });
+});
