@@ -1,0 +1,117 @@
+/**
+ * CSV text for the command line: writing cells and numbers, and reading a targets file record by
+ * record while keeping each record's original text, so that `predict` can write the rows back
+ * verbatim with its columns appended (RFC 4180 quoting; comma, semicolon or tab delimiters).
+ */
+import { GapwiseError } from '../core/errors.ts';
+import { detectDelimiter, normaliseText } from '../io/csv.ts';
+
+/** Quotes a cell when it holds the delimiter, a quote or a line break (RFC 4180). */
+export function csvCell(text: string, delimiter = ','): string {
+  if (text.includes(delimiter) || /["\r\n]/.test(text)) return `"${text.replace(/"/g, '""')}"`;
+  return text;
+}
+
+/** A number for a CSV or report: up to 12 significant digits, no trailing zeros; NaN as empty. */
+export function formatNumber(v: number): string {
+  if (Number.isNaN(v)) return '';
+  if (!Number.isFinite(v)) return v > 0 ? 'inf' : '-inf';
+  if (v === 0) return '0';
+  return String(Number(v.toPrecision(12)));
+}
+
+/** One CSV line from cells. */
+export function csvLine(cells: readonly string[], delimiter = ','): string {
+  return cells.map((c) => csvCell(c, delimiter)).join(delimiter);
+}
+
+export interface CsvRecord {
+  /** The cells, unquoted. */
+  cells: string[];
+  /** The record exactly as it stood in the file, without its line ending. */
+  raw: string;
+  /** 1-based line where the record starts (header = line 1). */
+  line: number;
+}
+
+export interface CsvTable {
+  delimiter: string;
+  /** The line ending the file uses ('\r\n' or '\n'). */
+  newline: string;
+  header: CsvRecord;
+  records: CsvRecord[];
+}
+
+/**
+ * Splits CSV text into records, keeping the raw text of each. Blank lines are skipped.
+ * Throws GapwiseError('bad-file') for an unclosed quote or a file without a header.
+ */
+export function readCsvTable(text: string, fileName: string): CsvTable {
+  const unmarked = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
+  // Old Mac files end lines with a lone CR; read them as LF.
+  const body = !unmarked.includes('\n') && unmarked.includes('\r') ? unmarked.replace(/\r/g, '\n') : unmarked;
+  const newline = body.includes('\r\n') ? '\r\n' : '\n';
+  // The same delimiter choice as the samples intake.
+  const delimiter = detectDelimiter(normaliseText(body));
+  const records: CsvRecord[] = [];
+  let i = 0;
+  let line = 1;
+  while (i < body.length) {
+    const start = i;
+    const startLine = line;
+    const cells: string[] = [];
+    let cell = '';
+    let quoted = false;
+    let end = -1;
+    let next = body.length;
+    while (i < body.length) {
+      const ch = body[i];
+      if (quoted) {
+        if (ch === '"') {
+          if (body[i + 1] === '"') {
+            cell += '"';
+            i += 2;
+            continue;
+          }
+          quoted = false;
+        } else {
+          if (ch === '\n') line++;
+          cell += ch;
+        }
+        i++;
+        continue;
+      }
+      if (ch === '"' && cell.trim() === '') {
+        quoted = true;
+        cell = '';
+        i++;
+        continue;
+      }
+      if (ch === delimiter) {
+        cells.push(cell);
+        cell = '';
+        i++;
+        continue;
+      }
+      if (ch === '\n' || (ch === '\r' && body[i + 1] === '\n')) {
+        end = i;
+        next = ch === '\r' ? i + 2 : i + 1;
+        break;
+      }
+      cell += ch;
+      i++;
+    }
+    if (quoted) {
+      throw new GapwiseError('bad-file', 'A quoted cell is never closed; expected a closing double quote.', { file: fileName, row: startLine });
+    }
+    cells.push(cell);
+    const raw = body.slice(start, end === -1 ? body.length : end);
+    i = next;
+    line++;
+    if (raw.trim() === '') continue;
+    records.push({ cells, raw, line: startLine });
+  }
+  const header = records.shift();
+  if (!header) throw new GapwiseError('bad-file', 'The file is empty; expected a header line and at least one row.', { file: fileName });
+  return { delimiter, newline, header, records };
+}

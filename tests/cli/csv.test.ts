@@ -1,0 +1,67 @@
+import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { csvCell, csvLine, formatNumber, readCsvTable } from '../../src/cli/csv.ts';
+import { GapwiseError } from '../../src/core/errors.ts';
+
+describe('readCsvTable', () => {
+  it('readCsvTable keeps each record\'s raw text and its starting line', () => {
+    const text = 'id,x,y\r\n"a, quoted",1,2\r\n\r\n"multi\r\nline",3,4\r\nlast,5,6';
+    const t = readCsvTable(text, 't.csv');
+    expect(t.delimiter).toBe(',');
+    expect(t.newline).toBe('\r\n');
+    expect(t.header.cells).toEqual(['id', 'x', 'y']);
+    expect(t.records.map((r) => r.raw)).toEqual(['"a, quoted",1,2', '"multi\r\nline",3,4', 'last,5,6']);
+    expect(t.records.map((r) => r.line)).toEqual([2, 4, 6]);
+    expect(t.records[0].cells).toEqual(['a, quoted', '1', '2']);
+    expect(t.records[1].cells).toEqual(['multi\r\nline', '3', '4']);
+  });
+
+  it('readCsvTable detects a semicolon delimiter and strips a byte-order mark', () => {
+    const t = readCsvTable('\ufeffname;E;N\nP1;"500,5";10\n', 't.csv');
+    expect(t.delimiter).toBe(';');
+    expect(t.header.cells).toEqual(['name', 'E', 'N']);
+    expect(t.records[0].cells).toEqual(['P1', '500,5', '10']);
+  });
+
+  it('readCsvTable rejects an unclosed quote with its line, and an empty file', () => {
+    try {
+      readCsvTable('a,b\n1,2\n"open,3\n', 'bad.csv');
+      expect.fail('accepted an unclosed quote');
+    } catch (e) {
+      expect((e as GapwiseError).describe()).toBe('bad.csv, line 3: A quoted cell is never closed; expected a closing double quote.');
+    }
+    expect(() => readCsvTable('\n\n', 'e.csv')).toThrow(/empty/);
+  });
+
+  it('readCsvTable reads back what csvLine writes (property)', () => {
+    const cell = fc.string({ unit: fc.constantFrom('a', 'b', ',', '"', '\n', ' ', '1', 'é') });
+    fc.assert(fc.property(fc.array(fc.array(cell, { minLength: 3, maxLength: 3 }), { minLength: 1, maxLength: 5 }), (rows) => {
+      const text = [csvLine(['h1', 'h2', 'h3']), ...rows.map((r) => csvLine(r))].join('\n');
+      const t = readCsvTable(text, 'p.csv');
+      // Rows whose cells are all empty or blank are skipped as blank lines.
+      const kept = rows.filter((r) => csvLine(r).trim() !== '');
+      expect(t.records.map((r) => r.cells)).toEqual(kept);
+      expect(t.records.map((r) => r.raw)).toEqual(kept.map((r) => csvLine(r)));
+    }));
+  });
+});
+
+describe('csvCell', () => {
+  it('csvCell quotes only cells that need it', () => {
+    expect(csvCell('plain')).toBe('plain');
+    expect(csvCell('a,b')).toBe('"a,b"');
+    expect(csvCell('say "hi"')).toBe('"say ""hi"""');
+    expect(csvCell('a;b', ';')).toBe('"a;b"');
+  });
+});
+
+describe('formatNumber', () => {
+  it('formatNumber keeps 12 significant digits and drops float noise', () => {
+    expect(formatNumber(173.40000000000003)).toBe('173.4');
+    expect(formatNumber(5312345.123456789)).toBe('5312345.12346');
+    expect(formatNumber(11.2490007)).toBe('11.2490007');
+    expect(formatNumber(-0.000012345)).toBe('-0.000012345');
+    expect(formatNumber(NaN)).toBe('');
+    expect(formatNumber(0)).toBe('0');
+  });
+});
