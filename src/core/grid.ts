@@ -1,0 +1,234 @@
+/**
+ * Regular north-up grids in the working CRS: the cells every surface is computed on.
+ *
+ * A grid is plain data {x0, y0, cell, nx, ny, mask?}: (x0, y0) is the upper-left corner, cells are
+ * square, column i runs east and row j runs south, so the centre of cell (i, j) is
+ * (x0 + (i + ½)·cell, y0 − (j + ½)·cell) and its index in every surface array is j·nx + i
+ * (row-major from the top row, the order of GeoTIFF and canvas images). `mask[k] = 1` marks cells
+ * inside the area (a boundary); without a mask every cell is in.
+ * Corners snap to whole multiples of the cell size, so grids of one cell size line up.
+ * Boundary cells: a cell is in when its centre lies inside a polygon (even–odd rule per polygon,
+ * holes subtract, polygons add), found by a scan line per row; a centre exactly on an edge counts
+ * as in on right-hand and bottom edges, out on left-hand and top ones. Units: working-CRS metres.
+ * Cost: O(nx·ny) memory for the mask, O(ny·edges + nx·ny) to build it.
+ */
+import { GapwiseError } from './errors.ts';
+
+export interface Grid {
+  /** x of the upper-left corner (west edge), metres. */
+  x0: number;
+  /** y of the upper-left corner (north edge), metres. */
+  y0: number;
+  /** Cell width and height, metres. */
+  cell: number;
+  /** Columns. */
+  nx: number;
+  /** Rows. */
+  ny: number;
+  /** 1 = cell is inside the area; absent = all cells are in. Length nx·ny, row-major from the top. */
+  mask?: Uint8Array;
+}
+
+/** A ring of [x, y] vertices (closing vertex optional); a polygon is [outer, ...holes]. */
+export type Ring = ReadonlyArray<ReadonlyArray<number>>;
+export type Polygon = ReadonlyArray<Ring>;
+
+/** The most cells a grid may have (about 48 MB for mean, sd and P(exceed) as Float32). */
+export const MAX_CELLS = 4_000_000;
+
+function checkCell(cell: number): void {
+  if (typeof cell !== 'number' || !Number.isFinite(cell) || cell <= 0) {
+    throw new GapwiseError('bad-option', `Expected the cell size to be a positive number of metres, got ${String(cell)}.`);
+  }
+}
+
+function checkSize(nx: number, ny: number, cell: number): void {
+  const cells = nx * ny;
+  if (cells > MAX_CELLS) {
+    const suggest = Math.ceil(cell * Math.sqrt(cells / MAX_CELLS));
+    throw new GapwiseError('bad-option',
+      `The grid would have ${cells.toLocaleString('en')} cells (${nx} × ${ny}) at ${cell} m; the most is ${MAX_CELLS.toLocaleString('en')}: choose a cell of at least ${suggest} m.`);
+  }
+}
+
+/**
+ * A grid covering [xmin, xmax] × [ymin, ymax] widened by `pad` metres on every side, with corners
+ * snapped outward to multiples of `cell`. Always at least one cell.
+ */
+export function gridFromExtent(xmin: number, ymin: number, xmax: number, ymax: number, cell: number, pad = 0): Grid {
+  checkCell(cell);
+  for (const [v, name] of [[xmin, 'xmin'], [ymin, 'ymin'], [xmax, 'xmax'], [ymax, 'ymax'], [pad, 'pad']] as const) {
+    if (!Number.isFinite(v)) throw new GapwiseError('bad-option', `Expected ${name} to be a finite number, got ${String(v)}.`);
+  }
+  if (xmax < xmin || ymax < ymin) {
+    throw new GapwiseError('bad-option', `Expected xmin ≤ xmax and ymin ≤ ymax, got x ${xmin}..${xmax}, y ${ymin}..${ymax}.`);
+  }
+  if (pad < 0) throw new GapwiseError('bad-option', `Expected a padding of 0 m or more, got ${pad}.`);
+  const x0 = Math.floor((xmin - pad) / cell) * cell;
+  const y0 = Math.ceil((ymax + pad) / cell) * cell;
+  const nx = Math.max(1, Math.ceil((xmax + pad - x0) / cell - 1e-9));
+  const ny = Math.max(1, Math.ceil((y0 - (ymin - pad)) / cell - 1e-9));
+  checkSize(nx, ny, cell);
+  return { x0, y0, cell, nx, ny };
+}
+
+/**
+ * A grid over the bounding box of the polygons (working-CRS coordinates, GeoJSON-like rings)
+ * whose mask keeps the cells with their centre inside any polygon.
+ */
+export function gridForPolygons(polygons: ReadonlyArray<Polygon>, cell: number): Grid {
+  checkCell(cell);
+  if (!Array.isArray(polygons) || polygons.length === 0) {
+    throw new GapwiseError('bad-geometry', 'Expected at least one boundary polygon, got none.');
+  }
+  let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
+  polygons.forEach((poly, p) => {
+    if (!Array.isArray(poly) || poly.length === 0) throw new GapwiseError('bad-geometry', `Expected polygon ${p} to have an outer ring, got none.`, { row: p });
+    poly.forEach((ring, r) => {
+      if (!Array.isArray(ring) || ring.length < 3) {
+        throw new GapwiseError('bad-geometry', `Expected ring ${r} of polygon ${p} to have at least 3 vertices, got ${Array.isArray(ring) ? ring.length : 0}.`, { row: p });
+      }
+      for (const v of ring) {
+        const x = v[0], y = v[1];
+        if (!Number.isFinite(x) || !Number.isFinite(y)) {
+          throw new GapwiseError('bad-geometry', `Expected finite vertex coordinates in polygon ${p}, got [${String(x)}, ${String(y)}].`, { row: p });
+        }
+        if (r === 0) {
+          if (x < xmin) xmin = x;
+          if (x > xmax) xmax = x;
+          if (y < ymin) ymin = y;
+          if (y > ymax) ymax = y;
+        }
+      }
+    });
+  });
+  const grid = gridFromExtent(xmin, ymin, xmax, ymax, cell, 0);
+  const { nx, ny, x0, y0 } = grid;
+  const mask = new Uint8Array(nx * ny);
+  const crossings: number[] = [];
+  const rowMask = new Uint8Array(nx);
+  for (let j = 0; j < ny; j++) {
+    const yc = y0 - (j + 0.5) * cell;
+    for (const poly of polygons) {
+      crossings.length = 0;
+      for (const ring of poly) {
+        const m = ring.length;
+        for (let k = 0, l = m - 1; k < m; l = k++) {
+          const ya = ring[l][1], yb = ring[k][1];
+          // Half-open rule: an edge counts when yc lies in [min, max) of its ends.
+          if ((ya <= yc) !== (yb <= yc)) {
+            const xa = ring[l][0], xb = ring[k][0];
+            crossings.push(xa + ((yc - ya) / (yb - ya)) * (xb - xa));
+          }
+        }
+      }
+      if (crossings.length < 2) continue;
+      crossings.sort((a, b) => a - b);
+      rowMask.fill(0);
+      for (let c = 0; c + 1 < crossings.length; c += 2) {
+        // Cells whose centre x0 + (i + ½)·cell lies in (left, right]: a centre on a right-hand edge
+        // is in, as in GDAL's rasterizer, so masks agree with GDAL-burnt boundaries.
+        const iFrom = Math.max(0, Math.floor((crossings[c] - x0) / cell - 0.5) + 1);
+        const iTo = Math.min(nx - 1, Math.floor((crossings[c + 1] - x0) / cell - 0.5));
+        for (let i = iFrom; i <= iTo; i++) rowMask[i] = 1;
+      }
+      const row = j * nx;
+      for (let i = 0; i < nx; i++) if (rowMask[i]) mask[row + i] = 1;
+    }
+  }
+  let inside = 0;
+  for (let k = 0; k < mask.length; k++) inside += mask[k];
+  if (inside === 0) {
+    throw new GapwiseError('bad-geometry', `The boundary holds no cell centre at a cell size of ${cell} m; expected at least one: choose a smaller cell.`);
+  }
+  return { ...grid, mask };
+}
+
+/** Number of cells that will be computed: the masked-in cells, or nx·ny without a mask. */
+export function cellCount(grid: Grid): number {
+  if (!grid.mask) return grid.nx * grid.ny;
+  let c = 0;
+  for (let k = 0; k < grid.mask.length; k++) c += grid.mask[k];
+  return c;
+}
+
+/** True when cell k (row-major index) is inside the area. */
+export function isActive(grid: Grid, k: number): boolean {
+  return !grid.mask || grid.mask[k] === 1;
+}
+
+/** Centre [x, y] of cell (column i, row j). */
+export function cellCentre(grid: Grid, i: number, j: number): [number, number] {
+  return [grid.x0 + (i + 0.5) * grid.cell, grid.y0 - (j + 0.5) * grid.cell];
+}
+
+/**
+ * Centres of the active cells in rows [rowStart, rowEnd), in row-major order, with their indices
+ * in the whole grid.
+ */
+export function cellCentres(grid: Grid, rowStart = 0, rowEnd = grid.ny): { x: Float64Array; y: Float64Array; index: Uint32Array } {
+  const { nx, cell, x0, y0, mask } = grid;
+  const a = Math.max(0, rowStart), b = Math.min(grid.ny, rowEnd);
+  let count = 0;
+  if (mask) { for (let k = a * nx; k < b * nx; k++) count += mask[k]; } else count = Math.max(0, b - a) * nx;
+  const x = new Float64Array(count), y = new Float64Array(count), index = new Uint32Array(count);
+  let c = 0;
+  for (let j = a; j < b; j++) {
+    const yc = y0 - (j + 0.5) * cell;
+    for (let i = 0; i < nx; i++) {
+      const k = j * nx + i;
+      if (mask && mask[k] !== 1) continue;
+      x[c] = x0 + (i + 0.5) * cell;
+      y[c] = yc;
+      index[c] = k;
+      c++;
+    }
+  }
+  return { x, y, index };
+}
+
+/**
+ * Fractional grid position of a working-CRS point: fi = (x − x0)/cell, fj = (y0 − y)/cell.
+ * The point is in cell (⌊fi⌋, ⌊fj⌋); cell centres sit at half-integers.
+ */
+export function fractionalIndex(grid: Grid, x: number, y: number): [number, number] {
+  return [(x - grid.x0) / grid.cell, (grid.y0 - y) / grid.cell];
+}
+
+/** Row-major index of the cell holding (x, y), or −1 outside the grid or outside the mask. */
+export function cellIndexAt(grid: Grid, x: number, y: number): number {
+  const i = Math.floor((x - grid.x0) / grid.cell);
+  const j = Math.floor((grid.y0 - y) / grid.cell);
+  if (!(i >= 0 && i < grid.nx && j >= 0 && j < grid.ny)) return -1;
+  const k = j * grid.nx + i;
+  return isActive(grid, k) ? k : -1;
+}
+
+/** The grid's outer edges in working-CRS metres. */
+export function gridBounds(grid: Grid): { xmin: number; ymin: number; xmax: number; ymax: number } {
+  return { xmin: grid.x0, ymin: grid.y0 - grid.ny * grid.cell, xmax: grid.x0 + grid.nx * grid.cell, ymax: grid.y0 };
+}
+
+export interface CostOptions {
+  /** Workers computing row bands in parallel (default 1). */
+  workers?: number;
+  /** Sustained floating-point rate per worker (default 1.2e9: a plain Float64Array Cholesky in Node here). */
+  flopsPerSecond?: number;
+  /** Flops per covariance evaluation: about 25 for closed forms (default), a few hundred for a general-ν Matérn. */
+  covarianceFlops?: number;
+}
+
+/**
+ * Rough cost of a kriging surface with n samples on `cells` cells (exact kriging, one factor per
+ * worker): flops = n³/3 (Cholesky) + cells·(n² (triangular solve for the variance) + n·(covarianceFlops + 4)
+ * (cross-covariances, mean weights)); seconds = (n³/3 + per-cell part / workers) / flopsPerSecond.
+ * An order-of-magnitude guide for the screen ("about 20 s"), not a promise.
+ */
+export function estimateSurfaceCost(n: number, cells: number, options: CostOptions = {}): { flops: number; seconds: number } {
+  const workers = Math.max(1, Math.floor(options.workers ?? 1));
+  const rate = options.flopsPerSecond ?? 1.2e9;
+  const cov = options.covarianceFlops ?? 25;
+  const factor = (n * n * n) / 3;
+  const perCells = cells * (n * n + n * (cov + 4));
+  return { flops: factor * workers + perCells, seconds: (factor + perCells / workers) / rate };
+}
