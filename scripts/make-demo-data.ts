@@ -7,8 +7,9 @@
  * real site. The readings come from a seeded simulation:
  *   ln Pb(s) = μ + hotspots(s) − clean-fill dip(s) + Z(s) + ε,
  * Z a zero-mean Gaussian field with a Matérn ν = 3/2 covariance (sill 0.30, scale 45 m; Rasmussen &
- * Williams 2006, eq. 4.17), simulated by a Cholesky factor of its covariance matrix, and ε independent
- * measurement noise (sd 0.12). Hotspots are Gaussian bumps in log space (an old workshop and a spoil
+ * Williams 2006, eq. 4.17) and ε independent
+ * measurement noise (sd 0.12), both drawn by src/core/simulate.ts (Cholesky factor of the covariance
+ * matrix). Hotspots are Gaussian bumps in log space (an old workshop and a spoil
  * heap); a strip of imported clean topsoil gives a few readings under the 5 mg/kg detection limit,
  * written "<5". One location was sampled twice (a field duplicate with a different reading).
  *
@@ -19,8 +20,7 @@ import { dirname, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import proj4 from 'proj4';
 import { createRandom } from '../src/core/random.ts';
-import { sampleCovarianceMatrix } from '../src/core/covariance.ts';
-import { cholesky } from '../src/core/linalg.ts';
+import { simulateField } from '../src/core/simulate.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
 
 const SEED = 20240711;
@@ -87,21 +87,13 @@ while (local.length < 149) {
 if (local.length > 149) local.length = 149;
 const n = local.length;
 
-// Gaussian field at the sample points (centred local metres).
+// Gaussian field at the sample points: Matérn 3/2 structure plus measurement noise (nugget 0.12²).
 const field: CovarianceModel = {
-  structures: [{ type: 'matern', sill: 0.3, scale: 45, nu: 1.5 }],
+  structures: [{ type: 'nugget', sill: 0.12 * 0.12 }, { type: 'matern', sill: 0.3, scale: 45, nu: 1.5 }],
   trend: 'constant',
   transform: 'none',
 };
-const K = sampleCovarianceMatrix(field, local.map((p) => p[0]), local.map((p) => p[1]));
-const L = cholesky(K, n, { jitter: true }).L;
-const z = Array.from({ length: n }, () => rng.normal());
-const gauss = new Float64Array(n);
-for (let i = 0; i < n; i++) {
-  let s = 0;
-  for (let k = 0; k <= i; k++) s += L[i * n + k] * z[k];
-  gauss[i] = s;
-}
+const gauss = simulateField(field, local.map((p) => p[0]), local.map((p) => p[1]), { seed: SEED + 14, mean: 0 }).values;
 
 function bump(px: number, py: number, bx: number, by: number, width: number): number {
   return Math.exp(-((px - bx) ** 2 + (py - by) ** 2) / (2 * width * width));
@@ -112,11 +104,10 @@ const values: number[] = [];
 for (let i = 0; i < n; i++) {
   const [px, py] = local[i];
   const log = MU
-    + 4.3 * bump(px, py, -110, 60, 30) // old workshop
+    + 4.1 * bump(px, py, -110, 60, 30) // old workshop
     + 1.3 * bump(px, py, 120, -75, 32) // spoil heap
     - 4.3 * bump(px, py, 185, 80, 35) // imported clean topsoil by the north-east gate
-    + gauss[i]
-    + 0.12 * rng.normal();
+    + gauss[i];
   values.push(Math.exp(log));
 }
 
