@@ -27,6 +27,8 @@ export interface IntakeOptions {
   duplicates?: DuplicateRule;
   /** Distance in working-CRS metres under which two locations count as one (default 0.01). */
   duplicateTolerance?: number;
+  /** When true, any rejected row makes the whole read fail with a GapwiseError (default false). */
+  strict?: boolean;
 }
 
 /** One row that was rejected or changed; nothing is dropped without one. */
@@ -67,12 +69,23 @@ export interface ReadReport {
   crs: CrsInfo;
   nonDetects: { count: number; rule: NonDetectRule; note: string };
   duplicates: { groups: number; rule: DuplicateRule; tolerance: number };
+  /** Indices into `rows` / `samples` of values beyond 3 IQR from the quartiles (flagged, kept). */
   outliers: number[];
   entries: ReportEntry[];
   warnings: Warning[];
   /** Suggestion text for a log transform when the data are positive and skewed; '' otherwise. */
   transformAdvice: string;
   summary: { n: number; min: number; max: number; mean: number; median: number; sd: number; skewness: number };
+  /** CSV only: the delimiter used (',', ';' or '\t'). */
+  delimiter?: string;
+  /** CSV only: decimal mark per numeric column read ('.' or ','). */
+  decimalMarks?: Record<string, string>;
+  /** Column holding non-detect qualifiers ('<', 'ND', 'U'), when one was recognised. */
+  qualifierColumn?: string;
+  /** Column holding detection limits, when one was recognised. */
+  detectionLimitColumn?: string;
+  /** Lines (CSV) that held nothing and were skipped. */
+  blankLines?: number[];
 }
 
 /** One accepted sample as read, in the input CRS, with its flags. */

@@ -1,0 +1,388 @@
+/**
+ * Coordinate reference systems: EPSG codes and proj strings, transforms (proj4), the UTM zone of a
+ * place (with the Norway and Svalbard exceptions), and a searchable list of EPSG codes and names.
+ *
+ * Definitions come from the epsg-index package. A few common ones are built in so that the app works
+ * before the full list (about 8 MB) is loaded; under Node (CLI, tests) any code is read on demand from
+ * the package's per-code files; in the browser `loadEpsgIndex()` loads the whole list once.
+ * Datum-shift grid files named in a definition (+nadgrids) cannot be loaded here: a known 7-parameter
+ * shift replaces the grid where there is one, otherwise the shift is dropped, and `notes` say so.
+ */
+import proj4 from 'proj4';
+import { GapwiseError } from '../core/errors.ts';
+
+/** One EPSG entry as the app lists it. */
+export interface CrsListItem {
+  /** 'EPSG:32633'. */
+  code: string;
+  name: string;
+  geographic: boolean;
+  /** Area of use as text (may be long). */
+  area: string;
+}
+
+/** A CRS ready for transforms. */
+export interface ResolvedCrs {
+  /** Canonical key: 'EPSG:NNNN' or the proj string as given (trimmed). */
+  key: string;
+  name: string;
+  /** proj4 definition actually used (grids replaced or removed). */
+  definition: string;
+  geographic: boolean;
+  /** Area of use [north, west, south, east] in degrees, when known. */
+  bbox: [number, number, number, number] | null;
+  /** Metres per coordinate unit (NaN for degrees). */
+  metresPerUnit: number;
+  /** Unit name: 'metre', 'US survey foot', 'degree', ... */
+  unitName: string;
+  /** True for +proj=utm definitions. */
+  utm: boolean;
+  /** Things a user should know about the definition (e.g. a datum grid that was replaced). */
+  notes: string[];
+}
+
+interface EpsgRecord {
+  code: string;
+  kind: string;
+  name: string;
+  proj4: string | null;
+  bbox: [number, number, number, number] | null;
+  unit?: string;
+  area?: string;
+}
+
+/** Entries known without loading anything (proj4 strings as in epsg-index 2.0.0). */
+const BUILT_IN: EpsgRecord[] = [
+  { code: '4326', kind: 'CRS-GEOGCRS', name: 'WGS 84', proj4: '+proj=longlat +datum=WGS84 +no_defs +type=crs', bbox: [90, -180, -90, 180], area: 'World.' },
+  { code: '4258', kind: 'CRS-GEOGCRS', name: 'ETRS89', proj4: '+proj=longlat +ellps=GRS80 +no_defs +type=crs', bbox: [84.73, -16.1, 32.88, 40.18], area: 'Europe.' },
+  { code: '4269', kind: 'CRS-GEOGCRS', name: 'NAD83', proj4: '+proj=longlat +datum=NAD83 +no_defs +type=crs', bbox: [86.46, 167.65, 14.92, -40.73], area: 'North America.' },
+  { code: '4167', kind: 'CRS-GEOGCRS', name: 'NZGD2000', proj4: '+proj=longlat +ellps=GRS80 +no_defs +type=crs', bbox: [-25.88, 160.6, -55.95, -171.2], area: 'New Zealand.' },
+  { code: '3857', kind: 'CRS-PROJCRS', name: 'WGS 84 / Pseudo-Mercator', proj4: '+proj=merc +a=6378137 +b=6378137 +lat_ts=0 +lon_0=0 +x_0=0 +y_0=0 +k=1 +units=m +nadgrids=@null +wktext +no_defs +type=crs', bbox: [85.06, -180, -85.06, 180], area: 'World between 85.06°S and 85.06°N.' },
+  { code: '27700', kind: 'CRS-PROJCRS', name: 'OSGB36 / British National Grid', proj4: '+proj=tmerc +lat_0=49 +lon_0=-2 +k=0.9996012717 +x_0=400000 +y_0=-100000 +ellps=airy +nadgrids=OSTN15_NTv2_OSGBtoETRS.gsb +units=m +no_defs +type=crs', bbox: [61.01, -9, 49.75, 2.01], area: 'United Kingdom (UK).' },
+  { code: '2193', kind: 'CRS-PROJCRS', name: 'NZGD2000 / New Zealand Transverse Mercator 2000', proj4: '+proj=tmerc +lat_0=0 +lon_0=173 +k=0.9996 +x_0=1600000 +y_0=10000000 +ellps=GRS80 +towgs84=0,0,0,0,0,0,0 +units=m +no_defs +type=crs', bbox: [-34.1, 166.37, -47.33, 178.63], area: 'New Zealand - onshore.' },
+  { code: '3035', kind: 'CRS-PROJCRS', name: 'ETRS89-extended / LAEA Europe', proj4: '+proj=laea +lat_0=52 +lon_0=10 +x_0=4321000 +y_0=3210000 +ellps=GRS80 +towgs84=0,0,0,0,0,0,0 +units=m +no_defs +type=crs', bbox: [84.73, -35.58, 24.6, 44.83], area: 'Europe.' },
+];
+for (let z = 1; z <= 60; z++) {
+  const west = -180 + (z - 1) * 6;
+  BUILT_IN.push(
+    { code: String(32600 + z), kind: 'CRS-PROJCRS', name: `WGS 84 / UTM zone ${z}N`, proj4: `+proj=utm +zone=${z} +datum=WGS84 +units=m +no_defs +type=crs`, bbox: [84, west, 0, west + 6], area: `Between ${west}° and ${west + 6}° longitude, northern hemisphere.` },
+    { code: String(32700 + z), kind: 'CRS-PROJCRS', name: `WGS 84 / UTM zone ${z}S`, proj4: `+proj=utm +zone=${z} +south +datum=WGS84 +units=m +no_defs +type=crs`, bbox: [0, west, -80, west + 6], area: `Between ${west}° and ${west + 6}° longitude, southern hemisphere.` },
+  );
+}
+
+/**
+ * Known replacements for datum grids that cannot be loaded: the OSGB36 7-parameter Helmert shift
+ * (EPSG transformation 1314, quoted to a few metres; parameters from memory, common in proj4 lists).
+ */
+const GRID_REPLACEMENTS: Record<string, string> = {
+  'OSTN15_NTv2_OSGBtoETRS.gsb': '+towgs84=446.448,-125.157,542.06,0.15,0.247,0.842,-20.489',
+};
+
+const registry = new Map<string, EpsgRecord>();
+for (const r of BUILT_IN) registry.set(r.code, r);
+let fullIndexLoaded = false;
+
+// Under Node a synchronous require reads single entries from the package on demand. The module name is
+// held in a variable so that bundlers for the browser leave it alone; in a browser this stays null.
+let nodeRequire: ((id: string) => unknown) | null = null;
+if (typeof process !== 'undefined' && typeof process.versions === 'object' && process.versions?.node) {
+  try {
+    const moduleName = 'node:module';
+    const mod = (await import(/* @vite-ignore */ moduleName)) as { createRequire: (url: string) => (id: string) => unknown };
+    nodeRequire = mod.createRequire(import.meta.url);
+  } catch {
+    nodeRequire = null;
+  }
+}
+
+function record(code: string): EpsgRecord | undefined {
+  const hit = registry.get(code);
+  if (hit || fullIndexLoaded || !nodeRequire) return hit;
+  try {
+    const r = nodeRequire(`epsg-index/s/${code}.json`) as EpsgRecord;
+    registry.set(code, r);
+    return r;
+  } catch {
+    return undefined;
+  }
+}
+
+function addAll(all: Record<string, EpsgRecord>): number {
+  for (const [code, r] of Object.entries(all)) registry.set(code, r);
+  fullIndexLoaded = true;
+  return registry.size;
+}
+
+/**
+ * Loads the whole EPSG list (about 8 MB) once: under Node from the package files, in the browser as a
+ * separate chunk. Needed before `searchCrs` sees more than the built-in entries in the browser, and
+ * before a browser session resolves a code outside the built-in ones. Resolves to the entry count.
+ */
+export async function loadEpsgIndex(): Promise<number> {
+  if (fullIndexLoaded) return registry.size;
+  if (nodeRequire) return addAll(nodeRequire('epsg-index/all.json') as Record<string, EpsgRecord>);
+  const mod = (await import('epsg-index/all.json')) as unknown as { default: Record<string, EpsgRecord> };
+  return addAll(mod.default);
+}
+
+/** True once the full list is in memory (always true after `loadEpsgIndex`). */
+export function epsgIndexLoaded(): boolean {
+  return fullIndexLoaded;
+}
+
+function kindOf(r: EpsgRecord): 'geographic' | 'projected' | 'other' {
+  if (r.kind === 'CRS-GEOGCRS') return 'geographic';
+  if (r.kind === 'CRS-PROJCRS') return 'projected';
+  return 'other';
+}
+
+/** Names listed first among equal matches: the systems most field data come in. */
+const COMMON = /^(WGS 84|ETRS89|NAD83|GDA2020|GDA94|NZGD2000|SIRGAS 2000)\b/;
+
+/**
+ * Searches EPSG codes and names: every word of `query` must appear in "EPSG:code name". An exact code
+ * comes first, then codes starting with the query, then names starting with it, then the rest by code.
+ * Only horizontal CRSs that proj4 can use are listed.
+ */
+export function searchCrs(query: string, limit = 20): CrsListItem[] {
+  if (!fullIndexLoaded && nodeRequire) loadEpsgIndexSync();
+  const q = query.trim().toLowerCase().replace(/^epsg:\s*/, '');
+  const words = q.split(/\s+/).filter(Boolean);
+  const hits: Array<{ r: EpsgRecord; rank: number }> = [];
+  for (const r of registry.values()) {
+    if (!r.proj4 || kindOf(r) === 'other') continue;
+    const hay = `epsg:${r.code} ${r.name}`.toLowerCase();
+    if (!words.every((w) => hay.includes(w))) continue;
+    const name = r.name.toLowerCase();
+    const rank = r.code === q ? 0 : r.code.startsWith(q) && q !== '' ? 1 : name.startsWith(q) && q !== '' ? 2 : COMMON.test(r.name) ? 3 : 4;
+    hits.push({ r, rank });
+  }
+  hits.sort((a, b) => a.rank - b.rank || Number(a.r.code) - Number(b.r.code));
+  return hits.slice(0, Math.max(0, limit)).map(({ r }) => ({
+    code: `EPSG:${r.code}`,
+    name: r.name,
+    geographic: kindOf(r) === 'geographic',
+    area: r.area ?? '',
+  }));
+}
+
+function loadEpsgIndexSync(): number {
+  if (fullIndexLoaded || !nodeRequire) return registry.size;
+  return addAll(nodeRequire('epsg-index/all.json') as Record<string, EpsgRecord>);
+}
+
+const UNITS: Record<string, [number, string]> = {
+  m: [1, 'metre'],
+  km: [1000, 'kilometre'],
+  'us-ft': [1200 / 3937, 'US survey foot'],
+  ft: [0.3048, 'foot'],
+  link: [0.201168, 'link'],
+  'ind-yd': [0.91439523, 'Indian yard'],
+  ch: [20.1168, 'chain'],
+};
+
+const resolved = new Map<string, ResolvedCrs>();
+
+/**
+ * Planar coordinates with no georeference (columns named x/y and no CRS given): distances are taken
+ * in the file's units, assumed metres. Transforms exist only to itself.
+ */
+export const LOCAL_CRS = 'local';
+const LOCAL: ResolvedCrs = {
+  key: LOCAL_CRS,
+  name: 'local planar coordinates (no CRS given)',
+  definition: LOCAL_CRS,
+  geographic: false,
+  bbox: null,
+  metresPerUnit: 1,
+  unitName: 'metre (assumed)',
+  utm: false,
+  notes: [],
+};
+
+/** Parses 'EPSG:NNNN' (also 'epsg:nnnn', 'urn:ogc:def:crs:EPSG::NNNN', 'CRS84') or returns null. */
+export function epsgCode(crs: string): string | null {
+  const s = crs.trim();
+  if (/^(urn:ogc:def:crs:OGC:1\.3:)?CRS84$/i.test(s)) return '4326';
+  const m = /^(?:EPSG:{1,2}|urn:ogc:def:crs:EPSG:[\d.]*:)(\d{1,6})$/i.exec(s);
+  return m ? String(Number(m[1])) : null;
+}
+
+function badCrs(message: string, raw: string): GapwiseError {
+  return new GapwiseError('bad-crs', message, { raw });
+}
+
+/**
+ * Resolves an EPSG code or proj string to a definition proj4 can use. Throws GapwiseError 'bad-crs'
+ * for unknown codes, vertical or compound systems, and strings proj4 cannot read.
+ */
+export function resolveCrs(crs: string): ResolvedCrs {
+  const key0 = crs.trim();
+  if (key0.toLowerCase() === LOCAL_CRS) return LOCAL;
+  const cached = resolved.get(key0);
+  if (cached) return cached;
+  if (key0 === '') throw badCrs('The coordinate reference system is empty; expected EPSG:NNNN or a proj string.', crs);
+  const code = epsgCode(key0);
+  let name: string;
+  let definition: string;
+  let bbox: ResolvedCrs['bbox'] = null;
+  let key: string;
+  if (code !== null) {
+    const r = record(code);
+    key = `EPSG:${code}`;
+    if (!r) {
+      const hint = !nodeRequire && !fullIndexLoaded ? ' (the full EPSG list is not loaded yet)' : '';
+      throw badCrs(`EPSG:${code} is not a known coordinate reference system${hint}; expected a code from the EPSG list or a proj string.`, crs);
+    }
+    if (!r.proj4 || kindOf(r) === 'other') {
+      throw badCrs(`EPSG:${code} (${r.name}) is not a horizontal coordinate system proj4 can use; expected a geographic or projected CRS.`, crs);
+    }
+    name = r.name;
+    definition = r.proj4;
+    bbox = r.bbox ?? null;
+  } else if (/^\+?proj=/.test(key0) || /^(PROJCS|GEOGCS|PROJCRS|GEOGCRS)\[/i.test(key0)) {
+    key = key0;
+    name = key0.startsWith('+') || key0.startsWith('proj') ? 'custom proj string' : 'custom WKT';
+    definition = key0.startsWith('proj=') ? `+${key0}` : key0;
+  } else {
+    throw badCrs(`"${key0.slice(0, 80)}" is not a coordinate reference system; expected EPSG:NNNN or a proj string such as +proj=utm +zone=33 +datum=WGS84.`, crs);
+  }
+  const notes: string[] = [];
+  if (definition.startsWith('+')) {
+    definition = definition.replace(/\+nadgrids=("[^"]*"|\S+)/g, (all, grid: string) => {
+      if (grid === '@null') return all;
+      const g = grid.replace(/^"|"$/g, '');
+      const replacement = GRID_REPLACEMENTS[g];
+      if (replacement) {
+        notes.push(`The datum-shift grid ${g} is not available here; a 7-parameter shift is used instead (accurate to a few metres).`);
+        return replacement;
+      }
+      notes.push(`The datum-shift grid ${g} is not available here; the datum shift is left out (positions may be off by metres to hundreds of metres).`);
+      return '';
+    });
+    definition = definition.replace(/\s+/g, ' ').trim();
+  }
+  let proj: { projName?: string; units?: string; to_meter?: number };
+  try {
+    proj = new proj4.Proj(definition) as unknown as typeof proj;
+  } catch (e) {
+    const why = e instanceof Error && e.message ? `: ${e.message}` : '';
+    throw badCrs(`proj4 cannot read the CRS "${key0.slice(0, 80)}"${why}; expected EPSG:NNNN or a proj string.`, crs);
+  }
+  if (!proj || !proj.projName) throw badCrs(`proj4 cannot read the CRS "${key0.slice(0, 80)}"; expected EPSG:NNNN or a proj string.`, crs);
+  const geographic = /^(longlat|latlong|lonlat|latlon|identity)$/.test(proj.projName);
+  let metresPerUnit = NaN;
+  let unitName = 'degree';
+  if (!geographic) {
+    const toMeter = /\+to_meter=([\d.eE+-]+)/.exec(definition);
+    const units = /\+units=(\S+)/.exec(definition);
+    if (toMeter) {
+      metresPerUnit = Number(toMeter[1]);
+      unitName = `${metresPerUnit} m`;
+    } else if (units && UNITS[units[1]]) {
+      [metresPerUnit, unitName] = UNITS[units[1]];
+    } else {
+      metresPerUnit = 1;
+      unitName = 'metre';
+    }
+  }
+  const out: ResolvedCrs = { key, name, definition, geographic, bbox, metresPerUnit, unitName, utm: proj.projName === 'utm', notes };
+  resolved.set(key0, out);
+  return out;
+}
+
+/** True when the CRS has longitude/latitude coordinates in degrees. Throws 'bad-crs' if unknown. */
+export function isGeographic(crs: string): boolean {
+  return resolveCrs(crs).geographic;
+}
+
+/** A reusable transform between two CRSs; coordinates are (x, y) = (easting, northing) or (lon, lat). */
+export interface Transform {
+  forward(x: number, y: number): [number, number];
+  inverse(x: number, y: number): [number, number];
+  /** Transforms arrays in place-free batches (new arrays returned). */
+  forwardMany(x: ArrayLike<number>, y: ArrayLike<number>): { x: Float64Array; y: Float64Array };
+  inverseMany(x: ArrayLike<number>, y: ArrayLike<number>): { x: Float64Array; y: Float64Array };
+}
+
+/**
+ * Creates a transform from `fromCrs` to `toCrs` (EPSG codes or proj strings). Points proj4 cannot
+ * transform come back as NaN. Throws GapwiseError 'bad-crs' when either CRS is unknown.
+ */
+export function createTransform(fromCrs: string, toCrs: string): Transform {
+  const a = resolveCrs(fromCrs);
+  const b = resolveCrs(toCrs);
+  if (a.definition === b.definition) {
+    const same = (x: number, y: number): [number, number] => [x, y];
+    const copy = (x: ArrayLike<number>, y: ArrayLike<number>) => ({ x: Float64Array.from(x), y: Float64Array.from(y) });
+    return { forward: same, inverse: same, forwardMany: copy, inverseMany: copy };
+  }
+  if (a === LOCAL || b === LOCAL) {
+    throw badCrs(`Local planar coordinates have no georeference, so they cannot be transformed to or from ${a === LOCAL ? b.key : a.key}; give the samples' CRS (e.g. EPSG:32633).`, `${fromCrs} -> ${toCrs}`);
+  }
+  let conv: ReturnType<typeof proj4>;
+  try {
+    conv = proj4(a.definition, b.definition) as unknown as ReturnType<typeof proj4>;
+  } catch (e) {
+    throw badCrs(`proj4 cannot transform from ${a.key} to ${b.key}: ${(e as Error).message}.`, `${fromCrs} -> ${toCrs}`);
+  }
+  const c = conv as unknown as { forward(p: number[]): number[]; inverse(p: number[]): number[] };
+  const run = (f: (p: number[]) => number[], x: number, y: number): [number, number] => {
+    if (!Number.isFinite(x) || !Number.isFinite(y)) return [NaN, NaN];
+    try {
+      const p = f([x, y]);
+      const px = p[0];
+      const py = p[1];
+      return Number.isFinite(px) && Number.isFinite(py) ? [px, py] : [NaN, NaN];
+    } catch {
+      return [NaN, NaN];
+    }
+  };
+  const fwd = (x: number, y: number) => run(c.forward, x, y);
+  const inv = (x: number, y: number) => run(c.inverse, x, y);
+  const many = (f: (x: number, y: number) => [number, number]) => (x: ArrayLike<number>, y: ArrayLike<number>) => {
+    const n = x.length;
+    const ox = new Float64Array(n);
+    const oy = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const p = f(x[i], y[i]);
+      ox[i] = p[0];
+      oy[i] = p[1];
+    }
+    return { x: ox, y: oy };
+  };
+  return { forward: fwd, inverse: inv, forwardMany: many(fwd), inverseMany: many(inv) };
+}
+
+/** The WGS 84 UTM zone of a place. */
+export interface UtmZone {
+  zone: number;
+  south: boolean;
+  /** 'EPSG:326zz' (north) or 'EPSG:327zz' (south). */
+  code: string;
+}
+
+/**
+ * WGS 84 UTM zone for a longitude/latitude in degrees: 6° zones from 180° W, with the exceptions of
+ * the UTM grid: zone 32 widened over south-west Norway (56–64° N, 3–12° E) and zones 31, 33, 35, 37
+ * over Svalbard (72–84° N). Throws GapwiseError 'bad-value' for impossible coordinates.
+ */
+export function utmZoneFor(lon: number, lat: number): UtmZone {
+  if (!Number.isFinite(lon) || !Number.isFinite(lat) || lat < -90 || lat > 90 || lon < -180 || lon > 360) {
+    throw new GapwiseError('bad-value', `Longitude ${lon}, latitude ${lat} is not a place on Earth; expected −180…180 and −90…90.`);
+  }
+  let L = lon;
+  if (L >= 180) L -= 360;
+  let zone = Math.floor((L + 180) / 6) + 1;
+  if (zone > 60) zone = 60;
+  if (zone < 1) zone = 1;
+  if (lat >= 56 && lat < 64 && L >= 3 && L < 12) zone = 32;
+  if (lat >= 72 && lat < 84) {
+    if (L >= 0 && L < 9) zone = 31;
+    else if (L >= 9 && L < 21) zone = 33;
+    else if (L >= 21 && L < 33) zone = 35;
+    else if (L >= 33 && L < 42) zone = 37;
+  }
+  const south = lat < 0;
+  return { zone, south, code: `EPSG:${(south ? 32700 : 32600) + zone}` };
+}

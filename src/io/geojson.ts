@@ -1,0 +1,146 @@
+/**
+ * GeoJSON (RFC 7946) sample files: a FeatureCollection of Point or MultiPoint features whose
+ * properties are the columns. Coordinates are WGS 84 longitude, latitude. Each feature is checked with
+ * geojson-validation; a feature that fails is rejected with its index and the reason, not the file.
+ */
+import * as gjv from 'geojson-validation';
+import { GapwiseError } from '../core/errors.ts';
+import type { ReportEntry } from './types.ts';
+
+/** One sample point from a feature (a MultiPoint gives one per position). */
+export interface PointRecord {
+  /** 0-based feature index. */
+  feature: number;
+  lon: number;
+  lat: number;
+  /** Properties as plain text ('' for null or absent). */
+  cells: Record<string, string>;
+}
+
+export interface PointFeatures {
+  columns: string[];
+  records: PointRecord[];
+  entries: ReportEntry[];
+  featureCount: number;
+  /** A legacy "crs" member's name (not RFC 7946), when present. */
+  legacyCrs?: string;
+}
+
+/** JSON.parse with a GapwiseError naming the line of a syntax error. */
+export function parseJson(text: string, fileName: string): unknown {
+  let t = text;
+  if (t.charCodeAt(0) === 0xfeff) t = t.slice(1);
+  if (t.trim() === '') throw new GapwiseError('bad-file', 'The file is empty; expected GeoJSON.', { file: fileName });
+  try {
+    return JSON.parse(t);
+  } catch (e) {
+    const msg = e instanceof Error ? e.message : String(e);
+    const pos = /position (\d+)/.exec(msg);
+    const row = pos ? t.slice(0, Number(pos[1])).split('\n').length : undefined;
+    throw new GapwiseError('bad-file', `The file is not valid JSON (${msg.replace(/^JSON\.parse: /, '')}); expected GeoJSON.`, { file: fileName, row });
+  }
+}
+
+/** Property value as display text; objects become their JSON text. */
+export function propertyText(v: unknown): string {
+  if (v === null || v === undefined) return '';
+  if (typeof v === 'string') return v;
+  if (typeof v === 'number' || typeof v === 'boolean') return String(v);
+  try {
+    return JSON.stringify(v);
+  } catch {
+    return String(v);
+  }
+}
+
+function isObject(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}
+
+/** The first validation message geojson-validation gives for a value, or ''. */
+export function validationProblem(value: unknown, check: (v: unknown, trace: true) => string[]): string {
+  let r: unknown;
+  try {
+    r = check(value, true);
+  } catch (e) {
+    return e instanceof Error ? e.message : String(e);
+  }
+  if (Array.isArray(r)) return r.length ? String(r[0]) : '';
+  return r === false ? 'is not valid GeoJSON' : '';
+}
+
+function typeName(v: unknown): string {
+  if (Array.isArray(v)) return 'an array';
+  if (isObject(v)) return typeof v.type === 'string' ? `a ${v.type.slice(0, 40)}` : 'an object without "type"';
+  return `a ${typeof v}`;
+}
+
+/**
+ * Reads the point features of a FeatureCollection. Throws GapwiseError 'bad-file' when the text is
+ * not JSON or not a FeatureCollection; rejects (with an entry) features without a Point/MultiPoint
+ * geometry or with invalid coordinates.
+ */
+export function readPointFeatures(text: string, fileName: string): PointFeatures {
+  const obj = parseJson(text, fileName);
+  if (!isObject(obj) || obj.type !== 'FeatureCollection') {
+    throw new GapwiseError('bad-file', `The GeoJSON is ${typeName(obj)}; expected a FeatureCollection of Point or MultiPoint features.`, { file: fileName });
+  }
+  if (!Array.isArray(obj.features)) {
+    throw new GapwiseError('bad-file', 'The FeatureCollection has no "features" array; expected a list of Point or MultiPoint features.', { file: fileName });
+  }
+  let legacyCrs: string | undefined;
+  if (isObject(obj.crs) && isObject(obj.crs.properties) && typeof obj.crs.properties.name === 'string') {
+    legacyCrs = obj.crs.properties.name;
+  }
+  const columns: string[] = [];
+  const seen = new Set<string>();
+  const records: PointRecord[] = [];
+  const entries: ReportEntry[] = [];
+  const features = obj.features as unknown[];
+  for (let i = 0; i < features.length; i++) {
+    const f = features[i];
+    const reject = (reason: string, field?: string, raw?: string) =>
+      entries.push({ feature: i, field, raw, action: 'rejected', reason });
+    if (!isObject(f) || f.type !== 'Feature') {
+      reject(`is ${typeName(f)}, not a Feature`);
+      continue;
+    }
+    const g = f.geometry;
+    if (!isObject(g)) {
+      reject('has no geometry', 'geometry');
+      continue;
+    }
+    if (g.type !== 'Point' && g.type !== 'MultiPoint') {
+      reject(`has a ${String(g.type).slice(0, 40)} geometry; expected Point or MultiPoint`, 'geometry', String(g.type).slice(0, 40));
+      continue;
+    }
+    const problem = validationProblem(g, g.type === 'Point' ? gjv.isPoint : gjv.isMultiPoint);
+    const positions: unknown[] = g.type === 'Point' ? [g.coordinates] : Array.isArray(g.coordinates) ? g.coordinates : [];
+    const good = positions.every((p) => Array.isArray(p) && p.length >= 2 && typeof p[0] === 'number' && typeof p[1] === 'number' && Number.isFinite(p[0]) && Number.isFinite(p[1]));
+    if (problem || !good || positions.length === 0) {
+      reject(`has invalid coordinates${problem ? ` (${problem})` : ''}; expected [longitude, latitude] numbers`, 'geometry', propertyText(g.coordinates).slice(0, 200));
+      continue;
+    }
+    const props = isObject(f.properties) ? f.properties : {};
+    const cells: Record<string, string> = {};
+    for (const [k, v] of Object.entries(props)) {
+      if (!seen.has(k)) {
+        seen.add(k);
+        columns.push(k);
+      }
+      cells[k] = propertyText(v);
+    }
+    if (f.id !== undefined && !('id' in cells)) {
+      cells.id = propertyText(f.id);
+      if (!seen.has('id')) {
+        seen.add('id');
+        columns.unshift('id');
+      }
+    }
+    for (const p of positions as number[][]) records.push({ feature: i, lon: p[0], lat: p[1], cells });
+    if (positions.length > 1) {
+      entries.push({ feature: i, field: 'geometry', action: 'changed', reason: `MultiPoint with ${positions.length} positions read as ${positions.length} samples with the same properties` });
+    }
+  }
+  return { columns, records, entries, featureCount: features.length, legacyCrs };
+}

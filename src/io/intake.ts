@@ -1,0 +1,720 @@
+/**
+ * Sample intake: CSV or GeoJSON text to samples in a metric working CRS, with a read report that
+ * accounts for every row (rejected, changed, merged or flagged, with its line or feature index, field,
+ * raw text and reason). Shared by the app and the CLI; everything returned is plain data.
+ */
+import { GapwiseError } from '../core/errors.ts';
+import type { Warning } from '../core/errors.ts';
+import { makeSamples } from '../core/samples.ts';
+import { readCsv } from './csv.ts';
+import { readPointFeatures } from './geojson.ts';
+import { LOCAL_CRS, createTransform, resolveCrs, utmZoneFor } from './crs.ts';
+import type { ResolvedCrs } from './crs.ts';
+import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
+import type { ColumnMarks } from './numbers.ts';
+import { duplicateGroups, outlierIndices, summarise, transformAdvice } from './quality.ts';
+import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry, SampleRow } from './types.ts';
+
+/** The note every report carries on non-detect substitution. */
+export const NON_DETECT_NOTE =
+  'Replacing non-detects by a fraction of the detection limit is common practice but biases the mean, the variance and the variogram (Helsel 2006, Chemosphere 65:2434); treat results near the detection limit with care.';
+
+const RULE_TEXT: Record<NonDetectRule, string> = { half: 'DL/2', dl: 'DL', sqrt2: 'DL/√2' };
+const RULE_FACTOR: Record<NonDetectRule, number> = { half: 0.5, dl: 1, sqrt2: Math.SQRT1_2 };
+
+/** Qualifier values that mean "not detected" (compared trimmed, case-insensitively). */
+const ND_CODES = new Set(['<', 'nd', 'n.d.', 'u', 'uj', 'bdl', '<dl', '<lod', '<loq', '<mdl', '<rl', 'lt', 'non-detect', 'nondetect', 'not detected', 'below detection limit']);
+/** Qualifier values that mean "detected". */
+const DETECT_CODES = new Set(['', '=', 'd', 'det', 'detected', 'j', '>']);
+const YES = new Set(['y', 'yes', 'true', '1']);
+const NO = new Set(['n', 'no', 'false', '0']);
+
+/**
+ * Whether a qualifier cell says "not detected": codes like '<', 'ND', 'U' anywhere; yes/no answers
+ * by the column's name ("non_detect" = yes means not detected, "detected" = no means not detected).
+ * Returns null for a value it does not know.
+ */
+function qualifierSaysNd(normalisedName: string, cell: string): boolean | null {
+  const v = cell.trim().toLowerCase();
+  if (ND_CODES.has(v)) return true;
+  if (DETECT_CODES.has(v)) return false;
+  if (YES.has(v) || NO.has(v)) {
+    const negative = /(non|not|^nd$|_nd$|^nd_|censor|below|^lt$)/.test(normalisedName);
+    return negative ? YES.has(v) : NO.has(v);
+  }
+  return null;
+}
+/** Value cells that say "not detected" without a number. */
+const ND_WORDS = new Set(['nd', 'n.d.', 'bdl', '<dl', '<lod', '<loq', '<mdl', 'non-detect', 'not detected', 'below detection limit']);
+
+const LON = /^(lon|long|lng|longitude|lon_deg|long_deg|lng_deg|longitude_deg|lon_dd|longitude_dd|lon_wgs84|longitude_wgs84|lon_e)$/;
+const LAT = /^(lat|latitude|lat_deg|latitude_deg|lat_dd|latitude_dd|lat_wgs84|latitude_wgs84|lat_n)$/;
+const PLANAR_X = /^(x|easting|east|e|x_coord|xcoord|coord_x|x_m|utm_x|utm_e|utm_easting|x_utm|easting_m)$/;
+const PLANAR_Y = /^(y|northing|north|n|y_coord|ycoord|coord_y|y_m|utm_y|utm_n|utm_northing|y_utm|northing_m)$/;
+const ID = /^(id|sample|samples|sample_id|sampleid|sample_no|sample_number|sample_name|sample_code|name|site|site_id|station|station_id|point|point_id|label|code|fid|location_id|loc_id|well|well_id|borehole|plot|plot_id)$/;
+const QUALIFIER = /(qualif|flag|detect|censor|^nd$|^q$|_q$|^lt$|remark)/;
+const DL_COLUMN = /^(dl|lod|loq|mdl|rl|detection_limit|detection_limits|det_limit|reporting_limit|limit_of_detection)$|_dl$|^dl_/;
+
+/** Lowercase, unit removed, spaces and dashes as underscores: 'Sample ID' → 'sample_id'. */
+export function normaliseName(name: string): string {
+  return splitUnit(name).base.toLowerCase().trim().replace(/[\s\-.]+/g, '_');
+}
+
+/** 'Pb (mg/kg)' → { base: 'Pb', unit: 'mg/kg' }; also square brackets. */
+export function splitUnit(header: string): { base: string; unit: string } {
+  const m = /^(.*?)\s*[([]\s*([^)\]]*?)\s*[)\]]\s*$/.exec(header);
+  if (m && m[1].trim() !== '' && m[2] !== '') return { base: m[1].trim(), unit: m[2] };
+  return { base: header.trim(), unit: '' };
+}
+
+interface Row {
+  line?: number;
+  feature?: number;
+  cells: string[];
+  lon?: number;
+  lat?: number;
+}
+
+interface Table {
+  format: 'csv' | 'geojson';
+  columns: string[];
+  rows: Row[];
+  delimiter: string;
+  entries: ReportEntry[];
+  warnings: Warning[];
+  blankLines?: number[];
+  legacyCrs?: string;
+}
+
+function place(r: { line?: number; feature?: number }): { line?: number; feature?: number } {
+  return r.line !== undefined ? { line: r.line } : { feature: r.feature };
+}
+
+function where(r: { line?: number; feature?: number }): string {
+  return r.line !== undefined ? `line ${r.line}` : `feature ${r.feature}`;
+}
+
+/** "lines 3, 7, 9" with at most `max` listed. */
+function listPlaces(rs: Array<{ line?: number; feature?: number }>, max = 12): string {
+  if (rs.length === 0) return '';
+  const kind = rs[0].line !== undefined ? 'line' : 'feature';
+  const nums = rs.slice(0, max).map((r) => (r.line ?? r.feature) as number);
+  const more = rs.length > max ? ` and ${rs.length - max} more` : '';
+  return `${kind}${rs.length > 1 ? 's' : ''} ${nums.join(', ')}${more}`;
+}
+
+function checkOptions(o: IntakeOptions): void {
+  if (!o || typeof o !== 'object') throw new GapwiseError('bad-option', 'The intake options are missing; expected an object with at least fileName.');
+  if (typeof o.fileName !== 'string') throw new GapwiseError('bad-option', `fileName is ${typeof o.fileName}; expected a string.`);
+  if (o.format !== undefined && o.format !== 'csv' && o.format !== 'geojson') {
+    throw new GapwiseError('bad-option', `format is "${String(o.format)}"; expected "csv" or "geojson".`, { file: o.fileName });
+  }
+  if (o.nonDetect !== undefined && !(o.nonDetect in RULE_FACTOR)) {
+    throw new GapwiseError('bad-option', `nonDetect is "${String(o.nonDetect)}"; expected "half", "dl" or "sqrt2".`, { file: o.fileName });
+  }
+  if (o.duplicates !== undefined && o.duplicates !== 'merge' && o.duplicates !== 'keep') {
+    throw new GapwiseError('bad-option', `duplicates is "${String(o.duplicates)}"; expected "merge" or "keep".`, { file: o.fileName });
+  }
+  if (o.duplicateTolerance !== undefined && !(Number.isFinite(o.duplicateTolerance) && o.duplicateTolerance >= 0)) {
+    throw new GapwiseError('bad-option', `duplicateTolerance is ${String(o.duplicateTolerance)}; expected a distance ≥ 0 in metres.`, { file: o.fileName });
+  }
+}
+
+function detectFormat(text: string, o: IntakeOptions): 'csv' | 'geojson' {
+  if (o.format) return o.format;
+  if (/\.(geo)?json$/i.test(o.fileName)) return 'geojson';
+  if (/\.(csv|tsv|txt)$/i.test(o.fileName)) return 'csv';
+  return /^\ufeff?\s*\{/.test(text) ? 'geojson' : 'csv';
+}
+
+function csvTable(text: string, fileName: string): Table {
+  const t = readCsv(text, fileName);
+  const width = t.header.length;
+  const rows: Row[] = [];
+  const entries: ReportEntry[] = [];
+  const warnings: Warning[] = [];
+  for (const r of t.rows) {
+    let cells = r.cells;
+    if (cells.length > width) {
+      const extra = cells.slice(width);
+      if (extra.every((c) => c.trim() === '')) cells = cells.slice(0, width);
+      else {
+        entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} fields but the header has ${width}; a value may hold an unquoted ${t.delimiter === '\t' ? 'tab' : `"${t.delimiter}"`}` });
+        continue;
+      }
+    }
+    if (cells.length < width) {
+      entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} field${cells.length === 1 ? '' : 's'} but the header has ${width}` });
+      continue;
+    }
+    rows.push({ line: r.line, cells });
+  }
+  if (t.renamed.length) {
+    warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${t.renamed.map(([a, b]) => `"${a}" → "${b}"`).join(', ')}.` });
+  }
+  if (t.blankLines.length) {
+    warnings.push({ code: 'blank-lines', message: `${t.blankLines.length} blank line${t.blankLines.length === 1 ? '' : 's'} skipped (${listPlaces(t.blankLines.map((line) => ({ line })))}).` });
+  }
+  if (rows.length === 0 && entries.length === 0) {
+    throw new GapwiseError('bad-file', `The file has a header (line ${t.headerLine}) but no rows of samples; expected at least one row under it.`, { file: fileName, row: t.headerLine });
+  }
+  return { format: 'csv', columns: t.header, rows, delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines };
+}
+
+function geojsonTable(text: string, fileName: string): Table {
+  const g = readPointFeatures(text, fileName);
+  const rows: Row[] = g.records.map((r) => ({ feature: r.feature, lon: r.lon, lat: r.lat, cells: g.columns.map((c) => r.cells[c] ?? '') }));
+  if (rows.length === 0 && g.entries.length === 0) {
+    throw new GapwiseError('bad-file', 'The FeatureCollection has no features; expected at least one Point or MultiPoint feature.', { file: fileName });
+  }
+  return { format: 'geojson', columns: g.columns, rows, delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs };
+}
+
+/** Finds a column by exact name, then case-insensitively, then by its name without the unit. */
+function findColumn(columns: string[], want: string): number {
+  let i = columns.indexOf(want);
+  if (i >= 0) return i;
+  const w = want.trim().toLowerCase();
+  i = columns.findIndex((c) => c.toLowerCase() === w);
+  if (i >= 0) return i;
+  const wn = normaliseName(want);
+  return columns.findIndex((c) => normaliseName(c) === wn);
+}
+
+function missingColumn(file: string, what: string, want: string, columns: string[]): GapwiseError {
+  return new GapwiseError('missing-column', `There is no ${what} column "${want}"; the columns are ${columns.map((c) => `"${c}"`).join(', ')}.`, { file, column: want });
+}
+
+/** Share of non-missing cells of a column that read as numbers or "<number" non-detects. */
+function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: number; filled: number } {
+  let filled = 0;
+  let ok = 0;
+  const limit = Math.min(rows.length, 2000);
+  for (let k = 0; k < limit; k++) {
+    const raw = rows[k].cells[col];
+    if (isMissing(raw)) continue;
+    filled++;
+    const nd = nonDetectLimit(raw);
+    const text = nd ?? raw;
+    if (parseColumnNumber(text, marks).ok || ND_WORDS.has(raw.trim().toLowerCase())) ok++;
+  }
+  return { share: filled ? ok / filled : 0, filled };
+}
+
+function marksFor(rows: Row[], col: number, delimiter: string): ColumnMarks {
+  const cells: string[] = [];
+  for (const r of rows) cells.push(r.cells[col]);
+  return chooseMark(cells, delimiter);
+}
+
+interface Parsed {
+  row: Row;
+  x: number;
+  y: number;
+  value: number;
+  nd: boolean;
+}
+
+/**
+ * Reads samples from CSV or GeoJSON text. Detects the delimiter, decimal marks, coordinate, value,
+ * ID and qualifier columns and the CRS; substitutes non-detects; projects to the working CRS; merges
+ * (or keeps) duplicate locations; flags outliers; and reports every row it did not take as read.
+ *
+ * Throws GapwiseError: 'bad-file' (not CSV/GeoJSON, empty, header only), 'missing-column' (value
+ * column absent or ambiguous, coordinates not found), 'bad-crs', 'bad-value' (coordinates outside the
+ * CRS's valid range, or no usable row at all; with `strict`, any rejected row), 'bad-option'.
+ */
+export function readSamples(text: string, options: IntakeOptions): IntakeResult {
+  checkOptions(options);
+  if (typeof text !== 'string') throw new GapwiseError('bad-file', `The file content is ${typeof text}; expected text.`, { file: options.fileName });
+  const file = options.fileName;
+  const rule: NonDetectRule = options.nonDetect ?? 'half';
+  const dupRule = options.duplicates ?? 'merge';
+  const tolerance = options.duplicateTolerance ?? 0.01;
+  const format = detectFormat(text, options);
+  const table = format === 'geojson' ? geojsonTable(text, file) : csvTable(text, file);
+  const { columns, rows } = table;
+  const entries: ReportEntry[] = [...table.entries];
+  const warnings: Warning[] = [...table.warnings];
+  const norm = columns.map(normaliseName);
+
+  // --- coordinate columns (CSV) -------------------------------------------------------------
+  let xCol = -1;
+  let yCol = -1;
+  let naming: 'geographic' | 'planar' | 'unknown' | 'geojson' = 'geojson';
+  if (format === 'csv') {
+    if (options.x !== undefined) {
+      xCol = findColumn(columns, options.x);
+      if (xCol < 0) throw missingColumn(file, 'x', options.x, columns);
+    }
+    if (options.y !== undefined) {
+      yCol = findColumn(columns, options.y);
+      if (yCol < 0) throw missingColumn(file, 'y', options.y, columns);
+    }
+    if (xCol < 0) xCol = norm.findIndex((n) => LON.test(n));
+    if (yCol < 0) yCol = norm.findIndex((n) => LAT.test(n));
+    if (xCol < 0 || yCol < 0) {
+      if (xCol < 0) xCol = norm.findIndex((n) => PLANAR_X.test(n));
+      if (yCol < 0) yCol = norm.findIndex((n) => PLANAR_Y.test(n));
+    }
+    if (xCol < 0 || yCol < 0) {
+      throw new GapwiseError('missing-column', `No ${xCol < 0 ? 'x (longitude or easting)' : 'y (latitude or northing)'} column was found among ${columns.map((c) => `"${c}"`).join(', ')}; expected names like lon/lat, longitude/latitude, x/y or easting/northing, or the x and y options.`, { file });
+    }
+    if (xCol === yCol) throw new GapwiseError('missing-column', `The x and y columns are both "${columns[xCol]}"; expected two different columns.`, { file, column: columns[xCol] });
+    const nx = norm[xCol];
+    const ny = norm[yCol];
+    if (LON.test(nx) && LAT.test(ny)) naming = 'geographic';
+    else if (PLANAR_X.test(nx) && PLANAR_Y.test(ny)) naming = 'planar';
+    else if (LON.test(ny) && LAT.test(nx)) naming = 'geographic';
+    else naming = 'unknown';
+  } else if (options.x !== undefined || options.y !== undefined) {
+    warnings.push({ code: 'option-ignored', message: 'The x and y options are ignored for GeoJSON: positions come from each feature\'s geometry.' });
+  }
+
+  // --- ID, qualifier, detection-limit and value columns ---------------------------------------
+  const taken = new Set<number>([xCol, yCol]);
+  let idCol = norm.findIndex((n, i) => !taken.has(i) && ID.test(n));
+  if (idCol >= 0) taken.add(idCol);
+  const textLike = (i: number) => {
+    let codes = 0;
+    let filled = 0;
+    for (let k = 0; k < Math.min(rows.length, 2000); k++) {
+      const v = rows[k].cells[i].trim().toLowerCase();
+      if (v === '') continue;
+      filled++;
+      if (ND_CODES.has(v) || DETECT_CODES.has(v) || YES.has(v) || NO.has(v)) codes++;
+    }
+    return filled === 0 || codes / filled >= 0.9;
+  };
+  const qualifierCandidates = norm.map((n, i) => i).filter((i) => !taken.has(i) && QUALIFIER.test(norm[i]) && !DL_COLUMN.test(norm[i]) && textLike(i));
+  let dlCol = norm.findIndex((n, i) => !taken.has(i) && DL_COLUMN.test(n));
+  if (dlCol >= 0) taken.add(dlCol);
+  for (const q of qualifierCandidates) taken.add(q);
+
+  const delimiter = table.delimiter;
+  const marksCache = new Map<number, ColumnMarks>();
+  const marksOf = (i: number) => {
+    let m = marksCache.get(i);
+    if (!m) {
+      m = marksFor(rows, i, delimiter);
+      marksCache.set(i, m);
+    }
+    return m;
+  };
+  const numericColumns: string[] = [];
+  for (let i = 0; i < columns.length; i++) {
+    if (taken.has(i)) continue;
+    const { share, filled } = numericShare(rows, i, marksOf(i));
+    if (filled > 0 && share >= 0.8) numericColumns.push(columns[i]);
+  }
+  let valueCol: number;
+  if (options.value !== undefined) {
+    valueCol = findColumn(columns, options.value);
+    if (valueCol < 0) {
+      throw new GapwiseError('missing-column', `There is no value column "${options.value}"; the numeric columns are ${numericColumns.length ? numericColumns.map((c) => `"${c}"`).join(', ') : '(none)'}.`, { file, column: options.value });
+    }
+    if (valueCol === xCol || valueCol === yCol) {
+      throw new GapwiseError('missing-column', `The value column "${columns[valueCol]}" is also a coordinate column; expected one of ${numericColumns.map((c) => `"${c}"`).join(', ')}.`, { file, column: options.value });
+    }
+    if (valueCol === idCol) idCol = -1;
+    if (valueCol === dlCol) dlCol = -1;
+  } else if (numericColumns.length === 1) {
+    valueCol = columns.indexOf(numericColumns[0]);
+  } else if (numericColumns.length === 0) {
+    throw new GapwiseError('missing-column', `No column holds numbers to map; the columns are ${columns.map((c) => `"${c}"`).join(', ')}. Expected one numeric value column.`, { file });
+  } else {
+    throw new GapwiseError('missing-column', `Several columns hold numbers: ${numericColumns.map((c) => `"${c}"`).join(', ')}; choose the one to map with the value option (--value).`, { file });
+  }
+  const valueName = columns[valueCol];
+  // The qualifier that belongs to the value column: one naming it, else the only one.
+  const base = normaliseName(valueName);
+  let qualCol = qualifierCandidates.find((i) => norm[i].includes(base)) ?? (qualifierCandidates.length === 1 ? qualifierCandidates[0] : -1);
+  if (qualCol === valueCol) qualCol = -1;
+
+  // --- parse rows ---------------------------------------------------------------------------
+  const xMarks = format === 'csv' ? marksOf(xCol) : null;
+  const yMarks = format === 'csv' ? marksOf(yCol) : null;
+  const vMarks = marksOf(valueCol);
+  const dlMarks = dlCol >= 0 ? marksOf(dlCol) : null;
+  for (const [name, m] of [[columns[xCol], xMarks], [columns[yCol], yMarks], [valueName, vMarks]] as Array<[string, ColumnMarks | null]>) {
+    if (m?.mixed) warnings.push({ code: 'mixed-decimal-marks', message: `Column "${name}" mixes decimal points and decimal commas; each cell was read by its own mark and ambiguous ones were rejected.` });
+  }
+  const parsed: Parsed[] = [];
+  const grouped: Array<{ line?: number; feature?: number }> = [];
+  const missing: Row[] = [];
+  const unknownQualifiers = new Set<string>();
+  let ndCount = 0;
+  const factor = RULE_FACTOR[rule];
+  for (const r of rows) {
+    const reject = (field: string, raw: string, reason: string) => entries.push({ ...place(r), field, raw, action: 'rejected', reason });
+    let x: number;
+    let y: number;
+    if (format === 'geojson') {
+      x = r.lon as number;
+      y = r.lat as number;
+    } else {
+      const xs = r.cells[xCol];
+      const ys = r.cells[yCol];
+      if (isMissing(xs) || isMissing(ys)) {
+        const [f, s] = isMissing(xs) ? [columns[xCol], xs] : [columns[yCol], ys];
+        reject(f, s, 'missing coordinate');
+        missing.push(r);
+        continue;
+      }
+      const px = parseColumnNumber(xs, xMarks as ColumnMarks);
+      if (!px.ok) {
+        reject(columns[xCol], xs, `"${xs}" ${px.reason}`);
+        continue;
+      }
+      const py = parseColumnNumber(ys, yMarks as ColumnMarks);
+      if (!py.ok) {
+        reject(columns[yCol], ys, `"${ys}" ${py.reason}`);
+        continue;
+      }
+      if (px.grouped || py.grouped) {
+        grouped.push(r);
+        entries.push({ ...place(r), field: px.grouped ? columns[xCol] : columns[yCol], raw: px.grouped ? xs : ys, action: 'changed', reason: `thousands separators removed: read as ${px.grouped ? px.value : py.value}` });
+      }
+      x = px.value;
+      y = py.value;
+    }
+    const vs = r.cells[valueCol];
+    const qualVerdict = qualCol >= 0 ? qualifierSaysNd(norm[qualCol], r.cells[qualCol]) : false;
+    const qualSaysNd = qualVerdict === true;
+    if (qualVerdict === null) unknownQualifiers.add(r.cells[qualCol].trim());
+    const dlFromColumn = (): number | null => {
+      if (dlCol < 0) return null;
+      const p = parseColumnNumber(r.cells[dlCol], dlMarks as ColumnMarks);
+      return p.ok ? p.value : null;
+    };
+    let value: number;
+    let nd = false;
+    let dl = NaN;
+    const ndText = nonDetectLimit(vs);
+    if (ndText !== null) {
+      const p = parseColumnNumber(ndText, vMarks);
+      if (!p.ok) {
+        reject(valueName, vs, `the detection limit "${ndText}" ${p.reason}`);
+        continue;
+      }
+      nd = true;
+      dl = p.value;
+    } else if (isMissing(vs) || ND_WORDS.has(vs.trim().toLowerCase())) {
+      const fromCol = qualSaysNd || ND_WORDS.has(vs.trim().toLowerCase()) ? dlFromColumn() : null;
+      if (fromCol === null) {
+        if (isMissing(vs)) {
+          reject(valueName, vs, qualSaysNd ? 'non-detect without a detection limit' : 'missing value');
+          missing.push(r);
+        } else reject(valueName, vs, 'non-detect without a detection limit; expected "<limit" or a detection-limit column');
+        continue;
+      }
+      nd = true;
+      dl = fromCol;
+    } else {
+      const p = parseColumnNumber(vs, vMarks);
+      if (!p.ok) {
+        reject(valueName, vs, `"${vs}" ${p.reason}`);
+        continue;
+      }
+      if (p.grouped) {
+        grouped.push(r);
+        entries.push({ ...place(r), field: valueName, raw: vs, action: 'changed', reason: `thousands separators removed: read as ${p.value}` });
+      }
+      if (qualSaysNd) {
+        nd = true;
+        dl = p.value;
+      } else value = p.value;
+    }
+    if (nd) {
+      if (!(dl > 0)) {
+        reject(valueName, vs, `non-detect with detection limit ${dl}; expected a limit above 0`);
+        continue;
+      }
+      value = dl * factor;
+      ndCount++;
+      const qualNote = qualSaysNd && ndText === null ? ` (qualifier "${r.cells[qualCol].trim()}" in "${columns[qualCol]}")` : '';
+      entries.push({ ...place(r), field: valueName, raw: vs, action: 'changed', reason: `non-detect below ${dl}${qualNote}: replaced by ${value} (${RULE_TEXT[rule]})` });
+    }
+    parsed.push({ row: r, x, y, value: value!, nd });
+  }
+  if (grouped.length) {
+    warnings.push({ code: 'thousands-separator', message: `Thousands separators were removed on ${listPlaces(grouped)}; check those numbers.` });
+  }
+  if (missing.length) {
+    warnings.push({ code: 'missing-values', message: `${missing.length} row${missing.length === 1 ? '' : 's'} with a missing value or coordinate skipped (${listPlaces(missing)}).` });
+  }
+  if (unknownQualifiers.size) {
+    warnings.push({ code: 'unknown-qualifier', message: `Qualifier values ${[...unknownQualifiers].slice(0, 8).map((v) => `"${v}"`).join(', ')} in "${columns[qualCol]}" were taken as detected.` });
+  }
+  const rejected = entries.filter((e) => e.action === 'rejected');
+  if (parsed.length === 0) {
+    const first = rejected[0];
+    const detail = first ? ` The first: ${first.line !== undefined ? `line ${first.line}` : `feature ${first.feature}`}${first.field ? `, column "${first.field}"` : ''}: ${first.reason}.` : '';
+    throw new GapwiseError('bad-value', `None of the ${rows.length + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line ?? first?.feature, column: first?.field, raw: first?.raw });
+  }
+  if (options.strict && rejected.length) {
+    const first = rejected[0];
+    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first ${first.reason}.`, { file, row: first.line ?? first.feature, column: first.field, raw: first.raw });
+  }
+
+  // --- CRS ----------------------------------------------------------------------------------
+  let input: ResolvedCrs;
+  let detection: string;
+  if (options.crs !== undefined) {
+    input = resolveCrs(options.crs);
+    detection = 'given';
+    if (format === 'geojson' && !input.geographic) {
+      warnings.push({ code: 'geojson-crs', message: `GeoJSON positions are WGS 84 longitude/latitude (RFC 7946), but the CRS ${input.key} was given; the positions are read in ${input.key}.` });
+    }
+  } else if (format === 'geojson') {
+    if (table.legacyCrs && !/CRS84$|EPSG:{1,2}4326$/i.test(table.legacyCrs)) {
+      input = resolveCrs(table.legacyCrs);
+      detection = `from the file's "crs" member (${table.legacyCrs})`;
+      warnings.push({ code: 'geojson-crs', message: `The GeoJSON declares the CRS "${table.legacyCrs}"; RFC 7946 allows only WGS 84 longitude/latitude, but the declared CRS was used.` });
+    } else {
+      input = resolveCrs('EPSG:4326');
+      detection = 'GeoJSON positions are WGS 84 longitude/latitude (RFC 7946)';
+    }
+  } else if (naming === 'geographic') {
+    input = resolveCrs('EPSG:4326');
+    detection = `columns "${columns[xCol]}" and "${columns[yCol]}" are named like longitude/latitude, so WGS 84 (EPSG:4326) was assumed`;
+  } else {
+    const degrees = parsed.every((p) => Math.abs(p.x) <= 180 && Math.abs(p.y) <= 90);
+    if (naming === 'planar') {
+      input = resolveCrs(LOCAL_CRS);
+      detection = `columns "${columns[xCol]}" and "${columns[yCol]}" are named like planar coordinates and no CRS was given, so they were taken as local planar metres`;
+      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns "${columns[xCol]}" and "${columns[yCol]}": distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS (--crs, e.g. EPSG:32633).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give --crs EPSG:4326.' : ''}` });
+    } else if (degrees) {
+      input = resolveCrs('EPSG:4326');
+      detection = `the names "${columns[xCol]}" and "${columns[yCol]}" say nothing about the CRS; all values lie within longitude −180…180 and latitude −90…90, so WGS 84 (EPSG:4326) was assumed`;
+      warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs if this is wrong.` });
+    } else {
+      input = resolveCrs(LOCAL_CRS);
+      detection = `the names "${columns[xCol]}" and "${columns[yCol]}" say nothing about the CRS and the values exceed longitude/latitude ranges, so they were taken as local planar metres`;
+      warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs to place the samples on a map.` });
+    }
+  }
+  for (const n of input.notes) warnings.push({ code: 'crs-note', message: n });
+
+  // Range checks in the input CRS.
+  const xName = format === 'csv' ? columns[xCol] : 'geometry';
+  const yName = format === 'csv' ? columns[yCol] : 'geometry';
+  if (input.geographic) {
+    const badLat = parsed.find((p) => !(p.y >= -90 && p.y <= 90));
+    const badLon = parsed.find((p) => !(p.x >= -180 && p.x <= 180));
+    if (badLat || badLon) {
+      const swapFits = parsed.every((p) => Math.abs(p.x) <= 90 && Math.abs(p.y) <= 180);
+      const hint = swapFits ? ' The longitude and latitude look swapped: check the column order (or the x and y options).' : '';
+      const p = (badLat ?? badLon) as Parsed;
+      const what = badLat ? `Latitude ${p.y} is outside −90…90` : `Longitude ${p.x} is outside −180…180`;
+      throw new GapwiseError('bad-value', `${what} at ${where(p.row)}; expected WGS 84 longitude/latitude in degrees (${input.key}).${hint}`, {
+        file,
+        row: p.row.line ?? p.row.feature,
+        column: badLat ? yName : xName,
+        raw: String(badLat ? p.y : p.x),
+      });
+    }
+  } else if (input.key !== LOCAL_CRS) {
+    if (input.utm) {
+      const off = parsed.filter((p) => p.x < 100_000 || p.x > 900_000).map((p) => p.row);
+      if (off.length) warnings.push({ code: 'utm-easting', message: `UTM eastings outside 100–900 km on ${listPlaces(off)}: those samples lie outside the zone of ${input.key}; check the CRS and the x column.` });
+    }
+    if (input.bbox) {
+      const [north, west, south, east] = input.bbox;
+      const t = createTransform(input.key, 'EPSG:4326');
+      const margin = 1;
+      const lonIn = (lon: number) => (west <= east ? lon >= west - margin && lon <= east + margin : lon >= west - margin || lon <= east + margin);
+      const outside = parsed
+        .filter((p) => {
+          const [lon, lat] = t.forward(p.x, p.y);
+          return !(lat <= north + margin && lat >= south - margin && lonIn(lon));
+        })
+        .map((p) => p.row);
+      if (outside.length) warnings.push({ code: 'outside-area', message: `${outside.length} sample${outside.length === 1 ? '' : 's'} lie outside the area of use of ${input.key} (${input.name}) on ${listPlaces(outside)}; check the CRS.` });
+    }
+  }
+
+  // --- working CRS and projection -------------------------------------------------------------
+  let work: ResolvedCrs;
+  if (options.workCrs !== undefined) {
+    work = resolveCrs(options.workCrs);
+    if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
+  } else if (input.geographic) {
+    // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
+    let lonMin = Infinity;
+    let lonMax = -Infinity;
+    let lat = 0;
+    let lonSum = 0;
+    const t4326 = input.key === 'EPSG:4326' ? null : createTransform(input.key, 'EPSG:4326');
+    const ll = parsed.map((p) => (t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y]));
+    for (const [lo] of ll) {
+      lonMin = Math.min(lonMin, lo);
+      lonMax = Math.max(lonMax, lo);
+    }
+    const wrap = lonMax - lonMin > 180;
+    for (const [lo, la] of ll) {
+      lonSum += wrap && lo < 0 ? lo + 360 : lo;
+      lat += la;
+    }
+    let clon = lonSum / ll.length;
+    if (clon > 180) clon -= 360;
+    work = resolveCrs(utmZoneFor(clon, lat / ll.length).code);
+  } else {
+    work = input;
+  }
+  const toWork = createTransform(input.key, work.key);
+  const kept: Parsed[] = [];
+  const wx: number[] = [];
+  const wy: number[] = [];
+  for (const p of parsed) {
+    const [a, b] = toWork.forward(p.x, p.y);
+    if (!Number.isFinite(a) || !Number.isFinite(b)) {
+      entries.push({ ...place(p.row), field: xName, raw: `${p.x}, ${p.y}`, action: 'rejected', reason: `cannot be projected from ${input.key} to ${work.key}` });
+      continue;
+    }
+    kept.push(p);
+    wx.push(a);
+    wy.push(b);
+  }
+  if (kept.length === 0) {
+    throw new GapwiseError('bad-value', `None of the samples could be projected from ${input.key} to ${work.key}; check the CRS.`, { file });
+  }
+
+  // --- rows, duplicates ---------------------------------------------------------------------
+  const idOf = (r: Row) => (idCol >= 0 && r.cells[idCol].trim() !== '' ? r.cells[idCol] : where(r));
+  const rawOf = (r: Row) => {
+    const o: Record<string, string> = {};
+    for (let i = 0; i < columns.length; i++) o[columns[i]] = r.cells[i];
+    if (format === 'geojson') {
+      o['geometry'] = `${r.lon}, ${r.lat}`;
+    }
+    return o;
+  };
+  const groups = duplicateGroups(wx, wy, tolerance);
+  const inGroup = new Int32Array(kept.length).fill(-1);
+  groups.forEach((g, k) => {
+    for (const i of g) inGroup[i] = k;
+  });
+  const outRows: SampleRow[] = [];
+  const sx: number[] = [];
+  const sy: number[] = [];
+  const sv: number[] = [];
+  const rowNumber = (r: Row) => (r.line ?? r.feature) as number;
+  for (let i = 0; i < kept.length; i++) {
+    const g = inGroup[i] >= 0 ? groups[inGroup[i]] : null;
+    if (g && dupRule === 'merge') {
+      if (g[0] !== i) continue;
+      let mx = 0;
+      let my = 0;
+      let mv = 0;
+      let ix = 0;
+      let iy = 0;
+      for (const j of g) {
+        mx += wx[j];
+        my += wy[j];
+        mv += kept[j].value;
+        ix += kept[j].x;
+        iy += kept[j].y;
+      }
+      const m = g.length;
+      const flags = ['dup'];
+      if (g.some((j) => kept[j].nd)) flags.push('nd');
+      for (const j of g) {
+        entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${mv / m}` });
+      }
+      outRows.push({
+        id: g.map((j) => idOf(kept[j].row)).join(' + '),
+        inputX: ix / m,
+        inputY: iy / m,
+        value: mv / m,
+        flags,
+        lines: g.map((j) => rowNumber(kept[j].row)),
+        raw: rawOf(kept[g[0]].row),
+      });
+      sx.push(mx / m);
+      sy.push(my / m);
+      sv.push(mv / m);
+    } else {
+      const p = kept[i];
+      const flags: string[] = [];
+      if (p.nd) flags.push('nd');
+      if (g) flags.push('dup');
+      outRows.push({ id: idOf(p.row), inputX: p.x, inputY: p.y, value: p.value, flags, lines: [rowNumber(p.row)], raw: rawOf(p.row) });
+      sx.push(wx[i]);
+      sy.push(wy[i]);
+      sv.push(p.value);
+    }
+  }
+  if (groups.length) {
+    const text = groups.map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ');
+    warnings.push(
+      dupRule === 'merge'
+        ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }
+        : { code: 'duplicates-kept', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) kept as separate samples: ${text}. Kriging needs a nugget (measurement error) to use them.` },
+    );
+  }
+
+  // --- quality ------------------------------------------------------------------------------
+  const outliers = outlierIndices(sv);
+  for (const i of outliers) {
+    outRows[i].flags.push('outlier');
+    const first = outRows[i].lines[0];
+    entries.push({ ...(format === 'csv' ? { line: first } : { feature: first }), field: valueName, raw: String(outRows[i].value), action: 'flagged', reason: 'outlier: beyond 3 interquartile ranges from the quartiles; kept' });
+  }
+  if (outliers.length) {
+    warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${outRows[i].value} (${outRows[i].lines[0]})`).join(', ')}.` });
+  }
+  const summary = summarise(sv);
+  if (summary.n < 3) {
+    warnings.push({ code: 'too-few-samples', message: `Only ${summary.n} sample${summary.n === 1 ? '' : 's'} after reading; fitting a model needs at least 3 and will be refused (predicting with a given model still works).` });
+  } else if (summary.min === summary.max) {
+    warnings.push({ code: 'constant-values', message: `All ${summary.n} values are ${summary.min}; there is no variation to fit, so fitting will be refused (predicting with a given model still works).` });
+  }
+  if (ndCount) {
+    warnings.push({ code: 'non-detects', message: `${ndCount} non-detect${ndCount === 1 ? '' : 's'} replaced by ${RULE_TEXT[rule]}. ${NON_DETECT_NOTE}` });
+  }
+  const rejectedCount = entries.filter((e) => e.action === 'rejected').length;
+  if (rejectedCount) {
+    warnings.push({ code: 'rejected-rows', message: `${rejectedCount} row${rejectedCount === 1 ? ' was' : 's were'} rejected; the read report lists each with its reason.` });
+  }
+  entries.sort((a, b) => (a.line ?? a.feature ?? 0) - (b.line ?? b.feature ?? 0));
+
+  const crs: CrsInfo = {
+    input: input.key,
+    inputIsGeographic: input.geographic,
+    detection,
+    work: work.key,
+    workUnit: work.unitName,
+  };
+  const decimalMarks: Record<string, string> = {};
+  if (format === 'csv') {
+    decimalMarks[columns[xCol]] = (xMarks as ColumnMarks).mark;
+    decimalMarks[columns[yCol]] = (yMarks as ColumnMarks).mark;
+    decimalMarks[valueName] = vMarks.mark;
+  }
+  const report: ReadReport = {
+    fileName: file,
+    format,
+    rowsRead: rows.length + table.entries.filter((e) => e.action === 'rejected').length,
+    rowsUsed: kept.length,
+    columns: [...columns],
+    numericColumns,
+    valueColumn: valueName,
+    unit: splitUnit(valueName).unit,
+    xColumn: xName,
+    yColumn: yName,
+    idColumn: idCol >= 0 ? columns[idCol] : undefined,
+    crs,
+    nonDetects: { count: ndCount, rule, note: NON_DETECT_NOTE },
+    duplicates: { groups: groups.length, rule: dupRule, tolerance },
+    outliers,
+    entries,
+    warnings,
+    transformAdvice: transformAdvice(summary),
+    summary,
+    ...(format === 'csv' ? { delimiter, decimalMarks, blankLines: table.blankLines } : {}),
+    ...(qualCol >= 0 ? { qualifierColumn: columns[qualCol] } : {}),
+    ...(dlCol >= 0 ? { detectionLimitColumn: columns[dlCol] } : {}),
+  };
+  return { samples: makeSamples(sx, sy, sv), rows: outRows, report };
+}
