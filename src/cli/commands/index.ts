@@ -1,0 +1,14 @@
+/**
+ * The commands the tool knows, in the order `gapwise --help` lists them. A new command is one file
+ * in this folder exporting a CommandSpec, added here (and removed from PLANNED).
+ */
+import type { CommandSpec } from '../common.ts';
+import { inspectCommand } from './inspect.ts';
+import { fitCommand } from './fit.ts';
+import { predictCommand } from './predict.ts';
+import { cvCommand } from './cv.ts';
+
+export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand];
+
+/** Commands of the design that are not built yet; running one says so (exit 2). */
+export const PLANNED: readonly string[] = ['grid', 'suggest', 'simulate', 'report'];

@@ -1,0 +1,150 @@
+/**
+ * `gapwise predict`: kriging at the points of a targets CSV with a given model (never refits).
+ * The target rows are written back in their order and with their cells verbatim, with mean, sd,
+ * sd_obs (and p_exceed with --threshold) appended.
+ */
+import { GapwiseError, type Warning } from '../../core/errors.ts';
+import { createPredictor } from '../../core/kriging.ts';
+import { exceedanceProbability } from '../../core/normal.ts';
+import { createTransform } from '../../io/crs.ts';
+import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
+import { numberOption, stringOption } from '../args.ts';
+import {
+  CAUTION, SAMPLE_OPTIONS, modelWorkCrs, outOption, printWarnings, readModelFile, readSamplesFile, readText,
+  writeOutput, type CliIo, type CommandSpec, type OptionValues,
+} from '../common.ts';
+import { csvCell, formatNumber, readCsvTable, type CsvTable } from '../csv.ts';
+
+const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
+const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
+
+/** Index of the coordinate column: the given name, else the samples' name, else a usual name. */
+function findColumn(
+  table: CsvTable, file: string, given: string | undefined, fallback: string | undefined, usual: readonly string[], axis: string,
+): number {
+  const names = table.header.cells.map((c) => c.trim());
+  if (given !== undefined) {
+    const i = names.indexOf(given);
+    if (i === -1) {
+      throw new GapwiseError('missing-column', `There is no column "${given}"; expected one of ${names.map((n) => `"${n}"`).join(', ')}.`,
+        { file, row: table.header.line, column: given });
+    }
+    return i;
+  }
+  if (fallback !== undefined) {
+    const i = names.indexOf(fallback);
+    if (i !== -1) return i;
+  }
+  const lower = names.map((n) => n.toLowerCase().replace(/\s*\(.*\)\s*$/, ''));
+  for (const u of usual) {
+    const i = lower.indexOf(u);
+    if (i !== -1) return i;
+  }
+  throw new GapwiseError('missing-column',
+    `No ${axis} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected a usual name (${usual.join(', ')}) or --targets-${axis} COL.`,
+    { file, row: table.header.line });
+}
+
+/** Reads the coordinate cells of one column as numbers; a bad cell names its line and column. */
+function readCoordinates(table: CsvTable, file: string, col: number): Float64Array {
+  const name = table.header.cells[col].trim();
+  const cells = table.records.map((r) => r.cells[col] ?? '');
+  const marks = chooseMark(cells, table.delimiter);
+  const out = new Float64Array(cells.length);
+  table.records.forEach((r, i) => {
+    const raw = r.cells[col];
+    if (raw === undefined || isMissing(raw)) {
+      throw new GapwiseError('bad-value', `The ${name} coordinate is missing; expected a number.`, { file, row: r.line, column: name, raw: raw ?? '' });
+    }
+    const v = parseColumnNumber(raw, marks);
+    if (!v.ok) throw new GapwiseError('bad-value', `"${raw}" ${v.reason}; expected a number.`, { file, row: r.line, column: name, raw });
+    out[i] = v.value;
+  });
+  return out;
+}
+
+async function run(values: OptionValues, io: CliIo): Promise<number> {
+  const modelPath = stringOption(values, 'model') as string;
+  const targetsPath = stringOption(values, 'targets') as string;
+  const threshold = numberOption(values, 'threshold');
+  const modelFile = readModelFile(io, modelPath);
+  const { model } = modelFile;
+  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
+  const workCrs = intake.report.crs.work;
+  if (modelFile.workCrs === undefined) {
+    printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
+  }
+
+  const table = readCsvTable(readText(io, targetsPath), targetsPath);
+  if (table.records.length === 0) {
+    throw new GapwiseError('bad-file', 'The targets file has a header but no rows; expected at least one target.', { file: targetsPath });
+  }
+  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, X_NAMES, 'x');
+  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, Y_NAMES, 'y');
+  const tx = readCoordinates(table, targetsPath, xi);
+  const ty = readCoordinates(table, targetsPath, yi);
+  const targetsCrs = stringOption(values, 'targets-crs') ?? stringOption(values, 'crs') ?? intake.report.crs.input;
+  const work = createTransform(targetsCrs, workCrs).forwardMany(tx, ty);
+  for (let i = 0; i < tx.length; i++) {
+    if (!Number.isFinite(work.x[i]) || !Number.isFinite(work.y[i])) {
+      const r = table.records[i];
+      throw new GapwiseError('bad-value',
+        `The point (${r.cells[xi]}, ${r.cells[yi]}) cannot be transformed from ${targetsCrs} to ${workCrs}; expected coordinates valid in ${targetsCrs}.`,
+        { file: targetsPath, row: r.line, column: table.header.cells[xi].trim() });
+    }
+  }
+
+  const predictor = createPredictor(intake.samples, model);
+  const warnings: Warning[] = [...predictor.warnings];
+  const p = predictor.predict(work.x, work.y);
+  printWarnings(io, warnings);
+
+  const d = table.delimiter;
+  const added = ['mean', 'sd', 'sd_obs'];
+  if (threshold !== undefined) added.push('p_exceed');
+  const lines = [table.header.raw + d + added.map((a) => csvCell(a, d)).join(d)];
+  const log = model.transform === 'log';
+  for (let i = 0; i < table.records.length; i++) {
+    const cells = [formatNumber(p.mean[i]), formatNumber(p.sd[i]), formatNumber(p.sdObserved[i])];
+    if (threshold !== undefined) {
+      // The noise-free surface; for a log model on the log scale, where the kriging error is normal.
+      const prob = log
+        ? threshold <= 0 ? 1 : exceedanceProbability(p.logMean![i], p.logSd![i], Math.log(threshold))
+        : exceedanceProbability(p.mean[i], p.sd[i], threshold);
+      cells.push(formatNumber(prob));
+    }
+    lines.push(table.records[i].raw + d + cells.join(d));
+  }
+  writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
+  io.stderr(`caution: ${CAUTION}\n`);
+  return 0;
+}
+
+export const predictCommand: CommandSpec = {
+  name: 'predict',
+  summary: 'predict at the points of a CSV with a given model (mean, sd, sd_obs, p_exceed)',
+  usage: 'gapwise predict --samples FILE --model FILE --targets FILE [options]',
+  description: [
+    'Kriging with the model as given (it is never refitted). The targets file is written back row by row, in '
+      + 'its order and with its cells unchanged, with the columns mean (the most likely value), sd (the uncertainty '
+      + 'of the noise-free surface), sd_obs (the spread of a new measurement there: sd and the nugget together) and, '
+      + 'with --threshold, p_exceed = P(value > T) for the noise-free surface. For a log model mean is the '
+      + 'bias-corrected data-scale mean and p_exceed is computed on the log scale. All values are in the unit of the '
+      + 'samples.',
+    'The screening caution is printed on stderr (CSV has no place for it).',
+  ],
+  options: [
+    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
+    { name: 'targets', kind: 'string', placeholder: 'FILE', help: 'CSV of target points with a header and coordinate columns', required: true },
+    { name: 'targets-x', kind: 'string', placeholder: 'COL', help: 'x column of the targets', defaultText: 'the samples\' x column name, else a usual name' },
+    { name: 'targets-y', kind: 'string', placeholder: 'COL', help: 'y column of the targets', defaultText: 'the samples\' y column name, else a usual name' },
+    { name: 'targets-crs', kind: 'string', placeholder: 'CRS', help: 'CRS of the target coordinates', defaultText: '--crs, else the samples\' CRS' },
+    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds p_exceed = P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
+    outOption('CSV file to write', 'stdout'),
+    ...SAMPLE_OPTIONS,
+  ],
+  examples: [
+    'gapwise predict --samples data-demo/lead-topsoil.csv --model lead-model.json --targets plots.csv --threshold 200 --out plots-predicted.csv',
+  ],
+  run,
+};

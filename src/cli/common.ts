@@ -1,0 +1,193 @@
+/**
+ * What every command shares: the command and I/O types, the screening caution, the sample options,
+ * reading samples through the one intake (`readSamples`), reading a model file, writing outputs and
+ * printing warnings.
+ */
+import { readFileSync, writeFileSync } from 'node:fs';
+import { resolve } from 'node:path';
+import { GapwiseError, type Warning } from '../core/errors.ts';
+import { parseModel, type CovarianceModel } from '../core/model.ts';
+import { readSamples } from '../io/intake.ts';
+import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
+import { stringOption, type OptionSpec, type OptionValue } from './args.ts';
+
+/** Carried by every result, export and help text. */
+export const CAUTION =
+  'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
+
+/** Where a command writes; tests pass their own to capture the text. */
+export interface CliIo {
+  stdout(text: string): void;
+  stderr(text: string): void;
+  /** Relative file names resolve against this directory. */
+  cwd: string;
+}
+
+export type OptionValues = Record<string, OptionValue>;
+
+/** One command: its help and its work. `run` returns the exit code. */
+export interface CommandSpec {
+  name: string;
+  /** One line for the tool's command list. */
+  summary: string;
+  usage: string;
+  /** Paragraphs after the usage line. */
+  description: string[];
+  options: OptionSpec[];
+  examples: string[];
+  run(values: OptionValues, io: CliIo): Promise<number>;
+}
+
+/** The options every command that reads samples takes (same names, same defaults everywhere). */
+export const SAMPLE_OPTIONS: OptionSpec[] = [
+  { name: 'samples', kind: 'string', placeholder: 'FILE', help: 'samples file: CSV (one row per sample) or GeoJSON points', required: true },
+  { name: 'value', kind: 'string', placeholder: 'COL', help: 'column (or GeoJSON property) holding the measured value', defaultText: 'detected: the one numeric column besides the coordinates' },
+  { name: 'x', kind: 'string', placeholder: 'COL', help: 'column of the x coordinate (longitude, easting)', defaultText: 'detected from usual names (lon, longitude, x, easting, e, ...)' },
+  { name: 'y', kind: 'string', placeholder: 'COL', help: 'column of the y coordinate (latitude, northing)', defaultText: 'detected from usual names (lat, latitude, y, northing, n, ...)' },
+  { name: 'crs', kind: 'string', placeholder: 'CRS', help: 'coordinate reference system of the samples: EPSG:NNNN or a proj string', defaultText: 'EPSG:4326 for lon/lat column names, planar metres for x/y, easting/northing' },
+  { name: 'work-crs', kind: 'string', placeholder: 'CRS', help: 'metric CRS the numbers are computed in', defaultText: 'the input CRS when projected, else the WGS 84 UTM zone of the samples' },
+  { name: 'non-detect', kind: 'string', placeholder: 'RULE', choices: ['half', 'dl', 'sqrt2'], help: 'value used for a non-detect such as "<5": half the detection limit, the limit, or the limit/√2', defaultText: 'half' },
+  { name: 'duplicates', kind: 'string', placeholder: 'RULE', choices: ['merge', 'keep'], help: 'samples at the same location: merged into their mean, or kept (kept duplicates need a nugget)', defaultText: 'merge' },
+];
+
+/** The `--out FILE` option; `what` says what is written there. */
+export function outOption(what: string, otherwise: string): OptionSpec {
+  return { name: 'out', kind: 'string', placeholder: 'FILE', help: what, defaultText: otherwise };
+}
+
+/** Reads a text file; a missing or unreadable file is the user's problem (exit 2), not a bug. */
+export function readText(io: CliIo, file: string): string {
+  try {
+    return readFileSync(resolve(io.cwd, file), 'utf8');
+  } catch (e) {
+    const code = (e as { code?: string }).code;
+    const why = code === 'ENOENT' ? 'the file does not exist'
+      : code === 'EISDIR' ? 'it is a folder, not a file'
+        : code === 'EACCES' ? 'permission was denied'
+          : (e as Error).message;
+    throw new GapwiseError('bad-file', `Cannot read the file: ${why}.`, { file });
+  }
+}
+
+/** Writes `text` to `file`, or to stdout when no file is given. */
+export function writeOutput(io: CliIo, file: string | undefined, text: string): void {
+  if (file === undefined) {
+    io.stdout(text);
+    return;
+  }
+  try {
+    writeFileSync(resolve(io.cwd, file), text);
+  } catch (e) {
+    throw new GapwiseError('bad-file', `Cannot write the file: ${(e as Error).message}.`, { file });
+  }
+}
+
+/** Prints warnings on stderr, each line prefixed with "warning: ". */
+export function printWarnings(io: CliIo, warnings: readonly (Warning | string)[]): void {
+  for (const w of warnings) io.stderr(`warning: ${typeof w === 'string' ? w : w.message}\n`);
+}
+
+/** Intake options from the common command-line options. */
+export function intakeOptions(values: OptionValues, file: string, workCrs?: string): IntakeOptions {
+  const options: IntakeOptions = { fileName: file };
+  const value = stringOption(values, 'value');
+  const x = stringOption(values, 'x');
+  const y = stringOption(values, 'y');
+  const crs = stringOption(values, 'crs');
+  const work = workCrs ?? stringOption(values, 'work-crs');
+  const nonDetect = stringOption(values, 'non-detect');
+  const duplicates = stringOption(values, 'duplicates');
+  if (value !== undefined) options.value = value;
+  if (x !== undefined) options.x = x;
+  if (y !== undefined) options.y = y;
+  if (crs !== undefined) options.crs = crs;
+  if (work !== undefined) options.workCrs = work;
+  if (nonDetect !== undefined) options.nonDetect = nonDetect as NonDetectRule;
+  if (duplicates !== undefined) options.duplicates = duplicates as DuplicateRule;
+  return options;
+}
+
+/**
+ * Reads `--samples` through the one intake every command uses, and prints its warnings.
+ * `workCrs` overrides `--work-crs` (predict and cv take the model's working CRS).
+ */
+export function readSamplesFile(io: CliIo, values: OptionValues, workCrs?: string): IntakeResult {
+  const file = stringOption(values, 'samples');
+  if (file === undefined) throw new GapwiseError('bad-option', 'Option "--samples FILE" is required.');
+  const text = readText(io, file);
+  let result: IntakeResult;
+  try {
+    result = readSamples(text, intakeOptions(values, file, workCrs));
+  } catch (e) {
+    if (e instanceof GapwiseError && e.place.file === undefined && e.code !== 'bad-option') e.place.file = file;
+    throw e;
+  }
+  printWarnings(io, result.report.warnings);
+  return result;
+}
+
+/** What a model file written by `gapwise fit` holds besides the model itself. */
+export interface ModelFile {
+  model: CovarianceModel;
+  /** The working CRS the model's distances are in, when the file says. */
+  workCrs?: string;
+}
+
+/** 1-based line and column of a character offset. */
+function lineAndColumn(text: string, offset: number): { line: number; column: number } {
+  let line = 1;
+  let last = -1;
+  for (let i = 0; i < offset && i < text.length; i++) {
+    if (text[i] === '\n') {
+      line++;
+      last = i;
+    }
+  }
+  return { line, column: offset - last };
+}
+
+/** Reads and checks a model JSON file (parseModel); problems name the file (exit 2). */
+export function readModelFile(io: CliIo, file: string): ModelFile {
+  const text = readText(io, file);
+  let json: unknown;
+  try {
+    json = JSON.parse(text);
+  } catch (e) {
+    const m = /position (\d+)/.exec((e as Error).message);
+    if (m) {
+      const { line, column } = lineAndColumn(text, Number(m[1]));
+      throw new GapwiseError('bad-model', `The model is not valid JSON at character ${column} (${(e as Error).message}).`, { file, row: line });
+    }
+    throw new GapwiseError('bad-model', `The model is not valid JSON (${(e as Error).message}).`, { file });
+  }
+  let model: CovarianceModel;
+  try {
+    model = parseModel(json);
+  } catch (e) {
+    if (e instanceof GapwiseError) e.place.file = file;
+    throw e;
+  }
+  const crs = (json as { crs?: { work?: unknown } }).crs;
+  const out: ModelFile = { model };
+  if (crs && typeof crs.work === 'string' && crs.work !== '') out.workCrs = crs.work;
+  return out;
+}
+
+/**
+ * The working CRS for predict and cv: the model's (its distances are in those units). A different
+ * `--work-crs` is an error, since the model's scale would then be in the wrong units.
+ */
+export function modelWorkCrs(values: OptionValues, modelFile: ModelFile, file: string): string | undefined {
+  const given = stringOption(values, 'work-crs');
+  if (given !== undefined && modelFile.workCrs !== undefined && given !== modelFile.workCrs) {
+    throw new GapwiseError('bad-option',
+      `Option "--work-crs ${given}" differs from the model's working CRS ${modelFile.workCrs}; expected the same CRS the model was fitted in, or no --work-crs.`,
+      { file });
+  }
+  return modelFile.workCrs ?? given;
+}
+
+/** JSON text with two-space indentation and a final newline. */
+export function jsonText(value: unknown): string {
+  return `${JSON.stringify(value, null, 2)}\n`;
+}

@@ -1,0 +1,85 @@
+/**
+ * Help texts: the tool's overview and each command's usage, options (with default and unit),
+ * examples and the screening caution.
+ */
+import type { OptionSpec } from './args.ts';
+import { CAUTION, type CommandSpec } from './common.ts';
+
+const WIDTH = 100;
+
+/** Wraps `text` to WIDTH columns, indenting continuation lines by `indent` spaces. */
+function wrap(text: string, indent: number, first = 0): string {
+  const words = text.split(/\s+/).filter(Boolean);
+  const lines: string[] = [];
+  let line = '';
+  let room = WIDTH - first;
+  for (const w of words) {
+    if (line && line.length + 1 + w.length > room) {
+      lines.push(line);
+      line = w;
+      room = WIDTH - indent;
+    } else {
+      line = line ? `${line} ${w}` : w;
+    }
+  }
+  if (line) lines.push(line);
+  return lines.join(`\n${' '.repeat(indent)}`);
+}
+
+function optionLine(o: OptionSpec): string {
+  const left = `  --${o.name}${o.kind === 'boolean' ? '' : ` ${o.placeholder ?? 'VALUE'}`}`;
+  const parts = [o.help];
+  if (o.choices) parts.push(`one of: ${o.choices.join(', ')}`);
+  if (o.unit) parts.push(`unit: ${o.unit}`);
+  if (o.required) parts.push('required');
+  else if (o.defaultText !== undefined) parts.push(`default: ${o.defaultText}`);
+  else if (o.kind === 'boolean') parts.push('default: off');
+  const text = `${parts[0]} (${parts.slice(1).join('; ')})`.replace(/ \(\)$/, '');
+  const pad = 26;
+  if (left.length >= pad) return `${left}\n${' '.repeat(pad)}${wrap(text, pad, pad)}`;
+  return `${left.padEnd(pad)}${wrap(text, pad, pad)}`;
+}
+
+/** `gapwise <command> --help`. */
+export function commandHelp(c: CommandSpec): string {
+  const out = [`gapwise ${c.name} — ${c.summary}`, '', `Usage: ${c.usage}`, ''];
+  for (const p of c.description) out.push(wrap(p, 0), '');
+  out.push('Options:');
+  for (const o of c.options) out.push(optionLine(o));
+  out.push(`${'  --help'.padEnd(26)}print this help and exit`);
+  out.push('', c.examples.length > 1 ? 'Examples:' : 'Example:');
+  for (const e of c.examples) out.push(`  ${e}`);
+  out.push('', 'Exit codes: 0 done; 2 bad input (the message names the file, line and column); 3 the numbers failed (the message says what to try); 1 a bug.');
+  out.push('', CAUTION, '');
+  return out.join('\n');
+}
+
+/** `gapwise --help`. */
+export function toolHelp(commands: readonly CommandSpec[], planned: readonly string[]): string {
+  const out = [
+    'gapwise — screening maps from point samples: kriging surfaces, uncertainty and exceedance',
+    '',
+    'Usage: gapwise <command> [options]',
+    '       gapwise <command> --help',
+    '',
+    'Commands:',
+  ];
+  const w = Math.max(...commands.map((c) => c.name.length)) + 4;
+  for (const c of commands) out.push(`  ${c.name.padEnd(w)}${c.summary}`);
+  if (planned.length) out.push('', `Not available yet: ${planned.join(', ')}.`);
+  out.push(
+    '',
+    'Every command that reads samples takes the same options (--samples FILE --value COL --x COL --y COL',
+    '--crs CRS --work-crs CRS --non-detect half|dl|sqrt2 --duplicates merge|keep) and reads them the same',
+    'way as "gapwise inspect" does. Warnings go to stderr, each line starting with "warning: ".',
+    '',
+    'Example:',
+    '  gapwise inspect --samples data-demo/lead-topsoil.csv',
+    '',
+    'Exit codes: 0 done; 2 bad input (the message names the file, line and column); 3 the numbers failed (the message says what to try); 1 a bug.',
+    '',
+    CAUTION,
+    '',
+  );
+  return out.join('\n');
+}

@@ -1,0 +1,59 @@
+// Runs the command line in-process with captured output, in a fresh temporary folder.
+import { mkdtempSync, rmSync, writeFileSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../../src/cli/main.ts';
+
+export interface CliRun {
+  code: number;
+  stdout: string;
+  stderr: string;
+}
+
+/** A temporary folder to run commands in, with helpers to write and read its files. */
+export interface Workspace {
+  dir: string;
+  write(name: string, text: string): string;
+  read(name: string): string;
+  run(...argv: string[]): Promise<CliRun>;
+  remove(): void;
+}
+
+export function workspace(): Workspace {
+  const dir = mkdtempSync(join(tmpdir(), 'gapwise-cli-'));
+  return {
+    dir,
+    write(name, text) {
+      writeFileSync(join(dir, name), text);
+      return name;
+    },
+    read(name) {
+      return readFileSync(join(dir, name), 'utf8');
+    },
+    async run(...argv) {
+      let stdout = '';
+      let stderr = '';
+      const code = await main(argv, { stdout: (t) => { stdout += t; }, stderr: (t) => { stderr += t; }, cwd: dir });
+      return { code, stdout, stderr };
+    },
+    remove() {
+      rmSync(dir, { recursive: true, force: true });
+    },
+  };
+}
+
+/** Planar samples (metres, EPSG:32633) on a jittered 5 × 5 grid with a smooth signal, seeded. */
+export function planarSamplesCsv(): string {
+  const lines = ['station,easting,northing,nitrate (mg/L)'];
+  let k = 0;
+  for (let i = 0; i < 5; i++) {
+    for (let j = 0; j < 5; j++) {
+      k++;
+      const x = 500000 + 40 * i + ((k * 7) % 11);
+      const y = 5400000 + 35 * j + ((k * 5) % 9);
+      const v = 20 + 8 * Math.sin(i / 1.7) + 5 * Math.cos(j / 1.3) + ((k * 13) % 7) / 3;
+      lines.push(`S${k},${x},${y},${v.toFixed(2)}`);
+    }
+  }
+  return `${lines.join('\n')}\n`;
+}
