@@ -16,7 +16,7 @@ describe('OKLab conversions', () => {
     const w = linearSrgbToOklab(1, 1, 1);
     expectClose(w, [1, 0, 0], { abs: 1e-4 }, 'white');
     for (const rgb of [[0.2, 0.5, 0.9], [1, 0, 0], [0.01, 0.3, 0.02]] as const) {
-      const lab = linearSrgbToOklab(...rgb);
+      const lab = linearSrgbToOklab(rgb[0], rgb[1], rgb[2]);
       expectClose(oklabToLinearSrgb(lab[0], lab[1], lab[2]), rgb, { abs: 1e-6 }, `round trip ${rgb}`);
     }
   });
