@@ -36,8 +36,105 @@ export function parseJson(text: string, fileName: string): unknown {
   } catch (e) {
     const msg = e instanceof Error ? e.message : String(e);
     const pos = /position (\d+)/.exec(msg);
-    const row = pos ? t.slice(0, Number(pos[1])).split('\n').length : undefined;
-    throw new GapwiseError('bad-file', `The file is not valid JSON (${msg.replace(/^JSON\.parse: /, '')}); expected GeoJSON.`, { file: fileName, row });
+    const offset = pos ? Number(pos[1]) : jsonErrorOffset(t);
+    const row = offset >= 0 ? lineAt(t, offset) : undefined;
+    const near = offset >= 0 ? t.slice(Math.max(0, offset - 20), offset + 20).replace(/\s+/g, ' ').trim() : '';
+    throw new GapwiseError('bad-file', `The file is not valid JSON${row !== undefined ? ` (line ${row}, near "${near}")` : ''}; expected GeoJSON.`, { file: fileName, row, raw: near || undefined });
+  }
+}
+
+function lineAt(text: string, offset: number): number {
+  let line = 1;
+  for (let i = 0; i < offset && i < text.length; i++) if (text.charCodeAt(i) === 10) line++;
+  return line;
+}
+
+/**
+ * Offset of the first JSON syntax error, or -1 when the text is valid JSON. A small iterative
+ * scanner (no recursion, so deep nesting cannot overflow the stack); used only to point at the line.
+ */
+export function jsonErrorOffset(text: string): number {
+  const n = text.length;
+  let i = 0;
+  const stack: string[] = [];
+  // 'value' expects a value; 'key' a string key or '}' ; 'after' a ',' or closing bracket.
+  let want: 'value' | 'key' | 'colon' | 'after' | 'value-or-close' | 'key-or-close' = 'value';
+  const ws = () => {
+    while (i < n && (text[i] === ' ' || text[i] === '\t' || text[i] === '\n' || text[i] === '\r')) i++;
+  };
+  const str = (): boolean => {
+    i++;
+    while (i < n) {
+      const c = text[i];
+      if (c === '"') {
+        i++;
+        return true;
+      }
+      if (c === '\\') {
+        const e = text[i + 1];
+        if (e === 'u') {
+          if (!/^[0-9a-fA-F]{4}$/.test(text.slice(i + 2, i + 6))) return false;
+          i += 6;
+        } else if (e !== undefined && '"\\/bfnrt'.includes(e)) i += 2;
+        else return false;
+      } else if (c.charCodeAt(0) < 0x20) return false;
+      else i++;
+    }
+    return false;
+  };
+  for (;;) {
+    ws();
+    if (i >= n) return stack.length === 0 && want === 'after' ? -1 : i;
+    const c = text[i];
+    if (want === 'value' || want === 'value-or-close') {
+      if (want === 'value-or-close' && c === ']') {
+        stack.pop();
+        i++;
+        want = 'after';
+        continue;
+      }
+      if (c === '{') {
+        stack.push('}');
+        i++;
+        want = 'key-or-close';
+      } else if (c === '[') {
+        stack.push(']');
+        i++;
+        want = 'value-or-close';
+      } else if (c === '"') {
+        if (!str()) return i;
+        want = 'after';
+      } else {
+        const m = /^(?:-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][+-]?\d+)?|true|false|null)/.exec(text.slice(i, i + 400));
+        if (!m) return i;
+        i += m[0].length;
+        want = 'after';
+      }
+    } else if (want === 'key' || want === 'key-or-close') {
+      if (want === 'key-or-close' && c === '}') {
+        stack.pop();
+        i++;
+        want = 'after';
+      } else if (c === '"') {
+        if (!str()) return i;
+        want = 'colon';
+      } else return i;
+    } else if (want === 'colon') {
+      if (c !== ':') return i;
+      i++;
+      want = 'value';
+    } else {
+      if (stack.length === 0) return i;
+      const top = stack[stack.length - 1];
+      if (c === ',') {
+        i++;
+        want = top === '}' ? 'key' : 'value';
+      } else if (c === top) {
+        stack.pop();
+        i++;
+        want = 'after';
+      } else return i;
+    }
   }
 }
 

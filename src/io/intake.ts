@@ -185,7 +185,7 @@ function missingColumn(file: string, what: string, want: string, columns: string
   return new GapwiseError('missing-column', `There is no ${what} column "${want}"; the columns are ${columns.map((c) => `"${c}"`).join(', ')}.`, { file, column: want });
 }
 
-/** Share of non-missing cells of a column that read as numbers or "<number" non-detects. */
+/** Share of non-missing cells (of the first 2000 rows) of a column that read as numbers or "<number" non-detects. */
 function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: number; filled: number } {
   let filled = 0;
   let ok = 0;
@@ -305,7 +305,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   for (let i = 0; i < columns.length; i++) {
     if (taken.has(i)) continue;
     const { share, filled } = numericShare(rows, i, marksOf(i));
-    if (filled > 0 && share >= 0.8) numericColumns.push(columns[i]);
+    if (filled > 0 && share >= 0.5) numericColumns.push(columns[i]);
   }
   let valueCol: number;
   if (options.value !== undefined) {

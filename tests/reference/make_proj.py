@@ -14,8 +14,10 @@ OSGB_SHIFT = "+towgs84=446.448,-125.157,542.06,0.15,0.247,0.842,-20.489"
 
 TARGETS = {
     "EPSG:32633": ("+proj=utm +zone=33 +datum=WGS84 +units=m +no_defs", [(15.5, 52.5), (12.2, 0.4), (17.9, 70.1), (9.0, 48.0)]),
+    "EPSG:32632": ("+proj=utm +zone=32 +datum=WGS84 +units=m +no_defs", [(11.25, 48.5), (5.3, 60.39)]),
+    "EPSG:32631": ("+proj=utm +zone=31 +datum=WGS84 +units=m +no_defs", [(8.0, 78.2)]),
     "EPSG:32733": ("+proj=utm +zone=33 +south +datum=WGS84 +units=m +no_defs", [(15.5, -33.9), (13.1, -0.3), (17.5, -60.0)]),
-    "EPSG:32760": ("+proj=utm +zone=60 +south +datum=WGS84 +units=m +no_defs", [(177.5, -38.2)]),
+    "EPSG:32760": ("+proj=utm +zone=60 +south +datum=WGS84 +units=m +no_defs", [(177.5, -38.2), (174.76, -36.85)]),
     "EPSG:27700": ("+proj=tmerc +lat_0=49 +lon_0=-2 +k=0.9996012717 +x_0=400000 +y_0=-100000 +ellps=airy "
                    + OSGB_SHIFT + " +units=m +no_defs", [(-1.5, 52.5), (-3.19, 55.95), (0.12, 51.5), (-5.7, 50.07)]),
     "EPSG:2193": ("+proj=tmerc +lat_0=0 +lon_0=173 +k=0.9996 +x_0=1600000 +y_0=10000000 +ellps=GRS80 "

@@ -1,0 +1,233 @@
+// readSamples against the corpus in tests/fixtures/intake/: each file's expected outcome and numbers
+// are in tests/fixtures/intake/expected.json (worked out by hand from the file text). Working
+// coordinates of lon/lat files are checked against PROJ values in tests/reference/proj.json.
+import { describe, expect, it } from 'vitest';
+import { existsSync, readdirSync, readFileSync } from 'node:fs';
+import { resolve } from 'node:path';
+import { readSamples, splitUnit, normaliseName, NON_DETECT_NOTE } from '../../src/io/intake.ts';
+import { readPolygons, pointInPolygons } from '../../src/io/boundary.ts';
+import { GapwiseError } from '../../src/core/errors.ts';
+import type { IntakeOptions, IntakeResult, ReportEntry } from '../../src/io/types.ts';
+import { expectClose } from '../helpers/tolerance.ts';
+import { loadFixture } from '../helpers/fixtures.ts';
+
+const DIR = resolve(__dirname, '..', 'fixtures', 'intake');
+const ROOT = resolve(__dirname, '..', '..');
+
+interface Case {
+  name: string;
+  file: string;
+  kind?: 'samples' | 'polygons';
+  options?: Partial<IntakeOptions>;
+  error?: { code: string; row?: number; column?: string; raw?: string; message?: string[] };
+  expect?: Record<string, unknown>;
+  polygons?: { count: number; ringCounts: number[]; inside: Array<[number, number, boolean]> };
+}
+
+const manifest = JSON.parse(readFileSync(resolve(DIR, 'expected.json'), 'utf8')) as { cases: Case[] };
+const proj = loadFixture<{ crs: string; lon: number; lat: number; x: number; y: number }>('proj.json');
+
+function read(c: Case): IntakeResult {
+  return readSamples(readFileSync(resolve(DIR, c.file), 'utf8'), { fileName: c.file, ...c.options });
+}
+
+function catchError(f: () => unknown): GapwiseError {
+  try {
+    f();
+  } catch (e) {
+    expect(e).toBeInstanceOf(GapwiseError);
+    return e as GapwiseError;
+  }
+  throw new Error('expected a GapwiseError, got none');
+}
+
+function checkEntry(entries: ReportEntry[], want: Record<string, unknown>): void {
+  const hit = entries.find(
+    (e) =>
+      (want.line === undefined || e.line === want.line) &&
+      (want.feature === undefined || e.feature === want.feature) &&
+      e.action === want.action &&
+      (want.field === undefined || e.field === want.field) &&
+      (want.raw === undefined || e.raw === want.raw) &&
+      e.reason.includes(want.reason as string),
+  );
+  expect(hit, `entry ${JSON.stringify(want)} among ${JSON.stringify(entries)}`).toBeDefined();
+}
+
+let projChecks = 0;
+
+describe('readSamples on the intake corpus', () => {
+  it('readSamples: the corpus holds at least 25 files, each named in the manifest', () => {
+    const files = readdirSync(DIR).filter((f) => f !== 'expected.json');
+    expect(files.length).toBeGreaterThanOrEqual(25);
+    const named = new Set(manifest.cases.map((c) => c.file));
+    for (const f of files) expect(named.has(f), `${f} has no expected outcome`).toBe(true);
+  });
+
+  for (const c of manifest.cases) {
+    it(`readSamples: ${c.file} — ${c.name}`, () => {
+      if (c.kind === 'polygons') {
+        const text = readFileSync(resolve(DIR, c.file), 'utf8');
+        if (c.error) {
+          const e = catchError(() => readPolygons(text, c.file));
+          expect(e.code).toBe(c.error.code);
+          if (c.error.row !== undefined) expect(e.place.row).toBe(c.error.row);
+          for (const m of c.error.message ?? []) expect(e.message).toContain(m);
+          expect(e.place.file).toBe(c.file);
+          return;
+        }
+        const polys = readPolygons(text, c.file);
+        const p = c.polygons!;
+        expect(polys.length).toBe(p.count);
+        expect(polys.map((q) => q.rings.length)).toEqual(p.ringCounts);
+        for (const [x, y, inside] of p.inside) expect(pointInPolygons(x, y, polys), `(${x}, ${y})`).toBe(inside);
+        return;
+      }
+      if (c.error) {
+        const e = catchError(() => read(c));
+        expect(e.code, e.message).toBe(c.error.code);
+        if (c.error.row !== undefined) expect(e.place.row).toBe(c.error.row);
+        if (c.error.column !== undefined) expect(e.place.column).toBe(c.error.column);
+        if (c.error.raw !== undefined) expect(e.place.raw).toBe(c.error.raw);
+        for (const m of c.error.message ?? []) expect(e.message).toContain(m);
+        return;
+      }
+      const r = read(c);
+      const x = c.expect!;
+      const rep = r.report;
+      // Invariants of every read: one row per sample, every input row accounted for, the note present.
+      expect(r.samples.x.length).toBe(r.rows.length);
+      expect(r.samples.value.length).toBe(rep.summary.n);
+      expect(rep.nonDetects.note).toBe(NON_DETECT_NOTE);
+      const rejected = rep.entries.filter((e) => e.action === 'rejected').length;
+      expect(rep.rowsUsed + rejected).toBe(rep.rowsRead);
+      for (const e of rep.entries) expect(e.line !== undefined || e.feature !== undefined).toBe(true);
+      expect(JSON.parse(JSON.stringify(rep))).toEqual(rep);
+
+      if (x.format !== undefined) expect(rep.format).toBe(x.format);
+      if (x.delimiter !== undefined) expect(rep.delimiter).toBe(x.delimiter);
+      if (x.rowsRead !== undefined) expect(rep.rowsRead).toBe(x.rowsRead);
+      if (x.rowsUsed !== undefined) expect(rep.rowsUsed).toBe(x.rowsUsed);
+      if (x.values !== undefined) expectClose(r.samples.value, x.values as number[], { rel: 1e-12 }, 'values');
+      if (x.xs !== undefined) expectClose(r.samples.x, x.xs as number[], { abs: 1e-6 }, 'x');
+      if (x.ys !== undefined) expectClose(r.samples.y, x.ys as number[], { abs: 1e-6 }, 'y');
+      if (x.inputXs !== undefined) expectClose(r.rows.map((q) => q.inputX), x.inputXs as number[], { abs: 0 }, 'inputX');
+      for (const k of ['valueColumn', 'unit', 'xColumn', 'yColumn', 'idColumn', 'qualifierColumn', 'transformAdvice'] as const) {
+        if (x[k] === undefined) continue;
+        if (k === 'transformAdvice' && x[k] !== '') expect(rep.transformAdvice).toContain(x[k]);
+        else expect(rep[k]).toBe(x[k]);
+      }
+      if (x.columns !== undefined) expect(rep.columns).toEqual(x.columns);
+      if (x.numericColumns !== undefined) expect(rep.numericColumns).toEqual(x.numericColumns);
+      if (x.decimalMarks !== undefined) expect(rep.decimalMarks).toMatchObject(x.decimalMarks as object);
+      if (x.blankLines !== undefined) expect(rep.blankLines).toEqual(x.blankLines);
+      if (x.ids !== undefined) expect(r.rows.map((q) => q.id)).toEqual(x.ids);
+      if (x.lines !== undefined) expect(r.rows.map((q) => q.lines)).toEqual(x.lines);
+      if (x.crsInput !== undefined) expect(rep.crs.input).toBe(x.crsInput);
+      if (x.crsWork !== undefined) expect(rep.crs.work).toBe(x.crsWork);
+      if (x.crsDetection !== undefined) expect(rep.crs.detection).toContain(x.crsDetection);
+      if (x.nonDetects !== undefined) {
+        expect(rep.nonDetects.count).toBe(x.nonDetects);
+        expect(r.rows.filter((q) => q.flags.includes('nd')).length).toBe(x.nonDetects);
+      }
+      if (x.nonDetectRule !== undefined) expect(rep.nonDetects.rule).toBe(x.nonDetectRule);
+      if (x.duplicateGroups !== undefined) expect(rep.duplicates.groups).toBe(x.duplicateGroups);
+      if (x.duplicateRule !== undefined) expect(rep.duplicates.rule).toBe(x.duplicateRule);
+      if (x.outliers !== undefined) expect(rep.outliers).toEqual(x.outliers);
+      if (x.summary !== undefined) expect(rep.summary).toEqual(x.summary);
+      if (x.flags !== undefined) {
+        for (const [i, f] of Object.entries(x.flags as Record<string, string[]>)) expect(r.rows[Number(i)].flags, `flags of row ${i}`).toEqual(f);
+      }
+      if (x.raw !== undefined) {
+        for (const [i, o] of Object.entries(x.raw as Record<string, object>)) expect(r.rows[Number(i)].raw).toMatchObject(o);
+      }
+      if (x.entryCount !== undefined) expect(rep.entries.length, JSON.stringify(rep.entries)).toBe(x.entryCount);
+      for (const want of (x.entries as Array<Record<string, unknown>>) ?? []) checkEntry(rep.entries, want);
+      const codes = rep.warnings.map((w) => w.code);
+      for (const w of (x.warnings as string[]) ?? []) expect(codes, JSON.stringify(rep.warnings)).toContain(w);
+      for (const w of (x.noWarnings as string[]) ?? []) expect(codes).not.toContain(w);
+      for (const [code, text] of Object.entries((x.warningText as Record<string, string>) ?? {})) {
+        expect(rep.warnings.find((w) => w.code === code)?.message).toContain(text);
+      }
+      // Working coordinates against PROJ (tests/reference/proj.json) where the fixture has the point.
+      for (let i = 0; i < r.rows.length; i++) {
+        const hit = proj.cases.find((q) => q.crs === rep.crs.work && q.lon === r.rows[i].inputX && q.lat === r.rows[i].inputY);
+        if (!hit) continue;
+        projChecks++;
+        expectClose(r.samples.x[i], hit.x, proj.tolerance, `${c.file} x[${i}] vs PROJ`);
+        expectClose(r.samples.y[i], hit.y, proj.tolerance, `${c.file} y[${i}] vs PROJ`);
+      }
+    });
+  }
+
+  it('readSamples: working coordinates were compared with PROJ for the lon/lat files', () => {
+    // semicolon (11.25, 48.5), southern (174.76, −36.85), Svalbard (8.0, 78.2), Norway (5.3, 60.39), ...
+    expect(projChecks).toBeGreaterThanOrEqual(4);
+  });
+});
+
+describe('readSamples on the demo data', () => {
+  const demo = resolve(ROOT, 'data-demo');
+  const csvs = existsSync(demo) ? readdirSync(demo).filter((f) => f.endsWith('.csv')) : [];
+  it.skipIf(csvs.length === 0)('readSamples: each demo CSV reads with its non-detects and its duplicate location reported', () => {
+    for (const f of csvs) {
+      const r = readSamples(readFileSync(resolve(demo, f), 'utf8'), { fileName: f });
+      const rep = r.report;
+      expect(rep.nonDetects.count, f).toBeGreaterThan(0);
+      expect(r.rows.filter((q) => q.flags.includes('nd')).length).toBe(rep.nonDetects.count);
+      expect(rep.entries.filter((e) => e.action === 'changed' && /non-detect/.test(e.reason)).length).toBe(rep.nonDetects.count);
+      expect(rep.duplicates.groups, f).toBeGreaterThanOrEqual(1);
+      expect(rep.warnings.map((w) => w.code)).toContain('duplicates-merged');
+      expect(rep.entries.filter((e) => e.action === 'merged').length).toBeGreaterThanOrEqual(2);
+      expect(rep.crs.input).toBe('EPSG:4326');
+      expect(rep.unit).toBe('mg/kg');
+      expect(rep.rowsUsed + rep.entries.filter((e) => e.action === 'rejected').length).toBe(rep.rowsRead);
+    }
+  });
+});
+
+describe('readSamples details', () => {
+  it('splitUnit: takes the unit from parentheses or brackets', () => {
+    expect(splitUnit('Pb (mg/kg)')).toEqual({ base: 'Pb', unit: 'mg/kg' });
+    expect(splitUnit('NO3 [mg/L]')).toEqual({ base: 'NO3', unit: 'mg/L' });
+    expect(splitUnit('pH')).toEqual({ base: 'pH', unit: '' });
+    expect(splitUnit('(x)')).toEqual({ base: '(x)', unit: '' });
+  });
+
+  it('normaliseName: lowercases, drops the unit, joins words with underscores', () => {
+    expect(normaliseName('Sample ID')).toBe('sample_id');
+    expect(normaliseName('Easting (m)')).toBe('easting');
+  });
+
+  it('readSamples: a duplicate tolerance in metres merges nearby samples', () => {
+    // 11.25° E at 48.5° N: 0.0001° of longitude is about 7.4 m (111.32 km · cos 48.5°).
+    const text = 'id,lon,lat,Pb\n1,11.25,48.5,10\n2,11.2501,48.5,30\n3,11.26,48.51,5\n';
+    const near = readSamples(text, { fileName: 't.csv', duplicateTolerance: 10 });
+    expect(near.report.duplicates.groups).toBe(1);
+    expectClose(near.samples.value, [20, 5], { abs: 0 }, 'merged values');
+    const far = readSamples(text, { fileName: 't.csv', duplicateTolerance: 5 });
+    expect(far.report.duplicates.groups).toBe(0);
+  });
+
+  it('readSamples: bad options are GapwiseError bad-option', () => {
+    for (const o of [{ nonDetect: 'third' }, { duplicates: 'drop' }, { duplicateTolerance: -1 }, { format: 'xlsx' }]) {
+      const e = catchError(() => readSamples('id,lon,lat,v\n1,1,1,1\n', { fileName: 'o.csv', ...(o as object) }));
+      expect(e.code).toBe('bad-option');
+    }
+  });
+
+  it('readSamples: a detection-limit column supplies the limit for "ND" cells', () => {
+    const text = 'id,lon,lat,Cd,dl\n1,11.25,48.5,ND,0.2\n2,11.26,48.51,0.9,0.2\n3,11.27,48.52,1.4,0.2\n';
+    const r = readSamples(text, { fileName: 'dl.csv' });
+    expect(r.report.detectionLimitColumn).toBe('dl');
+    expect(r.report.numericColumns).toEqual(['Cd']);
+    expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
+  });
+
+  it('readSamples: a yes/no non-detect column is read by its name', () => {
+    const text = 'id,lon,lat,Cd,non_detect\n1,11.25,48.5,0.2,yes\n2,11.26,48.51,0.9,no\n3,11.27,48.52,1.4,no\n';
+    const r = readSamples(text, { fileName: 'yn.csv' });
+    expect(r.report.qualifierColumn).toBe('non_detect');
+    expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
+  });
+});
