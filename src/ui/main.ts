@@ -1,3 +1,5 @@
+import 'leaflet/dist/leaflet.css';
+import './styles/app.css';
 import { mount } from 'svelte';
 import App from './App.svelte';
 

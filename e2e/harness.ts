@@ -1,0 +1,128 @@
+/**
+ * Browser-test harness: serves the built app (dist/) with vite's preview server on 127.0.0.1 at a free
+ * port, drives Debian's Chromium through playwright-core, aborts every request that leaves the
+ * machine and records it, and collects console errors and dialogs.
+ */
+import { createServer } from 'node:net';
+import { existsSync, mkdirSync } from 'node:fs';
+import { resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { preview, type PreviewServer } from 'vite';
+import { chromium, type Browser, type BrowserContext, type Page } from 'playwright-core';
+
+export const ROOT = resolve(fileURLToPath(new URL('.', import.meta.url)), '..');
+export const SCREENSHOTS = resolve(ROOT, 'e2e', 'screenshots');
+
+export const CHROMIUM_ARGS = [
+  '--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
+  '--disable-background-networking', '--disable-component-update', '--disable-sync',
+];
+
+async function freePort(): Promise<number> {
+  return new Promise((res, rej) => {
+    const srv = createServer();
+    srv.once('error', rej);
+    srv.listen(0, '127.0.0.1', () => {
+      const port = (srv.address() as { port: number }).port;
+      srv.close(() => res(port));
+    });
+  });
+}
+
+export interface Harness {
+  baseUrl: string;
+  browser: Browser;
+  server: PreviewServer;
+  close(): Promise<void>;
+}
+
+export async function startHarness(): Promise<Harness> {
+  if (!existsSync(resolve(ROOT, 'dist', 'index.html'))) {
+    throw new Error('dist/index.html is missing: run `npx vite build` before the browser tests.');
+  }
+  if (!existsSync('/usr/bin/chromium')) throw new Error('/usr/bin/chromium is missing: apt-get install -y chromium.');
+  mkdirSync(SCREENSHOTS, { recursive: true });
+  const port = await freePort();
+  const server = await preview({
+    root: ROOT,
+    configFile: resolve(ROOT, 'vite.config.ts'),
+    logLevel: 'silent',
+    preview: { host: '127.0.0.1', port, strictPort: true, open: false },
+  });
+  const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: CHROMIUM_ARGS });
+  return {
+    baseUrl: `http://127.0.0.1:${port}/`,
+    browser,
+    server,
+    async close() {
+      await browser.close();
+      await new Promise<void>((r) => server.httpServer.close(() => r()));
+    },
+  };
+}
+
+export interface Watched {
+  context: BrowserContext;
+  page: Page;
+  /** Requests to anything but the loopback server, aborted. */
+  outside: string[];
+  consoleErrors: string[];
+  dialogs: string[];
+  pageErrors: string[];
+}
+
+const LOOPBACK = /^(https?|wss?):\/\/(127\.0\.0\.1|localhost|\[::1\])(:\d+)?\//;
+
+/** A fresh context (own IndexedDB) and page with the outside world cut off and problems recorded. */
+export async function openPage(h: Harness, context?: BrowserContext, path = '?gapwise-test'): Promise<Watched> {
+  const ctx = context ?? (await h.browser.newContext({ viewport: { width: 1360, height: 860 }, deviceScaleFactor: 1 }));
+  const outside: string[] = [];
+  await ctx.route('**/*', (route) => {
+    const url = route.request().url();
+    if (LOOPBACK.test(url) || url.startsWith('data:') || url.startsWith('blob:')) return route.continue();
+    outside.push(url);
+    return route.abort();
+  });
+  const page = await ctx.newPage();
+  const consoleErrors: string[] = [];
+  const dialogs: string[] = [];
+  const pageErrors: string[] = [];
+  page.on('console', (m) => { if (m.type() === 'error') consoleErrors.push(m.text()); });
+  page.on('pageerror', (e) => pageErrors.push(String(e)));
+  page.on('dialog', (d) => {
+    dialogs.push(`${d.type()}: ${d.message()}`);
+    // The app's own confirmation ("Start over?") is accepted; any other dialog is recorded and dismissed.
+    if (d.type() === 'confirm' && d.message().startsWith('Start over?')) void d.accept();
+    else void d.dismiss();
+  });
+  await page.addInitScript(() => {
+    const w = window as unknown as { __longTasks: number[] };
+    w.__longTasks = [];
+    try {
+      new PerformanceObserver((list) => {
+        for (const e of list.getEntries()) w.__longTasks.push(e.duration);
+      }).observe({ type: 'longtask', buffered: true });
+    } catch {
+      // longtask entries are not supported: the figure is reported as missing.
+    }
+  });
+  await page.goto(h.baseUrl + path);
+  await page.waitForSelector('.app[data-ready="yes"]');
+  return { context: ctx, page, outside, consoleErrors, dialogs, pageErrors };
+}
+
+/** Longest main-thread task since the last reset, ms (null when longtask entries are unsupported). */
+export async function takeLongestTask(page: Page): Promise<{ longest: number; count: number }> {
+  return page.evaluate(() => {
+    const w = window as unknown as { __longTasks: number[] };
+    const t = w.__longTasks;
+    w.__longTasks = [];
+    return { longest: t.length ? Math.max(...t) : 0, count: t.length };
+  });
+}
+
+export async function shot(page: Page, name: string): Promise<string> {
+  const path = resolve(SCREENSHOTS, `${name}.png`);
+  await page.screenshot({ path, fullPage: false });
+  return path;
+}

@@ -1,0 +1,31 @@
+/**
+ * A small read-only hook for the browser tests, installed only in development or when the page is
+ * opened with `?gapwise-test` in its address. It reports what the page shows (screen positions of the
+ * samples, the surface status); it never computes results of its own.
+ */
+export interface TestHook {
+  /** Container (CSS pixel, page coordinates) positions and values of the samples on the map. */
+  samplePoints(): Array<{ id: string; value: number; pageX: number; pageY: number }>;
+  /** Surface status and figures. */
+  surfaceInfo(): Record<string, unknown> | null;
+  /** The colour domain of the mean layer and the number of colour steps drawn. */
+  meanScale(): { domain: [number, number]; steps: number; log: boolean } | null;
+}
+
+export function testHookEnabled(): boolean {
+  if (import.meta.env.DEV) return true;
+  try {
+    return new URLSearchParams(globalThis.location?.search ?? '').has('gapwise-test');
+  } catch {
+    return false;
+  }
+}
+
+const parts: Partial<TestHook> = {};
+
+/** Adds functions to the hook (no-op unless enabled). */
+export function provideTestHook(p: Partial<TestHook>): void {
+  if (!testHookEnabled()) return;
+  Object.assign(parts, p);
+  (globalThis as unknown as { __gapwiseTest?: Partial<TestHook> }).__gapwiseTest = parts;
+}
