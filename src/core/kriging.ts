@@ -47,7 +47,11 @@ export interface PredictOptions {
   isCancelled?: () => boolean;
 }
 
-/** Predictions at targets; every array has one entry per target. */
+/**
+ * Predictions at targets; every array has one entry per target. With a log transform, mean, sd and
+ * sdObserved are lognormal moments on the data scale: mean = exp(Ŷ + σ²/2), sd = mean·√(exp(σ²) − 1),
+ * and sdObserved the same with σ² + nugget (the nugget is on the log scale).
+ */
 export interface Prediction {
   /** Kriging estimate of the surface (data scale; bias-corrected mean for a log transform). */
   mean: Float64Array;

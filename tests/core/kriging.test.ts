@@ -1,4 +1,5 @@
 import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
 import {
   createPredictor, predictAt, krigingWeights, solveLowerBlock, buildKrigingSystem,
 } from '../../src/core/kriging.ts';
@@ -82,6 +83,30 @@ describe('krigingWeights', () => {
       const w = krigingWeights(samples, matern(0.1, 'constant'), tx, ty);
       expectClose(w.weights.reduce((s, a) => s + a, 0), 1, { abs: 1e-12 }, 'Σλ');
     }
+  });
+  it('krigingWeights (property): OK weights sum to 1 and UK weights reproduce x, y for any layout', () => {
+    const point = fc.tuple(fc.integer({ min: -500, max: 1500 }), fc.integer({ min: -500, max: 1500 }));
+    fc.assert(fc.property(
+      fc.uniqueArray(point, { minLength: 5, maxLength: 15, selector: ([a, b]) => `${a},${b}` }),
+      point,
+      fc.double({ min: 0.01, max: 1, noNaN: true }),
+      (pts, [tx, ty], nugget) => {
+        const vals = pts.map(([a, b]) => Math.sin(a / 100) + b / 1000);
+        const s = makeSamples(pts.map((q) => q[0]), pts.map((q) => q[1]), vals);
+        const ok = krigingWeights(s, matern(nugget, 'constant'), tx, ty);
+        expect(Math.abs(ok.weights.reduce((a, b) => a + b, 0) - 1)).toBeLessThan(1e-9);
+        // Collinear layouts cannot carry a linear trend; skip those.
+        let area = 0;
+        for (let i = 2; i < pts.length; i++) {
+          area = Math.max(area, Math.abs((pts[1][0] - pts[0][0]) * (pts[i][1] - pts[0][1]) - (pts[i][0] - pts[0][0]) * (pts[1][1] - pts[0][1])));
+        }
+        if (area < 1000) return;
+        const uk = krigingWeights(s, matern(nugget, 'linear'), tx, ty);
+        let sx = 0;
+        for (let i = 0; i < pts.length; i++) sx += uk.weights[i] * pts[i][0];
+        expect(Math.abs(sx - tx)).toBeLessThan(1e-6 * (1 + Math.abs(tx)));
+      },
+    ), { numRuns: 60, seed: 42 });
   });
   it('krigingWeights: universal-kriging weights reproduce 1, x and y at the target', () => {
     const tx = 321;
@@ -215,6 +240,10 @@ describe('createPredictor invariants', () => {
       expectClose(out.median![j], Math.exp(out.logMean![j]), { rel: 1e-14 }, 'median');
       expectClose(out.mean[j], Math.exp(out.logMean![j] + out.logSd![j] ** 2 / 2), { rel: 1e-14 }, 'mean');
       expect(out.mean[j]).toBeGreaterThan(out.median![j]);
+      // Lognormal sd on the data scale; a measurement adds the nugget on the log scale.
+      expectClose(out.sd[j], out.mean[j] * Math.sqrt(Math.expm1(out.logSd![j] ** 2)), { rel: 1e-14 }, 'sd');
+      const o2 = out.logSd![j] ** 2 + 0.05;
+      expectClose(out.sdObserved[j], Math.exp(out.logMean![j] + o2 / 2) * Math.sqrt(Math.expm1(o2)), { rel: 1e-14 }, 'sdObserved');
     }
     // The log-scale results are plain kriging of ln(value).
     const logS = { x: s.x, y: s.y, value: s.value.map(Math.log) };
