@@ -136,28 +136,30 @@ function kindOf(r: EpsgRecord): 'geographic' | 'projected' | 'other' {
   return 'other';
 }
 
-/** Names listed first among equal matches: the systems most field data come in. */
-const COMMON = /^(WGS 84|ETRS89|NAD83|GDA2020|GDA94|NZGD2000|SIRGAS 2000)\b/;
+/** Names listed first among equal matches, in this order: the systems most field data come in. */
+const COMMON = ['WGS 84 ', 'WGS 84', 'ETRS89 ', 'NAD83 ', 'GDA2020 ', 'GDA94 ', 'NZGD2000 ', 'SIRGAS 2000 '];
 
 /**
  * Searches EPSG codes and names: every word of `query` must appear in "EPSG:code name". An exact code
- * comes first, then codes starting with the query, then names starting with it, then the rest by code.
+ * comes first, then codes starting with the query, then names starting with it, then the rest; among
+ * equals WGS 84, ETRS89, NAD83 ... come first, then shorter names, then lower codes.
  * Only horizontal CRSs that proj4 can use are listed.
  */
 export function searchCrs(query: string, limit = 20): CrsListItem[] {
   if (!fullIndexLoaded && nodeRequire) loadEpsgIndexSync();
   const q = query.trim().toLowerCase().replace(/^epsg:\s*/, '');
   const words = q.split(/\s+/).filter(Boolean);
-  const hits: Array<{ r: EpsgRecord; rank: number }> = [];
+  const hits: Array<{ r: EpsgRecord; rank: number; common: number }> = [];
   for (const r of registry.values()) {
     if (!r.proj4 || kindOf(r) === 'other') continue;
     const hay = `epsg:${r.code} ${r.name}`.toLowerCase();
     if (!words.every((w) => hay.includes(w))) continue;
     const name = r.name.toLowerCase();
-    const rank = r.code === q ? 0 : r.code.startsWith(q) && q !== '' ? 1 : name.startsWith(q) && q !== '' ? 2 : COMMON.test(r.name) ? 3 : 4;
-    hits.push({ r, rank });
+    const rank = r.code === q ? 0 : r.code.startsWith(q) && q !== '' ? 1 : name.startsWith(q) && q !== '' ? 2 : 3;
+    const common = COMMON.findIndex((c) => r.name.startsWith(c));
+    hits.push({ r, rank, common: common < 0 ? COMMON.length : common });
   }
-  hits.sort((a, b) => a.rank - b.rank || Number(a.r.code) - Number(b.r.code));
+  hits.sort((a, b) => a.rank - b.rank || a.common - b.common || a.r.name.length - b.r.name.length || Number(a.r.code) - Number(b.r.code));
   return hits.slice(0, Math.max(0, limit)).map(({ r }) => ({
     code: `EPSG:${r.code}`,
     name: r.name,
@@ -296,6 +298,13 @@ export function isGeographic(crs: string): boolean {
   return resolveCrs(crs).geographic;
 }
 
+function hasRotation(definition: string): boolean {
+  const m = /\+towgs84=([^\s]+)/.exec(definition);
+  if (!m) return false;
+  const p = m[1].split(',').map(Number);
+  return p.length > 3 && p.slice(3).some((v) => v !== 0);
+}
+
 /** A reusable transform between two CRSs; coordinates are (x, y) = (easting, northing) or (lon, lat). */
 export interface Transform {
   forward(x: number, y: number): [number, number];
@@ -339,7 +348,17 @@ export function createTransform(fromCrs: string, toCrs: string): Transform {
     }
   };
   const fwd = (x: number, y: number) => run(c.forward, x, y);
-  const inv = (x: number, y: number) => run(c.inverse, x, y);
+  // With a 7-parameter datum shift proj4 reverses the shift by negating its parameters, which is
+  // off by about a millimetre; one fixed-point step makes the inverse undo the forward exactly.
+  const refine = hasRotation(a.definition) || hasRotation(b.definition);
+  const inv = (x: number, y: number): [number, number] => {
+    const p = run(c.inverse, x, y);
+    if (!refine || !Number.isFinite(p[0])) return p;
+    const q = run(c.forward, p[0], p[1]);
+    if (!Number.isFinite(q[0])) return p;
+    const r = run(c.inverse, x + (x - q[0]), y + (y - q[1]));
+    return Number.isFinite(r[0]) ? r : p;
+  };
   const many = (f: (x: number, y: number) => [number, number]) => (x: ArrayLike<number>, y: ArrayLike<number>) => {
     const n = x.length;
     const ox = new Float64Array(n);

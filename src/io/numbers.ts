@@ -123,12 +123,15 @@ export function chooseMark(cells: Iterable<string>, delimiter: string): ColumnMa
 
 /**
  * Reads a cell of a column whose marks were chosen by `chooseMark`: ambiguous cells in an undecided
- * column are errors ("1.234" in a semicolon file with nothing else to go by), and in a mixed column
+ * column are errors when they use the mark the custom does not expect ("1.234" in a semicolon file with
+ * nothing else to go by; "1,234" there is 1.234), and in a mixed column
  * each unambiguous cell is read by its own mark.
  */
 export function parseColumnNumber(raw: string, marks: ColumnMarks): NumberResult {
   const e = markEvidence(raw);
-  if (e === 'ambiguous' && !marks.decided) {
+  // "1,234" in a semicolon file reads by the file's custom (decimal comma); "1.234" there could be
+  // a grouped thousand or a decimal point, and nothing in the column settles it.
+  if (e === 'ambiguous' && !marks.decided && !raw.includes(marks.mark)) {
     const [a, b] = [raw.trim().replace(/[.,]/, ''), raw.trim().replace(/[.,]/, '.')];
     return { ok: false, reason: `is ambiguous: it could be ${a} (thousands separator) or ${b} (decimal mark), and nothing else in the column tells which` };
   }
