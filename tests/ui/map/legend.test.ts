@@ -1,0 +1,91 @@
+import { describe, expect, it } from 'vitest';
+import { escapeXml, formatValue, legendData, legendSvg, niceTicks } from '../../../src/ui/map/legend.ts';
+import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
+
+describe('niceTicks', () => {
+  it('niceTicks picks 1-2-5 steps inside the domain', () => {
+    expect(niceTicks(0, 100, 5)).toEqual([0, 20, 40, 60, 80, 100]);
+    expect(niceTicks(12.3, 487.9, 5)).toEqual([100, 200, 300, 400]);
+    expect(niceTicks(0.013, 0.061, 4)).toEqual([0.02, 0.04, 0.06]);
+    expect(niceTicks(0.013, 0.061, 8)).toEqual([0.02, 0.03, 0.04, 0.05, 0.06]);
+    expect(niceTicks(-3, 3, 6)).toEqual([-3, -2, -1, 0, 1, 2, 3]);
+    expect(niceTicks(5, 5)).toEqual([5]);
+    expect(niceTicks(NaN, 5)).toEqual([]);
+  });
+});
+
+describe('formatValue', () => {
+  it('formatValue uses the decimals the spacing needs and a true minus sign', () => {
+    expect(formatValue(40, 20)).toBe('40');
+    expect(formatValue(0.05, 0.01)).toBe('0.05');
+    expect(formatValue(-2, 1)).toBe('−2');
+    expect(formatValue(-0.0001, 1)).toBe('0');
+    expect(formatValue(NaN, 1)).toBe('–');
+  });
+});
+
+describe('legendData', () => {
+  it('legendData for the mean labels ticks in data units at their positions on the bar', () => {
+    const d = legendData({ kind: 'mean', domain: [12.3, 487.9], unit: 'mg/kg' });
+    expect(d.title).toBe('Estimated value (mg/kg)');
+    expect(d.scale).toBe('loam');
+    expect(d.ticks.map((t) => t.label)).toEqual(['100', '200', '300', '400']);
+    expect(d.ticks[0].t).toBeCloseTo((100 - 12.3) / (487.9 - 12.3), 12);
+    expect(d.gradient).toHaveLength(11);
+    expect(d.gradient[0].colour).toBe(hex(colourAt('loam', 0)));
+    expect(d.gradient[10].colour).toBe(hex(colourAt('loam', 1)));
+  });
+
+  it('legendData for P(exceed) shows percentages, the threshold in the title and the diverging scale', () => {
+    const d = legendData({ kind: 'pExceed', unit: 'mg/kg', threshold: 200 });
+    expect(d.title).toBe('Chance of exceeding 200 mg/kg');
+    expect(d.scale).toBe('tide');
+    expect(d.ticks.map((t) => t.label)).toEqual(['0 %', '25 %', '50 %', '75 %', '100 %']);
+    expect(d.ticks.map((t) => t.t)).toEqual([0, 0.25, 0.5, 0.75, 1]);
+  });
+
+  it('legendData for sd uses haze; classes carry limits, labels and class-middle colours', () => {
+    const d = legendData({ kind: 'sd', domain: [0, 30], unit: 'mg/kg', classes: 3 });
+    expect(d.title).toBe('Uncertainty, standard deviation (mg/kg)');
+    expect(d.classes).toEqual([
+      { from: 0, to: 10, label: '0 – 10', colour: hex(colourAt('haze', 1 / 6)) },
+      { from: 10, to: 20, label: '10 – 20', colour: hex(colourAt('haze', 0.5)) },
+      { from: 20, to: 30, label: '20 – 30', colour: hex(colourAt('haze', 5 / 6)) },
+    ]);
+  });
+
+  it('legendData rejects a missing or reversed domain', () => {
+    expect(() => legendData({ kind: 'mean' })).toThrow(/finite numbers with min ≤ max, got \[NaN, NaN\]/);
+    expect(() => legendData({ kind: 'mean', domain: [3, 1] })).toThrow(RangeError);
+    expect(() => legendData({ kind: 'mean', domain: [0, 1], classes: 0 })).toThrow(/at least 1 legend class/);
+  });
+});
+
+describe('legendSvg', () => {
+  it('legendSvg escapes user text (unit, title) and parses as one svg element with the gradient and labels', () => {
+    const d = legendData({ kind: 'mean', domain: [0, 100], unit: '<b>mg/kg</b> & "ppm"' });
+    const svg = legendSvg(d, { footnote: 'Screening only: results need a licensed professional.' });
+    expect(svg.startsWith('<svg xmlns="http://www.w3.org/2000/svg"')).toBe(true);
+    expect(svg.endsWith('</svg>')).toBe(true);
+    expect(svg).not.toContain('<b>');
+    expect(svg).toContain('Estimated value (&lt;b&gt;mg/kg&lt;/b&gt; &amp; &quot;ppm&quot;)');
+    expect(svg).toContain(`stop-color="${hex(colourAt('loam', 0))}"`);
+    for (const label of ['>0<', '>20<', '>100<']) expect(svg).toContain(label);
+    expect(svg).toContain('Screening only');
+    // Balanced tags: every opening tag of these kinds is closed or self-closed.
+    for (const tag of ['text', 'linearGradient', 'defs', 'title']) {
+      expect((svg.match(new RegExp(`<${tag}[ >]`, 'g')) ?? []).length, tag).toBe((svg.match(new RegExp(`</${tag}>`, 'g')) ?? []).length);
+    }
+  });
+
+  it('legendSvg draws one swatch per class', () => {
+    const svg = legendSvg(legendData({ kind: 'pExceed', classes: 4, threshold: 5 }));
+    expect((svg.match(/<rect /g) ?? []).length).toBe(4);
+    expect(svg).toContain('0 % – 25 %');
+    expect(svg).not.toContain('linearGradient');
+  });
+
+  it('escapeXml replaces the five XML specials', () => {
+    expect(escapeXml(`<a href="x">'&'</a>`)).toBe('&lt;a href=&quot;x&quot;&gt;&#39;&amp;&#39;&lt;/a&gt;');
+  });
+});
