@@ -13,7 +13,8 @@
  * heap); a strip of imported clean topsoil gives a few readings under the 5 mg/kg detection limit,
  * written "<5". One location was sampled twice (a field duplicate with a different reading).
  *
- * Run `npx tsx scripts/make-demo-data.ts`; the output is the same on every run (seeded).
+ * Run `npx tsx scripts/make-demo-data.ts [folder]` (default data-demo/); the output is the same on every
+ * run (seeded).
  */
 import { writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
@@ -32,7 +33,8 @@ const ACTION_LEVEL = 200;
 const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
 
 const here = dirname(fileURLToPath(import.meta.url));
-const outDir = resolve(here, '..', 'data-demo');
+// An optional argument writes elsewhere (the tests regenerate into a temporary folder and compare).
+const outDir = process.argv[2] ? resolve(process.argv[2]) : resolve(here, '..', 'data-demo');
 
 proj4.defs(UTM, '+proj=utm +zone=32 +datum=WGS84 +units=m +no_defs');
 const toUtm = proj4('EPSG:4326', UTM);
@@ -149,7 +151,7 @@ for (const i of order) {
   if (r.startsWith('<')) nonDetects++;
   else { max = Math.max(max, values[i]); min = Math.min(min, values[i]); }
   count++;
-  lines.push(`${id(count)},${lon},${lat},${r},${r.startsWith('<') ? 'below detection limit' : ''},${NAME}`);
+  lines.push(`${id(count)},${lon},${lat},${r},${r.startsWith('<') ? 'lab reports less than the detection limit' : ''},${NAME}`);
   if (i === dupOf) {
     count++;
     lines.push(`${id(count)},${lon},${lat},${reading(dupValue)},field duplicate of ${id(count - 1)},${NAME}`);

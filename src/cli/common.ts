@@ -8,6 +8,7 @@ import { resolve } from 'node:path';
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
 import { readSamples } from '../io/intake.ts';
+import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
 import { stringOption, type OptionSpec, type OptionValue } from './args.ts';
 
@@ -148,17 +149,19 @@ function lineAndColumn(text: string, offset: number): { line: number; column: nu
 
 /** Reads and checks a model JSON file (parseModel); problems name the file (exit 2). */
 export function readModelFile(io: CliIo, file: string): ModelFile {
-  const text = readText(io, file);
+  const raw = readText(io, file);
+  const text = raw.charCodeAt(0) === 0xfeff ? raw.slice(1) : raw;
   let json: unknown;
   try {
     json = JSON.parse(text);
-  } catch (e) {
-    const m = /position (\d+)/.exec((e as Error).message);
-    if (m) {
-      const { line, column } = lineAndColumn(text, Number(m[1]));
-      throw new GapwiseError('bad-model', `The model is not valid JSON at character ${column} (${(e as Error).message}).`, { file, row: line });
+  } catch {
+    const offset = jsonErrorOffset(text);
+    if (offset >= 0) {
+      const { line, column } = lineAndColumn(text, offset);
+      const near = text.slice(Math.max(0, offset - 15), offset + 15).replace(/\s+/g, ' ').trim();
+      throw new GapwiseError('bad-model', `The model is not valid JSON at character ${column} (near "${near}"); expected a model as written by "gapwise fit".`, { file, row: line });
     }
-    throw new GapwiseError('bad-model', `The model is not valid JSON (${(e as Error).message}).`, { file });
+    throw new GapwiseError('bad-model', 'The model is not valid JSON; expected a model as written by "gapwise fit".', { file });
   }
   let model: CovarianceModel;
   try {
@@ -185,6 +188,22 @@ export function modelWorkCrs(values: OptionValues, modelFile: ModelFile, file: s
       { file });
   }
   return modelFile.workCrs ?? given;
+}
+
+/**
+ * Runs engine work and, when it throws an input problem without a file, names the file it concerns:
+ * the model file for 'bad-model', else the samples file ('too-few-samples', 'constant-values', ...).
+ */
+export function naming<T>(files: { samples?: string; model?: string }, work: () => T): T {
+  try {
+    return work();
+  } catch (e) {
+    if (e instanceof GapwiseError && e.kind === 'input' && e.place.file === undefined && e.code !== 'bad-option') {
+      const file = e.code === 'bad-model' ? files.model : files.samples;
+      if (file !== undefined) e.place.file = file;
+    }
+    throw e;
+  }
 }
 
 /** JSON text with two-space indentation and a final newline. */

@@ -62,8 +62,9 @@ export async function main(argv: readonly string[], io: CliIo = processIo()): Pr
     if (e instanceof GapwiseError) {
       if (e.kind === 'numeric') {
         io.stderr(`error: ${e.describe()}\n`);
+        // Engine messages often say what to try already; add the general advice only when not.
         const hint = NUMERIC_HINTS[e.code];
-        if (hint && !e.message.includes(hint)) io.stderr(`what to try: ${hint}\n`);
+        if (hint && !/\b(try|use)\b/i.test(e.message)) io.stderr(`what to try: ${hint}\n`);
         return 3;
       }
       if (e.kind === 'input') {

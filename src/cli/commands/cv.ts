@@ -6,7 +6,7 @@ import { GapwiseError } from '../../core/errors.ts';
 import { leaveOneOut } from '../../core/cross-validation.ts';
 import { stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, outOption, printWarnings, readModelFile, readSamplesFile,
+  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, outOption, printWarnings, readModelFile, readSamplesFile,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { csvLine, formatNumber } from '../csv.ts';
@@ -25,7 +25,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (samples.value.length < 3) {
     throw new GapwiseError('too-few-samples', `Expected at least 3 samples for cross-validation, got ${samples.value.length}.`, { file: stringOption(values, 'samples') });
   }
-  const cv = leaveOneOut(samples, modelFile.model);
+  const cv = naming({ samples: intake.report.fileName, model: modelPath }, () => leaveOneOut(samples, modelFile.model));
   printWarnings(io, cv.warnings ?? []);
 
   const log = cv.scale === 'log';

@@ -9,7 +9,7 @@ import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, outOption, printWarnings, readSamplesFile, writeOutput,
+  CAUTION, SAMPLE_OPTIONS, jsonText, naming, outOption, printWarnings, readSamplesFile, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 
@@ -64,7 +64,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
 
   const options: FitOptions = { family, method, trend, nugget: !booleanOption(values, 'no-nugget') };
   if (family === 'matern') options.nu = nu;
-  const model = fitModel(transform === 'log' ? logSamples(intake) : intake.samples, options);
+  const model = naming({ samples: intake.report.fileName }, () => fitModel(transform === 'log' ? logSamples(intake) : intake.samples, options));
   model.transform = transform;
   printWarnings(io, model.fit?.warnings ?? []);
   if (model.fit && !model.fit.converged) printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);

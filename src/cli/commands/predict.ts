@@ -10,7 +10,7 @@ import { createTransform } from '../../io/crs.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, modelWorkCrs, outOption, printWarnings, readModelFile, readSamplesFile, readText,
+  CAUTION, SAMPLE_OPTIONS, modelWorkCrs, naming, outOption, printWarnings, readModelFile, readSamplesFile, readText,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { csvCell, formatNumber, readCsvTable, type CsvTable } from '../csv.ts';
@@ -94,9 +94,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }
   }
 
-  const predictor = createPredictor(intake.samples, model);
+  const files = { samples: intake.report.fileName, model: modelPath };
+  const predictor = naming(files, () => createPredictor(intake.samples, model));
   const warnings: Warning[] = [...predictor.warnings];
-  const p = predictor.predict(work.x, work.y);
+  const p = naming(files, () => predictor.predict(work.x, work.y));
   printWarnings(io, warnings);
 
   const d = table.delimiter;

@@ -1,0 +1,71 @@
+import { afterAll, describe, expect, it } from 'vitest';
+import { readSamples } from '../../../src/io/intake.ts';
+import { leaveOneOut } from '../../../src/core/cross-validation.ts';
+import { parseModel } from '../../../src/core/model.ts';
+import { CAUTION } from '../../../src/cli/common.ts';
+import { expectClose } from '../../helpers/tolerance.ts';
+import { planarSamplesCsv, workspace } from '../run-cli.ts';
+
+const ws = workspace();
+afterAll(() => ws.remove());
+const SAMPLES = ws.write('wells.csv', planarSamplesCsv());
+const COMMON = ['--samples', SAMPLES, '--crs', 'EPSG:32633'];
+const MODEL = { structures: [{ type: 'nugget', sill: 1.2 }, { type: 'matern', sill: 16, scale: 55, nu: 1.5 }], trend: 'constant' };
+ws.write('model.json', JSON.stringify({ ...MODEL, crs: { work: 'EPSG:32633' } }));
+const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
+
+describe('cv command', () => {
+  it('cv prints the summary of leaveOneOut on stdout and the per-sample table in --out', async () => {
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--out', 'cv.csv');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    const direct = leaveOneOut(intake.samples, parseModel(MODEL));
+    expect(summary).toEqual({ ...direct.summary, scale: 'data', unit: 'mg/L', caution: CAUTION });
+    expect(r.stderr).toContain(`caution: ${CAUTION}`);
+
+    const lines = ws.read('cv.csv').trimEnd().split('\n');
+    expect(lines[0]).toBe('id,x,y,observed,predicted,sd_obs,error,standardised_error');
+    expect(lines.length).toBe(26);
+    const rows = lines.slice(1).map((l) => l.split(','));
+    expect(rows.map((c) => c[0])).toEqual(intake.rows.map((row) => row.id));
+    const col = (k: number) => rows.map((c) => Number(c[k]));
+    expectClose(col(1), intake.rows.map((row) => row.inputX), { rel: 1e-12 }, 'x');
+    expectClose(col(3), intake.samples.value, { rel: 1e-11 }, 'observed');
+    expectClose(col(4), direct.prediction, { rel: 1e-11 }, 'predicted');
+    expectClose(col(5), direct.sdObserved, { rel: 1e-11 }, 'sd_obs');
+    expectClose(col(6), direct.error, { rel: 1e-10, abs: 1e-10 }, 'error');
+    expectClose(col(7), direct.standardisedError, { rel: 1e-10, abs: 1e-10 }, 'standardised_error');
+    // error = predicted − observed, on every row.
+    expectClose(col(6), col(4).map((p, i) => p - col(3)[i]), { abs: 1e-9 }, 'error = predicted − observed');
+  });
+
+  it('cv on a log model reports on the log scale', async () => {
+    const logModel = { structures: [{ type: 'nugget', sill: 0.002 }, { type: 'exponential', sill: 0.04, scale: 60 }], trend: 'constant', transform: 'log' };
+    ws.write('log.json', JSON.stringify(logModel));
+    const r = await ws.run('cv', ...COMMON, '--model', 'log.json', '--out', 'cv-log.csv');
+    expect(r.code, r.stderr).toBe(0);
+    // A model file without "crs" works, with a warning that the samples' working CRS is assumed.
+    expect(r.stderr).toContain('warning: log.json does not say which working CRS its distances are in; EPSG:32633 is assumed.');
+    const summary = JSON.parse(r.stdout);
+    expect(summary.scale).toBe('log');
+    expect(summary.unit).toBe('ln(mg/L)');
+    expect(summary.rmse).toBe(leaveOneOut(intake.samples, parseModel(logModel)).summary.rmse);
+    const first = ws.read('cv-log.csv').split('\n')[1].split(',').map(Number);
+    expectClose(first[3], Math.log(intake.samples.value[0]), { rel: 1e-11 }, 'observed on the log scale');
+  });
+
+  it('cv exits 3 when the numbers fail (linear trend on samples along a line)', async () => {
+    ws.write('transect.csv', 'x,y,v\n500000,5400000,1\n500010,5400010,2\n500020,5400020,4\n500030,5400030,3\n500040,5400040,5\n');
+    ws.write('linear.json', JSON.stringify({ ...MODEL, trend: 'linear' }));
+    const r = await ws.run('cv', '--samples', 'transect.csv', '--crs', 'EPSG:32633', '--model', 'linear.json');
+    expect(r.code).toBe(3);
+    expect(r.stdout).toBe('');
+    expect(r.stderr).toContain('error: The linear trend cannot be estimated');
+  });
+
+  it('cv needs --model (exit 2)', async () => {
+    const r = await ws.run('cv', ...COMMON);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('Option "--model FILE" is required for "gapwise cv"');
+  });
+});
