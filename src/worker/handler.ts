@@ -1,0 +1,153 @@
+/**
+ * The engine's request handler: one function from a request message to response messages,
+ * independent of any Worker API so it runs (and is tested) in Node. engine.worker.ts wraps it.
+ *
+ * It dispatches each request type to its core/io function, reports progress for surfaces, keeps the
+ * last factorised predictor (keyed by a hash of the samples and the model) so the row bands of one
+ * surface factorise once per worker, turns every exception into error data, and names the result's
+ * typed-array buffers for transfer.
+ */
+import { fitCandidates, fitModel } from '../core/fit.ts';
+import { empiricalVariogram } from '../core/variogram.ts';
+import { leaveOneOut } from '../core/cross-validation.ts';
+import { createPredictor, type Predictor } from '../core/kriging.ts';
+import { computeSurfaceWith } from '../core/surface.ts';
+import { GapwiseError } from '../core/errors.ts';
+import type { Samples } from '../core/samples.ts';
+import type { CovarianceModel } from '../core/model.ts';
+import { readSamples } from '../io/intake.ts';
+import {
+  errorData, isEngineRequest, transferablesOf,
+  type EngineRequest, type EngineResponse, type RequestPayloads, type RequestType, type ResultPayloads,
+} from './protocol.ts';
+
+/** Posts one response; `transfer` lists buffers to move rather than copy. */
+export type Send = (message: EngineResponse, transfer: ArrayBuffer[]) => void;
+
+/** The core and io functions the handler calls (replaceable in tests). */
+export interface EngineOperations {
+  fitModel: typeof fitModel;
+  fitCandidates: typeof fitCandidates;
+  empiricalVariogram: typeof empiricalVariogram;
+  leaveOneOut: typeof leaveOneOut;
+  createPredictor: typeof createPredictor;
+  computeSurfaceWith: typeof computeSurfaceWith;
+  readSamples: typeof readSamples;
+}
+
+export const ENGINE_OPERATIONS: EngineOperations = {
+  fitModel, fitCandidates, empiricalVariogram, leaveOneOut, createPredictor, computeSurfaceWith, readSamples,
+};
+
+/** Progress is posted when it has moved by at least this fraction (and at the end). */
+const PROGRESS_STEP = 0.01;
+
+function hashBytes(bytes: Uint8Array, seed: number): number {
+  // FNV-1a, 32 bit.
+  let h = seed >>> 0;
+  for (let k = 0; k < bytes.length; k++) {
+    h ^= bytes[k];
+    h = Math.imul(h, 0x01000193) >>> 0;
+  }
+  return h;
+}
+
+function hashArray(a: Float64Array, seed: number): string {
+  const bytes = new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
+  return hashBytes(bytes, seed).toString(36) + hashBytes(bytes, seed ^ 0x5bd1e995).toString(36);
+}
+
+/** A key that changes whenever the samples or the parts of the model that predictions use change. */
+export function predictorKey(samples: Samples, model: CovarianceModel): string {
+  const asF64 = (a: ArrayLike<number>) => (a instanceof Float64Array ? a : Float64Array.from(a));
+  const m = { s: model.structures, t: model.trend, a: model.anisotropy ?? null, f: model.transform };
+  return [samples.x.length, hashArray(asF64(samples.x), 0x811c9dc5), hashArray(asF64(samples.y), 0x9747b28c),
+    hashArray(asF64(samples.value), 0x3c6ef372), JSON.stringify(m)].join('|');
+}
+
+function checkSamples(samples: unknown): asserts samples is Samples {
+  const s = samples as Partial<Samples> | null;
+  if (!s || typeof s !== 'object' || !s.x || !s.y || !s.value) {
+    throw new GapwiseError('bad-option', 'Expected the request to carry samples with x, y and value arrays.');
+  }
+}
+
+/**
+ * Creates a handler with its own predictor cache. Call it with each incoming message; it posts
+ * progress, then exactly one result or error for the request's id.
+ */
+export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): (message: unknown, send: Send) => void {
+  let cached: { key: string; predictor: Predictor } | null = null;
+
+  const predictorFor = (samples: Samples, model: CovarianceModel): Predictor => {
+    const key = predictorKey(samples, model);
+    if (cached && cached.key === key) return cached.predictor;
+    cached = null; // free the old factor before building a new one
+    const predictor = ops.createPredictor(samples, model);
+    cached = { key, predictor };
+    return predictor;
+  };
+
+  const run = <K extends RequestType>(type: K, payload: RequestPayloads[K], progress: (done: number, total: number) => void): ResultPayloads[K] => {
+    const p = payload as RequestPayloads[RequestType];
+    switch (type) {
+      case 'fit': {
+        const q = p as RequestPayloads['fit'];
+        checkSamples(q.samples);
+        return ops.fitModel(q.samples, q.options) as ResultPayloads[K];
+      }
+      case 'fitCandidates': {
+        const q = p as RequestPayloads['fitCandidates'];
+        checkSamples(q.samples);
+        return ops.fitCandidates(q.samples, q.options ?? {}) as ResultPayloads[K];
+      }
+      case 'variogram': {
+        const q = p as RequestPayloads['variogram'];
+        checkSamples(q.samples);
+        return ops.empiricalVariogram(q.samples, q.options ?? {}) as ResultPayloads[K];
+      }
+      case 'crossValidate': {
+        const q = p as RequestPayloads['crossValidate'];
+        checkSamples(q.samples);
+        return ops.leaveOneOut(q.samples, q.model) as ResultPayloads[K];
+      }
+      case 'surfaceRows': {
+        const q = p as RequestPayloads['surfaceRows'];
+        checkSamples(q.samples);
+        return ops.computeSurfaceWith(predictorFor(q.samples, q.model), q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+      }
+      case 'readSamples': {
+        const q = p as RequestPayloads['readSamples'];
+        return ops.readSamples(q.text, q.options) as ResultPayloads[K];
+      }
+    }
+    throw new GapwiseError('bad-option', `Unknown request type ${JSON.stringify(type)}.`);
+  };
+
+  return (message: unknown, send: Send): void => {
+    if (!isEngineRequest(message)) {
+      const m = message as { id?: unknown; type?: unknown } | null;
+      const id = typeof m?.id === 'number' ? m.id : -1;
+      send({
+        id, type: 'error',
+        error: { code: 'bad-option', message: `Expected a request {id, type, payload} with type one of fit, fitCandidates, variogram, crossValidate, surfaceRows, readSamples; got type ${JSON.stringify(m?.type)}.`, place: {} },
+      }, []);
+      return;
+    }
+    const request = message as EngineRequest;
+    let lastFraction = -1;
+    const progress = (done: number, total: number): void => {
+      const fraction = total > 0 ? done / total : 1;
+      if (fraction - lastFraction >= PROGRESS_STEP || (done === total && lastFraction < 1)) {
+        lastFraction = fraction;
+        send({ id: request.id, type: 'progress', done, total, fraction }, []);
+      }
+    };
+    try {
+      const result = run(request.type, request.payload, progress);
+      send({ id: request.id, type: 'result', request: request.type, result } as EngineResponse, transferablesOf(result));
+    } catch (error) {
+      send({ id: request.id, type: 'error', error: errorData(error) }, []);
+    }
+  };
+}

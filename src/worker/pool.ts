@@ -1,0 +1,235 @@
+/**
+ * EnginePool: N engine workers (N = navigator.hardwareConcurrency by default). A surface is split
+ * into row bands of about equal numbers of active cells; idle workers take the next band, so bands
+ * are computed in parallel and each is handed to `onBand` as soon as it is done (the map repaints
+ * band by band). Progress is summed over the bands. Cancelling terminates every busy worker at once
+ * (and restarts them), so the work stops within a message round trip.
+ * Each worker factorises the kriging system once per surface and reuses it for all its bands
+ * (see the predictor cache in ./handler.ts); memory is 8n² bytes per worker.
+ */
+import { GapwiseError, type Warning } from '../core/errors.ts';
+import type { Samples } from '../core/samples.ts';
+import type { CovarianceModel } from '../core/model.ts';
+import type { Grid } from '../core/grid.ts';
+import type { SurfaceArray, SurfaceOptions, SurfaceResult, ValueRange } from '../core/surface.ts';
+import type { RequestPayloads, RequestType, ResultPayloads } from './protocol.ts';
+import { EngineClient, createEngineWorker, type Progress, type RequestOptions, type WorkerFactory } from './client.ts';
+
+export interface PoolOptions {
+  /** Number of workers (default navigator.hardwareConcurrency, at least 1). */
+  size?: number;
+  factory?: WorkerFactory;
+  /** Bands per worker for a surface (default 4): more bands give earlier pictures and better balance. */
+  bandsPerWorker?: number;
+}
+
+export interface SurfaceJobOptions {
+  onProgress?: (progress: Progress) => void;
+  /** Called with each finished band (rows in whole-grid numbering) and the merged surface so far. */
+  onBand?: (band: SurfaceResult, merged: SurfaceResult) => void;
+  signal?: AbortSignal;
+}
+
+/**
+ * Splits the rows of a grid into at most `parts` contiguous bands [start, end) holding about equal
+ * numbers of active cells (each band at least one row; rows with no active cell join a neighbour).
+ */
+export function splitBands(grid: Grid, parts: number): [number, number][] {
+  const { nx, ny, mask } = grid;
+  const n = Math.max(1, Math.min(ny, Math.floor(parts)));
+  const perRow = new Float64Array(ny);
+  let total = 0;
+  for (let j = 0; j < ny; j++) {
+    let c = nx;
+    if (mask) {
+      c = 0;
+      for (let k = j * nx; k < (j + 1) * nx; k++) c += mask[k];
+    }
+    perRow[j] = c;
+    total += c;
+  }
+  if (total === 0) return [[0, ny]];
+  const bands: [number, number][] = [];
+  let start = 0;
+  let acc = 0;
+  for (let j = 0; j < ny; j++) {
+    acc += perRow[j];
+    const target = (total * (bands.length + 1)) / n;
+    if (acc >= target - 1e-9 && bands.length < n - 1 && j + 1 < ny) {
+      bands.push([start, j + 1]);
+      start = j + 1;
+    }
+  }
+  bands.push([start, ny]);
+  return bands;
+}
+
+/** The sub-grid of rows [r0, r1) (its own mask slice), so a band request copies only its rows. */
+export function bandGrid(grid: Grid, r0: number, r1: number): Grid {
+  const g: Grid = { x0: grid.x0, y0: grid.y0 - r0 * grid.cell, cell: grid.cell, nx: grid.nx, ny: r1 - r0 };
+  if (grid.mask) g.mask = grid.mask.slice(r0 * grid.nx, r1 * grid.nx);
+  return g;
+}
+
+function widen(r: ValueRange | undefined, s: ValueRange | undefined): ValueRange | undefined {
+  if (!s) return r;
+  if (!r || Number.isNaN(r.min)) return { ...s };
+  if (Number.isNaN(s.min)) return r;
+  return { min: Math.min(r.min, s.min), max: Math.max(r.max, s.max) };
+}
+
+/** An empty whole-grid surface (all NaN) to merge bands into. */
+export function emptySurface(grid: Grid, options: SurfaceOptions, log: boolean): SurfaceResult {
+  const size = grid.nx * grid.ny;
+  const make = (): SurfaceArray => (options.precision === 'float64' ? new Float64Array(size) : new Float32Array(size)).fill(NaN);
+  const out: SurfaceResult = {
+    rows: [0, grid.ny], nx: grid.nx, mean: make(), sd: make(),
+    range: { mean: { min: NaN, max: NaN }, sd: { min: NaN, max: NaN } },
+    cells: 0, warnings: [],
+  };
+  if (options.threshold !== undefined) {
+    out.pExceed = make();
+    out.threshold = options.threshold;
+    out.range.pExceed = { min: NaN, max: NaN };
+  }
+  if (log) out.median = make();
+  return out;
+}
+
+/** Copies a band (rows in whole-grid numbering) into the whole surface and widens its ranges. */
+export function mergeBand(whole: SurfaceResult, band: SurfaceResult): void {
+  const offset = band.rows[0] * whole.nx;
+  whole.mean.set(band.mean, offset);
+  whole.sd.set(band.sd, offset);
+  if (whole.pExceed && band.pExceed) whole.pExceed.set(band.pExceed, offset);
+  if (whole.median && band.median) whole.median.set(band.median, offset);
+  whole.range.mean = widen(whole.range.mean, band.range.mean)!;
+  whole.range.sd = widen(whole.range.sd, band.range.sd)!;
+  if (whole.range.pExceed) whole.range.pExceed = widen(whole.range.pExceed, band.range.pExceed);
+  whole.cells += band.cells;
+  const seen = new Set(whole.warnings.map((w) => `${w.code}\n${w.message}`));
+  for (const w of band.warnings as Warning[]) {
+    const key = `${w.code}\n${w.message}`;
+    if (!seen.has(key)) {
+      seen.add(key);
+      whole.warnings.push(w);
+    }
+  }
+}
+
+function defaultSize(): number {
+  const n = (globalThis as { navigator?: { hardwareConcurrency?: number } }).navigator?.hardwareConcurrency;
+  return Math.max(1, Math.floor(n ?? 2));
+}
+
+export class EnginePool {
+  readonly size: number;
+  private readonly clients: EngineClient[];
+  private readonly bandsPerWorker: number;
+
+  constructor(options: PoolOptions = {}) {
+    this.size = Math.max(1, Math.floor(options.size ?? defaultSize()));
+    const factory = options.factory ?? createEngineWorker;
+    this.clients = Array.from({ length: this.size }, () => new EngineClient(factory));
+    this.bandsPerWorker = Math.max(1, Math.floor(options.bandsPerWorker ?? 4));
+  }
+
+  /** Workers started so far across the pool (restarts after cancelling included). */
+  get startedWorkers(): number {
+    return this.clients.reduce((s, c) => s + c.startedWorkers, 0);
+  }
+
+  /** Runs one request on the least busy worker. */
+  request<K extends RequestType>(type: K, payload: RequestPayloads[K], options: RequestOptions = {}): Promise<ResultPayloads[K]> {
+    let best = this.clients[0];
+    for (const c of this.clients) if (c.waiting < best.waiting) best = c;
+    return best.request(type, payload, options);
+  }
+
+  /**
+   * Computes mean, sd (and P(exceed)) on the whole grid in parallel row bands. Resolves with the
+   * merged surface; rejects with GapwiseError('cancelled') when aborted, or with the first band's error.
+   */
+  surface(
+    samples: Samples, model: CovarianceModel, grid: Grid, options: Omit<SurfaceOptions, 'rows'> = {}, job: SurfaceJobOptions = {},
+  ): Promise<SurfaceResult> {
+    const bands = splitBands(grid, this.size * this.bandsPerWorker);
+    const merged = emptySurface(grid, options, model.transform === 'log');
+    let total = 0;
+    if (grid.mask) { for (let k = 0; k < grid.mask.length; k++) total += grid.mask[k]; } else total = grid.nx * grid.ny;
+    const doneByBand = new Float64Array(bands.length);
+    let doneAll = 0;
+    const report = () => job.onProgress?.({ done: doneAll, total, fraction: total > 0 ? doneAll / total : 1 });
+
+    return new Promise<SurfaceResult>((resolve, reject) => {
+      if (job.signal?.aborted) {
+        reject(new GapwiseError('cancelled', 'The surface was cancelled before it started.'));
+        return;
+      }
+      let next = 0;
+      let finished = 0;
+      let stopped = false;
+      const running = new Map<EngineClient, number>();
+
+      const stop = (error: unknown) => {
+        if (stopped) return;
+        stopped = true;
+        job.signal?.removeEventListener('abort', onAbort);
+        for (const [client, id] of running) client.cancel(id);
+        running.clear();
+        reject(error);
+      };
+      const onAbort = () => stop(new GapwiseError('cancelled', `The surface was cancelled after ${finished} of ${bands.length} bands.`));
+      job.signal?.addEventListener('abort', onAbort, { once: true });
+
+      const feed = (client: EngineClient) => {
+        if (stopped || next >= bands.length) return;
+        const b = next++;
+        const [r0, r1] = bands[b];
+        const { id, promise } = client.start('surfaceRows', { samples, model, grid: bandGrid(grid, r0, r1), options: { ...options } }, {
+          onProgress: (p) => {
+            if (stopped) return;
+            doneAll += p.done - doneByBand[b];
+            doneByBand[b] = p.done;
+            report();
+          },
+        });
+        running.set(client, id);
+        promise.then((band) => {
+          if (stopped) return;
+          running.delete(client);
+          const placed: SurfaceResult = { ...band, rows: [r0, r1] };
+          mergeBand(merged, placed);
+          doneAll += band.cells - doneByBand[b];
+          doneByBand[b] = band.cells;
+          finished++;
+          report();
+          job.onBand?.(placed, merged);
+          if (stopped) return; // onBand may have aborted
+          if (finished === bands.length) {
+            stopped = true;
+            job.signal?.removeEventListener('abort', onAbort);
+            resolve(merged);
+          } else {
+            feed(client);
+          }
+        }, (error) => {
+          running.delete(client);
+          stop(error);
+        });
+      };
+      report();
+      for (const c of this.clients) feed(c);
+    });
+  }
+
+  /** Cancels everything running on every worker. */
+  cancelAll(): void {
+    for (const c of this.clients) c.cancelAll();
+  }
+
+  /** Terminates every worker. */
+  dispose(): void {
+    for (const c of this.clients) c.dispose();
+  }
+}

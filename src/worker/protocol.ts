@@ -1,0 +1,147 @@
+/**
+ * The message protocol between the main thread and the engine workers: a tagged union of requests
+ * ({id, type, payload}) and responses ({id, type: 'progress' | 'result' | 'error', ...}).
+ *
+ * Everything is plain data (structured-clone safe). Errors travel as data {code, message, place} and
+ * become GapwiseError again on the main thread. Results are posted with their typed-array buffers
+ * transferred (no copy); requests are copied, so the main thread keeps its samples.
+ */
+import type { Samples } from '../core/samples.ts';
+import type { CovarianceModel } from '../core/model.ts';
+import type { FitOptions } from '../core/fit.ts';
+import type { EmpiricalVariogram, VariogramOptions } from '../core/variogram.ts';
+import type { LeaveOneOutResult } from '../core/cross-validation.ts';
+import type { Grid } from '../core/grid.ts';
+import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
+import type { IntakeOptions, IntakeResult } from '../io/types.ts';
+import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/errors.ts';
+
+/** What each request type carries. */
+export interface RequestPayloads {
+  fit: { samples: Samples; options: FitOptions };
+  fitCandidates: { samples: Samples; options?: Omit<FitOptions, 'family' | 'nu'> };
+  variogram: { samples: Samples; options?: VariogramOptions };
+  crossValidate: { samples: Samples; model: CovarianceModel };
+  /** Surfaces on `options.rows` of the grid (all rows when absent). */
+  surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions };
+  readSamples: { text: string; options: IntakeOptions };
+}
+
+/** What each request type answers. */
+export interface ResultPayloads {
+  fit: CovarianceModel;
+  fitCandidates: CovarianceModel[];
+  variogram: EmpiricalVariogram;
+  crossValidate: LeaveOneOutResult;
+  surfaceRows: SurfaceResult;
+  readSamples: IntakeResult;
+}
+
+export type RequestType = keyof RequestPayloads;
+
+export const REQUEST_TYPES: readonly RequestType[] = ['fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'readSamples'];
+
+/** A request; `id` is unique per client. */
+export type EngineRequest<K extends RequestType = RequestType> = K extends RequestType
+  ? { id: number; type: K; payload: RequestPayloads[K] }
+  : never;
+
+export interface ProgressMessage {
+  id: number;
+  type: 'progress';
+  /** Units of work done and in total (cells for surfaces; 0 of 1 when unknown). */
+  done: number;
+  total: number;
+  /** done / total, 0..1. */
+  fraction: number;
+}
+
+export type ResultMessage<K extends RequestType = RequestType> = K extends RequestType
+  ? { id: number; type: 'result'; request: K; result: ResultPayloads[K] }
+  : never;
+
+/** An error as data: a GapwiseError code, or 'internal' for a bug (an exception that is not ours). */
+export interface ErrorData {
+  code: ErrorCode | 'internal';
+  message: string;
+  place: ErrorPlace;
+}
+
+export interface ErrorMessage {
+  id: number;
+  type: 'error';
+  error: ErrorData;
+}
+
+export type EngineResponse = ProgressMessage | ResultMessage | ErrorMessage;
+
+/** An engine failure that is not a GapwiseError (a bug, or the worker dying). */
+export class EngineError extends Error {
+  readonly code: 'internal';
+  readonly place: ErrorPlace;
+  constructor(message: string, place: ErrorPlace = {}) {
+    super(message);
+    this.name = 'EngineError';
+    this.code = 'internal';
+    this.place = place;
+  }
+}
+
+/** True when `value` has the shape of a request of a known type. */
+export function isEngineRequest(value: unknown): value is EngineRequest {
+  if (typeof value !== 'object' || value === null) return false;
+  const v = value as { id?: unknown; type?: unknown; payload?: unknown };
+  return typeof v.id === 'number' && Number.isFinite(v.id)
+    && typeof v.type === 'string' && (REQUEST_TYPES as readonly string[]).includes(v.type)
+    && typeof v.payload === 'object' && v.payload !== null;
+}
+
+/** True when `value` has the shape of a response. */
+export function isEngineResponse(value: unknown): value is EngineResponse {
+  if (typeof value !== 'object' || value === null) return false;
+  const v = value as { id?: unknown; type?: unknown };
+  return typeof v.id === 'number' && (v.type === 'progress' || v.type === 'result' || v.type === 'error');
+}
+
+/** Turns anything thrown into error data (GapwiseError keeps its code and place). */
+export function errorData(error: unknown): ErrorData {
+  if (error instanceof GapwiseError) return { code: error.code, message: error.message, place: { ...error.place } };
+  if (error instanceof EngineError) return { code: 'internal', message: error.message, place: { ...error.place } };
+  const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
+  return { code: 'internal', message: `Unexpected failure in the engine (a bug): ${message}`, place: {} };
+}
+
+/** Error data back into an error object: GapwiseError for our codes, EngineError for 'internal'. */
+export function errorFromData(data: ErrorData): GapwiseError | EngineError {
+  if (data.code === 'internal') return new EngineError(data.message, data.place);
+  return new GapwiseError(data.code, data.message, data.place);
+}
+
+/**
+ * The distinct ArrayBuffers behind the typed arrays in a value (searched through plain objects and
+ * arrays, 6 levels deep), for the transfer list of postMessage. Duplicates are removed (a transfer
+ * list may not name a buffer twice).
+ */
+export function transferablesOf(value: unknown): ArrayBuffer[] {
+  const found = new Set<ArrayBuffer>();
+  const visit = (v: unknown, depth: number): void => {
+    if (v === null || typeof v !== 'object' || depth > 6) return;
+    if (ArrayBuffer.isView(v)) {
+      if (v.buffer instanceof ArrayBuffer && v.buffer.byteLength > 0) found.add(v.buffer);
+      return;
+    }
+    if (v instanceof ArrayBuffer) {
+      if (v.byteLength > 0) found.add(v);
+      return;
+    }
+    if (Array.isArray(v)) {
+      for (const item of v) visit(item, depth + 1);
+      return;
+    }
+    const proto = Object.getPrototypeOf(v);
+    if (proto !== Object.prototype && proto !== null) return;
+    for (const key of Object.keys(v)) visit((v as Record<string, unknown>)[key], depth + 1);
+  };
+  visit(value, 0);
+  return [...found];
+}

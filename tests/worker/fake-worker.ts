@@ -1,0 +1,53 @@
+// A stand-in for a Web Worker in Node: messages are structured-cloned both ways (transfer lists
+// honoured, so transferred buffers are detached on the sending side), handled by the real engine
+// handler on a later tick, and nothing is delivered after terminate().
+import { createEngineHandler, ENGINE_OPERATIONS, type EngineOperations } from '../../src/worker/handler.ts';
+import type { WorkerLike } from '../../src/worker/client.ts';
+
+export class FakeWorker implements WorkerLike {
+  onmessage: ((event: MessageEvent) => void) | null = null;
+  onerror: ((event: ErrorEvent) => void) | null = null;
+  terminated = false;
+  readonly received: unknown[] = [];
+  private readonly handle;
+
+  constructor(ops: EngineOperations = ENGINE_OPERATIONS, private readonly delay = 0) {
+    this.handle = createEngineHandler(ops);
+  }
+
+  postMessage(message: unknown): void {
+    const copy = structuredClone(message);
+    this.received.push(copy);
+    setTimeout(() => {
+      if (this.terminated) return;
+      this.handle(copy, (response, transfer) => {
+        const out = structuredClone(response, { transfer });
+        setTimeout(() => {
+          if (!this.terminated) this.onmessage?.({ data: out } as MessageEvent);
+        }, 0);
+      });
+    }, this.delay);
+  }
+
+  terminate(): void {
+    this.terminated = true;
+  }
+
+  /** Simulates the worker dying. */
+  crash(message: string): void {
+    this.onerror?.({ message, preventDefault() {} } as ErrorEvent);
+  }
+}
+
+/** A factory that records every worker it makes. */
+export function fakeFactory(ops?: EngineOperations, delay = 0): { factory: () => FakeWorker; made: FakeWorker[] } {
+  const made: FakeWorker[] = [];
+  return {
+    made,
+    factory: () => {
+      const w = new FakeWorker(ops, delay);
+      made.push(w);
+      return w;
+    },
+  };
+}

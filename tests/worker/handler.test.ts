@@ -1,0 +1,138 @@
+import { describe, expect, it } from 'vitest';
+import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
+import type { EngineResponse } from '../../src/worker/protocol.ts';
+import { computeSurface } from '../../src/core/surface.ts';
+import { empiricalVariogram } from '../../src/core/variogram.ts';
+import { leaveOneOut } from '../../src/core/cross-validation.ts';
+import { makeSamples } from '../../src/core/samples.ts';
+import type { CovarianceModel } from '../../src/core/model.ts';
+import type { Grid } from '../../src/core/grid.ts';
+import { loadFixture } from '../helpers/fixtures.ts';
+
+// Samples and a masked grid from the surface fixture (values from scikit-learn's reference case).
+const fx = loadFixture<{ values: number[]; model: CovarianceModel; threshold: number }>('surface.json');
+const samples = makeSamples(fx.x as number[], fx.y as number[], fx.cases[1].values);
+const model = fx.cases[1].model;
+const grid: Grid = { ...(fx.grid as Omit<Grid, 'mask'>), mask: Uint8Array.from(fx.mask as number[]) };
+
+function collect(ops?: EngineOperations) {
+  const handle = createEngineHandler(ops);
+  const sent: { message: EngineResponse; transfer: ArrayBuffer[] }[] = [];
+  return { sent, run: (m: unknown) => handle(m, (message, transfer) => sent.push({ message, transfer })) };
+}
+
+describe('createEngineHandler', () => {
+  it('createEngineHandler answers surfaceRows with the same numbers as computeSurface, progress first, buffers transferred', () => {
+    const { sent, run } = collect();
+    run({ id: 7, type: 'surfaceRows', payload: { samples, model, grid, options: { threshold: 38, rows: [2, 9], blockCells: 10 } } });
+    const last = sent.at(-1)!;
+    expect(last.message.type).toBe('result');
+    expect(last.message.id).toBe(7);
+    const result = (last.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeSurface>;
+    const direct = computeSurface(samples, model, grid, { threshold: 38, rows: [2, 9] });
+    expect(Array.from(result.mean)).toEqual(Array.from(direct.mean));
+    expect(Array.from(result.sd)).toEqual(Array.from(direct.sd));
+    expect(Array.from(result.pExceed!)).toEqual(Array.from(direct.pExceed!));
+    expect(last.transfer).toHaveLength(3);
+    expect(last.transfer).toContain(result.mean.buffer);
+    const progress = sent.slice(0, -1).map((s) => s.message);
+    expect(progress.length).toBeGreaterThan(3);
+    for (const p of progress) expect(p).toMatchObject({ id: 7, type: 'progress' });
+    const fractions = progress.map((p) => (p as Extract<EngineResponse, { type: 'progress' }>).fraction);
+    for (let k = 1; k < fractions.length; k++) expect(fractions[k]).toBeGreaterThan(fractions[k - 1]);
+    expect(fractions.at(-1)).toBe(1);
+  });
+
+  it('createEngineHandler factorises once for bands of the same samples and model, again when either changes', () => {
+    let built = 0;
+    const ops: EngineOperations = { ...ENGINE_OPERATIONS, createPredictor: (s, m, o) => { built++; return ENGINE_OPERATIONS.createPredictor(s, m, o); } };
+    const { sent, run } = collect(ops);
+    run({ id: 1, type: 'surfaceRows', payload: { samples, model, grid, options: { rows: [0, 3] } } });
+    run({ id: 2, type: 'surfaceRows', payload: { samples: structuredClone(samples), model: structuredClone(model), grid, options: { rows: [3, 6] } } });
+    expect(built).toBe(1);
+    run({ id: 3, type: 'surfaceRows', payload: { samples, model: { ...model, structures: [{ type: 'exponential', sill: 3, scale: 80 }] }, grid, options: { rows: [0, 1] } } });
+    expect(built).toBe(2);
+    const changed = makeSamples(samples.x, samples.y, samples.value.map((v, i) => (i === 4 ? v + 1e-9 : v)));
+    run({ id: 4, type: 'surfaceRows', payload: { samples: changed, model, grid, options: { rows: [0, 1] } } });
+    expect(built).toBe(3);
+    expect(sent.filter((s) => s.message.type === 'result').map((s) => s.message.id)).toEqual([1, 2, 3, 4]);
+  });
+
+  it('createEngineHandler dispatches variogram and crossValidate to the core functions with their payloads', () => {
+    const { sent, run } = collect();
+    run({ id: 11, type: 'variogram', payload: { samples, options: { lagCount: 6 } } });
+    run({ id: 12, type: 'crossValidate', payload: { samples, model } });
+    const [v, cv] = sent.map((s) => s.message as Extract<EngineResponse, { type: 'result' }>);
+    expect(v).toMatchObject({ id: 11, type: 'result', request: 'variogram' });
+    expect(v.result).toEqual(empiricalVariogram(samples, { lagCount: 6 }));
+    expect(cv).toMatchObject({ id: 12, type: 'result', request: 'crossValidate' });
+    expect((cv.result as ReturnType<typeof leaveOneOut>).summary).toEqual(leaveOneOut(samples, model).summary);
+  });
+
+  it('createEngineHandler passes fit, fitCandidates and readSamples payloads through unchanged', () => {
+    const calls: [string, unknown[]][] = [];
+    const spy = (name: string, value: unknown) => (...args: unknown[]) => { calls.push([name, args]); return value; };
+    const ops = {
+      ...ENGINE_OPERATIONS,
+      fitModel: spy('fitModel', { structures: [], trend: 'constant', transform: 'none' }),
+      fitCandidates: spy('fitCandidates', []),
+      readSamples: spy('readSamples', { rows: [] }),
+    } as unknown as EngineOperations;
+    const { sent, run } = collect(ops);
+    run({ id: 1, type: 'fit', payload: { samples, options: { family: 'matern', nu: 1.5, method: 'reml' } } });
+    run({ id: 2, type: 'fitCandidates', payload: { samples } });
+    run({ id: 3, type: 'readSamples', payload: { text: 'x,y,v\n1,2,3\n', options: { fileName: 'a.csv' } } });
+    expect(calls.map((c) => c[0])).toEqual(['fitModel', 'fitCandidates', 'readSamples']);
+    expect(calls[0][1][1]).toEqual({ family: 'matern', nu: 1.5, method: 'reml' });
+    expect(calls[1][1][1]).toEqual({});
+    expect(calls[2][1]).toEqual(['x,y,v\n1,2,3\n', { fileName: 'a.csv' }]);
+    expect(sent.map((s) => [s.message.id, s.message.type])).toEqual([[1, 'result'], [2, 'result'], [3, 'result']]);
+  });
+
+  it('createEngineHandler reads a real CSV through io/intake and transfers the sample arrays', () => {
+    const { sent, run } = collect();
+    const text = 'easting,northing,lead\n500010,4980010,120\n500050,4980020,180\n500030,4980070,95\n';
+    run({ id: 5, type: 'readSamples', payload: { text, options: { fileName: 'yard.csv', crs: 'EPSG:32633' } } });
+    const last = sent.at(-1)!;
+    expect(last.message.type, JSON.stringify(last.message)).toBe('result');
+    const r = (last.message as Extract<EngineResponse, { type: 'result' }>).result as { samples: { value: Float64Array } };
+    expect(Array.from(r.samples.value)).toEqual([120, 180, 95]);
+    expect(last.transfer).toContain(r.samples.value.buffer);
+  });
+
+  it('createEngineHandler returns GapwiseErrors as data with their code and place', () => {
+    const { sent, run } = collect();
+    run({ id: 21, type: 'crossValidate', payload: { samples: makeSamples([0, 1], [0, 1], [1, 2]), model } });
+    run({ id: 22, type: 'readSamples', payload: { text: '', options: { fileName: 'empty.csv' } } });
+    run({ id: 23, type: 'surfaceRows', payload: { samples, model, grid, options: { rows: [4, 2] } } });
+    const errs = sent.map((s) => s.message as Extract<EngineResponse, { type: 'error' }>);
+    expect(errs.map((e) => [e.id, e.type, e.error.code])).toEqual([[21, 'error', 'too-few-samples'], [22, 'error', 'bad-file'], [23, 'error', 'bad-option']]);
+    expect(errs[0].error.message).toMatch(/got 2/);
+    expect(errs[1].error.place.file).toBe('empty.csv');
+  });
+
+  it('createEngineHandler answers malformed messages and unexpected exceptions with error data', () => {
+    const ops = { ...ENGINE_OPERATIONS, empiricalVariogram: () => { throw new TypeError('boom'); } } as unknown as EngineOperations;
+    const { sent, run } = collect(ops);
+    run({ id: 31, type: 'explode', payload: {} });
+    run('not a request');
+    run({ id: 32, type: 'variogram', payload: { samples } });
+    run({ id: 33, type: 'variogram', payload: { samples: { x: [1] } } });
+    const m = sent.map((s) => s.message as Extract<EngineResponse, { type: 'error' }>);
+    expect(m.map((e) => [e.id, e.error.code])).toEqual([[31, 'bad-option'], [-1, 'bad-option'], [32, 'internal'], [33, 'bad-option']]);
+    expect(m[0].error.message).toContain('got type "explode"');
+    expect(m[2].error.message).toBe('Unexpected failure in the engine (a bug): TypeError: boom');
+  });
+});
+
+describe('predictorKey', () => {
+  it('predictorKey is equal for equal content and differs when values, coordinates or the model change', () => {
+    const k = predictorKey(samples, model);
+    expect(predictorKey(structuredClone(samples), structuredClone(model))).toBe(k);
+    expect(predictorKey(makeSamples(samples.x, samples.y, samples.value.map((v) => v * 2)), model)).not.toBe(k);
+    expect(predictorKey(makeSamples(samples.y, samples.x, samples.value), model)).not.toBe(k);
+    expect(predictorKey(samples, { ...model, trend: 'linear' })).not.toBe(k);
+    // Fit details do not change predictions, so they do not change the key.
+    expect(predictorKey(samples, { ...model, fit: { method: 'reml', converged: true } })).toBe(k);
+  });
+});
