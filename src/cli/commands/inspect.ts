@@ -24,6 +24,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }
     writeOutput(io, out, `${lines.join('\n')}\n`);
     io.stderr(`wrote ${intake.rows.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
+    io.stderr(`caution: ${CAUTION}\n`);
   }
   const report: Record<string, unknown> = { caution: CAUTION, ...intake.report };
   if (boundary) report.boundary = boundary;
