@@ -24,8 +24,10 @@ const NUMERIC_CODES: ReadonlySet<ErrorCode> = new Set(['not-positive-definite', 
 
 export interface ErrorPlace {
   file?: string;
-  /** 1-based line in a text file (header = line 1), or feature index in GeoJSON. */
+  /** 1-based line in a text file (header = line 1). */
   row?: number;
+  /** 0-based feature index in a GeoJSON file. */
+  feature?: number;
   column?: string;
   /** The raw text that was rejected. */
   raw?: string;
@@ -53,6 +55,7 @@ export class GapwiseError extends Error {
     const parts: string[] = [];
     if (this.place.file) parts.push(this.place.file);
     if (this.place.row !== undefined) parts.push(`line ${this.place.row}`);
+    if (this.place.feature !== undefined) parts.push(`feature ${this.place.feature}`);
     if (this.place.column !== undefined) parts.push(`column "${this.place.column}"`);
     return parts.length ? `${parts.join(', ')}: ${this.message}` : this.message;
   }
