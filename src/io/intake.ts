@@ -134,10 +134,10 @@ function csvTable(text: string, fileName: string): Table {
   const entries: ReportEntry[] = [];
   const warnings: Warning[] = [];
   for (const r of t.rows) {
-    let cells = r.cells;
+    const cells = r.cells;
     if (cells.length > width) {
       const extra = cells.slice(width);
-      if (extra.every((c) => c.trim() === '')) cells = cells.slice(0, width);
+      if (extra.every((c) => c.trim() === '')) cells.length = width;
       else {
         entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} fields but the header has ${width}; a value may hold an unquoted ${t.delimiter === '\t' ? 'tab' : `"${t.delimiter}"`}` });
         continue;
@@ -147,7 +147,7 @@ function csvTable(text: string, fileName: string): Table {
       entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} field${cells.length === 1 ? '' : 's'} but the header has ${width}` });
       continue;
     }
-    rows.push({ line: r.line, cells });
+    rows.push(r);
   }
   if (t.renamed.length) {
     warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${t.renamed.map(([a, b]) => `"${a}" → "${b}"`).join(', ')}.` });
@@ -205,6 +205,16 @@ function marksFor(rows: Row[], col: number, delimiter: string): ColumnMarks {
   const cells: string[] = [];
   for (const r of rows) cells.push(r.cells[col]);
   return chooseMark(cells, delimiter);
+}
+
+/** resolveCrs with the file named in the error's place. */
+function resolveIn(crs: string, file: string, option: string): ResolvedCrs {
+  try {
+    return resolveCrs(crs);
+  } catch (e) {
+    if (e instanceof GapwiseError) throw new GapwiseError(e.code, `${option}: ${e.message}`, { ...e.place, file });
+    throw e;
+  }
 }
 
 interface Parsed {
@@ -345,8 +355,15 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   const unknownQualifiers = new Set<string>();
   let ndCount = 0;
   const factor = RULE_FACTOR[rule];
-  for (const r of rows) {
-    const reject = (field: string, raw: string, reason: string) => entries.push({ ...place(r), field, raw, action: 'rejected', reason });
+  let r: Row = rows[0];
+  const reject = (field: string, raw: string, reason: string) => entries.push({ ...place(r), field, raw, action: 'rejected', reason });
+  const dlFromColumn = (): number | null => {
+    if (dlCol < 0) return null;
+    const p = parseColumnNumber(r.cells[dlCol], dlMarks as ColumnMarks);
+    return p.ok ? p.value : null;
+  };
+  for (let k = 0; k < rows.length; k++) {
+    r = rows[k];
     let x: number;
     let y: number;
     if (format === 'geojson') {
@@ -382,11 +399,6 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     const qualVerdict = qualCol >= 0 ? qualifierSaysNd(norm[qualCol], r.cells[qualCol]) : false;
     const qualSaysNd = qualVerdict === true;
     if (qualVerdict === null) unknownQualifiers.add(r.cells[qualCol].trim());
-    const dlFromColumn = (): number | null => {
-      if (dlCol < 0) return null;
-      const p = parseColumnNumber(r.cells[dlCol], dlMarks as ColumnMarks);
-      return p.ok ? p.value : null;
-    };
     let value: number;
     let nd = false;
     let dl = NaN;
@@ -461,14 +473,19 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   let input: ResolvedCrs;
   let detection: string;
   if (options.crs !== undefined) {
-    input = resolveCrs(options.crs);
+    input = resolveIn(options.crs, file, 'crs');
     detection = 'given';
+    if (naming === 'geographic' && !input.geographic) {
+      warnings.push({ code: 'crs-names-disagree', message: `The columns "${columns[xCol]}" and "${columns[yCol]}" are named like longitude/latitude, but the given CRS ${input.key} is projected; the values are read as ${input.key} coordinates.` });
+    } else if (naming === 'planar' && input.geographic) {
+      warnings.push({ code: 'crs-names-disagree', message: `The columns "${columns[xCol]}" and "${columns[yCol]}" are named like planar coordinates, but the given CRS ${input.key} is longitude/latitude; the values are read as degrees.` });
+    }
     if (format === 'geojson' && !input.geographic) {
       warnings.push({ code: 'geojson-crs', message: `GeoJSON positions are WGS 84 longitude/latitude (RFC 7946), but the CRS ${input.key} was given; the positions are read in ${input.key}.` });
     }
   } else if (format === 'geojson') {
     if (table.legacyCrs && !/CRS84$|EPSG:{1,2}4326$/i.test(table.legacyCrs)) {
-      input = resolveCrs(table.legacyCrs);
+      input = resolveIn(table.legacyCrs, file, 'crs');
       detection = `from the file's "crs" member (${table.legacyCrs})`;
       warnings.push({ code: 'geojson-crs', message: `The GeoJSON declares the CRS "${table.legacyCrs}"; RFC 7946 allows only WGS 84 longitude/latitude, but the declared CRS was used.` });
     } else {
@@ -537,7 +554,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   // --- working CRS and projection -------------------------------------------------------------
   let work: ResolvedCrs;
   if (options.workCrs !== undefined) {
-    work = resolveCrs(options.workCrs);
+    work = resolveIn(options.workCrs, file, 'workCrs');
     if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
   } else if (input.geographic) {
     // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
@@ -562,7 +579,13 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   } else {
     work = input;
   }
-  const toWork = createTransform(input.key, work.key);
+  let toWork: ReturnType<typeof createTransform>;
+  try {
+    toWork = createTransform(input.key, work.key);
+  } catch (e) {
+    if (e instanceof GapwiseError) throw new GapwiseError(e.code, e.message, { ...e.place, file });
+    throw e;
+  }
   const kept: Parsed[] = [];
   const wx: number[] = [];
   const wy: number[] = [];

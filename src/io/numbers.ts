@@ -70,7 +70,10 @@ export type MarkEvidence = '.' | ',' | 'ambiguous' | 'none';
  * comma; "3.75" only a decimal point; "1,234" could be either (a grouped thousand or a decimal);
  * "1.234.567" can only be grouping (so the other mark is the decimal).
  */
+const PLAIN_INTEGER = /^\s*[+-]?\d*\s*$/;
+
 export function markEvidence(raw: string): MarkEvidence {
+  if (PLAIN_INTEGER.test(raw)) return 'none';
   let s = raw.trim();
   const nd = nonDetectLimit(s);
   if (nd !== null) s = nd;
@@ -128,6 +131,7 @@ export function chooseMark(cells: Iterable<string>, delimiter: string): ColumnMa
  * each unambiguous cell is read by its own mark.
  */
 export function parseColumnNumber(raw: string, marks: ColumnMarks): NumberResult {
+  if (marks.decided && !marks.mixed) return parseNumber(raw, marks.mark);
   const e = markEvidence(raw);
   // "1,234" in a semicolon file reads by the file's custom (decimal comma); "1.234" there could be
   // a grouped thousand or a decimal point, and nothing in the column settles it.

@@ -4,9 +4,13 @@
  * sample skewness, and advice on a log transform for strongly skewed positive data.
  */
 
-/** Groups of indices whose locations lie within `tolerance` of each other (single linkage). */
+/**
+ * Groups of indices whose locations lie within `tolerance` of each other (single linkage: a chain of
+ * close points is one group). Sweep over the points sorted by x, so O(n log n) for spread-out data.
+ */
 export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tolerance: number): number[][] {
   const n = x.length;
+  const tol = Math.max(tolerance, 0);
   const parent = new Int32Array(n);
   for (let i = 0; i < n; i++) parent[i] = i;
   const find = (i: number): number => {
@@ -16,32 +20,23 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
     }
     return i;
   };
-  const tol = Math.max(tolerance, 0);
-  // Cells of side `tol` (or exact matches for tol = 0): a neighbour within tol is in one of 9 cells.
-  const cell = tol > 0 ? tol : 1;
-  const grid = new Map<string, number[]>();
-  const keyOf = (cx: number, cy: number) => `${cx},${cy}`;
-  for (let i = 0; i < n; i++) {
-    const cx = Math.floor(x[i] / cell);
-    const cy = Math.floor(y[i] / cell);
-    for (let dx = -1; dx <= 1; dx++) {
-      for (let dy = -1; dy <= 1; dy++) {
-        const list = grid.get(keyOf(cx + dx, cy + dy));
-        if (!list) continue;
-        for (const j of list) {
-          const d = Math.hypot(x[i] - x[j], y[i] - y[j]);
-          if (d <= tol) {
-            const a = find(i);
-            const b = find(j);
-            if (a !== b) parent[Math.max(a, b)] = Math.min(a, b);
-          }
-        }
+  const order = new Uint32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  const xs = Float64Array.from(x);
+  order.sort((a, b) => xs[a] - xs[b]);
+  for (let a = 0; a < n; a++) {
+    const i = order[a];
+    for (let b = a + 1; b < n; b++) {
+      const j = order[b];
+      if (xs[j] - xs[i] > tol) break;
+      const dy = y[j] - y[i];
+      if (dy > tol || dy < -tol) continue;
+      if (Math.hypot(xs[j] - xs[i], dy) <= tol) {
+        const ri = find(i);
+        const rj = find(j);
+        if (ri !== rj) parent[Math.max(ri, rj)] = Math.min(ri, rj);
       }
     }
-    const k = keyOf(cx, cy);
-    const list = grid.get(k);
-    if (list) list.push(i);
-    else grid.set(k, [i]);
   }
   const groups = new Map<number, number[]>();
   for (let i = 0; i < n; i++) {

@@ -2,6 +2,7 @@
 // are in tests/fixtures/intake/expected.json (worked out by hand from the file text). Working
 // coordinates of lon/lat files are checked against PROJ values in tests/reference/proj.json.
 import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { readSamples, splitUnit, normaliseName, NON_DETECT_NOTE } from '../../src/io/intake.ts';
@@ -229,5 +230,121 @@ describe('readSamples details', () => {
     const r = readSamples(text, { fileName: 'yn.csv' });
     expect(r.report.qualifierColumn).toBe('non_detect');
     expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
+  });
+});
+
+describe('readSamples properties (fast-check)', () => {
+  const AMBIGUOUS = /^-?[1-9]\d{0,2}[.,]\d{3}$/;
+
+  it('readSamples: random tables written with random delimiters, quoting and decimal marks read back to the same numbers', () => {
+    const text = fc.string({ maxLength: 10 });
+    fc.assert(
+      fc.property(
+        fc.record({
+          delimiter: fc.constantFrom(',', ';', '\t'),
+          comma: fc.boolean(),
+          quoting: fc.constantFrom('none', 'all', 'some'),
+          crlf: fc.boolean(),
+          bom: fc.boolean(),
+          centre: fc.integer({ min: -170, max: 170 }),
+          rows: fc.array(
+            fc.record({
+              value: fc.double({ min: -1e6, max: 1e6, noNaN: true }),
+              lat: fc.double({ min: -60, max: 60, noNaN: true }),
+              note: text,
+              quote: fc.boolean(),
+            }),
+            { minLength: 1, maxLength: 20 },
+          ),
+        }),
+        (t) => {
+          const comma = t.comma && t.delimiter !== ',';
+          const eol = t.crlf ? '\r\n' : '\n';
+          const num = (v: number) => (comma ? String(v).replace('.', ',') : String(v));
+          const cell = (s: string, force: boolean) => {
+            const needs = /["\r\n]/.test(s) || s.includes(t.delimiter);
+            if (t.quoting === 'all' || needs || (t.quoting === 'some' && force)) return `"${s.replace(/"/g, '""')}"`;
+            return s;
+          };
+          const lines = ['id', 'lon', 'lat', 'v', 'note'].join(t.delimiter);
+          let body = '';
+          let line = 2;
+          const expectedLines: number[] = [];
+          const want = t.rows.map((r, i) => {
+            const lon = t.centre + i * 0.013;
+            // Spaces around a note would be data; keep notes non-blank so that no row is blank.
+            const note = `n${r.note}`;
+            const written = [cell(`S${i}`, r.quote), cell(num(lon), r.quote), cell(num(r.lat), r.quote), cell(num(r.value), r.quote), cell(note, r.quote)];
+            body += written.join(t.delimiter) + eol;
+            expectedLines.push(line);
+            line += 1 + (note.match(/\r\n|\r|\n/g)?.length ?? 0);
+            return { id: `S${i}`, lon, lat: r.lat, value: r.value, cells: [num(lon), num(r.lat), num(r.value)] };
+          });
+          const csv = (t.bom ? '\ufeff' : '') + lines + eol + body;
+          let result: IntakeResult;
+          try {
+            result = readSamples(csv, { fileName: 'p.csv', value: 'v', duplicates: 'keep' });
+          } catch (e) {
+            // The only refusal allowed: every row held a cell whose grouping nothing could settle.
+            expect(e).toBeInstanceOf(GapwiseError);
+            expect((e as GapwiseError).message).toContain('ambiguous');
+            return;
+          }
+          expect(result.report.delimiter).toBe(t.delimiter);
+          const byId = new Map(result.rows.map((r) => [r.id, r]));
+          want.forEach((w, i) => {
+            const got = byId.get(w.id);
+            if (!got) {
+              const entry = result.report.entries.find((e) => e.line === expectedLines[i] && e.action === 'rejected');
+              expect(entry?.reason, `row ${i} missing: ${JSON.stringify(result.report.entries)}`).toContain('ambiguous');
+              expect(w.cells.some((c) => AMBIGUOUS.test(c))).toBe(true);
+              return;
+            }
+            // === so that −0 written as "0" counts as read back.
+            expect(got.inputX === w.lon, `lon ${got.inputX} vs ${w.lon}`).toBe(true);
+            expect(got.inputY === w.lat, `lat ${got.inputY} vs ${w.lat}`).toBe(true);
+            expect(got.value === w.value, `value ${got.value} vs ${w.value}`).toBe(true);
+            expect(got.lines).toEqual([expectedLines[i]]);
+          });
+        },
+      ),
+      { numRuns: 150 },
+    );
+  });
+
+  it('readSamples: random text and bytes raise nothing but GapwiseError', () => {
+    const tokens = fc.constantFrom('lon', 'lat', 'x', 'y', 'easting', 'id', 'Pb (mg/kg)', 'qualifier', 'ND', '<', '<0.5', '< 5', '1', '2.5', '-3', '1,5', '1.234', '1,234.5', 'NA', '', ' ', '"', '""', '\n', '\r\n', ',', ';', '\t', '123', '1e400', '200', '-91', '95', '637l80.0', '<script>', '{', '}', '[', ']', ':', 'null');
+    const csvish = fc.array(tokens, { maxLength: 80 }).map((a) => a.join(''));
+    const headed = fc
+      .tuple(fc.constantFrom('lon,lat,v\n', 'x;y;v;flag\n', 'id\tlongitude\tlatitude\tPb\tAs\n', 'easting,northing,Pb,detect\n'), csvish)
+      .map(([h, b]) => h + b);
+    const bytes = fc.uint8Array({ maxLength: 300 }).map((u) => new TextDecoder('utf-8').decode(u));
+    const geo = fc
+      .array(fc.oneof(fc.jsonValue({ maxDepth: 4 }), fc.record({ type: fc.constantFrom('Feature', 'Point'), geometry: fc.jsonValue({ maxDepth: 3 }), properties: fc.jsonValue({ maxDepth: 2 }) })), { maxLength: 6 })
+      .map((features) => JSON.stringify({ type: 'FeatureCollection', features }));
+    const input = fc.oneof(fc.string({ maxLength: 200 }), fc.string({ unit: 'binary', maxLength: 200 }), bytes, csvish, headed, fc.json({ maxDepth: 4 }), geo);
+    const options = fc.record(
+      {
+        fileName: fc.constantFrom('r.csv', 'r.geojson', 'r.txt', 'r'),
+        crs: fc.constantFrom('EPSG:4326', 'EPSG:32633', 'EPSG:27700', 'nonsense'),
+        nonDetect: fc.constantFrom('half', 'dl', 'sqrt2'),
+        value: fc.constantFrom('v', 'Pb', 'nothing'),
+        strict: fc.boolean(),
+      },
+      { requiredKeys: ['fileName'] },
+    );
+    fc.assert(
+      fc.property(input, options, (text, o) => {
+        for (const f of [() => readSamples(text, o as IntakeOptions), () => readPolygons(text, o.fileName)]) {
+          try {
+            f();
+          } catch (e) {
+            if (!(e instanceof GapwiseError)) throw e;
+            expect(e.message.length).toBeGreaterThan(0);
+          }
+        }
+      }),
+      { numRuns: 400 },
+    );
   });
 });
