@@ -11,6 +11,57 @@ import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { emptySnapshot, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
 import { createAutosave, type Autosave } from './autosave.ts';
+import type { Samples } from '../../core/samples.ts';
+import type { CovarianceModel } from '../../core/model.ts';
+import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
+import {
+  directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud,
+} from '../../core/variogram.ts';
+import { bestKey, withParts, type CandidateRow, type ModelParts } from './structure.ts';
+import * as engine from './engine.ts';
+import type { Grid } from '../../core/grid.ts';
+import type { SurfaceResult } from '../../core/surface.ts';
+import { measuredRate, planGrid, type GridPlan } from './grid-plan.ts';
+
+/** A computed surface with what it was computed from. */
+export interface SurfaceView {
+  grid: Grid;
+  result: SurfaceResult;
+  /** Working CRS of the grid. */
+  work: string;
+  threshold: number | null;
+  /** What the surface was computed from (compared with the current inputs to tell it is stale). */
+  key: string;
+  /** Bumped as bands arrive, so the map repaints. */
+  bands: number;
+  done: boolean;
+}
+
+/** A value computed from the state, or the reason it could not be. */
+export interface Outcome<T> {
+  value: T | null;
+  error: ShownError | null;
+}
+
+function attempt<T>(f: () => T): Outcome<T> {
+  try {
+    return { value: f(), error: null };
+  } catch (e) {
+    return { value: null, error: showError(e) };
+  }
+}
+
+export interface TaskState {
+  status: 'idle' | 'running' | 'done' | 'error' | 'cancelled';
+  done: number;
+  total: number;
+  what: string;
+  error: ShownError | null;
+  /** Wall-clock duration of the last run, ms. */
+  ms: number;
+}
+
+const idleTask = (): TaskState => ({ status: 'idle', done: 0, total: 0, what: '', error: null, ms: 0 });
 
 /** An error as shown on screen: the sentence and where it points. */
 export interface ShownError {
@@ -55,6 +106,225 @@ export class Session {
   /** Bumped whenever new samples are read, so the map refits its view. */
   samplesVersion = $state(0);
 
+  // ---------------------------------------------------------------- structure
+
+  /** Samples on the modelling scale (ln values for a log transform). */
+  modelSamples = $derived.by((): Samples | null => {
+    const intake = this.intake;
+    if (!intake) return null;
+    const s = intake.samples;
+    if (this.s.samples.transform !== 'log') return s;
+    return { x: s.x, y: s.y, value: Float64Array.from(s.value, Math.log) };
+  });
+
+  variogram = $derived.by((): Outcome<EmpiricalVariogram> => {
+    const samples = this.modelSamples;
+    if (!samples) return { value: null, error: null };
+    const { lagWidth, maxLag } = this.s.structure;
+    return attempt(() => empiricalVariogram(samples, { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined }));
+  });
+
+  directional = $derived.by((): EmpiricalVariogram[] | null => {
+    const samples = this.modelSamples;
+    if (!samples || !this.s.structure.directional) return null;
+    const { lagWidth, maxLag } = this.s.structure;
+    return attempt(() => directionalVariograms(samples, { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined })).value;
+  });
+
+  cloud = $derived.by((): VariogramCloud | null => {
+    const samples = this.modelSamples;
+    if (!samples || !this.s.structure.cloud) return null;
+    return attempt(() => variogramCloud(samples, 6000)).value;
+  });
+
+  candidates = $state.raw<CandidateRow[]>([]);
+  fitTask = $state<TaskState>(idleTask());
+  cv = $state.raw<LeaveOneOutResult | null>(null);
+  cvError = $state.raw<ShownError | null>(null);
+  private fitAbort: AbortController | null = null;
+  private cvAbort: AbortController | null = null;
+  private cvTimer: ReturnType<typeof setTimeout> | null = null;
+
+  get best(): string {
+    return bestKey(this.candidates);
+  }
+
+  /** Fits every candidate model (in workers); keeps the user's choice and any edited model. */
+  async fit(): Promise<void> {
+    const intake = this.intake;
+    if (!intake) return;
+    this.fitAbort?.abort();
+    const ac = new AbortController();
+    this.fitAbort = ac;
+    const t0 = performance.now();
+    this.fitTask = { ...idleTask(), status: 'running', total: 7 };
+    try {
+      const rows = await engine.fitCandidateRows(
+        { samples: intake.samples, method: this.s.structure.method, transform: this.s.samples.transform },
+        (done, total, what) => { if (this.fitAbort === ac) this.fitTask = { ...this.fitTask, done, total, what: what ?? '' }; },
+        ac.signal,
+      );
+      if (this.fitAbort !== ac) return;
+      this.candidates = rows;
+      const st = this.s.structure;
+      const kept = rows.find((r) => r.key === st.chosen && r.model);
+      if (kept) {
+        if (!st.model || st.model.fit?.method !== 'manual') st.model = kept.model;
+      } else {
+        const best = rows.find((r) => r.key === bestKey(rows));
+        st.chosen = best?.key ?? '';
+        if (!st.model || st.model.fit?.method !== 'manual' || !best) st.model = best?.model ?? null;
+      }
+      this.fitTask = { ...this.fitTask, status: 'done', done: rows.length, ms: performance.now() - t0 };
+    } catch (e) {
+      if (this.fitAbort !== ac) return;
+      const err = showError(e);
+      this.fitTask = { ...this.fitTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
+    }
+  }
+
+  cancelFit(): void {
+    this.fitAbort?.abort();
+    this.fitTask = { ...this.fitTask, status: 'cancelled' };
+    this.fitAbort = null;
+  }
+
+  /** The user picks a candidate: it becomes the model in use (any edit is dropped). */
+  choose(key: string): void {
+    const row = this.candidates.find((r) => r.key === key);
+    if (!row?.model) return;
+    this.s.structure.chosen = key;
+    this.s.structure.model = row.model;
+  }
+
+  /** Edits nugget, sill or scale of the model in use. */
+  editModel(change: Partial<Pick<ModelParts, 'nugget' | 'sill' | 'scale'>>): void {
+    const m = this.s.structure.model;
+    if (!m) return;
+    this.s.structure.model = withParts($state.snapshot(m) as CovarianceModel, change);
+  }
+
+  /** Puts back the fitted version of the chosen candidate. */
+  resetModel(): void {
+    this.choose(this.s.structure.chosen);
+  }
+
+  /** Cross-validates the model in use, shortly after it last changed. */
+  scheduleCv(): void {
+    if (this.cvTimer !== null) clearTimeout(this.cvTimer);
+    this.cvTimer = setTimeout(() => void this.runCv(), 150);
+  }
+
+  private async runCv(): Promise<void> {
+    const model = this.s.structure.model;
+    const intake = this.intake;
+    this.cvAbort?.abort();
+    if (!model || !intake) {
+      this.cv = null;
+      return;
+    }
+    const ac = new AbortController();
+    this.cvAbort = ac;
+    try {
+      const r = await engine.crossValidate(intake.samples, $state.snapshot(model) as CovarianceModel, ac.signal);
+      if (this.cvAbort !== ac) return;
+      this.cv = r;
+      this.cvError = null;
+    } catch (e) {
+      if (this.cvAbort !== ac) return;
+      const err = showError(e);
+      if (err.code !== 'cancelled') {
+        this.cv = null;
+        this.cvError = err;
+      }
+    }
+  }
+
+  // ---------------------------------------------------------------- surface
+
+  gridPlan = $derived.by((): Outcome<GridPlan> => {
+    const intake = this.intake;
+    if (!intake) return { value: null, error: null };
+    const su = this.s.surface;
+    const polygons = su.area === 'boundary' && this.boundary?.work.length
+      ? this.boundary.work.map((p) => p.rings)
+      : null;
+    return attempt(() => planGrid({
+      x: intake.samples.x, y: intake.samples.y, padding: su.padding, cellSize: su.cellSize, polygons, workers: engine.workerCount(),
+      flopsPerSecond: this.rate,
+    }));
+  });
+
+  surface = $state.raw<SurfaceView | null>(null);
+  /** Rate measured on the last surface (flops per second per worker), for the time estimate. */
+  rate = $state<number | undefined>(undefined);
+  surfaceTask = $state<TaskState>(idleTask());
+  private surfaceAbort: AbortController | null = null;
+
+  /** What a surface computed now would be computed from. */
+  get surfaceKey(): string {
+    const g = this.gridPlan.value?.grid;
+    return JSON.stringify({
+      v: this.samplesVersion, m: $state.snapshot(this.s.structure.model),
+      g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
+      t: this.s.surface.threshold,
+    });
+  }
+
+  get surfaceStale(): boolean {
+    return !!this.surface && this.surface.key !== this.surfaceKey;
+  }
+
+  /** Computes mean, sd and P(exceed) on the planned grid, in workers, band by band. */
+  async computeSurface(): Promise<void> {
+    const intake = this.intake;
+    const model = this.s.structure.model;
+    const plan = this.gridPlan.value;
+    if (!intake || !model || !plan) return;
+    this.surfaceAbort?.abort();
+    const ac = new AbortController();
+    this.surfaceAbort = ac;
+    this.s.surface.wanted = true;
+    const threshold = this.s.surface.threshold;
+    const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
+    const key = this.surfaceKey;
+    const t0 = performance.now();
+    this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
+    const view = (result: SurfaceResult, done: boolean, bands: number): SurfaceView => ({
+      grid: plan.grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
+    });
+    let bands = 0;
+    try {
+      const result = await engine.surface(
+        { samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid, threshold: useThreshold ? threshold! : undefined },
+        (done, total) => { if (this.surfaceAbort === ac) this.surfaceTask = { ...this.surfaceTask, done, total }; },
+        ac.signal,
+        (merged) => { if (this.surfaceAbort === ac) this.surface = view(merged, false, ++bands); },
+      );
+      if (this.surfaceAbort !== ac) return;
+      this.surface = view(result, true, ++bands);
+      const ms = performance.now() - t0;
+      this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, ms };
+      this.rate = measuredRate(intake.samples.x.length, plan.cells, engine.workerCount(), ms / 1000) ?? this.rate;
+      if (!this.s.surface.sdLimit && Number.isFinite(result.range.sd.max)) {
+        this.s.surface.sdLimit = +result.range.sd.max.toPrecision(2);
+      }
+    } catch (e) {
+      if (this.surfaceAbort !== ac) return;
+      const err = showError(e);
+      if (err.code === 'cancelled') this.surface = null;
+      this.surfaceTask = { ...this.surfaceTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
+    }
+  }
+
+  cancelSurface(): void {
+    this.surfaceAbort?.abort();
+    this.surfaceAbort = null;
+    this.surface = null;
+    this.s.surface.wanted = false;
+    this.surfaceTask = { ...this.surfaceTask, status: 'cancelled' };
+  }
+
   private autosave: Autosave;
 
   constructor(autosave?: Autosave) {
@@ -86,6 +356,12 @@ export class Session {
       const snap = $state.snapshot(this.s) as SessionSnapshot;
       if (this.ready) this.autosave.schedule(snap);
     });
+    // Cross-validation follows the model in use.
+    $effect(() => {
+      void $state.snapshot(this.s.structure.model);
+      void this.intake;
+      this.scheduleCv();
+    });
   }
 
   /** Reads the saved session back (or starts empty) and recomputes what depends on it. */
@@ -97,6 +373,11 @@ export class Session {
       this.readBoundary();
     }
     this.ready = true;
+    // Bring back the comparison table; the chosen (and possibly edited) model is kept.
+    if (saved && this.intake && this.s.structure.model) {
+      if (this.s.surface.wanted) void this.computeSurface();
+      void this.fit();
+    }
     return saved !== null;
   }
 
@@ -115,7 +396,7 @@ export class Session {
     this.boundary = null;
     this.boundaryError = null;
     this.selected = null;
-    this.onSamplesChanged?.();
+    this.dropResults();
     this.savedAt = null;
   }
 
@@ -127,7 +408,22 @@ export class Session {
 
   // ---------------------------------------------------------------- samples
 
-  /** Hook for the later steps: results that depend on the samples are dropped when they change. */
+  /** Drops every result computed from the samples (they changed). */
+  dropResults(): void {
+    this.fitAbort?.abort();
+    this.fitAbort = null;
+    this.candidates = [];
+    this.fitTask = idleTask();
+    this.cv = null;
+    this.cvError = null;
+    this.surfaceAbort?.abort();
+    this.surfaceAbort = null;
+    this.surface = null;
+    this.surfaceTask = idleTask();
+    this.onSamplesChanged?.();
+  }
+
+  /** Hook for the surface: results that depend on the samples are dropped when they change. */
   onSamplesChanged: (() => void) | null = null;
 
   /** Takes a new samples file: choices that belonged to the old file are reset. */
@@ -173,7 +469,7 @@ export class Session {
       this.intake = null;
       this.intakeError = null;
       this.places = null;
-      this.onSamplesChanged?.();
+      this.dropResults();
       return;
     }
     try {
@@ -195,7 +491,7 @@ export class Session {
     }
     this.samplesVersion++;
     this.readBoundary();
-    this.onSamplesChanged?.();
+    this.dropResults();
   }
 
   readBoundary(): void {
@@ -223,7 +519,7 @@ export class Session {
     this.s.samples.transform = t;
     this.s.structure.model = null;
     this.s.structure.chosen = '';
-    this.onSamplesChanged?.();
+    this.dropResults();
   }
 }
 

@@ -1,0 +1,98 @@
+/**
+ * The app's door to the heavy numerics: fitting the candidate models, cross-validation and surfaces.
+ * Every call is asynchronous, reports progress and can be cancelled with an AbortSignal; the work runs
+ * in a pool of engine workers (src/worker) so the page stays responsive.
+ */
+import type { Samples } from '../../core/samples.ts';
+import type { CovarianceModel } from '../../core/model.ts';
+import type { Grid } from '../../core/grid.ts';
+import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
+import type { SurfaceResult } from '../../core/surface.ts';
+import { GapwiseError } from '../../core/errors.ts';
+import { EnginePool } from '../../worker/pool.ts';
+import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
+
+export type Progress = (done: number, total: number, what?: string) => void;
+
+let pool: EnginePool | null = null;
+
+/** Workers the surface is split across (the machine's cores, 1 to 4). */
+export function workerCount(): number {
+  const n = typeof navigator !== 'undefined' ? navigator.hardwareConcurrency ?? 2 : 2;
+  return Math.max(1, Math.min(4, n));
+}
+
+function enginePool(): EnginePool {
+  pool ??= new EnginePool({ size: workerCount() });
+  return pool;
+}
+
+export interface FitRequest {
+  /** Samples in data units. */
+  samples: Samples;
+  method: 'reml' | 'wls';
+  transform: 'none' | 'log';
+}
+
+function logSamples(s: Samples): Samples {
+  return { x: s.x, y: s.y, value: Float64Array.from(s.value, Math.log) };
+}
+
+/**
+ * Fits every candidate (on ln values for a log transform) and cross-validates each, spread over the
+ * workers; a candidate that cannot be fitted comes back with `error`. Input errors reject.
+ */
+export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, signal?: AbortSignal): Promise<CandidateRow[]> {
+  const p = enginePool();
+  const fitSamples = req.transform === 'log' ? logSamples(req.samples) : req.samples;
+  let done = 0;
+  const total = CANDIDATE_SPECS.length;
+  onProgress?.(0, total, CANDIDATE_SPECS.map((c) => c.label).join(', '));
+  const rows = await Promise.all(CANDIDATE_SPECS.map(async (spec): Promise<CandidateRow> => {
+    try {
+      const m = await p.request('fit', { samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: req.method } }, { signal });
+      m.transform = req.transform;
+      const cv = await p.request('crossValidate', { samples: req.samples, model: m }, { signal });
+      return {
+        key: spec.key, label: spec.label, model: m,
+        logLikelihood: m.fit?.logLikelihood ?? NaN, aic: m.fit?.aic ?? NaN,
+        rmse: cv.summary.rmse, msse: cv.summary.msse,
+      };
+    } catch (e) {
+      const code = (e as { code?: string }).code;
+      if (code !== 'fit-failed' && code !== 'not-positive-definite') throw e;
+      return { key: spec.key, label: spec.label, model: null, logLikelihood: NaN, aic: NaN, rmse: NaN, msse: NaN, error: (e as Error).message };
+    } finally {
+      done++;
+      if (!signal?.aborted) onProgress?.(done, total, spec.label);
+    }
+  }));
+  if (signal?.aborted) throw new GapwiseError('cancelled', 'Fitting was cancelled.');
+  return rows;
+}
+
+/** Leave-one-out cross-validation of a model (samples in data units). */
+export function crossValidate(samples: Samples, model: CovarianceModel, signal?: AbortSignal): Promise<LeaveOneOutResult> {
+  return enginePool().request('crossValidate', { samples, model }, { signal });
+}
+
+export interface SurfaceRequest {
+  samples: Samples;
+  model: CovarianceModel;
+  grid: Grid;
+  threshold?: number;
+}
+
+/**
+ * Mean, sd and (with a threshold) P(exceed) on the grid, in parallel row bands; `onBand` sees the
+ * merged surface after each band so the map can fill in as the work goes.
+ */
+export function surface(
+  req: SurfaceRequest, onProgress?: Progress, signal?: AbortSignal, onBand?: (merged: SurfaceResult) => void,
+): Promise<SurfaceResult> {
+  return enginePool().surface(req.samples, req.model, req.grid, { threshold: req.threshold }, {
+    signal,
+    onProgress: (p) => onProgress?.(p.done, p.total),
+    onBand: (_band, merged) => onBand?.(merged),
+  });
+}
