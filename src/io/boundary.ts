@@ -23,7 +23,7 @@ function isObject(v: unknown): v is Record<string, unknown> {
 }
 
 function geometryError(fileName: string, feature: number, message: string, raw?: string): GapwiseError {
-  return new GapwiseError('bad-geometry', message, { file: fileName, row: feature, column: 'geometry', raw });
+  return new GapwiseError('bad-geometry', message, { file: fileName, feature, column: 'geometry', raw });
 }
 
 function readRings(coords: unknown, fileName: string, feature: number, label: string): Array<Array<[number, number]>> {
@@ -151,7 +151,7 @@ export function projectPolygons(polygons: Polygon[], toCrs: string, fromCrs = 'E
           const y = i + 1 < ring.length ? y0 + f * (ring[i + 1][1] - y0) : y0;
           const q = t.forward(x, y);
           if (!Number.isFinite(q[0]) || !Number.isFinite(q[1])) {
-            throw new GapwiseError('bad-geometry', `Feature ${p.feature}: the position [${x}, ${y}] cannot be projected to ${toCrs}.`, { row: p.feature, column: 'geometry' });
+            throw new GapwiseError('bad-geometry', `Feature ${p.feature}: the position [${x}, ${y}] cannot be projected to ${toCrs}.`, { feature: p.feature, column: 'geometry' });
           }
           out.push(q);
           if (i + 1 >= ring.length) break;

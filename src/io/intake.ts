@@ -462,11 +462,11 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   if (parsed.length === 0) {
     const first = rejected[0];
     const detail = first ? ` The first: ${first.line !== undefined ? `line ${first.line}` : `feature ${first.feature}`}${first.field ? `, column "${first.field}"` : ''}: ${first.reason}.` : '';
-    throw new GapwiseError('bad-value', `None of the ${rows.length + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line ?? first?.feature, column: first?.field, raw: first?.raw });
+    throw new GapwiseError('bad-value', `None of the ${rows.length + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line, feature: first?.feature, column: first?.field, raw: first?.raw });
   }
   if (options.strict && rejected.length) {
     const first = rejected[0];
-    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first ${first.reason}.`, { file, row: first.line ?? first.feature, column: first.field, raw: first.raw });
+    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first ${first.reason}.`, { file, row: first.line, feature: first.feature, column: first.field, raw: first.raw });
   }
 
   // --- CRS ----------------------------------------------------------------------------------
@@ -526,7 +526,8 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
       const what = badLat ? `Latitude ${p.y} is outside −90…90` : `Longitude ${p.x} is outside −180…180`;
       throw new GapwiseError('bad-value', `${what} at ${where(p.row)}; expected WGS 84 longitude/latitude in degrees (${input.key}).${hint}`, {
         file,
-        row: p.row.line ?? p.row.feature,
+        row: p.row.line,
+        feature: p.row.feature,
         column: badLat ? yName : xName,
         raw: String(badLat ? p.y : p.x),
       });

@@ -35,7 +35,7 @@ describe('readPolygons', () => {
   it('readPolygons: an unclosed ring is bad-geometry naming the feature and both ends', () => {
     const e = err(() => readPolygons(polygonText([[[0, 0], [1, 0], [1, 1], [0, 1]]]), 'b.geojson'));
     expect(e.code).toBe('bad-geometry');
-    expect(e.place).toMatchObject({ file: 'b.geojson', row: 0, column: 'geometry' });
+    expect(e.place).toMatchObject({ file: 'b.geojson', feature: 0, column: 'geometry' });
     expect(e.message).toContain('[0, 0]');
     expect(e.message).toContain('[0, 1]');
   });

@@ -20,7 +20,7 @@ interface Case {
   file: string;
   kind?: 'samples' | 'polygons';
   options?: Partial<IntakeOptions>;
-  error?: { code: string; row?: number; column?: string; raw?: string; message?: string[] };
+  error?: { code: string; row?: number; feature?: number; column?: string; raw?: string; message?: string[] };
   expect?: Record<string, unknown>;
   polygons?: { count: number; ringCounts: number[]; inside: Array<[number, number, boolean]> };
 }
@@ -72,7 +72,7 @@ describe('readSamples on the intake corpus', () => {
         if (c.error) {
           const e = catchError(() => readPolygons(text, c.file));
           expect(e.code).toBe(c.error.code);
-          if (c.error.row !== undefined) expect(e.place.row).toBe(c.error.row);
+          if (c.error.feature !== undefined) expect(e.place.feature).toBe(c.error.feature);
           for (const m of c.error.message ?? []) expect(e.message).toContain(m);
           expect(e.place.file).toBe(c.file);
           return;
@@ -223,6 +223,18 @@ describe('readSamples details', () => {
     expect(r.report.detectionLimitColumn).toBe('dl');
     expect(r.report.numericColumns).toEqual(['Cd']);
     expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
+  });
+
+  it('readSamples: a GeoJSON latitude out of range names the feature', () => {
+    const text = JSON.stringify({ type: 'FeatureCollection', features: [
+      { type: 'Feature', geometry: { type: 'Point', coordinates: [11.25, 48.5] }, properties: { Pb: 1 } },
+      { type: 'Feature', geometry: { type: 'Point', coordinates: [11.26, 95] }, properties: { Pb: 2 } },
+    ] });
+    const e = catchError(() => readSamples(text, { fileName: 'g.geojson' }));
+    expect(e.code).toBe('bad-value');
+    expect(e.place).toMatchObject({ file: 'g.geojson', feature: 1 });
+    expect(e.place.row).toBeUndefined();
+    expect(e.describe()).toContain('feature 1');
   });
 
   it('readSamples: a yes/no non-detect column is read by its name', () => {
