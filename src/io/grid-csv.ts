@@ -1,0 +1,65 @@
+/**
+ * Surfaces as a CSV table, one row per active cell (cells outside the boundary are left out):
+ * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees), mean, sd and, with a threshold,
+ * p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
+ * ("# " + the screening caution and what the columns are); most CSV readers skip it with a comment
+ * option (pandas `comment="#"`, R `comment.char = "#"`), and `caution: false` leaves it out.
+ */
+import { CAUTION } from '../core/caution.ts';
+import type { Grid } from '../core/grid.ts';
+import { cellCentres } from '../core/grid.ts';
+import { createTransform, LOCAL_CRS } from './crs.ts';
+
+export interface GridCsvInput {
+  grid: Grid;
+  surface: { mean: ArrayLike<number>; sd: ArrayLike<number>; pExceed?: ArrayLike<number>; threshold?: number };
+  workCrs: string;
+  unit?: string;
+  /** Write the "# caution" first line (default true). */
+  caution?: boolean;
+}
+
+/** Significant digits that give a value back exactly: 9 for Float32 surfaces, 17 for Float64. */
+function digitsOf(a: ArrayLike<number>): number {
+  return a instanceof Float32Array ? 9 : 17;
+}
+
+/** A number with `digits` significant digits, trailing zeros dropped; NaN as empty. */
+function num(v: number, digits: number): string {
+  if (Number.isNaN(v)) return '';
+  if (v === 0) return '0';
+  return String(Number(v.toPrecision(digits)));
+}
+
+/** Coordinates: millimetres for metres, 1e-8 degrees for longitude/latitude. */
+function fixed(v: number, decimals: number): string {
+  return Number.isFinite(v) ? String(Number(v.toFixed(decimals))) : '';
+}
+
+/** The CSV text (LF line ends). Longitude and latitude are empty for local planar coordinates. */
+export function surfaceGridCsv(input: GridCsvInput): string {
+  const { grid, surface } = input;
+  const { x, y, index } = cellCentres(grid);
+  const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
+  const header = ['x', 'y', 'lon', 'lat', 'mean', 'sd'];
+  if (surface.pExceed) header.push('p_exceed');
+  const lines: string[] = [];
+  if (input.caution !== false) {
+    const what = `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
+      + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
+    lines.push(`# ${CAUTION} ${what.replace(/[\r\n]+/g, ' ')}`);
+  }
+  lines.push(header.join(','));
+  const dm = digitsOf(surface.mean), ds = digitsOf(surface.sd), dp = surface.pExceed ? digitsOf(surface.pExceed) : 17;
+  for (let c = 0; c < index.length; c++) {
+    const k = index[c];
+    const row = [
+      fixed(x[c], 3), fixed(y[c], 3),
+      geo ? fixed(geo.x[c], 8) : '', geo ? fixed(geo.y[c], 8) : '',
+      num(surface.mean[k], dm), num(surface.sd[k], ds),
+    ];
+    if (surface.pExceed) row.push(num(surface.pExceed[k], dp));
+    lines.push(row.join(','));
+  }
+  return `${lines.join('\n')}\n`;
+}
