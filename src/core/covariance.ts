@@ -3,13 +3,20 @@
  *
  * C(h) = Σ sill_k · ρ_k(h); the nugget contributes only on the diagonal of a sample covariance
  * matrix (measurement error), never to cross-covariances (predictions are of the noise-free surface).
- * Geometric anisotropy rotates the separation into the long/short axes and divides the short
- * component by the ratio. Matérn: ρ(h) = 2^(1−ν)/Γ(ν)·(√(2ν)h/ℓ)^ν·K_ν(√(2ν)h/ℓ), closed forms for
- * ν = ½, 3/2, 5/2 (Rasmussen & Williams 2006, eq. 4.14–4.17).
- * Units: h and scale in metres; covariance in data units squared. Cost O(n²) for a matrix.
+ * Families: exponential e^(−h/ℓ); gaussian e^(−h²/2ℓ²); spherical 1 − 1.5(h/ℓ) + 0.5(h/ℓ)³ for h < ℓ;
+ * Matérn ρ(h) = 2^(1−ν)/Γ(ν)·z^ν·K_ν(z), z = √(2ν)h/ℓ, with closed forms for ν = ½, 3/2, 5/2
+ * (Rasmussen & Williams 2006, eq. 4.14–4.17; see ./matern.ts).
+ * Geometric anisotropy: the long axis points `azimuth` degrees clockwise from grid north; a separation is
+ * split into its components along and across that axis, and the across component is divided by
+ * `ratio` (short/long), so `scale` is the length along the long axis. For matrices the points are
+ * mapped once into these stretched coordinates (O(n)) and isotropic distances are taken there.
+ * Matrices are filled a row at a time: distances into a scratch row, then one tight loop per structure
+ * (the family is chosen once per row, not per entry).
+ * Units: coordinates, h and scale in metres; covariance in data units squared. Cost: O(n²) kernel
+ * evaluations for an n×n matrix (one exp per entry for the closed forms, one K_ν for general ν).
  */
 import type { CovarianceModel, CorrelatedStructure, Anisotropy } from './model.ts';
-import { maternCorrelation } from './matern.ts';
+import { maternCorrelation, maternCorrelationAtZ, maternLogNormaliser } from './matern.ts';
 
 /** Correlation of one structure at (already anisotropy-scaled) distance h ≥ 0. */
 export function correlation(s: CorrelatedStructure, h: number): number {
@@ -36,6 +43,36 @@ export function effectiveDistance(dx: number, dy: number, anisotropy?: Anisotrop
   return Math.hypot(along, across / anisotropy.ratio);
 }
 
+/**
+ * Maps points into the stretched coordinates in which the anisotropic model is isotropic:
+ * u = along the long axis, v = across it divided by the ratio. Euclidean distances between mapped
+ * points equal effectiveDistance of the separations. Without anisotropy (or ratio 1) returns copies.
+ * Useful for neighbour searches that must agree with the covariance.
+ */
+export function toIsotropicCoordinates(
+  anisotropy: Anisotropy | undefined, x: ArrayLike<number>, y: ArrayLike<number>,
+): { u: Float64Array; v: Float64Array } {
+  const n = x.length;
+  const u = new Float64Array(n);
+  const v = new Float64Array(n);
+  if (!anisotropy || anisotropy.ratio === 1) {
+    for (let i = 0; i < n; i++) {
+      u[i] = x[i];
+      v[i] = y[i];
+    }
+    return { u, v };
+  }
+  const a = (anisotropy.azimuth * Math.PI) / 180;
+  const sin = Math.sin(a);
+  const cos = Math.cos(a);
+  const inv = 1 / anisotropy.ratio;
+  for (let i = 0; i < n; i++) {
+    u[i] = x[i] * sin + y[i] * cos;
+    v[i] = (x[i] * cos - y[i] * sin) * inv;
+  }
+  return { u, v };
+}
+
 /** Covariance of the noise-free surface at effective distance h (no nugget). */
 export function surfaceCovariance(model: CovarianceModel, h: number): number {
   let c = 0;
@@ -50,25 +87,181 @@ export function surfaceVariance(model: CovarianceModel): number {
   return c;
 }
 
+// Family codes of a compiled structure (plain numbers so the switch in addStructure stays cheap).
+const Kind = { Exponential: 0, Gaussian: 1, Spherical: 2, Matern32: 3, Matern52: 4, MaternGeneral: 5 } as const;
+type Kind = (typeof Kind)[keyof typeof Kind];
+
+interface CompiledStructure {
+  kind: Kind;
+  sill: number;
+  /** Multiplier taking a distance to the family's argument (1/ℓ, √3/ℓ, √5/ℓ, √(2ν)/ℓ; 1/(2ℓ²) on h²). */
+  factor: number;
+  nu: number;
+  logNormaliser: number;
+}
+
+interface CompiledModel {
+  structures: CompiledStructure[];
+  nugget: number;
+  variance: number;
+  /** Whether any structure needs h (all but the gaussian work on h²). */
+  needsDistance: boolean;
+}
+
+function compile(model: CovarianceModel): CompiledModel {
+  const structures: CompiledStructure[] = [];
+  let nugget = 0;
+  let variance = 0;
+  let needsDistance = false;
+  for (const s of model.structures) {
+    if (s.type === 'nugget') {
+      nugget += s.sill;
+      continue;
+    }
+    variance += s.sill;
+    if (s.sill === 0) continue;
+    const inv = 1 / s.scale;
+    let c: CompiledStructure;
+    if (s.type === 'exponential') c = { kind: Kind.Exponential, sill: s.sill, factor: inv, nu: 0.5, logNormaliser: 0 };
+    else if (s.type === 'gaussian') c = { kind: Kind.Gaussian, sill: s.sill, factor: 0.5 * inv * inv, nu: Infinity, logNormaliser: 0 };
+    else if (s.type === 'spherical') c = { kind: Kind.Spherical, sill: s.sill, factor: inv, nu: 0, logNormaliser: 0 };
+    else {
+      const nu = s.nu ?? 1.5;
+      if (nu === 0.5) c = { kind: Kind.Exponential, sill: s.sill, factor: inv, nu, logNormaliser: 0 };
+      else if (nu === 1.5) c = { kind: Kind.Matern32, sill: s.sill, factor: Math.sqrt(3) * inv, nu, logNormaliser: 0 };
+      else if (nu === 2.5) c = { kind: Kind.Matern52, sill: s.sill, factor: Math.sqrt(5) * inv, nu, logNormaliser: 0 };
+      else c = { kind: Kind.MaternGeneral, sill: s.sill, factor: Math.sqrt(2 * nu) * inv, nu, logNormaliser: maternLogNormaliser(nu) };
+    }
+    if (c.kind !== Kind.Gaussian) needsDistance = true;
+    structures.push(c);
+  }
+  return { structures, nugget, variance, needsDistance };
+}
+
+/**
+ * out[o + j] += C_s(h_j) for j < count, one family per call. `d` holds distances, `d2` squared
+ * distances (only the gaussian reads d2; only the others read d).
+ */
+function addStructure(s: CompiledStructure, d: Float64Array, d2: Float64Array, count: number, out: Float64Array, o: number): void {
+  const sill = s.sill;
+  const f = s.factor;
+  switch (s.kind) {
+    case Kind.Exponential:
+      for (let j = 0; j < count; j++) out[o + j] += sill * Math.exp(-f * d[j]);
+      return;
+    case Kind.Gaussian:
+      for (let j = 0; j < count; j++) out[o + j] += sill * Math.exp(-f * d2[j]);
+      return;
+    case Kind.Spherical:
+      for (let j = 0; j < count; j++) {
+        const r = f * d[j];
+        if (r < 1) out[o + j] += sill * (1 - r * (1.5 - 0.5 * r * r));
+      }
+      return;
+    case Kind.Matern32:
+      for (let j = 0; j < count; j++) {
+        const a = f * d[j];
+        out[o + j] += sill * (1 + a) * Math.exp(-a);
+      }
+      return;
+    case Kind.Matern52:
+      for (let j = 0; j < count; j++) {
+        const a = f * d[j];
+        out[o + j] += sill * (1 + a + (a * a) / 3) * Math.exp(-a);
+      }
+      return;
+    case Kind.MaternGeneral: {
+      const nu = s.nu;
+      const ln = s.logNormaliser;
+      for (let j = 0; j < count; j++) out[o + j] += sill * maternCorrelationAtZ(f * d[j], nu, ln);
+      return;
+    }
+  }
+}
+
+/** Scratch rows reused across calls (grown on demand). */
+let scratchD = new Float64Array(0);
+let scratchD2 = new Float64Array(0);
+function scratch(n: number): void {
+  if (scratchD.length < n) {
+    scratchD = new Float64Array(n);
+    scratchD2 = new Float64Array(n);
+  }
+}
+
+/**
+ * Fills out[o .. o+count) with the noise-free covariance between point (pu, pv) and mapped points
+ * (u[j], v[j]), j < count. Overwrites.
+ */
+function covarianceRow(cm: CompiledModel, pu: number, pv: number, u: Float64Array, v: Float64Array, count: number,
+  out: Float64Array, o: number): void {
+  const d = scratchD;
+  const d2 = scratchD2;
+  for (let j = 0; j < count; j++) {
+    const du = pu - u[j];
+    const dv = pv - v[j];
+    d2[j] = du * du + dv * dv;
+  }
+  if (cm.needsDistance) for (let j = 0; j < count; j++) d[j] = Math.sqrt(d2[j]);
+  out.fill(0, o, o + count);
+  for (const s of cm.structures) addStructure(s, d, d2, count, out, o);
+}
+
 /**
  * Covariance matrix K (n×n, row-major Float64Array) of the samples: surface covariance plus the
- * nugget on the diagonal. Coordinates should be centred by the caller.
+ * nugget on the diagonal only (coincident samples get the surface variance off the diagonal).
+ * Exactly symmetric. Coordinates should be centred by the caller.
  */
 export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>): Float64Array {
   const n = x.length;
+  if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
   const K = new Float64Array(n * n);
-  const c0 = surfaceVariance(model);
-  let nugget = 0;
-  for (const s of model.structures) if (s.type === 'nugget') nugget += s.sill;
+  const cm = compile(model);
+  const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
+  scratch(n);
   for (let i = 0; i < n; i++) {
-    K[i * n + i] = c0 + nugget;
-    for (let j = 0; j < i; j++) {
-      const c = surfaceCovariance(model, effectiveDistance(x[i] - x[j], y[i] - y[j], model.anisotropy));
-      K[i * n + j] = c;
-      K[j * n + i] = c;
+    covarianceRow(cm, u[i], v[i], u, v, i, K, i * n);
+    K[i * n + i] = cm.variance + cm.nugget;
+  }
+  // Mirror the lower triangle into the upper one, in tiles so both sides stay in cache.
+  const T = 32;
+  for (let bi = 0; bi < n; bi += T) {
+    const ie = Math.min(bi + T, n);
+    for (let bj = 0; bj <= bi; bj += T) {
+      const je = Math.min(bj + T, n);
+      for (let i = bi; i < ie; i++) {
+        const row = i * n;
+        const jEnd = Math.min(je, i);
+        for (let j = bj; j < jEnd; j++) K[j * n + i] = K[row + j];
+      }
     }
   }
   return K;
+}
+
+/**
+ * Writes the noise-free cross-covariances between m targets (tx, ty) and n samples (x, y) into
+ * `out` (m×n row-major, overwritten; length at least m·n) and returns it. For streaming a grid a
+ * block of rows at a time into a reused buffer.
+ */
+export function crossCovarianceInto(
+  model: CovarianceModel,
+  tx: ArrayLike<number>, ty: ArrayLike<number>,
+  x: ArrayLike<number>, y: ArrayLike<number>,
+  out: Float64Array,
+): Float64Array {
+  const m = tx.length;
+  const n = x.length;
+  if (ty.length !== m || y.length !== n) {
+    throw new Error(`Expected matching coordinate lengths: tx ${m}, ty ${ty.length}, x ${n}, y ${y.length}.`);
+  }
+  if (out.length < m * n) throw new Error(`Expected an output buffer of at least ${m}×${n} = ${m * n} entries, got ${out.length}.`);
+  const cm = compile(model);
+  const s = toIsotropicCoordinates(model.anisotropy, x, y);
+  const t = toIsotropicCoordinates(model.anisotropy, tx, ty);
+  scratch(n);
+  for (let i = 0; i < m; i++) covarianceRow(cm, t.u[i], t.v[i], s.u, s.v, n, out, i * n);
+  return out;
 }
 
 /**
@@ -79,20 +272,12 @@ export function crossCovarianceMatrix(
   tx: ArrayLike<number>, ty: ArrayLike<number>,
   x: ArrayLike<number>, y: ArrayLike<number>,
 ): Float64Array {
-  const m = tx.length;
-  const n = x.length;
-  const out = new Float64Array(m * n);
-  for (let i = 0; i < m; i++) {
-    for (let j = 0; j < n; j++) {
-      out[i * n + j] = surfaceCovariance(model, effectiveDistance(tx[i] - x[j], ty[i] - y[j], model.anisotropy));
-    }
-  }
-  return out;
+  return crossCovarianceInto(model, tx, ty, x, y, new Float64Array(tx.length * x.length));
 }
 
 /**
  * Practical range: the distance (along the long axis) where the surface correlation falls to 5 %.
- * Found by bisection on the summed structures; Infinity when there is no correlated structure.
+ * Found by bisection on the summed structures; 0 when there is no correlated structure.
  */
 export function practicalRange(model: CovarianceModel): number {
   const c0 = surfaceVariance(model);
