@@ -51,9 +51,9 @@ export interface DesignOptions {
   candidates?: { x: ArrayLike<number>; y: ArrayLike<number> };
   /** Noise variance of a new measurement (kriging scale). Default: the model's nugget. */
   noise?: number;
-  /** Most evaluation points for the area average (default 1,500). */
+  /** Most evaluation points for the area average (default 1,000). */
   maxEvaluationPoints?: number;
-  /** Most candidates examined in the screening pass before refinement (default 1,500). */
+  /** Most candidates examined in the screening pass before refinement (default 1,000). */
   maxScreenCandidates?: number;
   /** Coverage: most grid points for k-means (default 20,000). */
   maxCoveragePoints?: number;
@@ -239,8 +239,8 @@ export function suggestSites(
   const minSpacing = options.minSpacing === undefined ? 0 : checkNumber(options.minSpacing, 'the minimum spacing (m)', 0, true);
   if (options.threshold !== undefined) checkNumber(options.threshold, 'the threshold', -Infinity, false);
   if (options.noise !== undefined) checkNumber(options.noise, 'the noise variance', 0, true);
-  const maxEval = Math.floor(checkNumber(options.maxEvaluationPoints ?? 1500, 'maxEvaluationPoints', 1, true));
-  const maxScreen = Math.floor(checkNumber(options.maxScreenCandidates ?? 1500, 'maxScreenCandidates', 1, true));
+  const maxEval = Math.floor(checkNumber(options.maxEvaluationPoints ?? 1000, 'maxEvaluationPoints', 1, true));
+  const maxScreen = Math.floor(checkNumber(options.maxScreenCandidates ?? 1000, 'maxScreenCandidates', 1, true));
   const maxCoverage = Math.floor(checkNumber(options.maxCoveragePoints ?? 20_000, 'maxCoveragePoints', 1, true));
   const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
   const exclusions = options.exclusions ?? [];

@@ -1,0 +1,83 @@
+/**
+ * Design benchmark: 10 new sites from 1,000 samples over an area of about 20,000 candidate cells
+ * (Matérn ν = 3/2 plus a nugget, ordinary kriging), by the variance criterion and by the
+ * decision-targeted criterion against an action level near the median; also the coverage design
+ * without a model. One run each (the greedy is deterministic). Target: under 10 s per design.
+ * Run alone: `npx tsx bench/design.ts` (`--quick`: 300 samples, about 5,000 cells), or via `npm run bench`.
+ */
+import { pathToFileURL } from 'node:url';
+import { suggestSites, type DesignOptions, type DesignResult } from '../src/core/design.ts';
+import { createRandom } from '../src/core/random.ts';
+import type { CovarianceModel } from '../src/core/model.ts';
+import type { Samples } from '../src/core/samples.ts';
+import type { Polygon } from '../src/core/grid.ts';
+
+export interface Row {
+  name: string;
+  n: number;
+  seconds: number;
+  note?: string;
+}
+
+const MODEL: CovarianceModel = {
+  structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 250, nu: 1.5 }],
+  trend: 'constant',
+  transform: 'none',
+};
+
+/** Invented samples on a square of `side` metres at UTM-like coordinates (seeded). */
+function makeSamples(n: number, side: number, seed: number): Samples {
+  const r = createRandom(seed);
+  const x = new Float64Array(n);
+  const y = new Float64Array(n);
+  const value = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    x[i] = 500000 + side * r.uniform();
+    y[i] = 6000000 + side * r.uniform();
+    value[i] = 40 + 10 * Math.sin((x[i] - 500000) / 300) * Math.cos((y[i] - 6000000) / 400) + r.normal();
+  }
+  return { x, y, value };
+}
+
+/** Wall-clock and CPU seconds of one call (CPU time tells a busy shared machine from a slow design). */
+function time<T>(f: () => T): { value: T; seconds: number; cpu: number } {
+  const t = performance.now();
+  const c = process.cpuUsage();
+  const value = f();
+  const used = process.cpuUsage(c);
+  return { value, seconds: (performance.now() - t) / 1000, cpu: (used.user + used.system) / 1e6 };
+}
+
+/** Runs the design benchmarks and returns one row per figure. */
+export async function runDesignBench(options: { quick?: boolean } = {}): Promise<Row[]> {
+  const n = options.quick ? 300 : 1000;
+  const cell = 10;
+  const side = options.quick ? 700 : 1410; // 141² ≈ 19,900 cells of 10 m
+  const samples = makeSamples(n, side, 1);
+  const boundary: Polygon[] = [[[[500000, 6000000], [500000 + side, 6000000], [500000 + side, 6000000 + side], [500000, 6000000 + side], [500000, 6000000]]]];
+  const base: DesignOptions = { count: 10, boundary: [boundary[0]], cell };
+  const log = (s: string) => process.stderr.write(`  design: ${s}\n`);
+  const sorted = Float64Array.from(samples.value).sort();
+  const threshold = sorted[Math.floor(n / 2)];
+  const describe = (r: DesignResult) =>
+    `${r.suggestions.length} sites; ${r.candidatePoints.toLocaleString('en-US')} candidates (${r.screenedCandidates.toLocaleString('en-US')} screened), ${r.evaluationPoints.toLocaleString('en-US')} evaluation points`;
+
+  const variance = time(() => suggestSites(samples, MODEL, { ...base, mode: 'variance' }));
+  log(`variance: ${variance.seconds.toFixed(2)} s (CPU ${variance.cpu.toFixed(2)} s), ${describe(variance.value)}, average sd ${variance.value.averageSdBefore!.toFixed(4)} → ${variance.value.averageSdAfter!.toFixed(4)}`);
+  const decision = time(() => suggestSites(samples, MODEL, { ...base, mode: 'decision', threshold }));
+  log(`decision: ${decision.seconds.toFixed(2)} s (CPU ${decision.cpu.toFixed(2)} s), ${describe(decision.value)}, misclassified ${Math.round(decision.value.misclassifiedAreaBefore!)} → ${Math.round(decision.value.misclassifiedAreaAfter!)} m²`);
+  const coverage = time(() => suggestSites(samples, null, { ...base, mode: 'coverage', seed: 1 }));
+  log(`coverage: ${coverage.seconds.toFixed(2)} s (CPU ${coverage.cpu.toFixed(2)} s), ${describe(coverage.value)}`);
+
+  const cells = variance.value.candidatePoints;
+  return [
+    { name: `variance design, 10 sites over ${cells.toLocaleString('en-US')} cells`, n, seconds: variance.seconds, note: `CPU ${variance.cpu.toFixed(2)} s; ${describe(variance.value)}; Matérn 3/2 + nugget, ordinary kriging; target < 10 s` },
+    { name: `decision design, 10 sites over ${cells.toLocaleString('en-US')} cells`, n, seconds: decision.seconds, note: `CPU ${decision.cpu.toFixed(2)} s; ${describe(decision.value)}; threshold at the median; target < 10 s` },
+    { name: `coverage design, 10 sites over ${cells.toLocaleString('en-US')} cells`, n, seconds: coverage.seconds, note: `CPU ${coverage.cpu.toFixed(2)} s; ${describe(coverage.value)}; k-means, 4 restarts` },
+  ];
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  const rows = await runDesignBench({ quick: process.argv.includes('--quick') });
+  for (const row of rows) console.log(`${row.name.padEnd(52)} n=${row.n}  ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
+}
