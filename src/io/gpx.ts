@@ -1,0 +1,97 @@
+/**
+ * Suggested sample sites as GPX 1.1 waypoints for field crews (the GPX 1.1 schema,
+ * http://www.topografix.com/GPX/1/1/gpx.xsd). Elements follow the schema's sequences:
+ * metadata: name, desc, author?, copyright?, link*, time, keywords?, bounds;
+ * wpt: ele?, time?, magvar?, geoidheight?, name, cmt, desc, src, link*, sym?, type, ...
+ * The metadata's desc carries the screening caution. All text is XML-escaped.
+ */
+import { CAUTION } from '../core/caution.ts';
+import type { ExportableDesign } from './suggestions-export.ts';
+import { checkLonLat, numberText } from './suggestions-export.ts';
+
+export interface GpxOptions {
+  /** The file's name element (default "Suggested sample sites"). */
+  name?: string;
+  /** Written as metadata time (default now). */
+  time?: Date;
+  /** Unit of the values, shown in the comments (e.g. "mg/kg"). */
+  unit?: string;
+}
+
+/** Escapes the five XML special characters and drops characters XML 1.0 forbids. */
+export function xmlEscape(text: string): string {
+  return text
+    // eslint-disable-next-line no-control-regex
+    .replace(/[\u0000-\u0008\u000b\u000c\u000e-\u001f\ufffe\uffff]/g, '')
+    .replace(/&/g, '&amp;')
+    .replace(/</g, '&lt;')
+    .replace(/>/g, '&gt;')
+    .replace(/"/g, '&quot;')
+    .replace(/'/g, '&apos;');
+}
+
+/** Degrees with 7 decimals (GPX latitudeType −90…90, longitudeType −180 ≤ lon < 180). */
+function degreesText(v: number, longitude: boolean): string {
+  let d = v;
+  if (longitude && d >= 180) d -= 360;
+  return String(Number(d.toFixed(7)));
+}
+
+const MODE_WORDS: Record<string, string> = {
+  variance: 'where the map is least certain',
+  decision: 'where the decision against the action level is least certain',
+  coverage: 'to cover the area evenly',
+};
+
+/** The waypoint name of a suggestion: "S01", "S02", ... (sorts in rank order). */
+export function waypointName(rank: number, total: number): string {
+  return `S${String(rank).padStart(Math.max(2, String(total).length), '0')}`;
+}
+
+/**
+ * GPX 1.1 document with one waypoint per suggestion (name S01…, a comment with the benefit, mean,
+ * sd and P(exceed), a description) and metadata carrying the caution. Throws GapwiseError
+ * 'bad-value' when a suggestion lacks lon/lat.
+ */
+export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions = {}): string {
+  checkLonLat(design.suggestions);
+  const time = (options.time ?? new Date()).toISOString().replace(/\.\d{3}Z$/, 'Z');
+  const unit = options.unit ? ` ${options.unit}` : '';
+  const total = design.suggestions.length;
+  const lines: string[] = [
+    '<?xml version="1.0" encoding="UTF-8"?>',
+    '<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">',
+    '  <metadata>',
+    `    <name>${xmlEscape(options.name ?? 'Suggested sample sites')}</name>`,
+    `    <desc>${xmlEscape(`${total} suggested sample sites, chosen ${MODE_WORDS[design.mode] ?? design.mode}. ${CAUTION}`)}</desc>`,
+    `    <time>${time}</time>`,
+  ];
+  if (total > 0) {
+    let minlat = Infinity, minlon = Infinity, maxlat = -Infinity, maxlon = -Infinity;
+    for (const s of design.suggestions) {
+      minlat = Math.min(minlat, s.lat as number);
+      maxlat = Math.max(maxlat, s.lat as number);
+      minlon = Math.min(minlon, s.lon as number);
+      maxlon = Math.max(maxlon, s.lon as number);
+    }
+    lines.push(`    <bounds minlat="${degreesText(minlat, false)}" minlon="${degreesText(minlon, true)}" maxlat="${degreesText(maxlat, false)}" maxlon="${degreesText(maxlon, true)}"/>`);
+  }
+  lines.push('  </metadata>');
+  for (const s of design.suggestions) {
+    const parts = [`benefit ${numberText(s.benefit)}`];
+    if (s.mean !== null) parts.push(`mean ${numberText(s.mean)}${unit}`);
+    if (s.sd !== null) parts.push(`sd ${numberText(s.sd)}${unit}`);
+    if (s.pExceed !== null) parts.push(`P(exceed ${numberText(design.threshold)}${unit}) ${numberText(s.pExceed)}`);
+    lines.push(
+      `  <wpt lat="${degreesText(s.lat as number, false)}" lon="${degreesText(s.lon as number, true)}">`,
+      `    <name>${waypointName(s.rank, total)}</name>`,
+      `    <cmt>${xmlEscape(parts.join('; '))}</cmt>`,
+      `    <desc>${xmlEscape(`Suggested sample ${s.rank} of ${total} (${design.mode} design). Screening only.`)}</desc>`,
+      '    <src>Gapwise</src>',
+      '    <type>suggested sample</type>',
+      '  </wpt>',
+    );
+  }
+  lines.push('</gpx>');
+  return `${lines.join('\n')}\n`;
+}

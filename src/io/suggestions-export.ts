@@ -1,0 +1,118 @@
+/**
+ * Suggested sample sites to files: GeoJSON (RFC 7946: a FeatureCollection of Points in WGS 84
+ * longitude, latitude) and CSV. The GeoJSON carries the screening caution and the design's summary in
+ * a foreign member "properties" of the collection (RFC 7946 §6.1); the CSV has no place for it, so its
+ * writers show the caution beside it.
+ */
+import { GapwiseError } from '../core/errors.ts';
+import { CAUTION } from '../core/caution.ts';
+import type { DesignResult, Suggestion } from '../core/design.ts';
+
+/** What the exports need of a design: its suggestions (lon and lat filled) and its summary. */
+export type ExportableDesign = Pick<DesignResult,
+  'mode' | 'suggestions' | 'benefitMeaning' | 'threshold' | 'averageSdBefore' | 'averageSdAfter' | 'scale'
+  | 'misclassifiedAreaBefore' | 'misclassifiedAreaAfter' | 'areaDecided' | 'coverageDistanceBefore' | 'coverageDistanceAfter'>;
+
+/** Options of the CSV export. */
+export interface CsvExportOptions {
+  /** x, y of each suggestion in the samples' CRS (default: the working-CRS x, y). */
+  inputX?: ArrayLike<number>;
+  inputY?: ArrayLike<number>;
+  /** Line end (default "\n"). */
+  newline?: '\n' | '\r\n';
+}
+
+/** Checks that every suggestion has WGS 84 longitude and latitude. */
+export function checkLonLat(suggestions: readonly Suggestion[]): void {
+  for (const s of suggestions) {
+    const { lon, lat } = s;
+    if (typeof lon !== 'number' || typeof lat !== 'number' || !Number.isFinite(lon) || !Number.isFinite(lat) || lat < -90 || lat > 90 || lon < -180 || lon > 180) {
+      throw new GapwiseError('bad-value', `Suggestion ${s.rank} has longitude ${String(lon)}, latitude ${String(lat)}; expected WGS 84 degrees (fill them from the working CRS before exporting).`);
+    }
+  }
+}
+
+/** Rounds for text: 12 significant digits, no trailing noise; '' for null or NaN. */
+export function numberText(v: number | null | undefined): string {
+  if (v === null || v === undefined || Number.isNaN(v)) return '';
+  if (!Number.isFinite(v)) return v > 0 ? 'Infinity' : '-Infinity';
+  return String(Number(v.toPrecision(12)));
+}
+
+/** Degrees to 7 decimals (about 1 cm), without trailing zeros. */
+function degrees(v: number): number {
+  return Number(v.toFixed(7));
+}
+
+function orNull(v: number | null): number | null {
+  return v === null || !Number.isFinite(v) ? null : Number(v.toPrecision(12));
+}
+
+/** The design's summary as plain JSON (snake_case keys), with the caution. */
+export function designSummary(design: ExportableDesign): Record<string, unknown> {
+  return {
+    caution: CAUTION,
+    mode: design.mode,
+    benefit: design.benefitMeaning,
+    threshold: design.threshold,
+    scale: design.scale,
+    average_sd_before: orNull(design.averageSdBefore),
+    average_sd_after: orNull(design.averageSdAfter),
+    misclassified_area_before_m2: orNull(design.misclassifiedAreaBefore),
+    misclassified_area_after_m2: orNull(design.misclassifiedAreaAfter),
+    area_decided_m2: orNull(design.areaDecided),
+    coverage_distance_before_m: orNull(design.coverageDistanceBefore),
+    coverage_distance_after_m: orNull(design.coverageDistanceAfter),
+  };
+}
+
+/**
+ * GeoJSON FeatureCollection (RFC 7946): one Point per suggestion at [lon, lat] with properties
+ * rank, benefit, mean, sd, p_exceed; the collection's "properties" member holds the caution and the
+ * summary. Throws GapwiseError 'bad-value' when a suggestion lacks lon/lat.
+ */
+export function suggestionsToGeoJson(design: ExportableDesign): string {
+  checkLonLat(design.suggestions);
+  const collection = {
+    type: 'FeatureCollection',
+    properties: designSummary(design),
+    features: design.suggestions.map((s) => ({
+      type: 'Feature',
+      geometry: { type: 'Point', coordinates: [degrees(s.lon as number), degrees(s.lat as number)] },
+      properties: {
+        rank: s.rank,
+        benefit: orNull(s.benefit),
+        mean: orNull(s.mean),
+        sd: orNull(s.sd),
+        p_exceed: orNull(s.pExceed),
+      },
+    })),
+  };
+  return `${JSON.stringify(collection, null, 1)}\n`;
+}
+
+/**
+ * CSV with the columns rank, x, y (the samples' CRS), lon, lat, benefit, mean, sd, and p_exceed when
+ * the design has a threshold. Empty cells where there is no value (coverage without a model).
+ */
+export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOptions = {}): string {
+  checkLonLat(design.suggestions);
+  const nl = options.newline ?? '\n';
+  const withP = design.threshold !== null;
+  const header = ['rank', 'x', 'y', 'lon', 'lat', 'benefit', 'mean', 'sd', ...(withP ? ['p_exceed'] : [])];
+  const { inputX, inputY } = options;
+  if ((inputX && inputX.length !== design.suggestions.length) || (inputY && inputY.length !== design.suggestions.length)) {
+    throw new GapwiseError('bad-value', `Expected ${design.suggestions.length} input-CRS coordinates, got ${inputX?.length ?? 0} and ${inputY?.length ?? 0}.`);
+  }
+  const lines = [header.join(',')];
+  design.suggestions.forEach((s, k) => {
+    const cells = [
+      String(s.rank), numberText(inputX ? inputX[k] : s.x), numberText(inputY ? inputY[k] : s.y),
+      String(degrees(s.lon as number)), String(degrees(s.lat as number)),
+      numberText(s.benefit), numberText(s.mean), numberText(s.sd),
+    ];
+    if (withP) cells.push(numberText(s.pExceed));
+    lines.push(cells.join(','));
+  });
+  return lines.join(nl) + nl;
+}
