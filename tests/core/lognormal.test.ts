@@ -24,7 +24,7 @@ function meanAndError(values: Float64Array): { mean: number; se: number } {
 }
 
 describe('normalQuantile', () => {
-  it('normalQuantile inverts Φ to 1e-13 relative (1e-11 at p = 1e-300, where Φ's own rounding dominates)', () => {
+  it('normalQuantile inverts Φ to 1e-13 relative (1e-11 at p = 1e-300, where the rounding of Φ dominates)', () => {
     // Source: Φ of ./normal.ts (checked against scipy in tests/core/normal.test.ts); Φ(Φ⁻¹(p)) = p.
     for (const p of [1e-300, 1e-12, 1e-6, 0.001, 0.02425, 0.05, 0.2, 0.5, 0.7, 0.95, 0.97575, 0.999]) {
       const z = normalQuantile(p);
