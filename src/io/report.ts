@@ -1,0 +1,472 @@
+/**
+ * The screening report: ONE self-contained HTML file (inline CSS, inline SVG figures, map images as
+ * data URLs; no script, no font, nothing fetched — a Content-Security-Policy in the page forbids it),
+ * laid out for printing to PDF from the browser (A4 pages, page breaks between parts).
+ *
+ * Parts: the screening caution (top and on every printed page), job summary, samples (data summary,
+ * read report, histogram), structure (variogram with the model, model comparison), cross-validation
+ * (figures and plot), surfaces (maps of mean, sd and P(exceed) with legends, scale bar and north
+ * arrow), suggested next samples (when present), and every parameter needed to reproduce the result
+ * with the software version and date. Every text that comes from a file or the user is escaped.
+ *
+ * `prepareReport` recomputes what a report shows from a project exactly as the app computes it;
+ * `reportHtml` only formats (pure, no I/O), so the app can pass results it already has.
+ */
+import { CAUTION } from '../core/caution.ts';
+import { GapwiseError, type Warning } from '../core/errors.ts';
+import type { CovarianceModel, Structure } from '../core/model.ts';
+import { nuggetOf } from '../core/model.ts';
+import type { Samples } from '../core/samples.ts';
+import { cellCount, type Grid } from '../core/grid.ts';
+import { computeSurface } from '../core/surface.ts';
+import { leaveOneOut, type LeaveOneOutResult } from '../core/cross-validation.ts';
+import { empiricalVariogram, type EmpiricalVariogram } from '../core/variogram.ts';
+import { surfaceCovariance, surfaceVariance } from '../core/covariance.ts';
+import { CANDIDATES, fitModel } from '../core/fit.ts';
+import type { Polygon } from './boundary.ts';
+import { createTransform, LOCAL_CRS } from './crs.ts';
+import type { IntakeResult } from './types.ts';
+import {
+  gridGeometry, projectBoundary, projectGrid, projectIntake, type ComparisonRow, type Project, type Suggestion,
+} from './project.ts';
+import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
+import {
+  crossValidationSvg, escapeXml, finiteRange, formatNumber, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
+} from './report-svg.ts';
+
+/** Surfaces of the whole grid (nx·ny cells each). */
+export interface ReportSurface {
+  mean: ArrayLike<number>;
+  sd: ArrayLike<number>;
+  pExceed?: ArrayLike<number>;
+  threshold?: number;
+}
+
+/** Everything a report shows, computed; plain data. */
+export interface ReportInput {
+  project: Project;
+  intake: IntakeResult;
+  /** Boundary polygons in the working CRS. */
+  boundary: { work: Polygon[] } | null;
+  /** Empirical variogram on the modelling scale (ln values for a log model). */
+  variogram: EmpiricalVariogram | null;
+  comparison: ComparisonRow[];
+  cv: LeaveOneOutResult | null;
+  grid: Grid | null;
+  surface: ReportSurface | null;
+  software: { name: string; version: string };
+  /** ISO 8601 time the report was made. */
+  created: string;
+  /** Colour tables for the maps (default: the app's scales). */
+  luts?: Partial<Record<ReportScale, Lut>>;
+  warnings?: Warning[];
+}
+
+export interface PrepareOptions {
+  software: { name: string; version: string };
+  /** Default: now. */
+  created?: string;
+  /**
+   * Fit the standard candidate models for the comparison table when the project holds none
+   * (default true; costs a few model fits).
+   */
+  compare?: boolean;
+  /** Results already at hand (the app): used instead of recomputing. */
+  surface?: ReportSurface | null;
+  cv?: LeaveOneOutResult | null;
+  comparison?: ComparisonRow[];
+  /** Replaces the project's cell size (the grid is then planned anew). */
+  cellSize?: number;
+}
+
+function modelSamples(samples: Samples, log: boolean): Samples {
+  return log ? { x: samples.x, y: samples.y, value: Float64Array.from(samples.value, Math.log) } : samples;
+}
+
+/** Label of a candidate: "Matérn ν = 1.5", "Matérn, ν estimated", "Exponential". */
+export function candidateLabel(family: string, nu?: number | 'free'): string {
+  if (family === 'matern') return nu === 'free' ? 'Matérn, ν estimated' : `Matérn ν = ${nu === 0.5 ? '½' : nu === 1.5 ? '3/2' : nu === 2.5 ? '5/2' : String(nu)}`;
+  return family.charAt(0).toUpperCase() + family.slice(1);
+}
+
+/**
+ * Fits the standard candidates (REML/ML/WLS as the project says, on ln values for a log model) and
+ * cross-validates each, as the app's comparison table does. A candidate that cannot be fitted keeps
+ * its row with `error`.
+ */
+export function compareCandidates(intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log'): ComparisonRow[] {
+  const fitSamples = modelSamples(intake.samples, transform === 'log');
+  return CANDIDATES.map((c): ComparisonRow => {
+    const key = c.family === 'matern' ? `matern-${c.nu}` : c.family;
+    const label = candidateLabel(c.family, c.nu);
+    try {
+      const m = fitModel(fitSamples, { family: c.family, nu: c.nu, method });
+      m.transform = transform;
+      const cv = leaveOneOut(intake.samples, m);
+      return {
+        key, label, model: m, logLikelihood: m.fit?.logLikelihood ?? null, aic: m.fit?.aic ?? null,
+        rmse: cv.summary.rmse, msse: cv.summary.msse,
+      };
+    } catch (e) {
+      if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
+        return { key, label, model: null, logLikelihood: null, aic: null, rmse: null, msse: null, error: e.message };
+      }
+      throw e;
+    }
+  });
+}
+
+/**
+ * Computes what the report shows from a project, the way the app computes it: the samples read
+ * from the stored text, the variogram with the stored settings, leave-one-out cross-validation of
+ * the model, and the surfaces on the project's grid with its threshold.
+ */
+export function prepareReport(project: Project, options: PrepareOptions): ReportInput {
+  const warnings: Warning[] = [];
+  const intake = projectIntake(project);
+  const work = intake.report.crs.work;
+  const boundary = project.boundary && work !== LOCAL_CRS ? projectBoundary(project, work) : null;
+  const log = project.structure.transform === 'log';
+  const vg = project.structure.variogram;
+  let variogram: EmpiricalVariogram | null = null;
+  try {
+    variogram = empiricalVariogram(modelSamples(intake.samples, log), {
+      lagWidth: vg.lagWidth || undefined, maxLag: vg.maxLag || undefined, estimator: vg.estimator,
+    });
+  } catch (e) {
+    if (!(e instanceof GapwiseError)) throw e;
+    warnings.push({ code: 'no-variogram', message: `No variogram: ${e.message}` });
+  }
+  const model = project.model;
+  let cv = options.cv ?? null;
+  let grid: Grid | null = null;
+  let surface = options.surface ?? null;
+  if (model) {
+    if (!cv) cv = leaveOneOut(intake.samples, model);
+    grid = projectGrid(project, intake, boundary, options.cellSize !== undefined ? { cellSize: options.cellSize } : {});
+    if (!surface) {
+      const t = project.threshold;
+      const useThreshold = t !== null && Number.isFinite(t) && (model.transform !== 'log' || t > 0);
+      if (t !== null && !useThreshold) warnings.push({ code: 'threshold-ignored', message: `The threshold ${t} cannot be used with a log model (it must be above 0); no exceedance map.` });
+      surface = computeSurface(intake.samples, model, grid, useThreshold ? { threshold: t } : {});
+    }
+  } else {
+    warnings.push({ code: 'no-model', message: 'The project has no model yet: the report shows the samples and the variogram only.' });
+  }
+  let comparison = options.comparison ?? project.structure.comparison ?? [];
+  if (comparison.length === 0 && model && options.compare !== false) {
+    comparison = compareCandidates(intake, project.structure.method, project.structure.transform);
+  }
+  return {
+    project, intake, boundary, variogram, comparison, cv, grid, surface,
+    software: options.software, created: options.created ?? new Date().toISOString(), warnings,
+  };
+}
+
+// ------------------------------------------------------------------------------------ formatting
+
+const esc = escapeXml;
+const fmt = (v: number | null | undefined, digits = 4) => (v === null || v === undefined ? '–' : formatNumber(v, digits));
+
+function table(head: string[], rows: string[][], cls = ''): string {
+  return `<table${cls ? ` class="${cls}"` : ''}><thead><tr>${head.map((h) => `<th>${h}</th>`).join('')}</tr></thead>`
+    + `<tbody>${rows.map((r) => `<tr>${r.map((c) => `<td>${c}</td>`).join('')}</tr>`).join('')}</tbody></table>`;
+}
+
+function keyValues(rows: Array<[string, string]>): string {
+  return `<table class="kv"><tbody>${rows.map(([k, v]) => `<tr><th scope="row">${k}</th><td>${v}</td></tr>`).join('')}</tbody></table>`;
+}
+
+function structureText(s: Structure): string {
+  if (s.type === 'nugget') return `nugget ${fmt(s.sill)}`;
+  const family = s.type === 'matern' ? `Matérn (ν = ${fmt(s.nu ?? NaN, 3)})` : s.type;
+  return `${family}: partial sill ${fmt(s.sill)}, scale ${fmt(s.scale)} m`;
+}
+
+/** The model in one line: structures, trend, transform, anisotropy. */
+export function modelText(m: CovarianceModel): string {
+  const parts = m.structures.map(structureText);
+  const trend = m.trend === 'constant' ? 'unknown constant mean (ordinary kriging)'
+    : m.trend === 'linear' ? 'linear drift in x, y (universal kriging)'
+      : `known mean ${fmt(m.trend.known)} (simple kriging)`;
+  parts.push(trend);
+  if (m.transform === 'log') parts.push('fitted to ln(value), results back-transformed with the lognormal correction');
+  if (m.anisotropy) parts.push(`anisotropy: long axis ${fmt(m.anisotropy.azimuth, 3)}° from north, ratio ${fmt(m.anisotropy.ratio, 3)}`);
+  return parts.join('; ');
+}
+
+function modelCurve(m: CovarianceModel, maxLag: number, count = 100): Array<{ h: number; gamma: number }> {
+  const c0 = surfaceVariance(m);
+  const nugget = nuggetOf(m);
+  const out = [{ h: 0, gamma: 0 }];
+  for (let k = 1; k <= count; k++) {
+    const h = (maxLag * k) / count;
+    out.push({ h, gamma: nugget + c0 - surfaceCovariance(m, h) });
+  }
+  return out;
+}
+
+/** Direction of true north at the grid's centre, degrees clockwise from grid north; null without a CRS. */
+export function northAngle(grid: Grid, workCrs: string): number | null {
+  if (workCrs === LOCAL_CRS) return null;
+  try {
+    const t = createTransform(workCrs, 'EPSG:4326');
+    const xc = grid.x0 + (grid.nx * grid.cell) / 2, yc = grid.y0 - (grid.ny * grid.cell) / 2;
+    const [lon, lat] = t.forward(xc, yc);
+    const [x1, y1] = t.inverse(lon, lat + 0.001);
+    const a = (Math.atan2(x1 - xc, y1 - yc) * 180) / Math.PI;
+    return Number.isFinite(a) ? a : null;
+  } catch {
+    return null;
+  }
+}
+
+const STYLE = `
+:root { color-scheme: light; }
+* { box-sizing: border-box; }
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #1d1d1f; margin: 0; background: #fafaf7; line-height: 1.45; font-size: 14px; }
+main { max-width: 900px; margin: 0 auto; padding: 24px 28px 60px; background: #fff; }
+h1 { font-size: 26px; margin: 0 0 4px; }
+h2 { font-size: 19px; margin: 28px 0 10px; padding-bottom: 4px; border-bottom: 2px solid #2f4a6d; }
+h3 { font-size: 15px; margin: 18px 0 6px; }
+.meta { color: #555; margin: 0 0 14px; }
+.caution { border: 2px solid #b3412c; background: #fbeee9; color: #5a1d10; padding: 10px 14px; font-weight: 600; border-radius: 4px; margin: 12px 0; }
+.invented { border: 2px dashed #7a5b00; background: #fff7d6; padding: 8px 12px; margin: 10px 0; font-weight: 600; }
+.warn { background: #fff7d6; padding: 6px 10px; border-left: 4px solid #c79a00; margin: 6px 0; }
+table { border-collapse: collapse; width: 100%; margin: 8px 0 12px; font-size: 13px; }
+th, td { border-bottom: 1px solid #ddd; padding: 4px 6px; text-align: left; vertical-align: top; }
+thead th { background: #eef1f5; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+table.kv th { width: 34%; font-weight: 600; color: #333; background: none; }
+tr.chosen td { background: #e8f1e4; font-weight: 600; }
+figure { margin: 12px 0 18px; }
+figure svg { max-width: 100%; height: auto; }
+figcaption { color: #444; font-size: 12.5px; margin-top: 4px; }
+.maps figure { display: inline-block; vertical-align: top; }
+pre { background: #f4f4f2; padding: 10px; overflow-x: auto; font-size: 11.5px; white-space: pre-wrap; word-break: break-word; }
+.footer-caution { display: none; }
+table.entries td:first-child, table.entries td:nth-child(2) { white-space: nowrap; }
+.hint { color: #666; font-size: 12px; }
+@page { size: A4; margin: 14mm 12mm 18mm; }
+@media print {
+  body { background: #fff; font-size: 10.5pt; }
+  main { max-width: none; padding: 0; }
+  .page { break-before: page; }
+  figure, table, .caution, .kv, pre { break-inside: avoid; }
+  h2, h3 { break-after: avoid; }
+  .hint { display: none; }
+  .footer-caution { display: block; position: fixed; bottom: 0; left: 0; right: 0; font-size: 8pt; color: #5a1d10; text-align: center; border-top: 1px solid #b3412c; padding-top: 2px; background: #fff; }
+}
+`;
+
+/** The report as one self-contained HTML document. */
+export function reportHtml(input: ReportInput): string {
+  const { project, intake, surface, grid, cv } = input;
+  const r = intake.report;
+  const luts = { ...defaultLuts(), ...(input.luts ?? {}) };
+  const unit = project.samples.unit || r.unit;
+  const valueName = r.valueColumn.replace(/\s*\([^)]*\)\s*$/, '') || 'value';
+  const u = (s: string) => (unit ? `${s} (${unit})` : s);
+  const model = project.model;
+  const log = project.structure.transform === 'log';
+  const threshold = surface?.pExceed ? surface.threshold ?? project.threshold : null;
+  const created = input.created;
+  const title = project.title || `${valueName} screening map`;
+  const work = r.crs.work;
+  const s = r.summary;
+  const html: string[] = [];
+
+  html.push('<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">');
+  html.push(`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">`);
+  html.push('<meta name="viewport" content="width=device-width, initial-scale=1">');
+  html.push(`<meta name="generator" content="${esc(`${input.software.name} ${input.software.version}`)}">`);
+  html.push(`<title>${esc(title)} — Gapwise report</title><style>${STYLE}</style></head><body><main>`);
+  html.push(`<div class="footer-caution">${esc(CAUTION)}</div>`);
+  html.push(`<h1>${esc(title)}</h1>`);
+  html.push(`<p class="meta">Gapwise screening report · ${esc(created.slice(0, 10))} · ${esc(input.software.name)} ${esc(input.software.version)}</p>`);
+  html.push(`<div class="caution" role="note">${esc(CAUTION)}</div>`);
+  if (project.samples.invented) html.push('<div class="invented">The samples in this report are INVENTED demo data: they describe no real site.</div>');
+  html.push('<p class="hint">To keep a PDF, use the browser\'s Print command and choose "Save as PDF".</p>');
+  for (const w of input.warnings ?? []) html.push(`<p class="warn">${esc(w.message)}</p>`);
+
+  // --- job summary ----------------------------------------------------------------------------
+  html.push('<h2>Summary</h2>');
+  const summary: Array<[string, string]> = [
+    ['Samples file', esc(project.samples.fileName)],
+    ['Value', `${esc(r.valueColumn)}${unit ? ` (unit ${esc(unit)})` : ''}`],
+    ['Samples used', `${r.rowsUsed} of ${r.rowsRead} rows read${intake.samples.value.length !== r.rowsUsed ? `; ${intake.samples.value.length} locations after merging duplicates` : ''}`],
+    ['Coordinates', `${esc(r.crs.input)} → working CRS ${esc(work)}`],
+    ['Model', model ? esc(modelText(model)) : 'none chosen'],
+  ];
+  if (grid) summary.push(['Grid', `${fmt(grid.cell)} m cells, ${grid.nx} × ${grid.ny} (${cellCount(grid).toLocaleString('en')} cells ${grid.mask ? 'inside the boundary' : 'over the padded extent'})`]);
+  if (threshold !== null && threshold !== undefined) summary.push(['Threshold (action level)', esc(`${fmt(threshold)}${unit ? ` ${unit}` : ''}`)]);
+  if (surface && grid) {
+    const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
+    summary.push(['Mean surface', esc(`${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`)]);
+    summary.push(['Uncertainty (sd)', esc(`${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`)]);
+    if (surface.pExceed) {
+      let over = 0, likely = 0, active = 0;
+      for (let k = 0; k < surface.pExceed.length; k++) {
+        const p = surface.pExceed[k];
+        if (!Number.isFinite(p)) continue;
+        active++;
+        if (p >= 0.5) over++;
+        if (p >= 0.9) likely++;
+      }
+      const ha = (c: number) => fmt((c * grid.cell * grid.cell) / 10000, 3);
+      summary.push(['Area more likely than not above the threshold', `${ha(over)} ha (${fmt((100 * over) / Math.max(1, active), 3)} % of the mapped area; P ≥ 0.5)`]);
+      summary.push(['Area very likely above the threshold', `${ha(likely)} ha (P ≥ 0.9)`]);
+    }
+  }
+  if (cv) summary.push(['Cross-validation', esc(`RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`)]);
+  if (project.suggestions?.length) summary.push(['Suggested next samples', String(project.suggestions.length)]);
+  html.push(keyValues(summary));
+
+  // --- samples -------------------------------------------------------------------------------
+  html.push('<h2 class="page">Samples</h2>');
+  html.push('<h3>Data summary</h3>');
+  html.push(table(['n', 'min', 'median', 'mean', 'max', 'sd', 'skewness'],
+    [[String(s.n), fmt(s.min), fmt(s.median), fmt(s.mean), fmt(s.max), fmt(s.sd), fmt(s.skewness, 3)].map((c) => esc(c))]));
+  html.push(`<figure>${histogramSvg(intake.samples.value, { title: `Histogram of ${valueName}`, axis: u(valueName), threshold })}<figcaption>Values as used (non-detects substituted, duplicates ${esc(r.duplicates.rule === 'merge' ? 'merged' : 'kept')}).${threshold !== null && threshold !== undefined ? ' Dashed: the threshold.' : ''}</figcaption></figure>`);
+  if (log) {
+    const lnValues = Float64Array.from(intake.samples.value, Math.log);
+    html.push(`<figure>${histogramSvg(lnValues, { title: `Histogram of ln(${valueName})`, axis: `ln(${valueName})`, threshold: threshold !== null && threshold !== undefined && threshold > 0 ? Math.log(threshold) : null })}<figcaption>The values on the log scale the model was fitted on.</figcaption></figure>`);
+  }
+  html.push('<h3>What was read</h3>');
+  const read: Array<[string, string]> = [
+    ['File', `${esc(r.fileName)} (${esc(r.format.toUpperCase())}${r.delimiter ? `, delimiter ${esc(r.delimiter === '\t' ? 'tab' : `"${r.delimiter}"`)}` : ''})`],
+    ['Rows', `${r.rowsRead} read, ${r.rowsUsed} used`],
+    ['Columns', `x ${esc(r.xColumn)}, y ${esc(r.yColumn)}, value ${esc(r.valueColumn)}${r.idColumn ? `, id ${esc(r.idColumn)}` : ''}`],
+    ['CRS', `${esc(r.crs.input)} (${esc(r.crs.detection)}); working CRS ${esc(r.crs.work)}`],
+    ['Non-detects', `${r.nonDetects.count} (rule: ${esc(r.nonDetects.rule === 'half' ? 'half the detection limit' : r.nonDetects.rule === 'dl' ? 'the detection limit' : 'the limit divided by √2')}). ${esc(r.nonDetects.note)}`],
+    ['Duplicate locations', `${r.duplicates.groups} group(s), ${esc(r.duplicates.rule === 'merge' ? 'merged into their mean' : 'kept')} (tolerance ${fmt(r.duplicates.tolerance)} m)`],
+    ['Outliers flagged', `${r.outliers.length} (beyond 3 IQR from the quartiles; kept)`],
+  ];
+  if (r.transformAdvice) read.push(['Transform advice', esc(r.transformAdvice)]);
+  html.push(keyValues(read));
+  for (const w of r.warnings) html.push(`<p class="warn">${esc(w.message)}</p>`);
+  if (r.entries.length) {
+    const shown = r.entries.slice(0, 40);
+    html.push(table(['where', 'field', 'raw', 'action', 'reason'], shown.map((e) => [
+      esc(e.line !== undefined ? `line ${e.line}` : e.feature !== undefined ? `feature ${e.feature}` : ''),
+      esc(e.field ?? ''), esc((e.raw ?? '').slice(0, 60)), esc(e.action), esc(e.reason),
+    ]), 'entries'));
+    if (r.entries.length > shown.length) html.push(`<p>… and ${r.entries.length - shown.length} more entries.</p>`);
+  }
+
+  // --- structure -----------------------------------------------------------------------------
+  html.push('<h2 class="page">Spatial structure</h2>');
+  const vgr = input.variogram;
+  if (vgr) {
+    const scaleNote = log ? `ln(${valueName})` : valueName;
+    const maxLag = vgr.options.maxLag;
+    html.push(`<figure>${variogramSvg(vgr.lags, model ? modelCurve(model, maxLag) : [], {
+      title: `Variogram of ${scaleNote}${model ? ' with the chosen model' : ''}`,
+      axis: log ? 'semivariance (ln units²)' : unit ? `semivariance (${unit})²` : 'semivariance',
+    })}<figcaption>${esc(`${vgr.options.estimator === 'matheron' ? 'Matheron' : 'Cressie–Hawkins'} estimator, lag width ${fmt(vgr.options.lagWidth)} m, up to ${fmt(maxLag)} m; numbers are pair counts.`)}</figcaption></figure>`);
+    for (const n of vgr.notes) html.push(`<p class="hint">${esc(n)}</p>`);
+    for (const w of vgr.warnings) html.push(`<p class="warn">${esc(w.message)}</p>`);
+  }
+  if (model) {
+    html.push('<h3>Chosen model</h3>');
+    const rows: Array<[string, string]> = [['Model', esc(modelText(model))]];
+    if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
+    if (model.fit) {
+      rows.push(['Fit', esc(`${model.fit.method}${model.fit.logLikelihood !== undefined ? `, log-likelihood ${fmt(model.fit.logLikelihood, 6)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic, 6)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`)]);
+      for (const w of model.fit.warnings ?? []) rows.push(['Fit note', esc(String(w))]);
+    }
+    html.push(keyValues(rows));
+  }
+  html.push('<h3>Model comparison</h3>');
+  if (input.comparison.length) {
+    const ll = input.comparison.map((c) => c.aic).filter((a): a is number => a !== null && Number.isFinite(a));
+    const best = ll.length ? Math.min(...ll) : NaN;
+    html.push(`<table><thead><tr><th>model</th><th class="num">log-likelihood</th><th class="num">AIC</th><th class="num">ΔAIC</th><th class="num">RMSE${log ? ' (ln)' : ''}</th><th class="num">MSSE</th></tr></thead><tbody>`
+      + input.comparison.map((c) => `<tr${c.key === project.structure.chosen ? ' class="chosen"' : ''}><td>${esc(c.label)}${c.key === project.structure.chosen ? ' (chosen)' : ''}${c.error ? `<br><small>${esc(c.error)}</small>` : ''}</td>`
+        + `<td class="num">${fmt(c.logLikelihood, 6)}</td><td class="num">${fmt(c.aic, 6)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`
+        + `<td class="num">${fmt(c.rmse)}</td><td class="num">${fmt(c.msse, 3)}</td></tr>`).join('')
+      + '</tbody></table>');
+    html.push('<p class="hint">AIC compares models fitted to the same data with the same trend; lower is better. RMSE and MSSE from leave-one-out cross-validation (MSSE near 1: the uncertainty is honest).</p>');
+  } else {
+    html.push('<p>No comparison was made.</p>');
+  }
+
+  // --- cross-validation ------------------------------------------------------------------------
+  if (cv) {
+    html.push('<h2>Cross-validation</h2>');
+    const cvUnit = cv.scale === 'log' ? `ln(${valueName})` : u(valueName);
+    html.push(keyValues([
+      ['Samples', String(cv.summary.n)],
+      ['Mean error (about 0 when unbiased)', esc(fmt(cv.summary.me))],
+      ['RMSE', esc(`${fmt(cv.summary.rmse)} ${cv.scale === 'log' ? 'ln units' : unit}`)],
+      ['MSSE (about 1 when the sd is honest)', esc(fmt(cv.summary.msse, 3))],
+      ['Inside their 95 % interval (about 95 %)', esc(`${fmt(100 * cv.summary.coverage95, 3)} %`)],
+    ]));
+    const observed = new Float64Array(cv.prediction.length);
+    for (let i = 0; i < observed.length; i++) observed[i] = cv.prediction[i] - cv.error[i];
+    html.push(`<figure>${crossValidationSvg(observed, cv.prediction, { title: 'Leave-one-out: predicted against observed', axisX: `observed ${cvUnit}`, axisY: `predicted ${cvUnit}` })}<figcaption>Each sample predicted from all the others with the chosen model; dashed: 1:1.</figcaption></figure>`);
+  }
+
+  // --- maps ----------------------------------------------------------------------------------
+  if (surface && grid) {
+    html.push('<h2 class="page">Maps</h2>');
+    const rings = input.boundary?.work.flatMap((p) => p.rings);
+    const north = northAngle(grid, work);
+    const suggestions = project.suggestions?.map((x) => ({ rank: x.rank, x: x.x, y: x.y }));
+    const map = (kind: ReportScale, values: ArrayLike<number>, name: string, domain: [number, number], caption: string, ticks?: number[], logColours = false) => {
+      const shown = logColours ? Float64Array.from(values, (v) => (v > 0 ? Math.log(v) : NaN)) : values;
+      const shownDomain: [number, number] = logColours ? [Math.log(domain[0]), Math.log(domain[1])] : domain;
+      const svg = mapSvg({ title: name, grid, values: shown, domain: shownDomain, lut: luts[kind], samples: intake.samples, rings, suggestions, northAngle: north });
+      const legend = legendBarSvg({ title: name, domain, lut: luts[kind], idPrefix: `legend-${kind}`, ticks, log: logColours });
+      html.push(`<figure class="map">${svg}<div>${legend}</div><figcaption>${esc(caption)}</figcaption></figure>`);
+    };
+    const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
+    // A log model's surfaces span orders of magnitude: colours then follow ln(value).
+    const logColours = log && mr.min > 0 && mr.max > mr.min;
+    const logSd = log && sr.min > 0 && sr.max > sr.min;
+    map('mean', surface.mean, u(`Mean ${valueName}`), [mr.min, mr.max],
+      `The most likely value in each ${fmt(grid.cell)} m cell${log ? ' (lognormal mean)' : ''}${logColours ? '; colours on a logarithmic scale' : ''}. Dots: samples${suggestions?.length ? '; numbered squares: suggested next samples' : ''}.`,
+      undefined, logColours);
+    map('sd', surface.sd, u(`Uncertainty (sd) of ${valueName}`), [sr.min, sr.max],
+      `Standard deviation of the estimate: small near samples, large far from them${logSd ? '; colours on a logarithmic scale' : ''}.`, undefined, logSd);
+    if (surface.pExceed && threshold !== null && threshold !== undefined) {
+      map('pExceed', surface.pExceed, `P(${valueName} > ${fmt(threshold)}${unit ? ` ${unit}` : ''})`, [0, 1],
+        'Chance that the true value exceeds the threshold: 0.5 means as likely as not.', [0, 0.25, 0.5, 0.75, 1]);
+    }
+    html.push(`<p class="hint">Maps are drawn north-up in ${esc(work)}; the arrow shows true north.</p>`);
+  }
+
+  // --- suggestions ---------------------------------------------------------------------------
+  const sug: Suggestion[] = project.suggestions ?? [];
+  if (sug.length) {
+    html.push('<h2 class="page">Suggested next samples</h2>');
+    html.push(table(['rank', 'longitude', 'latitude', `x (${esc(work)})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
+      sug.map((x) => [String(x.rank), fmt(x.lon, 9), fmt(x.lat, 9), fmt(x.x, 9), fmt(x.y, 9), fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined ? '–' : fmt(x.pExceed, 3)]
+        .map((c) => esc(c)))));
+    if (project.suggestOptions) html.push(`<p class="hint">Made with ${esc(JSON.stringify(project.suggestOptions))}.</p>`);
+  }
+
+  // --- reproduce -----------------------------------------------------------------------------
+  html.push('<h2 class="page">How to reproduce</h2>');
+  const intakeOptions = { fileName: project.samples.fileName, ...project.samples.intake };
+  const params: Array<[string, string]> = [
+    ['Software', esc(`${input.software.name} ${input.software.version}`)],
+    ['Report made', esc(created)],
+    ['Project saved', esc(project.saved || '–')],
+    ['Samples file', esc(`${project.samples.fileName} (${project.samples.text.length.toLocaleString('en')} characters, kept inside the project)`)],
+    ['Reading options', `<code>${esc(JSON.stringify(intakeOptions))}</code>`],
+    ['Coordinate systems', esc(`input ${r.crs.input}, working ${work}`)],
+    ['Boundary', esc(project.boundary ? `${project.boundary.fileName} (${project.grid.area === 'boundary' ? 'used as the grid area' : 'not used for the grid'})` : 'none')],
+    ['Variogram settings', esc(JSON.stringify(input.variogram?.options ?? project.structure.variogram))],
+    ['Fitting', esc(`method ${project.structure.method}, transform ${project.structure.transform}, chosen candidate ${project.structure.chosen || '–'}`)],
+    ['Grid', esc(grid ? JSON.stringify({ ...gridGeometry(grid), area: project.grid.area, padding: project.grid.padding, cellSizeAsked: project.grid.cellSize }) : '–')],
+    ['Threshold', esc(project.threshold === null ? 'none' : String(project.threshold))],
+  ];
+  html.push(keyValues(params));
+  if (model) html.push(`<h3>Model (JSON)</h3><pre>${esc(JSON.stringify(model, null, 2))}</pre>`);
+  html.push('<p>The project file holds the samples text and all of the above. With it, the command line gives the same numbers:</p>');
+  html.push('<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json --out report.html</pre>');
+  html.push(`<div class="caution" role="note">${esc(CAUTION)}</div>`);
+  html.push('</main></body></html>\n');
+  return html.join('\n');
+}
