@@ -13,7 +13,7 @@
  * Coordinates are centred on the sample centroid before any matrix is built (UTM northings near
  * 6·10⁶ m would otherwise lose digits in the trend columns).
  * Log transform: kriging of ln(value); back on the data scale the mean is exp(Ŷ + σ²/2) and the
- * median exp(Ŷ) (lognormal bias correction).
+ * median exp(Ŷ) (lognormal bias correction); a known mean {known: m} is then the mean of ln(value).
  * Units: coordinates in working-CRS metres; mean and sd in data units.
  * Cost: n³/3 flops once (factor), then per target n covariance evaluations and n² flops for the sd
  * (n flops for the mean alone). Memory: 8n² bytes for the factor plus 8·n·block per query block.
@@ -22,7 +22,9 @@ import type { CovarianceModel } from './model.ts';
 import { nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
-import { sampleCovarianceMatrix, crossCovarianceMatrix, surfaceVariance } from './covariance.ts';
+import {
+  sampleCovarianceMatrix, crossCovarianceMatrix, crossCovarianceInto, surfaceVariance,
+} from './covariance.ts';
 import { cholesky, solveLowerInPlace, solveUpperTransposeInPlace, type CholeskyFactor } from './linalg.ts';
 import {
   trendColumnCount, knownMean, coordinateFrame, centreCoordinates, designMatrix, designRow,
@@ -381,6 +383,7 @@ export function predictWithSystem(
   const cross = new Float64Array(Math.min(block, total) * p);
   const q = new Float64Array(Math.min(block, total));
   const t = new Float64Array(p);
+  const buffer = new Float64Array(n * Math.min(block, total));
 
   for (let j0 = 0; j0 < total; j0 += block) {
     const m = Math.min(block, total - j0);
@@ -392,7 +395,8 @@ export function predictWithSystem(
       designRow(model.trend, tu[j], tv[j], centredFrame, x0, j * p);
     }
     // n×m: row i holds the covariances of sample i with the block's targets (C is symmetric in the pair).
-    const B = crossCovarianceMatrix(model, u, v, tu, tv);
+    const B = m * n === buffer.length ? buffer : buffer.subarray(0, n * m);
+    crossCovarianceInto(model, u, v, tu, tv, B);
 
     // mean = m0 + x₀ᵀβ̂ + k₀ᵀα
     for (let j = 0; j < m; j++) {
