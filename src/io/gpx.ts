@@ -7,7 +7,7 @@
  */
 import { CAUTION } from '../core/caution.ts';
 import type { ExportableDesign } from './suggestions-export.ts';
-import { checkLonLat, numberText } from './suggestions-export.ts';
+import { checkLonLat } from './suggestions-export.ts';
 
 export interface GpxOptions {
   /** The file's name element (default "Suggested sample sites"). */
@@ -43,6 +43,12 @@ const MODE_WORDS: Record<string, string> = {
   coverage: 'to cover the area evenly',
 };
 
+/** A value for a field crew's screen: 4 significant digits. */
+function shortNumber(v: number | null): string {
+  if (v === null || !Number.isFinite(v)) return '';
+  return String(Number(v.toPrecision(4)));
+}
+
 /** The waypoint name of a suggestion: "S01", "S02", ... (sorts in rank order). */
 export function waypointName(rank: number, total: number): string {
   return `S${String(rank).padStart(Math.max(2, String(total).length), '0')}`;
@@ -50,7 +56,7 @@ export function waypointName(rank: number, total: number): string {
 
 /**
  * GPX 1.1 document with one waypoint per suggestion (name S01…, a comment with the benefit, mean,
- * sd and P(exceed), a description) and metadata carrying the caution. Throws GapwiseError
+ * sd (4 significant digits) and P(exceed) (3 decimals), a description) and metadata carrying the caution. Throws GapwiseError
  * 'bad-value' when a suggestion lacks lon/lat.
  */
 export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions = {}): string {
@@ -78,10 +84,10 @@ export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions =
   }
   lines.push('  </metadata>');
   for (const s of design.suggestions) {
-    const parts = [`benefit ${numberText(s.benefit)}`];
-    if (s.mean !== null) parts.push(`mean ${numberText(s.mean)}${unit}`);
-    if (s.sd !== null) parts.push(`sd ${numberText(s.sd)}${unit}`);
-    if (s.pExceed !== null) parts.push(`P(exceed ${numberText(design.threshold)}${unit}) ${numberText(s.pExceed)}`);
+    const parts = [`benefit ${shortNumber(s.benefit)}`];
+    if (s.mean !== null) parts.push(`mean ${shortNumber(s.mean)}${unit}`);
+    if (s.sd !== null) parts.push(`sd ${shortNumber(s.sd)}${unit}`);
+    if (s.pExceed !== null) parts.push(`P(exceed ${String(design.threshold)}${unit}) ${Number(s.pExceed.toFixed(3))}`);
     lines.push(
       `  <wpt lat="${degreesText(s.lat as number, false)}" lon="${degreesText(s.lon as number, true)}">`,
       `    <name>${waypointName(s.rank, total)}</name>`,

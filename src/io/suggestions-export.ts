@@ -93,10 +93,11 @@ export function suggestionsToGeoJson(design: ExportableDesign): string {
 
 /**
  * CSV with the columns rank, x, y (the samples' CRS), lon, lat, benefit, mean, sd, and p_exceed when
- * the design has a threshold. Empty cells where there is no value (coverage without a model).
+ * the design has a threshold. Empty cells where there is no value (coverage without a model; lon and
+ * lat for local coordinates without a CRS).
  */
 export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOptions = {}): string {
-  checkLonLat(design.suggestions);
+  if (design.suggestions.some((s) => s.lon !== undefined || s.lat !== undefined)) checkLonLat(design.suggestions);
   const nl = options.newline ?? '\n';
   const withP = design.threshold !== null;
   const header = ['rank', 'x', 'y', 'lon', 'lat', 'benefit', 'mean', 'sd', ...(withP ? ['p_exceed'] : [])];
@@ -108,7 +109,7 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
   design.suggestions.forEach((s, k) => {
     const cells = [
       String(s.rank), numberText(inputX ? inputX[k] : s.x), numberText(inputY ? inputY[k] : s.y),
-      String(degrees(s.lon as number)), String(degrees(s.lat as number)),
+      s.lon === undefined ? '' : String(degrees(s.lon)), s.lat === undefined ? '' : String(degrees(s.lat)),
       numberText(s.benefit), numberText(s.mean), numberText(s.sd),
     ];
     if (withP) cells.push(numberText(s.pExceed));

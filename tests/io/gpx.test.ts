@@ -13,7 +13,7 @@ function design(overrides: Partial<ExportableDesign> = {}): ExportableDesign {
     misclassifiedAreaBefore: 5200, misclassifiedAreaAfter: 4100, areaDecided: 1100,
     coverageDistanceBefore: null, coverageDistanceAfter: null,
     suggestions: [
-      { rank: 1, x: 500010, y: 5400020, lon: 15.0001234567, lat: 48.7523456789, benefit: 512.25, mean: 180.5, sd: 35.1, pExceed: 0.29 },
+      { rank: 1, x: 500010, y: 5400020, lon: 15.0001234567, lat: 48.7523456789, benefit: 512.25, mean: 180.5, sd: 35.1, pExceed: 0.2912 },
       { rank: 2, x: 500110, y: 5400120, lon: -179.5, lat: -33.25, benefit: 300, mean: 220, sd: 30, pExceed: 0.74 },
     ],
     ...overrides,
@@ -83,11 +83,11 @@ describe('suggestionsToGpx', () => {
     expect(xml).toContain('<time>2025-03-04T09:30:15Z</time>');
   });
 
-  it('suggestionsToGpx writes each waypoint\'s lat/lon (7 decimals), name and the values in the comment', () => {
+  it('suggestionsToGpx writes each waypoint\'s lat/lon (7 decimals), name and the values (4 digits) in the comment', () => {
     expect(xml).toContain('<wpt lat="48.7523457" lon="15.0001235">');
     expect(xml).toContain('<wpt lat="-33.25" lon="-179.5">');
     expect(xml).toContain('<name>S01</name>');
-    expect(xml).toContain('<cmt>benefit 512.25; mean 180.5 mg/kg; sd 35.1 mg/kg; P(exceed 200 mg/kg) 0.29</cmt>');
+    expect(xml).toContain('<cmt>benefit 512.3; mean 180.5 mg/kg; sd 35.1 mg/kg; P(exceed 200 mg/kg) 0.291</cmt>');
     expect(xml).toContain('<bounds minlat="-33.25" minlon="-179.5" maxlat="48.7523457" maxlon="15.0001235"/>');
   });
 

@@ -67,6 +67,11 @@ describe('suggestionsToCsv', () => {
     expect(lines[1].split(',').slice(0, 3)).toEqual(['1', '15.0001234567', '48.7523456789']);
     expect(() => suggestionsToCsv(design(), { inputX: [1] })).toThrow(/Expected 2 input-CRS coordinates/);
   });
+
+  it('suggestionsToCsv leaves lon and lat empty for local coordinates without a CRS', () => {
+    const text = suggestionsToCsv(design({ suggestions: [{ rank: 1, x: 12.5, y: 40, benefit: 2, mean: 3, sd: 1, pExceed: 0.5 }] }));
+    expect(text.split('\n')[1]).toBe('1,12.5,40,,,2,3,1,0.5');
+  });
 });
 
 describe('numberText', () => {

@@ -7,8 +7,12 @@ import { inspectCommand } from './inspect.ts';
 import { fitCommand } from './fit.ts';
 import { predictCommand } from './predict.ts';
 import { cvCommand } from './cv.ts';
+import { gridCommand } from './grid.ts';
+import { reportCommand } from './report.ts';
+import { withProject } from '../project-options.ts';
+import { suggestCommand } from './suggest.ts';
 
-export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand];
+export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, suggestCommand, gridCommand, reportCommand].map(withProject);
 
 /** Commands of the design that are not built yet; running one says so (exit 2). */
-export const PLANNED: readonly string[] = ['grid', 'suggest', 'simulate', 'report'];
+export const PLANNED: readonly string[] = ['suggest', 'simulate'];
