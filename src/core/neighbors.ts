@@ -52,6 +52,15 @@ export class NeighborIndex {
   }
 
   /**
+   * Writes the ids of all points within distance r of (px, py) into `out` (which must have room for
+   * them: `size` entries always suffice) and returns how many were written.
+   */
+  withinInto(px: number, py: number, r: number, out: Uint32Array): number {
+    if (this.size === 0) return 0;
+    return this.tree.withinInto(px, py, r, out);
+  }
+
+  /**
    * The k nearest points to (px, py), nearest first (ties in any order).
    * @param out optional buffer for the ids (length ≥ min(k, size)); the result is a view of it.
    * @param outDist2 optional buffer receiving the squared distances, in the same order.
