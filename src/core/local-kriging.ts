@@ -1,0 +1,417 @@
+/**
+ * Kriging from local neighbourhoods: each target is predicted from its m nearest samples (default
+ * 64) instead of all n, so a surface costs O(cells·m³) time and O(n + m²) memory, never n².
+ *
+ * For a target s₀ with neighbours N, K = C(N, N) + nugget·I = L·Lᵀ, k₀ = C(N, s₀), v = L⁻¹k₀,
+ * X the trend columns over N, W = L⁻¹X, G = WᵀW = Lg·Lgᵀ, r = L⁻¹(z − Xβ̂):
+ *   mean = x₀ᵀβ̂ + vᵀr,   var = c₀ − vᵀv + ‖Lg⁻¹(x₀ − Wᵀv)‖²
+ * (the dual GLS form of kriging.ts applied to the neighbourhood; Cressie 1993 §3.2–3.4 for simple,
+ * ordinary and universal kriging). Trend as in the model: {known: m} simple, 'constant' ordinary,
+ * 'linear' universal kriging with the drift re-estimated in each neighbourhood. With
+ * `globalMean: true` the trend is instead the GLS estimate β̂ from all samples (dense for small n,
+ * nearest-neighbour factor of ./vecchia.ts otherwise), computed once and used as a known mean:
+ * simple kriging in every neighbourhood (its sd leaves out the small uncertainty of β̂).
+ * Neighbours are nearest in effective (anisotropic) distance. Consecutive targets that share their
+ * neighbour set share its factor; covariances between samples already in the previous set are
+ * copied rather than recomputed. Results do not depend on the order of the targets.
+ * Log transform as kriging.ts: kriging of ln(value), mean exp(Ŷ + σ²/2), median exp(Ŷ).
+ * Units: metres; mean and sd in data units. Cost per target: about m³/3 flops and m²/2 covariances
+ * when the set changes, m² flops and m covariances when it does not.
+ */
+import type { CovarianceModel } from './model.ts';
+import { nuggetOf } from './model.ts';
+import type { Samples } from './samples.ts';
+import { GapwiseError, type Warning } from './errors.ts';
+import { surfaceVariance } from './covariance.ts';
+import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
+import { coordinateFrame, designRow, knownMean, trendColumnCount, type CoordinateFrame } from './trend.ts';
+import { NeighborIndex } from './neighbors.ts';
+import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
+import { createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
+
+/** Default neighbourhood size. */
+export const DEFAULT_LOCAL_NEIGHBORS = 64;
+/** Up to this many samples the global mean comes from the dense GLS; above, from the nearest-neighbour factor. */
+const DENSE_GLOBAL_MEAN_LIMIT = 1000;
+
+/** Options of a local predictor (plain data). */
+export interface LocalKrigingOptions {
+  /** Samples per neighbourhood, m; default 64 (all samples when there are fewer). */
+  neighbors?: number;
+  /** Use the GLS trend estimate from all samples as a known mean in each neighbourhood; default false. */
+  globalMean?: boolean;
+  /** Neighbours per sample in the nearest-neighbour GLS of the global mean; default 30. */
+  meanNeighbors?: number;
+  /** Add a small diagonal jitter to a neighbourhood matrix that cannot be factorised (reported); default true. */
+  jitter?: boolean;
+}
+
+/** Predictions with the warnings met while computing them. */
+export type LocalPrediction = Prediction & { warnings: Warning[] };
+
+/** A local-neighbourhood predictor: build once (O(n log n)), then query in blocks or rows. */
+export interface LocalPredictor {
+  readonly n: number;
+  /** Neighbourhood size actually used: min(m, n). */
+  readonly neighbors: number;
+  readonly model: CovarianceModel;
+  /** Problems found so far: while building (jitter of the global GLS) and while predicting (a running jitter total). */
+  readonly warnings: Warning[];
+  /** The global GLS trend coefficients (globalMean only; empty otherwise), columns of ./trend.ts. */
+  readonly beta: Float64Array;
+  readonly frame: CoordinateFrame;
+  /** Mean and sd at the targets (working-CRS coordinates). */
+  predict(tx: ArrayLike<number>, ty: ArrayLike<number>, options?: PredictOptions): LocalPrediction;
+}
+
+function checkInputs(samples: Samples, model: CovarianceModel, p: number): void {
+  if (!model || !Array.isArray(model.structures) || model.structures.length === 0) {
+    throw new GapwiseError('bad-model', 'Expected the model to have at least one structure, got none.');
+  }
+  let total = 0;
+  for (const s of model.structures) {
+    if (!(typeof s.sill === 'number' && Number.isFinite(s.sill) && s.sill >= 0)) {
+      throw new GapwiseError('bad-model', `Expected every sill to be a non-negative number, got ${JSON.stringify(s.sill)}.`);
+    }
+    total += s.sill;
+  }
+  if (!(total > 0)) throw new GapwiseError('bad-model', `Expected the sills to add up to more than 0, got ${total}.`);
+  if (!samples || !samples.x || !samples.y || !samples.value) throw new GapwiseError('bad-value', 'Expected samples with x, y and value arrays.');
+  const n = samples.x.length;
+  if (samples.y.length !== n || samples.value.length !== n) {
+    throw new GapwiseError('bad-value', `Expected x, y and value of equal length, got ${n}, ${samples.y.length} and ${samples.value.length}.`);
+  }
+  if (n < 1) throw new GapwiseError('too-few-samples', 'Expected at least 1 sample, got 0.');
+  if (p > 0 && n <= p) {
+    throw new GapwiseError('too-few-samples', `Expected more than ${p} samples for ${p === 1 ? 'an unknown constant mean' : 'a linear trend'}, got ${n}.`);
+  }
+  const log = model.transform === 'log';
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(samples.x[i]) || !Number.isFinite(samples.y[i])) {
+      throw new GapwiseError('bad-value', `Sample ${i + 1} has coordinates (${samples.x[i]}, ${samples.y[i]}); expected finite numbers.`);
+    }
+    const z = samples.value[i];
+    if (!Number.isFinite(z)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; expected a finite number.`);
+    if (log && !(z > 0)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; a log transform needs values greater than 0.`);
+  }
+}
+
+/**
+ * Builds a local-neighbourhood predictor of the noise-free surface. Throws GapwiseError
+ * ('bad-model', 'bad-value', 'too-few-samples', 'bad-option', 'not-positive-definite').
+ */
+export function createLocalPredictor(samples: Samples, model: CovarianceModel, options: LocalKrigingOptions = {}): LocalPredictor {
+  const trend = model.trend ?? 'constant';
+  const pModel = trendColumnCount(trend);
+  checkInputs(samples, model, pModel);
+  const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
+  if (!(Number.isInteger(m) && m >= 1 && m <= 2000)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to 2000, got ${JSON.stringify(options.neighbors)}.`);
+  }
+  const n = samples.x.length;
+  const log = model.transform === 'log';
+  const warnings: Warning[] = [];
+  const frame = coordinateFrame(samples.x, samples.y);
+  const z = new Float64Array(n);
+  for (let i = 0; i < n; i++) z[i] = log ? Math.log(samples.value[i]) : samples.value[i];
+  const { u: iu, v: iv } = isotropicCoordinates(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy);
+  const cu = new Float64Array(n);
+  const cv = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    cu[i] = samples.x[i] - frame.cx;
+    cv[i] = samples.y[i] - frame.cy;
+  }
+  const index = new NeighborIndex(iu, iv);
+  const q = Math.min(m, n);
+  if (pModel > 0 && q <= pModel) {
+    throw new GapwiseError('bad-option', `Expected more than ${pModel} samples per neighbourhood for this trend, got ${q}.`);
+  }
+
+  // Global mean: β̂ from all samples, then residuals for simple kriging.
+  const globalMean = options.globalMean === true && pModel > 0;
+  let beta = new Float64Array(0);
+  if (globalMean) {
+    const zSamples: Samples = { x: samples.x, y: samples.y, value: z };
+    const linear: CovarianceModel = { ...model, transform: 'none' };
+    if (n <= DENSE_GLOBAL_MEAN_LIMIT) {
+      const exact = createPredictor(zSamples, linear);
+      beta = Float64Array.from(exact.beta);
+      warnings.push(...exact.warnings);
+    } else {
+      const t = vecchiaTrend(zSamples, linear, { neighbors: options.meanNeighbors });
+      beta = Float64Array.from(t.beta);
+      warnings.push(...t.warnings);
+    }
+  }
+  const p = globalMean ? 0 : pModel;
+  const m0 = knownMean(trend) ?? 0;
+  // Values the neighbourhood systems see: residuals from the known or global mean, else z.
+  const zr = new Float64Array(n);
+  const row = new Float64Array(3);
+  for (let i = 0; i < n; i++) {
+    if (globalMean) {
+      designRow(trend, samples.x[i], samples.y[i], frame, row);
+      let mu = 0;
+      for (let a = 0; a < pModel; a++) mu += row[a] * beta[a];
+      zr[i] = z[i] - mu;
+    } else {
+      zr[i] = pModel === 0 ? z[i] - m0 : z[i];
+    }
+  }
+
+  const cov = covarianceFunction(model);
+  const c0 = surfaceVariance(model);
+  const nugget = nuggetOf(model);
+  const diagonal = c0 + nugget;
+  const allowJitter = options.jitter ?? true;
+  // Targets go through the same rotation and stretch as the samples (isotropicCoordinates).
+  const rotate = !!model.anisotropy && model.anisotropy.ratio !== 1;
+  const angle = ((model.anisotropy?.azimuth ?? 0) * Math.PI) / 180;
+  const sinA = Math.sin(angle);
+  const cosA = Math.cos(angle);
+  const invRatio = 1 / (model.anisotropy?.ratio ?? 1);
+
+  // Work buffers, reused by every call.
+  const found32 = new Uint32Array(q);
+  const ids = new Uint32Array(q);
+  const prevIds = new Uint32Array(q);
+  const K = new Float64Array(q * q); // unfactored covariances of the current set
+  const Kprev = new Float64Array(q * q);
+  const L = new Float64Array(q * q);
+  const map = new Int32Array(q);
+  const W = new Float64Array(q * 3);
+  const Lg = new Float64Array(9);
+  const r = new Float64Array(q);
+  const betaLocal = new Float64Array(3);
+  const kv = new Float64Array(q);
+  const w = new Float64Array(q);
+  const x0 = new Float64Array(3);
+  const t = new Float64Array(3);
+  let have = false; // a factor for `ids` is ready
+  let frameX = 0;
+  let frameY = 0;
+  let frameS = 1;
+  let jitterCount = 0;
+  let maxJitter = 0;
+
+  /** Covariances of the new set, copying those of samples already in the previous set. */
+  const fillK = (reuse: boolean): void => {
+    if (reuse) {
+      // Both lists are sorted: merge to map each new position to its old one (or −1).
+      let a = 0;
+      let b = 0;
+      while (a < q) {
+        if (b >= q || ids[a] < prevIds[b]) map[a++] = -1;
+        else if (ids[a] === prevIds[b]) map[a++] = b++;
+        else b++;
+      }
+      Kprev.set(K);
+    }
+    for (let a = 0; a < q; a++) {
+      const ia = ids[a];
+      const xa = iu[ia];
+      const ya = iv[ia];
+      const rowA = a * q;
+      const ma = reuse ? map[a] : -1;
+      for (let b = 0; b < a; b++) {
+        const mb = reuse ? map[b] : -1;
+        let c: number;
+        if (ma >= 0 && mb >= 0) c = Kprev[ma * q + mb];
+        else {
+          const ib = ids[b];
+          const dx = xa - iu[ib];
+          const dy = ya - iv[ib];
+          c = cov(Math.sqrt(dx * dx + dy * dy));
+        }
+        K[rowA + b] = c; // lower triangle only: the merge keeps the order, so old b < old a too
+      }
+      K[rowA + a] = diagonal;
+    }
+  };
+
+  /** Factorises K (jitter if needed) and solves the neighbourhood's trend. */
+  const factor = (px: number, py: number): void => {
+    L.set(K);
+    if (!choleskyInPlace(L, q)) {
+      let ok = false;
+      if (allowJitter) {
+        for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
+          L.set(K);
+          const add = rel * diagonal;
+          for (let a = 0; a < q; a++) L[a * q + a] += add;
+          ok = choleskyInPlace(L, q);
+          if (ok) {
+            jitterCount++;
+            maxJitter = Math.max(maxJitter, add);
+          }
+        }
+      }
+      if (!ok) {
+        throw new GapwiseError('not-positive-definite',
+          `The covariance matrix of a ${q}-sample neighbourhood is not positive definite: samples may be duplicated or the model has no nugget; try merging duplicates or adding a nugget.`);
+      }
+    }
+    for (let a = 0; a < q; a++) r[a] = zr[ids[a]];
+    solveLowerInPlace(L, q, r);
+    if (p === 0) return;
+    // Local trend frame: centred on this target, scaled by the farthest neighbour.
+    frameX = px;
+    frameY = py;
+    let far = 0;
+    for (let a = 0; a < q; a++) far = Math.max(far, Math.hypot(cu[ids[a]] - px, cv[ids[a]] - py));
+    frameS = far > 0 ? far : 1;
+    for (let c = 0; c < p; c++) {
+      for (let a = 0; a < q; a++) {
+        const id = ids[a];
+        w[a] = c === 0 ? 1 : c === 1 ? (cu[id] - frameX) / frameS : (cv[id] - frameY) / frameS;
+      }
+      solveLowerInPlace(L, q, w);
+      for (let a = 0; a < q; a++) W[a * p + c] = w[a];
+    }
+    Lg.fill(0);
+    for (let a = 0; a < q; a++) {
+      for (let c1 = 0; c1 < p; c1++) {
+        const wc = W[a * p + c1];
+        for (let c2 = 0; c2 <= c1; c2++) Lg[c1 * p + c2] += wc * W[a * p + c2];
+      }
+    }
+    for (let c1 = 0; c1 < p; c1++) for (let c2 = 0; c2 < c1; c2++) Lg[c2 * p + c1] = Lg[c1 * p + c2];
+    if (!choleskyInPlace(Lg, p)) {
+      throw new GapwiseError('not-positive-definite', p === 3
+        ? `The linear trend cannot be estimated in a ${q}-sample neighbourhood: its samples lie on a line; use a constant trend, the global mean, or more neighbours.`
+        : 'The trend cannot be estimated in a neighbourhood; use a known mean or check the samples.');
+    }
+    // β̂ local = G⁻¹ Wᵀr, then r ← r − Wβ̂ (= L⁻¹(z − Xβ̂)).
+    for (let c = 0; c < p; c++) {
+      let s = 0;
+      for (let a = 0; a < q; a++) s += W[a * p + c] * r[a];
+      betaLocal[c] = s;
+    }
+    solveLowerInPlace(Lg, p, betaLocal);
+    for (let i = p - 1; i >= 0; i--) {
+      let s = betaLocal[i];
+      for (let k = i + 1; k < p; k++) s -= Lg[k * p + i] * betaLocal[k];
+      betaLocal[i] = s / Lg[i * p + i];
+    }
+    for (let a = 0; a < q; a++) {
+      let s = r[a];
+      for (let c = 0; c < p; c++) s -= W[a * p + c] * betaLocal[c];
+      r[a] = s;
+    }
+  };
+
+  const predict = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction => {
+    if (tx.length !== ty.length) throw new GapwiseError('bad-value', `Expected target x and y of equal length, got ${tx.length} and ${ty.length}.`);
+    const total = tx.length;
+    const wantSd = log || popts.sd !== false;
+    const mean = new Float64Array(total);
+    const sd = new Float64Array(total);
+    const sdObserved = new Float64Array(total);
+    const jitterBefore = jitterCount;
+    const progressEvery = Math.max(1, Math.floor(popts.blockSize ?? 512));
+    for (let j = 0; j < total; j++) {
+      const xj = tx[j];
+      const yj = ty[j];
+      if (!Number.isFinite(xj) || !Number.isFinite(yj)) {
+        throw new GapwiseError('bad-value', `Target ${j + 1} has coordinates (${xj}, ${yj}); expected finite numbers.`);
+      }
+      const pu = xj - frame.cx;
+      const pv = yj - frame.cy;
+      const qu = rotate ? (pu * sinA + pv * cosA) : pu;
+      const qv = rotate ? (pu * cosA - pv * sinA) * invRatio : pv;
+      const found = index.nearest(qu, qv, q, found32);
+      found.sort();
+      let same = have;
+      if (same) for (let a = 0; a < q; a++) if (found[a] !== ids[a]) { same = false; break; }
+      if (!same) {
+        prevIds.set(ids);
+        ids.set(found);
+        fillK(have);
+        factor(pu, pv);
+        have = true;
+      }
+      // k₀ and v = L⁻¹k₀.
+      for (let a = 0; a < q; a++) {
+        const id = ids[a];
+        const dx = qu - iu[id];
+        const dy = qv - iv[id];
+        kv[a] = cov(Math.sqrt(dx * dx + dy * dy));
+      }
+      solveLowerInPlace(L, q, kv);
+      let mu: number;
+      if (globalMean) {
+        designRow(trend, xj, yj, frame, x0);
+        mu = 0;
+        for (let a = 0; a < pModel; a++) mu += x0[a] * beta[a];
+      } else if (p === 0) {
+        mu = m0;
+      } else {
+        x0[0] = 1;
+        if (p === 3) {
+          x0[1] = (pu - frameX) / frameS;
+          x0[2] = (pv - frameY) / frameS;
+        }
+        mu = 0;
+        for (let c = 0; c < p; c++) mu += x0[c] * betaLocal[c];
+      }
+      let s = mu;
+      for (let a = 0; a < q; a++) s += kv[a] * r[a];
+      mean[j] = s;
+      if (wantSd) {
+        let variance = c0;
+        for (let a = 0; a < q; a++) variance -= kv[a] * kv[a];
+        if (p > 0) {
+          for (let c = 0; c < p; c++) {
+            let e = x0[c];
+            for (let a = 0; a < q; a++) e -= W[a * p + c] * kv[a];
+            t[c] = e;
+          }
+          solveLowerInPlace(Lg, p, t);
+          for (let c = 0; c < p; c++) variance += t[c] * t[c];
+        }
+        const sj = Math.sqrt(Math.max(0, variance));
+        sd[j] = sj;
+        sdObserved[j] = Math.sqrt(sj * sj + nugget);
+      } else {
+        sd[j] = NaN;
+        sdObserved[j] = NaN;
+      }
+      if ((j + 1) % progressEvery === 0 || j + 1 === total) {
+        popts.onProgress?.(j + 1, total);
+        if (popts.isCancelled?.()) throw new GapwiseError('cancelled', `Prediction stopped after ${j + 1} of ${total} targets.`);
+      }
+    }
+    const callWarnings: Warning[] = [];
+    if (jitterCount > jitterBefore) {
+      callWarnings.push({
+        code: 'jitter',
+        message: `${jitterCount - jitterBefore} neighbourhood covariance matrices were not numerically positive definite; added up to ${maxJitter.toPrecision(3)} to their diagonal.`,
+      });
+      // The predictor's own list keeps one running total (surfaces report predictor.warnings).
+      const total: Warning = {
+        code: 'jitter',
+        message: `${jitterCount} neighbourhood covariance matrices were not numerically positive definite; added up to ${maxJitter.toPrecision(3)} to their diagonal.`,
+      };
+      const at = warnings.findIndex((w) => w.code === 'jitter' && w.message.includes('neighbourhood covariance'));
+      if (at >= 0) warnings[at] = total;
+      else warnings.push(total);
+    }
+    if (!log) return { mean, sd, sdObserved, warnings: callWarnings };
+    // Lognormal back-transform, as kriging.ts: mean exp(Ŷ + σ²/2), median exp(Ŷ).
+    const outMean = new Float64Array(total);
+    const outSd = new Float64Array(total);
+    const outSdObs = new Float64Array(total);
+    const median = new Float64Array(total);
+    for (let j = 0; j < total; j++) {
+      const s2 = sd[j] * sd[j];
+      const o2 = s2 + nugget;
+      median[j] = Math.exp(mean[j]);
+      outMean[j] = Math.exp(mean[j] + s2 / 2);
+      outSd[j] = outMean[j] * Math.sqrt(Math.expm1(s2));
+      outSdObs[j] = Math.exp(mean[j] + o2 / 2) * Math.sqrt(Math.expm1(o2));
+    }
+    return { mean: outMean, sd: outSd, sdObserved: outSdObs, median, logMean: mean, logSd: sd, warnings: callWarnings };
+  };
+
+  return { n, neighbors: q, model, warnings, beta, frame, predict };
+}
