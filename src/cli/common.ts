@@ -22,6 +22,10 @@ export interface CliIo {
   stderr(text: string): void;
   /** Relative file names resolve against this directory. */
   cwd: string;
+  /** Texts held in memory by the name commands read them under (a --project's samples and model); read before the disk. */
+  files?: Readonly<Record<string, string>>;
+  /** Reading options from a --project; options given on the command line win. */
+  intakeDefaults?: Partial<IntakeOptions>;
 }
 
 export type OptionValues = Record<string, OptionValue>;
@@ -58,6 +62,8 @@ export function outOption(what: string, otherwise: string): OptionSpec {
 
 /** Reads a text file; a missing or unreadable file is the user's problem (exit 2), not a bug. */
 export function readText(io: CliIo, file: string): string {
+  const held = io.files?.[file];
+  if (held !== undefined) return held;
   try {
     return readFileSync(resolve(io.cwd, file), 'utf8');
   } catch (e) {
@@ -118,7 +124,7 @@ export function readSamplesFile(io: CliIo, values: OptionValues, workCrs?: strin
   const text = readText(io, file);
   let result: IntakeResult;
   try {
-    result = readSamples(text, intakeOptions(values, file, workCrs));
+    result = readSamples(text, { ...io.intakeDefaults, ...intakeOptions(values, file, workCrs) });
   } catch (e) {
     if (e instanceof GapwiseError && e.place.file === undefined && e.code !== 'bad-option') e.place.file = file;
     throw e;

@@ -403,10 +403,8 @@ export function openProject(text: string, fileName: string): OpenedProject {
     const got = isObj(json) ? JSON.stringify(json.format ?? null) : 'not an object';
     throw new GapwiseError('bad-file', `The file's "format" is ${got}; expected "${PROJECT_FORMAT}" (a Gapwise project file).`, { file: fileName });
   }
-  const version = json.version;
-  if (typeof version !== 'number' || !Number.isInteger(version) || version < 1) {
-    c.fail('version', `a version number (1 to ${PROJECT_VERSION})`, version);
-  }
+  const version = typeof json.version === 'number' ? json.version : NaN;
+  if (!Number.isInteger(version) || version < 1) c.fail('version', `a version number (1 to ${PROJECT_VERSION})`, json.version);
   if (version > PROJECT_VERSION) {
     throw new GapwiseError('bad-file', `The project has version ${version}, written by a newer Gapwise; this one reads versions 1 to ${PROJECT_VERSION}.`, { file: fileName });
   }

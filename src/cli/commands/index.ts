@@ -12,7 +12,7 @@ import { reportCommand } from './report.ts';
 import { withProject } from '../project-options.ts';
 import { suggestCommand } from './suggest.ts';
 
-export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, suggestCommand, gridCommand, reportCommand].map(withProject);
+export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, reportCommand].map(withProject);
 
 /** Commands of the design that are not built yet; running one says so (exit 2). */
 export const PLANNED: readonly string[] = ['suggest', 'simulate'];
