@@ -1,0 +1,75 @@
+/**
+ * The plain logic behind the Next samples panel: exclusion polygons from a GeoJSON file into the
+ * working CRS, longitude/latitude for the suggestions, export files (GeoJSON, CSV, GPX) and the
+ * figures the panel shows. No DOM here, so it is tested in Node.
+ */
+import type { DesignMode, DesignResult } from '../../../core/design.ts';
+import type { Polygon } from '../../../core/grid.ts';
+import { readPolygons } from '../../../io/boundary.ts';
+import { suggestionsToCsv, suggestionsToGeoJson } from '../../../io/suggestions-export.ts';
+import { suggestionsToGpx } from '../../../io/gpx.ts';
+
+export type ExportFormat = 'geojson' | 'csv' | 'gpx';
+export type PointTransform = (x: number, y: number) => [number, number];
+
+/** A file for the browser to download. */
+export interface ExportFile {
+  name: string;
+  mime: string;
+  text: string;
+}
+
+/** Exclusion polygons from GeoJSON text (WGS 84), each vertex taken to the working CRS. */
+export function exclusionsFromGeoJson(text: string, fileName: string, toWork: PointTransform): Polygon[] {
+  return readPolygons(text, fileName).map((p) => p.rings.map((ring) => ring.map(([lon, lat]) => toWork(lon, lat))));
+}
+
+/** Fills lon and lat of every suggestion (in place) and returns the result. */
+export function withLonLat(result: DesignResult, toLonLat: PointTransform): DesignResult {
+  for (const s of result.suggestions) {
+    const [lon, lat] = toLonLat(s.x, s.y);
+    s.lon = lon;
+    s.lat = lat;
+  }
+  return result;
+}
+
+/** A file name stem safe on every system: letters, digits, dot, dash and underscore. */
+export function safeStem(stem: string): string {
+  const s = stem.replace(/\.[A-Za-z0-9]+$/, '').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-+|-+$/g, '');
+  return s || 'gapwise';
+}
+
+/** The export file of a design (lon/lat must be filled; CSV x, y through `toInput` when given). */
+export function exportFile(result: DesignResult, format: ExportFormat, stem: string, options: { toInput?: PointTransform; unit?: string; time?: Date } = {}): ExportFile {
+  const base = `${safeStem(stem)}-next-samples`;
+  if (format === 'geojson') return { name: `${base}.geojson`, mime: 'application/geo+json', text: suggestionsToGeoJson(result) };
+  if (format === 'gpx') return { name: `${base}.gpx`, mime: 'application/gpx+xml', text: suggestionsToGpx(result, { unit: options.unit, time: options.time }) };
+  const input = options.toInput ? result.suggestions.map((s) => options.toInput!(s.x, s.y)) : null;
+  return {
+    name: `${base}.csv`,
+    mime: 'text/csv',
+    text: suggestionsToCsv(result, input ? { inputX: input.map((p) => p[0]), inputY: input.map((p) => p[1]) } : {}),
+  };
+}
+
+/** The mode to use when the user has not chosen: decision with a threshold, variance with a model, else coverage. */
+export function defaultMode(hasModel: boolean, threshold: number | null): DesignMode {
+  if (!hasModel) return 'coverage';
+  return threshold === null ? 'variance' : 'decision';
+}
+
+/** m² as text: "850 m²", "1.25 ha" from 10,000 m² up. */
+export function areaText(m2: number | null): string {
+  if (m2 === null || !Number.isFinite(m2)) return '–';
+  if (Math.abs(m2) >= 10_000) return `${Number((m2 / 10_000).toPrecision(3))} ha`;
+  return `${Math.round(m2).toLocaleString('en-US')} m²`;
+}
+
+/** A value with 3 significant digits, '–' when missing. */
+export function valueText(v: number | null | undefined, digits = 3): string {
+  if (v === null || v === undefined || !Number.isFinite(v)) return '–';
+  const a = Math.abs(v);
+  if (a !== 0 && (a < 1e-3 || a >= 1e6)) return v.toExponential(digits - 1);
+  return String(Number(v.toPrecision(digits)));
+}
