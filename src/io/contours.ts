@@ -5,10 +5,13 @@
  *
  * Marching squares by d3-contour on the cell-centre values. The field is padded with one ring of
  * NaN cells, and cells outside the mask are NaN; d3-contour reads NaN as −∞, so every contour
- * closes on the centres of the outermost active cells. Isolines are those rings without the stretches
- * that only run along that edge (both ends on an active cell centre next to a missing cell).
+ * closes on the centres of the outermost active cells. Isolines are those rings without the segments
+ * that touch that edge (an end on an active cell centre next to a missing cell): they end at the last
+ * crossing inside the data.
  * Bands [lo, hi] are the set f ≥ 0 of f = min(v − lo, hi − v), contoured at 0, so band edges sit on
  * the same linear interpolation as the isolines wherever a cell edge crosses only one of the levels.
+ * Where a step between neighbouring cells exceeds half the narrowest band, the field is first
+ * refined bilinearly (2 to 4 points per cell), so bands stay close to tiling the area.
  * Coordinates: d3 point (x, y) of the padded field is the working-CRS point
  * (x0 + (x − 1)·cell, y0 − (y − 1)·cell); positions are rounded to 1e-7 degrees (about 1 cm).
  * Cost: O(nx·ny) per level.
@@ -153,7 +156,8 @@ function isolineCoordinates(field: Field, level: number, project: (p: readonly n
       const m = ring.length - 1; // closed: ring[m] equals ring[0]
       if (m < 2) continue;
       const edge = ring.slice(0, m).map(edgeVertex);
-      const dropped = (s: number) => edge[s] && edge[(s + 1) % m];
+      // A segment touching the edge of the data follows the edge, not the level: left out.
+      const dropped = (s: number) => edge[s] || edge[(s + 1) % m];
       let start = -1;
       for (let s = 0; s < m; s++) if (dropped(s)) { start = s; break; }
       if (start === -1) {
@@ -179,8 +183,55 @@ function isolineCoordinates(field: Field, level: number, project: (p: readonly n
   return lines.map(dedupe).filter((l) => l.length >= 2);
 }
 
+/** Largest step between neighbouring values (NaN pairs skipped). */
+function largestStep(field: Field): number {
+  const { values, w, h } = field;
+  let step = 0;
+  for (let j = 0; j < h; j++) {
+    for (let i = 0; i < w; i++) {
+      const v = values[j * w + i];
+      if (Number.isNaN(v)) continue;
+      if (i + 1 < w) { const d = Math.abs(values[j * w + i + 1] - v); if (d > step) step = d; }
+      if (j + 1 < h) { const d = Math.abs(values[(j + 1) * w + i] - v); if (d > step) step = d; }
+    }
+  }
+  return step;
+}
+
+/**
+ * The field refined k times by bilinear interpolation between cell centres (NaN when a corner is
+ * NaN); point (I, J) lies at old index (I/k, J/k).
+ */
+function refine(field: Field, k: number): Field {
+  if (k <= 1) return field;
+  const { values, w, h } = field;
+  const W = (w - 1) * k + 1, H = (h - 1) * k + 1;
+  const out = new Float64Array(W * H);
+  for (let J = 0; J < H; J++) {
+    const j = Math.min(h - 2, Math.floor(J / k)), fy = J / k - j;
+    for (let I = 0; I < W; I++) {
+      const i = Math.min(w - 2, Math.floor(I / k)), fx = I / k - i;
+      const a = values[j * w + i], b = values[j * w + i + 1], c = values[(j + 1) * w + i], d = values[(j + 1) * w + i + 1];
+      const wa = (1 - fx) * (1 - fy), wb = fx * (1 - fy), wc = (1 - fx) * fy, wd = fx * fy;
+      // A corner with no weight does not count, so exact grid points keep their value next to NaN.
+      let v = 0;
+      let bad = false;
+      for (const [val, wt] of [[a, wa], [b, wb], [c, wc], [d, wd]]) {
+        if (wt === 0) continue;
+        if (Number.isNaN(val)) { bad = true; break; }
+        v += val * wt;
+      }
+      out[J * W + I] = bad ? NaN : v;
+    }
+  }
+  return { values: out, w: W, h: H };
+}
+
 /** Filled band lo ≤ v ≤ hi (open ends as ±Infinity) as MultiPolygon coordinates, right-hand rule. */
-function bandCoordinates(field: Field, lo: number, hi: number, project: (p: readonly number[]) => Position): Position[][][] {
+function bandCoordinates(coarse: Field, lo: number, hi: number, projectCoarse: (p: readonly number[]) => Position, k = 1): Position[][][] {
+  const field = refine(coarse, k);
+  // d3 point p of the refined field (value index p − ½) is at coarse value index (p − ½)/k.
+  const project = k === 1 ? projectCoarse : (p: readonly number[]) => projectCoarse([(p[0] - 0.5) / k + 0.5, (p[1] - 0.5) / k + 0.5]);
   const src = field.values;
   const f = new Float64Array(src.length);
   for (let k = 0; k < src.length; k++) {
@@ -240,10 +291,13 @@ export function contourFeatures(input: ContourInput): Feature<MultiLineString | 
   };
   const features: Feature<MultiLineString | MultiPolygon, ContourProperties>[] = [];
   const edges = [-Infinity, ...levels, Infinity];
+  let narrowest = Infinity;
+  for (let b = 1; b + 1 < levels.length + 1; b++) narrowest = Math.min(narrowest, edges[b + 1] - edges[b]);
+  const k = Number.isFinite(narrowest) ? Math.min(4, Math.max(1, Math.ceil(largestStep(field) / (narrowest / 2)))) : 1;
   for (let b = 0; b + 1 < edges.length; b++) {
     const lo = edges[b], hi = edges[b + 1];
     if (hi < range.min || lo > range.max) continue;
-    const coordinates = bandCoordinates(field, lo, hi, project);
+    const coordinates = bandCoordinates(field, lo, hi, project, k);
     if (coordinates.length === 0) continue;
     const label = !Number.isFinite(lo) ? `${name} below ${withUnit(hi)}` : !Number.isFinite(hi) ? `${name} ${withUnit(lo)} and above` : `${name} ${withUnit(lo)} to ${withUnit(hi)}`;
     features.push({

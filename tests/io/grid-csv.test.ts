@@ -1,0 +1,43 @@
+// surfaceGridCsv: one row per active cell with centres, WGS 84 positions and values that read back
+// exactly; the caution on the first line.
+import { describe, expect, it } from 'vitest';
+import { surfaceGridCsv } from '../../src/io/grid-csv.ts';
+import { createTransform } from '../../src/io/crs.ts';
+import { CAUTION } from '../../src/core/caution.ts';
+
+describe('surfaceGridCsv', () => {
+  const grid = { x0: 500000, y0: 5400030, cell: 10, nx: 3, ny: 3, mask: new Uint8Array([0, 1, 0, 1, 1, 1, 0, 1, 0]) };
+  const mean = Float32Array.from([NaN, 1.1, NaN, 2.2, 3.3, 4.4, NaN, 5.5, NaN]);
+  const sd = Float32Array.from([NaN, 0.1, NaN, 0.2, 0.3, 0.4, NaN, 0.5, NaN]);
+  const pExceed = Float32Array.from([NaN, 0.01, NaN, 0.02, 0.5, 0.98, NaN, 0.99, NaN]);
+
+  it('surfaceGridCsv writes the caution, the header and the active cells only, top row first', () => {
+    const text = surfaceGridCsv({ grid, surface: { mean, sd, pExceed, threshold: 3 }, workCrs: 'EPSG:32633', unit: 'mg/L' });
+    const lines = text.trimEnd().split('\n');
+    expect(lines[0].startsWith(`# ${CAUTION}`)).toBe(true);
+    expect(lines[0]).toContain('p_exceed = P(value > 3 mg/L)');
+    expect(lines[1]).toBe('x,y,lon,lat,mean,sd,p_exceed');
+    expect(lines).toHaveLength(2 + 5);
+    const rows = lines.slice(2).map((l) => l.split(','));
+    expect(rows.map((r) => [Number(r[0]), Number(r[1])])).toEqual([[500015, 5400025], [500005, 5400015], [500015, 5400015], [500025, 5400015], [500015, 5400005]]);
+    // Float32 values come back exactly from 9 significant digits.
+    expect(rows.map((r) => Math.fround(Number(r[4])))).toEqual([1.1, 2.2, 3.3, 4.4, 5.5].map(Math.fround));
+    expect(rows.map((r) => Math.fround(Number(r[6])))).toEqual([0.01, 0.02, 0.5, 0.98, 0.99].map(Math.fround));
+    const t = createTransform('EPSG:32633', 'EPSG:4326');
+    const [lon, lat] = t.forward(500015, 5400025);
+    expect(Number(rows[0][2])).toBeCloseTo(lon, 8);
+    expect(Number(rows[0][3])).toBeCloseTo(lat, 8);
+  });
+
+  it('surfaceGridCsv leaves out p_exceed without a threshold, the comment on request, and lon/lat for local coordinates', () => {
+    const text = surfaceGridCsv({ grid, surface: { mean, sd }, workCrs: 'local', caution: false });
+    const lines = text.trimEnd().split('\n');
+    expect(lines[0]).toBe('x,y,lon,lat,mean,sd');
+    expect(lines[1]).toBe('500015,5400025,,,1.10000002,0.100000001');
+  });
+
+  it('surfaceGridCsv writes Float64 values with the shortest text that reads back exactly', () => {
+    const text = surfaceGridCsv({ grid: { x0: 0, y0: 10, cell: 10, nx: 1, ny: 1 }, surface: { mean: Float64Array.of(1 / 3), sd: Float64Array.of(2 / 3) }, workCrs: 'local', caution: false });
+    expect(text).toBe('x,y,lon,lat,mean,sd\n5,5,,,0.3333333333333333,0.6666666666666666\n');
+  });
+});
