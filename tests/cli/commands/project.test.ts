@@ -63,7 +63,7 @@ describe('--project', () => {
     const r = await ws.run('grid', '--project', 'site.json', '--out', 'site.tif');
     expect(r.code, r.stderr).toBe(0);
     expect(JSON.parse(r.stdout).grid).toMatchObject(gridGeometry(app.grid));
-    const image = await (await fromArrayBuffer(readFileSync(join(ws.dir, 'site.tif')).buffer)).getImage();
+    const image = await (await fromArrayBuffer(new Uint8Array(readFileSync(join(ws.dir, 'site.tif'))).buffer)).getImage();
     const [mean, sd, p] = (await image.readRasters()) as unknown as Float32Array[];
     const nodata = (a: Float32Array) => Float32Array.from(a, (v) => (Number.isNaN(v) ? -9999 : v));
     expect(Array.from(mean)).toEqual(Array.from(nodata(app.mean)));
