@@ -4,12 +4,15 @@
  *
  * Definition (unnormalised forward transform, numpy's convention):
  *   X[k] = Σ_{j<n} x[j]·e^(−2πi·jk/n);   inverse x[j] = (1/n)·Σ_k X[k]·e^(+2πi·jk/n).
- * Method: mixed-radix decimation in time (Cooley & Tukey 1965, Math. Comput. 19:297): with n = r·m,
- *   X[k + s·m] = Σ_{q<r} W_r^(q·s) · (W_n^(q·k) · F_q[k]),   k < m, s < r,
- * where F_q is the length-m transform of x[q], x[q + r], x[q + 2r], ... The sub-transforms are
- * written side by side into the output, so each combining step works in place on the r entries
- * k, k + m, ..., k + (r−1)m. Radices 4 and 2 have their own butterflies; 3, 5 and any other prime
- * use the r-point sum (r² operations per group). Lengths of the form 2^a·3^b·5^c are fast
+ * Method: mixed-radix decimation in time (Cooley & Tukey 1965, Math. Comput. 19:297) in Stockham's
+ * self-sorting order (no digit reversal; Van Loan 1992, Computational Frameworks for the FFT, §1.7 —
+ * from memory). After the stages with radices r₁..r_s, L = r₁···r_s and M = n/L, the buffer holds for
+ * each residue class c < M the length-L transform Y_c of x[c], x[c + M], ..., stored at y[j·M + c].
+ * The next radix r merges the r classes c' + q·M' (M' = M/r) of class c' mod M':
+ *   Y'_{c'}[j + s·L] = Σ_{q<r} W_r^(q·s) · (W_{rL}^(q·j) · Y_{c'+qM'}[j]),   j < L, s < r,
+ * reading and writing runs of M' contiguous values with one twiddle per (j, q). Two buffers alternate.
+ * Radices 4, 3 and 2 have their own butterflies; 5 and any other prime use the r-point sum (r²
+ * operations per group). Lengths of the form 2^a·3^b·5^c are fast
  * (`nextFastLength`); a large prime length works but costs O(n²).
  * Twiddles W_n^k = e^(−2πik/n) come from one table per plan, computed directly (cos, sin of 2πk/n),
  * so rounding does not accumulate along the table.
@@ -70,84 +73,102 @@ export function createFftPlan(n: number): FftPlan {
     cos[k] = Math.cos(a);
     sin[k] = -Math.sin(a); // W_n^k = cos − i·sin(2πk/n)
   }
-  const outRe = new Float64Array(n);
-  const outIm = new Float64Array(n);
+  const bufRe = [new Float64Array(n), new Float64Array(n)];
+  const bufIm = [new Float64Array(n), new Float64Array(n)];
   const maxR = Math.max(1, ...factors);
   const tRe = new Float64Array(maxR);
   const tIm = new Float64Array(maxR);
+  const SQRT3_2 = Math.sqrt(3) / 2;
 
-  // sign = +1 forward, −1 inverse (conjugate twiddles).
-  let sign = 1;
-
-  /** Transform of in[inOff + j·stride], j < len, written to out[outOff .. outOff + len). */
-  const rec = (inRe: Float64Array, inIm: Float64Array, inOff: number, stride: number, len: number, outOff: number, level: number): void => {
-    if (len === 1) {
-      outRe[outOff] = inRe[inOff];
-      outIm[outOff] = inIm[inOff];
-      return;
-    }
-    const r = factors[level];
-    const m = len / r;
-    for (let q = 0; q < r; q++) rec(inRe, inIm, inOff + q * stride, stride * r, m, outOff + q * m, level + 1);
-    const step = n / len; // W_len^j = W_n^(j·step)
-    const stepR = n / r; // W_r^j = W_n^(j·stepR)
-    if (r === 2) {
-      for (let k = 0; k < m; k++) {
-        const a = outOff + k;
-        const b = a + m;
-        const w = k * step;
+  /**
+   * One Stockham stage: from DFTs of length L of the M = n/L residue classes (stored y[j·M + c]) to
+   * DFTs of length L·r of the M/r classes (stored y'[j'·M' + c']), see the file header.
+   */
+  const stage = (
+    inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, L: number, r: number, sign: number,
+  ): void => {
+    const M = n / L;
+    const Mp = M / r;
+    const Lp = L * r;
+    const step = n / Lp; // W_{L'}^x = W_n^(x·step)
+    const stepR = n / r;
+    for (let j = 0; j < L; j++) {
+      const inBase = j * M;
+      if (r === 2) {
+        const w = j * step;
         const wr = cos[w], wi = sign * sin[w];
-        const xr = outRe[b] * wr - outIm[b] * wi;
-        const xi = outRe[b] * wi + outIm[b] * wr;
-        const ur = outRe[a], ui = outIm[a];
-        outRe[a] = ur + xr; outIm[a] = ui + xi;
-        outRe[b] = ur - xr; outIm[b] = ui - xi;
-      }
-      return;
-    }
-    if (r === 4) {
-      for (let k = 0; k < m; k++) {
-        const i0 = outOff + k, i1 = i0 + m, i2 = i1 + m, i3 = i2 + m;
-        const w1 = k * step, w2 = 2 * k * step, w3 = 3 * k * step;
-        const a0r = outRe[i0], a0i = outIm[i0];
-        const c1 = cos[w1], s1 = sign * sin[w1];
-        const a1r = outRe[i1] * c1 - outIm[i1] * s1, a1i = outRe[i1] * s1 + outIm[i1] * c1;
-        const c2 = cos[w2], s2 = sign * sin[w2];
-        const a2r = outRe[i2] * c2 - outIm[i2] * s2, a2i = outRe[i2] * s2 + outIm[i2] * c2;
-        const c3 = cos[w3], s3 = sign * sin[w3];
-        const a3r = outRe[i3] * c3 - outIm[i3] * s3, a3i = outRe[i3] * s3 + outIm[i3] * c3;
-        // W_4 = −i forward (+i inverse): X1 = b0 − i·sign·b1', X3 = b0 + i·sign·b1'.
-        const e0r = a0r + a2r, e0i = a0i + a2i;
-        const e1r = a0r - a2r, e1i = a0i - a2i;
-        const o0r = a1r + a3r, o0i = a1i + a3i;
-        const o1r = a1r - a3r, o1i = a1i - a3i;
-        outRe[i0] = e0r + o0r; outIm[i0] = e0i + o0i;
-        outRe[i2] = e0r - o0r; outIm[i2] = e0i - o0i;
-        // −i·sign·(o1r + i·o1i) = sign·o1i − i·sign·o1r
-        outRe[i1] = e1r + sign * o1i; outIm[i1] = e1i - sign * o1r;
-        outRe[i3] = e1r - sign * o1i; outIm[i3] = e1i + sign * o1r;
-      }
-      return;
-    }
-    // General radix r: twiddle, then the r-point sum.
-    for (let k = 0; k < m; k++) {
-      for (let q = 0; q < r; q++) {
-        const idx = outOff + q * m + k;
-        const w = (q * k * step) % n;
-        const c = cos[w], s = sign * sin[w];
-        tRe[q] = outRe[idx] * c - outIm[idx] * s;
-        tIm[q] = outRe[idx] * s + outIm[idx] * c;
-      }
-      for (let s = 0; s < r; s++) {
-        let sr = 0, si = 0;
-        for (let q = 0; q < r; q++) {
-          const w = ((q * s) % r) * stepR;
-          const c = cos[w], sn = sign * sin[w];
-          sr += tRe[q] * c - tIm[q] * sn;
-          si += tRe[q] * sn + tIm[q] * c;
+        const o0 = j * Mp, o1 = (j + L) * Mp;
+        for (let c = 0; c < Mp; c++) {
+          const a = inBase + c, b = a + Mp;
+          const xr = inRe[b] * wr - inIm[b] * wi;
+          const xi = inRe[b] * wi + inIm[b] * wr;
+          const ur = inRe[a], ui = inIm[a];
+          outRe[o0 + c] = ur + xr; outIm[o0 + c] = ui + xi;
+          outRe[o1 + c] = ur - xr; outIm[o1 + c] = ui - xi;
         }
-        outRe[outOff + s * m + k] = sr;
-        outIm[outOff + s * m + k] = si;
+      } else if (r === 4) {
+        const w1 = j * step, w2 = 2 * w1, w3 = 3 * w1;
+        const c1 = cos[w1], s1 = sign * sin[w1];
+        const c2 = cos[w2], s2 = sign * sin[w2];
+        const c3 = cos[w3], s3 = sign * sin[w3];
+        const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp, o3 = (j + 3 * L) * Mp;
+        for (let c = 0; c < Mp; c++) {
+          const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp, i3 = i2 + Mp;
+          const a0r = inRe[i0], a0i = inIm[i0];
+          const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
+          const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
+          const a3r = inRe[i3] * c3 - inIm[i3] * s3, a3i = inRe[i3] * s3 + inIm[i3] * c3;
+          const e0r = a0r + a2r, e0i = a0i + a2i;
+          const e1r = a0r - a2r, e1i = a0i - a2i;
+          const f0r = a1r + a3r, f0i = a1i + a3i;
+          const f1r = a1r - a3r, f1i = a1i - a3i;
+          // W_4 = −i forward (+i inverse): −i·sign·f1 = sign·f1i − i·sign·f1r.
+          outRe[o0 + c] = e0r + f0r; outIm[o0 + c] = e0i + f0i;
+          outRe[o2 + c] = e0r - f0r; outIm[o2 + c] = e0i - f0i;
+          outRe[o1 + c] = e1r + sign * f1i; outIm[o1 + c] = e1i - sign * f1r;
+          outRe[o3 + c] = e1r - sign * f1i; outIm[o3 + c] = e1i + sign * f1r;
+        }
+      } else if (r === 3) {
+        const w1 = j * step, w2 = 2 * w1;
+        const c1 = cos[w1], s1 = sign * sin[w1];
+        const c2 = cos[w2], s2 = sign * sin[w2];
+        const k3 = sign * SQRT3_2;
+        const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp;
+        for (let c = 0; c < Mp; c++) {
+          const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp;
+          const a0r = inRe[i0], a0i = inIm[i0];
+          const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
+          const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
+          const sr = a1r + a2r, si = a1i + a2i;
+          const dr = a1r - a2r, di = a1i - a2i;
+          const mr = a0r - 0.5 * sr, mi = a0i - 0.5 * si;
+          // W_3 = −½ − i·sign·√3/2: X1 = a0 − s/2 − i·k3·d, X2 = a0 − s/2 + i·k3·d.
+          outRe[o0 + c] = a0r + sr; outIm[o0 + c] = a0i + si;
+          outRe[o1 + c] = mr + k3 * di; outIm[o1 + c] = mi - k3 * dr;
+          outRe[o2 + c] = mr - k3 * di; outIm[o2 + c] = mi + k3 * dr;
+        }
+      } else {
+        for (let c = 0; c < Mp; c++) {
+          for (let q = 0; q < r; q++) {
+            const idx = inBase + q * Mp + c;
+            const w = q * j * step;
+            const cw = cos[w], sw = sign * sin[w];
+            tRe[q] = inRe[idx] * cw - inIm[idx] * sw;
+            tIm[q] = inRe[idx] * sw + inIm[idx] * cw;
+          }
+          for (let s = 0; s < r; s++) {
+            let accR = 0, accI = 0;
+            for (let q = 0; q < r; q++) {
+              const w = ((q * s) % r) * stepR;
+              const cw = cos[w], sw = sign * sin[w];
+              accR += tRe[q] * cw - tIm[q] * sw;
+              accI += tRe[q] * sw + tIm[q] * cw;
+            }
+            const o = (j + s * L) * Mp + c;
+            outRe[o] = accR;
+            outIm[o] = accI;
+          }
+        }
       }
     }
   };
@@ -157,17 +178,29 @@ export function createFftPlan(n: number): FftPlan {
     factors,
     transform(re: Float64Array, im: Float64Array, inverse = false): void {
       if (re.length < n || im.length < n) throw new RangeError(`Expected arrays of at least ${n} entries, got ${re.length} and ${im.length}.`);
-      sign = inverse ? -1 : 1;
-      rec(re, im, 0, 1, n, 0, 0);
-      if (inverse) {
-        const f = 1 / n;
+      const sign = inverse ? -1 : 1;
+      let inRe: Float64Array = re, inIm: Float64Array = im;
+      let which = 0;
+      let L = 1;
+      for (const r of factors) {
+        const outRe = bufRe[which], outIm = bufIm[which];
+        stage(inRe, inIm, outRe, outIm, L, r, sign);
+        inRe = outRe;
+        inIm = outIm;
+        which = 1 - which;
+        L *= r;
+      }
+      const f = inverse ? 1 / n : 1;
+      if (inRe !== re) {
         for (let j = 0; j < n; j++) {
-          re[j] = outRe[j] * f;
-          im[j] = outIm[j] * f;
+          re[j] = inRe[j] * f;
+          im[j] = inIm[j] * f;
         }
-      } else {
-        re.set(outRe.subarray(0, n));
-        im.set(outIm.subarray(0, n));
+      } else if (inverse) {
+        for (let j = 0; j < n; j++) {
+          re[j] *= f;
+          im[j] *= f;
+        }
       }
     },
   };
@@ -178,6 +211,9 @@ export function fft(re: Float64Array, im: Float64Array, inverse = false): void {
   if (re.length !== im.length) throw new RangeError(`Expected re and im of equal length, got ${re.length} and ${im.length}.`);
   createFftPlan(re.length).transform(re, im, inverse);
 }
+
+/** Columns gathered together in a 2-D transform (8 doubles = one 64-byte cache line per row). */
+const COLUMN_GROUP = 8;
 
 /** A reusable 2-D transform of ny rows × nx columns (row-major, index j·nx + i). */
 export interface Fft2Plan {
@@ -193,8 +229,8 @@ export function createFft2Plan(nx: number, ny: number): Fft2Plan {
   const colPlan = ny === nx ? rowPlan : createFftPlan(ny);
   const rowRe = new Float64Array(nx);
   const rowIm = new Float64Array(nx);
-  const colRe = new Float64Array(ny);
-  const colIm = new Float64Array(ny);
+  const colRe = new Float64Array(ny * COLUMN_GROUP);
+  const colIm = new Float64Array(ny * COLUMN_GROUP);
   return {
     nx,
     ny,
@@ -205,21 +241,37 @@ export function createFft2Plan(nx: number, ny: number): Fft2Plan {
       }
       for (let j = 0; j < ny; j++) {
         const o = j * nx;
-        rowRe.set(re.subarray(o, o + nx));
-        rowIm.set(im.subarray(o, o + nx));
-        rowPlan.transform(rowRe, rowIm, inverse);
-        re.set(rowRe, o);
-        im.set(rowIm, o);
-      }
-      for (let i = 0; i < nx; i++) {
-        for (let j = 0; j < ny; j++) {
-          colRe[j] = re[j * nx + i];
-          colIm[j] = im[j * nx + i];
+        for (let i = 0; i < nx; i++) {
+          rowRe[i] = re[o + i];
+          rowIm[i] = im[o + i];
         }
-        colPlan.transform(colRe, colIm, inverse);
+        rowPlan.transform(rowRe, rowIm, inverse);
+        for (let i = 0; i < nx; i++) {
+          re[o + i] = rowRe[i];
+          im[o + i] = rowIm[i];
+        }
+      }
+      // Columns in groups of COLUMN_GROUP: each row contributes one contiguous run (a cache line) per group.
+      for (let i0 = 0; i0 < nx; i0 += COLUMN_GROUP) {
+        const g = Math.min(COLUMN_GROUP, nx - i0);
         for (let j = 0; j < ny; j++) {
-          re[j * nx + i] = colRe[j];
-          im[j * nx + i] = colIm[j];
+          const o = j * nx + i0;
+          for (let c = 0; c < g; c++) {
+            colRe[c * ny + j] = re[o + c];
+            colIm[c * ny + j] = im[o + c];
+          }
+        }
+        for (let c = 0; c < g; c++) {
+          const a = colRe.subarray(c * ny, (c + 1) * ny);
+          const b = colIm.subarray(c * ny, (c + 1) * ny);
+          colPlan.transform(a, b, inverse);
+        }
+        for (let j = 0; j < ny; j++) {
+          const o = j * nx + i0;
+          for (let c = 0; c < g; c++) {
+            re[o + c] = colRe[c * ny + j];
+            im[o + c] = colIm[c * ny + j];
+          }
         }
       }
     },
