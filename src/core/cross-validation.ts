@@ -17,7 +17,7 @@ import type { CovarianceModel } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { solveLowerInPlace } from './linalg.ts';
-import { buildKrigingSystem, type PredictorOptions } from './kriging.ts';
+import { buildKrigingSystem, lowerTriangularInverse, type PredictorOptions } from './kriging.ts';
 import { trendColumnCount } from './trend.ts';
 
 /** Figures of merit of a leave-one-out run. */
@@ -70,38 +70,6 @@ export function summariseErrors(error: ArrayLike<number>, sdObserved: ArrayLike<
   return { me: se / n, rmse: Math.sqrt(sse / n), msse: sz / n, coverage95: inside / n, n };
 }
 
-/** Z = L⁻¹ for a lower-triangular row-major L (Z is lower triangular too). n³/3 flops. */
-function lowerInverse(L: Float64Array, n: number): Float64Array {
-  const Z = new Float64Array(n * n);
-  for (let i = 0; i < n; i++) {
-    const rowL = i * n;
-    const zi = i * n;
-    Z[zi + i] = 1;
-    let k = 0;
-    // Row i = (eᵢ − Σ_{k<i} L[i,k]·Z[k,:]) / L[i,i]; Z[k, j] = 0 for j > k, so j runs to k only.
-    for (; k + 3 < i; k += 4) {
-      const l0 = L[rowL + k];
-      const l1 = L[rowL + k + 1];
-      const l2 = L[rowL + k + 2];
-      const l3 = L[rowL + k + 3];
-      const z0 = k * n;
-      const z1 = z0 + n;
-      const z2 = z1 + n;
-      const z3 = z2 + n;
-      const end = k + 3;
-      for (let j = 0; j <= end; j++) Z[zi + j] -= l0 * Z[z0 + j] + l1 * Z[z1 + j] + l2 * Z[z2 + j] + l3 * Z[z3 + j];
-    }
-    for (; k < i; k++) {
-      const l = L[rowL + k];
-      const zk = k * n;
-      for (let j = 0; j <= k; j++) Z[zi + j] -= l * Z[zk + j];
-    }
-    const inv = 1 / L[rowL + i];
-    for (let j = 0; j <= i; j++) Z[zi + j] *= inv;
-  }
-  return Z;
-}
-
 /**
  * Closed-form leave-one-out cross-validation of the samples under the model (trend from the model:
  * simple, ordinary or universal kriging). One factorisation; the same numbers as n refits.
@@ -116,7 +84,7 @@ export function leaveOneOut(samples: Samples, model: CovarianceModel, options: P
   }
   const sys = buildKrigingSystem(samples, model, options);
   const { n, W, Lg, alpha, z } = sys;
-  const Z = lowerInverse(sys.factor.L, n);
+  const Z = lowerTriangularInverse(sys.factor.L, n);
 
   // diag(K⁻¹) = column sums of Z², and H = K⁻¹X = ZᵀW (n×p), both from rows of Z.
   const diag = new Float64Array(n);

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import {
-  createPredictor, predictAt, krigingWeights, solveLowerBlock, buildKrigingSystem,
+  createPredictor, predictAt, krigingWeights, solveLowerBlock, buildKrigingSystem, lowerTriangularInverse,
 } from '../../src/core/kriging.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
 import { makeSamples, type Samples } from '../../src/core/samples.ts';
@@ -316,6 +316,30 @@ describe('solveLowerBlock', () => {
       let s = 0;
       for (let k = 0; k <= i; k++) s += L[i * n + k] * Y[k * m + j];
       expectClose(s, B[i * m + j], { abs: 1e-12 }, `(LY)[${i},${j}]`);
+    }
+  });
+});
+
+describe('lowerTriangularInverse', () => {
+  it('lowerTriangularInverse: L·Z = I and Z is lower triangular (n spanning two column panels)', () => {
+    const n = 150;
+    const r = createRandom(12);
+    const A = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) {
+      const v = i === j ? 3 : 2 * Math.exp(-Math.abs(i - j) / 20) + 0.1 * (r.uniform() - 0.5);
+      A[i * n + j] = v;
+      A[j * n + i] = v;
+    }
+    const { L } = cholesky(A, n);
+    const Z = lowerTriangularInverse(L, n);
+    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) {
+      if (j > i) {
+        expect(Z[i * n + j]).toBe(0);
+        continue;
+      }
+      let s = 0;
+      for (let k = j; k <= i; k++) s += L[i * n + k] * Z[k * n + j];
+      expectClose(s, i === j ? 1 : 0, { abs: 1e-12 }, `(LZ)[${i},${j}]`);
     }
   });
 });
