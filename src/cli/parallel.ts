@@ -17,7 +17,7 @@ import type { Grid } from '../core/grid.ts';
 import { cellCount } from '../core/grid.ts';
 import { GapwiseError, type ErrorCode, type Warning } from '../core/errors.ts';
 import { createPredictor, type Predictor } from '../core/kriging.ts';
-import { createLocalPredictor, type LocalKrigingOptions } from '../core/local-kriging.ts';
+import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/local-kriging.ts';
 import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray } from '../core/surface.ts';
 
 export type SurfacePath = 'exact' | 'local';
@@ -111,6 +111,13 @@ function toError(error: { code?: string; message: string }): Error {
  */
 export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelSurfaceOptions = {}): Promise<SurfaceResult> {
   const { grid } = job;
+  const globalWarnings: Warning[] = [];
+  if (job.path === 'local' && job.local?.globalMean && job.local.globalBeta === undefined) {
+    // The global GLS mean is the same for every band: compute it once here, not in every worker.
+    const { beta, warnings } = globalMeanCoefficients(job.samples, job.model, job.local);
+    job = { ...job, local: { ...job.local, globalBeta: Array.from(beta) } };
+    for (const w of warnings) globalWarnings.push(w);
+  }
   const workers = Math.max(1, Math.floor(options.workers ?? availableParallelism()));
   if (!(grid.ny >= 1 && grid.nx >= 1)) throw new GapwiseError('bad-option', `Expected a grid with at least one row and column, got ${grid.nx} × ${grid.ny}.`);
   const bandRows = Math.max(1, Math.floor(options.bandRows ?? Math.ceil(grid.ny / (4 * workers))));
@@ -130,6 +137,7 @@ export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelS
   const bandDone = new Float64Array(bands.length);
   let doneCells = 0;
   const warnings = new Map<string, Warning>();
+  for (const w of globalWarnings) warnings.set(`${w.code}:${w.message}`, w);
 
   const pool: Worker[] = [];
   try {

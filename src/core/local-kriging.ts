@@ -44,6 +44,11 @@ export interface LocalKrigingOptions {
   meanNeighbors?: number;
   /** Add a small diagonal jitter to a neighbourhood matrix that cannot be factorised (reported); default true. */
   jitter?: boolean;
+  /**
+   * With globalMean: the global trend coefficients when already computed (columns of ./trend.ts, as
+   * returned in `beta`), so workers sharing one data set need not each recompute them.
+   */
+  globalBeta?: number[];
 }
 
 /** Predictions with the warnings met while computing them. */
@@ -97,6 +102,54 @@ function checkInputs(samples: Samples, model: CovarianceModel, p: number): void 
 }
 
 /**
+ * Cholesky factor of a small SPD matrix in place, reading and writing only the lower triangle
+ * (row by row: each row from the rows above it; two accumulators for the short dot products).
+ * Returns false when a pivot is not positive. q³/6 multiply-adds.
+ */
+function factorLower(a: Float64Array, q: number): boolean {
+  for (let i = 0; i < q; i++) {
+    const rowI = i * q;
+    for (let j = 0; j < i; j++) {
+      const rowJ = j * q;
+      let s0 = a[rowI + j];
+      let s1 = 0;
+      let k = 0;
+      for (; k + 1 < j; k += 2) {
+        s0 -= a[rowI + k] * a[rowJ + k];
+        s1 -= a[rowI + k + 1] * a[rowJ + k + 1];
+      }
+      if (k < j) s0 -= a[rowI + k] * a[rowJ + k];
+      a[rowI + j] = (s0 + s1) / a[rowJ + j];
+    }
+    let d = a[rowI + i];
+    for (let k = 0; k < i; k++) d -= a[rowI + k] * a[rowI + k];
+    if (!(d > 0)) return false;
+    a[rowI + i] = Math.sqrt(d);
+  }
+  return true;
+}
+
+/**
+ * The GLS trend coefficients β̂ from all samples (columns of ./trend.ts; on the log scale for a log
+ * transform): dense up to 1,000 samples, through the nearest-neighbour factor of ./vecchia.ts above.
+ */
+export function globalMeanCoefficients(
+  samples: Samples, model: CovarianceModel, options: Pick<LocalKrigingOptions, 'meanNeighbors'> = {},
+): { beta: Float64Array; warnings: Warning[] } {
+  const n = samples.value.length;
+  const log = model.transform === 'log';
+  const value = log ? Float64Array.from(samples.value, Math.log) : samples.value;
+  const zSamples: Samples = { x: samples.x, y: samples.y, value };
+  const linear: CovarianceModel = { ...model, transform: 'none' };
+  if (n <= DENSE_GLOBAL_MEAN_LIMIT) {
+    const exact = createPredictor(zSamples, linear);
+    return { beta: Float64Array.from(exact.beta), warnings: [...exact.warnings] };
+  }
+  const t = vecchiaTrend(zSamples, linear, { neighbors: options.meanNeighbors });
+  return { beta: Float64Array.from(t.beta), warnings: t.warnings };
+}
+
+/**
  * Builds a local-neighbourhood predictor of the noise-free surface. Throws GapwiseError
  * ('bad-model', 'bad-value', 'too-few-samples', 'bad-option', 'not-positive-definite').
  */
@@ -129,18 +182,17 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
 
   // Global mean: β̂ from all samples, then residuals for simple kriging.
   const globalMean = options.globalMean === true && pModel > 0;
-  let beta = new Float64Array(0);
+  let beta: Float64Array = new Float64Array(0);
   if (globalMean) {
-    const zSamples: Samples = { x: samples.x, y: samples.y, value: z };
-    const linear: CovarianceModel = { ...model, transform: 'none' };
-    if (n <= DENSE_GLOBAL_MEAN_LIMIT) {
-      const exact = createPredictor(zSamples, linear);
-      beta = Float64Array.from(exact.beta);
-      warnings.push(...exact.warnings);
+    if (options.globalBeta !== undefined) {
+      if (options.globalBeta.length !== pModel || !options.globalBeta.every(Number.isFinite)) {
+        throw new GapwiseError('bad-option', `Expected ${pModel} finite global trend coefficients, got ${JSON.stringify(options.globalBeta)}.`);
+      }
+      beta = Float64Array.from(options.globalBeta);
     } else {
-      const t = vecchiaTrend(zSamples, linear, { neighbors: options.meanNeighbors });
-      beta = Float64Array.from(t.beta);
-      warnings.push(...t.warnings);
+      const g = globalMeanCoefficients(samples, model, options);
+      beta = g.beta;
+      warnings.push(...g.warnings);
     }
   }
   const p = globalMean ? 0 : pModel;
@@ -175,8 +227,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const found32 = new Uint32Array(q);
   const ids = new Uint32Array(q);
   const prevIds = new Uint32Array(q);
-  const K = new Float64Array(q * q); // unfactored covariances of the current set
-  const Kprev = new Float64Array(q * q);
+  let K = new Float64Array(q * q); // unfactored covariances (lower triangle) of the current set
+  let Kprev = new Float64Array(q * q);
   const L = new Float64Array(q * q);
   const map = new Int32Array(q);
   const W = new Float64Array(q * 3);
@@ -205,8 +257,11 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
         else if (ids[a] === prevIds[b]) map[a++] = b++;
         else b++;
       }
-      Kprev.set(K);
     }
+    // The current matrix becomes the previous one; the new one is written over the old previous.
+    const spare = Kprev;
+    Kprev = K;
+    K = spare;
     for (let a = 0; a < q; a++) {
       const ia = ids[a];
       const xa = iu[ia];
@@ -232,14 +287,14 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   /** Factorises K (jitter if needed) and solves the neighbourhood's trend. */
   const factor = (px: number, py: number): void => {
     L.set(K);
-    if (!choleskyInPlace(L, q)) {
+    if (!factorLower(L, q)) {
       let ok = false;
       if (allowJitter) {
         for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
           L.set(K);
           const add = rel * diagonal;
           for (let a = 0; a < q; a++) L[a * q + a] += add;
-          ok = choleskyInPlace(L, q);
+          ok = factorLower(L, q);
           if (ok) {
             jitterCount++;
             maxJitter = Math.max(maxJitter, add);

@@ -489,9 +489,11 @@ const COARSE_NEIGHBORS = 10;
 const NUGGET_RATIO_BOUNDS = { lower: 1e-6, upper: 1e3 };
 
 /**
- * Minimises f (parameters on log scales, clamped to their boxes) by up to three Newton steps on a
- * quadratic through f at x, x ± h·eᵢ and x + h·(eᵢ + eⱼ), h = 0.05 (central differences). Converged
- * when the last step moves every ln-parameter by less than 0.02 and does not increase f.
+ * Minimises f (parameters on log scales, clamped to their boxes) by Newton steps on a local
+ * quadratic: the first step uses the gradient and Hessian from central differences at x, x ± h·eᵢ
+ * and x + h·(eᵢ + eⱼ), h = 0.05; later steps keep that Hessian and take the gradient from forward
+ * differences corrected by it (d + 1 values per step). Up to four steps, each at most 0.5 in any
+ * ln-parameter. Converged when a step moves every ln-parameter by less than 0.02.
  */
 function newtonRefine(f: (x: number[]) => number, x0: number[], spaces: ParameterSpace[]): { x: number[]; value: number; converged: boolean; evaluations: number; iterations: number } {
   const d = x0.length;
@@ -499,58 +501,71 @@ function newtonRefine(f: (x: number[]) => number, x0: number[], spaces: Paramete
   const lo = spaces.map((s) => Math.log(s.lower ?? 1e-300));
   const hi = spaces.map((s) => Math.log(s.upper ?? 1e300));
   const clamp = (z: number[]) => z.map((v, i) => Math.min(hi[i], Math.max(lo[i], v)));
+  let evaluations = 0;
   const at = (z: number[]) => {
     evaluations++;
     return f(clamp(z).map(Math.exp));
   };
-  let evaluations = 0;
   let z = clamp(x0.map(Math.log));
   let fz = at(z);
   let converged = false;
   let iterations = 0;
-  for (let iter = 0; iter < 3 && Number.isFinite(fz); iter++) {
+  const g = new Float64Array(d);
+  const H = new Float64Array(d * d);
+  const L = new Float64Array(d * d);
+  for (let iter = 0; iter < 4 && Number.isFinite(fz); iter++) {
     iterations++;
     const plus = new Array<number>(d);
-    const minus = new Array<number>(d);
     for (let i = 0; i < d; i++) {
-      const zp = z.slice(); zp[i] += h; plus[i] = at(zp);
-      const zm = z.slice(); zm[i] -= h; minus[i] = at(zm);
+      const zp = z.slice();
+      zp[i] += h;
+      plus[i] = at(zp);
     }
-    const g = new Float64Array(d);
-    const H = new Float64Array(d * d);
-    for (let i = 0; i < d; i++) {
-      g[i] = (plus[i] - minus[i]) / (2 * h);
-      H[i * d + i] = (plus[i] - 2 * fz + minus[i]) / (h * h);
-    }
-    for (let i = 0; i < d; i++) {
-      for (let j = 0; j < i; j++) {
-        const zz = z.slice(); zz[i] += h; zz[j] += h;
-        const v = (at(zz) - plus[i] - plus[j] + fz) / (h * h);
-        H[i * d + j] = v;
-        H[j * d + i] = v;
+    if (iter === 0) {
+      for (let i = 0; i < d; i++) {
+        const zm = z.slice();
+        zm[i] -= h;
+        const minus = at(zm);
+        g[i] = (plus[i] - minus) / (2 * h);
+        H[i * d + i] = (plus[i] - 2 * fz + minus) / (h * h);
       }
+      for (let i = 0; i < d; i++) {
+        for (let j = 0; j < i; j++) {
+          const zz = z.slice();
+          zz[i] += h;
+          zz[j] += h;
+          const v = (at(zz) - plus[i] - plus[j] + fz) / (h * h);
+          H[i * d + j] = v;
+          H[j * d + i] = v;
+        }
+      }
+      L.set(H);
+      if (!H.every(Number.isFinite) || !choleskyInPlace(L, d)) break;
+    } else {
+      // f(z + h·eᵢ) − f(z) = h·gᵢ + ½h²·Hᵢᵢ + O(h³).
+      for (let i = 0; i < d; i++) g[i] = (plus[i] - fz) / h - 0.5 * h * H[i * d + i];
     }
-    if (![...g, ...H].every(Number.isFinite) || !choleskyInPlace(H, d)) break;
+    if (!g.every(Number.isFinite)) break;
     const step = Float64Array.from(g, (v) => -v);
-    solveLowerInPlace(H, d, step);
+    solveLowerInPlace(L, d, step);
     for (let i = d - 1; i >= 0; i--) {
       let s = step[i];
-      for (let k = i + 1; k < d; k++) s -= H[k * d + i] * step[k];
-      step[i] = s / H[i * d + i];
+      for (let k = i + 1; k < d; k++) s -= L[k * d + i] * step[k];
+      step[i] = s / L[i * d + i];
     }
-    // Trust region: at most 0.5 in any ln-parameter per step.
     let big = 0;
     for (let i = 0; i < d; i++) big = Math.max(big, Math.abs(step[i]));
     const shrink = big > 0.5 ? 0.5 / big : 1;
+    if (big * shrink < 0.02) {
+      // Already at the quadratic's optimum to within 2 % in every parameter: no need to move.
+      converged = true;
+      break;
+    }
     const zn = clamp(z.map((v, i) => v + shrink * step[i]));
     const fn = at(zn);
     if (!(fn <= fz)) break;
     z = zn;
     fz = fn;
-    if (big * shrink < 0.02) {
-      converged = true;
-      break;
-    }
   }
   return { x: clamp(z).map(Math.exp), value: fz, converged, evaluations, iterations };
 }
@@ -650,6 +665,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
   let iterations = 0;
   let evaluations = 0;
   let screenEvaluations = 0;
+  let coarseEvaluations = 0;
 
   // 1. Starting grid and searches from the best starts, with the nearest 10 neighbours, on a seeded
   //    subsample above 4,000 samples (on all samples otherwise).
@@ -659,7 +675,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
   const fScreen = objective(screen, coarse);
   const count = (k: number) => {
     if (screening) screenEvaluations += k;
-    else evaluations += k;
+    else coarseEvaluations += k;
   };
   const grid: { x: number[]; value: number }[] = [];
   const fractions = family === 'spherical' ? [0.15, 0.45, 1.2] : [0.05, 0.15, 0.4];
@@ -698,7 +714,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
     const v0 = fCoarse(x);
     const res = minimizeBounded(fCoarse, x, spaces, { step: 0.3, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(v0)), maxEvaluations: 40 * d });
     iterations += res.iterations;
-    evaluations += res.evaluations + 1;
+    coarseEvaluations += res.evaluations + 1;
     if (res.value <= v0) x = res.x;
   }
   // 3. All samples, m neighbours: Newton steps on a quadratic fitted through 2d + 1 + d(d−1)/2
@@ -738,7 +754,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
     structures, trend, transform: 'none',
     fit: {
       method: 'nnl', likelihood: method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood,
-      converged: best.converged, iterations, n, warnings, parameters: k, evaluations, screenEvaluations,
+      converged: best.converged, iterations, n, warnings, parameters: k, evaluations, coarseEvaluations, screenEvaluations,
       neighbors: full.neighbors, trendCoefficients: final.beta, centre: full.centre,
       note: `fitted with a nearest-neighbour likelihood on ${n.toLocaleString('en-US')} samples (${full.neighbors} neighbours)`,
     },

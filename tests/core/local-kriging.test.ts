@@ -114,6 +114,15 @@ describe('createLocalPredictor', () => {
     expectClose(got.sd, c.sd, { rel: 0.02 }, 'local ordinary kriging sd (numpy)');
   });
 
+  it('createLocalPredictor with globalBeta uses the given coefficients (as workers do) and checks their count', () => {
+    const model = modelWith('linear');
+    const computed = createLocalPredictor(samples, model, { neighbors: 20, globalMean: true });
+    const given = createLocalPredictor(samples, model, { neighbors: 20, globalMean: true, globalBeta: Array.from(computed.beta) });
+    expect(Array.from(given.beta)).toEqual(Array.from(computed.beta));
+    expect(Array.from(given.predict(tx, ty).mean)).toEqual(Array.from(computed.predict(tx, ty).mean));
+    expect(() => createLocalPredictor(samples, model, { globalMean: true, globalBeta: [1] })).toThrow(/Expected 3 finite global trend coefficients/);
+  });
+
   it('createLocalPredictor rejects a bad neighbourhood size and mismatched targets', () => {
     const model = modelWith('constant');
     expect(() => createLocalPredictor(samples, model, { neighbors: 0 })).toThrow(/neighbourhood size/);

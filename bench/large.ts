@@ -1,0 +1,244 @@
+/**
+ * Large-data benchmark.
+ * (a) 2,000 samples, a given Matérn 3/2 + nugget model, mean and sd at 40,000 targets (200 × 200):
+ *     the exact path (kriging.ts), the local path (64 nearest samples, local-kriging.ts) on one
+ *     thread and through the worker pool, and — when Debian's /usr/bin/python3 has scikit-learn —
+ *     GaussianProcessRegressor with the same fixed kernel (bench/reference_sklearn.py), fit + predict
+ *     with return_std. All use simple kriging with the sample mean as the known mean, the setting
+ *     scikit-learn has (zero-mean prior after subtracting it). Prints ours/theirs (target ≤ 0.5)
+ *     and the local path's largest error against the exact answer (mean in units of the prior sd,
+ *     sd relative).
+ * (b) 100,000 samples: nearest-neighbour fit (vecchia.ts, 30 neighbours) and a 500 × 500 surface
+ *     (mean and sd, local path with the global GLS mean, 64 neighbours) through the worker pool:
+ *     seconds and peak resident memory (targets: under 90 s and 2 GB).
+ * Medians of 3 runs for the cheap rows (local path), single runs for the rest.
+ * Run alone: `npx tsx bench/large.ts` (`--quick`: 500 samples / 5,000 targets and 20,000 samples /
+ * 100 × 100 cells), or via `npm run bench -- large`. Writes bench/results/large.json when run alone.
+ */
+import { pathToFileURL } from 'node:url';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir, availableParallelism, cpus } from 'node:os';
+import { join } from 'node:path';
+import { spawnSync } from 'node:child_process';
+import { createPredictor } from '../src/core/kriging.ts';
+import { createLocalPredictor } from '../src/core/local-kriging.ts';
+import { vecchiaFit } from '../src/core/vecchia.ts';
+import { computeSurfaceParallel } from '../src/cli/parallel.ts';
+import { createRandom } from '../src/core/random.ts';
+import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
+import type { Samples } from '../src/core/samples.ts';
+import type { Grid } from '../src/core/grid.ts';
+
+export interface Row {
+  name: string;
+  n: number;
+  seconds: number;
+  note?: string;
+  [key: string]: unknown;
+}
+
+const SILL = 1;
+const SCALE = 80;
+const NUGGET = 0.1;
+
+/**
+ * Invented samples, uniform on a square of side `side` metres at UTM-like coordinates, with values
+ * from a smooth random field (a sum of 200 random cosines, seeded) plus noise of variance NUGGET.
+ */
+function makeSamples(n: number, side: number, lengthScale: number, seed: number): Samples {
+  const r = createRandom(seed);
+  const waves: number[][] = [];
+  for (let k = 0; k < 200; k++) {
+    const a = 2 * Math.PI * r.uniform();
+    const f = Math.abs(r.normal()) / lengthScale;
+    waves.push([f * Math.cos(a), f * Math.sin(a), 2 * Math.PI * r.uniform()]);
+  }
+  const x = new Float64Array(n);
+  const y = new Float64Array(n);
+  const value = new Float64Array(n);
+  const amp = Math.sqrt((2 * SILL) / waves.length);
+  for (let i = 0; i < n; i++) {
+    const u = side * r.uniform();
+    const v = side * r.uniform();
+    let s = 0;
+    for (const [a, b, c] of waves) s += Math.cos(a * u + b * v + c);
+    x[i] = 500000 + u;
+    y[i] = 6000000 + v;
+    value[i] = 20 + amp * s + Math.sqrt(NUGGET) * r.normal();
+  }
+  return { x, y, value };
+}
+
+function median(a: number[]): number {
+  const s = [...a].sort((p, q) => p - q);
+  const k = s.length >> 1;
+  return s.length % 2 ? s[k] : (s[k - 1] + s[k]) / 2;
+}
+
+function seconds(t0: number): number {
+  return (performance.now() - t0) / 1000;
+}
+
+function peakRssGiB(): number {
+  return process.resourceUsage().maxRSS / 2 ** 20; // maxRSS is in KiB
+}
+
+function hasSklearn(): boolean {
+  const r = spawnSync('/usr/bin/python3', ['-c', 'import sklearn'], { encoding: 'utf8' });
+  return r.status === 0;
+}
+
+/** Part (a): 2,000 samples (quick: 500), 40,000 targets (quick: 5,000). */
+async function partA(quick: boolean): Promise<Row[]> {
+  const n = quick ? 500 : 2000;
+  const side = 45 * Math.sqrt(n); // mean spacing about 45 m: the scale is ~1.8 spacings, practical range ~5
+  const g = quick ? 71 : 200;
+  const samples = makeSamples(n, side, 1.5 * SCALE, 11);
+  let mean0 = 0;
+  for (const v of samples.value) mean0 += v;
+  mean0 /= n;
+  const model: CovarianceModel = {
+    structures: [{ type: 'nugget', sill: NUGGET }, { type: 'matern', sill: SILL, scale: SCALE, nu: 1.5 }],
+    trend: { known: mean0 }, transform: 'none',
+  };
+  const tx = new Float64Array(g * g);
+  const ty = new Float64Array(g * g);
+  for (let j = 0; j < g; j++) {
+    for (let i = 0; i < g; i++) {
+      tx[j * g + i] = 500000 + ((i + 0.5) * side) / g;
+      ty[j * g + i] = 6000000 + ((j + 0.5) * side) / g;
+    }
+  }
+  const targets = g * g;
+  const rows: Row[] = [];
+
+  let t0 = performance.now();
+  const exact = createPredictor(samples, model).predict(tx, ty);
+  const exactSeconds = seconds(t0);
+  rows.push({ name: 'exact path, mean + sd', n, seconds: exactSeconds, targets, note: `${targets.toLocaleString('en-US')} targets, 1 run` });
+
+  const localTimes: number[] = [];
+  let local = exact;
+  for (let rep = 0; rep < 3; rep++) {
+    t0 = performance.now();
+    local = createLocalPredictor(samples, model, { neighbors: 64 }).predict(tx, ty);
+    localTimes.push(seconds(t0));
+  }
+  let worstMean = 0;
+  let worstSd = 0;
+  for (let k = 0; k < targets; k++) {
+    worstMean = Math.max(worstMean, Math.abs(local.mean[k] - exact.mean[k]) / Math.sqrt(SILL));
+    worstSd = Math.max(worstSd, Math.abs(local.sd[k] - exact.sd[k]) / exact.sd[k]);
+  }
+  const localSeconds = median(localTimes);
+  rows.push({
+    name: 'local path (64 nearest), one thread', n, seconds: localSeconds, targets,
+    maxMeanErrorPriorSd: worstMean, maxSdErrorRelative: worstSd,
+    note: `median of 3; vs exact: max |Δmean| ${(100 * worstMean).toFixed(2)} % of prior sd, max |Δsd| ${(100 * worstSd).toFixed(2)} %`,
+  });
+
+  // The same targets as a grid through the worker pool (grid rows run south, so flip to match).
+  const grid: Grid = { x0: 500000, y0: 6000000 + side, cell: side / g, nx: g, ny: g };
+  const poolTimes: number[] = [];
+  for (let rep = 0; rep < 3; rep++) {
+    t0 = performance.now();
+    await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbors: 64 }, surface: { precision: 'float64' } });
+    poolTimes.push(seconds(t0));
+  }
+  const workers = availableParallelism();
+  rows.push({ name: `local path, worker pool (${workers} workers)`, n, seconds: median(poolTimes), targets, note: 'median of 3, includes starting the workers' });
+
+  if (hasSklearn()) {
+    const dir = mkdtempSync(join(tmpdir(), 'gapwise-bench-'));
+    try {
+      const input = join(dir, 'in.json');
+      const output = join(dir, 'out.json');
+      writeFileSync(input, JSON.stringify({
+        x: Array.from(samples.x), y: Array.from(samples.y), value: Array.from(samples.value),
+        tx: Array.from(tx), ty: Array.from(ty), sill: SILL, scale: SCALE, nugget: NUGGET, mean: mean0, repeats: 1,
+      }));
+      const r = spawnSync('/usr/bin/python3', [new URL('./reference_sklearn.py', import.meta.url).pathname, input, output], { encoding: 'utf8' });
+      if (r.status !== 0) throw new Error(`reference_sklearn.py failed: ${r.stderr}`);
+      const sk = JSON.parse(readFileSync(output, 'utf8')) as { seconds: number; fitSeconds: number; predictSeconds: number; mean: number[]; sdObserved: number[]; source: string };
+      let skMean = 0;
+      let skSd = 0;
+      for (let k = 0; k < targets; k++) {
+        skMean = Math.max(skMean, Math.abs(sk.mean[k] - exact.mean[k]) / Math.sqrt(SILL));
+        skSd = Math.max(skSd, Math.abs(sk.sdObserved[k] - exact.sdObserved[k]) / exact.sdObserved[k]);
+      }
+      rows.push({
+        name: 'scikit-learn GaussianProcessRegressor, fit + predict(return_std)', n, seconds: sk.seconds, targets,
+        note: `${sk.source}; 1 run; vs our exact path: max |Δmean| ${skMean.toExponential(1)} prior sd, max |Δsd_obs| ${skSd.toExponential(1)} relative`,
+      });
+      rows.push({ name: 'ratio ours/theirs: local path, one thread', n, seconds: localSeconds / sk.seconds, note: 'target ≤ 0.5 (a ratio, not seconds)' });
+      rows.push({ name: 'ratio ours/theirs: local path, worker pool', n, seconds: median(poolTimes) / sk.seconds, note: 'a ratio, not seconds' });
+      rows.push({ name: 'ratio ours/theirs: exact path', n, seconds: exactSeconds / sk.seconds, note: 'a ratio, not seconds' });
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  } else {
+    rows.push({ name: 'scikit-learn reference', n, seconds: NaN, note: 'skipped: /usr/bin/python3 has no sklearn (apt-get install python3-sklearn)' });
+  }
+  return rows;
+}
+
+/** Part (b): 100,000 samples (quick: 20,000), fit + 500 × 500 surface (quick: 100 × 100). */
+async function partB(quick: boolean): Promise<Row[]> {
+  const n = quick ? 20000 : 100000;
+  const side = 20000 * Math.sqrt(n / 100000); // mean spacing about 63 m
+  const cells = quick ? 100 : 500;
+  const samples = makeSamples(n, side, 400, 21);
+  const rows: Row[] = [];
+  const start = performance.now();
+  let t0 = performance.now();
+  const model = vecchiaFit(samples, { family: 'matern', nu: 1.5, trend: 'constant' });
+  const fitRss = peakRssGiB();
+  const fitSeconds = seconds(t0);
+  const nugget = model.structures.find((s) => s.type === 'nugget')?.sill ?? 0;
+  const main = model.structures.find((s): s is CorrelatedStructure => s.type !== 'nugget');
+  rows.push({
+    name: 'nearest-neighbour fit (30 neighbours)', n, seconds: fitSeconds,
+    evaluations: model.fit?.evaluations, coarseEvaluations: model.fit?.coarseEvaluations, screenEvaluations: model.fit?.screenEvaluations, peakRssGiB: fitRss,
+    note: `scale ${main?.scale.toFixed(1)} m, sill ${main?.sill.toFixed(3)}, nugget ${nugget.toFixed(3)}; ${model.fit?.evaluations} + ${model.fit?.coarseEvaluations} (10 neighbours) all-sample evaluations; peak RSS ${fitRss.toFixed(2)} GiB`,
+  });
+  const grid: Grid = { x0: 500000, y0: 6000000 + side, cell: side / cells, nx: cells, ny: cells };
+  t0 = performance.now();
+  const surface = await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbors: 64, globalMean: true } });
+  const surfaceSeconds = seconds(t0);
+  let finite = 0;
+  for (let k = 0; k < surface.mean.length; k++) if (Number.isFinite(surface.mean[k]) && Number.isFinite(surface.sd[k])) finite++;
+  rows.push({
+    name: `surface ${cells}×${cells}, mean + sd, worker pool (${availableParallelism()} workers)`, n, seconds: surfaceSeconds,
+    cells: cells * cells, note: `${finite.toLocaleString('en-US')} finite cells; 64 neighbours, global GLS mean`,
+  });
+  const total = seconds(start);
+  const rss = peakRssGiB();
+  rows.push({ name: 'fit + surface, total', n, seconds: total, peakRssGiB: rss, note: `peak RSS ${rss.toFixed(2)} GiB (targets: < 90 s, < 2 GB)` });
+  return rows;
+}
+
+/** Runs both parts and returns one row per figure. */
+export async function runLargeBench(options: { quick?: boolean } = {}): Promise<Row[]> {
+  const quick = options.quick ?? false;
+  return [...(await partA(quick)), ...(await partB(quick))];
+}
+
+function table(rows: Row[]): string {
+  const head = ['benchmark', 'n', 'seconds', 'note'];
+  const body = rows.map((r) => [r.name, r.n.toLocaleString('en-US'), Number.isFinite(r.seconds) ? r.seconds.toFixed(3) : '-', r.note ?? '']);
+  const widths = head.map((h, i) => Math.max(h.length, ...body.map((b) => b[i].length)));
+  const line = (cells: string[]) => cells.map((c, i) => c.padEnd(widths[i])).join('  ');
+  return [line(head), line(widths.map((w) => '-'.repeat(w))), ...body.map(line)].join('\n');
+}
+
+if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
+  const quick = process.argv.includes('--quick');
+  const only = process.argv.includes('--a') ? 'a' : process.argv.includes('--b') ? 'b' : 'both';
+  const rows = only === 'a' ? await partA(quick) : only === 'b' ? await partB(quick) : await runLargeBench({ quick });
+  console.log(table(rows));
+  mkdirSync(new URL('./results/', import.meta.url), { recursive: true });
+  const meta = { date: new Date().toISOString(), node: process.version, cores: availableParallelism(), cpu: cpus()[0]?.model, quick, part: only };
+  const file = new URL(`./results/large${quick ? '-quick' : ''}.json`, import.meta.url);
+  writeFileSync(file, JSON.stringify({ meta, rows }, null, 2));
+  console.log(`\nwritten ${file.pathname}`);
+}
