@@ -1,0 +1,96 @@
+/**
+ * Between the app's saved session and a project file (src/io/project.ts): `sessionProject` turns
+ * the session's file texts, choices, model, candidate table and computed grid into a project;
+ * `snapshotFromProject` puts an opened project back into a session snapshot (the app then reads
+ * the samples again and recomputes). Pure functions, no Svelte.
+ */
+import type { Grid } from '../../../core/grid.ts';
+import { createProject, gridGeometry, type ComparisonRow, type Project, type Suggestion } from '../../../io/project.ts';
+import type { SessionSnapshot } from '../../state/snapshot.ts';
+import type { CandidateRow } from '../../state/structure.ts';
+
+export interface SessionParts {
+  snapshot: SessionSnapshot;
+  /** The comparison table as fitted (session.candidates). */
+  candidates?: readonly CandidateRow[];
+  /** The grid the surface was computed on (session.surface?.grid or the planned grid). */
+  grid?: Grid | null;
+  suggestions?: Suggestion[];
+  suggestOptions?: Record<string, unknown>;
+  software: { name: string; version: string };
+  title?: string;
+}
+
+const finiteOrNull = (v: number): number | null => (Number.isFinite(v) ? v : null);
+
+/** The session as a project; null before a samples file is read. */
+export function sessionProject(parts: SessionParts): Project | null {
+  const s = parts.snapshot;
+  if (!s.source) return null;
+  const intake: Project['samples']['intake'] = {};
+  if (s.samples.value !== undefined) intake.value = s.samples.value;
+  if (s.samples.x !== undefined) intake.x = s.samples.x;
+  if (s.samples.y !== undefined) intake.y = s.samples.y;
+  if (s.samples.crs !== undefined) intake.crs = s.samples.crs;
+  if (s.samples.nonDetect !== undefined) intake.nonDetect = s.samples.nonDetect;
+  const comparison: ComparisonRow[] | undefined = parts.candidates?.length
+    ? parts.candidates.map((c) => ({
+      key: c.key, label: c.label, model: c.model,
+      logLikelihood: finiteOrNull(c.logLikelihood), aic: finiteOrNull(c.aic), rmse: finiteOrNull(c.rmse), msse: finiteOrNull(c.msse),
+      ...(c.error ? { error: c.error } : {}),
+    }))
+    : undefined;
+  const model = s.structure.model ? { ...s.structure.model, transform: s.samples.transform } : null;
+  return createProject({
+    samples: { fileName: s.source.fileName, text: s.source.text, invented: s.source.invented, intake, unit: s.samples.unit },
+    boundary: s.boundary ? { fileName: s.boundary.fileName, text: s.boundary.text, ...(s.boundary.invented ? { invented: true } : {}) } : null,
+    structure: {
+      transform: s.samples.transform,
+      variogram: { ...(s.structure.lagWidth > 0 ? { lagWidth: s.structure.lagWidth } : {}), ...(s.structure.maxLag > 0 ? { maxLag: s.structure.maxLag } : {}) },
+      method: s.structure.method,
+      chosen: s.structure.chosen,
+      ...(comparison ? { comparison } : {}),
+    },
+    model,
+    grid: {
+      area: s.boundary && s.surface.area === 'boundary' ? 'boundary' : 'extent',
+      padding: s.surface.padding,
+      cellSize: s.surface.cellSize,
+      ...(parts.grid ? { geometry: gridGeometry(parts.grid) } : {}),
+    },
+    threshold: s.surface.threshold,
+    ...(parts.suggestions ? { suggestions: parts.suggestions } : {}),
+    ...(parts.suggestOptions ? { suggestOptions: parts.suggestOptions } : {}),
+    software: parts.software,
+    title: parts.title ?? '',
+  });
+}
+
+/** An opened project as a session snapshot, keeping the view choices (layer, map) of `base`. */
+export function snapshotFromProject(project: Project, base: SessionSnapshot): SessionSnapshot {
+  const i = project.samples.intake;
+  const method = project.structure.method === 'wls' ? 'wls' : 'reml';
+  return {
+    ...base,
+    step: 'report',
+    source: { fileName: project.samples.fileName, text: project.samples.text, invented: project.samples.invented === true },
+    boundary: project.boundary ? { fileName: project.boundary.fileName, text: project.boundary.text, invented: project.boundary.invented === true } : null,
+    samples: { value: i.value, x: i.x, y: i.y, crs: i.crs, nonDetect: i.nonDetect, unit: project.samples.unit, transform: project.structure.transform },
+    structure: {
+      ...base.structure,
+      lagWidth: project.structure.variogram.lagWidth ?? 0,
+      maxLag: project.structure.variogram.maxLag ?? 0,
+      method,
+      chosen: project.structure.chosen,
+      model: project.model,
+    },
+    surface: {
+      ...base.surface,
+      area: project.grid.area,
+      padding: project.grid.padding,
+      cellSize: project.grid.geometry?.cell ?? project.grid.cellSize,
+      threshold: project.threshold,
+      wanted: project.model !== null,
+    },
+  };
+}
