@@ -16,8 +16,9 @@ import { GapwiseError } from '../core/errors.ts';
 import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import { readSamples } from '../io/intake.ts';
+import { runDesignRequest } from './design-handler.ts';
 import {
-  errorData, isEngineRequest, transferablesOf,
+  errorData, isEngineRequest, transferablesOf, REQUEST_TYPES,
   type EngineRequest, type EngineResponse, type RequestPayloads, type RequestType, type ResultPayloads,
 } from './protocol.ts';
 
@@ -120,6 +121,8 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
         const q = p as RequestPayloads['readSamples'];
         return ops.readSamples(q.text, q.options) as ResultPayloads[K];
       }
+      case 'design':
+        return runDesignRequest(p as RequestPayloads['design'], progress) as ResultPayloads[K];
     }
     throw new GapwiseError('bad-option', `Unknown request type ${JSON.stringify(type)}.`);
   };
@@ -130,7 +133,7 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       const id = typeof m?.id === 'number' ? m.id : -1;
       send({
         id, type: 'error',
-        error: { code: 'bad-option', message: `Expected a request {id, type, payload} with type one of fit, fitCandidates, variogram, crossValidate, surfaceRows, readSamples; got type ${JSON.stringify(m?.type)}.`, place: {} },
+        error: { code: 'bad-option', message: `Expected a request {id, type, payload} with type one of ${REQUEST_TYPES.join(', ')}; got type ${JSON.stringify(m?.type)}.`, place: {} },
       }, []);
       return;
     }

@@ -14,6 +14,8 @@ import type { LeaveOneOutResult } from '../core/cross-validation.ts';
 import type { Grid } from '../core/grid.ts';
 import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
 import type { IntakeOptions, IntakeResult } from '../io/types.ts';
+import type { DesignResult } from '../core/design.ts';
+import type { DesignRequestPayload } from './design-handler.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/errors.ts';
 
 /** What each request type carries. */
@@ -25,6 +27,7 @@ export interface RequestPayloads {
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
   surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions };
   readSamples: { text: string; options: IntakeOptions };
+  design: DesignRequestPayload;
 }
 
 /** What each request type answers. */
@@ -35,11 +38,12 @@ export interface ResultPayloads {
   crossValidate: LeaveOneOutResult;
   surfaceRows: SurfaceResult;
   readSamples: IntakeResult;
+  design: DesignResult;
 }
 
 export type RequestType = keyof RequestPayloads;
 
-export const REQUEST_TYPES: readonly RequestType[] = ['fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'readSamples'];
+export const REQUEST_TYPES: readonly RequestType[] = ['fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'readSamples', 'design'];
 
 /** A request; `id` is unique per client. */
 export type EngineRequest<K extends RequestType = RequestType> = K extends RequestType

@@ -8,6 +8,7 @@ import { makeSamples } from '../../src/core/samples.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
 import type { Grid } from '../../src/core/grid.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
+import { suggestSites } from '../../src/core/design.ts';
 
 // Samples and a masked grid from the surface fixture (values from scikit-learn's reference case).
 const fx = loadFixture<{ values: number[]; model: CovarianceModel; threshold: number }>('surface.json');
@@ -126,6 +127,18 @@ describe('createEngineHandler', () => {
 });
 
 describe('predictorKey', () => {
+  it('createEngineHandler answers a design request with the same sites as suggestSites', () => {
+    const { sent, run } = collect();
+    const options = { count: 3, mode: 'variance' as const, cell: 10 };
+    run({ id: 11, type: 'design', payload: { samples, model, options } });
+    const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>;
+    expect(last).toMatchObject({ id: 11, type: 'result', request: 'design' });
+    const direct = suggestSites(samples, model, options);
+    const got = last.result as ReturnType<typeof suggestSites>;
+    expect(got.suggestions.map((s) => [s.x, s.y])).toEqual(direct.suggestions.map((s) => [s.x, s.y]));
+    expect(got.suggestions).toHaveLength(3);
+  });
+
   it('predictorKey is equal for equal content and differs when values, coordinates or the model change', () => {
     const k = predictorKey(samples, model);
     expect(predictorKey(structuredClone(samples), structuredClone(model))).toBe(k);
