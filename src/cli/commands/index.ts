@@ -11,8 +11,9 @@ import { gridCommand } from './grid.ts';
 import { reportCommand } from './report.ts';
 import { withProject } from '../project-options.ts';
 import { suggestCommand } from './suggest.ts';
+import { simulateCommand } from './simulate.ts';
 
-export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, reportCommand].map(withProject);
+export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, simulateCommand, reportCommand].map(withProject);
 
 /** Commands of the design that are not built yet; running one says so (exit 2). */
-export const PLANNED: readonly string[] = ['suggest', 'simulate'];
+export const PLANNED: readonly string[] = ['suggest'];

@@ -1,0 +1,162 @@
+/**
+ * Support and simulation choices shared by `gapwise grid` and `gapwise simulate`: the option specs,
+ * reading them into a plain choice, and the extra surfaces they produce.
+ *
+ * `grid` lists GRID_SIMULATION_OPTIONS (--support point|block, --block-points K, --realizations N,
+ * --seed S, --depth D); `simulate` lists SIMULATE_OPTIONS (the same with --count N instead of
+ * --realizations). With --support block and no realisations, cells are block-kriged averages
+ * (core/block-kriging.ts); with realisations, P(exceed) comes from conditional simulation
+ * (core/conditional-simulation.ts) and the area above the threshold gets a median and 90 % interval.
+ * A log model with --support block needs realisations (block averages of a lognormal surface have
+ * no closed form): asking without them is an option error that says so.
+ */
+import { GapwiseError, type Warning } from '../core/errors.ts';
+import type { CovarianceModel } from '../core/model.ts';
+import type { Samples } from '../core/samples.ts';
+import type { Grid } from '../core/grid.ts';
+import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/block-kriging.ts';
+import { simulateConditional, MAX_REALISATIONS } from '../core/conditional-simulation.ts';
+import type { SurfaceResult } from '../core/surface.ts';
+import { numberOption, stringOption, type OptionSpec } from './args.ts';
+import type { OptionValues } from './common.ts';
+
+const SUPPORT: OptionSpec = {
+  name: 'support', kind: 'string', placeholder: 'KIND', choices: ['point', 'block'],
+  help: 'point: the value at each cell centre; block: the average over each cell (what a remediation unit holds)', defaultText: 'point',
+};
+const BLOCK_POINTS: OptionSpec = {
+  name: 'block-points', kind: 'number', placeholder: 'K', help: 'block support: each cell is averaged over K × K points', defaultText: String(DEFAULT_BLOCK_POINTS),
+};
+const SEED: OptionSpec = { name: 'seed', kind: 'number', placeholder: 'S', help: 'seed of the random numbers (the same seed gives the same realisations)', defaultText: '1' };
+const DEPTH: OptionSpec = {
+  name: 'depth', kind: 'number', placeholder: 'D', unit: 'm', help: 'depth of the layer: adds the volume above the threshold (area × depth)', defaultText: 'none',
+};
+
+/** Options `gapwise grid` lists for support and simulation. */
+export const GRID_SIMULATION_OPTIONS: OptionSpec[] = [
+  SUPPORT,
+  BLOCK_POINTS,
+  { name: 'realizations', kind: 'number', placeholder: 'N', help: 'conditional realisations for P(exceed) and the area above --threshold with its 5–95 % interval', defaultText: 'none (closed-form kriging)' },
+  SEED,
+  DEPTH,
+];
+
+/** Options `gapwise simulate` lists. */
+export const SIMULATE_OPTIONS: OptionSpec[] = [
+  { name: 'count', kind: 'number', placeholder: 'N', help: `number of realisations (1 to ${MAX_REALISATIONS.toLocaleString('en')})`, required: true },
+  SEED,
+  SUPPORT,
+  BLOCK_POINTS,
+  DEPTH,
+];
+
+/** What the options ask for (plain data). */
+export interface SimulationChoice {
+  support: 'point' | 'block';
+  /** Points per cell side for block support. */
+  blockPoints: number;
+  /** Realisations, when asked for. */
+  realizations?: number;
+  seed: number;
+  depth?: number;
+}
+
+/**
+ * Reads and checks the support and simulation options. `countOption` is the name of the option
+ * holding N ('realizations' for grid, 'count' for simulate). Throws GapwiseError('bad-option').
+ */
+export function readSimulationChoice(values: OptionValues, model: CovarianceModel, countOption: 'realizations' | 'count' = 'realizations'): SimulationChoice {
+  const support = (stringOption(values, 'support') ?? 'point') as 'point' | 'block';
+  const k = numberOption(values, 'block-points');
+  const n = numberOption(values, countOption);
+  const seed = numberOption(values, 'seed');
+  const depth = numberOption(values, 'depth');
+  const threshold = numberOption(values, 'threshold');
+  if (k !== undefined && !(Number.isInteger(k) && k >= 1 && k <= 16)) {
+    throw new GapwiseError('bad-option', `Option "--block-points" expects a whole number from 1 to 16, got ${k}.`);
+  }
+  if (k !== undefined && support !== 'block') throw new GapwiseError('bad-option', 'Option "--block-points" applies to block support; expected "--support block" with it.');
+  if (n !== undefined && !(Number.isInteger(n) && n >= 1 && n <= MAX_REALISATIONS)) {
+    throw new GapwiseError('bad-option', `Option "--${countOption}" expects a whole number from 1 to ${MAX_REALISATIONS.toLocaleString('en')}, got ${n}.`);
+  }
+  if (seed !== undefined && !(Number.isInteger(seed) && Math.abs(seed) <= 2 ** 31)) {
+    throw new GapwiseError('bad-option', `Option "--seed" expects a whole number, got ${seed}.`);
+  }
+  if (depth !== undefined && !(depth > 0 && Number.isFinite(depth))) {
+    throw new GapwiseError('bad-option', `Option "--depth" expects a positive number of metres, got ${depth}.`);
+  }
+  if (depth !== undefined && threshold === undefined) {
+    throw new GapwiseError('bad-option', 'Option "--depth" gives the volume above the action level; expected "--threshold T" with it.');
+  }
+  if (countOption === 'realizations' && depth !== undefined && n === undefined) {
+    throw new GapwiseError('bad-option', 'Option "--depth" needs "--realizations N": the volume and its interval come from realisations.');
+  }
+  if (support === 'block' && model.transform === 'log' && n === undefined) {
+    throw new GapwiseError('bad-option',
+      `Block averages of a log model come from simulation; expected "--${countOption} N" (for example 200) with "--support block".`);
+  }
+  const choice: SimulationChoice = { support, blockPoints: support === 'block' ? k ?? DEFAULT_BLOCK_POINTS : 1, seed: seed ?? 1 };
+  if (n !== undefined) choice.realizations = n;
+  if (depth !== undefined) choice.depth = depth;
+  return choice;
+}
+
+/** One extra band for the grid output. */
+export interface SimulationBand {
+  name: string;
+  values: Float32Array;
+}
+
+/** Area above the threshold across realisations (JSON-ready). */
+export interface AreaReport {
+  threshold: number;
+  realizations: number;
+  seed: number;
+  support: 'point' | 'block';
+  areaAbove: { median: number; p5: number; p95: number; mean: number; unit: 'm²' };
+  volumeAbove?: { median: number; p5: number; p95: number; mean: number; unit: 'm³'; depth: number };
+}
+
+/**
+ * What `grid` writes for a choice, given the point surface it already computed:
+ * - point support, no realisations: nothing (bands = [], surface unchanged);
+ * - block support, no realisations: `surface` = block-kriged mean, sd, P(block > T) replacing the point one;
+ * - realisations: a band "P(... > T) from N realisations" (when there is a threshold), a band of the
+ *   realisation mean for block support with a log model, and `area` for the summary.
+ * Throws GapwiseError as the core functions do.
+ */
+export function addSimulationBands(input: {
+  samples: Samples; model: CovarianceModel; grid: Grid; choice: SimulationChoice; threshold?: number; unit?: string;
+}): { surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[] } {
+  const { samples, model, grid, choice, threshold, unit } = input;
+  const bands: SimulationBand[] = [];
+  const warnings: Warning[] = [];
+  let surface: SurfaceResult | undefined;
+  if (choice.support === 'block' && model.transform !== 'log') {
+    surface = computeBlockSurface(samples, model, grid, { points: choice.blockPoints, ...(threshold !== undefined ? { threshold } : {}) });
+    warnings.push(...surface.warnings);
+  }
+  if (choice.realizations === undefined) return { ...(surface ? { surface } : {}), bands, warnings };
+  const sim = simulateConditional(samples, model, grid, {
+    count: choice.realizations, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints,
+    keepRealisations: false,
+    ...(threshold !== undefined ? { threshold } : {}),
+    ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
+  });
+  warnings.push(...sim.warnings);
+  const u = unit ? ` ${unit}` : '';
+  if (choice.support === 'block' && model.transform === 'log') {
+    bands.push({ name: `block mean from ${sim.count} realisations${unit ? ` (${unit})` : ''}`, values: Float32Array.from(sim.mean) });
+  }
+  let area: AreaReport | undefined;
+  if (sim.pExceed && sim.area && threshold !== undefined) {
+    bands.push({ name: `P(${choice.support === 'block' ? 'block mean' : 'value'} > ${threshold}${u}) from ${sim.count} realisations`, values: Float32Array.from(sim.pExceed) });
+    const a = sim.area;
+    area = {
+      threshold, realizations: sim.count, seed: choice.seed, support: choice.support,
+      areaAbove: { median: a.area.median, p5: a.area.p05, p95: a.area.p95, mean: a.area.mean, unit: 'm²' },
+    };
+    if (a.volume) area.volumeAbove = { median: a.volume.median, p5: a.volume.p05, p95: a.volume.p95, mean: a.volume.mean, unit: 'm³', depth: a.volume.depth };
+  }
+  return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings };
+}
