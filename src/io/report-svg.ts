@@ -315,7 +315,7 @@ export function mapSvg(o: MapOptions): string {
 
   const scale = maxSide / Math.max(grid.nx, grid.ny); // px per cell
   const mapW = grid.nx * scale, mapH = grid.ny * scale;
-  const margin = 8, footer = 40;
+  const margin = 8, footer = 66;
   const width = Math.ceil(mapW + 2 * margin), height = Math.ceil(mapH + 2 * margin + footer + 20);
   const px = (x: number) => margin + ((x - grid.x0) / grid.cell) * scale;
   const py = (y: number) => 20 + margin + ((grid.y0 - y) / grid.cell) * scale;
@@ -348,7 +348,7 @@ export function mapSvg(o: MapOptions): string {
     + `<rect x="${(margin + barPx / 2).toFixed(1)}" y="${by - 6}" width="${(barPx / 2).toFixed(1)}" height="6" fill="#fff" stroke="#222"/>`
     + `<text x="${margin}" y="${by + 12}">0</text><text x="${(margin + barPx).toFixed(1)}" y="${by + 12}" text-anchor="middle">${escapeXml(metres >= 1000 ? `${formatNumber(metres / 1000)} km` : `${formatNumber(metres)} m`)}</text></g>`);
   // North arrow: true north when the CRS is known, else grid north.
-  const ax = width - margin - 22, ay = by - 4;
+  const ax = width - margin - 22, ay = by + 20;
   const angle = o.northAngle ?? 0;
   p.push(`<g transform="translate(${ax} ${ay}) rotate(${angle.toFixed(2)})"><path d="M0,-22 L7,0 L0,-5 L-7,0 Z" fill="#222"/><text x="0" y="12" text-anchor="middle" font-weight="700" transform="rotate(${(-angle).toFixed(2)} 0 8)">N</text></g>`);
   p.push(`<text x="${ax - 30}" y="${ay + 26}" text-anchor="end" font-size="10" fill="#555">${o.northAngle === null ? 'grid north' : `true north (${formatNumber(angle, 2)}° from grid north)`}</text>`);
