@@ -1,0 +1,63 @@
+/**
+ * Sample files the browser tests feed through the file input: a small projected grid of samples
+ * (for the colour read-back), a hostile file, and a 500-sample file for timing. Seeded, so every run
+ * sees the same numbers.
+ */
+import { createRandom } from '../src/core/random.ts';
+
+/**
+ * 25 samples on a 5 × 5 layout, 40 m apart, in WGS 84 / UTM zone 33N (EPSG:32633) about 3.7° west of
+ * the zone's central meridian, so grid north and map north differ by about 2.8°. Every sample sits on
+ * a cell centre of a 5 m grid (coordinates = 5k + 2.5), so with a zero-nugget model the cell holding
+ * a sample has exactly the sample's value.
+ */
+export function projectedGridCsv(): { text: string; values: Map<string, number> } {
+  const rnd = createRandom(20240611);
+  const x0 = 240002.5; // 5k + 2.5
+  const y0 = 5375002.5;
+  const lines = ['sample,easting,northing,zinc'];
+  const values = new Map<string, number>();
+  for (let j = 0; j < 5; j++) {
+    for (let i = 0; i < 5; i++) {
+      const id = `G${j}${i}`;
+      // A smooth trend plus noise: neighbouring samples differ, values 20–140.
+      const v = Math.round((40 + 12 * i + 9 * j + 25 * rnd.uniform()) * 10) / 10;
+      values.set(id, v);
+      lines.push(`${id},${x0 + 40 * i},${y0 + 40 * j},${v}`);
+    }
+  }
+  return { text: lines.join('\n') + '\n', values };
+}
+
+/** Markup and script in column names, IDs and values. Nothing in it may run or become an element. */
+export function hostileCsv(): string {
+  return [
+    'name<img src=x onerror="window.__pwned=1">,lon,lat,"lead <script>window.__pwned=2</script>",<b>note</b>',
+    '"<script>window.__pwned=3</script>",11.2480,48.4990,120,"<img src=x onerror=alert(1)>"',
+    '"<iframe src=javascript:alert(2)>",11.2490,48.4995,85,"<svg onload=alert(3)>"',
+    'plain-3,11.2500,48.5000,"<b onmouseover=alert(4)>60</b>",ok',
+    'plain-4,11.2510,48.4992,45,"</td></tr></table><h1 id=injected>x</h1>"',
+    'plain-5,11.2495,48.5005,150,"javascript:alert(5)"',
+    'plain-6,11.2475,48.5002,95,"&lt;escaped&gt;"',
+    'plain-7,11.2505,48.4988,70,"{@html x}"',
+  ].join('\n') + '\n';
+}
+
+/**
+ * 500 samples of a smooth field in a 1 km square of UTM zone 32N, with two samples pinning the
+ * extent to 2.5 … 997.5 m so a 5 m cell gives a 200 × 200 grid.
+ */
+export function fiveHundredCsv(): string {
+  const rnd = createRandom(500);
+  const lines = ['id,x,y,nitrate'];
+  const ox = 670000;
+  const oy = 5370000;
+  const field = (x: number, y: number) => 30 + 10 * Math.sin(x / 160) + 8 * Math.cos(y / 210) + 0.01 * x;
+  const pin = [[2.5, 2.5], [997.5, 997.5]];
+  for (let k = 0; k < 500; k++) {
+    const [x, y] = k < 2 ? pin[k] : [5 + 990 * rnd.uniform(), 5 + 990 * rnd.uniform()];
+    const v = field(x, y) + 1.5 * rnd.normal();
+    lines.push(`S${k + 1},${(ox + x).toFixed(2)},${(oy + y).toFixed(2)},${v.toFixed(2)}`);
+  }
+  return lines.join('\n') + '\n';
+}
