@@ -17,7 +17,8 @@ import type { CovarianceModel } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { solveLowerInPlace } from './linalg.ts';
-import { buildKrigingSystem, lowerTriangularInverse, type PredictorOptions } from './kriging.ts';
+import { buildKrigingSystem, type PredictorOptions } from './kriging.ts';
+import { lowerTriangularInverse } from './linalg.ts';
 import { trendColumnCount } from './trend.ts';
 
 /** Figures of merit of a leave-one-out run. */

@@ -26,7 +26,7 @@
  * normal evaluations over the undecided points (decision), plus n² + n·(m_E + m_C) per site examined.
  */
 import type { KrigingSystem } from './kriging.ts';
-import { solveLowerBlock } from './kriging.ts';
+import { solveLowerBlock } from './linalg.ts';
 import { crossCovarianceMatrix } from './covariance.ts';
 import { solveLowerInPlace } from './linalg.ts';
 import { designRow, type CoordinateFrame } from './trend.ts';

@@ -246,41 +246,6 @@ function scatterColumns(B: Float64Array, n: number, m: number, c0: number, w: nu
   }
 }
 
-/**
- * Forward substitution for w right-hand sides stored as rows of `slab` (w×n): each row x satisfies
- * L·x = b afterwards. Two right-hand sides at a time share each load of a row of L.
- */
-function forwardRows(L: Float64Array, n: number, slab: Float64Array, w: number): void {
-  for (let i = 0; i < n; i++) {
-    const row = i * n;
-    const inv = 1 / L[row + i];
-    let r = 0;
-    for (; r + 4 <= w; r += 4) {
-      const x0 = r * n;
-      const x1 = x0 + n;
-      const x2 = x1 + n;
-      const x3 = x2 + n;
-      let s0 = slab[x0 + i], s1 = slab[x1 + i], s2 = slab[x2 + i], s3 = slab[x3 + i];
-      for (let k = 0; k < i; k++) {
-        const l = L[row + k];
-        s0 -= l * slab[x0 + k];
-        s1 -= l * slab[x1 + k];
-        s2 -= l * slab[x2 + k];
-        s3 -= l * slab[x3 + k];
-      }
-      slab[x0 + i] = s0 * inv;
-      slab[x1 + i] = s1 * inv;
-      slab[x2 + i] = s2 * inv;
-      slab[x3 + i] = s3 * inv;
-    }
-    for (; r < w; r++) {
-      const x0 = r * n;
-      let s = slab[x0 + i];
-      for (let k = 0; k < i; k++) s -= L[row + k] * slab[x0 + k];
-      slab[x0 + i] = s * inv;
-    }
-  }
-}
 
 /** Backward substitution Lᵀ·x = b for w right-hand sides stored as rows of `slab` (w×n). */
 function backwardRows(L: Float64Array, n: number, slab: Float64Array, w: number): void {
@@ -330,13 +295,7 @@ function checkMultiple(L: Float64Array, n: number, B: Float64Array, m: number): 
 export function solveLowerMultiple(L: Float64Array, n: number, B: Float64Array, m: number): Float64Array {
   checkMultiple(L, n, B, m);
   if (m === 1) return solveLowerInPlace(L, n, B);
-  const slab = new Float64Array(Math.min(RHS_SLAB, m) * n);
-  for (let c0 = 0; c0 < m; c0 += RHS_SLAB) {
-    const w = Math.min(RHS_SLAB, m - c0);
-    gatherColumns(B, n, m, c0, w, slab);
-    forwardRows(L, n, slab, w);
-    scatterColumns(B, n, m, c0, w, slab);
-  }
+  forwardPanels(L, n, B, m, false);
   return B;
 }
 
@@ -355,6 +314,91 @@ export function solveUpperTransposeMultiple(L: Float64Array, n: number, B: Float
     scatterColumns(B, n, m, c0, w, slab);
   }
   return B;
+}
+
+/** Columns of a block handled together by the panel solve (128 doubles = 1 KiB per row). */
+const SOLVE_PANEL = 128;
+
+/**
+ * Solves L·Y = B in place for an n×m row-major B (m right-hand sides as columns): n²·m flops.
+ * Works on column panels (the rows touched stay in cache) and updates four rows of B with four
+ * earlier rows of Y at a time (32 flops per 12 loads and stores), then finishes each 4×4 diagonal
+ * triangle row by row.
+ */
+export function solveLowerBlock(L: Float64Array, n: number, B: Float64Array, m: number): void {
+  forwardPanels(L, n, B, m, false);
+}
+
+/**
+ * Z = L⁻¹ for a lower-triangular row-major L (Z is lower triangular too): the forward solve with the
+ * identity as right-hand sides, skipping the rows above each column panel, which stay zero.
+ * n³/3 flops. Used where the diagonal of K⁻¹ is needed (leave-one-out).
+ */
+export function lowerTriangularInverse(L: Float64Array, n: number): Float64Array {
+  const Z = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) Z[i * n + i] = 1;
+  forwardPanels(L, n, Z, n, true);
+  return Z;
+}
+
+function forwardPanels(L: Float64Array, n: number, B: Float64Array, m: number, identity: boolean): void {
+  for (let c0 = 0; c0 < m; c0 += SOLVE_PANEL) {
+    const c1 = Math.min(m, c0 + SOLVE_PANEL);
+    // With B = I, rows above c0 are zero in this panel and stay zero: start at the group holding c0.
+    const first = identity ? c0 - (c0 % 4) : 0;
+    let i0 = first;
+    for (; i0 + 3 < n; i0 += 4) {
+      const r0 = i0 * n;
+      const r1 = r0 + n;
+      const r2 = r1 + n;
+      const r3 = r2 + n;
+      const o0 = i0 * m;
+      const o1 = o0 + m;
+      const o2 = o1 + m;
+      const o3 = o2 + m;
+      // i0 is a multiple of 4, so the earlier rows come in whole groups of four.
+      for (let k = first; k < i0; k += 4) {
+        const a00 = L[r0 + k], a01 = L[r0 + k + 1], a02 = L[r0 + k + 2], a03 = L[r0 + k + 3];
+        const a10 = L[r1 + k], a11 = L[r1 + k + 1], a12 = L[r1 + k + 2], a13 = L[r1 + k + 3];
+        const a20 = L[r2 + k], a21 = L[r2 + k + 1], a22 = L[r2 + k + 2], a23 = L[r2 + k + 3];
+        const a30 = L[r3 + k], a31 = L[r3 + k + 1], a32 = L[r3 + k + 2], a33 = L[r3 + k + 3];
+        const y0 = k * m;
+        const y1 = y0 + m;
+        const y2 = y1 + m;
+        const y3 = y2 + m;
+        for (let j = c0; j < c1; j++) {
+          const b0 = B[y0 + j];
+          const b1 = B[y1 + j];
+          const b2 = B[y2 + j];
+          const b3 = B[y3 + j];
+          B[o0 + j] -= a00 * b0 + a01 * b1 + a02 * b2 + a03 * b3;
+          B[o1 + j] -= a10 * b0 + a11 * b1 + a12 * b2 + a13 * b3;
+          B[o2 + j] -= a20 * b0 + a21 * b1 + a22 * b2 + a23 * b3;
+          B[o3 + j] -= a30 * b0 + a31 * b1 + a32 * b2 + a33 * b3;
+        }
+      }
+      finishRows(L, n, B, m, i0, i0, i0 + 4, c0, c1);
+    }
+    finishRows(L, n, B, m, first, i0, n, c0, c1);
+  }
+}
+
+/** Rows [from, to) of the forward solve, subtracting rows k ≥ kStart one at a time, then dividing. */
+function finishRows(
+  L: Float64Array, n: number, B: Float64Array, m: number,
+  kStart: number, from: number, to: number, c0: number, c1: number,
+): void {
+  for (let i = from; i < to; i++) {
+    const rowL = i * n;
+    const oi = i * m;
+    for (let k = kStart; k < i; k++) {
+      const l = L[rowL + k];
+      const ok = k * m;
+      for (let j = c0; j < c1; j++) B[oi + j] -= l * B[ok + j];
+    }
+    const inv = 1 / L[rowL + i];
+    for (let j = c0; j < c1; j++) B[oi + j] *= inv;
+  }
 }
 
 /** Solves A·x = b given A = L·Lᵀ; returns a new array. */
