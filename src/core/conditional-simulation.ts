@@ -167,6 +167,7 @@ function denseKriger(sys: KrigingSystem): ResidualKriger {
   const { n, p, model, frame, u, v, X, W, Lg, m0 } = sys;
   const L = sys.factor.L;
   let alpha = new Float64Array(0);
+  let alphaT = new Float64Array(0);
   let beta = new Float64Array(0);
   let B = 0;
   const centred: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
@@ -201,6 +202,9 @@ function denseKriger(sys: KrigingSystem): ResidualKriger {
       }
       solveLowerBlock(L, n, alpha, B);
       solveUpperTransposeMultiple(L, n, alpha, B);
+      // Transposed (B × n) so each node's sum over samples is a contiguous dot product.
+      alphaT = new Float64Array(B * n);
+      for (let i = 0; i < n; i++) for (let b = 0; b < B; b++) alphaT[b * n + i] = alpha[i * B + b];
     },
     apply(tx: Float64Array, ty: Float64Array, out: Float64Array): void {
       const m = tx.length;
@@ -220,11 +224,36 @@ function denseKriger(sys: KrigingSystem): ResidualKriger {
           for (let a = 0; a < p; a++) s += row[a] * beta[a * B + b];
           out[o + b] += s;
         }
-        const cq = q * n;
-        for (let i = 0; i < n; i++) {
-          const c = C[cq + i];
-          const ai = i * B;
-          for (let b = 0; b < B; b++) out[o + b] += c * alpha[ai + b];
+      }
+      // out[q, b] += Σᵢ C[q, i]·α[i, b]: dot products over contiguous rows, two nodes × two realisations at a time.
+      let q = 0;
+      for (; q + 1 < m; q += 2) {
+        const c0 = q * n, c1 = c0 + n;
+        let b = 0;
+        for (; b + 1 < B; b += 2) {
+          const a0 = b * n, a1 = a0 + n;
+          let s00 = 0, s01 = 0, s10 = 0, s11 = 0;
+          for (let i = 0; i < n; i++) {
+            const x0 = C[c0 + i], x1 = C[c1 + i], y0 = alphaT[a0 + i], y1 = alphaT[a1 + i];
+            s00 += x0 * y0; s01 += x0 * y1; s10 += x1 * y0; s11 += x1 * y1;
+          }
+          out[q * B + b] += s00; out[q * B + b + 1] += s01;
+          out[(q + 1) * B + b] += s10; out[(q + 1) * B + b + 1] += s11;
+        }
+        for (; b < B; b++) {
+          const a0 = b * n;
+          let s0 = 0, s1 = 0;
+          for (let i = 0; i < n; i++) { s0 += C[c0 + i] * alphaT[a0 + i]; s1 += C[c1 + i] * alphaT[a0 + i]; }
+          out[q * B + b] += s0; out[(q + 1) * B + b] += s1;
+        }
+      }
+      for (; q < m; q++) {
+        const c0 = q * n;
+        for (let b = 0; b < B; b++) {
+          const a0 = b * n;
+          let s0 = 0;
+          for (let i = 0; i < n; i++) s0 += C[c0 + i] * alphaT[a0 + i];
+          out[q * B + b] += s0;
         }
       }
     },
