@@ -1,0 +1,94 @@
+/**
+ * Simulation benchmark: 100 conditional realisations of a 200 × 200 grid from 500 samples (Matérn
+ * ν = 3/2 plus a nugget, ordinary kriging, point support, with a threshold so P(exceed) and the area
+ * summary are computed too); also block support (2 × 2) with 10 realisations, the circulant embedding
+ * alone and a 512 × 512 FFT. Target: the 100 realisations in under 30 s.
+ * Run alone: `npx tsx bench/simulation.ts` (`--quick`: 100 × 100 grid, 20 realisations), or via
+ * `npx tsx bench/run.ts simulation`.
+ */
+import { pathToFileURL } from 'node:url';
+import { simulateConditional } from '../src/core/conditional-simulation.ts';
+import { createCirculantEmbedding } from '../src/core/circulant-embedding.ts';
+import { createFft2Plan } from '../src/core/fft.ts';
+import { createRandom } from '../src/core/random.ts';
+import type { CovarianceModel } from '../src/core/model.ts';
+import type { Samples } from '../src/core/samples.ts';
+import type { Grid } from '../src/core/grid.ts';
+
+export interface Row {
+  name: string;
+  n: number;
+  seconds: number;
+  note?: string;
+}
+
+const MODEL: CovarianceModel = {
+  structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],
+  trend: 'constant',
+  transform: 'none',
+};
+
+/** Invented samples on a 1 km square at UTM-like coordinates (seeded). */
+function makeSamples(n: number, seed: number): Samples {
+  const r = createRandom(seed);
+  const x = new Float64Array(n);
+  const y = new Float64Array(n);
+  const value = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    x[i] = 500000 + 1000 * r.uniform();
+    y[i] = 6000000 + 1000 * r.uniform();
+    value[i] = 40 + 5 * Math.sin((x[i] - 500000) / 200) * Math.cos((y[i] - 6000000) / 260) + r.normal();
+  }
+  return { x, y, value };
+}
+
+function time(f: () => void): number {
+  const t = performance.now();
+  f();
+  return (performance.now() - t) / 1000;
+}
+
+/** Runs the simulation benchmarks and returns one row per figure. */
+export async function runSimulationBench(options: { quick?: boolean } = {}): Promise<Row[]> {
+  const side = options.quick ? 100 : 200;
+  const count = options.quick ? 20 : 100;
+  const n = 500;
+  const samples = makeSamples(n, 1);
+  const grid: Grid = { x0: 500000, y0: 6001000, cell: 1000 / side, nx: side, ny: side };
+  const rows: Row[] = [];
+  const log = (s: string) => console.error(`  ${s}`);
+
+  let lattice = '';
+  const tPoint = time(() => {
+    const r = simulateConditional(samples, MODEL, grid, { count, seed: 1, threshold: 42 });
+    lattice = `lattice ${r.lattice.nx} × ${r.lattice.ny}, torus ${r.lattice.torus.join(' × ')}, area above 42: median ${Math.round(r.area!.area.median)} m² (5–95 %: ${Math.round(r.area!.area.p05)}–${Math.round(r.area!.area.p95)})`;
+  });
+  log(`point: ${tPoint.toFixed(2)} s (${lattice})`);
+  rows.push({ name: `${count} conditional realisations, ${side} × ${side} grid, point support`, n, seconds: tPoint, note: `Matérn 3/2 + nugget, OK; ${lattice}` });
+
+  const blockCount = options.quick ? 5 : 10;
+  const tBlock = time(() => simulateConditional(samples, MODEL, grid, { count: blockCount, seed: 1, support: 'block', blockPoints: 2, threshold: 42 }));
+  log(`block: ${tBlock.toFixed(2)} s`);
+  rows.push({ name: `${blockCount} conditional realisations, ${side} × ${side} grid, 2 × 2 block support`, n, seconds: tBlock, note: 'lattice spacing cell/2' });
+
+  let torus = '';
+  const tEmbed = time(() => {
+    const e = createCirculantEmbedding(MODEL, { nx: side + 6, ny: side + 6, spacing: grid.cell });
+    torus = `${e.mx} × ${e.my}, ${e.paddingSteps} padding steps`;
+  });
+  rows.push({ name: `circulant embedding of a ${side + 6} × ${side + 6} lattice`, n: 0, seconds: tEmbed, note: torus });
+
+  const plan = createFft2Plan(512, 512);
+  const re = new Float64Array(512 * 512).map((_, k) => Math.sin(k));
+  const im = new Float64Array(512 * 512);
+  plan.transform(re, im);
+  const reps = 5;
+  const tFft = time(() => { for (let k = 0; k < reps; k++) plan.transform(re, im); }) / reps;
+  rows.push({ name: '2-D FFT 512 × 512 (complex)', n: 0, seconds: tFft, note: `mean of ${reps}` });
+  return rows;
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  const rows = await runSimulationBench({ quick: process.argv.includes('--quick') });
+  for (const row of rows) console.log(`${row.name.padEnd(62)} n=${row.n}  ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
+}
