@@ -2,6 +2,7 @@
  * Reads a boundary GeoJSON for a command and reports it: the polygons, their area in the working
  * CRS (shoelace formula, holes subtracted) and which samples lie outside.
  */
+import { polygonsArea } from '../core/polygon.ts';
 import { GapwiseError } from '../core/errors.ts';
 import { pointInPolygons, projectPolygons, readPolygons, type Polygon } from '../io/boundary.ts';
 import type { IntakeResult } from '../io/types.ts';
@@ -20,17 +21,6 @@ export interface BoundaryReport {
 }
 
 /** Signed shoelace area of a ring (positive counter-clockwise). */
-function ringArea(ring: ReadonlyArray<readonly [number, number]>): number {
-  let s = 0;
-  for (let i = 0, j = ring.length - 1; i < ring.length; j = i++) s += ring[j][0] * ring[i][1] - ring[i][0] * ring[j][1];
-  return s / 2;
-}
-
-function polygonArea(p: Pick<Polygon, 'rings'>): number {
-  let a = Math.abs(ringArea(p.rings[0]));
-  for (let r = 1; r < p.rings.length; r++) a -= Math.abs(ringArea(p.rings[r]));
-  return a;
-}
 
 /** Reads `file` (GeoJSON, WGS 84 lon/lat), projects it to the samples' working CRS and reports it. */
 export function readBoundaryFile(io: CliIo, file: string, intake: IntakeResult): { polygons: Polygon[]; report: BoundaryReport } {
@@ -59,7 +49,7 @@ export function readBoundaryFile(io: CliIo, file: string, intake: IntakeResult):
     name: p.properties.name ?? '',
     vertices: p.rings[0].length,
     holes: p.rings.length - 1,
-    areaSquareMetres: Math.round(polygonArea(p)),
+    areaSquareMetres: Math.round(polygonsArea([p.rings])),
   }));
   const area = polygons.reduce((s, p) => s + p.areaSquareMetres, 0);
   return {

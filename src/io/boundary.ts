@@ -4,6 +4,7 @@
  * have at least four positions. Point-in-polygon by the even-odd rule over all rings, so holes
  * exclude; polygons can be projected to the working CRS.
  */
+import { pointInPolygon as corePointInPolygon } from '../core/polygon.ts';
 import * as gjv from 'geojson-validation';
 import { GapwiseError } from '../core/errors.ts';
 import { createTransform } from './crs.ts';
@@ -103,29 +104,14 @@ function textProps(p: unknown): Record<string, string> {
   return out;
 }
 
-/** Even-odd ray test against one ring (closed or not). Points on an edge may fall either way. */
-function crossings(x: number, y: number, ring: ArrayLike<readonly [number, number]>): boolean {
-  let inside = false;
-  const n = ring.length;
-  for (let i = 0, j = n - 1; i < n; j = i++) {
-    const [xi, yi] = ring[i];
-    const [xj, yj] = ring[j];
-    if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
-  }
-  return inside;
-}
-
-/** True when (x, y) is inside the polygon's outer ring and outside every hole. */
+/** True when (x, y) is inside the polygon's outer ring and outside every hole (even–odd rule). */
 export function pointInPolygon(x: number, y: number, polygon: Pick<Polygon, 'rings'>): boolean {
-  const rings = polygon.rings;
-  if (rings.length === 0 || !crossings(x, y, rings[0])) return false;
-  for (let r = 1; r < rings.length; r++) if (crossings(x, y, rings[r])) return false;
-  return true;
+  return corePointInPolygon(x, y, polygon.rings);
 }
 
 /** True when (x, y) is inside any of the polygons. */
 export function pointInPolygons(x: number, y: number, polygons: ReadonlyArray<Pick<Polygon, 'rings'>>): boolean {
-  for (const p of polygons) if (pointInPolygon(x, y, p)) return true;
+  for (const p of polygons) if (corePointInPolygon(x, y, p.rings)) return true;
   return false;
 }
 
