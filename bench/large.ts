@@ -17,7 +17,7 @@
  */
 import { pathToFileURL } from 'node:url';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir, availableParallelism, cpus } from 'node:os';
+import { tmpdir, availableParallelism, cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { spawnSync } from 'node:child_process';
 import { createPredictor } from '../src/core/kriging.ts';
@@ -77,6 +77,12 @@ function median(a: number[]): number {
 
 function seconds(t0: number): number {
   return (performance.now() - t0) / 1000;
+}
+
+/** CPU seconds of the whole process (all threads, so workers count) since `c0` (process.cpuUsage()). */
+function cpuSeconds(c0: NodeJS.CpuUsage): number {
+  const c = process.cpuUsage(c0);
+  return (c.user + c.system) / 1e6;
 }
 
 function peakRssGiB(): number {
@@ -191,29 +197,39 @@ async function partB(quick: boolean): Promise<Row[]> {
   const rows: Row[] = [];
   const start = performance.now();
   let t0 = performance.now();
+  let c0 = process.cpuUsage();
+  const cpuStart = c0;
   const model = vecchiaFit(samples, { family: 'matern', nu: 1.5, trend: 'constant' });
   const fitRss = peakRssGiB();
+  const fitCpu = cpuSeconds(c0);
   const fitSeconds = seconds(t0);
   const nugget = model.structures.find((s) => s.type === 'nugget')?.sill ?? 0;
   const main = model.structures.find((s): s is CorrelatedStructure => s.type !== 'nugget');
   rows.push({
-    name: 'nearest-neighbour fit (30 neighbours)', n, seconds: fitSeconds,
+    name: 'nearest-neighbour fit (30 neighbours)', n, seconds: fitSeconds, cpuSeconds: fitCpu,
     evaluations: model.fit?.evaluations, coarseEvaluations: model.fit?.coarseEvaluations, screenEvaluations: model.fit?.screenEvaluations, peakRssGiB: fitRss,
-    note: `scale ${main?.scale.toFixed(1)} m, sill ${main?.sill.toFixed(3)}, nugget ${nugget.toFixed(3)}; ${model.fit?.evaluations} + ${model.fit?.coarseEvaluations} (10 neighbours) all-sample evaluations; peak RSS ${fitRss.toFixed(2)} GiB`,
+    note: `scale ${main?.scale.toFixed(1)} m, sill ${main?.sill.toFixed(3)}, nugget ${nugget.toFixed(3)}; ${model.fit?.evaluations} + ${model.fit?.coarseEvaluations} (10 neighbours) all-sample evaluations; peak RSS ${fitRss.toFixed(2)} GiB; ${fitCpu.toFixed(1)} CPU s`,
   });
   const grid: Grid = { x0: 500000, y0: 6000000 + side, cell: side / cells, nx: cells, ny: cells };
   t0 = performance.now();
+  c0 = process.cpuUsage();
   const surface = await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbors: 64, globalMean: true } });
   const surfaceSeconds = seconds(t0);
+  const surfaceCpu = cpuSeconds(c0);
   let finite = 0;
   for (let k = 0; k < surface.mean.length; k++) if (Number.isFinite(surface.mean[k]) && Number.isFinite(surface.sd[k])) finite++;
   rows.push({
     name: `surface ${cells}×${cells}, mean + sd, worker pool (${availableParallelism()} workers)`, n, seconds: surfaceSeconds,
-    cells: cells * cells, note: `${finite.toLocaleString('en-US')} finite cells; 64 neighbours, global GLS mean`,
+    cpuSeconds: surfaceCpu, cells: cells * cells,
+    note: `${finite.toLocaleString('en-US')} finite cells; 64 neighbours, global GLS mean; ${surfaceCpu.toFixed(1)} CPU s over all threads`,
   });
   const total = seconds(start);
   const rss = peakRssGiB();
-  rows.push({ name: 'fit + surface, total', n, seconds: total, peakRssGiB: rss, note: `peak RSS ${rss.toFixed(2)} GiB (targets: < 90 s, < 2 GB)` });
+  const totalCpu = cpuSeconds(cpuStart);
+  rows.push({
+    name: 'fit + surface, total', n, seconds: total, cpuSeconds: totalCpu, peakRssGiB: rss,
+    note: `peak RSS ${rss.toFixed(2)} GiB, ${totalCpu.toFixed(1)} CPU s, load average at the end ${loadavg()[0].toFixed(1)} (targets: < 90 s, < 2 GB)`,
+  });
   return rows;
 }
 
@@ -237,7 +253,7 @@ if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
   const rows = only === 'a' ? await partA(quick) : only === 'b' ? await partB(quick) : await runLargeBench({ quick });
   console.log(table(rows));
   mkdirSync(new URL('./results/', import.meta.url), { recursive: true });
-  const meta = { date: new Date().toISOString(), node: process.version, cores: availableParallelism(), cpu: cpus()[0]?.model, quick, part: only };
+  const meta = { date: new Date().toISOString(), node: process.version, cores: availableParallelism(), cpu: cpus()[0]?.model, quick, part: only, loadAverage: loadavg() };
   const file = new URL(`./results/large${quick ? '-quick' : ''}.json`, import.meta.url);
   writeFileSync(file, JSON.stringify({ meta, rows }, null, 2));
   console.log(`\nwritten ${file.pathname}`);

@@ -493,7 +493,8 @@ const NUGGET_RATIO_BOUNDS = { lower: 1e-6, upper: 1e3 };
  * quadratic: the first step uses the gradient and Hessian from central differences at x, x ± h·eᵢ
  * and x + h·(eᵢ + eⱼ), h = 0.05; later steps keep that Hessian and take the gradient from forward
  * differences corrected by it (d + 1 values per step). Up to four steps, each at most 0.5 in any
- * ln-parameter. Converged when a step moves every ln-parameter by less than 0.02.
+ * ln-parameter. Converged when a step moves every ln-parameter by less than 0.02, or a step shorter
+ * than 0.1 fails to lower f.
  */
 function newtonRefine(f: (x: number[]) => number, x0: number[], spaces: ParameterSpace[]): { x: number[]; value: number; converged: boolean; evaluations: number; iterations: number } {
   const d = x0.length;
@@ -563,7 +564,12 @@ function newtonRefine(f: (x: number[]) => number, x0: number[], spaces: Paramete
     }
     const zn = clamp(z.map((v, i) => v + shrink * step[i]));
     const fn = at(zn);
-    if (!(fn <= fz)) break;
+    if (!(fn <= fz)) {
+      // A short step that does not improve f: the optimum is within the resolution of the
+      // difference quotients (h = 0.05), so stay and call it converged.
+      converged = big * shrink < 0.1;
+      break;
+    }
     z = zn;
     fz = fn;
   }
@@ -596,9 +602,9 @@ function subsample(samples: Samples, size: number, seed: number): Samples {
 /**
  * Fits the covariance model by maximising the nearest-neighbour REML (or ML) likelihood, the sill
  * profiled out, over log scale, log nugget ratio (and ν when 'free'): starts screened on a grid (on a
- * seeded 2,000-sample subsample above 4,000 samples) and searched by Nelder–Mead there; then, above
- * 20,000 samples, a search on all samples with the 10 nearest neighbours; finally a search on all
- * samples with m neighbours. Returns the model with fit.method 'nnl' and a note naming the sample
+ * seeded 2,000-sample subsample above 4,000 samples) and searched by Nelder–Mead there, all with the
+ * 10 nearest neighbours; then (subsampled) Newton steps on all samples with 10 neighbours; finally
+ * Newton steps on all samples with m neighbours (Nelder–Mead when a Newton stage fails). Returns the model with fit.method 'nnl' and a note naming the sample
  * and neighbour counts. Throws GapwiseError ('bad-option', 'too-few-samples', 'constant-values',
  * 'bad-value', 'fit-failed').
  */
@@ -708,14 +714,20 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
       xValue = res.value;
     }
   }
-  // 2. Subsampled: the same search on all samples, still with 10 neighbours.
+  // 2. Subsampled: Newton steps on all samples, still with 10 neighbours (cheap), Nelder–Mead if
+  //    those fail.
   if (screening && coarse < m) {
     const fCoarse = objective(full, coarse);
-    const v0 = fCoarse(x);
-    const res = minimizeBounded(fCoarse, x, spaces, { step: 0.3, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(v0)), maxEvaluations: 40 * d });
-    iterations += res.iterations;
-    coarseEvaluations += res.evaluations + 1;
-    if (res.value <= v0) x = res.x;
+    const step = newtonRefine(fCoarse, x, spaces);
+    iterations += step.iterations;
+    coarseEvaluations += step.evaluations;
+    x = step.x;
+    if (!step.converged) {
+      const res = minimizeBounded(fCoarse, x, spaces, { step: 0.3, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(step.value)), maxEvaluations: 40 * d });
+      iterations += res.iterations;
+      coarseEvaluations += res.evaluations;
+      if (res.value <= step.value) x = res.x;
+    }
   }
   // 3. All samples, m neighbours: Newton steps on a quadratic fitted through 2d + 1 + d(d−1)/2
   //    nearby values (the optimum moves little from 10 to m neighbours), Nelder–Mead if that fails.
