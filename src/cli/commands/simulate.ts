@@ -22,7 +22,7 @@ import { NO_DATA, gdalMetadataXml } from '../../io/geotiff.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, outOption, printWarnings, readModelFile, readSamplesFile,
+  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, printWarnings, readModelFile, readSamplesFile,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
@@ -207,7 +207,7 @@ export const simulateCommand: CommandSpec = {
   ],
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
-    outOption('GeoTIFF to write, one band per realisation', 'required'),
+    { name: 'out', kind: 'string', placeholder: 'FILE', help: 'GeoTIFF to write, one band per realisation', required: true },
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'about 40,000 cells over the area' },
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s): only cells whose centre lies inside', defaultText: 'the samples\' extent' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the area (and volume) above it', unit: 'the samples\' unit', defaultText: 'none' },
