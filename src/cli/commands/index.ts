@@ -16,4 +16,4 @@ import { simulateCommand } from './simulate.ts';
 export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, simulateCommand, reportCommand].map(withProject);
 
 /** Commands of the design that are not built yet; running one says so (exit 2). */
-export const PLANNED: readonly string[] = ['suggest'];
+export const PLANNED: readonly string[] = [];
