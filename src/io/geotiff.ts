@@ -1,20 +1,19 @@
 /**
- * Surfaces as a GeoTIFF (OGC 19-008r4) written with geotiff.js: one Float32 band each for the mean,
- * the sd and, with a threshold, P(exceed); north-up, PixelIsArea, in the working CRS.
+ * Grids as GeoTIFF (OGC 19-008r4): one writer for any number of Float32 bands (surfaces, extra
+ * simulation bands, realisations), north-up, PixelIsArea, in the working CRS.
  *
- * Georeferencing: ModelPixelScale (cell, cell, 0) and ModelTiepoint (0, 0, 0, x0, y0, 0) put the
- * upper-left corner of pixel (0, 0) at the grid's upper-left corner; GeoKeys GTModelType = 1
- * (projected), GTRasterType = 1 (PixelIsArea), ProjectedCSType = the working CRS's EPSG code (32767,
- * user-defined, with a citation, when the CRS has no EPSG code). Without these geotiff.js would
- * write a whole-globe EPSG:4326 raster.
+ * The file is a little-endian baseline TIFF 6.0 written here byte by byte (TIFF 6.0 §2 and §8):
+ * uncompressed, PlanarConfiguration = 2 (one strip per band, so the band count is not limited by a
+ * header size; geotiff.js's writer keeps every tag in a fixed 1,000-byte header, which a few dozen
+ * bands overflow). Georeferencing: ModelPixelScale (cell, cell, 0) and ModelTiepoint
+ * (0, 0, 0, x0, y0, 0) put the upper-left corner of pixel (0, 0) at the grid's upper-left corner;
+ * GeoKeys GTModelType = 1 (projected), GTRasterType = 1 (PixelIsArea), ProjectedCSType = the working
+ * CRS's EPSG code (32767, user-defined, with a GTCitation naming the CRS, when it has none).
  * Band names go in GDAL_METADATA (XML with one DESCRIPTION item per band), no-data in GDAL_NODATA
- * (cells outside the boundary and any non-finite value), the screening caution in ImageDescription.
- * geotiff.js 3.0.5 keeps every tag in a fixed 1,000-byte header and has no write type for
- * GDAL_METADATA (tag 42112, ASCII in GDAL's TIFF driver): the type is registered here, texts are
- * kept short, and the header is read back after writing so a tag that did not fit is an error,
- * never a silently broken file.
+ * (cells outside the grid's mask and any non-finite value), the screening caution in
+ * ImageDescription. ASCII tags hold UTF-8 text (GDAL reads it so).
+ * Cost: one pass over the cells of each band; the file is 4·cells·bands bytes plus a few hundred.
  */
-import { globals, writeArrayBuffer } from 'geotiff';
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import type { Grid } from '../core/grid.ts';
@@ -22,14 +21,15 @@ import { epsgCode, LOCAL_CRS } from './crs.ts';
 
 /** The no-data value written for cells outside the area (GDAL_NODATA). */
 export const NO_DATA = -9999;
+/** ProjectedCSTypeGeoKey of a CRS without an EPSG code (user-defined). */
+export const USER_DEFINED_CRS = 32767;
 
-const TAG_IMAGE_DESCRIPTION = 270;
-const TAG_GDAL_METADATA = 42112;
-const TAG_GDAL_NODATA = 42113;
-const HEADER_BYTES = 1000;
-
-// geotiff.js writes a tag only when it knows its type; GDAL_METADATA is ASCII (GDAL's TIFF driver).
-(globals.fieldTagTypes as Record<number, string>)[TAG_GDAL_METADATA] = 'ASCII';
+const TAG = {
+  width: 256, height: 257, bitsPerSample: 258, compression: 259, photometric: 262, imageDescription: 270,
+  stripOffsets: 273, samplesPerPixel: 277, rowsPerStrip: 278, stripByteCounts: 279, planarConfiguration: 284,
+  extraSamples: 338, sampleFormat: 339, modelPixelScale: 33550, modelTiepoint: 33922, geoKeyDirectory: 34735,
+  geoAsciiParams: 34737, gdalMetadata: 42112, gdalNoData: 42113,
+} as const;
 
 /** The surfaces of a whole grid (each array nx·ny cells, row-major from the top). */
 export interface GeoTiffSurfaces {
@@ -48,10 +48,27 @@ export interface GeoTiffInput {
   unit?: string;
   /** What was measured, e.g. 'Pb'. */
   valueName?: string;
+  /** Bands written after mean, sd (and P(exceed)): e.g. simulation results. */
+  extraBands?: ReadonlyArray<{ name: string; values: ArrayLike<number> }>;
+}
+
+/** Input of the general writer (plain data). */
+export interface BandsGeoTiffInput {
+  grid: Grid;
+  /** Each band nx·ny cells, row-major from the top row. */
+  bands: ReadonlyArray<ArrayLike<number>>;
+  /** One description per band. */
+  names: readonly string[];
+  /** Working CRS of the grid ('EPSG:NNNN', a proj string, or 'local'). */
+  workCrs: string;
+  /** First sentence(s) of ImageDescription; the screening caution is appended. */
+  title: string;
 }
 
 export interface GeoTiffOutput {
+  /** The file (bytes is a view of it). */
   buffer: ArrayBuffer;
+  bytes: Uint8Array;
   /** Band descriptions in band order. */
   bands: string[];
   /** The EPSG code written (32767 = user-defined). */
@@ -59,19 +76,11 @@ export interface GeoTiffOutput {
   warnings: Warning[];
 }
 
-/** Text as a string of UTF-8 bytes (one char per byte), as geotiff.js writes ASCII tags byte by byte. */
-function utf8Bytes(text: string): string {
-  const bytes = new TextEncoder().encode(text);
-  let out = '';
-  for (const b of bytes) out += String.fromCharCode(b);
-  return out;
-}
-
 function escapeXml(text: string): string {
   return text.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&apos;' })[c] as string);
 }
 
-/** Shortens user text so the fixed TIFF header holds every tag. */
+/** Shortens user text for band names (control characters become spaces). */
 function short(text: string, max: number): string {
   const t = text.replace(/[\u0000-\u001f]/g, ' ').trim();
   return t.length <= max ? t : `${t.slice(0, max - 1)}…`;
@@ -100,94 +109,176 @@ export function gdalMetadataXml(descriptions: readonly string[]): string {
   return `<GDALMetadata>${items.join('')}</GDALMetadata>`;
 }
 
-/** Reads one ASCII tag of a big-endian ('MM') TIFF's first IFD, or null when it is absent. */
+/** Reads one ASCII tag (UTF-8) of a TIFF's first IFD, either byte order, or null when it is absent. */
 export function readAsciiTag(buffer: ArrayBuffer, tag: number): string | null {
   const v = new DataView(buffer);
-  if (v.getUint16(0) !== 0x4d4d) throw new Error('Expected a big-endian TIFF.');
-  const ifd = v.getUint32(4);
-  const n = v.getUint16(ifd);
+  const order = v.getUint16(0);
+  if (order !== 0x4949 && order !== 0x4d4d) throw new Error('Expected a TIFF (byte order "II" or "MM").');
+  const le = order === 0x4949;
+  const ifd = v.getUint32(4, le);
+  const n = v.getUint16(ifd, le);
   for (let k = 0; k < n; k++) {
     const e = ifd + 2 + 12 * k;
-    if (v.getUint16(e) !== tag) continue;
-    const count = v.getUint32(e + 4);
-    const at = count > 4 ? v.getUint32(e + 8) : e + 8;
+    if (v.getUint16(e, le) !== tag) continue;
+    const count = v.getUint32(e + 4, le);
+    const at = count > 4 ? v.getUint32(e + 8, le) : e + 8;
     const bytes = new Uint8Array(buffer, at, Math.max(0, count - 1));
     return new TextDecoder().decode(bytes);
   }
   return null;
 }
 
+/** One tag of the IFD: type 2 ASCII, 3 SHORT, 4 LONG, 12 DOUBLE. */
+interface Tag {
+  code: number;
+  type: 2 | 3 | 4 | 12;
+  values: number[];
+}
+
+const TYPE_SIZE = { 2: 1, 3: 2, 4: 4, 12: 8 } as const;
+
+/** UTF-8 bytes of the text and the terminating NUL of a TIFF ASCII value. */
+function ascii(text: string): number[] {
+  return [...new TextEncoder().encode(text), 0];
+}
+
+/** The EPSG code of a working CRS for ProjectedCSTypeGeoKey (32767 when it has none), and a warning then. */
+function crsKey(workCrs: string): { epsg: number; citation?: string; warning?: Warning } {
+  const code = workCrs === LOCAL_CRS ? null : epsgCode(workCrs);
+  const epsg = code !== null && Number(code) <= 65535 ? Number(code) : USER_DEFINED_CRS;
+  if (epsg !== USER_DEFINED_CRS) return { epsg };
+  return {
+    epsg,
+    citation: workCrs === LOCAL_CRS ? 'local planar metres' : short(workCrs, 200),
+    warning: {
+      code: 'crs-not-epsg',
+      message: workCrs === LOCAL_CRS
+        ? 'The samples have local planar coordinates with no CRS: the GeoTIFF has no georeference beyond its metre grid.'
+        : `The working CRS ${short(workCrs, 60)} has no EPSG code: the GeoTIFF names it as user-defined, which most GIS cannot place; use an EPSG working CRS.`,
+    },
+  };
+}
+
 /**
- * Writes mean, sd (and P(exceed)) of a grid as a Float32 GeoTIFF. Cells outside the mask and
- * non-finite values become NO_DATA. Throws GapwiseError 'bad-option' for arrays of the wrong size.
+ * Writes any number of bands of a grid as one Float32 GeoTIFF (little-endian, one strip per band).
+ * Cells outside the grid's mask and non-finite values become NO_DATA. Throws GapwiseError
+ * 'bad-option' for no bands, a band of the wrong size, a name count that differs from the band
+ * count, or a file above the 4 GiB a classic TIFF can address.
  */
-export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
-  const { grid, surface } = input;
-  const cells = grid.nx * grid.ny;
-  const layers: ArrayLike<number>[] = [surface.mean, surface.sd];
-  if (surface.pExceed) layers.push(surface.pExceed);
-  for (const [i, a] of layers.entries()) {
+export function bandsGeoTiff(input: BandsGeoTiffInput): GeoTiffOutput {
+  const { grid, bands, names, workCrs } = input;
+  const { nx, ny } = grid;
+  const nb = bands.length;
+  const cells = nx * ny;
+  if (nb === 0) throw new GapwiseError('bad-option', 'Expected at least 1 band to write, got 0.');
+  if (names.length !== nb) throw new GapwiseError('bad-option', `Expected one name per band (${nb}), got ${names.length}.`);
+  for (const [i, a] of bands.entries()) {
     if (!a || a.length !== cells) {
-      throw new GapwiseError('bad-option', `Expected band ${i + 1} to have ${cells} cells (${grid.nx} × ${grid.ny}), got ${a ? a.length : 0}.`);
+      throw new GapwiseError('bad-option', `Expected band ${i + 1} to have ${cells} cells (${nx} × ${ny}), got ${a ? a.length : 0}.`);
     }
   }
   const warnings: Warning[] = [];
-  const code = input.workCrs === LOCAL_CRS ? null : epsgCode(input.workCrs);
-  let epsg = code === null ? 32767 : Number(code);
-  if (epsg > 65535) epsg = 32767;
-  if (epsg === 32767) {
-    warnings.push({
-      code: 'crs-not-epsg',
-      message: input.workCrs === LOCAL_CRS
-        ? 'The samples have local planar coordinates with no CRS: the GeoTIFF has no georeference beyond its metre grid.'
-        : `The working CRS ${short(input.workCrs, 60)} has no EPSG code: the GeoTIFF names it as user-defined, which most GIS cannot place; use an EPSG working CRS.`,
-    });
+  const crs = crsKey(workCrs);
+  if (crs.warning) warnings.push(crs.warning);
+  const description = `${input.title.trim()} ${CAUTION}`.trim();
+
+  // GeoKey directory (sorted by key id): version 1.1.0, then (key, location, count, value).
+  const citation = crs.citation === undefined ? null : ascii(`${crs.citation}|`).slice(0, -1);
+  const keys: number[][] = [[1024, 0, 1, 1], [1025, 0, 1, 1]];
+  if (citation) keys.push([1026, TAG.geoAsciiParams, citation.length, 0]);
+  keys.push([3072, 0, 1, crs.epsg]);
+  const geoKeys = [1, 1, 0, keys.length, ...keys.flat()];
+
+  const bandBytes = cells * 4;
+  const tags: Tag[] = [
+    { code: TAG.width, type: 4, values: [nx] },
+    { code: TAG.height, type: 4, values: [ny] },
+    { code: TAG.bitsPerSample, type: 3, values: new Array(nb).fill(32) },
+    { code: TAG.compression, type: 3, values: [1] },
+    { code: TAG.photometric, type: 3, values: [1] },
+    { code: TAG.imageDescription, type: 2, values: ascii(description) },
+    { code: TAG.stripOffsets, type: 4, values: new Array(nb).fill(0) }, // filled below
+    { code: TAG.samplesPerPixel, type: 3, values: [nb] },
+    { code: TAG.rowsPerStrip, type: 4, values: [ny] },
+    { code: TAG.stripByteCounts, type: 4, values: new Array(nb).fill(bandBytes) },
+    { code: TAG.planarConfiguration, type: 3, values: [2] },
+    ...(nb > 1 ? [{ code: TAG.extraSamples, type: 3 as const, values: new Array(nb - 1).fill(0) }] : []),
+    { code: TAG.sampleFormat, type: 3, values: new Array(nb).fill(3) },
+    { code: TAG.modelPixelScale, type: 12, values: [grid.cell, grid.cell, 0] },
+    { code: TAG.modelTiepoint, type: 12, values: [0, 0, 0, grid.x0, grid.y0, 0] },
+    { code: TAG.geoKeyDirectory, type: 3, values: geoKeys },
+    ...(citation ? [{ code: TAG.geoAsciiParams, type: 2 as const, values: [...citation, 0] }] : []),
+    { code: TAG.gdalMetadata, type: 2, values: ascii(gdalMetadataXml(names)) },
+    { code: TAG.gdalNoData, type: 2, values: ascii(String(NO_DATA)) },
+  ];
+  const ifdOffset = 8;
+  const ifdSize = 2 + 12 * tags.length + 4;
+  let end = ifdOffset + ifdSize;
+  const valueOffsets = tags.map((t) => {
+    const size = t.values.length * TYPE_SIZE[t.type];
+    if (size <= 4) return -1;
+    end += end % 2; // values start on a word boundary
+    const at = end;
+    end += size;
+    return at;
+  });
+  const dataStart = end + ((8 - (end % 8)) % 8);
+  const strips = tags.find((t) => t.code === TAG.stripOffsets) as Tag;
+  for (let b = 0; b < nb; b++) strips.values[b] = dataStart + b * bandBytes;
+  const total = dataStart + nb * bandBytes;
+  if (total > 0xffffffff) {
+    throw new GapwiseError('bad-option', `The GeoTIFF would have ${total} bytes; a classic TIFF holds at most 4 GiB: write fewer bands or use a larger cell.`);
   }
 
-  const nb = layers.length;
-  const data = new Float32Array(cells * nb);
+  const bytes = new Uint8Array(total);
+  const view = new DataView(bytes.buffer);
+  bytes[0] = 0x49; bytes[1] = 0x49; // "II": little-endian
+  view.setUint16(2, 42, true);
+  view.setUint32(4, ifdOffset, true);
+  view.setUint16(ifdOffset, tags.length, true);
+  const write = (type: Tag['type'], values: number[], at: number): void => {
+    for (let i = 0; i < values.length; i++) {
+      const v = values[i];
+      if (type === 2) view.setUint8(at + i, v);
+      else if (type === 3) view.setUint16(at + 2 * i, v, true);
+      else if (type === 4) view.setUint32(at + 4 * i, v, true);
+      else view.setFloat64(at + 8 * i, v, true);
+    }
+  };
+  tags.forEach((t, k) => {
+    const e = ifdOffset + 2 + 12 * k;
+    view.setUint16(e, t.code, true);
+    view.setUint16(e + 2, t.type, true);
+    view.setUint32(e + 4, t.values.length, true);
+    if (valueOffsets[k] >= 0) view.setUint32(e + 8, valueOffsets[k], true);
+    write(t.type, t.values, valueOffsets[k] < 0 ? e + 8 : valueOffsets[k]);
+  });
+  view.setUint32(ifdOffset + 2 + 12 * tags.length, 0, true); // no next IFD
+
   const mask = grid.mask;
-  for (let k = 0; k < cells; k++) {
-    const inside = !mask || mask[k] === 1;
-    for (let b = 0; b < nb; b++) {
-      const value = layers[b][k];
-      data[k * nb + b] = inside && Number.isFinite(value) ? value : NO_DATA;
+  for (let b = 0; b < nb; b++) {
+    const band = bands[b];
+    const o = dataStart + b * bandBytes;
+    for (let k = 0; k < cells; k++) {
+      const v = band[k];
+      view.setFloat32(o + 4 * k, (!mask || mask[k] === 1) && Number.isFinite(v) ? v : NO_DATA, true);
     }
   }
+  return { buffer: bytes.buffer as ArrayBuffer, bytes, bands: [...names], epsg: crs.epsg, warnings };
+}
 
-  const bands = bandDescriptions(surface, input.unit, input.valueName);
-  const description = `Gapwise surfaces. ${CAUTION}`;
-  const xml = gdalMetadataXml(bands);
-  const metadata: Record<string, unknown> = {
-    width: grid.nx,
-    height: grid.ny,
-    BitsPerSample: new Array(nb).fill(32),
-    SampleFormat: new Array(nb).fill(3),
-    SamplesPerPixel: nb,
-    PhotometricInterpretation: 1,
-    PlanarConfiguration: 1,
-    ExtraSamples: new Array(nb - 1).fill(0),
-    ModelPixelScale: [grid.cell, grid.cell, 0],
-    ModelTiepoint: [0, 0, 0, grid.x0, grid.y0, 0],
-    GTModelTypeGeoKey: 1,
-    GTRasterTypeGeoKey: 1,
-    ProjectedCSTypeGeoKey: epsg,
-    GDAL_NODATA: String(NO_DATA),
-    GDAL_METADATA: utf8Bytes(xml),
-    ImageDescription: utf8Bytes(description),
-  };
-  if (epsg === 32767) metadata.GTCitationGeoKey = utf8Bytes(short(input.workCrs === LOCAL_CRS ? 'local planar metres' : input.workCrs, 80));
-  const buffer = writeArrayBuffer(data, metadata as Parameters<typeof writeArrayBuffer>[1]);
-
-  // Everything must have fitted in geotiff.js's fixed header: read the texts back.
-  const back = new DataView(buffer);
-  const ifd = back.getUint32(4);
-  const tags = back.getUint16(ifd);
-  if (ifd + 2 + 12 * tags + 4 > HEADER_BYTES
-    || readAsciiTag(buffer, TAG_IMAGE_DESCRIPTION) !== description
-    || readAsciiTag(buffer, TAG_GDAL_METADATA) !== xml
-    || readAsciiTag(buffer, TAG_GDAL_NODATA) !== String(NO_DATA)) {
-    throw new Error('The GeoTIFF header did not hold every tag (geotiff.js writes at most 1,000 bytes of tags); the band names or caution were cut.');
+/**
+ * Writes mean, sd (and P(exceed)), then any extra bands, of a grid as a Float32 GeoTIFF through
+ * bandsGeoTiff. Throws GapwiseError 'bad-option' for arrays of the wrong size.
+ */
+export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
+  const { surface } = input;
+  const layers: ArrayLike<number>[] = [surface.mean, surface.sd];
+  if (surface.pExceed) layers.push(surface.pExceed);
+  const names = bandDescriptions(surface, input.unit, input.valueName);
+  for (const extra of input.extraBands ?? []) {
+    layers.push(extra.values);
+    names.push(extra.name);
   }
-  return { buffer, bands, epsg, warnings };
+  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title: 'Gapwise surfaces.' });
 }

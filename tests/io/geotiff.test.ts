@@ -1,5 +1,6 @@
-// surfaceGeoTiff checked against GDAL: tests/reference/gdal.json records what GDAL 3.6 (Debian
-// gdal-bin, `gdalinfo -json`, osgeo ReadAsArray) reads from the seeded files of gdal-case.ts.
+// surfaceGeoTiff and bandsGeoTiff checked against GDAL: tests/reference/gdal.json records what GDAL
+// 3.6 (Debian gdal-bin, `gdalinfo -json`, osgeo ReadAsArray) reads from the seeded files of
+// gdal-case.ts, among them a 40-band file.
 import { describe, expect, it } from 'vitest';
 import { createHash } from 'node:crypto';
 import { execFileSync } from 'node:child_process';
@@ -9,8 +10,8 @@ import { join } from 'node:path';
 import { fromArrayBuffer } from 'geotiff';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { expectClose } from '../helpers/tolerance.ts';
-import { gdalCases, type GdalCase } from '../reference/gdal-case.ts';
-import { bandDescriptions, gdalMetadataXml, NO_DATA, readAsciiTag, surfaceGeoTiff } from '../../src/io/geotiff.ts';
+import { EXTRA_BANDS, extraBandValue, gdalCases, type GdalCase } from '../reference/gdal-case.ts';
+import { bandDescriptions, bandsGeoTiff, gdalMetadataXml, NO_DATA, readAsciiTag, surfaceGeoTiff, USER_DEFINED_CRS } from '../../src/io/geotiff.ts';
 import { createPredictor } from '../../src/core/kriging.ts';
 import { cellCentres } from '../../src/core/grid.ts';
 import { exceedanceProbability } from '../../src/core/normal.ts';
@@ -32,6 +33,8 @@ interface GdalRecord {
 const fixture = loadFixture<GdalRecord>('gdal.json');
 const cases = gdalCases();
 const byName = (name: string): GdalCase => cases.find((c) => c.name === name)!;
+/** The cases with only the surface bands (mean, sd, P(exceed)). */
+const surfaceCases = fixture.cases.filter((rec) => byName(rec.name).extraBands.length === 0);
 
 /** Kriging predictions (mean, sd, P(exceed)) at the active cell centres, in grid order (NaN outside). */
 function expectedBands(c: GdalCase): Float64Array[] {
@@ -57,7 +60,8 @@ describe('surfaceGeoTiff', () => {
   });
 
   it('surfaceGeoTiff georeferencing as GDAL reads it: EPSG code, north-up geotransform of the cell size, PixelIsArea, bands', () => {
-    for (const rec of fixture.cases) {
+    expect(surfaceCases.length).toBe(2);
+    for (const rec of surfaceCases) {
       const c = byName(rec.name);
       // Source: GDAL gdalinfo -json (gdal.json).
       expect(rec.epsg).toBe(32633);
@@ -80,7 +84,7 @@ describe('surfaceGeoTiff', () => {
       const c = byName(rec.name);
       const expected = expectedBands(c);
       let active = 0;
-      rec.bands.forEach((b, i) => {
+      rec.bands.slice(0, expected.length).forEach((b, i) => {
         expect(b.values.length).toBe(c.grid.nx * c.grid.ny);
         for (let k = 0; k < b.values.length; k++) {
           const inside = !c.grid.mask || c.grid.mask[k] === 1;
@@ -93,8 +97,34 @@ describe('surfaceGeoTiff', () => {
           expectClose(v as number, expected[i][k], fixture.tolerance, `${rec.name} band ${i + 1} cell ${k}`);
         }
       });
-      expect(active).toBeGreaterThan(100);
+      expect(active).toBeGreaterThan(c.extraBands.length > 0 ? 50 : 100);
       if (c.grid.mask) expect(rec.bands[0].values.some((v) => v === null)).toBe(true);
+    }
+  });
+
+  it('surfaceGeoTiff with 37 extra bands: GDAL reads 40 bands, their names, georeferencing and every value written (many-band file)', () => {
+    const rec = fixture.cases.find((r) => r.name === 'many-bands')!;
+    const c = byName('many-bands');
+    // Source: GDAL gdalinfo -json and osgeo ReadAsArray (gdal.json).
+    expect(rec.bandCount).toBe(40);
+    expect(rec.bands.length).toBe(3 + EXTRA_BANDS);
+    expect(rec.epsg).toBe(32633);
+    expect(rec.geoTransform).toEqual([c.grid.x0, c.grid.cell, 0, c.grid.y0, 0, -c.grid.cell]);
+    expect(rec.size).toEqual([c.grid.nx, c.grid.ny]);
+    expect(rec.areaOrPoint).toBe('Area');
+    expect(rec.description).toBe(`Gapwise surfaces. ${CAUTION}`);
+    expect(rec.bands.map((b) => b.description)).toEqual([
+      'mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 60 mg/L)',
+      ...Array.from({ length: EXTRA_BANDS }, (_, b) => `realisation ${b + 1} (mg/L)`),
+    ]);
+    for (let b = 0; b < EXTRA_BANDS; b++) {
+      const values = rec.bands[3 + b].values;
+      expect(rec.bands[3 + b].noData).toBe(NO_DATA);
+      expect(rec.bands[3 + b].type).toBe('Float32');
+      for (let k = 0; k < values.length; k++) {
+        const inside = c.grid.mask![k] === 1;
+        expect(values[k], `band ${4 + b} cell ${k}`).toBe(inside ? extraBandValue(b, k) : null);
+      }
     }
   });
 
@@ -164,5 +194,63 @@ describe('surfaceGeoTiff', () => {
     const grid = { x0: 0, y0: 20, cell: 10, nx: 2, ny: 2 };
     expect(() => surfaceGeoTiff({ grid, surface: { mean: [1, 2, 3], sd: [1, 1, 1, 1] }, workCrs: 'EPSG:32633' }))
       .toThrow(new GapwiseError('bad-option', 'Expected band 1 to have 4 cells (2 × 2), got 3.'));
+  });
+});
+
+describe('bandsGeoTiff', () => {
+  const grid = { x0: 1000, y0: 2030, cell: 10, nx: 3, ny: 3, mask: Uint8Array.from([1, 1, 1, 1, 1, 1, 1, 1, 0]) };
+
+  it('bandsGeoTiff writes each band in order with its name, no-data outside the mask, as geotiff.js reads it back', async () => {
+    const bands = Array.from({ length: 5 }, (_, b) => Float32Array.from({ length: 9 }, (_, k) => b * 10 + k));
+    const names = bands.map((_, b) => `band ${b + 1} (m)`);
+    const out = bandsGeoTiff({ grid, bands, names, workCrs: 'EPSG:32633', title: 'Test bands.' });
+    expect(out.epsg).toBe(32633);
+    expect(out.bands).toEqual(names);
+    expect(out.warnings).toEqual([]);
+    expect(out.bytes.buffer).toBe(out.buffer);
+    expect(readAsciiTag(out.buffer, 270)).toBe(`Test bands. ${CAUTION}`);
+    expect(readAsciiTag(out.buffer, 42113)).toBe(String(NO_DATA));
+    expect(readAsciiTag(out.buffer, 42112)).toBe(gdalMetadataXml(names));
+    const image = await (await fromArrayBuffer(out.buffer)).getImage();
+    expect(image.getSamplesPerPixel()).toBe(5);
+    expect(image.getOrigin()).toEqual([1000, 2030, 0]);
+    const rasters = (await image.readRasters()) as unknown as Float32Array[];
+    rasters.forEach((r, b) => expect(Array.from(r)).toEqual([...Array.from({ length: 8 }, (_, k) => b * 10 + k), NO_DATA]));
+  });
+
+  it('bandsGeoTiff marks a CRS without an EPSG code as user-defined with a citation naming it, and warns', async () => {
+    const proj = '+proj=tmerc +lat_0=0 +lon_0=9 +k=1 +x_0=0 +y_0=0 +ellps=GRS80 +units=m';
+    const out = bandsGeoTiff({ grid, bands: [new Float32Array(9)], names: ['zero'], workCrs: proj, title: 'Zeros.' });
+    expect(out.epsg).toBe(USER_DEFINED_CRS);
+    expect(out.warnings.map((w) => w.code)).toEqual(['crs-not-epsg']);
+    const keys = (await (await fromArrayBuffer(out.buffer)).getImage()).getGeoKeys() as Record<string, unknown>;
+    expect(keys.ProjectedCSTypeGeoKey).toBe(USER_DEFINED_CRS);
+    expect(String(keys.GTCitationGeoKey).replace(/\|$/, '')).toBe(proj);
+  });
+
+  it('bandsGeoTiff rejects no bands, a name count that differs from the band count and a band of the wrong size', () => {
+    expect(() => bandsGeoTiff({ grid, bands: [], names: [], workCrs: 'EPSG:32633', title: '' }))
+      .toThrow(new GapwiseError('bad-option', 'Expected at least 1 band to write, got 0.'));
+    expect(() => bandsGeoTiff({ grid, bands: [new Float32Array(9)], names: ['a', 'b'], workCrs: 'EPSG:32633', title: '' }))
+      .toThrow(new GapwiseError('bad-option', 'Expected one name per band (1), got 2.'));
+    expect(() => bandsGeoTiff({ grid, bands: [new Float32Array(9), new Float32Array(8)], names: ['a', 'b'], workCrs: 'EPSG:32633', title: '' }))
+      .toThrow(new GapwiseError('bad-option', 'Expected band 2 to have 9 cells (3 × 3), got 8.'));
+  });
+
+  it.runIf(existsSync('/usr/bin/gdalinfo'))('bandsGeoTiff: gdalinfo names the user-defined CRS of local coordinates by its citation (runs where gdal-bin is installed)', () => {
+    const dir = mkdtempSync(join(tmpdir(), 'gapwise-gdal-'));
+    try {
+      const path = join(dir, 'local.tif');
+      writeFileSync(path, bandsGeoTiff({ grid, bands: [new Float32Array(9)], names: ['zero'], workCrs: 'local', title: 'Zeros.' }).bytes);
+      // GDAL notes on stderr that an engineering CRS has no ellipsoid; only stdout is read.
+      const info = JSON.parse(execFileSync('/usr/bin/gdalinfo', ['-json', path], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'] })) as {
+        geoTransform: number[]; coordinateSystem: { wkt: string }; bands: Array<{ description: string }>;
+      };
+      expect(info.coordinateSystem.wkt).toMatch(/^ENGCRS\["local planar metres"/);
+      expect(info.geoTransform).toEqual([1000, 10, 0, 2030, 0, -10]);
+      expect(info.bands.map((b) => b.description)).toEqual(['zero']);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 });

@@ -1,6 +1,7 @@
 // The GeoTIFFs whose GDAL reading tests/reference/make_gdal.py records in gdal.json, built from a
 // fixed seed. tests/io/geotiff.test.ts builds the same files and checks GDAL's reading against
-// kriging predictions. Run directly (`npx tsx tests/reference/gdal-case.ts DIR`) it writes them.
+// kriging predictions (and, for the many-band file, against the extra bands written). Run directly
+// (`npx tsx tests/reference/gdal-case.ts DIR`) it writes them.
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -20,7 +21,17 @@ export interface GdalCase {
   workCrs: string;
   unit: string;
   valueName: string;
+  /** Bands written after mean, sd (and P(exceed)). */
+  extraBands: Array<{ name: string; values: Float32Array }>;
   tiff: ArrayBuffer;
+}
+
+/** Number of extra bands of the many-band case (40 bands in all with mean, sd and P(exceed)). */
+export const EXTRA_BANDS = 37;
+
+/** Extra band b (0-based) at cell k: a value that tells band and cell apart, exact in Float32. */
+export function extraBandValue(b: number, k: number): number {
+  return 100 * (b + 1) + k / 64;
 }
 
 /** 40 seeded samples over a 300 m × 200 m field in UTM zone 33N with a smooth signal and noise. */
@@ -49,11 +60,17 @@ export function gdalCases(): GdalCase[] {
   const specs = [
     { name: 'boundary-threshold', grid: gridForPolygons([pentagon as unknown as number[][][]], 10), threshold: 60 },
     { name: 'extent', grid: gridFromExtent(500000, 5400000, 500300, 5400200, 12.5, 10) },
+    { name: 'many-bands', grid: gridForPolygons([pentagon as unknown as number[][][]], 20), threshold: 60, extra: EXTRA_BANDS },
   ];
   return specs.map((s) => {
     const surface = computeSurface(samples, CASE_MODEL, s.grid, s.threshold !== undefined ? { threshold: s.threshold } : {});
-    const tiff = surfaceGeoTiff({ grid: s.grid, surface, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate' }).buffer;
-    return { name: s.name, samples, model: CASE_MODEL, grid: s.grid, threshold: s.threshold, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', tiff };
+    const cells = s.grid.nx * s.grid.ny;
+    const extraBands = Array.from({ length: s.extra ?? 0 }, (_, b) => ({
+      name: `realisation ${b + 1} (mg/L)`,
+      values: Float32Array.from({ length: cells }, (_, k) => extraBandValue(b, k)),
+    }));
+    const tiff = surfaceGeoTiff({ grid: s.grid, surface, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', extraBands }).buffer;
+    return { name: s.name, samples, model: CASE_MODEL, grid: s.grid, threshold: s.threshold, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', extraBands, tiff };
   });
 }
 

@@ -2,7 +2,7 @@
 bindings) reads from the GeoTIFFs that src/io/geotiff.ts writes for the seeded cases in
 tests/reference/gdal-case.ts: the EPSG code, the geotransform, size, band count, band descriptions,
 no-data value, data type, the TIFF description, and every pixel value of every band (null for
-no-data). The SHA-256 of each file ties the record to the bytes it was read from.
+no-data). "many-bands" is a 40-band file (mean, sd, P(exceed) and 37 extra bands). The SHA-256 of each file ties the record to the bytes it was read from.
 Used by tests/io/geotiff.test.ts."""
 import hashlib
 import json
@@ -22,7 +22,7 @@ def main():
     cases = []
     with tempfile.TemporaryDirectory() as tmp:
         subprocess.run(["npx", "tsx", os.path.join(HERE, "gdal-case.ts"), tmp], cwd=ROOT, check=True)
-        for name in ["boundary-threshold", "extent"]:
+        for name in ["boundary-threshold", "extent", "many-bands"]:
             path = os.path.join(tmp, f"{name}.tif")
             with open(path, "rb") as f:
                 sha = hashlib.sha256(f.read()).hexdigest()

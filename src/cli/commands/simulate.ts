@@ -3,22 +3,14 @@
  * (one Float32 band per realisation, data units, no-data -9999 outside the area), and a JSON summary
  * on stdout: the area (and with --depth the volume) above --threshold as a median with a 90 %
  * interval, the simulation lattice, warnings and the screening caution.
- *
- * The GeoTIFF: geotiff.js keeps every tag in a fixed 1,000-byte header, which N bands' BitsPerSample,
- * SampleFormat and ExtraSamples arrays overflow (GDAL then reports the GeoKeys as corrupt), so this
- * command encodes its multi-band file itself: a little-endian baseline TIFF 6.0, uncompressed,
- * PlanarConfiguration = 2 (one strip per band), with the same georeferencing as src/io/geotiff.ts
- * (ModelPixelScale, ModelTiepoint, GTModelType = 1, GTRasterType = 1 PixelIsArea, ProjectedCSType
- * = the working CRS's EPSG code), GDAL_NODATA, GDAL_METADATA band names and the caution in
- * ImageDescription (OGC 19-008r4; TIFF 6.0 §2 and §8).
+ * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff.
  */
 import { writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { cellCount, type Grid } from '../../core/grid.ts';
+import { GapwiseError } from '../../core/errors.ts';
+import { cellCount } from '../../core/grid.ts';
 import { simulateConditional } from '../../core/conditional-simulation.ts';
-import { epsgCode, LOCAL_CRS } from '../../io/crs.ts';
-import { NO_DATA, gdalMetadataXml } from '../../io/geotiff.ts';
+import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
@@ -27,112 +19,6 @@ import {
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { SIMULATE_OPTIONS, readSimulationChoice } from '../simulation-options.ts';
-
-/** One tag of the IFD: type 2 ASCII, 3 SHORT, 4 LONG, 12 DOUBLE. */
-interface Tag {
-  code: number;
-  type: 2 | 3 | 4 | 12;
-  values: number[] | string;
-}
-
-const TYPE_SIZE = { 2: 1, 3: 2, 4: 4, 12: 8 } as const;
-
-function asciiBytes(text: string): number[] {
-  return [...new TextEncoder().encode(text), 0];
-}
-
-/**
- * A little-endian multi-band Float32 GeoTIFF (PlanarConfiguration 2, one strip per band) of the
- * grid; bands are nx·ny cells row-major from the top, NaN written as NO_DATA.
- */
-export function bandsGeoTiff(
-  grid: Grid, bands: ReadonlyArray<ArrayLike<number>>, names: readonly string[], workCrs: string, description: string,
-): { bytes: Uint8Array; epsg: number | null; warnings: Warning[] } {
-  const { nx, ny } = grid;
-  const nb = bands.length;
-  if (nb === 0) throw new GapwiseError('bad-option', 'Expected at least 1 band to write, got 0.');
-  const warnings: Warning[] = [];
-  const code = workCrs === LOCAL_CRS ? null : epsgCode(workCrs);
-  const epsg = code !== null && Number(code) <= 65535 ? Number(code) : null;
-  if (epsg === null) {
-    warnings.push({ code: 'crs-not-epsg', message: `The working CRS ${workCrs} has no EPSG code: the GeoTIFF carries its cell size and corner but no CRS; use an EPSG working CRS.` });
-  }
-  const geoKeys = [1, 1, 0, epsg === null ? 2 : 3, 1024, 0, 1, 1, 1025, 0, 1, 1];
-  if (epsg !== null) geoKeys.push(3072, 0, 1, epsg);
-  const bandBytes = nx * ny * 4;
-  const tags: Tag[] = [
-    { code: 256, type: 4, values: [nx] },
-    { code: 257, type: 4, values: [ny] },
-    { code: 258, type: 3, values: new Array(nb).fill(32) },
-    { code: 259, type: 3, values: [1] },
-    { code: 262, type: 3, values: [1] },
-    { code: 270, type: 2, values: description },
-    { code: 273, type: 4, values: new Array(nb).fill(0) }, // strip offsets, filled below
-    { code: 277, type: 3, values: [nb] },
-    { code: 278, type: 4, values: [ny] },
-    { code: 279, type: 4, values: new Array(nb).fill(bandBytes) },
-    { code: 284, type: 3, values: [2] },
-    ...(nb > 1 ? [{ code: 338, type: 3 as const, values: new Array(nb - 1).fill(0) }] : []),
-    { code: 339, type: 3, values: new Array(nb).fill(3) },
-    { code: 33550, type: 12, values: [grid.cell, grid.cell, 0] },
-    { code: 33922, type: 12, values: [0, 0, 0, grid.x0, grid.y0, 0] },
-    { code: 34735, type: 3, values: geoKeys },
-    { code: 42112, type: 2, values: gdalMetadataXml(names) },
-    { code: 42113, type: 2, values: String(NO_DATA) },
-  ];
-  const payloads = tags.map((t) => (typeof t.values === 'string' ? asciiBytes(t.values) : t.values));
-  const ifdOffset = 8;
-  const ifdSize = 2 + 12 * tags.length + 4;
-  let extra = ifdOffset + ifdSize;
-  const extraOffsets = tags.map((t, k) => {
-    const size = payloads[k].length * TYPE_SIZE[t.type];
-    if (size <= 4) return -1;
-    extra += extra % 2; // word boundary
-    const at = extra;
-    extra += size;
-    return at;
-  });
-  const dataStart = extra + ((8 - (extra % 8)) % 8);
-  const strips = tags.findIndex((t) => t.code === 273);
-  const stripOffsets = payloads[strips] as number[];
-  for (let b = 0; b < nb; b++) stripOffsets[b] = dataStart + b * bandBytes;
-  const total = dataStart + nb * bandBytes;
-  if (total > 0xffffffff) throw new GapwiseError('bad-option', `The GeoTIFF would have ${total} bytes; the most a classic TIFF holds is 4 GiB: write fewer realisations or use a larger cell.`);
-  const bytes = new Uint8Array(total);
-  const view = new DataView(bytes.buffer);
-  bytes[0] = 0x49; bytes[1] = 0x49; // "II": little-endian
-  view.setUint16(2, 42, true);
-  view.setUint32(4, ifdOffset, true);
-  view.setUint16(ifdOffset, tags.length, true);
-  const write = (type: Tag['type'], values: number[], at: number): void => {
-    values.forEach((v, i) => {
-      if (type === 2) view.setUint8(at + i, v);
-      else if (type === 3) view.setUint16(at + 2 * i, v, true);
-      else if (type === 4) view.setUint32(at + 4 * i, v, true);
-      else view.setFloat64(at + 8 * i, v, true);
-    });
-  };
-  tags.forEach((t, k) => {
-    const e = ifdOffset + 2 + 12 * k;
-    view.setUint16(e, t.code, true);
-    view.setUint16(e + 2, t.type, true);
-    view.setUint32(e + 4, payloads[k].length, true);
-    if (extraOffsets[k] >= 0) view.setUint32(e + 8, extraOffsets[k], true);
-    write(t.type, payloads[k], extraOffsets[k] < 0 ? e + 8 : extraOffsets[k]);
-  });
-  view.setUint32(ifdOffset + 2 + 12 * tags.length, 0, true);
-  const mask = grid.mask;
-  for (let b = 0; b < nb; b++) {
-    const band = bands[b];
-    if (band.length !== nx * ny) throw new GapwiseError('bad-option', `Expected band ${b + 1} to have ${nx * ny} cells (${nx} × ${ny}), got ${band.length}.`);
-    const o = dataStart + b * bandBytes;
-    for (let k = 0; k < nx * ny; k++) {
-      const v = band[k];
-      view.setFloat32(o + 4 * k, (!mask || mask[k] === 1) && Number.isFinite(v) ? v : NO_DATA, true);
-    }
-  }
-  return { bytes, epsg, warnings };
-}
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
@@ -164,7 +50,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   }));
   const unit = intake.report.unit;
   const names = sim.realisations!.map((_, r) => `realisation ${r + 1}${unit ? ` (${unit})` : ''}`);
-  const tif = bandsGeoTiff(grid, sim.realisations!, names, workCrs, `Gapwise conditional realisations (${sim.support} support). ${CAUTION}`);
+  const tif = bandsGeoTiff({ grid, bands: sim.realisations!, names, workCrs, title: `Gapwise conditional realisations (${sim.support} support).` });
   try {
     writeFileSync(resolve(io.cwd, out), tif.bytes);
   } catch (e) {
@@ -173,7 +59,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   printWarnings(io, [...sim.warnings, ...tif.warnings]);
   const area = sim.area;
   io.stdout(jsonText({
-    out, format: 'tif', workCrs, epsg: tif.epsg,
+    out, format: 'tif', workCrs, epsg: tif.epsg === USER_DEFINED_CRS ? null : tif.epsg,
     grid: { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) },
     realisations: sim.count, seed: choice.seed, support: sim.support, blockPoints: sim.points,
     unit,
