@@ -13,7 +13,8 @@
  *     seconds and peak resident memory (targets: under 90 s and 2 GB).
  * Medians of 3 runs for the cheap rows (local path), single runs for the rest.
  * Run alone: `npx tsx bench/large.ts` (`--quick`: 500 samples / 5,000 targets and 20,000 samples /
- * 100 × 100 cells), or via `npm run bench -- large`. Writes bench/results/large.json when run alone.
+ * 100 × 100 cells; `--a` or `--b` for one part), or via `npm run bench -- large`. Writes
+ * bench/results/large[-a|-b][-quick].json when run alone.
  */
 import { pathToFileURL } from 'node:url';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -254,7 +255,7 @@ if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
   console.log(table(rows));
   mkdirSync(new URL('./results/', import.meta.url), { recursive: true });
   const meta = { date: new Date().toISOString(), node: process.version, cores: availableParallelism(), cpu: cpus()[0]?.model, quick, part: only, loadAverage: loadavg() };
-  const file = new URL(`./results/large${quick ? '-quick' : ''}.json`, import.meta.url);
+  const file = new URL(`./results/large${only === 'both' ? '' : `-${only}`}${quick ? '-quick' : ''}.json`, import.meta.url);
   writeFileSync(file, JSON.stringify({ meta, rows }, null, 2));
   console.log(`\nwritten ${file.pathname}`);
 }
