@@ -16,9 +16,9 @@ import type { CovarianceModel } from '../core/model.ts';
 import type { Grid } from '../core/grid.ts';
 import { cellCount } from '../core/grid.ts';
 import { GapwiseError, type ErrorCode, type Warning } from '../core/errors.ts';
-import { createPredictor, type Predictor } from '../core/kriging.ts';
+import { createPredictor } from '../core/kriging.ts';
 import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/local-kriging.ts';
-import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray } from '../core/surface.ts';
+import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/surface.ts';
 
 export type SurfacePath = 'exact' | 'local';
 
@@ -66,10 +66,9 @@ export function chooseSurfacePath(n: number, cells: number): SurfacePath {
 }
 
 /** The predictor a job asks for (used by the workers and by the single-thread path). */
-export function buildSurfacePredictor(job: SurfaceJob): Predictor {
+export function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
   if (job.path === 'exact') return createPredictor(job.samples, job.model);
-  // computeSurfaceWith reads only model, predict and warnings, which the local predictor has.
-  return createLocalPredictor(job.samples, job.model, job.local) as unknown as Predictor;
+  return createLocalPredictor(job.samples, job.model, job.local);
 }
 
 /** The same surface on this thread (the reference the pool must match). */

@@ -84,12 +84,15 @@ function rangeOf(a: SurfaceArray): ValueRange {
   return min <= max ? { min, max } : { min: NaN, max: NaN };
 }
 
+/** What a surface needs of a predictor: the exact one (kriging.ts) and the local one both fit. */
+export type SurfacePredictor = Pick<Predictor, 'model' | 'predict' | 'warnings'>;
+
 /**
  * Mean, sd and (with a threshold) P(exceed) on the grid rows, through an already factorised
  * predictor (workers keep one per model and samples and reuse it across bands).
  */
 export function computeSurfaceWith(
-  predictor: Predictor, grid: Grid, options: SurfaceOptions = {}, onProgress?: SurfaceProgress,
+  predictor: SurfacePredictor, grid: Grid, options: SurfaceOptions = {}, onProgress?: SurfaceProgress,
 ): SurfaceResult {
   const [r0, r1] = checkRows(grid, options.rows);
   const threshold = options.threshold;
