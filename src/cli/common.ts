@@ -1,7 +1,8 @@
 /**
  * What every command shares: the command and I/O types, the screening caution, the sample options,
- * reading samples through the one intake (`readSamples`), reading a model file, writing outputs and
- * printing warnings.
+ * reading samples through the one intake (`readSamples`), reading a model file, writing outputs,
+ * printing warnings and notes, the choice between exact kriging and local neighbourhoods for
+ * predict, cv and grid (`readPredictionPath`), and progress lines for long runs.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
@@ -10,7 +11,9 @@ import { parseModel, type CovarianceModel } from '../core/model.ts';
 import { readSamples } from '../io/intake.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
-import { stringOption, type OptionSpec, type OptionValue } from './args.ts';
+import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
+import { DEFAULT_LOCAL_NEIGHBORS } from '../core/local-kriging.ts';
+import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 
 /** Carried by every result, export and help text. */
 export const CAUTION =
@@ -215,4 +218,124 @@ export function naming<T>(files: { samples?: string; model?: string }, work: () 
 /** JSON text with two-space indentation and a final newline. */
 export function jsonText(value: unknown): string {
   return `${JSON.stringify(value, null, 2)}\n`;
+}
+
+/** Prints notes (how the work was done) on stderr, each line prefixed with "note: ". */
+export function printNotes(io: CliIo, notes: readonly string[]): void {
+  for (const n of notes) io.stderr(`note: ${n}\n`);
+}
+
+/** A count with thousands separators: 48211 → "48,211". */
+export function count(n: number): string {
+  return n.toLocaleString('en-US');
+}
+
+/** Below this many samples predict, cv and grid use exact kriging unless told otherwise (the fit's limit too). */
+export const EXACT_PREDICTION_LIMIT = EXACT_FIT_LIMIT;
+/** Most samples `--exact` accepts: the dense system takes 8·n² bytes (800 MB at 10,000) in each worker. */
+export const FORCED_EXACT_LIMIT = 10_000;
+/** Largest `--neighbors` (local-kriging.ts accepts up to 2,000). */
+const MAX_NEIGHBORS = 2000;
+
+/** The options of predict, cv and grid that choose between exact kriging and local neighbourhoods. */
+export const PREDICTION_PATH_OPTIONS: OptionSpec[] = [
+  {
+    name: 'neighbors', kind: 'number', placeholder: 'M',
+    help: 'local neighbourhoods: each target is predicted from its M nearest samples (distance as the model measures it, anisotropy included); a whole number from 1 to 2,000',
+    unit: 'samples', defaultText: String(DEFAULT_LOCAL_NEIGHBORS),
+  },
+  {
+    name: 'exact', kind: 'boolean',
+    help: `exact kriging from all samples whatever their number (memory 8·n² bytes per worker; up to ${count(FORCED_EXACT_LIMIT)} samples)`,
+    defaultText: `automatic: exact below ${count(EXACT_PREDICTION_LIMIT)} samples, local neighbourhoods from ${count(EXACT_PREDICTION_LIMIT)}`,
+  },
+  { name: 'local', kind: 'boolean', help: 'local neighbourhoods whatever the number of samples', defaultText: 'automatic, as for --exact' },
+  {
+    name: 'global-mean', kind: 'boolean',
+    help: 'local neighbourhoods: use the mean (trend) estimated by GLS from all samples in every neighbourhood instead of re-estimating it in each (exact kriging always uses the GLS mean of all samples)',
+    defaultText: 'off: the mean is re-estimated in each neighbourhood',
+  },
+];
+
+/** How predict, cv and grid compute (plain data). */
+export interface PredictionPath {
+  path: 'exact' | 'local';
+  /** Samples per neighbourhood on the local path (min(M, n) are used). */
+  neighbors: number;
+  /** Local path: the GLS mean of all samples in every neighbourhood. */
+  globalMean: boolean;
+  /** True when the number of samples chose the path (no --exact, no --local). */
+  automatic: boolean;
+  /** Notes about options that do not apply to the chosen path. */
+  warnings: string[];
+}
+
+/**
+ * Reads --neighbors, --exact, --local and --global-mean for `n` samples: exact kriging below
+ * EXACT_PREDICTION_LIMIT samples, local neighbourhoods from there on, unless --exact or --local says
+ * otherwise. Throws GapwiseError('bad-option') for contradictory or out-of-range values.
+ */
+export function readPredictionPath(values: OptionValues, n: number): PredictionPath {
+  const exact = booleanOption(values, 'exact');
+  const local = booleanOption(values, 'local');
+  const given = numberOption(values, 'neighbors');
+  const globalMean = booleanOption(values, 'global-mean');
+  if (exact && local) throw new GapwiseError('bad-option', 'Options "--exact" and "--local" contradict each other; expected at most one of them.');
+  if (given !== undefined && !(Number.isInteger(given) && given >= 1 && given <= MAX_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Option "--neighbors" expects a whole number of samples from 1 to ${count(MAX_NEIGHBORS)}, got ${given}.`);
+  }
+  if (exact && given !== undefined) {
+    throw new GapwiseError('bad-option', 'Option "--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact" (exact kriging uses all samples).');
+  }
+  if (exact && n > FORCED_EXACT_LIMIT) {
+    throw new GapwiseError('bad-option',
+      `Option "--exact" is limited to ${count(FORCED_EXACT_LIMIT)} samples (its matrix takes 8·n² bytes, here ${((8 * n * n) / 1e9).toFixed(1)} GB), got ${count(n)}; leave it out to predict from local neighbourhoods.`);
+  }
+  const automatic = !exact && !local;
+  const path: 'exact' | 'local' = exact ? 'exact' : local ? 'local' : n < EXACT_PREDICTION_LIMIT ? 'exact' : 'local';
+  const warnings: string[] = [];
+  if (path === 'exact' && automatic && given !== undefined) {
+    warnings.push(`--neighbors ${given} is not used: ${count(n)} samples are few enough for exact kriging from all of them; add --local to predict from neighbourhoods.`);
+  }
+  return { path, neighbors: given ?? DEFAULT_LOCAL_NEIGHBORS, globalMean, automatic, warnings };
+}
+
+/**
+ * The note that says how the numbers were computed, e.g. "predicted from the 64 nearest samples at
+ * each target (local neighbourhoods); 48,211 samples". cv passes its own `verb` and `nearest`.
+ */
+export function describePredictionPath(p: PredictionPath, n: number, verb = 'predicted', nearest = 'nearest samples at each target'): string {
+  if (p.path === 'exact') {
+    return `${verb} by exact kriging from all ${count(n)} samples${p.automatic ? '' : ' (--exact)'}`;
+  }
+  const m = Math.min(p.neighbors, n);
+  const how = p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods';
+  const why = p.automatic ? `; chosen automatically from ${count(EXACT_PREDICTION_LIMIT)} samples (--exact overrides)` : '';
+  return `${verb} from the ${m} ${nearest} (${how}); ${count(n)} samples${why}`;
+}
+
+/** Progress on stderr: a line at every tenth of the work once a run has lasted `afterSeconds`. */
+export interface ProgressLine {
+  (done: number, total: number): void;
+}
+
+/**
+ * A progress callback that prints "progress: 40 % of 250,000 cells (12 s)" on stderr at each
+ * further tenth of the work, but only once the run has taken at least `afterSeconds` (default 2),
+ * so short runs stay quiet. `now` (milliseconds) is injectable for tests.
+ */
+export function progressLine(io: CliIo, what: string, options: { afterSeconds?: number; now?: () => number } = {}): ProgressLine {
+  const now = options.now ?? (() => performance.now());
+  const after = (options.afterSeconds ?? 2) * 1000;
+  const start = now();
+  let printed = 0;
+  return (done, total) => {
+    if (!(total > 0)) return;
+    const tenth = Math.floor((10 * done) / total);
+    if (tenth <= printed) return;
+    const elapsed = now() - start;
+    if (elapsed < after) return;
+    printed = tenth;
+    io.stderr(`progress: ${tenth * 10} % of ${count(total)} ${what} (${Math.round(elapsed / 1000)} s)\n`);
+  };
 }

@@ -1,17 +1,31 @@
 /**
  * `gapwise fit`: fits a covariance model to the samples and writes the model JSON (with its fit
  * diagnostics, practical range and the working CRS its distances are in).
+ *
+ * Method: by default the number of samples chooses (core/vecchia.ts chooseFitMethod): the exact
+ * REML likelihood below 3,000 samples, the nearest-neighbour (Vecchia) REML likelihood with maxmin
+ * ordering from 3,000 on. The choice is said on stderr and in the model's "fit.note"; --method
+ * reml|ml|wls|nnl overrides it.
  */
 import { GapwiseError } from '../../core/errors.ts';
-import { fitModel, type FitOptions } from '../../core/fit.ts';
-import type { Family, Trend } from '../../core/model.ts';
+import { fitModel, MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit } from '../../core/vecchia.ts';
+import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
 import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
-import { booleanOption, stringOption } from '../args.ts';
+import { booleanOption, numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, naming, outOption, printWarnings, readSamplesFile, writeOutput,
+  CAUTION, SAMPLE_OPTIONS, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
+
+type MethodOption = 'auto' | 'reml' | 'ml' | 'wls' | 'nnl';
+
+const METHOD_NAMES: Record<'reml' | 'ml' | 'wls', string> = {
+  reml: 'the exact REML likelihood',
+  ml: 'the exact ML likelihood',
+  wls: 'weighted least squares on the empirical variogram',
+};
 
 /** --trend constant|linear|known:VALUE. */
 export function parseTrend(raw: string): Trend {
@@ -50,6 +64,34 @@ function logSamples(intake: IntakeResult): Samples {
   return { x, y, value: logValue };
 }
 
+/**
+ * The method a fit uses: --method as given, or for 'auto' the exact REML likelihood below 3,000
+ * samples and the nearest-neighbour likelihood from there on. Throws GapwiseError('bad-option') for
+ * an exact likelihood on more samples than it can take, and for --nnl-neighbors without 'nnl'.
+ */
+export function resolveFitMethod(given: MethodOption, n: number, nnlNeighbors?: number): { method: 'reml' | 'ml' | 'wls' | 'nnl'; automatic: boolean } {
+  if (nnlNeighbors !== undefined && !(Number.isInteger(nnlNeighbors) && nnlNeighbors >= 1 && nnlNeighbors <= 1000)) {
+    throw new GapwiseError('bad-option', `Option "--nnl-neighbors" expects a whole number from 1 to 1,000, got ${nnlNeighbors}.`);
+  }
+  if (given === 'auto') {
+    const method = chooseFitMethod(n) === 'nnl' ? 'nnl' : 'reml';
+    if (nnlNeighbors !== undefined && method !== 'nnl') {
+      throw new GapwiseError('bad-option',
+        `Option "--nnl-neighbors" applies to the nearest-neighbour likelihood, which is chosen from ${count(EXACT_FIT_LIMIT)} samples; got ${count(n)} samples (add --method nnl to use it anyway).`);
+    }
+    return { method, automatic: true };
+  }
+  if (nnlNeighbors !== undefined && given !== 'nnl') {
+    throw new GapwiseError('bad-option', `Option "--nnl-neighbors" applies to --method nnl only; got --method ${given}.`);
+  }
+  if ((given === 'reml' || given === 'ml') && n > MAX_EXACT_SAMPLES) {
+    throw new GapwiseError('bad-option',
+      `Option "--method ${given}" fits the exact likelihood, which is limited to ${count(MAX_EXACT_SAMPLES)} samples (n³/3 flops and 8·n² bytes per evaluation); got ${count(n)}. `
+      + 'Leave --method out (or give --method nnl) for the nearest-neighbour likelihood, or use --method wls.');
+  }
+  return { method: given, automatic: false };
+}
+
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const family = (stringOption(values, 'family') ?? 'matern') as Family;
   const nuRaw = stringOption(values, 'nu');
@@ -57,23 +99,44 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     throw new GapwiseError('bad-option', `Option "--nu" applies to the matern family only; got --family ${family}.`);
   }
   const nu = parseNu(nuRaw ?? '1.5');
-  const method = (stringOption(values, 'method') ?? 'reml') as FitOptions['method'];
   const trend = parseTrend(stringOption(values, 'trend') ?? 'constant');
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
+  const nnlNeighbors = numberOption(values, 'nnl-neighbors');
   const intake = readSamplesFile(io, values);
+  const n = intake.samples.value.length;
+  const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
 
-  const options: FitOptions = { family, method, trend, nugget: !booleanOption(values, 'no-nugget') };
-  if (family === 'matern') options.nu = nu;
-  const model = naming({ samples: intake.report.fileName }, () => fitModel(transform === 'log' ? logSamples(intake) : intake.samples, options));
+  const nugget = !booleanOption(values, 'no-nugget');
+  const samples = transform === 'log' ? logSamples(intake) : intake.samples;
+  const files = { samples: intake.report.fileName };
+  let model: CovarianceModel;
+  if (method === 'nnl') {
+    model = naming(files, () => vecchiaFit(samples, {
+      family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
+      ...(family === 'matern' ? { nu } : {}),
+    }));
+  } else {
+    const options: FitOptions = { family, method, trend, nugget };
+    if (family === 'matern') options.nu = nu;
+    model = naming(files, () => fitModel(samples, options));
+    if (model.fit) model.fit.note = `fitted with ${METHOD_NAMES[method]} on ${count(n)} samples`;
+  }
   model.transform = transform;
-  printWarnings(io, model.fit?.warnings ?? []);
-  if (model.fit && !model.fit.converged) printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);
+  const fit = model.fit;
+  if (fit) {
+    fit.choice = automatic ? 'automatic' : 'given';
+    const why = !automatic ? `; --method ${method}`
+      : method === 'nnl' ? `; chosen automatically from ${count(EXACT_FIT_LIMIT)} samples (--method reml|ml|wls overrides)` : '';
+    printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
+  }
+  printWarnings(io, fit?.warnings ?? []);
+  if (fit && !fit.converged) printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);
 
   const r = intake.report;
   const out = {
     ...model,
     crs: { work: r.crs.work, input: r.crs.input },
-    data: { file: r.fileName, valueColumn: r.valueColumn, unit: r.unit, n: intake.samples.value.length },
+    data: { file: r.fileName, valueColumn: r.valueColumn, unit: r.unit, n },
     caution: CAUTION,
   };
   writeOutput(io, stringOption(values, 'out'), jsonText(out));
@@ -90,12 +153,22 @@ export const fitCommand: CommandSpec = {
       + 'predict, cv and the app read. The JSON carries the fit diagnostics (method, log-likelihood, AIC, '
       + 'converged), the practical range (the distance where the correlation falls to 5 %) and "crs": {"work": ...}, '
       + 'the coordinate system its distances (metres) are measured in.',
+    `By default the number of samples chooses the method: the exact REML likelihood below ${count(EXACT_FIT_LIMIT)} samples `
+      + '(n³/3 flops per evaluation), and from there on a nearest-neighbour (Vecchia) REML likelihood: each sample, '
+      + 'in a maxmin order, is conditioned on its --nnl-neighbors nearest earlier samples (n·m³/3 flops). The choice '
+      + 'is said on stderr ("note: fitted with a nearest-neighbour likelihood on 48,211 samples ...") and in the '
+      + 'model\'s "fit": "note" and "choice" ("automatic" or "given"). --method overrides it.',
   ],
   options: [
     ...SAMPLE_OPTIONS,
     { name: 'family', kind: 'string', placeholder: 'F', choices: ['matern', 'exponential', 'spherical', 'gaussian'], help: 'correlation family of the structure', defaultText: 'matern' },
     { name: 'nu', kind: 'string', placeholder: 'NU', help: 'Matérn smoothness: a number > 0, or "free" to fit it', defaultText: '1.5' },
-    { name: 'method', kind: 'string', placeholder: 'M', choices: ['reml', 'ml', 'wls'], help: 'fitting method', defaultText: 'reml' },
+    {
+      name: 'method', kind: 'string', placeholder: 'M', choices: ['auto', 'reml', 'ml', 'wls', 'nnl'],
+      help: `fitting method: reml or ml (exact likelihood, up to ${count(MAX_EXACT_SAMPLES)} samples), wls (variogram), nnl (nearest-neighbour REML likelihood, any number of samples), auto (reml below ${count(EXACT_FIT_LIMIT)} samples, nnl from there on)`,
+      defaultText: 'auto',
+    },
+    { name: 'nnl-neighbors', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBORS) },
     { name: 'trend', kind: 'string', placeholder: 'T', help: 'mean: constant (unknown constant), linear (unknown 1, x, y drift) or known:VALUE (a known mean in the samples\' unit; with --transform log, VALUE is on the log scale)', defaultText: 'constant' },
     { name: 'transform', kind: 'string', placeholder: 'T', choices: ['none', 'log'], help: 'fit ln(value) for positive, right-skewed data; results come back on the data scale', defaultText: 'none' },
     { name: 'no-nugget', kind: 'boolean', help: 'fit without a nugget (exact interpolation of the samples)' },
@@ -104,6 +177,7 @@ export const fitCommand: CommandSpec = {
   examples: [
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --out lead-model.json',
     'gapwise fit --samples wells.csv --value nitrate --family exponential --method ml --trend linear',
+    'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbors 40 --out survey-model.json',
   ],
   run,
 };

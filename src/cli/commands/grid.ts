@@ -4,22 +4,51 @@
  * the area) or .geojson (contour bands and isolines of the mean and P(exceed), WGS 84). A JSON
  * summary with the caution goes to stdout. With --project the grid is the project's own, cell for
  * cell, so the numbers are the app's.
+ *
+ * Point surfaces are computed in row bands by the worker-thread pool of ../parallel.ts (one worker
+ * per core unless --workers says otherwise): exact kriging below 3,000 samples, local
+ * neighbourhoods from there on (or as --exact / --local say), with a note on stderr and progress
+ * lines for long runs. Block support and realisations (../simulation-options.ts) replace the point
+ * surface by block-kriged cells and add bands, the area above the threshold and warnings.
  */
 import { writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { cellCount, type Grid } from '../../core/grid.ts';
-import { computeSurface } from '../../core/surface.ts';
+import type { SurfaceResult } from '../../core/surface.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
 import { surfaceGridCsv } from '../../io/grid-csv.ts';
 import { DEFAULT_PADDING, openProject, planSurfaceGrid, projectGrid, type Project } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, printWarnings, readModelFile, readSamplesFile, readText,
-  type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, EXACT_PREDICTION_LIMIT, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
+  modelWorkCrs, naming, printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile,
+  readText, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
+import { computeSurfaceParallel } from '../parallel.ts';
+import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
+
+/** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
+async function namingAsync<T>(files: { samples?: string; model?: string }, work: () => Promise<T>): Promise<T> {
+  try {
+    return await work();
+  } catch (e) {
+    return naming(files, () => { throw e; });
+  }
+}
+
+/** --workers N: a whole number from 1 to 256, default one per core. */
+function readWorkers(values: OptionValues): number {
+  const w = numberOption(values, 'workers');
+  if (w === undefined) return availableParallelism();
+  if (!(Number.isInteger(w) && w >= 1 && w <= 256)) {
+    throw new GapwiseError('bad-option', `Option "--workers" expects a whole number of threads from 1 to 256, got ${w}.`);
+  }
+  return w;
+}
 
 type Format = 'tif' | 'csv' | 'geojson';
 
@@ -52,6 +81,8 @@ function writeBytes(io: CliIo, file: string, bytes: Uint8Array | string): void {
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
   const format = formatOf(out);
+  const levels = stringOption(values, 'levels');
+  const meanLevels = levels === undefined ? undefined : parseLevels(levels, 'levels');
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const { model } = modelFile;
@@ -88,37 +119,83 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (threshold !== undefined && model.transform === 'log' && !(threshold > 0)) {
     throw new GapwiseError('bad-option', `Option "--threshold" must be above 0 with a log model, got ${threshold}.`);
   }
+  const n = intake.samples.value.length;
+  const choice = readSimulationChoice(values, model);
+  const path = readPredictionPath(values, n);
+  const workers = readWorkers(values);
+  // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
+  const blockKriging = choice.support === 'block' && model.transform !== 'log';
+  if (blockKriging && n >= EXACT_PREDICTION_LIMIT) {
+    throw new GapwiseError('bad-option',
+      `Block kriging (--support block) uses all samples and is limited to fewer than ${count(EXACT_PREDICTION_LIMIT)} of them; got ${count(n)}. `
+      + 'Use --support point (local neighbourhoods from that many samples), or thin the samples.');
+  }
+  if (blockKriging && (path.path === 'local' || numberOption(values, 'neighbors') !== undefined || path.globalMean)) {
+    throw new GapwiseError('bad-option', 'Options "--local", "--neighbors" and "--global-mean" apply to point support; block kriging uses all samples.');
+  }
+  printWarnings(io, path.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };
-  const surface = naming(files, () => computeSurface(intake.samples, model, grid, {
-    ...(threshold !== undefined ? { threshold } : {}),
-    precision: format === 'csv' ? 'float64' : 'float32',
-  }));
-  const warnings: Warning[] = [...surface.warnings];
+  const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
+  const cells = cellCount(grid);
+  let surface: SurfaceResult | undefined;
+  if (!blockKriging) {
+    surface = await namingAsync(files, () => computeSurfaceParallel({
+      samples: intake.samples, model, grid, path: path.path,
+      ...(path.path === 'local' ? { local: { neighbors: path.neighbors, globalMean: path.globalMean } } : {}),
+      surface: { ...(threshold !== undefined ? { threshold } : {}), precision },
+    }, { workers, onProgress: progressLine(io, 'cells') }));
+    const threads = Math.min(workers, grid.ny);
+    printNotes(io, [`${describePredictionPath(path, n)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`]);
+  } else {
+    printNotes(io, [`block kriging: each of ${count(cells)} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
+  }
   const unit = project?.samples.unit || intake.report.unit;
+  const extra = naming(files, () => addSimulationBands({
+    samples: intake.samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+  }));
+  if (extra.surface) surface = extra.surface;
+  if (!surface) throw new Error('No surface was computed for block support.');
+  if (choice.realizations !== undefined) {
+    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support)`]);
+  }
+  const warnings: Warning[] = [...surface.warnings, ...extra.warnings];
   const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
   let bands: string[] | undefined;
   let features: number | undefined;
   if (format === 'tif') {
-    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName });
+    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName, extraBands: extra.bands });
     warnings.push(...tif.warnings);
     bands = tif.bands;
     writeBytes(io, out, new Uint8Array(tif.buffer));
   } else if (format === 'csv') {
     writeBytes(io, out, surfaceGridCsv({ grid, surface, workCrs, unit }));
   } else {
-    const levels = stringOption(values, 'levels');
-    const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels: levels === undefined ? undefined : parseLevels(levels, 'levels') });
+    const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels });
     features = fc.features.length;
     writeBytes(io, out, `${JSON.stringify(fc)}\n`);
+  }
+  if (format !== 'tif' && extra.bands.length > 0) {
+    warnings.push({
+      code: 'bands-not-written',
+      message: `${extra.bands.length === 1 ? 'The band' : `The ${extra.bands.length} bands`} ${extra.bands.map((b) => `"${b.name}"`).join(', ')} from the realisations ${extra.bands.length === 1 ? 'is' : 'are'} written to GeoTIFF only; use --out FILE.tif to keep ${extra.bands.length === 1 ? 'it' : 'them'}.`,
+    });
   }
   printWarnings(io, warnings);
   io.stdout(jsonText({
     out, format, workCrs,
     grid: { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) },
     threshold: threshold ?? null,
+    support: choice.support,
+    ...(choice.support === 'block' ? { blockPoints: choice.blockPoints } : {}),
+    method: blockKriging ? 'block kriging' : path.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
+    ...(blockKriging || path.path === 'exact' ? {} : { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean }),
+    n,
     ...(bands ? { bands } : {}),
     ...(features !== undefined ? { features } : {}),
     range: surface.range,
+    ...(extra.area ? { realizations: extra.area.realizations, seed: extra.area.seed, areaAbove: extra.area.areaAbove } : {}),
+    ...(extra.area?.volumeAbove ? { volumeAbove: extra.area.volumeAbove } : {}),
+    ...(!extra.area && choice.realizations !== undefined ? { realizations: choice.realizations, seed: choice.seed } : {}),
     unit,
     caution: CAUTION,
   }));
@@ -136,8 +213,18 @@ export const gridCommand: CommandSpec = {
       + 'the sd and, with --threshold, P(value > T), with the working CRS\'s EPSG code, band names and no-data '
       + '-9999 outside the area; .csv writes x, y, lon, lat, mean, sd (and p_exceed) for each cell inside the area; '
       + '.geojson writes filled bands and isolines of the mean (and of P(exceed)) in WGS 84 longitude/latitude.',
-    'A JSON summary (grid, bands, value ranges and the screening caution) goes to stdout. The caution is also in '
-      + 'the GeoTIFF description, on the first line of the CSV and in every contour.',
+    'Below 3,000 samples every cell is computed by exact kriging from all samples; from 3,000 samples on, from '
+      + 'its --neighbors nearest samples (local neighbourhoods from a kd-tree, the mean re-estimated in each unless '
+      + '--global-mean). --exact and --local override the choice, which is said on stderr ("note: predicted from the '
+      + '64 nearest samples at each target (local neighbourhoods); 48,211 samples ..."). The rows are shared out '
+      + 'among --workers threads; a run that lasts more than 2 s prints a progress line at every 10 %.',
+    'With --support block each cell holds the average over the cell (block kriging from all samples, fewer than '
+      + '3,000) instead of the value at its centre. With --realizations N, N conditional realisations add a band '
+      + '"P(... > T) from N realisations" (and, for a log model with block support, the realisations\' block mean) '
+      + 'and the summary gives the area above --threshold (m²; with --depth the volume, m³) as the median with 5 % '
+      + 'and 95 % values over the realisations. Those bands are written to GeoTIFF only.',
+    'A JSON summary (grid, method, bands, value ranges, the area above the threshold and the screening caution) '
+      + 'goes to stdout. The caution is also in the GeoTIFF description, on the first line of the CSV and in every contour.',
   ],
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
@@ -146,12 +233,17 @@ export const gridCommand: CommandSpec = {
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s) of the area (longitude/latitude); cells outside are no-data', defaultText: 'none: the samples\' extent' },
     { name: 'padding', kind: 'number', placeholder: 'F', help: 'margin around the samples\' extent as a fraction of its larger side (without --boundary)', defaultText: '0.05' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
-    { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', defaultText: 'about 8 round values over the range' },
+    { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', unit: 'the samples\' unit', defaultText: 'about 8 round values over the range' },
+    ...PREDICTION_PATH_OPTIONS,
+    { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
+    ...GRID_SIMULATION_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],
   examples: [
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --boundary data-demo/site-boundary.geojson --cell 2 --threshold 200 --out lead.tif',
     'gapwise grid --project site.gapwise.json --out lead-contours.geojson',
+    'gapwise grid --samples survey-48k.csv --model survey-model.json --cell 10 --neighbors 48 --out survey.tif',
+    'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --cell 5 --support block --realizations 200 --seed 3 --threshold 200 --depth 0.3 --out lead-blocks.tif',
   ],
   run,
 };

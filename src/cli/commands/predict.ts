@@ -1,17 +1,21 @@
 /**
  * `gapwise predict`: kriging at the points of a targets CSV with a given model (never refits).
  * The target rows are written back in their order and with their cells verbatim, with mean, sd,
- * sd_obs (and p_exceed with --threshold) appended.
+ * sd_obs (and p_exceed with --threshold) appended. Exact kriging from all samples below 3,000
+ * samples, local neighbourhoods (the --neighbors nearest samples of each target) from there on, or
+ * as --exact / --local say; the choice is a note on stderr.
  */
 import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { createPredictor } from '../../core/kriging.ts';
+import { createPredictor, type Prediction } from '../../core/kriging.ts';
+import { createLocalPredictor } from '../../core/local-kriging.ts';
 import { exceedanceProbability } from '../../core/normal.ts';
 import { createTransform } from '../../io/crs.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, modelWorkCrs, naming, outOption, printWarnings, readModelFile, readSamplesFile, readText,
-  writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
+  printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
+  type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { csvCell, formatNumber, readCsvTable, type CsvTable } from '../csv.ts';
 
@@ -95,9 +99,22 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   }
 
   const files = { samples: intake.report.fileName, model: modelPath };
-  const predictor = naming(files, () => createPredictor(intake.samples, model));
-  const warnings: Warning[] = [...predictor.warnings];
-  const p = naming(files, () => predictor.predict(work.x, work.y));
+  const n = intake.samples.value.length;
+  const path = readPredictionPath(values, n);
+  printWarnings(io, path.warnings);
+  const warnings: Warning[] = [];
+  let p: Prediction;
+  if (path.path === 'exact') {
+    const predictor = naming(files, () => createPredictor(intake.samples, model));
+    warnings.push(...predictor.warnings);
+    p = naming(files, () => predictor.predict(work.x, work.y));
+  } else {
+    const predictor = naming(files, () => createLocalPredictor(intake.samples, model, { neighbors: path.neighbors, globalMean: path.globalMean }));
+    const local = naming(files, () => predictor.predict(work.x, work.y));
+    warnings.push(...predictor.warnings);
+    p = local;
+  }
+  printNotes(io, [`${describePredictionPath(path, n)}; ${tx.length.toLocaleString('en-US')} targets`]);
   printWarnings(io, warnings);
 
   const d = table.delimiter;
@@ -132,6 +149,10 @@ export const predictCommand: CommandSpec = {
       + 'with --threshold, p_exceed = P(value > T) for the noise-free surface. For a log model mean is the '
       + 'bias-corrected data-scale mean and p_exceed is computed on the log scale. All values are in the unit of the '
       + 'samples.',
+    'Below 3,000 samples every target is predicted by exact kriging from all samples; from 3,000 samples on, '
+      + 'from its --neighbors nearest samples (local neighbourhoods, found with a kd-tree; the mean is re-estimated '
+      + 'in each, or with --global-mean taken from a GLS fit to all samples). --exact and --local override the '
+      + 'choice, which is said on stderr ("note: predicted from the 64 nearest samples at each target ...").',
     'The screening caution is printed on stderr (CSV has no place for it).',
   ],
   options: [
@@ -142,6 +163,7 @@ export const predictCommand: CommandSpec = {
     { name: 'targets-crs', kind: 'string', placeholder: 'CRS', help: 'CRS of the target coordinates', defaultText: '--crs, else the samples\' CRS' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds p_exceed = P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
     outOption('CSV file to write', 'stdout'),
+    ...PREDICTION_PATH_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],
   examples: [
