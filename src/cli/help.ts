@@ -3,7 +3,7 @@
  * examples and the screening caution.
  */
 import type { OptionSpec } from './args.ts';
-import { CAUTION, type CommandSpec } from './common.ts';
+import { CAUTION, EXACT_PREDICTION_LIMIT, count, type CommandSpec } from './common.ts';
 
 const WIDTH = 100;
 
@@ -71,7 +71,12 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
     '',
     'Every command that reads samples takes the same options (--samples FILE --value COL --x COL --y COL',
     '--crs CRS --work-crs CRS --non-detect half|dl|sqrt2 --duplicates merge|keep) and reads them the same',
-    'way as "gapwise inspect" does. Warnings go to stderr, each line starting with "warning: ".',
+    'way as "gapwise inspect" does. Warnings go to stderr, each line starting with "warning: "; how the',
+    'numbers were computed follows "note: ".',
+    '',
+    wrap(`Many samples: from ${count(EXACT_PREDICTION_LIMIT)} samples on, fit uses a nearest-neighbour likelihood `
+      + '(--method overrides), and predict, cv and grid predict from local neighbourhoods of --neighbors samples '
+      + '(--exact overrides); grid shares its rows out among worker threads, one per core.', 0),
     '',
     'Example:',
     '  gapwise inspect --samples data-demo/lead-topsoil.csv',

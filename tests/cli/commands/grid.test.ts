@@ -1,14 +1,39 @@
-// gapwise grid: the three outputs by extension, their contents against the engine, and input errors.
+// gapwise grid: the three outputs by extension, their contents against the engine, and input errors;
+// the automatic switch to local neighbourhoods on many samples and its agreement with exact kriging;
+// block support and realisations.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import * as gjv from 'geojson-validation';
 import { fromArrayBuffer } from 'geotiff';
-import { planarSamplesCsv, workspace, type Workspace } from '../run-cli.ts';
+import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace, type Workspace } from '../run-cli.ts';
 import { readSamples } from '../../../src/io/intake.ts';
 import { computeSurface } from '../../../src/core/surface.ts';
-import { gridFromExtent } from '../../../src/core/grid.ts';
+import { gridFromExtent, type Grid } from '../../../src/core/grid.ts';
+import { computeBlockSurface } from '../../../src/core/block-kriging.ts';
+import { simulateConditional } from '../../../src/core/conditional-simulation.ts';
+import { parseModel } from '../../../src/core/model.ts';
 import { CAUTION } from '../../../src/core/caution.ts';
+import { computeSurfaceSingle } from '../../../src/cli/parallel.ts';
+import { expectClose } from '../../helpers/tolerance.ts';
+
+/** The bands of a GeoTIFF in the workspace, as geotiff.js reads them. */
+async function readBands(ws: Workspace, name: string): Promise<Float32Array[]> {
+  const bytes = readFileSync(join(ws.dir, name));
+  const image = await (await fromArrayBuffer(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength))).getImage();
+  return (await image.readRasters()) as unknown as Float32Array[];
+}
+
+/** The grid a summary describes (no boundary, so no mask). */
+function gridOf(summary: { grid: Grid }): Grid {
+  const { x0, y0, cell, nx, ny } = summary.grid;
+  return { x0, y0, cell, nx, ny };
+}
+
+/** Float32 values with no-data (-9999) where the engine has NaN, as the GeoTIFF holds them. */
+function asWritten(a: ArrayLike<number>): number[] {
+  return Array.from(Float32Array.from(a), (v) => (Number.isNaN(v) ? -9999 : v));
+}
 
 const MODEL = {
   structures: [{ type: 'nugget', sill: 0.5 }, { type: 'exponential', sill: 12, scale: 80 }], trend: 'constant', transform: 'none',
@@ -24,6 +49,7 @@ describe('gapwise grid', () => {
   });
   afterAll(() => ws.remove());
   const base = ['--samples', 'wells.csv', '--crs', 'EPSG:32633', '--model', 'model.json', '--cell', '10', '--padding', '0'];
+  const base20 = base.map((v, i) => (base[i - 1] === '--cell' ? '20' : v));
 
   it('grid --out .tif writes mean, sd and P(exceed) equal to computeSurface on the planned grid, and a JSON summary with the caution', async () => {
     const r = await ws.run('grid', ...base, '--threshold', '25', '--out', 'n.tif');
@@ -72,5 +98,129 @@ describe('gapwise grid', () => {
     const none = await ws.run('grid', '--samples', 'wells.csv', '--out', 'n.tif');
     expect(none.code).toBe(2);
     expect(none.stderr).toContain('"--model FILE" is required for "gapwise grid" (or --project FILE)');
+  });
+
+  it('grid --support block writes block-kriged cells (computeBlockSurface) and says so in the summary and on stderr', async () => {
+    const r = await ws.run('grid', ...base20, '--support', 'block', '--block-points', '3', '--threshold', '25', '--out', 'block.tif');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    expect(summary).toMatchObject({ support: 'block', blockPoints: 3, method: 'block kriging', n: 25 });
+    expect(r.stderr).toContain(`note: block kriging: each of ${summary.grid.cells} cells averaged over 3 × 3 points, from all 25 samples\n`);
+    const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
+    const expected = computeBlockSurface(intake.samples, parseModel(MODEL), gridOf(summary), { points: 3, threshold: 25 });
+    const [mean, sd, p] = await readBands(ws, 'block.tif');
+    expect(Array.from(mean)).toEqual(asWritten(expected.mean));
+    expect(Array.from(sd)).toEqual(asWritten(expected.sd));
+    expect(Array.from(p)).toEqual(asWritten(expected.pExceed!));
+    // A block average varies less than the value at a point: its sd is smaller in every cell.
+    const point = computeSurface(intake.samples, parseModel(MODEL), gridOf(summary));
+    for (let k = 0; k < sd.length; k++) expect(sd[k]).toBeLessThan(point.sd[k]);
+  });
+
+  it('grid --realizations adds P(exceed) from the realisations as a band and the area and volume above the threshold (median, p5, p95) to the summary', async () => {
+    const r = await ws.run('grid', ...base20, '--realizations', '24', '--seed', '4', '--threshold', '25', '--depth', '0.5', '--out', 'sim.tif');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    expect(summary.bands).toEqual(['mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 25 mg/L)', 'P(value > 25 mg/L) from 24 realisations']);
+    expect(r.stderr).toContain('note: 24 conditional realisations (seed 4, point support)\n');
+    const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
+    const sim = simulateConditional(intake.samples, parseModel(MODEL), gridOf(summary), { count: 24, seed: 4, threshold: 25, depth: 0.5, keepRealisations: false });
+    const a = sim.area!;
+    expect(summary.realizations).toBe(24);
+    expect(summary.seed).toBe(4);
+    expect(summary.areaAbove).toEqual({ median: a.area.median, p5: a.area.p05, p95: a.area.p95, mean: a.area.mean, unit: 'm²' });
+    expect(summary.volumeAbove).toEqual({ median: a.volume!.median, p5: a.volume!.p05, p95: a.volume!.p95, mean: a.volume!.mean, unit: 'm³', depth: 0.5 });
+    expectClose(summary.volumeAbove.median, summary.areaAbove.median * 0.5, { rel: 1e-12 });
+    expect(summary.areaAbove.p5).toBeLessThanOrEqual(summary.areaAbove.p95);
+    const bands = await readBands(ws, 'sim.tif');
+    expect(bands.length).toBe(4);
+    expect(Array.from(bands[3])).toEqual(asWritten(sim.pExceed!));
+    // The share of realisations above T follows the closed-form P(exceed) (24 draws: within 0.35).
+    for (let k = 0; k < bands[3].length; k++) expect(Math.abs(bands[3][k] - bands[2][k])).toBeLessThan(0.35);
+  });
+
+  it('grid --realizations with a .csv output warns that the realisation bands go to GeoTIFF only, and keeps the area in the summary', async () => {
+    const r = await ws.run('grid', ...base20, '--realizations', '5', '--threshold', '25', '--out', 'sim.csv');
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('warning: The band "P(value > 25 mg/L) from 5 realisations" from the realisations is written to GeoTIFF only; use --out FILE.tif to keep it.\n');
+    expect(JSON.parse(r.stdout).areaAbove.unit).toBe('m²');
+  });
+
+  it('grid refuses contradictory path options, --neighbors with --exact, --workers 0 and --depth without realisations (exit 2)', async () => {
+    const both = await ws.run('grid', ...base, '--exact', '--local', '--out', 'x.tif');
+    expect(both.stderr).toBe('error: Options "--exact" and "--local" contradict each other; expected at most one of them.\n');
+    const m = await ws.run('grid', ...base, '--exact', '--neighbors', '10', '--out', 'x.tif');
+    expect(m.code).toBe(2);
+    expect(m.stderr).toContain('"--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact"');
+    const w = await ws.run('grid', ...base, '--workers', '0', '--out', 'x.tif');
+    expect(w.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
+    const d = await ws.run('grid', ...base, '--threshold', '25', '--depth', '1', '--out', 'x.tif');
+    expect(d.code).toBe(2);
+    expect(d.stderr).toContain('"--depth" needs "--realizations N"');
+    const block = await ws.run('grid', ...base, '--support', 'block', '--local', '--out', 'x.tif');
+    expect(block.stderr).toContain('apply to point support; block kriging uses all samples');
+  });
+});
+
+describe('gapwise grid on many samples', () => {
+  let ws: Workspace;
+  beforeAll(() => {
+    ws = workspace();
+    ws.write('field-5k.csv', fieldSamplesCsv(5000, 1));
+    ws.write('field-1k.csv', fieldSamplesCsv(1000, 2));
+    ws.write('field.json', JSON.stringify(FIELD_MODEL));
+  });
+  afterAll(() => ws.remove());
+  const model = parseModel(FIELD_MODEL);
+
+  it('grid on 5,000 samples switches to local neighbourhoods by itself, says so, and writes the local predictor\'s surfaces', async () => {
+    const r = await ws.run('grid', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--cell', '50', '--padding', '0', '--workers', '2', '--threshold', '35', '--out', 'big.tif');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    expect(summary).toMatchObject({ method: 'local neighbourhoods', neighbors: 64, globalMean: false, n: 5000 });
+    const cells = summary.grid.cells.toLocaleString('en-US');
+    expect(r.stderr).toContain(`note: predicted from the 64 nearest samples at each target (local neighbourhoods); 5,000 samples; chosen automatically from 3,000 samples (--exact overrides); ${cells} cells on 2 worker threads\n`);
+    const intake = readSamples(fieldSamplesCsv(5000, 1), { fileName: 'field-5k.csv', crs: 'EPSG:32633' });
+    const single = computeSurfaceSingle({ samples: intake.samples, model, grid: gridOf(summary), path: 'local', local: { neighbors: 64, globalMean: false }, surface: { threshold: 35 } });
+    const [mean, sd, p] = await readBands(ws, 'big.tif');
+    expect(Array.from(mean)).toEqual(asWritten(single.mean));
+    expect(Array.from(sd)).toEqual(asWritten(single.sd));
+    expect(Array.from(p)).toEqual(asWritten(single.pExceed!));
+  });
+
+  it('grid --block on 5,000 samples refuses: block kriging uses all samples (exit 2)', async () => {
+    const r = await ws.run('grid', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--support', 'block', '--out', 'x.tif');
+    expect(r.code).toBe(2);
+    expect(r.stderr).toBe('error: Block kriging (--support block) uses all samples and is limited to fewer than 3,000 of them; got 5,000. '
+      + 'Use --support point (local neighbourhoods from that many samples), or thin the samples.\n');
+  });
+
+  it('grid --local agrees with grid --exact on 1,000 samples: mean within 1 % of the prior sd, sd within 2 % (also with --global-mean)', async () => {
+    const common = ['--samples', 'field-1k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--cell', '25', '--padding', '0', '--workers', '2', '--out'];
+    const exact = await ws.run('grid', ...common, 'exact.tif', '--exact');
+    expect(exact.code, exact.stderr).toBe(0);
+    expect(exact.stderr).toContain('note: predicted by exact kriging from all 1,000 samples (--exact); ');
+    const local = await ws.run('grid', ...common, 'local.tif', '--local');
+    expect(local.code, local.stderr).toBe(0);
+    expect(local.stderr).toContain('note: predicted from the 64 nearest samples at each target (local neighbourhoods); 1,000 samples; ');
+    const global = await ws.run('grid', ...common, 'global.tif', '--local', '--global-mean');
+    expect(global.code, global.stderr).toBe(0);
+    expect(global.stderr).toContain('(local neighbourhoods, with the GLS mean of all samples); 1,000 samples;');
+    // Automatic choice below 3,000 samples: exact kriging, the same file.
+    const auto = await ws.run('grid', ...common, 'auto.tif');
+    expect(auto.stderr).toContain('note: predicted by exact kriging from all 1,000 samples; ');
+    expect(readFileSync(join(ws.dir, 'auto.tif')).equals(readFileSync(join(ws.dir, 'exact.tif')))).toBe(true);
+
+    const priorSd = Math.sqrt(178);
+    const [me, se] = await readBands(ws, 'exact.tif');
+    for (const name of ['local.tif', 'global.tif']) {
+      const [ml, sl] = await readBands(ws, name);
+      expect(ml.length).toBe(me.length);
+      expect(me.length).toBeGreaterThan(900);
+      // Tolerances of the local path: mean within 1 % of the prior sd, sd within 2 % of the exact sd.
+      expectClose(ml, me, { abs: 0.01 * priorSd }, `${name} mean`);
+      expectClose(sl, se, { rel: 0.02 }, `${name} sd`);
+      expect(Array.from(ml)).not.toEqual(Array.from(me));
+    }
   });
 });
