@@ -1,10 +1,12 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
 import { leaveOneOut } from '../../../src/core/cross-validation.ts';
+import { createPredictor } from '../../../src/core/kriging.ts';
 import { parseModel } from '../../../src/core/model.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
+import { localLeaveOneOut } from '../../../src/cli/commands/cv.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
-import { planarSamplesCsv, workspace } from '../run-cli.ts';
+import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace } from '../run-cli.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());
@@ -67,5 +69,82 @@ describe('cv command', () => {
     const r = await ws.run('cv', ...COMMON);
     expect(r.code).toBe(2);
     expect(r.stderr).toContain('Option "--model FILE" is required for "gapwise cv"');
+  });
+
+  it('cv --local --neighbors 24 on 25 samples (every other sample) gives the closed form\'s numbers, and says how it was done', async () => {
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--neighbors', '24', '--out', 'cv-local.csv');
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('note: each sample left out and predicted from the 24 nearest other samples (local neighbourhoods); 25 samples\n');
+    const summary = JSON.parse(r.stdout);
+    const direct = leaveOneOut(intake.samples, parseModel(MODEL)).summary;
+    expectClose([summary.me, summary.rmse, summary.msse], [direct.me, direct.rmse, direct.msse], { rel: 1e-9, abs: 1e-12 }, 'summary');
+    expect(summary.coverage95).toBe(direct.coverage95);
+  });
+
+  it('cv on 3,500 samples leaves each out of its 64 nearest others by itself, as localLeaveOneOut does', async () => {
+    ws.write('field.csv', fieldSamplesCsv(3500, 7));
+    ws.write('field.json', JSON.stringify(FIELD_MODEL));
+    const r = await ws.run('cv', '--samples', 'field.csv', '--crs', 'EPSG:32633', '--model', 'field.json');
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('note: each sample left out and predicted from the 64 nearest other samples (local neighbourhoods); 3,500 samples; chosen automatically from 3,000 samples (--exact overrides)\n');
+    const summary = JSON.parse(r.stdout);
+    const field = readSamples(fieldSamplesCsv(3500, 7), { fileName: 'field.csv', crs: 'EPSG:32633' });
+    expect(summary).toEqual({ ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbors: 64 }).summary, scale: 'data', unit: '', caution: CAUTION });
+    // The field's noise has sd 0.5 (run-cli.ts): errors of about that size, honest sds.
+    expect(summary.rmse).toBeGreaterThan(0.4);
+    expect(summary.rmse).toBeLessThan(0.7);
+    expect(Math.abs(summary.msse - 1)).toBeLessThan(0.2);
+    expect(Math.abs(summary.coverage95 - 0.95)).toBeLessThan(0.02);
+  });
+});
+
+describe('localLeaveOneOut', () => {
+  it('localLeaveOneOut with every other sample as neighbours equals the closed form (Dubrule 1983): ordinary, universal, log and anisotropic', () => {
+    const models = [
+      MODEL,
+      { ...MODEL, trend: 'linear' },
+      { structures: [{ type: 'nugget', sill: 0.002 }, { type: 'exponential', sill: 0.04, scale: 60 }], trend: 'constant', transform: 'log' },
+      { ...MODEL, anisotropy: { azimuth: 30, ratio: 0.5 } },
+      { ...MODEL, trend: { known: 24 } },
+    ];
+    for (const m of models) {
+      const model = parseModel(m);
+      const closed = leaveOneOut(intake.samples, model);
+      const local = localLeaveOneOut(intake.samples, model, { neighbors: 24 });
+      const what = JSON.stringify(m.trend) + (model.anisotropy ? ' anisotropic' : '') + model.transform;
+      expect(local.scale, what).toBe(closed.scale);
+      expectClose(local.prediction, closed.prediction, { rel: 1e-9 }, `${what} prediction`);
+      expectClose(local.sdObserved, closed.sdObserved, { rel: 1e-9 }, `${what} sdObserved`);
+      expectClose(local.error, closed.error, { abs: 1e-9 }, `${what} error`);
+    }
+  });
+
+  it('localLeaveOneOut with few neighbours leaves the sample itself out (a coincident copy is still used) and differs from the closed form', () => {
+    const model = parseModel(MODEL);
+    const few = localLeaveOneOut(intake.samples, model, { neighbors: 6 });
+    const closed = leaveOneOut(intake.samples, model);
+    expect(Array.from(few.prediction)).not.toEqual(Array.from(closed.prediction));
+    // Leaving a sample out never predicts it perfectly here (no zero errors) and sds include the nugget.
+    for (let i = 0; i < 25; i++) {
+      expect(few.error[i]).not.toBe(0);
+      expect(few.sdObserved[i]).toBeGreaterThan(Math.sqrt(1.2));
+    }
+    // A duplicated sample: its twin is its nearest other sample and predicts it almost exactly.
+    const x = Float64Array.from([...intake.samples.x, intake.samples.x[0]]);
+    const y = Float64Array.from([...intake.samples.y, intake.samples.y[0]]);
+    const v = Float64Array.from([...intake.samples.value, intake.samples.value[0]]);
+    const twin = localLeaveOneOut({ x, y, value: v }, parseModel({ ...MODEL, structures: [{ type: 'nugget', sill: 1e-6 }, MODEL.structures[1]] }), { neighbors: 6 });
+    expect(Math.abs(twin.error[0])).toBeLessThan(1e-3);
+    expect(Math.abs(twin.error[25])).toBeLessThan(1e-3);
+  });
+
+  it('localLeaveOneOut with the global mean uses the GLS mean of all samples as a known mean', () => {
+    const model = parseModel(MODEL);
+    const global = localLeaveOneOut(intake.samples, model, { neighbors: 24, globalMean: true });
+    // With every other sample it is simple kriging around the GLS mean β̂ of all 25 samples.
+    const beta = createPredictor(intake.samples, model).beta[0];
+    const simple = localLeaveOneOut(intake.samples, parseModel({ ...MODEL, trend: { known: beta } }), { neighbors: 24 });
+    expectClose(global.prediction, simple.prediction, { rel: 1e-9 }, 'prediction');
+    expectClose(global.sdObserved, simple.sdObserved, { rel: 1e-9 }, 'sdObserved');
   });
 });

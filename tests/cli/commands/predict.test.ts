@@ -1,11 +1,12 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
 import { createPredictor } from '../../../src/core/kriging.ts';
+import { createLocalPredictor } from '../../../src/core/local-kriging.ts';
 import { parseModel } from '../../../src/core/model.ts';
 import { normalCdf } from '../../../src/core/normal.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { loadFixture } from '../../helpers/fixtures.ts';
-import { planarSamplesCsv, workspace } from '../run-cli.ts';
+import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace } from '../run-cli.ts';
 
 interface RefTarget { crs: string; x: number; y: number; mean: number; sd: number; sdObserved: number }
 interface RefFixture { samples: Array<{ id: string; x: number; y: number; value: number }>; model: unknown }
@@ -133,5 +134,48 @@ describe('predict command', () => {
     expect(r.code).toBe(3);
     expect(r.stderr).toContain('error: The linear trend cannot be estimated: the samples lie on a line');
     expect(r.stderr).not.toMatch(/\n\s+at /);
+  });
+
+  it('predict --local --neighbors 8 gives the local predictor\'s numbers (p_exceed on the log scale for a log model) and says so on stderr', async () => {
+    const logModel = { structures: [{ type: 'nugget', sill: 0.01 }, { type: 'matern', sill: 0.05, scale: 70, nu: 1.5 }], trend: 'constant', transform: 'log' };
+    ws.write('log-local.json', JSON.stringify({ ...logModel, crs: { work: 'EPSG:32633' } }));
+    ws.write('two.csv', 'easting,northing\n500050,5400050\n500170,5400020\n');
+    const r = await ws.run('predict', ...COMMON, '--model', 'log-local.json', '--targets', 'two.csv', '--threshold', '22', '--local', '--neighbors', '8');
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('note: predicted from the 8 nearest samples at each target (local neighbourhoods); 25 samples; 2 targets\n');
+    const rows = csvRows(r.stdout).slice(1).map((c) => c.map(Number));
+    const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
+    const p = createLocalPredictor(intake.samples, parseModel(logModel), { neighbors: 8 }).predict([500050, 500170], [5400050, 5400020]);
+    for (let i = 0; i < 2; i++) {
+      expectClose(rows[i][2], p.mean[i], { rel: 1e-10 }, `mean ${i}`);
+      expectClose(rows[i][3], p.sd[i], { rel: 1e-10 }, `sd ${i}`);
+      expectClose(rows[i][4], p.sdObserved[i], { rel: 1e-10 }, `sd_obs ${i}`);
+      expectClose(rows[i][5], 1 - normalCdf((Math.log(22) - p.logMean![i]) / p.logSd![i]), { rel: 1e-9 }, `p_exceed ${i}`);
+    }
+    // Eight neighbours are not all 25 samples: the numbers differ from exact kriging.
+    const exact = createPredictor(intake.samples, parseModel(logModel)).predict([500050, 500170], [5400050, 5400020]);
+    expect(rows[1][2]).not.toBe(Number(exact.mean[1].toPrecision(12)));
+  });
+
+  it('predict on 5,000 samples predicts from the 64 nearest samples by itself, with the local predictor\'s numbers', async () => {
+    ws.write('field-5k.csv', fieldSamplesCsv(5000, 6));
+    ws.write('field.json', JSON.stringify(FIELD_MODEL));
+    ws.write('field-targets.csv', 'easting,northing\n500400,5400400\n501000,5401200\n501700,5400100\n');
+    const args = ['--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--targets', 'field-targets.csv'];
+    const r = await ws.run('predict', ...args);
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('note: predicted from the 64 nearest samples at each target (local neighbourhoods); 5,000 samples; chosen automatically from 3,000 samples (--exact overrides); 3 targets\n');
+    const rows = csvRows(r.stdout).slice(1).map((c) => c.map(Number));
+    const intake = readSamples(fieldSamplesCsv(5000, 6), { fileName: 'field-5k.csv', crs: 'EPSG:32633' });
+    const p = createLocalPredictor(intake.samples, parseModel(FIELD_MODEL)).predict([500400, 501000, 501700], [5400400, 5401200, 5400100]);
+    expectClose(rows.map((c) => c[2]), p.mean, { rel: 1e-10 }, 'mean');
+    expectClose(rows.map((c) => c[3]), p.sd, { rel: 1e-10 }, 'sd');
+  });
+
+  it('predict --neighbors on few samples is not used (exact kriging) and says so', async () => {
+    const r = await ws.run('predict', ...COMMON, '--model', 'smooth.json', '--targets', SAMPLES, '--neighbors', '10');
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toContain('warning: --neighbors 10 is not used: 25 samples are few enough for exact kriging from all of them; add --local to predict from neighbourhoods.\n');
+    expect(r.stderr).toContain('note: predicted by exact kriging from all 25 samples; 25 targets\n');
   });
 });

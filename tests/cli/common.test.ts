@@ -1,0 +1,75 @@
+// The shared CLI pieces: the exact-or-local choice of predict, cv and grid, its note, and progress lines.
+import { describe, expect, it } from 'vitest';
+import {
+  describePredictionPath, progressLine, readPredictionPath, type CliIo,
+} from '../../src/cli/common.ts';
+import { GapwiseError } from '../../src/core/errors.ts';
+
+describe('readPredictionPath', () => {
+  it('readPredictionPath chooses exact kriging below 3,000 samples and local neighbourhoods of 64 from 3,000 on', () => {
+    expect(readPredictionPath({}, 2999)).toEqual({ path: 'exact', neighbors: 64, globalMean: false, automatic: true, warnings: [] });
+    expect(readPredictionPath({}, 3000)).toEqual({ path: 'local', neighbors: 64, globalMean: false, automatic: true, warnings: [] });
+    expect(readPredictionPath({ neighbors: 32, 'global-mean': true }, 48211)).toEqual({ path: 'local', neighbors: 32, globalMean: true, automatic: true, warnings: [] });
+  });
+
+  it('readPredictionPath: --exact and --local override the count; --neighbors unused on the exact path is a warning', () => {
+    expect(readPredictionPath({ exact: true }, 9000)).toMatchObject({ path: 'exact', automatic: false });
+    expect(readPredictionPath({ local: true, neighbors: 10 }, 40)).toMatchObject({ path: 'local', neighbors: 10, automatic: false, warnings: [] });
+    expect(readPredictionPath({ neighbors: 10 }, 40).warnings).toEqual([
+      '--neighbors 10 is not used: 40 samples are few enough for exact kriging from all of them; add --local to predict from neighbourhoods.',
+    ]);
+  });
+
+  it('readPredictionPath refuses contradictions, bad neighbour counts and --exact above 10,000 samples (GapwiseError bad-option)', () => {
+    expect(() => readPredictionPath({ exact: true, local: true }, 10)).toThrow(GapwiseError);
+    expect(() => readPredictionPath({ neighbors: 0 }, 10)).toThrow('Option "--neighbors" expects a whole number of samples from 1 to 2,000, got 0.');
+    expect(() => readPredictionPath({ neighbors: 2.5 }, 10)).toThrow('got 2.5');
+    expect(() => readPredictionPath({ exact: true, neighbors: 8 }, 10)).toThrow(/does not apply with "--exact"/);
+    expect(() => readPredictionPath({ exact: true }, 10_001)).toThrow(
+      'Option "--exact" is limited to 10,000 samples (its matrix takes 8·n² bytes, here 0.8 GB), got 10,001; leave it out to predict from local neighbourhoods.');
+    expect(readPredictionPath({ exact: true }, 10_000).path).toBe('exact');
+  });
+});
+
+describe('describePredictionPath', () => {
+  it('describePredictionPath says which path, how many neighbours and samples, and whether it was chosen automatically', () => {
+    expect(describePredictionPath(readPredictionPath({}, 48211), 48211))
+      .toBe('predicted from the 64 nearest samples at each target (local neighbourhoods); 48,211 samples; chosen automatically from 3,000 samples (--exact overrides)');
+    expect(describePredictionPath(readPredictionPath({ local: true, 'global-mean': true, neighbors: 100 }, 40), 40))
+      .toBe('predicted from the 40 nearest samples at each target (local neighbourhoods, with the GLS mean of all samples); 40 samples');
+    expect(describePredictionPath(readPredictionPath({}, 25), 25)).toBe('predicted by exact kriging from all 25 samples');
+    expect(describePredictionPath(readPredictionPath({ exact: true }, 5000), 5000)).toBe('predicted by exact kriging from all 5,000 samples (--exact)');
+  });
+});
+
+describe('progressLine', () => {
+  function capture(): { io: CliIo; lines: string[] } {
+    const lines: string[] = [];
+    return { io: { stdout: () => undefined, stderr: (t) => { lines.push(t); }, cwd: '.' }, lines };
+  }
+
+  it('progressLine stays quiet for a run shorter than 2 s', () => {
+    const { io, lines } = capture();
+    let t = 0;
+    const p = progressLine(io, 'cells', { now: () => t });
+    for (let done = 0; done <= 1000; done += 50) {
+      t += 50; // 1.05 s in all
+      p(done, 1000);
+    }
+    expect(lines).toEqual([]);
+  });
+
+  it('progressLine prints at each further tenth once the run has lasted 2 s, with the total and the seconds', () => {
+    const { io, lines } = capture();
+    let t = 0;
+    const p = progressLine(io, 'cells', { now: () => t });
+    for (let done = 0; done <= 250_000; done += 5000) {
+      t += 100; // 0.1 s per 5,000 cells: 5 s in all
+      p(done, 250_000);
+    }
+    // At 2 s, 95,000 of 250,000 cells (38 %) are done: the first line reports the tenth reached, 30 %.
+    expect(lines[0]).toBe('progress: 30 % of 250,000 cells (2 s)\n');
+    expect(lines.map((l) => Number(/(\d+) %/.exec(l)![1]))).toEqual([30, 40, 50, 60, 70, 80, 90, 100]);
+    expect(lines.at(-1)).toBe('progress: 100 % of 250,000 cells (5 s)\n');
+  });
+});
