@@ -66,7 +66,7 @@ async function computeSurface(page: Page): Promise<number> {
   await page.click('[data-testid=compute-surface]');
   await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
   const seconds = (Date.now() - t0) / 1000;
-  await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT });
+  await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
   return seconds;
 }
 
@@ -164,12 +164,12 @@ describe('Gapwise in the browser', () => {
 
     await page.locator('input[name=layer][value=sd]').check();
     await page.waitForSelector('[data-testid=surface-legend][data-kind=sd]');
-    await page.waitForSelector('[data-testid=surface-layer][data-layer=sd]');
+    await page.waitForSelector('[data-testid=surface-layer][data-layer=sd]', { state: 'attached' });
     figures.push(`screenshot ${await shot(page, '3-surface-sd')}`);
 
     await page.locator('input[name=layer][value=exceed]').check();
     await page.waitForSelector('[data-testid=surface-legend][data-kind=pExceed]');
-    await page.waitForSelector('[data-testid=surface-layer][data-layer=pExceed]');
+    await page.waitForSelector('[data-testid=surface-layer][data-layer=pExceed]', { state: 'attached' });
     const legend = await page.locator('[data-testid=surface-legend]').innerText();
     expect(legend).toMatch(/Chance of exceeding 200 mg\/kg/);
     expect(legend).toMatch(/unlikely/);
@@ -198,7 +198,7 @@ describe('Gapwise in the browser', () => {
     await page.waitForSelector('.app[data-ready=yes][data-restored=yes]');
     // The surface step was open and a surface was wanted: it is computed again.
     await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
-    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT });
+    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
     expect(await page.locator('#threshold').inputValue()).toBe('200');
     await openStep(page, 'structure');
     expect(await page.locator('[data-testid=model-in-use]').innerText()).toMatch(/Matérn ν = 0.5/);
@@ -225,15 +225,19 @@ describe('Gapwise in the browser', () => {
     await chooseCrs(page, 'EPSG:32633');
     await page.waitForSelector('path[data-sample-id]');
     await fitAll(page);
-    // A zero nugget: the surface passes through the samples.
+    // The exponential candidate with a zero nugget and a 30 m scale: the surface passes through the
+    // samples (a well-conditioned system, no jitter) and changes within a few cells of each one.
+    await page.locator('[data-testid=candidate-table] tr[data-key="exponential"] input[type=radio]').check();
     await page.fill('#model-nugget', '0');
     await page.locator('#model-nugget').press('Enter');
+    await page.fill('#model-scale', '30');
+    await page.locator('#model-scale').press('Enter');
+    await page.waitForFunction(() => /Exponential \(edited by hand\); practical range 89\.9 m/.test(document.querySelector('[data-testid=model-in-use]')?.textContent ?? ''));
     await page.waitForFunction(() => /edited by hand/.test(document.querySelector('[data-testid=model-in-use]')?.textContent ?? ''));
     await openStep(page, 'surface');
     await page.fill('#cell-size', '5');
     await page.locator('#cell-size').press('Enter');
     await page.waitForFunction(() => /cells of 5 m/.test(document.querySelector('[data-testid=grid-summary]')?.textContent ?? ''));
-    await page.fill('#opacity', '1');
     await computeSurface(page);
     const scale = await page.evaluate(() => (window as unknown as { __gapwiseTest: { meanScale(): { domain: [number, number]; steps: number } } }).__gapwiseTest.meanScale());
     const points = await page.evaluate(() => (window as unknown as { __gapwiseTest: { samplePoints(): Array<{ id: string; value: number; pageX: number; pageY: number }> } }).__gapwiseTest.samplePoints());
@@ -279,7 +283,7 @@ describe('Gapwise in the browser', () => {
     const off = chosen[1];
     const rgbaOff = await pixelAt(off.pageX + 12 / mPerPx, off.pageY);
     expect(Math.abs(valueOf(rgbaOff!) - off.value)).toBeGreaterThan(2 * step);
-    figures.push(`colour read-back: 3 samples within one colour step (${step.toFixed(3)} mg/kg-free units) in EPSG:32633, ${mPerPx.toFixed(3)} m per pixel`);
+    figures.push(`colour read-back: 3 samples within one colour step (${step.toFixed(3)} data units) in EPSG:32633, ${mPerPx.toFixed(3)} m per pixel`);
     figures.push(`screenshot ${await shot(page, '6-readback-grid')}`);
     expectClean(w);
     await w.context.close();

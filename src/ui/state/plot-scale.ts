@@ -104,7 +104,16 @@ export function formatDistance(m: number): string {
 /** A duration in seconds as "0.4 s", "12 s" or "3 min". */
 export function formatDuration(s: number): string {
   if (!Number.isFinite(s)) return '–';
+  if (s < 0.1) return 'under 0.1 s';
   if (s < 1) return `${formatNumber(s, 1)} s`;
   if (s < 90) return `${Math.round(s)} s`;
   return `${Math.round(s / 60)} min`;
+}
+
+/** A short axis label: 100k, 1.5M, 0.25, −3. */
+export function formatTick(v: number): string {
+  const a = Math.abs(v);
+  if (a >= 1e6) return `${formatNumber(v / 1e6)}M`;
+  if (a >= 1e4) return `${formatNumber(v / 1e3)}k`;
+  return formatNumber(v);
 }

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  formatDistance, formatDuration, formatNumber, histogram, linearScale, niceDomain, niceTicks, tickStep,
+  formatDistance, formatDuration, formatNumber, formatTick, histogram, linearScale, niceDomain, niceTicks, tickStep,
 } from '../../../src/ui/state/plot-scale.ts';
 
 describe('linearScale', () => {
@@ -66,7 +66,17 @@ describe('formatNumber / formatDistance / formatDuration', () => {
   });
   it('formatDuration gives seconds under 90 s and minutes above', () => {
     expect(formatDuration(0.42)).toBe('0.4 s');
+    expect(formatDuration(0.0008)).toBe('under 0.1 s');
     expect(formatDuration(12.4)).toBe('12 s');
     expect(formatDuration(200)).toBe('3 min');
+  });
+});
+
+describe('formatTick', () => {
+  it('formatTick shortens thousands and millions', () => {
+    expect(formatTick(150000)).toBe('150k');
+    expect(formatTick(2500000)).toBe('2.5M');
+    expect(formatTick(5000)).toBe('5,000');
+    expect(formatTick(0.25)).toBe('0.25');
   });
 });
