@@ -92,6 +92,7 @@ describe('Gapwise in the browser', () => {
     expect(await page.locator('[data-testid=source-name]').innerText()).toBe('lead-topsoil.csv');
     expect(await page.locator('[data-testid=invented-tag]').innerText()).toBe('invented');
     expect(await page.locator('[data-testid=invented-note]').innerText()).toMatch(/Invented demo data/);
+    expect(await page.locator('[data-testid=map-invented]').innerText()).toMatch(/Invented demo site/);
     // 150 rows read, all used (the duplicate pair is merged into one sample).
     expect(await page.locator('[data-testid=rows-used]').innerText()).toBe('150');
     expect(await page.locator('#value-column').inputValue()).toBe('Pb (mg/kg)');
