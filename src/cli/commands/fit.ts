@@ -130,7 +130,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
   }
   printWarnings(io, fit?.warnings ?? []);
-  if (fit && !fit.converged) printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);
+  // The engine's own warnings usually say so already; this line covers a fit that does not.
+  if (fit && !fit.converged && !(fit.warnings ?? []).some((w) => /optimiser stopped/i.test(w))) {
+    printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);
+  }
 
   const r = intake.report;
   const out = {
