@@ -45,7 +45,9 @@ function kebab(name: string): string {
 
 /** Fitting choices of the project's model as `fit` options (family, nu, method, trend, transform). */
 function fitValues(project: Project, model: CovarianceModel): OptionValues {
-  const out: OptionValues = { method: project.structure.method, transform: project.structure.transform };
+  // 'auto' is REML below the exact limit and the nearest-neighbour likelihood above it, as in the app.
+  const method = project.structure.method === 'reml' ? 'auto' : project.structure.method;
+  const out: OptionValues = { method, transform: project.structure.transform };
   const corr = model.structures.find((s) => s.type !== 'nugget') as { type: Family; nu?: number } | undefined;
   if (corr) {
     out.family = corr.type;
