@@ -10,11 +10,18 @@
  * Transparency: outside the grid or mask, NaN values, and (with `hideAboveSd`) cells whose sd is
  * above that level. Written Leaflet's way: options with defaults, `createTile(coords, done)`, no
  * framework code; a Svelte component creates it and calls its setters.
+ *
+ * Two departures from Leaflet's tile defaults, both so that a finished layer shows exactly the
+ * computed values: tiles are not faded in (Leaflet fires 'load' while the last tiles are still at
+ * opacity 0, so a layer swapped in on 'load' showed lighter, half-faded rectangles), and each tile
+ * reaches OVERLAP px past its right and bottom edges (at fractional zoom the scaled tiles otherwise
+ * leave hairline seams where the background shows through).
  */
 import L from 'leaflet';
 import type { Grid } from '../../core/grid.ts';
 import { buildLut, type ScaleName } from './colour-scales.ts';
 import { buildTileLattice, paintTile, readCell, type CellReading, type TileLattice, type ToWork } from './tile-lookup.ts';
+import { provideTestHook, type TestHook } from '../state/test-hook.ts';
 
 export type SurfaceValues = Float32Array | Float64Array;
 
@@ -55,6 +62,24 @@ const DEFAULTS: SurfaceLayerOptions = {
 interface TileRecord {
   el: HTMLElement;
   coords: L.Coords;
+  current?: boolean;
+  loaded?: number;
+  active?: boolean;
+}
+
+/** Pixels each tile reaches past its right and bottom edges (covers seams at fractional zoom). */
+export const OVERLAP = 1;
+
+/** What the tests read back at a page position: the value drawn there and the cell centre. */
+export interface SurfaceProbe {
+  value: number;
+  sd: number | null;
+  /** Page position of the centre of the cell holding the point. */
+  centreX: number;
+  centreY: number;
+  domain: [number, number];
+  scale: ScaleName;
+  opacity: number;
 }
 
 /** The cursor readout: the value (mean, sd or probability) and the sd of the cell under a point. */
@@ -64,18 +89,60 @@ export class SurfaceLayer extends L.GridLayer {
   declare options: SurfaceLayerOptions;
   private lut: Uint8ClampedArray;
   private lattices = new WeakMap<HTMLCanvasElement, TileLattice>();
+  private contexts = new WeakMap<HTMLCanvasElement, CanvasRenderingContext2D>();
+  private images = new WeakMap<HTMLCanvasElement, ImageData>();
 
   constructor(options: SurfaceLayerOptions = {}) {
     super(options);
     this.lut = buildLut(this.options.scale ?? 'loam');
+    // The layer that last finished loading answers the tests' read-back (see probe()).
+    this.on('load', () => provideTestHook({ surfaceProbe: (x: number, y: number) => this.probe(x, y) } as Partial<TestHook>));
+  }
+
+  /**
+   * The value this layer draws at a page position (CSS px), with the page position of that cell's
+   * centre, or null outside the drawn cells. For the browser tests' colour read-back.
+   */
+  probe(pageX: number, pageY: number): SurfaceProbe | null {
+    const map = this._map;
+    const { grid, values, sd, toWork } = this.options;
+    if (!map || !grid || !values || !toWork) return null;
+    const rect = map.getContainer().getBoundingClientRect();
+    const ll = map.containerPointToLatLng(L.point(pageX - rect.left, pageY - rect.top));
+    const c = readCell(grid, values, sd, toWork, ll.lng, ll.lat);
+    if (!c) return null;
+    // Cell centre back to the page: invert toWork numerically (two Newton steps on the map's own
+    // pixel → working-CRS mapping, which is smooth over a cell).
+    const cx = grid.x0 + (c.i + 0.5) * grid.cell, cy = grid.y0 - (c.j + 0.5) * grid.cell;
+    let px = pageX - rect.left, py = pageY - rect.top;
+    const at = (qx: number, qy: number): [number, number] => {
+      const q = map.containerPointToLatLng(L.point(qx, qy));
+      return toWork(q.lng, q.lat);
+    };
+    for (let it = 0; it < 3; it++) {
+      const [x, y] = at(px, py);
+      const [xr, yr] = at(px + 1, py);
+      const [xd, yd] = at(px, py + 1);
+      const a = xr - x, b = xd - x, cc = yr - y, d = yd - y;
+      const det = a * d - b * cc;
+      if (!(Math.abs(det) > 0)) break;
+      const ex = cx - x, ey = cy - y;
+      px += (d * ex - b * ey) / det;
+      py += (-cc * ex + a * ey) / det;
+    }
+    return {
+      value: c.value, sd: c.sd, centreX: rect.left + px, centreY: rect.top + py,
+      domain: [...(this.options.domain ?? [0, 1])] as [number, number], scale: this.options.scale ?? 'loam',
+      opacity: this.options.opacity ?? 1,
+    };
   }
 
   /** Leaflet calls this for each tile; the tile is painted on the next tick so tiles appear one by one. */
   protected override createTile(coords: L.Coords, done: L.DoneCallback): HTMLElement {
     const canvas = document.createElement('canvas');
     const size = this.getTileSize();
-    canvas.width = size.x;
-    canvas.height = size.y;
+    canvas.width = size.x + OVERLAP;
+    canvas.height = size.y + OVERLAP;
     setTimeout(() => {
       try {
         this.prepareTile(canvas, coords, size);
@@ -92,7 +159,7 @@ export class SurfaceLayer extends L.GridLayer {
     const toWork = this.options.toWork;
     if (!map || !toWork) return;
     const origin = coords.scaleBy(size);
-    const lattice = buildTileLattice(origin.x, origin.y, size.x, size.y, this.options.latticeStep ?? 16,
+    const lattice = buildTileLattice(origin.x, origin.y, size.x + OVERLAP, size.y + OVERLAP, this.options.latticeStep ?? 16,
       (px, py) => {
         const ll = map.unproject(L.point(px, py), coords.z);
         return [ll.lng, ll.lat];
@@ -103,14 +170,23 @@ export class SurfaceLayer extends L.GridLayer {
 
   private paint(canvas: HTMLCanvasElement): void {
     const lattice = this.lattices.get(canvas);
-    const ctx = canvas.getContext('2d');
-    if (!ctx) return;
+    let ctx = this.contexts.get(canvas);
+    if (!ctx) {
+      // One context per tile, kept: creating a context is a good part of a tile's cost.
+      ctx = canvas.getContext('2d', { willReadFrequently: true }) ?? undefined;
+      if (!ctx) return;
+      this.contexts.set(canvas, ctx);
+    }
     const { grid, values, sd, hideAboveSd, domain } = this.options;
     if (!lattice || !grid || !values) {
       ctx.clearRect(0, 0, canvas.width, canvas.height);
       return;
     }
-    const image = ctx.createImageData(canvas.width, canvas.height);
+    let image = this.images.get(canvas);
+    if (!image || image.width !== canvas.width || image.height !== canvas.height) {
+      image = ctx.createImageData(canvas.width, canvas.height);
+      this.images.set(canvas, image);
+    }
     paintTile(lattice, { grid, values, sd, hideAboveSd, lut: this.lut, domain: domain ?? [0, 1] }, image.data);
     ctx.putImageData(image, 0, 0);
   }
@@ -118,16 +194,36 @@ export class SurfaceLayer extends L.GridLayer {
   /**
    * Repaints the tiles on the map from their kept lattices (no projection): after new values (a
    * band from the worker pool written into the same array), a scale, domain or sd cut-off change.
+   * One tile per task, so the page stays responsive; a repaint asked for while one is under way
+   * restarts the queue with every tile.
    */
   repaint(): this {
     // Leaflet keeps its current tiles in `_tiles` (key → {el, coords, current}).
     const tiles = (this as unknown as { _tiles?: Record<string, TileRecord> })._tiles;
     if (!tiles) return this.redraw();
+    this.queue = [];
     for (const key of Object.keys(tiles)) {
       const el = tiles[key].el;
-      if (el instanceof HTMLCanvasElement && this.lattices.has(el)) this.paint(el);
+      if (el instanceof HTMLCanvasElement && this.lattices.has(el)) this.queue.push(el);
     }
+    this.drainSoon();
     return this;
+  }
+
+  /** Tiles waiting to be repainted, and whether a task is scheduled to paint the next one. */
+  private queue: HTMLCanvasElement[] = [];
+  private draining = false;
+
+  private drainSoon(): void {
+    if (this.draining || this.queue.length === 0) return;
+    this.draining = true;
+    setTimeout(() => {
+      this.draining = false;
+      const canvas = this.queue.shift();
+      if (canvas && canvas.isConnected) this.paint(canvas);
+      if (this.queue.length === 0) this.fire('repainted');
+      else this.drainSoon();
+    }, 0);
   }
 
   /**
@@ -176,6 +272,36 @@ export class SurfaceLayer extends L.GridLayer {
     return readCell(grid, values ?? null, sd, toWork, ll.lng, ll.lat);
   }
 }
+
+// Leaflet internals overridden on the prototype (they are not in its type declarations).
+interface GridInternals {
+  _map: (L.Map & { _fadeAnimated?: boolean }) | null;
+  getTileSize(): L.Point;
+}
+const gridProto = L.GridLayer.prototype as unknown as Record<string, (...args: unknown[]) => unknown>;
+const ownProto = SurfaceLayer.prototype as unknown as Record<string, (...args: unknown[]) => unknown>;
+
+// Tiles are shown at full opacity when painted (no fade-in): 'load' then means what it says.
+ownProto._tileReady = function (this: GridInternals, ...args: unknown[]) {
+  const map = this._map;
+  if (!map) return gridProto._tileReady.apply(this, args);
+  const fade = map._fadeAnimated;
+  map._fadeAnimated = false;
+  try {
+    return gridProto._tileReady.apply(this, args);
+  } finally {
+    map._fadeAnimated = fade;
+  }
+};
+
+// Each tile reaches OVERLAP px past its edges (the canvas is that much larger, see createTile).
+ownProto._initTile = function (this: GridInternals, ...args: unknown[]) {
+  gridProto._initTile.apply(this, args);
+  const tile = args[0] as HTMLElement;
+  const size = this.getTileSize();
+  tile.style.width = `${size.x + OVERLAP}px`;
+  tile.style.height = `${size.y + OVERLAP}px`;
+};
 
 // Leaflet's way of declaring option defaults: on the prototype, inheriting GridLayer's.
 SurfaceLayer.prototype.options = L.Util.extend(Object.create(L.GridLayer.prototype.options), DEFAULTS);

@@ -1,0 +1,150 @@
+/**
+ * The Surface step in headless Chromium (dist/ on 127.0.0.1, every outside request aborted): the
+ * exceedance layer's on-screen colours against the computed values cell by cell, and the longest
+ * main-thread task while a surface is computed and drawn (printed, never asserted).
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright-core';
+import { startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
+import { buildLut, type ScaleName } from '../src/ui/map/colour-scales.ts';
+
+const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
+const LONG = 600_000;
+const WAIT = 240_000;
+
+let h: Harness;
+const figures: string[] = [];
+
+beforeAll(async () => {
+  h = await startHarness();
+});
+
+afterAll(async () => {
+  await h?.close();
+  if (figures.length) console.log(`\nGapwise surface figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
+});
+
+async function openStep(page: Page, id: string): Promise<void> {
+  const button = page.locator(`#${id}-heading button`);
+  if ((await button.getAttribute('aria-expanded')) !== 'true') await button.click();
+  await page.waitForSelector(`#${id}-body:not([hidden])`);
+}
+
+function expectClean(w: Watched): void {
+  expect(w.outside, 'requests that left the machine').toEqual([]);
+  expect(w.pageErrors, 'uncaught page errors').toEqual([]);
+  expect(w.consoleErrors, 'console errors').toEqual([]);
+}
+
+interface Probe {
+  value: number; sd: number | null; centreX: number; centreY: number;
+  domain: [number, number]; scale: ScaleName; opacity: number;
+}
+
+/** The page's pixels (RGBA, CSS px at device scale 1) from a screenshot, decoded in the page. */
+async function screenPixels(page: Page): Promise<{ width: number; height: number; data: number[] }> {
+  const png = await page.screenshot({ fullPage: false });
+  return page.evaluate(async (b64) => {
+    const img = new Image();
+    img.src = `data:image/png;base64,${b64}`;
+    await img.decode();
+    const c = document.createElement('canvas');
+    c.width = img.width;
+    c.height = img.height;
+    const ctx = c.getContext('2d')!;
+    ctx.drawImage(img, 0, 0);
+    return { width: c.width, height: c.height, data: Array.from(ctx.getImageData(0, 0, c.width, c.height).data) };
+  }, png.toString('base64'));
+}
+
+/**
+ * Reads the screen at cell centres over the drawn surface (skipping sample markers and the boundary
+ * line) and compares each pixel with the colour the computed value must have: the scale's entry for
+ * the value (one entry either side allowed for Float32 rounding), at the layer's opacity over the map
+ * ground. Returns the probes checked and the mismatches.
+ */
+async function readBack(page: Page, region: { x0: number; x1: number; y0: number; y1: number }, stepPx = 12) {
+  const pts: Array<[number, number]> = [];
+  for (let y = region.y0; y <= region.y1; y += stepPx) for (let x = region.x0; x <= region.x1; x += stepPx) pts.push([x, y]);
+  const found = await page.evaluate((points) => {
+    const hook = (window as unknown as { __gapwiseTest: { surfaceProbe(x: number, y: number): Probe | null; samplePoints(): Array<{ pageX: number; pageY: number }> } }).__gapwiseTest;
+    const samples = hook.samplePoints();
+    const ground = getComputedStyle(document.querySelector('.leaflet-container')!).backgroundColor;
+    const out: Array<{ probe: Probe; x: number; y: number; near: number[] }> = [];
+    for (const [x, y] of points) {
+      const p = hook.surfaceProbe(x, y);
+      if (!p) continue;
+      const cx = Math.round(p.centreX - 0.5), cy = Math.round(p.centreY - 0.5);
+      // Clear of markers (radius 5, stroke, selection ring) and of the boundary line and the edge.
+      if (samples.some((s) => Math.hypot(s.pageX - cx, s.pageY - cy) < 11)) continue;
+      if ([[-7, 0], [7, 0], [0, -7], [0, 7]].some(([dx, dy]) => !hook.surfaceProbe(cx + dx, cy + dy))) continue;
+      // Values of the cells a pixel's edge may fall in (steep gradients: a neighbour differs a lot).
+      const near = [[-2, 0], [2, 0], [0, -2], [0, 2]].map(([dx, dy]) => hook.surfaceProbe(cx + 0.5 + dx, cy + 0.5 + dy)?.value ?? p.value);
+      out.push({ probe: p, x: cx, y: cy, near });
+    }
+    return { out, ground };
+  }, pts) as { out: Array<{ probe: Probe; x: number; y: number; near: number[] }>; ground: string };
+  const ground = (/rgba?\((\d+),\s*(\d+),\s*(\d+)/.exec(found.ground) ?? []).slice(1, 4).map(Number);
+  const screen = await screenPixels(page);
+  const mismatches: string[] = [];
+  for (const { probe, x, y, near } of found.out) {
+    const lut = buildLut(probe.scale);
+    const entries = lut.length / 4;
+    const span = probe.domain[1] - probe.domain[0];
+    const entry = (v: number) => Math.min(entries - 1, Math.max(0, Math.round((v - probe.domain[0]) * (entries - 1) / span)));
+    const o = 4 * (y * screen.width + x);
+    const got = [screen.data[o], screen.data[o + 1], screen.data[o + 2]];
+    let ok = false;
+    const candidates = new Set<number>();
+    for (const v of [probe.value, ...near]) for (const d of [-1, 0, 1]) candidates.add(entry(v) + d);
+    for (const k of candidates) {
+      if (k < 0 || k >= entries) continue;
+      const want = [0, 1, 2].map((c) => probe.opacity * lut[4 * k + c] + (1 - probe.opacity) * ground[c]);
+      if (want.every((w, c) => Math.abs(w - got[c]) <= 4)) ok = true;
+    }
+    if (!ok) mismatches.push(`(${x}, ${y}) value ${probe.value.toFixed(4)} screen rgb(${got.join(',')})`);
+  }
+  return { checked: found.out.length, mismatches };
+}
+
+describe('Surface step in the browser', () => {
+  let demo: Watched;
+
+  it('draws the exceedance layer with the computed colours everywhere, right part included, right after it loads', async () => {
+    demo = await openPage(h);
+    const { page } = demo;
+    await page.click('[data-testid=load-demo]');
+    await page.waitForSelector('[data-testid=read-report]');
+    await page.locator('input[name=transform][value=log]').check();
+    await openStep(page, 'structure');
+    await page.selectOption('#fit-method', 'wls');
+    await page.click('[data-testid=fit-button]');
+    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+    await openStep(page, 'surface');
+    expect(await page.locator('#threshold').inputValue()).toBe('200');
+    await takeLongestTask(page);
+    const t0 = Date.now();
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
+    const seconds = (Date.now() - t0) / 1000;
+    await page.mouse.move(100, 800);
+    await page.locator('input[name=layer][value=exceed]').check();
+    await page.waitForSelector('[data-testid=surface-layer][data-layer=pExceed]', { timeout: WAIT, state: 'attached' });
+    // Read at once: the swap to the new layer happens on its 'load'.
+    const box = (await page.locator('[data-testid=map]').boundingBox())!;
+    const right = { x0: Math.round(box.x + box.width * 0.55), x1: Math.round(box.x + box.width - 20), y0: Math.round(box.y + 60), y1: Math.round(box.y + box.height - 60) };
+    const all = { x0: Math.round(box.x + 260), x1: right.x1, y0: right.y0, y1: right.y1 };
+    const rightPart = await readBack(page, right, 10);
+    const whole = await readBack(page, all, 14);
+    const task = await takeLongestTask(page);
+    figures.push(`demo surface, compute + draw + exceedance layer: ${seconds.toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    figures.push(`exceedance read-back: ${rightPart.checked} cell centres in the right part, ${whole.checked} over the site; mismatches ${rightPart.mismatches.length} and ${whole.mismatches.length}`);
+    figures.push(`screenshot ${await shot(page, '3-surface-exceed')}`);
+    expect(rightPart.checked, 'cell centres read in the right part').toBeGreaterThan(150);
+    expect(rightPart.mismatches, 'pixels whose colour is not the computed value').toEqual([]);
+    expect(whole.mismatches).toEqual([]);
+    expect(await page.locator('#surface-body [data-caution]').allInnerTexts()).toContain(CAUTION);
+    expectClean(demo);
+  }, LONG);
+});
