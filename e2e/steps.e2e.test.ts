@@ -101,9 +101,9 @@ describe('Next samples and Report steps', () => {
     }, gpx.bytes.toString('utf8'));
     expect(parsed.error).toBe(0);
     expect(parsed.points.length).toBe(5);
-    const firstRow = (await page.locator('[data-testid=next-table] tbody tr:first-child td.coords').innerText()).split(',').map(Number);
-    expect(parsed.points[0][0]).toBeCloseTo(firstRow[0], 4);
-    expect(parsed.points[0][1]).toBeCloseTo(firstRow[1], 4);
+    const first = page.locator('[data-testid=next-table] tbody tr:first-child td.coords');
+    expect(parsed.points[0][0]).toBeCloseTo(Number(await first.getAttribute('data-lat')), 6);
+    expect(parsed.points[0][1]).toBeCloseTo(Number(await first.getAttribute('data-lon')), 6);
 
     const geojson = JSON.parse((await download(page, '[data-export=next-geojson]')).bytes.toString('utf8')) as { type: string; features: unknown[] };
     expect(geojson.type).toBe('FeatureCollection');
