@@ -12,6 +12,8 @@ import { empiricalVariogram } from '../core/variogram.ts';
 import { leaveOneOut } from '../core/cross-validation.ts';
 import { createPredictor, type Predictor } from '../core/kriging.ts';
 import { computeSurfaceWith } from '../core/surface.ts';
+import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/block-kriging.ts';
+import { simulateConditional } from '../core/conditional-simulation.ts';
 import { GapwiseError } from '../core/errors.ts';
 import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
@@ -33,11 +35,15 @@ export interface EngineOperations {
   leaveOneOut: typeof leaveOneOut;
   createPredictor: typeof createPredictor;
   computeSurfaceWith: typeof computeSurfaceWith;
+  createBlockPredictor: typeof createBlockPredictor;
+  computeBlockSurfaceWith: typeof computeBlockSurfaceWith;
+  simulateConditional: typeof simulateConditional;
   readSamples: typeof readSamples;
 }
 
 export const ENGINE_OPERATIONS: EngineOperations = {
-  fitModel, fitCandidates, empiricalVariogram, leaveOneOut, createPredictor, computeSurfaceWith, readSamples,
+  fitModel, fitCandidates, empiricalVariogram, leaveOneOut, createPredictor, computeSurfaceWith,
+  createBlockPredictor, computeBlockSurfaceWith, simulateConditional, readSamples,
 };
 
 /** Progress is posted when it has moved by at least this fraction (and at the end). */
@@ -88,6 +94,15 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
     cached = { key, predictor };
     return predictor;
   };
+  let cachedBlock: { key: string; predictor: BlockPredictor } | null = null;
+  const blockPredictorFor = (samples: Samples, model: CovarianceModel): BlockPredictor => {
+    const key = predictorKey(samples, model);
+    if (cachedBlock && cachedBlock.key === key) return cachedBlock.predictor;
+    cachedBlock = null;
+    const predictor = ops.createBlockPredictor(samples, model);
+    cachedBlock = { key, predictor };
+    return predictor;
+  };
 
   const run = <K extends RequestType>(type: K, payload: RequestPayloads[K], progress: (done: number, total: number) => void): ResultPayloads[K] => {
     const p = payload as RequestPayloads[RequestType];
@@ -116,6 +131,16 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
         const q = p as RequestPayloads['surfaceRows'];
         checkSamples(q.samples);
         return ops.computeSurfaceWith(predictorFor(q.samples, q.model), q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+      }
+      case 'blockSurfaceRows': {
+        const q = p as RequestPayloads['blockSurfaceRows'];
+        checkSamples(q.samples);
+        return ops.computeBlockSurfaceWith(blockPredictorFor(q.samples, q.model), q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+      }
+      case 'simulate': {
+        const q = p as RequestPayloads['simulate'];
+        checkSamples(q.samples);
+        return ops.simulateConditional(q.samples, q.model, q.grid, { ...q.options, onProgress: progress }) as ResultPayloads[K];
       }
       case 'readSamples': {
         const q = p as RequestPayloads['readSamples'];

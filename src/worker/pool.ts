@@ -28,6 +28,10 @@ export interface SurfaceJobOptions {
   /** Called with each finished band (rows in whole-grid numbering) and the merged surface so far. */
   onBand?: (band: SurfaceResult, merged: SurfaceResult) => void;
   signal?: AbortSignal;
+  /** 'point' (default) or 'block': every cell a block average ('blockSurfaceRows' requests). */
+  support?: 'point' | 'block';
+  /** Block support: discretisation points per cell side (default 4). */
+  blockPoints?: number;
 }
 
 /**
@@ -147,7 +151,8 @@ export class EnginePool {
   }
 
   /**
-   * Computes mean, sd (and P(exceed)) on the whole grid in parallel row bands. Resolves with the
+   * Computes mean, sd (and P(exceed)) on the whole grid in parallel row bands, at points (cell
+   * centres) or, with job.support 'block', as cell averages. Resolves with the
    * merged surface; rejects with GapwiseError('cancelled') when aborted, or with the first band's error.
    */
   surface(
@@ -186,14 +191,19 @@ export class EnginePool {
         if (stopped || next >= bands.length) return;
         const b = next++;
         const [r0, r1] = bands[b];
-        const { id, promise } = client.start('surfaceRows', { samples, model, grid: bandGrid(grid, r0, r1), options: { ...options } }, {
-          onProgress: (p) => {
-            if (stopped) return;
-            doneAll += p.done - doneByBand[b];
-            doneByBand[b] = p.done;
-            report();
-          },
-        });
+        const bandOf = bandGrid(grid, r0, r1);
+        const onProgress = (p: Progress) => {
+          if (stopped) return;
+          doneAll += p.done - doneByBand[b];
+          doneByBand[b] = p.done;
+          report();
+        };
+        const { id, promise } = job.support === 'block'
+          ? client.start('blockSurfaceRows', {
+            samples, model, grid: bandOf,
+            options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints },
+          }, { onProgress })
+          : client.start('surfaceRows', { samples, model, grid: bandOf, options: { ...options } }, { onProgress });
         running.set(client, id);
         promise.then((band) => {
           if (stopped) return;

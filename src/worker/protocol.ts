@@ -15,6 +15,14 @@ import type { Grid } from '../core/grid.ts';
 import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
 import type { IntakeOptions, IntakeResult } from '../io/types.ts';
 import type { DesignResult } from '../core/design.ts';
+import type { BlockSurfaceOptions } from '../core/block-kriging.ts';
+import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/conditional-simulation.ts';
+
+/** Simulation options that cross postMessage (no callbacks). */
+export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 'isCancelled'>;
+
+/** A block surface band: every cell is a block average (SurfaceResult shape, plus the block facts). */
+export type BlockSurfaceResult = SurfaceResult & { support: 'block'; points: number; blockVariance: number };
 import type { DesignRequestPayload } from './design-handler.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/errors.ts';
 
@@ -26,6 +34,10 @@ export interface RequestPayloads {
   crossValidate: { samples: Samples; model: CovarianceModel };
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
   surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions };
+  /** Block (cell-average) surfaces on `options.rows` of the grid (all rows when absent). */
+  blockSurfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: BlockSurfaceOptions };
+  /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
+  simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
   design: DesignRequestPayload;
 }
@@ -37,13 +49,17 @@ export interface ResultPayloads {
   variogram: EmpiricalVariogram;
   crossValidate: LeaveOneOutResult;
   surfaceRows: SurfaceResult;
+  blockSurfaceRows: BlockSurfaceResult;
+  simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
   design: DesignResult;
 }
 
 export type RequestType = keyof RequestPayloads;
 
-export const REQUEST_TYPES: readonly RequestType[] = ['fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'readSamples', 'design'];
+export const REQUEST_TYPES: readonly RequestType[] = [
+  'fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
+];
 
 /** A request; `id` is unique per client. */
 export type EngineRequest<K extends RequestType = RequestType> = K extends RequestType

@@ -9,6 +9,8 @@ import type { CovarianceModel } from '../../src/core/model.ts';
 import type { Grid } from '../../src/core/grid.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { suggestSites } from '../../src/core/design.ts';
+import { computeBlockSurface } from '../../src/core/block-kriging.ts';
+import { simulateConditional } from '../../src/core/conditional-simulation.ts';
 
 // Samples and a masked grid from the surface fixture (values from scikit-learn's reference case).
 const fx = loadFixture<{ values: number[]; model: CovarianceModel; threshold: number }>('surface.json');
@@ -147,5 +149,60 @@ describe('predictorKey', () => {
     expect(predictorKey(samples, { ...model, trend: 'linear' })).not.toBe(k);
     // Fit details do not change predictions, so they do not change the key.
     expect(predictorKey(samples, { ...model, fit: { method: 'reml', converged: true } })).toBe(k);
+  });
+
+  it('createEngineHandler answers blockSurfaceRows with the same numbers as computeBlockSurface (4 × 4 points), progress first', () => {
+    const { sent, run } = collect();
+    run({ id: 11, type: 'blockSurfaceRows', payload: { samples, model, grid, options: { threshold: 38, rows: [1, 7], points: 4 } } });
+    const last = sent.at(-1)!;
+    expect(last.message).toMatchObject({ id: 11, type: 'result', request: 'blockSurfaceRows' });
+    const result = (last.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeBlockSurface>;
+    const direct = computeBlockSurface(samples, model, grid, { threshold: 38, rows: [1, 7], points: 4 });
+    expect(result.support).toBe('block');
+    expect(result.points).toBe(4);
+    expect(result.blockVariance).toBe(direct.blockVariance);
+    expect(Array.from(result.mean)).toEqual(Array.from(direct.mean));
+    expect(Array.from(result.sd)).toEqual(Array.from(direct.sd));
+    expect(Array.from(result.pExceed!)).toEqual(Array.from(direct.pExceed!));
+    // A block average is smoother than the point value: its sd is below the point sd in every cell.
+    const point = computeSurface(samples, model, grid, { rows: [1, 7] });
+    let compared = 0;
+    for (let k = 0; k < point.sd.length; k++) {
+      if (Number.isNaN(point.sd[k])) continue;
+      expect(result.sd[k]).toBeLessThan(point.sd[k]);
+      compared++;
+    }
+    expect(compared).toBeGreaterThan(10);
+    expect(sent.slice(0, -1).every((s) => s.message.type === 'progress')).toBe(true);
+    expect(last.transfer).toContain(result.mean.buffer);
+  });
+
+  it('createEngineHandler answers blockSurfaceRows for a log model with the error that names conditional simulation', () => {
+    const { sent, run } = collect();
+    run({ id: 12, type: 'blockSurfaceRows', payload: { samples, model: { ...model, transform: 'log' }, grid } });
+    const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'error' }>;
+    expect(last.type).toBe('error');
+    expect(last.error.code).toBe('bad-option');
+    expect(last.error.message).toMatch(/conditional simulations/);
+  });
+
+  it('createEngineHandler answers simulate with the same realisations, P(exceed) and area as simulateConditional for the seed', () => {
+    const { sent, run } = collect();
+    const options = { count: 12, seed: 7, threshold: 38, depth: 0.3, keepRealisations: true };
+    run({ id: 13, type: 'simulate', payload: { samples, model, grid, options } });
+    const last = sent.at(-1)!;
+    expect(last.message).toMatchObject({ id: 13, type: 'result', request: 'simulate' });
+    const result = (last.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof simulateConditional>;
+    const direct = simulateConditional(samples, model, grid, options);
+    expect(result.count).toBe(12);
+    expect(result.realisations).toHaveLength(12);
+    expect(Array.from(result.realisations![3])).toEqual(Array.from(direct.realisations![3]));
+    expect(Array.from(result.pExceed!)).toEqual(Array.from(direct.pExceed!));
+    expect(result.area).toEqual(direct.area);
+    expect(result.area!.volume).toBeDefined();
+    expect(last.transfer).toContain(result.realisations![0].buffer);
+    const progress = sent.slice(0, -1).map((s) => s.message);
+    expect(progress.length).toBeGreaterThan(0);
+    for (const p of progress) expect(p).toMatchObject({ id: 13, type: 'progress' });
   });
 });
