@@ -1,0 +1,36 @@
+import { describe, expect, it } from 'vitest';
+import { projectSuggestions } from '../../../src/ui/state/suggestions.svelte.ts';
+import type { DesignResult, Suggestion } from '../../../src/core/design.ts';
+
+function design(suggestions: Suggestion[]): DesignResult {
+  return {
+    mode: 'decision', requested: suggestions.length, suggestions, benefitMeaning: 'm²', scale: 'data',
+    averageSdBefore: 2, averageSdAfter: 1, misclassifiedAreaBefore: 10, misclassifiedAreaAfter: 5, areaDecided: 5,
+    coverageDistanceBefore: null, coverageDistanceAfter: null, threshold: 200, area: 100, cell: 1, minSpacing: 0,
+    evaluationPoints: 10, candidatePoints: 10, screenedCandidates: 10, warnings: [], caution: '',
+  };
+}
+
+describe('projectSuggestions', () => {
+  it('projectSuggestions keeps rank, positions and figures, and pExceed only when known', () => {
+    const out = projectSuggestions(design([
+      { rank: 1, x: 10, y: 20, lon: 11.2, lat: 48.5, benefit: 3, mean: 210, sd: 40, pExceed: 0.6 },
+      { rank: 2, x: 30, y: 40, lon: 11.3, lat: 48.6, benefit: 2, mean: 150, sd: 30, pExceed: null },
+    ]));
+    expect(out).toEqual([
+      { rank: 1, x: 10, y: 20, lon: 11.2, lat: 48.5, benefit: 3, mean: 210, sd: 40, pExceed: 0.6 },
+      { rank: 2, x: 30, y: 40, lon: 11.3, lat: 48.6, benefit: 2, mean: 150, sd: 30 },
+    ]);
+  });
+
+  it('projectSuggestions leaves out sites without lon/lat or without a model figure, and gives undefined when none is left', () => {
+    const out = projectSuggestions(design([
+      { rank: 1, x: 10, y: 20, benefit: 3, mean: 210, sd: 40, pExceed: null },
+      { rank: 2, x: 30, y: 40, lon: 11.3, lat: 48.6, benefit: 2, mean: null, sd: null, pExceed: null },
+      { rank: 3, x: 50, y: 60, lon: 11.4, lat: 48.7, benefit: 1, mean: 100, sd: 20, pExceed: null },
+    ]));
+    expect(out?.map((s) => s.rank)).toEqual([3]);
+    expect(projectSuggestions(design([{ rank: 1, x: 0, y: 0, benefit: 1, mean: null, sd: null, pExceed: null }]))).toBeUndefined();
+    expect(projectSuggestions(null)).toBeUndefined();
+  });
+});
