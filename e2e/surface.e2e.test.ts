@@ -115,7 +115,6 @@ describe('Surface step in the browser', () => {
     const { page } = demo;
     await page.click('[data-testid=load-demo]');
     await page.waitForSelector('[data-testid=read-report]');
-    await page.locator('input[name=transform][value=log]').check();
     await openStep(page, 'structure');
     await page.selectOption('#fit-method', 'wls');
     await page.click('[data-testid=fit-button]');
@@ -146,5 +145,72 @@ describe('Surface step in the browser', () => {
     expect(whole.mismatches).toEqual([]);
     expect(await page.locator('#surface-body [data-caution]').allInnerTexts()).toContain(CAUTION);
     expectClean(demo);
+  }, LONG);
+
+  it('computes cell averages (block support, 4 × 4 points): smaller sd than point values, same colours read back', async () => {
+    const { page } = demo;
+    const sdText = async () => (await page.locator('#surface-body').innerText()).match(/sd ranges ([\d.,]+) – ([\d.,]+)/)!.slice(1).map((t) => Number(t.replace(/,/g, '')));
+    const [, pointMax] = await sdText();
+    await page.locator('input[name=support][value=block]').check();
+    expect(await page.locator('#block-points').inputValue()).toBe('4');
+    await page.waitForSelector('[data-testid=surface-stale]');
+    await takeLongestTask(page);
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-done][data-support=block]', { timeout: WAIT });
+    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes][data-layer=pExceed]', { timeout: WAIT, state: 'attached' });
+    const task = await takeLongestTask(page);
+    expect(await page.locator('[data-testid=surface-done]').innerText()).toMatch(/as cell averages \(4 × 4 points per cell\)/);
+    const [, blockMax] = await sdText();
+    // A cell average varies less than a point value: the largest sd falls.
+    expect(blockMax).toBeLessThan(pointMax);
+    await page.mouse.move(100, 800);
+    const box = (await page.locator('[data-testid=map]').boundingBox())!;
+    const back = await readBack(page, { x0: Math.round(box.x + 260), x1: Math.round(box.x + box.width - 20), y0: Math.round(box.y + 60), y1: Math.round(box.y + box.height - 60) }, 16);
+    expect(back.checked).toBeGreaterThan(150);
+    expect(back.mismatches).toEqual([]);
+    figures.push(`block surface: largest sd ${blockMax} (point ${pointMax}); longest main-thread task ${task.longest.toFixed(0)} ms; read-back ${back.checked} cells`);
+    figures.push(`screenshot ${await shot(page, '3-surface-block')}`);
+    expectClean(demo);
+  }, LONG);
+
+  it('draws conditional realisations with progress: area above the action level (median, 5 %–95 %, m² and ha), volume, four small maps', async () => {
+    const { page } = demo;
+    await page.fill('#sim-count', '40');
+    await page.locator('#sim-count').press('Enter');
+    await page.fill('#sim-depth', '0.3');
+    await page.locator('#sim-depth').press('Enter');
+    await takeLongestTask(page);
+    await page.click('[data-testid=simulate]');
+    await page.waitForSelector('[data-testid=sim-done]', { timeout: WAIT });
+    const task = await takeLongestTask(page);
+    const ms = Number(await page.locator('[data-testid=sim-done]').getAttribute('data-ms'));
+    const text = await page.locator('[data-testid=sim-area]').innerText();
+    const m = /Area above 200 mg\/kg: ([\d,.]+) m² \(([\d,.]+) ha\), 5 %–95 %: ([\d,.]+) – ([\d,.]+) m²/.exec(text);
+    expect(m, text).not.toBeNull();
+    const [median, ha, p05, p95] = m!.slice(1).map((t) => Number(t.replace(/,/g, '')));
+    expect(p05).toBeLessThanOrEqual(median);
+    expect(median).toBeLessThanOrEqual(p95);
+    expect(median).toBeGreaterThan(0);
+    expect(Math.abs(ha - median / 10_000)).toBeLessThanOrEqual(median / 10_000 * 0.01);
+    expect(text).toMatch(/A screening estimate/);
+    const vol = await page.locator('[data-testid=sim-volume]').innerText();
+    const v = Number(/([\d,.]+) m³/.exec(vol)![1].replace(/,/g, ''));
+    // Volume = area × depth, to the 3 significant figures shown.
+    expect(Math.abs(v - median * 0.3)).toBeLessThanOrEqual(median * 0.3 * 0.01);
+    expect(await page.locator('[data-testid=realisation-canvas]').count()).toBe(4);
+    // The small maps differ from one another (they are draws, not copies).
+    const sums = await page.$$eval('[data-testid=realisation-canvas]', (cs) => cs.map((c) => {
+      const d = (c as HTMLCanvasElement).getContext('2d')!.getImageData(0, 0, (c as HTMLCanvasElement).width, (c as HTMLCanvasElement).height).data;
+      let s = 0;
+      for (let k = 0; k < d.length; k += 4) s += d[k] * 3 + d[k + 1] * 5 + d[k + 2] * 7;
+      return s;
+    }));
+    expect(new Set(sums).size).toBe(4);
+    figures.push(`realisations: 40 on ${await page.locator('[data-testid=cell-count]').innerText()} cells in ${(ms / 1000).toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms; area ${median} m² (${p05}–${p95})`);
+    await page.locator('[data-testid=realisations]').scrollIntoViewIfNeeded();
+    figures.push(`screenshot ${await shot(page, '3-surface-realisations')}`);
+    expect(await page.locator('#surface-body [data-caution]').allInnerTexts()).toContain(CAUTION);
+    expectClean(demo);
+    await demo.context.close();
   }, LONG);
 });

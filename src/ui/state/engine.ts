@@ -11,6 +11,8 @@ import type { SurfaceResult } from '../../core/surface.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
+import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import type { SimulateOptions } from '../../worker/protocol.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -81,6 +83,10 @@ export interface SurfaceRequest {
   model: CovarianceModel;
   grid: Grid;
   threshold?: number;
+  /** 'point' (cell centres, default) or 'block' (cell averages). */
+  support?: 'point' | 'block';
+  /** Block support: discretisation points per cell side (default 4). */
+  blockPoints?: number;
 }
 
 /**
@@ -94,5 +100,21 @@ export function surface(
     signal,
     onProgress: (p) => onProgress?.(p.done, p.total),
     onBand: (_band, merged) => onBand?.(merged),
+    support: req.support, blockPoints: req.blockPoints,
+  });
+}
+
+export interface SimulateRequest {
+  samples: Samples;
+  model: CovarianceModel;
+  grid: Grid;
+  options: SimulateOptions;
+}
+
+/** Conditional realisations on the grid (one worker), with progress in realisations. */
+export function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult> {
+  return enginePool().request('simulate', { samples: req.samples, model: req.model, grid: req.grid, options: req.options }, {
+    signal,
+    onProgress: (p) => onProgress?.(p.done, p.total),
   });
 }

@@ -22,6 +22,15 @@ import * as engine from './engine.ts';
 import type { Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
 import { measuredRate, planGrid, type GridPlan } from './grid-plan.ts';
+import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+
+/** Conditional realisations with what they were computed from. */
+export interface SimulationView {
+  grid: Grid;
+  result: ConditionalSimulationResult;
+  key: string;
+  ms: number;
+}
 
 /** A computed surface with what it was computed from. */
 export interface SurfaceView {
@@ -35,6 +44,9 @@ export interface SurfaceView {
   /** Bumped as bands arrive, so the map repaints. */
   bands: number;
   done: boolean;
+  /** Point values at cell centres, or cell averages with `points` × `points` discretisation. */
+  support: 'point' | 'block';
+  points: number;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -256,6 +268,10 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
+  /** Support of the next surface: point values at cell centres, or cell (block) averages. */
+  support = $state<'point' | 'block'>('point');
+  /** Block support: discretisation points per cell side. */
+  blockPoints = $state(4);
   /** Rate measured on the last surface (flops per second per worker), for the time estimate. */
   rate = $state<number | undefined>(undefined);
   surfaceTask = $state<TaskState>(idleTask());
@@ -268,6 +284,7 @@ export class Session {
       v: this.samplesVersion, m: $state.snapshot(this.s.structure.model),
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
       t: this.s.surface.threshold,
+      s: this.support, k: this.support === 'block' ? this.blockPoints : 0,
     });
   }
 
@@ -288,15 +305,20 @@ export class Session {
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const key = this.surfaceKey;
+    const support = model.transform === 'log' ? 'point' : this.support;
     const t0 = performance.now();
     this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
     const view = (result: SurfaceResult, done: boolean, bands: number): SurfaceView => ({
       grid: plan.grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
+      support, points: support === 'block' ? this.blockPoints : 1,
     });
     let bands = 0;
     try {
       const result = await engine.surface(
-        { samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid, threshold: useThreshold ? threshold! : undefined },
+        {
+          samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid, threshold: useThreshold ? threshold! : undefined,
+          support, blockPoints: this.blockPoints,
+        },
         (done, total) => { if (this.surfaceAbort === ac) this.surfaceTask = { ...this.surfaceTask, done, total }; },
         ac.signal,
         (merged) => { if (this.surfaceAbort === ac) this.surface = view(merged, false, ++bands); },
@@ -315,6 +337,67 @@ export class Session {
       if (err.code === 'cancelled') this.surface = null;
       this.surfaceTask = { ...this.surfaceTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
     }
+  }
+
+  // ---------------------------------------------------------------- realisations
+
+  /** Realisations to draw, the depth (m) for the volume, and the last run. */
+  simCount = $state(100);
+  simDepth = $state<number | null>(null);
+  simulation = $state.raw<SimulationView | null>(null);
+  simTask = $state<TaskState>(idleTask());
+  /** Seconds per realisation-cell measured on the last run (per worker), for the estimate. */
+  simRate = $state<number | null>(null);
+  private simAbort: AbortController | null = null;
+
+  /** Seconds the next run should take, or null before a first run has measured the speed. */
+  get simEstimate(): number | null {
+    const cells = this.gridPlan.value?.cells;
+    return this.simRate !== null && cells ? this.simRate * cells * this.simCount : null;
+  }
+
+  /** Draws conditional realisations (one worker) with the current support, threshold and depth. */
+  async simulate(): Promise<void> {
+    const intake = this.intake;
+    const model = this.s.structure.model;
+    const plan = this.gridPlan.value;
+    if (!intake || !model || !plan) return;
+    this.simAbort?.abort();
+    const ac = new AbortController();
+    this.simAbort = ac;
+    const threshold = this.s.surface.threshold;
+    const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
+    const count = Math.max(1, Math.min(10_000, Math.round(this.simCount)));
+    const key = this.surfaceKey + `|${count}|${this.simDepth}`;
+    const t0 = performance.now();
+    this.simTask = { ...idleTask(), status: 'running', total: count, what: 'realisations' };
+    try {
+      const result = await engine.simulate({
+        samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid,
+        options: {
+          count, seed: 1, support: this.support, blockPoints: this.blockPoints, keepRealisations: true,
+          threshold: useThreshold ? threshold! : undefined,
+          depth: useThreshold && this.simDepth && this.simDepth > 0 ? this.simDepth : undefined,
+        },
+      }, (done, total) => { if (this.simAbort === ac) this.simTask = { ...this.simTask, done, total }; }, ac.signal);
+      if (this.simAbort !== ac) return;
+      const ms = performance.now() - t0;
+      // Keep the first four realisations only: the view shows them, the summaries are computed.
+      const kept = { ...result, realisations: result.realisations?.slice(0, 4) };
+      this.simulation = { grid: plan.grid, result: kept, key, ms };
+      this.simRate = ms / 1000 / (count * plan.cells);
+      this.simTask = { ...this.simTask, status: 'done', done: count, ms };
+    } catch (e) {
+      if (this.simAbort !== ac) return;
+      const err = showError(e);
+      this.simTask = { ...this.simTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
+    }
+  }
+
+  cancelSimulation(): void {
+    this.simAbort?.abort();
+    this.simAbort = null;
+    this.simTask = { ...this.simTask, status: 'cancelled' };
   }
 
   cancelSurface(): void {
@@ -418,6 +501,10 @@ export class Session {
     this.cvError = null;
     this.surfaceAbort?.abort();
     this.surfaceAbort = null;
+    this.simAbort?.abort();
+    this.simAbort = null;
+    this.simulation = null;
+    this.simTask = idleTask();
     this.surface = null;
     this.surfaceTask = idleTask();
     this.onSamplesChanged?.();
