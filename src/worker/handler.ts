@@ -14,6 +14,10 @@ import { createPredictor, type Predictor } from '../core/kriging.ts';
 import { computeSurfaceWith } from '../core/surface.ts';
 import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/block-kriging.ts';
 import { simulateConditional } from '../core/conditional-simulation.ts';
+import { vecchiaFit } from '../core/vecchia.ts';
+import { createLocalPredictor } from '../core/local-kriging.ts';
+import type { SurfacePredictor } from '../core/surface.ts';
+import type { LocalKrigingOptions } from '../core/local-kriging.ts';
 import { GapwiseError } from '../core/errors.ts';
 import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
@@ -38,12 +42,14 @@ export interface EngineOperations {
   createBlockPredictor: typeof createBlockPredictor;
   computeBlockSurfaceWith: typeof computeBlockSurfaceWith;
   simulateConditional: typeof simulateConditional;
+  vecchiaFit: typeof vecchiaFit;
+  createLocalPredictor: typeof createLocalPredictor;
   readSamples: typeof readSamples;
 }
 
 export const ENGINE_OPERATIONS: EngineOperations = {
   fitModel, fitCandidates, empiricalVariogram, leaveOneOut, createPredictor, computeSurfaceWith,
-  createBlockPredictor, computeBlockSurfaceWith, simulateConditional, readSamples,
+  createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor, readSamples,
 };
 
 /** Progress is posted when it has moved by at least this fraction (and at the end). */
@@ -94,6 +100,15 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
     cached = { key, predictor };
     return predictor;
   };
+  let cachedLocal: { key: string; predictor: SurfacePredictor } | null = null;
+  const localPredictorFor = (samples: Samples, model: CovarianceModel, local: LocalKrigingOptions): SurfacePredictor => {
+    const key = predictorKey(samples, model) + JSON.stringify(local);
+    if (cachedLocal && cachedLocal.key === key) return cachedLocal.predictor;
+    cachedLocal = null;
+    const predictor = ops.createLocalPredictor(samples, model, local);
+    cachedLocal = { key, predictor };
+    return predictor;
+  };
   let cachedBlock: { key: string; predictor: BlockPredictor } | null = null;
   const blockPredictorFor = (samples: Samples, model: CovarianceModel): BlockPredictor => {
     const key = predictorKey(samples, model);
@@ -130,7 +145,13 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'surfaceRows': {
         const q = p as RequestPayloads['surfaceRows'];
         checkSamples(q.samples);
-        return ops.computeSurfaceWith(predictorFor(q.samples, q.model), q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+        const predictor = q.local ? localPredictorFor(q.samples, q.model, q.local) : predictorFor(q.samples, q.model);
+        return ops.computeSurfaceWith(predictor, q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+      }
+      case 'fitNearestNeighbour': {
+        const q = p as RequestPayloads['fitNearestNeighbour'];
+        checkSamples(q.samples);
+        return ops.vecchiaFit(q.samples, q.options) as ResultPayloads[K];
       }
       case 'blockSurfaceRows': {
         const q = p as RequestPayloads['blockSurfaceRows'];

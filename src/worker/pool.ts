@@ -12,6 +12,7 @@ import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import type { Grid } from '../core/grid.ts';
 import type { SurfaceArray, SurfaceOptions, SurfaceResult, ValueRange } from '../core/surface.ts';
+import type { LocalKrigingOptions } from '../core/local-kriging.ts';
 import type { RequestPayloads, RequestType, ResultPayloads } from './protocol.ts';
 import { EngineClient, createEngineWorker, type Progress, type RequestOptions, type WorkerFactory } from './client.ts';
 
@@ -32,6 +33,8 @@ export interface SurfaceJobOptions {
   support?: 'point' | 'block';
   /** Block support: discretisation points per cell side (default 4). */
   blockPoints?: number;
+  /** Point support from local neighbourhoods (many samples) rather than all samples. */
+  local?: LocalKrigingOptions;
 }
 
 /**
@@ -203,7 +206,7 @@ export class EnginePool {
             samples, model, grid: bandOf,
             options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints },
           }, { onProgress })
-          : client.start('surfaceRows', { samples, model, grid: bandOf, options: { ...options } }, { onProgress });
+          : client.start('surfaceRows', { samples, model, grid: bandOf, options: { ...options }, local: job.local }, { onProgress });
         running.set(client, id);
         promise.then((band) => {
           if (stopped) return;

@@ -16,6 +16,8 @@ import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
 import type { IntakeOptions, IntakeResult } from '../io/types.ts';
 import type { DesignResult } from '../core/design.ts';
 import type { BlockSurfaceOptions } from '../core/block-kriging.ts';
+import type { VecchiaFitOptions } from '../core/vecchia.ts';
+import type { LocalKrigingOptions } from '../core/local-kriging.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 
 /** Simulation options that cross postMessage (no callbacks). */
@@ -33,7 +35,10 @@ export interface RequestPayloads {
   variogram: { samples: Samples; options?: VariogramOptions };
   crossValidate: { samples: Samples; model: CovarianceModel };
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
-  surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions };
+  /** With `local`, predictions come from local neighbourhoods (for many samples) instead of all samples. */
+  surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions; local?: LocalKrigingOptions };
+  /** A model fitted by the nearest-neighbour (Vecchia) likelihood: for many samples. */
+  fitNearestNeighbour: { samples: Samples; options: VecchiaFitOptions };
   /** Block (cell-average) surfaces on `options.rows` of the grid (all rows when absent). */
   blockSurfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: BlockSurfaceOptions };
   /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
@@ -49,6 +54,7 @@ export interface ResultPayloads {
   variogram: EmpiricalVariogram;
   crossValidate: LeaveOneOutResult;
   surfaceRows: SurfaceResult;
+  fitNearestNeighbour: CovarianceModel;
   blockSurfaceRows: BlockSurfaceResult;
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
@@ -58,7 +64,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
+  'fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
 ];
 
 /** A request; `id` is unique per client. */

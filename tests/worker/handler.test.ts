@@ -11,6 +11,9 @@ import { loadFixture } from '../helpers/fixtures.ts';
 import { suggestSites } from '../../src/core/design.ts';
 import { computeBlockSurface } from '../../src/core/block-kriging.ts';
 import { simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { vecchiaFit } from '../../src/core/vecchia.ts';
+import { createLocalPredictor } from '../../src/core/local-kriging.ts';
+import { computeSurfaceWith } from '../../src/core/surface.ts';
 
 // Samples and a masked grid from the surface fixture (values from scikit-learn's reference case).
 const fx = loadFixture<{ values: number[]; model: CovarianceModel; threshold: number }>('surface.json');
@@ -204,5 +207,29 @@ describe('predictorKey', () => {
     const progress = sent.slice(0, -1).map((s) => s.message);
     expect(progress.length).toBeGreaterThan(0);
     for (const p of progress) expect(p).toMatchObject({ id: 13, type: 'progress' });
+  });
+
+  it('createEngineHandler answers fitNearestNeighbour with the same model as vecchiaFit', () => {
+    const { sent, run } = collect();
+    const options = { family: 'exponential' as const, neighbors: 8 };
+    run({ id: 14, type: 'fitNearestNeighbour', payload: { samples, options } });
+    const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>;
+    expect(last).toMatchObject({ id: 14, type: 'result', request: 'fitNearestNeighbour' });
+    const direct = vecchiaFit(samples, options);
+    expect(last.result).toEqual(JSON.parse(JSON.stringify(direct)));
+    expect((last.result as CovarianceModel).fit?.method).toBe(direct.fit.method);
+  });
+
+  it('createEngineHandler answers surfaceRows with local neighbourhoods (global mean) as computeSurfaceWith on createLocalPredictor', () => {
+    const { sent, run } = collect();
+    const local = { neighbors: 12, globalMean: true };
+    run({ id: 15, type: 'surfaceRows', payload: { samples, model, grid, options: { threshold: 38, rows: [0, 6] }, local } });
+    const result = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeSurface>;
+    const direct = computeSurfaceWith(createLocalPredictor(samples, model, local), grid, { threshold: 38, rows: [0, 6] });
+    expect(Array.from(result.mean)).toEqual(Array.from(direct.mean));
+    expect(Array.from(result.sd)).toEqual(Array.from(direct.sd));
+    // And not the exact answer: 12 neighbours out of every sample change the numbers.
+    const exact = computeSurface(samples, model, grid, { threshold: 38, rows: [0, 6] });
+    expect(Array.from(result.mean)).not.toEqual(Array.from(exact.mean));
   });
 });
