@@ -5,7 +5,10 @@
  * opened again. Screenshots 4-next-samples.png and 5-report.png.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../src/cli/main.ts';
 import type { Download, Page } from 'playwright-core';
 import { startHarness, openPage, shot, type Harness, type Watched } from './harness.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION } from '../src/io/project.ts';
@@ -44,6 +47,12 @@ async function download(page: Page, selector: string): Promise<{ name: string; b
   const [d] = await Promise.all([page.waitForEvent('download') as Promise<Download>, page.click(selector)]);
   const path = await d.path();
   return { name: d.suggestedFilename(), bytes: readFileSync(path) };
+}
+
+/** The numeric rows of a grid CSV (comment and header lines skipped), as numbers. */
+function gridRows(text: string): { header: string[]; rows: number[][] } {
+  const lines = text.split(/\r?\n/).filter((l) => l !== '' && !l.startsWith('#'));
+  return { header: lines[0].split(','), rows: lines.slice(1).map((l) => l.split(',').map(Number)) };
 }
 
 /** Runs a design with the given mode and count and waits for its table. */
@@ -115,7 +124,7 @@ describe('Next samples and Report steps', () => {
     expectClean(w);
   });
 
-  it('ReportPanel writes the report, the surface exports and a project that opens again', { timeout: LONG }, async () => {
+  it('ReportPanel writes the report, the surface exports and a project that opens again and gives the same grid through gapwise grid --project', { timeout: LONG }, async () => {
     const { page } = w;
     await openStep(page, 'report');
     expect(await page.locator('#report-body [data-caution]').allInnerTexts()).toContain(CAUTION);
@@ -152,6 +161,26 @@ describe('Next samples and Report steps', () => {
     expect(project.suggestions?.length).toBe(5);
     expect(project.software.name).toBe('Gapwise');
     console.log(`screenshot ${await shot(page, '5-report')}`);
+
+    // The same project through the command line gives the app's numbers: `gapwise grid --project`.
+    const dir = mkdtempSync(join(tmpdir(), 'gapwise-parity-'));
+    writeFileSync(join(dir, 'project.json'), saved.bytes);
+    let stderr = '';
+    const code = await main(['grid', '--project', join(dir, 'project.json'), '--out', join(dir, 'cli-grid.csv')],
+      { cwd: dir, stdout: () => {}, stderr: (t) => { stderr += t; } });
+    expect(code, stderr).toBe(0);
+    const fromApp = gridRows(grid);
+    const fromCli = gridRows(readFileSync(join(dir, 'cli-grid.csv'), 'utf8'));
+    expect(fromCli.header).toEqual(fromApp.header);
+    expect(fromCli.rows.length).toBe(fromApp.rows.length);
+    for (let r = 0; r < fromApp.rows.length; r++) {
+      for (let c = 0; c < fromApp.header.length; c++) {
+        const a = fromApp.rows[r][c];
+        const b = fromCli.rows[r][c];
+        // Both are written from float32 surface arrays: equal to float32 precision.
+        expect(Math.abs(a - b) <= 1e-6 * Math.max(1, Math.abs(a)), `row ${r + 1}, ${fromApp.header[c]}: app ${a}, CLI ${b}`).toBe(true);
+      }
+    }
 
     // Start over, then open the saved project: the samples and the model come back.
     await page.click('[data-testid=start-over]');
