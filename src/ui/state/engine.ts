@@ -13,6 +13,8 @@ import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS } from '../../core/vecchia.ts';
+import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -34,6 +36,11 @@ export interface FitRequest {
   samples: Samples;
   method: 'reml' | 'wls';
   transform: 'none' | 'log';
+  /**
+   * 'exact' (the dense likelihood or WLS as `method` says) or 'nnl' (nearest-neighbour REML, for many
+   * samples; leave-one-out is then skipped, its cost being n³). Default: chooseFitMethod(n).
+   */
+  likelihood?: 'exact' | 'nnl';
 }
 
 function logSamples(s: Samples): Samples {
@@ -47,11 +54,22 @@ function logSamples(s: Samples): Samples {
 export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, signal?: AbortSignal): Promise<CandidateRow[]> {
   const p = enginePool();
   const fitSamples = req.transform === 'log' ? logSamples(req.samples) : req.samples;
+  const nnl = (req.likelihood ?? chooseFitMethod(req.samples.x.length)) === 'nnl';
   let done = 0;
   const total = CANDIDATE_SPECS.length;
   onProgress?.(0, total, CANDIDATE_SPECS.map((c) => c.label).join(', '));
   const rows = await Promise.all(CANDIDATE_SPECS.map(async (spec): Promise<CandidateRow> => {
     try {
+      if (nnl) {
+        const m = await p.request('fitNearestNeighbour', {
+          samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: 'reml', neighbors: DEFAULT_VECCHIA_NEIGHBORS },
+        }, { signal });
+        m.transform = req.transform;
+        return {
+          key: spec.key, label: spec.label, model: m,
+          logLikelihood: m.fit?.logLikelihood ?? NaN, aic: m.fit?.aic ?? NaN, rmse: NaN, msse: NaN,
+        };
+      }
       const m = await p.request('fit', { samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: req.method } }, { signal });
       m.transform = req.transform;
       const cv = await p.request('crossValidate', { samples: req.samples, model: m }, { signal });
@@ -87,6 +105,8 @@ export interface SurfaceRequest {
   support?: 'point' | 'block';
   /** Block support: discretisation points per cell side (default 4). */
   blockPoints?: number;
+  /** Point support from local neighbourhoods (many samples). */
+  local?: LocalKrigingOptions;
 }
 
 /**
@@ -100,7 +120,7 @@ export function surface(
     signal,
     onProgress: (p) => onProgress?.(p.done, p.total),
     onBand: (_band, merged) => onBand?.(merged),
-    support: req.support, blockPoints: req.blockPoints,
+    support: req.support, blockPoints: req.blockPoints, local: req.local,
   });
 }
 

@@ -23,6 +23,11 @@ import type { Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
 import { measuredRate, planGrid, type GridPlan } from './grid-plan.ts';
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
+import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
+
+/** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
+export const MANY_SAMPLES = EXACT_FIT_LIMIT;
 
 /** Conditional realisations with what they were computed from. */
 export interface SimulationView {
@@ -47,6 +52,8 @@ export interface SurfaceView {
   /** Point values at cell centres, or cell averages with `points` × `points` discretisation. */
   support: 'point' | 'block';
   points: number;
+  /** Samples per local neighbourhood, or null when every sample was used. */
+  local: number | null;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -161,6 +168,19 @@ export class Session {
     return bestKey(this.candidates);
   }
 
+  /** 'auto' chooses by sample count (MANY_SAMPLES); 'exact' or 'nnl' overrides. */
+  fitLikelihood = $state<'auto' | 'exact' | 'nnl'>('auto');
+  /** How the candidates in the table were fitted. */
+  fittedWith = $state.raw<{ likelihood: 'exact' | 'nnl'; n: number; automatic: boolean } | null>(null);
+  /** 'auto' uses local neighbourhoods from MANY_SAMPLES; 'exact' (all samples) or 'local' overrides. */
+  surfaceMethod = $state<'auto' | 'exact' | 'local'>('auto');
+
+  /** True when the next surface is computed from local neighbourhoods. */
+  get surfaceLocal(): boolean {
+    const n = this.intake?.samples.x.length ?? 0;
+    return this.surfaceMethod === 'local' || (this.surfaceMethod === 'auto' && n >= MANY_SAMPLES);
+  }
+
   /** Fits every candidate model (in workers); keeps the user's choice and any edited model. */
   async fit(): Promise<void> {
     const intake = this.intake;
@@ -170,14 +190,17 @@ export class Session {
     this.fitAbort = ac;
     const t0 = performance.now();
     this.fitTask = { ...idleTask(), status: 'running', total: 7 };
+    const n = intake.samples.x.length;
+    const likelihood = chooseFitMethod(n, this.fitLikelihood === 'auto' ? undefined : this.fitLikelihood);
     try {
       const rows = await engine.fitCandidateRows(
-        { samples: intake.samples, method: this.s.structure.method, transform: this.s.samples.transform },
+        { samples: intake.samples, method: this.s.structure.method, transform: this.s.samples.transform, likelihood },
         (done, total, what) => { if (this.fitAbort === ac) this.fitTask = { ...this.fitTask, done, total, what: what ?? '' }; },
         ac.signal,
       );
       if (this.fitAbort !== ac) return;
       this.candidates = rows;
+      this.fittedWith = { likelihood, n, automatic: this.fitLikelihood === 'auto' };
       const st = this.s.structure;
       const kept = rows.find((r) => r.key === st.chosen && r.model);
       if (kept) {
@@ -284,7 +307,7 @@ export class Session {
       v: this.samplesVersion, m: $state.snapshot(this.s.structure.model),
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
       t: this.s.surface.threshold,
-      s: this.support, k: this.support === 'block' ? this.blockPoints : 0,
+      s: this.support, k: this.support === 'block' ? this.blockPoints : 0, l: this.surfaceLocal,
     });
   }
 
@@ -306,11 +329,14 @@ export class Session {
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const key = this.surfaceKey;
     const support = model.transform === 'log' ? 'point' : this.support;
+    // Block averages are kriged from all samples; local neighbourhoods serve point values.
+    const local = support === 'point' && this.surfaceLocal;
     const t0 = performance.now();
     this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
     const view = (result: SurfaceResult, done: boolean, bands: number): SurfaceView => ({
       grid: plan.grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
       support, points: support === 'block' ? this.blockPoints : 1,
+      local: local ? DEFAULT_LOCAL_NEIGHBORS : null,
     });
     let bands = 0;
     try {
@@ -318,6 +344,7 @@ export class Session {
         {
           samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid, threshold: useThreshold ? threshold! : undefined,
           support, blockPoints: this.blockPoints,
+          local: local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : undefined,
         },
         (done, total) => { if (this.surfaceAbort === ac) this.surfaceTask = { ...this.surfaceTask, done, total }; },
         ac.signal,
