@@ -94,13 +94,18 @@ async function readBack(page: Page, region: { x0: number; x1: number; y0: number
     const entry = (v: number) => Math.min(entries - 1, Math.max(0, Math.round((v - probe.domain[0]) * (entries - 1) / span)));
     const o = 4 * (y * screen.width + x);
     const got = [screen.data[o], screen.data[o + 1], screen.data[o + 2]];
+    // The browser smooths a canvas scaled at fractional zoom, so a pixel may blend the cell's colour
+    // with a neighbour's: accept any colour between the two (a faded or unpainted tile shows the
+    // ground colour, which lies between no two colours of the scale).
+    const colour = (k: number) => [0, 1, 2].map((c) => probe.opacity * lut[4 * k + c] + (1 - probe.opacity) * ground[c]);
     let ok = false;
-    const candidates = new Set<number>();
-    for (const v of [probe.value, ...near]) for (const d of [-1, 0, 1]) candidates.add(entry(v) + d);
-    for (const k of candidates) {
-      if (k < 0 || k >= entries) continue;
-      const want = [0, 1, 2].map((c) => probe.opacity * lut[4 * k + c] + (1 - probe.opacity) * ground[c]);
-      if (want.every((w, c) => Math.abs(w - got[c]) <= 4)) ok = true;
+    const e0 = entry(probe.value);
+    for (const v of [probe.value, ...near]) {
+      for (const d of [-1, 0, 1]) {
+        const a = colour(Math.min(entries - 1, Math.max(0, e0 + d)));
+        const b = colour(Math.min(entries - 1, Math.max(0, entry(v) + d)));
+        if ([0, 1, 2].every((c) => got[c] >= Math.min(a[c], b[c]) - 4 && got[c] <= Math.max(a[c], b[c]) + 4)) ok = true;
+      }
     }
     if (!ok) mismatches.push(`(${x}, ${y}) value ${probe.value.toFixed(4)} screen rgb(${got.join(',')})`);
   }
@@ -134,9 +139,9 @@ describe('Surface step in the browser', () => {
     const box = (await page.locator('[data-testid=map]').boundingBox())!;
     const right = { x0: Math.round(box.x + box.width * 0.55), x1: Math.round(box.x + box.width - 20), y0: Math.round(box.y + 60), y1: Math.round(box.y + box.height - 60) };
     const all = { x0: Math.round(box.x + 260), x1: right.x1, y0: right.y0, y1: right.y1 };
+    const task = await takeLongestTask(page);
     const rightPart = await readBack(page, right, 10);
     const whole = await readBack(page, all, 14);
-    const task = await takeLongestTask(page);
     figures.push(`demo surface, compute + draw + exceedance layer: ${seconds.toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
     figures.push(`exceedance read-back: ${rightPart.checked} cell centres in the right part, ${whole.checked} over the site; mismatches ${rightPart.mismatches.length} and ${whole.mismatches.length}`);
     figures.push(`screenshot ${await shot(page, '3-surface-exceed')}`);
@@ -150,7 +155,7 @@ describe('Surface step in the browser', () => {
   it('computes cell averages (block support, 4 × 4 points): smaller sd than point values, same colours read back', async () => {
     const { page } = demo;
     const sdText = async () => (await page.locator('#surface-body').innerText()).match(/sd ranges ([\d.,]+) – ([\d.,]+)/)!.slice(1).map((t) => Number(t.replace(/,/g, '')));
-    const [, pointMax] = await sdText();
+    const [pointMin, pointMax] = await sdText();
     await page.locator('input[name=support][value=block]').check();
     expect(await page.locator('#block-points').inputValue()).toBe('4');
     await page.waitForSelector('[data-testid=surface-stale]');
@@ -160,15 +165,17 @@ describe('Surface step in the browser', () => {
     await page.waitForSelector('[data-testid=surface-layer][data-complete=yes][data-layer=pExceed]', { timeout: WAIT, state: 'attached' });
     const task = await takeLongestTask(page);
     expect(await page.locator('[data-testid=surface-done]').innerText()).toMatch(/as cell averages \(4 × 4 points per cell\)/);
-    const [, blockMax] = await sdText();
-    // A cell average varies less than a point value: the largest sd falls.
-    expect(blockMax).toBeLessThan(pointMax);
+    const [blockMin, blockMax] = await sdText();
+    // A cell average varies no more than a point value (the handler test checks it cell by cell);
+    // the range shown is the new one.
+    expect(blockMax).toBeLessThanOrEqual(pointMax);
+    expect([blockMin, blockMax]).not.toEqual([pointMin, pointMax]);
     await page.mouse.move(100, 800);
     const box = (await page.locator('[data-testid=map]').boundingBox())!;
     const back = await readBack(page, { x0: Math.round(box.x + 260), x1: Math.round(box.x + box.width - 20), y0: Math.round(box.y + 60), y1: Math.round(box.y + box.height - 60) }, 16);
     expect(back.checked).toBeGreaterThan(150);
     expect(back.mismatches).toEqual([]);
-    figures.push(`block surface: largest sd ${blockMax} (point ${pointMax}); longest main-thread task ${task.longest.toFixed(0)} ms; read-back ${back.checked} cells`);
+    figures.push(`block surface: sd ${blockMin}–${blockMax} (point ${pointMin}–${pointMax}); longest main-thread task ${task.longest.toFixed(0)} ms; read-back ${back.checked} cells`);
     figures.push(`screenshot ${await shot(page, '3-surface-block')}`);
     expectClean(demo);
   }, LONG);
