@@ -214,6 +214,18 @@ describe('Surface step in the browser', () => {
     }));
     expect(new Set(sums).size).toBe(4);
     figures.push(`realisations: 40 on ${await page.locator('[data-testid=cell-count]').innerText()} cells in ${(ms / 1000).toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms; area ${median} m² (${p05}–${p95})`);
+    // P(exceed) from the realisations on the map, read back like the kriged one.
+    await page.click('[data-testid=show-simulation]');
+    await page.waitForSelector('[data-testid=sim-on-map]');
+    // The map starts a new layer on the next task; then wait for it to replace the old one.
+    await page.waitForTimeout(300);
+    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes][data-layer=pExceed]', { timeout: WAIT, state: 'attached' });
+    await page.waitForFunction(() => document.querySelectorAll('.gapwise-surface').length === 1);
+    await page.mouse.move(100, 800);
+    const box = (await page.locator('[data-testid=map]').boundingBox())!;
+    const back = await readBack(page, { x0: Math.round(box.x + 260), x1: Math.round(box.x + box.width - 20), y0: Math.round(box.y + 60), y1: Math.round(box.y + box.height - 60) }, 16);
+    expect(back.checked).toBeGreaterThan(150);
+    expect(back.mismatches).toEqual([]);
     await page.locator('[data-testid=realisations]').scrollIntoViewIfNeeded();
     figures.push(`screenshot ${await shot(page, '3-surface-realisations')}`);
     expect(await page.locator('#surface-body [data-caution]').allInnerTexts()).toContain(CAUTION);

@@ -34,6 +34,8 @@ export interface SimulationView {
   grid: Grid;
   result: ConditionalSimulationResult;
   key: string;
+  /** The surface key at the time (see Session.surfaceKey). */
+  base: string;
   ms: number;
 }
 
@@ -54,6 +56,8 @@ export interface SurfaceView {
   points: number;
   /** Samples per local neighbourhood, or null when every sample was used. */
   local: number | null;
+  /** Set when the layers show the per-cell summaries of this many realisations. */
+  fromSimulation?: number;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -411,7 +415,7 @@ export class Session {
       const ms = performance.now() - t0;
       // Keep the first four realisations only: the view shows them, the summaries are computed.
       const kept = { ...result, realisations: result.realisations?.slice(0, 4) };
-      this.simulation = { grid: plan.grid, result: kept, key, ms };
+      this.simulation = { grid: plan.grid, result: kept, key, base: this.surfaceKey, ms };
       this.simRate = ms / 1000 / (count * plan.cells);
       this.simTask = { ...this.simTask, status: 'done', done: count, ms };
     } catch (e) {
@@ -419,6 +423,38 @@ export class Session {
       const err = showError(e);
       this.simTask = { ...this.simTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
     }
+  }
+
+  /**
+   * Puts the realisations' per-cell mean, sd and P(exceed) (the share of realisations above the
+   * action level) on the map in place of the kriged surface.
+   */
+  showSimulation(): void {
+    const sim = this.simulation;
+    const intake = this.intake;
+    if (!sim || !intake) return;
+    const r = sim.result;
+    const rangeOf = (a: Float32Array) => {
+      let min = Infinity, max = -Infinity;
+      for (const v of a) { if (v < min) min = v; if (v > max) max = v; }
+      return min <= max ? { min, max } : { min: NaN, max: NaN };
+    };
+    const mean = Float32Array.from(r.mean), sd = Float32Array.from(r.sd);
+    let cells = 0;
+    for (const v of mean) if (v === v) cells++;
+    const result: SurfaceResult = {
+      rows: [0, sim.grid.ny], nx: sim.grid.nx, mean, sd, range: { mean: rangeOf(mean), sd: rangeOf(sd) }, cells, warnings: [...r.warnings],
+    };
+    if (r.pExceed) {
+      result.pExceed = Float32Array.from(r.pExceed);
+      result.threshold = r.threshold;
+      result.range.pExceed = rangeOf(result.pExceed);
+    }
+    this.surface = {
+      grid: sim.grid, result, work: intake.report.crs.work, threshold: r.threshold ?? null, key: sim.base,
+      bands: (this.surface?.bands ?? 0) + 1, done: true, support: r.support, points: r.points, local: null, fromSimulation: r.count,
+    };
+    if (result.pExceed) this.s.surface.layer = 'exceed';
   }
 
   cancelSimulation(): void {
