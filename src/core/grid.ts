@@ -232,3 +232,69 @@ export function estimateSurfaceCost(n: number, cells: number, options: CostOptio
   const perCells = cells * (n * n + n * (cov + 4));
   return { flops: factor * workers + perCells, seconds: (factor + perCells / workers) / rate };
 }
+
+/** Rounds a length to 1, 2, 2.5 or 5 × 10^k metres (cells people can say aloud). */
+export function roundCell(size: number): number {
+  if (!(size > 0) || !Number.isFinite(size)) return 1;
+  const p = 10 ** Math.floor(Math.log10(size));
+  const f = size / p;
+  const nice = f < 1.5 ? 1 : f < 2.25 ? 2 : f < 3.5 ? 2.5 : f < 7.5 ? 5 : 10;
+  return nice * p;
+}
+
+/** A cell size giving about `target` cells over a width × height area (metres). */
+export function autoCellSize(width: number, height: number, target = 40_000): number {
+  const area = Math.max(width, 1) * Math.max(height, 1);
+  return roundCell(Math.sqrt(area / target));
+}
+
+/** Bounding box of points. */
+export function extentOf(x: ArrayLike<number>, y: ArrayLike<number>): { xmin: number; ymin: number; xmax: number; ymax: number } {
+  let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
+  for (let i = 0; i < x.length; i++) {
+    if (x[i] < xmin) xmin = x[i];
+    if (x[i] > xmax) xmax = x[i];
+    if (y[i] < ymin) ymin = y[i];
+    if (y[i] > ymax) ymax = y[i];
+  }
+  return { xmin, ymin, xmax, ymax };
+}
+
+/** Options of planSurfaceGrid (plain data). */
+export interface GridPlanOptions {
+  /** Sample coordinates (working CRS). */
+  x: ArrayLike<number>;
+  y: ArrayLike<number>;
+  /** Fraction of the larger side added around the samples' extent (ignored with polygons). */
+  padding: number;
+  /** Metres; 0 or less = automatic (about `targetCells` cells, rounded to 1, 2, 2.5 or 5 × 10^k). */
+  cellSize: number;
+  /** Boundary polygons in the working CRS; the grid covers them and masks cells outside. */
+  polygons?: ReadonlyArray<Polygon> | null;
+  targetCells?: number;
+}
+
+/**
+ * The grid a surface is computed on: over the boundary polygons when given (cells outside masked),
+ * else over the samples' extent padded by `padding` × its larger side. The app, project files and the
+ * CLI all plan grids here, so the same choices give the same grid everywhere.
+ */
+export function planSurfaceGrid(o: GridPlanOptions): { grid: Grid; cell: number; auto: boolean } {
+  const e = extentOf(o.x, o.y);
+  const useBoundary = !!o.polygons && o.polygons.length > 0;
+  let width = e.xmax - e.xmin;
+  let height = e.ymax - e.ymin;
+  if (useBoundary) {
+    const bx: number[] = [];
+    const by: number[] = [];
+    for (const p of o.polygons!) for (const v of p[0]) { bx.push(v[0]); by.push(v[1]); }
+    const b = extentOf(bx, by);
+    width = b.xmax - b.xmin;
+    height = b.ymax - b.ymin;
+  }
+  const pad = useBoundary ? 0 : Math.max(0, o.padding) * Math.max(width, height);
+  const auto = !(o.cellSize > 0);
+  const cell = auto ? autoCellSize(width + 2 * pad, height + 2 * pad, o.targetCells ?? 40_000) : o.cellSize;
+  const grid = useBoundary ? gridForPolygons(o.polygons!, cell) : gridFromExtent(e.xmin, e.ymin, e.xmax, e.ymax, cell, pad);
+  return { grid, cell, auto };
+}

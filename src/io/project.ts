@@ -12,7 +12,7 @@
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { gridForPolygons, gridFromExtent, type Grid } from '../core/grid.ts';
+import { gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
 import { readSamples } from './intake.ts';
 import { projectPolygons, readPolygons, type Polygon } from './boundary.ts';
 import { LOCAL_CRS } from './crs.ts';
@@ -435,62 +435,11 @@ export function projectBoundary(project: Project, workCrs: string): { lonLat: Po
   return { lonLat, work: projectPolygons(lonLat, workCrs) };
 }
 
-/** Rounds a length to 1, 2, 2.5 or 5 × 10^k metres. */
-export function roundCell(size: number): number {
-  if (!(size > 0) || !Number.isFinite(size)) return 1;
-  const p = 10 ** Math.floor(Math.log10(size));
-  const f = size / p;
-  const nice = f < 1.5 ? 1 : f < 2.25 ? 2 : f < 3.5 ? 2.5 : f < 7.5 ? 5 : 10;
-  return nice * p;
-}
+export { roundCell, type GridPlanOptions } from '../core/grid.ts';
 
-/** Options of planSurfaceGrid (plain data). */
-export interface GridPlanOptions {
-  /** Sample coordinates (working CRS). */
-  x: ArrayLike<number>;
-  y: ArrayLike<number>;
-  /** Fraction of the larger side added around the samples' extent (ignored with polygons). */
-  padding: number;
-  /** Metres; 0 or less = automatic (about `targetCells` cells, rounded to 1, 2, 2.5 or 5 × 10^k). */
-  cellSize: number;
-  /** Boundary polygons in the working CRS; the grid covers them and masks cells outside. */
-  polygons?: ReadonlyArray<ReadonlyArray<ReadonlyArray<readonly [number, number]>>> | null;
-  targetCells?: number;
-}
-
-/**
- * The grid over the samples' padded extent, or over the boundary with a mask, with the automatic
- * cell size the app uses (about 40,000 cells).
- */
+/** The grid a surface is computed on (see core/grid.ts planSurfaceGrid: one plan for app, files and CLI). */
 export function planSurfaceGrid(o: GridPlanOptions): Grid {
-  const bounds = (xs: ArrayLike<number>, ys: ArrayLike<number>) => {
-    let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
-    for (let i = 0; i < xs.length; i++) {
-      if (xs[i] < xmin) xmin = xs[i];
-      if (xs[i] > xmax) xmax = xs[i];
-      if (ys[i] < ymin) ymin = ys[i];
-      if (ys[i] > ymax) ymax = ys[i];
-    }
-    return { xmin, ymin, xmax, ymax };
-  };
-  const e = bounds(o.x, o.y);
-  const useBoundary = !!o.polygons && o.polygons.length > 0;
-  let width = e.xmax - e.xmin;
-  let height = e.ymax - e.ymin;
-  if (useBoundary) {
-    const bx: number[] = [];
-    const by: number[] = [];
-    for (const p of o.polygons!) for (const v of p[0]) { bx.push(v[0]); by.push(v[1]); }
-    const b = bounds(bx, by);
-    width = b.xmax - b.xmin;
-    height = b.ymax - b.ymin;
-  }
-  const pad = useBoundary ? 0 : Math.max(0, o.padding) * Math.max(width, height);
-  const target = o.targetCells ?? 40_000;
-  const cell = o.cellSize > 0
-    ? o.cellSize
-    : roundCell(Math.sqrt((Math.max(width + 2 * pad, 1) * Math.max(height + 2 * pad, 1)) / target));
-  return useBoundary ? gridForPolygons(o.polygons!, cell) : gridFromExtent(e.xmin, e.ymin, e.xmax, e.ymax, cell, pad);
+  return planGrid(o).grid;
 }
 
 /**
