@@ -5,15 +5,9 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
 import { fiveHundredCsv, hostileCsv, projectedGridCsv } from './files.ts';
 import { buildLut } from '../src/ui/map/colour-scales.ts';
-
-const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
-/** Per-test limit; the machine is shared, so fits can take minutes. */
-const LONG = 600_000;
-/** Limit for one wait on the page. */
-const WAIT = 240_000;
 
 let h: Harness;
 const figures: string[] = [];
@@ -26,12 +20,6 @@ afterAll(async () => {
   await h?.close();
   if (figures.length) console.log(`\nGapwise browser figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
 });
-
-async function openStep(page: Page, id: string): Promise<void> {
-  const button = page.locator(`#${id}-heading button`);
-  if ((await button.getAttribute('aria-expanded')) !== 'true') await button.click();
-  await page.waitForSelector(`#${id}-body:not([hidden])`);
-}
 
 async function loadFile(page: Page, name: string, text: string): Promise<void> {
   await openStep(page, 'samples');
@@ -68,12 +56,6 @@ async function computeSurface(page: Page): Promise<number> {
   const seconds = (Date.now() - t0) / 1000;
   await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
   return seconds;
-}
-
-function expectClean(w: Watched): void {
-  expect(w.outside, 'requests that left the machine').toEqual([]);
-  expect(w.pageErrors, 'uncaught page errors').toEqual([]);
-  expect(w.consoleErrors, 'console errors').toEqual([]);
 }
 
 async function cautionsIn(page: Page, stepId: string): Promise<string[]> {

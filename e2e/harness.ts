@@ -9,6 +9,8 @@ import { resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { preview, type PreviewServer } from 'vite';
 import { chromium, type Browser, type BrowserContext, type Page } from 'playwright-core';
+import { expect } from 'vitest';
+export { CAUTION } from '../src/core/caution.ts';
 
 export const ROOT = resolve(fileURLToPath(new URL('.', import.meta.url)), '..');
 export const SCREENSHOTS = resolve(ROOT, 'e2e', 'screenshots');
@@ -125,4 +127,23 @@ export async function shot(page: Page, name: string): Promise<string> {
   const path = resolve(SCREENSHOTS, `${name}.png`);
   await page.screenshot({ path, fullPage: false });
   return path;
+}
+
+/** Per-test limit; the machine may be shared, so fits can take minutes. */
+export const LONG = 600_000;
+/** Longest wait for one step of the app (a fit, a surface). */
+export const WAIT = 240_000;
+
+/** Opens a step of the side column (if closed) and waits for its body. */
+export async function openStep(page: Page, id: string): Promise<void> {
+  const button = page.locator(`#${id}-heading button`);
+  if ((await button.getAttribute('aria-expanded')) !== 'true') await button.click();
+  await page.waitForSelector(`#${id}-body:not([hidden])`);
+}
+
+/** No request left the machine, no uncaught page error, no console error. */
+export function expectClean(w: Watched): void {
+  expect(w.outside, 'requests that left the machine').toEqual([]);
+  expect(w.pageErrors, 'uncaught page errors').toEqual([]);
+  expect(w.consoleErrors, 'console errors').toEqual([]);
 }

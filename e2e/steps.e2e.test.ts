@@ -10,13 +10,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../src/cli/main.ts';
 import type { Download, Page } from 'playwright-core';
-import { startHarness, openPage, shot, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, type Harness, type Watched } from './harness.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION } from '../src/io/project.ts';
-
-const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
-/** Per-test limit; the machine is shared, so fits can take minutes. */
-const LONG = 600_000;
-const WAIT = 240_000;
 
 let h: Harness;
 let w: Watched;
@@ -29,18 +24,6 @@ beforeAll(async () => {
 afterAll(async () => {
   await h?.close();
 });
-
-async function openStep(page: Page, id: string): Promise<void> {
-  const button = page.locator(`#${id}-heading button`);
-  if ((await button.getAttribute('aria-expanded')) !== 'true') await button.click();
-  await page.waitForSelector(`#${id}-body:not([hidden])`);
-}
-
-function expectClean(x: Watched): void {
-  expect(x.outside, 'requests that left the machine').toEqual([]);
-  expect(x.pageErrors, 'uncaught page errors').toEqual([]);
-  expect(x.consoleErrors, 'console errors').toEqual([]);
-}
 
 /** Clicks a download button and returns the file's name and bytes. */
 async function download(page: Page, selector: string): Promise<{ name: string; bytes: Buffer }> {

@@ -5,12 +5,8 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
 import { buildLut, type ScaleName } from '../src/ui/map/colour-scales.ts';
-
-const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
-const LONG = 600_000;
-const WAIT = 240_000;
 
 let h: Harness;
 const figures: string[] = [];
@@ -23,18 +19,6 @@ afterAll(async () => {
   await h?.close();
   if (figures.length) console.log(`\nGapwise surface figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
 });
-
-async function openStep(page: Page, id: string): Promise<void> {
-  const button = page.locator(`#${id}-heading button`);
-  if ((await button.getAttribute('aria-expanded')) !== 'true') await button.click();
-  await page.waitForSelector(`#${id}-body:not([hidden])`);
-}
-
-function expectClean(w: Watched): void {
-  expect(w.outside, 'requests that left the machine').toEqual([]);
-  expect(w.pageErrors, 'uncaught page errors').toEqual([]);
-  expect(w.consoleErrors, 'console errors').toEqual([]);
-}
 
 interface Probe {
   value: number; sd: number | null; centreX: number; centreY: number;
