@@ -28,9 +28,6 @@ import {
 import {
   cholesky, solveLowerInPlace, solveUpperTransposeInPlace, solveLowerBlock, type CholeskyFactor,
 } from './linalg.ts';
-
-// The panel solves moved to linalg.ts; re-exported for the modules that import them from here.
-export { solveLowerBlock, lowerTriangularInverse } from './linalg.ts';
 import {
   trendColumnCount, knownMean, coordinateFrame, centreCoordinates, designMatrix, designRow,
   type CoordinateFrame,

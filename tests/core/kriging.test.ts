@@ -1,8 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import {
-  createPredictor, predictAt, krigingWeights, solveLowerBlock, buildKrigingSystem, lowerTriangularInverse,
-} from '../../src/core/kriging.ts';
+import { createPredictor, predictAt, krigingWeights, buildKrigingSystem } from '../../src/core/kriging.ts';
+import { solveLowerBlock, lowerTriangularInverse } from '../../src/core/linalg.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
 import { makeSamples, type Samples } from '../../src/core/samples.ts';
 import { createRandom } from '../../src/core/random.ts';
