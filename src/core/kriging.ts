@@ -141,7 +141,8 @@ export interface Predictor {
 
 const DEFAULT_BLOCK = 512;
 
-function checkModel(model: CovarianceModel): void {
+/** Throws GapwiseError('bad-model') unless the model has structures with non-negative sills adding up to more than 0 and a known transform. */
+export function checkModel(model: CovarianceModel): void {
   if (!model || !Array.isArray(model.structures) || model.structures.length === 0) {
     throw new GapwiseError('bad-model', 'Expected the model to have at least one structure, got none.');
   }

@@ -27,7 +27,7 @@ import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { coordinateFrame, designRow, knownMean, trendColumnCount, type CoordinateFrame } from './trend.ts';
 import { NeighborIndex } from './neighbors.ts';
 import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
-import { createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
+import { checkModel, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
@@ -70,17 +70,7 @@ export interface LocalPredictor {
 }
 
 function checkInputs(samples: Samples, model: CovarianceModel, p: number): void {
-  if (!model || !Array.isArray(model.structures) || model.structures.length === 0) {
-    throw new GapwiseError('bad-model', 'Expected the model to have at least one structure, got none.');
-  }
-  let total = 0;
-  for (const s of model.structures) {
-    if (!(typeof s.sill === 'number' && Number.isFinite(s.sill) && s.sill >= 0)) {
-      throw new GapwiseError('bad-model', `Expected every sill to be a non-negative number, got ${JSON.stringify(s.sill)}.`);
-    }
-    total += s.sill;
-  }
-  if (!(total > 0)) throw new GapwiseError('bad-model', `Expected the sills to add up to more than 0, got ${total}.`);
+  checkModel(model);
   if (!samples || !samples.x || !samples.y || !samples.value) throw new GapwiseError('bad-value', 'Expected samples with x, y and value arrays.');
   const n = samples.x.length;
   if (samples.y.length !== n || samples.value.length !== n) {
