@@ -5,19 +5,12 @@
  * without a model. One run each (the greedy is deterministic). Target: under 10 s per design.
  * Run alone: `npx tsx bench/design.ts` (`--quick`: 300 samples, about 5,000 cells), or via `npm run bench`.
  */
+import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { suggestSites, type DesignOptions, type DesignResult } from '../src/core/design.ts';
-import { createRandom } from '../src/core/random.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
 import type { Polygon } from '../src/core/grid.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  note?: string;
-}
 
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 250, nu: 1.5 }],
@@ -25,18 +18,9 @@ const MODEL: CovarianceModel = {
   transform: 'none',
 };
 
-/** Invented samples on a square of `side` metres at UTM-like coordinates (seeded). */
+/** The benchmark's invented samples (bench/common.ts). */
 function makeSamples(n: number, side: number, seed: number): Samples {
-  const r = createRandom(seed);
-  const x = new Float64Array(n);
-  const y = new Float64Array(n);
-  const value = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    x[i] = 500000 + side * r.uniform();
-    y[i] = 6000000 + side * r.uniform();
-    value[i] = 40 + 10 * Math.sin((x[i] - 500000) / 300) * Math.cos((y[i] - 6000000) / 400) + r.normal();
-  }
-  return { x, y, value };
+  return waveSamples(n, { side, amplitude: 10, lengthX: 300, lengthY: 400, seed });
 }
 
 /** Wall-clock and CPU seconds of one call (CPU time tells a busy shared machine from a slow design). */

@@ -2,19 +2,13 @@
 // samples in a 1 km square (true scale 150 m, sill 1, nugget 0.1), and the cost of one likelihood
 // evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick).
 // Alone: `npx tsx bench/fit.ts [--quick]`; with the others: `npm run bench -- fit`.
+import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { fitModel } from '../src/core/fit.ts';
 import { createLikelihood } from '../src/core/likelihood.ts';
 import { simulateSamples } from '../src/core/simulate.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  note?: string;
-}
 
 const truth: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],

@@ -7,17 +7,11 @@
  * Targets: under 2 s and about 50 MB beyond the file for 100,000 rows.
  * Run alone: `npx tsx bench/intake.ts` (`--quick`: 20,000 rows), or via `npm run bench`.
  */
+import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { readSamples } from '../src/io/intake.ts';
 import { projectPolygons, readPolygons } from '../src/io/boundary.ts';
 import { createRandom } from '../src/core/random.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  note?: string;
-}
 
 /** Invented lon/lat samples near 11.3° E, 48.5° N (seeded). */
 export function makeLonLatCsv(n: number, seed = 7): string {

@@ -5,6 +5,7 @@
  * figure is dominated by L⁻¹k₀ for 40,000 right-hand sides: GFLOP/s counts those n²·targets flops.
  * Run alone: `npx tsx bench/kriging.ts` (`--quick`: n = 500, 5,000 targets), or via `npm run bench`.
  */
+import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { createPredictor } from '../src/core/kriging.ts';
 import { leaveOneOut } from '../src/core/cross-validation.ts';
@@ -12,32 +13,15 @@ import { createRandom } from '../src/core/random.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
 
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  gflops?: number;
-  note?: string;
-}
-
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 400, nu: 1.5 }],
   trend: 'constant',
   transform: 'none',
 };
 
-/** Invented samples on a 5 km square at UTM-like coordinates (seeded). */
+/** The benchmark's invented samples (bench/common.ts). */
 function makeSamples(n: number, seed: number): Samples {
-  const r = createRandom(seed);
-  const x = new Float64Array(n);
-  const y = new Float64Array(n);
-  const value = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    x[i] = 500000 + 5000 * r.uniform();
-    y[i] = 6000000 + 5000 * r.uniform();
-    value[i] = 40 + 10 * Math.sin((x[i] - 500000) / 700) * Math.cos((y[i] - 6000000) / 900) + r.normal();
-  }
-  return { x, y, value };
+  return waveSamples(n, { side: 5000, amplitude: 10, lengthX: 700, lengthY: 900, seed });
 }
 
 function median(a: number[]): number {

@@ -16,6 +16,7 @@
  * 100 × 100 cells; `--a` or `--b` for one part), or via `npm run bench -- large`. Writes
  * bench/results/large[-a|-b][-quick].json when run alone.
  */
+import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir, availableParallelism, cpus, loadavg } from 'node:os';
@@ -29,14 +30,6 @@ import { createRandom } from '../src/core/random.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
 import type { Grid } from '../src/core/grid.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  note?: string;
-  [key: string]: unknown;
-}
 
 const SILL = 1;
 const SCALE = 80;

@@ -8,19 +8,12 @@
  * the note gives the process CPU time of the median run (the machine may be shared: compare CPU time
  * when wall time is inflated by other work). Run alone: `npx tsx bench/linalg.ts` (`--quick`: small n).
  */
+import type { Row } from './common.ts';
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { choleskyInPlace, choleskyUnblockedInPlace, solveLowerMultiple } from '../src/core/linalg.ts';
 import { createRandom } from '../src/core/random.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  gflops?: number;
-  note?: string;
-}
 
 /** An exponential covariance (scale 200 m, nugget 0.1) of n random points on a 1 km square. */
 function covarianceMatrix(n: number): Float64Array {

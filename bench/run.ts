@@ -3,15 +3,9 @@
 // Select some with names: `npm run bench -- linalg kriging`. `--quick` asks each for small sizes.
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { cpus, totalmem } from 'node:os';
+import type { Row } from './common.ts';
 
-export interface BenchRow {
-  name: string;
-  n: number;
-  seconds: number;
-  gflops?: number;
-  note?: string;
-  [key: string]: unknown;
-}
+export type BenchRow = Row;
 
 const SUITES: Record<string, { file: string; fn: string }> = {
   linalg: { file: './linalg.ts', fn: 'runLinalgBench' },

@@ -6,21 +6,14 @@
  * Run alone: `npx tsx bench/simulation.ts` (`--quick`: 100 × 100 grid, 20 realisations), or via
  * `npx tsx bench/run.ts simulation`.
  */
+import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { simulateConditional } from '../src/core/conditional-simulation.ts';
 import { createCirculantEmbedding } from '../src/core/circulant-embedding.ts';
 import { createFft2Plan } from '../src/core/fft.ts';
-import { createRandom } from '../src/core/random.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
 import type { Grid } from '../src/core/grid.ts';
-
-export interface Row {
-  name: string;
-  n: number;
-  seconds: number;
-  note?: string;
-}
 
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],
@@ -28,18 +21,9 @@ const MODEL: CovarianceModel = {
   transform: 'none',
 };
 
-/** Invented samples on a 1 km square at UTM-like coordinates (seeded). */
+/** The benchmark's invented samples (bench/common.ts). */
 function makeSamples(n: number, seed: number): Samples {
-  const r = createRandom(seed);
-  const x = new Float64Array(n);
-  const y = new Float64Array(n);
-  const value = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    x[i] = 500000 + 1000 * r.uniform();
-    y[i] = 6000000 + 1000 * r.uniform();
-    value[i] = 40 + 5 * Math.sin((x[i] - 500000) / 200) * Math.cos((y[i] - 6000000) / 260) + r.normal();
-  }
-  return { x, y, value };
+  return waveSamples(n, { side: 1000, amplitude: 5, lengthX: 200, lengthY: 260, seed });
 }
 
 function time(f: () => void): number {
