@@ -2,8 +2,10 @@
  * Gapwise project files: one versioned JSON document ({"format": "gapwise-project", "version": 2})
  * holding everything needed to reproduce a result — the samples file text exactly as read with the
  * intake options, the boundary text, every modelling choice, the model, the grid, the threshold and
- * any suggested next samples. Results that can be recomputed (surfaces, cross-validation) are not
- * stored. The schema is documented in docs/project-format.md.
+ * any suggested next samples, and the settings of conditional realisations with the area (and volume)
+ * above the action level they gave. Results that can be recomputed (surfaces, cross-validation) are not
+ * stored; the area figure is kept because it is what a report quotes and it costs a simulation to
+ * redo. The schema is documented in docs/project-format.md.
  *
  * `saveProject` writes the text, `openProject` checks it (every problem is a GapwiseError naming the
  * file and the field) and brings version 1 files up to version 2. `projectIntake`, `projectBoundary`
@@ -13,6 +15,7 @@ import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
 import { gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
+import { MAX_REALISATIONS as MAX_COUNT, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 import { readSamples } from './intake.ts';
 import { projectPolygons, readPolygons, type Polygon } from './boundary.ts';
 import { LOCAL_CRS } from './crs.ts';
@@ -92,6 +95,51 @@ export interface Suggestion {
   pExceed?: number;
 }
 
+/** How conditional realisations are (or were) drawn; plain data, as in the app and the CLI. */
+export interface SimulationSettings {
+  /** Number of realisations N. */
+  count: number;
+  /** Seed of the random numbers (a whole number; the same seed gives the same realisations). */
+  seed: number;
+  /** 'point': values at cell centres; 'block': cell averages over blockPoints × blockPoints points. */
+  support: 'point' | 'block';
+  /** Points per cell side for block support (1 for point support). */
+  blockPoints: number;
+  /** Depth of the layer in metres for the volume above the action level (null = no volume). */
+  depth: number | null;
+}
+
+/** Median, 5 % and 95 % quantiles and mean of a quantity over the realisations. */
+export interface SpreadFigure {
+  median: number;
+  p05: number;
+  p95: number;
+  mean: number;
+}
+
+/** What the realisations gave: the area (and volume) above the action level with its spread. */
+export interface SimulationSummary {
+  /** The action level the area is counted above (data units). */
+  threshold: number;
+  /** Cell size of the grid (m) and cells inside the area. */
+  cell: number;
+  activeCells: number;
+  area: SpreadFigure & { unit: 'm²' };
+  /** With a depth: area × depth. */
+  volume?: SpreadFigure & { unit: 'm³'; depth: number };
+  /** Share of the mapped area above the level (0..1). */
+  fraction: SpreadFigure;
+  /** How the figure was made, in plain words (see simulationMethodText). */
+  method: string;
+  /** ISO 8601 time the realisations were drawn ('' = unknown). */
+  made: string;
+}
+
+/** Realisation settings and, once drawn, their summary. */
+export interface ProjectSimulation extends SimulationSettings {
+  summary?: SimulationSummary;
+}
+
 export interface Project {
   format: typeof PROJECT_FORMAT;
   version: typeof PROJECT_VERSION;
@@ -111,6 +159,8 @@ export interface Project {
   suggestions?: Suggestion[];
   /** Options the suggestions were made with, as given (plain data). */
   suggestOptions?: Record<string, unknown>;
+  /** Conditional realisations: settings and the area above the action level they gave. */
+  simulation?: ProjectSimulation;
 }
 
 /** What a new project needs; everything else has a default. */
@@ -123,6 +173,7 @@ export interface ProjectParts {
   threshold?: number | null;
   suggestions?: Suggestion[];
   suggestOptions?: Record<string, unknown>;
+  simulation?: ProjectSimulation;
   title?: string;
   software?: { name: string; version: string };
   saved?: string;
@@ -163,7 +214,69 @@ export function createProject(parts: ProjectParts): Project {
   if (parts.grid?.geometry) p.grid.geometry = { ...parts.grid.geometry };
   if (parts.suggestions) p.suggestions = parts.suggestions.map((x) => ({ ...x }));
   if (parts.suggestOptions) p.suggestOptions = { ...parts.suggestOptions };
+  if (parts.simulation) p.simulation = copySimulation(parts.simulation);
   return p;
+}
+
+function copySimulation(s: ProjectSimulation): ProjectSimulation {
+  const out: ProjectSimulation = { count: s.count, seed: s.seed, support: s.support, blockPoints: s.blockPoints, depth: s.depth };
+  if (s.summary) {
+    const m = s.summary;
+    out.summary = {
+      threshold: m.threshold, cell: m.cell, activeCells: m.activeCells, area: { ...m.area },
+      ...(m.volume ? { volume: { ...m.volume } } : {}), fraction: { ...m.fraction }, method: m.method, made: m.made,
+    };
+  }
+  return out;
+}
+
+/**
+ * The method behind the area figure in plain words, for the report and the project file: how the
+ * realisations were drawn and conditioned, the back-transform of a log model, the support, and what
+ * the interval does and does not include.
+ */
+export function simulationMethodText(o: { support: 'point' | 'block'; blockPoints: number; log: boolean; count: number }): string {
+  const parts = [
+    'Conditional Gaussian simulation on the grid: unconditional fields drawn by FFT circulant embedding, '
+      + 'conditioned on the samples by kriging the residuals.',
+  ];
+  if (o.log) parts.push('The model is fitted to ln(value), so each realisation is back-transformed cell by cell (exp) to the data scale.');
+  parts.push(o.support === 'block'
+    ? `Each cell is the average of ${o.blockPoints} × ${o.blockPoints} points (block support).`
+    : 'Each cell is the value at its centre (point support).');
+  parts.push(`In each of the ${o.count} realisations the cells above the action level are counted and multiplied by the cell area; `
+    + 'the figure is the median over the realisations and the interval their 5 % and 95 % quantiles.');
+  parts.push('The interval reflects the model\'s uncertainty given the fitted covariance, not the uncertainty of the covariance parameters, '
+    + 'nor sampling or laboratory error.');
+  return parts.join(' ');
+}
+
+/**
+ * The project's record of conditional realisations from a simulation result: its settings and, when
+ * it counted the area above an action level, the summary (plain data, ready to save).
+ */
+export function projectSimulation(
+  result: Pick<ConditionalSimulationResult, 'count' | 'support' | 'points' | 'area'>,
+  settings: { seed: number; depth?: number | null; log: boolean; made?: string },
+): ProjectSimulation {
+  const out: ProjectSimulation = {
+    count: result.count, seed: settings.seed, support: result.support, blockPoints: result.support === 'block' ? result.points : 1,
+    depth: settings.depth ?? null,
+  };
+  const a = result.area;
+  if (a) {
+    const fig = (q: { median: number; p05: number; p95: number; mean: number }): SpreadFigure => ({ median: q.median, p05: q.p05, p95: q.p95, mean: q.mean });
+    out.summary = {
+      threshold: a.threshold, cell: Math.sqrt(a.cellArea), activeCells: a.activeCells,
+      area: { ...fig(a.area), unit: 'm²' },
+      ...(a.volume ? { volume: { ...fig(a.volume), unit: 'm³' as const, depth: a.volume.depth } } : {}),
+      fraction: fig(a.fraction),
+      method: simulationMethodText({ support: out.support, blockPoints: out.blockPoints, log: settings.log, count: result.count }),
+      made: settings.made ?? '',
+    };
+    if (a.volume) out.depth = a.volume.depth;
+  }
+  return out;
 }
 
 function methodOf(model: CovarianceModel | null): 'reml' | 'ml' | 'wls' {
@@ -348,7 +461,64 @@ function validateV2(input: unknown, file: string): Project {
   const suggestions = readSuggestions(c, o.suggestions);
   if (suggestions) project.suggestions = suggestions;
   if (o.suggestOptions !== undefined) project.suggestOptions = c.obj(o.suggestOptions, 'suggestOptions');
+  const simulation = readSimulation(c, o.simulation);
+  if (simulation) project.simulation = simulation;
   return project;
+}
+
+function readSpread(c: Checker, v: unknown, path: string, min: number): SpreadFigure {
+  const o = c.obj(v, path);
+  const what = min === 0 ? 'a number of 0 or more' : 'a number';
+  const f: SpreadFigure = {
+    median: c.num(o.median, `${path}.median`, min, what), p05: c.num(o.p05, `${path}.p05`, min, what),
+    p95: c.num(o.p95, `${path}.p95`, min, what), mean: c.num(o.mean, `${path}.mean`, min, what),
+  };
+  if (f.p05 > f.median) c.fail(`${path}.p05`, `at most the median ${f.median}`, f.p05);
+  if (f.p95 < f.median) c.fail(`${path}.p95`, `at least the median ${f.median}`, f.p95);
+  return f;
+}
+
+function readSimulation(c: Checker, v: unknown): ProjectSimulation | undefined {
+  if (v === undefined || v === null) return undefined;
+  const o = c.obj(v, 'simulation');
+  const whole = (x: unknown, path: string, min: number, max: number, what: string) => {
+    const n = c.num(x, path, min, what);
+    if (!Number.isInteger(n) || n > max) c.fail(path, what, x);
+    return n;
+  };
+  const support = o.support === undefined ? 'point' : c.oneOf(o.support, 'simulation.support', ['point', 'block'] as const);
+  const out: ProjectSimulation = {
+    count: whole(o.count, 'simulation.count', 1, MAX_COUNT, `a whole number of realisations from 1 to ${MAX_COUNT}`),
+    seed: o.seed === undefined ? 1 : whole(o.seed, 'simulation.seed', -(2 ** 31), 2 ** 31, 'a whole number'),
+    support,
+    blockPoints: support === 'point' ? 1 : o.blockPoints === undefined ? 4 : whole(o.blockPoints, 'simulation.blockPoints', 1, 16, 'a whole number of points from 1 to 16'),
+    depth: o.depth === undefined || o.depth === null ? null : c.num(o.depth, 'simulation.depth', Number.MIN_VALUE, 'a depth above 0 m'),
+  };
+  if (o.summary !== undefined && o.summary !== null) {
+    const m = c.obj(o.summary, 'simulation.summary');
+    const area = readSpread(c, m.area, 'simulation.summary.area', 0);
+    const summary: SimulationSummary = {
+      threshold: c.num(m.threshold, 'simulation.summary.threshold'),
+      cell: c.num(m.cell, 'simulation.summary.cell', Number.MIN_VALUE, 'a positive cell size in metres'),
+      activeCells: whole(m.activeCells, 'simulation.summary.activeCells', 0, Number.MAX_SAFE_INTEGER, 'a whole number of cells'),
+      area: { ...area, unit: 'm²' },
+      fraction: { median: 0, p05: 0, p95: 0, mean: 0 },
+      method: m.method === undefined ? '' : c.str(m.method, 'simulation.summary.method'),
+      made: m.made === undefined ? '' : c.str(m.made, 'simulation.summary.made'),
+    };
+    // The share of the area follows from the area when a file leaves it out.
+    const mapped = summary.activeCells * summary.cell * summary.cell;
+    const share = (a: number) => (mapped > 0 ? a / mapped : 0);
+    summary.fraction = m.fraction === undefined
+      ? { median: share(area.median), p05: share(area.p05), p95: share(area.p95), mean: share(area.mean) }
+      : readSpread(c, m.fraction, 'simulation.summary.fraction', 0);
+    if (m.volume !== undefined && m.volume !== null) {
+      const vo = c.obj(m.volume, 'simulation.summary.volume');
+      summary.volume = { ...readSpread(c, vo, 'simulation.summary.volume', 0), unit: 'm³', depth: c.num(vo.depth, 'simulation.summary.volume.depth', Number.MIN_VALUE, 'a depth above 0 m') };
+    }
+    out.summary = summary;
+  }
+  return out;
 }
 
 /**

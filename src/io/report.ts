@@ -3,7 +3,9 @@
  * data URLs; no script, no font, nothing fetched — a Content-Security-Policy in the page forbids it),
  * laid out for printing to PDF from the browser (A4 pages, page breaks between parts).
  *
- * Parts: the screening caution (top and on every printed page), job summary, samples (data summary,
+ * Parts: the screening caution (top and on every printed page), job summary, the area (and volume)
+ * above the action level from conditional realisations with its 90 % interval and method (or one line
+ * saying none was made and how to make one), samples (data summary,
  * read report, histogram), structure (variogram with the model, model comparison), cross-validation
  * (figures and plot), surfaces (maps of mean, sd and P(exceed) with legends, scale bar and north
  * arrow), suggested next samples (when present), and every parameter needed to reproduce the result
@@ -23,11 +25,13 @@ import { leaveOneOut, type LeaveOneOutResult } from '../core/cross-validation.ts
 import { empiricalVariogram, type EmpiricalVariogram } from '../core/variogram.ts';
 import { surfaceCovariance, surfaceVariance } from '../core/covariance.ts';
 import { CANDIDATES, fitModel } from '../core/fit.ts';
+import { simulateConditional } from '../core/conditional-simulation.ts';
 import type { Polygon } from './boundary.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 import type { IntakeResult } from './types.ts';
 import {
-  gridGeometry, projectBoundary, projectGrid, projectIntake, type ComparisonRow, type Project, type Suggestion,
+  gridGeometry, projectBoundary, projectGrid, projectIntake, projectSimulation,
+  type ComparisonRow, type Project, type ProjectSimulation, type SimulationSettings, type Suggestion,
 } from './project.ts';
 import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
 import {
@@ -54,6 +58,11 @@ export interface ReportInput {
   cv: LeaveOneOutResult | null;
   grid: Grid | null;
   surface: ReportSurface | null;
+  /**
+   * Realisations with the area above the action level (`summary`) shown in the report; absent =
+   * the project's own (`project.simulation`), null = none.
+   */
+  simulation?: ProjectSimulation | null;
   software: { name: string; version: string };
   /** ISO 8601 time the report was made. */
   created: string;
@@ -77,6 +86,13 @@ export interface PrepareOptions {
   comparison?: ComparisonRow[];
   /** Replaces the project's cell size (the grid is then planned anew). */
   cellSize?: number;
+  /**
+   * Draw conditional realisations on the report's grid with these settings and report the area (and,
+   * with a depth, the volume) above the project's action level; replaces a summary the project holds.
+   */
+  simulate?: SimulationSettings;
+  /** Progress of the realisations (done, total). */
+  onProgress?: (done: number, total: number) => void;
 }
 
 function modelSamples(samples: Samples, log: boolean): Samples {
@@ -153,12 +169,33 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
   } else {
     warnings.push({ code: 'no-model', message: 'The project has no model yet: the report shows the samples and the variogram only.' });
   }
+  let simulation: ProjectSimulation | null = project.simulation?.summary ? project.simulation : null;
+  if (options.simulate) {
+    const t = project.threshold;
+    if (!model || !grid) {
+      warnings.push({ code: 'no-simulation', message: 'No realisations were drawn: the project has no model.' });
+    } else if (t === null || !Number.isFinite(t)) {
+      throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected a threshold (for example "--threshold 200").');
+    } else if (model.transform === 'log' && !(t > 0)) {
+      throw new GapwiseError('bad-option', `The action level ${t} cannot be used with a log model; expected a level above 0.`);
+    } else {
+      const set = options.simulate;
+      const sim = simulateConditional(intake.samples, model, grid, {
+        count: set.count, seed: set.seed, support: set.support, blockPoints: set.support === 'block' ? set.blockPoints : 1,
+        threshold: t, keepRealisations: false,
+        ...(set.depth !== null ? { depth: set.depth } : {}),
+        ...(options.onProgress ? { onProgress: options.onProgress } : {}),
+      });
+      warnings.push(...sim.warnings);
+      simulation = projectSimulation(sim, { seed: set.seed, depth: set.depth, log: model.transform === 'log', made: options.created ?? new Date().toISOString() });
+    }
+  }
   let comparison = options.comparison ?? project.structure.comparison ?? [];
   if (comparison.length === 0 && model && options.compare !== false) {
     comparison = compareCandidates(intake, project.structure.method, project.structure.transform);
   }
   return {
-    project, intake, boundary, variogram, comparison, cv, grid, surface,
+    project, intake, boundary, variogram, comparison, cv, grid, surface, simulation,
     software: options.software, created: options.created ?? new Date().toISOString(), warnings,
   };
 }
@@ -175,6 +212,81 @@ function table(head: string[], rows: string[][], cls = ''): string {
 
 function keyValues(rows: Array<[string, string]>): string {
   return `<table class="kv"><tbody>${rows.map(([k, v]) => `<tr><th scope="row">${k}</th><td>${v}</td></tr>`).join('')}</tbody></table>`;
+}
+
+/** A figure in m², m³ or ha to 4 significant digits with thousands separators ("11,300"). */
+export function formatQuantity(v: number, digits = 4): string {
+  if (!Number.isFinite(v)) return '–';
+  if (v === 0) return '0';
+  return Number(v.toPrecision(digits)).toLocaleString('en-US', { maximumFractionDigits: 12 });
+}
+
+const hectares = (m2: number) => formatQuantity(m2 / 10_000, 3);
+
+/** The report's short plain statement of the area figure, with its interval and units. */
+export function areaFigureText(sim: ProjectSimulation, unit: string): string {
+  const m = sim.summary!;
+  const a = m.area;
+  return `${formatQuantity(a.median)} m² (${hectares(a.median)} ha) above ${fmt(m.threshold)}${unit ? ` ${unit}` : ''}, `
+    + `90 % interval ${formatQuantity(a.p05)} – ${formatQuantity(a.p95)} m² (${hectares(a.p05)} – ${hectares(a.p95)} ha), `
+    + `from ${sim.count} realisations`;
+}
+
+/** The caution beside the area figure: what the interval leaves out, then the screening caution. */
+export const AREA_CAUTION = 'A screening estimate: the interval is the spread over realisations of one fitted model; '
+  + 'it leaves out the uncertainty of the model itself, of where the samples were taken and of the laboratory. ';
+
+function supportText(sim: ProjectSimulation, cell: number): string {
+  return sim.support === 'block'
+    ? `cell averages (block support, ${sim.blockPoints} × ${sim.blockPoints} points per ${fmt(cell)} m cell)`
+    : `point values at the centres of ${fmt(cell)} m cells`;
+}
+
+/** The "Area above the action level" section (HTML) for realisations that counted it. */
+export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold: number | null; cell: number | null }): string {
+  const m = sim.summary!;
+  const { unit } = o;
+  const u = unit ? ` ${esc(unit)}` : '';
+  const a = m.area;
+  const data = (name: string, v: number) => `data-figure="${name}" data-value="${esc(String(v))}"`;
+  const out: string[] = [];
+  out.push('<h2 id="area-above">Area above the action level</h2>');
+  out.push(`<p class="figure"><strong ${data('area-median', a.median)}>${formatQuantity(a.median)} m²</strong> (${hectares(a.median)} ha) above ${esc(fmt(m.threshold))}${u}; `
+    + `90 % interval <span ${data('area-p05', a.p05)}>${formatQuantity(a.p05)}</span> – <span ${data('area-p95', a.p95)}>${formatQuantity(a.p95)}</span> m² `
+    + `(${hectares(a.p05)} – ${hectares(a.p95)} ha).</p>`);
+  const rows: Array<[string, string]> = [
+    [`Area above ${esc(fmt(m.threshold))}${u} (median)`, `${formatQuantity(a.median)} m² = ${hectares(a.median)} ha`],
+    ['90 % interval (5 % – 95 %)', `${formatQuantity(a.p05)} – ${formatQuantity(a.p95)} m² = ${hectares(a.p05)} – ${hectares(a.p95)} ha`],
+    ['Share of the mapped area', `${fmt(100 * m.fraction.median, 3)} % (${fmt(100 * m.fraction.p05, 3)} – ${fmt(100 * m.fraction.p95, 3)} %) of ${formatQuantity(m.activeCells * m.cell * m.cell)} m²`],
+  ];
+  if (m.volume) {
+    const v = m.volume;
+    rows.push([`Volume to ${esc(fmt(v.depth))} m depth (median)`, `<span ${data('volume-median', v.median)}>${formatQuantity(v.median)} m³</span>`]);
+    rows.push(['Volume, 90 % interval (5 % – 95 %)', `${formatQuantity(v.p05)} – ${formatQuantity(v.p95)} m³`]);
+  }
+  rows.push(['Realisations', `<span ${data('realisations', sim.count)}>${sim.count}</span>`]);
+  rows.push(['Seed', `<span ${data('seed', sim.seed)}>${sim.seed}</span>`]);
+  rows.push(['Support', esc(supportText(sim, m.cell))]);
+  if (m.method) rows.push(['Method', esc(m.method)]);
+  if (m.made) rows.push(['Drawn', esc(m.made)]);
+  out.push(keyValues(rows));
+  if (o.threshold !== null && o.threshold !== m.threshold) {
+    out.push(`<p class="warn">${esc(`These realisations counted the area above ${fmt(m.threshold)}${unit ? ` ${unit}` : ''}; the action level in this report is ${fmt(o.threshold)}. Draw them again for the current level.`)}</p>`);
+  }
+  if (o.cell !== null && o.cell !== m.cell) {
+    out.push(`<p class="warn">${esc(`These realisations were drawn on ${fmt(m.cell)} m cells; the maps in this report use ${fmt(o.cell)} m cells.`)}</p>`);
+  }
+  out.push(`<div class="caution" role="note" data-area-caution>${esc(AREA_CAUTION)}${esc(CAUTION)}</div>`);
+  return out.join('\n');
+}
+
+/** The one line a report carries when no area estimate was made, saying how to make one. */
+export function noAreaText(hasThreshold: boolean): string {
+  return hasThreshold
+    ? 'No area estimate with an interval was made: draw realisations in the app\'s Surface step, or run '
+      + '"gapwise report --project FILE --realizations 100" (add "--depth D" for a volume).'
+    : 'No area estimate with an interval was made: set an action level, then draw realisations in the app\'s Surface step, or run '
+      + '"gapwise report --project FILE --threshold T --realizations 100".';
 }
 
 function structureText(s: Structure): string {
@@ -247,6 +359,7 @@ pre { background: #f4f4f2; padding: 10px; overflow-x: auto; font-size: 11.5px; w
 .footer-caution { display: none; }
 table.entries td:first-child, table.entries td:nth-child(2) { white-space: nowrap; }
 .hint { color: #666; font-size: 12px; }
+p.figure { font-size: 16px; margin: 8px 0; }
 @page { size: A4; margin: 14mm 12mm 18mm; }
 @media print {
   body { background: #fff; font-size: 10.5pt; }
@@ -320,7 +433,14 @@ export function reportHtml(input: ReportInput): string {
   }
   if (cv) summary.push(['Cross-validation', esc(`RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`)]);
   if (project.suggestions?.length) summary.push(['Suggested next samples', String(project.suggestions.length)]);
+  const sim = input.simulation === undefined ? (project.simulation?.summary ? project.simulation : null) : input.simulation;
+  if (sim?.summary) {
+    summary.push(['Area above the action level (realisations)', `${esc(areaFigureText(sim, unit))}; <a href="#area-above">method and caution below</a>`]);
+  } else if (model) {
+    summary.push(['Area above the action level (with interval)', `<span data-no-area>${esc(noAreaText(project.threshold !== null))}</span>`]);
+  }
   html.push(keyValues(summary));
+  if (sim?.summary) html.push(areaSection(sim, { unit, threshold: project.threshold, cell: grid?.cell ?? null }));
 
   // --- samples -------------------------------------------------------------------------------
   html.push('<h2 class="page">Samples</h2>');
@@ -462,10 +582,14 @@ export function reportHtml(input: ReportInput): string {
     ['Grid', esc(grid ? JSON.stringify({ ...gridGeometry(grid), area: project.grid.area, padding: project.grid.padding, cellSizeAsked: project.grid.cellSize }) : '–')],
     ['Threshold', esc(project.threshold === null ? 'none' : String(project.threshold))],
   ];
+  if (sim) params.push(['Realisations', esc(JSON.stringify({ count: sim.count, seed: sim.seed, support: sim.support, blockPoints: sim.blockPoints, depth: sim.depth }))]);
   html.push(keyValues(params));
   if (model) html.push(`<h3>Model (JSON)</h3><pre>${esc(JSON.stringify(model, null, 2))}</pre>`);
   html.push('<p>The project file holds the samples text and all of the above. With it, the command line gives the same numbers:</p>');
-  html.push('<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json --out report.html</pre>');
+  const simArgs = sim
+    ? ` --realizations ${sim.count} --seed ${sim.seed}${sim.support === 'block' ? ` --support block --block-points ${sim.blockPoints}` : ''}${sim.depth !== null ? ` --depth ${sim.depth}` : ''}`
+    : '';
+  html.push(`<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json${esc(simArgs)} --out report.html</pre>`);
   html.push(`<div class="caution" role="note">${esc(CAUTION)}</div>`);
   html.push('</main></body></html>\n');
   return html.join('\n');

@@ -4,13 +4,15 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import {
-  createProject, gridGeometry, openProject, planSurfaceGrid, projectBoundary, projectGrid, projectIntake, saveProject,
-  PROJECT_VERSION, type Project,
+  createProject, gridGeometry, openProject, planSurfaceGrid, projectBoundary, projectGrid, projectIntake, projectSimulation, saveProject,
+  simulationMethodText, PROJECT_VERSION, type Project, type ProjectSimulation,
 } from '../../src/io/project.ts';
+import { summariseExceedanceCounts } from '../../src/core/exceedance-area.ts';
 import { planGrid } from '../../src/ui/state/grid-plan.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 import { CAUTION } from '../../src/core/caution.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
+import { expectClose } from '../helpers/tolerance.ts';
 
 const DEMO = resolve(__dirname, '..', '..', 'data-demo');
 const csv = readFileSync(resolve(DEMO, 'lead-topsoil.csv'), 'utf8');
@@ -82,6 +84,76 @@ describe('saveProject / openProject', () => {
     const p = demoProject();
     p.boundary = null; // grid.area is still 'boundary'
     expect(() => saveProject(p)).toThrow(/grid\.area/);
+  });
+});
+
+/** Realisation settings with the summary of invented counts of cells above 200 (5 m cells). */
+function simulationRecord(): ProjectSimulation {
+  const area = summariseExceedanceCounts([410, 380, 455, 431, 398, 420], { threshold: 200, cell: 5, activeCells: 1200, depth: 0.3 });
+  return projectSimulation({ count: 6, support: 'block', points: 4, area }, { seed: 42, depth: 0.3, log: true, made: '2026-02-01T08:00:00.000Z' });
+}
+
+describe('saveProject / openProject: realisations and the area above the action level', () => {
+  it('projectSimulation keeps the settings and the area and volume summary with their units and the method', () => {
+    const s = simulationRecord();
+    expect(s).toMatchObject({ count: 6, seed: 42, support: 'block', blockPoints: 4, depth: 0.3 });
+    // Counts sorted: 380 398 410 420 431 455; median (410 + 420)/2 = 415 cells of 25 m² (Hyndman & Fan def. 7).
+    expect(s.summary!.area).toMatchObject({ median: 415 * 25, unit: 'm²' });
+    expect(s.summary!.volume).toMatchObject({ median: 415 * 25 * 0.3, unit: 'm³', depth: 0.3 });
+    expect(s.summary!.cell).toBe(5);
+    expect(s.summary!.threshold).toBe(200);
+    expect(s.summary!.method).toBe(simulationMethodText({ support: 'block', blockPoints: 4, log: true, count: 6 }));
+    expect(s.summary!.area.p05).toBeLessThanOrEqual(s.summary!.area.median);
+    expect(s.summary!.area.median).toBeLessThanOrEqual(s.summary!.area.p95);
+  });
+
+  it('openProject reads back a project with realisations unchanged, and one without them (an older version 2 file) without any', () => {
+    const p = { ...demoProject(), simulation: simulationRecord() };
+    const opened = openProject(saveProject(p), 'sim.json');
+    expect(opened.project).toEqual(p);
+    expect(opened.fileVersion).toBe(2);
+    expect(opened.warnings).toEqual([]);
+    const older = JSON.parse(saveProject(demoProject()));
+    expect(older.simulation).toBeUndefined();
+    expect(openProject(JSON.stringify(older), 'older.json').project.simulation).toBeUndefined();
+    // Settings alone (no realisations drawn yet) are kept too.
+    const settings = { ...demoProject(), simulation: { count: 300, seed: -5, support: 'point' as const, blockPoints: 1, depth: null } };
+    expect(openProject(saveProject(settings), 's.json').project.simulation).toEqual(settings.simulation);
+  });
+
+  it('openProject migrates a version 1 project to one with no realisations', () => {
+    const v1 = JSON.stringify({ format: 'gapwise-project', version: 1, samples: { fileName: 'a.csv', text: csv }, model, cell: 4, threshold: 400 });
+    const opened = openProject(v1, 'old.json');
+    expect(opened.project.version).toBe(PROJECT_VERSION);
+    expect(opened.project.simulation).toBeUndefined();
+    expect(openProject(saveProject(opened.project), 'again.json').project).toEqual(opened.project);
+  });
+
+  it('openProject fills the share of the area from the area when a hand-written file leaves it out, and fills the defaults', () => {
+    const p = JSON.parse(saveProject({ ...demoProject(), simulation: simulationRecord() }));
+    delete p.simulation.summary.fraction;
+    delete p.simulation.seed;
+    const s = openProject(JSON.stringify(p), 'hand.json').project.simulation!;
+    expect(s.seed).toBe(1);
+    expectClose(s.summary!.fraction.median, (415 * 25) / (1200 * 25), { rel: 1e-12 });
+  });
+
+  it('openProject rejects realisation fields out of range or an interval out of order, naming the field', () => {
+    const bad = (change: (s: Record<string, any>) => void) => {
+      const p = JSON.parse(saveProject({ ...demoProject(), simulation: simulationRecord() }));
+      change(p.simulation);
+      try {
+        openProject(JSON.stringify(p), 'p.json');
+      } catch (e) {
+        return (e as GapwiseError).describe();
+      }
+      throw new Error('expected an error');
+    };
+    expect(bad((s) => { s.count = 2.5; })).toBe('p.json: The project field "simulation.count" is 2.5; expected a whole number of realisations from 1 to 10000.');
+    expect(bad((s) => { s.support = 'area'; })).toBe('p.json: The project field "simulation.support" is "area"; expected one of "point", "block".');
+    expect(bad((s) => { s.depth = 0; })).toBe('p.json: The project field "simulation.depth" is 0; expected a depth above 0 m.');
+    expect(bad((s) => { s.summary.area.p05 = 1e9; })).toBe(`p.json: The project field "simulation.summary.area.p05" is 1000000000; expected at most the median ${415 * 25}.`);
+    expect(bad((s) => { s.summary.area.median = -1; })).toBe('p.json: The project field "simulation.summary.area.median" is -1; expected a number of 0 or more.');
   });
 });
 

@@ -5,8 +5,13 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { inflateSync } from 'node:zlib';
-import { prepareReport, reportHtml, northAngle, candidateLabel } from '../../src/io/report.ts';
-import { createProject, type ComparisonRow } from '../../src/io/project.ts';
+import {
+  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION,
+} from '../../src/io/report.ts';
+import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
+import { simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { exceedanceArea } from '../../src/core/exceedance-area.ts';
+import { expectClose } from '../helpers/tolerance.ts';
 import { DEFAULT_LUT_HEX, defaultLuts, colourAtT, paletteIndices, lutFromRgba } from '../../src/io/report-colours.ts';
 import { adler32, base64, crc32, palettePng } from '../../src/io/report-png.ts';
 import { escapeXml, logTicks, niceTicks, scaleBarLength } from '../../src/io/report-svg.ts';
@@ -103,6 +108,124 @@ describe('reportHtml', () => {
     expect(out).not.toMatch(/<(script|iframe|img|b|a)\b/i);
     expect(out).toContain('&lt;script&gt;alert(1)&lt;/script&gt;');
     expect(out).toContain('no model yet');
+  });
+});
+
+/** The numbers a report tags with data-figure="name" data-value="v". */
+function figures(html: string): Record<string, number> {
+  const out: Record<string, number> = {};
+  for (const m of html.matchAll(/data-figure="([\w-]+)" data-value="([^"]+)"/g)) out[m[1]] = Number(m[2]);
+  return out;
+}
+
+/** A saved simulation record, as the app writes it (invented figures). */
+function savedSimulation(o: Partial<ProjectSimulation> = {}): ProjectSimulation {
+  return {
+    count: 200, seed: 7, support: 'block', blockPoints: 3, depth: 0.5,
+    summary: {
+      threshold: 25, cell: 10, activeCells: 400,
+      area: { median: 12_300, p05: 9_800, p95: 15_100, mean: 12_410, unit: 'm²' },
+      volume: { median: 6_150, p05: 4_900, p95: 7_550, mean: 6_205, unit: 'm³', depth: 0.5 },
+      fraction: { median: 0.3075, p05: 0.245, p95: 0.3775, mean: 0.31025 },
+      method: simulationMethodText({ support: 'block', blockPoints: 3, log: false, count: 200 }),
+      made: '2026-03-01T09:00:00.000Z',
+    },
+    ...o,
+  };
+}
+
+describe('reportHtml: area above the action level', () => {
+  it('prepareReport with simulate reports the area and volume that exceedanceArea gives for the same seeded realisations', () => {
+    const p = project();
+    const settings = { count: 24, seed: 11, support: 'point' as const, blockPoints: 1, depth: 0.4 };
+    const input = prepareReport(p, { software: SOFTWARE, compare: false, simulate: settings, created: '2026-03-01T10:00:00.000Z' });
+    // The same realisations kept, then summarised by core/exceedance-area.ts on their own.
+    const sim = simulateConditional(input.intake.samples, model, input.grid!, { count: 24, seed: 11, keepRealisations: true });
+    const expected = exceedanceArea(sim.realisations!, { threshold: 25, cell: input.grid!.cell, depth: 0.4 });
+    const got = input.simulation!.summary!;
+    for (const k of ['median', 'p05', 'p95', 'mean'] as const) {
+      expectClose(got.area[k], expected.area[k], { rel: 1e-12 }, `area.${k}`);
+      expectClose(got.volume![k], expected.volume![k], { rel: 1e-12 }, `volume.${k}`);
+    }
+    expect(got.area.p05).toBeLessThanOrEqual(got.area.median);
+    expect(got.area.median).toBeLessThanOrEqual(got.area.p95);
+    expect(got.area.p95).toBeGreaterThan(got.area.p05);
+    expect(input.simulation).toMatchObject({ count: 24, seed: 11, support: 'point', blockPoints: 1, depth: 0.4 });
+    expect(got.method).toContain('FFT circulant embedding');
+
+    const html = reportHtml(input);
+    const f = figures(html);
+    expect(f['area-median']).toBe(got.area.median);
+    expect(f['area-p05']).toBe(got.area.p05);
+    expect(f['area-p95']).toBe(got.area.p95);
+    expect(f['volume-median']).toBe(got.volume!.median);
+    expect(f.realisations).toBe(24);
+    expect(f.seed).toBe(11);
+    expect(html).toContain(`${formatQuantity(got.area.median)} m² (${formatQuantity(got.area.median / 10_000, 3)} ha) above 25 mg/L`);
+    expect(html).not.toContain('data-no-area');
+  });
+
+  it('areaSection shows the median with its 90 % interval in m², ha and m³, the settings, the method and the caution beside it', () => {
+    const html = areaSection(savedSimulation(), { unit: 'mg/L', threshold: 25, cell: 10 });
+    expect(html).toContain('<h2 id="area-above">Area above the action level</h2>');
+    expect(html).toContain('<strong data-figure="area-median" data-value="12300">12,300 m²</strong> (1.23 ha) above 25 mg/L');
+    expect(html).toContain('90 % interval (5 % – 95 %)</th><td>9,800 – 15,100 m² = 0.98 – 1.51 ha');
+    expect(html).toContain('6,150 m³');
+    expect(html).toContain('4,900 – 7,550 m³');
+    expect(html).toContain('30.8 % (24.5 – 37.8 %) of 40,000 m²');
+    expect(html).toContain('cell averages (block support, 3 × 3 points per 10 m cell)');
+    expect(html).toContain('Seed</th><td><span data-figure="seed" data-value="7">7</span>');
+    expect(html).toContain('conditioned on the samples by kriging the residuals');
+    expect(html).toContain('not the uncertainty of the covariance parameters');
+    // The caution closes the section, right after the figures.
+    expect(html.trimEnd().endsWith(`<div class="caution" role="note" data-area-caution>${AREA_CAUTION}${CAUTION}</div>`)).toBe(true);
+    expect(html).not.toContain('class="warn"');
+  });
+
+  it('simulationMethodText states the back-transform for log models and the support', () => {
+    const log = simulationMethodText({ support: 'point', blockPoints: 1, log: true, count: 50 });
+    expect(log).toContain('back-transformed cell by cell');
+    expect(log).toContain('point support');
+    expect(log).toContain('each of the 50 realisations');
+    expect(simulationMethodText({ support: 'block', blockPoints: 4, log: false, count: 5 })).not.toContain('back-transformed');
+  });
+
+  it('reportHtml shows the area the project saved, with a note when the action level or the cell changed since', () => {
+    const p = project({ simulation: savedSimulation(), threshold: 30 });
+    const html = reportHtml(prepareReport(p, { software: SOFTWARE, compare: false }));
+    expect(figures(html)['area-median']).toBe(12_300);
+    expect(html).toContain('Area above the action level (realisations)</th><td>12,300 m² (1.23 ha) above 25 mg/L, 90 % interval 9,800 – 15,100 m² (0.98 – 1.51 ha), from 200 realisations');
+    expect(html).toContain('the action level in this report is 30');
+    expect(html).not.toContain('the maps in this report use');
+    expect(html).toContain('--realizations 200 --seed 7 --support block --block-points 3 --depth 0.5');
+    expect(html.split(CAUTION).length - 1).toBe(4);
+  });
+
+  it('reportHtml says in one line that no area estimate was made, and how to make one', () => {
+    const html = reportHtml(prepareReport(project(), { software: SOFTWARE, compare: false }));
+    expect(html).toContain(`<span data-no-area>${noAreaText(true).replace(/"/g, '&quot;').replace(/'/g, '&#39;')}</span>`);
+    expect(html).toContain('--realizations 100');
+    expect(html).not.toContain('id="area-above"');
+    expect(noAreaText(false)).toMatch(/set an action level/);
+    // A saved record without a summary (settings only) is not a figure.
+    const settingsOnly = reportHtml(prepareReport(project({ simulation: { count: 50, seed: 2, support: 'point', blockPoints: 1, depth: null } }), { software: SOFTWARE, compare: false }));
+    expect(settingsOnly).toContain('data-no-area');
+  });
+
+  it('reportHtml escapes the unit and the method text of a saved area figure', () => {
+    const hostile = savedSimulation();
+    hostile.summary!.method = '<script>alert(1)</script> & co';
+    const p = project({ simulation: hostile, samples: { fileName: 'wells.csv', text: planarSamplesCsv(), intake: { crs: 'EPSG:32633' }, unit: '<b>mg</b>' } });
+    const html = reportHtml(prepareReport(p, { software: SOFTWARE, compare: false }));
+    expect(html).toContain('&lt;script&gt;alert(1)&lt;/script&gt; &amp; co');
+    expect(html).toContain('above 25 &lt;b&gt;mg&lt;/b&gt;');
+    expect(outsideReferences(html)).toEqual([]);
+    expect(html).not.toMatch(/<b>mg/);
+  });
+
+  it('prepareReport with simulate refuses a project without an action level', () => {
+    expect(() => prepareReport(project({ threshold: null }), { software: SOFTWARE, compare: false, simulate: { count: 2, seed: 1, support: 'point', blockPoints: 1, depth: null } }))
+      .toThrow(/needs an action level/);
   });
 });
 
