@@ -2,13 +2,52 @@
  * `gapwise report`: one self-contained HTML report from a project file — the samples read from
  * the text the project holds, the variogram, the model and its comparison, cross-validation, the
  * maps on the project's grid and the suggestions — with the software version and date.
+ * The area (and volume) above the action level with its 90 % interval comes from the project's
+ * saved realisations, or with --realizations N from realisations drawn here by the same core call
+ * as `gapwise simulate` (options read by ../simulation-options.ts); the figure is also printed on
+ * stderr.
  */
 import { readFileSync } from 'node:fs';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { GapwiseError } from '../../core/errors.ts';
-import { prepareReport, reportHtml } from '../../io/report.ts';
-import { CAUTION, naming, outOption, printWarnings, writeOutput, type CliIo, type CommandSpec, type OptionValues } from '../common.ts';
+import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml } from '../../io/report.ts';
+import type { Project, SimulationSettings } from '../../io/project.ts';
+import {
+  CAUTION, naming, outOption, printWarnings, progressLine, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+} from '../common.ts';
 import { readProjectFile } from '../project-options.ts';
+import { GRID_SIMULATION_OPTIONS, readSimulationChoice } from '../simulation-options.ts';
+
+/** Options that only shape realisations, refused without --realizations. */
+const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth'];
+
+/**
+ * The realisations to draw for the report, or null when --realizations is not given. Settings the
+ * command line leaves out come from the project's saved realisations (seed, support, block points,
+ * depth), then from the defaults of `gapwise simulate`. Throws GapwiseError('bad-option').
+ */
+export function reportSimulationSettings(values: OptionValues, project: Project): SimulationSettings | null {
+  if (values.realizations === undefined) {
+    const stray = SIMULATION_ONLY.find((name) => values[name] !== undefined);
+    if (stray) throw new GapwiseError('bad-option', `Option "--${stray}" applies to the realisations; expected "--realizations N" with it.`);
+    return null;
+  }
+  if (!project.model) throw new GapwiseError('bad-option', 'Option "--realizations" needs a model, and the project has none; choose one in the app or with "gapwise fit" first.');
+  const stored = project.simulation;
+  const filled: OptionValues = { ...values };
+  if (project.threshold !== null) filled.threshold = project.threshold;
+  if (stored) {
+    if (filled.seed === undefined) filled.seed = stored.seed;
+    if (filled.support === undefined) filled.support = stored.support;
+    if (filled['block-points'] === undefined && filled.support === 'block' && stored.support === 'block') filled['block-points'] = stored.blockPoints;
+    if (filled.depth === undefined && stored.depth !== null) filled.depth = stored.depth;
+  }
+  if (project.threshold === null) {
+    throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected "--threshold T" with "--realizations".');
+  }
+  const choice = readSimulationChoice(filled, project.model, 'realizations');
+  return { count: choice.realizations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
+}
 
 /** The name and version in package.json. */
 export function softwareVersion(): { name: string; version: string } {
@@ -27,13 +66,28 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (title !== undefined) project.title = title;
   const cell = numberOption(values, 'cell');
   if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
+  const threshold = numberOption(values, 'threshold');
+  if (threshold !== undefined) project.threshold = threshold;
+  const simulate = reportSimulationSettings(values, project);
+  const t0 = performance.now();
   const input = naming({ samples: `${file}:${project.samples.fileName}` }, () => prepareReport(project, {
     software: softwareVersion(),
     compare: !booleanOption(values, 'no-compare'),
     ...(cell !== undefined ? { cellSize: cell } : {}),
+    ...(simulate ? { simulate, onProgress: progressLine(io, 'realisations') } : {}),
   }));
   printWarnings(io, input.warnings ?? []);
   writeOutput(io, stringOption(values, 'out'), reportHtml(input));
+  const sim = input.simulation;
+  if (sim?.summary) {
+    const unit = project.samples.unit || input.intake.report.unit;
+    const v = sim.summary.volume;
+    io.stderr(`area: ${areaFigureText(sim, unit)} (seed ${sim.seed}, ${sim.support} support)`
+      + `${v ? `; volume to ${v.depth} m: ${formatQuantity(v.median)} m³, 90 % interval ${formatQuantity(v.p05)} – ${formatQuantity(v.p95)} m³` : ''}`
+      + `${simulate ? `; drawn in ${((performance.now() - t0) / 1000).toFixed(1)} s` : '; as saved in the project'}\n`);
+  } else {
+    io.stderr(`area: ${noAreaText(project.threshold !== null)}\n`);
+  }
   io.stderr(`caution: ${CAUTION}\n`);
   return 0;
 }
@@ -50,6 +104,12 @@ export const reportCommand: CommandSpec = {
       + 'every parameter needed to reproduce the result. Open it in a browser and print to PDF.',
     'When the project holds no model comparison, the standard candidate models are fitted for the table (a few '
       + 'seconds for a few hundred samples); --no-compare leaves the table out.',
+    'The area above the action level (and with --depth the volume) is given as the median over conditional '
+      + 'realisations with a 90 % interval (5 % and 95 %), in m², ha and m³, with the method behind it and the caution '
+      + 'that it is a screening estimate. It comes from the realisations saved in the project, or with --realizations N '
+      + 'from N realisations drawn on the report\'s grid (as "gapwise simulate" draws them; seed, support, block points '
+      + 'and depth not given here come from the project\'s saved settings). The figure is also printed on stderr. '
+      + 'Without either, the report says in one line that no area estimate was made.',
   ],
   options: [
     { name: 'project', kind: 'string', placeholder: 'FILE', help: 'the project file (as saved by the app)', required: true },
@@ -57,7 +117,12 @@ export const reportCommand: CommandSpec = {
     { name: 'title', kind: 'string', placeholder: 'TEXT', help: 'title at the top of the report', defaultText: 'the project\'s title, else "<value> screening map"' },
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'draw the maps on a grid of this cell size instead of the project\'s', unit: 'm', defaultText: 'the project\'s grid' },
     { name: 'no-compare', kind: 'boolean', help: 'do not fit the candidate models when the project has no comparison table' },
+    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the exceedance map and the area above it', unit: 'the samples\' unit', defaultText: 'the project\'s' },
+    ...GRID_SIMULATION_OPTIONS,
   ],
-  examples: ['gapwise report --project site.gapwise.json --out site-report.html'],
+  examples: [
+    'gapwise report --project site.gapwise.json --out site-report.html',
+    'gapwise report --project site.gapwise.json --realizations 100 --depth 0.3 --seed 1 --out site-report.html',
+  ],
   run,
 };
