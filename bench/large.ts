@@ -8,12 +8,15 @@
  *     scikit-learn has (zero-mean prior after subtracting it). Prints ours/theirs (target ≤ 0.5)
  *     and the local path's largest error against the exact answer (mean in units of the prior sd,
  *     sd relative).
- * (b) 100,000 samples: nearest-neighbour fit (vecchia.ts, 30 neighbours) and a 500 × 500 surface
+ * (b) 100,000 samples: nearest-neighbour fit (vecchia.ts, 30 neighbours, passes split over one thread
+ *     per core as in the CLI, src/cli/vecchia-pool.ts) and a 500 × 500 surface
  *     (mean and sd, local path with the global GLS mean, 64 neighbours) through the worker pool:
  *     seconds and peak resident memory (targets: under 90 s and 2 GB).
+ * (c) The same 100,000 samples through the command line: `gapwise fit` then `gapwise grid` to a
+ *     500 × 500 GeoTIFF, each process timed with its peak memory (/usr/bin/time).
  * Medians of 3 runs for the cheap rows (local path), single runs for the rest.
  * Run alone: `npx tsx bench/large.ts` (`--quick`: 500 samples / 5,000 targets and 20,000 samples /
- * 100 × 100 cells; `--a` or `--b` for one part), or via `npm run bench -- large`. Writes
+ * 100 × 100 cells; `--a`, `--b` or `--c` for one part), or via `npm run bench -- large`. Writes
  * bench/results/large[-a|-b][-quick].json when run alone.
  */
 import type { Row } from './common.ts';
@@ -26,6 +29,7 @@ import { createPredictor } from '../src/core/kriging.ts';
 import { createLocalPredictor } from '../src/core/local-kriging.ts';
 import { vecchiaFit } from '../src/core/vecchia.ts';
 import { computeSurfaceParallel } from '../src/cli/parallel.ts';
+import { startVecchiaPool } from '../src/cli/vecchia-pool.ts';
 import { createRandom } from '../src/core/random.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
@@ -193,14 +197,22 @@ async function partB(quick: boolean): Promise<Row[]> {
   let t0 = performance.now();
   let c0 = process.cpuUsage();
   const cpuStart = c0;
-  const model = vecchiaFit(samples, { family: 'matern', nu: 1.5, trend: 'constant' });
+  // The CLI's way: each all-sample likelihood pass split over one thread per core (starting the
+  // workers is counted in the fit's time).
+  const pool = await startVecchiaPool();
+  let model: ReturnType<typeof vecchiaFit>;
+  try {
+    model = vecchiaFit(samples, { family: 'matern', nu: 1.5, trend: 'constant' }, { threads: pool.threads });
+  } finally {
+    await pool.close();
+  }
   const fitRss = peakRssGiB();
   const fitCpu = cpuSeconds(c0);
   const fitSeconds = seconds(t0);
   const nugget = model.structures.find((s) => s.type === 'nugget')?.sill ?? 0;
   const main = model.structures.find((s): s is CorrelatedStructure => s.type !== 'nugget');
   rows.push({
-    name: 'nearest-neighbour fit (30 neighbours)', n, seconds: fitSeconds, cpuSeconds: fitCpu,
+    name: `nearest-neighbour fit (30 neighbours, ${pool.size} threads)`, n, seconds: fitSeconds, cpuSeconds: fitCpu,
     evaluations: model.fit?.evaluations, coarseEvaluations: model.fit?.coarseEvaluations, screenEvaluations: model.fit?.screenEvaluations, peakRssGiB: fitRss,
     note: `scale ${main?.scale.toFixed(1)} m, sill ${main?.sill.toFixed(3)}, nugget ${nugget.toFixed(3)}; ${model.fit?.evaluations} + ${model.fit?.coarseEvaluations} (10 neighbours) all-sample evaluations; peak RSS ${fitRss.toFixed(2)} GiB; ${fitCpu.toFixed(1)} CPU s`,
   });
@@ -227,10 +239,64 @@ async function partB(quick: boolean): Promise<Row[]> {
   return rows;
 }
 
+/** `/usr/bin/time -f '%e %M'` around a command: wall seconds and peak resident memory (GiB). */
+function timed(args: string[]): { seconds: number; peakRssGiB: number; stdout: string; stderr: string } {
+  const r = spawnSync('/usr/bin/time', ['-f', 'TIME %e %M', ...args], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  const m = /TIME ([\d.]+) (\d+)\s*$/.exec(r.stderr);
+  if (r.status !== 0 || !m) throw new Error(`${args.join(' ')} failed (${r.status}): ${r.stderr.slice(-2000)}`);
+  return { seconds: Number(m[1]), peakRssGiB: Number(m[2]) / 2 ** 20, stdout: r.stdout, stderr: r.stderr.replace(/TIME .*\s*$/, '') };
+}
+
+/**
+ * Part (c): the same 100,000 samples (quick: 20,000) through the command line as a user runs it:
+ * `gapwise fit` (automatic method: the nearest-neighbour likelihood, threads per core) then
+ * `gapwise grid --cell C --padding 0` (local neighbourhoods, 64 nearest, worker threads) to a
+ * GeoTIFF of about 500 × 500 cells. Wall seconds and peak memory of each process (/usr/bin/time).
+ */
+async function partC(quick: boolean): Promise<Row[]> {
+  const n = quick ? 20000 : 100000;
+  const side = 20000 * Math.sqrt(n / 100000);
+  const cells = quick ? 100 : 500;
+  const samples = makeSamples(n, side, 400, 21);
+  const dir = mkdtempSync(join(tmpdir(), 'gapwise-bench-cli-'));
+  const cli = new URL('../bin/gapwise.js', import.meta.url).pathname;
+  try {
+    const csv = join(dir, 'survey.csv');
+    const lines = ['x,y,value'];
+    for (let i = 0; i < n; i++) lines.push(`${samples.x[i].toFixed(2)},${samples.y[i].toFixed(2)},${samples.value[i].toFixed(5)}`);
+    writeFileSync(csv, `${lines.join('\n')}\n`);
+    const modelFile = join(dir, 'model.json');
+    const fit = timed([process.execPath, cli, 'fit', '--samples', csv, '--crs', 'EPSG:32633', '--out', modelFile]);
+    const model = JSON.parse(readFileSync(modelFile, 'utf8')) as CovarianceModel & { fit: { note: string; evaluations: number; converged: boolean } };
+    const main = model.structures.find((s): s is CorrelatedStructure => s.type !== 'nugget');
+    const nugget = model.structures.find((s) => s.type === 'nugget')?.sill ?? 0;
+    const grid = timed([process.execPath, cli, 'grid', '--samples', csv, '--crs', 'EPSG:32633', '--model', modelFile,
+      '--cell', String(side / cells), '--padding', '0', '--out', join(dir, 'surface.tif')]);
+    const summary = JSON.parse(grid.stdout) as { grid: { nx: number; ny: number } };
+    const total = fit.seconds + grid.seconds;
+    return [
+      {
+        name: 'CLI: gapwise fit (automatic: nearest-neighbour likelihood)', n, seconds: fit.seconds, peakRssGiB: fit.peakRssGiB,
+        note: `${model.fit.note}; converged ${model.fit.converged}; scale ${main?.scale.toFixed(1)} m, sill ${main?.sill.toFixed(3)}, nugget ${nugget.toFixed(3)}; peak RSS ${fit.peakRssGiB.toFixed(2)} GiB`,
+      },
+      {
+        name: `CLI: gapwise grid ${summary.grid.nx}×${summary.grid.ny} → GeoTIFF (mean, sd)`, n, seconds: grid.seconds, peakRssGiB: grid.peakRssGiB,
+        cells: summary.grid.nx * summary.grid.ny, note: `local neighbourhoods (64), ${availableParallelism()} worker threads; peak RSS ${grid.peakRssGiB.toFixed(2)} GiB`,
+      },
+      {
+        name: 'CLI: fit + grid, total', n, seconds: total, peakRssGiB: Math.max(fit.peakRssGiB, grid.peakRssGiB),
+        note: `targets: < 90 s, < 2 GB; load average at the end ${loadavg()[0].toFixed(1)}`,
+      },
+    ];
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
 /** Runs both parts and returns one row per figure. */
 export async function runLargeBench(options: { quick?: boolean } = {}): Promise<Row[]> {
   const quick = options.quick ?? false;
-  return [...(await partA(quick)), ...(await partB(quick))];
+  return [...(await partA(quick)), ...(await partB(quick)), ...(await partC(quick))];
 }
 
 function table(rows: Row[]): string {
@@ -243,8 +309,8 @@ function table(rows: Row[]): string {
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
   const quick = process.argv.includes('--quick');
-  const only = process.argv.includes('--a') ? 'a' : process.argv.includes('--b') ? 'b' : 'both';
-  const rows = only === 'a' ? await partA(quick) : only === 'b' ? await partB(quick) : await runLargeBench({ quick });
+  const only = process.argv.includes('--a') ? 'a' : process.argv.includes('--b') ? 'b' : process.argv.includes('--c') ? 'c' : 'both';
+  const rows = only === 'a' ? await partA(quick) : only === 'b' ? await partB(quick) : only === 'c' ? await partC(quick) : await runLargeBench({ quick });
   console.log(table(rows));
   mkdirSync(new URL('./results/', import.meta.url), { recursive: true });
   const meta = { date: new Date().toISOString(), node: process.version, cores: availableParallelism(), cpu: cpus()[0]?.model, quick, part: only, loadAverage: loadavg() };

@@ -6,6 +6,7 @@
  */
 import { readFileSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
 import { readSamples } from '../io/intake.ts';
@@ -338,4 +339,14 @@ export function progressLine(io: CliIo, what: string, options: { afterSeconds?: 
     printed = tenth;
     io.stderr(`progress: ${tenth * 10} % of ${count(total)} ${what} (${Math.round(elapsed / 1000)} s)\n`);
   };
+}
+
+/** --workers N: threads to share the work, a whole number from 1 to 256; default one per core. */
+export function readWorkers(values: OptionValues): number {
+  const w = numberOption(values, 'workers');
+  if (w === undefined) return availableParallelism();
+  if (!(Number.isInteger(w) && w >= 1 && w <= 256)) {
+    throw new GapwiseError('bad-option', `Option "--workers" expects a whole number of threads from 1 to 256, got ${w}.`);
+  }
+  return w;
 }

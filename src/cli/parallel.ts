@@ -85,14 +85,13 @@ function tsxEsmApi(): string {
 }
 
 /**
- * Starts a surface worker. Node 20 does not apply loader hooks given by `--import` in a worker's
- * execArgv to the worker's own entry file, so the worker starts from a small script that registers
- * tsx's loader and then imports the TypeScript entry (both resolved from this file, so the CLI works
- * from any directory).
+ * Starts a worker thread on a TypeScript entry (file URL; default the surface worker). Node 20 does
+ * not apply loader hooks given by `--import` in a worker's execArgv to the worker's own entry file,
+ * so the worker starts from a small script that registers tsx's loader and then imports the
+ * TypeScript entry (both resolved from this file, so the CLI works from any directory).
  */
-function startWorker(): Worker {
+export function startWorker(entry = new URL('./surface-worker.ts', import.meta.url).href): Worker {
   const api = tsxEsmApi();
-  const entry = new URL('./surface-worker.ts', import.meta.url).href;
   const boot = `import(${JSON.stringify(api)}).then((m) => { m.register(); return import(${JSON.stringify(entry)}); })` +
     '.catch((e) => { setImmediate(() => { throw e; }); });';
   return new Worker(boot, { eval: true });

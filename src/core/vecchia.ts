@@ -177,9 +177,9 @@ export function correlationFunction(family: Family, scale: number, nu = 1.5): (h
 function whiten(
   ctx: VecchiaContext, yo: Float64Array, Xo: Float64Array, p: number,
   offDiagonal: (h: number) => number, diagonal: number, allowJitter: boolean, limit: number,
-  out: { yt: Float64Array; Xt: Float64Array },
+  out: { yt: Float64Array; Xt: Float64Array }, start = 0, end = ctx.n,
 ): Whitened {
-  const { n, m, ou, ov, nb } = ctx;
+  const { m, ou, ov, nb } = ctx;
   const s1 = m + 1;
   const r = p + 1; // right-hand sides: values, then trend columns
   const C = new Float64Array(s1 * s1);
@@ -191,7 +191,7 @@ function whiten(
   const { yt, Xt } = out;
   let logDet = 0;
   let maxJitter = 0;
-  for (let i = 0; i < n; i++) {
+  for (let i = start; i < end; i++) {
     const q = Math.min(nb.count[i], limit);
     const s = q + 1;
     const base = i * m;
@@ -253,6 +253,96 @@ function whiten(
     for (let c = 0; c < p; c++) Xt[i * p + c] = W[q * r + 1 + c];
   }
   return { ok: true, yt, Xt, logDet, jitter: maxJitter };
+}
+
+/** Families by number, so a pass's parameters travel between threads as numbers. */
+export const PASS_FAMILIES: readonly Family[] = ['matern', 'exponential', 'spherical', 'gaussian'];
+
+/**
+ * Everything one whitening pass reads (ordered centred coordinates, earlier-neighbour lists, ordered
+ * values and trend columns) and writes (whitened values ỹ and columns X̃), as typed arrays so that
+ * threads sharing their memory can each run a part of the pass.
+ */
+export interface VecchiaPassData {
+  n: number;
+  /** Neighbour list stride (largest neighbour count). */
+  m: number;
+  /** Trend columns. */
+  p: number;
+  ou: Float64Array;
+  ov: Float64Array;
+  nbIds: Uint32Array;
+  nbCount: Uint16Array;
+  yo: Float64Array;
+  Xo: Float64Array;
+  yt: Float64Array;
+  Xt: Float64Array;
+}
+
+/** The parameters of one pass over the correlation ρ of a single family (plain numbers). */
+export interface VecchiaPassJob {
+  /** Index into PASS_FAMILIES. */
+  family: number;
+  scale: number;
+  nu: number;
+  /** Diagonal of the correlation matrix: 1 + nugget ratio. */
+  diagonal: number;
+  allowJitter: boolean;
+  /** Neighbours used per point (the nearest `limit` of each list). */
+  limit: number;
+}
+
+/** The result of (a part of) a pass: Σ ln dᵢ over its points and the largest jitter added. */
+export interface VecchiaPassPart {
+  ok: boolean;
+  logDet: number;
+  jitter: number;
+}
+
+/**
+ * Runs the points [start, end) of one whitening pass: writes ỹ and X̃ there and returns their
+ * Σ ln dᵢ. Parts are independent (each point reads only inputs), so a pass may be split anywhere.
+ */
+export function runVecchiaPass(data: VecchiaPassData, job: VecchiaPassJob, start: number, end: number): VecchiaPassPart {
+  const family = PASS_FAMILIES[job.family];
+  if (family === undefined) throw new GapwiseError('bad-option', `Expected a family number from 0 to ${PASS_FAMILIES.length - 1}, got ${job.family}.`);
+  const ctx: VecchiaContext = {
+    n: data.n, m: data.m, order: new Uint32Array(0), ou: data.ou, ov: data.ov,
+    nb: { n: data.n, m: data.m, count: data.nbCount, ids: data.nbIds },
+  };
+  const rho = correlationFunction(family, job.scale, job.nu);
+  const wh = whiten(ctx, data.yo, data.Xo, data.p, rho, job.diagonal, job.allowJitter, job.limit, data, start, end);
+  return { ok: wh.ok, logDet: wh.ok ? wh.logDet : NaN, jitter: wh.jitter };
+}
+
+/**
+ * Splits whitening passes over threads (the CLI gives one over worker_threads; see
+ * src/cli/vecchia-pool.ts). `buffer` allocates the memory of the pass arrays (shared between the
+ * threads); `attach` receives the prepared data once and returns a function that runs a whole pass,
+ * every thread a contiguous part, and combines the parts (logDet summed, jitter the largest).
+ */
+export interface VecchiaThreads {
+  buffer(bytes: number): ArrayBufferLike;
+  attach(data: VecchiaPassData): (job: VecchiaPassJob) => VecchiaPassPart;
+}
+
+/** Copies the context and ordered inputs into memory from `threads.buffer` and attaches them. */
+function attachThreads(ctx: VecchiaContext, yo: Float64Array, Xo: Float64Array, p: number, threads: VecchiaThreads): { data: VecchiaPassData; pass: (job: VecchiaPassJob) => VecchiaPassPart } {
+  const f64 = (src: Float64Array | number) => {
+    const len = typeof src === 'number' ? src : src.length;
+    const a = new Float64Array(threads.buffer(8 * Math.max(1, len)), 0, len);
+    if (typeof src !== 'number') a.set(src);
+    return a;
+  };
+  const ids = new Uint32Array(threads.buffer(4 * Math.max(1, ctx.nb.ids.length)), 0, ctx.nb.ids.length);
+  ids.set(ctx.nb.ids);
+  const count = new Uint16Array(threads.buffer(2 * Math.max(1, ctx.nb.count.length)), 0, ctx.nb.count.length);
+  count.set(ctx.nb.count);
+  const data: VecchiaPassData = {
+    n: ctx.n, m: ctx.m, p, ou: f64(ctx.ou), ov: f64(ctx.ov), nbIds: ids, nbCount: count,
+    yo: f64(yo), Xo: f64(Xo), yt: f64(ctx.n), Xt: f64(ctx.n * p),
+  };
+  return { data, pass: threads.attach(data) };
 }
 
 /** GLS on whitened data: β̂ = (X̃ᵀX̃)⁻¹X̃ᵀỹ, Q = ‖ỹ − X̃β̂‖², ln|X̃ᵀX̃|. */
@@ -327,7 +417,7 @@ export interface VecchiaEvaluateOptions {
  * and finds each one's m nearest earlier neighbours (once); each `evaluate` is then one pass of
  * n small Cholesky factors. Trend columns as in ./likelihood.ts: 1, and x, y centred (metres).
  */
-export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup): VecchiaLikelihood {
+export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup, threads?: VecchiaThreads): VecchiaLikelihood {
   const n = samples.value.length;
   const method: LikelihoodMethod = setup.method ?? 'reml';
   const m = setup.neighbors ?? DEFAULT_VECCHIA_NEIGHBORS;
@@ -369,17 +459,21 @@ export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup): 
   }
   spacing.sort((a, b) => a - b);
   const medianSpacing = spacing.length ? spacing[spacing.length >> 1] : 0;
-  const buffers = { yt: new Float64Array(n), Xt: new Float64Array(n * p) };
+  const shared = threads && PASS_FAMILIES.includes(setup.family) ? attachThreads(ctx, yo, Xo, p, threads) : null;
+  const buffers = shared ? shared.data : { yt: new Float64Array(n), Xt: new Float64Array(n * p) };
 
   const evaluate = (theta: CorrelationParameters, options: VecchiaEvaluateOptions = {}): LikelihoodValue => {
     const fail = (jitter: number, logDetR = NaN): LikelihoodValue => ({
       logLikelihood: -Infinity, sigma2: NaN, beta: [], logDetR, logDetInformation: NaN, quadraticForm: NaN, jitter,
     });
-    const rho = correlationFunction(setup.family, theta.scale, theta.nu ?? setup.nu ?? 1.5);
+    const nu = theta.nu ?? setup.nu ?? 1.5;
     const limit = Math.min(ctx.m, options.neighbors ?? ctx.m);
-    const wh = whiten(ctx, yo, Xo, p, rho, 1 + theta.nuggetRatio, options.allowJitter ?? false, limit, buffers);
+    const allowJitter = options.allowJitter ?? false;
+    const wh = shared
+      ? shared.pass({ family: PASS_FAMILIES.indexOf(setup.family), scale: theta.scale, nu, diagonal: 1 + theta.nuggetRatio, allowJitter, limit })
+      : whiten(ctx, yo, Xo, p, correlationFunction(setup.family, theta.scale, nu), 1 + theta.nuggetRatio, allowJitter, limit, buffers);
     if (!wh.ok) return fail(wh.jitter);
-    const gls = whitenedGls(wh.yt, wh.Xt, n, p);
+    const gls = whitenedGls(buffers.yt, buffers.Xt, n, p);
     if (!gls.ok) return fail(wh.jitter, wh.logDet);
     const dof = method === 'reml' ? n - p : n;
     const sigma2Hat = gls.Q / dof;
@@ -605,10 +699,11 @@ function subsample(samples: Samples, size: number, seed: number): Samples {
  * seeded 2,000-sample subsample above 4,000 samples) and searched by Nelder–Mead there, all with the
  * 10 nearest neighbours; then (subsampled) Newton steps on all samples with 10 neighbours; finally
  * Newton steps on all samples with m neighbours (Nelder–Mead when a Newton stage fails). Returns the model with fit.method 'nnl' and a note naming the sample
- * and neighbour counts. Throws GapwiseError ('bad-option', 'too-few-samples', 'constant-values',
+ * and neighbour counts. `hooks.threads` splits each all-sample pass over threads (same values up to
+ * the order of one sum). Throws GapwiseError ('bad-option', 'too-few-samples', 'constant-values',
  * 'bad-value', 'fit-failed').
  */
-export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): VecchiaFitResult {
+export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads } = {}): VecchiaFitResult {
   if (typeof options !== 'object' || options === null) throw new GapwiseError('bad-option', 'Expected fit options as an object.');
   const family: Family = options.family;
   if (!['matern', 'exponential', 'spherical', 'gaussian'].includes(family)) {
@@ -653,7 +748,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
   if (same) throw new GapwiseError('constant-values', `All ${n} values equal ${samples.value[0]}: there is no variation to model; expected at least two different values.`);
 
   const setup: VecchiaSetup = { family, nu: nuFixed, trend, method, anisotropy: options.anisotropy, neighbors: m };
-  const full = createVecchiaLikelihood(samples, setup);
+  const full = createVecchiaLikelihood(samples, setup, hooks.threads);
   if (!(full.maxDistance > 0)) throw new GapwiseError('too-few-samples', `Expected samples at two or more distinct places, got all ${n} at one place.`);
   const D = full.maxDistance;
   const spaces: ParameterSpace[] = [{ log: true, lower: D * 1e-4, upper: D * 10 }];

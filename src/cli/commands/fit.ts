@@ -14,12 +14,16 @@ import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
 import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
+import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, writeOutput,
-  type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, SAMPLE_OPTIONS, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
+  writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 
 type MethodOption = 'auto' | 'reml' | 'ml' | 'wls' | 'nnl';
+
+/** From this many samples a nearest-neighbour fit splits its passes over threads (starting them costs about a second). */
+export const THREADS_FROM = 10000;
 
 const METHOD_NAMES: Record<'reml' | 'ml' | 'wls', string> = {
   reml: 'the exact REML likelihood',
@@ -110,11 +114,17 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const samples = transform === 'log' ? logSamples(intake) : intake.samples;
   const files = { samples: intake.report.fileName };
   let model: CovarianceModel;
+  const workers = readWorkers(values);
   if (method === 'nnl') {
-    model = naming(files, () => vecchiaFit(samples, {
-      family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
-      ...(family === 'matern' ? { nu } : {}),
-    }));
+    const pool: VecchiaPool | null = workers > 1 && n >= THREADS_FROM ? await startVecchiaPool({ threads: workers }) : null;
+    try {
+      model = naming(files, () => vecchiaFit(samples, {
+        family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
+        ...(family === 'matern' ? { nu } : {}),
+      }, { threads: pool?.threads }));
+    } finally {
+      await pool?.close();
+    }
   } else {
     const options: FitOptions = { family, method, trend, nugget };
     if (family === 'matern') options.nu = nu;
@@ -172,6 +182,7 @@ export const fitCommand: CommandSpec = {
       defaultText: 'auto',
     },
     { name: 'nnl-neighbors', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBORS) },
+    { name: 'workers', kind: 'number', placeholder: 'N', help: `nearest-neighbour likelihood from ${count(THREADS_FROM)} samples: threads that share each pass over the samples (1 to 256)`, unit: 'threads', defaultText: 'one per core of this machine' },
     { name: 'trend', kind: 'string', placeholder: 'T', help: 'mean: constant (unknown constant), linear (unknown 1, x, y drift) or known:VALUE (a known mean in the samples\' unit; with --transform log, VALUE is on the log scale)', defaultText: 'constant' },
     { name: 'transform', kind: 'string', placeholder: 'T', choices: ['none', 'log'], help: 'fit ln(value) for positive, right-skewed data; results come back on the data scale', defaultText: 'none' },
     { name: 'no-nugget', kind: 'boolean', help: 'fit without a nugget (exact interpolation of the samples)' },

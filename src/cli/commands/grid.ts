@@ -13,7 +13,6 @@
  */
 import { writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { cellCount, type Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
@@ -25,7 +24,7 @@ import { numberOption, stringOption } from '../args.ts';
 import {
   CAUTION, EXACT_PREDICTION_LIMIT, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
   modelWorkCrs, naming, printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile,
-  readText, type CliIo, type CommandSpec, type OptionValues,
+  readText, readWorkers, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
@@ -38,16 +37,6 @@ async function namingAsync<T>(files: { samples?: string; model?: string }, work:
   } catch (e) {
     return naming(files, () => { throw e; });
   }
-}
-
-/** --workers N: a whole number from 1 to 256, default one per core. */
-function readWorkers(values: OptionValues): number {
-  const w = numberOption(values, 'workers');
-  if (w === undefined) return availableParallelism();
-  if (!(Number.isInteger(w) && w >= 1 && w <= 256)) {
-    throw new GapwiseError('bad-option', `Option "--workers" expects a whole number of threads from 1 to 256, got ${w}.`);
-  }
-  return w;
 }
 
 type Format = 'tif' | 'csv' | 'geojson';
