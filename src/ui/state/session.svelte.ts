@@ -37,6 +37,10 @@ export interface SimulationView {
   /** The surface key at the time (see Session.surfaceKey). */
   base: string;
   ms: number;
+  /** Seed and depth (m) they were drawn with, and when (ISO 8601). */
+  seed: number;
+  depth: number | null;
+  made: string;
 }
 
 /** A computed surface with what it was computed from. */
@@ -295,10 +299,25 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
-  /** Support of the next surface: point values at cell centres, or cell (block) averages. */
-  support = $state<'point' | 'block'>('point');
-  /** Block support: discretisation points per cell side. */
-  blockPoints = $state(4);
+
+  /** Support of the next surface: point values at cell centres, or cell (block) averages (saved). */
+  get support(): 'point' | 'block' {
+    return this.s.surface.support;
+  }
+
+  set support(v: 'point' | 'block') {
+    this.s.surface.support = v;
+  }
+
+  /** Block support: discretisation points per cell side (saved). */
+  get blockPoints(): number {
+    return this.s.surface.blockPoints;
+  }
+
+  set blockPoints(v: number) {
+    this.s.surface.blockPoints = v;
+  }
+
   /** Rate measured on the last surface (flops per second per worker), for the time estimate. */
   rate = $state<number | undefined>(undefined);
   surfaceTask = $state<TaskState>(idleTask());
@@ -372,9 +391,34 @@ export class Session {
 
   // ---------------------------------------------------------------- realisations
 
-  /** Realisations to draw, the depth (m) for the volume, and the last run. */
-  simCount = $state(100);
-  simDepth = $state<number | null>(null);
+  /** Realisations to draw (saved). */
+  get simCount(): number {
+    return this.s.simulation.count;
+  }
+
+  set simCount(v: number) {
+    this.s.simulation.count = v;
+  }
+
+  /** Depth (m) for the volume above the action level, or null (saved). */
+  get simDepth(): number | null {
+    return this.s.simulation.depth;
+  }
+
+  set simDepth(v: number | null) {
+    this.s.simulation.depth = v;
+  }
+
+  /** Seed of the realisations, a whole number (saved); the same seed redraws the same maps. */
+  get simSeed(): number {
+    return this.s.simulation.seed;
+  }
+
+  set simSeed(v: number) {
+    this.s.simulation.seed = v;
+  }
+
+  /** The last run. */
   simulation = $state.raw<SimulationView | null>(null);
   simTask = $state<TaskState>(idleTask());
   /** Seconds per realisation-cell measured on the last run (per worker), for the estimate. */
@@ -399,23 +443,25 @@ export class Session {
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const count = Math.max(1, Math.min(10_000, Math.round(this.simCount)));
-    const key = this.surfaceKey + `|${count}|${this.simDepth}`;
+    const seed = Number.isInteger(this.simSeed) ? this.simSeed : 1;
+    const depth = useThreshold && this.simDepth && this.simDepth > 0 ? this.simDepth : null;
+    const key = this.surfaceKey + `|${count}|${depth}|${seed}`;
     const t0 = performance.now();
     this.simTask = { ...idleTask(), status: 'running', total: count, what: 'realisations' };
     try {
       const result = await engine.simulate({
         samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid,
         options: {
-          count, seed: 1, support: this.support, blockPoints: this.blockPoints, keepRealisations: true,
+          count, seed, support: this.support, blockPoints: this.blockPoints, keepRealisations: true,
           threshold: useThreshold ? threshold! : undefined,
-          depth: useThreshold && this.simDepth && this.simDepth > 0 ? this.simDepth : undefined,
+          depth: depth ?? undefined,
         },
       }, (done, total) => { if (this.simAbort === ac) this.simTask = { ...this.simTask, done, total }; }, ac.signal);
       if (this.simAbort !== ac) return;
       const ms = performance.now() - t0;
       // Keep the first four realisations only: the view shows them, the summaries are computed.
       const kept = { ...result, realisations: result.realisations?.slice(0, 4) };
-      this.simulation = { grid: plan.grid, result: kept, key, base: this.surfaceKey, ms };
+      this.simulation = { grid: plan.grid, result: kept, key, base: this.surfaceKey, ms, seed, depth, made: new Date().toISOString() };
       this.simRate = ms / 1000 / (count * plan.cells);
       this.simTask = { ...this.simTask, status: 'done', done: count, ms };
     } catch (e) {
@@ -455,6 +501,11 @@ export class Session {
       bands: (this.surface?.bands ?? 0) + 1, done: true, support: r.support, points: r.points, local: null, fromSimulation: r.count,
     };
     if (result.pExceed) this.s.surface.layer = 'exceed';
+  }
+
+  /** True when realisations were drawn for other inputs (model, grid, threshold, support) than the current ones. */
+  get simulationStale(): boolean {
+    return !!this.simulation && !this.simulation.key.startsWith(this.surfaceKey + '|');
   }
 
   cancelSimulation(): void {

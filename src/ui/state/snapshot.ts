@@ -64,6 +64,18 @@ export interface SurfaceChoices {
   sdLimit: number | null;
   /** The user asked for a surface; recomputed after a reload. */
   wanted: boolean;
+  /** Point values at cell centres, or cell (block) averages. */
+  support: 'point' | 'block';
+  /** Block support: discretisation points per cell side (1..16). */
+  blockPoints: number;
+}
+
+/** Conditional realisations: how many, the seed, and the depth (m) for the volume. */
+export interface SimulationChoices {
+  count: number;
+  /** A whole number; the same seed gives the same realisations. */
+  seed: number;
+  depth: number | null;
 }
 
 export interface MapChoices {
@@ -79,6 +91,7 @@ export interface SessionSnapshot {
   samples: SampleChoices;
   structure: StructureChoices;
   surface: SurfaceChoices;
+  simulation: SimulationChoices;
   map: MapChoices;
 }
 
@@ -93,8 +106,9 @@ export function emptySnapshot(): SessionSnapshot {
     structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null },
     surface: {
       area: 'extent', padding: 0.05, cellSize: 0, threshold: null, layer: 'mean', opacity: 0.8,
-      hideUncertain: false, sdLimit: null, wanted: false,
+      hideUncertain: false, sdLimit: null, wanted: false, support: 'point', blockPoints: 4,
     },
+    simulation: { count: 100, seed: 1, depth: null },
     map: { basemap: 'none', customUrl: '' },
   };
 }
@@ -135,6 +149,11 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
   const st = isObj(input.structure) ? input.structure : {};
   const su = isObj(input.surface) ? input.surface : {};
   const m = isObj(input.map) ? input.map : {};
+  const sim = isObj(input.simulation) ? input.simulation : {};
+  const whole = (v: unknown, dflt: number, min: number, max: number): number => {
+    const n = num(v, dflt, min, max);
+    return Number.isInteger(n) ? n : dflt;
+  };
   const nonDetect = oneOf(s.nonDetect, ['half', 'dl', 'sqrt2'] as const, 'half');
   return {
     version: SNAPSHOT_VERSION,
@@ -169,6 +188,13 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       hideUncertain: bool(su.hideUncertain, false),
       sdLimit: optNum(su.sdLimit),
       wanted: bool(su.wanted, false),
+      support: oneOf(su.support, ['point', 'block'] as const, 'point'),
+      blockPoints: whole(su.blockPoints, d.surface.blockPoints, 1, 16),
+    },
+    simulation: {
+      count: whole(sim.count, d.simulation.count, 1, 10_000),
+      seed: whole(sim.seed, d.simulation.seed, -(2 ** 31), 2 ** 31),
+      depth: typeof sim.depth === 'number' && Number.isFinite(sim.depth) && sim.depth > 0 ? sim.depth : null,
     },
     map: {
       basemap: oneOf(m.basemap, ['none', 'osm', 'custom'] as const, 'none'),

@@ -18,8 +18,9 @@ function fullSnapshot(): SessionSnapshot {
   };
   s.surface = {
     area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, layer: 'exceed', opacity: 0.6,
-    hideUncertain: true, sdLimit: 40, wanted: true,
+    hideUncertain: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6,
   };
+  s.simulation = { count: 250, seed: 17, depth: 0.3 };
   s.map = { basemap: 'custom', customUrl: 'http://127.0.0.1:8080/{z}/{x}/{y}.png' };
   return s;
 }
@@ -69,6 +70,17 @@ describe('parseSnapshot', () => {
     expect(s.surface.threshold).toBeNull();
     expect(s.surface.layer).toBe('exceed');
     expect(s.map).toEqual({ basemap: 'none', customUrl: '' });
+  });
+
+  it('parseSnapshot keeps the support, block points, realisation count, seed and depth, and replaces bad ones by defaults', () => {
+    const good = parseSnapshot({ version: 1, surface: { support: 'block', blockPoints: 3 }, simulation: { count: 40, seed: -12, depth: 0.25 } })!;
+    expect(good.surface).toMatchObject({ support: 'block', blockPoints: 3 });
+    expect(good.simulation).toEqual({ count: 40, seed: -12, depth: 0.25 });
+    const bad = parseSnapshot({ version: 1, surface: { support: 'area', blockPoints: 2.5 }, simulation: { count: 0, seed: 1.5, depth: -1 } })!;
+    expect(bad.surface).toMatchObject({ support: 'point', blockPoints: 4 });
+    expect(bad.simulation).toEqual({ count: 100, seed: 1, depth: null });
+    // A snapshot saved before these choices existed opens with the defaults.
+    expect(parseSnapshot({ version: 1, surface: { cellSize: 5 } })!.simulation).toEqual(emptySnapshot().simulation);
   });
 
   it('parseSnapshot drops a source without text', () => {

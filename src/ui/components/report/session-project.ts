@@ -1,11 +1,16 @@
 /**
  * Between the app's saved session and a project file (src/io/project.ts): `sessionProject` turns
- * the session's file texts, choices, model, candidate table and computed grid into a project;
- * `snapshotFromProject` puts an opened project back into a session snapshot (the app then reads
- * the samples again and recomputes). Pure functions, no Svelte.
+ * the session's file texts, choices, model, candidate table, computed grid and drawn realisations
+ * (with the area above the action level they gave) into a project; `snapshotFromProject` puts an
+ * opened project back into a session snapshot (the app then reads the samples again and
+ * recomputes). `drawnSimulation` is the project's record of realisations on screen. Pure functions,
+ * no Svelte.
  */
 import type { Grid } from '../../../core/grid.ts';
-import { createProject, gridGeometry, type ComparisonRow, type Project, type Suggestion } from '../../../io/project.ts';
+import type { ConditionalSimulationResult } from '../../../core/conditional-simulation.ts';
+import {
+  createProject, gridGeometry, projectSimulation, type ComparisonRow, type Project, type ProjectSimulation, type Suggestion,
+} from '../../../io/project.ts';
 import type { SessionSnapshot } from '../../state/snapshot.ts';
 import type { CandidateRow } from '../../state/structure.ts';
 
@@ -17,8 +22,21 @@ export interface SessionParts {
   grid?: Grid | null;
   suggestions?: Suggestion[];
   suggestOptions?: Record<string, unknown>;
+  /**
+   * Realisations drawn for the current settings, with their summary (see drawnSimulation); without
+   * them the project keeps the realisation settings of the snapshot only.
+   */
+  simulation?: ProjectSimulation | null;
   software: { name: string; version: string };
   title?: string;
+}
+
+/** The project's record of realisations on screen: their settings and the area they gave. */
+export function drawnSimulation(
+  view: { result: Pick<ConditionalSimulationResult, 'count' | 'support' | 'points' | 'area'>; seed: number; depth: number | null; made: string },
+  log: boolean,
+): ProjectSimulation {
+  return projectSimulation(view.result, { seed: view.seed, depth: view.depth, log, made: view.made });
 }
 
 const finiteOrNull = (v: number): number | null => (Number.isFinite(v) ? v : null);
@@ -61,6 +79,10 @@ export function sessionProject(parts: SessionParts): Project | null {
     threshold: s.surface.threshold,
     ...(parts.suggestions ? { suggestions: parts.suggestions } : {}),
     ...(parts.suggestOptions ? { suggestOptions: parts.suggestOptions } : {}),
+    simulation: parts.simulation ?? {
+      count: s.simulation.count, seed: s.simulation.seed, support: s.surface.support,
+      blockPoints: s.surface.support === 'block' ? s.surface.blockPoints : 1, depth: s.simulation.depth,
+    },
     software: parts.software,
     title: parts.title ?? '',
   });
@@ -91,6 +113,13 @@ export function snapshotFromProject(project: Project, base: SessionSnapshot): Se
       cellSize: project.grid.geometry?.cell ?? project.grid.cellSize,
       threshold: project.threshold,
       wanted: project.model !== null,
+      ...(project.simulation ? {
+        support: project.simulation.support,
+        blockPoints: project.simulation.support === 'block' ? project.simulation.blockPoints : base.surface.blockPoints,
+      } : {}),
     },
+    simulation: project.simulation
+      ? { count: project.simulation.count, seed: project.simulation.seed, depth: project.simulation.depth }
+      : { ...base.simulation },
   };
 }

@@ -1,6 +1,7 @@
 // sessionProject / snapshotFromProject: the app's session and a project file carry the same choices.
 import { describe, expect, it } from 'vitest';
-import { sessionProject, snapshotFromProject } from '../../../../src/ui/components/report/session-project.ts';
+import { drawnSimulation, sessionProject, snapshotFromProject } from '../../../../src/ui/components/report/session-project.ts';
+import { summariseExceedanceCounts } from '../../../../src/core/exceedance-area.ts';
 import { emptySnapshot } from '../../../../src/ui/state/snapshot.ts';
 import { openProject, saveProject } from '../../../../src/io/project.ts';
 import type { CovarianceModel } from '../../../../src/core/model.ts';
@@ -35,5 +36,37 @@ describe('sessionProject', () => {
     expect(back.samples).toEqual({ ...s.samples, x: undefined, y: undefined });
     expect(back.structure).toMatchObject({ lagWidth: 12, method: 'wls', chosen: 'matern-1.5', model });
     expect(back.surface).toMatchObject({ area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, wanted: true });
+  });
+
+  it('sessionProject keeps drawn realisations with their area, and snapshotFromProject gives back support, block points, count, seed and depth', () => {
+    const s = emptySnapshot();
+    s.source = { fileName: 'a.csv', text: 'lon,lat,v\n11,48,1\n', invented: false };
+    s.structure = { ...s.structure, model };
+    s.samples = { unit: 'mg/kg', transform: 'log' };
+    s.surface = { ...s.surface, threshold: 200, support: 'block', blockPoints: 3 };
+    s.simulation = { count: 60, seed: 9, depth: 0.5 };
+    // Counts of cells above 200 in 60 invented realisations on 4 m cells.
+    const counts = Array.from({ length: 60 }, (_, i) => 100 + ((i * 37) % 41));
+    const area = summariseExceedanceCounts(counts, { threshold: 200, cell: 4, activeCells: 900, depth: 0.5 });
+    const sim = drawnSimulation({ result: { count: 60, support: 'block', points: 3, area }, seed: 9, depth: 0.5, made: '2026-03-01T10:00:00.000Z' }, true);
+    const p = sessionProject({ snapshot: s, simulation: sim, software: { name: 'gapwise', version: '1' } })!;
+    expect(p.simulation).toMatchObject({ count: 60, seed: 9, support: 'block', blockPoints: 3, depth: 0.5 });
+    expect(p.simulation!.summary!.area.median).toBe(area.area.median);
+    expect(p.simulation!.summary!.volume!.p95).toBe(area.volume!.p95);
+    expect(p.simulation!.summary!.method).toContain('back-transformed cell by cell');
+    const opened = openProject(saveProject(p), 'p.json').project;
+    expect(opened.simulation).toEqual(p.simulation);
+    const back = snapshotFromProject(opened, emptySnapshot());
+    expect(back.surface).toMatchObject({ support: 'block', blockPoints: 3, threshold: 200 });
+    expect(back.simulation).toEqual({ count: 60, seed: 9, depth: 0.5 });
+  });
+
+  it('sessionProject keeps the realisation settings of the snapshot when none are drawn', () => {
+    const s = emptySnapshot();
+    s.source = { fileName: 'a.csv', text: 'lon,lat,v\n11,48,1\n', invented: false };
+    s.simulation = { count: 30, seed: 5, depth: null };
+    const p = sessionProject({ snapshot: s, software: { name: 'gapwise', version: '1' } })!;
+    expect(p.simulation).toEqual({ count: 30, seed: 5, support: 'point', blockPoints: 1, depth: null });
+    expect(snapshotFromProject(p, emptySnapshot()).simulation).toEqual({ count: 30, seed: 5, depth: null });
   });
 });
