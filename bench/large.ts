@@ -125,7 +125,7 @@ async function partA(quick: boolean): Promise<Row[]> {
   let local = exact;
   for (let rep = 0; rep < 3; rep++) {
     t0 = performance.now();
-    local = createLocalPredictor(samples, model, { neighbors: 64 }).predict(tx, ty);
+    local = createLocalPredictor(samples, model, { neighbors: 64, targetSpacing: side / g }).predict(tx, ty);
     localTimes.push(seconds(t0));
   }
   let worstMean = 0;

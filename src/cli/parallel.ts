@@ -68,7 +68,8 @@ export function chooseSurfacePath(n: number, cells: number): SurfacePath {
 /** The predictor a job asks for (used by the workers and by the single-thread path). */
 export function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
   if (job.path === 'exact') return createPredictor(job.samples, job.model);
-  return createLocalPredictor(job.samples, job.model, job.local);
+  // Grid cells one cell apart may share tile neighbourhoods (core/local-kriging.ts chooseTile).
+  return createLocalPredictor(job.samples, job.model, { ...job.local, targetSpacing: job.local?.targetSpacing ?? job.grid.cell });
 }
 
 /** The same surface on this thread (the reference the pool must match). */

@@ -13,10 +13,16 @@
  * simple kriging in every neighbourhood (its sd leaves out the small uncertainty of β̂).
  * Neighbours are nearest in effective (anisotropic) distance. Consecutive targets that share their
  * neighbour set share its factor; covariances between samples already in the previous set are
- * copied rather than recomputed. Results do not depend on the order of the targets.
+ * copied rather than recomputed. On a grid (`targetSpacing`), when it is cheaper (chooseTile),
+ * targets are grouped in square tiles of width w and each tile uses every sample within
+ * d_m(c) + √2·w of its centre c: a set holding the m nearest samples of each of its targets, so
+ * every target sees at least its own m nearest, one factorisation serves the whole tile, and the
+ * answer is closer to exact kriging. Results do not depend on the order of the targets or on how
+ * they are split between calls.
  * Log transform as kriging.ts: kriging of ln(value), mean exp(Ŷ + σ²/2), median exp(Ŷ).
  * Units: metres; mean and sd in data units. Cost per target: about m³/3 flops and m²/2 covariances
- * when the set changes, m² flops and m covariances when it does not.
+ * when the set changes, m² flops and m covariances when it does not; with tiles, M³/3 flops per
+ * tile of M samples and M² flops plus M covariances per target.
  */
 import type { CovarianceModel } from './model.ts';
 import { nuggetOf } from './model.ts';
@@ -49,6 +55,53 @@ export interface LocalKrigingOptions {
    * returned in `beta`), so workers sharing one data set need not each recompute them.
    */
   globalBeta?: number[];
+  /**
+   * Distance between neighbouring targets when they lie on a grid (the cell size, metres). When set,
+   * targets are grouped in square tiles that share one neighbourhood holding every target's m
+   * nearest samples, if that is cheaper than one neighbourhood per target (see chooseTile).
+   */
+  targetSpacing?: number;
+}
+
+/** A covariance evaluation (square root, exponential, call) costs about this many multiply-adds. */
+const KERNEL_COST = 20;
+/** Tile widths tried, in target spacings. */
+const TILE_STEPS = [2, 3, 4, 6, 8, 12, 16, 24, 32];
+
+/**
+ * The tile width (isotropic metres) for targets `spacing` metres apart, or null when one
+ * neighbourhood per target is cheaper. A tile of width w shares the samples within d_m + √2·w of its
+ * centre, about M = πρ(d_m + √2·w)² of them (ρ the samples per m² over their bounding box, d_m the
+ * radius holding m of them), factorised once (M³/6 multiply-adds, M²/2 covariances) for its (w/spacing)²
+ * targets, each then costing M²/2 + M covariances; one neighbourhood per target costs about m³/6 +
+ * m²/2 and m²/16 new covariances (neighbouring targets share most samples). The cap (the largest
+ * neighbourhood a tile may hold) is max(4m, 256), at most n.
+ */
+export function chooseTile(n: number, m: number, u: ArrayLike<number>, v: ArrayLike<number>, spacing: number): { width: number; cap: number } | null {
+  if (!(Number.isFinite(spacing) && spacing > 0) || n <= m) return null;
+  let umin = Infinity, umax = -Infinity, vmin = Infinity, vmax = -Infinity;
+  for (let i = 0; i < u.length; i++) {
+    umin = Math.min(umin, u[i]); umax = Math.max(umax, u[i]);
+    vmin = Math.min(vmin, v[i]); vmax = Math.max(vmax, v[i]);
+  }
+  const area = (umax - umin) * (vmax - vmin);
+  if (!(area > 0)) return null;
+  const rho = n / area;
+  const d = Math.sqrt(m / (Math.PI * rho));
+  const cap = Math.min(n, Math.max(4 * m, 256));
+  let bestCost = m ** 3 / 6 + (m * m) / 2 + KERNEL_COST * (m + (m * m) / 16);
+  let best: { width: number; cap: number } | null = null;
+  for (const k of TILE_STEPS) {
+    const width = k * spacing;
+    const M = Math.PI * rho * (d + Math.SQRT2 * width) ** 2;
+    if (M > 0.75 * cap) break;
+    const cost = (M ** 3 / 6 + (KERNEL_COST * M * M) / 2) / (k * k) + (M * M) / 2 + (KERNEL_COST + 1) * M;
+    if (cost < bestCost) {
+      bestCost = cost;
+      best = { width, cap };
+    }
+  }
+  return best;
 }
 
 /** Predictions with the warnings met while computing them. */
@@ -213,20 +266,28 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const cosA = Math.cos(angle);
   const invRatio = 1 / (model.anisotropy?.ratio ?? 1);
 
-  // Work buffers, reused by every call.
+  // Tiles: targets in one square tile of side w (isotropic coordinates) share one neighbourhood.
+  const tile = options.targetSpacing !== undefined ? chooseTile(n, q, iu, iv, options.targetSpacing) : null;
+  // Largest neighbourhood a tile may have; a denser tile falls back to per-target neighbourhoods.
+  const cap = tile ? tile.cap : q;
+
+  // Work buffers, reused by every call. Matrices are size × size with stride size (size ≤ cap).
   const found32 = new Uint32Array(q);
-  const ids = new Uint32Array(q);
-  const prevIds = new Uint32Array(q);
-  let K = new Float64Array(q * q); // unfactored covariances (lower triangle) of the current set
-  let Kprev = new Float64Array(q * q);
-  const L = new Float64Array(q * q);
-  const map = new Int32Array(q);
-  const W = new Float64Array(q * 3);
+  const tileFound = new Uint32Array(tile ? n : 0);
+  let ids = new Uint32Array(cap);
+  let prevIds = new Uint32Array(cap);
+  let size = 0; // samples in the current neighbourhood
+  let prevSize = 0;
+  let K = new Float64Array(cap * cap); // unfactored covariances (lower triangle) of the current set
+  let Kprev = new Float64Array(cap * cap);
+  const L = new Float64Array(cap * cap);
+  const map = new Int32Array(cap);
+  const W = new Float64Array(cap * 3);
   const Lg = new Float64Array(9);
-  const r = new Float64Array(q);
+  const r = new Float64Array(cap);
   const betaLocal = new Float64Array(3);
-  const kv = new Float64Array(q);
-  const w = new Float64Array(q);
+  const kv = new Float64Array(cap);
+  const w = new Float64Array(cap);
   const x0 = new Float64Array(3);
   const t = new Float64Array(3);
   let have = false; // a factor for `ids` is ready
@@ -242,8 +303,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       // Both lists are sorted: merge to map each new position to its old one (or −1).
       let a = 0;
       let b = 0;
-      while (a < q) {
-        if (b >= q || ids[a] < prevIds[b]) map[a++] = -1;
+      while (a < size) {
+        if (b >= prevSize || ids[a] < prevIds[b]) map[a++] = -1;
         else if (ids[a] === prevIds[b]) map[a++] = b++;
         else b++;
       }
@@ -252,16 +313,16 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     const spare = Kprev;
     Kprev = K;
     K = spare;
-    for (let a = 0; a < q; a++) {
+    for (let a = 0; a < size; a++) {
       const ia = ids[a];
       const xa = iu[ia];
       const ya = iv[ia];
-      const rowA = a * q;
+      const rowA = a * size;
       const ma = reuse ? map[a] : -1;
       for (let b = 0; b < a; b++) {
         const mb = reuse ? map[b] : -1;
         let c: number;
-        if (ma >= 0 && mb >= 0) c = Kprev[ma * q + mb];
+        if (ma >= 0 && mb >= 0) c = Kprev[ma * prevSize + mb];
         else {
           const ib = ids[b];
           const dx = xa - iu[ib];
@@ -274,17 +335,19 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     }
   };
 
-  /** Factorises K (jitter if needed) and solves the neighbourhood's trend. */
+  /** Factorises K (jitter if needed) and solves the neighbourhood's trend; (px, py) centres the local trend frame. */
   const factor = (px: number, py: number): void => {
-    L.set(K);
-    if (!factorLower(L, q)) {
+    const q = size;
+    const Lq = L.subarray(0, q * q);
+    Lq.set(K.subarray(0, q * q));
+    if (!factorLower(Lq, q)) {
       let ok = false;
       if (allowJitter) {
         for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
-          L.set(K);
+          Lq.set(K.subarray(0, q * q));
           const add = rel * diagonal;
-          for (let a = 0; a < q; a++) L[a * q + a] += add;
-          ok = factorLower(L, q);
+          for (let a = 0; a < q; a++) Lq[a * q + a] += add;
+          ok = factorLower(Lq, q);
           if (ok) {
             jitterCount++;
             maxJitter = Math.max(maxJitter, add);
@@ -297,9 +360,9 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
     }
     for (let a = 0; a < q; a++) r[a] = zr[ids[a]];
-    solveLowerInPlace(L, q, r);
+    solveLowerInPlace(Lq, q, r);
     if (p === 0) return;
-    // Local trend frame: centred on this target, scaled by the farthest neighbour.
+    // Local trend frame: centred on (px, py), scaled by the farthest neighbour.
     frameX = px;
     frameY = py;
     let far = 0;
@@ -310,7 +373,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
         const id = ids[a];
         w[a] = c === 0 ? 1 : c === 1 ? (cu[id] - frameX) / frameS : (cv[id] - frameY) / frameS;
       }
-      solveLowerInPlace(L, q, w);
+      solveLowerInPlace(Lq, q, w);
       for (let a = 0; a < q; a++) W[a * p + c] = w[a];
     }
     Lg.fill(0);
@@ -345,6 +408,108 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     }
   };
 
+  /** Makes the sorted sample set `found` the current neighbourhood (refactorising unless it already is). */
+  const useSet = (found: Uint32Array, px: number, py: number): void => {
+    const count = found.length;
+    if (have && count === size) {
+      let same = true;
+      for (let a = 0; a < count; a++) if (found[a] !== ids[a]) { same = false; break; }
+      if (same) return;
+    }
+    const spare = prevIds;
+    prevIds = ids;
+    ids = spare;
+    prevSize = size;
+    ids.set(found);
+    size = count;
+    fillK(have);
+    factor(px, py);
+    have = true;
+  };
+
+  /** Mean and sd of one target from the current neighbourhood, written at position j. */
+  const predictAt = (
+    j: number, xj: number, yj: number, pu: number, pv: number, qu: number, qv: number, wantSd: boolean,
+    mean: Float64Array, sd: Float64Array, sdObserved: Float64Array,
+  ): void => {
+    const q = size;
+    // k₀ and v = L⁻¹k₀.
+    for (let a = 0; a < q; a++) {
+      const id = ids[a];
+      const dx = qu - iu[id];
+      const dy = qv - iv[id];
+      kv[a] = cov(Math.sqrt(dx * dx + dy * dy));
+    }
+    solveLowerInPlace(L.subarray(0, q * q), q, kv.subarray(0, q));
+    let mu: number;
+    if (globalMean) {
+      designRow(trend, xj, yj, frame, x0);
+      mu = 0;
+      for (let a = 0; a < pModel; a++) mu += x0[a] * beta[a];
+    } else if (p === 0) {
+      mu = m0;
+    } else {
+      x0[0] = 1;
+      if (p === 3) {
+        x0[1] = (pu - frameX) / frameS;
+        x0[2] = (pv - frameY) / frameS;
+      }
+      mu = 0;
+      for (let c = 0; c < p; c++) mu += x0[c] * betaLocal[c];
+    }
+    let s = mu;
+    for (let a = 0; a < q; a++) s += kv[a] * r[a];
+    mean[j] = s;
+    if (wantSd) {
+      let variance = c0;
+      for (let a = 0; a < q; a++) variance -= kv[a] * kv[a];
+      if (p > 0) {
+        for (let c = 0; c < p; c++) {
+          let e = x0[c];
+          for (let a = 0; a < q; a++) e -= W[a * p + c] * kv[a];
+          t[c] = e;
+        }
+        solveLowerInPlace(Lg, p, t);
+        for (let c = 0; c < p; c++) variance += t[c] * t[c];
+      }
+      const sj = Math.sqrt(Math.max(0, variance));
+      sd[j] = sj;
+      sdObserved[j] = Math.sqrt(sj * sj + nugget);
+    } else {
+      sd[j] = NaN;
+      sdObserved[j] = NaN;
+    }
+  };
+
+  /** The m nearest samples of a target (isotropic coordinates), sorted by id, as the current set. */
+  const useNearest = (qu: number, qv: number, pu: number, pv: number): void => {
+    const found = index.nearest(qu, qv, q, found32);
+    found.sort();
+    useSet(found, pu, pv);
+  };
+
+  /**
+   * The neighbourhood of a tile: every sample within d_m(c) + √2·w of its centre c, which holds the
+   * m nearest samples of every point of the tile (a point t of the tile is within w/√2 of c, so its
+   * m-th nearest sample is within d_m(c) + w/√2 of t, hence within d_m(c) + √2·w of c). False when
+   * that set is larger than the cap (the tile's targets then take their own m nearest).
+   */
+  const useTile = (tu: number, tv: number, width: number): boolean => {
+    const dist2 = tileDist2;
+    const nearest = index.nearest(tu, tv, q, found32, dist2);
+    const radius = Math.sqrt(dist2[nearest.length - 1]) + Math.SQRT2 * width;
+    const count = index.withinInto(tu, tv, radius, tileFound);
+    if (count > cap) return false;
+    const found = tileFound.subarray(0, count);
+    found.sort();
+    // The local trend frame is centred on the tile centre (in centred working coordinates).
+    const cx = rotate ? tu * sinA + tv * cosA / invRatio : tu;
+    const cy = rotate ? tu * cosA - tv * sinA / invRatio : tv;
+    useSet(found, cx, cy);
+    return true;
+  };
+  const tileDist2 = new Float64Array(q);
+
   const predict = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction => {
     if (tx.length !== ty.length) throw new GapwiseError('bad-value', `Expected target x and y of equal length, got ${tx.length} and ${ty.length}.`);
     const total = tx.length;
@@ -354,6 +519,11 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     const sdObserved = new Float64Array(total);
     const jitterBefore = jitterCount;
     const progressEvery = Math.max(1, Math.floor(popts.blockSize ?? 512));
+    // Targets in working and isotropic coordinates (and, with tiles, their tile).
+    const PU = new Float64Array(total);
+    const PV = new Float64Array(total);
+    const QU = new Float64Array(total);
+    const QV = new Float64Array(total);
     for (let j = 0; j < total; j++) {
       const xj = tx[j];
       const yj = ty[j];
@@ -362,68 +532,51 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
       const pu = xj - frame.cx;
       const pv = yj - frame.cy;
-      const qu = rotate ? (pu * sinA + pv * cosA) : pu;
-      const qv = rotate ? (pu * cosA - pv * sinA) * invRatio : pv;
-      const found = index.nearest(qu, qv, q, found32);
-      found.sort();
-      let same = have;
-      if (same) for (let a = 0; a < q; a++) if (found[a] !== ids[a]) { same = false; break; }
-      if (!same) {
-        prevIds.set(ids);
-        ids.set(found);
-        fillK(have);
-        factor(pu, pv);
-        have = true;
+      PU[j] = pu;
+      PV[j] = pv;
+      QU[j] = rotate ? (pu * sinA + pv * cosA) : pu;
+      QV[j] = rotate ? (pu * cosA - pv * sinA) * invRatio : pv;
+    }
+    let done = 0;
+    const step = (): void => {
+      done++;
+      if (done % progressEvery === 0 || done === total) {
+        popts.onProgress?.(done, total);
+        if (popts.isCancelled?.()) throw new GapwiseError('cancelled', `Prediction stopped after ${done} of ${total} targets.`);
       }
-      // k₀ and v = L⁻¹k₀.
-      for (let a = 0; a < q; a++) {
-        const id = ids[a];
-        const dx = qu - iu[id];
-        const dy = qv - iv[id];
-        kv[a] = cov(Math.sqrt(dx * dx + dy * dy));
+    };
+    const one = (j: number): void => {
+      useNearest(QU[j], QV[j], PU[j], PV[j]);
+      predictAt(j, tx[j], ty[j], PU[j], PV[j], QU[j], QV[j], wantSd, mean, sd, sdObserved);
+      step();
+    };
+    if (!tile) {
+      for (let j = 0; j < total; j++) one(j);
+    } else {
+      // Group the targets by tile (sorted by tile, then by position), one neighbourhood per tile.
+      const width = tile.width;
+      const ti = new Float64Array(total);
+      const tj = new Float64Array(total);
+      for (let j = 0; j < total; j++) {
+        ti[j] = Math.floor(QU[j] / width);
+        tj[j] = Math.floor(QV[j] / width);
       }
-      solveLowerInPlace(L, q, kv);
-      let mu: number;
-      if (globalMean) {
-        designRow(trend, xj, yj, frame, x0);
-        mu = 0;
-        for (let a = 0; a < pModel; a++) mu += x0[a] * beta[a];
-      } else if (p === 0) {
-        mu = m0;
-      } else {
-        x0[0] = 1;
-        if (p === 3) {
-          x0[1] = (pu - frameX) / frameS;
-          x0[2] = (pv - frameY) / frameS;
-        }
-        mu = 0;
-        for (let c = 0; c < p; c++) mu += x0[c] * betaLocal[c];
-      }
-      let s = mu;
-      for (let a = 0; a < q; a++) s += kv[a] * r[a];
-      mean[j] = s;
-      if (wantSd) {
-        let variance = c0;
-        for (let a = 0; a < q; a++) variance -= kv[a] * kv[a];
-        if (p > 0) {
-          for (let c = 0; c < p; c++) {
-            let e = x0[c];
-            for (let a = 0; a < q; a++) e -= W[a * p + c] * kv[a];
-            t[c] = e;
+      const orderT = Uint32Array.from({ length: total }, (_, j) => j);
+      orderT.sort((a, b) => tj[a] - tj[b] || ti[a] - ti[b] || a - b);
+      for (let g = 0; g < total;) {
+        let e = g + 1;
+        while (e < total && ti[orderT[e]] === ti[orderT[g]] && tj[orderT[e]] === tj[orderT[g]]) e++;
+        const first = orderT[g];
+        if (useTile((ti[first] + 0.5) * width, (tj[first] + 0.5) * width, width)) {
+          for (let k = g; k < e; k++) {
+            const j = orderT[k];
+            predictAt(j, tx[j], ty[j], PU[j], PV[j], QU[j], QV[j], wantSd, mean, sd, sdObserved);
+            step();
           }
-          solveLowerInPlace(Lg, p, t);
-          for (let c = 0; c < p; c++) variance += t[c] * t[c];
+        } else {
+          for (let k = g; k < e; k++) one(orderT[k]);
         }
-        const sj = Math.sqrt(Math.max(0, variance));
-        sd[j] = sj;
-        sdObserved[j] = Math.sqrt(sj * sj + nugget);
-      } else {
-        sd[j] = NaN;
-        sdObserved[j] = NaN;
-      }
-      if ((j + 1) % progressEvery === 0 || j + 1 === total) {
-        popts.onProgress?.(j + 1, total);
-        if (popts.isCancelled?.()) throw new GapwiseError('cancelled', `Prediction stopped after ${j + 1} of ${total} targets.`);
+        g = e;
       }
     }
     const callWarnings: Warning[] = [];

@@ -145,7 +145,10 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'surfaceRows': {
         const q = p as RequestPayloads['surfaceRows'];
         checkSamples(q.samples);
-        const predictor = q.local ? localPredictorFor(q.samples, q.model, q.local) : predictorFor(q.samples, q.model);
+        // On a grid, targets one cell apart may share tile neighbourhoods (core/local-kriging.ts chooseTile).
+        const predictor = q.local
+          ? localPredictorFor(q.samples, q.model, { ...q.local, targetSpacing: q.local.targetSpacing ?? q.grid.cell })
+          : predictorFor(q.samples, q.model);
         return ops.computeSurfaceWith(predictor, q.grid, q.options ?? {}, progress) as ResultPayloads[K];
       }
       case 'fitNearestNeighbour': {

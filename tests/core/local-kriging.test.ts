@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createLocalPredictor } from '../../src/core/local-kriging.ts';
+import { chooseTile, createLocalPredictor } from '../../src/core/local-kriging.ts';
 import { createPredictor } from '../../src/core/kriging.ts';
 import { makeSamples } from '../../src/core/samples.ts';
 import { createRandom } from '../../src/core/random.ts';
@@ -107,6 +107,58 @@ describe('createLocalPredictor', () => {
       expectClose(got.sd, c.sd, { rel: tol.sdRel }, `${c.name} sd (numpy)`);
     });
   }
+
+  // Tiles: targets closer together than the samples share one neighbourhood holding each one's 64 nearest.
+  const extent = (a: number[]) => Math.max(...a) - Math.min(...a);
+  const sampleSpacing = Math.sqrt((extent(data.x) * extent(data.y)) / data.x.length);
+  for (const c of fixture.cases) {
+    it(`createLocalPredictor with tile neighbourhoods (targetSpacing) is within the same tolerances of exact ${c.name} kriging (numpy)`, () => {
+      const local = createLocalPredictor(big, c.model, { neighbors: 64, globalMean: c.name === 'ordinary', targetSpacing: sampleSpacing / 4 });
+      const got = local.predict(targets.x, targets.y);
+      expectClose(got.mean, c.mean, { abs: tol.meanAbsOverPriorSd }, `${c.name} mean with tiles (numpy)`);
+      expectClose(got.sd, c.sd, { rel: tol.sdRel }, `${c.name} sd with tiles (numpy)`);
+      // Tiles hold more than the 64 nearest, so the worst error is no larger than per-target
+      // neighbourhoods' on this problem (both measured against numpy).
+      const per = createLocalPredictor(big, c.model, { neighbors: 64, globalMean: c.name === 'ordinary' }).predict(targets.x, targets.y);
+      const worst = (a: Float64Array) => Math.max(...Array.from(a, (v, k) => Math.abs(v - c.mean[k])));
+      expect(worst(got.mean)).toBeLessThanOrEqual(worst(per.mean));
+    });
+  }
+
+  it('chooseTile shares neighbourhoods only when targets are denser than the samples', () => {
+    const dense = chooseTile(data.x.length, 64, data.x, data.y, sampleSpacing / 4);
+    expect(dense).not.toBeNull();
+    // The width is a whole number of target spacings; the cap is max(4m, 256) (at most n).
+    const k = dense!.width / (sampleSpacing / 4);
+    expect(Math.abs(k - Math.round(k))).toBeLessThan(1e-9);
+    expect(dense!.cap).toBe(256);
+    // Targets as sparse as the samples: one neighbourhood per target is cheaper.
+    expect(chooseTile(data.x.length, 64, data.x, data.y, sampleSpacing)).toBeNull();
+    // All samples in every neighbourhood anyway, or no spacing: no tiles.
+    expect(chooseTile(50, 64, data.x.slice(0, 50), data.y.slice(0, 50), 1)).toBeNull();
+    expect(chooseTile(data.x.length, 64, data.x, data.y, 0)).toBeNull();
+  });
+
+  it('predict with tiles gives the same bits whatever the order of the targets and however they are split', () => {
+    const c = fixture.cases.find((k) => k.name === 'ordinary')!;
+    const opts = { neighbors: 64, targetSpacing: sampleSpacing / 4 };
+    const whole = createLocalPredictor(big, c.model, opts).predict(targets.x, targets.y);
+    const p = createLocalPredictor(big, c.model, opts);
+    const half = targets.x.length >> 1;
+    const rx = [...targets.x].reverse();
+    const ry = [...targets.y].reverse();
+    const second = p.predict(rx.slice(0, targets.x.length - half), ry.slice(0, targets.x.length - half));
+    const first = p.predict(targets.x.slice(0, half), targets.y.slice(0, half));
+    for (let j = 0; j < half; j++) {
+      expect(first.mean[j]).toBe(whole.mean[j]);
+      expect(first.sd[j]).toBe(whole.sd[j]);
+    }
+    for (let j = 0; j < targets.x.length - half; j++) {
+      const at = targets.x.length - 1 - j;
+      expect(second.mean[j]).toBe(whole.mean[at]);
+      expect(second.sd[j]).toBe(whole.sd[at]);
+    }
+  });
 
   it('createLocalPredictor local ordinary kriging keeps its sd within 2 % of exact on 2,000 samples', () => {
     const c = fixture.cases.find((k) => k.name === 'ordinary')!;
