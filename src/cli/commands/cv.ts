@@ -4,12 +4,13 @@
  *
  * Below 3,000 samples (or with --exact) the closed form of core/cross-validation.ts: one
  * factorisation of all samples, n³/3 flops. From 3,000 samples on (or with --local) each sample is
- * left out and predicted from its M nearest other samples (localLeaveOneOut below): the same
+ * left out and predicted from its M nearest other samples (core/local-cross-validation.ts): the same
  * kriging as the local path of predict and grid, m³/3 flops per sample. With M ≥ n − 1 it is the
  * closed form's answer.
  */
 import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { leaveOneOut, summariseErrors, type LeaveOneOutResult } from '../../core/cross-validation.ts';
+import { leaveOneOut, type LeaveOneOutResult } from '../../core/cross-validation.ts';
+import { localLeaveOneOut } from '../../core/local-cross-validation.ts';
 import { createPredictor } from '../../core/kriging.ts';
 import { globalMeanCoefficients } from '../../core/local-kriging.ts';
 import type { CovarianceModel } from '../../core/model.ts';
@@ -24,111 +25,6 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { csvLine, formatNumber } from '../csv.ts';
-
-/** Options of localLeaveOneOut (plain data). */
-export interface LocalLeaveOneOutOptions {
-  /** Other samples each left-out sample is predicted from, M (min(M, n − 1) are used). */
-  neighbors: number;
-  /** Use the GLS mean (trend) of all samples as a known mean in every neighbourhood. */
-  globalMean?: boolean;
-}
-
-/**
- * Leave-one-out cross-validation from local neighbourhoods: sample i is predicted by kriging from
- * its M nearest other samples (nearest in the model's effective distance, anisotropy included), with
- * the model's trend re-estimated in that neighbourhood (or, with globalMean, the GLS trend of all
- * samples as a known mean). Same result shape and scale rules as leaveOneOut (a log model is
- * cross-validated on ln(value)); sdObserved includes the nugget. Cost: n·(M³/3 + M²) flops and a
- * kd-tree query per sample. Throws GapwiseError as createPredictor does, and 'too-few-samples'.
- */
-export function localLeaveOneOut(
-  samples: Samples, model: CovarianceModel, options: LocalLeaveOneOutOptions, onProgress?: (done: number, total: number) => void,
-): LeaveOneOutResult {
-  const n = samples.value.length;
-  const pModel = trendColumnCount(model.trend);
-  if (n < pModel + 2) throw new GapwiseError('too-few-samples', `Expected at least ${pModel + 2} samples for leave-one-out with this trend, got ${n}.`);
-  const m = options.neighbors;
-  if (!(Number.isInteger(m) && m >= 1)) throw new GapwiseError('bad-option', `Expected a whole number of neighbours of at least 1, got ${m}.`);
-  const log = model.transform === 'log';
-  const z = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    const v = samples.value[i];
-    if (log && !(v > 0)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${v}; a log transform needs values greater than 0.`);
-    z[i] = log ? Math.log(v) : v;
-  }
-  const warnings: Warning[] = [];
-  const frame = coordinateFrame(samples.x, samples.y);
-  // With a global mean, neighbourhoods krige residuals from the GLS trend with a known mean of 0.
-  const globalMean = options.globalMean === true && pModel > 0;
-  const trendAt = new Float64Array(n);
-  if (globalMean) {
-    const g = globalMeanCoefficients(samples, model);
-    warnings.push(...g.warnings);
-    const row = new Float64Array(pModel);
-    for (let i = 0; i < n; i++) {
-      designRow(model.trend, samples.x[i], samples.y[i], frame, row);
-      let t = 0;
-      for (let a = 0; a < pModel; a++) t += row[a] * g.beta[a];
-      trendAt[i] = t;
-    }
-  }
-  const local: CovarianceModel = { ...model, transform: 'none', ...(globalMean ? { trend: { known: 0 } } : {}) };
-  const q = Math.min(m, n - 1);
-  if (!globalMean && pModel > 0 && q <= pModel) {
-    throw new GapwiseError('bad-option', `Expected more than ${pModel} samples per neighbourhood for this trend, got ${q}.`);
-  }
-  const { u, v } = isotropicCoordinates(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy);
-  const index = new NeighborIndex(u, v);
-  const ids = new Uint32Array(q + 1);
-  const sx = new Float64Array(q);
-  const sy = new Float64Array(q);
-  const sz = new Float64Array(q);
-  const tx = new Float64Array(1);
-  const ty = new Float64Array(1);
-  const prediction = new Float64Array(n);
-  const sdObserved = new Float64Array(n);
-  const error = new Float64Array(n);
-  const standardisedError = new Float64Array(n);
-  const seen = new Map<string, { warning: Warning; count: number }>();
-  const every = Math.max(1, Math.floor(n / 100));
-  for (let i = 0; i < n; i++) {
-    const found = index.nearest(u[i], v[i], q + 1, ids);
-    // Sample i itself is normally the nearest; with coincident samples it may be further down the list.
-    let k = 0;
-    for (let a = 0; a < found.length && k < q; a++) {
-      const j = found[a];
-      if (j === i) continue;
-      sx[k] = samples.x[j];
-      sy[k] = samples.y[j];
-      sz[k] = z[j] - trendAt[j];
-      k++;
-    }
-    const predictor = createPredictor({ x: sx.subarray(0, k), y: sy.subarray(0, k), value: sz.subarray(0, k) }, local);
-    for (const w of predictor.warnings) {
-      const key = w.code;
-      const had = seen.get(key);
-      if (had) had.count++;
-      else seen.set(key, { warning: w, count: 1 });
-    }
-    tx[0] = samples.x[i];
-    ty[0] = samples.y[i];
-    const p = predictor.predict(tx, ty);
-    prediction[i] = p.mean[0] + trendAt[i];
-    sdObserved[i] = p.sdObserved[0];
-    error[i] = prediction[i] - z[i];
-    standardisedError[i] = error[i] / sdObserved[i];
-    if ((i + 1) % every === 0 || i + 1 === n) onProgress?.(i + 1, n);
-  }
-  for (const { warning, count } of seen.values()) {
-    warnings.push({ code: warning.code, message: `In ${count} of ${n} neighbourhoods: ${warning.message}` });
-  }
-  return {
-    prediction, sdObserved, error, standardisedError,
-    summary: summariseErrors(error, sdObserved),
-    scale: log ? 'log' : 'data',
-    warnings,
-  };
-}
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
