@@ -6,8 +6,10 @@
  * and search θ = (scale, η = nugget/partial sill[, ν]) on log scales by Nelder–Mead (optimize.ts)
  * from several starts: scale from fractions of the largest sample distance, η from {0.01, 0.1, 0.5},
  * ν ∈ [0.2, 5] when free. Above 250 samples the starts are screened on a seeded 150-sample subset
- * (and above 1,000 samples refined on a 500-sample subset) before the best is polished on all
- * samples, so most evaluations cost (150/n)³ of a full one.
+ * before the best is polished on all samples, so most evaluations cost (150/n)³ of a full one. Above
+ * 1,000 samples the best is first refined on the nearest-neighbour likelihood of all samples
+ * (vecchia.ts, 30 neighbours, about n·10⁴ flops an evaluation) and then polished by Newton steps
+ * on the exact likelihood (optimize.ts newtonRefine; Nelder–Mead when they do not converge).
  * WLS minimises Cressie's (1985, Math. Geol. 17:563) criterion Σ N_j[γ̂(h_j)/γ(h_j; θ) − 1]² over
  * sill, scale and nugget (and ν when free): first with the sill and nugget solved by iteratively
  * reweighted linear least squares for each scale, then jointly; its REML log-likelihood at the fitted
@@ -15,7 +17,8 @@
  * AIC = 2k − 2ℓ, k = sill + scale + nugget (if fitted) + ν (if free) + p trend coefficients; REML
  * AICs compare models with the same trend only.
  * Units: metres, data units squared. Cost: a likelihood fit makes about 20–40 evaluations of n³/3
- * flops on all samples above 250 samples (plus about 100 on the subsets), 50–150 below; WLS is
+ * flops on all samples from 250 to 1,000 samples and about 10 above (plus about 100 on the subset
+ * and the nearest-neighbour likelihood), 50–150 below 250; WLS is
  * O(n²) for the variogram plus the likelihood once.
  */
 import type { Anisotropy, CovarianceModel, Family, FitInfo, Structure, Trend } from './model.ts';
@@ -25,8 +28,9 @@ import type { CorrelationParameters, Likelihood } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
 import { GapwiseError } from './errors.ts';
 import { centroid, makeSamples } from './samples.ts';
-import { createLikelihood } from './likelihood.ts';
-import { minimizeBounded } from './optimize.ts';
+import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
+import { minimizeBounded, newtonRefine } from './optimize.ts';
+import { createVecchiaLikelihood } from './vecchia.ts';
 import { empiricalVariogram } from './variogram.ts';
 import { correlation, practicalRange } from './covariance.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
@@ -55,14 +59,15 @@ export interface FitOptions {
   maxEvaluations?: number;
 }
 
-/** Smoothness bounds when ν is estimated. */
-export const NU_BOUNDS = { lower: 0.2, upper: 5 } as const;
+/** Smoothness bounds when ν is estimated (defined beside the likelihood). */
+export { NU_BOUNDS } from './likelihood.ts';
 /** Largest n for the exact (O(n³)) likelihood. */
 export const MAX_EXACT_SAMPLES = 3000;
 const SCREEN_ABOVE = 250;
 const SCREEN_SIZE = 150;
 const MID_ABOVE = 1000;
-const MID_SIZE = 500;
+/** Neighbours of the nearest-neighbour likelihood that stands in for the exact one above MID_ABOVE samples. */
+const NEAR_NEIGHBORS = 30;
 const NUGGET_RATIO_BOUNDS = { lower: 1e-6, upper: 1e3 };
 const FAMILIES: ReadonlySet<string> = new Set(['matern', 'exponential', 'spherical', 'gaussian']);
 
@@ -181,7 +186,7 @@ function layout(r: Resolved, maxDistance: number): SearchLayout {
   };
 }
 
-function negLogLik(lik: Likelihood, L: SearchLayout, allowJitter: boolean): (x: number[]) => number {
+function negLogLik(lik: Pick<Likelihood, 'evaluate'>, L: SearchLayout, allowJitter: boolean): (x: number[]) => number {
   return (x) => -lik.evaluate(L.toTheta(x), { allowJitter }).logLikelihood;
 }
 
@@ -281,41 +286,48 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
     candidates.push({ x: res.x, value: res.value, converged: res.converged });
   }
 
-  let best: { x: number[]; value: number; converged: boolean };
+  let best: { x: number[]; value: number; converged: boolean } | undefined;
   if (screening) {
-    // Above 1,000 samples an intermediate 500-sample subset takes the optimum most of the way
-    // (at 1/8 or less of a full evaluation each), so the full-data polish starts close.
-    let stage = { like: lik, f: fFull, step: 0.2 };
-    let mid: Likelihood | undefined;
-    if (n > MID_ABOVE) {
-      mid = createLikelihood(subsetSamples(samples, MID_SIZE, 20240612), setup);
-      stage = { like: mid, f: negLogLik(mid, L, allowJitter), step: 0.2 };
-    }
+    // Above 1,000 samples the nearest-neighbour likelihood of all samples (./vecchia.ts, 30
+    // neighbours: its optimum lies within a few per cent of the exact one, at about 1/100 of the
+    // cost of an exact evaluation) takes the optimum most of the way; Newton steps on the exact
+    // likelihood finish (Nelder–Mead when they do not converge). Up to 1,000 samples the screened
+    // optima are polished on all samples directly.
+    const near = n > MID_ABOVE ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
+    const fStage = near ? negLogLik(near, L, allowJitter) : fFull;
     // Rank the screened optima on the next stage, then polish the best there.
     let top = { x: candidates[0].x, value: Infinity };
     for (const c of candidates) {
-      const v = stage.f(c.x);
-      if (mid) screenEvaluations++;
+      const v = fStage(c.x);
+      if (near) screenEvaluations++;
       else evaluations++;
       if (v < top.value) top = { x: c.x, value: v };
     }
-    if (!Number.isFinite(top.value)) top = { x: grid[0].x, value: stage.f(grid[0].x) };
-    if (mid) {
-      const res = minimizeBounded(stage.f, top.x, L.spaces, {
-        step: 0.2, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
+    if (!Number.isFinite(top.value)) top = { x: grid[0].x, value: fStage(grid[0].x) };
+    let step = 0.2;
+    if (near) {
+      const res = minimizeBounded(fStage, top.x, L.spaces, {
+        step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
       });
       iterations += res.iterations;
       screenEvaluations += res.evaluations;
-      top = { x: res.x, value: fFull(res.x) };
-      evaluations++;
-      stage = { like: lik, f: fFull, step: 0.1 };
+      const refined = newtonRefine(fFull, res.x, L.spaces);
+      iterations += refined.iterations;
+      evaluations += refined.evaluations;
+      top = { x: refined.x, value: refined.value };
+      if (refined.converged) best = { x: refined.x, value: refined.value, converged: true };
+      step = 0.1;
     }
-    const res = minimizeBounded(fFull, top.x, L.spaces, {
-      step: stage.step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
-    });
-    iterations += res.iterations;
-    evaluations += res.evaluations;
-    best = { x: res.x, value: res.value, converged: res.converged };
+    if (!best) {
+      const res = minimizeBounded(fFull, top.x, L.spaces, {
+        step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
+      });
+      iterations += res.iterations;
+      evaluations += res.evaluations;
+      best = res.value <= top.value || !Number.isFinite(top.value)
+        ? { x: res.x, value: res.value, converged: res.converged }
+        : { x: top.x, value: top.value, converged: res.converged };
+    }
   } else {
     candidates.sort((a, b) => a.value - b.value);
     best = candidates[0];

@@ -22,6 +22,9 @@ import { correlation, effectiveDistance } from './covariance.ts';
 
 export type LikelihoodMethod = 'reml' | 'ml';
 
+/** Range searched for a free Matérn smoothness ν. */
+export const NU_BOUNDS = { lower: 0.2, upper: 5 } as const;
+
 /** What stays fixed while θ varies. Plain data. */
 export interface LikelihoodSetup {
   family: Family;
