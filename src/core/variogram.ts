@@ -231,70 +231,90 @@ function axial(deg: number): number {
  * practice. Throws GapwiseError 'too-few-samples' for fewer than 2 samples or all at one place.
  */
 export function empiricalVariogram(samples: Samples, options: VariogramOptions = {}): EmpiricalVariogram {
-  const n = checkSamples(samples, 2);
-  const { x, y, value } = samples;
-  const maxDistance = maxSampleDistance(x, y);
+  checkSamples(samples, 2);
+  const maxDistance = maxSampleDistance(samples.x, samples.y);
   const notes: string[] = [];
   const o = resolveOptions(samples, options, maxDistance, notes);
+  return passVariograms(samples, [o], maxDistance, notes)[0];
+}
+
+/**
+ * One pass over the (seeded, possibly subsampled) pairs for several option sets that share lag
+ * classes, estimator, pair budget and seed and differ only in direction, tolerance and bandwidth:
+ * each pair's distance and angle are computed once. Same result per set as a pass of its own.
+ */
+function passVariograms(samples: Samples, sets: ResolvedVariogramOptions[], maxDistance: number, notes: string[]): EmpiricalVariogram[] {
+  const n = samples.x.length;
+  const { x, y, value } = samples;
+  const o = sets[0];
+  const S = sets.length;
   const K = o.lagCount;
-  const count = new Float64Array(K);
-  const sumH = new Float64Array(K);
-  const sumD = new Float64Array(K);
+  const count = new Float64Array(K * S);
+  const sumH = new Float64Array(K * S);
+  const sumD = new Float64Array(K * S);
+  const used = new Float64Array(S);
+  const zeroPairs = new Float64Array(S);
   const robust = o.estimator === 'cressie-hawkins';
-  const directional = o.direction !== undefined;
-  const dir = directional ? axial(o.direction!) : 0;
-  const tol = o.tolerance ?? 90;
-  const band = o.bandwidth ?? Infinity;
   const toRad = Math.PI / 180;
-  let used = 0;
-  let zeroPairs = 0;
+  const dirs = sets.map((v) => (v.direction !== undefined ? axial(v.direction) : NaN));
+  const tols = sets.map((v) => v.tolerance ?? 90);
+  const bands = sets.map((v) => v.bandwidth ?? Infinity);
+  const anyDirection = dirs.some((d) => !Number.isNaN(d));
   const { examined, subsampled } = forEachPair(n, o.maxPairs, o.seed, (i, j) => {
     const dx = x[i] - x[j];
     const dy = y[i] - y[j];
     const h = Math.sqrt(dx * dx + dy * dy);
     if (h > o.maxLag) return;
-    if (directional) {
-      // A pair at one place has no direction.
-      if (h === 0) return;
-      let diff = Math.abs(axial((Math.atan2(dx, dy) * 180) / Math.PI) - dir);
-      if (diff > 90) diff = 180 - diff;
-      if (diff > tol + 1e-12) return;
-      if (h * Math.sin(diff * toRad) > band) return;
-    }
     const k = Math.min(K - 1, Math.floor(h / o.lagWidth));
     const dz = value[i] - value[j];
-    count[k]++;
-    sumH[k] += h;
-    sumD[k] += robust ? Math.sqrt(Math.abs(dz)) : dz * dz;
-    used++;
-    if (h === 0) zeroPairs++;
+    const d = robust ? Math.sqrt(Math.abs(dz)) : dz * dz;
+    const angle = anyDirection && h > 0 ? axial((Math.atan2(dx, dy) * 180) / Math.PI) : 0;
+    for (let s = 0; s < S; s++) {
+      if (!Number.isNaN(dirs[s])) {
+        // A pair at one place has no direction.
+        if (h === 0) continue;
+        let diff = Math.abs(angle - dirs[s]);
+        if (diff > 90) diff = 180 - diff;
+        if (diff > tols[s] + 1e-12) continue;
+        if (h * Math.sin(diff * toRad) > bands[s]) continue;
+      }
+      const at = s * K + k;
+      count[at]++;
+      sumH[at] += h;
+      sumD[at] += d;
+      used[s]++;
+      if (h === 0) zeroPairs[s]++;
+    }
   });
-  const lags: VariogramLag[] = [];
-  for (let k = 0; k < K; k++) {
-    const N = count[k];
-    if (N === 0) continue;
-    const semivariance = robust ? (0.5 * (sumD[k] / N) ** 4) / (0.457 + 0.494 / N) : sumD[k] / (2 * N);
-    lags.push({ distance: sumH[k] / N, semivariance, pairs: N, from: k * o.lagWidth, to: Math.min(o.maxLag, (k + 1) * o.lagWidth) });
-  }
-  const warnings: Warning[] = [];
-  if (lags.length < K) notes.push(`${K - lags.length} of ${K} lag classes hold no pairs and are left out.`);
-  if (zeroPairs > 0) notes.push(`${zeroPairs} pairs at zero distance (repeated locations) are in the first lag class.`);
-  if (subsampled) {
-    const msg = `With ${n} samples (${((n * (n - 1)) / 2).toLocaleString('en-US')} pairs), a seeded sample of ${examined.toLocaleString('en-US')} pairs was used (seed ${o.seed}).`;
-    notes.push(msg);
-    warnings.push({ code: 'pairs-subsampled', message: msg });
-  }
-  if (n < RECOMMENDED_SAMPLES) {
-    warnings.push({ code: 'few-samples', message: `Only ${n} samples: a variogram is usually taken as reliable from about ${RECOMMENDED_SAMPLES} (common practice).` });
-  }
-  const thin = lags.filter((l) => l.pairs < MIN_PAIRS_PER_LAG);
-  if (thin.length > 0) {
-    warnings.push({
-      code: 'few-pairs',
-      message: `${thin.length} of ${lags.length} lag classes have fewer than ${MIN_PAIRS_PER_LAG} pairs (fewest ${Math.min(...thin.map((l) => l.pairs))}); common practice asks for at least 30–50 per lag.`,
-    });
-  }
-  return { lags, options: o, n, maxDistance, pairsUsed: used, pairsExamined: examined, subsampled, notes, warnings };
+  return sets.map((set, s) => {
+    const setNotes = [...notes];
+    const lags: VariogramLag[] = [];
+    for (let k = 0; k < K; k++) {
+      const N = count[s * K + k];
+      if (N === 0) continue;
+      const semivariance = robust ? (0.5 * (sumD[s * K + k] / N) ** 4) / (0.457 + 0.494 / N) : sumD[s * K + k] / (2 * N);
+      lags.push({ distance: sumH[s * K + k] / N, semivariance, pairs: N, from: k * o.lagWidth, to: Math.min(o.maxLag, (k + 1) * o.lagWidth) });
+    }
+    const warnings: Warning[] = [];
+    if (lags.length < K) setNotes.push(`${K - lags.length} of ${K} lag classes hold no pairs and are left out.`);
+    if (zeroPairs[s] > 0) setNotes.push(`${zeroPairs[s]} pairs at zero distance (repeated locations) are in the first lag class.`);
+    if (subsampled) {
+      const msg = `With ${n} samples (${((n * (n - 1)) / 2).toLocaleString('en-US')} pairs), a seeded sample of ${examined.toLocaleString('en-US')} pairs was used (seed ${o.seed}).`;
+      setNotes.push(msg);
+      warnings.push({ code: 'pairs-subsampled', message: msg });
+    }
+    if (n < RECOMMENDED_SAMPLES) {
+      warnings.push({ code: 'few-samples', message: `Only ${n} samples: a variogram is usually taken as reliable from about ${RECOMMENDED_SAMPLES} (common practice).` });
+    }
+    const thin = lags.filter((l) => l.pairs < MIN_PAIRS_PER_LAG);
+    if (thin.length > 0) {
+      warnings.push({
+        code: 'few-pairs',
+        message: `${thin.length} of ${lags.length} lag classes have fewer than ${MIN_PAIRS_PER_LAG} pairs (fewest ${Math.min(...thin.map((l) => l.pairs))}); common practice asks for at least 30–50 per lag.`,
+      });
+    }
+    return { lags, options: set, n, maxDistance, pairsUsed: used[s], pairsExamined: examined, subsampled, notes: setNotes, warnings };
+  });
 }
 
 export interface DirectionalOptions extends Omit<VariogramOptions, 'direction'> {
@@ -303,20 +323,26 @@ export interface DirectionalOptions extends Omit<VariogramOptions, 'direction'> 
 }
 
 /**
- * One empirical variogram per direction, sharing lag classes (resolved once from the whole data).
+ * One empirical variogram per direction, sharing lag classes (resolved once from the whole data),
+ * all from one pass over the pairs (the angle of each pair computed once).
  */
 export function directionalVariograms(samples: Samples, options: DirectionalOptions = {}): EmpiricalVariogram[] {
   const { directions = [0, 45, 90, 135], ...rest } = options;
   if (directions.length === 0) throw new GapwiseError('bad-option', 'Expected at least one direction, got none.');
   checkSamples(samples, 2);
   const notes: string[] = [];
-  const shared = resolveOptions(samples, rest, maxSampleDistance(samples.x, samples.y), notes);
-  return directions.map((direction) => {
-    const v = empiricalVariogram(samples, { ...rest, lagWidth: shared.lagWidth, maxLag: shared.maxLag, estimator: shared.estimator, direction });
-    // Report the defaults as applied to the set, not the explicit values passed on per direction.
-    v.notes = [...notes, ...v.notes];
-    return v;
+  const maxDistance = maxSampleDistance(samples.x, samples.y);
+  const shared = resolveOptions(samples, rest, maxDistance, notes);
+  // Each direction's options resolved as a single-direction call would (its notes follow the set's).
+  const perDirection: string[][] = [];
+  const sets = directions.map((direction) => {
+    const own: string[] = [];
+    const o = resolveOptions(samples, { ...rest, lagWidth: shared.lagWidth, maxLag: shared.maxLag, estimator: shared.estimator, direction }, maxDistance, own);
+    perDirection.push(own);
+    return o;
   });
+  // Report the defaults as applied to the set, not the explicit values passed on per direction.
+  return passVariograms(samples, sets, maxDistance, []).map((v, s) => ({ ...v, notes: [...notes, ...perDirection[s], ...v.notes] }));
 }
 
 export interface VariogramCloud {

@@ -42,6 +42,20 @@ describe('empiricalVariogram against numpy (make_variogram.py)', () => {
     expect(dirs[0].options.lagWidth).toBe(dirs[1].options.lagWidth);
     expect(dirs.map((d) => d.options.direction)).toEqual([90, 120]);
   });
+
+  it('directionalVariograms in one pass equals one empiricalVariogram call per direction, subsampled pairs included', () => {
+    for (const maxPairs of [undefined, 300]) {
+      const opts = { tolerance: 22.5, bandwidth: 400, estimator: 'cressie-hawkins' as const, maxPairs };
+      const dirs = directionalVariograms(samples, { directions: [0, 45, 90, 135], ...opts });
+      for (const d of dirs) {
+        const one = empiricalVariogram(samples, { ...opts, lagWidth: d.options.lagWidth, maxLag: d.options.maxLag, direction: d.options.direction });
+        expect(d.lags).toEqual(one.lags);
+        expect(d.pairsUsed).toBe(one.pairsUsed);
+        expect(d.subsampled).toBe(maxPairs !== undefined);
+        expect(d.warnings).toEqual(one.warnings);
+      }
+    }
+  });
 });
 
 describe('empiricalVariogram hand cases', () => {
