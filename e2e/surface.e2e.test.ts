@@ -4,6 +4,7 @@
  * main-thread task while a surface is computed and drawn (printed, never asserted).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
 import type { Page } from 'playwright-core';
 import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
 import { buildLut, type ScaleName } from '../src/ui/map/colour-scales.ts';
@@ -171,6 +172,8 @@ describe('Surface step in the browser', () => {
     await page.locator('#sim-count').press('Enter');
     await page.fill('#sim-depth', '0.3');
     await page.locator('#sim-depth').press('Enter');
+    await page.fill('#sim-seed', '3');
+    await page.locator('#sim-seed').press('Enter');
     await takeLongestTask(page);
     await page.click('[data-testid=simulate]');
     await page.waitForSelector('[data-testid=sim-done]', { timeout: WAIT });
@@ -214,6 +217,38 @@ describe('Surface step in the browser', () => {
     await page.locator('[data-testid=realisations]').scrollIntoViewIfNeeded();
     figures.push(`screenshot ${await shot(page, '3-surface-realisations')}`);
     expect(await page.locator('#surface-body [data-caution]').allInnerTexts()).toContain(CAUTION);
+    expect(await page.locator('[data-testid=sim-seed-used]').innerText()).toBe('3');
+
+    // The report built in the Report step now carries the area with its interval, seed and method.
+    await openStep(page, 'report');
+    expect(await page.locator('[data-testid=report-area-note]').innerText()).toMatch(/area above 200 mg\/kg from 40 realisations \(seed 3\)/);
+    const [download] = await Promise.all([page.waitForEvent('download'), page.click('[data-export=report]')]);
+    const html = readFileSync((await download.path())!, 'utf8');
+    const tagged = (name: string) => Number(new RegExp(`data-figure="${name}" data-value="([^"]+)"`).exec(html)?.[1]);
+    const [rMedian, rP05, rP95] = [tagged('area-median'), tagged('area-p05'), tagged('area-p95')];
+    expect(rP05).toBeLessThanOrEqual(rMedian);
+    expect(rMedian).toBeLessThanOrEqual(rP95);
+    // The panel shows 3 significant figures of the same numbers.
+    for (const [shown, full] of [[median, rMedian], [p05, rP05], [p95, rP95]]) expect(Math.abs(shown - full)).toBeLessThanOrEqual(full * 0.006);
+    expect(tagged('realisations')).toBe(40);
+    expect(tagged('seed')).toBe(3);
+    expect(Math.abs(tagged('volume-median') - rMedian * 0.3)).toBeLessThanOrEqual(rMedian * 1e-9);
+    // The area section alone (the whole report is large to print when a check fails).
+    const section = html.slice(html.indexOf('id="area-above"'), html.indexOf('</div>', html.indexOf('data-area-caution')));
+    expect(section).toMatch(/m²<\/strong> \([\d.]+ ha\) above 200 mg\/kg; 90 % interval/);
+    expect(section).toContain('conditioned on the samples by kriging the residuals');
+    expect(section).toContain('cell averages (block support, 4 × 4 points per');
+    expect(section).toContain('data-area-caution>A screening estimate');
+    expect(section).toContain(CAUTION);
+    // Seen as a user sees it: the downloaded report in the browser, at its area section.
+    const view = await demo.context.newPage();
+    await view.setViewportSize({ width: 1000, height: 1100 });
+    await view.setContent(html, { waitUntil: 'load' });
+    await view.locator('#area-above').evaluate((e) => e.scrollIntoView());
+    expect(await view.locator('[data-area-caution]').isVisible()).toBe(true);
+    figures.push(`report area: ${rMedian} m² (${rP05}–${rP95}), screenshot ${await shot(view, '5-report-area')}`);
+    await view.close();
+    await shot(page, '5-report-step');
     expectClean(demo);
     await demo.context.close();
   }, LONG);
