@@ -249,6 +249,19 @@ describe('Surface step in the browser', () => {
     figures.push(`report area: ${rMedian} m² (${rP05}–${rP95}), screenshot ${await shot(view, '5-report-area')}`);
     await view.close();
     await shot(page, '5-report-step');
+
+    // A saved project keeps the figure; opened again, the app redraws the same realisations (same seed).
+    const [savedDownload] = await Promise.all([page.waitForEvent('download'), page.click('[data-export=project]')]);
+    const savedText = readFileSync((await savedDownload.path())!, 'utf8');
+    const saved = JSON.parse(savedText) as { simulation: { count: number; seed: number; summary: { area: { median: number } } } };
+    expect(saved.simulation).toMatchObject({ count: 40, seed: 3, summary: { area: { median: rMedian } } });
+    await page.setInputFiles('#report-body input[type=file]', { name: 'again.gapwise.json', mimeType: 'application/json', buffer: Buffer.from(savedText) });
+    await page.waitForSelector('#report-body [role=status]:has-text("Opened again.gapwise.json")');
+    await page.waitForSelector('[data-testid=report-sim-running], [data-testid=sim-done]', { timeout: WAIT, state: 'attached' });
+    await page.waitForFunction(() => /from 40 realisations \(seed 3\)/.test(document.querySelector('[data-testid=report-area-note]')?.textContent ?? ''), null, { timeout: WAIT });
+    const [again] = await Promise.all([page.waitForEvent('download'), page.click('[data-export=report]')]);
+    const againHtml = readFileSync((await again.path())!, 'utf8');
+    expect(Number(/data-figure="area-median" data-value="([^"]+)"/.exec(againHtml)?.[1])).toBe(rMedian);
     expectClean(demo);
     await demo.context.close();
   }, LONG);
