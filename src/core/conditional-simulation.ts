@@ -667,6 +667,7 @@ export function simulateConditional(
   const eps = new Float64Array(n);
   const noise = new Float64Array(MAX_GROUP);
 
+  let reported = 0;
   for (let r0 = 0; r0 < N; r0 += batch) {
     const B = Math.min(batch, N - r0);
     const G = new Float64Array(nodesOut * B);
@@ -733,6 +734,13 @@ export function simulateConditional(
         kriger.apply(outX.subarray(q0, q0 + m), outY.subarray(q0, q0 + m), Y);
       }
       for (let q = 0; q < m; q++) for (let b = 0; b < B; b++) G[(q0 + q) * B + b] += Y[q * B + b];
+      // A batch may hold every realisation: report the share of its kriging done (whole realisations).
+      const part = r0 + Math.min(B - 1, Math.floor((B * (q0 + m)) / nodesOut));
+      if (part > reported) {
+        reported = part;
+        options.onProgress?.(part, N);
+      }
+      if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0} of ${N} realisations.`);
     }
     // Back-transform, average to cells, accumulate.
     for (let b = 0; b < B; b++) {
@@ -761,6 +769,7 @@ export function simulateConditional(
       counts[r0 + b] = count;
       if (realisations && values) realisations.push(values);
     }
+    reported = r0 + B;
     options.onProgress?.(r0 + B, N);
     if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0 + B} of ${N} realisations.`);
   }

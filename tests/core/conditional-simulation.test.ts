@@ -149,3 +149,28 @@ describe('simulateConditional', () => {
     expect(() => simulateConditional(offNode, matern, grid, { count: 2, support: 'area' as 'point' })).toThrow(/support/);
   });
 });
+
+describe('simulateConditional progress and cancelling', () => {
+  // A 64 × 64 grid: 4,096 cells in one batch of 20 realisations, kriged in chunks of 4,096 nodes;
+  // block support (4 × 4 points per cell, log model) makes 16 chunks within the one batch.
+  const big: Grid = { x0: 0, y0: 0, cell: 2, nx: 64, ny: 64 };
+  const pts = makeSamples([13, 47, 71, 22, 60, 35, 96, 110], [-12, -25, -66, -70, -44, -50, -30, -100], [1, 2, 0.5, 1.5, 2.5, 1.2, 1.8, 0.9]);
+  const logModel: CovarianceModel = { ...matern, transform: 'log' };
+
+  it('simulateConditional reports progress within a batch, never backwards, ending at the count', () => {
+    const seen: number[] = [];
+    simulateConditional(pts, logModel, big, { count: 20, seed: 2, support: 'block', keepRealisations: false, onProgress: (done, total) => { expect(total).toBe(20); seen.push(done); } });
+    expect(seen.length).toBeGreaterThan(5);
+    for (let k = 1; k < seen.length; k++) expect(seen[k]).toBeGreaterThan(seen[k - 1]);
+    expect(seen[seen.length - 1]).toBe(20);
+    expect(seen[0]).toBeLessThan(20);
+  });
+
+  it('simulateConditional stops with a cancelled error inside a batch', () => {
+    let calls = 0;
+    expect(() => simulateConditional(pts, logModel, big, {
+      count: 20, seed: 2, support: 'block', keepRealisations: false, isCancelled: () => ++calls > 3,
+    })).toThrow(GapwiseError);
+    expect(calls).toBe(4);
+  });
+});
