@@ -418,17 +418,21 @@ export function reportHtml(input: ReportInput): string {
     summary.push(['Mean surface', esc(`${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`)]);
     summary.push(['Uncertainty (sd)', esc(`${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`)]);
     if (surface.pExceed) {
-      let over = 0, likely = 0, active = 0;
+      let over = 0, likely = 0, active = 0, expected = 0;
       for (let k = 0; k < surface.pExceed.length; k++) {
         const p = surface.pExceed[k];
         if (!Number.isFinite(p)) continue;
         active++;
+        expected += p;
         if (p >= 0.5) over++;
         if (p >= 0.9) likely++;
       }
       const ha = (c: number) => fmt((c * grid.cell * grid.cell) / 10000, 3);
       summary.push(['Area more likely than not above the threshold', `${ha(over)} ha (${fmt((100 * over) / Math.max(1, active), 3)} % of the mapped area; P ≥ 0.5)`]);
       summary.push(['Area very likely above the threshold', `${ha(likely)} ha (P ≥ 0.9)`]);
+      // E[area above T] = Σ P(exceed)·cell area (linearity of expectation): cells with a moderate
+      // chance count in part, so it can well exceed the P ≥ 0.5 area; realisations give its spread.
+      summary.push(['Expected area above the threshold', `<span data-figure="expected-area" data-value="${expected * grid.cell * grid.cell}">${ha(expected)} ha</span> (Σ P(exceed) × cell area: cells with a moderate chance count in part)`]);
     }
   }
   if (cv) summary.push(['Cross-validation', esc(`RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`)]);

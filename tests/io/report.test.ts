@@ -60,6 +60,14 @@ describe('prepareReport', () => {
     expect(Array.from(input.surface!.pExceed!)).toEqual(Array.from(surface.pExceed!));
     expect(input.comparison).toBe(p.structure.comparison);
     expect(input.grid!.cell).toBe(10);
+    // The expected area above the threshold is Σ P(exceed) × cell area over the mapped cells.
+    let expected = 0;
+    for (const q of surface.pExceed!) if (Number.isFinite(q)) expected += q * 100;
+    const html = reportHtml(input);
+    const got = /data-figure="expected-area" data-value="([^"]+)"/.exec(html);
+    expect(got).not.toBeNull();
+    expectClose(Number(got![1]), expected, { rel: 1e-12 }, 'expected area (m²)');
+    expect(html).toContain(`${Number((expected / 10000).toPrecision(3))} ha</span>`);
   });
 });
 
