@@ -380,3 +380,37 @@ export function variogramCloud(samples: Samples, maxPairs = 20000, seed = 1): Va
   if (subsampled) out.notes.push(`Showing a seeded sample of ${examined.toLocaleString('en-US')} of ${out.totalPairs.toLocaleString('en-US')} pairs (seed ${seed}).`);
   return out;
 }
+
+/** What the structure view shows at once: the variogram, and on request the four directions and the cloud. */
+export interface VariogramSet {
+  omni: EmpiricalVariogram;
+  directional: EmpiricalVariogram[] | null;
+  cloud: VariogramCloud | null;
+}
+
+/**
+ * The omnidirectional variogram and, when asked, the directional ones (same lag classes) and the
+ * cloud of up to `cloudPairs` pairs: one request for a worker. Throws as empiricalVariogram does; a
+ * direction or cloud that cannot be computed comes back as null.
+ */
+export function variogramSet(samples: Samples, options: VariogramOptions = {}, extra: { directional?: boolean; cloudPairs?: number } = {}): VariogramSet {
+  const omni = empiricalVariogram(samples, options);
+  const { lagWidth, maxLag } = options;
+  let directional: EmpiricalVariogram[] | null = null;
+  let cloud: VariogramCloud | null = null;
+  if (extra.directional) {
+    try {
+      directional = directionalVariograms(samples, { lagWidth, maxLag });
+    } catch {
+      directional = null;
+    }
+  }
+  if (extra.cloudPairs !== undefined) {
+    try {
+      cloud = variogramCloud(samples, extra.cloudPairs);
+    } catch {
+      cloud = null;
+    }
+  }
+  return { omni, directional, cloud };
+}

@@ -500,7 +500,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     if (naming === 'planar') {
       input = resolveCrs(LOCAL_CRS);
       detection = `columns "${columns[xCol]}" and "${columns[yCol]}" are named like planar coordinates and no CRS was given, so they were taken as local planar metres`;
-      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns "${columns[xCol]}" and "${columns[yCol]}": distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS (--crs, e.g. EPSG:32633).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give --crs EPSG:4326.' : ''}` });
+      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns "${columns[xCol]}" and "${columns[yCol]}": distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS, e.g. EPSG:32633 (in the app under Coordinate system; on the command line with --crs).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give EPSG:4326.' : ''}` });
     } else if (degrees) {
       input = resolveCrs('EPSG:4326');
       detection = `the names "${columns[xCol]}" and "${columns[yCol]}" say nothing about the CRS; all values lie within longitude −180…180 and latitude −90…90, so WGS 84 (EPSG:4326) was assumed`;

@@ -8,7 +8,7 @@
  * typed-array buffers for transfer.
  */
 import { fitCandidates, fitModel } from '../core/fit.ts';
-import { empiricalVariogram } from '../core/variogram.ts';
+import { empiricalVariogram, variogramSet } from '../core/variogram.ts';
 import { leaveOneOut } from '../core/cross-validation.ts';
 import { createPredictor, type Predictor } from '../core/kriging.ts';
 import { computeSurfaceWith } from '../core/surface.ts';
@@ -36,6 +36,7 @@ export interface EngineOperations {
   fitModel: typeof fitModel;
   fitCandidates: typeof fitCandidates;
   empiricalVariogram: typeof empiricalVariogram;
+  variogramSet: typeof variogramSet;
   leaveOneOut: typeof leaveOneOut;
   createPredictor: typeof createPredictor;
   computeSurfaceWith: typeof computeSurfaceWith;
@@ -48,7 +49,7 @@ export interface EngineOperations {
 }
 
 export const ENGINE_OPERATIONS: EngineOperations = {
-  fitModel, fitCandidates, empiricalVariogram, leaveOneOut, createPredictor, computeSurfaceWith,
+  fitModel, fitCandidates, empiricalVariogram, variogramSet, leaveOneOut, createPredictor, computeSurfaceWith,
   createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor, readSamples,
 };
 
@@ -136,6 +137,11 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
         const q = p as RequestPayloads['variogram'];
         checkSamples(q.samples);
         return ops.empiricalVariogram(q.samples, q.options ?? {}) as ResultPayloads[K];
+      }
+      case 'variogramSet': {
+        const q = p as RequestPayloads['variogramSet'];
+        checkSamples(q.samples);
+        return ops.variogramSet(q.samples, q.options ?? {}, { directional: q.directional, cloudPairs: q.cloudPairs }) as ResultPayloads[K];
       }
       case 'crossValidate': {
         const q = p as RequestPayloads['crossValidate'];

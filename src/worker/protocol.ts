@@ -9,7 +9,7 @@
 import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import type { FitOptions } from '../core/fit.ts';
-import type { EmpiricalVariogram, VariogramOptions } from '../core/variogram.ts';
+import type { EmpiricalVariogram, VariogramOptions, VariogramSet } from '../core/variogram.ts';
 import type { LeaveOneOutResult } from '../core/cross-validation.ts';
 import type { Grid } from '../core/grid.ts';
 import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
@@ -33,6 +33,8 @@ export interface RequestPayloads {
   fit: { samples: Samples; options: FitOptions };
   fitCandidates: { samples: Samples; options?: Omit<FitOptions, 'family' | 'nu'> };
   variogram: { samples: Samples; options?: VariogramOptions };
+  /** The variogram with, on request, the four directions and the cloud (core/variogram.ts variogramSet). */
+  variogramSet: { samples: Samples; options?: VariogramOptions; directional?: boolean; cloudPairs?: number };
   crossValidate: { samples: Samples; model: CovarianceModel };
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
   /** With `local`, predictions come from local neighbourhoods (for many samples) instead of all samples. */
@@ -52,6 +54,7 @@ export interface ResultPayloads {
   fit: CovarianceModel;
   fitCandidates: CovarianceModel[];
   variogram: EmpiricalVariogram;
+  variogramSet: VariogramSet;
   crossValidate: LeaveOneOutResult;
   surfaceRows: SurfaceResult;
   fitNearestNeighbour: CovarianceModel;
@@ -64,7 +67,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'variogram', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
+  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
 ];
 
 /** A request; `id` is unique per client. */

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  directionalVariograms, empiricalVariogram, maxSampleDistance, variogramCloud, type VariogramOptions,
+  directionalVariograms, empiricalVariogram, maxSampleDistance, variogramCloud, variogramSet, type VariogramOptions,
 } from '../../src/core/variogram.ts';
 import { makeSamples } from '../../src/core/samples.ts';
 import { createRandom } from '../../src/core/random.ts';
@@ -193,5 +193,20 @@ describe('variogramCloud', () => {
     expect(keys.size).toBe(500);
     for (let k = 0; k < 500; k++) expect(a.i[k]).toBeGreaterThan(a.j[k]);
     expect(a.notes[0]).toMatch(/500 of 4,950 pairs/);
+  });
+});
+
+describe('variogramSet', () => {
+  const s = makeSamples([0, 10, 20, 35, 50, 4, 27], [0, 5, 30, 12, 44, 20, 9], [1, 2, 1.5, 3, 2.2, 0.7, 1.9]);
+  it('variogramSet returns what the three calls return, and only the parts asked for', () => {
+    const opts = { lagCount: 4 };
+    const all = variogramSet(s, opts, { directional: true, cloudPairs: 10 });
+    expect(all.omni).toEqual(empiricalVariogram(s, opts));
+    expect(all.directional).toEqual(directionalVariograms(s, { lagWidth: undefined, maxLag: undefined }));
+    expect(all.cloud).toEqual(variogramCloud(s, 10));
+    const plain = variogramSet(s, opts);
+    expect(plain.directional).toBeNull();
+    expect(plain.cloud).toBeNull();
+    expect(() => variogramSet(makeSamples([1], [1], [1]))).toThrow(/samples/);
   });
 });

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
 import type { EngineResponse } from '../../src/worker/protocol.ts';
 import { computeSurface } from '../../src/core/surface.ts';
-import { empiricalVariogram } from '../../src/core/variogram.ts';
+import { empiricalVariogram, variogramSet } from '../../src/core/variogram.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
 import { makeSamples } from '../../src/core/samples.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
@@ -73,6 +73,14 @@ describe('createEngineHandler', () => {
     expect(v.result).toEqual(empiricalVariogram(samples, { lagCount: 6 }));
     expect(cv).toMatchObject({ id: 12, type: 'result', request: 'crossValidate' });
     expect((cv.result as ReturnType<typeof leaveOneOut>).summary).toEqual(leaveOneOut(samples, model).summary);
+  });
+
+  it('createEngineHandler dispatches variogramSet with its directions and cloud', () => {
+    const { sent, run } = collect();
+    run({ id: 13, type: 'variogramSet', payload: { samples, options: { lagCount: 5 }, directional: true, cloudPairs: 50 } });
+    const r = sent[0].message as Extract<EngineResponse, { type: 'result' }>;
+    expect(r).toMatchObject({ id: 13, type: 'result', request: 'variogramSet' });
+    expect(r.result).toEqual(variogramSet(samples, { lagCount: 5 }, { directional: true, cloudPairs: 50 }));
   });
 
   it('createEngineHandler passes fit, fitCandidates and readSamples payloads through unchanged', () => {

@@ -15,6 +15,7 @@ import type { ConditionalSimulationResult } from '../../core/conditional-simulat
 import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS } from '../../core/vecchia.ts';
 import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
+import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -137,4 +138,11 @@ export function simulate(req: SimulateRequest, onProgress?: Progress, signal?: A
     signal,
     onProgress: (p) => onProgress?.(p.done, p.total),
   });
+}
+
+/** The variogram, and on request the four directions and the cloud, computed in a worker (many samples). */
+export function variograms(
+  req: { samples: Samples; options: VariogramOptions; directional: boolean; cloudPairs?: number }, signal?: AbortSignal,
+): Promise<VariogramSet> {
+  return enginePool().request('variogramSet', { samples: req.samples, options: req.options, directional: req.directional, cloudPairs: req.cloudPairs }, { signal });
 }

@@ -9,13 +9,14 @@ import { readSamples } from '../../io/intake.ts';
 import { readPolygons, projectPolygons, type Polygon } from '../../io/boundary.ts';
 import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
 import { GapwiseError } from '../../core/errors.ts';
+import { untrack } from 'svelte';
 import { emptySnapshot, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
 import { createAutosave, type Autosave } from './autosave.ts';
 import type { Samples } from '../../core/samples.ts';
 import type { CovarianceModel } from '../../core/model.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import {
-  directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud,
+  directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud, type VariogramSet,
 } from '../../core/variogram.ts';
 import { bestKey, withParts, type CandidateRow, type ModelParts } from './structure.ts';
 import * as engine from './engine.ts';
@@ -28,6 +29,10 @@ import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
 
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
 export const MANY_SAMPLES = EXACT_FIT_LIMIT;
+/** From this many samples the variograms are computed in a worker (below, at once on this thread). */
+export const ASYNC_VARIOGRAM_FROM = 3000;
+/** Pairs drawn in the variogram cloud. */
+const CLOUD_PAIRS = 6000;
 
 /** Conditional realisations with what they were computed from. */
 export interface SimulationView {
@@ -144,24 +149,66 @@ export class Session {
     return { x: s.x, y: s.y, value: Float64Array.from(s.value, Math.log) };
   });
 
-  variogram = $derived.by((): Outcome<EmpiricalVariogram> => {
+  /** What the variogram views are computed from (options as the structure step sets them). */
+  private variogramRequest = $derived.by(() => {
     const samples = this.modelSamples;
-    if (!samples) return { value: null, error: null };
-    const { lagWidth, maxLag } = this.s.structure;
-    return attempt(() => empiricalVariogram(samples, { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined }));
+    if (!samples) return null;
+    const { lagWidth, maxLag, directional, cloud } = this.s.structure;
+    const options = { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined };
+    return { samples, options, directional, cloud, key: `${this.samplesVersion}|${this.s.samples.transform}|${lagWidth}|${maxLag}|${directional}|${cloud}` };
+  });
+
+  /**
+   * Variograms from many samples (ASYNC_VARIOGRAM_FROM on) come from a worker (about a second per
+   * 10⁷ pairs would stall the page); `variogramPending` is true meanwhile. Fewer are computed here.
+   */
+  private variogramRemote = $state.raw<{ key: string; set: VariogramSet | null; error: ShownError | null } | null>(null);
+  private variogramAbort: AbortController | null = null;
+
+  get variogramPending(): boolean {
+    const r = this.variogramRequest;
+    return !!r && r.samples.x.length >= ASYNC_VARIOGRAM_FROM && this.variogramRemote?.key !== r.key;
+  }
+
+  /** Starts the worker request for the current variogram settings (many samples only). */
+  refreshVariograms(): void {
+    const r = this.variogramRequest;
+    if (!r || r.samples.x.length < ASYNC_VARIOGRAM_FROM || this.variogramRemote?.key === r.key) return;
+    this.variogramAbort?.abort();
+    const ac = new AbortController();
+    this.variogramAbort = ac;
+    engine.variograms({ samples: r.samples, options: r.options, directional: r.directional, cloudPairs: r.cloud ? CLOUD_PAIRS : undefined }, ac.signal)
+      .then((set) => { if (this.variogramAbort === ac) this.variogramRemote = { key: r.key, set, error: null }; })
+      .catch((e: unknown) => {
+        if (this.variogramAbort !== ac) return;
+        const err = showError(e);
+        if (err.code !== 'cancelled') this.variogramRemote = { key: r.key, set: null, error: err };
+      });
+  }
+
+  variogram = $derived.by((): Outcome<EmpiricalVariogram> => {
+    const r = this.variogramRequest;
+    if (!r) return { value: null, error: null };
+    if (r.samples.x.length >= ASYNC_VARIOGRAM_FROM) {
+      const got = this.variogramRemote;
+      if (!got || got.key !== r.key) return { value: null, error: null };
+      return { value: got.set?.omni ?? null, error: got.error };
+    }
+    return attempt(() => empiricalVariogram(r.samples, r.options));
   });
 
   directional = $derived.by((): EmpiricalVariogram[] | null => {
-    const samples = this.modelSamples;
-    if (!samples || !this.s.structure.directional) return null;
-    const { lagWidth, maxLag } = this.s.structure;
-    return attempt(() => directionalVariograms(samples, { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined })).value;
+    const r = this.variogramRequest;
+    if (!r || !r.directional) return null;
+    if (r.samples.x.length >= ASYNC_VARIOGRAM_FROM) return this.variogramRemote?.key === r.key ? this.variogramRemote.set?.directional ?? null : null;
+    return attempt(() => directionalVariograms(r.samples, r.options)).value;
   });
 
   cloud = $derived.by((): VariogramCloud | null => {
-    const samples = this.modelSamples;
-    if (!samples || !this.s.structure.cloud) return null;
-    return attempt(() => variogramCloud(samples, 6000)).value;
+    const r = this.variogramRequest;
+    if (!r || !r.cloud) return null;
+    if (r.samples.x.length >= ASYNC_VARIOGRAM_FROM) return this.variogramRemote?.key === r.key ? this.variogramRemote.set?.cloud ?? null : null;
+    return attempt(() => variogramCloud(r.samples, CLOUD_PAIRS)).value;
   });
 
   candidates = $state.raw<CandidateRow[]>([]);
@@ -552,6 +599,11 @@ export class Session {
     $effect(() => {
       const snap = $state.snapshot(this.s) as SessionSnapshot;
       if (this.ready) this.autosave.schedule(snap);
+    });
+    // Variograms of many samples follow their settings in a worker.
+    $effect(() => {
+      void this.variogramRequest;
+      untrack(() => this.refreshVariograms());
     });
     // Cross-validation follows the model in use.
     $effect(() => {

@@ -1,0 +1,70 @@
+/**
+ * Many samples in the app (headless Chromium, dist/ on 127.0.0.1, every outside request aborted): a
+ * 20,000-row invented CSV is read, placed on one canvas rather than 20,000 SVG markers, and its
+ * variograms (omnidirectional, four directions) come from a worker. The longest main-thread tasks
+ * are printed as figures, never asserted.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { expectClean, openStep, WAIT, LONG, startHarness, openPage, shot, takeLongestTask, type Harness } from './harness.ts';
+import { createRandom } from '../src/core/random.ts';
+
+let h: Harness;
+const figures: string[] = [];
+
+beforeAll(async () => {
+  h = await startHarness();
+});
+
+afterAll(async () => {
+  await h?.close();
+  if (figures.length) console.log(`\nGapwise many-sample figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
+});
+
+/** n invented readings on a 5 km square at UTM-like coordinates: a band of higher values plus noise. */
+function inventedCsv(n: number): string {
+  const r = createRandom(5);
+  const lines = ['x,y,lead_mg_kg'];
+  for (let i = 0; i < n; i++) {
+    const x = 500000 + 5000 * r.uniform();
+    const y = 6000000 + 5000 * r.uniform();
+    lines.push(`${x.toFixed(1)},${y.toFixed(1)},${(100 + 40 * Math.sin((x - 500000) / 700) + 10 * r.normal()).toFixed(2)}`);
+  }
+  return lines.join('\n');
+}
+
+describe('many samples in the app', () => {
+  it('20,000 samples: markers on one canvas, variograms from a worker, the pair sample said', async () => {
+    const w = await openPage(h);
+    const { page } = w;
+    await takeLongestTask(page);
+    let t0 = Date.now();
+    await page.setInputFiles('#samples-file', { name: 'invented-20k.csv', mimeType: 'text/csv', buffer: Buffer.from(inventedCsv(20000), 'utf8') });
+    await page.waitForSelector('text=20000 of 20000 rows used');
+    figures.push(`read 20,000 rows: ${Date.now() - t0} ms; longest task ${(await takeLongestTask(page)).longest} ms`);
+
+    const input = page.locator('#crs-picker');
+    await input.click();
+    await input.fill('32633');
+    await page.waitForSelector('#crs-picker-list [role=option]:has-text("EPSG:32633")');
+    await takeLongestTask(page);
+    t0 = Date.now();
+    await input.press('Enter');
+    await page.waitForSelector('[data-testid=crs-current]:text-is("EPSG:32633")');
+    // The markers share one canvas: no SVG element per sample.
+    await page.waitForSelector('.leaflet-overlay-pane canvas');
+    expect(await page.locator('[data-sample-index]').count()).toBe(0);
+    figures.push(`placed 20,000 samples (canvas): ${Date.now() - t0} ms; longest task ${(await takeLongestTask(page)).longest} ms`);
+
+    await openStep(page, 'structure');
+    await page.check('text=Four directions');
+    await page.waitForSelector('#structure-body svg', { timeout: WAIT });
+    // The variogram comes from the seeded pair sample, and says so.
+    await page.waitForSelector('text=a seeded sample of 12,497,500 pairs was used');
+    await page.waitForSelector('[data-testid=variogram-pending]', { state: 'detached', timeout: WAIT });
+    const longest = await takeLongestTask(page);
+    figures.push(`variograms (omnidirectional + four directions) from a worker: longest main-thread task ${longest.longest} ms while they were computed and drawn`);
+    await shot(page, '9-many-samples');
+    expectClean(w);
+    await w.context.close();
+  }, LONG);
+});
