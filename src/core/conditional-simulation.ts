@@ -70,6 +70,14 @@ export interface ConditionalSimulationOptions {
   count: number;
   /** Seed of the random streams; default 1. Results do not depend on batching. */
   seed?: number;
+  /**
+   * Index of the first realisation (default 0): a run of `count` from `first` gives realisations
+   * first … first + count − 1 of the full set, each from its own random stream, so parts computed
+   * apart (in several workers) and merged with mergeSimulationParts equal one run.
+   */
+  first?: number;
+  /** Keep the per-cell sums and the per-realisation counts (`totals`) for mergeSimulationParts. */
+  keepTotals?: boolean;
   /** 'point' (cell centres, default) or 'block' (cell averages). */
   support?: 'point' | 'block';
   /** Block support: lattice nodes per cell side, k (default 4). */
@@ -111,6 +119,21 @@ export interface ConditionalSimulationResult {
   /** Samples per kriging neighbourhood, or 'all'. */
   neighbors: number | 'all';
   warnings: Warning[];
+  /** First realisation index of this run (0 unless a part). */
+  first: number;
+  /** With keepTotals: per-cell Σv, Σv² and realisations above T, and each realisation's cells above T. */
+  totals?: SimulationTotals;
+}
+
+/** What a part of a simulation run adds up (for mergeSimulationParts). */
+export interface SimulationTotals {
+  sum: Float64Array;
+  sumSq: Float64Array;
+  above?: Float64Array;
+  /** Cells above the threshold in each realisation of the part (empty without a threshold). */
+  counts: Float64Array;
+  /** Cells inside the area. */
+  activeCells: number;
 }
 
 function mixSeed(seed: number, stream: number, index: number): number {
@@ -427,6 +450,10 @@ function checkOptions(options: ConditionalSimulationOptions, log: boolean): void
   if (options.seed !== undefined && !Number.isInteger(options.seed)) {
     throw new GapwiseError('bad-option', `Expected the seed to be a whole number, got ${JSON.stringify(options.seed)}.`);
   }
+  const first = options.first;
+  if (first !== undefined && !(Number.isInteger(first) && first >= 0 && first + count <= MAX_REALISATIONS)) {
+    throw new GapwiseError('bad-option', `Expected the first realisation to be a whole number from 0 with first + count at most ${MAX_REALISATIONS.toLocaleString('en')}, got ${JSON.stringify(first)}.`);
+  }
   if (options.support !== undefined && options.support !== 'point' && options.support !== 'block') {
     throw new GapwiseError('bad-option', `Expected the support to be "point" or "block", got ${JSON.stringify(options.support)}.`);
   }
@@ -461,6 +488,7 @@ export function simulateConditional(
   }
   const N = options.count;
   const seed = options.seed ?? 1;
+  const first = options.first ?? 0;
   const support = options.support ?? 'point';
   const k = support === 'block' ? options.blockPoints ?? 4 : 1;
   const warnings: Warning[] = [];
@@ -673,7 +701,7 @@ export function simulateConditional(
     const G = new Float64Array(nodesOut * B);
     const resid = new Float64Array(n * B);
     for (let b = 0; b < B; b++) {
-      const rIndex = r0 + b;
+      const rIndex = first + r0 + b;
       // Fields come in pairs from one FFT; pair p gives realisations 2p and 2p + 1 whatever the batching.
       const pairIndex = Math.floor(rIndex / 2);
       if (rIndex % 2 === 0 || b === 0) sampler.pair(createRandom(mixSeed(seed, 0, pairIndex)), lat, lat2);
@@ -789,12 +817,77 @@ export function simulateConditional(
     placementError,
     neighbors: useLocal ? neighbors : 'all',
     warnings,
+    first,
   };
+  if (options.keepTotals) result.totals = { sum, sumSq, above, counts: threshold !== undefined ? counts : new Float64Array(0), activeCells: nActive };
   if (realisations) result.realisations = realisations;
   if (pExceed && threshold !== undefined) {
     result.pExceed = pExceed;
     result.threshold = threshold;
     result.area = summariseExceedanceCounts(counts, { threshold, cell: grid.cell, activeCells: nActive, depth: options.depth });
+  }
+  return result;
+}
+
+/**
+ * Merges parts of one simulation run (same samples, model, grid and options, consecutive `first`
+ * ranges, each computed with keepTotals) into the result one run of all their realisations gives:
+ * realisations, counts and the area summary exactly; per-cell mean, sd and P(exceed) up to the order
+ * of the sums. Throws GapwiseError 'bad-option' when the parts do not fit together.
+ */
+export function mergeSimulationParts(parts: ConditionalSimulationResult[], options: { depth?: number } = {}): ConditionalSimulationResult {
+  if (parts.length === 0) throw new GapwiseError('bad-option', 'Expected at least one simulation part to merge, got none.');
+  const sorted = [...parts].sort((a, b) => a.first - b.first);
+  const head = sorted[0];
+  let next = head.first;
+  for (const p of sorted) {
+    if (!p.totals) throw new GapwiseError('bad-option', 'Expected simulation parts computed with keepTotals.');
+    if (p.first !== next) throw new GapwiseError('bad-option', `Expected simulation parts to follow each other: a part starts at realisation ${p.first}, expected ${next}.`);
+    if (p.mean.length !== head.mean.length || p.support !== head.support || p.points !== head.points || p.threshold !== head.threshold) {
+      throw new GapwiseError('bad-option', 'Expected simulation parts of one run (same grid, support and threshold).');
+    }
+    next += p.count;
+  }
+  const N = next - head.first;
+  const cells = head.mean.length;
+  const sum = new Float64Array(cells);
+  const sumSq = new Float64Array(cells);
+  const above = head.totals!.above ? new Float64Array(cells) : undefined;
+  const counts: number[] = [];
+  const realisations: Float32Array[] = [];
+  const warnings = new Map<string, Warning>();
+  let placementError = 0;
+  for (const p of sorted) {
+    const t = p.totals!;
+    for (let c = 0; c < cells; c++) {
+      sum[c] += t.sum[c];
+      sumSq[c] += t.sumSq[c];
+      if (above && t.above) above[c] += t.above[c];
+    }
+    for (const v of t.counts) counts.push(v);
+    if (p.realisations) realisations.push(...p.realisations);
+    for (const w of p.warnings) warnings.set(`${w.code}:${w.message}`, w);
+    placementError = Math.max(placementError, p.placementError);
+  }
+  const mean = new Float64Array(cells).fill(NaN);
+  const sd = new Float64Array(cells).fill(NaN);
+  const pExceed = above ? new Float64Array(cells).fill(NaN) : undefined;
+  for (let c = 0; c < cells; c++) {
+    if (Number.isNaN(head.mean[c])) continue;
+    const m = sum[c] / N;
+    mean[c] = m;
+    sd[c] = N > 1 ? Math.sqrt(Math.max(0, (sumSq[c] - N * m * m) / (N - 1))) : 0;
+    if (pExceed && above) pExceed[c] = above[c] / N;
+  }
+  const result: ConditionalSimulationResult = {
+    ...head, count: N, mean, sd, placementError, warnings: [...warnings.values()],
+    totals: { sum, sumSq, above, counts: Float64Array.from(counts), activeCells: head.totals!.activeCells },
+  };
+  delete result.realisations;
+  if (sorted.some((p) => p.realisations)) result.realisations = realisations;
+  if (pExceed && head.threshold !== undefined) {
+    result.pExceed = pExceed;
+    result.area = summariseExceedanceCounts(counts, { threshold: head.threshold, cell: head.grid.cell, activeCells: head.totals!.activeCells, depth: options.depth ?? head.area?.volume?.depth });
   }
   return result;
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { posteriorCovariance, simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { mergeSimulationParts, posteriorCovariance, simulateConditional } from '../../src/core/conditional-simulation.ts';
 import { buildKrigingSystem, createPredictor } from '../../src/core/kriging.ts';
 import { createBlockPredictor } from '../../src/core/block-kriging.ts';
 import { computeSurface } from '../../src/core/surface.ts';
@@ -172,5 +172,36 @@ describe('simulateConditional progress and cancelling', () => {
       count: 20, seed: 2, support: 'block', keepRealisations: false, isCancelled: () => ++calls > 3,
     })).toThrow(GapwiseError);
     expect(calls).toBe(4);
+  });
+});
+
+describe('mergeSimulationParts', () => {
+  const logModel: CovarianceModel = { ...matern, transform: 'log' };
+  const pts = makeSamples([13, 47, 71, 22, 60, 35, 96], [-12, -25, -66, -70, -44, -50, -30], [1, 2, 0.5, 1.5, 2.5, 1.2, 1.8]);
+  const opts = { seed: 11, threshold: 1.6, depth: 0.5, support: 'block' as const, blockPoints: 2 };
+
+  it('mergeSimulationParts of parts computed apart equals one run: the same realisations, counts and area, the same summaries', () => {
+    const whole = simulateConditional(pts, logModel, grid, { ...opts, count: 10 });
+    // Parts that start on an odd realisation split an FFT pair: each part draws the pair again.
+    const parts = [[0, 4], [4, 3], [7, 3]].map(([first, count]) => simulateConditional(pts, logModel, grid, { ...opts, count, first, keepTotals: true }));
+    const merged = mergeSimulationParts([parts[2], parts[0], parts[1]]);
+    expect(merged.count).toBe(10);
+    expect(merged.realisations!.length).toBe(10);
+    for (let r = 0; r < 10; r++) expect(Array.from(merged.realisations![r])).toEqual(Array.from(whole.realisations![r]));
+    expect(merged.area).toEqual(whole.area);
+    expect(Array.from(merged.pExceed!)).toEqual(Array.from(whole.pExceed!));
+    expectClose(merged.mean, whole.mean, { rel: 1e-12 }, 'per-cell mean');
+    expectClose(merged.sd, whole.sd, { rel: 1e-9, abs: 1e-12 }, 'per-cell sd');
+  });
+
+  it('mergeSimulationParts refuses parts with a gap, without totals, or from other settings', () => {
+    const a = simulateConditional(pts, matern, grid, { count: 2, first: 0, keepTotals: true, threshold: 1.5 });
+    const c = simulateConditional(pts, matern, grid, { count: 2, first: 3, keepTotals: true, threshold: 1.5 });
+    expect(() => mergeSimulationParts([a, c])).toThrow(/starts at realisation 3, expected 2/);
+    expect(() => mergeSimulationParts([simulateConditional(pts, matern, grid, { count: 2 })])).toThrow(/keepTotals/);
+    const other = simulateConditional(pts, matern, grid, { count: 2, first: 2, keepTotals: true, threshold: 1.8 });
+    expect(() => mergeSimulationParts([a, other])).toThrow(/same grid, support and threshold/);
+    expect(() => mergeSimulationParts([])).toThrow(/none/);
+    expect(() => simulateConditional(pts, matern, grid, { count: 2, first: -1 })).toThrow(/first realisation/);
   });
 });

@@ -11,7 +11,7 @@ import type { SurfaceResult } from '../../core/surface.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
-import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import { mergeSimulationParts, type ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS } from '../../core/vecchia.ts';
 import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
@@ -130,14 +130,38 @@ export interface SimulateRequest {
   model: CovarianceModel;
   grid: Grid;
   options: SimulateOptions;
+  /** With options.keepRealisations: keep only the first this many realisations (default all). */
+  keepFirst?: number;
 }
 
-/** Conditional realisations on the grid (one worker), with progress in realisations. */
-export function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult> {
-  return enginePool().request('simulate', { samples: req.samples, model: req.model, grid: req.grid, options: req.options }, {
-    signal,
-    onProgress: (p) => onProgress?.(p.done, p.total),
-  });
+/**
+ * Conditional realisations on the grid, with progress in realisations: split into consecutive parts
+ * (whole pairs of realisations) over the workers and merged (core mergeSimulationParts), which gives
+ * what one run gives: each realisation has its own random stream.
+ */
+export async function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult> {
+  const pool = enginePool();
+  const N = req.options.count;
+  const parts = Math.max(1, Math.min(workerCount(), Math.floor(N / 2)));
+  const keep = req.options.keepRealisations === false ? 0 : req.keepFirst ?? N;
+  const done = new Array<number>(parts).fill(0);
+  const pairs = Math.ceil(N / 2);
+  const results = await Promise.all(Array.from({ length: parts }, (_, i) => {
+    const first = 2 * Math.floor((i * pairs) / parts);
+    const end = Math.min(N, 2 * Math.floor(((i + 1) * pairs) / parts));
+    const options: SimulateOptions = { ...req.options, first, count: end - first, keepTotals: true, keepRealisations: first < keep };
+    return pool.request('simulate', { samples: req.samples, model: req.model, grid: req.grid, options }, {
+      signal,
+      onProgress: (p) => {
+        done[i] = p.done;
+        onProgress?.(done.reduce((a, b) => a + b, 0), N);
+      },
+    });
+  }));
+  const merged = mergeSimulationParts(results, { depth: req.options.depth });
+  delete merged.totals;
+  if (merged.realisations && keep < merged.realisations.length) merged.realisations = merged.realisations.slice(0, keep);
+  return merged;
 }
 
 /** The variogram, and on request the four directions and the cloud, computed in a worker (many samples). */

@@ -478,7 +478,7 @@ export class Session {
     return this.simRate !== null && cells ? this.simRate * cells * this.simCount : null;
   }
 
-  /** Draws conditional realisations (one worker) with the current support, threshold and depth. */
+  /** Draws conditional realisations (split over the workers) with the current support, threshold and depth. */
   async simulate(): Promise<void> {
     const intake = this.intake;
     const model = this.s.structure.model;
@@ -503,6 +503,7 @@ export class Session {
           threshold: useThreshold ? threshold! : undefined,
           depth: depth ?? undefined,
         },
+        keepFirst: 4,
       }, (done, total) => { if (this.simAbort === ac) this.simTask = { ...this.simTask, done, total }; }, ac.signal);
       if (this.simAbort !== ac) return;
       const ms = performance.now() - t0;
