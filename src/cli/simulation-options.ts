@@ -9,16 +9,18 @@
  * (core/conditional-simulation.ts) and the area above the threshold gets a median and 90 % interval.
  * A log model with --support block needs realisations (block averages of a lognormal surface have
  * no closed form): asking without them is an option error that says so.
+ * Realisations are drawn over worker threads (./simulation-pool.ts, --workers), equal to one run.
  */
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import type { Samples } from '../core/samples.ts';
 import type { Grid } from '../core/grid.ts';
 import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/block-kriging.ts';
-import { simulateConditional, MAX_REALISATIONS } from '../core/conditional-simulation.ts';
+import { MAX_REALISATIONS } from '../core/conditional-simulation.ts';
 import type { SurfaceResult } from '../core/surface.ts';
 import { numberOption, stringOption, type OptionSpec } from './args.ts';
-import type { OptionValues } from './common.ts';
+import { naming, type OptionValues } from './common.ts';
+import { simulateParallel, simulationThreads } from './simulation-pool.ts';
 
 const SUPPORT: OptionSpec = {
   name: 'support', kind: 'string', placeholder: 'KIND', choices: ['point', 'block'],
@@ -31,6 +33,25 @@ const SEED: OptionSpec = { name: 'seed', kind: 'number', placeholder: 'S', help:
 const DEPTH: OptionSpec = {
   name: 'depth', kind: 'number', placeholder: 'D', unit: 'm', help: 'depth of the layer: adds the volume above the threshold (area × depth)', defaultText: 'none',
 };
+
+/** --workers for the commands whose threads share out realisations (`simulate`, `report`). */
+export const SIMULATION_WORKERS: OptionSpec = {
+  name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the realisations (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine',
+};
+
+/** "1 worker thread", "4 worker threads". */
+export function threadsText(threads: number): string {
+  return `${threads} worker thread${threads === 1 ? '' : 's'}`;
+}
+
+/** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
+export async function namingAsync<T>(files: { samples?: string; model?: string }, work: () => Promise<T>): Promise<T> {
+  try {
+    return await work();
+  } catch (e) {
+    return naming(files, () => { throw e; });
+  }
+}
 
 /** Options `gapwise grid` lists for support and simulation. */
 export const GRID_SIMULATION_OPTIONS: OptionSpec[] = [
@@ -122,12 +143,14 @@ export interface AreaReport {
  * - point support, no realisations: nothing (bands = [], surface unchanged);
  * - block support, no realisations: `surface` = block-kriged mean, sd, P(block > T) replacing the point one;
  * - realisations: a band "P(... > T) from N realisations" (when there is a threshold), a band of the
- *   realisation mean for block support with a log model, and `area` for the summary.
- * Throws GapwiseError as the core functions do.
+ *   realisation mean for block support with a log model, and `area` for the summary; they are drawn
+ *   over `workers` threads (default one per core; `threads` says how many were used).
+ * Rejects with GapwiseError as the core functions throw it.
  */
-export function addSimulationBands(input: {
+export async function addSimulationBands(input: {
   samples: Samples; model: CovarianceModel; grid: Grid; choice: SimulationChoice; threshold?: number; unit?: string;
-}): { surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[] } {
+  workers?: number; onProgress?: (done: number, total: number) => void;
+}): Promise<{ surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[]; threads?: number }> {
   const { samples, model, grid, choice, threshold, unit } = input;
   const bands: SimulationBand[] = [];
   const warnings: Warning[] = [];
@@ -137,12 +160,13 @@ export function addSimulationBands(input: {
     warnings.push(...surface.warnings);
   }
   if (choice.realizations === undefined) return { ...(surface ? { surface } : {}), bands, warnings };
-  const sim = simulateConditional(samples, model, grid, {
+  const threads = simulationThreads(choice.realizations, input.workers);
+  const sim = await simulateParallel(samples, model, grid, {
     count: choice.realizations, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints,
     keepRealisations: false,
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
-  });
+  }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}) });
   warnings.push(...sim.warnings);
   const u = unit ? ` ${unit}` : '';
   if (choice.support === 'block' && model.transform === 'log') {
@@ -158,5 +182,5 @@ export function addSimulationBands(input: {
     };
     if (a.volume) area.volumeAbove = { median: a.volume.median, p5: a.volume.p05, p95: a.volume.p95, mean: a.volume.mean, unit: 'm³', depth: a.volume.depth };
   }
-  return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings };
+  return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings, threads };
 }

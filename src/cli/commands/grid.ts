@@ -9,7 +9,8 @@
  * per core unless --workers says otherwise): exact kriging below 3,000 samples, local
  * neighbourhoods from there on (or as --exact / --local say), with a note on stderr and progress
  * lines for long runs. Block support and realisations (../simulation-options.ts) replace the point
- * surface by block-kriged cells and add bands, the area above the threshold and warnings.
+ * surface by block-kriged cells and add bands, the area above the threshold and warnings; the
+ * realisations are shared out over the same --workers threads (../simulation-pool.ts).
  */
 import { writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
@@ -139,13 +140,15 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     printNotes(io, [`block kriging: each of ${count(cells)} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
   }
   const unit = project?.samples.unit || intake.report.unit;
-  const extra = naming(files, () => addSimulationBands({
+  const extra = await namingAsync(files, () => addSimulationBands({
     samples: intake.samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    workers, onProgress: progressLine(io, 'realisations'),
   }));
   if (extra.surface) surface = extra.surface;
   if (!surface) throw new Error('No surface was computed for block support.');
   if (choice.realizations !== undefined) {
-    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support)`]);
+    const t = extra.threads ?? 1;
+    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
   }
   const warnings: Warning[] = [...surface.warnings, ...extra.warnings];
   const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
@@ -224,7 +227,7 @@ export const gridCommand: CommandSpec = {
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
     { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', unit: 'the samples\' unit', defaultText: 'about 8 round values over the range' },
     ...PREDICTION_PATH_OPTIONS,
-    { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
+    { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid and the realisations (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
     ...GRID_SIMULATION_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],

@@ -3,22 +3,23 @@
  * (one Float32 band per realisation, data units, no-data -9999 outside the area), and a JSON summary
  * on stdout: the area (and with --depth the volume) above --threshold as a median with a 90 %
  * interval, the simulation lattice, warnings and the screening caution.
- * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff.
+ * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff. The realisations
+ * are shared out over --workers threads (../simulation-pool.ts; the same bands as one thread draws).
  */
 import { writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { GapwiseError } from '../../core/errors.ts';
 import { cellCount } from '../../core/grid.ts';
-import { simulateConditional } from '../../core/conditional-simulation.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, printWarnings, readModelFile, readSamplesFile,
-  type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, SAMPLE_OPTIONS, count, jsonText, modelWorkCrs, printNotes, printWarnings, progressLine, readModelFile, readSamplesFile,
+  readWorkers, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { SIMULATE_OPTIONS, readSimulationChoice } from '../simulation-options.ts';
+import { SIMULATE_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
+import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
@@ -40,14 +41,17 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const choice = readSimulationChoice(values, model, 'count');
   const threshold = numberOption(values, 'threshold');
   const files = { samples: intake.report.fileName, model: modelPath };
-  const sim = naming(files, () => simulateConditional(intake.samples, model, grid, {
-    count: choice.realizations ?? 0,
+  const n = choice.realizations ?? 0;
+  const threads = simulationThreads(n, readWorkers(values));
+  const sim = await namingAsync(files, () => simulateParallel(intake.samples, model, grid, {
+    count: n,
     seed: choice.seed,
     support: choice.support,
     blockPoints: choice.blockPoints,
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
-  }));
+  }, { workers: threads, onProgress: progressLine(io, 'realisations') }));
+  printNotes(io, [`${count(n)} conditional realisations (seed ${choice.seed}, ${sim.support} support) on ${threadsText(threads)}`]);
   const unit = intake.report.unit;
   const names = sim.realisations!.map((_, r) => `realisation ${r + 1}${unit ? ` (${unit})` : ''}`);
   const tif = bandsGeoTiff({ grid, bands: sim.realisations!, names, workCrs, title: `Gapwise conditional realisations (${sim.support} support).` });
@@ -89,6 +93,8 @@ export const simulateCommand: CommandSpec = {
     'With --threshold the JSON summary on stdout gives the area above T (square metres) as the median over the '
       + 'realisations with a 90 % interval (5 % and 95 %), and with --depth the volume (cubic metres = area × depth). '
       + 'With --support block each cell is the average of --block-points × --block-points lattice points.',
+    'The realisations are shared out among --workers threads in consecutive parts (the same bands as one thread '
+      + 'draws); the thread count is said on stderr, and a run that lasts more than 2 s prints a progress line at every 10 %.',
     'The screening caution is in the summary and in the GeoTIFF description.',
   ],
   options: [
@@ -98,6 +104,7 @@ export const simulateCommand: CommandSpec = {
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s): only cells whose centre lies inside', defaultText: 'the samples\' extent' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the area (and volume) above it', unit: 'the samples\' unit', defaultText: 'none' },
     ...SIMULATE_OPTIONS,
+    SIMULATION_WORKERS,
     ...SAMPLE_OPTIONS,
   ],
   examples: [

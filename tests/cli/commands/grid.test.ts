@@ -118,11 +118,12 @@ describe('gapwise grid', () => {
   });
 
   it('grid --realizations adds P(exceed) from the realisations as a band and the area and volume above the threshold (median, p5, p95) to the summary', async () => {
-    const r = await ws.run('grid', ...base20, '--realizations', '24', '--seed', '4', '--threshold', '25', '--depth', '0.5', '--out', 'sim.tif');
+    // Three threads share out the realisations; the area and the band equal one core run's.
+    const r = await ws.run('grid', ...base20, '--realizations', '24', '--seed', '4', '--threshold', '25', '--depth', '0.5', '--workers', '3', '--out', 'sim.tif');
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
     expect(summary.bands).toEqual(['mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 25 mg/L)', 'P(value > 25 mg/L) from 24 realisations']);
-    expect(r.stderr).toContain('note: 24 conditional realisations (seed 4, point support)\n');
+    expect(r.stderr).toContain('note: 24 conditional realisations (seed 4, point support) on 3 worker threads\n');
     const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
     const sim = simulateConditional(intake.samples, parseModel(MODEL), gridOf(summary), { count: 24, seed: 4, threshold: 25, depth: 0.5, keepRealisations: false });
     const a = sim.area!;

@@ -69,6 +69,21 @@ describe('simulate command', () => {
     expect(s.lattice.spacing).toBe(10);
   });
 
+  it('simulate --workers shares out the realisations: 3 threads write the same bands and area as 1, and the note says how many', async () => {
+    const args = [...COMMON, '--count', '7', '--seed', '2', '--threshold', '25', '--depth', '0.5'];
+    const one = await ws.run('simulate', ...args, '--workers', '1', '--out', 'one.tif');
+    const three = await ws.run('simulate', ...args, '--workers', '3', '--out', 'three.tif');
+    expect(one.code, one.stderr).toBe(0);
+    expect(three.code, three.stderr).toBe(0);
+    expect(one.stderr).toContain('note: 7 conditional realisations (seed 2, point support) on 1 worker thread\n');
+    expect(three.stderr).toContain('note: 7 conditional realisations (seed 2, point support) on 3 worker threads\n');
+    expect(readFileSync(join(ws.dir, 'three.tif')).equals(readFileSync(join(ws.dir, 'one.tif')))).toBe(true);
+    expect({ ...JSON.parse(three.stdout), out: 'same.tif' }).toEqual({ ...JSON.parse(one.stdout), out: 'same.tif' });
+    const bad = await ws.run('simulate', ...args, '--workers', '0', '--out', 'x.tif');
+    expect(bad.code).toBe(2);
+    expect(bad.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
+  }, 60000);
+
   it('simulate rejects a missing count, a depth without threshold and a non-GeoTIFF output (exit 2)', async () => {
     const noCount = await ws.run('simulate', ...COMMON, '--out', 'x.tif');
     expect(noCount.code).toBe(2);
