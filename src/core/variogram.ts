@@ -299,7 +299,7 @@ function passVariograms(samples: Samples, sets: ResolvedVariogramOptions[], maxD
     if (lags.length < K) setNotes.push(`${K - lags.length} of ${K} lag classes hold no pairs and are left out.`);
     if (zeroPairs[s] > 0) setNotes.push(`${zeroPairs[s]} pairs at zero distance (repeated locations) are in the first lag class.`);
     if (subsampled) {
-      const msg = `With ${n} samples (${((n * (n - 1)) / 2).toLocaleString('en-US')} pairs), a seeded sample of ${examined.toLocaleString('en-US')} pairs was used (seed ${o.seed}).`;
+      const msg = `With ${n.toLocaleString('en-US')} samples (${((n * (n - 1)) / 2).toLocaleString('en-US')} pairs), a seeded sample of ${examined.toLocaleString('en-US')} pairs was used (seed ${o.seed}).`;
       setNotes.push(msg);
       warnings.push({ code: 'pairs-subsampled', message: msg });
     }

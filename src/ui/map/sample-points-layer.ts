@@ -1,0 +1,176 @@
+/**
+ * SamplePointsLayer: many samples drawn as dots on one canvas, for data sets where a Leaflet marker
+ * (an object, a path and event handlers) per sample would stall the page. The canvas covers the map
+ * view; after every move or zoom the dots are projected (latLngToContainerPoint) and drawn again, a
+ * few milliseconds per 10,000 samples, at most once per animation frame. It hides during zoom animations (Leaflet's
+ * 'leaflet-zoom-hide'). A click picks the nearest dot within a few pixels (one pass over the
+ * projected positions, kept from the last drawing). Colours come per sample from the caller; the
+ * selected sample is drawn larger with a dark ring. Written Leaflet's way (extends L.Layer); the
+ * Svelte map component creates it and calls its setters.
+ */
+import L from 'leaflet';
+
+export interface SamplePointsOptions extends L.LayerOptions {
+  /** Dot radius, px. */
+  radius?: number;
+  /** Largest distance from a click to a dot that picks it, px. */
+  pickRadius?: number;
+}
+
+export class SamplePointsLayer extends L.Layer {
+  declare options: SamplePointsOptions;
+  private canvas: HTMLCanvasElement | null = null;
+  private lat: ArrayLike<number> = [];
+  private lon: ArrayLike<number> = [];
+  private colours: string[] = [];
+  private selected: number | null = null;
+  /** Container-pixel positions from the last drawing (NaN off the canvas). */
+  private px = new Float32Array(0);
+  private py = new Float32Array(0);
+  private pick: ((index: number) => void) | null = null;
+
+  constructor(options: SamplePointsOptions = {}) {
+    super(options);
+    L.Util.setOptions(this, { radius: 3, pickRadius: 6, ...options });
+  }
+
+  /** The samples' positions (degrees) and one fill colour per sample. */
+  setPoints(lat: ArrayLike<number>, lon: ArrayLike<number>, colours: string[]): this {
+    this.lat = lat;
+    this.lon = lon;
+    this.colours = colours;
+    this.scheduleDraw();
+    return this;
+  }
+
+  setColours(colours: string[]): this {
+    this.colours = colours;
+    this.scheduleDraw();
+    return this;
+  }
+
+  setSelected(index: number | null): this {
+    this.selected = index;
+    this.scheduleDraw();
+    return this;
+  }
+
+  private frame: number | null = null;
+
+  /** Draws once in the next animation frame, however many changes and map events come before it. */
+  scheduleDraw(): void {
+    if (this.frame !== null) return;
+    this.frame = L.Util.requestAnimFrame(() => {
+      this.frame = null;
+      this.draw();
+    });
+  }
+
+  /** Called with the index of a clicked sample. */
+  onPick(f: (index: number) => void): this {
+    this.pick = f;
+    return this;
+  }
+
+  /** Number of samples drawn. */
+  get count(): number {
+    return this.lat.length;
+  }
+
+  override onAdd(map: L.Map): this {
+    const c = L.DomUtil.create('canvas', 'gapwise-sample-points leaflet-zoom-hide') as HTMLCanvasElement;
+    c.style.pointerEvents = 'none';
+    map.getPane('overlayPane')!.appendChild(c);
+    this.canvas = c;
+    map.on('moveend zoomend resize viewreset', this.scheduleDraw, this);
+    map.on('click', this.onClick, this);
+    this.scheduleDraw();
+    return this;
+  }
+
+  override onRemove(map: L.Map): this {
+    map.off('moveend zoomend resize viewreset', this.scheduleDraw, this);
+    map.off('click', this.onClick, this);
+    if (this.frame !== null) L.Util.cancelAnimFrame(this.frame);
+    this.frame = null;
+    this.canvas?.remove();
+    this.canvas = null;
+    return this;
+  }
+
+  private onClick(e: L.LeafletMouseEvent): void {
+    if (!this.pick) return;
+    const r = this.options.pickRadius ?? 6;
+    let best = -1;
+    let bestD = r * r;
+    for (let i = 0; i < this.px.length; i++) {
+      const dx = this.px[i] - e.containerPoint.x;
+      const dy = this.py[i] - e.containerPoint.y;
+      const d = dx * dx + dy * dy;
+      if (d <= bestD) {
+        bestD = d;
+        best = i;
+      }
+    }
+    if (best >= 0) this.pick(best);
+  }
+
+  /** Projects and draws every dot (and the selected one last, larger). */
+  draw(): void {
+    const map = this._map as L.Map | undefined;
+    const c = this.canvas;
+    if (!map || !c) return;
+    const size = map.getSize();
+    const ratio = window.devicePixelRatio || 1;
+    c.width = Math.round(size.x * ratio);
+    c.height = Math.round(size.y * ratio);
+    c.style.width = `${size.x}px`;
+    c.style.height = `${size.y}px`;
+    L.DomUtil.setPosition(c, map.containerPointToLayerPoint([0, 0]));
+    const ctx = c.getContext('2d');
+    if (!ctx) return;
+    ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
+    ctx.clearRect(0, 0, size.x, size.y);
+    const n = this.lat.length;
+    if (this.px.length !== n) {
+      this.px = new Float32Array(n);
+      this.py = new Float32Array(n);
+    }
+    const radius = this.options.radius ?? 3;
+    ctx.lineWidth = 0.6;
+    ctx.strokeStyle = '#1f2b33';
+    // Dots of one colour are filled as one path (few colour classes, many dots).
+    const byColour = new Map<string, number[]>();
+    for (let i = 0; i < n; i++) {
+      const p = map.latLngToContainerPoint([this.lat[i], this.lon[i]]);
+      const inside = p.x >= -radius && p.y >= -radius && p.x <= size.x + radius && p.y <= size.y + radius;
+      this.px[i] = inside ? p.x : NaN;
+      this.py[i] = inside ? p.y : NaN;
+      if (!inside) continue;
+      const colour = this.colours[i] ?? '#fbfaf7';
+      let list = byColour.get(colour);
+      if (!list) byColour.set(colour, (list = []));
+      list.push(i);
+    }
+    for (const [colour, list] of byColour) {
+      ctx.beginPath();
+      for (const i of list) {
+        ctx.moveTo(this.px[i] + radius, this.py[i]);
+        ctx.arc(this.px[i], this.py[i], radius, 0, 2 * Math.PI);
+      }
+      ctx.fillStyle = colour;
+      ctx.fill();
+      ctx.stroke();
+    }
+    const s = this.selected;
+    if (s !== null && s >= 0 && s < n && Number.isFinite(this.px[s])) {
+      ctx.beginPath();
+      ctx.arc(this.px[s], this.py[s], 8, 0, 2 * Math.PI);
+      ctx.fillStyle = this.colours[s] ?? '#fbfaf7';
+      ctx.fill();
+      ctx.lineWidth = 3;
+      ctx.strokeStyle = '#000000';
+      ctx.stroke();
+    }
+  }
+}
