@@ -227,7 +227,7 @@ export const gridCommand: CommandSpec = {
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
     { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', unit: 'the samples\' unit', defaultText: 'about 8 round values over the range' },
     ...PREDICTION_PATH_OPTIONS,
-    { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid and the realisations (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
+    { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
     ...GRID_SIMULATION_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],
