@@ -106,6 +106,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const trend = parseTrend(stringOption(values, 'trend') ?? 'constant');
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
   const nnlNeighbors = numberOption(values, 'nnl-neighbors');
+  const workers = readWorkers(values);
   const intake = readSamplesFile(io, values);
   const n = intake.samples.value.length;
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
@@ -114,7 +115,6 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const samples = transform === 'log' ? logSamples(intake) : intake.samples;
   const files = { samples: intake.report.fileName };
   let model: CovarianceModel;
-  const workers = readWorkers(values);
   if (method === 'nnl') {
     const pool: VecchiaPool | null = workers > 1 && n >= THREADS_FROM ? await startVecchiaPool({ threads: workers }) : null;
     try {

@@ -110,6 +110,10 @@ describe('fit command', () => {
     expect(trend.stderr).toContain('"--trend" expects constant, linear or known:VALUE');
     const method = await ws.run('fit', ...COMMON, '--method', 'ols');
     expect(method.code).toBe(2);
+    // Checked before the file is read, so no reading warnings come first.
+    const workers = await ws.run('fit', ...COMMON, '--workers', '0');
+    expect(workers.code).toBe(2);
+    expect(workers.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
   });
 
   it('fit reports too few samples and constant values as input problems (exit 2)', async () => {
