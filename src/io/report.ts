@@ -12,7 +12,9 @@
  * with the software version and date. Every text that comes from a file or the user is escaped.
  *
  * `prepareReport` recomputes what a report shows from a project exactly as the app computes it;
- * `reportHtml` only formats (pure, no I/O), so the app can pass results it already has.
+ * `reportHtml` only formats (pure, no I/O), so the app can pass results it already has. Realisations
+ * can be drawn elsewhere (the command line draws them over threads): `reportSimulationJob` says what
+ * to draw and `prepareReport({ simulate, drawn })` takes the result.
  */
 import { CAUTION } from '../core/caution.ts';
 import { GapwiseError, type Warning } from '../core/errors.ts';
@@ -25,7 +27,7 @@ import { leaveOneOut, type LeaveOneOutResult } from '../core/cross-validation.ts
 import { empiricalVariogram, type EmpiricalVariogram } from '../core/variogram.ts';
 import { surfaceCovariance, surfaceVariance } from '../core/covariance.ts';
 import { CANDIDATES, fitModel } from '../core/fit.ts';
-import { simulateConditional } from '../core/conditional-simulation.ts';
+import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 import type { Polygon } from './boundary.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 import type { IntakeResult } from './types.ts';
@@ -91,8 +93,63 @@ export interface PrepareOptions {
    * with a depth, the volume) above the project's action level; replaces a summary the project holds.
    */
   simulate?: SimulationSettings;
+  /**
+   * The realisations for `simulate`, already drawn with the options reportSimulationJob gives (on
+   * the report's grid): used instead of drawing them here.
+   */
+  drawn?: ConditionalSimulationResult;
   /** Progress of the realisations (done, total). */
   onProgress?: (done: number, total: number) => void;
+}
+
+/** Realisations a report draws: the samples, model, grid and core options (plain data). */
+export interface ReportSimulationJob {
+  samples: Samples;
+  model: CovarianceModel;
+  grid: Grid;
+  options: ConditionalSimulationOptions;
+}
+
+/** Core options for the report's realisations; throws GapwiseError('bad-option') for an unusable action level. */
+function simulationOptions(threshold: number | null, model: CovarianceModel, set: SimulationSettings): ConditionalSimulationOptions {
+  if (threshold === null || !Number.isFinite(threshold)) {
+    throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected a threshold (for example "--threshold 200").');
+  }
+  if (model.transform === 'log' && !(threshold > 0)) {
+    throw new GapwiseError('bad-option', `The action level ${threshold} cannot be used with a log model; expected a level above 0.`);
+  }
+  return {
+    count: set.count, seed: set.seed, support: set.support, blockPoints: set.support === 'block' ? set.blockPoints : 1,
+    threshold, keepRealisations: false,
+    ...(set.depth !== null ? { depth: set.depth } : {}),
+  };
+}
+
+/**
+ * The realisations prepareReport(project, { simulate, cellSize }) would draw, to be drawn elsewhere
+ * and passed back as `drawn`: the samples read from the project, its model, the report's grid and
+ * the core options. Null when the project has no model (prepareReport then warns that none were
+ * drawn). Throws GapwiseError('bad-option') as prepareReport does for a missing or unusable action level.
+ */
+export function reportSimulationJob(project: Project, options: { simulate: SimulationSettings; cellSize?: number }): ReportSimulationJob | null {
+  const model = project.model;
+  if (!model) return null;
+  const intake = projectIntake(project);
+  const work = intake.report.crs.work;
+  const boundary = project.boundary && work !== LOCAL_CRS ? projectBoundary(project, work) : null;
+  const grid = projectGrid(project, intake, boundary, options.cellSize !== undefined ? { cellSize: options.cellSize } : {});
+  return { samples: intake.samples, model, grid, options: simulationOptions(project.threshold, model, options.simulate) };
+}
+
+/** Throws GapwiseError('bad-option') unless `drawn` is a run of these options on this grid. */
+function checkDrawn(drawn: ConditionalSimulationResult, grid: Grid, o: ConditionalSimulationOptions): void {
+  const g = drawn.grid;
+  if (g.nx !== grid.nx || g.ny !== grid.ny || g.x0 !== grid.x0 || g.y0 !== grid.y0 || g.cell !== grid.cell) {
+    throw new GapwiseError('bad-option', `Expected realisations drawn on the report's grid (${grid.nx} × ${grid.ny} cells of ${grid.cell} m), got ${g.nx} × ${g.ny} cells of ${g.cell} m.`);
+  }
+  if (drawn.count !== o.count || drawn.threshold !== o.threshold || drawn.support !== o.support || !drawn.area) {
+    throw new GapwiseError('bad-option', `Expected ${o.count} realisations with the area above ${o.threshold} (${o.support} support), got ${drawn.count} (${drawn.support} support)${drawn.area ? ` above ${drawn.threshold}` : ' without an area'}.`);
+  }
 }
 
 function modelSamples(samples: Samples, log: boolean): Samples {
@@ -171,20 +228,14 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
   }
   let simulation: ProjectSimulation | null = project.simulation?.summary ? project.simulation : null;
   if (options.simulate) {
-    const t = project.threshold;
     if (!model || !grid) {
       warnings.push({ code: 'no-simulation', message: 'No realisations were drawn: the project has no model.' });
-    } else if (t === null || !Number.isFinite(t)) {
-      throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected a threshold (for example "--threshold 200").');
-    } else if (model.transform === 'log' && !(t > 0)) {
-      throw new GapwiseError('bad-option', `The action level ${t} cannot be used with a log model; expected a level above 0.`);
     } else {
       const set = options.simulate;
-      const sim = simulateConditional(intake.samples, model, grid, {
-        count: set.count, seed: set.seed, support: set.support, blockPoints: set.support === 'block' ? set.blockPoints : 1,
-        threshold: t, keepRealisations: false,
-        ...(set.depth !== null ? { depth: set.depth } : {}),
-        ...(options.onProgress ? { onProgress: options.onProgress } : {}),
+      const simOptions = simulationOptions(project.threshold, model, set);
+      if (options.drawn) checkDrawn(options.drawn, grid, simOptions);
+      const sim = options.drawn ?? simulateConditional(intake.samples, model, grid, {
+        ...simOptions, ...(options.onProgress ? { onProgress: options.onProgress } : {}),
       });
       warnings.push(...sim.warnings);
       simulation = projectSimulation(sim, { seed: set.seed, depth: set.depth, log: model.transform === 'log', made: options.created ?? new Date().toISOString() });

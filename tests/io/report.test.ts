@@ -6,10 +6,11 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { inflateSync } from 'node:zlib';
 import {
-  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION,
+  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob,
 } from '../../src/io/report.ts';
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
-import { simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { mergeSimulationParts, simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { GapwiseError } from '../../src/core/errors.ts';
 import { exceedanceArea } from '../../src/core/exceedance-area.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { DEFAULT_LUT_HEX, defaultLuts, colourAtT, paletteIndices, lutFromRgba } from '../../src/io/report-colours.ts';
@@ -171,6 +172,29 @@ describe('reportHtml: area above the action level', () => {
     expect(f.seed).toBe(11);
     expect(html).toContain(`${formatQuantity(got.area.median)} m² (${formatQuantity(got.area.median / 10_000, 3)} ha) above 25 mg/L`);
     expect(html).not.toContain('data-no-area');
+  });
+
+  it('prepareReport with drawn takes realisations drawn elsewhere from reportSimulationJob, and refuses ones from another grid', () => {
+    const p = project();
+    const settings = { count: 10, seed: 6, support: 'point' as const, blockPoints: 1, depth: 0.2 };
+    const job = reportSimulationJob(p, { simulate: settings })!;
+    expect(job.options).toMatchObject({ count: 10, seed: 6, threshold: 25, depth: 0.2, keepRealisations: false });
+    // Drawn elsewhere in two parts and merged (as over threads): the same area as drawing here.
+    const parts = [0, 4].map((first) => simulateConditional(job.samples, job.model, job.grid, { ...job.options, first, count: first === 0 ? 4 : 6, keepTotals: true }));
+    const drawn = mergeSimulationParts(parts, { depth: 0.2 });
+    const here = prepareReport(p, { software: SOFTWARE, compare: false, simulate: settings, created: '2026-03-01T10:00:00.000Z' });
+    const taken = prepareReport(p, { software: SOFTWARE, compare: false, simulate: settings, drawn, created: '2026-03-01T10:00:00.000Z' });
+    expect(taken.simulation).toEqual(here.simulation);
+    expect(taken.grid).toEqual(job.grid);
+    expect(taken.simulation!.summary!.volume!.depth).toBe(0.2);
+
+    const coarse = reportSimulationJob(p, { simulate: settings, cellSize: 20 })!;
+    const other = simulateConditional(coarse.samples, coarse.model, coarse.grid, coarse.options);
+    expect(() => prepareReport(p, { software: SOFTWARE, compare: false, simulate: settings, drawn: other }))
+      .toThrow(/Expected realisations drawn on the report's grid/);
+    expect(reportSimulationJob(project({ model: null }), { simulate: settings })).toBeNull();
+    expect(() => reportSimulationJob(project({ threshold: null }), { simulate: settings }))
+      .toThrow(GapwiseError);
   });
 
   it('areaSection shows the median with its 90 % interval in m², ha and m³, the settings, the method and the caution beside it', () => {

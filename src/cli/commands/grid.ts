@@ -214,7 +214,7 @@ export const gridCommand: CommandSpec = {
       + '3,000) instead of the value at its centre. With --realizations N, N conditional realisations add a band '
       + '"P(... > T) from N realisations" (and, for a log model with block support, the realisations\' block mean) '
       + 'and the summary gives the area above --threshold (m²; with --depth the volume, m³) as the median with 5 % '
-      + 'and 95 % values over the realisations. Those bands are written to GeoTIFF only.',
+      + 'and 95 % values over the realisations, drawn over the same --workers threads. Those bands are written to GeoTIFF only.',
     'A JSON summary (grid, method, bands, value ranges, the area above the threshold and the screening caution) '
       + 'goes to stdout. The caution is also in the GeoTIFF description, on the first line of the CSV and in every contour.',
   ],

@@ -3,23 +3,25 @@
  * the text the project holds, the variogram, the model and its comparison, cross-validation, the
  * maps on the project's grid and the suggestions — with the software version and date.
  * The area (and volume) above the action level with its 90 % interval comes from the project's
- * saved realisations, or with --realizations N from realisations drawn here by the same core call
- * as `gapwise simulate` (options read by ../simulation-options.ts); the figure is also printed on
- * stderr.
+ * saved realisations, or with --realizations N from realisations drawn here over --workers threads
+ * as `gapwise simulate` draws them (../simulation-pool.ts; options read by ../simulation-options.ts)
+ * before the report is prepared; the figure and the thread count are also printed on stderr.
  */
 import { readFileSync } from 'node:fs';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { GapwiseError } from '../../core/errors.ts';
-import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml } from '../../io/report.ts';
+import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml, reportSimulationJob } from '../../io/report.ts';
 import type { Project, SimulationSettings } from '../../io/project.ts';
 import {
-  CAUTION, naming, outOption, printWarnings, progressLine, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, naming, outOption, printWarnings, progressLine, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readProjectFile } from '../project-options.ts';
-import { GRID_SIMULATION_OPTIONS, readSimulationChoice } from '../simulation-options.ts';
+import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
+import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
+import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
-const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth'];
+const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
 
 /**
  * The realisations to draw for the report, or null when --realizations is not given. Settings the
@@ -69,12 +71,25 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const threshold = numberOption(values, 'threshold');
   if (threshold !== undefined) project.threshold = threshold;
   const simulate = reportSimulationSettings(values, project);
+  const workers = readWorkers(values);
+  const files = { samples: `${file}:${project.samples.fileName}` };
   const t0 = performance.now();
-  const input = naming({ samples: `${file}:${project.samples.fileName}` }, () => prepareReport(project, {
+  // The realisations are drawn first, over threads; prepareReport then takes them as they are.
+  let drawn: ConditionalSimulationResult | undefined;
+  let threads = 1;
+  if (simulate) {
+    const job = naming(files, () => reportSimulationJob(project, { simulate, ...(cell !== undefined ? { cellSize: cell } : {}) }));
+    if (job) {
+      threads = simulationThreads(job.options.count, workers);
+      drawn = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations') }));
+    }
+  }
+  const drawSeconds = (performance.now() - t0) / 1000;
+  const input = naming(files, () => prepareReport(project, {
     software: softwareVersion(),
     compare: !booleanOption(values, 'no-compare'),
     ...(cell !== undefined ? { cellSize: cell } : {}),
-    ...(simulate ? { simulate, onProgress: progressLine(io, 'realisations') } : {}),
+    ...(simulate ? { simulate, ...(drawn ? { drawn } : {}) } : {}),
   }));
   printWarnings(io, input.warnings ?? []);
   writeOutput(io, stringOption(values, 'out'), reportHtml(input));
@@ -84,7 +99,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const v = sim.summary.volume;
     io.stderr(`area: ${areaFigureText(sim, unit)} (seed ${sim.seed}, ${sim.support} support)`
       + `${v ? `; volume to ${v.depth} m: ${formatQuantity(v.median)} m³, 90 % interval ${formatQuantity(v.p05)} – ${formatQuantity(v.p95)} m³` : ''}`
-      + `${simulate ? `; drawn in ${((performance.now() - t0) / 1000).toFixed(1)} s` : '; as saved in the project'}\n`);
+      + `${simulate ? `; drawn in ${drawSeconds.toFixed(1)} s on ${threadsText(threads)}` : '; as saved in the project'}\n`);
   } else {
     io.stderr(`area: ${noAreaText(project.threshold !== null)}\n`);
   }
@@ -108,7 +123,8 @@ export const reportCommand: CommandSpec = {
       + 'realisations with a 90 % interval (5 % and 95 %), in m², ha and m³, with the method behind it and the caution '
       + 'that it is a screening estimate. It comes from the realisations saved in the project, or with --realizations N '
       + 'from N realisations drawn on the report\'s grid (as "gapwise simulate" draws them; seed, support, block points '
-      + 'and depth not given here come from the project\'s saved settings). The figure is also printed on stderr. '
+      + 'and depth not given here come from the project\'s saved settings), shared out among --workers threads. '
+      + 'The figure is also printed on stderr. '
       + 'Without either, the report says in one line that no area estimate was made.',
   ],
   options: [
@@ -119,6 +135,7 @@ export const reportCommand: CommandSpec = {
     { name: 'no-compare', kind: 'boolean', help: 'do not fit the candidate models when the project has no comparison table' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the exceedance map and the area above it', unit: 'the samples\' unit', defaultText: 'the project\'s' },
     ...GRID_SIMULATION_OPTIONS,
+    SIMULATION_WORKERS,
   ],
   examples: [
     'gapwise report --project site.gapwise.json --out site-report.html',

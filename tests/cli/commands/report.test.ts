@@ -86,8 +86,9 @@ describe('gapwise report: area above the action level', () => {
   afterAll(() => ws.remove());
 
   it('report --realizations --depth --seed on the demo prints and writes the median and interval exceedanceArea gives for the same realisations', async () => {
-    const r = await ws.run('report', '--project', 'demo.json', '--realizations', '30', '--depth', '0.3', '--seed', '3', '--no-compare', '--out', 'r.html');
+    const r = await ws.run('report', '--project', 'demo.json', '--realizations', '30', '--depth', '0.3', '--seed', '3', '--workers', '3', '--no-compare', '--out', 'r.html');
     expect(r.code, r.stderr).toBe(0);
+    expect(r.stderr).toMatch(/; drawn in \d+\.\d s on 3 worker threads\n/);
     // The same realisations drawn here, kept, and summarised by core/exceedance-area.ts.
     const { project } = openProject(ws.read('demo.json'), 'demo.json');
     const intake = projectIntake(project);
@@ -129,6 +130,7 @@ describe('gapwise report: area above the action level', () => {
     expect(r.code, r.stderr).toBe(0);
     expect(figures(ws.read('x.html')).seed).toBe(4);
     expect(r.stderr).toContain('from 3 realisations (seed 4, point support)');
+    expect(r.stderr).toMatch(/; drawn in \d+\.\d s on 1 worker thread\n/); // fewer than 4 realisations: this thread
   });
 
   it('report refuses realisation options without --realizations, and --realizations without an action level (exit 2)', async () => {
@@ -139,6 +141,12 @@ describe('gapwise report: area above the action level', () => {
     const none = await ws.run('report', '--project', 'no-threshold.json', '--realizations', '5', '--no-compare');
     expect(none.code).toBe(2);
     expect(none.stderr).toMatch(/needs an action level.*"--threshold T"/);
+    const workers = await ws.run('report', '--project', 'demo.json', '--workers', '2', '--no-compare');
+    expect(workers.code).toBe(2);
+    expect(workers.stderr).toContain('Option "--workers" applies to the realisations; expected "--realizations N" with it.');
+    const zero = await ws.run('report', '--project', 'demo.json', '--realizations', '5', '--workers', '0', '--no-compare');
+    expect(zero.code).toBe(2);
+    expect(zero.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
     const count = await ws.run('report', '--project', 'demo.json', '--realizations', '0', '--no-compare');
     expect(count.code).toBe(2);
     expect(count.stderr).toContain('Option "--realizations" expects a whole number from 1 to 10,000, got 0.');
