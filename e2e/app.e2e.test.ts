@@ -3,23 +3,14 @@
  * Walks the demo through Samples → Structure → Surface, reads colours back from the drawn surface,
  * feeds a hostile file, reloads, and prints timing figures (never asserted).
  */
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, takeLongestTask, type Watched } from './harness.ts';
 import { fiveHundredCsv, hostileCsv, projectedGridCsv } from './files.ts';
 import { buildLut } from '../src/ui/map/colour-scales.ts';
 
-let h: Harness;
-const figures: string[] = [];
-
-beforeAll(async () => {
-  h = await startHarness();
-});
-
-afterAll(async () => {
-  await h?.close();
-  if (figures.length) console.log(`\nGapwise browser figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
-});
+const run = useHarness('Gapwise browser figures');
+const figures = run.figures;
 
 async function loadFile(page: Page, name: string, text: string): Promise<void> {
   await openStep(page, 'samples');
@@ -66,7 +57,7 @@ describe('Gapwise in the browser', () => {
   let demo: Watched;
 
   it('loads the invented demo in one click and shows what was read', async () => {
-    demo = await openPage(h);
+    demo = await openPage(run.h);
     const { page } = demo;
     expect(await page.locator('[data-testid=load-demo]').innerText()).toBe('Load the invented demo site');
     await page.click('[data-testid=load-demo]');
@@ -201,7 +192,7 @@ describe('Gapwise in the browser', () => {
   }, LONG);
 
   it('draws the mean layer in the right place: colours at three samples match their values (zero nugget)', async () => {
-    const w = await openPage(h);
+    const w = await openPage(run.h);
     const { page } = w;
     const { text, values } = projectedGridCsv();
     await loadFile(page, 'zinc-grid.csv', text);
@@ -273,7 +264,7 @@ describe('Gapwise in the browser', () => {
   }, LONG);
 
   it('shows a hostile file as text and runs nothing from it', async () => {
-    const w = await openPage(h);
+    const w = await openPage(run.h);
     const { page } = w;
     const scriptsBefore = await page.evaluate(() => document.scripts.length);
     await loadFile(page, 'hostile<script>.csv', hostileCsv());
@@ -310,7 +301,7 @@ describe('Gapwise in the browser', () => {
   }, LONG);
 
   it('times a 200 × 200 surface from 500 samples (figures only)', async () => {
-    const w = await openPage(h);
+    const w = await openPage(run.h);
     const { page } = w;
     await loadFile(page, 'nitrate-500.csv', fiveHundredCsv());
     await chooseCrs(page, 'EPSG:32632');

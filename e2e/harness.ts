@@ -9,7 +9,7 @@ import { resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { preview, type PreviewServer } from 'vite';
 import { chromium, type Browser, type BrowserContext, type Page } from 'playwright-core';
-import { expect } from 'vitest';
+import { afterAll, beforeAll, expect } from 'vitest';
 export { CAUTION } from '../src/core/caution.ts';
 
 export const ROOT = resolve(fileURLToPath(new URL('.', import.meta.url)), '..');
@@ -36,6 +36,29 @@ export interface Harness {
   browser: Browser;
   server: PreviewServer;
   close(): Promise<void>;
+}
+
+/**
+ * One harness for a test file: started before its tests, closed after them, and the figures the
+ * tests collect printed under `title` at the end (figures are printed, never asserted).
+ */
+export function useHarness(title: string): { readonly h: Harness; figures: string[] } {
+  let harness: Harness | null = null;
+  const figures: string[] = [];
+  beforeAll(async () => {
+    harness = await startHarness();
+  });
+  afterAll(async () => {
+    await harness?.close();
+    if (figures.length) console.log(`\n${title}\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
+  });
+  return {
+    get h(): Harness {
+      if (!harness) throw new Error('The browser harness has not started yet.');
+      return harness;
+    },
+    figures,
+  };
 }
 
 export async function startHarness(): Promise<Harness> {

@@ -4,21 +4,12 @@
  * variograms (omnidirectional, four directions) come from a worker. The longest main-thread tasks
  * are printed as figures, never asserted.
  */
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { expectClean, openStep, WAIT, LONG, startHarness, openPage, shot, takeLongestTask, type Harness } from './harness.ts';
+import { describe, expect, it } from 'vitest';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask } from './harness.ts';
 import { createRandom } from '../src/core/random.ts';
 
-let h: Harness;
-const figures: string[] = [];
-
-beforeAll(async () => {
-  h = await startHarness();
-});
-
-afterAll(async () => {
-  await h?.close();
-  if (figures.length) console.log(`\nGapwise many-sample figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
-});
+const run = useHarness('Gapwise many-sample figures');
+const figures = run.figures;
 
 /** n invented readings on a 5 km square at UTM-like coordinates: a band of higher values plus noise. */
 function inventedCsv(n: number): string {
@@ -34,7 +25,7 @@ function inventedCsv(n: number): string {
 
 describe('many samples in the app', () => {
   it('20,000 samples: dots on one canvas that can still be picked, variograms from a worker, the pair sample said', async () => {
-    const w = await openPage(h);
+    const w = await openPage(run.h);
     const { page } = w;
     await takeLongestTask(page);
     let t0 = Date.now();

@@ -3,23 +3,14 @@
  * exceedance layer's on-screen colours against the computed values cell by cell, and the longest
  * main-thread task while a surface is computed and drawn (printed, never asserted).
  */
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, takeLongestTask, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, takeLongestTask, type Watched } from './harness.ts';
 import { buildLut, type ScaleName } from '../src/ui/map/colour-scales.ts';
 
-let h: Harness;
-const figures: string[] = [];
-
-beforeAll(async () => {
-  h = await startHarness();
-});
-
-afterAll(async () => {
-  await h?.close();
-  if (figures.length) console.log(`\nGapwise surface figures\n${figures.map((f) => `  ${f}`).join('\n')}\n`);
-});
+const run = useHarness('Gapwise surface figures');
+const figures = run.figures;
 
 interface Probe {
   value: number; sd: number | null; centreX: number; centreY: number;
@@ -102,7 +93,7 @@ describe('Surface step in the browser', () => {
   let demo: Watched;
 
   it('draws the exceedance layer with the computed colours everywhere, right part included, right after it loads', async () => {
-    demo = await openPage(h);
+    demo = await openPage(run.h);
     const { page } = demo;
     await page.click('[data-testid=load-demo]');
     await page.waitForSelector('[data-testid=read-report]');
