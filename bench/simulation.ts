@@ -1,14 +1,18 @@
 /**
  * Simulation benchmark: 100 conditional realisations of a 200 × 200 grid from 500 samples (Matérn
  * ν = 3/2 plus a nugget, ordinary kriging, point support, with a threshold so P(exceed) and the area
- * summary are computed too); also block support (2 × 2) with 10 realisations, the circulant embedding
- * alone and a 512 × 512 FFT. Target: the 100 realisations in under 30 s.
+ * summary are computed too), on one thread and shared out over worker threads (src/cli/simulation-pool.ts,
+ * one per core: the same realisations and area); also block support (2 × 2) with 10 realisations, the
+ * circulant embedding alone and a 512 × 512 FFT. Target: the 100 realisations in under 30 s.
+ * CPU seconds are the whole process's (worker threads included).
  * Run alone: `npx tsx bench/simulation.ts` (`--quick`: 100 × 100 grid, 20 realisations), or via
  * `npx tsx bench/run.ts simulation`.
  */
 import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
-import { simulateConditional } from '../src/core/conditional-simulation.ts';
+import { availableParallelism } from 'node:os';
+import { simulateParallel, simulationThreads } from '../src/cli/simulation-pool.ts';
+import { simulateConditional, type ConditionalSimulationResult } from '../src/core/conditional-simulation.ts';
 import { createCirculantEmbedding } from '../src/core/circulant-embedding.ts';
 import { createFft2Plan } from '../src/core/fft.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
@@ -24,6 +28,15 @@ const MODEL: CovarianceModel = {
 /** The benchmark's invented samples (bench/common.ts). */
 function makeSamples(n: number, seed: number): Samples {
   return waveSamples(n, { side: 1000, amplitude: 5, lengthX: 200, lengthY: 260, seed });
+}
+
+/** Wall and CPU seconds (all threads of the process) of an asynchronous call. */
+async function timeAsync<T>(f: () => Promise<T>): Promise<{ value: T; seconds: number; cpu: number }> {
+  const c = process.cpuUsage();
+  const t = performance.now();
+  const value = await f();
+  const used = process.cpuUsage(c);
+  return { value, seconds: (performance.now() - t) / 1000, cpu: (used.user + used.system) / 1e6 };
 }
 
 function time(f: () => void): number {
@@ -42,13 +55,21 @@ export async function runSimulationBench(options: { quick?: boolean } = {}): Pro
   const rows: Row[] = [];
   const log = (s: string) => console.error(`  ${s}`);
 
-  let lattice = '';
-  const tPoint = time(() => {
-    const r = simulateConditional(samples, MODEL, grid, { count, seed: 1, threshold: 42 });
-    lattice = `lattice ${r.lattice.nx} × ${r.lattice.ny}, torus ${r.lattice.torus.join(' × ')}, area above 42: median ${Math.round(r.area!.area.median)} m² (5–95 %: ${Math.round(r.area!.area.p05)}–${Math.round(r.area!.area.p95)})`;
+  const areaText = (r: ConditionalSimulationResult) => `area above 42: median ${Math.round(r.area!.area.median)} m² (5–95 %: ${Math.round(r.area!.area.p05)}–${Math.round(r.area!.area.p95)})`;
+  const point = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, threshold: 42 }));
+  const r1 = point.value;
+  const lattice = `lattice ${r1.lattice.nx} × ${r1.lattice.ny}, torus ${r1.lattice.torus.join(' × ')}, ${areaText(r1)}`;
+  log(`point, 1 thread: ${point.seconds.toFixed(2)} s (CPU ${point.cpu.toFixed(2)} s; ${lattice})`);
+  rows.push({ name: `${count} conditional realisations, ${side} × ${side} grid, point support`, n, seconds: point.seconds, note: `1 thread; CPU ${point.cpu.toFixed(2)} s; Matérn 3/2 + nugget, OK; ${lattice}` });
+
+  const threads = simulationThreads(count, availableParallelism());
+  const par = await timeAsync(() => simulateParallel(samples, MODEL, grid, { count, seed: 1, threshold: 42 }, { workers: threads }));
+  const same = par.value.realisations!.every((v, r) => v.every((x, k) => Object.is(x, r1.realisations![r][k])));
+  log(`point, ${threads} threads: ${par.seconds.toFixed(2)} s (CPU ${par.cpu.toFixed(2)} s; ${areaText(par.value)}; realisations ${same ? 'equal to' : 'DIFFERENT from'} 1 thread)`);
+  rows.push({
+    name: `${count} conditional realisations, ${side} × ${side} grid, point, ${threads} threads`, n, seconds: par.seconds, threads,
+    note: `simulateParallel, ${threads} worker threads of ${availableParallelism()} cores; CPU ${par.cpu.toFixed(2)} s; ${point.seconds > 0 ? `${(point.seconds / par.seconds).toFixed(2)}× the 1-thread speed; ` : ''}realisations ${same ? 'bit for bit' : 'NOT'} equal to 1 thread, ${areaText(par.value)}`,
   });
-  log(`point: ${tPoint.toFixed(2)} s (${lattice})`);
-  rows.push({ name: `${count} conditional realisations, ${side} × ${side} grid, point support`, n, seconds: tPoint, note: `Matérn 3/2 + nugget, OK; ${lattice}` });
 
   const blockCount = options.quick ? 5 : 10;
   const tBlock = time(() => simulateConditional(samples, MODEL, grid, { count: blockCount, seed: 1, support: 'block', blockPoints: 2, threshold: 42 }));
@@ -74,5 +95,5 @@ export async function runSimulationBench(options: { quick?: boolean } = {}): Pro
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
   const rows = await runSimulationBench({ quick: process.argv.includes('--quick') });
-  for (const row of rows) console.log(`${row.name.padEnd(62)} n=${row.n}  ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
+  for (const row of rows) console.log(`${row.name.padEnd(66)} n=${row.n}  ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
 }
