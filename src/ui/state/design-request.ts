@@ -1,18 +1,11 @@
 /**
  * The app's door to the sample design ("where to sample next"): runs the engine's 'design' request
- * in a worker so the page stays responsive, with progress and cancel. The design is one request at
- * a time, so it gets one worker of its own, started on first use.
+ * in one of the engine's workers (the pool the fits and surfaces use, ./engine.ts) so the page stays
+ * responsive, with progress and cancel.
  */
 import type { DesignResult } from '../../core/design.ts';
 import type { DesignRequestPayload } from '../../worker/design-handler.ts';
-import { EnginePool } from '../../worker/pool.ts';
-
-let pool: EnginePool | null = null;
-
-function designPool(): EnginePool {
-  pool ??= new EnginePool({ size: 1 });
-  return pool;
-}
+import { enginePool } from './engine.ts';
 
 /**
  * Suggests the next sample sites in a worker. Rejects with the engine's error (a GapwiseError-shaped
@@ -23,5 +16,5 @@ export function runDesign(
   onProgress: (done: number, total: number) => void,
   signal: AbortSignal,
 ): Promise<DesignResult> {
-  return designPool().request('design', payload, { signal, onProgress: (p) => onProgress(p.done, p.total) });
+  return enginePool().request('design', payload, { signal, onProgress: (p) => onProgress(p.done, p.total) });
 }

@@ -27,7 +27,8 @@ export function workerCount(): number {
   return Math.max(1, Math.min(4, n));
 }
 
-function enginePool(): EnginePool {
+/** The app's one pool of engine workers (fits, surfaces, realisations, variograms, designs). */
+export function enginePool(): EnginePool {
   pool ??= new EnginePool({ size: workerCount() });
   return pool;
 }
