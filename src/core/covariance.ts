@@ -16,7 +16,10 @@
  * evaluations for an n×n matrix (one exp per entry for the closed forms, one K_ν for general ν).
  */
 import type { CovarianceModel, CorrelatedStructure, Anisotropy } from './model.ts';
-import { maternCorrelation, maternCorrelationAtZ, maternLogNormaliser } from './matern.ts';
+import { maternCorrelation, maternCorrelationAtZ, maternLogNormaliser, maternTableAtZ } from './matern.ts';
+
+/** Rows of at least this many distances use the tabulated general-ν Matérn (building a table costs ~2 × 8,193 K_ν). */
+const TABLE_FROM = 256;
 
 /** Correlation of one structure at (already anisotropy-scaled) distance h ≥ 0. */
 export function correlation(s: CorrelatedStructure, h: number): number {
@@ -172,6 +175,15 @@ function addStructure(s: CompiledStructure, d: Float64Array, d2: Float64Array, c
       return;
     case Kind.MaternGeneral: {
       const nu = s.nu;
+      if (count >= TABLE_FROM) {
+        // Long rows: the tabulated ρ (./matern.ts; within about 1e-13, 10–30× faster than one K_ν each).
+        const table = maternTableAtZ(nu);
+        for (let j = 0; j < count; j++) {
+          const z = f * d[j];
+          out[o + j] += sill * (z === 0 ? 1 : table(z));
+        }
+        return;
+      }
       const ln = s.logNormaliser;
       for (let j = 0; j < count; j++) out[o + j] += sill * maternCorrelationAtZ(f * d[j], nu, ln);
       return;

@@ -21,7 +21,8 @@ import type { ParameterSpace } from './optimize.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
-import { correlation, practicalRange, surfaceCovariance, surfaceVariance } from './covariance.ts';
+import { practicalRange, surfaceCovariance, surfaceVariance } from './covariance.ts';
+import { maternTableAtZ } from './matern.ts';
 import { nuggetOf } from './model.ts';
 import { maxminOrder, orderedNeighbors, type OrderedNeighbors } from './maxmin-order.ts';
 import { coordinateFrame, trendColumnCount, knownMean, type CoordinateFrame } from './trend.ts';
@@ -86,7 +87,8 @@ export function covarianceFunction(model: CovarianceModel): (h: number) => numbe
   if (correlated.length === 1) {
     const s = correlated[0] as Exclude<typeof correlated[0], { type: 'nugget' }>;
     const sill = s.sill;
-    return (h: number) => sill * correlation(s, h);
+    const rho = correlationFunction(s.type, s.scale, s.nu ?? 1.5);
+    return (h: number) => sill * rho(h);
   }
   return (h: number) => surfaceCovariance(model, h);
 }
@@ -161,8 +163,10 @@ export function correlationFunction(family: Family, scale: number, nu = 1.5): (h
           return (1 + a + (a * a) / 3) * Math.exp(-a);
         };
       }
-      const s = { type: 'matern' as const, sill: 1, scale, nu };
-      return (h) => correlation(s, h);
+      // General ν: the tabulated form (./matern.ts, within about 1e-13 of the log form, 10–30× faster).
+      const table = maternTableAtZ(nu);
+      const c = Math.sqrt(2 * nu) * inv;
+      return (h) => (h === 0 ? 1 : table(c * h));
     }
   }
 }
