@@ -10,6 +10,7 @@
 import { fitCandidates, fitModel } from '../core/fit.ts';
 import { empiricalVariogram, variogramSet } from '../core/variogram.ts';
 import { leaveOneOut } from '../core/cross-validation.ts';
+import { localLeaveOneOut } from '../core/local-cross-validation.ts';
 import { createPredictor, type Predictor } from '../core/kriging.ts';
 import { computeSurfaceWith } from '../core/surface.ts';
 import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/block-kriging.ts';
@@ -38,6 +39,7 @@ export interface EngineOperations {
   empiricalVariogram: typeof empiricalVariogram;
   variogramSet: typeof variogramSet;
   leaveOneOut: typeof leaveOneOut;
+  localLeaveOneOut: typeof localLeaveOneOut;
   createPredictor: typeof createPredictor;
   computeSurfaceWith: typeof computeSurfaceWith;
   createBlockPredictor: typeof createBlockPredictor;
@@ -49,7 +51,7 @@ export interface EngineOperations {
 }
 
 export const ENGINE_OPERATIONS: EngineOperations = {
-  fitModel, fitCandidates, empiricalVariogram, variogramSet, leaveOneOut, createPredictor, computeSurfaceWith,
+  fitModel, fitCandidates, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
   createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor, readSamples,
 };
 
@@ -146,6 +148,7 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'crossValidate': {
         const q = p as RequestPayloads['crossValidate'];
         checkSamples(q.samples);
+        if (q.local) return ops.localLeaveOneOut(q.samples, q.model, { neighbors: q.local.neighbors }, progress) as ResultPayloads[K];
         return ops.leaveOneOut(q.samples, q.model) as ResultPayloads[K];
       }
       case 'surfaceRows': {

@@ -35,7 +35,8 @@ export interface RequestPayloads {
   variogram: { samples: Samples; options?: VariogramOptions };
   /** The variogram with, on request, the four directions and the cloud (core/variogram.ts variogramSet). */
   variogramSet: { samples: Samples; options?: VariogramOptions; directional?: boolean; cloudPairs?: number };
-  crossValidate: { samples: Samples; model: CovarianceModel };
+  /** Leave-one-out: closed form from all samples, or with `local` from each sample's nearest others (many samples). */
+  crossValidate: { samples: Samples; model: CovarianceModel; local?: { neighbors: number } };
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
   /** With `local`, predictions come from local neighbourhoods (for many samples) instead of all samples. */
   surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions; local?: LocalKrigingOptions };

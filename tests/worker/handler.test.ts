@@ -3,6 +3,7 @@ import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperat
 import type { EngineResponse } from '../../src/worker/protocol.ts';
 import { computeSurface } from '../../src/core/surface.ts';
 import { empiricalVariogram, variogramSet } from '../../src/core/variogram.ts';
+import { localLeaveOneOut } from '../../src/core/local-cross-validation.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
 import { makeSamples } from '../../src/core/samples.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
@@ -73,6 +74,15 @@ describe('createEngineHandler', () => {
     expect(v.result).toEqual(empiricalVariogram(samples, { lagCount: 6 }));
     expect(cv).toMatchObject({ id: 12, type: 'result', request: 'crossValidate' });
     expect((cv.result as ReturnType<typeof leaveOneOut>).summary).toEqual(leaveOneOut(samples, model).summary);
+  });
+
+  it('createEngineHandler answers crossValidate with local neighbours by localLeaveOneOut', () => {
+    const { sent, run } = collect();
+    run({ id: 14, type: 'crossValidate', payload: { samples, model, local: { neighbors: 5 } } });
+    const r = sent.find((s) => s.message.type === 'result')!.message as Extract<EngineResponse, { type: 'result' }>;
+    const expected = localLeaveOneOut(samples, model, { neighbors: 5 });
+    expect((r.result as ReturnType<typeof leaveOneOut>).summary).toEqual(expected.summary);
+    expect((r.result as ReturnType<typeof leaveOneOut>).summary).not.toEqual(leaveOneOut(samples, model).summary);
   });
 
   it('createEngineHandler dispatches variogramSet with its directions and cloud', () => {
