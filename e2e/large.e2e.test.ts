@@ -6,18 +6,19 @@
  */
 import { describe, expect, it } from 'vitest';
 import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask } from './harness.ts';
+import type { Page } from 'playwright-core';
 import { createRandom } from '../src/core/random.ts';
 
 const run = useHarness('Gapwise many-sample figures');
 const figures = run.figures;
 
 /** n invented readings on a 5 km square at UTM-like coordinates: a band of higher values plus noise. */
-function inventedCsv(n: number): string {
+function inventedCsv(n: number, side = 5000): string {
   const r = createRandom(5);
   const lines = ['x,y,lead_mg_kg'];
   for (let i = 0; i < n; i++) {
-    const x = 500000 + 5000 * r.uniform();
-    const y = 6000000 + 5000 * r.uniform();
+    const x = 500000 + side * r.uniform();
+    const y = 6000000 + side * r.uniform();
     lines.push(`${x.toFixed(1)},${y.toFixed(1)},${(100 + 40 * Math.sin((x - 500000) / 700) + 10 * r.normal()).toFixed(2)}`);
   }
   return lines.join('\n');
@@ -73,4 +74,44 @@ describe('many samples in the app', () => {
     expectClean(w);
     await w.context.close();
   }, LONG);
+
+  it('5,000 samples: candidates by the nearest-neighbour likelihood with local leave-one-out figures, then a surface from local neighbourhoods', async () => {
+    const w = await openPage(run.h);
+    const { page } = w;
+    await page.setInputFiles('#samples-file', { name: 'invented-5k.csv', mimeType: 'text/csv', buffer: Buffer.from(inventedCsv(5000, 3000), 'utf8') });
+    await page.waitForSelector('text=5,000 of 5,000 rows used');
+    await chooseUtm33(page);
+    await openStep(page, 'structure');
+    await takeLongestTask(page);
+    let t0 = Date.now();
+    await page.click('[data-testid=fit-button]');
+    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+    const fitSeconds = (Date.now() - t0) / 1000;
+    // Every candidate has leave-one-out figures, from each sample's 64 nearest others.
+    const rows = await page.locator('[data-testid=candidate-table] tbody tr').allInnerTexts();
+    expect(rows.length).toBe(7);
+    for (const row of rows) expect(row).toMatch(/\t\d[\d.,]*\t\d[\d.,]*$/);
+    await page.waitForSelector('text=each sample predicted from its 64 nearest others');
+    figures.push(`5,000 samples: 7 candidates (nearest-neighbour likelihood) + local leave-one-out in ${fitSeconds.toFixed(1)} s; longest task ${(await takeLongestTask(page)).longest} ms`);
+    await openStep(page, 'surface');
+    await page.waitForSelector('text=Fitted with a nearest-neighbour likelihood on 5,000 samples');
+    await takeLongestTask(page);
+    t0 = Date.now();
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    const cells = await page.locator('[data-testid=surface-done]').innerText();
+    figures.push(`5,000 samples: surface (${cells.replace(/^Computed /, '').replace(/\.$/, '')}) ${((Date.now() - t0) / 1000).toFixed(1)} s to done; longest task ${(await takeLongestTask(page)).longest} ms`);
+    await shot(page, '9-five-thousand');
+    expectClean(w);
+    await w.context.close();
+  }, LONG);
 });
+
+async function chooseUtm33(page: Page): Promise<void> {
+  const input = page.locator('#crs-picker');
+  await input.click();
+  await input.fill('32633');
+  await page.waitForSelector('#crs-picker-list [role=option]:has-text("EPSG:32633")');
+  await input.press('Enter');
+  await page.waitForSelector('[data-testid=crs-current]:text-is("EPSG:32633")');
+}
