@@ -215,7 +215,12 @@ export class SurfaceLayer extends L.GridLayer {
   private draining = false;
 
   private drainSoon(): void {
-    if (this.draining || this.queue.length === 0) return;
+    if (this.draining) return;
+    if (this.queue.length === 0) {
+      // Nothing on the map to repaint: say so all the same (listeners wait for it).
+      setTimeout(() => { if (this.queue.length === 0 && !this.draining) this.fire('repainted'); }, 0);
+      return;
+    }
     this.draining = true;
     setTimeout(() => {
       this.draining = false;
