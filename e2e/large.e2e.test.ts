@@ -61,6 +61,7 @@ describe('many samples in the app', () => {
     const hit = points.find((q) => q.id === picked)!;
     expect(Math.hypot(hit.pageX - target.pageX, hit.pageY - target.pageY)).toBeLessThanOrEqual(6);
     await page.locator('[data-testid=sample-panel] button').click();
+    figures.push(`picked a dot and closed its row: longest task ${(await takeLongestTask(page)).longest} ms`);
 
     await openStep(page, 'structure');
     await page.check('text=Four directions');

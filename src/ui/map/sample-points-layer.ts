@@ -1,8 +1,9 @@
 /**
  * SamplePointsLayer: many samples drawn as dots on one canvas, for data sets where a Leaflet marker
  * (an object, a path and event handlers) per sample would stall the page. The canvas covers the map
- * view; after every move or zoom the dots are projected (latLngToContainerPoint) and drawn again, a
- * few milliseconds per 10,000 samples, at most once per animation frame. It hides during zoom animations (Leaflet's
+ * view; after every move or zoom the dots are projected (latLngToContainerPoint) and drawn again, at
+ * most once per animation frame; positions are projected again only when the view changed, and each
+ * dot is stamped from a pre-drawn sprite of its colour. It hides during zoom animations (Leaflet's
  * 'leaflet-zoom-hide'). A click picks the nearest dot within a few pixels (one pass over the
  * projected positions, kept from the last drawing). Colours come per sample from the caller; the
  * selected sample is drawn larger with a dark ring. Written Leaflet's way (extends L.Layer); the
@@ -38,6 +39,7 @@ export class SamplePointsLayer extends L.Layer {
   setPoints(lat: ArrayLike<number>, lon: ArrayLike<number>, colours: string[]): this {
     this.lat = lat;
     this.lon = lon;
+    this.projectedFor = '';
     this.colours = colours;
     this.scheduleDraw();
     return this;
@@ -115,55 +117,86 @@ export class SamplePointsLayer extends L.Layer {
     if (best >= 0) this.pick(best);
   }
 
-  /** Projects and draws every dot (and the selected one last, larger). */
+  /** The view the positions were projected for (container size, pixel origin, zoom), and the point count. */
+  private projectedFor = '';
+
+  /** Container-pixel positions of every dot, recomputed only when the view or the points change. */
+  private project(map: L.Map, size: L.Point, radius: number): void {
+    const n = this.lat.length;
+    const origin = map.getPixelOrigin();
+    const pane = map.containerPointToLayerPoint([0, 0]);
+    const key = `${size.x}x${size.y}|${map.getZoom()}|${origin.x},${origin.y}|${pane.x},${pane.y}|${n}`;
+    if (key === this.projectedFor && this.px.length === n) return;
+    this.projectedFor = key;
+    if (this.px.length !== n) {
+      this.px = new Float32Array(n);
+      this.py = new Float32Array(n);
+    }
+    for (let i = 0; i < n; i++) {
+      const p = map.latLngToContainerPoint([this.lat[i], this.lon[i]]);
+      const inside = p.x >= -radius && p.y >= -radius && p.x <= size.x + radius && p.y <= size.y + radius;
+      this.px[i] = inside ? p.x : NaN;
+      this.py[i] = inside ? p.y : NaN;
+    }
+  }
+
+  /** One pre-drawn dot per colour (device pixels), stamped with drawImage: far cheaper than an arc each. */
+  private sprites = new Map<string, HTMLCanvasElement>();
+
+  private sprite(colour: string, radius: number, ratio: number): HTMLCanvasElement {
+    const key = `${colour}|${radius}|${ratio}`;
+    let c = this.sprites.get(key);
+    if (c) return c;
+    const side = Math.ceil((2 * radius + 2) * ratio);
+    c = document.createElement('canvas');
+    c.width = side;
+    c.height = side;
+    const ctx = c.getContext('2d')!;
+    ctx.scale(ratio, ratio);
+    ctx.beginPath();
+    ctx.arc(radius + 1, radius + 1, radius, 0, 2 * Math.PI);
+    ctx.fillStyle = colour;
+    ctx.fill();
+    ctx.lineWidth = 0.6;
+    ctx.strokeStyle = '#1f2b33';
+    ctx.stroke();
+    this.sprites.set(key, c);
+    return c;
+  }
+
+  /** Draws every dot (and the selected one last, larger); projects again only after the view changed. */
   draw(): void {
     const map = this._map as L.Map | undefined;
     const c = this.canvas;
     if (!map || !c) return;
     const size = map.getSize();
     const ratio = window.devicePixelRatio || 1;
-    c.width = Math.round(size.x * ratio);
-    c.height = Math.round(size.y * ratio);
-    c.style.width = `${size.x}px`;
-    c.style.height = `${size.y}px`;
+    const w = Math.round(size.x * ratio);
+    const h = Math.round(size.y * ratio);
+    if (c.width !== w || c.height !== h) {
+      c.width = w;
+      c.height = h;
+      c.style.width = `${size.x}px`;
+      c.style.height = `${size.y}px`;
+    }
     L.DomUtil.setPosition(c, map.containerPointToLayerPoint([0, 0]));
     const ctx = c.getContext('2d');
     if (!ctx) return;
-    ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
-    ctx.clearRect(0, 0, size.x, size.y);
-    const n = this.lat.length;
-    if (this.px.length !== n) {
-      this.px = new Float32Array(n);
-      this.py = new Float32Array(n);
-    }
     const radius = this.options.radius ?? 3;
-    ctx.lineWidth = 0.6;
-    ctx.strokeStyle = '#1f2b33';
-    // Dots of one colour are filled as one path (few colour classes, many dots).
-    const byColour = new Map<string, number[]>();
+    this.project(map, size, radius);
+    ctx.setTransform(1, 0, 0, 1, 0, 0);
+    ctx.clearRect(0, 0, w, h);
+    const n = this.lat.length;
+    const offset = (radius + 1) * ratio;
     for (let i = 0; i < n; i++) {
-      const p = map.latLngToContainerPoint([this.lat[i], this.lon[i]]);
-      const inside = p.x >= -radius && p.y >= -radius && p.x <= size.x + radius && p.y <= size.y + radius;
-      this.px[i] = inside ? p.x : NaN;
-      this.py[i] = inside ? p.y : NaN;
-      if (!inside) continue;
-      const colour = this.colours[i] ?? '#fbfaf7';
-      let list = byColour.get(colour);
-      if (!list) byColour.set(colour, (list = []));
-      list.push(i);
-    }
-    for (const [colour, list] of byColour) {
-      ctx.beginPath();
-      for (const i of list) {
-        ctx.moveTo(this.px[i] + radius, this.py[i]);
-        ctx.arc(this.px[i], this.py[i], radius, 0, 2 * Math.PI);
-      }
-      ctx.fillStyle = colour;
-      ctx.fill();
-      ctx.stroke();
+      const x = this.px[i];
+      if (!Number.isFinite(x)) continue;
+      const img = this.sprite(this.colours[i] ?? '#fbfaf7', radius, ratio);
+      ctx.drawImage(img, Math.round(x * ratio - offset), Math.round(this.py[i] * ratio - offset));
     }
     const s = this.selected;
     if (s !== null && s >= 0 && s < n && Number.isFinite(this.px[s])) {
+      ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
       ctx.beginPath();
       ctx.arc(this.px[s], this.py[s], 8, 0, 2 * Math.PI);
       ctx.fillStyle = this.colours[s] ?? '#fbfaf7';
