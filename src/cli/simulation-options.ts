@@ -17,6 +17,7 @@ import type { Samples } from '../core/samples.ts';
 import type { Grid } from '../core/grid.ts';
 import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/block-kriging.ts';
 import { MAX_REALISATIONS } from '../core/conditional-simulation.ts';
+import type { ExceedanceAreaSummary } from '../core/exceedance-area.ts';
 import type { SurfaceResult } from '../core/surface.ts';
 import { numberOption, stringOption, type OptionSpec } from './args.ts';
 import { naming, type OptionValues } from './common.ts';
@@ -128,6 +129,18 @@ export interface SimulationBand {
   values: Float32Array;
 }
 
+/**
+ * The area (and volume) above the threshold of a simulation summary as the commands print them:
+ * median, p5, p95 and mean with their units (and the cells above, for `simulate`).
+ */
+export function areaFigures(a: ExceedanceAreaSummary): Pick<AreaReport, 'areaAbove' | 'volumeAbove'> & { cellsAbove: { median: number; p5: number; p95: number } } {
+  return {
+    areaAbove: { median: a.area.median, p5: a.area.p05, p95: a.area.p95, mean: a.area.mean, unit: 'm²' },
+    cellsAbove: { median: a.cells.median, p5: a.cells.p05, p95: a.cells.p95 },
+    ...(a.volume ? { volumeAbove: { median: a.volume.median, p5: a.volume.p05, p95: a.volume.p95, mean: a.volume.mean, unit: 'm³' as const, depth: a.volume.depth } } : {}),
+  };
+}
+
 /** Area above the threshold across realisations (JSON-ready). */
 export interface AreaReport {
   threshold: number;
@@ -175,12 +188,8 @@ export async function addSimulationBands(input: {
   let area: AreaReport | undefined;
   if (sim.pExceed && sim.area && threshold !== undefined) {
     bands.push({ name: `P(${choice.support === 'block' ? 'block mean' : 'value'} > ${threshold}${u}) from ${sim.count} realisations`, values: Float32Array.from(sim.pExceed) });
-    const a = sim.area;
-    area = {
-      threshold, realizations: sim.count, seed: choice.seed, support: choice.support,
-      areaAbove: { median: a.area.median, p5: a.area.p05, p95: a.area.p95, mean: a.area.mean, unit: 'm²' },
-    };
-    if (a.volume) area.volumeAbove = { median: a.volume.median, p5: a.volume.p05, p95: a.volume.p95, mean: a.volume.mean, unit: 'm³', depth: a.volume.depth };
+    const { areaAbove, volumeAbove } = areaFigures(sim.area);
+    area = { threshold, realizations: sim.count, seed: choice.seed, support: choice.support, areaAbove, ...(volumeAbove ? { volumeAbove } : {}) };
   }
   return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings, threads };
 }

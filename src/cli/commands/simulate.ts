@@ -18,7 +18,7 @@ import {
   readWorkers, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { SIMULATE_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
+import { SIMULATE_OPTIONS, SIMULATION_WORKERS, areaFigures, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
@@ -69,9 +69,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     unit,
     threshold: threshold ?? null,
     ...(area ? {
-      areaAbove: { median: area.area.median, p5: area.area.p05, p95: area.area.p95, mean: area.area.mean, unit: 'm²' },
-      cellsAbove: { median: area.cells.median, p5: area.cells.p05, p95: area.cells.p95 },
-      ...(area.volume ? { volumeAbove: { median: area.volume.median, p5: area.volume.p05, p95: area.volume.p95, mean: area.volume.mean, unit: 'm³', depth: area.volume.depth } } : {}),
+      ...areaFigures(area),
     } : {}),
     lattice: sim.lattice,
     placementError: sim.placementError,
