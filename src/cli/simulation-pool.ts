@@ -2,8 +2,8 @@
 // `report --realizations`).
 //
 // The N realisations are split into consecutive parts in whole pairs (the FFT gives fields in pairs):
-// with P parts and ⌈N/2⌉ pairs, part i starts at first + 2·⌊i·pairs/P⌋, as the app splits them over
-// its Web Workers (src/ui/state/engine.ts). Each worker thread runs core simulateConditional on its
+// core simulationPart gives part i of P, as the app splits them over its Web Workers
+// (src/ui/state/engine.ts). Each worker thread runs core simulateConditional on its
 // part with `first` and `keepTotals`; every realisation has its own random stream, so the parts
 // merged by mergeSimulationParts give the realisations and the area of one run exactly (per-cell
 // mean, sd and P(exceed) up to the order of the sums). Each worker repeats the set-up (embedding,
@@ -16,7 +16,7 @@ import type { CovarianceModel } from '../core/model.ts';
 import type { Grid } from '../core/grid.ts';
 import { GapwiseError, type ErrorCode } from '../core/errors.ts';
 import {
-  MAX_REALISATIONS, mergeSimulationParts, simulateConditional,
+  MAX_REALISATIONS, mergeSimulationParts, simulateConditional, simulationPart,
   type ConditionalSimulationOptions, type ConditionalSimulationResult,
 } from '../core/conditional-simulation.ts';
 import { startWorker } from './parallel.ts';
@@ -56,14 +56,6 @@ export function simulationThreads(count: number, workers = availableParallelism(
   const w = Math.max(1, Math.floor(workers));
   if (!(Number.isInteger(count) && count >= MIN_SPLIT && count <= MAX_REALISATIONS)) return 1;
   return Math.max(1, Math.min(w, Math.floor(count / 2)));
-}
-
-/** Realisations [first, end) of part i of `parts` of a run of `count` from `start`, in whole pairs. */
-export function simulationPart(start: number, count: number, i: number, parts: number): { first: number; count: number } {
-  const pairs = Math.ceil(count / 2);
-  const a = 2 * Math.floor((i * pairs) / parts);
-  const b = Math.min(count, 2 * Math.floor(((i + 1) * pairs) / parts));
-  return { first: start + a, count: b - a };
 }
 
 function toError(error: { code?: string; message: string }): Error {

@@ -830,6 +830,18 @@ export function simulateConditional(
 }
 
 /**
+ * Realisations of part i of `parts` of a run of `count` from `start`: consecutive, in whole pairs
+ * (the FFT gives fields in pairs), part i starting at start + 2·⌊i·pairs/parts⌋ with pairs = ⌈count/2⌉.
+ * How the app's workers and the command line's threads split a run for mergeSimulationParts.
+ */
+export function simulationPart(start: number, count: number, i: number, parts: number): { first: number; count: number } {
+  const pairs = Math.ceil(count / 2);
+  const a = 2 * Math.floor((i * pairs) / parts);
+  const b = Math.min(count, 2 * Math.floor(((i + 1) * pairs) / parts));
+  return { first: start + a, count: b - a };
+}
+
+/**
  * Merges parts of one simulation run (same samples, model, grid and options, consecutive `first`
  * ranges, each computed with keepTotals) into the result one run of all their realisations gives:
  * realisations, counts and the area summary exactly; per-cell mean, sd and P(exceed) up to the order

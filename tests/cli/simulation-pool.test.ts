@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { simulateParallel, simulationPart, simulationThreads } from '../../src/cli/simulation-pool.ts';
+import { simulateParallel, simulationThreads } from '../../src/cli/simulation-pool.ts';
 import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../../src/core/conditional-simulation.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 import { makeSamples } from '../../src/core/samples.ts';
@@ -90,22 +90,6 @@ describe('simulationThreads', () => {
     expect(simulationThreads(9, 3)).toBe(3);
     expect(simulationThreads(100, 1)).toBe(1);
     expect(simulationThreads(0.5, 4)).toBe(1); // left to the core call to refuse
-  });
-});
-
-describe('simulationPart', () => {
-  it('simulationPart covers the run in consecutive parts that start on even offsets', () => {
-    for (const [count, parts] of [[9, 3], [4, 2], [101, 4], [10, 5]]) {
-      let at = 7;
-      for (let i = 0; i < parts; i++) {
-        const p = simulationPart(7, count, i, parts);
-        expect(p.first).toBe(at);
-        expect((p.first - 7) % 2).toBe(0);
-        expect(p.count).toBeGreaterThanOrEqual(1);
-        at += p.count;
-      }
-      expect(at).toBe(7 + count);
-    }
   });
 });
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { mergeSimulationParts, posteriorCovariance, simulateConditional } from '../../src/core/conditional-simulation.ts';
+import { mergeSimulationParts, posteriorCovariance, simulateConditional, simulationPart } from '../../src/core/conditional-simulation.ts';
 import { buildKrigingSystem, createPredictor } from '../../src/core/kriging.ts';
 import { createBlockPredictor } from '../../src/core/block-kriging.ts';
 import { computeSurface } from '../../src/core/surface.ts';
@@ -203,5 +203,21 @@ describe('mergeSimulationParts', () => {
     expect(() => mergeSimulationParts([a, other])).toThrow(/same grid, support and threshold/);
     expect(() => mergeSimulationParts([])).toThrow(/none/);
     expect(() => simulateConditional(pts, matern, grid, { count: 2, first: -1 })).toThrow(/first realisation/);
+  });
+});
+
+describe('simulationPart', () => {
+  it('simulationPart covers the run in consecutive parts that start on even offsets', () => {
+    for (const [count, parts] of [[9, 3], [4, 2], [101, 4], [10, 5]]) {
+      let at = 7;
+      for (let i = 0; i < parts; i++) {
+        const p = simulationPart(7, count, i, parts);
+        expect(p.first).toBe(at);
+        expect((p.first - 7) % 2).toBe(0);
+        expect(p.count).toBeGreaterThanOrEqual(1);
+        at += p.count;
+      }
+      expect(at).toBe(7 + count);
+    }
   });
 });

@@ -11,7 +11,7 @@ import type { SurfaceResult } from '../../core/surface.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
-import { mergeSimulationParts, type ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
@@ -157,11 +157,9 @@ export async function simulate(req: SimulateRequest, onProgress?: Progress, sign
   const parts = Math.max(1, Math.min(workerCount(), Math.floor(N / 2)));
   const keep = req.options.keepRealisations === false ? 0 : req.keepFirst ?? N;
   const done = new Array<number>(parts).fill(0);
-  const pairs = Math.ceil(N / 2);
   const results = await Promise.all(Array.from({ length: parts }, (_, i) => {
-    const first = 2 * Math.floor((i * pairs) / parts);
-    const end = Math.min(N, 2 * Math.floor(((i + 1) * pairs) / parts));
-    const options: SimulateOptions = { ...req.options, first, count: end - first, keepTotals: true, keepRealisations: first < keep };
+    const { first, count } = simulationPart(0, N, i, parts);
+    const options: SimulateOptions = { ...req.options, first, count, keepTotals: true, keepRealisations: first < keep };
     return pool.request('simulate', { samples: req.samples, model: req.model, grid: req.grid, options }, {
       signal,
       onProgress: (p) => {
