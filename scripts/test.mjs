@@ -1,7 +1,8 @@
 #!/usr/bin/env node
 // Runs the whole test suite: unit tests, then the app build and the browser (end-to-end) tests.
 // Ends with the plain line "N passed, N failed" and exits non-zero on any failure.
-// `node scripts/test.mjs --unit` runs only the unit tests (no browser needed).
+// `node scripts/test.mjs --unit` runs only the type checks and unit tests (no browser needed).
+// The type checks (tsc for the TypeScript, svelte-check for the components) count as one test each.
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, rmSync } from 'node:fs';
 import { join } from 'node:path';
@@ -34,6 +35,17 @@ function vitest(label, args) {
   if (r.status !== 0 && j.numFailedTests === 0 && badSuites === 0) broken = true;
 }
 
+function typeCheck(label, command, args) {
+  const r = spawnSync(command, args, { stdio: 'inherit', env });
+  if (r.status === 0) passed += 1;
+  else {
+    console.error(`${label} found errors (exit ${r.status}).`);
+    failed += 1;
+  }
+}
+
+typeCheck('tsc', 'npx', ['tsc', '-p', '.', '--noEmit']);
+typeCheck('svelte-check', 'npx', ['svelte-check', '--tsconfig', './tsconfig.json', '--fail-on-warnings', '--output', 'machine']);
 vitest('unit', []);
 if (!unitOnly) {
   const b = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { stdio: 'inherit', env });

@@ -405,7 +405,7 @@ function isotropicFrame(samples: Samples, values: Float64Array, anisotropy?: Ani
 }
 
 /** Options of a variogram-only fit (plain data). */
-export interface VariogramFitOptions {
+export interface LagCurveFitOptions {
   family: Family;
   /** Fixed Matérn smoothness (default 1.5) or 'free' (in [0.2, 5]). */
   nu?: number | 'free';
@@ -417,7 +417,7 @@ export interface VariogramFitOptions {
   maxEvaluations?: number;
 }
 
-export interface VariogramFit {
+export interface LagCurveFit {
   family: Family;
   nu?: number;
   nugget: number;
@@ -430,7 +430,7 @@ export interface VariogramFit {
   iterations: number;
 }
 
-/** An empirical lag as fitVariogram needs it (variogram.ts VariogramLag fits). */
+/** An empirical lag as fitToEmpiricalLags needs it (variogram.ts VariogramLag fits). */
 export interface LagPoint {
   distance: number;
   semivariance: number;
@@ -444,7 +444,7 @@ export interface LagPoint {
  * previous pass; nugget ≥ 0); the best shape then seeds a joint Nelder–Mead search of the exact
  * criterion over (scale, sill, √nugget[, ν]). Lags at zero distance are ignored.
  */
-export function fitVariogram(lagsIn: ReadonlyArray<LagPoint>, options: VariogramFitOptions): VariogramFit {
+export function fitToEmpiricalLags(lagsIn: ReadonlyArray<LagPoint>, options: LagCurveFitOptions): LagCurveFit {
   if (!FAMILIES.has(options.family)) {
     throw new GapwiseError('bad-option', `Expected the family to be matern, exponential, spherical or gaussian, got ${JSON.stringify(options.family)}.`);
   }
@@ -542,7 +542,7 @@ export function fitVariogram(lagsIn: ReadonlyArray<LagPoint>, options: Variogram
   });
   iterations += polish.iterations;
   const useJoint = polish.value <= stage1.value;
-  const result: VariogramFit = {
+  const result: LagCurveFit = {
     family,
     nugget: withNugget ? (useJoint ? polish.x[2] ** 2 : lin.nugget) : 0,
     sill: useJoint ? polish.x[1] : lin.sill,
@@ -560,7 +560,7 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
   const n = samples.value.length;
   const values = r.p === 3 ? planeResiduals(samples) : Float64Array.from(samples.value);
   const v = empiricalVariogram(isotropicFrame(samples, values, r.anisotropy), variogramOptions);
-  const w = fitVariogram(v.lags, {
+  const w = fitToEmpiricalLags(v.lags, {
     family: r.family, nu: r.nuFree ? 'free' : r.nuFixed, nugget: r.nugget, maxDistance: v.maxDistance, maxEvaluations,
   });
   const { scale, sill, nugget, nu } = w;

@@ -1,5 +1,5 @@
 import { beforeAll, describe, expect, it } from 'vitest';
-import { fitCandidates, fitModel, fitVariogram, type LagPoint } from '../../src/core/fit.ts';
+import { fitCandidates, fitModel, fitToEmpiricalLags, type LagPoint } from '../../src/core/fit.ts';
 import { createLikelihood } from '../../src/core/likelihood.ts';
 import { simulateSamples } from '../../src/core/simulate.ts';
 import { correlation } from '../../src/core/covariance.ts';
@@ -176,7 +176,7 @@ describe('fitModel on small sets (no screening subset)', () => {
   });
 });
 
-describe('fitVariogram (Cressie WLS)', () => {
+describe('fitToEmpiricalLags (Cressie WLS)', () => {
   // A noiseless theoretical variogram γ(h) = nugget + sill·(1 − ρ(h)) at 15 lags with uneven pair counts.
   function theoretical(family: Family, sill: number, scale: number, nugget: number, nu?: number): LagPoint[] {
     const s = { type: family, sill: 1, scale, nu };
@@ -192,8 +192,8 @@ describe('fitVariogram (Cressie WLS)', () => {
     ['exponential', 0.7, 90, 0, undefined],
   ];
   for (const [family, sill, scale, nugget, nu] of cases) {
-    it(`fitVariogram fits a noiseless ${family} variogram exactly (sill ${sill}, scale ${scale}, nugget ${nugget})`, () => {
-      const f = fitVariogram(theoretical(family, sill, scale, nugget, nu), { family, nu, maxDistance: 1200 });
+    it(`fitToEmpiricalLags fits a noiseless ${family} variogram exactly (sill ${sill}, scale ${scale}, nugget ${nugget})`, () => {
+      const f = fitToEmpiricalLags(theoretical(family, sill, scale, nugget, nu), { family, nu, maxDistance: 1200 });
       expectClose(f.sill, sill, { rel: 1e-5 }, 'sill');
       expectClose(f.scale, scale, { rel: 1e-5 }, 'scale');
       expectClose(f.nugget, nugget, { rel: 1e-5, abs: 1e-8 }, 'nugget');
@@ -201,23 +201,23 @@ describe('fitVariogram (Cressie WLS)', () => {
     });
   }
 
-  it('fitVariogram recovers a free Matérn smoothness from a noiseless variogram', () => {
-    const f = fitVariogram(theoretical('matern', 1, 100, 0.05, 1.2), { family: 'matern', nu: 'free', maxDistance: 1200 });
+  it('fitToEmpiricalLags recovers a free Matérn smoothness from a noiseless variogram', () => {
+    const f = fitToEmpiricalLags(theoretical('matern', 1, 100, 0.05, 1.2), { family: 'matern', nu: 'free', maxDistance: 1200 });
     expectClose(f.nu!, 1.2, { rel: 1e-4 }, 'ν');
     expectClose(f.scale, 100, { rel: 1e-4 }, 'scale');
   });
 
-  it('fitVariogram without a nugget keeps it at 0', () => {
-    const f = fitVariogram(theoretical('gaussian', 1, 100, 0), { family: 'gaussian', nugget: false });
+  it('fitToEmpiricalLags without a nugget keeps it at 0', () => {
+    const f = fitToEmpiricalLags(theoretical('gaussian', 1, 100, 0), { family: 'gaussian', nugget: false });
     expect(f.nugget).toBe(0);
     expectClose(f.scale, 100, { rel: 1e-5 }, 'scale');
   });
 
-  it('fitVariogram weights lags by N/γ² (Cressie 1985): a lag with many pairs pulls harder', () => {
+  it('fitToEmpiricalLags weights lags by N/γ² (Cressie 1985): a lag with many pairs pulls harder', () => {
     const lags = theoretical('exponential', 1, 100, 0);
     const bumped = lags.map((l, j) => (j === 3 ? { ...l, semivariance: l.semivariance * 1.3 } : l));
-    const few = fitVariogram(bumped.map((l, j) => (j === 3 ? { ...l, pairs: 5 } : l)), { family: 'exponential' });
-    const many = fitVariogram(bumped.map((l, j) => (j === 3 ? { ...l, pairs: 5000 } : l)), { family: 'exponential' });
+    const few = fitToEmpiricalLags(bumped.map((l, j) => (j === 3 ? { ...l, pairs: 5 } : l)), { family: 'exponential' });
+    const many = fitToEmpiricalLags(bumped.map((l, j) => (j === 3 ? { ...l, pairs: 5000 } : l)), { family: 'exponential' });
     const at = (f: typeof few) => f.nugget + f.sill * (1 - Math.exp(-lags[3].distance / f.scale));
     expect(Math.abs(at(many) - bumped[3].semivariance)).toBeLessThan(Math.abs(at(few) - bumped[3].semivariance));
   });
