@@ -18,6 +18,7 @@ import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import type { Grid } from '../core/grid.ts';
 import { epsgCode, LOCAL_CRS } from './crs.ts';
+import { xml } from './markup.ts';
 
 /** The no-data value written for cells outside the area (GDAL_NODATA). */
 export const NO_DATA = -9999;
@@ -76,10 +77,6 @@ export interface GeoTiffOutput {
   warnings: Warning[];
 }
 
-function escapeXml(text: string): string {
-  return text.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&apos;' })[c] as string);
-}
-
 /** Shortens user text for band names (control characters become spaces). */
 function short(text: string, max: number): string {
   const t = text.replace(/[\u0000-\u001f]/g, ' ').trim();
@@ -105,8 +102,7 @@ export function bandDescriptions(surface: GeoTiffSurfaces, unit = '', valueName 
 
 /** GDAL_METADATA XML naming each band (sample = 0-based band index). */
 export function gdalMetadataXml(descriptions: readonly string[]): string {
-  const items = descriptions.map((d, i) => `<Item name="DESCRIPTION" sample="${i}" role="description">${escapeXml(d)}</Item>`);
-  return `<GDALMetadata>${items.join('')}</GDALMetadata>`;
+  return xml`<GDALMetadata>${descriptions.map((d, i) => xml`<Item name="DESCRIPTION" sample="${i}" role="description">${d}</Item>`)}</GDALMetadata>`.text;
 }
 
 /** Reads one ASCII tag (UTF-8) of a TIFF's first IFD, either byte order, or null when it is absent. */

@@ -3,11 +3,13 @@
  * http://www.topografix.com/GPX/1/1/gpx.xsd). Elements follow the schema's sequences:
  * metadata: name, desc, author?, copyright?, link*, time, keywords?, bounds;
  * wpt: ele?, time?, magvar?, geoidheight?, name, cmt, desc, src, link*, sym?, type, ...
- * The metadata's desc carries the screening caution. All text is XML-escaped.
+ * The metadata's desc carries the screening caution. Built with the `xml` template (io/markup.ts),
+ * which escapes every value.
  */
 import { CAUTION } from '../core/caution.ts';
 import type { ExportableDesign } from './suggestions-export.ts';
 import { checkLonLat } from './suggestions-export.ts';
+import { joinMarkup, xml, type Markup } from './markup.ts';
 
 export interface GpxOptions {
   /** The file's name element (default "Suggested sample sites"). */
@@ -16,18 +18,6 @@ export interface GpxOptions {
   time?: Date;
   /** Unit of the values, shown in the comments (e.g. "mg/kg"). */
   unit?: string;
-}
-
-/** Escapes the five XML special characters and drops characters XML 1.0 forbids. */
-export function xmlEscape(text: string): string {
-  return text
-    // eslint-disable-next-line no-control-regex
-    .replace(/[\u0000-\u0008\u000b\u000c\u000e-\u001f\ufffe\uffff]/g, '')
-    .replace(/&/g, '&amp;')
-    .replace(/</g, '&lt;')
-    .replace(/>/g, '&gt;')
-    .replace(/"/g, '&quot;')
-    .replace(/'/g, '&apos;');
 }
 
 /** Degrees with 7 decimals (GPX latitudeType −90…90, longitudeType −180 ≤ lon < 180). */
@@ -64,13 +54,13 @@ export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions =
   const time = (options.time ?? new Date()).toISOString().replace(/\.\d{3}Z$/, 'Z');
   const unit = options.unit ? ` ${options.unit}` : '';
   const total = design.suggestions.length;
-  const lines: string[] = [
-    '<?xml version="1.0" encoding="UTF-8"?>',
-    '<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">',
-    '  <metadata>',
-    `    <name>${xmlEscape(options.name ?? 'Suggested sample sites')}</name>`,
-    `    <desc>${xmlEscape(`${total} suggested sample sites, chosen ${MODE_WORDS[design.mode] ?? design.mode}. ${CAUTION}`)}</desc>`,
-    `    <time>${time}</time>`,
+  const lines: Markup[] = [
+    xml`<?xml version="1.0" encoding="UTF-8"?>`,
+    xml`<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">`,
+    xml`  <metadata>`,
+    xml`    <name>${options.name ?? 'Suggested sample sites'}</name>`,
+    xml`    <desc>${total} suggested sample sites, chosen ${MODE_WORDS[design.mode] ?? design.mode}. ${CAUTION}</desc>`,
+    xml`    <time>${time}</time>`,
   ];
   if (total > 0) {
     let minlat = Infinity, minlon = Infinity, maxlat = -Infinity, maxlon = -Infinity;
@@ -80,24 +70,24 @@ export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions =
       minlon = Math.min(minlon, s.lon as number);
       maxlon = Math.max(maxlon, s.lon as number);
     }
-    lines.push(`    <bounds minlat="${degreesText(minlat, false)}" minlon="${degreesText(minlon, true)}" maxlat="${degreesText(maxlat, false)}" maxlon="${degreesText(maxlon, true)}"/>`);
+    lines.push(xml`    <bounds minlat="${degreesText(minlat, false)}" minlon="${degreesText(minlon, true)}" maxlat="${degreesText(maxlat, false)}" maxlon="${degreesText(maxlon, true)}"/>`);
   }
-  lines.push('  </metadata>');
+  lines.push(xml`  </metadata>`);
   for (const s of design.suggestions) {
     const parts = [`benefit ${shortNumber(s.benefit)}`];
     if (s.mean !== null) parts.push(`mean ${shortNumber(s.mean)}${unit}`);
     if (s.sd !== null) parts.push(`sd ${shortNumber(s.sd)}${unit}`);
     if (s.pExceed !== null) parts.push(`P(exceed ${String(design.threshold)}${unit}) ${Number(s.pExceed.toFixed(3))}`);
     lines.push(
-      `  <wpt lat="${degreesText(s.lat as number, false)}" lon="${degreesText(s.lon as number, true)}">`,
-      `    <name>${waypointName(s.rank, total)}</name>`,
-      `    <cmt>${xmlEscape(parts.join('; '))}</cmt>`,
-      `    <desc>${xmlEscape(`Suggested sample ${s.rank} of ${total} (${design.mode} design). Screening only.`)}</desc>`,
-      '    <src>Gapwise</src>',
-      '    <type>suggested sample</type>',
-      '  </wpt>',
+      xml`  <wpt lat="${degreesText(s.lat as number, false)}" lon="${degreesText(s.lon as number, true)}">`,
+      xml`    <name>${waypointName(s.rank, total)}</name>`,
+      xml`    <cmt>${parts.join('; ')}</cmt>`,
+      xml`    <desc>Suggested sample ${s.rank} of ${total} (${design.mode} design). Screening only.</desc>`,
+      xml`    <src>Gapwise</src>`,
+      xml`    <type>suggested sample</type>`,
+      xml`  </wpt>`,
     );
   }
-  lines.push('</gpx>');
-  return `${lines.join('\n')}\n`;
+  lines.push(xml`</gpx>`);
+  return `${joinMarkup(lines, '\n').text}\n`;
 }

@@ -37,8 +37,9 @@ import {
 } from './project.ts';
 import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
 import {
-  crossValidationSvg, escapeXml, finiteRange, formatNumber, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
+  crossValidationSvg, finiteRange, formatNumber, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
 } from './report-svg.ts';
+import { html, joinMarkup, trusted, type Interpolation, type Markup } from './markup.ts';
 
 /** Surfaces of the whole grid (nx·ny cells each). */
 export interface ReportSurface {
@@ -253,16 +254,17 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
 
 // ------------------------------------------------------------------------------------ formatting
 
-const esc = escapeXml;
 const fmt = (v: number | null | undefined, digits = 4) => (v === null || v === undefined ? '–' : formatNumber(v, digits));
 
-function table(head: string[], rows: string[][], cls = ''): string {
-  return `<table${cls ? ` class="${cls}"` : ''}><thead><tr>${head.map((h) => `<th>${h}</th>`).join('')}</tr></thead>`
-    + `<tbody>${rows.map((r) => `<tr>${r.map((c) => `<td>${c}</td>`).join('')}</tr>`).join('')}</tbody></table>`;
+function table(head: Interpolation[], rows: Interpolation[][], cls = ''): Markup {
+  return joinMarkup([
+    html`<table${cls ? html` class="${cls}"` : ''}><thead><tr>${head.map((h) => html`<th>${h}</th>`)}</tr></thead>`,
+    html`<tbody>${rows.map((r) => html`<tr>${r.map((c) => html`<td>${c}</td>`)}</tr>`)}</tbody></table>`,
+  ]);
 }
 
-function keyValues(rows: Array<[string, string]>): string {
-  return `<table class="kv"><tbody>${rows.map(([k, v]) => `<tr><th scope="row">${k}</th><td>${v}</td></tr>`).join('')}</tbody></table>`;
+function keyValues(rows: Array<[Interpolation, Interpolation]>): Markup {
+  return html`<table class="kv"><tbody>${rows.map(([k, v]) => html`<tr><th scope="row">${k}</th><td>${v}</td></tr>`)}</tbody></table>`;
 }
 
 /** A figure in m², m³ or ha to 4 significant digits with thousands separators ("11,300"). */
@@ -294,41 +296,41 @@ function supportText(sim: ProjectSimulation, cell: number): string {
 }
 
 /** The "Area above the action level" section (HTML) for realisations that counted it. */
-export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold: number | null; cell: number | null }): string {
+export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold: number | null; cell: number | null }): Markup {
   const m = sim.summary!;
   const { unit } = o;
-  const u = unit ? ` ${esc(unit)}` : '';
+  const u = unit ? ` ${unit}` : '';
   const a = m.area;
-  const data = (name: string, v: number) => `data-figure="${name}" data-value="${esc(String(v))}"`;
-  const out: string[] = [];
-  out.push('<h2 id="area-above">Area above the action level</h2>');
-  out.push(`<p class="figure"><strong ${data('area-median', a.median)}>${formatQuantity(a.median)} m²</strong> (${hectares(a.median)} ha) above ${esc(fmt(m.threshold))}${u}; `
-    + `90 % interval <span ${data('area-p05', a.p05)}>${formatQuantity(a.p05)}</span> – <span ${data('area-p95', a.p95)}>${formatQuantity(a.p95)}</span> m² `
-    + `(${hectares(a.p05)} – ${hectares(a.p95)} ha).</p>`);
-  const rows: Array<[string, string]> = [
-    [`Area above ${esc(fmt(m.threshold))}${u} (median)`, `${formatQuantity(a.median)} m² = ${hectares(a.median)} ha`],
+  const data = (name: string, v: number) => html`data-figure="${name}" data-value="${String(v)}"`;
+  const out: Markup[] = [];
+  out.push(html`<h2 id="area-above">Area above the action level</h2>`);
+  out.push(joinMarkup([html`<p class="figure"><strong ${data('area-median', a.median)}>${formatQuantity(a.median)} m²</strong> (${hectares(a.median)} ha) above ${fmt(m.threshold)}${u}; `,
+    html`90 % interval <span ${data('area-p05', a.p05)}>${formatQuantity(a.p05)}</span> – <span ${data('area-p95', a.p95)}>${formatQuantity(a.p95)}</span> m² `,
+    html`(${hectares(a.p05)} – ${hectares(a.p95)} ha).</p>`]));
+  const rows: Array<[Interpolation, Interpolation]> = [
+    [`Area above ${fmt(m.threshold)}${u} (median)`, `${formatQuantity(a.median)} m² = ${hectares(a.median)} ha`],
     ['90 % interval (5 % – 95 %)', `${formatQuantity(a.p05)} – ${formatQuantity(a.p95)} m² = ${hectares(a.p05)} – ${hectares(a.p95)} ha`],
     ['Share of the mapped area', `${fmt(100 * m.fraction.median, 3)} % (${fmt(100 * m.fraction.p05, 3)} – ${fmt(100 * m.fraction.p95, 3)} %) of ${formatQuantity(m.activeCells * m.cell * m.cell)} m²`],
   ];
   if (m.volume) {
     const v = m.volume;
-    rows.push([`Volume to ${esc(fmt(v.depth))} m depth (median)`, `<span ${data('volume-median', v.median)}>${formatQuantity(v.median)} m³</span>`]);
+    rows.push([`Volume to ${fmt(v.depth)} m depth (median)`, html`<span ${data('volume-median', v.median)}>${formatQuantity(v.median)} m³</span>`]);
     rows.push(['Volume, 90 % interval (5 % – 95 %)', `${formatQuantity(v.p05)} – ${formatQuantity(v.p95)} m³`]);
   }
-  rows.push(['Realisations', `<span ${data('realisations', sim.count)}>${sim.count}</span>`]);
-  rows.push(['Seed', `<span ${data('seed', sim.seed)}>${sim.seed}</span>`]);
-  rows.push(['Support', esc(supportText(sim, m.cell))]);
-  if (m.method) rows.push(['Method', esc(m.method)]);
-  if (m.made) rows.push(['Drawn', esc(m.made)]);
+  rows.push(['Realisations', html`<span ${data('realisations', sim.count)}>${sim.count}</span>`]);
+  rows.push(['Seed', html`<span ${data('seed', sim.seed)}>${sim.seed}</span>`]);
+  rows.push(['Support', supportText(sim, m.cell)]);
+  if (m.method) rows.push(['Method', m.method]);
+  if (m.made) rows.push(['Drawn', m.made]);
   out.push(keyValues(rows));
   if (o.threshold !== null && o.threshold !== m.threshold) {
-    out.push(`<p class="warn">${esc(`These realisations counted the area above ${fmt(m.threshold)}${unit ? ` ${unit}` : ''}; the action level in this report is ${fmt(o.threshold)}. Draw them again for the current level.`)}</p>`);
+    out.push(html`<p class="warn">${`These realisations counted the area above ${fmt(m.threshold)}${unit ? ` ${unit}` : ''}; the action level in this report is ${fmt(o.threshold)}. Draw them again for the current level.`}</p>`);
   }
   if (o.cell !== null && o.cell !== m.cell) {
-    out.push(`<p class="warn">${esc(`These realisations were drawn on ${fmt(m.cell)} m cells; the maps in this report use ${fmt(o.cell)} m cells.`)}</p>`);
+    out.push(html`<p class="warn">These realisations were drawn on ${fmt(m.cell)} m cells; the maps in this report use ${fmt(o.cell)} m cells.</p>`);
   }
-  out.push(`<div class="caution" role="note" data-area-caution>${esc(AREA_CAUTION)}${esc(CAUTION)}</div>`);
-  return out.join('\n');
+  out.push(html`<div class="caution" role="note" data-area-caution>${AREA_CAUTION}${CAUTION}</div>`);
+  return joinMarkup(out, '\n');
 }
 
 /** The one line a report carries when no area estimate was made, saying how to make one. */
@@ -438,36 +440,36 @@ export function reportHtml(input: ReportInput): string {
   const title = project.title || `${valueName} screening map`;
   const work = r.crs.work;
   const s = r.summary;
-  const html: string[] = [];
+  const page: Markup[] = [];
 
-  html.push('<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">');
-  html.push(`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">`);
-  html.push('<meta name="viewport" content="width=device-width, initial-scale=1">');
-  html.push(`<meta name="generator" content="${esc(`${input.software.name} ${input.software.version}`)}">`);
-  html.push(`<title>${esc(title)} — Gapwise report</title><style>${STYLE}</style></head><body><main>`);
-  html.push(`<div class="footer-caution">${esc(CAUTION)}</div>`);
-  html.push(`<h1>${esc(title)}</h1>`);
-  html.push(`<p class="meta">Gapwise screening report · ${esc(created.slice(0, 10))} · ${esc(input.software.name)} ${esc(input.software.version)}</p>`);
-  html.push(`<div class="caution" role="note">${esc(CAUTION)}</div>`);
-  if (project.samples.invented) html.push('<div class="invented">The samples in this report are INVENTED demo data: they describe no real site.</div>');
-  html.push('<p class="hint">To keep a PDF, use the browser\'s Print command and choose "Save as PDF".</p>');
-  for (const w of input.warnings ?? []) html.push(`<p class="warn">${esc(w.message)}</p>`);
+  page.push(html`<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">`);
+  page.push(html`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">`);
+  page.push(html`<meta name="viewport" content="width=device-width, initial-scale=1">`);
+  page.push(html`<meta name="generator" content="${input.software.name} ${input.software.version}">`);
+  page.push(html`<title>${title} — Gapwise report</title><style>${trusted(STYLE)}</style></head><body><main>`);
+  page.push(html`<div class="footer-caution">${CAUTION}</div>`);
+  page.push(html`<h1>${title}</h1>`);
+  page.push(html`<p class="meta">Gapwise screening report · ${created.slice(0, 10)} · ${input.software.name} ${input.software.version}</p>`);
+  page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
+  if (project.samples.invented) page.push(html`<div class="invented">The samples in this report are INVENTED demo data: they describe no real site.</div>`);
+  page.push(html`<p class="hint">To keep a PDF, use the browser's Print command and choose "Save as PDF".</p>`);
+  for (const w of input.warnings ?? []) page.push(html`<p class="warn">${w.message}</p>`);
 
   // --- job summary ----------------------------------------------------------------------------
-  html.push('<h2>Summary</h2>');
-  const summary: Array<[string, string]> = [
-    ['Samples file', esc(project.samples.fileName)],
-    ['Value', `${esc(r.valueColumn)}${unit ? ` (unit ${esc(unit)})` : ''}`],
+  page.push(html`<h2>Summary</h2>`);
+  const summary: Array<[Interpolation, Interpolation]> = [
+    ['Samples file', project.samples.fileName],
+    ['Value', `${r.valueColumn}${unit ? ` (unit ${unit})` : ''}`],
     ['Samples used', `${r.rowsUsed} of ${r.rowsRead} rows read${intake.samples.value.length !== r.rowsUsed ? `; ${intake.samples.value.length} locations after merging duplicates` : ''}`],
-    ['Coordinates', `${esc(r.crs.input)} → working CRS ${esc(work)}`],
-    ['Model', model ? esc(modelText(model)) : 'none chosen'],
+    ['Coordinates', `${r.crs.input} → working CRS ${work}`],
+    ['Model', model ? modelText(model) : 'none chosen'],
   ];
   if (grid) summary.push(['Grid', `${fmt(grid.cell)} m cells, ${grid.nx} × ${grid.ny} (${cellCount(grid).toLocaleString('en')} cells ${grid.mask ? 'inside the boundary' : 'over the padded extent'})`]);
-  if (threshold !== null && threshold !== undefined) summary.push(['Threshold (action level)', esc(`${fmt(threshold)}${unit ? ` ${unit}` : ''}`)]);
+  if (threshold !== null && threshold !== undefined) summary.push(['Threshold (action level)', `${fmt(threshold)}${unit ? ` ${unit}` : ''}`]);
   if (surface && grid) {
     const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
-    summary.push(['Mean surface', esc(`${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`)]);
-    summary.push(['Uncertainty (sd)', esc(`${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`)]);
+    summary.push(['Mean surface', `${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`]);
+    summary.push(['Uncertainty (sd)', `${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`]);
     if (surface.pExceed) {
       let over = 0, likely = 0, active = 0, expected = 0;
       for (let k = 0; k < surface.pExceed.length; k++) {
@@ -483,108 +485,112 @@ export function reportHtml(input: ReportInput): string {
       summary.push(['Area very likely above the threshold', `${ha(likely)} ha (P ≥ 0.9)`]);
       // E[area above T] = Σ P(exceed)·cell area (linearity of expectation): cells with a moderate
       // chance count in part, so it can well exceed the P ≥ 0.5 area; realisations give its spread.
-      summary.push(['Expected area above the threshold', `<span data-figure="expected-area" data-value="${expected * grid.cell * grid.cell}">${ha(expected)} ha</span> (Σ P(exceed) × cell area: cells with a moderate chance count in part)`]);
+      summary.push(['Expected area above the threshold', html`<span data-figure="expected-area" data-value="${expected * grid.cell * grid.cell}">${ha(expected)} ha</span> (Σ P(exceed) × cell area: cells with a moderate chance count in part)`]);
     }
   }
-  if (cv) summary.push(['Cross-validation', esc(`RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`)]);
+  if (cv) summary.push(['Cross-validation', `RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`]);
   if (project.suggestions?.length) summary.push(['Suggested next samples', String(project.suggestions.length)]);
   const sim = input.simulation === undefined ? (project.simulation?.summary ? project.simulation : null) : input.simulation;
   if (sim?.summary) {
-    summary.push(['Area above the action level (realisations)', `${esc(areaFigureText(sim, unit))}; <a href="#area-above">method and caution below</a>`]);
+    summary.push(['Area above the action level (realisations)', html`${areaFigureText(sim, unit)}; <a href="#area-above">method and caution below</a>`]);
   } else if (model) {
-    summary.push(['Area above the action level (with interval)', `<span data-no-area>${esc(noAreaText(project.threshold !== null))}</span>`]);
+    summary.push(['Area above the action level (with interval)', html`<span data-no-area>${noAreaText(project.threshold !== null)}</span>`]);
   }
-  html.push(keyValues(summary));
-  if (sim?.summary) html.push(areaSection(sim, { unit, threshold: project.threshold, cell: grid?.cell ?? null }));
+  page.push(keyValues(summary));
+  if (sim?.summary) page.push(areaSection(sim, { unit, threshold: project.threshold, cell: grid?.cell ?? null }));
 
   // --- samples -------------------------------------------------------------------------------
-  html.push('<h2 class="page">Samples</h2>');
-  html.push('<h3>Data summary</h3>');
-  html.push(table(['n', 'min', 'median', 'mean', 'max', 'sd', 'skewness'],
-    [[String(s.n), fmt(s.min), fmt(s.median), fmt(s.mean), fmt(s.max), fmt(s.sd), fmt(s.skewness, 3)].map((c) => esc(c))]));
-  html.push(`<figure>${histogramSvg(intake.samples.value, { title: `Histogram of ${valueName}`, axis: u(valueName), threshold })}<figcaption>Values as used (non-detects substituted, duplicates ${esc(r.duplicates.rule === 'merge' ? 'merged' : 'kept')}).${threshold !== null && threshold !== undefined ? ' Dashed: the threshold.' : ''}</figcaption></figure>`);
+  page.push(html`<h2 class="page">Samples</h2>`);
+  page.push(html`<h3>Data summary</h3>`);
+  page.push(table(['n', 'min', 'median', 'mean', 'max', 'sd', 'skewness'],
+    [[String(s.n), fmt(s.min), fmt(s.median), fmt(s.mean), fmt(s.max), fmt(s.sd), fmt(s.skewness, 3)]]));
+  page.push(html`<figure>${histogramSvg(intake.samples.value, { title: `Histogram of ${valueName}`, axis: u(valueName), threshold })}<figcaption>Values as used (non-detects substituted, duplicates ${r.duplicates.rule === 'merge' ? 'merged' : 'kept'}).${threshold !== null && threshold !== undefined ? ' Dashed: the threshold.' : ''}</figcaption></figure>`);
   if (log) {
     const lnValues = Float64Array.from(intake.samples.value, Math.log);
-    html.push(`<figure>${histogramSvg(lnValues, { title: `Histogram of ln(${valueName})`, axis: `ln(${valueName})`, threshold: threshold !== null && threshold !== undefined && threshold > 0 ? Math.log(threshold) : null })}<figcaption>The values on the log scale the model was fitted on.</figcaption></figure>`);
+    page.push(html`<figure>${histogramSvg(lnValues, { title: `Histogram of ln(${valueName})`, axis: `ln(${valueName})`, threshold: threshold !== null && threshold !== undefined && threshold > 0 ? Math.log(threshold) : null })}<figcaption>The values on the log scale the model was fitted on.</figcaption></figure>`);
   }
-  html.push('<h3>What was read</h3>');
-  const read: Array<[string, string]> = [
-    ['File', `${esc(r.fileName)} (${esc(r.format.toUpperCase())}${r.delimiter ? `, delimiter ${esc(r.delimiter === '\t' ? 'tab' : `"${r.delimiter}"`)}` : ''})`],
+  page.push(html`<h3>What was read</h3>`);
+  const read: Array<[Interpolation, Interpolation]> = [
+    ['File', `${r.fileName} (${r.format.toUpperCase()}${r.delimiter ? `, delimiter ${r.delimiter === '\t' ? 'tab' : `"${r.delimiter}"`}` : ''})`],
     ['Rows', `${r.rowsRead} read, ${r.rowsUsed} used`],
-    ['Columns', `x ${esc(r.xColumn)}, y ${esc(r.yColumn)}, value ${esc(r.valueColumn)}${r.idColumn ? `, id ${esc(r.idColumn)}` : ''}`],
-    ['CRS', `${esc(r.crs.input)} (${esc(r.crs.detection)}); working CRS ${esc(r.crs.work)}`],
-    ['Non-detects', `${r.nonDetects.count} (rule: ${esc(r.nonDetects.rule === 'half' ? 'half the detection limit' : r.nonDetects.rule === 'dl' ? 'the detection limit' : 'the limit divided by √2')}). ${esc(r.nonDetects.note)}`],
-    ['Duplicate locations', `${r.duplicates.groups} group(s), ${esc(r.duplicates.rule === 'merge' ? 'merged into their mean' : 'kept')} (tolerance ${fmt(r.duplicates.tolerance)} m)`],
+    ['Columns', `x ${r.xColumn}, y ${r.yColumn}, value ${r.valueColumn}${r.idColumn ? `, id ${r.idColumn}` : ''}`],
+    ['CRS', `${r.crs.input} (${r.crs.detection}); working CRS ${r.crs.work}`],
+    ['Non-detects', `${r.nonDetects.count} (rule: ${r.nonDetects.rule === 'half' ? 'half the detection limit' : r.nonDetects.rule === 'dl' ? 'the detection limit' : 'the limit divided by √2'}). ${r.nonDetects.note}`],
+    ['Duplicate locations', `${r.duplicates.groups} group(s), ${r.duplicates.rule === 'merge' ? 'merged into their mean' : 'kept'} (tolerance ${fmt(r.duplicates.tolerance)} m)`],
     ['Outliers flagged', `${r.outliers.length} (beyond 3 IQR from the quartiles; kept)`],
   ];
-  if (r.transformAdvice) read.push(['Transform advice', esc(r.transformAdvice)]);
-  html.push(keyValues(read));
-  for (const w of r.warnings) html.push(`<p class="warn">${esc(w.message)}</p>`);
+  if (r.transformAdvice) read.push(['Transform advice', r.transformAdvice]);
+  page.push(keyValues(read));
+  for (const w of r.warnings) page.push(html`<p class="warn">${w.message}</p>`);
   if (r.entries.length) {
     const shown = r.entries.slice(0, 40);
-    html.push(table(['where', 'field', 'raw', 'action', 'reason'], shown.map((e) => [
-      esc(e.line !== undefined ? `line ${e.line}` : e.feature !== undefined ? `feature ${e.feature}` : ''),
-      esc(e.field ?? ''), esc((e.raw ?? '').slice(0, 60)), esc(e.action), esc(e.reason),
+    page.push(table(['where', 'field', 'raw', 'action', 'reason'], shown.map((e) => [
+      e.line !== undefined ? `line ${e.line}` : e.feature !== undefined ? `feature ${e.feature}` : '',
+      e.field ?? '', (e.raw ?? '').slice(0, 60), e.action, e.reason,
     ]), 'entries'));
-    if (r.entries.length > shown.length) html.push(`<p>… and ${r.entries.length - shown.length} more entries.</p>`);
+    if (r.entries.length > shown.length) page.push(html`<p>… and ${r.entries.length - shown.length} more entries.</p>`);
   }
 
   // --- structure -----------------------------------------------------------------------------
-  html.push('<h2 class="page">Spatial structure</h2>');
+  page.push(html`<h2 class="page">Spatial structure</h2>`);
   const vgr = input.variogram;
   if (vgr) {
     const scaleNote = log ? `ln(${valueName})` : valueName;
     const maxLag = vgr.options.maxLag;
-    html.push(`<figure>${variogramSvg(vgr.lags, model ? modelCurve(model, maxLag) : [], {
+    page.push(html`<figure>${variogramSvg(vgr.lags, model ? modelCurve(model, maxLag) : [], {
       title: `Variogram of ${scaleNote}${model ? ' with the chosen model' : ''}`,
       axis: log ? 'semivariance (ln units²)' : unit ? `semivariance (${unit})²` : 'semivariance',
-    })}<figcaption>${esc(`${vgr.options.estimator === 'matheron' ? 'Matheron' : 'Cressie–Hawkins'} estimator, lag width ${fmt(vgr.options.lagWidth)} m, up to ${fmt(maxLag)} m; numbers are pair counts.`)}</figcaption></figure>`);
-    for (const n of vgr.notes) html.push(`<p class="hint">${esc(n)}</p>`);
-    for (const w of vgr.warnings) html.push(`<p class="warn">${esc(w.message)}</p>`);
+    })}<figcaption>${vgr.options.estimator === 'matheron' ? 'Matheron' : 'Cressie–Hawkins'} estimator, lag width ${fmt(vgr.options.lagWidth)} m, up to ${fmt(maxLag)} m; numbers are pair counts.</figcaption></figure>`);
+    for (const n of vgr.notes) page.push(html`<p class="hint">${n}</p>`);
+    for (const w of vgr.warnings) page.push(html`<p class="warn">${w.message}</p>`);
   }
   if (model) {
-    html.push('<h3>Chosen model</h3>');
-    const rows: Array<[string, string]> = [['Model', esc(modelText(model))]];
+    page.push(html`<h3>Chosen model</h3>`);
+    const rows: Array<[Interpolation, Interpolation]> = [['Model', modelText(model)]];
     if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
     if (model.fit) {
-      rows.push(['Fit', esc(`${model.fit.method}${model.fit.logLikelihood !== undefined ? `, log-likelihood ${fmt(model.fit.logLikelihood, 6)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic, 6)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`)]);
-      for (const w of model.fit.warnings ?? []) rows.push(['Fit note', esc(String(w))]);
+      rows.push(['Fit', `${model.fit.method}${model.fit.logLikelihood !== undefined ? `, log-likelihood ${fmt(model.fit.logLikelihood, 6)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic, 6)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`]);
+      for (const w of model.fit.warnings ?? []) rows.push(['Fit note', String(w)]);
     }
-    html.push(keyValues(rows));
+    page.push(keyValues(rows));
   }
-  html.push('<h3>Model comparison</h3>');
+  page.push(html`<h3>Model comparison</h3>`);
   if (input.comparison.length) {
     const ll = input.comparison.map((c) => c.aic).filter((a): a is number => a !== null && Number.isFinite(a));
     const best = ll.length ? Math.min(...ll) : NaN;
-    html.push(`<table><thead><tr><th>model</th><th class="num">log-likelihood</th><th class="num">AIC</th><th class="num">ΔAIC</th><th class="num">RMSE${log ? ' (ln)' : ''}</th><th class="num">MSSE</th></tr></thead><tbody>`
-      + input.comparison.map((c) => `<tr${c.key === project.structure.chosen ? ' class="chosen"' : ''}><td>${esc(c.label)}${c.key === project.structure.chosen ? ' (chosen)' : ''}${c.error ? `<br><small>${esc(c.error)}</small>` : ''}</td>`
-        + `<td class="num">${fmt(c.logLikelihood, 6)}</td><td class="num">${fmt(c.aic, 6)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`
-        + `<td class="num">${fmt(c.rmse)}</td><td class="num">${fmt(c.msse, 3)}</td></tr>`).join('')
-      + '</tbody></table>');
-    html.push('<p class="hint">AIC compares models fitted to the same data with the same trend; lower is better. RMSE and MSSE from leave-one-out cross-validation (MSSE near 1: the uncertainty is honest).</p>');
+    page.push(joinMarkup([
+      html`<table><thead><tr><th>model</th><th class="num">log-likelihood</th><th class="num">AIC</th><th class="num">ΔAIC</th><th class="num">RMSE${log ? ' (ln)' : ''}</th><th class="num">MSSE</th></tr></thead><tbody>`,
+      ...input.comparison.map((c) => joinMarkup([
+        html`<tr${c.key === project.structure.chosen ? html` class="chosen"` : ''}><td>${c.label}${c.key === project.structure.chosen ? ' (chosen)' : ''}${c.error ? html`<br><small>${c.error}</small>` : ''}</td>`,
+        html`<td class="num">${fmt(c.logLikelihood, 6)}</td><td class="num">${fmt(c.aic, 6)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`,
+        html`<td class="num">${fmt(c.rmse)}</td><td class="num">${fmt(c.msse, 3)}</td></tr>`,
+      ])),
+      html`</tbody></table>`,
+    ]));
+    page.push(html`<p class="hint">AIC compares models fitted to the same data with the same trend; lower is better. RMSE and MSSE from leave-one-out cross-validation (MSSE near 1: the uncertainty is honest).</p>`);
   } else {
-    html.push('<p>No comparison was made.</p>');
+    page.push(html`<p>No comparison was made.</p>`);
   }
 
   // --- cross-validation ------------------------------------------------------------------------
   if (cv) {
-    html.push('<h2>Cross-validation</h2>');
+    page.push(html`<h2>Cross-validation</h2>`);
     const cvUnit = cv.scale === 'log' ? `ln(${valueName})` : u(valueName);
-    html.push(keyValues([
+    page.push(keyValues([
       ['Samples', String(cv.summary.n)],
-      ['Mean error (about 0 when unbiased)', esc(fmt(cv.summary.me))],
-      ['RMSE', esc(`${fmt(cv.summary.rmse)} ${cv.scale === 'log' ? 'ln units' : unit}`)],
-      ['MSSE (about 1 when the sd is honest)', esc(fmt(cv.summary.msse, 3))],
-      ['Inside their 95 % interval (about 95 %)', esc(`${fmt(100 * cv.summary.coverage95, 3)} %`)],
+      ['Mean error (about 0 when unbiased)', fmt(cv.summary.me)],
+      ['RMSE', `${fmt(cv.summary.rmse)} ${cv.scale === 'log' ? 'ln units' : unit}`],
+      ['MSSE (about 1 when the sd is honest)', fmt(cv.summary.msse, 3)],
+      ['Inside their 95 % interval (about 95 %)', `${fmt(100 * cv.summary.coverage95, 3)} %`],
     ]));
     const observed = new Float64Array(cv.prediction.length);
     for (let i = 0; i < observed.length; i++) observed[i] = cv.prediction[i] - cv.error[i];
-    html.push(`<figure>${crossValidationSvg(observed, cv.prediction, { title: 'Leave-one-out: predicted against observed', axisX: `observed ${cvUnit}`, axisY: `predicted ${cvUnit}` })}<figcaption>Each sample predicted from all the others with the chosen model; dashed: 1:1.</figcaption></figure>`);
+    page.push(html`<figure>${crossValidationSvg(observed, cv.prediction, { title: 'Leave-one-out: predicted against observed', axisX: `observed ${cvUnit}`, axisY: `predicted ${cvUnit}` })}<figcaption>Each sample predicted from all the others with the chosen model; dashed: 1:1.</figcaption></figure>`);
   }
 
   // --- maps ----------------------------------------------------------------------------------
   if (surface && grid) {
-    html.push('<h2 class="page">Maps</h2>');
+    page.push(html`<h2 class="page">Maps</h2>`);
     const rings = input.boundary?.work.flatMap((p) => p.rings);
     const north = northAngle(grid, work);
     const suggestions = project.suggestions?.map((x) => ({ rank: x.rank, x: x.x, y: x.y }));
@@ -593,7 +599,7 @@ export function reportHtml(input: ReportInput): string {
       const shownDomain: [number, number] = logColours ? [Math.log(domain[0]), Math.log(domain[1])] : domain;
       const svg = mapSvg({ title: name, grid, values: shown, domain: shownDomain, lut: luts[kind], samples: intake.samples, rings, suggestions, northAngle: north });
       const legend = legendBarSvg({ title: name, domain, lut: luts[kind], idPrefix: `legend-${kind}`, ticks, log: logColours });
-      html.push(`<figure class="map">${svg}<div>${legend}</div><figcaption>${esc(caption)}</figcaption></figure>`);
+      page.push(html`<figure class="map">${svg}<div>${legend}</div><figcaption>${caption}</figcaption></figure>`);
     };
     const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
     // A log model's surfaces span orders of magnitude: colours then follow ln(value).
@@ -608,44 +614,44 @@ export function reportHtml(input: ReportInput): string {
       map('pExceed', surface.pExceed, `P(${valueName} > ${fmt(threshold)}${unit ? ` ${unit}` : ''})`, [0, 1],
         'Chance that the true value exceeds the threshold: 0.5 means as likely as not.', [0, 0.25, 0.5, 0.75, 1]);
     }
-    html.push(`<p class="hint">Maps are drawn north-up in ${esc(work)}; the arrow shows true north.</p>`);
+    page.push(html`<p class="hint">Maps are drawn north-up in ${work}; the arrow shows true north.</p>`);
   }
 
   // --- suggestions ---------------------------------------------------------------------------
   const sug: Suggestion[] = project.suggestions ?? [];
   if (sug.length) {
-    html.push('<h2 class="page">Suggested next samples</h2>');
-    html.push(table(['rank', 'longitude', 'latitude', `x (${esc(work)})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
+    page.push(html`<h2 class="page">Suggested next samples</h2>`);
+    page.push(table(['rank', 'longitude', 'latitude', `x (${work})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
       sug.map((x) => [String(x.rank), fmt(x.lon, 9), fmt(x.lat, 9), fmt(x.x, 9), fmt(x.y, 9), fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined ? '–' : fmt(x.pExceed, 3)]
-        .map((c) => esc(c)))));
-    if (project.suggestOptions) html.push(`<p class="hint">Made with ${esc(JSON.stringify(project.suggestOptions))}.</p>`);
+        )));
+    if (project.suggestOptions) page.push(html`<p class="hint">Made with ${JSON.stringify(project.suggestOptions)}.</p>`);
   }
 
   // --- reproduce -----------------------------------------------------------------------------
-  html.push('<h2 class="page">How to reproduce</h2>');
+  page.push(html`<h2 class="page">How to reproduce</h2>`);
   const intakeOptions = { fileName: project.samples.fileName, ...project.samples.intake };
-  const params: Array<[string, string]> = [
-    ['Software', esc(`${input.software.name} ${input.software.version}`)],
-    ['Report made', esc(created)],
-    ['Project saved', esc(project.saved || '–')],
-    ['Samples file', esc(`${project.samples.fileName} (${project.samples.text.length.toLocaleString('en')} characters, kept inside the project)`)],
-    ['Reading options', `<code>${esc(JSON.stringify(intakeOptions))}</code>`],
-    ['Coordinate systems', esc(`input ${r.crs.input}, working ${work}`)],
-    ['Boundary', esc(project.boundary ? `${project.boundary.fileName} (${project.grid.area === 'boundary' ? 'used as the grid area' : 'not used for the grid'})` : 'none')],
-    ['Variogram settings', esc(JSON.stringify(input.variogram?.options ?? project.structure.variogram))],
-    ['Fitting', esc(`method ${project.structure.method}, transform ${project.structure.transform}, chosen candidate ${project.structure.chosen || '–'}`)],
-    ['Grid', esc(grid ? JSON.stringify({ ...gridGeometry(grid), area: project.grid.area, padding: project.grid.padding, cellSizeAsked: project.grid.cellSize }) : '–')],
-    ['Threshold', esc(project.threshold === null ? 'none' : String(project.threshold))],
+  const params: Array<[Interpolation, Interpolation]> = [
+    ['Software', `${input.software.name} ${input.software.version}`],
+    ['Report made', created],
+    ['Project saved', project.saved || '–'],
+    ['Samples file', `${project.samples.fileName} (${project.samples.text.length.toLocaleString('en')} characters, kept inside the project)`],
+    ['Reading options', html`<code>${JSON.stringify(intakeOptions)}</code>`],
+    ['Coordinate systems', `input ${r.crs.input}, working ${work}`],
+    ['Boundary', project.boundary ? `${project.boundary.fileName} (${project.grid.area === 'boundary' ? 'used as the grid area' : 'not used for the grid'})` : 'none'],
+    ['Variogram settings', JSON.stringify(input.variogram?.options ?? project.structure.variogram)],
+    ['Fitting', `method ${project.structure.method}, transform ${project.structure.transform}, chosen candidate ${project.structure.chosen || '–'}`],
+    ['Grid', grid ? JSON.stringify({ ...gridGeometry(grid), area: project.grid.area, padding: project.grid.padding, cellSizeAsked: project.grid.cellSize }) : '–'],
+    ['Threshold', project.threshold === null ? 'none' : String(project.threshold)],
   ];
-  if (sim) params.push(['Realisations', esc(JSON.stringify({ count: sim.count, seed: sim.seed, support: sim.support, blockPoints: sim.blockPoints, depth: sim.depth }))]);
-  html.push(keyValues(params));
-  if (model) html.push(`<h3>Model (JSON)</h3><pre>${esc(JSON.stringify(model, null, 2))}</pre>`);
-  html.push('<p>The project file holds the samples text and all of the above. With it, the command line gives the same numbers:</p>');
+  if (sim) params.push(['Realisations', JSON.stringify({ count: sim.count, seed: sim.seed, support: sim.support, blockPoints: sim.blockPoints, depth: sim.depth })]);
+  page.push(keyValues(params));
+  if (model) page.push(html`<h3>Model (JSON)</h3><pre>${JSON.stringify(model, null, 2)}</pre>`);
+  page.push(html`<p>The project file holds the samples text and all of the above. With it, the command line gives the same numbers:</p>`);
   const simArgs = sim
     ? ` --realizations ${sim.count} --seed ${sim.seed}${sim.support === 'block' ? ` --support block --block-points ${sim.blockPoints}` : ''}${sim.depth !== null ? ` --depth ${sim.depth}` : ''}`
     : '';
-  html.push(`<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json${esc(simArgs)} --out report.html</pre>`);
-  html.push(`<div class="caution" role="note">${esc(CAUTION)}</div>`);
-  html.push('</main></body></html>\n');
-  return html.join('\n');
+  page.push(html`<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json${simArgs} --out report.html</pre>`);
+  page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
+  page.push(html`</main></body></html>\n`);
+  return joinMarkup(page, '\n').text;
 }

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { suggestionsToGpx, waypointName, xmlEscape } from '../../src/io/gpx.ts';
+import { suggestionsToGpx, waypointName } from '../../src/io/gpx.ts';
+import { escapeText } from '../../src/io/markup.ts';
 import type { ExportableDesign } from '../../src/io/suggestions-export.ts';
 import { CAUTION } from '../../src/core/caution.ts';
 
@@ -79,7 +80,7 @@ describe('suggestionsToGpx', () => {
   it('suggestionsToGpx puts the caution in the metadata desc and escapes text', () => {
     expect(xml).toContain('<name>Yard &lt;north&gt; &amp; &quot;east&quot;</name>');
     const desc = /<metadata>[\s\S]*?<desc>([\s\S]*?)<\/desc>/.exec(xml)![1];
-    expect(desc).toContain(CAUTION.replace(/'/g, '&apos;'));
+    expect(desc).toContain(CAUTION.replace(/'/g, '&#39;'));
     expect(xml).toContain('<time>2025-03-04T09:30:15Z</time>');
   });
 
@@ -101,9 +102,9 @@ describe('suggestionsToGpx', () => {
   });
 });
 
-describe('xmlEscape', () => {
-  it('xmlEscape escapes the five special characters and drops control characters', () => {
-    expect(xmlEscape('a<b>&"c\'\u0001d')).toBe('a&lt;b&gt;&amp;&quot;c&apos;d');
+describe('escapeText', () => {
+  it('escapeText escapes the five special characters and drops the control characters XML 1.0 forbids', () => {
+    expect(escapeText('a<b>&"c\'\u0001d')).toBe('a&lt;b&gt;&amp;&quot;c&#39;d');
   });
 });
 

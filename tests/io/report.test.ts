@@ -15,7 +15,8 @@ import { exceedanceArea } from '../../src/core/exceedance-area.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { DEFAULT_LUT_HEX, defaultLuts, colourAtT, paletteIndices, lutFromRgba } from '../../src/io/report-colours.ts';
 import { adler32, base64, crc32, palettePng } from '../../src/io/report-png.ts';
-import { escapeXml, logTicks, niceTicks, scaleBarLength } from '../../src/io/report-svg.ts';
+import { logTicks, niceTicks, scaleBarLength } from '../../src/io/report-svg.ts';
+import { escapeText } from '../../src/io/markup.ts';
 import { buildLut } from '../../src/ui/map/colour-scales.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
 import { computeSurface } from '../../src/core/surface.ts';
@@ -198,7 +199,7 @@ describe('reportHtml: area above the action level', () => {
   });
 
   it('areaSection shows the median with its 90 % interval in m², ha and m³, the settings, the method and the caution beside it', () => {
-    const html = areaSection(savedSimulation(), { unit: 'mg/L', threshold: 25, cell: 10 });
+    const html = String(areaSection(savedSimulation(), { unit: 'mg/L', threshold: 25, cell: 10 }));
     expect(html).toContain('<h2 id="area-above">Area above the action level</h2>');
     expect(html).toContain('<strong data-figure="area-median" data-value="12300">12,300 m²</strong> (1.23 ha) above 25 mg/L');
     expect(html).toContain('90 % interval (5 % – 95 %)</th><td>9,800 – 15,100 m² = 0.98 – 1.51 ha');
@@ -318,12 +319,12 @@ describe('report colours and drawing helpers', () => {
     expect(northAngle(grid, 'local')).toBeNull();
   });
 
-  it('niceTicks, logTicks, scaleBarLength, escapeXml and candidateLabel give round, readable values', () => {
+  it('niceTicks, logTicks, scaleBarLength, escapeText and candidateLabel give round, readable values', () => {
     expect(niceTicks(0, 1, 4)).toEqual([0, 0.2, 0.4, 0.6, 0.8, 1]);
     expect(logTicks(3, 1500)).toEqual([5, 10, 20, 50, 100, 200, 500, 1000]);
     expect(scaleBarLength(430)).toBe(200);
     expect(scaleBarLength(90)).toBe(50);
-    expect(escapeXml('<a href="x">&\'')).toBe('&lt;a href=&quot;x&quot;&gt;&amp;&#39;');
+    expect(escapeText('<a href="x">&\'')).toBe('&lt;a href=&quot;x&quot;&gt;&amp;&#39;');
     expect(candidateLabel('matern', 1.5)).toBe('Matérn ν = 3/2');
     expect(candidateLabel('matern', 'free')).toBe('Matérn, ν estimated');
   });

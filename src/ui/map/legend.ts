@@ -4,6 +4,7 @@
  * Every text that comes from the user (unit, title) is escaped before it enters the SVG.
  */
 import { SCALES, colourAt, hex, type ScaleName } from './colour-scales.ts';
+import { html, type Markup } from '../../io/markup.ts';
 
 export type LegendKind = 'mean' | 'sd' | 'pExceed';
 
@@ -138,11 +139,6 @@ export function legendData(options: LegendOptions): LegendData {
   return data;
 }
 
-/** Escapes text for SVG/XML content and attribute values. */
-export function escapeXml(text: string): string {
-  return text.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c] as string);
-}
-
 export interface LegendSvgOptions {
   /** Total width in px (default 260). */
   width?: number;
@@ -161,35 +157,35 @@ export function legendSvg(data: LegendData, options: LegendSvgOptions = {}): str
   const pad = 8;
   const barWidth = width - 2 * pad;
   const id = `${(options.idPrefix ?? 'gapwise-legend').replace(/[^A-Za-z0-9_-]/g, '')}-${data.kind}`;
-  const parts: string[] = [];
+  const parts: Markup[] = [];
   let y = pad + font;
-  parts.push(`<text x="${pad}" y="${y}" font-weight="600">${escapeXml(data.title)}</text>`);
+  parts.push(html`<text x="${pad}" y="${y}" font-weight="600">${data.title}</text>`);
   y += 6;
   if (data.classes) {
     const row = font + 6;
     for (const c of data.classes) {
-      parts.push(`<rect x="${pad}" y="${y}" width="${font + 4}" height="${font + 2}" fill="${c.colour}" stroke="#0003"/>`);
-      parts.push(`<text x="${pad + font + 10}" y="${y + font}">${escapeXml(c.label)}</text>`);
+      parts.push(html`<rect x="${pad}" y="${y}" width="${font + 4}" height="${font + 2}" fill="${c.colour}" stroke="#0003"/>`);
+      parts.push(html`<text x="${pad + font + 10}" y="${y + font}">${c.label}</text>`);
       y += row;
     }
   } else {
     const barHeight = 14;
-    parts.push(`<defs><linearGradient id="${id}" x1="0" x2="1" y1="0" y2="0">${data.gradient
-      .map((s) => `<stop offset="${(s.t * 100).toFixed(1)}%" stop-color="${s.colour}"/>`).join('')}</linearGradient></defs>`);
-    parts.push(`<rect x="${pad}" y="${y}" width="${barWidth}" height="${barHeight}" fill="url(#${id})" stroke="#0003"/>`);
+    parts.push(html`<defs><linearGradient id="${id}" x1="0" x2="1" y1="0" y2="0">${data.gradient
+      .map((s) => html`<stop offset="${(s.t * 100).toFixed(1)}%" stop-color="${s.colour}"/>`)}</linearGradient></defs>`);
+    parts.push(html`<rect x="${pad}" y="${y}" width="${barWidth}" height="${barHeight}" fill="url(#${id})" stroke="#0003"/>`);
     y += barHeight;
     for (const t of data.ticks) {
       const x = (pad + t.t * barWidth).toFixed(1);
       const anchor = t.t < 0.05 ? 'start' : t.t > 0.95 ? 'end' : 'middle';
-      parts.push(`<line x1="${x}" x2="${x}" y1="${y}" y2="${y + 4}" stroke="#333"/>`);
-      parts.push(`<text x="${x}" y="${y + 4 + font}" text-anchor="${anchor}">${escapeXml(t.label)}</text>`);
+      parts.push(html`<line x1="${x}" x2="${x}" y1="${y}" y2="${y + 4}" stroke="#333"/>`);
+      parts.push(html`<text x="${x}" y="${y + 4 + font}" text-anchor="${anchor}">${t.label}</text>`);
     }
     y += 4 + font;
   }
   if (options.footnote) {
     y += font + 4;
-    parts.push(`<text x="${pad}" y="${y}" font-size="${Math.round(font * 0.85)}" fill="#444">${escapeXml(options.footnote)}</text>`);
+    parts.push(html`<text x="${pad}" y="${y}" font-size="${Math.round(font * 0.85)}" fill="#444">${options.footnote}</text>`);
   }
   const height = Math.ceil(y + pad);
-  return `<svg xmlns="http://www.w3.org/2000/svg" width="${width}" height="${height}" viewBox="0 0 ${width} ${height}" role="img" aria-label="${escapeXml(data.title)}" font-family="system-ui, sans-serif" font-size="${font}"><title>${escapeXml(data.title)}</title>${parts.join('')}</svg>`;
+  return html`<svg xmlns="http://www.w3.org/2000/svg" width="${width}" height="${height}" viewBox="0 0 ${width} ${height}" role="img" aria-label="${data.title}" font-family="system-ui, sans-serif" font-size="${font}"><title>${data.title}</title>${parts}</svg>`.text;
 }

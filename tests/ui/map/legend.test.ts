@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { escapeXml, formatValue, legendData, legendSvg, niceTicks } from '../../../src/ui/map/legend.ts';
+import { formatValue, legendData, legendSvg, niceTicks } from '../../../src/ui/map/legend.ts';
+import { escapeText } from '../../../src/io/markup.ts';
 import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
 
 describe('niceTicks', () => {
@@ -85,7 +86,7 @@ describe('legendSvg', () => {
     expect(svg).not.toContain('linearGradient');
   });
 
-  it('escapeXml replaces the five XML specials', () => {
-    expect(escapeXml(`<a href="x">'&'</a>`)).toBe('&lt;a href=&quot;x&quot;&gt;&#39;&amp;&#39;&lt;/a&gt;');
+  it('escapeText replaces the five XML specials', () => {
+    expect(escapeText(`<a href="x">'&'</a>`)).toBe('&lt;a href=&quot;x&quot;&gt;&#39;&amp;&#39;&lt;/a&gt;');
   });
 });
