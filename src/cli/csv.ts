@@ -5,12 +5,10 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import { detectDelimiter, normaliseText } from '../io/csv.ts';
+import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
 
-/** Quotes a cell when it holds the delimiter, a quote or a line break (RFC 4180). */
-export function csvCell(text: string, delimiter = ','): string {
-  if (text.includes(delimiter) || /["\r\n]/.test(text)) return `"${text.replace(/"/g, '""')}"`;
-  return text;
-}
+/** Cells are written by io/csv-cells.ts: quoted (RFC 4180), formula-leading text neutralised. */
+export { csvCell, csvLine, CSV_CAUTION, FORMULA_NOTE } from '../io/csv-cells.ts';
 
 /** A number for a CSV or report: up to 12 significant digits, no trailing zeros; NaN as empty. */
 export function formatNumber(v: number): string {
@@ -18,11 +16,6 @@ export function formatNumber(v: number): string {
   if (!Number.isFinite(v)) return v > 0 ? 'inf' : '-inf';
   if (v === 0) return '0';
   return String(Number(v.toPrecision(12)));
-}
-
-/** One CSV line from cells. */
-export function csvLine(cells: readonly string[], delimiter = ','): string {
-  return cells.map((c) => csvCell(c, delimiter)).join(delimiter);
 }
 
 export interface CsvRecord {
@@ -40,6 +33,15 @@ export interface CsvTable {
   newline: string;
   header: CsvRecord;
   records: CsvRecord[];
+}
+
+/**
+ * A record to write back: its raw text when no cell is formula-leading text, else its cells written
+ * again with those cells neutralised (so a targets file's `=HYPERLINK(…)` id does not reach the output
+ * as a formula).
+ */
+export function recordText(record: CsvRecord, delimiter: string): string {
+  return record.cells.some((c) => neutraliseFormula(c) !== c) ? csvLine(record.cells, delimiter) : record.raw;
 }
 
 /**

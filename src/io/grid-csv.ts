@@ -2,10 +2,11 @@
  * Surfaces as a CSV table, one row per active cell (cells outside the boundary are left out):
  * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees), mean, sd and, with a threshold,
  * p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
- * ("# " + the screening caution and what the columns are); most CSV readers skip it with a comment
- * option (pandas `comment="#"`, R `comment.char = "#"`), and `caution: false` leaves it out.
+ * ("# " + the screening caution, the note on text cells and what the columns are; io/csv-cells.ts
+ * `csvComment`); most CSV readers skip it with a comment option (pandas `comment="#"`, R
+ * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
  */
-import { CAUTION } from '../core/caution.ts';
+import { CSV_CAUTION, csvComment } from './csv-cells.ts';
 import type { Grid } from '../core/grid.ts';
 import { cellCentres } from '../core/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
@@ -47,7 +48,7 @@ export function surfaceGridCsv(input: GridCsvInput): string {
   if (input.caution !== false) {
     const what = `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
       + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
-    lines.push(`# ${CAUTION} ${what.replace(/[\r\n]+/g, ' ')}`);
+    lines.push(csvComment(`${CSV_CAUTION} ${what}`));
   }
   lines.push(header.join(','));
   const dm = digitsOf(surface.mean), ds = digitsOf(surface.sd), dp = surface.pExceed ? digitsOf(surface.pExceed) : 17;

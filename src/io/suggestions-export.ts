@@ -7,6 +7,7 @@
 import { GapwiseError } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import type { DesignResult, Suggestion } from '../core/design.ts';
+import { csvLine } from './csv-cells.ts';
 
 /** What the exports need of a design: its suggestions (lon and lat filled) and its summary. */
 export type ExportableDesign = Pick<DesignResult,
@@ -94,7 +95,8 @@ export function suggestionsToGeoJson(design: ExportableDesign): string {
 /**
  * CSV with the columns rank, x, y (the samples' CRS), lon, lat, benefit, mean, sd, and p_exceed when
  * the design has a threshold. Empty cells where there is no value (coverage without a model; lon and
- * lat for local coordinates without a CRS).
+ * lat for local coordinates without a CRS). Every cell is a number, written through csvLine like
+ * every CSV Gapwise writes.
  */
 export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOptions = {}): string {
   if (design.suggestions.some((s) => s.lon !== undefined || s.lat !== undefined)) checkLonLat(design.suggestions);
@@ -105,7 +107,7 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
   if ((inputX && inputX.length !== design.suggestions.length) || (inputY && inputY.length !== design.suggestions.length)) {
     throw new GapwiseError('bad-value', `Expected ${design.suggestions.length} input-CRS coordinates, got ${inputX?.length ?? 0} and ${inputY?.length ?? 0}.`);
   }
-  const lines = [header.join(',')];
+  const lines = [csvLine(header)];
   design.suggestions.forEach((s, k) => {
     const cells = [
       String(s.rank), numberText(inputX ? inputX[k] : s.x), numberText(inputY ? inputY[k] : s.y),
@@ -113,7 +115,7 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
       numberText(s.benefit), numberText(s.mean), numberText(s.sd),
     ];
     if (withP) cells.push(numberText(s.pExceed));
-    lines.push(cells.join(','));
+    lines.push(csvLine(cells));
   });
   return lines.join(nl) + nl;
 }

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { csvCell, csvLine, formatNumber, readCsvTable } from '../../src/cli/csv.ts';
+import { csvCell, csvLine, formatNumber, readCsvTable, recordText } from '../../src/cli/csv.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 
 describe('readCsvTable', () => {
@@ -52,6 +52,14 @@ describe('csvCell', () => {
     expect(csvCell('a,b')).toBe('"a,b"');
     expect(csvCell('say "hi"')).toBe('"say ""hi"""');
     expect(csvCell('a;b', ';')).toBe('"a;b"');
+  });
+});
+
+describe('recordText', () => {
+  it('recordText gives a record back verbatim unless a cell is formula-leading text, which is then neutralised', () => {
+    const t = readCsvTable('id;x;y\nP1;"500,5";-10\n=HYPERLINK("https://example.invalid");1;2\n', 't.csv');
+    expect(recordText(t.records[0], ';')).toBe('P1;"500,5";-10');
+    expect(recordText(t.records[1], ';')).toBe('"\'=HYPERLINK(""https://example.invalid"")";1;2');
   });
 });
 

@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { surfaceGridCsv } from '../../src/io/grid-csv.ts';
 import { createTransform } from '../../src/io/crs.ts';
 import { CAUTION } from '../../src/core/caution.ts';
+import { FORMULA_NOTE } from '../../src/io/csv-cells.ts';
 
 describe('surfaceGridCsv', () => {
   const grid = { x0: 500000, y0: 5400030, cell: 10, nx: 3, ny: 3, mask: new Uint8Array([0, 1, 0, 1, 1, 1, 0, 1, 0]) };
@@ -39,5 +40,19 @@ describe('surfaceGridCsv', () => {
   it('surfaceGridCsv writes Float64 values with the shortest text that reads back exactly', () => {
     const text = surfaceGridCsv({ grid: { x0: 0, y0: 10, cell: 10, nx: 1, ny: 1 }, surface: { mean: Float64Array.of(1 / 3), sd: Float64Array.of(2 / 3) }, workCrs: 'local', caution: false });
     expect(text).toBe('x,y,lon,lat,mean,sd\n5,5,,,0.3333333333333333,0.6666666666666666\n');
+  });
+});
+
+describe('surfaceGridCsv with hostile text', () => {
+  it('surfaceGridCsv says in its caution line that text cells were neutralised, and keeps a hostile unit and CRS inert', () => {
+    const grid = { x0: 0, y0: 10, cell: 10, nx: 1, ny: 1 };
+    const text = surfaceGridCsv({ grid, surface: { mean: Float64Array.of(-2.5), sd: Float64Array.of(1), pExceed: Float64Array.of(0.5), threshold: -1 }, workCrs: 'local', unit: 'mg,=HYPERLINK("https://example.invalid")\r\n@SUM(1)' });
+    const lines = text.trimEnd().split('\n');
+    expect(lines).toHaveLength(3);
+    expect(lines[0]).toContain(FORMULA_NOTE);
+    for (const piece of lines[0].split(',').slice(1)) expect(piece).not.toMatch(/^(?: *[=+\-@]|[\t\r])/);
+    expect(lines[0]).not.toContain('"');
+    // Numbers, negative ones included, stay numbers.
+    expect(lines[2]).toBe('5,5,,,-2.5,1,0.5');
   });
 });

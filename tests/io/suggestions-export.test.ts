@@ -68,6 +68,12 @@ describe('suggestionsToCsv', () => {
     expect(() => suggestionsToCsv(design(), { inputX: [1] })).toThrow(/Expected 2 input-CRS coordinates/);
   });
 
+  it('suggestionsToCsv writes negative numbers as numbers (no apostrophe: only text cells are neutralised)', () => {
+    const text = suggestionsToCsv(design({ threshold: null }), { inputX: [-12.5, -0.001], inputY: [-3e-7, 4] });
+    expect(text.split('\n')[1].split(',').slice(0, 3)).toEqual(['1', '-12.5', '-3e-7']);
+    expect(text).not.toContain("'");
+  });
+
   it('suggestionsToCsv leaves lon and lat empty for local coordinates without a CRS', () => {
     const text = suggestionsToCsv(design({ suggestions: [{ rank: 1, x: 12.5, y: 40, benefit: 2, mean: 3, sd: 1, pExceed: 0.5 }] }));
     expect(text.split('\n')[1]).toBe('1,12.5,40,,,2,3,1,0.5');
