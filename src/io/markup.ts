@@ -67,11 +67,12 @@ function check(strings: TemplateStringsArray): boolean[] {
     sofar += strings[i];
     const before = strings[i];
     const where = `after "${before.slice(-40)}"`;
-    if (/=\s*$/.test(before)) throw new TypeError(`An interpolation in an unquoted attribute value (${where}); quote the value.`);
+    const insideTag = sofar.lastIndexOf('<') > sofar.lastIndexOf('>');
+    if (insideTag && /=\s*$/.test(before)) throw new TypeError(`An interpolation in an unquoted attribute value (${where}); quote the value.`);
     if (/<\/?\s*$/.test(before)) throw new TypeError(`An interpolation in a tag name (${where}).`);
     const lower = sofar.toLowerCase();
     const rawText = ['script', 'style'].some((element) => lower.lastIndexOf(`<${element}`) > lower.lastIndexOf(`</${element}`));
-    trustedOnly.push(rawText || URL_ATTRIBUTE.test(before));
+    trustedOnly.push(rawText || (insideTag && URL_ATTRIBUTE.test(before)));
     sofar += '\u0000';
   }
   return trustedOnly;

@@ -28,6 +28,8 @@ describe('html', () => {
     expect(html`<a href="${trusted('#top')}">${'<top>'}</a><style>${trusted('p{}')}</style><p>${'after'}</p>`.text)
       .toBe('<a href="#top">&lt;top&gt;</a><style>p{}</style><p>after</p>');
     expect(() => new Markup('<b>', Symbol('markup'))).toThrow(TypeError);
+    // An equals sign in text is not an attribute.
+    expect(html`<p title="a">x = ${'<y>'}</p>`.text).toBe('<p title="a">x = &lt;y&gt;</p>');
   });
 
   it('joinMarkup joins pieces with an escaped separator', () => {
