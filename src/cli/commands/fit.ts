@@ -106,7 +106,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const trend = parseTrend(stringOption(values, 'trend') ?? 'constant');
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
   const nnlNeighbors = numberOption(values, 'nnl-neighbors');
-  const workers = readWorkers(values);
+  const workers = readWorkers(values, io);
   const intake = readSamplesFile(io, values);
   const n = intake.samples.value.length;
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
@@ -152,7 +152,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     data: { file: r.fileName, valueColumn: r.valueColumn, unit: r.unit, n },
     caution: CAUTION,
   };
-  writeOutput(io, stringOption(values, 'out'), jsonText(out));
+  await writeOutput(io, stringOption(values, 'out'), jsonText(out));
   return 0;
 }
 

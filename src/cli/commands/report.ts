@@ -71,7 +71,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const threshold = numberOption(values, 'threshold');
   if (threshold !== undefined) project.threshold = threshold;
   const simulate = reportSimulationSettings(values, project);
-  const workers = readWorkers(values);
+  const workers = readWorkers(values, io);
   const files = { samples: `${file}:${project.samples.fileName}` };
   const t0 = performance.now();
   // The realisations are drawn first, over threads; prepareReport then takes them as they are.
@@ -92,7 +92,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     ...(simulate ? { simulate, ...(drawn ? { drawn } : {}) } : {}),
   }));
   printWarnings(io, input.warnings ?? []);
-  writeOutput(io, stringOption(values, 'out'), reportHtml(input));
+  await writeOutput(io, stringOption(values, 'out'), reportHtml(input));
   const sim = input.simulation;
   if (sim?.summary) {
     const unit = project.samples.unit || input.intake.report.unit;

@@ -180,7 +180,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const text = format === 'geojson' ? suggestionsToGeoJson(result)
       : format === 'gpx' ? suggestionsToGpx(result, { unit: intake.report.unit || undefined })
         : suggestionsToCsv(result, { inputX: input.x, inputY: input.y });
-    writeOutput(io, out, text);
+    await writeOutput(io, out, text);
     if (format === 'csv') io.stderr(`caution: ${CAUTION}\n`);
   }
 
