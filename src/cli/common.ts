@@ -37,6 +37,8 @@ export interface CliIo {
   stdoutIsTerminal?: boolean;
   /** --quiet: no progress lines and no notes (warnings and errors are still printed). */
   quiet?: boolean;
+  /** Most threads --workers may ask for; default the number of cores (tests check splits over more). */
+  maxWorkers?: number;
 }
 
 export type OptionValues = Record<string, OptionValue>;
@@ -379,11 +381,12 @@ export function progressLine(io: CliIo, what: string, options: { afterSeconds?: 
 /**
  * --workers N: threads to share the work, a whole number from 1 to 256; default one per core. More
  * threads than cores only add memory (each holds its own copy of the work) and switching, so a
- * larger N is capped at the number of cores with a warning on stderr. `cores` is injectable for tests.
+ * larger N is capped at the number of cores (`io.maxWorkers`) with a warning on stderr.
  */
-export function readWorkers(values: OptionValues, io?: CliIo, cores = availableParallelism()): number {
+export function readWorkers(values: OptionValues, io?: CliIo): number {
   const w = numberOption(values, 'workers');
-  if (w === undefined) return cores;
+  if (w === undefined) return availableParallelism();
+  const cores = io?.maxWorkers ?? availableParallelism();
   if (!(Number.isInteger(w) && w >= 1 && w <= 256)) {
     throw new GapwiseError('bad-option', `Option "--workers" expects a whole number of threads from 1 to 256, got ${w}.`);
   }
