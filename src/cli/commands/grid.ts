@@ -27,6 +27,8 @@ import {
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
+import { simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
 
 /** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
@@ -112,6 +114,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   }
   if (blockKriging && (path.path === 'local' || numberOption(values, 'neighbors') !== undefined || path.globalMean)) {
     throw new GapwiseError('bad-option', 'Options "--local", "--neighbors" and "--global-mean" apply to point support; block kriging uses all samples.');
+  }
+  if (choice.realizations !== undefined) {
+    const threads = simulationThreads(choice.realizations, workers);
+    checkSimulationDemand({ grid, realisations: choice.realizations, blockPoints: choice.blockPoints, threads, keep: false }, 'realizations');
   }
   printWarnings(io, path.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };

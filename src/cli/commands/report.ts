@@ -18,6 +18,7 @@ import {
 import { readProjectFile } from '../project-options.ts';
 import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
@@ -81,6 +82,8 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const job = naming(files, () => reportSimulationJob(project, { simulate, ...(cell !== undefined ? { cellSize: cell } : {}) }));
     if (job) {
       threads = simulationThreads(job.options.count, workers);
+      const blockPoints = job.options.support === 'block' ? simulate.blockPoints : 1;
+      checkSimulationDemand({ grid: job.grid, realisations: job.options.count, blockPoints, threads, keep: false }, 'realizations');
       drawn = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations') }));
     }
   }

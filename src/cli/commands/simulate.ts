@@ -18,6 +18,7 @@ import {
 import { readBoundaryFile } from '../boundary-file.ts';
 import { SIMULATE_OPTIONS, SIMULATION_WORKERS, areaFigures, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
@@ -41,6 +42,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const files = { samples: intake.report.fileName, model: modelPath };
   const n = choice.realizations ?? 0;
   const threads = simulationThreads(n, readWorkers(values, io));
+  checkSimulationDemand({ grid, realisations: n, blockPoints: choice.blockPoints, threads, keep: true }, 'count');
   const sim = await namingAsync(files, () => simulateParallel(intake.samples, model, grid, {
     count: n,
     seed: choice.seed,
