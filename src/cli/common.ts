@@ -95,7 +95,8 @@ export function readText(io: CliIo, file: string): string {
  */
 export async function writeOutput(io: CliIo, file: string | undefined, data: string | Uint8Array): Promise<void> {
   if (file === undefined) {
-    io.stdout(typeof data === 'string' ? data : Buffer.from(data).toString('utf8'));
+    if (typeof data !== 'string') throw new Error('Binary output needs --out FILE; stdout takes text only.');
+    io.stdout(data);
     return;
   }
   await writeFileSafely(io.cwd, file, data);

@@ -134,7 +134,9 @@ function writeAll(fd: number, bytes: Uint8Array): Promise<void> | void {
 
 /** The temporary name beside `target`: hidden, with the process id and random letters. */
 export function temporaryName(target: string): string {
-  return join(dirname(target), `.${basename(target)}.gapwise-${process.pid}-${randomBytes(4).toString('hex')}.tmp`);
+  // Cut long names so that the temporary name stays within the 255 bytes most file systems allow.
+  const name = Buffer.from(basename(target)).subarray(0, 200).toString('utf8').replace(/\uFFFD$/, '');
+  return join(dirname(target), `.${name}.gapwise-${process.pid}-${randomBytes(4).toString('hex')}.tmp`);
 }
 
 /**

@@ -129,3 +129,14 @@ describe('writeFileSafely', () => {
     expect(temporaries(dir)).toEqual([]);
   }, 60_000);
 });
+
+describe('temporaryName', () => {
+  it('temporaryName is hidden, beside the target, and within 255 bytes for a long name', async () => {
+    const { temporaryName } = await import('../../src/cli/safe-write.ts');
+    const t = temporaryName('/data/out/grid.csv');
+    expect(t).toMatch(/^\/data\/out\/\.grid\.csv\.gapwise-\d+-[0-9a-f]{8}\.tmp$/);
+    const long = temporaryName(`/data/${'é'.repeat(120)}.csv`);
+    expect(Buffer.byteLength(long.slice('/data/'.length))).toBeLessThanOrEqual(255);
+    expect(long).not.toContain('\uFFFD');
+  });
+});
