@@ -380,6 +380,40 @@ export function progressLine(io: CliIo, what: string, options: { afterSeconds?: 
 }
 
 /**
+ * Progress of work whose total is not known ahead (likelihood passes of a fit): "progress: 240
+ * likelihood passes (14 s)", silent for the first PROGRESS_AFTER_SECONDS, then every 5 s as plain
+ * lines or a rewriting line on a terminal (ended by `done()`); nothing with --quiet.
+ */
+export function activityLine(io: CliIo, what: string, options: { now?: () => number } = {}): { step(): void; done(): void } {
+  if (io.quiet) return { step: () => {}, done: () => {} };
+  const now = options.now ?? (() => performance.now());
+  const start = now();
+  let steps = 0;
+  let last = -Infinity;
+  let open = false;
+  const every = io.stderrIsTerminal ? TERMINAL_REFRESH_MS : 5000;
+  return {
+    step() {
+      steps++;
+      const t = now();
+      if (t - start < PROGRESS_AFTER_SECONDS * 1000 || t - last < every) return;
+      last = t;
+      const line = `progress: ${count(steps)} ${what} (${Math.round((t - start) / 1000)} s)`;
+      if (io.stderrIsTerminal) {
+        io.stderr(`\r${line}`);
+        open = true;
+      } else {
+        io.stderr(`${line}\n`);
+      }
+    },
+    done() {
+      if (open) io.stderr(`\r${`progress: ${count(steps)} ${what} (${Math.round((now() - start) / 1000)} s)`}\n`);
+      open = false;
+    },
+  };
+}
+
+/**
  * --workers N: threads to share the work, a whole number from 1 to 256; default one per core. More
  * threads than cores only add memory (each holds its own copy of the work) and switching, so a
  * larger N is capped at the number of cores (`io.maxWorkers`) with a warning on stderr.

@@ -1,7 +1,7 @@
 // The shared CLI pieces: the exact-or-local choice of predict, cv and grid, its note, and progress lines.
 import { describe, expect, it } from 'vitest';
 import {
-  describePredictionPath, progressLine, readPredictionPath, readWorkers, type CliIo,
+  activityLine, describePredictionPath, progressLine, readPredictionPath, readWorkers, type CliIo,
 } from '../../src/cli/common.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 
@@ -116,6 +116,25 @@ describe('readWorkers', () => {
     expect(readWorkers({ workers: 1 }, io)).toBe(1);
     expect(lines).toHaveLength(1);
     expect(() => readWorkers({ workers: 257 }, io)).toThrow(/from 1 to 256, got 257/);
+  });
+});
+
+describe('activityLine', () => {
+  it('activityLine counts steps of work of unknown length: silent for 2 s, then a plain line every 5 s; nothing with --quiet', () => {
+    const lines: string[] = [];
+    const io: CliIo = { stdout: () => undefined, stderr: (t) => { lines.push(t); }, cwd: '.' };
+    let t = 0;
+    const a = activityLine(io, 'likelihood passes', { now: () => t });
+    for (let i = 0; i < 120; i++) {
+      t += 100; // 12 s in all
+      a.step();
+    }
+    a.done();
+    expect(lines).toEqual(['progress: 20 likelihood passes (2 s)\n', 'progress: 70 likelihood passes (7 s)\n', 'progress: 120 likelihood passes (12 s)\n']);
+    const quiet: string[] = [];
+    const q = activityLine({ ...io, quiet: true, stderr: (x) => { quiet.push(x); } }, 'passes', { now: () => t });
+    for (let i = 0; i < 100; i++) { t += 1000; q.step(); }
+    expect(quiet).toEqual([]);
   });
 });
 
