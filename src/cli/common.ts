@@ -4,7 +4,7 @@
  * printing warnings and notes, the choice between exact kriging and local neighbourhoods for
  * predict, cv and grid (`readPredictionPath`), and progress lines for long runs.
  */
-import { readFileSync, writeFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../core/errors.ts';
@@ -15,6 +15,7 @@ import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '
 import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../core/local-kriging.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
+import { writeFileSafely } from './safe-write.ts';
 
 /** Carried by every result, export and help text. */
 export const CAUTION =
@@ -30,6 +31,14 @@ export interface CliIo {
   files?: Readonly<Record<string, string>>;
   /** Reading options from a --project; options given on the command line win. */
   intakeDefaults?: Partial<IntakeOptions>;
+  /** stderr is a terminal: progress rewrites one line instead of printing a few plain ones. */
+  stderrIsTerminal?: boolean;
+  /** stdout is a terminal: its text is shown with control characters escaped (./terminal-text.ts). */
+  stdoutIsTerminal?: boolean;
+  /** --quiet: no progress lines and no notes (warnings and errors are still printed). */
+  quiet?: boolean;
+  /** Most threads --workers may ask for; default the number of cores (tests check splits over more). */
+  maxWorkers?: number;
 }
 
 export type OptionValues = Record<string, OptionValue>;
@@ -80,17 +89,17 @@ export function readText(io: CliIo, file: string): string {
   }
 }
 
-/** Writes `text` to `file`, or to stdout when no file is given. */
-export function writeOutput(io: CliIo, file: string | undefined, text: string): void {
+/**
+ * Writes `data` to `file` through a temporary file renamed onto the name (./safe-write.ts: never a
+ * partial file under the name), or text to stdout when no file is given.
+ */
+export async function writeOutput(io: CliIo, file: string | undefined, data: string | Uint8Array): Promise<void> {
   if (file === undefined) {
-    io.stdout(text);
+    if (typeof data !== 'string') throw new Error('Binary output needs --out FILE; stdout takes text only.');
+    io.stdout(data);
     return;
   }
-  try {
-    writeFileSync(resolve(io.cwd, file), text);
-  } catch (e) {
-    throw new GapwiseError('bad-file', `Cannot write the file: ${(e as Error).message}.`, { file });
-  }
+  await writeFileSafely(io.cwd, file, data);
 }
 
 /** Prints warnings on stderr, each line prefixed with "warning: ". */
@@ -221,8 +230,9 @@ export function jsonText(value: unknown): string {
   return `${JSON.stringify(value, null, 2)}\n`;
 }
 
-/** Prints notes (how the work was done) on stderr, each line prefixed with "note: ". */
+/** Prints notes (how the work was done) on stderr, each line prefixed with "note: "; none with --quiet. */
 export function printNotes(io: CliIo, notes: readonly string[]): void {
+  if (io.quiet) return;
   for (const n of notes) io.stderr(`note: ${n}\n`);
 }
 
@@ -315,20 +325,48 @@ export function describePredictionPath(p: PredictionPath, n: number, verb = 'pre
   return `${verb} from the ${m} ${nearest} (${how}); ${count(n)} samples${why}`;
 }
 
-/** Progress on stderr: a line at every tenth of the work once a run has lasted `afterSeconds`. */
+/** Progress on stderr, called with the work done and the work in all. */
 export interface ProgressLine {
   (done: number, total: number): void;
 }
 
+/** Seconds a run lasts before it prints progress. */
+export const PROGRESS_AFTER_SECONDS = 2;
+/** Least time between two rewrites of the progress line on a terminal, in milliseconds. */
+const TERMINAL_REFRESH_MS = 250;
+
 /**
- * A progress callback that prints "progress: 40 % of 250,000 cells (12 s)" on stderr at each
- * further tenth of the work, but only once the run has taken at least `afterSeconds` (default 2),
- * so short runs stay quiet. `now` (milliseconds) is injectable for tests.
+ * A progress callback for `what` ("cells", "realisations"), silent for the first `afterSeconds`
+ * (default PROGRESS_AFTER_SECONDS) so short runs stay quiet, and always with --quiet. On a terminal
+ * (`io.stderrIsTerminal`) one line rewrites itself ("\rprogress: 43 % of 250,000 cells (12 s)") at
+ * most four times a second and ends with a newline when the work is done; otherwise a plain line
+ * is printed at each further tenth of the work. `now` (milliseconds) is injectable for tests.
  */
 export function progressLine(io: CliIo, what: string, options: { afterSeconds?: number; now?: () => number } = {}): ProgressLine {
+  if (io.quiet) return () => {};
   const now = options.now ?? (() => performance.now());
-  const after = (options.afterSeconds ?? 2) * 1000;
+  const after = (options.afterSeconds ?? PROGRESS_AFTER_SECONDS) * 1000;
   const start = now();
+  const text = (percent: number, elapsed: number, total: number) => `progress: ${percent} % of ${count(total)} ${what} (${Math.round(elapsed / 1000)} s)`;
+  if (io.stderrIsTerminal) {
+    let shown = false;
+    let last = -Infinity;
+    let width = 0;
+    return (done, total) => {
+      if (!(total > 0)) return;
+      const t = now();
+      const elapsed = t - start;
+      const finished = done >= total;
+      if (elapsed < after || (!finished && t - last < TERMINAL_REFRESH_MS)) return;
+      if (finished && !shown) return;
+      last = t;
+      shown = true;
+      const line = text(Math.floor((100 * Math.min(done, total)) / total), elapsed, total);
+      io.stderr(`\r${line.padEnd(width)}${finished ? '\n' : ''}`);
+      width = line.length;
+      if (finished) shown = false;
+    };
+  }
   let printed = 0;
   return (done, total) => {
     if (!(total > 0)) return;
@@ -337,16 +375,77 @@ export function progressLine(io: CliIo, what: string, options: { afterSeconds?: 
     const elapsed = now() - start;
     if (elapsed < after) return;
     printed = tenth;
-    io.stderr(`progress: ${tenth * 10} % of ${count(total)} ${what} (${Math.round(elapsed / 1000)} s)\n`);
+    io.stderr(`${text(tenth * 10, elapsed, total)}\n`);
   };
 }
 
-/** --workers N: threads to share the work, a whole number from 1 to 256; default one per core. */
-export function readWorkers(values: OptionValues): number {
+/**
+ * Progress of work whose total is not known ahead (likelihood passes of a fit): "progress: 240
+ * likelihood passes (14 s)", silent for the first PROGRESS_AFTER_SECONDS, then every 5 s as plain
+ * lines or a rewriting line on a terminal (ended by `done()`); nothing with --quiet.
+ */
+export function activityLine(io: CliIo, what: string, options: { now?: () => number } = {}): { step(): void; done(): void } {
+  if (io.quiet) return { step: () => {}, done: () => {} };
+  const now = options.now ?? (() => performance.now());
+  const start = now();
+  let steps = 0;
+  let last = -Infinity;
+  let open = false;
+  const every = io.stderrIsTerminal ? TERMINAL_REFRESH_MS : 5000;
+  return {
+    step() {
+      steps++;
+      const t = now();
+      if (t - start < PROGRESS_AFTER_SECONDS * 1000 || t - last < every) return;
+      last = t;
+      const line = `progress: ${count(steps)} ${what} (${Math.round((t - start) / 1000)} s)`;
+      if (io.stderrIsTerminal) {
+        io.stderr(`\r${line}`);
+        open = true;
+      } else {
+        io.stderr(`${line}\n`);
+      }
+    },
+    done() {
+      if (open) io.stderr(`\r${`progress: ${count(steps)} ${what} (${Math.round((now() - start) / 1000)} s)`}\n`);
+      open = false;
+    },
+  };
+}
+
+/**
+ * --workers N: threads to share the work, a whole number from 1 to 256; default one per core. More
+ * threads than cores only add memory (each holds its own copy of the work) and switching, so a
+ * larger N is capped at the number of cores (`io.maxWorkers`) with a warning on stderr.
+ */
+export function readWorkers(values: OptionValues, io?: CliIo): number {
   const w = numberOption(values, 'workers');
   if (w === undefined) return availableParallelism();
+  const cores = io?.maxWorkers ?? availableParallelism();
   if (!(Number.isInteger(w) && w >= 1 && w <= 256)) {
     throw new GapwiseError('bad-option', `Option "--workers" expects a whole number of threads from 1 to 256, got ${w}.`);
   }
+  if (w > cores) {
+    if (io) printWarnings(io, [`--workers ${w} is more than the ${cores} cores of this machine; ${cores} worker thread${cores === 1 ? '' : 's'} are used (more threads only take more memory).`]);
+    return cores;
+  }
   return w;
+}
+
+/** The option every command takes to silence progress lines and notes. */
+export const QUIET_OPTION: OptionSpec = {
+  name: 'quiet', kind: 'boolean', help: 'no progress lines and no notes on stderr; warnings and errors are still printed',
+};
+
+/** The command with --quiet: the option is listed, and when given the command runs with `io.quiet`. */
+export function withQuiet(command: CommandSpec): CommandSpec {
+  if (command.options.some((o) => o.name === 'quiet')) return command;
+  return {
+    ...command,
+    options: [...command.options, QUIET_OPTION],
+    run(values, io) {
+      const { quiet, ...rest } = values;
+      return command.run(rest, quiet === true ? { ...io, quiet: true } : io);
+    },
+  };
 }

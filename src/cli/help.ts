@@ -78,6 +78,12 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
       + '(--method overrides), and predict, cv and grid predict from local neighbourhoods of --neighbors samples '
       + '(--exact overrides); grid shares its rows out among worker threads, one per core.', 0),
     '',
+    wrap('Files: --out is written to a temporary file in the same folder and renamed onto the name when complete, '
+      + 'so a stopped run leaves the previous file in place; an --out that names one of the run\'s input files, '
+      + 'or a folder that is missing or not writable, is refused before any work. A run that lasts more than 2 s '
+      + 'shows its progress on stderr; --quiet (every command) leaves out progress and notes. --workers above the '
+      + 'number of cores is lowered to it, with a warning.', 0),
+    '',
     'Example:',
     '  gapwise inspect --samples data-demo/lead-topsoil.csv',
     '',

@@ -6,17 +6,35 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import { parseArgs } from './args.ts';
-import type { CliIo } from './common.ts';
+import type { CliIo, CommandSpec, OptionValues } from './common.ts';
+import { checkOutputTarget, installSignalCleanup, type RunInput } from './safe-write.ts';
+import { terminalSafeIo } from './terminal-text.ts';
 import { COMMANDS, PLANNED } from './commands/index.ts';
 import { commandHelp, toolHelp } from './help.ts';
 
-/** The process's own streams and working directory. */
+/**
+ * The process's own streams and working directory. Installs the signal handlers that remove a
+ * half-written temporary output on SIGINT, SIGTERM and SIGHUP (./safe-write.ts).
+ */
 export function processIo(): CliIo {
+  installSignalCleanup();
   return {
     stdout: (t) => void process.stdout.write(t),
     stderr: (t) => void process.stderr.write(t),
     cwd: process.cwd(),
+    stdoutIsTerminal: process.stdout.isTTY === true,
+    stderrIsTerminal: process.stderr.isTTY === true,
   };
+}
+
+/** The files a run reads: every FILE option but --out, as given on the command line. */
+export function runInputs(command: CommandSpec, values: OptionValues): RunInput[] {
+  const inputs: RunInput[] = [];
+  for (const o of command.options) {
+    const file = values[o.name];
+    if (o.name !== 'out' && o.kind === 'string' && o.placeholder === 'FILE' && typeof file === 'string') inputs.push({ option: o.name, file });
+  }
+  return inputs;
 }
 
 /** What to try when the numbers fail, by error code. */
@@ -31,7 +49,9 @@ const NUMERIC_HINTS: Record<string, string> = {
  * Runs one command line (without the node and script words) and returns the exit code.
  * `io` defaults to the process's streams; tests pass their own to capture the output.
  */
-export async function main(argv: readonly string[], io: CliIo = processIo()): Promise<number> {
+export async function main(argv: readonly string[], given: CliIo = processIo()): Promise<number> {
+  // Every message goes out through here: control characters escaped, length capped.
+  const io = terminalSafeIo(given);
   try {
     const [name, ...rest] = argv;
     if (name === undefined) {
@@ -57,6 +77,9 @@ export async function main(argv: readonly string[], io: CliIo = processIo()): Pr
       io.stdout(commandHelp(command));
       return 0;
     }
+    // Before any work: the output's folder can be written and the output is none of the inputs.
+    const out = args.values.out;
+    if (typeof out === 'string') checkOutputTarget(io.cwd, out, runInputs(command, args.values));
     return await command.run(args.values, io);
   } catch (e) {
     if (e instanceof GapwiseError) {

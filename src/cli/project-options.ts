@@ -101,6 +101,33 @@ export function projectRouting(command: CommandSpec, values: OptionValues, io: C
 }
 
 /**
+ * An error about a text the project holds (its samples, model or boundary, read from memory under
+ * "FILE:name") names the project file and the field instead: `site.json, field "samples.text" (the
+ * samples "lead-topsoil.csv" it holds), line 12: ...`. A missing column that a reading option of the
+ * project named is the field of that option (`samples.intake.value`).
+ */
+export function nameProjectField(e: GapwiseError, file: string, project: Project, values: OptionValues): void {
+  const held = e.place.file;
+  if (held === undefined || !held.startsWith(`${file}:`)) return;
+  if (held === `${file}:model`) {
+    e.place.file = `${file}, field "model"`;
+    return;
+  }
+  if (project.boundary && held === `${file}:${project.boundary.fileName}`) {
+    e.place.file = `${file}, field "boundary.text" (the boundary "${project.boundary.fileName}" it holds)`;
+    return;
+  }
+  if (held !== `${file}:${project.samples.fileName}`) return;
+  const intake = project.samples.intake as Record<string, unknown>;
+  const option = e.code === 'missing-column'
+    ? (['value', 'x', 'y'] as const).find((k) => values[k] === undefined && intake[k] !== undefined && intake[k] === e.place.column)
+    : undefined;
+  e.place.file = option
+    ? `${file}, field "samples.intake.${option}"`
+    : `${file}, field "samples.text" (the samples "${project.samples.fileName}" it holds)`;
+}
+
+/**
  * The command with `--project FILE`: the option is listed, required options a project supplies
  * become optional, and the project's values fill the rest when it is given.
  */
@@ -126,7 +153,12 @@ export function withProject(command: CommandSpec): CommandSpec {
         return command.run(values, io);
       }
       const routed = projectRouting(command, values, io, file);
-      return command.run(routed.values, routed.io);
+      try {
+        return await command.run(routed.values, routed.io);
+      } catch (e) {
+        if (e instanceof GapwiseError) nameProjectField(e, file, routed.project, routed.values);
+        throw e;
+      }
     },
   };
 }

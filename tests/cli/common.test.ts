@@ -1,7 +1,7 @@
 // The shared CLI pieces: the exact-or-local choice of predict, cv and grid, its note, and progress lines.
 import { describe, expect, it } from 'vitest';
 import {
-  describePredictionPath, progressLine, readPredictionPath, type CliIo,
+  activityLine, describePredictionPath, progressLine, readPredictionPath, readWorkers, type CliIo,
 } from '../../src/cli/common.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 
@@ -72,4 +72,69 @@ describe('progressLine', () => {
     expect(lines.map((l) => Number(/(\d+) %/.exec(l)![1]))).toEqual([30, 40, 50, 60, 70, 80, 90, 100]);
     expect(lines.at(-1)).toBe('progress: 100 % of 250,000 cells (5 s)\n');
   });
+
+  it('progressLine on a terminal rewrites one line at most four times a second and ends it with a newline', () => {
+    const { io, lines } = capture();
+    io.stderrIsTerminal = true;
+    let t = 0;
+    const p = progressLine(io, 'realisations', { now: () => t });
+    for (let done = 1; done <= 100; done++) {
+      t += 50; // 5 s in all
+      p(done, 100);
+    }
+    expect(lines[0]).toBe('\rprogress: 40 % of 100 realisations (2 s)');
+    expect(lines.slice(0, -1).every((l) => l.startsWith('\rprogress: ') && !l.includes('\n'))).toBe(true);
+    // From 2 s to 5 s at most one line each 250 ms, and the last one at 100 % with a newline.
+    expect(lines.length).toBeLessThanOrEqual(14);
+    expect(lines.length).toBeGreaterThanOrEqual(10);
+    expect(lines.at(-1)).toBe('\rprogress: 100 % of 100 realisations (5 s)\n');
+  });
+
+  it('progressLine prints nothing with --quiet (io.quiet), on a terminal or not', () => {
+    for (const terminal of [false, true]) {
+      const { io, lines } = capture();
+      io.quiet = true;
+      io.stderrIsTerminal = terminal;
+      let t = 0;
+      const p = progressLine(io, 'cells', { now: () => t });
+      for (let done = 0; done <= 100; done++) {
+        t += 100;
+        p(done, 100);
+      }
+      expect(lines).toEqual([]);
+    }
+  });
 });
+
+describe('readWorkers', () => {
+  it('readWorkers caps --workers above the cores at the cores, with a warning that gives both numbers', () => {
+    const lines: string[] = [];
+    const io: CliIo = { stdout: () => undefined, stderr: (t) => { lines.push(t); }, cwd: '.', maxWorkers: 2 };
+    expect(readWorkers({ workers: 256 }, io)).toBe(2);
+    expect(lines).toEqual(['warning: --workers 256 is more than the 2 cores of this machine; 2 worker threads are used (more threads only take more memory).\n']);
+    expect(readWorkers({ workers: 2 }, io)).toBe(2);
+    expect(readWorkers({ workers: 1 }, io)).toBe(1);
+    expect(lines).toHaveLength(1);
+    expect(() => readWorkers({ workers: 257 }, io)).toThrow(/from 1 to 256, got 257/);
+  });
+});
+
+describe('activityLine', () => {
+  it('activityLine counts steps of work of unknown length: silent for 2 s, then a plain line every 5 s; nothing with --quiet', () => {
+    const lines: string[] = [];
+    const io: CliIo = { stdout: () => undefined, stderr: (t) => { lines.push(t); }, cwd: '.' };
+    let t = 0;
+    const a = activityLine(io, 'likelihood passes', { now: () => t });
+    for (let i = 0; i < 120; i++) {
+      t += 100; // 12 s in all
+      a.step();
+    }
+    a.done();
+    expect(lines).toEqual(['progress: 20 likelihood passes (2 s)\n', 'progress: 70 likelihood passes (7 s)\n', 'progress: 120 likelihood passes (12 s)\n']);
+    const quiet: string[] = [];
+    const q = activityLine({ ...io, quiet: true, stderr: (x) => { quiet.push(x); } }, 'passes', { now: () => t });
+    for (let i = 0; i < 100; i++) { t += 1000; q.step(); }
+    expect(quiet).toEqual([]);
+  });
+});
+

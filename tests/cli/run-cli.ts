@@ -20,7 +20,11 @@ export interface Workspace {
   remove(): void;
 }
 
-export function workspace(): Workspace {
+/**
+ * `maxWorkers`: most threads --workers may ask for (4 by default, so that tests of the split over 3
+ * threads run the same on a 2-core machine).
+ */
+export function workspace(options: { maxWorkers?: number } = {}): Workspace {
   const dir = mkdtempSync(join(tmpdir(), 'gapwise-cli-'));
   return {
     dir,
@@ -34,7 +38,7 @@ export function workspace(): Workspace {
     async run(...argv) {
       let stdout = '';
       let stderr = '';
-      const code = await main(argv, { stdout: (t) => { stdout += t; }, stderr: (t) => { stderr += t; }, cwd: dir });
+      const code = await main(argv, { stdout: (t) => { stdout += t; }, stderr: (t) => { stderr += t; }, cwd: dir, maxWorkers: options.maxWorkers ?? 4 });
       return { code, stdout, stderr };
     },
     remove() {

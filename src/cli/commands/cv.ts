@@ -63,7 +63,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
         formatNumber(cv.prediction[i]), formatNumber(cv.sdObserved[i]), formatNumber(cv.error[i]), formatNumber(cv.standardisedError[i]),
       ]));
     }
-    writeOutput(io, out, `${lines.join('\n')}\n`);
+    await writeOutput(io, out, `${lines.join('\n')}\n`);
     io.stderr(`caution: ${CAUTION}\n`);
   }
   const s = cv.summary;

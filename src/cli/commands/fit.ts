@@ -9,14 +9,14 @@
  */
 import { GapwiseError } from '../../core/errors.ts';
 import { fitModel, MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit } from '../../core/vecchia.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/vecchia.ts';
 import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
 import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
+  CAUTION, SAMPLE_OPTIONS, activityLine, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 
@@ -96,6 +96,20 @@ export function resolveFitMethod(given: MethodOption, n: number, nnlNeighbors?: 
   return { method: given, automatic: false };
 }
 
+/** The pool's threads, with each likelihood pass counted for the progress line. */
+function countingPasses(threads: VecchiaThreads, passes: { step(): void }): VecchiaThreads {
+  return {
+    buffer: (bytes) => threads.buffer(bytes),
+    attach(data) {
+      const pass = threads.attach(data);
+      return (job) => {
+        passes.step();
+        return pass(job);
+      };
+    },
+  };
+}
+
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const family = (stringOption(values, 'family') ?? 'matern') as Family;
   const nuRaw = stringOption(values, 'nu');
@@ -106,7 +120,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const trend = parseTrend(stringOption(values, 'trend') ?? 'constant');
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
   const nnlNeighbors = numberOption(values, 'nnl-neighbors');
-  const workers = readWorkers(values);
+  const workers = readWorkers(values, io);
   const intake = readSamplesFile(io, values);
   const n = intake.samples.value.length;
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
@@ -117,12 +131,14 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   let model: CovarianceModel;
   if (method === 'nnl') {
     const pool: VecchiaPool | null = workers > 1 && n >= THREADS_FROM ? await startVecchiaPool({ threads: workers }) : null;
+    const passes = activityLine(io, 'likelihood passes over the samples');
     try {
       model = naming(files, () => vecchiaFit(samples, {
         family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
         ...(family === 'matern' ? { nu } : {}),
-      }, { threads: pool?.threads }));
+      }, { threads: pool ? countingPasses(pool.threads, passes) : undefined }));
     } finally {
+      passes.done();
       await pool?.close();
     }
   } else {
@@ -152,7 +168,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     data: { file: r.fileName, valueColumn: r.valueColumn, unit: r.unit, n },
     caution: CAUTION,
   };
-  writeOutput(io, stringOption(values, 'out'), jsonText(out));
+  await writeOutput(io, stringOption(values, 'out'), jsonText(out));
   return 0;
 }
 

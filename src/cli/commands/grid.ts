@@ -12,8 +12,6 @@
  * surface by block-kriged cells and add bands, the area above the threshold and warnings; the
  * realisations are shared out over the same --workers threads (../simulation-pool.ts).
  */
-import { writeFileSync } from 'node:fs';
-import { resolve } from 'node:path';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { cellCount, type Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
@@ -25,10 +23,12 @@ import { numberOption, stringOption } from '../args.ts';
 import {
   CAUTION, EXACT_PREDICTION_LIMIT, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
   modelWorkCrs, naming, printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile,
-  readText, readWorkers, type CliIo, type CommandSpec, type OptionValues,
+  readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
+import { simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
 
 /** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
@@ -58,14 +58,6 @@ export function parseLevels(raw: string, option: string): number[] {
     throw new GapwiseError('bad-option', `Option "--${option}" expects numbers separated by commas (e.g. 50,100,200), got "${raw}".`);
   }
   return out;
-}
-
-function writeBytes(io: CliIo, file: string, bytes: Uint8Array | string): void {
-  try {
-    writeFileSync(resolve(io.cwd, file), bytes);
-  } catch (e) {
-    throw new GapwiseError('bad-file', `Cannot write the file: ${(e as Error).message}.`, { file });
-  }
 }
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
@@ -112,7 +104,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const n = intake.samples.value.length;
   const choice = readSimulationChoice(values, model);
   const path = readPredictionPath(values, n);
-  const workers = readWorkers(values);
+  const workers = readWorkers(values, io);
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
   const blockKriging = choice.support === 'block' && model.transform !== 'log';
   if (blockKriging && n >= EXACT_PREDICTION_LIMIT) {
@@ -122,6 +114,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   }
   if (blockKriging && (path.path === 'local' || numberOption(values, 'neighbors') !== undefined || path.globalMean)) {
     throw new GapwiseError('bad-option', 'Options "--local", "--neighbors" and "--global-mean" apply to point support; block kriging uses all samples.');
+  }
+  if (choice.realizations !== undefined) {
+    const threads = simulationThreads(choice.realizations, workers);
+    checkSimulationDemand({ grid, realisations: choice.realizations, blockPoints: choice.blockPoints, threads, keep: false }, 'realizations');
   }
   printWarnings(io, path.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };
@@ -158,13 +154,13 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName, extraBands: extra.bands });
     warnings.push(...tif.warnings);
     bands = tif.bands;
-    writeBytes(io, out, new Uint8Array(tif.buffer));
+    await writeOutput(io, out, new Uint8Array(tif.buffer));
   } else if (format === 'csv') {
-    writeBytes(io, out, surfaceGridCsv({ grid, surface, workCrs, unit }));
+    await writeOutput(io, out, surfaceGridCsv({ grid, surface, workCrs, unit }));
   } else {
     const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels });
     features = fc.features.length;
-    writeBytes(io, out, `${JSON.stringify(fc)}\n`);
+    await writeOutput(io, out, `${JSON.stringify(fc)}\n`);
   }
   if (format !== 'tif' && extra.bands.length > 0) {
     warnings.push({

@@ -22,7 +22,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     for (const row of intake.rows) {
       lines.push(csvLine([row.id, formatNumber(row.inputX), formatNumber(row.inputY), formatNumber(row.value), row.flags.join(';')]));
     }
-    writeOutput(io, out, `${lines.join('\n')}\n`);
+    await writeOutput(io, out, `${lines.join('\n')}\n`);
     io.stderr(`wrote ${intake.rows.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
     io.stderr(`caution: ${CAUTION}\n`);
   }

@@ -133,7 +133,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }
     lines.push(table.records[i].raw + d + cells.join(d));
   }
-  writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
+  await writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
   io.stderr(`caution: ${CAUTION}\n`);
   return 0;
 }

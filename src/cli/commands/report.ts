@@ -18,6 +18,7 @@ import {
 import { readProjectFile } from '../project-options.ts';
 import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
@@ -71,7 +72,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const threshold = numberOption(values, 'threshold');
   if (threshold !== undefined) project.threshold = threshold;
   const simulate = reportSimulationSettings(values, project);
-  const workers = readWorkers(values);
+  const workers = readWorkers(values, io);
   const files = { samples: `${file}:${project.samples.fileName}` };
   const t0 = performance.now();
   // The realisations are drawn first, over threads; prepareReport then takes them as they are.
@@ -81,6 +82,8 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const job = naming(files, () => reportSimulationJob(project, { simulate, ...(cell !== undefined ? { cellSize: cell } : {}) }));
     if (job) {
       threads = simulationThreads(job.options.count, workers);
+      const blockPoints = job.options.support === 'block' ? simulate.blockPoints : 1;
+      checkSimulationDemand({ grid: job.grid, realisations: job.options.count, blockPoints, threads, keep: false }, 'realizations');
       drawn = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations') }));
     }
   }
@@ -92,7 +95,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     ...(simulate ? { simulate, ...(drawn ? { drawn } : {}) } : {}),
   }));
   printWarnings(io, input.warnings ?? []);
-  writeOutput(io, stringOption(values, 'out'), reportHtml(input));
+  await writeOutput(io, stringOption(values, 'out'), reportHtml(input));
   const sim = input.simulation;
   if (sim?.summary) {
     const unit = project.samples.unit || input.intake.report.unit;

@@ -6,8 +6,6 @@
  * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff. The realisations
  * are shared out over --workers threads (../simulation-pool.ts; the same bands as one thread draws).
  */
-import { writeFileSync } from 'node:fs';
-import { resolve } from 'node:path';
 import { GapwiseError } from '../../core/errors.ts';
 import { cellCount } from '../../core/grid.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
@@ -15,11 +13,12 @@ import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, count, jsonText, modelWorkCrs, printNotes, printWarnings, progressLine, readModelFile, readSamplesFile,
-  readWorkers, type CliIo, type CommandSpec, type OptionValues,
+  readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { SIMULATE_OPTIONS, SIMULATION_WORKERS, areaFigures, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
+import { checkSimulationDemand } from '../resource-limits.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
@@ -42,7 +41,8 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const threshold = numberOption(values, 'threshold');
   const files = { samples: intake.report.fileName, model: modelPath };
   const n = choice.realizations ?? 0;
-  const threads = simulationThreads(n, readWorkers(values));
+  const threads = simulationThreads(n, readWorkers(values, io));
+  checkSimulationDemand({ grid, realisations: n, blockPoints: choice.blockPoints, threads, keep: true }, 'count');
   const sim = await namingAsync(files, () => simulateParallel(intake.samples, model, grid, {
     count: n,
     seed: choice.seed,
@@ -55,11 +55,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const unit = intake.report.unit;
   const names = sim.realisations!.map((_, r) => `realisation ${r + 1}${unit ? ` (${unit})` : ''}`);
   const tif = bandsGeoTiff({ grid, bands: sim.realisations!, names, workCrs, title: `Gapwise conditional realisations (${sim.support} support).` });
-  try {
-    writeFileSync(resolve(io.cwd, out), tif.bytes);
-  } catch (e) {
-    throw new GapwiseError('bad-file', `Cannot write the file: ${(e as Error).message}.`, { file: out });
-  }
+  await writeOutput(io, out, tif.bytes);
   printWarnings(io, [...sim.warnings, ...tif.warnings]);
   const area = sim.area;
   io.stdout(jsonText({

@@ -16,7 +16,7 @@ import { suggestionsToGpx } from '../../io/gpx.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, outOption, printWarnings, readModelFile, readSamplesFile,
+  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, outOption, printWarnings, progressLine, readModelFile, readSamplesFile,
   readText, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
@@ -159,7 +159,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (candidatesPath !== undefined) options.candidates = readCandidates(io, candidatesPath, values, intake);
 
   const files = { samples: intake.report.fileName, model: modelPath };
-  const result: DesignResult = naming(files, () => suggestSites(intake.samples, modelFile?.model ?? null, options));
+  const sitesProgress = progressLine(io, 'sites');
+  const result: DesignResult = naming(files, () => suggestSites(intake.samples, modelFile?.model ?? null, options, {
+    onProgress: (done, total, stage) => { if (stage === 'sites') sitesProgress(done, total); },
+  }));
   const warnings: Warning[] = result.warnings;
   printWarnings(io, warnings);
 
@@ -180,7 +183,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const text = format === 'geojson' ? suggestionsToGeoJson(result)
       : format === 'gpx' ? suggestionsToGpx(result, { unit: intake.report.unit || undefined })
         : suggestionsToCsv(result, { inputX: input.x, inputY: input.y });
-    writeOutput(io, out, text);
+    await writeOutput(io, out, text);
     if (format === 'csv') io.stderr(`caution: ${CAUTION}\n`);
   }
 
