@@ -24,7 +24,7 @@ import {
   printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { csvLine, formatNumber } from '../csv.ts';
+import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
@@ -64,7 +64,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       ]));
     }
     await writeOutput(io, out, `${lines.join('\n')}\n`);
-    io.stderr(`caution: ${CAUTION}\n`);
+    io.stderr(`caution: ${CSV_CAUTION}\n`);
   }
   const s = cv.summary;
   io.stdout(jsonText({

@@ -8,7 +8,7 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { csvLine, formatNumber } from '../csv.ts';
+import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const intake = readSamplesFile(io, values);
@@ -24,7 +24,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }
     await writeOutput(io, out, `${lines.join('\n')}\n`);
     io.stderr(`wrote ${intake.rows.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
-    io.stderr(`caution: ${CAUTION}\n`);
+    io.stderr(`caution: ${CSV_CAUTION}\n`);
   }
   const report: Record<string, unknown> = { caution: CAUTION, ...intake.report };
   if (boundary) report.boundary = boundary;

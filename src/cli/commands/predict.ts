@@ -17,7 +17,7 @@ import {
   printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { csvCell, formatNumber, readCsvTable, type CsvTable } from '../csv.ts';
+import { CSV_CAUTION, csvCell, formatNumber, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -120,7 +120,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const d = table.delimiter;
   const added = ['mean', 'sd', 'sd_obs'];
   if (threshold !== undefined) added.push('p_exceed');
-  const lines = [table.header.raw + d + added.map((a) => csvCell(a, d)).join(d)];
+  const lines = [recordText(table.header, d) + d + added.map((a) => csvCell(a, d)).join(d)];
   const log = model.transform === 'log';
   for (let i = 0; i < table.records.length; i++) {
     const cells = [formatNumber(p.mean[i]), formatNumber(p.sd[i]), formatNumber(p.sdObserved[i])];
@@ -131,10 +131,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
         : exceedanceProbability(p.mean[i], p.sd[i], threshold);
       cells.push(formatNumber(prob));
     }
-    lines.push(table.records[i].raw + d + cells.join(d));
+    lines.push(recordText(table.records[i], d) + d + cells.join(d));
   }
   await writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
-  io.stderr(`caution: ${CAUTION}\n`);
+  io.stderr(`caution: ${CSV_CAUTION}\n`);
   return 0;
 }
 

@@ -20,7 +20,7 @@ import {
   readText, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { readCsvTable } from '../csv.ts';
+import { CSV_CAUTION, readCsvTable } from '../csv.ts';
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -184,7 +184,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       : format === 'gpx' ? suggestionsToGpx(result, { unit: intake.report.unit || undefined })
         : suggestionsToCsv(result, { inputX: input.x, inputY: input.y });
     await writeOutput(io, out, text);
-    if (format === 'csv') io.stderr(`caution: ${CAUTION}\n`);
+    if (format === 'csv') io.stderr(`caution: ${CSV_CAUTION}\n`);
   }
 
   const unit = intake.report.unit;

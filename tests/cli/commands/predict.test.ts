@@ -27,6 +27,18 @@ function csvRows(text: string): string[][] {
 }
 
 describe('predict command', () => {
+  it('predict writes a target id that starts a formula back with a leading apostrophe, and says so on stderr', async () => {
+    // Spreadsheets run cells beginning with = + - @; a text cell is neutralised, numbers stay as written.
+    const targets = ws.write('hostile-targets.csv', 'station,easting,northing\n=HYPERLINK("http://x"),500010,5000020\n@SUM(1),500030,5000040\n');
+    const r = await ws.run('predict', ...COMMON, '--model', NO_NUGGET, '--targets', targets, '--out', 'hostile-out.csv');
+    expect(r.code).toBe(0);
+    const lines = ws.read('hostile-out.csv').trimEnd().split('\n');
+    expect(lines[0]).toBe('station,easting,northing,mean,sd,sd_obs');
+    expect(lines[1].startsWith(`"'=HYPERLINK(""http://x"")",500010,5000020,`)).toBe(true);
+    expect(lines[2].startsWith("'@SUM(1),500030,5000040,")).toBe(true);
+    expect(r.stderr).toContain('apostrophe');
+  });
+
   it('predict at the sample locations of a zero-nugget model returns the sample values with sd 0', async () => {
     // The samples file is its own targets file: same columns, same order.
     const r = await ws.run('predict', ...COMMON, '--model', NO_NUGGET, '--targets', SAMPLES, '--out', 'at-samples.csv');
