@@ -355,55 +355,86 @@ async function* chunksOf(source: ByteChunks): AsyncGenerator<Uint8Array> {
 }
 
 /**
- * Reads samples from the bytes of a file, chunk by chunk (the command line streams the file; the
- * app's worker streams a File): the text is decoded as it comes (UTF-8, UTF-16 with a byte-order
- * mark, Latin-1 with a warning; binary files refused by what they look like), CSV rows are parsed as
- * they come, and the size limits (MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS) stop the read as soon as they
- * are passed. Gives the same result as `readSamples` on the decoded text.
+ * Reads samples from the bytes of a file pushed chunk by chunk, then `finish()`: the text is decoded
+ * as it comes (UTF-8, UTF-16 with a byte-order mark, Latin-1 with a warning; binary files refused by
+ * what they look like), CSV rows are parsed as they come, and the size limits (MAX_SAMPLE_BYTES,
+ * MAX_SAMPLE_ROWS) stop the read as soon as they are passed. The synchronous core of
+ * `readSamplesStream` (the command line pushes chunks read from the file).
+ */
+export class SampleIntake {
+  private readonly decoder: TextFromBytes;
+  private readonly counter = { rows: 0 };
+  private format: 'csv' | 'geojson' | null;
+  private csv: CsvReader | null = null;
+  private held = '';
+  private bytes = 0;
+
+  constructor(
+    private readonly options: IntakeOptions,
+    private readonly hooks: IntakeStreamHooks = {},
+  ) {
+    checkOptions(options);
+    const file = options.fileName;
+    if (hooks.totalBytes !== undefined && hooks.totalBytes > MAX_SAMPLE_BYTES) throw tooManyBytes(file, hooks.totalBytes, true);
+    this.decoder = new TextFromBytes(file);
+    this.format = options.format ?? (/\.(geo)?json$/i.test(file) ? 'geojson' : /\.(csv|tsv|txt)$/i.test(file) ? 'csv' : null);
+  }
+
+  /** Takes the next chunk of the file's bytes. */
+  push(chunk: Uint8Array): void {
+    this.bytes += chunk.length;
+    if (this.bytes > MAX_SAMPLE_BYTES) throw tooManyBytes(this.options.fileName, MAX_SAMPLE_BYTES, false);
+    this.take(this.decoder.push(chunk), false);
+    this.progress();
+  }
+
+  /** Reads what was pushed into samples. */
+  finish(): IntakeResult {
+    const file = this.options.fileName;
+    this.take(this.decoder.end(), true);
+    let table: Table;
+    if (this.format === 'geojson') {
+      table = geojsonTable(this.held, file);
+      this.held = '';
+      this.counter.rows = table.rows.length + table.entries.filter((e) => e.action === 'rejected').length;
+    } else {
+      table = csvTable((this.csv ?? limitedCsvReader(file, this.counter)).end(), file);
+    }
+    this.progress();
+    table.warnings.unshift(...this.decoder.warnings);
+    return samplesFromTable(table, this.format ?? 'csv', this.options);
+  }
+
+  private progress(): void {
+    const { onProgress, totalBytes } = this.hooks;
+    onProgress?.({ bytes: this.bytes, rows: this.counter.rows, ...(totalBytes !== undefined ? { totalBytes } : {}) });
+  }
+
+  private take(text: string, final: boolean): void {
+    if (this.format === null) {
+      this.held += text;
+      // The format follows the first character that is not a space: "{" is GeoJSON.
+      if (!final && !/\S/.test(this.held)) return;
+      this.format = detectFormat(this.held, this.options);
+      text = this.held;
+      this.held = '';
+    }
+    if (this.format === 'geojson') this.held += text;
+    else {
+      if (this.csv === null) this.csv = limitedCsvReader(this.options.fileName, this.counter);
+      if (text) this.csv.push(text);
+    }
+  }
+}
+
+/**
+ * Reads samples from the bytes of a file as they arrive (the app's worker streams a File, tests give
+ * arrays of chunks); see SampleIntake. Gives the same result as `readSamples` on the decoded text.
  */
 export async function readSamplesStream(source: ByteChunks, options: IntakeOptions, hooks: IntakeStreamHooks = {}): Promise<IntakeResult> {
-  checkOptions(options);
-  const file = options.fileName;
-  if (hooks.totalBytes !== undefined && hooks.totalBytes > MAX_SAMPLE_BYTES) throw tooManyBytes(file, hooks.totalBytes, true);
-  const decoder = new TextFromBytes(file);
-  const counter = { rows: 0 };
-  let format: 'csv' | 'geojson' | null = options.format ?? (/\.(geo)?json$/i.test(file) ? 'geojson' : /\.(csv|tsv|txt)$/i.test(file) ? 'csv' : null);
-  let csv: CsvReader | null = null;
-  let held = '';
-  let bytes = 0;
-  const progress = () => hooks.onProgress?.({ bytes, rows: counter.rows, ...(hooks.totalBytes !== undefined ? { totalBytes: hooks.totalBytes } : {}) });
-  const take = (text: string, final: boolean) => {
-    if (format === null) {
-      held += text;
-      // The format follows the first character that is not a space: "{" is GeoJSON.
-      if (!final && !/\S/.test(held)) return;
-      format = detectFormat(held, options);
-      text = held;
-      held = '';
-    }
-    if (format === 'geojson') held += text;
-    else {
-      if (csv === null) csv = limitedCsvReader(file, counter);
-      if (text) csv.push(text);
-    }
-  };
-  for await (const chunk of chunksOf(source)) {
-    bytes += chunk.length;
-    if (bytes > MAX_SAMPLE_BYTES) throw tooManyBytes(file, MAX_SAMPLE_BYTES, false);
-    take(decoder.push(chunk), false);
-    progress();
-  }
-  take(decoder.end(), true);
-  let table: Table;
-  if (format === 'geojson') table = geojsonTable(held, file);
-  else {
-    if (csv === null) csv = limitedCsvReader(file, counter);
-    table = csvTable((csv as CsvReader).end(), file);
-  }
-  if (format === 'geojson') counter.rows = table.rows.length + table.entries.filter((e) => e.action === 'rejected').length;
-  progress();
-  table.warnings.unshift(...decoder.warnings);
-  return samplesFromTable(table, format ?? 'csv', options);
+  const intake = new SampleIntake(options, hooks);
+  for await (const chunk of chunksOf(source)) intake.push(chunk);
+  return intake.finish();
 }
 
 /** The reading shared by `readSamples` and `readSamplesStream`, from the table on. */
