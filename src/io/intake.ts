@@ -784,19 +784,27 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     let lat = 0;
     let lonSum = 0;
     const t4326 = input.key === 'EPSG:4326' ? null : createTransform(input.key, 'EPSG:4326');
-    const ll = parsed.map((p) => (t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y]));
-    for (const [lo] of ll) {
+    // Typed arrays, not a pair per sample: a large file has millions.
+    const lons = new Float64Array(parsed.length);
+    const lats = new Float64Array(parsed.length);
+    parsed.forEach((p, k) => {
+      const [lo, la] = t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y];
+      lons[k] = lo;
+      lats[k] = la;
+    });
+    for (const lo of lons) {
       lonMin = Math.min(lonMin, lo);
       lonMax = Math.max(lonMax, lo);
     }
     const wrap = lonMax - lonMin > 180;
-    for (const [lo, la] of ll) {
+    for (let k = 0; k < lons.length; k++) {
+      const lo = lons[k];
       lonSum += wrap && lo < 0 ? lo + 360 : lo;
-      lat += la;
+      lat += lats[k];
     }
-    let clon = lonSum / ll.length;
+    let clon = lonSum / lons.length;
     if (clon > 180) clon -= 360;
-    work = resolveCrs(utmZoneFor(clon, lat / ll.length).code);
+    work = resolveCrs(utmZoneFor(clon, lat / lons.length).code);
   } else {
     work = input;
   }

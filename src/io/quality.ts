@@ -38,14 +38,18 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
       }
     }
   }
+  // Only roots with company get a list: no array per sample for the (usual) sample with none.
+  const size = new Int32Array(n);
+  for (let i = 0; i < n; i++) size[find(i)]++;
   const groups = new Map<number, number[]>();
   for (let i = 0; i < n; i++) {
     const r = find(i);
+    if (size[r] < 2) continue;
     const g = groups.get(r);
     if (g) g.push(i);
     else groups.set(r, [i]);
   }
-  return [...groups.values()].filter((g) => g.length > 1).sort((a, b) => a[0] - b[0]);
+  return [...groups.values()].sort((a, b) => a[0] - b[0]);
 }
 
 /** Quantile with linear interpolation between order statistics (type 7, the common default). */
