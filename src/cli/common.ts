@@ -11,6 +11,7 @@ import { GapwiseError, type Warning } from '../core/errors.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
 import { SampleIntake, readSamples } from '../io/intake.ts';
 import { openInputFile, readInputText } from './input-file.ts';
+import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
 import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
@@ -50,7 +51,7 @@ export interface CommandSpec {
 
 /** The options every command that reads samples takes (same names, same defaults everywhere). */
 export const SAMPLE_OPTIONS: OptionSpec[] = [
-  { name: 'samples', kind: 'string', placeholder: 'FILE', help: 'samples file: CSV (one row per sample) or GeoJSON points', required: true },
+  { name: 'samples', kind: 'string', placeholder: 'FILE', help: `samples file: CSV (one row per sample) or GeoJSON points; ${sampleLimitsText()}`, required: true },
   { name: 'value', kind: 'string', placeholder: 'COL', help: 'column (or GeoJSON property) holding the measured value', defaultText: 'detected: the one numeric column besides the coordinates' },
   { name: 'x', kind: 'string', placeholder: 'COL', help: 'column of the x coordinate (longitude, easting)', defaultText: 'detected from usual names (lon, longitude, x, easting, e, ...)' },
   { name: 'y', kind: 'string', placeholder: 'COL', help: 'column of the y coordinate (latitude, northing)', defaultText: 'detected from usual names (lat, latitude, y, northing, n, ...)' },

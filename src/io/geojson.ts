@@ -42,7 +42,8 @@ export function parseJson(text: string, fileName: string): unknown {
     const offset = pos ? Number(pos[1]) : jsonErrorOffset(t);
     const row = offset >= 0 ? lineAt(t, offset) : undefined;
     const near = offset >= 0 ? t.slice(Math.max(0, offset - 20), offset + 20).replace(/\s+/g, ' ').trim() : '';
-    throw new GapwiseError('bad-file', `The file is not valid JSON${row !== undefined ? ` (line ${row}, near "${near}")` : ''}; expected GeoJSON.`, { file: fileName, row, raw: near || undefined });
+    // The line is in the error's place (said once, by whoever shows it), the text near it here.
+    throw new GapwiseError('bad-file', `The file is not valid JSON${near ? ` (near ${JSON.stringify(near).replace(/[\u0000-\u001f\u007f-\u009f]/g, '?')})` : ''}; expected GeoJSON.`, { file: fileName, row, raw: near || undefined });
   }
 }
 

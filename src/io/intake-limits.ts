@@ -5,7 +5,7 @@
  */
 
 /** Largest samples file read, in bytes (CSV or GeoJSON). */
-export const MAX_SAMPLE_BYTES = 256 * 1024 * 1024;
+export const MAX_SAMPLE_BYTES = 128 * 1024 * 1024;
 
 /** Most data rows (CSV) or point features (GeoJSON) read from one samples file. */
 export const MAX_SAMPLE_ROWS = 2_000_000;

@@ -468,7 +468,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       if (yCol < 0) yCol = norm.findIndex((n) => PLANAR_Y.test(n));
     }
     if (xCol < 0 || yCol < 0) {
-      throw new GapwiseError('missing-column', `No ${xCol < 0 ? 'x (longitude or easting)' : 'y (latitude or northing)'} column was found among ${quotedList(columns)}; expected names like lon/lat, longitude/latitude, x/y or easting/northing, or the x and y options.`, { file });
+      throw new GapwiseError('missing-column', `No ${xCol < 0 ? 'x (longitude or easting)' : 'y (latitude or northing)'} column was found among ${quotedList(columns)}; expected names like lon/lat, longitude/latitude, x/y or easting/northing (on the command line, --x and --y name other columns).`, { file });
     }
     if (xCol === yCol) throw new GapwiseError('missing-column', `The x and y columns are both ${quoted(columns[xCol])}; expected two different columns.`, { file, column: columns[xCol] });
     const nx = norm[xCol];
@@ -533,7 +533,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   } else if (numericColumns.length === 0) {
     throw new GapwiseError('missing-column', `No column holds numbers to map; the columns are ${quotedList(columns)}. Expected one numeric value column.`, { file });
   } else {
-    throw new GapwiseError('missing-column', `Several columns hold numbers: ${quotedList(numericColumns)}; choose the one to map with the value option (--value).`, { file });
+    throw new GapwiseError('missing-column', `Several columns hold numbers: ${quotedList(numericColumns)}; choose the one to map (in the app, the value column; on the command line, --value).`, { file });
   }
   const valueName = columns[valueCol];
   // The qualifier that belongs to the value column: one naming it, else the only one.
@@ -673,7 +673,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   let input: ResolvedCrs;
   let detection: string;
   if (options.crs !== undefined) {
-    input = resolveIn(options.crs, file, 'crs');
+    input = resolveIn(options.crs, file, 'Coordinate system');
     detection = 'given';
     if (naming === 'geographic' && !input.geographic) {
       warnings.push({ code: 'crs-names-disagree', message: `The columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like longitude/latitude, but the given CRS ${input.key} is projected; the values are read as ${input.key} coordinates.` });
@@ -685,7 +685,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     }
   } else if (format === 'geojson') {
     if (table.legacyCrs && !/CRS84$|EPSG:{1,2}4326$/i.test(table.legacyCrs)) {
-      input = resolveIn(table.legacyCrs, file, 'crs');
+      input = resolveIn(table.legacyCrs, file, 'The file\'s "crs" member');
       detection = `from the file's "crs" member (${table.legacyCrs})`;
       warnings.push({ code: 'geojson-crs', message: `The GeoJSON declares the CRS ${quoted(table.legacyCrs)}; RFC 7946 allows only WGS 84 longitude/latitude, but the declared CRS was used.` });
     } else {
@@ -729,7 +729,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
         const swapped = parsed.every((q) => inRange(q.y, q.x)) ? bad.length : 0;
         const projected = bad.filter((q) => Math.abs(q.x) > 360 || Math.abs(q.y) > 360).length;
         const hint = swapped * 2 > parsed.length
-          ? ' Most rows would be in range with the two columns swapped: check the column order (or the x and y options).'
+          ? ' Most rows would be in range with the two columns swapped: check the column order (on the command line, --x and --y name them).'
           : projected * 2 > parsed.length
             ? ' Most values look like projected coordinates (metres), not degrees: give their CRS (in the app under Coordinate system; on the command line with --crs).'
             : '';
@@ -775,7 +775,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   // --- working CRS and projection -------------------------------------------------------------
   let work: ResolvedCrs;
   if (options.workCrs !== undefined) {
-    work = resolveIn(options.workCrs, file, 'workCrs');
+    work = resolveIn(options.workCrs, file, 'Working coordinate system');
     if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
   } else if (input.geographic) {
     // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
