@@ -304,6 +304,10 @@ function limitedCsvReader(file: string, counter: { rows: number }): CsvReader {
 function refuseBinaryText(text: string, file: string): void {
   const nul = text.indexOf('\u0000');
   if (nul < 0 && !text.startsWith('\ufffdPNG')) return;
+  // UTF-16 with a byte-order mark, decoded as UTF-8: two replacement characters, then NUL in every other place.
+  if (text.startsWith('\ufffd\ufffd') && (text[3] === '\u0000' || text[2] === '\u0000')) {
+    throw new GapwiseError('bad-file', 'The file is not a UTF-8 text file (it looks like UTF-16 text read as UTF-8); expected CSV or GeoJSON text read from its bytes.', { file });
+  }
   const head = new Uint8Array(Math.min(text.length, 64));
   for (let i = 0; i < head.length; i++) head[i] = text.charCodeAt(i) === 0xfffd ? (i === 0 ? 0x89 : 0xff) : text.charCodeAt(i) & 0xff;
   const kind = binaryKind(head);
@@ -873,7 +877,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
         entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${mv / m}` });
       }
       outRows.push({
-        id: g.map((j) => idOf(kept[j].row)).join(' + '),
+        id: g.slice(0, LIST_NAMES).map((j) => idOf(kept[j].row)).join(' + ') + (g.length > LIST_NAMES ? ` + ${g.length - LIST_NAMES} more` : ''),
         inputX: ix / m,
         inputY: iy / m,
         value: mv / m,
@@ -896,7 +900,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     }
   }
   if (groups.length) {
-    const text = groups.map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ');
+    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
     warnings.push(
       dupRule === 'merge'
         ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }

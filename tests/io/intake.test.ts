@@ -299,6 +299,24 @@ describe('readSamples details', () => {
     expect(e.message).toContain('999,988 more');
   });
 
+  it('readSamples: a thousand samples at one place give one merged sample with a short id and warning', () => {
+    const lines = Array.from({ length: 1000 }, (_, i) => `s${i},11.25,48.5,${i}`);
+    const other = Array.from({ length: 40 }, (_, i) => `t${i},${11.3 + i * 0.001},48.6,1\nu${i},${11.3 + i * 0.001},48.6,3`);
+    const r = readSamples(`id,lon,lat,v\n${lines.join('\n')}\n${other.join('\n')}\n`, { fileName: 'same.csv' });
+    expect(r.rows[0].id).toBe(`${Array.from({ length: 12 }, (_, i) => `s${i}`).join(' + ')} + 988 more`);
+    expectClose([r.samples.value[0]], [499.5], { rel: 1e-12 }, 'mean of 0…999');
+    const w = r.report.warnings.find((x) => x.code === 'duplicates-merged')!;
+    expect(w.message).toContain('41 duplicate locations');
+    expect(w.message).toContain('and 29 more');
+    expect(w.message.length).toBeLessThan(1000);
+  });
+
+  it('readSamples: UTF-16 decoded as UTF-8 by a caller is named, not taken for binary data', () => {
+    const bytes = new Uint8Array([0xff, 0xfe, ...new Uint8Array(Buffer.from('id,lon,lat,v\n1,2,3,4\n', 'utf16le'))]);
+    const e = catchError(() => readSamples(new TextDecoder().decode(bytes), { fileName: 'u.csv' }));
+    expect(e.message).toContain('UTF-16');
+  });
+
   it('readSamples: control characters in file text are shown as codes in messages', () => {
     const e = catchError(() => readSamples('id,lon,lat,a\u001b[2Jb,c\u0007d\n1,1,1,2,3\n', { fileName: 'esc.csv' }));
     expect(e.message).not.toMatch(/[\u0000-\u001f]/);
