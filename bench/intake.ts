@@ -63,6 +63,7 @@ export function writeLonLatCsv(path: string, n: number, seed = 7): number {
 /** In a child process: reads `file` as the command line does and prints seconds, peak RSS and rows. */
 function childRead(file: string): void {
   const t0 = performance.now();
+  const c0 = process.cpuUsage();
   let rows = 0;
   let refused = '';
   try {
@@ -75,8 +76,10 @@ function childRead(file: string): void {
     refused = e.message;
   }
   const seconds = (performance.now() - t0) / 1000;
+  const c1 = process.cpuUsage(c0);
+  const cpu = (c1.user + c1.system) / 1e6;
   const peakMB = process.resourceUsage().maxRSS / 1024;
-  console.log(JSON.stringify({ seconds, peakMB, rows, refused }));
+  console.log(JSON.stringify({ seconds, cpu, peakMB, rows, refused }));
 }
 
 /** Reads a generated file of n rows in a fresh process; one figure. */
@@ -87,9 +90,9 @@ function fileFigure(dir: string, n: number): Row {
   const child = spawnSync(process.execPath, [...process.execArgv, self, '--child', path], { encoding: 'utf8', maxBuffer: 1 << 24 });
   rmSync(path, { force: true });
   if (child.status !== 0) throw new Error(`bench child failed: ${child.stderr}`);
-  const r = JSON.parse(child.stdout.trim().split('\n').pop() as string) as { seconds: number; peakMB: number; rows: number; refused: string };
+  const r = JSON.parse(child.stdout.trim().split('\n').pop() as string) as { seconds: number; cpu: number; peakMB: number; rows: number; refused: string };
   const what = r.refused ? `refused: "${r.refused}"` : `${r.rows.toLocaleString('en-US')} rows used`;
-  return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MB (whole process); ${what}` };
+  return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `CPU ${r.cpu.toFixed(1)} s (all threads); file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MB (whole process); ${what}` };
 }
 
 /** The file figures: 1 M rows (quick: 100,000), the row limit, one past it, and 10 M rows. */

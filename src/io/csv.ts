@@ -110,6 +110,8 @@ export class CsvReader {
     private readonly fileName: string,
     private readonly fixedDelimiter?: Delimiter,
     private readonly onRow?: (row: CsvRow) => void,
+    /** Text held before the delimiter is chosen and parsing starts (tests make it small). */
+    private readonly detectChars = DETECT_CHARS,
   ) {}
 
   push(chunk: string): void {
@@ -127,7 +129,7 @@ export class CsvReader {
     if (!this.anyText && /\S/.test(t)) this.anyText = true;
     this.pending += t;
     if (this.delimiter === null) {
-      if (this.pending.length < DETECT_CHARS || countLines(this.pending, DETECT_LINES) < DETECT_LINES) return;
+      if (this.pending.length < this.detectChars || countLines(this.pending, DETECT_LINES) < Math.min(DETECT_LINES, this.detectChars)) return;
       this.choose();
     }
     this.parse(false);
@@ -152,6 +154,13 @@ export class CsvReader {
 
   private parse(final: boolean): void {
     const input = this.pending;
+    if (final && input === '' && this.endsWithNewline) {
+      // One pass over the whole text ends with an empty row after the last line break; papaparse
+      // gives none for the empty rest, so it is added here.
+      this.blankLines.push(this.line);
+      this.line++;
+      return;
+    }
     const parsed = (this.parser as Papa.Parser).parse(input, 0, !final) as unknown as Papa.ParseResult<string[]>;
     const cursor = final ? input.length : parsed.meta.cursor;
     this.pending = input.slice(cursor);

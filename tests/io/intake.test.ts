@@ -512,6 +512,29 @@ describe('readSamples properties (fast-check)', () => {
     );
   });
 
+  it('readSamplesStream: random CSV-like text split at random points reads as readSamples reads the whole text', async () => {
+    const tokens = fc.constantFrom('lon', 'lat', 'id', 'Pb', '1', '2.5', '11.25', '48.5', '-3', '1,5', '<0.5', 'NA', '', ' ', '"', '""', '\n', '\r\n', '\r', ',', ';', '\t', 'é', '\ufeff', '{');
+    const body = fc.array(tokens, { maxLength: 120 }).map((a) => a.join(''));
+    const text = fc.tuple(fc.constantFrom('id,lon,lat,Pb\n', 'id;lon;lat;Pb\r\n', '\ufeffid\tlon\tlat\tPb\r', ''), body).map(([h, b]) => h + b);
+    const outcome = async (f: () => Promise<IntakeResult> | IntakeResult) => {
+      try {
+        return await f();
+      } catch (e) {
+        if (!(e instanceof GapwiseError)) throw e;
+        return e.toJSON();
+      }
+    };
+    await fc.assert(
+      fc.asyncProperty(text, fc.integer({ min: 1, max: 1 << 30 }), fc.constantFrom('r.csv', 'r'), async (t, seed, fileName) => {
+        const options = { fileName, duplicates: 'keep' as const };
+        const whole = await outcome(() => readSamples(t, options));
+        const streamed = await outcome(() => readSamplesStream(chunked(new TextEncoder().encode(t), seed), options));
+        expect(streamed).toEqual(whole);
+      }),
+      { numRuns: 300 },
+    );
+  });
+
   it('readSamples: random text and bytes raise nothing but GapwiseError', () => {
     const tokens = fc.constantFrom('lon', 'lat', 'x', 'y', 'easting', 'id', 'Pb (mg/kg)', 'qualifier', 'ND', '<', '<0.5', '< 5', '1', '2.5', '-3', '1,5', '1.234', '1,234.5', 'NA', '', ' ', '"', '""', '\n', '\r\n', ',', ';', '\t', '123', '1e400', '200', '-91', '95', '637l80.0', '<script>', '{', '}', '[', ']', ':', 'null');
     const csvish = fc.array(tokens, { maxLength: 80 }).map((a) => a.join(''));
