@@ -243,9 +243,11 @@ function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: nu
 }
 
 function marksFor(rows: Row[], col: number, delimiter: string): ColumnMarks {
-  const cells: string[] = [];
-  for (const r of rows) cells.push(r.cells[col]);
-  return chooseMark(cells, delimiter);
+  // Lazily: with a comma delimiter the mark is settled without looking at a cell.
+  function* cells(): Generator<string> {
+    for (const r of rows) yield r.cells[col];
+  }
+  return chooseMark(cells(), delimiter);
 }
 
 /** resolveCrs with the file named in the error's place. */
