@@ -1,6 +1,7 @@
 /**
  * The intake contract: what reading a samples file returns, shared by the app and the CLI.
- * Implemented by src/io/intake.ts (`readSamples`). Everything here is plain data (postMessage-safe).
+ * Implemented by src/io/intake.ts (`readSamplesStream` for a file's bytes, `readSamples` for text). Everything
+ * here is plain data (postMessage-safe).
  */
 import type { Samples } from '../core/samples.ts';
 import type { Warning } from '../core/errors.ts';
