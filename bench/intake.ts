@@ -5,11 +5,23 @@
  * (wall time is unreliable on a shared, loaded machine) and memory: the change in
  * heapUsed kept by the result (after a collection with --expose-gc) and the rss growth over the read.
  * Targets: under 2 s and about 50 MB beyond the file for 100,000 rows.
- * Run alone: `npx tsx bench/intake.ts` (`--quick`: 20,000 rows), or via `npm run bench`.
+ * File figures: a lon/lat CSV written to a temporary folder and read the command line's way (streamed
+ * from the disk through SampleIntake), each size in a fresh process so that its peak RSS is its own:
+ * seconds and peak RSS for 1 M rows and for the row limit; a file one row past the limit, and one of
+ * 10 M rows, to time the refusal. Target for a file within the limits: under 60 s and 2 GB.
+ * Run alone: `npx tsx bench/intake.ts` (`--quick`: 20,000 rows, smaller files), `--files` for only
+ * the file figures, or via `npm run bench`.
  */
 import type { Row } from './common.ts';
-import { pathToFileURL } from 'node:url';
-import { readSamples } from '../src/io/intake.ts';
+import { pathToFileURL, fileURLToPath } from 'node:url';
+import { spawnSync } from 'node:child_process';
+import { closeSync, mkdtempSync, openSync, rmSync, statSync, writeSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { SampleIntake, readSamples } from '../src/io/intake.ts';
+import { MAX_SAMPLE_ROWS } from '../src/io/intake-limits.ts';
+import { openInputFile } from '../src/cli/input-file.ts';
+import { GapwiseError } from '../src/core/errors.ts';
 import { projectPolygons, readPolygons } from '../src/io/boundary.ts';
 import { createRandom } from '../src/core/random.ts';
 
@@ -27,6 +39,72 @@ export function makeLonLatCsv(n: number, seed = 7): string {
 }
 
 const MB = 1024 * 1024;
+
+/** Writes the same invented rows as makeLonLatCsv to a file, block by block (the text is never whole). */
+export function writeLonLatCsv(path: string, n: number, seed = 7): number {
+  const rnd = createRandom(seed);
+  const fd = openSync(path, 'w');
+  let block = 'sample_id,lon,lat,Pb (mg/kg)\n';
+  for (let i = 0; i < n; i++) {
+    const lon = (11.2 + 0.27 * rnd.uniform()).toFixed(7);
+    const lat = (48.4 + 0.18 * rnd.uniform()).toFixed(7);
+    const v = Math.exp(3.5 + rnd.normal());
+    block += `S${i},${lon},${lat},${v < 5 ? '<5' : v.toFixed(1)}\n`;
+    if (block.length > 1 << 20) {
+      writeSync(fd, block);
+      block = '';
+    }
+  }
+  writeSync(fd, block);
+  closeSync(fd);
+  return statSync(path).size;
+}
+
+/** In a child process: reads `file` as the command line does and prints seconds, peak RSS and rows. */
+function childRead(file: string): void {
+  const t0 = performance.now();
+  const c0 = process.cpuUsage();
+  let rows = 0;
+  let refused = '';
+  try {
+    const { size, chunks } = openInputFile('.', file);
+    const intake = new SampleIntake({ fileName: file }, { totalBytes: size });
+    for (const c of chunks) intake.push(c);
+    rows = intake.finish().report.rowsUsed;
+  } catch (e) {
+    if (!(e instanceof GapwiseError)) throw e;
+    refused = e.message;
+  }
+  const seconds = (performance.now() - t0) / 1000;
+  const c1 = process.cpuUsage(c0);
+  const cpu = (c1.user + c1.system) / 1e6;
+  const peakMB = process.resourceUsage().maxRSS / 1024;
+  console.log(JSON.stringify({ seconds, cpu, peakMB, rows, refused }));
+}
+
+/** Reads a generated file of n rows in a fresh process; one figure. */
+function fileFigure(dir: string, n: number): Row {
+  const path = join(dir, `intake-${n}.csv`);
+  const bytes = writeLonLatCsv(path, n);
+  const self = fileURLToPath(import.meta.url);
+  const child = spawnSync(process.execPath, [...process.execArgv, self, '--child', path], { encoding: 'utf8', maxBuffer: 1 << 24 });
+  rmSync(path, { force: true });
+  if (child.status !== 0) throw new Error(`bench child failed: ${child.stderr}`);
+  const r = JSON.parse(child.stdout.trim().split('\n').pop() as string) as { seconds: number; cpu: number; peakMB: number; rows: number; refused: string };
+  const what = r.refused ? `refused: "${r.refused}"` : `${r.rows.toLocaleString('en-US')} rows used`;
+  return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `CPU ${r.cpu.toFixed(1)} s (all threads); file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MB (whole process); ${what}` };
+}
+
+/** The file figures: 1 M rows (quick: 100,000), the row limit, one past it, and 10 M rows. */
+export function runIntakeFileBench(options: { quick?: boolean } = {}): Row[] {
+  const dir = mkdtempSync(join(tmpdir(), 'gapwise-bench-intake-'));
+  try {
+    const sizes = options.quick ? [100_000, MAX_SAMPLE_ROWS + 1] : [1_000_000, MAX_SAMPLE_ROWS, MAX_SAMPLE_ROWS + 1, 10_000_000];
+    return sizes.map((n) => fileFigure(dir, n));
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
 
 function gc(): void {
   const g = (globalThis as { gc?: () => void }).gc;
@@ -97,10 +175,14 @@ export async function runIntakeBench(options: { quick?: boolean } = {}): Promise
   const t0 = performance.now();
   const projected = projectPolygons(polys, 'EPSG:32632');
   rows.push({ name: 'projectPolygons to UTM', n: 10_001, seconds: (performance.now() - t0) / 1000, note: `${projected[0].rings[0].length} vertices after densification` });
+  rows.push(...runIntakeFileBench(options));
   return rows;
 }
 
-if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
-  const rows = await runIntakeBench({ quick: process.argv.includes('--quick') });
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href && process.argv.includes('--child')) {
+  childRead(process.argv[process.argv.indexOf('--child') + 1]);
+} else if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  const quick = process.argv.includes('--quick');
+  const rows = process.argv.includes('--files') ? runIntakeFileBench({ quick }) : await runIntakeBench({ quick });
   for (const row of rows) console.log(`${row.name.padEnd(34)} n=${String(row.n).padEnd(7)} ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
 }

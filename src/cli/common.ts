@@ -4,12 +4,13 @@
  * printing warnings and notes, the choice between exact kriging and local neighbourhoods for
  * predict, cv and grid (`readPredictionPath`), and progress lines for long runs.
  */
-import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { readSamples } from '../io/intake.ts';
+import { SampleIntake, readSamples } from '../io/intake.ts';
+import { openInputFile, readInputText } from './input-file.ts';
+import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
 import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
@@ -58,7 +59,7 @@ export interface CommandSpec {
 
 /** The options every command that reads samples takes (same names, same defaults everywhere). */
 export const SAMPLE_OPTIONS: OptionSpec[] = [
-  { name: 'samples', kind: 'string', placeholder: 'FILE', help: 'samples file: CSV (one row per sample) or GeoJSON points', required: true },
+  { name: 'samples', kind: 'string', placeholder: 'FILE', help: `samples file: CSV (one row per sample) or GeoJSON points; ${sampleLimitsText()}`, required: true },
   { name: 'value', kind: 'string', placeholder: 'COL', help: 'column (or GeoJSON property) holding the measured value', defaultText: 'detected: the one numeric column besides the coordinates' },
   { name: 'x', kind: 'string', placeholder: 'COL', help: 'column of the x coordinate (longitude, easting)', defaultText: 'detected from usual names (lon, longitude, x, easting, e, ...)' },
   { name: 'y', kind: 'string', placeholder: 'COL', help: 'column of the y coordinate (latitude, northing)', defaultText: 'detected from usual names (lat, latitude, y, northing, n, ...)' },
@@ -73,20 +74,14 @@ export function outOption(what: string, otherwise: string): OptionSpec {
   return { name: 'out', kind: 'string', placeholder: 'FILE', help: what, defaultText: otherwise };
 }
 
-/** Reads a text file; a missing or unreadable file is the user's problem (exit 2), not a bug. */
+/**
+ * Reads a text file; a missing or unreadable file, a device, pipe or folder, or a file over the size
+ * limit is the user's problem (exit 2), not a bug.
+ */
 export function readText(io: CliIo, file: string): string {
   const held = io.files?.[file];
   if (held !== undefined) return held;
-  try {
-    return readFileSync(resolve(io.cwd, file), 'utf8');
-  } catch (e) {
-    const code = (e as { code?: string }).code;
-    const why = code === 'ENOENT' ? 'the file does not exist'
-      : code === 'EISDIR' ? 'it is a folder, not a file'
-        : code === 'EACCES' ? 'permission was denied'
-          : (e as Error).message;
-    throw new GapwiseError('bad-file', `Cannot read the file: ${why}.`, { file });
-  }
+  return readInputText(io.cwd, file);
 }
 
 /**
@@ -134,10 +129,18 @@ export function intakeOptions(values: OptionValues, file: string, workCrs?: stri
 export function readSamplesFile(io: CliIo, values: OptionValues, workCrs?: string): IntakeResult {
   const file = stringOption(values, 'samples');
   if (file === undefined) throw new GapwiseError('bad-option', 'Option "--samples FILE" is required.');
-  const text = readText(io, file);
+  const options = { ...io.intakeDefaults, ...intakeOptions(values, file, workCrs) };
+  const held = io.files?.[file];
   let result: IntakeResult;
   try {
-    result = readSamples(text, { ...io.intakeDefaults, ...intakeOptions(values, file, workCrs) });
+    if (held !== undefined) result = readSamples(held, options);
+    else {
+      // Streamed from the disk: the size and row limits stop a huge file early.
+      const { size, chunks } = openInputFile(io.cwd, file);
+      const intake = new SampleIntake(options, { totalBytes: size });
+      for (const chunk of chunks) intake.push(chunk);
+      result = intake.finish();
+    }
   } catch (e) {
     if (e instanceof GapwiseError && e.place.file === undefined && e.code !== 'bad-option') e.place.file = file;
     throw e;

@@ -80,67 +80,165 @@ export function detectDelimiter(text: string): Delimiter {
   return best;
 }
 
+/** Text looked at before choosing the delimiter (at least this much, and 200 lines, or the whole file). */
+const DETECT_CHARS = 1 << 20;
+const DETECT_LINES = 200;
+/** A row still open after this many characters (an unclosed quote, most likely) is refused. */
+export const MAX_ROW_CHARS = 1 << 20;
+
+/**
+ * Reads delimited text into a table chunk by chunk: push text, then `end()`. The rows are the same as
+ * one papaparse pass over the whole text would give (papaparse's own chunked parsing: each chunk is
+ * parsed up to its last complete row, the rest is carried into the next). `onRow` sees every data row
+ * (after the header) as it is read, e.g. to enforce a row limit.
+ */
+export class CsvReader {
+  private pending = '';
+  private started = false;
+  private endsWithNewline = false;
+  private pendingCr = false;
+  private anyText = false;
+  private delimiter: Delimiter | null = null;
+  private parser: Papa.Parser | null = null;
+  private line = 1;
+  private header: string[] | null = null;
+  private headerLine = 0;
+  private readonly rows: CsvRow[] = [];
+  private readonly blankLines: number[] = [];
+
+  constructor(
+    private readonly fileName: string,
+    private readonly fixedDelimiter?: Delimiter,
+    private readonly onRow?: (row: CsvRow) => void,
+    /** Text held before the delimiter is chosen and parsing starts (tests make it small). */
+    private readonly detectChars = DETECT_CHARS,
+  ) {}
+
+  push(chunk: string): void {
+    let t = chunk;
+    if (!this.started && t.length) {
+      this.started = true;
+      if (t.charCodeAt(0) === 0xfeff) t = t.slice(1);
+    }
+    if (this.pendingCr) t = '\r' + t;
+    this.pendingCr = t.endsWith('\r');
+    if (this.pendingCr) t = t.slice(0, -1);
+    t = t.replace(/\r\n?/g, '\n');
+    if (t.length === 0) return;
+    this.endsWithNewline = t.endsWith('\n');
+    if (!this.anyText && /\S/.test(t)) this.anyText = true;
+    this.pending += t;
+    if (this.delimiter === null) {
+      if (this.pending.length < this.detectChars || countLines(this.pending, DETECT_LINES) < Math.min(DETECT_LINES, this.detectChars)) return;
+      this.choose();
+    }
+    this.parse(false);
+  }
+
+  end(): CsvTable {
+    if (this.pendingCr) {
+      this.pendingCr = false;
+      this.pending += '\n';
+      this.endsWithNewline = true;
+    }
+    if (!this.anyText) throw new GapwiseError('bad-file', 'The file is empty; expected a header line and rows of samples.', { file: this.fileName });
+    if (this.delimiter === null) this.choose();
+    this.parse(true);
+    return this.table();
+  }
+
+  private choose(): void {
+    this.delimiter = this.fixedDelimiter ?? detectDelimiter(this.pending);
+    this.parser = new Papa.Parser({ delimiter: this.delimiter, newline: '\n', quoteChar: '"', escapeChar: '"', skipEmptyLines: false, header: false, dynamicTyping: false });
+  }
+
+  private parse(final: boolean): void {
+    const input = this.pending;
+    if (final && input === '' && this.endsWithNewline) {
+      // One pass over the whole text ends with an empty row after the last line break; papaparse
+      // gives none for the empty rest, so it is added here.
+      this.blankLines.push(this.line);
+      this.line++;
+      return;
+    }
+    const parsed = (this.parser as Papa.Parser).parse(input, 0, !final) as unknown as Papa.ParseResult<string[]>;
+    const cursor = final ? input.length : parsed.meta.cursor;
+    this.pending = input.slice(cursor);
+    if (!final && this.pending.length > MAX_ROW_CHARS) {
+      throw new GapwiseError('bad-file', `A row that starts on line ${this.line} runs on for over ${MAX_ROW_CHARS.toLocaleString('en-US')} characters; a quoted field is probably never closed (expected a closing double quote).`, { file: this.fileName });
+    }
+    const unclosed = parsed.errors.find((e) => e.code === 'MissingQuotes');
+    const data = parsed.data;
+    for (let r = 0; r < data.length; r++) {
+      const cells = data[r];
+      const start = this.line;
+      if (unclosed && unclosed.row === r) {
+        throw new GapwiseError('bad-file', 'A quoted field that starts on this line is never closed; expected a closing double quote.', { file: this.fileName, row: start });
+      }
+      // A row spans one line plus every line break inside its quoted cells.
+      let breaks = 0;
+      for (const c of cells) {
+        for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
+      }
+      this.line += 1 + breaks;
+      if (isBlank(cells)) {
+        this.blankLines.push(start);
+        continue;
+      }
+      if (this.header === null) {
+        this.header = cells;
+        this.headerLine = start;
+      } else {
+        const row = { line: start, cells };
+        this.onRow?.(row);
+        this.rows.push(row);
+      }
+    }
+  }
+
+  private table(): CsvTable {
+    const { blankLines, rows } = this;
+    // papaparse yields a final empty row for a trailing line break; it is not a line of the file.
+    if (this.endsWithNewline && blankLines.length && blankLines[blankLines.length - 1] === this.line - 1) blankLines.pop();
+    const header = this.header;
+    if (header === null) throw new GapwiseError('bad-file', 'The file holds only blank lines; expected a header line and rows of samples.', { file: this.fileName });
+    const renamed: Array<[string, string]> = [];
+    const seen = new Set<string>();
+    const names = header.map((h, i) => {
+      let name = h.trim();
+      const original = name;
+      if (name === '') name = `column ${i + 1}`;
+      if (seen.has(name)) {
+        let k = 2;
+        while (seen.has(`${name} (${k})`)) k++;
+        name = `${name} (${k})`;
+      }
+      seen.add(name);
+      if (name !== original) renamed.push([original, name]);
+      return name;
+    });
+    // Trailing empty header cells (a delimiter at the end of the header line) are not columns.
+    while (names.length > 1 && header[names.length - 1].trim() === '' && rows.every((r) => (r.cells[names.length - 1] ?? '').trim() === '')) {
+      names.pop();
+      renamed.pop();
+    }
+    return { delimiter: this.delimiter as Delimiter, header: names, headerLine: this.headerLine, rows, blankLines, renamed };
+  }
+}
+
+/** Number of "\n" in `t`, counting up to `max`. */
+function countLines(t: string, max: number): number {
+  let n = 0;
+  for (let i = t.indexOf('\n'); i !== -1 && n < max; i = t.indexOf('\n', i + 1)) n++;
+  return n;
+}
+
 /**
  * Reads delimited text into a table. Throws GapwiseError 'bad-file' for an empty file or one whose
  * header has no names.
  */
 export function readCsv(text: string, fileName: string, delimiter?: Delimiter): CsvTable {
-  const t = normaliseText(text);
-  if (t.trim() === '') throw new GapwiseError('bad-file', 'The file is empty; expected a header line and rows of samples.', { file: fileName });
-  const d = delimiter ?? detectDelimiter(t);
-  const parsed = parseWith(t, d);
-  const data = parsed.data;
-  const unclosed = parsed.errors.find((e) => e.code === 'MissingQuotes');
-  let line = 1;
-  let header: string[] | null = null;
-  let headerLine = 0;
-  const rows: CsvRow[] = [];
-  const blankLines: number[] = [];
-  for (let r = 0; r < data.length; r++) {
-    const cells = data[r];
-    const start = line;
-    if (unclosed && unclosed.row === r) {
-      throw new GapwiseError('bad-file', `A quoted field that starts on line ${start} is never closed; expected a closing double quote.`, { file: fileName, row: start });
-    }
-    // A row spans one line plus every line break inside its quoted cells.
-    let breaks = 0;
-    for (const c of cells) {
-      for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
-    }
-    line += 1 + breaks;
-    if (isBlank(cells)) {
-      blankLines.push(start);
-      continue;
-    }
-    if (header === null) {
-      header = cells;
-      headerLine = start;
-    } else {
-      rows.push({ line: start, cells });
-    }
-  }
-  // papaparse yields a final empty row for a trailing line break; it is not a line of the file.
-  if (t.endsWith('\n') && blankLines.length && blankLines[blankLines.length - 1] === line - 1) blankLines.pop();
-  if (header === null) throw new GapwiseError('bad-file', 'The file holds only blank lines; expected a header line and rows of samples.', { file: fileName });
-  const renamed: Array<[string, string]> = [];
-  const seen = new Set<string>();
-  const names = header.map((h, i) => {
-    let name = h.trim();
-    const original = name;
-    if (name === '') name = `column ${i + 1}`;
-    if (seen.has(name)) {
-      let k = 2;
-      while (seen.has(`${name} (${k})`)) k++;
-      name = `${name} (${k})`;
-    }
-    seen.add(name);
-    if (name !== original) renamed.push([original, name]);
-    return name;
-  });
-  // Trailing empty header cells (a delimiter at the end of the header line) are not columns.
-  while (names.length > 1 && header[names.length - 1].trim() === '' && rows.every((r) => (r.cells[names.length - 1] ?? '').trim() === '')) {
-    names.pop();
-    renamed.pop();
-  }
-  return { delimiter: d, header: names, headerLine, rows, blankLines, renamed };
+  const reader = new CsvReader(fileName, delimiter);
+  reader.push(text);
+  return reader.end();
 }

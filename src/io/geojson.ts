@@ -1,7 +1,8 @@
 /**
  * GeoJSON (RFC 7946) sample files: a FeatureCollection of Point or MultiPoint features whose
  * properties are the columns. Coordinates are WGS 84 longitude, latitude. Each feature is checked with
- * geojson-validation; a feature that fails is rejected with its index and the reason, not the file.
+ * geojson-validation; a feature that fails is rejected with its number (from 1) and the reason, not
+ * the file. Properties are kept in a Map, so that names like "__proto__" are names like any other.
  */
 import * as gjv from 'geojson-validation';
 import { GapwiseError } from '../core/errors.ts';
@@ -9,12 +10,14 @@ import type { ReportEntry } from './types.ts';
 
 /** One sample point from a feature (a MultiPoint gives one per position). */
 export interface PointRecord {
-  /** 0-based feature index. */
+  /** Feature number, counted from 1 in the order of the file. */
   feature: number;
+  /** The feature's "id" member, when it has one. */
+  id?: string;
   lon: number;
   lat: number;
-  /** Properties as plain text ('' for null or absent). */
-  cells: Record<string, string>;
+  /** Properties as plain text ('' for null). */
+  cells: Map<string, string>;
 }
 
 export interface PointFeatures {
@@ -39,7 +42,8 @@ export function parseJson(text: string, fileName: string): unknown {
     const offset = pos ? Number(pos[1]) : jsonErrorOffset(t);
     const row = offset >= 0 ? lineAt(t, offset) : undefined;
     const near = offset >= 0 ? t.slice(Math.max(0, offset - 20), offset + 20).replace(/\s+/g, ' ').trim() : '';
-    throw new GapwiseError('bad-file', `The file is not valid JSON${row !== undefined ? ` (line ${row}, near "${near}")` : ''}; expected GeoJSON.`, { file: fileName, row, raw: near || undefined });
+    // The line is in the error's place (said once, by whoever shows it), the text near it here.
+    throw new GapwiseError('bad-file', `The file is not valid JSON${near ? ` (near ${JSON.stringify(near).replace(/[\u0000-\u001f\u007f-\u009f]/g, '?')})` : ''}; expected GeoJSON.`, { file: fileName, row, raw: near || undefined });
   }
 }
 
@@ -179,6 +183,10 @@ function typeName(v: unknown): string {
  */
 export function readPointFeatures(text: string, fileName: string): PointFeatures {
   const obj = parseJson(text, fileName);
+  const geometryType = isObject(obj) ? (obj.type === 'Feature' && isObject(obj.geometry) ? obj.geometry.type : obj.type) : undefined;
+  if (geometryType === 'Polygon' || geometryType === 'MultiPolygon') {
+    throw new GapwiseError('bad-file', `This GeoJSON is a ${geometryType}, not points: is it a boundary? Samples must be Point or MultiPoint features; choose this file as the boundary instead.`, { file: fileName });
+  }
   if (!isObject(obj) || obj.type !== 'FeatureCollection') {
     throw new GapwiseError('bad-file', `The GeoJSON is ${typeName(obj)}; expected a FeatureCollection of Point or MultiPoint features.`, { file: fileName });
   }
@@ -194,10 +202,13 @@ export function readPointFeatures(text: string, fileName: string): PointFeatures
   const records: PointRecord[] = [];
   const entries: ReportEntry[] = [];
   const features = obj.features as unknown[];
+  const polygons: number[] = [];
   for (let i = 0; i < features.length; i++) {
     const f = features[i];
+    const feature = i + 1;
+    const id = isObject(f) && (typeof f.id === 'string' || typeof f.id === 'number') ? String(f.id) : undefined;
     const reject = (reason: string, field?: string, raw?: string) =>
-      entries.push({ feature: i, field, raw, action: 'rejected', reason });
+      entries.push({ feature, ...(id !== undefined ? { id } : {}), field, raw, action: 'rejected', reason });
     if (!isObject(f) || f.type !== 'Feature') {
       reject(`is ${typeName(f)}, not a Feature`);
       continue;
@@ -208,6 +219,7 @@ export function readPointFeatures(text: string, fileName: string): PointFeatures
       continue;
     }
     if (g.type !== 'Point' && g.type !== 'MultiPoint') {
+      if (g.type === 'Polygon' || g.type === 'MultiPolygon') polygons.push(feature);
       reject(`has a ${String(g.type).slice(0, 40)} geometry; expected Point or MultiPoint`, 'geometry', String(g.type).slice(0, 40));
       continue;
     }
@@ -218,26 +230,33 @@ export function readPointFeatures(text: string, fileName: string): PointFeatures
       reject(`has invalid coordinates${problem ? ` (${problem})` : ''}; expected [longitude, latitude] numbers`, 'geometry', propertyText(g.coordinates).slice(0, 200));
       continue;
     }
-    const props = isObject(f.properties) ? f.properties : {};
-    const cells: Record<string, string> = {};
-    for (const [k, v] of Object.entries(props)) {
-      if (!seen.has(k)) {
-        seen.add(k);
-        columns.push(k);
+    // JSON.parse makes "__proto__" an own property; Object.keys and a Map keep it a plain name.
+    const props = isObject(f.properties) ? f.properties : null;
+    const cells = new Map<string, string>();
+    if (props) {
+      for (const k of Object.keys(props)) {
+        if (!seen.has(k)) {
+          seen.add(k);
+          columns.push(k);
+        }
+        cells.set(k, propertyText(props[k]));
       }
-      cells[k] = propertyText(v);
     }
-    if (f.id !== undefined && !('id' in cells)) {
-      cells.id = propertyText(f.id);
+    if (f.id !== undefined && !cells.has('id')) {
+      cells.set('id', propertyText(f.id));
       if (!seen.has('id')) {
         seen.add('id');
         columns.unshift('id');
       }
     }
-    for (const p of positions as number[][]) records.push({ feature: i, lon: p[0], lat: p[1], cells });
+    for (const p of positions as number[][]) records.push({ feature, ...(id !== undefined ? { id } : {}), lon: p[0], lat: p[1], cells });
     if (positions.length > 1) {
-      entries.push({ feature: i, field: 'geometry', action: 'changed', reason: `MultiPoint with ${positions.length} positions read as ${positions.length} samples with the same properties` });
+      entries.push({ feature, ...(id !== undefined ? { id } : {}), field: 'geometry', action: 'changed', reason: `MultiPoint with ${positions.length} positions read as ${positions.length} samples with the same properties` });
     }
+  }
+  if (records.length === 0 && polygons.length > 0) {
+    const which = polygons.length === features.length ? 'every feature is one' : `features ${polygons.slice(0, 12).join(', ')}${polygons.length > 12 ? ' and more' : ''}`;
+    throw new GapwiseError('bad-file', `This GeoJSON holds polygons (${which}) and no points: is it a boundary? Samples must be Point or MultiPoint features; choose this file as the boundary instead.`, { file: fileName });
   }
   return { columns, records, entries, featureCount: features.length, legacyCrs };
 }

@@ -6,8 +6,11 @@
 import { GapwiseError } from '../core/errors.ts';
 import type { Warning } from '../core/errors.ts';
 import { makeSamples } from '../core/samples.ts';
-import { readCsv } from './csv.ts';
+import { CsvReader } from './csv.ts';
+import type { CsvTable } from './csv.ts';
 import { readPointFeatures } from './geojson.ts';
+import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from './intake-limits.ts';
+import { TextFromBytes, binaryKind } from './text-bytes.ts';
 import { LOCAL_CRS, createTransform, resolveCrs, utmZoneFor } from './crs.ts';
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
@@ -69,7 +72,10 @@ export function splitUnit(header: string): { base: string; unit: string } {
 
 interface Row {
   line?: number;
+  /** 1-based feature number (GeoJSON). */
   feature?: number;
+  /** The feature's own id (GeoJSON), for messages. */
+  featureId?: string;
   cells: string[];
   lon?: number;
   lat?: number;
@@ -86,12 +92,13 @@ interface Table {
   legacyCrs?: string;
 }
 
-function place(r: { line?: number; feature?: number }): { line?: number; feature?: number } {
-  return r.line !== undefined ? { line: r.line } : { feature: r.feature };
+function place(r: Row): { line?: number; feature?: number; id?: string } {
+  if (r.line !== undefined) return { line: r.line };
+  return r.featureId !== undefined ? { feature: r.feature, id: r.featureId } : { feature: r.feature };
 }
 
-function where(r: { line?: number; feature?: number }): string {
-  return r.line !== undefined ? `line ${r.line}` : `feature ${r.feature}`;
+function where(r: Row): string {
+  return r.line !== undefined ? `line ${r.line}` : `feature ${r.feature}${r.featureId !== undefined ? ` (id ${quoted(r.featureId)})` : ''}`;
 }
 
 /** "lines 3, 7, 9" with at most `max` listed. */
@@ -99,21 +106,47 @@ function listPlaces(rs: Array<{ line?: number; feature?: number }>, max = 12): s
   if (rs.length === 0) return '';
   const kind = rs[0].line !== undefined ? 'line' : 'feature';
   const nums = rs.slice(0, max).map((r) => (r.line ?? r.feature) as number);
-  const more = rs.length > max ? ` and ${rs.length - max} more` : '';
+  const more = rs.length > max ? ` and ${(rs.length - max).toLocaleString('en-US')} more` : '';
   return `${kind}${rs.length > 1 ? 's' : ''} ${nums.join(', ')}${more}`;
+}
+
+/**
+ * Sets an own property even for names like "__proto__" (a plain assignment would change the
+ * object's prototype instead): column names come from the file.
+ */
+function setOwn(o: Record<string, string>, key: string, value: string): void {
+  if (key === '__proto__') Object.defineProperty(o, key, { value, enumerable: true, writable: true, configurable: true });
+  else o[key] = value;
+}
+
+/** Longest piece of file text quoted in a message; longer text is cut with "…". */
+const QUOTE_CHARS = 80;
+/** Most names listed in a message. */
+const LIST_NAMES = 12;
+
+/** File text in double quotes for a message: control characters shown as \u codes, cut at QUOTE_CHARS. */
+export function quoted(text: string): string {
+  const cut = text.length > QUOTE_CHARS ? `${text.slice(0, QUOTE_CHARS)}…` : text;
+  return `"${cut.replace(/[\u0000-\u001f\u007f-\u009f]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`)}"`;
+}
+
+/** '"a", "b", "c"', at most LIST_NAMES names, then "and N more". */
+export function quotedList(names: readonly string[]): string {
+  const shown = names.slice(0, LIST_NAMES).map(quoted).join(', ');
+  return names.length > LIST_NAMES ? `${shown} and ${(names.length - LIST_NAMES).toLocaleString('en-US')} more` : shown;
 }
 
 function checkOptions(o: IntakeOptions): void {
   if (!o || typeof o !== 'object') throw new GapwiseError('bad-option', 'The intake options are missing; expected an object with at least fileName.');
   if (typeof o.fileName !== 'string') throw new GapwiseError('bad-option', `fileName is ${typeof o.fileName}; expected a string.`);
   if (o.format !== undefined && o.format !== 'csv' && o.format !== 'geojson') {
-    throw new GapwiseError('bad-option', `format is "${String(o.format)}"; expected "csv" or "geojson".`, { file: o.fileName });
+    throw new GapwiseError('bad-option', `format is ${quoted(String(o.format))}; expected "csv" or "geojson".`, { file: o.fileName });
   }
-  if (o.nonDetect !== undefined && !(o.nonDetect in RULE_FACTOR)) {
-    throw new GapwiseError('bad-option', `nonDetect is "${String(o.nonDetect)}"; expected "half", "dl" or "sqrt2".`, { file: o.fileName });
+  if (o.nonDetect !== undefined && !Object.hasOwn(RULE_FACTOR, o.nonDetect)) {
+    throw new GapwiseError('bad-option', `nonDetect is ${quoted(String(o.nonDetect))}; expected "half", "dl" or "sqrt2".`, { file: o.fileName });
   }
   if (o.duplicates !== undefined && o.duplicates !== 'merge' && o.duplicates !== 'keep') {
-    throw new GapwiseError('bad-option', `duplicates is "${String(o.duplicates)}"; expected "merge" or "keep".`, { file: o.fileName });
+    throw new GapwiseError('bad-option', `duplicates is ${quoted(String(o.duplicates))}; expected "merge" or "keep".`, { file: o.fileName });
   }
   if (o.duplicateTolerance !== undefined && !(Number.isFinite(o.duplicateTolerance) && o.duplicateTolerance >= 0)) {
     throw new GapwiseError('bad-option', `duplicateTolerance is ${String(o.duplicateTolerance)}; expected a distance ≥ 0 in metres.`, { file: o.fileName });
@@ -127,8 +160,7 @@ function detectFormat(text: string, o: IntakeOptions): 'csv' | 'geojson' {
   return /^\ufeff?\s*\{/.test(text) ? 'geojson' : 'csv';
 }
 
-function csvTable(text: string, fileName: string): Table {
-  const t = readCsv(text, fileName);
+function csvTable(t: CsvTable, fileName: string): Table {
   const width = t.header.length;
   const rows: Row[] = [];
   const entries: ReportEntry[] = [];
@@ -139,7 +171,7 @@ function csvTable(text: string, fileName: string): Table {
       const extra = cells.slice(width);
       if (extra.every((c) => c.trim() === '')) cells.length = width;
       else {
-        entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} fields but the header has ${width}; a value may hold an unquoted ${t.delimiter === '\t' ? 'tab' : `"${t.delimiter}"`}` });
+        entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} fields but the header has ${width}; a value may hold an unquoted ${t.delimiter === '\t' ? 'tab' : `${quoted(t.delimiter)}`}` });
         continue;
       }
     }
@@ -150,20 +182,29 @@ function csvTable(text: string, fileName: string): Table {
     rows.push(r);
   }
   if (t.renamed.length) {
-    warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${t.renamed.map(([a, b]) => `"${a}" → "${b}"`).join(', ')}.` });
+    const shown = t.renamed.slice(0, LIST_NAMES).map(([a, b]) => `${quoted(a)} → ${quoted(b)}`).join(', ');
+    const more = t.renamed.length > LIST_NAMES ? ` and ${(t.renamed.length - LIST_NAMES).toLocaleString('en-US')} more` : '';
+    warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${shown}${more}.` });
   }
   if (t.blankLines.length) {
     warnings.push({ code: 'blank-lines', message: `${t.blankLines.length} blank line${t.blankLines.length === 1 ? '' : 's'} skipped (${listPlaces(t.blankLines.map((line) => ({ line })))}).` });
   }
   if (rows.length === 0 && entries.length === 0) {
-    throw new GapwiseError('bad-file', `The file has a header (line ${t.headerLine}) but no rows of samples; expected at least one row under it.`, { file: fileName, row: t.headerLine });
+    throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
   }
   return { format: 'csv', columns: t.header, rows, delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines };
 }
 
 function geojsonTable(text: string, fileName: string): Table {
   const g = readPointFeatures(text, fileName);
-  const rows: Row[] = g.records.map((r) => ({ feature: r.feature, lon: r.lon, lat: r.lat, cells: g.columns.map((c) => r.cells[c] ?? '') }));
+  if (g.records.length > MAX_SAMPLE_ROWS) throw tooManyRows(fileName, g.records.length);
+  const rows: Row[] = g.records.map((r) => ({
+    feature: r.feature,
+    ...(r.id !== undefined ? { featureId: r.id } : {}),
+    lon: r.lon,
+    lat: r.lat,
+    cells: g.columns.map((c) => r.cells.get(c) ?? ''),
+  }));
   if (rows.length === 0 && g.entries.length === 0) {
     throw new GapwiseError('bad-file', 'The FeatureCollection has no features; expected at least one Point or MultiPoint feature.', { file: fileName });
   }
@@ -182,7 +223,7 @@ function findColumn(columns: string[], want: string): number {
 }
 
 function missingColumn(file: string, what: string, want: string, columns: string[]): GapwiseError {
-  return new GapwiseError('missing-column', `There is no ${what} column "${want}"; the columns are ${columns.map((c) => `"${c}"`).join(', ')}.`, { file, column: want });
+  return new GapwiseError('missing-column', `There is no ${what} column ${quoted(want)}; the columns are ${quotedList(columns)}.`, { file, column: want });
 }
 
 /** Share of non-missing cells (of the first 2000 rows) of a column that read as numbers or "<number" non-detects. */
@@ -202,9 +243,11 @@ function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: nu
 }
 
 function marksFor(rows: Row[], col: number, delimiter: string): ColumnMarks {
-  const cells: string[] = [];
-  for (const r of rows) cells.push(r.cells[col]);
-  return chooseMark(cells, delimiter);
+  // Lazily: with a comma delimiter the mark is settled without looking at a cell.
+  function* cells(): Generator<string> {
+    for (const r of rows) yield r.cells[col];
+  }
+  return chooseMark(cells(), delimiter);
 }
 
 /** resolveCrs with the file named in the error's place. */
@@ -225,24 +268,187 @@ interface Parsed {
   nd: boolean;
 }
 
+/** Progress of a streamed read: bytes and data rows read so far, and the file's size when known. */
+export interface IntakeProgress {
+  bytes: number;
+  rows: number;
+  totalBytes?: number;
+}
+
+/** How a streamed read reports and what it knows beforehand. Not part of the (JSON-able) options. */
+export interface IntakeStreamHooks {
+  /** Called after each chunk (and once at the end of reading). */
+  onProgress?: (progress: IntakeProgress) => void;
+  /** The file's size when known (a File's size, fstat): refused at once when over the limit. */
+  totalBytes?: number;
+}
+
+/** The chunks of a file: an async or plain iterable of byte arrays, or a web ReadableStream. */
+export type ByteChunks = AsyncIterable<Uint8Array> | Iterable<Uint8Array> | ReadableStream<Uint8Array>;
+
+function tooManyBytes(file: string, bytes: number, exact: boolean): GapwiseError {
+  return new GapwiseError('bad-file', `The file is ${exact ? '' : 'over '}${megabytes(bytes)}; expected a samples file of at most ${megabytes(MAX_SAMPLE_BYTES)}.`, { file });
+}
+
+function tooManyRows(file: string, rows: number): GapwiseError {
+  return new GapwiseError('bad-file', `The file holds over ${(rows - 1).toLocaleString('en-US')} rows of samples; expected at most ${MAX_SAMPLE_ROWS.toLocaleString('en-US')}.`, { file });
+}
+
+/** A CSV reader that refuses more than MAX_SAMPLE_ROWS data rows as soon as it meets one more. */
+function limitedCsvReader(file: string, counter: { rows: number }): CsvReader {
+  return new CsvReader(file, undefined, () => {
+    counter.rows++;
+    if (counter.rows > MAX_SAMPLE_ROWS) throw tooManyRows(file, counter.rows);
+  });
+}
+
+/** Text that holds NUL characters is not text: say what it looks like. */
+function refuseBinaryText(text: string, file: string): void {
+  const nul = text.indexOf('\u0000');
+  if (nul < 0 && !text.startsWith('\ufffdPNG')) return;
+  // UTF-16 with a byte-order mark, decoded as UTF-8: two replacement characters, then NUL in every other place.
+  if (text.startsWith('\ufffd\ufffd') && (text[3] === '\u0000' || text[2] === '\u0000')) {
+    throw new GapwiseError('bad-file', 'The file is not a UTF-8 text file (it looks like UTF-16 text read as UTF-8); expected CSV or GeoJSON text read from its bytes.', { file });
+  }
+  const head = new Uint8Array(Math.min(text.length, 64));
+  for (let i = 0; i < head.length; i++) head[i] = text.charCodeAt(i) === 0xfffd ? (i === 0 ? 0x89 : 0xff) : text.charCodeAt(i) & 0xff;
+  const kind = binaryKind(head);
+  throw new GapwiseError('bad-file', `The file is not a UTF-8 text file (it looks like ${kind ?? 'binary data: it holds NUL characters'}); expected CSV or GeoJSON text.`, { file });
+}
+
 /**
  * Reads samples from CSV or GeoJSON text. Detects the delimiter, decimal marks, coordinate, value,
  * ID and qualifier columns and the CRS; substitutes non-detects; projects to the working CRS; merges
  * (or keeps) duplicate locations; flags outliers; and reports every row it did not take as read.
+ * The same reading as `readSamplesStream` on the text's UTF-8 bytes.
  *
- * Throws GapwiseError: 'bad-file' (not CSV/GeoJSON, empty, header only), 'missing-column' (value
- * column absent or ambiguous, coordinates not found), 'bad-crs', 'bad-value' (coordinates outside the
- * CRS's valid range, or no usable row at all; with `strict`, any rejected row), 'bad-option'.
+ * Throws GapwiseError: 'bad-file' (not CSV/GeoJSON, empty, header only, beyond the size limits),
+ * 'missing-column' (value column absent or ambiguous, coordinates not found), 'bad-crs', 'bad-value'
+ * (most coordinates outside the CRS's valid range, or no usable row at all; with `strict`, any
+ * rejected row), 'bad-option'.
  */
 export function readSamples(text: string, options: IntakeOptions): IntakeResult {
   checkOptions(options);
   if (typeof text !== 'string') throw new GapwiseError('bad-file', `The file content is ${typeof text}; expected text.`, { file: options.fileName });
   const file = options.fileName;
+  refuseBinaryText(text, file);
+  if (text.length > MAX_SAMPLE_BYTES) throw tooManyBytes(file, text.length, false);
+  const format = detectFormat(text, options);
+  let table: Table;
+  if (format === 'geojson') table = geojsonTable(text, file);
+  else {
+    const reader = limitedCsvReader(file, { rows: 0 });
+    reader.push(text);
+    table = csvTable(reader.end(), file);
+  }
+  return samplesFromTable(table, format, options);
+}
+
+async function* chunksOf(source: ByteChunks): AsyncGenerator<Uint8Array> {
+  if (typeof (source as ReadableStream<Uint8Array>).getReader === 'function') {
+    const reader = (source as ReadableStream<Uint8Array>).getReader();
+    try {
+      for (;;) {
+        const { done, value } = await reader.read();
+        if (done) return;
+        yield value;
+      }
+    } finally {
+      reader.releaseLock();
+    }
+  }
+  yield* source as AsyncIterable<Uint8Array> | Iterable<Uint8Array>;
+}
+
+/**
+ * Reads samples from the bytes of a file pushed chunk by chunk, then `finish()`: the text is decoded
+ * as it comes (UTF-8, UTF-16 with a byte-order mark, Latin-1 with a warning; binary files refused by
+ * what they look like), CSV rows are parsed as they come, and the size limits (MAX_SAMPLE_BYTES,
+ * MAX_SAMPLE_ROWS) stop the read as soon as they are passed. The synchronous core of
+ * `readSamplesStream` (the command line pushes chunks read from the file).
+ */
+export class SampleIntake {
+  private readonly decoder: TextFromBytes;
+  private readonly counter = { rows: 0 };
+  private format: 'csv' | 'geojson' | null;
+  private csv: CsvReader | null = null;
+  private held = '';
+  private bytes = 0;
+
+  constructor(
+    private readonly options: IntakeOptions,
+    private readonly hooks: IntakeStreamHooks = {},
+  ) {
+    checkOptions(options);
+    const file = options.fileName;
+    if (hooks.totalBytes !== undefined && hooks.totalBytes > MAX_SAMPLE_BYTES) throw tooManyBytes(file, hooks.totalBytes, true);
+    this.decoder = new TextFromBytes(file);
+    this.format = options.format ?? (/\.(geo)?json$/i.test(file) ? 'geojson' : /\.(csv|tsv|txt)$/i.test(file) ? 'csv' : null);
+  }
+
+  /** Takes the next chunk of the file's bytes. */
+  push(chunk: Uint8Array): void {
+    this.bytes += chunk.length;
+    if (this.bytes > MAX_SAMPLE_BYTES) throw tooManyBytes(this.options.fileName, MAX_SAMPLE_BYTES, false);
+    this.take(this.decoder.push(chunk), false);
+    this.progress();
+  }
+
+  /** Reads what was pushed into samples. */
+  finish(): IntakeResult {
+    const file = this.options.fileName;
+    this.take(this.decoder.end(), true);
+    let table: Table;
+    if (this.format === 'geojson') {
+      table = geojsonTable(this.held, file);
+      this.held = '';
+      this.counter.rows = table.rows.length + table.entries.filter((e) => e.action === 'rejected').length;
+    } else {
+      table = csvTable((this.csv ?? limitedCsvReader(file, this.counter)).end(), file);
+    }
+    this.progress();
+    table.warnings.unshift(...this.decoder.warnings);
+    return samplesFromTable(table, this.format ?? 'csv', this.options);
+  }
+
+  private progress(): void {
+    const { onProgress, totalBytes } = this.hooks;
+    onProgress?.({ bytes: this.bytes, rows: this.counter.rows, ...(totalBytes !== undefined ? { totalBytes } : {}) });
+  }
+
+  private take(text: string, final: boolean): void {
+    if (this.format === null) {
+      this.held += text;
+      // The format follows the first character that is not a space: "{" is GeoJSON.
+      if (!final && !/\S/.test(this.held)) return;
+      this.format = detectFormat(this.held, this.options);
+      text = this.held;
+      this.held = '';
+    }
+    if (this.format === 'geojson') this.held += text;
+    else {
+      if (this.csv === null) this.csv = limitedCsvReader(this.options.fileName, this.counter);
+      if (text) this.csv.push(text);
+    }
+  }
+}
+
+/**
+ * Reads samples from the bytes of a file as they arrive (the app's worker streams a File, tests give
+ * arrays of chunks); see SampleIntake. Gives the same result as `readSamples` on the decoded text.
+ */
+export async function readSamplesStream(source: ByteChunks, options: IntakeOptions, hooks: IntakeStreamHooks = {}): Promise<IntakeResult> {
+  const intake = new SampleIntake(options, hooks);
+  for await (const chunk of chunksOf(source)) intake.push(chunk);
+  return intake.finish();
+}
+
+/** The reading shared by `readSamples` and `readSamplesStream`, from the table on. */
+function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: IntakeOptions): IntakeResult {
+  const file = options.fileName;
   const rule: NonDetectRule = options.nonDetect ?? 'half';
   const dupRule = options.duplicates ?? 'merge';
   const tolerance = options.duplicateTolerance ?? 0.01;
-  const format = detectFormat(text, options);
-  const table = format === 'geojson' ? geojsonTable(text, file) : csvTable(text, file);
   const { columns, rows } = table;
   const entries: ReportEntry[] = [...table.entries];
   const warnings: Warning[] = [...table.warnings];
@@ -268,9 +474,9 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
       if (yCol < 0) yCol = norm.findIndex((n) => PLANAR_Y.test(n));
     }
     if (xCol < 0 || yCol < 0) {
-      throw new GapwiseError('missing-column', `No ${xCol < 0 ? 'x (longitude or easting)' : 'y (latitude or northing)'} column was found among ${columns.map((c) => `"${c}"`).join(', ')}; expected names like lon/lat, longitude/latitude, x/y or easting/northing, or the x and y options.`, { file });
+      throw new GapwiseError('missing-column', `No ${xCol < 0 ? 'x (longitude or easting)' : 'y (latitude or northing)'} column was found among ${quotedList(columns)}; expected names like lon/lat, longitude/latitude, x/y or easting/northing (on the command line, --x and --y name other columns).`, { file });
     }
-    if (xCol === yCol) throw new GapwiseError('missing-column', `The x and y columns are both "${columns[xCol]}"; expected two different columns.`, { file, column: columns[xCol] });
+    if (xCol === yCol) throw new GapwiseError('missing-column', `The x and y columns are both ${quoted(columns[xCol])}; expected two different columns.`, { file, column: columns[xCol] });
     const nx = norm[xCol];
     const ny = norm[yCol];
     if (LON.test(nx) && LAT.test(ny)) naming = 'geographic';
@@ -321,19 +527,19 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   if (options.value !== undefined) {
     valueCol = findColumn(columns, options.value);
     if (valueCol < 0) {
-      throw new GapwiseError('missing-column', `There is no value column "${options.value}"; the numeric columns are ${numericColumns.length ? numericColumns.map((c) => `"${c}"`).join(', ') : '(none)'}.`, { file, column: options.value });
+      throw new GapwiseError('missing-column', `There is no value column ${quoted(options.value)}; the numeric columns are ${numericColumns.length ? quotedList(numericColumns) : '(none)'}.`, { file, column: options.value });
     }
     if (valueCol === xCol || valueCol === yCol) {
-      throw new GapwiseError('missing-column', `The value column "${columns[valueCol]}" is also a coordinate column; expected one of ${numericColumns.map((c) => `"${c}"`).join(', ')}.`, { file, column: options.value });
+      throw new GapwiseError('missing-column', `The value column ${quoted(columns[valueCol])} is also a coordinate column; expected one of ${quotedList(numericColumns)}.`, { file, column: options.value });
     }
     if (valueCol === idCol) idCol = -1;
     if (valueCol === dlCol) dlCol = -1;
   } else if (numericColumns.length === 1) {
     valueCol = columns.indexOf(numericColumns[0]);
   } else if (numericColumns.length === 0) {
-    throw new GapwiseError('missing-column', `No column holds numbers to map; the columns are ${columns.map((c) => `"${c}"`).join(', ')}. Expected one numeric value column.`, { file });
+    throw new GapwiseError('missing-column', `No column holds numbers to map; the columns are ${quotedList(columns)}. Expected one numeric value column.`, { file });
   } else {
-    throw new GapwiseError('missing-column', `Several columns hold numbers: ${numericColumns.map((c) => `"${c}"`).join(', ')}; choose the one to map with the value option (--value).`, { file });
+    throw new GapwiseError('missing-column', `Several columns hold numbers: ${quotedList(numericColumns)}; choose the one to map (in the app, the value column; on the command line, --value).`, { file });
   }
   const valueName = columns[valueCol];
   // The qualifier that belongs to the value column: one naming it, else the only one.
@@ -347,9 +553,9 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   const vMarks = marksOf(valueCol);
   const dlMarks = dlCol >= 0 ? marksOf(dlCol) : null;
   for (const [name, m] of [[columns[xCol], xMarks], [columns[yCol], yMarks], [valueName, vMarks]] as Array<[string, ColumnMarks | null]>) {
-    if (m?.mixed) warnings.push({ code: 'mixed-decimal-marks', message: `Column "${name}" mixes decimal points and decimal commas; each cell was read by its own mark and ambiguous ones were rejected.` });
+    if (m?.mixed) warnings.push({ code: 'mixed-decimal-marks', message: `Column ${quoted(name)} mixes decimal points and decimal commas; each cell was read by its own mark and ambiguous ones were rejected.` });
   }
-  const parsed: Parsed[] = [];
+  let parsed: Parsed[] = [];
   const grouped: Array<{ line?: number; feature?: number }> = [];
   const missing: Row[] = [];
   const unknownQualifiers = new Set<string>();
@@ -380,12 +586,12 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
       }
       const px = parseColumnNumber(xs, xMarks as ColumnMarks);
       if (!px.ok) {
-        reject(columns[xCol], xs, `"${xs}" ${px.reason}`);
+        reject(columns[xCol], xs, `${quoted(xs)} ${px.reason}`);
         continue;
       }
       const py = parseColumnNumber(ys, yMarks as ColumnMarks);
       if (!py.ok) {
-        reject(columns[yCol], ys, `"${ys}" ${py.reason}`);
+        reject(columns[yCol], ys, `${quoted(ys)} ${py.reason}`);
         continue;
       }
       if (px.grouped || py.grouped) {
@@ -406,7 +612,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     if (ndText !== null) {
       const p = parseColumnNumber(ndText, vMarks);
       if (!p.ok) {
-        reject(valueName, vs, `the detection limit "${ndText}" ${p.reason}`);
+        reject(valueName, vs, `the detection limit ${quoted(ndText)} ${p.reason}`);
         continue;
       }
       nd = true;
@@ -425,7 +631,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     } else {
       const p = parseColumnNumber(vs, vMarks);
       if (!p.ok) {
-        reject(valueName, vs, `"${vs}" ${p.reason}`);
+        reject(valueName, vs, `${quoted(vs)} ${p.reason}`);
         continue;
       }
       if (p.grouped) {
@@ -444,7 +650,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
       }
       value = dl * factor;
       ndCount++;
-      const qualNote = qualSaysNd && ndText === null ? ` (qualifier "${r.cells[qualCol].trim()}" in "${columns[qualCol]}")` : '';
+      const qualNote = qualSaysNd && ndText === null ? ` (qualifier ${quoted(r.cells[qualCol].trim())} in ${quoted(columns[qualCol])})` : '';
       entries.push({ ...place(r), field: valueName, raw: vs, action: 'changed', reason: `non-detect below ${dl}${qualNote}: replaced by ${value} (${RULE_TEXT[rule]})` });
     }
     parsed.push({ row: r, x, y, value: value!, nd });
@@ -456,58 +662,58 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     warnings.push({ code: 'missing-values', message: `${missing.length} row${missing.length === 1 ? '' : 's'} with a missing value or coordinate skipped (${listPlaces(missing)}).` });
   }
   if (unknownQualifiers.size) {
-    warnings.push({ code: 'unknown-qualifier', message: `Qualifier values ${[...unknownQualifiers].slice(0, 8).map((v) => `"${v}"`).join(', ')} in "${columns[qualCol]}" were taken as detected.` });
+    warnings.push({ code: 'unknown-qualifier', message: `Qualifier values ${[...unknownQualifiers].slice(0, 8).map((v) => `${quoted(v)}`).join(', ')} in ${quoted(columns[qualCol])} were taken as detected.` });
   }
   const rejected = entries.filter((e) => e.action === 'rejected');
   if (parsed.length === 0) {
     const first = rejected[0];
-    const detail = first ? ` The first: ${first.line !== undefined ? `line ${first.line}` : `feature ${first.feature}`}${first.field ? `, column "${first.field}"` : ''}: ${first.reason}.` : '';
+    const detail = first ? ` The first rejected (at the place named): ${first.reason}.` : '';
     throw new GapwiseError('bad-value', `None of the ${rows.length + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line, feature: first?.feature, column: first?.field, raw: first?.raw });
   }
   if (options.strict && rejected.length) {
     const first = rejected[0];
-    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first ${first.reason}.`, { file, row: first.line, feature: first.feature, column: first.field, raw: first.raw });
+    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${first.reason}.`, { file, row: first.line, feature: first.feature, column: first.field, raw: first.raw });
   }
 
   // --- CRS ----------------------------------------------------------------------------------
   let input: ResolvedCrs;
   let detection: string;
   if (options.crs !== undefined) {
-    input = resolveIn(options.crs, file, 'crs');
+    input = resolveIn(options.crs, file, 'Coordinate system');
     detection = 'given';
     if (naming === 'geographic' && !input.geographic) {
-      warnings.push({ code: 'crs-names-disagree', message: `The columns "${columns[xCol]}" and "${columns[yCol]}" are named like longitude/latitude, but the given CRS ${input.key} is projected; the values are read as ${input.key} coordinates.` });
+      warnings.push({ code: 'crs-names-disagree', message: `The columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like longitude/latitude, but the given CRS ${input.key} is projected; the values are read as ${input.key} coordinates.` });
     } else if (naming === 'planar' && input.geographic) {
-      warnings.push({ code: 'crs-names-disagree', message: `The columns "${columns[xCol]}" and "${columns[yCol]}" are named like planar coordinates, but the given CRS ${input.key} is longitude/latitude; the values are read as degrees.` });
+      warnings.push({ code: 'crs-names-disagree', message: `The columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like planar coordinates, but the given CRS ${input.key} is longitude/latitude; the values are read as degrees.` });
     }
     if (format === 'geojson' && !input.geographic) {
       warnings.push({ code: 'geojson-crs', message: `GeoJSON positions are WGS 84 longitude/latitude (RFC 7946), but the CRS ${input.key} was given; the positions are read in ${input.key}.` });
     }
   } else if (format === 'geojson') {
     if (table.legacyCrs && !/CRS84$|EPSG:{1,2}4326$/i.test(table.legacyCrs)) {
-      input = resolveIn(table.legacyCrs, file, 'crs');
+      input = resolveIn(table.legacyCrs, file, 'The file\'s "crs" member');
       detection = `from the file's "crs" member (${table.legacyCrs})`;
-      warnings.push({ code: 'geojson-crs', message: `The GeoJSON declares the CRS "${table.legacyCrs}"; RFC 7946 allows only WGS 84 longitude/latitude, but the declared CRS was used.` });
+      warnings.push({ code: 'geojson-crs', message: `The GeoJSON declares the CRS ${quoted(table.legacyCrs)}; RFC 7946 allows only WGS 84 longitude/latitude, but the declared CRS was used.` });
     } else {
       input = resolveCrs('EPSG:4326');
       detection = 'GeoJSON positions are WGS 84 longitude/latitude (RFC 7946)';
     }
   } else if (naming === 'geographic') {
     input = resolveCrs('EPSG:4326');
-    detection = `columns "${columns[xCol]}" and "${columns[yCol]}" are named like longitude/latitude, so WGS 84 (EPSG:4326) was assumed`;
+    detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like longitude/latitude, so WGS 84 (EPSG:4326) was assumed`;
   } else {
     const degrees = parsed.every((p) => Math.abs(p.x) <= 180 && Math.abs(p.y) <= 90);
     if (naming === 'planar') {
       input = resolveCrs(LOCAL_CRS);
-      detection = `columns "${columns[xCol]}" and "${columns[yCol]}" are named like planar coordinates and no CRS was given, so they were taken as local planar metres`;
-      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns "${columns[xCol]}" and "${columns[yCol]}": distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS, e.g. EPSG:32633 (in the app under Coordinate system; on the command line with --crs).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give EPSG:4326.' : ''}` });
+      detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like planar coordinates and no CRS was given, so they were taken as local planar metres`;
+      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])}: distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS, e.g. EPSG:32633 (in the app under Coordinate system; on the command line with --crs).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give EPSG:4326.' : ''}` });
     } else if (degrees) {
       input = resolveCrs('EPSG:4326');
-      detection = `the names "${columns[xCol]}" and "${columns[yCol]}" say nothing about the CRS; all values lie within longitude −180…180 and latitude −90…90, so WGS 84 (EPSG:4326) was assumed`;
+      detection = `the names ${quoted(columns[xCol])} and ${quoted(columns[yCol])} say nothing about the CRS; all values lie within longitude −180…180 and latitude −90…90, so WGS 84 (EPSG:4326) was assumed`;
       warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs if this is wrong.` });
     } else {
       input = resolveCrs(LOCAL_CRS);
-      detection = `the names "${columns[xCol]}" and "${columns[yCol]}" say nothing about the CRS and the values exceed longitude/latitude ranges, so they were taken as local planar metres`;
+      detection = `the names ${quoted(columns[xCol])} and ${quoted(columns[yCol])} say nothing about the CRS and the values exceed longitude/latitude ranges, so they were taken as local planar metres`;
       warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs to place the samples on a map.` });
     }
   }
@@ -517,20 +723,40 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   const xName = format === 'csv' ? columns[xCol] : 'geometry';
   const yName = format === 'csv' ? columns[yCol] : 'geometry';
   if (input.geographic) {
-    const badLat = parsed.find((p) => !(p.y >= -90 && p.y <= 90));
-    const badLon = parsed.find((p) => !(p.x >= -180 && p.x <= 180));
-    if (badLat || badLon) {
-      const swapFits = parsed.every((p) => Math.abs(p.x) <= 90 && Math.abs(p.y) <= 180);
-      const hint = swapFits ? ' The longitude and latitude look swapped: check the column order (or the x and y options).' : '';
-      const p = (badLat ?? badLon) as Parsed;
-      const what = badLat ? `Latitude ${p.y} is outside −90…90` : `Longitude ${p.x} is outside −180…180`;
-      throw new GapwiseError('bad-value', `${what} at ${where(p.row)}; expected WGS 84 longitude/latitude in degrees (${input.key}).${hint}`, {
-        file,
-        row: p.row.line,
-        feature: p.row.feature,
-        column: badLat ? yName : xName,
-        raw: String(badLat ? p.y : p.x),
-      });
+    const inRange = (x: number, y: number) => y >= -90 && y <= 90 && x >= -180 && x <= 180;
+    const bad = parsed.filter((p) => !inRange(p.x, p.y));
+    if (bad.length) {
+      const p = bad[0];
+      const latBad = !(p.y >= -90 && p.y <= 90);
+      const what = (q: Parsed) => (!(q.y >= -90 && q.y <= 90) ? `latitude ${q.y} is outside −90…90` : `longitude ${q.x} is outside −180…180`);
+      if (bad.length * 2 > parsed.length) {
+        // Most rows are out of range: a whole-file problem, said with the hint that holds, if any.
+        // Swapping is a whole-column matter: it must also leave the good rows good.
+        const swapped = parsed.every((q) => inRange(q.y, q.x)) ? bad.length : 0;
+        const projected = bad.filter((q) => Math.abs(q.x) > 360 || Math.abs(q.y) > 360).length;
+        const hint = swapped * 2 > parsed.length
+          ? ' Most rows would be in range with the two columns swapped: check the column order (on the command line, --x and --y name them).'
+          : projected * 2 > parsed.length
+            ? ' Most values look like projected coordinates (metres), not degrees: give their CRS (in the app under Coordinate system; on the command line with --crs).'
+            : '';
+        throw new GapwiseError('bad-value', `${bad.length.toLocaleString('en-US')} of ${parsed.length.toLocaleString('en-US')} rows are outside WGS 84 longitude/latitude; the first: ${what(p)}; expected degrees in ${input.key}.${hint}`, {
+          file,
+          row: p.row.line,
+          feature: p.row.feature,
+          column: latBad ? yName : xName,
+          raw: String(latBad ? p.y : p.x),
+        });
+      }
+      // A few rows out of range: each is rejected with its line; the rest are read.
+      for (const q of bad) {
+        const qLat = !(q.y >= -90 && q.y <= 90);
+        entries.push({ ...place(q.row), field: qLat ? yName : xName, raw: String(qLat ? q.y : q.x), action: 'rejected', reason: `${what(q)}; expected degrees in ${input.key}` });
+      }
+      const badSet = new Set(bad);
+      parsed = parsed.filter((q) => !badSet.has(q));
+      if (options.strict) {
+        throw new GapwiseError('bad-value', `${bad.length} row${bad.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${what(p)}.`, { file, row: p.row.line, feature: p.row.feature, column: latBad ? yName : xName, raw: String(latBad ? p.y : p.x) });
+      }
     }
   } else if (input.key !== LOCAL_CRS) {
     if (input.utm) {
@@ -555,7 +781,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   // --- working CRS and projection -------------------------------------------------------------
   let work: ResolvedCrs;
   if (options.workCrs !== undefined) {
-    work = resolveIn(options.workCrs, file, 'workCrs');
+    work = resolveIn(options.workCrs, file, 'Working coordinate system');
     if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
   } else if (input.geographic) {
     // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
@@ -564,19 +790,27 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     let lat = 0;
     let lonSum = 0;
     const t4326 = input.key === 'EPSG:4326' ? null : createTransform(input.key, 'EPSG:4326');
-    const ll = parsed.map((p) => (t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y]));
-    for (const [lo] of ll) {
+    // Typed arrays, not a pair per sample: a large file has millions.
+    const lons = new Float64Array(parsed.length);
+    const lats = new Float64Array(parsed.length);
+    parsed.forEach((p, k) => {
+      const [lo, la] = t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y];
+      lons[k] = lo;
+      lats[k] = la;
+    });
+    for (const lo of lons) {
       lonMin = Math.min(lonMin, lo);
       lonMax = Math.max(lonMax, lo);
     }
     const wrap = lonMax - lonMin > 180;
-    for (const [lo, la] of ll) {
+    for (let k = 0; k < lons.length; k++) {
+      const lo = lons[k];
       lonSum += wrap && lo < 0 ? lo + 360 : lo;
-      lat += la;
+      lat += lats[k];
     }
-    let clon = lonSum / ll.length;
+    let clon = lonSum / lons.length;
     if (clon > 180) clon -= 360;
-    work = resolveCrs(utmZoneFor(clon, lat / ll.length).code);
+    work = resolveCrs(utmZoneFor(clon, lat / lons.length).code);
   } else {
     work = input;
   }
@@ -608,10 +842,8 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   const idOf = (r: Row) => (idCol >= 0 && r.cells[idCol].trim() !== '' ? r.cells[idCol] : where(r));
   const rawOf = (r: Row) => {
     const o: Record<string, string> = {};
-    for (let i = 0; i < columns.length; i++) o[columns[i]] = r.cells[i];
-    if (format === 'geojson') {
-      o['geometry'] = `${r.lon}, ${r.lat}`;
-    }
+    for (let i = 0; i < columns.length; i++) setOwn(o, columns[i], r.cells[i]);
+    if (format === 'geojson') setOwn(o, 'geometry', `${r.lon}, ${r.lat}`);
     return o;
   };
   const groups = duplicateGroups(wx, wy, tolerance);
@@ -647,7 +879,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
         entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${mv / m}` });
       }
       outRows.push({
-        id: g.map((j) => idOf(kept[j].row)).join(' + '),
+        id: g.slice(0, LIST_NAMES).map((j) => idOf(kept[j].row)).join(' + ') + (g.length > LIST_NAMES ? ` + ${g.length - LIST_NAMES} more` : ''),
         inputX: ix / m,
         inputY: iy / m,
         value: mv / m,
@@ -670,7 +902,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     }
   }
   if (groups.length) {
-    const text = groups.map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ');
+    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
     warnings.push(
       dupRule === 'merge'
         ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }
@@ -686,7 +918,7 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
     entries.push({ ...(format === 'csv' ? { line: first } : { feature: first }), field: valueName, raw: String(outRows[i].value), action: 'flagged', reason: 'outlier: beyond 3 interquartile ranges from the quartiles; kept' });
   }
   if (outliers.length) {
-    warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${outRows[i].value} (${outRows[i].lines[0]})`).join(', ')}.` });
+    warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${outRows[i].value} (${format === 'csv' ? 'line' : 'feature'} ${outRows[i].lines[0]})`).join(', ')}${outliers.length > 12 ? ` and ${outliers.length - 12} more` : ''}.` });
   }
   const summary = summarise(sv);
   if (summary.n < 3) {
@@ -712,9 +944,9 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   };
   const decimalMarks: Record<string, string> = {};
   if (format === 'csv') {
-    decimalMarks[columns[xCol]] = (xMarks as ColumnMarks).mark;
-    decimalMarks[columns[yCol]] = (yMarks as ColumnMarks).mark;
-    decimalMarks[valueName] = vMarks.mark;
+    setOwn(decimalMarks, columns[xCol], (xMarks as ColumnMarks).mark);
+    setOwn(decimalMarks, columns[yCol], (yMarks as ColumnMarks).mark);
+    setOwn(decimalMarks, valueName, vMarks.mark);
   }
   const report: ReadReport = {
     fileName: file,

@@ -38,14 +38,18 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
       }
     }
   }
+  // Only roots with company get a list: no array per sample for the (usual) sample with none.
+  const size = new Int32Array(n);
+  for (let i = 0; i < n; i++) size[find(i)]++;
   const groups = new Map<number, number[]>();
   for (let i = 0; i < n; i++) {
     const r = find(i);
+    if (size[r] < 2) continue;
     const g = groups.get(r);
     if (g) g.push(i);
     else groups.set(r, [i]);
   }
-  return [...groups.values()].filter((g) => g.length > 1).sort((a, b) => a[0] - b[0]);
+  return [...groups.values()].sort((a, b) => a[0] - b[0]);
 }
 
 /** Quantile with linear interpolation between order statistics (type 7, the common default). */
@@ -124,5 +128,5 @@ export function transformAdvice(summary: Summary): string {
   if (summary.min <= 0) {
     return `The values are strongly right-skewed (skewness ${g}), but a log transform is not possible because some values are zero or negative (minimum ${summary.min}); consider a model without a transform or check those values.`;
   }
-  return `The values are strongly right-skewed (skewness ${g} > ${SKEWNESS_FOR_LOG}) and all positive: consider the log transform (model "transform": "log"), which usually gives a clearer variogram and better-calibrated uncertainty.`;
+  return `The values are strongly right-skewed (skewness ${g} > ${SKEWNESS_FOR_LOG}) and all positive: consider modelling their logarithm (the log transform), which usually gives a clearer variogram and better-calibrated uncertainty.`;
 }

@@ -1,6 +1,7 @@
 /**
  * The intake contract: what reading a samples file returns, shared by the app and the CLI.
- * Implemented by src/io/intake.ts (`readSamples`). Everything here is plain data (postMessage-safe).
+ * Implemented by src/io/intake.ts (`readSamplesStream` for a file's bytes, `readSamples` for text). Everything
+ * here is plain data (postMessage-safe).
  */
 import type { Samples } from '../core/samples.ts';
 import type { Warning } from '../core/errors.ts';
@@ -33,9 +34,12 @@ export interface IntakeOptions {
 
 /** One row that was rejected or changed; nothing is dropped without one. */
 export interface ReportEntry {
-  /** 1-based line (header = line 1) for CSV, feature index (0-based) for GeoJSON. */
+  /** 1-based line (header = line 1) for CSV. */
   line?: number;
+  /** Feature number for GeoJSON, counted from 1 in the order of the file. */
   feature?: number;
+  /** The GeoJSON feature's own "id", when it has one. */
+  id?: string;
   field?: string;
   raw?: string;
   action: 'rejected' | 'changed' | 'merged' | 'flagged';
@@ -97,7 +101,7 @@ export interface SampleRow {
   value: number;
   /** 'nd' non-detect, 'dup' merged duplicate, 'outlier'. */
   flags: string[];
-  /** 1-based line or feature index of the source row(s). */
+  /** 1-based line (CSV) or feature number counted from 1 (GeoJSON) of the source row(s). */
   lines: number[];
   /** The whole source row as text, for display (never as HTML). */
   raw: Record<string, string>;

@@ -61,7 +61,8 @@ describe('main', () => {
   });
 
   it('main returns 2 with the line and column of a bad cell', async () => {
-    ws.write('swapped.csv', 'id,lon,lat,pb\n1,11.25,48.5,10\n2,11.251,48.5,20\n3,11.25,123.5,30\n4,11.252,48.501,12\n');
+    // Most rows out of range refuse the file (one such row alone would be rejected with its line).
+    ws.write('swapped.csv', 'id,lon,lat,pb\n1,11.25,48.5,10\n2,11.251,48.5,20\n3,11.25,123.5,30\n4,11.252,123.501,12\n5,11.253,123.502,14\n');
     const r = await ws.run('inspect', '--samples', 'swapped.csv');
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/^error: swapped\.csv, line 4, column "lat": /);

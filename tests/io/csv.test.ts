@@ -1,6 +1,7 @@
 // Delimited text to rows with their physical lines; expected values read off the test strings.
 import { describe, expect, it } from 'vitest';
-import { detectDelimiter, normaliseText, readCsv } from '../../src/io/csv.ts';
+import fc from 'fast-check';
+import { CsvReader, detectDelimiter, normaliseText, readCsv } from '../../src/io/csv.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 
 describe('detectDelimiter', () => {
@@ -58,5 +59,38 @@ describe('readCsv', () => {
     const t = readCsv('<b>x</b>,y\n"<script>alert(1)</script>",&amp;\n', 'h.csv');
     expect(t.header).toEqual(['<b>x</b>', 'y']);
     expect(t.rows[0].cells).toEqual(['<script>alert(1)</script>', '&amp;']);
+  });
+});
+
+describe('CsvReader', () => {
+  it('CsvReader: text pushed in random pieces, parsed chunk by chunk, gives the table of one pass over the whole text', () => {
+    const tokens = fc.constantFrom('a', 'b1', '2.5', '', ' ', '"', '""', '"x,y"', '"multi\nline"', '\n', '\r\n', '\r', ',', ';', '\t', 'é', '\ufeff');
+    const text = fc.array(tokens, { maxLength: 150 }).map((a) => a.join(''));
+    const outcome = (f: () => unknown) => {
+      try {
+        return f();
+      } catch (e) {
+        if (!(e instanceof GapwiseError)) throw e;
+        return e.toJSON();
+      }
+    };
+    fc.assert(
+      fc.property(text, fc.array(fc.integer({ min: 0, max: 200 }), { maxLength: 12 }), fc.constantFrom(',', ';', '\t') as fc.Arbitrary<',' | ';' | '\t'>, (t, cuts, d) => {
+        const whole = outcome(() => readCsv(t, 'c.csv', d));
+        const points = [...new Set(cuts.map((c) => Math.min(c, t.length)))].sort((x, y) => x - y);
+        const streamed = outcome(() => {
+          // Parsing starts after 1 character, so every push after the first is parsed on its own.
+          const reader = new CsvReader('c.csv', d, undefined, 1);
+          let from = 0;
+          for (const p of [...points, t.length]) {
+            reader.push(t.slice(from, p));
+            from = p;
+          }
+          return reader.end();
+        });
+        expect(streamed).toEqual(whole);
+      }),
+      { numRuns: 500 },
+    );
   });
 });

@@ -10,13 +10,14 @@ describe('readPointFeatures', () => {
   it('readPointFeatures: properties become text columns in first-seen order, feature ids an id column', () => {
     const r = readPointFeatures(fc([pt(1, 2, { Pb: 10, note: null }, 'a'), pt(3, 4, { Pb: '<2', extra: { d: 1 } }, 'b')]), 'f.geojson');
     expect(r.columns).toEqual(['id', 'Pb', 'note', 'extra']);
-    expect(r.records.map((q) => [q.feature, q.lon, q.lat])).toEqual([[0, 1, 2], [1, 3, 4]]);
-    expect(r.records[0].cells).toEqual({ Pb: '10', note: '', id: 'a' });
-    expect(r.records[1].cells).toEqual({ Pb: '<2', extra: '{"d":1}', id: 'b' });
+    expect(r.records.map((q) => [q.feature, q.lon, q.lat])).toEqual([[1, 1, 2], [2, 3, 4]]);
+    expect(Object.fromEntries(r.records[0].cells)).toEqual({ Pb: '10', note: '', id: 'a' });
+    expect(Object.fromEntries(r.records[1].cells)).toEqual({ Pb: '<2', extra: '{"d":1}', id: 'b' });
+    expect(r.records.map((q) => q.id)).toEqual(['a', 'b']);
     expect(r.entries).toEqual([]);
   });
 
-  it('readPointFeatures: non-point and invalid features are rejected by index, not the file', () => {
+  it('readPointFeatures: non-point and invalid features are rejected by their number from 1, not the file', () => {
     const r = readPointFeatures(
       fc([
         pt(1, 2, {}),
@@ -28,8 +29,30 @@ describe('readPointFeatures', () => {
       'f.geojson',
     );
     expect(r.records).toHaveLength(1);
-    expect(r.entries.map((e) => [e.feature, e.action])).toEqual([[1, 'rejected'], [2, 'rejected'], [3, 'rejected'], [4, 'rejected']]);
+    expect(r.entries.map((e) => [e.feature, e.action])).toEqual([[2, 'rejected'], [3, 'rejected'], [4, 'rejected'], [5, 'rejected']]);
     expect(r.featureCount).toBe(5);
+  });
+
+  it('readPointFeatures: properties named __proto__ and constructor are plain columns', () => {
+    const text = '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1,2]},"properties":{"__proto__":"7.5","constructor":"c","toString":"t"}}]}';
+    const r = readPointFeatures(text, 'p.geojson');
+    expect(r.columns).toEqual(['__proto__', 'constructor', 'toString']);
+    expect([...r.records[0].cells]).toEqual([['__proto__', '7.5'], ['constructor', 'c'], ['toString', 't']]);
+    expect(({} as Record<string, unknown>).polluted).toBeUndefined();
+  });
+
+  it('readPointFeatures: a file of polygons is named as one (a boundary?), not rejected feature by feature', () => {
+    const poly = { type: 'Feature', geometry: { type: 'Polygon', coordinates: [[[0, 0], [1, 0], [1, 1], [0, 0]]] }, properties: {} };
+    for (const t of [fc([poly, poly]), JSON.stringify(poly), JSON.stringify(poly.geometry)]) {
+      try {
+        readPointFeatures(t, 'b.geojson');
+        expect.fail(t);
+      } catch (e) {
+        expect((e as GapwiseError).code).toBe('bad-file');
+        expect((e as GapwiseError).message).toMatch(/polygons|Polygon/);
+        expect((e as GapwiseError).message).toContain('boundary');
+      }
+    }
   });
 
   it('readPointFeatures: a legacy crs member is reported', () => {

@@ -5,9 +5,10 @@ import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { readSamples, splitUnit, normaliseName, NON_DETECT_NOTE } from '../../src/io/intake.ts';
+import { readSamples, readSamplesStream, splitUnit, normaliseName, NON_DETECT_NOTE } from '../../src/io/intake.ts';
 import { readPolygons, pointInPolygons } from '../../src/io/boundary.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
+import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from '../../src/io/intake-limits.ts';
 import type { IntakeOptions, IntakeResult, ReportEntry } from '../../src/io/types.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
@@ -20,7 +21,7 @@ interface Case {
   file: string;
   kind?: 'samples' | 'polygons';
   options?: Partial<IntakeOptions>;
-  error?: { code: string; row?: number; feature?: number; column?: string; raw?: string; message?: string[] };
+  error?: { code: string; row?: number; feature?: number; column?: string; raw?: string; message?: string[]; notMessage?: string[] };
   expect?: Record<string, unknown>;
   polygons?: { count: number; ringCounts: number[]; inside: Array<[number, number, boolean]> };
 }
@@ -28,8 +29,33 @@ interface Case {
 const manifest = JSON.parse(readFileSync(resolve(DIR, 'expected.json'), 'utf8')) as { cases: Case[] };
 const proj = loadFixture<{ crs: string; lon: number; lat: number; x: number; y: number }>('proj.json');
 
-function read(c: Case): IntakeResult {
-  return readSamples(readFileSync(resolve(DIR, c.file), 'utf8'), { fileName: c.file, ...c.options });
+/** Splits bytes into chunks at seeded pseudo-random points (1 to 64 bytes), as a stream might. */
+function chunked(bytes: Uint8Array, seed: number): Uint8Array[] {
+  const out: Uint8Array[] = [];
+  let s = seed;
+  for (let i = 0; i < bytes.length; ) {
+    s = (s * 1103515245 + 12345) % 2147483648;
+    const n = 1 + (s % 64);
+    out.push(bytes.subarray(i, i + n));
+    i += n;
+  }
+  return out;
+}
+
+/** Reads a corpus file as the command line and the app do: its bytes, streamed in small chunks. */
+async function read(c: Case): Promise<IntakeResult> {
+  const bytes = new Uint8Array(readFileSync(resolve(DIR, c.file)));
+  return readSamplesStream(chunked(bytes, c.file.length), { fileName: c.file, ...c.options });
+}
+
+async function catchErrorAsync(f: () => Promise<unknown>): Promise<GapwiseError> {
+  try {
+    await f();
+  } catch (e) {
+    expect(e).toBeInstanceOf(GapwiseError);
+    return e as GapwiseError;
+  }
+  throw new Error('expected a GapwiseError, got none');
 }
 
 function catchError(f: () => unknown): GapwiseError {
@@ -66,7 +92,7 @@ describe('readSamples on the intake corpus', () => {
   });
 
   for (const c of manifest.cases) {
-    it(`readSamples: ${c.file} — ${c.name}`, () => {
+    it(`readSamplesStream: ${c.file} — ${c.name}`, async () => {
       if (c.kind === 'polygons') {
         const text = readFileSync(resolve(DIR, c.file), 'utf8');
         if (c.error) {
@@ -85,15 +111,19 @@ describe('readSamples on the intake corpus', () => {
         return;
       }
       if (c.error) {
-        const e = catchError(() => read(c));
+        const e = await catchErrorAsync(() => read(c));
         expect(e.code, e.message).toBe(c.error.code);
         if (c.error.row !== undefined) expect(e.place.row).toBe(c.error.row);
+        if (c.error.feature !== undefined) expect(e.place.feature).toBe(c.error.feature);
+        for (const m of c.error.notMessage ?? []) expect(e.message).not.toContain(m);
+        // Messages stay short whatever the file holds.
+        expect(e.message.length).toBeLessThan(2000);
         if (c.error.column !== undefined) expect(e.place.column).toBe(c.error.column);
         if (c.error.raw !== undefined) expect(e.place.raw).toBe(c.error.raw);
         for (const m of c.error.message ?? []) expect(e.message).toContain(m);
         return;
       }
-      const r = read(c);
+      const r = await read(c);
       const x = c.expect!;
       const rep = r.report;
       // Invariants of every read: one row per sample, every input row accounted for, the note present.
@@ -225,16 +255,72 @@ describe('readSamples details', () => {
     expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
   });
 
-  it('readSamples: a GeoJSON latitude out of range names the feature', () => {
-    const text = JSON.stringify({ type: 'FeatureCollection', features: [
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [11.25, 48.5] }, properties: { Pb: 1 } },
-      { type: 'Feature', geometry: { type: 'Point', coordinates: [11.26, 95] }, properties: { Pb: 2 } },
-    ] });
-    const e = catchError(() => readSamples(text, { fileName: 'g.geojson' }));
+  it('readSamples: a GeoJSON latitude out of range rejects that feature, counted from 1 and named by its id', () => {
+    const pt = (lon: number, lat: number, id: string, Pb: number) => ({ type: 'Feature', id, geometry: { type: 'Point', coordinates: [lon, lat] }, properties: { Pb } });
+    const one = JSON.stringify({ type: 'FeatureCollection', features: [pt(11.25, 48.5, 'A-1', 1), pt(11.26, 95, 'B-7', 2), pt(11.27, 48.52, 'C-3', 3)] });
+    const r = readSamples(one, { fileName: 'g.geojson' });
+    expect(r.report.rowsUsed).toBe(2);
+    expect(r.rows.map((q) => q.lines)).toEqual([[1], [3]]);
+    expect(r.report.entries).toEqual([{ feature: 2, id: 'B-7', field: 'geometry', raw: '95', action: 'rejected', reason: 'latitude 95 is outside −90…90; expected degrees in EPSG:4326' }]);
+    const most = JSON.stringify({ type: 'FeatureCollection', features: [pt(11.25, 48.5, 'A-1', 1), pt(11.26, 195, 'B-7', 2), pt(11.27, 197, 'C-3', 3)] });
+    const e = catchError(() => readSamples(most, { fileName: 'g.geojson' }));
     expect(e.code).toBe('bad-value');
-    expect(e.place).toMatchObject({ file: 'g.geojson', feature: 1 });
+    expect(e.place).toMatchObject({ file: 'g.geojson', feature: 2 });
     expect(e.place.row).toBeUndefined();
-    expect(e.describe()).toContain('feature 1');
+    expect(e.describe()).toContain('feature 2');
+    expect(e.message).not.toContain('swapped');
+  });
+
+  it('readSamples: CSV headers named __proto__, constructor and toString are plain columns', () => {
+    const text = 'id,lon,lat,__proto__,constructor,toString\n1,11.25,48.5,10,a,b\n2,11.26,48.51,20,c,d\n3,11.27,48.52,30,e,f\n';
+    const r = readSamples(text, { fileName: 'p.csv' });
+    expect(r.report.valueColumn).toBe('__proto__');
+    expect(r.report.columns).toEqual(['id', 'lon', 'lat', '__proto__', 'constructor', 'toString']);
+    expect(Object.entries(r.rows[0].raw)).toEqual([['id', '1'], ['lon', '11.25'], ['lat', '48.5'], ['__proto__', '10'], ['constructor', 'a'], ['toString', 'b']]);
+    expect(Object.getPrototypeOf(r.rows[0].raw)).toBe(Object.prototype);
+    expect(Object.keys(r.report.decimalMarks ?? {})).toContain('__proto__');
+    expect(JSON.parse(JSON.stringify(r.rows[0].raw)).__proto__).toBe('10');
+    const g = '{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[11.25,48.5]},"properties":{"__proto__":"7.5"}},{"type":"Feature","geometry":{"type":"Point","coordinates":[11.26,48.51]},"properties":{"__proto__":"8"}}]}';
+    const rg = readSamples(g, { fileName: 'p.geojson' });
+    expect(rg.report.valueColumn).toBe('__proto__');
+    expectClose(rg.samples.value, [7.5, 8], { abs: 0 }, 'values');
+  });
+
+  it('readSamples: an option naming an Object.prototype member is refused, not used', () => {
+    const e = catchError(() => readSamples('id,lon,lat,v\n1,1,1,1\n', { fileName: 'o.csv', nonDetect: 'toString' as never }));
+    expect(e.code).toBe('bad-option');
+  });
+
+  it('readSamples: a header of a million columns gives a short message', () => {
+    const header = Array.from({ length: 1_000_000 }, (_, i) => `c${i}`).join(',');
+    const e = catchError(() => readSamples(`${header}\n${'1,'.repeat(999_999)}1\n`, { fileName: 'wide.csv' }));
+    expect(e.code).toBe('missing-column');
+    expect(e.message.length).toBeLessThan(2000);
+    expect(e.message).toContain('999,988 more');
+  });
+
+  it('readSamples: a thousand samples at one place give one merged sample with a short id and warning', () => {
+    const lines = Array.from({ length: 1000 }, (_, i) => `s${i},11.25,48.5,${i}`);
+    const other = Array.from({ length: 40 }, (_, i) => `t${i},${11.3 + i * 0.001},48.6,1\nu${i},${11.3 + i * 0.001},48.6,3`);
+    const r = readSamples(`id,lon,lat,v\n${lines.join('\n')}\n${other.join('\n')}\n`, { fileName: 'same.csv' });
+    expect(r.rows[0].id).toBe(`${Array.from({ length: 12 }, (_, i) => `s${i}`).join(' + ')} + 988 more`);
+    expectClose([r.samples.value[0]], [499.5], { rel: 1e-12 }, 'mean of 0…999');
+    const w = r.report.warnings.find((x) => x.code === 'duplicates-merged')!;
+    expect(w.message).toContain('41 duplicate locations');
+    expect(w.message).toContain('and 29 more');
+    expect(w.message.length).toBeLessThan(1000);
+  });
+
+  it('readSamples: UTF-16 decoded as UTF-8 by a caller is named, not taken for binary data', () => {
+    const bytes = new Uint8Array([0xff, 0xfe, ...new Uint8Array(Buffer.from('id,lon,lat,v\n1,2,3,4\n', 'utf16le'))]);
+    const e = catchError(() => readSamples(new TextDecoder().decode(bytes), { fileName: 'u.csv' }));
+    expect(e.message).toContain('UTF-16');
+  });
+
+  it('readSamples: control characters in file text are shown as codes in messages', () => {
+    const e = catchError(() => readSamples('id,lon,lat,a\u001b[2Jb,c\u0007d\n1,1,1,2,3\n', { fileName: 'esc.csv' }));
+    expect(e.message).not.toMatch(/[\u0000-\u001f]/);
+    expect(e.message).toContain('\\u001b');
   });
 
   it('readSamples: a yes/no non-detect column is read by its name', () => {
@@ -243,6 +329,108 @@ describe('readSamples details', () => {
     expect(r.report.qualifierColumn).toBe('non_detect');
     expectClose(r.samples.value, [0.1, 0.9, 1.4], { rel: 1e-12 }, 'values');
   });
+});
+
+describe('readSamplesStream', () => {
+  // Every UTF-8 text file of the corpus: the stream (in chunks of 1 to 64 bytes) and the text give
+  // the same result, or the same error.
+  for (const c of manifest.cases.filter((k) => k.kind !== 'polygons')) {
+    it(`readSamplesStream: ${c.file} (${c.name}) gives what readSamples gives on its text`, async () => {
+      const bytes = new Uint8Array(readFileSync(resolve(DIR, c.file)));
+      const text = new TextDecoder('utf-8', { fatal: false }).decode(bytes);
+      if (text.includes('\ufffd') || text.includes('\u0000') || bytes[0] === 0xff || bytes[0] === 0xfe) return; // not UTF-8: only the stream reads it
+      const options = { fileName: c.file, ...c.options };
+      let fromText: unknown;
+      let fromStream: unknown;
+      try {
+        fromText = readSamples(readFileSync(resolve(DIR, c.file), 'utf8'), options);
+      } catch (e) {
+        fromText = (e as GapwiseError).toJSON();
+      }
+      try {
+        fromStream = await readSamplesStream(chunked(bytes, 17), options);
+      } catch (e) {
+        fromStream = (e as GapwiseError).toJSON();
+      }
+      expect(fromStream).toEqual(fromText);
+    });
+  }
+
+  it('readSamplesStream: reports progress in bytes and rows, and reads a ReadableStream', async () => {
+    const text = 'id,lon,lat,v\n' + Array.from({ length: 500 }, (_, i) => `${i},${11 + i * 1e-3},48.5,${i}`).join('\n') + '\n';
+    const bytes = new TextEncoder().encode(text);
+    const seen: Array<{ bytes: number; rows: number; totalBytes?: number }> = [];
+    const stream = new ReadableStream<Uint8Array>({
+      start(controller) {
+        for (const c of chunked(bytes, 3)) controller.enqueue(c);
+        controller.close();
+      },
+    });
+    const r = await readSamplesStream(stream, { fileName: 's.csv' }, { totalBytes: bytes.length, onProgress: (p) => seen.push(p) });
+    expect(r.report.rowsUsed).toBe(500);
+    const last = seen[seen.length - 1];
+    expect(last).toEqual({ bytes: bytes.length, rows: 500, totalBytes: bytes.length });
+    for (let i = 1; i < seen.length; i++) expect(seen[i].bytes).toBeGreaterThanOrEqual(seen[i - 1].bytes);
+  });
+
+  it('readSamplesStream: a stated size over the byte limit is refused before reading, with the limit in the message', async () => {
+    let pulled = 0;
+    const source = (function* () {
+      pulled++;
+      yield new Uint8Array(10);
+    })();
+    const e = await catchErrorAsync(() => readSamplesStream(source, { fileName: 'big.csv' }, { totalBytes: MAX_SAMPLE_BYTES + 1 }));
+    expect(e.code).toBe('bad-file');
+    expect(e.message).toContain(megabytes(MAX_SAMPLE_BYTES));
+    expect(pulled).toBe(0);
+  });
+
+  it('readSamplesStream: an endless stream of zero bytes is refused at its first chunk', async () => {
+    let pulled = 0;
+    const zeros = (function* () {
+      for (;;) {
+        pulled++;
+        yield new Uint8Array(65536);
+      }
+    })();
+    const e = await catchErrorAsync(() => readSamplesStream(zeros, { fileName: 'zero' }));
+    expect(e.code).toBe('bad-file');
+    expect(e.message).toContain('not a UTF-8 text file');
+    expect(pulled).toBe(1);
+  });
+
+  it('readSamplesStream: an endless stream of text stops at the byte limit', async () => {
+    let bytes = 0;
+    const line = new TextEncoder().encode('x'.repeat(1023) + '\n');
+    const big = new Uint8Array(1024 * 1024);
+    for (let i = 0; i < 1024; i++) big.set(line, i * 1024);
+    const endless = (function* () {
+      for (;;) {
+        bytes += big.length;
+        yield big;
+      }
+    })();
+    const e = await catchErrorAsync(() => readSamplesStream(endless, { fileName: 'endless.txt' }));
+    expect(e.code).toBe('bad-file');
+    expect(e.message).toContain(`at most ${megabytes(MAX_SAMPLE_BYTES)}`);
+    expect(bytes).toBeLessThanOrEqual(MAX_SAMPLE_BYTES + big.length);
+  });
+
+  it('readSamplesStream: rows past the row limit are refused as soon as one more is read', async () => {
+    let rows = 0;
+    const endless = (function* () {
+      yield new TextEncoder().encode('id,lon,lat,v\n');
+      const block = new TextEncoder().encode('1,11.2,48.5,3\n'.repeat(10_000));
+      for (;;) {
+        rows += 10_000;
+        yield block;
+      }
+    })();
+    const e = await catchErrorAsync(() => readSamplesStream(endless, { fileName: 'rows.csv' }));
+    expect(e.code).toBe('bad-file');
+    expect(e.message).toContain(MAX_SAMPLE_ROWS.toLocaleString('en-US'));
+    expect(rows).toBeLessThan(MAX_SAMPLE_ROWS + (1 << 20));
+  }, 60_000);
 });
 
 describe('readSamples properties (fast-check)', () => {
@@ -321,6 +509,29 @@ describe('readSamples properties (fast-check)', () => {
         },
       ),
       { numRuns: 150 },
+    );
+  });
+
+  it('readSamplesStream: random CSV-like text split at random points reads as readSamples reads the whole text', async () => {
+    const tokens = fc.constantFrom('lon', 'lat', 'id', 'Pb', '1', '2.5', '11.25', '48.5', '-3', '1,5', '<0.5', 'NA', '', ' ', '"', '""', '\n', '\r\n', '\r', ',', ';', '\t', 'é', '\ufeff', '{');
+    const body = fc.array(tokens, { maxLength: 120 }).map((a) => a.join(''));
+    const text = fc.tuple(fc.constantFrom('id,lon,lat,Pb\n', 'id;lon;lat;Pb\r\n', '\ufeffid\tlon\tlat\tPb\r', ''), body).map(([h, b]) => h + b);
+    const outcome = async (f: () => Promise<IntakeResult> | IntakeResult) => {
+      try {
+        return await f();
+      } catch (e) {
+        if (!(e instanceof GapwiseError)) throw e;
+        return e.toJSON();
+      }
+    };
+    await fc.assert(
+      fc.asyncProperty(text, fc.integer({ min: 1, max: 1 << 30 }), fc.constantFrom('r.csv', 'r'), async (t, seed, fileName) => {
+        const options = { fileName, duplicates: 'keep' as const };
+        const whole = await outcome(() => readSamples(t, options));
+        const streamed = await outcome(() => readSamplesStream(chunked(new TextEncoder().encode(t), seed), options));
+        expect(streamed).toEqual(whole);
+      }),
+      { numRuns: 300 },
     );
   });
 
