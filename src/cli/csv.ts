@@ -5,6 +5,7 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import { detectDelimiter, normaliseText } from '../io/csv.ts';
+import { formatFullPrecision } from '../io/format.ts';
 
 /** Quotes a cell when it holds the delimiter, a quote or a line break (RFC 4180). */
 export function csvCell(text: string, delimiter = ','): string {
@@ -12,13 +13,8 @@ export function csvCell(text: string, delimiter = ','): string {
   return text;
 }
 
-/** A number for a CSV or report: up to 12 significant digits, no trailing zeros; NaN as empty. */
-export function formatNumber(v: number): string {
-  if (Number.isNaN(v)) return '';
-  if (!Number.isFinite(v)) return v > 0 ? 'inf' : '-inf';
-  if (v === 0) return '0';
-  return String(Number(v.toPrecision(12)));
-}
+/** A number for a CSV: up to 12 significant digits, no trailing zeros; NaN as empty, inf / -inf. */
+export const formatNumber = formatFullPrecision;
 
 /** One CSV line from cells. */
 export function csvLine(cells: readonly string[], delimiter = ','): string {

@@ -124,5 +124,5 @@ export function transformAdvice(summary: Summary): string {
   if (summary.min <= 0) {
     return `The values are strongly right-skewed (skewness ${g}), but a log transform is not possible because some values are zero or negative (minimum ${summary.min}); consider a model without a transform or check those values.`;
   }
-  return `The values are strongly right-skewed (skewness ${g} > ${SKEWNESS_FOR_LOG}) and all positive: consider the log transform (model "transform": "log"), which usually gives a clearer variogram and better-calibrated uncertainty.`;
+  return `The values are strongly right-skewed (skewness ${g} > ${SKEWNESS_FOR_LOG}) and all positive: consider the log transform (modelling the logarithm of the values), which usually gives a clearer variogram and better-calibrated uncertainty.`;
 }

@@ -36,8 +36,9 @@ import {
   type ComparisonRow, type Project, type ProjectSimulation, type SimulationSettings, type Suggestion,
 } from './project.ts';
 import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
+import { formatCoordinate, formatProbability, formatValue } from './format.ts';
 import {
-  crossValidationSvg, escapeXml, finiteRange, formatNumber, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
+  crossValidationSvg, escapeXml, finiteRange, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
 } from './report-svg.ts';
 
 /** Surfaces of the whole grid (nx·ny cells each). */
@@ -254,7 +255,7 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
 // ------------------------------------------------------------------------------------ formatting
 
 const esc = escapeXml;
-const fmt = (v: number | null | undefined, digits = 4) => (v === null || v === undefined ? '–' : formatNumber(v, digits));
+const fmt = (v: number | null | undefined, digits = 4) => formatValue(v, digits);
 
 function table(head: string[], rows: string[][], cls = ''): string {
   return `<table${cls ? ` class="${cls}"` : ''}><thead><tr>${head.map((h) => `<th>${h}</th>`).join('')}</tr></thead>`
@@ -273,6 +274,23 @@ export function formatQuantity(v: number, digits = 4): string {
 }
 
 const hectares = (m2: number) => formatQuantity(m2 / 10_000, 3);
+
+/** The choices a design was made with, in words ("Chosen to settle the action level 200 mg/kg: 6 sites, at least 10 m apart."). */
+export function designOptionsText(o: Record<string, unknown>, unit: string): string {
+  const modes: Record<string, string> = {
+    variance: 'Chosen to sharpen the map (least average uncertainty)',
+    decision: 'Chosen to settle the action level (least area on the wrong side)',
+    coverage: 'Chosen to cover the area evenly',
+  };
+  const parts: string[] = [];
+  if (typeof o.count === 'number') parts.push(`${o.count} site${o.count === 1 ? '' : 's'}`);
+  if (typeof o.threshold === 'number') parts.push(`action level ${fmt(o.threshold)}${unit ? ` ${unit}` : ''}`);
+  if (typeof o.minSpacing === 'number' && o.minSpacing > 0) parts.push(`at least ${fmt(o.minSpacing)} m apart`);
+  if (typeof o.cell === 'number') parts.push(`candidates on ${fmt(o.cell)} m cells`);
+  if (typeof o.exclusionPolygons === 'number' && o.exclusionPolygons > 0) parts.push(`${o.exclusionPolygons} exclusion polygon${o.exclusionPolygons === 1 ? '' : 's'} avoided`);
+  const mode = typeof o.mode === 'string' ? modes[o.mode] ?? `Chosen by the ${o.mode} criterion` : 'Chosen';
+  return `${mode}${parts.length ? `: ${parts.join(', ')}` : ''}.`;
+}
 
 /** The report's short plain statement of the area figure, with its interval and units. */
 export function areaFigureText(sim: ProjectSimulation, unit: string): string {
@@ -547,7 +565,7 @@ export function reportHtml(input: ReportInput): string {
     const rows: Array<[string, string]> = [['Model', esc(modelText(model))]];
     if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
     if (model.fit) {
-      rows.push(['Fit', esc(`${model.fit.method}${model.fit.logLikelihood !== undefined ? `, log-likelihood ${fmt(model.fit.logLikelihood, 6)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic, 6)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`)]);
+      rows.push(['Fit', esc(`${model.fit.method}${model.fit.logLikelihood !== undefined ? `, ${model.fit.method === 'wls' ? 'REML log-likelihood at the least-squares parameters' : 'log-likelihood'} ${fmt(model.fit.logLikelihood)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`)]);
       for (const w of model.fit.warnings ?? []) rows.push(['Fit note', esc(String(w))]);
     }
     html.push(keyValues(rows));
@@ -558,7 +576,7 @@ export function reportHtml(input: ReportInput): string {
     const best = ll.length ? Math.min(...ll) : NaN;
     html.push(`<table><thead><tr><th>model</th><th class="num">log-likelihood</th><th class="num">AIC</th><th class="num">ΔAIC</th><th class="num">RMSE${log ? ' (ln)' : ''}</th><th class="num">MSSE</th></tr></thead><tbody>`
       + input.comparison.map((c) => `<tr${c.key === project.structure.chosen ? ' class="chosen"' : ''}><td>${esc(c.label)}${c.key === project.structure.chosen ? ' (chosen)' : ''}${c.error ? `<br><small>${esc(c.error)}</small>` : ''}</td>`
-        + `<td class="num">${fmt(c.logLikelihood, 6)}</td><td class="num">${fmt(c.aic, 6)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`
+        + `<td class="num">${fmt(c.logLikelihood)}</td><td class="num">${fmt(c.aic)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`
         + `<td class="num">${fmt(c.rmse)}</td><td class="num">${fmt(c.msse, 3)}</td></tr>`).join('')
       + '</tbody></table>');
     html.push('<p class="hint">AIC compares models fitted to the same data with the same trend; lower is better. RMSE and MSSE from leave-one-out cross-validation (MSSE near 1: the uncertainty is honest).</p>');
@@ -615,10 +633,11 @@ export function reportHtml(input: ReportInput): string {
   const sug: Suggestion[] = project.suggestions ?? [];
   if (sug.length) {
     html.push('<h2 class="page">Suggested next samples</h2>');
-    html.push(table(['rank', 'longitude', 'latitude', `x (${esc(work)})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
-      sug.map((x) => [String(x.rank), fmt(x.lon, 9), fmt(x.lat, 9), fmt(x.x, 9), fmt(x.y, 9), fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined ? '–' : fmt(x.pExceed, 3)]
+    html.push(table(['rank', 'longitude (°)', 'latitude (°)', `x (${esc(work)})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
+      sug.map((x) => [String(x.rank), formatCoordinate(x.lon, 'degrees'), formatCoordinate(x.lat, 'degrees'), formatCoordinate(x.x, 'planar'), formatCoordinate(x.y, 'planar'),
+        fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined || x.pExceed === null ? '–' : formatProbability(x.pExceed)]
         .map((c) => esc(c)))));
-    if (project.suggestOptions) html.push(`<p class="hint">Made with ${esc(JSON.stringify(project.suggestOptions))}.</p>`);
+    if (project.suggestOptions) html.push(`<p class="hint">${esc(designOptionsText(project.suggestOptions, unit))}</p>`);
   }
 
   // --- reproduce -----------------------------------------------------------------------------
