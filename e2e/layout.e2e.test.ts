@@ -53,17 +53,27 @@ describe('Layout and numbers for people', () => {
     demo = await openPage(run.h);
     const { page } = demo;
     await page.setViewportSize({ width: 1280, height: 800 });
+    // The probe itself: a word squeezed into a narrow cell that may break anywhere is found.
+    await page.evaluate(() => {
+      const t = document.createElement('table');
+      t.id = 'probe-check';
+      t.innerHTML = '<tr><td style="width:30px;max-width:30px;overflow-wrap:anywhere;font-size:14px">Matérn rejected</td></tr>';
+      document.body.appendChild(t);
+    });
+    expect((await brokenWords(page, '#probe-check')).length).toBeGreaterThan(0);
+    await page.evaluate(() => document.getElementById('probe-check')?.remove());
     await page.click('[data-testid=load-demo]');
     await page.waitForSelector('[data-testid=read-report]');
     await page.locator('input[name=transform][value=log]').check();
     expect(await brokenWords(page, '#samples-body')).toEqual([]);
     expect(await cautionCount(page, 'samples')).toBeLessThanOrEqual(1);
-    // The duplicate pair is merged: the summary and the statistics count the same samples.
-    const summaryCount = await page.locator('[data-testid=stats-table] td').first().innerText();
-    expect(await page.locator('#samples-body').innerText()).toContain(`${summaryCount} samples`);
     await shot(page, 'layout-1280-1-samples');
+    // The duplicate pair is merged: the statistics and the step's summary count the same samples (149).
+    const statsCount = await page.locator('[data-testid=summary-stats] td').first().innerText();
+    expect(statsCount).toBe('149');
 
     await openStep(page, 'structure');
+    expect(await page.locator('#samples-heading .summary').innerText()).toMatch(new RegExp(`^${statsCount} samples`));
     await page.click('[data-testid=fit-button]');
     await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
     await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
@@ -98,9 +108,28 @@ describe('Layout and numbers for people', () => {
     await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
 
     await openStep(page, 'surface');
-    await page.click('[data-testid=compute-surface]');
-    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
-    await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
+    const computeTimed = async (): Promise<{ estimate: number; seconds: number }> => {
+      const estimate = Number(await page.locator('[data-testid=surface-estimate]').getAttribute('data-seconds'));
+      const t0 = Date.now();
+      await page.click('[data-testid=compute-surface]');
+      await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+      const seconds = (Date.now() - t0) / 1000;
+      await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
+      return { estimate, seconds };
+    };
+    const first = await computeTimed();
+    // Half the cell: four times the cells, estimated from the first surface's measured speed.
+    const cell = Number((await page.locator('#cell-size').getAttribute('placeholder'))!.replace(/[^\d.]/g, ''));
+    const cellsBefore = await page.locator('[data-testid=cell-count]').innerText();
+    await page.fill('#cell-size', String(cell / 2));
+    await page.locator('#cell-size').press('Enter');
+    await page.waitForFunction((c) => document.querySelector('[data-testid=cell-count]')?.textContent !== c, cellsBefore);
+    const second = await computeTimed();
+    run.figures.push(`surface time estimates (printed, not asserted; load ${(await import('node:os')).loadavg()[0].toFixed(2)}): first ${first.estimate.toFixed(1)} s estimated, ${first.seconds.toFixed(1)} s taken; `
+      + `half the cell after it ${second.estimate.toFixed(1)} s estimated, ${second.seconds.toFixed(1)} s taken (ratio ${(second.estimate / second.seconds).toFixed(2)})`);
+    await page.fill('#cell-size', '');
+    await page.locator('#cell-size').press('Enter');
+    await computeTimed();
     expect(await cautionCount(page, 'surface')).toBe(1);
     await page.locator('input[name=layer][value=exceed]').check();
     await page.waitForSelector('[data-testid=surface-legend][data-kind=pExceed]');
@@ -130,6 +159,7 @@ describe('Layout and numbers for people', () => {
     const head = await page.locator('[data-testid=next-table] thead').innerText();
     expect(head).toMatch(/%/);
     for (const t of await cellTexts(page, '[data-testid=next-table] td')) expect(t).not.toMatch(/e[+−-]\d/);
+    await page.locator('[data-testid=next-table]').scrollIntoViewIfNeeded();
     await shot(page, 'layout-1280-4-next-samples');
 
     await openStep(page, 'report');
@@ -179,13 +209,19 @@ describe('Layout and numbers for people', () => {
       await openStep(page, id);
       if (id === 'structure') await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
       if (id === 'surface') await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
+      if (id === 'next') {
+        await page.fill('#ns-count', '6');
+        await page.click('[data-testid=suggest-sites]');
+        await page.waitForSelector('[data-testid=next-result][data-count="6"]', { timeout: WAIT });
+        await page.locator('[data-testid=next-table]').scrollIntoViewIfNeeded();
+      }
       expect(await brokenWords(page, `#${id}-body`)).toEqual([]);
       await shot(page, `layout-1920-${name}`);
     }
     await openStep(page, 'structure');
     await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
     await page.click('[data-testid=enlarge-candidates]');
-    await page.waitForSelector('[data-testid=figure-overlay] [data-testid=candidate-table]');
+    await page.waitForSelector('[data-testid=figure-overlay] [data-testid=candidate-table-large]');
     await shot(page, 'layout-1920-2-structure-candidates-large');
     await page.click('[data-testid=figure-overlay-close]');
     await page.click('[data-testid=enlarge-cv]');

@@ -256,7 +256,7 @@ describe('fitModel by least squares', () => {
     // maximises it, so it can be no higher than the REML fit's (common practice: the REML maximum bounds it).
     const reml = fitModel(s, { family: 'matern', nu: 1.5, method: 'reml' });
     expect(m.fit!.logLikelihood!).toBeLessThanOrEqual(reml.fit!.logLikelihood! + 1e-6);
-    expect(m.fit!.aic).toBeCloseTo(2 * m.fit!.parameters! - 2 * m.fit!.logLikelihood!, 9);
+    expect(m.fit!.aic).toBeCloseTo(2 * (m.fit!.parameters as number) - 2 * m.fit!.logLikelihood!, 9);
     // A smooth field sampled densely on a fine layout with no nugget: the gaussian model's matrix is
     // numerically singular, so no likelihood is given (never a value from a jittered matrix).
     const xs: number[] = [], ys: number[] = [], vs: number[] = [];
