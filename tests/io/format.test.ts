@@ -3,6 +3,7 @@ import {
   formatCoordinate, formatCount, formatDistance, formatDuration, formatFullPrecision, formatPercent, formatProbability,
   formatTick, formatValue,
 } from '../../src/io/format.ts';
+import { readSamples } from '../../src/io/intake.ts';
 
 describe('formatValue', () => {
   it('formatValue rounds to significant digits, groups thousands and uses a true minus sign', () => {
@@ -88,5 +89,16 @@ describe('formatFullPrecision', () => {
     expect(formatFullPrecision(-0.5)).toBe('-0.5');
     expect(formatFullPrecision(NaN)).toBe('');
     expect(formatFullPrecision(Infinity)).toBe('inf');
+  });
+});
+
+describe('formatValue in the read report', () => {
+  it('readSamples names a merged duplicate by its rounded mean (13.9, not 13.899999999999999)', () => {
+    expect((13.7 + 14.1) / 2).not.toBe(13.9); // the float mean carries noise
+    const text = 'id,x,y,v\na,500000,5400000,13.7\nb,500000,5400000,14.1\nc,500100,5400100,20\nd,500200,5400000,22\n';
+    const r = readSamples(text, { fileName: 'dups.csv', crs: 'EPSG:32633' });
+    const merged = r.report.entries.filter((e) => e.action === 'merged').map((e) => e.reason).join(' ');
+    expect(merged).toContain('mean value 13.9');
+    expect(merged).not.toMatch(/13\.8999/);
   });
 });
