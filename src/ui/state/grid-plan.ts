@@ -43,10 +43,10 @@ export interface SurfaceSpeed {
 }
 
 /**
- * The speed of a finished surface from its progress: between the first and the last band reported
- * every worker is busy, so the cells done per second there give the rate of the arithmetic; what the
- * whole run took beyond that arithmetic is the fixed overhead. Without two progress points apart, the
- * whole time is put down to arithmetic (measuredRate).
+ * The speed of a finished surface from its progress: between a band reported part way through and
+ * the last one every worker is busy, so the cells done per second there give the rate of the
+ * arithmetic; what the whole run took beyond that arithmetic is the fixed overhead. Without two
+ * progress points apart, the whole time is put down to arithmetic (measuredRate).
  */
 export function measureSurfaceSpeed(o: {
   n: number; cells: number; workers: number; seconds: number;
@@ -54,7 +54,9 @@ export function measureSurfaceSpeed(o: {
 }): SurfaceSpeed | undefined {
   if (!(o.seconds > 0) || !(o.cells > 0)) return undefined;
   const p = o.progress.filter((q) => q.done > 0 && q.done <= o.cells && q.seconds > 0);
-  const first = p[0];
+  // From the band that ends past 40 % of the cells: the workers' code is warm by then, so the rate is
+  // the one a later, larger surface runs at.
+  const first = p.find((q) => q.done >= 0.4 * o.cells) ?? p[0];
   const last = p[p.length - 1];
   if (first && last && last.done - first.done >= 0.25 * o.cells && last.seconds > first.seconds) {
     const perCell = (last.seconds - first.seconds) / (last.done - first.done);
