@@ -91,19 +91,19 @@ describe('Gapwise in the browser', () => {
     const { page } = demo;
     const seconds = await fitAll(page);
     const task = await takeLongestTask(page);
-    figures.push(`demo fit (7 candidates + LOO, REML, n = 149): ${seconds.toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    figures.push(`demo fit (6 candidates + LOO, REML, n = 149): ${seconds.toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
     const rows = page.locator('[data-testid=candidate-table] tbody tr');
-    expect(await rows.count()).toBe(7);
+    expect(await rows.count()).toBe(6);
     // Exactly one row is marked best, with text, and the best is in use by default.
     expect(await page.locator('[data-testid=candidate-table] .tag.best').count()).toBe(1);
     const bestRow = page.locator('[data-testid=candidate-table] tr:has(.tag.best)');
     expect(await bestRow.locator('input[type=radio]').isChecked()).toBe(true);
     // Choose another candidate: it is kept, and the curve and CV figures follow.
     const rmseBefore = await page.locator('[data-testid=cv-rmse]').innerText();
-    await page.locator('[data-testid=candidate-table] tr[data-key="matern-0.5"] input[type=radio]').check();
+    await page.locator('[data-testid=candidate-table] tr[data-key="spherical"] input[type=radio]').check();
     await page.waitForFunction(
       (before) => document.querySelector('[data-testid=cv-rmse]')?.textContent !== before, rmseBefore, { timeout: WAIT });
-    expect(await page.locator('[data-testid=model-in-use]').innerText()).toMatch(/Matérn ν = 0.5/);
+    expect(await page.locator('[data-testid=model-in-use]').innerText()).toMatch(/Spherical/);
     // Variogram points carry their pair counts in a title and are focusable.
     const point = page.locator('[data-testid=variogram-chart] g.pt').first();
     expect(await point.getAttribute('tabindex')).toBe('0');
@@ -175,9 +175,9 @@ describe('Gapwise in the browser', () => {
     await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
     expect(await page.locator('#threshold').inputValue()).toBe('200');
     await openStep(page, 'structure');
-    expect(await page.locator('[data-testid=model-in-use]').innerText()).toMatch(/Matérn ν = 0.5/);
+    expect(await page.locator('[data-testid=model-in-use]').innerText()).toMatch(/Spherical/);
     await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    expect(await page.locator('[data-testid=candidate-table] tr[data-key="matern-0.5"] input[type=radio]').isChecked()).toBe(true);
+    expect(await page.locator('[data-testid=candidate-table] tr[data-key="spherical"] input[type=radio]').isChecked()).toBe(true);
     await openStep(page, 'samples');
     expect(await page.locator('[data-testid=source-name]').innerText()).toBe('lead-topsoil.csv');
     expect(await page.locator('input[name=transform][value=log]').isChecked()).toBe(true);
@@ -308,7 +308,7 @@ describe('Gapwise in the browser', () => {
     expect(await page.locator('[data-testid=rows-used]').innerText()).toBe('500');
     const fitSeconds = await fitAll(page, 'wls');
     const fitTask = await takeLongestTask(page);
-    figures.push(`500-sample fit (7 candidates by WLS + LOO): ${fitSeconds.toFixed(1)} s; longest main-thread task ${fitTask.longest.toFixed(0)} ms`);
+    figures.push(`500-sample fit (6 candidates by WLS + LOO): ${fitSeconds.toFixed(1)} s; longest main-thread task ${fitTask.longest.toFixed(0)} ms`);
     await openStep(page, 'surface');
     await page.fill('#padding', '0');
     await page.fill('#cell-size', '5');

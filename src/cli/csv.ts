@@ -6,17 +6,13 @@
 import { GapwiseError } from '../core/errors.ts';
 import { detectDelimiter, normaliseText } from '../io/csv.ts';
 import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
+import { formatFullPrecision } from '../io/format.ts';
 
 /** Cells are written by io/csv-cells.ts: quoted (RFC 4180), formula-leading text neutralised. */
 export { csvCell, csvLine, CSV_CAUTION, FORMULA_NOTE } from '../io/csv-cells.ts';
 
-/** A number for a CSV or report: up to 12 significant digits, no trailing zeros; NaN as empty. */
-export function formatNumber(v: number): string {
-  if (Number.isNaN(v)) return '';
-  if (!Number.isFinite(v)) return v > 0 ? 'inf' : '-inf';
-  if (v === 0) return '0';
-  return String(Number(v.toPrecision(12)));
-}
+/** A number for a CSV: up to 12 significant digits, no trailing zeros; NaN as empty, inf / -inf. */
+export const formatNumber = formatFullPrecision;
 
 export interface CsvRecord {
   /** The cells, unquoted. */

@@ -157,13 +157,13 @@ export function createCirculantEmbedding(model: CovarianceModel, lattice: Lattic
         }
         warnings.push({
           code: 'embedding-truncated',
-          message: `Negative eigenvalues of the ${mx} × ${my} circulant embedding were set to 0 (the size cap was reached): simulated covariances may differ from the model by up to ${(100 * eps).toPrecision(2)} % of the sill.`,
+          message: `The simulation grid reached its size limit (${mx} × ${my} nodes) before it could reproduce the model exactly: simulated covariances may differ from the model by up to ${(100 * eps).toPrecision(2)} % of the sill; a larger cell or a smaller area avoids this.`,
         });
       }
       if (steps > 0) {
         warnings.push({
           code: 'embedding-padded',
-          message: `The circulant embedding was padded from ${first.mx} × ${first.my} to ${mx} × ${my} nodes (${steps} step${steps === 1 ? '' : 's'}) to make its eigenvalues non-negative: the range is long compared with the area.`,
+          message: `The simulation grid was enlarged from ${first.mx} × ${first.my} to ${mx} × ${my} nodes so that the realisations reproduce the model's covariance: the range is long compared with the area, which makes the drawing slower.`,
         });
       }
       const scale = new Float64Array(M);

@@ -579,12 +579,17 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
   if (n <= MAX_EXACT_SAMPLES) {
     const lik = createLikelihood(samples, { family: r.family, nu: r.nuFixed, trend: r.trend, anisotropy: r.anisotropy, method: 'reml' });
     const value = lik.evaluate({ scale, nuggetRatio: nugget / sill, nu: r.nuFree ? nu : undefined }, { sigma2: sill, allowJitter: true });
-    fit.likelihoodMethod = 'reml';
-    fit.logLikelihood = value.logLikelihood;
-    fit.aic = 2 * k - 2 * value.logLikelihood;
     fit.trendCoefficients = value.beta;
     fit.centre = lik.centre;
-    if (value.jitter > 0) warnings.push(`The correlation matrix was not numerically positive definite for the likelihood; ${value.jitter.toExponential(0)} was added to its diagonal.`);
+    if (value.jitter > 0 || !Number.isFinite(value.logLikelihood)) {
+      // With values added to the diagonal the likelihood is that of another model: none is reported
+      // rather than a number that does not describe this fit.
+      warnings.push('No likelihood reported: at the least-squares parameters the samples\' correlations are too close to singular (almost no nugget with a smooth, long-range model); compare this fit by its cross-validation instead.');
+    } else {
+      fit.likelihoodMethod = 'reml';
+      fit.logLikelihood = value.logLikelihood;
+      fit.aic = 2 * k - 2 * value.logLikelihood;
+    }
   } else {
     warnings.push(`No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.`);
   }
@@ -602,10 +607,13 @@ export function fitModel(samples: Samples, options: FitOptions): CovarianceModel
   return r.method === 'wls' ? fitByWls(samples, r, options.variogram ?? {}, options.maxEvaluations) : fitByLikelihood(samples, r, options.maxEvaluations);
 }
 
-/** The standard candidates: Matérn ν = ½, 3/2, 5/2 and free ν; exponential; spherical; gaussian. */
+/**
+ * The standard candidates: exponential (which is Matérn ν = ½: the same correlation, so it is listed
+ * once), Matérn ν = 3/2, 5/2 and free ν; spherical; gaussian.
+ */
 export const CANDIDATES: ReadonlyArray<{ family: Family; nu?: number | 'free' }> = [
-  { family: 'matern', nu: 0.5 }, { family: 'matern', nu: 1.5 }, { family: 'matern', nu: 2.5 }, { family: 'matern', nu: 'free' },
-  { family: 'exponential' }, { family: 'spherical' }, { family: 'gaussian' },
+  { family: 'exponential' }, { family: 'matern', nu: 1.5 }, { family: 'matern', nu: 2.5 }, { family: 'matern', nu: 'free' },
+  { family: 'spherical' }, { family: 'gaussian' },
 ];
 
 /**

@@ -16,6 +16,7 @@ import type { ResolvedCrs } from './crs.ts';
 import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks } from './numbers.ts';
 import { duplicateGroups, outlierIndices, summarise, transformAdvice } from './quality.ts';
+import { formatValue } from './format.ts';
 import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry, SampleRow } from './types.ts';
 
 /** The note every report carries on non-detect substitution. */
@@ -876,7 +877,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       const flags = ['dup'];
       if (g.some((j) => kept[j].nd)) flags.push('nd');
       for (const j of g) {
-        entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${mv / m}` });
+        entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
       }
       outRows.push({
         id: g.slice(0, LIST_NAMES).map((j) => idOf(kept[j].row)).join(' + ') + (g.length > LIST_NAMES ? ` + ${g.length - LIST_NAMES} more` : ''),

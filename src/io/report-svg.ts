@@ -8,17 +8,8 @@
 import type { Grid } from '../core/grid.ts';
 import { colourAtT, hexColour, paletteFromLut, paletteIndices, type Lut } from './report-colours.ts';
 import { palettePng, pngDataUrl } from './report-png.ts';
+import { formatValue } from './format.ts';
 import { html, joinMarkup, trusted, type Markup } from './markup.ts';
-
-/** A number for a label: up to `digits` significant digits, no trailing zeros, thin grouping avoided. */
-export function formatNumber(v: number, digits = 4): string {
-  if (!Number.isFinite(v)) return Number.isNaN(v) ? '–' : v > 0 ? '∞' : '−∞';
-  if (v === 0) return '0';
-  const a = Math.abs(v);
-  if (a >= 1e6 || a < 1e-4) return v.toExponential(Math.max(0, digits - 1)).replace(/\.?0+e/, 'e');
-  const s = String(Number(v.toPrecision(digits)));
-  return s.startsWith('-') ? `−${s.slice(1)}` : s;
-}
 
 /** Round tick values (1, 2 or 5 × 10^k steps) covering [min, max], about `count` of them. */
 export function niceTicks(min: number, max: number, count = 5): number[] {
@@ -79,12 +70,12 @@ function axes(f: Frame, xTicks: number[], yTicks: number[], sx: (v: number) => n
   for (const t of yTicks) {
     const y = sy(t).toFixed(1);
     p.push(html`<line x1="${x0}" x2="${x1}" y1="${y}" y2="${y}" stroke="#e3e3e3"/>`);
-    p.push(html`<text x="${x0 - 6}" y="${y}" text-anchor="end" dominant-baseline="middle" fill="#333">${formatNumber(t)}</text>`);
+    p.push(html`<text x="${x0 - 6}" y="${y}" text-anchor="end" dominant-baseline="middle" fill="#333">${formatValue(t)}</text>`);
   }
   for (const t of xTicks) {
     const x = sx(t).toFixed(1);
     p.push(html`<line x1="${x}" x2="${x}" y1="${y0}" y2="${y0 + 4}" stroke="#333"/>`);
-    p.push(html`<text x="${x}" y="${y0 + 16}" text-anchor="middle" fill="#333">${formatNumber(t)}</text>`);
+    p.push(html`<text x="${x}" y="${y0 + 16}" text-anchor="middle" fill="#333">${formatValue(t)}</text>`);
   }
   p.push(html`<line x1="${x0}" x2="${x1}" y1="${y0}" y2="${y0}" stroke="#333"/>`);
   p.push(html`<line x1="${x0}" x2="${x0}" y1="${y0}" y2="${y1}" stroke="#333"/>`);
@@ -126,12 +117,12 @@ export function histogramSvg(values: ArrayLike<number>, o: HistogramOptions): Ma
   counts.forEach((c, i) => {
     if (!c) return;
     const x = sx(edges[i]), w = sx(edges[i + 1]) - x;
-    p.push(html`<rect x="${x.toFixed(1)}" y="${sy(c).toFixed(1)}" width="${Math.max(0.5, w - 1).toFixed(1)}" height="${(sy(0) - sy(c)).toFixed(1)}" fill="#6b7f99"><title>${formatNumber(edges[i])} to ${formatNumber(edges[i + 1])}: ${c}</title></rect>`);
+    p.push(html`<rect x="${x.toFixed(1)}" y="${sy(c).toFixed(1)}" width="${Math.max(0.5, w - 1).toFixed(1)}" height="${(sy(0) - sy(c)).toFixed(1)}" fill="#6b7f99"><title>${formatValue(edges[i])} to ${formatValue(edges[i + 1])}: ${c}</title></rect>`);
   });
   if (o.threshold !== undefined && o.threshold !== null && Number.isFinite(o.threshold)) {
     const x = sx(o.threshold).toFixed(1);
     p.push(html`<line x1="${x}" x2="${x}" y1="${f.top}" y2="${f.height - f.bottom}" stroke="#b3412c" stroke-width="2" stroke-dasharray="6 4"/>`);
-    p.push(html`<text x="${(Number(x) + 5).toFixed(1)}" y="${f.top + 12}" fill="#b3412c">threshold ${formatNumber(o.threshold)}</text>`);
+    p.push(html`<text x="${(Number(x) + 5).toFixed(1)}" y="${f.top + 12}" fill="#b3412c">threshold ${formatValue(o.threshold)}</text>`);
   }
   p.push(html`<text x="${f.left}" y="16" font-weight="600" fill="#222">${o.title}</text>`);
   p.push(html`</svg>`);
@@ -166,7 +157,7 @@ export function variogramSvg(
   for (const l of lags) {
     const r = 2.5 + 4 * Math.sqrt(l.pairs / most);
     const x = sx(l.distance).toFixed(1), y = sy(l.semivariance).toFixed(1);
-    p.push(html`<circle cx="${x}" cy="${y}" r="${r.toFixed(1)}" fill="#2f4a6d"><title>${formatNumber(l.distance)} m: ${formatNumber(l.semivariance)} (${l.pairs} pairs)</title></circle>`);
+    p.push(html`<circle cx="${x}" cy="${y}" r="${r.toFixed(1)}" fill="#2f4a6d"><title>${formatValue(l.distance)} m: ${formatValue(l.semivariance)} (${l.pairs} pairs)</title></circle>`);
     p.push(html`<text x="${x}" y="${(Number(y) - r - 3).toFixed(1)}" text-anchor="middle" font-size="9" fill="#555">${l.pairs}</text>`);
   }
   p.push(html`<text x="${f.left}" y="16" font-weight="600" fill="#222">${o.title}</text>`);
@@ -252,7 +243,7 @@ export function legendBarSvg(o: LegendOptions): Markup {
   for (const t of ticks) {
     const x = (a === b ? width / 2 : sx(t)).toFixed(1);
     p.push(html`<line x1="${x}" x2="${x}" y1="${22 + bar}" y2="${26 + bar}" stroke="#333"/>`);
-    p.push(html`<text x="${x}" y="${40 + bar}" text-anchor="middle">${formatNumber(t)}</text>`);
+    p.push(html`<text x="${x}" y="${40 + bar}" text-anchor="middle">${formatValue(t)}</text>`);
   }
   p.push(html`</svg>`);
   return joinMarkup(p);
@@ -342,12 +333,12 @@ export function mapSvg(o: MapOptions): Markup {
   const by = 20 + margin + mapH + 22;
   p.push(html`<g><rect x="${margin}" y="${by - 6}" width="${(barPx / 2).toFixed(1)}" height="6" fill="#222"/>`,
     html`<rect x="${(margin + barPx / 2).toFixed(1)}" y="${by - 6}" width="${(barPx / 2).toFixed(1)}" height="6" fill="#fff" stroke="#222"/>`,
-    html`<text x="${margin}" y="${by + 12}">0</text><text x="${(margin + barPx).toFixed(1)}" y="${by + 12}" text-anchor="middle">${metres >= 1000 ? `${formatNumber(metres / 1000)} km` : `${formatNumber(metres)} m`}</text></g>`);
+    html`<text x="${margin}" y="${by + 12}">0</text><text x="${(margin + barPx).toFixed(1)}" y="${by + 12}" text-anchor="middle">${metres >= 1000 ? `${formatValue(metres / 1000)} km` : `${formatValue(metres)} m`}</text></g>`);
   // North arrow: true north when the CRS is known, else grid north.
   const ax = width - margin - 22, ay = by + 20;
   const angle = o.northAngle ?? 0;
   p.push(html`<g transform="translate(${ax} ${ay}) rotate(${angle.toFixed(2)})"><path d="M0,-22 L7,0 L0,-5 L-7,0 Z" fill="#222"/><text x="0" y="12" text-anchor="middle" font-weight="700" transform="rotate(${(-angle).toFixed(2)} 0 8)">N</text></g>`);
-  p.push(html`<text x="${ax - 30}" y="${ay + 26}" text-anchor="end" font-size="10" fill="#555">${o.northAngle === null ? 'grid north' : `true north (${formatNumber(angle, 2)}° from grid north)`}</text>`);
+  p.push(html`<text x="${ax - 30}" y="${ay + 26}" text-anchor="end" font-size="10" fill="#555">${o.northAngle === null ? 'grid north' : `true north (${formatValue(angle, 2)}° from grid north)`}</text>`);
   p.push(html`</svg>`);
   return joinMarkup(p);
 }

@@ -37,8 +37,9 @@ import {
 } from './project.ts';
 import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
 import {
-  crossValidationSvg, finiteRange, formatNumber, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
+  crossValidationSvg, finiteRange, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
 } from './report-svg.ts';
+import { formatCoordinate, formatProbability, formatValue } from './format.ts';
 import { html, joinMarkup, trusted, type Interpolation, type Markup } from './markup.ts';
 
 /** Surfaces of the whole grid (nx·ny cells each). */
@@ -254,7 +255,24 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
 
 // ------------------------------------------------------------------------------------ formatting
 
-const fmt = (v: number | null | undefined, digits = 4) => (v === null || v === undefined ? '–' : formatNumber(v, digits));
+const fmt = (v: number | null | undefined, digits = 4) => formatValue(v, digits);
+
+/** The choices a design was made with, in words ("Chosen to settle the action level 200 mg/kg: 6 sites, at least 10 m apart."). */
+export function designOptionsText(o: Record<string, unknown>, unit: string): string {
+  const modes: Record<string, string> = {
+    variance: 'Chosen to sharpen the map (least average uncertainty)',
+    decision: 'Chosen to settle the action level (least area on the wrong side)',
+    coverage: 'Chosen to cover the area evenly',
+  };
+  const parts: string[] = [];
+  if (typeof o.count === 'number') parts.push(`${o.count} site${o.count === 1 ? '' : 's'}`);
+  if (typeof o.threshold === 'number') parts.push(`action level ${fmt(o.threshold)}${unit ? ` ${unit}` : ''}`);
+  if (typeof o.minSpacing === 'number' && o.minSpacing > 0) parts.push(`at least ${fmt(o.minSpacing)} m apart`);
+  if (typeof o.cell === 'number') parts.push(`candidates on ${fmt(o.cell)} m cells`);
+  if (typeof o.exclusionPolygons === 'number' && o.exclusionPolygons > 0) parts.push(`${o.exclusionPolygons} exclusion polygon${o.exclusionPolygons === 1 ? '' : 's'} avoided`);
+  const mode = typeof o.mode === 'string' ? modes[o.mode] ?? `Chosen by the ${o.mode} criterion` : 'Chosen';
+  return `${mode}${parts.length ? `: ${parts.join(', ')}` : ''}.`;
+}
 
 function table(head: Interpolation[], rows: Interpolation[][], cls = ''): Markup {
   return joinMarkup([
@@ -549,7 +567,7 @@ export function reportHtml(input: ReportInput): string {
     const rows: Array<[Interpolation, Interpolation]> = [['Model', modelText(model)]];
     if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
     if (model.fit) {
-      rows.push(['Fit', `${model.fit.method}${model.fit.logLikelihood !== undefined ? `, log-likelihood ${fmt(model.fit.logLikelihood, 6)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic, 6)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`]);
+      rows.push(['Fit', `${model.fit.method}${model.fit.logLikelihood !== undefined ? `, ${model.fit.method === 'wls' ? 'REML log-likelihood at the least-squares parameters' : 'log-likelihood'} ${fmt(model.fit.logLikelihood)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`]);
       for (const w of model.fit.warnings ?? []) rows.push(['Fit note', String(w)]);
     }
     page.push(keyValues(rows));
@@ -562,7 +580,7 @@ export function reportHtml(input: ReportInput): string {
       html`<table><thead><tr><th>model</th><th class="num">log-likelihood</th><th class="num">AIC</th><th class="num">ΔAIC</th><th class="num">RMSE${log ? ' (ln)' : ''}</th><th class="num">MSSE</th></tr></thead><tbody>`,
       ...input.comparison.map((c) => joinMarkup([
         html`<tr${c.key === project.structure.chosen ? html` class="chosen"` : ''}><td>${c.label}${c.key === project.structure.chosen ? ' (chosen)' : ''}${c.error ? html`<br><small>${c.error}</small>` : ''}</td>`,
-        html`<td class="num">${fmt(c.logLikelihood, 6)}</td><td class="num">${fmt(c.aic, 6)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`,
+        html`<td class="num">${fmt(c.logLikelihood)}</td><td class="num">${fmt(c.aic)}</td><td class="num">${c.aic !== null && Number.isFinite(best) ? fmt(c.aic - best, 3) : '–'}</td>`,
         html`<td class="num">${fmt(c.rmse)}</td><td class="num">${fmt(c.msse, 3)}</td></tr>`,
       ])),
       html`</tbody></table>`,
@@ -621,10 +639,11 @@ export function reportHtml(input: ReportInput): string {
   const sug: Suggestion[] = project.suggestions ?? [];
   if (sug.length) {
     page.push(html`<h2 class="page">Suggested next samples</h2>`);
-    page.push(table(['rank', 'longitude', 'latitude', `x (${work})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
-      sug.map((x) => [String(x.rank), fmt(x.lon, 9), fmt(x.lat, 9), fmt(x.x, 9), fmt(x.y, 9), fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined ? '–' : fmt(x.pExceed, 3)]
+    page.push(table(['rank', 'longitude (°)', 'latitude (°)', `x (${work})`, 'y', 'expected benefit', u('mean'), u('sd'), 'P(exceed)'],
+      sug.map((x) => [String(x.rank), formatCoordinate(x.lon, 'degrees'), formatCoordinate(x.lat, 'degrees'), formatCoordinate(x.x, 'planar'), formatCoordinate(x.y, 'planar'),
+        fmt(x.benefit), fmt(x.mean), fmt(x.sd), x.pExceed === undefined || x.pExceed === null ? '–' : formatProbability(x.pExceed)]
         )));
-    if (project.suggestOptions) page.push(html`<p class="hint">Made with ${JSON.stringify(project.suggestOptions)}.</p>`);
+    if (project.suggestOptions) page.push(html`<p class="hint">${designOptionsText(project.suggestOptions, unit)}</p>`);
   }
 
   // --- reproduce -----------------------------------------------------------------------------

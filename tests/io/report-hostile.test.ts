@@ -21,7 +21,7 @@ describe('reportHtml with hostile text', () => {
   it('fullReportInput reaches many string fields and a report with every part', () => {
     expect(count).toBeGreaterThan(60);
     const html = reportHtml(fullReportInput());
-    for (const part of ['id="area-above"', 'Suggested next samples</h2>', 'Fit note', 'Made with', '<small>', 'class="warn"', 'table class="entries"']) {
+    for (const part of ['id="area-above"', 'Suggested next samples</h2>', 'Fit note', 'Chosen to sharpen the map', '<small>', 'class="warn"', 'table class="entries"']) {
       expect(html).toContain(part);
     }
   });

@@ -6,7 +6,7 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { inflateSync } from 'node:zlib';
 import {
-  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob,
+  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob, designOptionsText,
 } from '../../src/io/report.ts';
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
 import { mergeSimulationParts, simulateConditional } from '../../src/core/conditional-simulation.ts';
@@ -102,6 +102,16 @@ describe('reportHtml', () => {
     expect(html).toContain('<tr class="chosen"><td>Exponential (chosen)');
     expect(html).toContain('did not converge &lt;b&gt;');
     expect(html).toContain('&quot;crs&quot;:&quot;EPSG:32633&quot;');
+  });
+
+  it('reportHtml writes the sites table for people: coordinates without exponents, the chance as a percentage, the design choices in words', () => {
+    const sites = html.slice(html.indexOf('>Suggested next samples</h2>'), html.indexOf('>How to reproduce</h2>'));
+    expect(sites).toContain('<td>15.001300</td><td>48.752600</td><td>500100.0</td><td>5400070.0</td>');
+    expect(sites).toContain('<td>30 %</td>');
+    expect(sites).not.toMatch(/\de[+-]\d/);
+    expect(designOptionsText({ mode: 'decision', count: 6, threshold: 200, minSpacing: 10, exclusionPolygons: 1 }, 'mg/kg'))
+      .toBe('Chosen to settle the action level (least area on the wrong side): 6 sites, action level 200 mg/kg, at least 10 m apart, 1 exclusion polygon avoided.');
+    expect(designOptionsText({ mode: 'coverage', count: 1 }, '')).toBe('Chosen to cover the area evenly: 1 site.');
   });
 
   it('reportHtml leaves out suggestions and the exceedance map when there are none', () => {

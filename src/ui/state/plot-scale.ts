@@ -1,6 +1,6 @@
 /**
- * Small helpers for the SVG charts: linear scales, rounded tick values, histogram bins and number
- * formatting. Pure functions, no DOM.
+ * Small helpers for the SVG charts: linear scales, rounded tick values and histogram bins. Pure
+ * functions, no DOM; number formats are in io/format.ts.
  */
 
 export interface LinearScale {
@@ -82,38 +82,4 @@ export function histogram(values: ArrayLike<number>, binCount?: number): Histogr
   return bins;
 }
 
-/** A number for people: about 3–4 significant figures, no exponent for ordinary sizes. */
-export function formatNumber(v: number | null | undefined, digits = 3): string {
-  if (v === null || v === undefined || Number.isNaN(v)) return '–';
-  if (!Number.isFinite(v)) return v > 0 ? '∞' : '−∞';
-  if (v === 0) return '0';
-  const a = Math.abs(v);
-  let text: string;
-  if (a >= 1e6 || a < 1e-3) text = v.toExponential(Math.max(0, digits - 1));
-  else if (a >= 10 ** digits) text = Math.round(v).toLocaleString('en-US');
-  else text = String(+v.toPrecision(digits));
-  return text.replace('-', '−');
-}
-
-/** A distance in metres as "850 m" or "1.25 km". */
-export function formatDistance(m: number): string {
-  if (!Number.isFinite(m)) return '–';
-  return Math.abs(m) >= 1000 ? `${formatNumber(m / 1000)} km` : `${formatNumber(m)} m`;
-}
-
-/** A duration in seconds as "0.4 s", "12 s" or "3 min". */
-export function formatDuration(s: number): string {
-  if (!Number.isFinite(s)) return '–';
-  if (s < 0.1) return 'under 0.1 s';
-  if (s < 1) return `${formatNumber(s, 1)} s`;
-  if (s < 90) return `${Math.round(s)} s`;
-  return `${Math.round(s / 60)} min`;
-}
-
-/** A short axis label: 100k, 1.5M, 0.25, −3. */
-export function formatTick(v: number): string {
-  const a = Math.abs(v);
-  if (a >= 1e6) return `${formatNumber(v / 1e6)}M`;
-  if (a >= 1e4) return `${formatNumber(v / 1e3)}k`;
-  return formatNumber(v);
-}
+// Number formats live in io/format.ts (one function per meaning).

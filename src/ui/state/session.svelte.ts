@@ -22,7 +22,7 @@ import { bestKey, withParts, type CandidateRow, type ModelParts } from './struct
 import * as engine from './engine.ts';
 import type { Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
-import { measuredRate, planGrid, type GridPlan } from './grid-plan.ts';
+import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
@@ -341,7 +341,7 @@ export class Session {
       : null;
     return attempt(() => planGrid({
       x: intake.samples.x, y: intake.samples.y, padding: su.padding, cellSize: su.cellSize, polygons, workers: engine.workerCount(),
-      flopsPerSecond: this.rate,
+      flopsPerSecond: this.rate?.flopsPerSecond, overheadSeconds: this.rate?.overheadSeconds,
     }));
   });
 
@@ -366,7 +366,7 @@ export class Session {
   }
 
   /** Rate measured on the last surface (flops per second per worker), for the time estimate. */
-  rate = $state<number | undefined>(undefined);
+  rate = $state<SurfaceSpeed | undefined>(undefined);
   surfaceTask = $state<TaskState>(idleTask());
   private surfaceAbort: AbortController | null = null;
 
@@ -409,6 +409,7 @@ export class Session {
       local: local ? DEFAULT_LOCAL_NEIGHBORS : null,
     });
     let bands = 0;
+    const progress: Array<{ seconds: number; done: number }> = [];
     try {
       const result = await engine.surface(
         {
@@ -416,7 +417,11 @@ export class Session {
           support, blockPoints: this.blockPoints,
           local: local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : undefined,
         },
-        (done, total) => { if (this.surfaceAbort === ac) this.surfaceTask = { ...this.surfaceTask, done, total }; },
+        (done, total) => {
+          if (this.surfaceAbort !== ac) return;
+          this.surfaceTask = { ...this.surfaceTask, done, total };
+          progress.push({ seconds: (performance.now() - t0) / 1000, done });
+        },
         ac.signal,
         (merged) => { if (this.surfaceAbort === ac) this.surface = view(merged, false, ++bands); },
       );
@@ -424,7 +429,7 @@ export class Session {
       this.surface = view(result, true, ++bands);
       const ms = performance.now() - t0;
       this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, ms };
-      this.rate = measuredRate(intake.samples.x.length, plan.cells, engine.workerCount(), ms / 1000) ?? this.rate;
+      this.rate = measureSurfaceSpeed({ n: intake.samples.x.length, cells: plan.cells, workers: engine.workerCount(), seconds: ms / 1000, progress }) ?? this.rate;
       if (!this.s.surface.sdLimit && Number.isFinite(result.range.sd.max)) {
         this.s.surface.sdLimit = +result.range.sd.max.toPrecision(2);
       }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { autoCellSize, extentOf, measuredRate, planGrid, roundCell } from '../../../src/ui/state/grid-plan.ts';
+import { autoCellSize, extentOf, measuredRate, measureSurfaceSpeed, planGrid, roundCell } from '../../../src/ui/state/grid-plan.ts';
 
 describe('roundCell', () => {
   it('roundCell rounds to 1, 2, 2.5 or 5 times a power of ten', () => {
@@ -62,3 +62,30 @@ describe('measuredRate', () => {
     expect(measuredRate(3, plan.cells, 2, 0)).toBeUndefined();
   });
 });
+
+describe('measureSurfaceSpeed', () => {
+  it('measureSurfaceSpeed separates a fixed overhead from the per-cell work, so a grid 4 times larger is predicted', () => {
+    // A made-up run: 1.5 s of start-up, then 1e-4 s per cell (per the whole pool).
+    const x = [0, 100, 50], y = [0, 80, 40];
+    const small = planGrid({ x, y, padding: 0, cellSize: 0.6, workers: 2 });
+    const large = planGrid({ x, y, padding: 0, cellSize: 0.3, workers: 2 });
+    const time = (done: number) => 1.5 + 1e-4 * done;
+    const progress = [0.1, 0.3, 0.6, 0.9, 1].map((f) => ({ done: Math.round(f * small.cells), seconds: time(Math.round(f * small.cells)) }));
+    const speed = measureSurfaceSpeed({ n: 3, cells: small.cells, workers: 2, seconds: time(small.cells), progress })!;
+    // The factorisation (n³/3 flops) is counted as arithmetic, so the overhead is 1.5 s less that sliver.
+    expect(speed.overheadSeconds).toBeCloseTo(1.5, 3);
+    const again = planGrid({ x, y, padding: 0, cellSize: 0.3, workers: 2, flopsPerSecond: speed.flopsPerSecond, overheadSeconds: speed.overheadSeconds });
+    // The larger grid's time by the same made-up rule, to 1 % (the factorisation term is tiny at n = 3).
+    expectRelative(again.seconds, time(large.cells), 0.01);
+  });
+  it('measureSurfaceSpeed without progress points puts the whole time down to arithmetic', () => {
+    const s = measureSurfaceSpeed({ n: 3, cells: 1000, workers: 2, seconds: 2, progress: [] })!;
+    expect(s.overheadSeconds).toBe(0);
+    expect(s.flopsPerSecond).toBeCloseTo(measuredRate(3, 1000, 2, 2)!, 9);
+    expect(measureSurfaceSpeed({ n: 3, cells: 1000, workers: 2, seconds: 0, progress: [] })).toBeUndefined();
+  });
+});
+
+function expectRelative(actual: number, expected: number, rel: number): void {
+  expect(Math.abs(actual - expected) / Math.abs(expected)).toBeLessThan(rel);
+}

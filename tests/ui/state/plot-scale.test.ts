@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  formatDistance, formatDuration, formatNumber, formatTick, histogram, linearScale, niceDomain, niceTicks, tickStep,
+  histogram, linearScale, niceDomain, niceTicks, tickStep,
 } from '../../../src/ui/state/plot-scale.ts';
 
 describe('linearScale', () => {
@@ -49,34 +49,5 @@ describe('histogram', () => {
   });
   it('histogram of identical values is one bin', () => {
     expect(histogram([2, 2, 2])).toEqual([{ from: 2, to: 2, count: 3 }]);
-  });
-});
-
-describe('formatNumber / formatDistance / formatDuration', () => {
-  it('formatNumber rounds to significant figures and uses a true minus sign', () => {
-    expect(formatNumber(123.456)).toBe('123');
-    expect(formatNumber(-0.012345)).toBe('−0.0123');
-    expect(formatNumber(45210.7)).toBe('45,211');
-    expect(formatNumber(2.5e-5)).toBe('2.50e−5');
-    expect(formatNumber(NaN)).toBe('–');
-  });
-  it('formatDistance switches to km at 1000 m', () => {
-    expect(formatDistance(850)).toBe('850 m');
-    expect(formatDistance(1250)).toBe('1.25 km');
-  });
-  it('formatDuration gives seconds under 90 s and minutes above', () => {
-    expect(formatDuration(0.42)).toBe('0.4 s');
-    expect(formatDuration(0.0008)).toBe('under 0.1 s');
-    expect(formatDuration(12.4)).toBe('12 s');
-    expect(formatDuration(200)).toBe('3 min');
-  });
-});
-
-describe('formatTick', () => {
-  it('formatTick shortens thousands and millions', () => {
-    expect(formatTick(150000)).toBe('150k');
-    expect(formatTick(2500000)).toBe('2.5M');
-    expect(formatTick(5000)).toBe('5,000');
-    expect(formatTick(0.25)).toBe('0.25');
   });
 });

@@ -1,4 +1,5 @@
 import { describe, expect, it } from 'vitest';
+import { CANDIDATES } from '../../../src/core/fit.ts';
 import type { CovarianceModel } from '../../../src/core/model.ts';
 import type { EmpiricalVariogram } from '../../../src/core/variogram.ts';
 import {
@@ -16,8 +17,9 @@ function row(key: string, aic: number, model: CovarianceModel | null = exp): Can
 }
 
 describe('CANDIDATE_SPECS', () => {
-  it('CANDIDATE_SPECS lists the seven candidates with distinct keys', () => {
-    expect(CANDIDATE_SPECS.map((c) => c.key)).toEqual(['matern-0.5', 'matern-1.5', 'matern-2.5', 'matern-free', 'exponential', 'spherical', 'gaussian']);
+  it('CANDIDATE_SPECS lists the six candidates with distinct keys, the exponential (Matérn ν = ½) once, as core fitCandidates', () => {
+    expect(CANDIDATE_SPECS.map((c) => c.key)).toEqual(['exponential', 'matern-1.5', 'matern-2.5', 'matern-free', 'spherical', 'gaussian']);
+    expect(CANDIDATE_SPECS.map((c) => [c.family, c.nu])).toEqual(CANDIDATES.map((c) => [c.family, c.nu]));
   });
 });
 

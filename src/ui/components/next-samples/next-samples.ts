@@ -8,6 +8,7 @@ import type { Polygon } from '../../../core/grid.ts';
 import { readPolygons } from '../../../io/boundary.ts';
 import { suggestionsToCsv, suggestionsToGeoJson } from '../../../io/suggestions-export.ts';
 import { suggestionsToGpx } from '../../../io/gpx.ts';
+import { formatCount, formatValue } from '../../../io/format.ts';
 
 export type ExportFormat = 'geojson' | 'csv' | 'gpx';
 export type PointTransform = (x: number, y: number) => [number, number];
@@ -62,14 +63,11 @@ export function defaultMode(hasModel: boolean, threshold: number | null): Design
 /** m² as text: "850 m²", "1.25 ha" from 10,000 m² up. */
 export function areaText(m2: number | null): string {
   if (m2 === null || !Number.isFinite(m2)) return '–';
-  if (Math.abs(m2) >= 10_000) return `${Number((m2 / 10_000).toPrecision(3))} ha`;
-  return `${Math.round(m2).toLocaleString('en-US')} m²`;
+  if (Math.abs(m2) >= 10_000) return `${formatValue(m2 / 10_000)} ha`;
+  return `${formatCount(m2)} m²`;
 }
 
-/** A value with 3 significant digits, '–' when missing. */
+/** A value with 3 significant digits, '–' when missing (io/format.ts formatValue). */
 export function valueText(v: number | null | undefined, digits = 3): string {
-  if (v === null || v === undefined || !Number.isFinite(v)) return '–';
-  const a = Math.abs(v);
-  if (a !== 0 && (a < 1e-3 || a >= 1e6)) return v.toExponential(digits - 1);
-  return String(Number(v.toPrecision(digits)));
+  return formatValue(v, digits);
 }

@@ -66,7 +66,7 @@ describe('panel text helpers', () => {
   });
   it('valueText keeps 3 significant digits', () => {
     expect(valueText(65.60327)).toBe('65.6');
-    expect(valueText(0.00012345)).toBe('1.23e-4');
+    expect(valueText(0.00012345)).toBe('1.23 × 10⁻⁴');
     expect(valueText(null)).toBe('–');
   });
   it('safeStem keeps a file name stem safe', () => {
