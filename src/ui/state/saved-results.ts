@@ -10,7 +10,7 @@
  * session computes that part again when it is wanted. Each part also carries the key of the inputs it
  * was computed from, which the session compares with its current inputs as it does before a reload.
  */
-import type { IntakeResult } from '../../io/types.ts';
+import type { PackedIntake } from '../../worker/protocol.ts';
 import type { VariogramSet } from '../../core/variogram.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import type { DesignResult } from '../../core/design.ts';
@@ -32,7 +32,8 @@ export interface SavedResults {
   version: typeof RESULTS_VERSION;
   /** The reading the results belong to (SessionSnapshot.readId). */
   readId: string;
-  intake: IntakeResult;
+  /** The samples as read, rows as JSON text (one string stores fast; see PackedIntake). */
+  intake: PackedIntake;
   /** Variograms computed in a worker (many samples), with the key of their settings. */
   variograms: { key: string; set: VariogramSet } | null;
   /** The candidate table, the key it was fitted for, and how long the fit took (ms). */
@@ -78,8 +79,8 @@ export function validGrid(v: unknown): v is Grid {
   return v.mask === undefined || (v.mask instanceof Uint8Array && v.mask.length === v.nx * v.ny);
 }
 
-function validIntake(v: unknown, fileName: string): v is IntakeResult {
-  if (!isObj(v) || !isObj(v.samples) || !isObj(v.report) || !Array.isArray(v.rows)) return false;
+function validIntake(v: unknown, fileName: string): v is PackedIntake {
+  if (!isObj(v) || !isObj(v.samples) || !isObj(v.report) || typeof v.rowsJson !== 'string' || !v.rowsJson.startsWith('[')) return false;
   const s = v.samples;
   if (!(s.x instanceof Float64Array) || s.x.length < 1) return false;
   const n = s.x.length;

@@ -18,7 +18,7 @@ import { LatestRun } from './latest.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/samples.ts';
-import type { CovarianceModel } from '../../core/model.ts';
+import { parseModel, type CovarianceModel } from '../../core/model.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import {
   directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud, type VariogramSet,
@@ -151,6 +151,8 @@ export class Session {
   /** A boundary file that was refused, with why; the boundary in use is unchanged. */
   rejectedBoundary = $state.raw<{ fileName: string; error: ShownError } | null>(null);
   private readRuns = new LatestRun();
+  /** intake.rows as JSON text, as the worker sent it: what the saved results store. */
+  private rowsJson = '[]';
 
   // ---------------------------------------------------------------- structure
 
@@ -242,7 +244,7 @@ export class Session {
 
   /** What the cross-validation of the model in use is computed from. */
   private get cvKey(): string {
-    return JSON.stringify([this.s.readId, $state.snapshot(this.s.structure.model)]);
+    return JSON.stringify([this.s.readId, modelKey(this.s.structure.model)]);
   }
 
   get best(): string {
@@ -417,7 +419,7 @@ export class Session {
   get surfaceKey(): string {
     const g = this.gridPlan.value?.grid;
     return JSON.stringify({
-      v: this.s.readId, m: $state.snapshot(this.s.structure.model),
+      v: this.s.readId, m: modelKey(this.s.structure.model),
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
       t: this.s.surface.threshold,
       s: this.support, k: this.support === 'block' ? this.blockPoints : 0, l: this.surfaceLocal,
@@ -675,7 +677,7 @@ export class Session {
     return {
       version: RESULTS_VERSION,
       readId,
-      intake,
+      intake: { samples: intake.samples, report: intake.report, rowsJson: this.rowsJson },
       variograms: v?.set ? { key: v.key, set: v.set } : null,
       fit: this.candidates.length && this.fittedFor
         ? { key: this.fittedFor, rows: this.candidates, fittedWith: this.fittedWith, ms: this.fitTask.ms }
@@ -703,8 +705,17 @@ export class Session {
     }
     if (saved) {
       this.s = saved;
+      let intake: IntakeResult | null = null;
       if (results) {
-        this.takeIntake(results.intake);
+        try {
+          intake = engine.unpackIntake(results.intake);
+          this.rowsJson = results.intake.rowsJson;
+        } catch {
+          results = null;
+        }
+      }
+      if (intake) {
+        this.takeIntake(intake);
       } else if (saved.source) {
         const got = await this.readWith(saved.source, this.s.samples);
         if (got.intake) this.takeIntake(got.intake);
@@ -933,8 +944,11 @@ export class Session {
     this.reading = file.fileName;
     const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
     try {
-      const intake = await engine.readSamplesFile(file.text, options, run.signal);
-      return run.current() ? { intake, error: null, stale: false } : { intake: null, error: null, stale: true };
+      const packed = await engine.readSamplesFile(file.text, options, run.signal);
+      if (!run.current()) return { intake: null, error: null, stale: true };
+      const intake = engine.unpackIntake(packed);
+      this.rowsJson = packed.rowsJson;
+      return { intake, error: null, stale: false };
     } catch (e) {
       const error = showError(e);
       return run.current() && error.code !== 'cancelled' ? { intake: null, error, stale: false } : { intake: null, error: null, stale: true };
@@ -1039,6 +1053,20 @@ export class Session {
         blockPoints: this.s.surface.blockPoints, threshold: this.s.surface.threshold, layer: this.s.surface.layer,
       },
     };
+  }
+}
+
+/**
+ * The model as a key: its canonical form (parseModel's field order), so the model in use and the
+ * same model saved and read back give the same key.
+ */
+function modelKey(model: CovarianceModel | null): string {
+  if (!model) return 'null';
+  const plain = $state.snapshot(model) as CovarianceModel;
+  try {
+    return JSON.stringify(parseModel(plain));
+  } catch {
+    return JSON.stringify(plain);
   }
 }
 
