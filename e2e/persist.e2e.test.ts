@@ -177,6 +177,7 @@ describe('Reload and failed loads', () => {
     await page.setInputFiles('#boundary-file', { name: 'broken.geojson', mimeType: 'application/geo+json', buffer: Buffer.from('{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[1,2],[3', 'utf8') });
     await page.waitForSelector('[data-testid=boundary-rejected]');
     expect(await page.locator('[data-testid=boundary-rejected]').innerText()).toMatch(/broken\.geojson was not used.*still in use/s);
+    await page.locator('[data-testid=boundary-rejected]').scrollIntoViewIfNeeded();
     figures.push(`screenshot ${await shot(page, 'rejected-boundary')}`);
     await page.waitForTimeout(800);
     expect(await digest(page)).toEqual(before);
