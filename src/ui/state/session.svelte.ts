@@ -643,12 +643,14 @@ export class Session {
   watch(): void {
     $effect(() => {
       const snap = $state.snapshot(this.s) as SessionSnapshot;
-      if (this.ready) this.autosave.schedule(snap);
+      // Nothing to keep before a file is read (and after "Start over", which cleared the store).
+      if (this.ready && snap.source) this.autosave.schedule(snap);
     });
     // The computed results follow, stored beside the choices.
     $effect(() => {
       const record = this.resultsRecord();
-      if (this.ready) untrack(() => this.autosave.scheduleResults(record));
+      // null deletes the stored results (samples that no longer read); nothing to do with no file at all.
+      if (this.ready && (record || this.s.source)) untrack(() => this.autosave.scheduleResults(record));
     });
     // Variograms of many samples follow their settings in a worker.
     $effect(() => {
