@@ -173,9 +173,13 @@ describe('Next samples and Report steps', () => {
     await page.waitForSelector(`#report-body [role=status]:has-text("Opened ${saved.name}")`);
     await page.waitForSelector('[data-testid=start-over]');
     await page.waitForSelector('#report-body [data-export=project]:not([disabled])');
+    // The suggested sites the project holds come back on the map and in the project saved again.
+    await page.waitForFunction(() => document.querySelectorAll('.gapwise-next-site').length === 5);
     const again = JSON.parse((await download(page, '[data-export=project]')).bytes.toString('utf8')) as typeof project;
     expect(again.samples.text).toBe(project.samples.text);
     expect(again.model).toEqual(project.model);
+    expect(await markerNumbers(page)).toEqual(['1', '2', '3', '4', '5']);
+    expect(again.suggestions).toEqual(project.suggestions);
     expectClean(w);
   });
 });

@@ -66,6 +66,8 @@ export class EngineClient {
   private disposed = false;
   /** Workers started so far (1 + restarts). */
   startedWorkers = 0;
+  /** Requests started so far, by type (read by the browser tests to tell what was computed). */
+  readonly started: Partial<Record<RequestType, number>> = {};
 
   constructor(private readonly factory: WorkerFactory = createEngineWorker) {}
 
@@ -82,6 +84,7 @@ export class EngineClient {
   /** Like request, also giving the id for cancel(id). */
   start<K extends RequestType>(type: K, payload: RequestPayloads[K], options: RequestOptions = {}): RunningRequest<K> {
     const id = this.nextId++;
+    this.started[type] = (this.started[type] ?? 0) + 1;
     if (this.disposed) return { id, promise: Promise.reject(new EngineError('The engine client was closed.')) };
     if (options.signal?.aborted) return { id, promise: Promise.reject(cancelledError(type)) };
     const request = { id, type, payload } as EngineRequest;

@@ -146,6 +146,15 @@ export class EnginePool {
     return this.clients.reduce((s, c) => s + c.startedWorkers, 0);
   }
 
+  /** Requests started so far across the pool, by type (surfaces count one per band). */
+  get startedRequests(): Partial<Record<RequestType, number>> {
+    const out: Partial<Record<RequestType, number>> = {};
+    for (const c of this.clients) {
+      for (const [type, n] of Object.entries(c.started) as [RequestType, number][]) out[type] = (out[type] ?? 0) + n;
+    }
+    return out;
+  }
+
   /** Runs one request on the least busy worker. */
   request<K extends RequestType>(type: K, payload: RequestPayloads[K], options: RequestOptions = {}): Promise<ResultPayloads[K]> {
     let best = this.clients[0];

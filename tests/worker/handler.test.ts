@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
-import type { EngineResponse } from '../../src/worker/protocol.ts';
+import type { EngineResponse, PackedIntake } from '../../src/worker/protocol.ts';
+import { readSamples } from '../../src/io/intake.ts';
 import { computeSurface } from '../../src/core/surface.ts';
 import { empiricalVariogram, variogramSet } from '../../src/core/variogram.ts';
 import { localLeaveOneOut } from '../../src/core/local-cross-validation.ts';
@@ -122,6 +123,21 @@ describe('createEngineHandler', () => {
     const r = (last.message as Extract<EngineResponse, { type: 'result' }>).result as { samples: { value: Float64Array } };
     expect(Array.from(r.samples.value)).toEqual([120, 180, 95]);
     expect(last.transfer).toContain(r.samples.value.buffer);
+  });
+
+  it('createEngineHandler answers readSamplesPacked with the rows of readSamples as JSON text and the arrays transferred', () => {
+    const { sent, run } = collect();
+    const text = 'id,easting,northing,lead\nA,500010,4980010,120\nB,500050,4980020,<5\nC,500030,4980070,95\n';
+    const options = { fileName: 'yard.csv', crs: 'EPSG:32633' };
+    run({ id: 6, type: 'readSamplesPacked', payload: { text, options } });
+    const last = sent.at(-1)!;
+    expect(last.message.type, JSON.stringify(last.message)).toBe('result');
+    const r = (last.message as Extract<EngineResponse, { type: 'result' }>).result as PackedIntake;
+    const direct = readSamples(text, options);
+    expect(JSON.parse(r.rowsJson)).toEqual(direct.rows);
+    expect(r.report).toEqual(direct.report);
+    expect(Array.from(r.samples.value)).toEqual(Array.from(direct.samples.value));
+    expect(last.transfer).toContain(r.samples.x.buffer);
   });
 
   it('createEngineHandler returns GapwiseErrors as data with their code and place', () => {

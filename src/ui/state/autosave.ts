@@ -1,15 +1,20 @@
 /**
- * Autosave: writes the session snapshot to IndexedDB (idb-keyval) shortly after each change, reads it
- * back on start, and clears it on "Start over". The storage is injectable so the logic runs in tests.
+ * Autosave: writes the session snapshot (JSON text) and the computed results (by structured clone,
+ * typed arrays as they are; ./saved-results.ts) to IndexedDB (idb-keyval) shortly after each change,
+ * reads them back on start, and clears both on "Start over". Each write goes after the previous one.
+ * The storage is injectable so the logic runs in tests.
  */
 import { get, set, del } from 'idb-keyval';
 import { deserialiseSnapshot, serialiseSnapshot, type SessionSnapshot } from './snapshot.ts';
+import { parseResults, type ResultsExpectation, type SavedResults } from './saved-results.ts';
 
 export const AUTOSAVE_KEY = 'gapwise-session-v1';
+export const RESULTS_KEY = 'gapwise-results-v1';
 
 export interface KeyValueStore {
   get(key: string): Promise<unknown>;
-  set(key: string, value: string): Promise<void>;
+  /** Stores a structured-clone copy of `value` (text for the snapshot, an object for the results). */
+  set(key: string, value: unknown): Promise<void>;
   del(key: string): Promise<void>;
 }
 
@@ -26,7 +31,11 @@ export interface Autosave {
   flush(): Promise<void>;
   /** The stored snapshot, or null when there is none or it cannot be read. */
   load(): Promise<SessionSnapshot | null>;
-  /** Drops any pending save and deletes the stored snapshot. */
+  /** Schedules a save of the computed results (null deletes them); a later call within the delay replaces it. */
+  scheduleResults(results: SavedResults | null): void;
+  /** The stored results when they belong to the reading `expect` names (checked part by part), else null. */
+  loadResults(expect: ResultsExpectation): Promise<SavedResults | null>;
+  /** Drops any pending save and deletes the stored snapshot and results. */
   clear(): Promise<void>;
   /** Number of completed writes (shown as "saved" in the page; read by tests). */
   readonly saves: number;
@@ -44,6 +53,8 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
   const store = options.store ?? indexedDbStore;
   const delay = options.delayMs ?? 300;
   let pending: SessionSnapshot | null = null;
+  // undefined: nothing to write; null: delete the stored results.
+  let pendingResults: SavedResults | null | undefined;
   let timer: ReturnType<typeof setTimeout> | null = null;
   let saves = 0;
   let chain: Promise<void> = Promise.resolve();
@@ -53,11 +64,17 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
       clearTimeout(timer);
       timer = null;
     }
-    if (pending === null) return chain;
-    const text = serialiseSnapshot(pending);
+    if (pending === null && pendingResults === undefined) return chain;
+    const text = pending === null ? null : serialiseSnapshot(pending);
+    const results = pendingResults;
     pending = null;
+    pendingResults = undefined;
     chain = chain
-      .then(() => store.set(AUTOSAVE_KEY, text))
+      .then(async () => {
+        if (text !== null) await store.set(AUTOSAVE_KEY, text);
+        if (results === null) await store.del(RESULTS_KEY);
+        else if (results !== undefined) await store.set(RESULTS_KEY, results);
+      })
       .then(() => {
         saves++;
         options.onSaved?.();
@@ -65,14 +82,29 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
       .catch((e) => options.onError?.(e));
     return chain;
   };
+  const later = () => {
+    if (timer !== null) clearTimeout(timer);
+    timer = setTimeout(() => void write(), delay);
+  };
 
   return {
     schedule(snapshot) {
       pending = snapshot;
-      if (timer !== null) clearTimeout(timer);
-      timer = setTimeout(() => void write(), delay);
+      later();
+    },
+    scheduleResults(results) {
+      pendingResults = results;
+      later();
     },
     flush: write,
+    async loadResults(expect) {
+      try {
+        return parseResults(await store.get(RESULTS_KEY), expect);
+      } catch (e) {
+        options.onError?.(e);
+        return null;
+      }
+    },
     async load() {
       try {
         const v = await store.get(AUTOSAVE_KEY);
@@ -84,10 +116,12 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
     },
     async clear() {
       pending = null;
+      pendingResults = undefined;
       if (timer !== null) clearTimeout(timer);
       timer = null;
       await chain;
       await store.del(AUTOSAVE_KEY);
+      await store.del(RESULTS_KEY);
     },
     get saves() {
       return saves;

@@ -17,6 +17,10 @@ import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
 import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
 import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
+import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
+import { readSamples } from '../../io/intake.ts';
+import { epsgIndexLoaded } from '../../io/crs.ts';
+import type { PackedIntake, RequestType } from '../../worker/protocol.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -26,6 +30,11 @@ let pool: EnginePool | null = null;
 export function workerCount(): number {
   const n = typeof navigator !== 'undefined' ? navigator.hardwareConcurrency ?? 2 : 2;
   return Math.max(1, Math.min(4, n));
+}
+
+/** Engine requests started so far, by type (empty before the first); the browser tests read it. */
+export function requestCounts(): Partial<Record<RequestType, number>> {
+  return pool ? pool.startedRequests : {};
 }
 
 /** The app's one pool of engine workers (fits, surfaces, realisations, variograms, designs). */
@@ -179,4 +188,27 @@ export function variograms(
   req: { samples: Samples; options: VariogramOptions; directional: boolean; cloudPairs?: number }, signal?: AbortSignal,
 ): Promise<VariogramSet> {
   return enginePool().request('variogramSet', { samples: req.samples, options: req.options, directional: req.directional, cloudPairs: req.cloudPairs }, { signal });
+}
+
+/**
+ * Reads a samples file (the text as read) in a worker, so a large file never stalls the page. The
+ * app's one call of the intake: every samples file the app takes goes through here. Rejects with the
+ * intake's GapwiseError. The workers know the built-in coordinate systems only; a code from the full
+ * EPSG list (loaded on this thread by the CRS picker) is read here instead.
+ */
+export async function readSamplesFile(text: string, options: IntakeOptions, signal?: AbortSignal): Promise<PackedIntake> {
+  try {
+    return await enginePool().request('readSamplesPacked', { text, options }, { signal });
+  } catch (e) {
+    if ((e as { code?: string }).code === 'bad-crs' && epsgIndexLoaded() && !signal?.aborted) {
+      const r = readSamples(text, options);
+      return { samples: r.samples, report: r.report, rowsJson: JSON.stringify(r.rows) };
+    }
+    throw e;
+  }
+}
+
+/** The intake result of a packed one (its rows parsed back). */
+export function unpackIntake(p: PackedIntake): IntakeResult {
+  return { samples: p.samples, report: p.report, rows: JSON.parse(p.rowsJson) as IntakeResult['rows'] };
 }

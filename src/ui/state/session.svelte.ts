@@ -1,19 +1,24 @@
 /**
  * The app's state as runes: the saved choices (`s`, a SessionSnapshot, autosaved on every change)
  * and the results computed from them (read samples, variograms, model candidates, cross-validation,
- * surfaces), which are recomputed rather than stored. Components read and call this; the numerics
- * run in src/core and, when heavy, in workers (./engine.ts).
+ * surfaces, realisations), autosaved beside them (./saved-results.ts) so a reload shows them again
+ * without recomputing. A file is read (in a worker) and checked before it replaces anything: a file
+ * that fails leaves the work in use as it was. Components read and call this; the numerics run in
+ * src/core and, when heavy, in workers (./engine.ts).
  */
-import type { IntakeResult } from '../../io/types.ts';
-import { readSamples } from '../../io/intake.ts';
+import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readPolygons, projectPolygons, type Polygon } from '../../io/boundary.ts';
 import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { untrack } from 'svelte';
-import { emptySnapshot, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
+import { emptySnapshot, newReadId, type SampleChoices, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
 import { createAutosave, type Autosave } from './autosave.ts';
+import { RESULTS_VERSION, type SavedResults } from './saved-results.ts';
+import { LatestRun } from './latest.ts';
+import { suggestions } from './suggestions.svelte.ts';
+import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/samples.ts';
-import type { CovarianceModel } from '../../core/model.ts';
+import { parseModel, type CovarianceModel } from '../../core/model.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import {
   directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud, type VariogramSet,
@@ -67,6 +72,8 @@ export interface SurfaceView {
   local: number | null;
   /** Set when the layers show the per-cell summaries of this many realisations. */
   fromSimulation?: number;
+  /** Wall-clock time the computation took, ms (when known). */
+  ms?: number;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -137,6 +144,15 @@ export class Session {
   saveError = $state<string | null>(null);
   /** Bumped whenever new samples are read, so the map refits its view. */
   samplesVersion = $state(0);
+  /** The name of a file being read (in a worker), or null. */
+  reading = $state<string | null>(null);
+  /** A samples file that was refused, with why; the samples in use are unchanged. Cleared by the next success. */
+  rejectedSource = $state.raw<{ fileName: string; error: ShownError } | null>(null);
+  /** A boundary file that was refused, with why; the boundary in use is unchanged. */
+  rejectedBoundary = $state.raw<{ fileName: string; error: ShownError } | null>(null);
+  private readRuns = new LatestRun();
+  /** intake.rows as JSON text, as the worker sent it: what the saved results store. */
+  private rowsJson = '[]';
 
   // ---------------------------------------------------------------- structure
 
@@ -155,7 +171,7 @@ export class Session {
     if (!samples) return null;
     const { lagWidth, maxLag, directional, cloud } = this.s.structure;
     const options = { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined };
-    return { samples, options, directional, cloud, key: `${this.samplesVersion}|${this.s.samples.transform}|${lagWidth}|${maxLag}|${directional}|${cloud}` };
+    return { samples, options, directional, cloud, key: `${this.s.readId}|${this.s.samples.transform}|${lagWidth}|${maxLag}|${directional}|${cloud}` };
   });
 
   /**
@@ -163,7 +179,7 @@ export class Session {
    * 10⁷ pairs would stall the page); `variogramPending` is true meanwhile. Fewer are computed here.
    */
   private variogramRemote = $state.raw<{ key: string; set: VariogramSet | null; error: ShownError | null } | null>(null);
-  private variogramAbort: AbortController | null = null;
+  private variogramRuns = new LatestRun();
 
   get variogramPending(): boolean {
     const r = this.variogramRequest;
@@ -174,13 +190,11 @@ export class Session {
   refreshVariograms(): void {
     const r = this.variogramRequest;
     if (!r || r.samples.x.length < ASYNC_VARIOGRAM_FROM || this.variogramRemote?.key === r.key) return;
-    this.variogramAbort?.abort();
-    const ac = new AbortController();
-    this.variogramAbort = ac;
-    engine.variograms({ samples: r.samples, options: r.options, directional: r.directional, cloudPairs: r.cloud ? CLOUD_PAIRS : undefined }, ac.signal)
-      .then((set) => { if (this.variogramAbort === ac) this.variogramRemote = { key: r.key, set, error: null }; })
+    const run = this.variogramRuns.begin();
+    engine.variograms({ samples: r.samples, options: r.options, directional: r.directional, cloudPairs: r.cloud ? CLOUD_PAIRS : undefined }, run.signal)
+      .then((set) => { if (run.current()) this.variogramRemote = { key: r.key, set, error: null }; })
       .catch((e: unknown) => {
-        if (this.variogramAbort !== ac) return;
+        if (!run.current()) return;
         const err = showError(e);
         if (err.code !== 'cancelled') this.variogramRemote = { key: r.key, set: null, error: err };
       });
@@ -215,20 +229,48 @@ export class Session {
   fitTask = $state<TaskState>(idleTask());
   cv = $state.raw<LeaveOneOutResult | null>(null);
   cvError = $state.raw<ShownError | null>(null);
-  private fitAbort: AbortController | null = null;
-  private cvAbort: AbortController | null = null;
+  private fitRuns = new LatestRun();
+  private cvRuns = new LatestRun();
   private cvTimer: ReturnType<typeof setTimeout> | null = null;
+  /** What the candidates in the table were fitted for (see fitKey). */
+  private fittedFor = '';
+  /** The model the cross-validation figures belong to (see cvKey). */
+  private cvFor = '';
+
+  /** What the candidate table is fitted for: the reading and the transform. */
+  private get fitKey(): string {
+    return `${this.s.readId}|${this.s.samples.transform}`;
+  }
+
+  /** What the cross-validation of the model in use is computed from. */
+  private get cvKey(): string {
+    return JSON.stringify([this.s.readId, modelKey(this.s.structure.model)]);
+  }
 
   get best(): string {
     return bestKey(this.candidates);
   }
 
-  /** 'auto' chooses by sample count (MANY_SAMPLES); 'exact' or 'nnl' overrides. */
-  fitLikelihood = $state<'auto' | 'exact' | 'nnl'>('auto');
+  /** 'auto' chooses by sample count (MANY_SAMPLES); 'exact' or 'nnl' overrides (saved). */
+  get fitLikelihood(): 'auto' | 'exact' | 'nnl' {
+    return this.s.structure.likelihood;
+  }
+
+  set fitLikelihood(v: 'auto' | 'exact' | 'nnl') {
+    this.s.structure.likelihood = v;
+  }
+
   /** How the candidates in the table were fitted. */
   fittedWith = $state.raw<{ likelihood: 'exact' | 'nnl'; n: number; automatic: boolean } | null>(null);
-  /** 'auto' uses local neighbourhoods from MANY_SAMPLES; 'exact' (all samples) or 'local' overrides. */
-  surfaceMethod = $state<'auto' | 'exact' | 'local'>('auto');
+  /** 'auto' uses local neighbourhoods from MANY_SAMPLES; 'exact' (all samples) or 'local' overrides (saved). */
+  get surfaceMethod(): 'auto' | 'exact' | 'local' {
+    return this.s.surface.method;
+  }
+
+  set surfaceMethod(v: 'auto' | 'exact' | 'local') {
+    this.s.surface.method = v;
+  }
+
 
   /** True when the next surface is computed from local neighbourhoods. */
   get surfaceLocal(): boolean {
@@ -240,9 +282,8 @@ export class Session {
   async fit(): Promise<void> {
     const intake = this.intake;
     if (!intake) return;
-    this.fitAbort?.abort();
-    const ac = new AbortController();
-    this.fitAbort = ac;
+    const run = this.fitRuns.begin();
+    const fitKey = this.fitKey;
     const t0 = performance.now();
     this.fitTask = { ...idleTask(), status: 'running', total: 7 };
     const n = intake.samples.x.length;
@@ -250,11 +291,12 @@ export class Session {
     try {
       const rows = await engine.fitCandidateRows(
         { samples: intake.samples, method: this.s.structure.method, transform: this.s.samples.transform, likelihood },
-        (done, total, what) => { if (this.fitAbort === ac) this.fitTask = { ...this.fitTask, done, total, what: what ?? '' }; },
-        ac.signal,
+        (done, total, what) => { if (run.current()) this.fitTask = { ...this.fitTask, done, total, what: what ?? '' }; },
+        run.signal,
       );
-      if (this.fitAbort !== ac) return;
+      if (!run.current()) return;
       this.candidates = rows;
+      this.fittedFor = fitKey;
       this.fittedWith = { likelihood, n, automatic: this.fitLikelihood === 'auto' };
       const st = this.s.structure;
       const kept = rows.find((r) => r.key === st.chosen && r.model);
@@ -267,16 +309,15 @@ export class Session {
       }
       this.fitTask = { ...this.fitTask, status: 'done', done: rows.length, ms: performance.now() - t0 };
     } catch (e) {
-      if (this.fitAbort !== ac) return;
+      if (!run.current()) return;
       const err = showError(e);
       this.fitTask = { ...this.fitTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
     }
   }
 
   cancelFit(): void {
-    this.fitAbort?.abort();
+    this.fitRuns.cancel();
     this.fitTask = { ...this.fitTask, status: 'cancelled' };
-    this.fitAbort = null;
   }
 
   /** The user picks a candidate: it becomes the model in use (any edit is dropped). */
@@ -308,20 +349,24 @@ export class Session {
   private async runCv(): Promise<void> {
     const model = this.s.structure.model;
     const intake = this.intake;
-    this.cvAbort?.abort();
     if (!model || !intake) {
+      this.cvRuns.cancel();
       this.cv = null;
+      this.cvFor = '';
       return;
     }
-    const ac = new AbortController();
-    this.cvAbort = ac;
+    const key = this.cvKey;
+    // Figures for this very model are on screen already (e.g. brought back after a reload).
+    if (this.cv && this.cvFor === key) return;
+    const run = this.cvRuns.begin();
     try {
-      const r = await engine.crossValidate(intake.samples, $state.snapshot(model) as CovarianceModel, ac.signal);
-      if (this.cvAbort !== ac) return;
+      const r = await engine.crossValidate(intake.samples, $state.snapshot(model) as CovarianceModel, run.signal);
+      if (!run.current()) return;
       this.cv = r;
+      this.cvFor = key;
       this.cvError = null;
     } catch (e) {
-      if (this.cvAbort !== ac) return;
+      if (!run.current()) return;
       const err = showError(e);
       if (err.code !== 'cancelled') {
         this.cv = null;
@@ -368,13 +413,13 @@ export class Session {
   /** Rate measured on the last surface (flops per second per worker), for the time estimate. */
   rate = $state<SurfaceSpeed | undefined>(undefined);
   surfaceTask = $state<TaskState>(idleTask());
-  private surfaceAbort: AbortController | null = null;
+  private surfaceRuns = new LatestRun();
 
   /** What a surface computed now would be computed from. */
   get surfaceKey(): string {
     const g = this.gridPlan.value?.grid;
     return JSON.stringify({
-      v: this.samplesVersion, m: $state.snapshot(this.s.structure.model),
+      v: this.s.readId, m: modelKey(this.s.structure.model),
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
       t: this.s.surface.threshold,
       s: this.support, k: this.support === 'block' ? this.blockPoints : 0, l: this.surfaceLocal,
@@ -391,9 +436,7 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
-    this.surfaceAbort?.abort();
-    const ac = new AbortController();
-    this.surfaceAbort = ac;
+    const run = this.surfaceRuns.begin();
     this.s.surface.wanted = true;
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
@@ -403,10 +446,11 @@ export class Session {
     const local = support === 'point' && this.surfaceLocal;
     const t0 = performance.now();
     this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
-    const view = (result: SurfaceResult, done: boolean, bands: number): SurfaceView => ({
+    const view = (result: SurfaceResult, done: boolean, bands: number, ms?: number): SurfaceView => ({
       grid: plan.grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
       support, points: support === 'block' ? this.blockPoints : 1,
       local: local ? DEFAULT_LOCAL_NEIGHBORS : null,
+      ...(ms !== undefined ? { ms } : {}),
     });
     let bands = 0;
     const progress: Array<{ seconds: number; done: number }> = [];
@@ -418,23 +462,23 @@ export class Session {
           local: local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : undefined,
         },
         (done, total) => {
-          if (this.surfaceAbort !== ac) return;
+          if (!run.current()) return;
           this.surfaceTask = { ...this.surfaceTask, done, total };
           progress.push({ seconds: (performance.now() - t0) / 1000, done });
         },
-        ac.signal,
-        (merged) => { if (this.surfaceAbort === ac) this.surface = view(merged, false, ++bands); },
+        run.signal,
+        (merged) => { if (run.current()) this.surface = view(merged, false, ++bands); },
       );
-      if (this.surfaceAbort !== ac) return;
-      this.surface = view(result, true, ++bands);
+      if (!run.current()) return;
       const ms = performance.now() - t0;
+      this.surface = view(result, true, ++bands, ms);
       this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, ms };
       this.rate = measureSurfaceSpeed({ n: intake.samples.x.length, cells: plan.cells, workers: engine.workerCount(), seconds: ms / 1000, progress }) ?? this.rate;
       if (!this.s.surface.sdLimit && Number.isFinite(result.range.sd.max)) {
         this.s.surface.sdLimit = +result.range.sd.max.toPrecision(2);
       }
     } catch (e) {
-      if (this.surfaceAbort !== ac) return;
+      if (!run.current()) return;
       const err = showError(e);
       if (err.code === 'cancelled') this.surface = null;
       this.surfaceTask = { ...this.surfaceTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
@@ -475,7 +519,7 @@ export class Session {
   simTask = $state<TaskState>(idleTask());
   /** Seconds per realisation-cell measured on the last run (per worker), for the estimate. */
   simRate = $state<number | null>(null);
-  private simAbort: AbortController | null = null;
+  private simRuns = new LatestRun();
 
   /** Seconds the next run should take, or null before a first run has measured the speed. */
   get simEstimate(): number | null {
@@ -489,9 +533,7 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
-    this.simAbort?.abort();
-    const ac = new AbortController();
-    this.simAbort = ac;
+    const run = this.simRuns.begin();
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const count = Math.max(1, Math.min(10_000, Math.round(this.simCount)));
@@ -509,8 +551,8 @@ export class Session {
           depth: depth ?? undefined,
         },
         keepFirst: 4,
-      }, (done, total) => { if (this.simAbort === ac) this.simTask = { ...this.simTask, done, total }; }, ac.signal);
-      if (this.simAbort !== ac) return;
+      }, (done, total) => { if (run.current()) this.simTask = { ...this.simTask, done, total }; }, run.signal);
+      if (!run.current()) return;
       const ms = performance.now() - t0;
       // Keep the first four realisations only: the view shows them, the summaries are computed.
       const kept = { ...result, realisations: result.realisations?.slice(0, 4) };
@@ -518,7 +560,7 @@ export class Session {
       this.simRate = ms / 1000 / (count * plan.cells);
       this.simTask = { ...this.simTask, status: 'done', done: count, ms };
     } catch (e) {
-      if (this.simAbort !== ac) return;
+      if (!run.current()) return;
       const err = showError(e);
       this.simTask = { ...this.simTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
     }
@@ -562,14 +604,12 @@ export class Session {
   }
 
   cancelSimulation(): void {
-    this.simAbort?.abort();
-    this.simAbort = null;
+    this.simRuns.cancel();
     this.simTask = { ...this.simTask, status: 'cancelled' };
   }
 
   cancelSurface(): void {
-    this.surfaceAbort?.abort();
-    this.surfaceAbort = null;
+    this.surfaceRuns.cancel();
     this.surface = null;
     this.s.surface.wanted = false;
     this.surfaceTask = { ...this.surfaceTask, status: 'cancelled' };
@@ -581,6 +621,10 @@ export class Session {
     this.autosave = autosave ?? createAutosave({
       onSaved: () => { this.savedAt = Date.now(); this.saveError = null; },
       onError: (e) => { this.saveError = `Autosave failed: ${(e as Error)?.message ?? String(e)}`; },
+    });
+    provideTestHook({
+      engineRequests: () => ({ ...engine.requestCounts() }),
+      sessionDigest: () => this.digest(),
     });
   }
 
@@ -604,7 +648,14 @@ export class Session {
   watch(): void {
     $effect(() => {
       const snap = $state.snapshot(this.s) as SessionSnapshot;
-      if (this.ready) this.autosave.schedule(snap);
+      // Nothing to keep before a file is read (and after "Start over", which cleared the store).
+      if (this.ready && snap.source) this.autosave.schedule(snap);
+    });
+    // The computed results follow, stored beside the choices.
+    $effect(() => {
+      const record = this.resultsRecord();
+      // null deletes the stored results (samples that no longer read); nothing to do with no file at all.
+      if (this.ready && (record || this.s.source)) untrack(() => this.autosave.scheduleResults(record));
     });
     // Variograms of many samples follow their settings in a worker.
     $effect(() => {
@@ -619,21 +670,108 @@ export class Session {
     });
   }
 
-  /** Reads the saved session back (or starts empty) and recomputes what depends on it. */
+  /**
+   * The results to store with the current reading, or null when there is none (which deletes the
+   * stored ones). A surface still arriving is left out: the last finished one is what a reload shows.
+   */
+  private resultsRecord(): SavedResults | null {
+    const intake = this.intake;
+    const readId = this.s.readId;
+    if (!intake || !readId || !this.s.source) return null;
+    const v = this.variogramRemote;
+    const surface = this.surface?.done ? this.surface : null;
+    const design = suggestions.current;
+    return {
+      version: RESULTS_VERSION,
+      readId,
+      intake: { samples: intake.samples, report: intake.report, rowsJson: this.rowsJson },
+      variograms: v?.set ? { key: v.key, set: v.set } : null,
+      fit: this.candidates.length && this.fittedFor
+        ? { key: this.fittedFor, rows: this.candidates, fittedWith: this.fittedWith, ms: this.fitTask.ms }
+        : null,
+      cv: this.cv && this.cvFor ? { key: this.cvFor, result: this.cv } : null,
+      surface,
+      rate: this.rate ?? null,
+      simulation: this.simulation,
+      simRate: this.simRate,
+      suggestions: design ? { result: design, options: suggestions.options } : null,
+    };
+  }
+
+  /**
+   * Reads the saved session back and shows the results stored with it, computing only what is
+   * wanted and was not stored (or did not pass the checks on load). Resolves true when there was a
+   * saved session.
+   */
   async restore(): Promise<boolean> {
     const saved = await this.autosave.load();
+    let results: SavedResults | null = null;
+    if (saved?.source) {
+      if (!saved.readId) saved.readId = newReadId();
+      results = await this.autosave.loadResults({ readId: saved.readId, fileName: saved.source.fileName });
+    }
     if (saved) {
       this.s = saved;
-      this.readSource();
-      this.readBoundary();
+      let intake: IntakeResult | null = null;
+      if (results) {
+        try {
+          intake = engine.unpackIntake(results.intake);
+          this.rowsJson = results.intake.rowsJson;
+        } catch {
+          results = null;
+        }
+      }
+      if (intake) {
+        this.takeIntake(intake);
+      } else if (saved.source) {
+        const got = await this.readWith(saved.source, this.s.samples);
+        if (got.intake) this.takeIntake(got.intake);
+        else this.failIntake(got.error);
+      }
     }
     this.ready = true;
-    // Bring back the comparison table; the chosen (and possibly edited) model is kept.
-    if (saved && this.intake && this.s.structure.model) {
-      if (this.s.surface.wanted) void this.computeSurface();
-      void this.fit();
+    if (saved && this.intake) {
+      const back = results ? this.showResults(results) : { fit: false, surface: false };
+      if (this.s.structure.model) {
+        if (this.s.surface.wanted && !back.surface) void this.computeSurface();
+        // Bring back the comparison table; the chosen (and possibly edited) model is kept.
+        if (!back.fit) void this.fit();
+      }
     }
     return saved !== null;
+  }
+
+  /** Puts stored results on screen (the intake is already taken); says which parts came back. */
+  private showResults(r: SavedResults): { fit: boolean; surface: boolean } {
+    if (r.variograms) this.variogramRemote = { key: r.variograms.key, set: r.variograms.set, error: null };
+    const fit = !!r.fit && r.fit.key === this.fitKey;
+    if (fit && r.fit) {
+      this.candidates = r.fit.rows;
+      this.fittedWith = r.fit.fittedWith;
+      this.fittedFor = r.fit.key;
+      this.fitTask = { ...idleTask(), status: 'done', done: r.fit.rows.length, total: r.fit.rows.length, ms: r.fit.ms };
+    }
+    if (r.cv && r.cv.key === this.cvKey) {
+      this.cv = r.cv.result;
+      this.cvFor = r.cv.key;
+    }
+    if (r.rate !== null) this.rate = r.rate;
+    if (r.simRate !== null) this.simRate = r.simRate;
+    // Surfaces and realisations come back as they were on screen, stale or not (the views say so).
+    const surface = r.surface;
+    if (surface) {
+      this.surface = { ...surface, bands: 1 };
+      this.surfaceTask = { ...idleTask(), status: 'done', done: surface.result.cells, total: surface.result.cells, ms: surface.ms ?? 0 };
+    }
+    if (r.simulation) {
+      this.simulation = r.simulation;
+      this.simTask = { ...idleTask(), status: 'done', done: r.simulation.result.count, total: r.simulation.result.count, what: 'realisations', ms: r.simulation.ms };
+    }
+    if (r.suggestions) {
+      suggestions.session ??= this;
+      suggestions.set(r.suggestions.result, r.suggestions.options);
+    }
+    return { fit, surface: !!surface };
   }
 
   /** Writes any pending save now (e.g. before the page is hidden). */
@@ -644,14 +782,19 @@ export class Session {
   /** Clears the saved session and every result. */
   async startOver(): Promise<void> {
     await this.autosave.clear();
+    this.readRuns.cancel();
+    this.reading = null;
     this.s = emptySnapshot();
     this.intake = null;
     this.intakeError = null;
     this.places = null;
     this.boundary = null;
     this.boundaryError = null;
+    this.rejectedSource = null;
+    this.rejectedBoundary = null;
     this.selected = null;
     this.dropResults();
+    if (suggestions.session === this) suggestions.set(null);
     this.savedAt = null;
   }
 
@@ -665,16 +808,16 @@ export class Session {
 
   /** Drops every result computed from the samples (they changed). */
   dropResults(): void {
-    this.fitAbort?.abort();
-    this.fitAbort = null;
+    this.fitRuns.cancel();
     this.candidates = [];
+    this.fittedFor = '';
     this.fitTask = idleTask();
+    this.cvRuns.cancel();
     this.cv = null;
+    this.cvFor = '';
     this.cvError = null;
-    this.surfaceAbort?.abort();
-    this.surfaceAbort = null;
-    this.simAbort?.abort();
-    this.simAbort = null;
+    this.surfaceRuns.cancel();
+    this.simRuns.cancel();
     this.simulation = null;
     this.simTask = idleTask();
     this.surface = null;
@@ -685,10 +828,23 @@ export class Session {
   /** Hook for the surface: results that depend on the samples are dropped when they change. */
   onSamplesChanged: (() => void) | null = null;
 
-  /** Takes a new samples file: choices that belonged to the old file are reset. */
-  loadSource(file: SourceFile): void {
+  /**
+   * Reads a samples file (in a worker) and, only when it can be used, makes it the session's samples:
+   * the choices that belonged to the old file are reset (`choices` sets reading choices at once, e.g.
+   * the demo's value column) and every result is dropped. A file that cannot be used changes nothing
+   * in use; it is named in `rejectedSource`. Resolves with the error, or null on success (or when a
+   * newer load replaced this one).
+   */
+  async loadSource(file: SourceFile, choices: Partial<SampleChoices> = {}): Promise<ShownError | null> {
+    const samples: SampleChoices = { unit: '', transform: 'none', ...choices };
+    const got = await this.readWith(file, samples);
+    if (got.stale) return null;
+    if (!got.intake) {
+      this.rejectedSource = { fileName: file.fileName, error: got.error! };
+      return got.error;
+    }
     this.s.source = file;
-    this.s.samples = { unit: '', transform: 'none' };
+    this.s.samples = samples;
     this.s.structure.model = null;
     this.s.structure.chosen = '';
     this.s.structure.lagWidth = 0;
@@ -697,17 +853,61 @@ export class Session {
     this.s.surface.cellSize = 0;
     this.s.surface.threshold = null;
     this.s.surface.sdLimit = null;
-    this.readSource();
+    this.rejectedSource = null;
+    this.takeNewReading(got.intake);
+    return null;
   }
 
-  loadBoundary(file: SourceFile | null): void {
+  /**
+   * Takes a boundary file when it reads (and, with samples in a known CRS, projects); null removes
+   * the boundary. A file that cannot be used leaves the boundary in use; it is named in
+   * `rejectedBoundary`. Returns the error, or null.
+   */
+  loadBoundary(file: SourceFile | null): ShownError | null {
+    if (file) {
+      try {
+        this.boundary = this.polygonsOf(file);
+      } catch (e) {
+        const error = showError(e);
+        this.rejectedBoundary = { fileName: file.fileName, error };
+        return error;
+      }
+      this.boundaryError = null;
+    } else {
+      this.boundary = null;
+      this.boundaryError = null;
+    }
+    this.rejectedBoundary = null;
     this.s.boundary = file;
     this.s.surface.area = file ? 'boundary' : 'extent';
-    this.readBoundary();
+    return null;
+  }
+
+  /**
+   * Puts a whole saved state in place (an opened project): its samples are read first, and only when
+   * they can be used does it replace the session (every result dropped; the surface and the table are
+   * computed again when the state has a model). Resolves with the error, or null.
+   */
+  async openSnapshot(next: SessionSnapshot): Promise<ShownError | null> {
+    if (!next.source) return null;
+    const got = await this.readWith(next.source, next.samples);
+    if (got.stale) return null;
+    if (!got.intake) {
+      this.rejectedSource = { fileName: next.source.fileName, error: got.error! };
+      return got.error;
+    }
+    this.s = next;
+    this.rejectedSource = null;
+    this.takeNewReading(got.intake);
+    if (this.s.structure.model) {
+      if (this.s.surface.wanted) void this.computeSurface();
+      void this.fit();
+    }
+    return null;
   }
 
   /** Changes one reading choice (value column, CRS, non-detect rule) and reads the file again. */
-  setReadChoice(choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): void {
+  setReadChoice(choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): Promise<void> {
     if ('value' in choice) {
       this.s.samples.value = choice.value;
       this.s.samples.unit = '';
@@ -717,40 +917,87 @@ export class Session {
     }
     if ('crs' in choice) this.s.samples.crs = choice.crs;
     if ('nonDetect' in choice) this.s.samples.nonDetect = choice.nonDetect;
-    this.readSource();
+    return this.readSource();
   }
 
-  /** Reads s.source with the current choices (synchronous: intake is fast for files people type). */
-  readSource(): void {
+  /**
+   * Reads s.source again with the current choices (in a worker). On success the samples and every
+   * result are replaced; when the file cannot be read with these choices the error is shown instead
+   * of samples (the choice can be changed back).
+   */
+  async readSource(): Promise<void> {
     const src = this.s.source;
-    this.selected = null;
     if (!src) {
+      this.readRuns.cancel();
       this.intake = null;
       this.intakeError = null;
       this.places = null;
+      this.selected = null;
       this.dropResults();
       return;
     }
-    try {
-      const c = this.s.samples;
-      const result = readSamples(src.text, {
-        fileName: src.fileName,
-        value: c.value,
-        crs: c.crs,
-        nonDetect: c.nonDetect,
-      });
-      this.intake = result;
-      this.intakeError = null;
-      this.places = placesOf(result);
-      if (this.s.samples.transform === 'log' && !(result.report.summary.min > 0)) this.s.samples.transform = 'none';
-    } catch (e) {
-      this.intake = null;
-      this.places = null;
-      this.intakeError = showError(e);
+    const got = await this.readWith(src, this.s.samples);
+    if (got.stale) return;
+    if (got.intake) this.takeNewReading(got.intake);
+    else {
+      this.failIntake(got.error);
+      this.dropResults();
     }
+  }
+
+  /** Reads a file with reading choices in a worker; `stale` when a newer read started meanwhile. */
+  private async readWith(file: SourceFile, c: SampleChoices): Promise<{ intake: IntakeResult | null; error: ShownError | null; stale: boolean }> {
+    const run = this.readRuns.begin();
+    this.reading = file.fileName;
+    const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
+    try {
+      const packed = await engine.readSamplesFile(file.text, options, run.signal);
+      if (!run.current()) return { intake: null, error: null, stale: true };
+      const intake = engine.unpackIntake(packed);
+      this.rowsJson = packed.rowsJson;
+      return { intake, error: null, stale: false };
+    } catch (e) {
+      const error = showError(e);
+      return run.current() && error.code !== 'cancelled' ? { intake: null, error, stale: false } : { intake: null, error: null, stale: true };
+    } finally {
+      if (run.current()) this.reading = null;
+    }
+  }
+
+  /** Samples read anew: a new reading id, the results of the old reading dropped. */
+  private takeNewReading(intake: IntakeResult): void {
+    this.s.readId = newReadId();
+    this.takeIntake(intake);
+    this.dropResults();
+  }
+
+  /** Shows read samples (and places the boundary against their CRS). */
+  private takeIntake(intake: IntakeResult): void {
+    this.selected = null;
+    this.intake = intake;
+    this.intakeError = null;
+    this.places = placesOf(intake);
+    if (this.s.samples.transform === 'log' && !(intake.report.summary.min > 0)) this.s.samples.transform = 'none';
     this.samplesVersion++;
     this.readBoundary();
-    this.dropResults();
+  }
+
+  private failIntake(error: ShownError | null): void {
+    this.selected = null;
+    this.intake = null;
+    this.places = null;
+    this.intakeError = error;
+    this.samplesVersion++;
+    this.readBoundary();
+  }
+
+  /** Boundary polygons of a file in WGS 84 and in the working CRS of the samples read. */
+  private polygonsOf(b: SourceFile): { lonLat: Polygon[]; work: Polygon[] } {
+    const lonLat = readPolygons(b.text, b.fileName);
+    const work = this.intake && this.intake.report.crs.work !== LOCAL_CRS
+      ? projectPolygons(lonLat, this.intake.report.crs.work)
+      : [];
+    return { lonLat, work };
   }
 
   readBoundary(): void {
@@ -761,11 +1008,7 @@ export class Session {
       return;
     }
     try {
-      const lonLat = readPolygons(b.text, b.fileName);
-      const work = this.intake && this.intake.report.crs.work !== LOCAL_CRS
-        ? projectPolygons(lonLat, this.intake.report.crs.work)
-        : [];
-      this.boundary = { lonLat, work };
+      this.boundary = this.polygonsOf(b);
       this.boundaryError = null;
     } catch (e) {
       this.boundary = null;
@@ -779,6 +1022,58 @@ export class Session {
     this.s.structure.model = null;
     this.s.structure.chosen = '';
     this.dropResults();
+  }
+
+  /**
+   * Figures of what is on screen, for the browser tests to compare before and after a reload: sums
+   * over the surface and realisation layers, the candidate table, the cross-validation summary, the
+   * suggested sites and the panel choices. Computed from the state; nothing is recomputed.
+   */
+  digest(): Record<string, unknown> {
+    const sum = (a: ArrayLike<number> | undefined): number | null => {
+      if (!a) return null;
+      let t = 0;
+      for (let k = 0; k < a.length; k++) if (a[k] === a[k]) t += a[k];
+      return t;
+    };
+    const sf = this.surface;
+    const sim = this.simulation;
+    const design = suggestions.current;
+    return {
+      readId: this.s.readId,
+      samples: this.intake ? { n: this.intake.samples.x.length, value: sum(this.intake.samples.value), x: sum(this.intake.samples.x) } : null,
+      boundary: this.s.boundary?.fileName ?? null,
+      candidates: this.candidates.map((c) => [c.key, c.aic, c.rmse, c.msse]),
+      chosen: this.s.structure.chosen,
+      cv: this.cv ? { ...this.cv.summary } : null,
+      surface: sf ? {
+        done: sf.done, cells: sf.result.cells, nx: sf.grid.nx, ny: sf.grid.ny, mean: sum(sf.result.mean), sd: sum(sf.result.sd),
+        pExceed: sum(sf.result.pExceed), fromSimulation: sf.fromSimulation ?? null, stale: this.surfaceStale,
+      } : null,
+      simulation: sim ? {
+        count: sim.result.count, seed: sim.seed, mean: sum(sim.result.mean), kept: sim.result.realisations?.length ?? 0,
+        first: sum(sim.result.realisations?.[0]), area: sim.result.area?.area ?? null, stale: this.simulationStale,
+      } : null,
+      suggestions: design ? design.suggestions.map((p) => [p.rank, p.x, p.y]) : null,
+      choices: {
+        simulation: { ...this.s.simulation }, next: { ...this.s.next }, support: this.s.surface.support,
+        blockPoints: this.s.surface.blockPoints, threshold: this.s.surface.threshold, layer: this.s.surface.layer,
+      },
+    };
+  }
+}
+
+/**
+ * The model as a key: its canonical form (parseModel's field order), so the model in use and the
+ * same model saved and read back give the same key.
+ */
+function modelKey(model: CovarianceModel | null): string {
+  if (!model) return 'null';
+  const plain = $state.snapshot(model) as CovarianceModel;
+  try {
+    return JSON.stringify(parseModel(plain));
+  } catch {
+    return JSON.stringify(plain);
   }
 }
 

@@ -1,7 +1,8 @@
 /**
- * The saved session: everything needed to put the work back after a reload — the file text as read,
- * the user's choices, the chosen model and the grid settings — as one JSON-able object with a version.
- * Results that can be recomputed (the read samples, variograms, surfaces) are not stored.
+ * The saved session: the file text as read, the user's choices, the chosen model and the grid
+ * settings — as one JSON-able object with a version. The computed results (samples as read, candidate
+ * table, surfaces, realisations, suggestions) are stored beside it (./saved-results.ts), tied to the
+ * snapshot's `readId`, so a reload shows them again without recomputing.
  */
 import type { CovarianceModel } from '../../core/model.ts';
 import { parseModel } from '../../core/model.ts';
@@ -47,6 +48,8 @@ export interface StructureChoices {
   chosen: string;
   /** The model in use (the chosen candidate, possibly edited). */
   model: CovarianceModel | null;
+  /** Likelihood for the fits: 'auto' by sample count, 'exact' or 'nnl' (nearest-neighbour). */
+  likelihood: 'auto' | 'exact' | 'nnl';
 }
 
 export interface SurfaceChoices {
@@ -68,6 +71,8 @@ export interface SurfaceChoices {
   support: 'point' | 'block';
   /** Block support: discretisation points per cell side (1..16). */
   blockPoints: number;
+  /** Point values from all samples ('exact'), local neighbourhoods ('local'), or 'auto' by sample count. */
+  method: 'auto' | 'exact' | 'local';
 }
 
 /** Conditional realisations: how many, the seed, and the depth (m) for the volume. */
@@ -76,6 +81,16 @@ export interface SimulationChoices {
   /** A whole number; the same seed gives the same realisations. */
   seed: number;
   depth: number | null;
+}
+
+/** The Next samples panel's choices. */
+export interface NextChoices {
+  /** New sites asked for (1..500). */
+  count: number;
+  /** The design criterion, or 'auto' (chosen from the model and the action level). */
+  mode: 'auto' | 'variance' | 'decision' | 'coverage';
+  /** Least distance between new sites and samples, working-CRS units; 0 = none. */
+  spacing: number;
 }
 
 export interface MapChoices {
@@ -87,12 +102,26 @@ export interface SessionSnapshot {
   version: typeof SNAPSHOT_VERSION;
   step: StepId;
   source: SourceFile | null;
+  /**
+   * Names one reading of `source` with the current reading choices: a new id whenever the samples
+   * are read differently (another file, value column, CRS, non-detect rule); '' with no source.
+   * Stored results belong to the reading whose id they carry.
+   */
+  readId: string;
   boundary: SourceFile | null;
   samples: SampleChoices;
   structure: StructureChoices;
   surface: SurfaceChoices;
   simulation: SimulationChoices;
+  next: NextChoices;
   map: MapChoices;
+}
+
+/** A fresh reading id (random; only compared for equality). */
+export function newReadId(): string {
+  const c = globalThis.crypto;
+  if (c && typeof c.randomUUID === 'function') return c.randomUUID();
+  return `${Date.now().toString(36)}-${Math.random().toString(36).slice(2)}`;
 }
 
 /** A fresh session: nothing loaded, every choice at its default. */
@@ -101,14 +130,17 @@ export function emptySnapshot(): SessionSnapshot {
     version: SNAPSHOT_VERSION,
     step: 'samples',
     source: null,
+    readId: '',
     boundary: null,
     samples: { unit: '', transform: 'none' },
-    structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null },
+    structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null, likelihood: 'auto' },
     surface: {
       area: 'extent', padding: 0.05, cellSize: 0, threshold: null, layer: 'mean', opacity: 0.8,
       hideUncertain: false, sdLimit: null, wanted: false, support: 'point', blockPoints: 4,
+      method: 'auto',
     },
     simulation: { count: 100, seed: 1, depth: null },
+    next: { count: 8, mode: 'auto', spacing: 0 },
     map: { basemap: 'none', customUrl: '' },
   };
 }
@@ -150,6 +182,8 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
   const su = isObj(input.surface) ? input.surface : {};
   const m = isObj(input.map) ? input.map : {};
   const sim = isObj(input.simulation) ? input.simulation : {};
+  const nx = isObj(input.next) ? input.next : {};
+  const source = readSource(input.source);
   const whole = (v: unknown, dflt: number, min: number, max: number): number => {
     const n = num(v, dflt, min, max);
     return Number.isInteger(n) ? n : dflt;
@@ -158,7 +192,9 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
   return {
     version: SNAPSHOT_VERSION,
     step: oneOf(input.step, STEP_IDS, d.step),
-    source: readSource(input.source),
+    source,
+    // '' for a snapshot written before reading ids existed: no stored results can match it.
+    readId: source ? str(input.readId, '') : '',
     boundary: readSource(input.boundary),
     samples: {
       value: optStr(s.value),
@@ -177,6 +213,7 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       method: oneOf(st.method, ['reml', 'wls'] as const, 'reml'),
       chosen: str(st.chosen, ''),
       model: readModel(st.model),
+      likelihood: oneOf(st.likelihood, ['auto', 'exact', 'nnl'] as const, 'auto'),
     },
     surface: {
       area: oneOf(su.area, ['extent', 'boundary'] as const, 'extent'),
@@ -190,11 +227,17 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       wanted: bool(su.wanted, false),
       support: oneOf(su.support, ['point', 'block'] as const, 'point'),
       blockPoints: whole(su.blockPoints, d.surface.blockPoints, 1, 16),
+      method: oneOf(su.method, ['auto', 'exact', 'local'] as const, 'auto'),
     },
     simulation: {
       count: whole(sim.count, d.simulation.count, 1, 10_000),
       seed: whole(sim.seed, d.simulation.seed, -(2 ** 31), 2 ** 31),
       depth: typeof sim.depth === 'number' && Number.isFinite(sim.depth) && sim.depth > 0 ? sim.depth : null,
+    },
+    next: {
+      count: whole(nx.count, d.next.count, 1, 500),
+      mode: oneOf(nx.mode, ['auto', 'variance', 'decision', 'coverage'] as const, 'auto'),
+      spacing: num(nx.spacing, 0, 0),
     },
     map: {
       basemap: oneOf(m.basemap, ['none', 'osm', 'custom'] as const, 'none'),

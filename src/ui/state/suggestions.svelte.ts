@@ -7,6 +7,7 @@
 import type { DesignResult } from '../../core/design.ts';
 import type { Suggestion as ProjectSuggestion } from '../../io/project.ts';
 import type { Session } from './session.svelte.ts';
+import { CAUTION } from '../../core/caution.ts';
 
 export class SuggestionsState {
   /** The app's session (registered by the map view, which every page has). */
@@ -50,4 +51,45 @@ export function projectSuggestions(result: DesignResult | null): ProjectSuggesti
     });
   }
   return out.length > 0 ? out : undefined;
+}
+
+/**
+ * The suggested sites a project file holds, as a design result the Next samples step and the map
+ * show again: sites, mode and options as saved; the before/after figures are not in the file (null).
+ */
+export function designFromProject(sites: readonly ProjectSuggestion[] | undefined, options: Record<string, unknown> | undefined, threshold: number | null): DesignResult | null {
+  if (!sites || sites.length === 0) return null;
+  const o = options ?? {};
+  const modes = ['variance', 'decision', 'coverage'] as const;
+  const mode = modes.find((m) => m === o.mode) ?? (sites.some((s) => s.pExceed !== undefined) ? 'decision' : 'variance');
+  const num = (v: unknown, d: number): number => (typeof v === 'number' && Number.isFinite(v) ? v : d);
+  return {
+    mode,
+    requested: num(o.count, sites.length),
+    suggestions: sites.map((s) => ({
+      rank: s.rank, x: s.x, y: s.y, lon: s.lon, lat: s.lat, benefit: s.benefit, mean: s.mean, sd: s.sd, pExceed: s.pExceed ?? null,
+    })),
+    benefitMeaning: mode === 'decision'
+      ? 'drop of the expected misclassified area against the threshold (m²), as saved in the project'
+      : mode === 'coverage'
+        ? 'how much the mean squared distance from the area to the nearest sample would rise without this site (m²), as saved in the project'
+        : 'drop of the average variance of the surface over the area, as saved in the project',
+    scale: 'data',
+    averageSdBefore: null,
+    averageSdAfter: null,
+    misclassifiedAreaBefore: null,
+    misclassifiedAreaAfter: null,
+    areaDecided: null,
+    coverageDistanceBefore: null,
+    coverageDistanceAfter: null,
+    threshold: typeof o.threshold === 'number' ? o.threshold : threshold,
+    area: 0,
+    cell: num(o.cell, 0),
+    minSpacing: num(o.minSpacing, 0),
+    evaluationPoints: 0,
+    candidatePoints: 0,
+    screenedCandidates: 0,
+    warnings: [],
+    caution: CAUTION,
+  };
 }

@@ -10,6 +10,10 @@ export interface TestHook {
   surfaceInfo(): Record<string, unknown> | null;
   /** The colour domain of the mean layer and the number of colour steps drawn. */
   meanScale(): { domain: [number, number]; steps: number; log: boolean } | null;
+  /** Engine requests started since the page loaded, by type (tells what was computed). */
+  engineRequests(): Record<string, number>;
+  /** Figures of the session's state (see Session.digest), to compare before and after a reload. */
+  sessionDigest(): Record<string, unknown>;
 }
 
 export function testHookEnabled(): boolean {

@@ -15,12 +15,15 @@ function fullSnapshot(): SessionSnapshot {
       structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1.2, scale: 150, nu: 1.5 }],
       trend: 'constant', transform: 'log',
     },
+    likelihood: 'nnl',
   };
   s.surface = {
     area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, layer: 'exceed', opacity: 0.6,
-    hideUncertain: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6,
+    hideUncertain: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6, method: 'local',
   };
   s.simulation = { count: 250, seed: 17, depth: 0.3 };
+  s.readId = 'reading-1';
+  s.next = { count: 12, mode: 'decision', spacing: 25 };
   s.map = { basemap: 'custom', customUrl: 'http://127.0.0.1:8080/{z}/{x}/{y}.png' };
   return s;
 }

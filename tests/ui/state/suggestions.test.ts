@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { projectSuggestions } from '../../../src/ui/state/suggestions.svelte.ts';
+import { designFromProject, projectSuggestions } from '../../../src/ui/state/suggestions.svelte.ts';
 import type { DesignResult, Suggestion } from '../../../src/core/design.ts';
 
 function design(suggestions: Suggestion[]): DesignResult {
@@ -32,5 +32,31 @@ describe('projectSuggestions', () => {
     expect(out?.map((s) => s.rank)).toEqual([3]);
     expect(projectSuggestions(design([{ rank: 1, x: 0, y: 0, benefit: 1, mean: null, sd: null, pExceed: null }]))).toBeUndefined();
     expect(projectSuggestions(null)).toBeUndefined();
+  });
+});
+
+describe('designFromProject', () => {
+  it('designFromProject gives back the sites a project holds, with the mode and spacing of its options', () => {
+    const sites = [
+      { rank: 1, x: 10, y: 20, lon: 11.2, lat: 48.5, benefit: 3, mean: 210, sd: 40, pExceed: 0.6 },
+      { rank: 2, x: 30, y: 40, lon: 11.3, lat: 48.6, benefit: 2, mean: 150, sd: 30 },
+    ];
+    const d = designFromProject(sites, { mode: 'decision', count: 2, minSpacing: 15, threshold: 200 }, null)!;
+    expect(d.mode).toBe('decision');
+    expect(d.requested).toBe(2);
+    expect(d.minSpacing).toBe(15);
+    expect(d.threshold).toBe(200);
+    expect(d.suggestions.map((s) => [s.rank, s.x, s.y, s.pExceed])).toEqual([[1, 10, 20, 0.6], [2, 30, 40, null]]);
+    expect(d.averageSdBefore).toBeNull();
+    // Saved again, the project holds the same sites.
+    expect(projectSuggestions(d)).toEqual(sites);
+  });
+
+  it('designFromProject gives null for a project without sites, and a mode from the sites when the options name none', () => {
+    expect(designFromProject(undefined, undefined, null)).toBeNull();
+    expect(designFromProject([], {}, null)).toBeNull();
+    const d = designFromProject([{ rank: 1, x: 1, y: 2, lon: 0, lat: 0, benefit: 1, mean: 5, sd: 1 }], undefined, 7)!;
+    expect(d.mode).toBe('variance');
+    expect(d.threshold).toBe(7);
   });
 });

@@ -1,0 +1,263 @@
+/**
+ * Nothing lost on reload, nothing replaced by a file that fails: the demo through fit, surface,
+ * realisations and suggested sites, then a reload that must show all of it again from what was saved
+ * (same figures, no engine request, exports enabled); rejected samples and boundary files that leave
+ * the work in use as it was, before and after a reload. Prints the time the reload took and the
+ * longest main-thread tasks while reading 20,000 rows and at each step with 500 samples (figures only).
+ */
+import { describe, expect, it } from 'vitest';
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import type { Page } from 'playwright-core';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask, type Watched } from './harness.ts';
+import { fiveHundredCsv } from './files.ts';
+import { createRandom } from '../src/core/random.ts';
+
+const run = useHarness('Reload and main-thread figures');
+const figures = run.figures;
+
+type Hook = { engineRequests(): Record<string, number>; sessionDigest(): Record<string, unknown> };
+
+async function digest(page: Page): Promise<Record<string, unknown>> {
+  return page.evaluate(() => (window as unknown as { __gapwiseTest: Hook }).__gapwiseTest.sessionDigest());
+}
+
+async function engineRequests(page: Page): Promise<Record<string, number>> {
+  return page.evaluate(() => (window as unknown as { __gapwiseTest: Hook }).__gapwiseTest.engineRequests());
+}
+
+/** Waits until the autosave has been quiet for a second (it writes 300 ms after the last change). */
+async function saved(page: Page): Promise<void> {
+  // A change made just now is written 300 ms later: give it time to start, then wait for quiet.
+  await page.waitForTimeout(1000);
+  await page.waitForFunction(() => {
+    const at = Number(document.querySelector('[data-testid=save-status]')?.getAttribute('data-saved-at') || 0);
+    return at > 0 && Date.now() - at > 1000;
+  }, null, { timeout: WAIT });
+  expect(await page.locator('[data-testid=save-status]').innerText()).toBe('Saved in this browser');
+}
+
+async function chooseCrs(page: Page, code: string): Promise<void> {
+  const input = page.locator('#crs-picker');
+  await input.click();
+  await input.fill(code.replace('EPSG:', ''));
+  await page.waitForSelector(`#crs-picker-list [role=option]:has-text("${code}")`);
+  await input.press('Enter');
+  await page.waitForSelector(`[data-testid=crs-current]:text-is("${code}")`);
+}
+
+/**
+ * Reloads; returns ms from the reload until the session is back with the surface drawn (`total`),
+ * and the page's own clock (from navigation start) when it was restored and when the surface was drawn.
+ */
+async function reloadAndTime(page: Page): Promise<{ total: number; restored: number; drawn: number }> {
+  const t0 = Date.now();
+  await page.reload();
+  const restored = await (await page.waitForFunction(() => document.querySelector('.app[data-ready=yes][data-restored=yes]') ? performance.now() : 0)).jsonValue();
+  const drawn = await (await page.waitForFunction(() => document.querySelector('[data-testid=surface-layer][data-complete=yes]') ? performance.now() : 0, null, { timeout: WAIT })).jsonValue();
+  return { total: Date.now() - t0, restored: Math.round(restored), drawn: Math.round(drawn) };
+}
+
+const timing = (t: { total: number; restored: number; drawn: number }) =>
+  `${t.total} ms from the reload to the surface drawn (page clock: session back at ${t.restored} ms, surface drawn at ${t.drawn} ms)`;
+
+async function stepDone(page: Page, id: string): Promise<boolean> {
+  return page.locator(`section[data-step=${id}]`).evaluate((el) => el.classList.contains('done'));
+}
+
+/** A file chosen as samples through the file input. */
+async function offerSamples(page: Page, name: string, bytes: Buffer): Promise<void> {
+  await openStep(page, 'samples');
+  await page.setInputFiles('#samples-file', { name, mimeType: 'text/csv', buffer: bytes });
+}
+
+/** The first bytes of a PNG image (signature, IHDR) and some binary noise: an image renamed .csv. */
+function pngBytes(): Buffer {
+  const rnd = createRandom(7);
+  const head = [0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a, 0, 0, 0, 13, 0x49, 0x48, 0x44, 0x52, 0, 0, 1, 0, 0, 0, 1, 0, 8, 6, 0, 0, 0];
+  return Buffer.from([...head, ...Array.from({ length: 2000 }, () => Math.floor(rnd.uniform() * 256))]);
+}
+
+function manyRowsCsv(n: number): string {
+  const rnd = createRandom(20_000);
+  const lines = ['id,x,y,nitrate'];
+  for (let k = 0; k < n; k++) {
+    const x = 5 + 9990 * rnd.uniform();
+    const y = 5 + 9990 * rnd.uniform();
+    lines.push(`R${k + 1},${(600000 + x).toFixed(2)},${(5300000 + y).toFixed(2)},${(30 + 10 * Math.sin(x / 900) + rnd.normal()).toFixed(2)}`);
+  }
+  return lines.join('\n') + '\n';
+}
+
+describe('Reload and failed loads', () => {
+  let w: Watched;
+  let before: Record<string, unknown>;
+
+  it('reload after fit, surface, realisations and suggested sites: everything back from what was saved, nothing recomputed, exports enabled', async () => {
+    w = await openPage(run.h);
+    const { page } = w;
+    await page.click('[data-testid=load-demo]');
+    await page.waitForSelector('[data-testid=read-report]');
+    await openStep(page, 'structure');
+    await page.click('[data-testid=fit-button]');
+    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+    await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
+    await openStep(page, 'surface');
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    for (const [id, v] of [['#sim-count', '20'], ['#sim-seed', '5']] as const) {
+      await page.fill(id, v);
+      await page.locator(id).press('Enter');
+    }
+    await page.click('[data-testid=simulate]');
+    await page.waitForSelector('[data-testid=sim-done]', { timeout: WAIT });
+    await openStep(page, 'next');
+    await page.fill('#ns-count', '5');
+    await page.selectOption('#ns-mode', 'variance');
+    await page.click('[data-testid=suggest-sites]');
+    await page.waitForSelector('[data-testid=next-result][data-mode=variance][data-count="5"]', { timeout: WAIT });
+    await saved(page);
+    before = await digest(page);
+    const computed = await engineRequests(page);
+    expect(computed.fit ?? 0).toBeGreaterThan(0);
+    expect(computed.surfaceRows ?? 0).toBeGreaterThan(0);
+    expect(computed.simulate ?? 0).toBeGreaterThan(0);
+    expect(computed.design).toBe(1);
+    expect((before.surface as { done: boolean }).done).toBe(true);
+    expect((before.simulation as { count: number }).count).toBe(20);
+    expect((before.suggestions as unknown[]).length).toBe(5);
+    expect((before.choices as { next: { count: number; mode: string } }).next).toEqual({ count: 5, mode: 'variance', spacing: 0 });
+
+    const ms = await reloadAndTime(page);
+    await page.waitForTimeout(400);
+    const after = await digest(page);
+    const requests = await engineRequests(page);
+    figures.push(`demo reload with fit + surface + 20 realisations + 5 sites: ${timing(ms)}; engine requests after the reload: ${JSON.stringify(requests)}`);
+    expect(after).toEqual(before);
+    expect(requests, 'engine requests after the reload').toEqual({});
+    for (const id of ['samples', 'structure', 'surface', 'next']) expect(await stepDone(page, id), `step ${id} marked done`).toBe(true);
+    await openStep(page, 'structure');
+    expect(await page.locator('[data-testid=candidate-table]').getAttribute('data-fit-status')).toBe('done');
+    expect(await page.locator('[data-testid=candidate-table] tbody tr').count()).toBe(7);
+    await openStep(page, 'surface');
+    expect(await page.locator('[data-testid=sim-seed-used]').innerText()).toBe('5');
+    expect(await page.locator('[data-testid=realisation-canvas]').count()).toBe(4);
+    await openStep(page, 'next');
+    expect(await page.locator('[data-testid=next-table] tbody tr').count()).toBe(5);
+    expect(await page.inputValue('#ns-count')).toBe('5');
+    expect(await page.locator('.gapwise-next-site').count()).toBe(5);
+    await openStep(page, 'report');
+    for (const e of ['report', 'geotiff', 'contours', 'csv', 'project']) {
+      expect(await page.locator(`[data-export=${e}]`).isEnabled(), `export ${e} enabled`).toBe(true);
+    }
+    figures.push(`screenshot ${await shot(page, 'reload-report')}`);
+    await openStep(page, 'surface');
+    figures.push(`screenshot ${await shot(page, 'reload-surface')}`);
+    expect(await engineRequests(page)).toEqual({});
+    expectClean(w);
+  }, LONG);
+
+  it('a rejected samples file (image renamed .csv, empty, garbage) and a rejected boundary leave the work in use, after a reload too', async () => {
+    const { page } = w;
+    const bad: Array<[string, Buffer]> = [
+      ['photo.csv', pngBytes()],
+      ['empty.csv', Buffer.alloc(0)],
+      ['garbage.csv', Buffer.from('%%%\n@@@ ### ;;;\n\u0001\u0002 nothing here\n', 'utf8')],
+    ];
+    for (const [name, bytes] of bad) {
+      await offerSamples(page, name, bytes);
+      await page.waitForSelector(`[data-testid=source-rejected]:has-text("${name} was not used")`, { timeout: WAIT });
+      expect(await page.locator('[data-testid=source-name]').innerText()).toBe('lead-topsoil.csv');
+      expect(await page.locator('[data-testid=source-rejected]').innerText()).toMatch(/The samples from lead-topsoil\.csv are still in use/);
+    }
+    figures.push(`rejected samples message: ${(await page.locator('[data-testid=source-rejected]').innerText()).slice(0, 200)}`);
+    figures.push(`screenshot ${await shot(page, 'rejected-samples')}`);
+    await openStep(page, 'surface');
+    await page.setInputFiles('#boundary-file', { name: 'broken.geojson', mimeType: 'application/geo+json', buffer: Buffer.from('{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Polygon","coordinates":[[[1,2],[3', 'utf8') });
+    await page.waitForSelector('[data-testid=boundary-rejected]');
+    expect(await page.locator('[data-testid=boundary-rejected]').innerText()).toMatch(/broken\.geojson was not used.*still in use/s);
+    await page.locator('[data-testid=boundary-rejected]').scrollIntoViewIfNeeded();
+    figures.push(`screenshot ${await shot(page, 'rejected-boundary')}`);
+    await page.waitForTimeout(800);
+    expect(await digest(page)).toEqual(before);
+    await saved(page);
+    const ms = await reloadAndTime(page);
+    await page.waitForTimeout(400);
+    figures.push(`reload after the rejected files: ${timing(ms)}`);
+    expect(await digest(page)).toEqual(before);
+    expect(await engineRequests(page)).toEqual({});
+    await openStep(page, 'samples');
+    expect(await page.locator('[data-testid=source-name]').innerText()).toBe('lead-topsoil.csv');
+    expectClean(w);
+    await w.context.close();
+  }, LONG);
+});
+
+describe('Main thread (figures only)', () => {
+  it('reads 20,000 rows in a worker: longest main-thread task printed', async () => {
+    const x = await openPage(run.h);
+    const { page } = x;
+    // Given as a file on disk: a buffer would be decoded by a script in the page, a main-thread task of the test's own.
+    const path = join(mkdtempSync(join(tmpdir(), 'gapwise-e2e-')), 'twenty-thousand.csv');
+    writeFileSync(path, manyRowsCsv(20_000));
+    await openStep(page, 'samples');
+    await takeLongestTask(page);
+    const t0 = Date.now();
+    await page.setInputFiles('#samples-file', path);
+    await page.waitForSelector('[data-testid=source-name]:text-is("twenty-thousand.csv")', { timeout: WAIT });
+    await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
+    await page.waitForTimeout(500);
+    const task = await takeLongestTask(page);
+    figures.push(`20,000 rows read and shown: ${Date.now() - t0} ms; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    expect(await page.locator('[data-testid=rows-used]').innerText()).toBe('20,000');
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+
+  it('500 samples: longest main-thread task at each step printed', async () => {
+    const x = await openPage(run.h);
+    const { page } = x;
+    const step = async (what: string, act: () => Promise<void>) => {
+      await takeLongestTask(page);
+      const t0 = Date.now();
+      await act();
+      await page.waitForTimeout(300);
+      const task = await takeLongestTask(page);
+      figures.push(`500 samples, ${what}: ${((Date.now() - t0) / 1000).toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    };
+    await step('read', async () => {
+      await offerSamples(page, 'five-hundred.csv', Buffer.from(fiveHundredCsv(), 'utf8'));
+      await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
+    });
+    await step('coordinate system chosen (read again)', () => chooseCrs(page, 'EPSG:32632'));
+    await step('structure step opened (variograms)', async () => {
+      await openStep(page, 'structure');
+      await page.waitForSelector('[data-testid=variogram-chart]', { timeout: WAIT });
+    });
+    await step('fit (WLS, 7 candidates)', async () => {
+      await page.selectOption('#fit-method', 'wls');
+      await page.click('[data-testid=fit-button]');
+      await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+      await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
+    });
+    await step('surface', async () => {
+      await openStep(page, 'surface');
+      await page.click('[data-testid=compute-surface]');
+      await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+      await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
+    });
+    await step('next samples (8 sites)', async () => {
+      await openStep(page, 'next');
+      await page.click('[data-testid=suggest-sites]');
+      await page.waitForSelector('[data-testid=next-result]', { timeout: WAIT });
+    });
+    await saved(page);
+    await step('reload', async () => {
+      await reloadAndTime(page);
+    });
+    expect(await engineRequests(page)).toEqual({});
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+});
