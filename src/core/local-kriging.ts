@@ -25,7 +25,7 @@
  * tile of M samples and M² flops plus M covariances per target.
  */
 import type { CovarianceModel } from './model.ts';
-import { nuggetOf } from './model.ts';
+import { checkModelScale, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { surfaceVariance } from './covariance.ts';
@@ -33,7 +33,7 @@ import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { coordinateFrame, designRow, knownMean, trendColumnCount, type CoordinateFrame } from './trend.ts';
 import { NeighborIndex } from './neighbors.ts';
 import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
-import { checkModel, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
+import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
@@ -142,6 +142,7 @@ function checkInputs(samples: Samples, model: CovarianceModel, p: number): void 
     if (!Number.isFinite(z)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; expected a finite number.`);
     if (log && !(z > 0)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; a log transform needs values greater than 0.`);
   }
+  checkModelScale(model, samples.x, samples.y, samples.value);
 }
 
 /**
@@ -611,5 +612,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     return { mean: outMean, sd: outSd, sdObserved: outSdObs, median, logMean: mean, logSd: sd, warnings: callWarnings };
   };
 
-  return { n, neighbors: q, model, warnings, beta, frame, predict };
+  const checked = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction =>
+    checkPredictionFinite(model, predict(tx, ty, popts), tx, ty, popts.sd !== false || log);
+  return { n, neighbors: q, model, warnings, beta, frame, predict: checked };
 }
