@@ -81,6 +81,6 @@ export interface Warning {
  */
 export function checkCount(actual: number, limit: number, what: string, advice: string): void {
   if (actual <= limit) return;
-  const shown = Number.isFinite(actual) ? Math.ceil(actual).toLocaleString('en') : String(actual);
+  const shown = !Number.isFinite(actual) ? String(actual) : actual >= 1e15 ? actual.toExponential(2) : Math.ceil(actual).toLocaleString('en');
   throw new GapwiseError('bad-option', `${what} would be ${shown}; the most is ${limit.toLocaleString('en')}: ${advice}.`);
 }

@@ -8,7 +8,7 @@
 import { GapwiseError, type Warning } from './errors.ts';
 import { checkLeaveOneOutFinite, summariseErrors, type LeaveOneOutResult } from './cross-validation.ts';
 import { createPredictor } from './kriging.ts';
-import { globalMeanCoefficients } from './local-kriging.ts';
+import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from './local-kriging.ts';
 import { checkModelScale, type CovarianceModel } from './model.ts';
 import { NeighborIndex } from './neighbors.ts';
 import type { Samples } from './samples.ts';
@@ -38,7 +38,9 @@ export function localLeaveOneOut(
   const pModel = trendColumnCount(model.trend);
   if (n < pModel + 2) throw new GapwiseError('too-few-samples', `Expected at least ${pModel + 2} samples for leave-one-out with this trend, got ${n}.`);
   const m = options.neighbors;
-  if (!(Number.isInteger(m) && m >= 1)) throw new GapwiseError('bad-option', `Expected a whole number of neighbours of at least 1, got ${m}.`);
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${m}.`);
+  }
   const log = model.transform === 'log';
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) {

@@ -37,6 +37,8 @@ import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
+/** The most neighbours of a local neighbourhood (an m × m matrix is factorised per neighbourhood). */
+export const MAX_LOCAL_NEIGHBORS = 2000;
 /** Up to this many samples the global mean comes from the dense GLS; above, from the nearest-neighbour factor. */
 const DENSE_GLOBAL_MEAN_LIMIT = 1000;
 
@@ -202,8 +204,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const pModel = trendColumnCount(trend);
   checkInputs(samples, model, pModel);
   const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
-  if (!(Number.isInteger(m) && m >= 1 && m <= 2000)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to 2000, got ${JSON.stringify(options.neighbors)}.`);
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(options.neighbors)}.`);
   }
   const n = samples.x.length;
   const log = model.transform === 'log';
