@@ -8,7 +8,7 @@ import type { Warning } from '../core/errors.ts';
 import { makeSamples } from '../core/samples.ts';
 import { readCsv } from './csv.ts';
 import { readPointFeatures } from './geojson.ts';
-import { LOCAL_CRS, createTransform, resolveCrs, utmZoneFor } from './crs.ts';
+import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts';
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks } from './numbers.ts';
@@ -554,31 +554,14 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
 
   // --- working CRS and projection -------------------------------------------------------------
   let work: ResolvedCrs;
-  if (options.workCrs !== undefined) {
-    work = resolveIn(options.workCrs, file, 'workCrs');
-    if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
-  } else if (input.geographic) {
-    // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
-    let lonMin = Infinity;
-    let lonMax = -Infinity;
-    let lat = 0;
-    let lonSum = 0;
-    const t4326 = input.key === 'EPSG:4326' ? null : createTransform(input.key, 'EPSG:4326');
-    const ll = parsed.map((p) => (t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y]));
-    for (const [lo] of ll) {
-      lonMin = Math.min(lonMin, lo);
-      lonMax = Math.max(lonMax, lo);
-    }
-    const wrap = lonMax - lonMin > 180;
-    for (const [lo, la] of ll) {
-      lonSum += wrap && lo < 0 ? lo + 360 : lo;
-      lat += la;
-    }
-    let clon = lonSum / ll.length;
-    if (clon > 180) clon -= 360;
-    work = resolveCrs(utmZoneFor(clon, lat / ll.length).code);
-  } else {
-    work = input;
+  try {
+    const requested = options.workCrs !== undefined ? resolveIn(options.workCrs, file, 'workCrs') : undefined;
+    const choice = chooseWorkCrs(input, parsed.map((p) => p.x), parsed.map((p) => p.y), requested);
+    work = choice.work;
+    warnings.push(...choice.warnings);
+  } catch (e) {
+    if (e instanceof GapwiseError) throw new GapwiseError(e.code, e.message, { ...e.place, file });
+    throw e;
   }
   let toWork: ReturnType<typeof createTransform>;
   try {
