@@ -35,6 +35,14 @@ export type Polygon = ReadonlyArray<Ring>;
 
 /** The most cells a grid may have (about 48 MB for mean, sd and P(exceed) as Float32). */
 export const MAX_CELLS = 4_000_000;
+/** The longest side a grid may have: 10,000 km, a quarter of the Earth's circumference (metres). */
+export const MAX_GRID_SIDE = 10_000_000;
+/** The largest padding, as a fraction of the larger side of the samples' extent, on each side. */
+export const MAX_PADDING = 10;
+
+function km(m: number): string {
+  return m >= 1e5 ? `${Number((m / 1000).toPrecision(3)).toLocaleString('en')} km` : `${Number(m.toPrecision(3))} m`;
+}
 
 function checkCell(cell: number): void {
   if (typeof cell !== 'number' || !Number.isFinite(cell) || cell <= 0) {
@@ -64,6 +72,11 @@ export function gridFromExtent(xmin: number, ymin: number, xmax: number, ymax: n
     throw new GapwiseError('bad-option', `Expected xmin ≤ xmax and ymin ≤ ymax, got x ${xmin}..${xmax}, y ${ymin}..${ymax}.`);
   }
   if (pad < 0) throw new GapwiseError('bad-option', `Expected a padding of 0 m or more, got ${pad}.`);
+  const width = xmax - xmin + 2 * pad, height = ymax - ymin + 2 * pad;
+  if (width > MAX_GRID_SIDE || height > MAX_GRID_SIDE) {
+    throw new GapwiseError('bad-option',
+      `The grid would span ${km(width)} × ${km(height)} (an extent of ${km(xmax - xmin)} × ${km(ymax - ymin)}${pad > 0 ? ` with ${km(pad)} of padding on each side` : ''}); the most is ${km(MAX_GRID_SIDE)} a side: choose a smaller padding or area.`);
+  }
   const x0 = Math.floor((xmin - pad) / cell) * cell;
   const y0 = Math.ceil((ymax + pad) / cell) * cell;
   const nx = Math.max(1, Math.ceil((xmax + pad - x0) / cell - 1e-9));
@@ -291,6 +304,9 @@ export function planSurfaceGrid(o: GridPlanOptions): { grid: Grid; cell: number;
     const b = extentOf(bx, by);
     width = b.xmax - b.xmin;
     height = b.ymax - b.ymin;
+  }
+  if (!useBoundary && !(o.padding <= MAX_PADDING)) {
+    throw new GapwiseError('bad-option', `Expected a padding from 0 to ${MAX_PADDING} times the larger side of the samples' extent, got ${o.padding}.`);
   }
   const pad = useBoundary ? 0 : Math.max(0, o.padding) * Math.max(width, height);
   const auto = !(o.cellSize > 0);

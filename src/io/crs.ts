@@ -210,6 +210,49 @@ export function epsgCode(crs: string): string | null {
   return m ? String(Number(m[1])) : null;
 }
 
+/**
+ * Ranges of proj-string parameters, [lowest, highest, what]: proj4 accepts values outside them (a UTM
+ * zone of 99, a latitude of 95°, a scale factor of 0) and projects to nonsense or NaN.
+ */
+const PROJ_PARAMETER_RANGES: Record<string, [number, number, string]> = {
+  zone: [1, 60, 'a whole UTM zone number'],
+  lat_0: [-90, 90, 'a latitude in degrees'],
+  lat_1: [-90, 90, 'a latitude in degrees'],
+  lat_2: [-90, 90, 'a latitude in degrees'],
+  lat_ts: [-90, 90, 'a latitude in degrees'],
+  lon_0: [-180, 180, 'a longitude in degrees'],
+  lonc: [-180, 180, 'a longitude in degrees'],
+  alpha: [-360, 360, 'an azimuth in degrees'],
+  gamma: [-360, 360, 'an angle in degrees'],
+  k: [1e-3, 10, 'a scale factor'],
+  k_0: [1e-3, 10, 'a scale factor'],
+  x_0: [-1e9, 1e9, 'a false easting in metres'],
+  y_0: [-1e9, 1e9, 'a false northing in metres'],
+  a: [1, 1e9, 'a semi-major axis in metres'],
+  b: [1, 1e9, 'a semi-minor axis in metres'],
+  rf: [1, 1e12, 'an inverse flattening'],
+  to_meter: [1e-6, 1e6, 'metres per unit'],
+};
+
+/** Refuses proj-string parameters outside their ranges and unknown units ('bad-crs', naming the parameter). */
+function checkProjParameters(definition: string, raw: string): void {
+  for (const token of definition.split(/\s+/)) {
+    const m = /^\+([A-Za-z_0-9]+)=(.*)$/.exec(token);
+    if (!m) continue;
+    const [, name, value] = m;
+    if (name === 'units' && !UNITS[value]) {
+      throw badCrs(`The proj string's +units=${value.slice(0, 20)} is not a unit here; expected one of ${Object.keys(UNITS).join(', ')}.`, raw);
+    }
+    const range = PROJ_PARAMETER_RANGES[name];
+    if (!range) continue;
+    const v = Number(value);
+    const whole = name === 'zone';
+    if (!Number.isFinite(v) || v < range[0] || v > range[1] || (whole && !Number.isInteger(v))) {
+      throw badCrs(`The proj string's +${name}=${value.slice(0, 20)} is out of range; expected ${range[2]} from ${range[0]} to ${range[1]}.`, raw);
+    }
+  }
+}
+
 function badCrs(message: string, raw: string): GapwiseError {
   return new GapwiseError('bad-crs', message, { raw });
 }
@@ -249,6 +292,7 @@ export function resolveCrs(crs: string): ResolvedCrs {
   } else {
     throw badCrs(`"${key0.slice(0, 80)}" is not a coordinate reference system; expected EPSG:NNNN or a proj string such as +proj=utm +zone=33 +datum=WGS84.`, crs);
   }
+  if (code === null && definition.startsWith('+')) checkProjParameters(definition, crs);
   const notes: string[] = [];
   if (definition.startsWith('+')) {
     definition = definition.replace(/\+nadgrids=("[^"]*"|\S+)/g, (all, grid: string) => {
@@ -679,4 +723,30 @@ export function chooseWorkCrs(input: ResolvedCrs, x: ArrayLike<number>, y: Array
     warnings.push({ code: 'work-crs-distortion', message: `The samples reach beyond the useful width of ${utm.key} (${utm.name}): ${where()}, and lengths are ${pct(d.scaleError)} off at the sample at ${deg(d.lon)}, ${deg(d.lat)} (a UTM zone keeps within about 0.1 %): ${suggestionText(suggestWorkCrs(lon, lat))}.` });
   }
   return { work: utm, warnings };
+}
+
+/**
+ * Checks that a grid in the working CRS (its outer edges, metres) stays where the CRS is usable: every
+ * corner and edge midpoint can be taken back to longitude/latitude and the CRS's scale error there is
+ * within WORK_CRS_SCALE_LIMIT. Local coordinates are not checked. Throws GapwiseError 'bad-option'
+ * with the grid's size and the place that fails.
+ */
+export function checkGridInCrs(bounds: { xmin: number; ymin: number; xmax: number; ymax: number }, workCrs: string): void {
+  const c = resolveCrs(workCrs);
+  if (c.key === LOCAL_CRS || c.geographic) return;
+  const t = createTransform(c.key, 'EPSG:4326');
+  const { xmin, ymin, xmax, ymax } = bounds;
+  const xm = (xmin + xmax) / 2, ym = (ymin + ymax) / 2;
+  const size = `${Number(((xmax - xmin) / 1000).toPrecision(3))} km × ${Number(((ymax - ymin) / 1000).toPrecision(3))} km`;
+  for (const [x, y] of [[xmin, ymin], [xmin, ymax], [xmax, ymin], [xmax, ymax], [xm, ymin], [xm, ymax], [xmin, ym], [xmax, ym]]) {
+    const [lon, lat] = t.forward(x, y);
+    if (!Number.isFinite(lon) || !Number.isFinite(lat)) {
+      throw new GapwiseError('bad-option', `The grid (${size}) reaches (${x}, ${y}), which ${c.key} cannot take back to longitude/latitude; expected a grid inside the CRS's area: choose a smaller padding or area.`);
+    }
+    const { a, b } = scaleFactors(c.key, lon, lat);
+    const e = Number.isFinite(a) ? Math.max(a - 1, 1 - b) : Infinity;
+    if (e > WORK_CRS_SCALE_LIMIT) {
+      throw new GapwiseError('bad-option', `The grid (${size}) reaches ${deg(lon)}, ${deg(lat)}, where ${c.key} distorts lengths by ${pct(e)}; expected at most ${pct(WORK_CRS_SCALE_LIMIT)}: choose a smaller padding or area.`);
+    }
+  }
 }

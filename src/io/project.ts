@@ -14,11 +14,11 @@
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { MAX_CELLS, gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
+import { MAX_CELLS, gridBounds, gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
 import { MAX_REALISATIONS as MAX_COUNT, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 import { readSamples } from './intake.ts';
 import { projectPolygons, readPolygons, type Polygon } from './boundary.ts';
-import { LOCAL_CRS } from './crs.ts';
+import { LOCAL_CRS, checkGridInCrs } from './crs.ts';
 import type { IntakeOptions, IntakeResult } from './types.ts';
 
 export const PROJECT_FORMAT = 'gapwise-project';
@@ -610,8 +610,10 @@ export function projectBoundary(project: Project, workCrs: string): { lonLat: Po
 export { roundCell, type GridPlanOptions } from '../core/grid.ts';
 
 /** The grid a surface is computed on (see core/grid.ts planSurfaceGrid: one plan for app, files and CLI). */
-export function planSurfaceGrid(o: GridPlanOptions): Grid {
-  return planGrid(o).grid;
+export function planSurfaceGrid(o: GridPlanOptions, workCrs?: string): Grid {
+  const grid = planGrid(o).grid;
+  if (workCrs !== undefined) checkGridInCrs(gridBounds(grid), workCrs);
+  return grid;
 }
 
 /**
@@ -639,7 +641,7 @@ export function projectGrid(
   return planSurfaceGrid({
     x: intake.samples.x, y: intake.samples.y, padding: g.padding,
     cellSize: overrides.cellSize ?? g.cellSize, polygons,
-  });
+  }, intake.report.crs.work);
 }
 
 /** The grid's geometry as stored in a project. */

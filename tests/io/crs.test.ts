@@ -2,7 +2,7 @@
 // Debian's python3-pyproj (PROJ 9.1.1) for the same definitions; tolerance 1 mm.
 import { describe, expect, it } from 'vitest';
 import {
-  LOCAL_CRS, WORK_CRS_SCALE_LIMIT, WORK_CRS_SCALE_WARNING, chooseWorkCrs, createTransform, epsgCode, isGeographic, loadEpsgIndex, metreEquivalent, resolveCrs,
+  LOCAL_CRS, WORK_CRS_SCALE_LIMIT, WORK_CRS_SCALE_WARNING, checkGridInCrs, chooseWorkCrs, createTransform, epsgCode, isGeographic, loadEpsgIndex, metreEquivalent, resolveCrs,
   scaleFactors, searchCrs, utmZoneFor,
 } from '../../src/io/crs.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
@@ -225,5 +225,33 @@ describe('the working CRS: metres and distortion', () => {
     const own = chooseWorkCrs(resolveCrs('EPSG:3857'), [1_250_000, 1_251_000], [6_190_000, 6_191_000]);
     expect(own.work.key).toBe('EPSG:32632');
     expect(own.warnings[0].code).toBe('work-crs-metres');
+  });
+});
+
+describe('proj strings and grids out of range', () => {
+  const refusal = (f: () => unknown) => { try { f(); } catch (e) { return e as GapwiseError; } return null; };
+
+  it('resolveCrs refuses proj-string parameters proj4 would take out of range, naming the parameter and range', () => {
+    const e = refusal(() => resolveCrs('+proj=utm +zone=99 +datum=WGS84'));
+    expect(e?.code).toBe('bad-crs');
+    expect(e?.message).toBe("The proj string's +zone=99 is out of range; expected a whole UTM zone number from 1 to 60.");
+    expect(refusal(() => resolveCrs('+proj=utm +zone=33.5'))?.message).toContain('+zone=33.5 is out of range');
+    expect(refusal(() => resolveCrs('+proj=tmerc +lat_0=95 +lon_0=10'))?.message).toBe("The proj string's +lat_0=95 is out of range; expected a latitude in degrees from -90 to 90.");
+    expect(refusal(() => resolveCrs('+proj=tmerc +lon_0=400'))?.message).toContain('+lon_0=400');
+    expect(refusal(() => resolveCrs('+proj=tmerc +k=0'))?.message).toContain('expected a scale factor from 0.001 to 10');
+    expect(refusal(() => resolveCrs('+proj=tmerc +to_meter=0'))?.message).toContain('+to_meter=0');
+    expect(refusal(() => resolveCrs('+proj=utm +zone=33 +units=furlong'))?.message).toBe("The proj string's +units=furlong is not a unit here; expected one of m, km, us-ft, ft, link, ind-yd, ch.");
+    // In range: accepted as before.
+    expect(resolveCrs('+proj=utm +zone=60 +south +datum=WGS84 +units=m').utm).toBe(true);
+  });
+
+  it('checkGridInCrs refuses a grid that reaches where the working CRS distorts lengths beyond the limit', () => {
+    // 6,000 km wide around the central meridian of zone 33: its edges, 3,000 km out, are about 11 % off
+    // (TM scale ≈ 1 + x²/2R², from memory).
+    const wide = { xmin: 500_000 - 3_000_000, xmax: 500_000 + 3_000_000, ymin: 5_000_000, ymax: 5_500_000 };
+    const e = refusal(() => checkGridInCrs(wide, 'EPSG:32633'));
+    expect(e?.message).toBe('The grid (6000 km × 500 km) reaches -19.64°, 39.58°, where EPSG:32633 distorts lengths by 11 %; expected at most 5 %: choose a smaller padding or area.');
+    expect(() => checkGridInCrs({ xmin: 400_000, xmax: 600_000, ymin: 5_000_000, ymax: 5_200_000 }, 'EPSG:32633')).not.toThrow();
+    expect(() => checkGridInCrs({ xmin: -1e12, xmax: 1e12, ymin: -1e12, ymax: 1e12 }, LOCAL_CRS)).not.toThrow();
   });
 });
