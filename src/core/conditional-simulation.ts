@@ -48,7 +48,7 @@ import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } f
 import { createRandom } from './random.ts';
 import { NeighborIndex } from './neighbors.ts';
 import type { Grid } from './grid.ts';
-import { summariseExceedanceCounts, type ExceedanceAreaSummary } from './exceedance-area.ts';
+import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from './exceedance-area.ts';
 
 /** Up to this many samples the residuals are kriged from all samples. */
 export const DENSE_LIMIT = 2000;
@@ -468,7 +468,9 @@ function checkOptions(options: ConditionalSimulationOptions, log: boolean): void
   if (t !== undefined && !Number.isFinite(t)) throw new GapwiseError('bad-option', `Expected the threshold to be a finite number, got ${String(t)}.`);
   if (log && t !== undefined && !(t > 0)) throw new GapwiseError('bad-option', `Expected a threshold above 0 with a log transform, got ${t}.`);
   const d = options.depth;
-  if (d !== undefined && !(Number.isFinite(d) && d > 0)) throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres, got ${String(d)}.`);
+  if (d !== undefined && !(Number.isFinite(d) && d > 0 && d <= MAX_DEPTH)) {
+    throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres up to ${MAX_DEPTH.toLocaleString('en')}, got ${String(d)}.`);
+  }
   if (d !== undefined && t === undefined) throw new GapwiseError('bad-option', 'A depth gives the volume above the action level: expected a threshold with it.');
   const m = options.neighbors;
   if (m !== undefined && !(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {

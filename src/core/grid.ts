@@ -41,6 +41,7 @@ export const MAX_GRID_SIDE = 10_000_000;
 export const MAX_PADDING = 10;
 
 function km(m: number): string {
+  if (m >= 1e12) return `${(m / 1000).toExponential(2)} km`;
   return m >= 1e5 ? `${Number((m / 1000).toPrecision(3)).toLocaleString('en')} km` : `${Number(m.toPrecision(3))} m`;
 }
 
@@ -72,10 +73,11 @@ export function gridFromExtent(xmin: number, ymin: number, xmax: number, ymax: n
     throw new GapwiseError('bad-option', `Expected xmin ≤ xmax and ymin ≤ ymax, got x ${xmin}..${xmax}, y ${ymin}..${ymax}.`);
   }
   if (pad < 0) throw new GapwiseError('bad-option', `Expected a padding of 0 m or more, got ${pad}.`);
-  const width = xmax - xmin + 2 * pad, height = ymax - ymin + 2 * pad;
+  // The grid's own sides: the padded extent, or one cell when the cell is larger than that.
+  const width = Math.max(xmax - xmin + 2 * pad, cell), height = Math.max(ymax - ymin + 2 * pad, cell);
   if (width > MAX_GRID_SIDE || height > MAX_GRID_SIDE) {
     throw new GapwiseError('bad-option',
-      `The grid would span ${km(width)} × ${km(height)} (an extent of ${km(xmax - xmin)} × ${km(ymax - ymin)}${pad > 0 ? ` with ${km(pad)} of padding on each side` : ''}); the most is ${km(MAX_GRID_SIDE)} a side: choose a smaller padding or area.`);
+      `The grid would span ${km(width)} × ${km(height)}${width === cell ? ` (one cell of ${km(cell)})` : ''} (an extent of ${km(xmax - xmin)} × ${km(ymax - ymin)}${pad > 0 ? ` with ${km(pad)} of padding on each side` : ''}); the most is ${km(MAX_GRID_SIDE)} a side: choose a smaller padding or area.`);
   }
   const x0 = Math.floor((xmin - pad) / cell) * cell;
   const y0 = Math.ceil((ymax + pad) / cell) * cell;
