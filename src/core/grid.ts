@@ -54,9 +54,11 @@ function checkCell(cell: number): void {
 function checkSize(nx: number, ny: number, cell: number): void {
   const cells = nx * ny;
   if (cells > MAX_CELLS) {
-    const suggest = Math.ceil(cell * Math.sqrt(cells / MAX_CELLS));
+    // From the grid's sides rather than cells / MAX_CELLS, which overflows for a tiny cell.
+    const suggest = Math.ceil(Math.sqrt(((nx * cell) / MAX_CELLS) * (ny * cell)));
+    const shown = (v: number) => (v >= 1e15 ? v.toExponential(2) : v.toLocaleString('en'));
     throw new GapwiseError('bad-option',
-      `The grid would have ${cells.toLocaleString('en')} cells (${nx} × ${ny}) at ${cell} m; the most is ${MAX_CELLS.toLocaleString('en')}: choose a cell of at least ${suggest} m.`);
+      `The grid would have ${shown(cells)} cells (${shown(nx)} × ${shown(ny)}) at ${cell} m; the most is ${MAX_CELLS.toLocaleString('en')}: choose a cell of at least ${suggest} m.`);
   }
 }
 

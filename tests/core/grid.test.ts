@@ -176,6 +176,8 @@ describe('grid size limits', () => {
     expect(refusal(() => gridFromExtent(0, 0, 375, 300, 1000, 6_000_000)))
       .toBe('The grid would span 12,000 km × 12,000 km (an extent of 375 m × 300 m with 6,000 km of padding on each side); the most is 10,000 km a side: choose a smaller padding or area.');
     expect(gridFromExtent(0, 0, 9_999_000, 10, 100_000).nx).toBe(100);
+    // A tiny cell: the count overflows to Infinity, the advice stays a number.
+    expect(refusal(() => gridFromExtent(0, 0, 375, 300, 1e-300))).toBe('The grid would have Infinity cells (3.75e+302 × 3.00e+302) at 1e-300 m; the most is 4,000,000: choose a cell of at least 1 m.');
     // A cell larger than the extent is a grid of one cell that size.
     expect(refusal(() => gridFromExtent(0, 0, 10, 10, 1e300))).toContain('The grid would span 1.00e+297 km × 1.00e+297 km (one cell of 1.00e+297 km) (an extent of 10 m × 10 m)');
   });
