@@ -486,8 +486,11 @@ export interface CrsDistortion {
  */
 export function scaleFactors(crs: string, lon: number, lat: number): { a: number; b: number } {
   const c = resolveCrs(crs);
-  const t = createTransform('EPSG:4326', c.key);
-  const unit = Number.isFinite(c.metresPerUnit) ? c.metresPerUnit : 1;
+  return scaleFactorsWith(createTransform('EPSG:4326', c.key), Number.isFinite(c.metresPerUnit) ? c.metresPerUnit : 1, lon, lat);
+}
+
+/** scaleFactors through a transform from WGS 84 made once (a loop over many places). */
+function scaleFactorsWith(t: Transform, unit: number, lon: number, lat: number): { a: number; b: number } {
   const phi = Math.max(-89.9, Math.min(89.9, lat));
   const d = 1e-5;
   const e1 = t.forward(lon + d, phi), w1 = t.forward(lon - d, phi);
@@ -516,15 +519,20 @@ function checkIndices(lon: ArrayLike<number>, lat: ArrayLike<number>): number[] 
   const out = new Set<number>();
   const step = Math.ceil(n / DISTORTION_CHECKS);
   for (let i = 0; i < n; i += step) out.add(i);
-  const ext = [0, 0, 0, 0, 0, 0, 0, 0];
-  const keys = [(i: number) => lon[i], (i: number) => lat[i], (i: number) => lon[i] + lat[i], (i: number) => lon[i] - lat[i]];
-  for (let i = 1; i < n; i++) {
-    keys.forEach((k, j) => {
-      if (k(i) < k(ext[2 * j])) ext[2 * j] = i;
-      if (k(i) > k(ext[2 * j + 1])) ext[2 * j + 1] = i;
-    });
+  // Extremes of x, y, x + y and x − y: [index, value] of each minimum and maximum.
+  const at = new Int32Array(8);
+  const best = new Float64Array(8);
+  for (let j = 0; j < 8; j += 2) { best[j] = Infinity; best[j + 1] = -Infinity; }
+  for (let i = 0; i < n; i++) {
+    const u = lon[i], v = lat[i];
+    const keys = [u, v, u + v, u - v];
+    for (let j = 0; j < 4; j++) {
+      const k = keys[j];
+      if (k < best[2 * j]) { best[2 * j] = k; at[2 * j] = i; }
+      if (k > best[2 * j + 1]) { best[2 * j + 1] = k; at[2 * j + 1] = i; }
+    }
   }
-  for (const i of ext) out.add(i);
+  for (const i of at) out.add(i);
   return [...out];
 }
 
@@ -534,8 +542,11 @@ function checkIndices(lon: ArrayLike<number>, lat: ArrayLike<number>): number[] 
  */
 export function crsDistortion(crs: string, lon: ArrayLike<number>, lat: ArrayLike<number>): CrsDistortion {
   let worst: CrsDistortion = { scaleError: 0, at: 0, lon: lon[0], lat: lat[0] };
+  const c = resolveCrs(crs);
+  const t = createTransform('EPSG:4326', c.key);
+  const unit = Number.isFinite(c.metresPerUnit) ? c.metresPerUnit : 1;
   for (const i of checkIndices(lon, lat)) {
-    const { a, b } = scaleFactors(crs, lon[i], lat[i]);
+    const { a, b } = scaleFactorsWith(t, unit, lon[i], lat[i]);
     const e = Number.isFinite(a) ? Math.max(a - 1, 1 - b) : Infinity;
     if (e > worst.scaleError) worst = { scaleError: e, at: i, lon: lon[i], lat: lat[i] };
   }
@@ -663,12 +674,19 @@ export function chooseWorkCrs(input: ResolvedCrs, x: ArrayLike<number>, y: Array
   if (requested?.geographic) throw new GapwiseError('bad-option', `The working CRS ${requested.key} is geographic (degrees); expected a projected CRS in metres.`);
   // WGS 84 longitude/latitude of the samples (NaN where they cannot be transformed; those are dropped).
   const toLonLat = input.key === 'EPSG:4326' ? null : input.key === LOCAL_CRS ? null : createTransform(input.key, 'EPSG:4326');
-  const lon: number[] = [], lat: number[] = [];
-  if (input.key !== LOCAL_CRS) {
-    for (let i = 0; i < x.length; i++) {
-      const [a, b] = toLonLat ? toLonLat.forward(x[i], y[i]) : [x[i], y[i]];
-      if (Number.isFinite(a) && Number.isFinite(b)) { lon.push(a); lat.push(b); }
+  let lon: ArrayLike<number> = [], lat: ArrayLike<number> = [];
+  if (input.key !== LOCAL_CRS && !toLonLat) {
+    lon = x;
+    lat = y;
+  } else if (input.key !== LOCAL_CRS && toLonLat) {
+    // Transforming every sample of a large file costs seconds: a regular subset and the extremes serve.
+    const lo: number[] = [], la: number[] = [];
+    for (const i of checkIndices(x, y)) {
+      const [a, b] = toLonLat.forward(x[i], y[i]);
+      if (Number.isFinite(a) && Number.isFinite(b)) { lo.push(a); la.push(b); }
     }
+    lon = lo;
+    lat = la;
   }
   const where = () => {
     const e = lonLatExtent(lon, lat);
