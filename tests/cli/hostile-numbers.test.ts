@@ -24,11 +24,11 @@ describe('numbers that used to pass silently', () => {
     expect(m.stderr).toContain('error: mean.json: Expected trend.known from -1e+100 to 1e+100, got 1e+308.');
   });
 
-  it('cv with a sill far out of scale with the values exits 3 naming the parameter', async () => {
+  it('cv with a sill far out of scale with the values exits 3 naming the model file and parameter', async () => {
     ws.write('sill.json', model({ structures: [{ type: 'nugget', sill: 1.5 }, { type: 'matern', sill: 1e90, scale: 60, nu: 1.5 }] }));
     const r = await ws.run('cv', ...COMMON, '--model', 'sill.json');
     expect(r.code).toBe(3);
-    expect(r.stderr).toMatch(/error: The model's structures\[1\]\.sill \(1\.00e\+90\) is out of scale with the data/);
+    expect(r.stderr).toMatch(/error: sill\.json: The model's structures\[1\]\.sill \(1\.00e\+90\) is out of scale with the data/);
   });
 
   it('grid with --padding 1e6 exits 2 instead of computing a 750,000 km grid', async () => {
