@@ -220,8 +220,9 @@ export function naming<T>(files: { samples?: string; model?: string }, work: () 
   try {
     return work();
   } catch (e) {
-    if (e instanceof GapwiseError && e.kind === 'input' && e.place.file === undefined && e.code !== 'bad-option') {
-      const file = e.code === 'bad-model' ? files.model : files.samples;
+    const modelNumbers = e instanceof GapwiseError && e.code === 'non-finite'; // names a model parameter
+    if (e instanceof GapwiseError && (modelNumbers || (e.kind === 'input' && e.code !== 'bad-option')) && e.place.file === undefined) {
+      const file = e.code === 'bad-model' || modelNumbers ? files.model : files.samples;
       if (file !== undefined) e.place.file = file;
     }
     throw e;

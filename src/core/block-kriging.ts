@@ -30,7 +30,7 @@ import { buildKrigingSystem, type KrigingSystem, type PredictorOptions } from '.
 import { designRow, type CoordinateFrame } from './trend.ts';
 import { exceedanceProbability } from './normal.ts';
 import { cellCentres, type Grid } from './grid.ts';
-import type { SurfaceArray, SurfaceResult, ValueRange } from './surface.ts';
+import { checkSurfaceCell, type SurfaceArray, type SurfaceResult, type ValueRange } from './surface.ts';
 
 /** Default discretisation: 4×4 points per block (common practice). */
 export const DEFAULT_BLOCK_POINTS = 4;
@@ -287,6 +287,8 @@ export function computeBlockSurfaceWith(
     mean[k] = p.mean[c];
     sd[k] = p.sd[c];
     if (pExceed && p.pExceed) pExceed[k] = p.pExceed[c];
+    checkSurfaceCell(predictor.system.model, centres.index[c], nx, [['block mean', mean[k], p.mean[c]], ['block sd', sd[k], p.sd[c]],
+      ['P(exceed)', pExceed ? pExceed[k] : 0, pExceed ? pExceed[k] : 0]]);
   }
   const result: SurfaceResult & { support: 'block'; points: number; blockVariance: number } = {
     rows: [r0, r1], nx, mean, sd,

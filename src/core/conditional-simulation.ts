@@ -38,16 +38,17 @@
 import type { CovarianceModel } from './model.ts';
 import { nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
-import { GapwiseError, type Warning } from './errors.ts';
+import { GapwiseError, checkCount, type Warning } from './errors.ts';
 import { crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from './covariance.ts';
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from './linalg.ts';
 import { buildKrigingSystem, type KrigingSystem } from './kriging.ts';
+import { MAX_LOCAL_NEIGHBORS } from './local-kriging.ts';
 import { designRow, trendColumnCount, type CoordinateFrame } from './trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from './random.ts';
 import { NeighborIndex } from './neighbors.ts';
 import type { Grid } from './grid.ts';
-import { summariseExceedanceCounts, type ExceedanceAreaSummary } from './exceedance-area.ts';
+import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from './exceedance-area.ts';
 
 /** Up to this many samples the residuals are kriged from all samples. */
 export const DENSE_LIMIT = 2000;
@@ -55,6 +56,8 @@ export const DENSE_LIMIT = 2000;
 export const DEFAULT_SIMULATION_NEIGHBORS = 64;
 /** Most realisations in one call. */
 export const MAX_REALISATIONS = 10_000;
+/** The most values (realisations × grid cells) kept as Float32 maps: 1 GB. */
+export const MAX_KEPT_VALUES = 250_000_000;
 /** Lattice nodes per side of the block that places a sample. */
 const STENCIL = 6;
 /** Samples whose blocks are within this many nodes get jointly drawn residuals. */
@@ -465,11 +468,13 @@ function checkOptions(options: ConditionalSimulationOptions, log: boolean): void
   if (t !== undefined && !Number.isFinite(t)) throw new GapwiseError('bad-option', `Expected the threshold to be a finite number, got ${String(t)}.`);
   if (log && t !== undefined && !(t > 0)) throw new GapwiseError('bad-option', `Expected a threshold above 0 with a log transform, got ${t}.`);
   const d = options.depth;
-  if (d !== undefined && !(Number.isFinite(d) && d > 0)) throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres, got ${String(d)}.`);
+  if (d !== undefined && !(Number.isFinite(d) && d > 0 && d <= MAX_DEPTH)) {
+    throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres up to ${MAX_DEPTH.toLocaleString('en')}, got ${String(d)}.`);
+  }
   if (d !== undefined && t === undefined) throw new GapwiseError('bad-option', 'A depth gives the volume above the action level: expected a threshold with it.');
   const m = options.neighbors;
-  if (m !== undefined && !(Number.isInteger(m) && m >= 1 && m <= 2000)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to 2000, got ${JSON.stringify(m)}.`);
+  if (m !== undefined && !(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(m)}.`);
   }
 }
 
@@ -487,6 +492,11 @@ export function simulateConditional(
     throw new GapwiseError('bad-option', `Expected a grid with at least one cell and a positive cell size, got ${JSON.stringify(grid && { nx: grid.nx, ny: grid.ny, cell: grid.cell })}.`);
   }
   const N = options.count;
+  if (options.keepRealisations !== false) {
+    checkCount(N * grid.nx * grid.ny, MAX_KEPT_VALUES,
+      `The realisations to keep (${N.toLocaleString('en')} × ${(grid.nx * grid.ny).toLocaleString('en')} cells)`,
+      `draw fewer realisations, use a larger cell, or keep only the summaries (the limit is ${(MAX_KEPT_VALUES * 4 / 1e9).toFixed(0)} GB of 32-bit floats)`);
+  }
   const seed = options.seed ?? 1;
   const first = options.first ?? 0;
   const support = options.support ?? 'point';

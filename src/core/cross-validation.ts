@@ -13,7 +13,7 @@
  * Units: data units (log units for a log transform). Cost: n³/3 flops for K's factor plus n³/3 for
  * L⁻¹, n²·p for the trend terms; memory 2·8n² bytes.
  */
-import type { CovarianceModel } from './model.ts';
+import { nonFiniteResult, type CovarianceModel } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { solveLowerInPlace } from './linalg.ts';
@@ -122,10 +122,29 @@ export function leaveOneOut(samples: Samples, model: CovarianceModel, options: P
     sdObserved[j] = 1 / Math.sqrt(pjj);
     standardisedError[j] = error[j] / sdObserved[j];
   }
-  return {
+  return checkLeaveOneOutFinite(model, {
     prediction, sdObserved, error, standardisedError,
     summary: summariseErrors(error, sdObserved),
     scale: sys.log ? 'log' : 'data',
     warnings: sys.warnings,
-  };
+  });
+}
+
+/**
+ * Returns the result when every prediction, sd and summary figure is finite, else throws GapwiseError
+ * 'non-finite' naming the figure, the sample or summary, and the likely model parameter.
+ */
+export function checkLeaveOneOutFinite(model: CovarianceModel, r: LeaveOneOutResult): LeaveOneOutResult {
+  const perSample: Array<[string, Float64Array]> = [['leave-one-out prediction', r.prediction], ['leave-one-out sd', r.sdObserved]];
+  for (const [what, values] of perSample) {
+    for (let i = 0; i < values.length; i++) {
+      if (!Number.isFinite(values[i])) throw nonFiniteResult(model, what, `sample ${i + 1}`, values[i]);
+    }
+  }
+  if (r.summary.n > 0) {
+    for (const key of ['me', 'rmse', 'msse'] as const) {
+      if (!Number.isFinite(r.summary[key])) throw nonFiniteResult(model, `cross-validation ${key}`, 'the summary', r.summary[key]);
+    }
+  }
+  return r;
 }

@@ -19,7 +19,7 @@
 import type { CovarianceModel } from './model.ts';
 import { nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
-import { GapwiseError, type Warning } from './errors.ts';
+import { GapwiseError, checkCount, type Warning } from './errors.ts';
 import { CAUTION } from './caution.ts';
 import { cellCentres, gridForPolygons, gridFromExtent, type Grid, type Polygon } from './grid.ts';
 import { pointInPolygons, polygonsArea, polygonsExtent } from './polygon.ts';
@@ -127,6 +127,10 @@ export interface DesignResult {
 
 const DEFAULT_CELLS = 10_000;
 const MAX_COUNT = 500;
+/** The most evaluation points and screened candidates of a variance-based design (each a row of n features). */
+export const MAX_DESIGN_POINTS = 20_000;
+/** The most points of a coverage design's objective. */
+export const MAX_COVERAGE_POINTS = 200_000;
 
 function checkNumber(v: unknown, name: string, min: number, inclusive: boolean): number {
   if (typeof v !== 'number' || !Number.isFinite(v) || (inclusive ? v < min : v <= min)) {
@@ -242,6 +246,10 @@ export function suggestSites(
   const maxEval = Math.floor(checkNumber(options.maxEvaluationPoints ?? 1000, 'maxEvaluationPoints', 1, true));
   const maxScreen = Math.floor(checkNumber(options.maxScreenCandidates ?? 1000, 'maxScreenCandidates', 1, true));
   const maxCoverage = Math.floor(checkNumber(options.maxCoveragePoints ?? 20_000, 'maxCoveragePoints', 1, true));
+  // Each evaluation point and screened candidate holds a row of n posterior features.
+  checkCount(maxEval, MAX_DESIGN_POINTS, 'The evaluation points (maxEvaluationPoints)', 'choose fewer');
+  checkCount(maxScreen, MAX_DESIGN_POINTS, 'The screened candidates (maxScreenCandidates)', 'choose fewer');
+  checkCount(maxCoverage, MAX_COVERAGE_POINTS, 'The coverage points (maxCoveragePoints)', 'choose fewer');
   const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
   const exclusions = options.exclusions ?? [];
   const log = model?.transform === 'log';

@@ -18,9 +18,10 @@ export type ErrorCode =
   | 'constant-values'     // all values are identical; nothing to fit
   | 'not-positive-definite' // a covariance matrix could not be factorised
   | 'fit-failed'          // the optimiser found no finite likelihood
+  | 'non-finite'          // a result is not a finite number (overflow, or a model out of scale with the data)
   | 'cancelled';          // the user stopped the work
 
-const NUMERIC_CODES: ReadonlySet<ErrorCode> = new Set(['not-positive-definite', 'fit-failed']);
+const NUMERIC_CODES: ReadonlySet<ErrorCode> = new Set(['not-positive-definite', 'fit-failed', 'non-finite']);
 
 export interface ErrorPlace {
   file?: string;
@@ -70,4 +71,16 @@ export class GapwiseError extends Error {
 export interface Warning {
   code: string;
   message: string;
+}
+
+/**
+ * Refuses a count derived from user numbers (lag classes, grid cells, points per block, neighbours,
+ * realisations, candidates) before anything of that size is allocated: GapwiseError 'bad-option' naming
+ * the count, its actual value and the limit, and what to change. `actual` may be fractional or
+ * non-finite (it is the count as computed, before rounding); the limit is one named constant per count.
+ */
+export function checkCount(actual: number, limit: number, what: string, advice: string): void {
+  if (actual <= limit) return;
+  const shown = !Number.isFinite(actual) ? String(actual) : actual >= 1e15 ? actual.toExponential(2) : Math.ceil(actual).toLocaleString('en');
+  throw new GapwiseError('bad-option', `${what} would be ${shown}; the most is ${limit.toLocaleString('en')}: ${advice}.`);
 }

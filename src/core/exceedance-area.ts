@@ -88,6 +88,9 @@ function scaled(s: QuantileSummary, f: number): QuantileSummary {
   return { median: s.median * f, p05: s.p05 * f, p95: s.p95 * f, mean: s.mean * f };
 }
 
+/** The deepest slab a volume is given for, metres (deeper is not a screening volume of soil or water). */
+export const MAX_DEPTH = 10_000;
+
 /**
  * Summarises per-realisation counts of cells above T into cells, area (m²), fraction and, with a
  * depth (m), volume (m³). Throws GapwiseError('bad-option') for a bad cell size, depth or threshold.
@@ -98,8 +101,8 @@ export function summariseExceedanceCounts(
   const { threshold, cell, activeCells, depth } = options;
   checkThreshold(threshold);
   if (!(Number.isFinite(cell) && cell > 0)) throw new GapwiseError('bad-option', `Expected a cell size above 0 m, got ${cell}.`);
-  if (depth !== undefined && !(Number.isFinite(depth) && depth > 0)) {
-    throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres, got ${String(depth)}.`);
+  if (depth !== undefined && !(Number.isFinite(depth) && depth > 0 && depth <= MAX_DEPTH)) {
+    throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres up to ${MAX_DEPTH.toLocaleString('en')}, got ${String(depth)}.`);
   }
   if (counts.length === 0) throw new GapwiseError('bad-option', 'Expected at least 1 realisation to summarise, got 0.');
   const cellArea = cell * cell;

@@ -26,6 +26,7 @@ import type { Samples } from './samples.ts';
 import type { VariogramOptions } from './variogram.ts';
 import type { CorrelationParameters, Likelihood } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
+import { numericalFailureAdvice } from './numerical-advice.ts';
 import { GapwiseError } from './errors.ts';
 import { centroid, makeSamples } from './samples.ts';
 import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
@@ -262,7 +263,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
   }
   grid.sort((a, b) => a.value - b.value);
   if (!Number.isFinite(grid[0].value)) {
-    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${r.family} model (${n} samples); check for duplicated locations or try another family.`);
+    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${r.family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
   const d = L.spaces.length;
   let iterations = 0;

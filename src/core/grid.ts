@@ -35,6 +35,15 @@ export type Polygon = ReadonlyArray<Ring>;
 
 /** The most cells a grid may have (about 48 MB for mean, sd and P(exceed) as Float32). */
 export const MAX_CELLS = 4_000_000;
+/** The longest side a grid may have: 10,000 km, a quarter of the Earth's circumference (metres). */
+export const MAX_GRID_SIDE = 10_000_000;
+/** The largest padding, as a fraction of the larger side of the samples' extent, on each side. */
+export const MAX_PADDING = 10;
+
+function km(m: number): string {
+  if (m >= 1e12) return `${(m / 1000).toExponential(2)} km`;
+  return m >= 1e5 ? `${Number((m / 1000).toPrecision(3)).toLocaleString('en')} km` : `${Number(m.toPrecision(3))} m`;
+}
 
 function checkCell(cell: number): void {
   if (typeof cell !== 'number' || !Number.isFinite(cell) || cell <= 0) {
@@ -45,9 +54,11 @@ function checkCell(cell: number): void {
 function checkSize(nx: number, ny: number, cell: number): void {
   const cells = nx * ny;
   if (cells > MAX_CELLS) {
-    const suggest = Math.ceil(cell * Math.sqrt(cells / MAX_CELLS));
+    // From the grid's sides rather than cells / MAX_CELLS, which overflows for a tiny cell.
+    const suggest = Math.ceil(Math.sqrt(((nx * cell) / MAX_CELLS) * (ny * cell)));
+    const shown = (v: number) => (v >= 1e15 ? v.toExponential(2) : v.toLocaleString('en'));
     throw new GapwiseError('bad-option',
-      `The grid would have ${cells.toLocaleString('en')} cells (${nx} × ${ny}) at ${cell} m; the most is ${MAX_CELLS.toLocaleString('en')}: choose a cell of at least ${suggest} m.`);
+      `The grid would have ${shown(cells)} cells (${shown(nx)} × ${shown(ny)}) at ${cell} m; the most is ${MAX_CELLS.toLocaleString('en')}: choose a cell of at least ${suggest} m.`);
   }
 }
 
@@ -64,6 +75,12 @@ export function gridFromExtent(xmin: number, ymin: number, xmax: number, ymax: n
     throw new GapwiseError('bad-option', `Expected xmin ≤ xmax and ymin ≤ ymax, got x ${xmin}..${xmax}, y ${ymin}..${ymax}.`);
   }
   if (pad < 0) throw new GapwiseError('bad-option', `Expected a padding of 0 m or more, got ${pad}.`);
+  // The grid's own sides: the padded extent, or one cell when the cell is larger than that.
+  const width = Math.max(xmax - xmin + 2 * pad, cell), height = Math.max(ymax - ymin + 2 * pad, cell);
+  if (width > MAX_GRID_SIDE || height > MAX_GRID_SIDE) {
+    throw new GapwiseError('bad-option',
+      `The grid would span ${km(width)} × ${km(height)}${width === cell ? ` (one cell of ${km(cell)})` : ''} (an extent of ${km(xmax - xmin)} × ${km(ymax - ymin)}${pad > 0 ? ` with ${km(pad)} of padding on each side` : ''}); the most is ${km(MAX_GRID_SIDE)} a side: choose a smaller padding or area.`);
+  }
   const x0 = Math.floor((xmin - pad) / cell) * cell;
   const y0 = Math.ceil((ymax + pad) / cell) * cell;
   const nx = Math.max(1, Math.ceil((xmax + pad - x0) / cell - 1e-9));
@@ -291,6 +308,9 @@ export function planSurfaceGrid(o: GridPlanOptions): { grid: Grid; cell: number;
     const b = extentOf(bx, by);
     width = b.xmax - b.xmin;
     height = b.ymax - b.ymin;
+  }
+  if (!useBoundary && !(o.padding <= MAX_PADDING)) {
+    throw new GapwiseError('bad-option', `Expected a padding from 0 to ${MAX_PADDING} times the larger side of the samples' extent, got ${o.padding}.`);
   }
   const pad = useBoundary ? 0 : Math.max(0, o.padding) * Math.max(width, height);
   const auto = !(o.cellSize > 0);

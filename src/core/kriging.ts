@@ -19,7 +19,8 @@
  * (n flops for the mean alone). Memory: 8n² bytes for the factor plus 8·n·block per query block.
  */
 import type { CovarianceModel } from './model.ts';
-import { nuggetOf } from './model.ts';
+import { numericalFailureAdvice } from './numerical-advice.ts';
+import { checkModelScale, nonFiniteResult, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import {
@@ -37,6 +38,11 @@ import {
 export interface PredictorOptions {
   /** Add a small diagonal jitter (reported as a warning) when K is numerically singular. Default true. */
   jitter?: boolean;
+  /**
+   * Check that the model is in scale with these samples (model.ts `checkModelScale`). Default true;
+   * false only for subsets of samples already checked as a whole (neighbourhoods).
+   */
+  checkScale?: boolean;
 }
 
 /** Options for one prediction call. */
@@ -211,6 +217,7 @@ export function buildKrigingSystem(samples: Samples, model: CovarianceModel, opt
   checkModel(model);
   const p = trendColumnCount(model.trend);
   checkSamples(samples, model, p);
+  if (options.checkScale !== false) checkModelScale(model, samples.x, samples.y, samples.value);
   const n = samples.x.length;
   const log = model.transform === 'log';
   const warnings: Warning[] = [];
@@ -230,7 +237,14 @@ export function buildKrigingSystem(samples: Samples, model: CovarianceModel, opt
   }
 
   const K = sampleCovarianceMatrix(model, u, v);
-  const factor = cholesky(K, n, { jitter: options.jitter ?? true });
+  let factor: ReturnType<typeof cholesky>;
+  try {
+    factor = cholesky(K, n, { jitter: options.jitter ?? true });
+  } catch (e) {
+    if (!(e instanceof GapwiseError) || e.code !== 'not-positive-definite') throw e;
+    throw new GapwiseError('not-positive-definite',
+      `The ${n}×${n} covariance matrix is not positive definite: ${numericalFailureAdvice(samples.x, samples.y, z, model)}.`);
+  }
   warnings.push(...factor.warnings);
   const L = factor.L;
 
@@ -456,9 +470,25 @@ export function createPredictor(samples: Samples, model: CovarianceModel, option
     beta: system.beta,
     frame: system.frame,
     system,
-    predict: (tx, ty, opts) => predictWithSystem(system, tx, ty, opts),
+    predict: (tx, ty, opts) => checkPredictionFinite(model, predictWithSystem(system, tx, ty, opts), tx, ty, opts?.sd !== false || model.transform === 'log'),
     weights: (tx, ty) => weightsWithSystem(system, tx, ty),
   };
+}
+
+/**
+ * Returns the prediction when every value asked for is finite, else throws GapwiseError 'non-finite'
+ * naming the result, the target and the likely model parameter (model.ts `nonFiniteResult`).
+ */
+export function checkPredictionFinite<P extends Prediction>(model: CovarianceModel, p: P, tx: ArrayLike<number>, ty: ArrayLike<number>, withSd: boolean): P {
+  const parts: Array<[string, Float64Array | undefined]> = [['kriging mean', p.mean], ['median', p.median]];
+  if (withSd) parts.push(['sd', p.sd], ['sd of a new measurement', p.sdObserved]);
+  for (const [what, values] of parts) {
+    if (!values) continue;
+    for (let i = 0; i < values.length; i++) {
+      if (!Number.isFinite(values[i])) throw nonFiniteResult(model, what, `target ${i + 1} (${tx[i]}, ${ty[i]})`, values[i]);
+    }
+  }
+  return p;
 }
 
 /** One-shot convenience: builds a predictor and predicts mean and sd at the targets. */

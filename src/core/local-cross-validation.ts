@@ -6,10 +6,10 @@
  * Units: data units (ln of them for a log model). Cost: n·(M³/3 + M²) flops, O(n + M²) memory.
  */
 import { GapwiseError, type Warning } from './errors.ts';
-import { summariseErrors, type LeaveOneOutResult } from './cross-validation.ts';
+import { checkLeaveOneOutFinite, summariseErrors, type LeaveOneOutResult } from './cross-validation.ts';
 import { createPredictor } from './kriging.ts';
-import { globalMeanCoefficients } from './local-kriging.ts';
-import type { CovarianceModel } from './model.ts';
+import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from './local-kriging.ts';
+import { checkModelScale, type CovarianceModel } from './model.ts';
 import { NeighborIndex } from './neighbors.ts';
 import type { Samples } from './samples.ts';
 import { coordinateFrame, designRow, trendColumnCount } from './trend.ts';
@@ -38,7 +38,9 @@ export function localLeaveOneOut(
   const pModel = trendColumnCount(model.trend);
   if (n < pModel + 2) throw new GapwiseError('too-few-samples', `Expected at least ${pModel + 2} samples for leave-one-out with this trend, got ${n}.`);
   const m = options.neighbors;
-  if (!(Number.isInteger(m) && m >= 1)) throw new GapwiseError('bad-option', `Expected a whole number of neighbours of at least 1, got ${m}.`);
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${m}.`);
+  }
   const log = model.transform === 'log';
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) {
@@ -46,6 +48,7 @@ export function localLeaveOneOut(
     if (log && !(v > 0)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${v}; a log transform needs values greater than 0.`);
     z[i] = log ? Math.log(v) : v;
   }
+  checkModelScale(model, samples.x, samples.y, samples.value);
   const warnings: Warning[] = [];
   const frame = coordinateFrame(samples.x, samples.y);
   // With a global mean, neighbourhoods krige residuals from the GLS trend with a known mean of 0.
@@ -93,7 +96,7 @@ export function localLeaveOneOut(
       sz[k] = z[j] - trendAt[j];
       k++;
     }
-    const predictor = createPredictor({ x: sx.subarray(0, k), y: sy.subarray(0, k), value: sz.subarray(0, k) }, local);
+    const predictor = createPredictor({ x: sx.subarray(0, k), y: sy.subarray(0, k), value: sz.subarray(0, k) }, local, { checkScale: false });
     for (const w of predictor.warnings) {
       const key = w.code;
       const had = seen.get(key);
@@ -112,10 +115,10 @@ export function localLeaveOneOut(
   for (const { warning, count } of seen.values()) {
     warnings.push({ code: warning.code, message: `In ${count} of ${n} neighbourhoods: ${warning.message}` });
   }
-  return {
+  return checkLeaveOneOutFinite(model, {
     prediction, sdObserved, error, standardisedError,
     summary: summariseErrors(error, sdObserved),
     scale: log ? 'log' : 'data',
     warnings,
-  };
+  });
 }

@@ -25,7 +25,7 @@
  * tile of M samples and M² flops plus M covariances per target.
  */
 import type { CovarianceModel } from './model.ts';
-import { nuggetOf } from './model.ts';
+import { checkModelScale, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { surfaceVariance } from './covariance.ts';
@@ -33,10 +33,12 @@ import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { coordinateFrame, designRow, knownMean, trendColumnCount, type CoordinateFrame } from './trend.ts';
 import { NeighborIndex } from './neighbors.ts';
 import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
-import { checkModel, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
+import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
+/** The most neighbours of a local neighbourhood (an m × m matrix is factorised per neighbourhood). */
+export const MAX_LOCAL_NEIGHBORS = 2000;
 /** Up to this many samples the global mean comes from the dense GLS; above, from the nearest-neighbour factor. */
 const DENSE_GLOBAL_MEAN_LIMIT = 1000;
 
@@ -142,6 +144,7 @@ function checkInputs(samples: Samples, model: CovarianceModel, p: number): void 
     if (!Number.isFinite(z)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; expected a finite number.`);
     if (log && !(z > 0)) throw new GapwiseError('bad-value', `Sample ${i + 1} has the value ${z}; a log transform needs values greater than 0.`);
   }
+  checkModelScale(model, samples.x, samples.y, samples.value);
 }
 
 /**
@@ -201,8 +204,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const pModel = trendColumnCount(trend);
   checkInputs(samples, model, pModel);
   const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
-  if (!(Number.isInteger(m) && m >= 1 && m <= 2000)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to 2000, got ${JSON.stringify(options.neighbors)}.`);
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(options.neighbors)}.`);
   }
   const n = samples.x.length;
   const log = model.transform === 'log';
@@ -611,5 +614,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     return { mean: outMean, sd: outSd, sdObserved: outSdObs, median, logMean: mean, logSd: sd, warnings: callWarnings };
   };
 
-  return { n, neighbors: q, model, warnings, beta, frame, predict };
+  const checked = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction =>
+    checkPredictionFinite(model, predict(tx, ty, popts), tx, ty, popts.sd !== false || log);
+  return { n, neighbors: q, model, warnings, beta, frame, predict: checked };
 }

@@ -11,7 +11,7 @@
  * Cost: n³/3 flops to factor (once per predictor), then about n² flops per cell (see
  * estimateSurfaceCost in ./grid.ts).
  */
-import type { CovarianceModel } from './model.ts';
+import { nonFiniteResult, type CovarianceModel } from './model.ts';
 import type { Samples } from './samples.ts';
 import type { Warning } from './errors.ts';
 import { GapwiseError } from './errors.ts';
@@ -84,6 +84,18 @@ function rangeOf(a: SurfaceArray): ValueRange {
   return min <= max ? { min, max } : { min: NaN, max: NaN };
 }
 
+/**
+ * Throws GapwiseError 'non-finite' (model.ts `nonFiniteResult`) when a stored cell value is not finite:
+ * each entry is [name, stored value, value before storing] (they differ when Float32 storage overflowed).
+ */
+export function checkSurfaceCell(model: CovarianceModel, index: number, nx: number, values: Array<[string, number, number]>): void {
+  for (const [what, stored, computed] of values) {
+    if (Number.isFinite(stored)) continue;
+    const where = `the cell in column ${index % nx}, row ${Math.floor(index / nx)}`;
+    throw nonFiniteResult(model, what, where, Number.isFinite(computed) ? computed : stored, Number.isFinite(computed));
+  }
+}
+
 /** What a surface needs of a predictor: the exact one (kriging.ts) and the local one both fit. */
 export type SurfacePredictor = Pick<Predictor, 'model' | 'predict' | 'warnings'>;
 
@@ -134,6 +146,8 @@ export function computeSurfaceWith(
           ? exceedanceProbability(p.logMean[c], p.logSd[c], logThreshold)
           : exceedanceProbability(p.mean[c], p.sd[c], threshold as number);
       }
+      checkSurfaceCell(predictor.model, centres.index[c], nx, [['kriging mean', mean[k], p.mean[c]], ['sd', sd[k], p.sd[c]],
+        ['P(exceed)', pExceed ? pExceed[k] : 0, pExceed ? pExceed[k] : 0], ['median', median ? median[k] : 0, median && p.median ? p.median[c] : 0]]);
     }
     done += m;
     onProgress?.(done, total);

@@ -15,7 +15,7 @@
  */
 import type { Warning } from './errors.ts';
 import type { Samples } from './samples.ts';
-import { GapwiseError } from './errors.ts';
+import { GapwiseError, checkCount } from './errors.ts';
 import { createRandom } from './random.ts';
 
 export type VariogramEstimator = 'matheron' | 'cressie-hawkins';
@@ -158,6 +158,9 @@ function forEachPair(n: number, maxPairs: number, seed: number, visit: (i: numbe
   return { examined: maxPairs, subsampled: true };
 }
 
+/** The most lag classes a variogram may have (each holds a pair count, a mean distance and a semivariance). */
+export const MAX_LAG_CLASSES = 1000;
+
 function positiveOption(v: number | undefined, name: string): void {
   if (v !== undefined && !(Number.isFinite(v) && v > 0)) {
     throw new GapwiseError('bad-option', `Expected ${name} to be a positive number, got ${v}.`);
@@ -198,6 +201,9 @@ function resolveOptions(samples: Samples, options: VariogramOptions, maxDistance
     lagWidth = maxLag / lagCount;
     notes.push(`Lag width defaulted to ${options.lagCount === undefined ? `the maximum lag / ${DEFAULT_LAG_COUNT}` : 'the maximum lag / classes'}: ${fmt(lagWidth)} m.`);
   }
+  // Counted from user lengths before any per-class array exists (lagWidth 1e-9 would ask for billions).
+  checkCount(lagCount, MAX_LAG_CLASSES, `The number of lag classes (maximum lag ${fmt(maxLag)} m / lag width ${fmt(lagWidth)} m)`,
+    `choose a lag width of at least ${fmt(maxLag / MAX_LAG_CLASSES)} m or fewer classes`);
   const resolved: ResolvedVariogramOptions = {
     estimator: options.estimator ?? 'matheron',
     lagWidth, maxLag, lagCount,

@@ -19,6 +19,7 @@ import type { FitOptions } from './fit.ts';
 import { NU_BOUNDS } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
 import type { Samples } from './samples.ts';
+import { numericalFailureAdvice } from './numerical-advice.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { practicalRange, surfaceCovariance, surfaceVariance } from './covariance.ts';
@@ -709,7 +710,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   count(grid.length);
   grid.sort((a, b) => a.value - b.value);
   if (!Number.isFinite(grid[0].value)) {
-    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${family} model (${n} samples); check for duplicated locations or try another family.`);
+    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
   let x = grid[0].x;
   let xValue = grid[0].value;

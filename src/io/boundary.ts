@@ -1,10 +1,10 @@
 /**
  * Boundary and exclusion areas from GeoJSON: Polygon and MultiPolygon geometries (with holes), as a
  * bare geometry, a Feature or a FeatureCollection. Rings must be closed (first position = last) and
- * have at least four positions. Point-in-polygon by the even-odd rule over all rings, so holes
+ * have at least four positions and must not cross or touch themselves. Point-in-polygon by the even-odd rule over all rings, so holes
  * exclude; polygons can be projected to the working CRS.
  */
-import { pointInPolygon as corePointInPolygon } from '../core/polygon.ts';
+import { pointInPolygon as corePointInPolygon, ringSelfCrossing } from '../core/polygon.ts';
 import * as gjv from 'geojson-validation';
 import { GapwiseError } from '../core/errors.ts';
 import { createTransform } from './crs.ts';
@@ -50,6 +50,12 @@ function readRings(coords: unknown, fileName: string, feature: number, label: st
     const [a, b] = [pts[0], pts[pts.length - 1]];
     if (a[0] !== b[0] || a[1] !== b[1]) {
       throw geometryError(fileName, feature, `Feature ${feature}: the ${label}'s ${what} is not closed: it starts at [${a[0]}, ${a[1]}] and ends at [${b[0]}, ${b[1]}]; expected the first and last positions to be equal.`);
+    }
+    const crossing = ringSelfCrossing(pts);
+    if (crossing) {
+      const edge = (k: number) => `${k + 1} ([${pts[k][0]}, ${pts[k][1]}] to [${pts[k + 1][0]}, ${pts[k + 1][1]}])`;
+      const at = `[${Number(crossing.x.toFixed(7))}, ${Number(crossing.y.toFixed(7))}]`;
+      throw geometryError(fileName, feature, `Feature ${feature}: the ${label}'s ${what} crosses itself at ${at}, where edge ${edge(crossing.edgeA)} meets edge ${edge(crossing.edgeB)}; expected a ring that does not cross or touch itself (inside and outside are ambiguous otherwise).`);
     }
     return pts;
   });

@@ -210,6 +210,49 @@ export function epsgCode(crs: string): string | null {
   return m ? String(Number(m[1])) : null;
 }
 
+/**
+ * Ranges of proj-string parameters, [lowest, highest, what]: proj4 accepts values outside them (a UTM
+ * zone of 99, a latitude of 95°, a scale factor of 0) and projects to nonsense or NaN.
+ */
+const PROJ_PARAMETER_RANGES: Record<string, [number, number, string]> = {
+  zone: [1, 60, 'a whole UTM zone number'],
+  lat_0: [-90, 90, 'a latitude in degrees'],
+  lat_1: [-90, 90, 'a latitude in degrees'],
+  lat_2: [-90, 90, 'a latitude in degrees'],
+  lat_ts: [-90, 90, 'a latitude in degrees'],
+  lon_0: [-180, 180, 'a longitude in degrees'],
+  lonc: [-180, 180, 'a longitude in degrees'],
+  alpha: [-360, 360, 'an azimuth in degrees'],
+  gamma: [-360, 360, 'an angle in degrees'],
+  k: [1e-3, 10, 'a scale factor'],
+  k_0: [1e-3, 10, 'a scale factor'],
+  x_0: [-1e9, 1e9, 'a false easting in metres'],
+  y_0: [-1e9, 1e9, 'a false northing in metres'],
+  a: [1, 1e9, 'a semi-major axis in metres'],
+  b: [1, 1e9, 'a semi-minor axis in metres'],
+  rf: [1, 1e12, 'an inverse flattening'],
+  to_meter: [1e-6, 1e6, 'metres per unit'],
+};
+
+/** Refuses proj-string parameters outside their ranges and unknown units ('bad-crs', naming the parameter). */
+function checkProjParameters(definition: string, raw: string): void {
+  for (const token of definition.split(/\s+/)) {
+    const m = /^\+([A-Za-z_0-9]+)=(.*)$/.exec(token);
+    if (!m) continue;
+    const [, name, value] = m;
+    if (name === 'units' && !UNITS[value]) {
+      throw badCrs(`The proj string's +units=${value.slice(0, 20)} is not a unit here; expected one of ${Object.keys(UNITS).join(', ')}.`, raw);
+    }
+    const range = PROJ_PARAMETER_RANGES[name];
+    if (!range) continue;
+    const v = Number(value);
+    const whole = name === 'zone';
+    if (!Number.isFinite(v) || v < range[0] || v > range[1] || (whole && !Number.isInteger(v))) {
+      throw badCrs(`The proj string's +${name}=${value.slice(0, 20)} is out of range; expected ${range[2]} from ${range[0]} to ${range[1]}.`, raw);
+    }
+  }
+}
+
 function badCrs(message: string, raw: string): GapwiseError {
   return new GapwiseError('bad-crs', message, { raw });
 }
@@ -249,6 +292,7 @@ export function resolveCrs(crs: string): ResolvedCrs {
   } else {
     throw badCrs(`"${key0.slice(0, 80)}" is not a coordinate reference system; expected EPSG:NNNN or a proj string such as +proj=utm +zone=33 +datum=WGS84.`, crs);
   }
+  if (code === null && definition.startsWith('+')) checkProjParameters(definition, crs);
   const notes: string[] = [];
   if (definition.startsWith('+')) {
     definition = definition.replace(/\+nadgrids=("[^"]*"|\S+)/g, (all, grid: string) => {
@@ -404,4 +448,323 @@ export function utmZoneFor(lon: number, lat: number): UtmZone {
   }
   const south = lat < 0;
   return { zone, south, code: `EPSG:${(south ? 32700 : 32600) + zone}` };
+}
+
+// --- the working CRS: metres, and distortion at the samples -------------------------------------
+
+/**
+ * Largest scale error |k − 1| of the working CRS at the samples before a warning: 1.5 parts per
+ * thousand. A UTM zone keeps it within about 1 part per thousand (0.9996 on the central meridian,
+ * about 1.001 at the zone edge on the equator; pyproj's figures in tests/reference/crs_scale.json),
+ * so beyond this the samples reach past a zone's useful width.
+ */
+export const WORK_CRS_SCALE_WARNING = 0.0015;
+/**
+ * Largest scale error at the samples a working CRS may have: 5 % (areas off by about 10 %). Beyond it
+ * variogram ranges, spacings and areas above an action level are too distorted to be worth reporting.
+ */
+export const WORK_CRS_SCALE_LIMIT = 0.05;
+/** Samples checked for distortion: all up to this many, else a regular subset plus the extremes. */
+const DISTORTION_CHECKS = 2000;
+
+/** Scale distortion of a CRS over a set of places. */
+export interface CrsDistortion {
+  /** Largest |a − 1| or |1 − b| over the places checked (a, b: Tissot semi-axes). */
+  scaleError: number;
+  /** Index of the sample where it occurs. */
+  at: number;
+  /** Longitude and latitude (degrees) there. */
+  lon: number;
+  lat: number;
+}
+
+/**
+ * Tissot semi-axes (a ≥ b: the largest and smallest scale factor) of a projected CRS at a WGS 84
+ * longitude/latitude, from a central-difference Jacobian of the projection (steps of 1e-5°) divided by
+ * the WGS 84 meridian and prime-vertical radii; lengths in metres (coordinate units × metres per unit).
+ * Returns NaN for both where the point cannot be projected.
+ */
+export function scaleFactors(crs: string, lon: number, lat: number): { a: number; b: number } {
+  const c = resolveCrs(crs);
+  return scaleFactorsWith(createTransform('EPSG:4326', c.key), Number.isFinite(c.metresPerUnit) ? c.metresPerUnit : 1, lon, lat);
+}
+
+/** scaleFactors through a transform from WGS 84 made once (a loop over many places). */
+function scaleFactorsWith(t: Transform, unit: number, lon: number, lat: number): { a: number; b: number } {
+  const phi = Math.max(-89.9, Math.min(89.9, lat));
+  const d = 1e-5;
+  const e1 = t.forward(lon + d, phi), w1 = t.forward(lon - d, phi);
+  const n1 = t.forward(lon, phi + d), s1 = t.forward(lon, phi - d);
+  const rad = (2 * d * Math.PI) / 180;
+  const A = 6378137, E2 = 0.00669437999014;
+  const sin = Math.sin((phi * Math.PI) / 180);
+  const w = Math.sqrt(1 - E2 * sin * sin);
+  const N = A / w;
+  const M = (A * (1 - E2)) / (w * w * w);
+  const along = N * Math.cos((phi * Math.PI) / 180) * rad;
+  const up = M * rad;
+  const j11 = ((e1[0] - w1[0]) * unit) / along, j21 = ((e1[1] - w1[1]) * unit) / along;
+  const j12 = ((n1[0] - s1[0]) * unit) / up, j22 = ((n1[1] - s1[1]) * unit) / up;
+  // Singular values of J from JᵀJ = [[p, q], [q, r]].
+  const p = j11 * j11 + j21 * j21, q = j11 * j12 + j21 * j22, r = j12 * j12 + j22 * j22;
+  const mid = (p + r) / 2, rootTerm = Math.sqrt(((p - r) / 2) ** 2 + q * q);
+  const a = Math.sqrt(mid + rootTerm), b = Math.sqrt(Math.max(0, mid - rootTerm));
+  return Number.isFinite(a) && Number.isFinite(b) ? { a, b } : { a: NaN, b: NaN };
+}
+
+/** Indices to check: all samples, or a regular subset plus the extremes in each direction. */
+function checkIndices(lon: ArrayLike<number>, lat: ArrayLike<number>): number[] {
+  const n = lon.length;
+  if (n <= DISTORTION_CHECKS) return Array.from({ length: n }, (_, i) => i);
+  const out = new Set<number>();
+  const step = Math.ceil(n / DISTORTION_CHECKS);
+  for (let i = 0; i < n; i += step) out.add(i);
+  // Extremes of x, y, x + y and x − y: [index, value] of each minimum and maximum.
+  const at = new Int32Array(8);
+  const best = new Float64Array(8);
+  for (let j = 0; j < 8; j += 2) { best[j] = Infinity; best[j + 1] = -Infinity; }
+  for (let i = 0; i < n; i++) {
+    const u = lon[i], v = lat[i];
+    const keys = [u, v, u + v, u - v];
+    for (let j = 0; j < 4; j++) {
+      const k = keys[j];
+      if (k < best[2 * j]) { best[2 * j] = k; at[2 * j] = i; }
+      if (k > best[2 * j + 1]) { best[2 * j + 1] = k; at[2 * j + 1] = i; }
+    }
+  }
+  for (const i of at) out.add(i);
+  return [...out];
+}
+
+/**
+ * The largest scale error of a projected CRS at the samples (WGS 84 longitude/latitude); see
+ * `scaleFactors`. A place that cannot be projected counts as an infinite error.
+ */
+export function crsDistortion(crs: string, lon: ArrayLike<number>, lat: ArrayLike<number>): CrsDistortion {
+  let worst: CrsDistortion = { scaleError: 0, at: 0, lon: lon[0], lat: lat[0] };
+  const c = resolveCrs(crs);
+  const t = createTransform('EPSG:4326', c.key);
+  const unit = Number.isFinite(c.metresPerUnit) ? c.metresPerUnit : 1;
+  for (const i of checkIndices(lon, lat)) {
+    const { a, b } = scaleFactorsWith(t, unit, lon[i], lat[i]);
+    const e = Number.isFinite(a) ? Math.max(a - 1, 1 - b) : Infinity;
+    if (e > worst.scaleError) worst = { scaleError: e, at: i, lon: lon[i], lat: lat[i] };
+  }
+  return worst;
+}
+
+/** Longitude/latitude extent and centre of places, unwrapped across the antimeridian when that is shorter. */
+export function lonLatExtent(lon: ArrayLike<number>, lat: ArrayLike<number>): { west: number; east: number; south: number; north: number; centreLon: number; centreLat: number } {
+  let lonMin = Infinity, lonMax = -Infinity, south = Infinity, north = -Infinity, latSum = 0;
+  for (let i = 0; i < lon.length; i++) {
+    lonMin = Math.min(lonMin, lon[i]); lonMax = Math.max(lonMax, lon[i]);
+    south = Math.min(south, lat[i]); north = Math.max(north, lat[i]);
+    latSum += lat[i];
+  }
+  const wrap = lonMax - lonMin > 180;
+  let west = Infinity, east = -Infinity, lonSum = 0;
+  for (let i = 0; i < lon.length; i++) {
+    const l = wrap && lon[i] < 0 ? lon[i] + 360 : lon[i];
+    west = Math.min(west, l); east = Math.max(east, l);
+    lonSum += l;
+  }
+  let centreLon = lonSum / lon.length;
+  if (centreLon > 180) centreLon -= 360;
+  return { west: west > 180 ? west - 360 : west, east: east > 180 ? east - 360 : east, south, north, centreLon, centreLat: latSum / lat.length };
+}
+
+function deg(v: number): string {
+  return `${Number(v.toFixed(2))}°`;
+}
+
+function pct(v: number): string {
+  return v === Infinity ? 'infinitely' : `${Number((100 * v).toPrecision(2))} %`;
+}
+
+/**
+ * A working CRS in metres for samples at these WGS 84 places: the WGS 84 UTM zone of their centre when
+ * its scale error stays within WORK_CRS_SCALE_WARNING, else a Lambert azimuthal equal-area projection
+ * centred on them (areas exact, lengths off least around a centre) when its error stays within
+ * WORK_CRS_SCALE_LIMIT, else null (no single projection serves: split the samples by region).
+ */
+export function suggestWorkCrs(lon: ArrayLike<number>, lat: ArrayLike<number>): { crs: string; name: string; distortion: CrsDistortion } | null {
+  const e = lonLatExtent(lon, lat);
+  const utm = resolveCrs(utmZoneFor(e.centreLon, Math.max(-80, Math.min(84, e.centreLat))).code);
+  const du = crsDistortion(utm.key, lon, lat);
+  if (du.scaleError <= WORK_CRS_SCALE_WARNING) return { crs: utm.key, name: utm.name, distortion: du };
+  const laea = `+proj=laea +lat_0=${Number(e.centreLat.toFixed(2))} +lon_0=${Number(e.centreLon.toFixed(2))} +x_0=0 +y_0=0 +datum=WGS84 +units=m +no_defs`;
+  const dl = crsDistortion(laea, lon, lat);
+  if (dl.scaleError <= WORK_CRS_SCALE_LIMIT) return { crs: laea, name: 'Lambert azimuthal equal-area centred on the samples', distortion: dl };
+  return null;
+}
+
+function normalisedTokens(definition: string): Map<string, string> {
+  const out = new Map<string, string>();
+  for (const t of definition.split(/\s+/)) {
+    const m = /^\+?([^=]+)(?:=(.*))?$/.exec(t);
+    if (!m || ['units', 'to_meter', 'no_defs', 'type', 'wktext'].includes(m[1])) continue;
+    out.set(m[1], m[2] ?? '');
+  }
+  return out;
+}
+
+function sameTokens(a: Map<string, string>, b: Map<string, string>): boolean {
+  if (a.size !== b.size) return false;
+  for (const [k, v] of a) {
+    const w = b.get(k);
+    if (w === undefined) return false;
+    if (v === w) continue;
+    const x = Number(v), y = Number(w);
+    if (!(Number.isFinite(x) && Number.isFinite(y) && Math.abs(x - y) <= 1e-9 * Math.max(1, Math.abs(x)))) return false;
+  }
+  return true;
+}
+
+/**
+ * The EPSG CRS with the same projection as `crs` but in metres (e.g. EPSG:32118 for EPSG:2263, NAD83 /
+ * New York Long Island in metres rather than US survey feet), or null. Under Node the whole EPSG list
+ * is searched; in the browser the entries loaded so far.
+ */
+export function metreEquivalent(crs: ResolvedCrs): ResolvedCrs | null {
+  if (crs.geographic || crs.metresPerUnit === 1 || !crs.definition.startsWith('+')) return null;
+  if (!fullIndexLoaded && nodeRequire) loadEpsgIndexSync();
+  const want = normalisedTokens(crs.definition);
+  const hits: EpsgRecord[] = [];
+  for (const r of registry.values()) {
+    if (!r.proj4 || kindOf(r) !== 'projected' || !/\+units=m(\s|$)/.test(r.proj4) || /\+to_meter=/.test(r.proj4)) continue;
+    if (sameTokens(want, normalisedTokens(r.proj4))) hits.push(r);
+  }
+  if (hits.length === 0) return null;
+  // Prefer a name that is the feet name without its unit note, then the lowest code.
+  const bare = crs.name.replace(/\s*\((?:ftUS|ft|US survey foot|foot|feet|ftIn|ftCla)\)\s*/i, '').trim();
+  hits.sort((a, b) => Number(b.name === bare) - Number(a.name === bare) || Number(a.code) - Number(b.code));
+  return resolveCrs(`EPSG:${hits[0].code}`);
+}
+
+/** What `chooseWorkCrs` decided: the CRS and what the user should know about the choice. */
+export interface WorkCrsChoice {
+  work: ResolvedCrs;
+  warnings: Array<{ code: string; message: string }>;
+}
+
+function plural(unit: string): string {
+  return /foot$/.test(unit) ? unit.replace(/foot$/, 'feet') : / m$/.test(unit) ? `units of ${unit}` : `${unit}s`;
+}
+
+function suggestionText(s: ReturnType<typeof suggestWorkCrs>): string {
+  if (!s) return 'no single map projection keeps lengths within that over these samples: split them by region';
+  return `give as the working CRS a national or regional projected CRS in metres that covers them, or ${s.crs.startsWith('EPSG:') ? s.crs : `"${s.crs}"`} (${s.name}, at most ${pct(s.distortion.scaleError)} off here)`;
+}
+
+/**
+ * Chooses and checks the working CRS for samples at (x, y) in `input`: the `requested` one when given,
+ * else the input CRS when it is projected, else the WGS 84 UTM zone of the samples' centre.
+ * - The working CRS must be in metres (every length and area is reported in metres): a requested CRS in
+ *   other units is refused with a metre CRS for the same area; an input CRS in other units is replaced by
+ *   the same projection in metres (or a suggested CRS) and a warning says so.
+ * - Its scale error at the samples must stay within WORK_CRS_SCALE_LIMIT: a requested CRS, or the UTM
+ *   zone chosen for lon/lat samples, beyond it is refused with a suggestion; an input CRS beyond it is
+ *   replaced by a suggested CRS with a warning. Beyond WORK_CRS_SCALE_WARNING a warning gives the extent
+ *   and a suggestion.
+ * Local coordinates (no CRS) stay as they are. Throws GapwiseError 'bad-crs'.
+ */
+export function chooseWorkCrs(input: ResolvedCrs, x: ArrayLike<number>, y: ArrayLike<number>, requested?: ResolvedCrs): WorkCrsChoice {
+  const warnings: WorkCrsChoice['warnings'] = [];
+  if (input.key === LOCAL_CRS && (!requested || requested.key === LOCAL_CRS)) return { work: input, warnings };
+  if (requested?.geographic) throw new GapwiseError('bad-option', `The working CRS ${requested.key} is geographic (degrees); expected a projected CRS in metres.`);
+  // WGS 84 longitude/latitude of the samples (NaN where they cannot be transformed; those are dropped).
+  const toLonLat = input.key === 'EPSG:4326' ? null : input.key === LOCAL_CRS ? null : createTransform(input.key, 'EPSG:4326');
+  let lon: ArrayLike<number> = [], lat: ArrayLike<number> = [];
+  if (input.key !== LOCAL_CRS && !toLonLat) {
+    lon = x;
+    lat = y;
+  } else if (input.key !== LOCAL_CRS && toLonLat) {
+    // Transforming every sample of a large file costs seconds: a regular subset and the extremes serve.
+    const lo: number[] = [], la: number[] = [];
+    for (const i of checkIndices(x, y)) {
+      const [a, b] = toLonLat.forward(x[i], y[i]);
+      if (Number.isFinite(a) && Number.isFinite(b)) { lo.push(a); la.push(b); }
+    }
+    lon = lo;
+    lat = la;
+  }
+  const where = () => {
+    const e = lonLatExtent(lon, lat);
+    const width = e.east >= e.west ? e.east - e.west : e.east + 360 - e.west;
+    const across = e.east >= e.west ? '' : ' across the antimeridian';
+    return `the samples span ${deg(width)} of longitude (${deg(e.west)} to ${deg(e.east)}${across}) and ${deg(e.south)} to ${deg(e.north)} latitude`;
+  };
+  if (requested) {
+    if (requested.key !== LOCAL_CRS && requested.metresPerUnit !== 1) {
+      const twin = metreEquivalent(requested);
+      const other = twin ? `${twin.key} (${twin.name}), the same projection in metres` : lon.length ? suggestionText(suggestWorkCrs(lon, lat)).replace(/^give as the working CRS /, '') : 'a projected CRS in metres';
+      throw badCrs(`The working CRS ${requested.key} (${requested.name}) is in ${plural(requested.unitName)}; expected a CRS in metres, since every length and area is reported in metres: use ${other}.`, requested.key);
+    }
+    if (lon.length === 0 || requested.key === LOCAL_CRS) return { work: requested, warnings };
+    const d = crsDistortion(requested.key, lon, lat);
+    if (d.scaleError > WORK_CRS_SCALE_LIMIT) {
+      throw badCrs(`The working CRS ${requested.key} (${requested.name}) distorts lengths by ${pct(d.scaleError)} at the sample at ${deg(d.lon)}, ${deg(d.lat)} (${where()}); expected at most ${pct(WORK_CRS_SCALE_LIMIT)}: ${suggestionText(suggestWorkCrs(lon, lat))}.`, requested.key);
+    }
+    if (d.scaleError > WORK_CRS_SCALE_WARNING) {
+      warnings.push({ code: 'work-crs-distortion', message: `The working CRS ${requested.key} distorts lengths by ${pct(d.scaleError)} at the sample at ${deg(d.lon)}, ${deg(d.lat)} (${where()}); distances and areas are that far off there: ${suggestionText(suggestWorkCrs(lon, lat))}.` });
+    }
+    return { work: requested, warnings };
+  }
+  if (lon.length === 0) return { work: input.geographic ? resolveCrs('EPSG:4326') : input, warnings };
+  if (!input.geographic) {
+    const distortion = crsDistortion(input.key, lon, lat);
+    const metres = input.metresPerUnit === 1;
+    if (metres && distortion.scaleError <= WORK_CRS_SCALE_LIMIT) {
+      if (distortion.scaleError > WORK_CRS_SCALE_WARNING) {
+        warnings.push({ code: 'work-crs-distortion', message: `The working CRS ${input.key} (the samples' own) distorts lengths by ${pct(distortion.scaleError)} at the sample at ${deg(distortion.lon)}, ${deg(distortion.lat)} (${where()}); distances and areas are that far off there: ${suggestionText(suggestWorkCrs(lon, lat))}.` });
+      }
+      return { work: input, warnings };
+    }
+    const twin = metres ? null : metreEquivalent(input);
+    if (twin && crsDistortion(twin.key, lon, lat).scaleError <= WORK_CRS_SCALE_LIMIT) {
+      warnings.push({ code: 'work-crs-metres', message: `The samples' CRS ${input.key} is in ${plural(input.unitName)}; they are worked in ${twin.key} (${twin.name}), the same projection in metres, so lengths and areas are in metres.` });
+      return { work: twin, warnings };
+    }
+    const s = suggestWorkCrs(lon, lat);
+    if (!s) throw badCrs(`No working CRS in metres keeps lengths within ${pct(WORK_CRS_SCALE_LIMIT)} over these samples (${where()}); expected samples within one region: split them by region.`, input.key);
+    const why = metres ? `distorts lengths by ${pct(distortion.scaleError)} at the sample at ${deg(distortion.lon)}, ${deg(distortion.lat)}` : `is in ${plural(input.unitName)}`;
+    warnings.push({ code: 'work-crs-metres', message: `The samples' CRS ${input.key} ${why}; they are worked in ${s.crs} (${s.name}), in metres; choose another working CRS to override this.` });
+    return { work: resolveCrs(s.crs), warnings };
+  }
+  const e = lonLatExtent(lon, lat);
+  const utm = resolveCrs(utmZoneFor(e.centreLon, e.centreLat).code);
+  const d = crsDistortion(utm.key, lon, lat);
+  if (d.scaleError > WORK_CRS_SCALE_LIMIT) {
+    throw badCrs(`The working CRS chosen for these longitude/latitude samples, ${utm.key} (${utm.name}), distorts lengths by ${pct(d.scaleError)} at the sample at ${deg(d.lon)}, ${deg(d.lat)} (${where()}); expected at most ${pct(WORK_CRS_SCALE_LIMIT)}: ${suggestionText(suggestWorkCrs(lon, lat))}.`, utm.key);
+  }
+  if (d.scaleError > WORK_CRS_SCALE_WARNING) {
+    warnings.push({ code: 'work-crs-distortion', message: `The samples reach beyond the useful width of ${utm.key} (${utm.name}): ${where()}, and lengths are ${pct(d.scaleError)} off at the sample at ${deg(d.lon)}, ${deg(d.lat)} (a UTM zone keeps within about 0.1 %): ${suggestionText(suggestWorkCrs(lon, lat))}.` });
+  }
+  return { work: utm, warnings };
+}
+
+/**
+ * Checks that a grid in the working CRS (its outer edges, metres) stays where the CRS is usable: every
+ * corner and edge midpoint can be taken back to longitude/latitude and the CRS's scale error there is
+ * within WORK_CRS_SCALE_LIMIT. Local coordinates are not checked. Throws GapwiseError 'bad-option'
+ * with the grid's size and the place that fails.
+ */
+export function checkGridInCrs(bounds: { xmin: number; ymin: number; xmax: number; ymax: number }, workCrs: string): void {
+  const c = resolveCrs(workCrs);
+  if (c.key === LOCAL_CRS || c.geographic) return;
+  const t = createTransform(c.key, 'EPSG:4326');
+  const { xmin, ymin, xmax, ymax } = bounds;
+  const xm = (xmin + xmax) / 2, ym = (ymin + ymax) / 2;
+  const size = `${Number(((xmax - xmin) / 1000).toPrecision(3))} km × ${Number(((ymax - ymin) / 1000).toPrecision(3))} km`;
+  for (const [x, y] of [[xmin, ymin], [xmin, ymax], [xmax, ymin], [xmax, ymax], [xm, ymin], [xm, ymax], [xmin, ym], [xmax, ym]]) {
+    const [lon, lat] = t.forward(x, y);
+    if (!Number.isFinite(lon) || !Number.isFinite(lat)) {
+      throw new GapwiseError('bad-option', `The grid (${size}) reaches (${x}, ${y}), which ${c.key} cannot take back to longitude/latitude; expected a grid inside the CRS's area: choose a smaller padding or area.`);
+    }
+    const { a, b } = scaleFactors(c.key, lon, lat);
+    const e = Number.isFinite(a) ? Math.max(a - 1, 1 - b) : Infinity;
+    if (e > WORK_CRS_SCALE_LIMIT) {
+      throw new GapwiseError('bad-option', `The grid (${size}) reaches ${deg(lon)}, ${deg(lat)}, where ${c.key} distorts lengths by ${pct(e)}; expected at most ${pct(WORK_CRS_SCALE_LIMIT)}: choose a smaller padding or area.`);
+    }
+  }
 }

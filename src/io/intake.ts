@@ -11,7 +11,7 @@ import type { CsvTable } from './csv.ts';
 import { readPointFeatures } from './geojson.ts';
 import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from './intake-limits.ts';
 import { TextFromBytes, binaryKind } from './text-bytes.ts';
-import { LOCAL_CRS, createTransform, resolveCrs, utmZoneFor } from './crs.ts';
+import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts';
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks } from './numbers.ts';
@@ -781,39 +781,14 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
 
   // --- working CRS and projection -------------------------------------------------------------
   let work: ResolvedCrs;
-  if (options.workCrs !== undefined) {
-    work = resolveIn(options.workCrs, file, 'Working coordinate system');
-    if (work.geographic) throw new GapwiseError('bad-option', `The working CRS ${work.key} is geographic (degrees); expected a projected CRS in metres.`, { file });
-  } else if (input.geographic) {
-    // Centroid in lon/lat; longitudes unwrapped when the samples straddle the antimeridian.
-    let lonMin = Infinity;
-    let lonMax = -Infinity;
-    let lat = 0;
-    let lonSum = 0;
-    const t4326 = input.key === 'EPSG:4326' ? null : createTransform(input.key, 'EPSG:4326');
-    // Typed arrays, not a pair per sample: a large file has millions.
-    const lons = new Float64Array(parsed.length);
-    const lats = new Float64Array(parsed.length);
-    parsed.forEach((p, k) => {
-      const [lo, la] = t4326 ? t4326.forward(p.x, p.y) : [p.x, p.y];
-      lons[k] = lo;
-      lats[k] = la;
-    });
-    for (const lo of lons) {
-      lonMin = Math.min(lonMin, lo);
-      lonMax = Math.max(lonMax, lo);
-    }
-    const wrap = lonMax - lonMin > 180;
-    for (let k = 0; k < lons.length; k++) {
-      const lo = lons[k];
-      lonSum += wrap && lo < 0 ? lo + 360 : lo;
-      lat += lats[k];
-    }
-    let clon = lonSum / lons.length;
-    if (clon > 180) clon -= 360;
-    work = resolveCrs(utmZoneFor(clon, lat / lons.length).code);
-  } else {
-    work = input;
+  try {
+    const requested = options.workCrs !== undefined ? resolveIn(options.workCrs, file, 'Working coordinate system') : undefined;
+    const choice = chooseWorkCrs(input, Float64Array.from(parsed, (p) => p.x), Float64Array.from(parsed, (p) => p.y), requested);
+    work = choice.work;
+    warnings.push(...choice.warnings);
+  } catch (e) {
+    if (e instanceof GapwiseError) throw new GapwiseError(e.code, e.message, { ...e.place, file });
+    throw e;
   }
   let toWork: ReturnType<typeof createTransform>;
   try {

@@ -14,11 +14,11 @@
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
+import { MAX_CELLS, gridBounds, gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
 import { MAX_REALISATIONS as MAX_COUNT, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 import { readSamples } from './intake.ts';
 import { projectPolygons, readPolygons, type Polygon } from './boundary.ts';
-import { LOCAL_CRS } from './crs.ts';
+import { LOCAL_CRS, checkGridInCrs } from './crs.ts';
 import type { IntakeOptions, IntakeResult } from './types.ts';
 
 export const PROJECT_FORMAT = 'gapwise-project';
@@ -456,6 +456,8 @@ function validateV2(input: unknown, file: string): Project {
       return n;
     };
     project.grid.geometry = { x0: c.num(ge.x0, 'grid.geometry.x0'), y0: c.num(ge.y0, 'grid.geometry.y0'), cell, nx: int(ge.nx, 'grid.geometry.nx'), ny: int(ge.ny, 'grid.geometry.ny') };
+    const cells = project.grid.geometry.nx * project.grid.geometry.ny;
+    if (cells > MAX_CELLS) c.fail('grid.geometry.nx', `nx × ny of at most ${MAX_CELLS.toLocaleString('en')} cells`, `${ge.nx} × ${ge.ny}`);
   }
   if (project.grid.area === 'boundary' && !project.boundary) c.fail('grid.area', '"extent" when the project has no boundary', 'boundary');
   const suggestions = readSuggestions(c, o.suggestions);
@@ -608,8 +610,10 @@ export function projectBoundary(project: Project, workCrs: string): { lonLat: Po
 export { roundCell, type GridPlanOptions } from '../core/grid.ts';
 
 /** The grid a surface is computed on (see core/grid.ts planSurfaceGrid: one plan for app, files and CLI). */
-export function planSurfaceGrid(o: GridPlanOptions): Grid {
-  return planGrid(o).grid;
+export function planSurfaceGrid(o: GridPlanOptions, workCrs?: string): Grid {
+  const grid = planGrid(o).grid;
+  if (workCrs !== undefined) checkGridInCrs(gridBounds(grid), workCrs);
+  return grid;
 }
 
 /**
@@ -637,7 +641,7 @@ export function projectGrid(
   return planSurfaceGrid({
     x: intake.samples.x, y: intake.samples.y, padding: g.padding,
     cellSize: overrides.cellSize ?? g.cellSize, polygons,
-  });
+  }, intake.report.crs.work);
 }
 
 /** The grid's geometry as stored in a project. */

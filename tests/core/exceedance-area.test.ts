@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  countAbove, exceedanceArea, exceedanceFrequency, expectedExceedanceArea, quantileSorted, summarise, summariseExceedanceCounts,
+  MAX_DEPTH, countAbove, exceedanceArea, exceedanceFrequency, expectedExceedanceArea, quantileSorted, summarise, summariseExceedanceCounts,
 } from '../../src/core/exceedance-area.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 import { expectClose } from '../helpers/tolerance.ts';
@@ -66,5 +66,14 @@ describe('exceedanceFrequency', () => {
 
   it('expectedExceedanceArea sums probabilities times the cell area', () => {
     expectClose(expectedExceedanceArea([0.5, 0.25, NaN, 1], 10), 175, { rel: 1e-15 });
+  });
+});
+
+describe('summariseExceedanceCounts depth limit', () => {
+  it('summariseExceedanceCounts refuses a depth beyond MAX_DEPTH instead of an infinite volume', () => {
+    let message = '';
+    try { summariseExceedanceCounts([1, 2, 3], { threshold: 5, cell: 10, activeCells: 10, depth: 1e308 }); } catch (e) { message = (e as GapwiseError).message; }
+    expect(message).toBe(`Expected the depth to be a positive number of metres up to ${MAX_DEPTH.toLocaleString('en')}, got 1e+308.`);
+    expect(summariseExceedanceCounts([1, 2, 3], { threshold: 5, cell: 10, activeCells: 10, depth: MAX_DEPTH }).volume?.depth).toBe(MAX_DEPTH);
   });
 });

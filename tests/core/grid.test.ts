@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import {
-  MAX_CELLS, cellCentre, cellCentres, cellCount, cellIndexAt, estimateSurfaceCost, fractionalIndex,
+  MAX_CELLS, MAX_GRID_SIDE, MAX_PADDING, cellCentre, cellCentres, cellCount, cellIndexAt, estimateSurfaceCost, fractionalIndex, planSurfaceGrid,
   gridBounds, gridForPolygons, gridFromExtent, type Polygon,
 } from '../../src/core/grid.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
@@ -158,5 +158,27 @@ describe('estimateSurfaceCost', () => {
     expectClose(e.seconds, e.flops / 1.2e9, { rel: 1e-12 });
     const two = estimateSurfaceCost(1000, 10_000, { workers: 2 });
     expectClose(two.seconds, (1e9 / 3 + (1e4 * 1.029e6) / 2) / 1.2e9, { rel: 1e-12 });
+  });
+});
+
+describe('grid size limits', () => {
+  const refusal = (f: () => unknown) => { try { f(); } catch (e) { return (e as GapwiseError).message; } return null; };
+
+  it('planSurfaceGrid refuses a padding of 1e6 times the extent instead of computing a 750,000 km grid', () => {
+    const o = { x: [500_000, 500_375], y: [5_400_000, 5_400_300], cellSize: 0 };
+    expect(refusal(() => planSurfaceGrid({ ...o, padding: 1e6 }))).toBe(`Expected a padding from 0 to ${MAX_PADDING} times the larger side of the samples' extent, got 1000000.`);
+    expect(refusal(() => planSurfaceGrid({ ...o, padding: NaN }))).toContain('got NaN');
+    expect(planSurfaceGrid({ ...o, padding: MAX_PADDING }).grid.nx).toBeGreaterThan(0);
+  });
+
+  it('gridFromExtent refuses a grid longer than the largest side, with the grid, the extent and the padding', () => {
+    expect(MAX_GRID_SIDE).toBe(10_000_000);
+    expect(refusal(() => gridFromExtent(0, 0, 375, 300, 1000, 6_000_000)))
+      .toBe('The grid would span 12,000 km × 12,000 km (an extent of 375 m × 300 m with 6,000 km of padding on each side); the most is 10,000 km a side: choose a smaller padding or area.');
+    expect(gridFromExtent(0, 0, 9_999_000, 10, 100_000).nx).toBe(100);
+    // A tiny cell: the count overflows to Infinity, the advice stays a number.
+    expect(refusal(() => gridFromExtent(0, 0, 375, 300, 1e-300))).toBe('The grid would have Infinity cells (3.75e+302 × 3.00e+302) at 1e-300 m; the most is 4,000,000: choose a cell of at least 1 m.');
+    // A cell larger than the extent is a grid of one cell that size.
+    expect(refusal(() => gridFromExtent(0, 0, 10, 10, 1e300))).toContain('The grid would span 1.00e+297 km × 1.00e+297 km (one cell of 1.00e+297 km) (an extent of 10 m × 10 m)');
   });
 });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { pointInPolygon, pointInPolygons, polygonsArea, polygonsExtent, ringArea } from '../../src/core/polygon.ts';
+import { pointInPolygon, pointInPolygons, polygonsArea, polygonsExtent, ringArea, ringSelfCrossing } from '../../src/core/polygon.ts';
 import { pointInPolygons as ioPointInPolygons } from '../../src/io/boundary.ts';
 import type { Polygon } from '../../src/core/grid.ts';
 
@@ -39,5 +39,29 @@ describe('polygonsArea', () => {
   it('polygonsExtent bounds the outer rings, null without vertices', () => {
     expect(polygonsExtent([HOLED, L_SHAPE])).toEqual({ xmin: 0, ymin: 0, xmax: 10, ymax: 10 });
     expect(polygonsExtent([])).toBeNull();
+  });
+});
+
+describe('ringSelfCrossing', () => {
+  it('ringSelfCrossing finds the centre of a bow-tie and nothing in a square, even with a repeated vertex', () => {
+    expect(ringSelfCrossing([[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]])).toEqual({ edgeA: 0, edgeB: 2, x: 5, y: 5 });
+    expect(ringSelfCrossing([[0, 0], [10, 0], [10, 10], [0, 10], [0, 0]])).toBeNull();
+    expect(ringSelfCrossing([[0, 0], [10, 0], [10, 0], [10, 10], [0, 10], [0, 0]])).toBeNull();
+  });
+
+  it('ringSelfCrossing counts touching at a vertex and folding back along an edge as crossing', () => {
+    // A figure of eight through (5, 5): both loops share that vertex.
+    expect(ringSelfCrossing([[0, 0], [5, 5], [10, 0], [10, 10], [5, 5], [0, 10], [0, 0]])).toMatchObject({ x: 5, y: 5 });
+    // A spike: out along the bottom edge and back over it.
+    expect(ringSelfCrossing([[0, 0], [10, 0], [4, 0], [4, 8], [0, 8], [0, 0]])).not.toBeNull();
+  });
+
+  it('ringSelfCrossing finds no crossing in any convex polygon (property)', () => {
+    fc.assert(fc.property(fc.integer({ min: 3, max: 60 }), fc.double({ min: 0, max: 6.28, noNaN: true }), fc.double({ min: 1e-3, max: 1e6, noNaN: true }), (n, turn, r) => {
+      const ring: number[][] = [];
+      for (let k = 0; k < n; k++) ring.push([r * Math.cos(turn + (2 * Math.PI * k) / n), r * Math.sin(turn + (2 * Math.PI * k) / n)]);
+      ring.push(ring[0]);
+      return ringSelfCrossing(ring) === null;
+    }), { seed: 17, numRuns: 200 });
   });
 });

@@ -1,5 +1,7 @@
 // Boundary polygons: ring checks, point-in-polygon with holes (cases worked out by hand on unit squares),
 // and projection to the working CRS checked against PROJ (tests/reference/proj.json).
+import { readFileSync } from 'node:fs';
+import { resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { pointInPolygon, pointInPolygons, projectPolygons, readPolygons } from '../../src/io/boundary.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
@@ -91,5 +93,20 @@ describe('projectPolygons', () => {
     const [hx, hy] = [p.rings[1][0][0] + 100, p.rings[1][0][1] + 100];
     expect(pointInPolygon(hx, hy, p)).toBe(false);
     expect(pointInPolygon(ref.x + 100, ref.y + 100, p)).toBe(true);
+  });
+});
+
+describe('readPolygons refuses rings that cross themselves', () => {
+  it('readPolygons names the ring, the two edges and where they cross', () => {
+    const bowTie = JSON.stringify({ type: 'Polygon', coordinates: [[[11.24, 48.49], [11.25, 48.5], [11.25, 48.49], [11.24, 48.5], [11.24, 48.49]]] });
+    let e: GapwiseError | null = null;
+    try { readPolygons(bowTie, 'site.geojson'); } catch (x) { e = x as GapwiseError; }
+    expect(e?.code).toBe('bad-geometry');
+    expect(e?.describe()).toBe('site.geojson, feature 0, column "geometry": Feature 0: the Polygon\'s outer ring crosses itself at [11.245, 48.495], where edge 1 ([11.24, 48.49] to [11.25, 48.5]) meets edge 3 ([11.25, 48.49] to [11.24, 48.5]); expected a ring that does not cross or touch itself (inside and outside are ambiguous otherwise).');
+  });
+
+  it('readPolygons reads the demo boundary, which is simple', () => {
+    const text = readFileSync(resolve(import.meta.dirname, '../../data-demo/site-boundary.geojson'), 'utf8');
+    expect(readPolygons(text, 'site-boundary.geojson').length).toBeGreaterThan(0);
   });
 });

@@ -94,7 +94,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       padding: padding ?? project?.grid.padding ?? DEFAULT_PADDING,
       cellSize: cell ?? project?.grid.cellSize ?? 0,
       polygons: boundary ? boundary.polygons.map((p) => p.rings) : null,
-    });
+    }, intake.report.crs.work);
   }
 
   const threshold = numberOption(values, 'threshold');

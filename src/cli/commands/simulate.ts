@@ -36,7 +36,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const grid = planSurfaceGrid({
     x: intake.samples.x, y: intake.samples.y, padding: DEFAULT_PADDING, cellSize: cell ?? 0,
     polygons: boundary ? boundary.polygons.map((p) => p.rings) : null,
-  });
+  }, intake.report.crs.work);
   const choice = readSimulationChoice(values, model, 'count');
   const threshold = numberOption(values, 'threshold');
   const files = { samples: intake.report.fileName, model: modelPath };

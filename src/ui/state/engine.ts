@@ -94,7 +94,7 @@ export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, s
       };
     } catch (e) {
       const code = (e as { code?: string }).code;
-      if (code !== 'fit-failed' && code !== 'not-positive-definite') throw e;
+      if (code !== 'fit-failed' && code !== 'not-positive-definite' && code !== 'non-finite') throw e;
       return { key: spec.key, label: spec.label, model: null, logLikelihood: NaN, aic: NaN, rmse: NaN, msse: NaN, error: (e as Error).message };
     } finally {
       done++;
