@@ -1,7 +1,7 @@
 /**
  * Surfaces as a CSV table, one row per active cell (cells outside the boundary are left out):
- * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees), mean, sd and, with a threshold,
- * p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
+ * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees; no such columns for local
+ * coordinates with no CRS), mean, sd and, with a threshold, p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
  * ("# " + the screening caution and what the columns are); most CSV readers skip it with a comment
  * option (pandas `comment="#"`, R `comment.char = "#"`), and `caution: false` leaves it out.
  */
@@ -36,16 +36,17 @@ function fixed(v: number, decimals: number): string {
   return Number.isFinite(v) ? String(Number(v.toFixed(decimals))) : '';
 }
 
-/** The CSV text (LF line ends). Longitude and latitude are empty for local planar coordinates. */
+/** The CSV text (LF line ends). Local planar coordinates (no CRS) have no lon, lat columns. */
 export function surfaceGridCsv(input: GridCsvInput): string {
   const { grid, surface } = input;
   const { x, y, index } = cellCentres(grid);
   const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
-  const header = ['x', 'y', 'lon', 'lat', 'mean', 'sd'];
+  const header = geo ? ['x', 'y', 'lon', 'lat', 'mean', 'sd'] : ['x', 'y', 'mean', 'sd'];
   if (surface.pExceed) header.push('p_exceed');
   const lines: string[] = [];
   if (input.caution !== false) {
-    const what = `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
+    const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
+    const what = `${where}; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
       + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
     lines.push(`# ${CAUTION} ${what.replace(/[\r\n]+/g, ' ')}`);
   }
@@ -55,7 +56,7 @@ export function surfaceGridCsv(input: GridCsvInput): string {
     const k = index[c];
     const row = [
       fixed(x[c], 3), fixed(y[c], 3),
-      geo ? fixed(geo.x[c], 8) : '', geo ? fixed(geo.y[c], 8) : '',
+      ...(geo ? [fixed(geo.x[c], 8), fixed(geo.y[c], 8)] : []),
       num(surface.mean[k], dm), num(surface.sd[k], ds),
     ];
     if (surface.pExceed) row.push(num(surface.pExceed[k], dp));

@@ -96,8 +96,10 @@ export function formatNumber(v: number | null | undefined, digits = 3): string {
 }
 
 /** A distance in metres as "850 m" or "1.25 km". */
-export function formatDistance(m: number): string {
+export function formatDistance(m: number, unit = 'm'): string {
   if (!Number.isFinite(m)) return '–';
+  // Lengths not known to be metres (local coordinates) keep their own unit, never "km".
+  if (unit !== 'm') return `${formatNumber(m)} ${unit}`;
   return Math.abs(m) >= 1000 ? `${formatNumber(m / 1000)} km` : `${formatNumber(m)} m`;
 }
 

@@ -10,6 +10,8 @@ export interface TestHook {
   surfaceInfo(): Record<string, unknown> | null;
   /** The colour domain of the mean layer and the number of colour steps drawn. */
   meanScale(): { domain: [number, number]; steps: number; log: boolean } | null;
+  /** On a planar map (local coordinates): the length unit, the grid lines drawn and the scale bar's length. */
+  planarView(): { unit: string; lines: { x: number[]; y: number[] } | null; scale: number } | null;
 }
 
 export function testHookEnabled(): boolean {
