@@ -17,6 +17,12 @@ export interface GridCsvInput {
   unit?: string;
   /** Write the "# caution" first line (default true). */
   caution?: boolean;
+  /**
+   * Set when the layers are per-cell summaries of this many conditional realisations (not the kriged
+   * surface): the columns are then realisation_mean, realisation_sd, realisation_p_exceed and the
+   * comment line says so.
+   */
+  realisations?: number;
 }
 
 /** Significant digits that give a value back exactly: 9 for Float32 surfaces, 17 for Float64. */
@@ -41,13 +47,18 @@ export function surfaceGridCsv(input: GridCsvInput): string {
   const { grid, surface } = input;
   const { x, y, index } = cellCentres(grid);
   const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
-  const header = geo ? ['x', 'y', 'lon', 'lat', 'mean', 'sd'] : ['x', 'y', 'mean', 'sd'];
-  if (surface.pExceed) header.push('p_exceed');
+  const drawn = input.realisations;
+  const prefix = drawn ? 'realisation_' : '';
+  const header = [...(geo ? ['x', 'y', 'lon', 'lat'] : ['x', 'y']), `${prefix}mean`, `${prefix}sd`];
+  if (surface.pExceed) header.push(`${prefix}p_exceed`);
   const lines: string[] = [];
   if (input.caution !== false) {
     const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
-    const what = `${where}; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
-      + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
+    const what = drawn
+      ? `${where}; realisation_mean, realisation_sd${input.unit ? ` in ${input.unit}` : ''}: the mean and sd over ${drawn} conditional realisations, not the kriged surface`
+        + (surface.pExceed ? `; realisation_p_exceed = share of the realisations above ${surface.threshold ?? 'the threshold'}${input.unit ? ` ${input.unit}` : ''}` : '')
+      : `${where}; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
+        + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
     lines.push(`# ${CAUTION} ${what.replace(/[\r\n]+/g, ' ')}`);
   }
   lines.push(header.join(','));

@@ -560,6 +560,13 @@ export class Session {
     if (result.pExceed) this.s.surface.layer = 'exceed';
   }
 
+  /** Puts the kept kriged surface back on the map in place of the realisations' layers. */
+  showKriged(): void {
+    const k = this.kriged;
+    if (!k || !this.surface?.fromSimulation) return;
+    this.surface = { ...k, bands: this.surface.bands + 1 };
+  }
+
   /** True when realisations were drawn for other inputs (model, grid, threshold, support) than the current ones. */
   get simulationStale(): boolean {
     return !!this.simulation && !this.simulation.key.startsWith(this.surfaceKey + '|');
