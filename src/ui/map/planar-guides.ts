@@ -139,6 +139,7 @@ export interface PlanarScaleOptions extends L.ControlOptions {
 export class PlanarScale extends L.Control {
   declare options: PlanarScaleOptions;
   private bar: HTMLElement | null = null;
+  private unitLabel: HTMLElement | null = null;
 
   constructor(options: PlanarScaleOptions = {}) {
     super({ position: 'bottomright', ...options });
@@ -147,7 +148,13 @@ export class PlanarScale extends L.Control {
 
   override onAdd(map: L.Map): HTMLElement {
     const el = L.DomUtil.create('div', 'leaflet-control-scale gapwise-planar-scale');
+    // The length inside the bar, the unit beside it ("coordinate units" is wider than a short bar).
     this.bar = L.DomUtil.create('div', 'leaflet-control-scale-line', el);
+    this.bar.style.display = 'inline-block';
+    this.bar.style.verticalAlign = 'bottom';
+    el.appendChild(document.createTextNode(' '));
+    this.unitLabel = L.DomUtil.create('span', 'gapwise-planar-scale-unit', el);
+    Object.assign(this.unitLabel.style, { fontSize: '11px', background: 'rgba(255, 255, 255, 0.8)', padding: '0 3px', verticalAlign: 'bottom' });
     el.setAttribute('data-testid', 'planar-scale');
     map.on('zoom move resize', this.update, this);
     this.update();
@@ -171,7 +178,8 @@ export class PlanarScale extends L.Control {
     const unitsPerPixel = 1 / map.options.crs!.scale(map.getZoom());
     const { length, pixels } = scaleLength(unitsPerPixel, this.options.maxWidth ?? 110);
     this.bar.style.width = `${Math.round(pixels)}px`;
-    this.bar.textContent = `${length.toLocaleString('en-US', { maximumFractionDigits: 10 })} ${this.options.unit ?? ''}`;
+    this.bar.textContent = length.toLocaleString('en-US', { maximumFractionDigits: 10 });
+    if (this.unitLabel) this.unitLabel.textContent = this.options.unit ?? '';
     this.bar.setAttribute('data-length', String(length));
   }
 }

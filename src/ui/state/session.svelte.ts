@@ -352,6 +352,15 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
+  /** Colours of the mean layer: 'auto' spaces them by ln(value) for log models, evenly otherwise. */
+  meanColours = $state<'auto' | 'linear' | 'log'>('auto');
+
+  /** True when the mean layer's colours are spaced by ln(value). */
+  get logColours(): boolean {
+    const positive = (this.intake?.report.summary.min ?? 0) > 0;
+    return positive && (this.meanColours === 'log' || (this.meanColours === 'auto' && this.s.samples.transform === 'log'));
+  }
+
   /** The kriged surface kept while the map shows the realisations' layers in its place (exportSurface). */
   kriged = $state.raw<SurfaceView | null>(null);
 
