@@ -210,6 +210,17 @@ describe('Local coordinates in the browser', () => {
     await page.locator('#threshold').press('Enter');
     await page.waitForSelector('[data-testid=surface-stale]');
     await computeSurface(page);
+    // The action level on the mean legend, at its place on the bar.
+    await page.locator('input[name=layer][value=mean]').check();
+    const level = page.locator('[data-testid=surface-legend] [data-testid=legend-level]');
+    await level.waitFor();
+    expect(await level.getAttribute('data-value')).toBe('80');
+    expect(await page.locator('[data-testid=surface-legend]').innerText()).toMatch(/action level 80/);
+    // Log colour steps on request: the scale says so and the legend's ticks follow.
+    await page.selectOption('#mean-colours', 'log');
+    await page.waitForFunction(() => (window as unknown as { __gapwiseTest: { meanScale(): { log: boolean } | null } }).__gapwiseTest.meanScale()?.log === true);
+    expect(await page.locator('[data-testid=surface-legend]').innerText()).toMatch(/colours in log steps/);
+    await page.selectOption('#mean-colours', 'auto');
     await page.fill('#sim-count', '20');
     await page.locator('#sim-count').press('Enter');
     await page.click('[data-testid=simulate]');
@@ -258,5 +269,39 @@ describe('Local coordinates in the browser', () => {
     figures.push(`screenshot ${await shot(page, '7-local-realisations')}`);
     expectClean(w);
     await w.context.close();
+  }, LONG);
+
+  it('colours the demo (a log model) in log steps by default, with the action level on the mean legend', async () => {
+    const d = await openPage(run.h);
+    const { page } = d;
+    await page.setViewportSize({ width: 1280, height: 800 });
+    await page.click('[data-testid=load-demo]');
+    await page.waitForSelector('[data-testid=read-report]');
+    await page.locator('input[name=transform][value=log]').check();
+    await openStep(page, 'structure');
+    await page.selectOption('#fit-method', 'wls');
+    await page.click('[data-testid=fit-button]');
+    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+    await computeSurface(page);
+    const scale = (await hook(page, (h) => h.meanScale()))!;
+    expect(scale.log).toBe(true);
+    expect(await page.locator('[data-testid=legend-level]').getAttribute('data-value')).toBe('200');
+    // Log steps spread the demo's colours: the drawn mean cells use many distinct colours, not one dark one.
+    const distinct = await page.evaluate(() => {
+      const seen = new Set<string>();
+      for (const c of document.querySelectorAll<HTMLCanvasElement>('[data-testid=surface-layer] canvas')) {
+        const data = c.getContext('2d')!.getImageData(0, 0, c.width, c.height).data;
+        for (let k = 0; k < data.length; k += 4 * 7) if (data[k + 3] === 255) seen.add(`${data[k] >> 3},${data[k + 1] >> 3},${data[k + 2] >> 3}`);
+      }
+      return seen.size;
+    });
+    figures.push(`demo mean layer in log steps: ${distinct} distinct colours (5-bit) among the drawn cells`);
+    expect(distinct).toBeGreaterThan(40);
+    figures.push(`screenshot ${await shot(page, '3-surface-demo-log-1280x800')}`);
+    await page.setViewportSize({ width: 1920, height: 1080 });
+    await page.waitForTimeout(400);
+    figures.push(`screenshot ${await shot(page, '3-surface-demo-log-1920x1080')}`);
+    expectClean(d);
+    await d.context.close();
   }, LONG);
 });
