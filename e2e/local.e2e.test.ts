@@ -287,7 +287,7 @@ describe('Local coordinates in the browser', () => {
     expect(scale.log).toBe(true);
     expect(await page.locator('[data-testid=legend-level]').getAttribute('data-value')).toBe('200');
     // Log steps spread the demo's colours: the drawn mean cells use many distinct colours, not one dark one.
-    const distinct = await page.evaluate(() => {
+    const colours = () => page.evaluate(() => {
       const seen = new Set<string>();
       for (const c of document.querySelectorAll<HTMLCanvasElement>('[data-testid=surface-layer] canvas')) {
         const data = c.getContext('2d')!.getImageData(0, 0, c.width, c.height).data;
@@ -295,9 +295,20 @@ describe('Local coordinates in the browser', () => {
       }
       return seen.size;
     });
-    figures.push(`demo mean layer in log steps: ${distinct} distinct colours (5-bit) among the drawn cells`);
-    expect(distinct).toBeGreaterThan(40);
+    const distinct = await colours();
     figures.push(`screenshot ${await shot(page, '3-surface-demo-log-1280x800')}`);
+    // The same surface in even steps, for comparison: most cells crowd at the dark end.
+    await page.selectOption('#mean-colours', 'linear');
+    await page.waitForFunction(() => (window as unknown as { __gapwiseTest: { meanScale(): { log: boolean } | null } }).__gapwiseTest.meanScale()?.log === false);
+    await page.waitForSelector('[data-testid=surface-layer][data-layer=mean]', { state: 'attached', timeout: WAIT });
+    await page.waitForTimeout(500);
+    const even = await colours();
+    figures.push(`screenshot ${await shot(page, '3-surface-demo-linear-1280x800')}`);
+    figures.push(`demo mean layer: ${distinct} distinct colours (5-bit) in log steps, ${even} in even steps`);
+    expect(distinct).toBeGreaterThan(even);
+    await page.selectOption('#mean-colours', 'auto');
+    await page.waitForFunction(() => (window as unknown as { __gapwiseTest: { meanScale(): { log: boolean } | null } }).__gapwiseTest.meanScale()?.log === true);
+    await page.waitForTimeout(500);
     await page.setViewportSize({ width: 1920, height: 1080 });
     await page.waitForTimeout(400);
     figures.push(`screenshot ${await shot(page, '3-surface-demo-log-1920x1080')}`);
