@@ -61,3 +61,35 @@ export function fiveHundredCsv(): string {
   }
   return lines.join('\n') + '\n';
 }
+
+/**
+ * 40 samples on a field site grid in local coordinates (x 0–200, y 0–120, no CRS, columns x and y):
+ * an 8 × 5 layout about 25 apart, each moved a little. Every coordinate is an odd whole number, so
+ * with a 2-unit cell every sample sits on a cell centre and, under a zero-nugget model, the cell
+ * holding it has exactly its value. Values are a smooth trend plus noise (about 20–120).
+ */
+export function localGridCsv(): { text: string; values: Map<string, number> } {
+  const rnd = createRandom(20261203);
+  const lines = ['plot,x,y,phosphorus'];
+  const values = new Map<string, number>();
+  const odd = (v: number) => 2 * Math.round((v - 1) / 2) + 1;
+  for (let j = 0; j < 5; j++) {
+    for (let i = 0; i < 8; i++) {
+      const id = `P${j}${i}`;
+      const x = odd(12 + 25 * i + 8 * (rnd.uniform() - 0.5));
+      const y = odd(10 + 25 * j + 8 * (rnd.uniform() - 0.5));
+      const v = Math.round((30 + 0.3 * x + 0.25 * y + 15 * Math.sin(x / 30) + 12 * rnd.uniform()) * 10) / 10;
+      values.set(id, v);
+      lines.push(`${id},${x},${y},${v}`);
+    }
+  }
+  return { text: lines.join('\n') + '\n', values };
+}
+
+/** A boundary around the local site grid, in the same local x, y (GeoJSON in form, no CRS). */
+export function localBoundaryGeoJson(): string {
+  return JSON.stringify({
+    type: 'Feature', properties: { name: 'site fence' },
+    geometry: { type: 'Polygon', coordinates: [[[-1, -1], [203, -1], [203, 123], [100, 131], [-1, 123], [-1, -1]]] },
+  });
+}

@@ -27,7 +27,7 @@ function geometryError(fileName: string, feature: number, message: string, raw?:
   return new GapwiseError('bad-geometry', message, { file: fileName, feature, column: 'geometry', raw });
 }
 
-function readRings(coords: unknown, fileName: string, feature: number, label: string): Array<Array<[number, number]>> {
+function readRings(coords: unknown, fileName: string, feature: number, label: string, planar: boolean): Array<Array<[number, number]>> {
   if (!Array.isArray(coords) || coords.length === 0) {
     throw geometryError(fileName, feature, `Feature ${feature}: the ${label} has no rings; expected an array of closed rings.`);
   }
@@ -37,9 +37,9 @@ function readRings(coords: unknown, fileName: string, feature: number, label: st
     const pts: Array<[number, number]> = [];
     for (const p of ring) {
       if (!Array.isArray(p) || p.length < 2 || typeof p[0] !== 'number' || typeof p[1] !== 'number' || !Number.isFinite(p[0]) || !Number.isFinite(p[1])) {
-        throw geometryError(fileName, feature, `Feature ${feature}: the ${label}'s ${what} has a position that is not [longitude, latitude] numbers.`, propertyText(p).slice(0, 100));
+        throw geometryError(fileName, feature, `Feature ${feature}: the ${label}'s ${what} has a position that is not [${planar ? 'x, y' : 'longitude, latitude'}] numbers.`, propertyText(p).slice(0, 100));
       }
-      if (p[1] < -90 || p[1] > 90 || p[0] < -180 || p[0] > 180) {
+      if (!planar && (p[1] < -90 || p[1] > 90 || p[0] < -180 || p[0] > 180)) {
         throw geometryError(fileName, feature, `Feature ${feature}: the ${label}'s ${what} has the position [${p[0]}, ${p[1]}] outside longitude −180…180, latitude −90…90.`, propertyText(p));
       }
       pts.push([p[0], p[1]]);
@@ -61,15 +61,15 @@ function readRings(coords: unknown, fileName: string, feature: number, label: st
   });
 }
 
-function polygonsOf(g: unknown, fileName: string, feature: number, properties: Record<string, string>, out: Polygon[]): void {
+function polygonsOf(g: unknown, fileName: string, feature: number, properties: Record<string, string>, out: Polygon[], planar: boolean): void {
   if (!isObject(g)) throw geometryError(fileName, feature, `Feature ${feature} has no geometry; expected a Polygon or MultiPolygon.`);
   if (g.type === 'Polygon') {
-    out.push({ rings: readRings(g.coordinates, fileName, feature, 'Polygon'), feature, properties });
+    out.push({ rings: readRings(g.coordinates, fileName, feature, 'Polygon', planar), feature, properties });
   } else if (g.type === 'MultiPolygon') {
     if (!Array.isArray(g.coordinates)) throw geometryError(fileName, feature, `Feature ${feature}: the MultiPolygon has no coordinates array.`);
-    for (const c of g.coordinates) out.push({ rings: readRings(c, fileName, feature, 'MultiPolygon'), feature, properties });
+    for (const c of g.coordinates) out.push({ rings: readRings(c, fileName, feature, 'MultiPolygon', planar), feature, properties });
   } else if (g.type === 'GeometryCollection' && Array.isArray(g.geometries)) {
-    for (const sub of g.geometries) polygonsOf(sub, fileName, feature, properties, out);
+    for (const sub of g.geometries) polygonsOf(sub, fileName, feature, properties, out, planar);
     return;
   } else {
     throw geometryError(fileName, feature, `Feature ${feature} has a ${String(g.type).slice(0, 40)} geometry; expected a Polygon or MultiPolygon.`, String(g.type).slice(0, 40));
@@ -79,11 +79,13 @@ function polygonsOf(g: unknown, fileName: string, feature: number, properties: R
 }
 
 /**
- * Reads boundary or exclusion polygons (WGS 84 longitude/latitude, RFC 7946) from GeoJSON text.
+ * Reads boundary or exclusion polygons (WGS 84 longitude/latitude, RFC 7946) from GeoJSON text;
+ * with `planar`, positions are local x, y in the samples' own coordinates (no range check).
  * Throws GapwiseError 'bad-file' for text that is not JSON or not GeoJSON, and 'bad-geometry' (with
  * the feature index) for a ring that is not closed, too short, or has bad positions.
  */
-export function readPolygons(text: string, fileName: string): Polygon[] {
+export function readPolygons(text: string, fileName: string, options: { planar?: boolean } = {}): Polygon[] {
+  const planar = options.planar === true;
   const obj = parseJson(text, fileName);
   if (!isObject(obj)) throw new GapwiseError('bad-file', 'The boundary file is not a GeoJSON object; expected a Polygon, MultiPolygon, Feature or FeatureCollection.', { file: fileName });
   const out: Polygon[] = [];
@@ -91,12 +93,12 @@ export function readPolygons(text: string, fileName: string): Polygon[] {
     if (!Array.isArray(obj.features)) throw new GapwiseError('bad-file', 'The FeatureCollection has no "features" array.', { file: fileName });
     obj.features.forEach((f: unknown, i: number) => {
       if (!isObject(f) || f.type !== 'Feature') throw geometryError(fileName, i, `Feature ${i} is not a GeoJSON Feature.`);
-      polygonsOf(f.geometry, fileName, i, textProps(f.properties), out);
+      polygonsOf(f.geometry, fileName, i, textProps(f.properties), out, planar);
     });
   } else if (obj.type === 'Feature') {
-    polygonsOf(obj.geometry, fileName, 0, textProps(obj.properties), out);
+    polygonsOf(obj.geometry, fileName, 0, textProps(obj.properties), out, planar);
   } else if (obj.type === 'Polygon' || obj.type === 'MultiPolygon' || obj.type === 'GeometryCollection') {
-    polygonsOf(obj, fileName, 0, {}, out);
+    polygonsOf(obj, fileName, 0, {}, out, planar);
   } else {
     throw new GapwiseError('bad-file', `The boundary file is a ${String(obj.type).slice(0, 40)}; expected a Polygon, MultiPolygon, Feature or FeatureCollection.`, { file: fileName });
   }

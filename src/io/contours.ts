@@ -13,7 +13,9 @@
  * Where a step between neighbouring cells exceeds half the narrowest band, the field is first
  * refined bilinearly (2 to 4 points per cell), so bands stay close to tiling the area.
  * Coordinates: d3 point (x, y) of the padded field is the working-CRS point
- * (x0 + (x − 1)·cell, y0 − (y − 1)·cell); positions are rounded to 1e-7 degrees (about 1 cm).
+ * (x0 + (x − 1)·cell, y0 − (y − 1)·cell); positions are rounded to 1e-7 degrees (about 1 cm). For
+ * local coordinates with no CRS the positions stay the local x, y (rounded to 1e-6 units) and the
+ * collection says so (`coordinates: "local"`): such a file is GeoJSON in form, not RFC 7946 lon/lat.
  * Cost: O(nx·ny) per level.
  */
 import { contours as d3Contours } from 'd3-contour';
@@ -114,10 +116,16 @@ function paddedField(grid: Grid, values: ArrayLike<number>): Field {
   return { values: out, w, h };
 }
 
-/** Maps d3 points to rounded lon/lat positions. */
+/** What a local-coordinate contour file says about its positions. */
+export const LOCAL_CONTOURS_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
+
+/** Maps d3 points to rounded lon/lat positions (local x, y for local coordinates). */
 function makeProjector(grid: Grid, workCrs: string): (p: readonly number[]) => Position {
   if (workCrs === LOCAL_CRS) {
-    throw new GapwiseError('bad-crs', 'The samples have local planar coordinates with no CRS, so contours cannot be written in longitude/latitude (GeoJSON); give the samples\' CRS.');
+    return (p) => [
+      Math.round((grid.x0 + (p[0] - 1) * grid.cell) * 1e6) / 1e6,
+      Math.round((grid.y0 - (p[1] - 1) * grid.cell) * 1e6) / 1e6,
+    ];
   }
   const t = createTransform(workCrs, 'EPSG:4326');
   return (p) => {
@@ -347,6 +355,7 @@ export function surfaceContours(input: SurfaceContourInput): FeatureCollection &
     type: 'FeatureCollection',
     caution: CAUTION,
     source: { workCrs: input.workCrs, cell: input.grid.cell, unit: input.unit ?? '', threshold: input.surface.threshold ?? null },
+    ...(input.workCrs === LOCAL_CRS ? { coordinates: 'local', coordinatesNote: LOCAL_CONTOURS_NOTE } : {}),
     features,
   };
 }

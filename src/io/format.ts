@@ -81,8 +81,10 @@ export function formatCoordinate(v: number | null | undefined, kind: 'degrees' |
 }
 
 /** A distance in metres as "850 m" or "1.25 km" (3 significant digits). */
-export function formatDistance(m: number | null | undefined): string {
+export function formatDistance(m: number | null | undefined, unit = 'm'): string {
   if (m === null || m === undefined || !Number.isFinite(m)) return DASH;
+  // Lengths not known to be metres (local coordinates) keep their own unit, never "km".
+  if (unit !== 'm') return `${formatValue(m)} ${unit}`;
   return Math.abs(m) >= 1000 ? `${formatValue(m / 1000)} km` : `${formatValue(m)} m`;
 }
 

@@ -51,6 +51,8 @@ export interface GeoTiffInput {
   valueName?: string;
   /** Bands written after mean, sd (and P(exceed)): e.g. simulation results. */
   extraBands?: ReadonlyArray<{ name: string; values: ArrayLike<number> }>;
+  /** Set when mean, sd, P(exceed) are per-cell summaries of this many realisations: the bands say so. */
+  realisations?: number;
 }
 
 /** Input of the general writer (plain data). */
@@ -96,6 +98,23 @@ export function bandDescriptions(surface: GeoTiffSurfaces, unit = '', valueName 
   if (surface.pExceed) {
     const t = surface.threshold === undefined ? 'threshold' : `${formatLevel(surface.threshold)}${u ? ` ${u}` : ''}`;
     bands.push(`P(${name || 'value'} > ${t})`);
+  }
+  return bands;
+}
+
+/**
+ * Band descriptions for the per-cell summaries of `count` conditional realisations (not the kriged
+ * surface): "realisations' mean Pb (mg/kg), 100 drawn", sd, and the share above the threshold.
+ */
+export function realisationBandDescriptions(surface: GeoTiffSurfaces, count: number, unit = '', valueName = ''): string[] {
+  const u = short(unit, 16);
+  const name = short(valueName, 16);
+  const withUnit = (s: string) => (u ? `${s} (${u})` : s);
+  const drawn = `, ${count} realisations`;
+  const bands = [`${withUnit(`realisations' mean${name ? ` ${name}` : ''}`)}${drawn}`, `${withUnit(`realisations' sd${name ? ` ${name}` : ''}`)}${drawn}`];
+  if (surface.pExceed) {
+    const t = surface.threshold === undefined ? 'threshold' : `${formatLevel(surface.threshold)}${u ? ` ${u}` : ''}`;
+    bands.push(`share of realisations with ${name || 'value'} > ${t}${drawn}`);
   }
   return bands;
 }
@@ -271,10 +290,12 @@ export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
   const { surface } = input;
   const layers: ArrayLike<number>[] = [surface.mean, surface.sd];
   if (surface.pExceed) layers.push(surface.pExceed);
-  const names = bandDescriptions(surface, input.unit, input.valueName);
+  const drawn = input.realisations;
+  const names = drawn ? realisationBandDescriptions(surface, drawn, input.unit, input.valueName) : bandDescriptions(surface, input.unit, input.valueName);
   for (const extra of input.extraBands ?? []) {
     layers.push(extra.values);
     names.push(extra.name);
   }
-  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title: 'Gapwise surfaces.' });
+  const title = drawn ? `Gapwise: per-cell summaries of ${drawn} conditional realisations (not the kriged surface).` : 'Gapwise surfaces.';
+  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title });
 }

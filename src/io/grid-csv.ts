@@ -1,7 +1,7 @@
 /**
  * Surfaces as a CSV table, one row per active cell (cells outside the boundary are left out):
- * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees), mean, sd and, with a threshold,
- * p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
+ * x, y (cell centre, working CRS metres), lon, lat (WGS 84 degrees; no such columns for local
+ * coordinates with no CRS), mean, sd and, with a threshold, p_exceed, with the digits that give each value back exactly. Rows run from the top row of the grid down, west to east. The first line is a comment
  * ("# " + the screening caution, the note on text cells and what the columns are; io/csv-cells.ts
  * `csvComment`); most CSV readers skip it with a comment option (pandas `comment="#"`, R
  * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
@@ -18,6 +18,12 @@ export interface GridCsvInput {
   unit?: string;
   /** Write the "# caution" first line (default true). */
   caution?: boolean;
+  /**
+   * Set when the layers are per-cell summaries of this many conditional realisations (not the kriged
+   * surface): the columns are then realisation_mean, realisation_sd, realisation_p_exceed and the
+   * comment line says so.
+   */
+  realisations?: number;
 }
 
 /** Significant digits that give a value back exactly: 9 for Float32 surfaces, 17 for Float64. */
@@ -37,17 +43,23 @@ function fixed(v: number, decimals: number): string {
   return Number.isFinite(v) ? String(Number(v.toFixed(decimals))) : '';
 }
 
-/** The CSV text (LF line ends). Longitude and latitude are empty for local planar coordinates. */
+/** The CSV text (LF line ends). Local planar coordinates (no CRS) have no lon, lat columns. */
 export function surfaceGridCsv(input: GridCsvInput): string {
   const { grid, surface } = input;
   const { x, y, index } = cellCentres(grid);
   const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
-  const header = ['x', 'y', 'lon', 'lat', 'mean', 'sd'];
-  if (surface.pExceed) header.push('p_exceed');
+  const drawn = input.realisations;
+  const prefix = drawn ? 'realisation_' : '';
+  const header = [...(geo ? ['x', 'y', 'lon', 'lat'] : ['x', 'y']), `${prefix}mean`, `${prefix}sd`];
+  if (surface.pExceed) header.push(`${prefix}p_exceed`);
   const lines: string[] = [];
   if (input.caution !== false) {
-    const what = `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
-      + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
+    const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
+    const what = drawn
+      ? `${where}; realisation_mean, realisation_sd${input.unit ? ` in ${input.unit}` : ''}: the mean and sd over ${drawn} conditional realisations, not the kriged surface`
+        + (surface.pExceed ? `; realisation_p_exceed = share of the realisations above ${surface.threshold ?? 'the threshold'}${input.unit ? ` ${input.unit}` : ''}` : '')
+      : `${where}; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
+        + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
     lines.push(csvComment(`${CSV_CAUTION} ${what}`));
   }
   lines.push(header.join(','));
@@ -56,7 +68,7 @@ export function surfaceGridCsv(input: GridCsvInput): string {
     const k = index[c];
     const row = [
       fixed(x[c], 3), fixed(y[c], 3),
-      geo ? fixed(geo.x[c], 8) : '', geo ? fixed(geo.y[c], 8) : '',
+      ...(geo ? [fixed(geo.x[c], 8), fixed(geo.y[c], 8)] : []),
       num(surface.mean[k], dm), num(surface.sd[k], ds),
     ];
     if (surface.pExceed) row.push(num(surface.pExceed[k], dp));

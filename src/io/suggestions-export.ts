@@ -1,6 +1,7 @@
 /**
  * Suggested sample sites to files: GeoJSON (RFC 7946: a FeatureCollection of Points in WGS 84
- * longitude, latitude) and CSV. The GeoJSON carries the screening caution and the design's summary in
+ * longitude, latitude; or, for local coordinates with no CRS, Points at the local x, y with the
+ * collection saying so) and CSV. The GeoJSON carries the screening caution and the design's summary in
  * a foreign member "properties" of the collection (RFC 7946 §6.1); the CSV has no place for it, so its
  * writers show the caution beside it.
  */
@@ -21,7 +22,12 @@ export interface CsvExportOptions {
   inputY?: ArrayLike<number>;
   /** Line end (default "\n"). */
   newline?: '\n' | '\r\n';
+  /** Local coordinates with no CRS: no lon, lat columns (there are none to give). */
+  local?: boolean;
 }
+
+/** What a local-coordinate GeoJSON says about its positions (they are not RFC 7946 lon/lat). */
+export const LOCAL_COORDINATES_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
 
 /** Checks that every suggestion has WGS 84 longitude and latitude. */
 export function checkLonLat(suggestions: readonly Suggestion[]): void {
@@ -67,19 +73,25 @@ export function designSummary(design: ExportableDesign): Record<string, unknown>
   };
 }
 
+/** The summary's keys for lengths and areas not known to be metres: `_units`, `_square_units`. */
+function inCoordinateUnits(summary: Record<string, unknown>): Record<string, unknown> {
+  return Object.fromEntries(Object.entries(summary).map(([k, v]) => [k.replace(/_m2$/, '_square_units').replace(/_m$/, '_units'), v]));
+}
+
 /**
  * GeoJSON FeatureCollection (RFC 7946): one Point per suggestion at [lon, lat] with properties
  * rank, benefit, mean, sd, p_exceed; the collection's "properties" member holds the caution and the
  * summary. Throws GapwiseError 'bad-value' when a suggestion lacks lon/lat.
  */
-export function suggestionsToGeoJson(design: ExportableDesign): string {
-  checkLonLat(design.suggestions);
+export function suggestionsToGeoJson(design: ExportableDesign, options: { local?: boolean } = {}): string {
+  const local = options.local === true;
+  if (!local) checkLonLat(design.suggestions);
   const collection = {
     type: 'FeatureCollection',
-    properties: designSummary(design),
+    properties: local ? { coordinates: 'local', coordinates_note: LOCAL_COORDINATES_NOTE, ...inCoordinateUnits(designSummary(design)) } : designSummary(design),
     features: design.suggestions.map((s) => ({
       type: 'Feature',
-      geometry: { type: 'Point', coordinates: [degrees(s.lon as number), degrees(s.lat as number)] },
+      geometry: { type: 'Point', coordinates: local ? [Number(numberText(s.x)), Number(numberText(s.y))] : [degrees(s.lon as number), degrees(s.lat as number)] },
       properties: {
         rank: s.rank,
         benefit: orNull(s.benefit),
@@ -102,7 +114,8 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
   if (design.suggestions.some((s) => s.lon !== undefined || s.lat !== undefined)) checkLonLat(design.suggestions);
   const nl = options.newline ?? '\n';
   const withP = design.threshold !== null;
-  const header = ['rank', 'x', 'y', 'lon', 'lat', 'benefit', 'mean', 'sd', ...(withP ? ['p_exceed'] : [])];
+  const geo = options.local !== true;
+  const header = ['rank', 'x', 'y', ...(geo ? ['lon', 'lat'] : []), 'benefit', 'mean', 'sd', ...(withP ? ['p_exceed'] : [])];
   const { inputX, inputY } = options;
   if ((inputX && inputX.length !== design.suggestions.length) || (inputY && inputY.length !== design.suggestions.length)) {
     throw new GapwiseError('bad-value', `Expected ${design.suggestions.length} input-CRS coordinates, got ${inputX?.length ?? 0} and ${inputY?.length ?? 0}.`);
@@ -111,7 +124,7 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
   design.suggestions.forEach((s, k) => {
     const cells = [
       String(s.rank), numberText(inputX ? inputX[k] : s.x), numberText(inputY ? inputY[k] : s.y),
-      s.lon === undefined ? '' : String(degrees(s.lon)), s.lat === undefined ? '' : String(degrees(s.lat)),
+      ...(geo ? [s.lon === undefined ? '' : String(degrees(s.lon)), s.lat === undefined ? '' : String(degrees(s.lat))] : []),
       numberText(s.benefit), numberText(s.mean), numberText(s.sd),
     ];
     if (withP) cells.push(numberText(s.pExceed));

@@ -22,6 +22,12 @@ function err(f: () => unknown): GapwiseError {
 }
 
 describe('readPolygons', () => {
+  it('readPolygons with planar: local x, y beyond longitude/latitude ranges are read as given; without it they are refused', () => {
+    const text = JSON.stringify({ type: 'Polygon', coordinates: [[[0, 0], [200, 0], [200, 120], [0, 120], [0, 0]]] });
+    expect(readPolygons(text, 'site.geojson', { planar: true })[0].rings[0]).toEqual([[0, 0], [200, 0], [200, 120], [0, 120], [0, 0]]);
+    expect(() => readPolygons(text, 'site.geojson')).toThrow(/outside longitude/);
+  });
+
   it('readPolygons: bare Polygon, Feature, MultiPolygon and FeatureCollection', () => {
     expect(readPolygons(polygonText([square(0, 0, 1)]), 'b.geojson')).toHaveLength(1);
     const feature = { type: 'Feature', properties: { name: '<b>yard</b>' }, geometry: { type: 'Polygon', coordinates: [square(0, 0, 1)] } };

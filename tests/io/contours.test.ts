@@ -3,11 +3,10 @@
 // geojson-validation, orientation by the right-hand rule of RFC 7946 §3.1.6.
 import { describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
-import type { Position } from 'geojson';
+import type { MultiLineString, Position } from 'geojson';
 import { contourFeatures, contourLevels, surfaceContours, PROBABILITY_LEVELS } from '../../src/io/contours.ts';
 import { createTransform } from '../../src/io/crs.ts';
 import { CAUTION } from '../../src/core/caution.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
 import type { Grid } from '../../src/core/grid.ts';
 
 const WORK = 'EPSG:32633';
@@ -93,8 +92,19 @@ describe('contourFeatures', () => {
     expect(bands.map((b) => [b.properties.min, b.properties.max])).toEqual([[null, 0.1], [0.1, 0.25], [0.25, 0.5], [0.5, 0.75], [0.75, 0.9], [0.9, null]]);
   });
 
-  it('contourFeatures throws for a grid in local coordinates (GeoJSON needs longitude/latitude)', () => {
-    expect(() => contourFeatures({ grid, values: new Float64Array(200), surface: 'mean', workCrs: 'local' })).toThrow(GapwiseError);
+  it('contourFeatures keeps local x, y for a grid in local coordinates, and surfaceContours says they are local', () => {
+    const values = linearField(grid, (i) => i);
+    const f = contourFeatures({ grid, values, surface: 'mean', workCrs: 'local', levels: [4.5] });
+    const line = f.find((x) => x.properties.kind === 'isoline')!.geometry as MultiLineString;
+    // Level 4.5 lies halfway between the centres of columns 4 and 5: x = x0 + 5·cell (invariant: linear field).
+    for (const part of line.coordinates) for (const [x, y] of part) {
+      expect(x).toBeCloseTo(grid.x0 + 5 * grid.cell, 6);
+      expect(y).toBeLessThanOrEqual(grid.y0);
+      expect(y).toBeGreaterThanOrEqual(grid.y0 - grid.ny * grid.cell);
+    }
+    const fc = surfaceContours({ grid, surface: { mean: values }, workCrs: 'local' }) as unknown as Record<string, unknown>;
+    expect(fc.coordinates).toBe('local');
+    expect(String(fc.coordinatesNote)).toMatch(/not longitude\/latitude/);
   });
 });
 

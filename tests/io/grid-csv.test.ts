@@ -33,13 +33,15 @@ describe('surfaceGridCsv', () => {
   it('surfaceGridCsv leaves out p_exceed without a threshold, the comment on request, and lon/lat for local coordinates', () => {
     const text = surfaceGridCsv({ grid, surface: { mean, sd }, workCrs: 'local', caution: false });
     const lines = text.trimEnd().split('\n');
-    expect(lines[0]).toBe('x,y,lon,lat,mean,sd');
-    expect(lines[1]).toBe('500015,5400025,,,1.10000002,0.100000001');
+    expect(lines[0]).toBe('x,y,mean,sd');
+    expect(lines[1]).toBe('500015,5400025,1.10000002,0.100000001');
+    // The comment line says the positions are local, not in a coordinate system.
+    expect(surfaceGridCsv({ grid, surface: { mean, sd }, workCrs: 'local' }).split('\n')[0]).toMatch(/local coordinates \(no coordinate system\)/);
   });
 
   it('surfaceGridCsv writes Float64 values with the shortest text that reads back exactly', () => {
     const text = surfaceGridCsv({ grid: { x0: 0, y0: 10, cell: 10, nx: 1, ny: 1 }, surface: { mean: Float64Array.of(1 / 3), sd: Float64Array.of(2 / 3) }, workCrs: 'local', caution: false });
-    expect(text).toBe('x,y,lon,lat,mean,sd\n5,5,,,0.3333333333333333,0.6666666666666666\n');
+    expect(text).toBe('x,y,mean,sd\n5,5,0.3333333333333333,0.6666666666666666\n');
   });
 });
 

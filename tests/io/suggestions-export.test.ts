@@ -21,6 +21,22 @@ function design(overrides: Partial<ExportableDesign> = {}): ExportableDesign {
 }
 
 describe('suggestionsToGeoJson', () => {
+  it('suggestionsToGeoJson with local coordinates writes x, y positions, says they are local, and no metres in its keys', () => {
+    const local = design({ suggestions: design().suggestions.map((s) => ({ ...s, lon: undefined, lat: undefined, x: s.x - 500000, y: s.y - 5400000 })) });
+    const obj = JSON.parse(suggestionsToGeoJson(local, { local: true }));
+    expect(obj.features[0].geometry).toEqual({ type: 'Point', coordinates: [10.25, 20.5] });
+    expect(obj.properties.coordinates).toBe('local');
+    expect(obj.properties.coordinates_note).toMatch(/not longitude\/latitude/);
+    expect(obj.properties.caution).toBe(CAUTION);
+    expect(obj.properties).toMatchObject({ misclassified_area_before_square_units: 5200, area_decided_square_units: 1100 });
+    expect(Object.keys(obj.properties).filter((k) => /_m2?$/.test(k))).toEqual([]);
+    // Without `local`, a suggestion with no lon/lat is refused.
+    expect(() => suggestionsToGeoJson(local)).toThrow(/longitude/);
+    const csv = suggestionsToCsv(local, { local: true }).split('\n');
+    expect(csv[0]).toBe('rank,x,y,benefit,mean,sd,p_exceed');
+    expect(csv[1]).toBe('1,10.25,20.5,512.25,180.5,35.1,0.29');
+  });
+
   it('suggestionsToGeoJson writes a FeatureCollection that geojson-validation accepts, in lon/lat order', () => {
     const text = suggestionsToGeoJson(design());
     const obj = JSON.parse(text);

@@ -24,6 +24,10 @@ export interface LegendOptions {
   ticks?: number;
   /** Draw this many equal classes instead of a continuous bar. */
   classes?: number;
+  /** Colours spaced by ln(value) (skewed data; needs a domain above 0). */
+  log?: boolean;
+  /** Mark the action level (`threshold`) on a mean legend's bar; pExceed legends name it in a line. */
+  markThreshold?: boolean;
 }
 
 export interface LegendTick {
@@ -50,6 +54,25 @@ export interface LegendData {
   gradient: { t: number; colour: string }[];
   ticks: LegendTick[];
   classes?: LegendClass[];
+  /** True when colours are spaced by ln(value). */
+  log: boolean;
+  /** The action level on the bar (mean legend), when it lies inside the domain. */
+  mark?: { t: number; value: number; label: string };
+  /** A line naming the action level (pExceed legend, or a mean legend whose domain leaves it out). */
+  note?: string;
+}
+
+/** Ticks for a log colour scale: 1, 2 and 5 × 10^k inside [min, max] (every decade when there are many). */
+export function logScaleTicks(min: number, max: number): number[] {
+  if (!(min > 0) || !(max > min)) return [];
+  const out: number[] = [];
+  for (let e = Math.floor(Math.log10(min)); e <= Math.ceil(Math.log10(max)); e++) {
+    for (const m of [1, 2, 5]) {
+      const v = Number((m * 10 ** e).toPrecision(12));
+      if (v >= min * (1 - 1e-12) && v <= max * (1 + 1e-12)) out.push(v);
+    }
+  }
+  return out.length > 7 ? out.filter((v) => Number(v.toPrecision(1)) === 10 ** Math.round(Math.log10(v))) : out;
 }
 
 const DEFAULT_SCALE: Record<LegendKind, ScaleName> = { mean: 'loam', sd: 'haze', pExceed: 'tide' };
@@ -112,18 +135,35 @@ export function legendData(options: LegendOptions): LegendData {
   const unit = options.unit ?? '';
   const [lo, hi] = domain;
   const span = hi - lo;
-  const position = (v: number) => (span > 0 ? (v - lo) / span : 0.5);
+  const log = options.log === true && kind !== 'pExceed' && lo > 0 && hi > lo;
+  const position = log
+    ? (v: number) => (Math.log(v) - Math.log(lo)) / (Math.log(hi) - Math.log(lo))
+    : (v: number) => (span > 0 ? (v - lo) / span : 0.5);
   const gradient = Array.from({ length: 11 }, (_, k) => ({ t: k / 10, colour: hex(colourAt(scale, k / 10)) }));
 
-  const values = kind === 'pExceed' && lo === 0 && hi === 1 ? [0, 0.25, 0.5, 0.75, 1] : niceTicks(lo, hi, options.ticks ?? 5);
+  const logValues = log ? logScaleTicks(lo, hi) : [];
+  const values = kind === 'pExceed' && lo === 0 && hi === 1 ? [0, 0.25, 0.5, 0.75, 1]
+    : logValues.length >= 2 ? logValues : niceTicks(lo, hi, options.ticks ?? 5);
   const step = values.length > 1 ? values[1] - values[0] : Math.abs(lo) / 100 || 1;
+  // Log ticks (1, 2, 5 × 10^k) are not evenly spaced: each takes the decimals its own size needs.
   const ticks = values.map((value) => ({
     t: position(value),
     value,
-    label: kind === 'pExceed' ? percent(value, step) : formatValue(value, step),
+    label: kind === 'pExceed' ? percent(value, step) : formatValue(value, logValues.length >= 2 ? value : step),
   }));
 
-  const data: LegendData = { kind, title: options.title ?? titleFor(options, unit), unit, scale, domain: [lo, hi], gradient, ticks };
+  const data: LegendData = { kind, title: options.title ?? titleFor(options, unit), unit, scale, domain: [lo, hi], gradient, ticks, log };
+  const level = options.threshold;
+  if (options.markThreshold && level !== undefined && Number.isFinite(level)) {
+    const levelText = `${String(Number(level.toPrecision(6))).replace('-', '−')}${unit ? ` ${unit}` : ''}`;
+    if (kind === 'pExceed') {
+      data.note = `Action level ${levelText}: colours give the chance that the value there is above it.`;
+    } else if (kind === 'mean' && level >= lo && level <= hi && (!log || level > 0)) {
+      data.mark = { t: position(level), value: level, label: `action level ${levelText}` };
+    } else if (kind === 'mean') {
+      data.note = `Action level ${levelText}: ${level < lo ? 'below' : 'above'} every value shown.`;
+    }
+  }
   if (options.classes !== undefined) {
     const n = options.classes;
     if (!Number.isInteger(n) || n < 1) throw new RangeError(`Expected at least 1 legend class, got ${n}.`);

@@ -42,6 +42,8 @@ export interface SurfaceLayerOptions extends L.GridLayerOptions {
   domain?: [number, number];
   /** Lattice spacing in pixels (smaller = more projections per tile). */
   latticeStep?: number;
+  /** Colours spaced by ln(value) (skewed data); the domain must be above 0. */
+  log?: boolean;
 }
 
 const DEFAULTS: SurfaceLayerOptions = {
@@ -53,6 +55,7 @@ const DEFAULTS: SurfaceLayerOptions = {
   scale: 'loam',
   domain: [0, 1],
   latticeStep: 16,
+  log: false,
   opacity: 0.8,
   className: 'gapwise-surface',
   updateWhenZooming: false,
@@ -80,6 +83,8 @@ export interface SurfaceProbe {
   domain: [number, number];
   scale: ScaleName;
   opacity: number;
+  /** True when colours are spaced by ln(value). */
+  log: boolean;
 }
 
 /** The cursor readout: the value (mean, sd or probability) and the sd of the cell under a point. */
@@ -133,7 +138,7 @@ export class SurfaceLayer extends L.GridLayer {
     return {
       value: c.value, sd: c.sd, centreX: rect.left + px, centreY: rect.top + py,
       domain: [...(this.options.domain ?? [0, 1])] as [number, number], scale: this.options.scale ?? 'loam',
-      opacity: this.options.opacity ?? 1,
+      opacity: this.options.opacity ?? 1, log: this.options.log === true,
     };
   }
 
@@ -177,7 +182,7 @@ export class SurfaceLayer extends L.GridLayer {
       if (!ctx) return;
       this.contexts.set(canvas, ctx);
     }
-    const { grid, values, sd, hideAboveSd, domain } = this.options;
+    const { grid, values, sd, hideAboveSd, domain, log } = this.options;
     if (!lattice || !grid || !values) {
       ctx.clearRect(0, 0, canvas.width, canvas.height);
       return;
@@ -187,7 +192,7 @@ export class SurfaceLayer extends L.GridLayer {
       image = ctx.createImageData(canvas.width, canvas.height);
       this.images.set(canvas, image);
     }
-    paintTile(lattice, { grid, values, sd, hideAboveSd, lut: this.lut, domain: domain ?? [0, 1] }, image.data);
+    paintTile(lattice, { grid, values, sd, hideAboveSd, lut: this.lut, domain: domain ?? [0, 1], log }, image.data);
     ctx.putImageData(image, 0, 0);
   }
 
@@ -242,11 +247,12 @@ export class SurfaceLayer extends L.GridLayer {
     return this.repaint();
   }
 
-  /** Colour scale and, optionally, the values at its two ends. */
-  setScale(scale: ScaleName, domain?: [number, number]): this {
+  /** Colour scale and, optionally, the values at its two ends and whether colours follow ln(value). */
+  setScale(scale: ScaleName, domain?: [number, number], log?: boolean): this {
     this.options.scale = scale;
     this.lut = buildLut(scale);
     if (domain) this.options.domain = domain;
+    if (log !== undefined) this.options.log = log;
     return this.repaint();
   }
 

@@ -102,6 +102,8 @@ export interface PaintSource {
   /** Per-cell sd; with hideAboveSd, cells whose sd is above it are left transparent. */
   sd?: ArrayLike<number> | null;
   hideAboveSd?: number | null;
+  /** Colours spaced by ln(value) between the domain's ends (both above 0); values ≤ 0 take the first colour. */
+  log?: boolean;
 }
 
 /**
@@ -116,8 +118,9 @@ export function paintTile(lattice: TileLattice, source: PaintSource, out: Uint8C
   const sd = source.sd;
   const hide = sd && source.hideAboveSd != null && Number.isFinite(source.hideAboveSd) ? source.hideAboveSd : Infinity;
   const entries = lut.length / 4;
-  const lo = domain[0];
-  const span = domain[1] - domain[0];
+  const log = source.log === true && domain[0] > 0 && domain[1] > domain[0];
+  const lo = log ? Math.log(domain[0]) : domain[0];
+  const span = log ? Math.log(domain[1]) - lo : domain[1] - domain[0];
   const scale = span > 0 ? (entries - 1) / span : 0;
   const mid = span > 0 ? 0 : (entries - 1) / 2;
   let painted = 0;
@@ -152,7 +155,7 @@ export function paintTile(lattice: TileLattice, source: PaintSource, out: Uint8C
               const cellIndex = j * nx + i;
               const value = values[cellIndex];
               if ((!mask || mask[cellIndex] === 1) && value === value && !(sd && sd[cellIndex] > hide)) {
-                let e = span > 0 ? Math.round((value - lo) * scale) : mid;
+                let e = span > 0 ? Math.round(((log ? (value > 0 ? Math.log(value) : -Infinity) : value) - lo) * scale) : mid;
                 if (e < 0) e = 0;
                 else if (e > entries - 1) e = entries - 1;
                 const l = 4 * Math.round(e);

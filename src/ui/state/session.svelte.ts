@@ -118,12 +118,18 @@ export function showError(e: unknown): ShownError {
   return { message: String(e) };
 }
 
-/** Sample positions for the map (WGS 84), aligned with intake.rows and intake.samples. */
+/**
+ * Sample positions for the map, aligned with intake.rows and intake.samples: WGS 84 longitude and
+ * latitude, or for local coordinates (no CRS) the working x (in `lon`) and y (in `lat`), drawn on a
+ * plain planar map.
+ */
 export interface SamplePlaces {
   lon: Float64Array;
   lat: Float64Array;
-  /** False when the CRS is unknown (local planar): the samples cannot be placed on the map. */
+  /** True when the samples can be drawn (always, now that local coordinates have a planar map). */
   placed: boolean;
+  /** True for local coordinates with no CRS: lon/lat hold x/y and the map is planar. */
+  planar: boolean;
 }
 
 export class Session {
@@ -391,6 +397,17 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
+  /** Colours of the mean layer: 'auto' spaces them by ln(value) for log models, evenly otherwise. */
+  meanColours = $state<'auto' | 'linear' | 'log'>('auto');
+
+  /** True when the mean layer's colours are spaced by ln(value). */
+  get logColours(): boolean {
+    const positive = (this.intake?.report.summary.min ?? 0) > 0;
+    return positive && (this.meanColours === 'log' || (this.meanColours === 'auto' && this.s.samples.transform === 'log'));
+  }
+
+  /** The kriged surface kept while the map shows the realisations' layers in its place (exportSurface). */
+  kriged = $state.raw<SurfaceView | null>(null);
 
   /** Support of the next surface: point values at cell centres, or cell (block) averages (saved). */
   get support(): 'point' | 'block' {
@@ -591,11 +608,19 @@ export class Session {
       result.threshold = r.threshold;
       result.range.pExceed = rangeOf(result.pExceed);
     }
+    if (this.surface && !this.surface.fromSimulation) this.kriged = this.surface;
     this.surface = {
       grid: sim.grid, result, work: intake.report.crs.work, threshold: r.threshold ?? null, key: sim.base,
       bands: (this.surface?.bands ?? 0) + 1, done: true, support: r.support, points: r.points, local: null, fromSimulation: r.count,
     };
     if (result.pExceed) this.s.surface.layer = 'exceed';
+  }
+
+  /** Puts the kept kriged surface back on the map in place of the realisations' layers. */
+  showKriged(): void {
+    const k = this.kriged;
+    if (!k || !this.surface?.fromSimulation) return;
+    this.surface = { ...k, bands: this.surface.bands + 1 };
   }
 
   /** True when realisations were drawn for other inputs (model, grid, threshold, support) than the current ones. */
@@ -636,6 +661,38 @@ export class Session {
 
   get valueName(): string {
     return this.intake?.report.valueColumn ?? '';
+  }
+
+  /** True for local coordinates with no CRS (site grids, trial plots): a planar map, no lon/lat. */
+  get planar(): boolean {
+    const crs = this.intake?.report.crs;
+    return !!crs && (crs.work === LOCAL_CRS || crs.input === LOCAL_CRS);
+  }
+
+  /** True when distances are known to be metres: a real CRS, or local coordinates the user says are metres. */
+  get metres(): boolean {
+    return !this.planar || this.s.samples.localMetres === true;
+  }
+
+  /** The length unit to print beside distances: "m", or "coordinate units" for local coordinates. */
+  get lengthUnit(): string {
+    return this.metres ? 'm' : 'coordinate units';
+  }
+
+  /** The area unit: "m²", or "square coordinate units". */
+  get areaUnit(): string {
+    return this.metres ? 'm²' : 'square coordinate units';
+  }
+
+  /**
+   * The kriged surface for exports: the surface on the map, or while the map shows the realisations'
+   * layers, the kriged surface they replaced (null when there is none for the current inputs).
+   */
+  get exportSurface(): SurfaceView | null {
+    const sv = this.surface;
+    if (!sv?.fromSimulation) return sv;
+    const k = this.kriged;
+    return k && k.key === sv.key ? k : null;
   }
 
   get invented(): boolean {
@@ -821,6 +878,7 @@ export class Session {
     this.simulation = null;
     this.simTask = idleTask();
     this.surface = null;
+    this.kriged = null;
     this.surfaceTask = idleTask();
     this.onSamplesChanged?.();
   }
@@ -993,10 +1051,10 @@ export class Session {
 
   /** Boundary polygons of a file in WGS 84 and in the working CRS of the samples read. */
   private polygonsOf(b: SourceFile): { lonLat: Polygon[]; work: Polygon[] } {
-    const lonLat = readPolygons(b.text, b.fileName);
-    const work = this.intake && this.intake.report.crs.work !== LOCAL_CRS
-      ? projectPolygons(lonLat, this.intake.report.crs.work)
-      : [];
+    // Local coordinates: the boundary is read in the samples' own x, y (lonLat then holds x, y too).
+    const local = this.planar;
+    const lonLat = readPolygons(b.text, b.fileName, local ? { planar: true } : undefined);
+    const work = !this.intake ? [] : local ? lonLat : projectPolygons(lonLat, this.intake.report.crs.work);
     return { lonLat, work };
   }
 
@@ -1082,9 +1140,9 @@ export function placesOf(result: IntakeResult): SamplePlaces {
   const { samples, report } = result;
   const n = samples.x.length;
   if (report.crs.work === LOCAL_CRS || report.crs.input === LOCAL_CRS) {
-    return { lon: new Float64Array(n), lat: new Float64Array(n), placed: false };
+    return { lon: Float64Array.from(samples.x), lat: Float64Array.from(samples.y), placed: true, planar: true };
   }
   const t = createTransform(report.crs.work, 'EPSG:4326');
   const { x, y } = t.forwardMany(samples.x, samples.y);
-  return { lon: x, lat: y, placed: true };
+  return { lon: x, lat: y, placed: true, planar: false };
 }

@@ -34,6 +34,8 @@ export interface SampleChoices {
   /** The unit shown beside values; '' uses the unit read from the header. */
   unit: string;
   transform: 'none' | 'log';
+  /** Local coordinates (no CRS) that the user says are metres; otherwise they are "coordinate units". */
+  localMetres?: boolean;
 }
 
 export interface StructureChoices {
@@ -204,6 +206,7 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       nonDetect: s.nonDetect === undefined ? undefined : nonDetect,
       unit: str(s.unit, ''),
       transform: oneOf(s.transform, ['none', 'log'] as const, 'none'),
+      ...(s.localMetres === true ? { localMetres: true } : {}),
     },
     structure: {
       lagWidth: num(st.lagWidth, 0, 0),

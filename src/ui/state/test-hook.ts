@@ -14,6 +14,8 @@ export interface TestHook {
   engineRequests(): Record<string, number>;
   /** Figures of the session's state (see Session.digest), to compare before and after a reload. */
   sessionDigest(): Record<string, unknown>;
+  /** On a planar map (local coordinates): the length unit, the grid lines drawn and the scale bar's length. */
+  planarView(): { unit: string; lines: { x: number[]; y: number[] } | null; scale: number } | null;
 }
 
 export function testHookEnabled(): boolean {

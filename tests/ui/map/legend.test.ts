@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { formatValue, legendData, legendSvg, niceTicks } from '../../../src/ui/map/legend.ts';
+import { formatValue, legendData, legendSvg, logScaleTicks, niceTicks } from '../../../src/ui/map/legend.ts';
 import { escapeText } from '../../../src/io/markup.ts';
 import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
 
@@ -88,5 +88,26 @@ describe('legendSvg', () => {
 
   it('escapeText replaces the five XML specials', () => {
     expect(escapeText(`<a href="x">'&'</a>`)).toBe('&lt;a href=&quot;x&quot;&gt;&#39;&amp;&#39;&lt;/a&gt;');
+  });
+});
+
+describe('legendData with log colours and the action level', () => {
+  it('legendData log: ticks 1, 2, 5 × 10^k placed by ln(value); the action level marked on the mean bar', () => {
+    const d = legendData({ kind: 'mean', domain: [10, 1000], unit: 'mg/kg', log: true, threshold: 200, markThreshold: true });
+    expect(d.log).toBe(true);
+    expect(d.ticks.map((t) => t.value)).toEqual([10, 20, 50, 100, 200, 500, 1000]);
+    expect(d.ticks.find((t) => t.value === 100)!.t).toBeCloseTo(0.5, 12); // ln-midpoint of 10 and 1000
+    expect(d.mark!.t).toBeCloseTo(Math.log(20) / Math.log(100), 12);
+    expect(d.mark!.label).toBe('action level 200 mg/kg');
+    expect(logScaleTicks(0.5, 3)).toEqual([0.5, 1, 2]);
+  });
+
+  it('legendData names the action level in a line for exceedance, and when it lies outside the mean domain', () => {
+    expect(legendData({ kind: 'pExceed', unit: 'mg/kg', threshold: 200, markThreshold: true, classes: 5 }).note).toMatch(/^Action level 200 mg\/kg/);
+    const d = legendData({ kind: 'mean', domain: [10, 100], threshold: 200, markThreshold: true });
+    expect(d.mark).toBeUndefined();
+    expect(d.note).toMatch(/above every value shown/);
+    // Linear by default: 55 sits halfway.
+    expect(legendData({ kind: 'mean', domain: [10, 100], threshold: 55, markThreshold: true }).mark!.t).toBeCloseTo(0.5, 12);
   });
 });

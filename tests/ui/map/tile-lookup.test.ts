@@ -131,6 +131,17 @@ describe('paintTile', () => {
     expect(at(out, 6, 3)).toEqual([...colourAt('loam', 1), 255]);
     expect(at(out, 0, 0)).toEqual([...colourAt('loam', 0), 255]);
   });
+
+  it('paintTile with log spaces colours by ln(value): 3 halfway in ln between 1 and 9; 0 takes the first colour', () => {
+    const out = new Uint8ClampedArray(10 * 6 * 4);
+    paintTile(lattice, { grid: g, values, lut, domain: [1, 9], log: true }, out);
+    // ln 3 = (ln 1 + ln 9) / 2 exactly; linear colours would put 3 at t = 0.25.
+    // Entry 127.5 of 0…255: either neighbour (rounding of ln 3 / ln 9 · 255).
+    expect([lutColour(127 / 255), lutColour(128 / 255)]).toContainEqual(at(out, 7, 1)); // cell 3, value 3
+    expect(at(out, 7, 1)).not.toEqual(lutColour(2 / 8)); // not where linear colours put it
+    expect(at(out, 0, 0)).toEqual([...colourAt('loam', 0), 255]); // cell 0, value 0
+    expect(at(out, 1, 5)).toEqual(lutColour(Math.log(8) / Math.log(9))); // cell 8, value 8
+  });
 });
 
 describe('readCell', () => {
