@@ -54,7 +54,7 @@ describe('surfaceGridCsv with hostile text', () => {
     expect(lines[0]).toContain(FORMULA_NOTE);
     for (const piece of lines[0].split(',').slice(1)) expect(piece).not.toMatch(/^(?: *[=+\-@]|[\t\r])/);
     expect(lines[0]).not.toContain('"');
-    // Numbers, negative ones included, stay numbers.
-    expect(lines[2]).toBe('5,5,,,-2.5,1,0.5');
+    // Numbers, negative ones included, stay numbers (local coordinates: no lon, lat columns).
+    expect(lines[2]).toBe('5,5,-2.5,1,0.5');
   });
 });
