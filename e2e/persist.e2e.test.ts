@@ -139,7 +139,7 @@ describe('Reload and failed loads', () => {
     for (const id of ['samples', 'structure', 'surface', 'next']) expect(await stepDone(page, id), `step ${id} marked done`).toBe(true);
     await openStep(page, 'structure');
     expect(await page.locator('[data-testid=candidate-table]').getAttribute('data-fit-status')).toBe('done');
-    expect(await page.locator('[data-testid=candidate-table] tbody tr').count()).toBe(7);
+    expect(await page.locator('[data-testid=candidate-table] tbody tr').count()).toBe(6);
     await openStep(page, 'surface');
     expect(await page.locator('[data-testid=sim-seed-used]').innerText()).toBe('5');
     expect(await page.locator('[data-testid=realisation-canvas]').count()).toBe(4);
@@ -235,7 +235,7 @@ describe('Main thread (figures only)', () => {
       await openStep(page, 'structure');
       await page.waitForSelector('[data-testid=variogram-chart]', { timeout: WAIT });
     });
-    await step('fit (WLS, 7 candidates)', async () => {
+    await step('fit (WLS, 6 candidates)', async () => {
       await page.selectOption('#fit-method', 'wls');
       await page.click('[data-testid=fit-button]');
       await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });

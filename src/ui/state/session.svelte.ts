@@ -748,7 +748,8 @@ export class Session {
         : null,
       cv: this.cv && this.cvFor ? { key: this.cvFor, result: this.cv } : null,
       surface,
-      rate: this.rate ?? null,
+      // A $state object is a proxy, which IndexedDB cannot clone: store a plain copy.
+      rate: this.rate ? $state.snapshot(this.rate) : null,
       simulation: this.simulation,
       simRate: this.simRate,
       suggestions: design ? { result: design, options: suggestions.options } : null,
