@@ -10,16 +10,7 @@ import { suggestSites, MAX_DESIGN_POINTS } from '../../src/core/design.ts';
 import { gridFromExtent } from '../../src/core/grid.ts';
 import { parseModel } from '../../src/core/model.ts';
 import { openProject } from '../../src/io/project.ts';
-
-function thrown(f: () => unknown): GapwiseError {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof GapwiseError) return e;
-    throw e;
-  }
-  throw new Error('expected a GapwiseError');
-}
+import { thrown } from '../helpers/thrown.ts';
 
 // Sixteen samples on a 4 × 4 lattice 10 m apart (largest distance 42.43 m).
 const x: number[] = [], y: number[] = [], value: number[] = [];

@@ -8,16 +8,7 @@ import { createLocalPredictor } from '../../src/core/local-kriging.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
 import { computeSurface } from '../../src/core/surface.ts';
 import { gridFromExtent } from '../../src/core/grid.ts';
-
-function thrown(f: () => unknown): GapwiseError {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof GapwiseError) return e;
-    throw e;
-  }
-  throw new Error('expected a GapwiseError');
-}
+import { thrown } from '../helpers/thrown.ts';
 
 // Twelve samples on a 3 × 4 lattice, 10 m apart, values about 20 ± 5.
 const samples = (() => {

@@ -4,16 +4,7 @@ import { createPredictor } from '../../src/core/kriging.ts';
 import { fitModel } from '../../src/core/fit.ts';
 import { GapwiseError } from '../../src/core/errors.ts';
 import { parseModel } from '../../src/core/model.ts';
-
-function thrown(f: () => unknown): GapwiseError {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof GapwiseError) return e;
-    throw e;
-  }
-  throw new Error('expected a GapwiseError');
-}
+import { thrown } from '../helpers/thrown.ts';
 
 // Ten samples along a bent line, 10 m apart, values about 5 ± 2.
 const x = Float64Array.from({ length: 10 }, (_, i) => 10 * i);

@@ -659,6 +659,27 @@ export class Session {
     return this.s.samples.unit || this.intake?.report.unit || '';
   }
 
+  /** Unit of semivariances, nugget and sill: the data unit squared, or ln units for a log model. */
+  get semivarianceUnit(): string {
+    if (this.s.samples.transform === 'log') return '(ln units)²';
+    return this.unit ? `(${this.unit})²` : '';
+  }
+
+  /** The fitted candidates other than the chosen one, as curves to draw over the variogram. */
+  get comparisonCurves(): Array<{ key: string; label: string; model: CovarianceModel }> {
+    const chosen = this.s.structure.chosen;
+    return this.candidates
+      .filter((r) => r.model && r.key !== chosen)
+      .map((r) => ({ key: r.key, label: r.label, model: r.model! }));
+  }
+
+  /** The sample values on the scale the cross-validation worked on (ln values for a log model). */
+  get cvObserved(): Float64Array {
+    const values = this.intake?.samples.value;
+    if (!values) return new Float64Array(0);
+    return this.cv?.scale === 'log' ? Float64Array.from(values, Math.log) : values;
+  }
+
   get valueName(): string {
     return this.intake?.report.valueColumn ?? '';
   }
