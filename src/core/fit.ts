@@ -207,27 +207,35 @@ function newtonBudget(d: number): number {
 /**
  * Counts likelihood evaluations for a progress callback, against the budget still ahead: the rest
  * of the current stage's budget, the budgets of the stages after it and the final evaluation. A
- * stage that ends early (converged) gives its unused budget back, so the total only shrinks and
- * done/total only grows; `finish` counts the final evaluation and reports done = total.
+ * stage that ends early (converged) or is skipped gives its unused budget back, and `cap` only
+ * lowers budgets of later stages, so the total only shrinks and done/total only grows; `finish`
+ * counts the final evaluation and reports done = total. `goTo(k)` starts stage k (k only grows).
  */
-function evaluationCounter(onProgress: FitProgress, budgets: number[]) {
+function evaluationCounter(onProgress: FitProgress, budgetsIn: number[]) {
+  const budgets = budgetsIn.slice();
   let done = 0;
-  let stage = -1;
-  let stageEnd = 0;
-  let later = budgets.reduce((a, b) => a + b, 0);
-  const next = () => {
-    stage++;
-    const b = budgets[stage] ?? 0;
-    later -= b;
-    stageEnd = done + b;
-  };
-  next();
+  let stage = 0;
+  let stageEnd = budgets[0] ?? 0;
+  let later = budgets.reduce((a, b) => a + b, 0) - (budgets[0] ?? 0);
   return {
     tick: () => {
       done++;
       onProgress(done, done + Math.max(0, stageEnd - done) + later + 1);
     },
-    next,
+    goTo: (k: number) => {
+      for (let i = stage + 1; i <= k && i < budgets.length; i++) later -= budgets[i];
+      stage = k;
+      stageEnd = done + (budgets[k] ?? 0);
+    },
+    /** Lowers the budgets of stages `from` to `to` not yet started to at most `max`. */
+    cap: (from: number, to: number, max: number) => {
+      for (let i = Math.max(from, stage + 1); i <= to && i < budgets.length; i++) {
+        if (budgets[i] > max) {
+          later -= budgets[i] - max;
+          budgets[i] = max;
+        }
+      }
+    },
     finish: () => {
       done++;
       onProgress(done, done);
@@ -300,8 +308,11 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
   // Stages, in order: starts grid, optimiser runs from the best starts, then when screening the
   // ranking on the next stage, the nearest-neighbour run and Newton steps, and the last run.
   const starts = Math.min(r.starts, scales.length * etas.length * nus.length);
+  // Stage 0 the grid, 1..starts the optimiser runs (after the first, the others are expected to
+  // take at most twice its evaluations), then the screening stages from RANK on.
+  const RANK = starts + 1;
   const counter = onProgress ? evaluationCounter(onProgress, [
-    scales.length * etas.length * nus.length, starts * (maxEvaluations ?? 150 * d),
+    scales.length * etas.length * nus.length, ...new Array<number>(starts).fill(maxEvaluations ?? 150 * d),
     ...(screening ? [starts, near ? maxEvaluations ?? 80 * d : 0, near ? newtonBudget(d) : 0, maxEvaluations ?? 80 * d] : []),
   ]) : undefined;
   const tick = counter?.tick;
@@ -328,10 +339,10 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
   // a few per cent of its standard error), relative to its size.
   const fTolerance = (scaleOf: number) => 1e-3 / Math.max(1, Math.abs(scaleOf));
 
-  counter?.next();
   const candidates: { x: number[]; value: number; converged: boolean }[] = [];
   for (const start of grid.slice(0, r.starts)) {
     if (!Number.isFinite(start.value)) break;
+    counter?.goTo(candidates.length + 1);
     const res = minimizeBounded(fScreen, start.x, L.spaces, {
       step: 0.7, restarts: screening ? 0 : 1, xTolerance: screening ? 0.1 : 0.01,
       fTolerance: screening ? 1e-2 / Math.max(1, Math.abs(start.value)) : fTolerance(start.value), maxEvaluations: maxEvaluations ?? 150 * d,
@@ -340,6 +351,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
     if (screening) screenEvaluations += res.evaluations;
     else evaluations += res.evaluations;
     candidates.push({ x: res.x, value: res.value, converged: res.converged });
+    if (candidates.length === 1) counter?.cap(2, starts, 2 * res.evaluations);
   }
 
   let best: { x: number[]; value: number; converged: boolean } | undefined;
@@ -351,7 +363,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
     // optima are polished on all samples directly.
     const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
     const fStage = nearLik ? negLogLik(nearLik, L, allowJitter, tick) : fFull;
-    counter?.next();
+    counter?.goTo(RANK);
     // Rank the screened optima on the next stage, then polish the best there.
     let top = { x: candidates[0].x, value: Infinity };
     for (const c of candidates) {
@@ -362,24 +374,22 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
     }
     if (!Number.isFinite(top.value)) top = { x: grid[0].x, value: fStage(grid[0].x) };
     let step = 0.2;
-    counter?.next();
+    counter?.goTo(RANK + 1);
     if (nearLik) {
       const res = minimizeBounded(fStage, top.x, L.spaces, {
         step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
       });
       iterations += res.iterations;
       screenEvaluations += res.evaluations;
-      counter?.next();
+      counter?.goTo(RANK + 2);
       const refined = newtonRefine(fFull, res.x, L.spaces);
       iterations += refined.iterations;
       evaluations += refined.evaluations;
       top = { x: refined.x, value: refined.value };
       if (refined.converged) best = { x: refined.x, value: refined.value, converged: true };
       step = 0.1;
-    } else {
-      counter?.next();
     }
-    counter?.next();
+    counter?.goTo(RANK + 3);
     if (!best) {
       const res = minimizeBounded(fFull, top.x, L.spaces, {
         step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
