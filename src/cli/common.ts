@@ -38,6 +38,8 @@ export interface CliIo {
   stdoutIsTerminal?: boolean;
   /** --quiet: no progress lines and no notes (warnings and errors are still printed). */
   quiet?: boolean;
+  /** Seconds a run lasts before progress lines start; default PROGRESS_AFTER_SECONDS (tests give 0 to see them). */
+  progressAfterSeconds?: number;
   /** Most threads --workers may ask for; default the number of cores (tests check splits over more). */
   maxWorkers?: number;
 }
@@ -341,7 +343,7 @@ const TERMINAL_REFRESH_MS = 250;
 
 /**
  * A progress callback for `what` ("cells", "realisations"), silent for the first `afterSeconds`
- * (default PROGRESS_AFTER_SECONDS) so short runs stay quiet, and always with --quiet. On a terminal
+ * (default `io.progressAfterSeconds`, else PROGRESS_AFTER_SECONDS) so short runs stay quiet, and always with --quiet. On a terminal
  * (`io.stderrIsTerminal`) one line rewrites itself ("\rprogress: 43 % of 250,000 cells (12 s)") at
  * most four times a second and ends with a newline when the work is done; otherwise a plain line
  * is printed at each further tenth of the work. `now` (milliseconds) is injectable for tests.
@@ -349,7 +351,7 @@ const TERMINAL_REFRESH_MS = 250;
 export function progressLine(io: CliIo, what: string, options: { afterSeconds?: number; now?: () => number } = {}): ProgressLine {
   if (io.quiet) return () => {};
   const now = options.now ?? (() => performance.now());
-  const after = (options.afterSeconds ?? PROGRESS_AFTER_SECONDS) * 1000;
+  const after = (options.afterSeconds ?? io.progressAfterSeconds ?? PROGRESS_AFTER_SECONDS) * 1000;
   const start = now();
   const text = (percent: number, elapsed: number, total: number) => `progress: ${percent} % of ${count(total)} ${what} (${Math.round(elapsed / 1000)} s)`;
   if (io.stderrIsTerminal) {
@@ -385,13 +387,15 @@ export function progressLine(io: CliIo, what: string, options: { afterSeconds?: 
 
 /**
  * Progress of work whose total is not known ahead (likelihood passes of a fit): "progress: 240
- * likelihood passes (14 s)", silent for the first PROGRESS_AFTER_SECONDS, then every 5 s as plain
+ * likelihood passes (14 s)", silent for the first `io.progressAfterSeconds` (default
+ * PROGRESS_AFTER_SECONDS), then every 5 s as plain
  * lines or a rewriting line on a terminal (ended by `done()`); nothing with --quiet.
  */
 export function activityLine(io: CliIo, what: string, options: { now?: () => number } = {}): { step(): void; done(): void } {
   if (io.quiet) return { step: () => {}, done: () => {} };
   const now = options.now ?? (() => performance.now());
   const start = now();
+  const after = (io.progressAfterSeconds ?? PROGRESS_AFTER_SECONDS) * 1000;
   let steps = 0;
   let last = -Infinity;
   let open = false;
@@ -400,7 +404,7 @@ export function activityLine(io: CliIo, what: string, options: { now?: () => num
     step() {
       steps++;
       const t = now();
-      if (t - start < PROGRESS_AFTER_SECONDS * 1000 || t - last < every) return;
+      if (t - start < after || t - last < every) return;
       last = t;
       const line = `progress: ${count(steps)} ${what} (${Math.round((t - start) / 1000)} s)`;
       if (io.stderrIsTerminal) {

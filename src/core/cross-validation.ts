@@ -71,12 +71,19 @@ export function summariseErrors(error: ArrayLike<number>, sdObserved: ArrayLike<
   return { me: se / n, rmse: Math.sqrt(sse / n), msse: sz / n, coverage95: inside / n, n };
 }
 
+/** Stages leaveOneOut reports progress in: factorisation, inverse of the factor, per-sample terms. */
+export const LEAVE_ONE_OUT_STAGES = 3;
+
 /**
  * Closed-form leave-one-out cross-validation of the samples under the model (trend from the model:
  * simple, ordinary or universal kriging). One factorisation; the same numbers as n refits.
  * Throws GapwiseError('too-few-samples') with fewer than p + 2 samples (p trend columns).
+ * `onProgress(done, total)`, when given, is called at the end of each of LEAVE_ONE_OUT_STAGES
+ * stages (factorising the covariance, inverting its factor, the per-sample terms).
  */
-export function leaveOneOut(samples: Samples, model: CovarianceModel, options: PredictorOptions = {}): LeaveOneOutResult {
+export function leaveOneOut(
+  samples: Samples, model: CovarianceModel, options: PredictorOptions = {}, onProgress?: (done: number, total: number) => void,
+): LeaveOneOutResult {
   const p = trendColumnCount(model.trend);
   const nIn = samples?.value?.length ?? 0;
   if (nIn < p + 2) {
@@ -84,8 +91,10 @@ export function leaveOneOut(samples: Samples, model: CovarianceModel, options: P
     throw new GapwiseError('too-few-samples', `Expected at least ${p + 2} samples for leave-one-out ${what}, got ${nIn}.`);
   }
   const sys = buildKrigingSystem(samples, model, options);
+  onProgress?.(1, LEAVE_ONE_OUT_STAGES);
   const { n, W, Lg, alpha, z } = sys;
   const Z = lowerTriangularInverse(sys.factor.L, n);
+  onProgress?.(2, LEAVE_ONE_OUT_STAGES);
 
   // diag(K⁻¹) = column sums of Z², and H = K⁻¹X = ZᵀW (n×p), both from rows of Z.
   const diag = new Float64Array(n);
@@ -122,6 +131,7 @@ export function leaveOneOut(samples: Samples, model: CovarianceModel, options: P
     sdObserved[j] = 1 / Math.sqrt(pjj);
     standardisedError[j] = error[j] / sdObserved[j];
   }
+  onProgress?.(LEAVE_ONE_OUT_STAGES, LEAVE_ONE_OUT_STAGES);
   return checkLeaveOneOutFinite(model, {
     prediction, sdObserved, error, standardisedError,
     summary: summariseErrors(error, sdObserved),

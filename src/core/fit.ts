@@ -187,8 +187,60 @@ function layout(r: Resolved, maxDistance: number): SearchLayout {
   };
 }
 
-function negLogLik(lik: Pick<Likelihood, 'evaluate'>, L: SearchLayout, allowJitter: boolean): (x: number[]) => number {
-  return (x) => -lik.evaluate(L.toTheta(x), { allowJitter }).logLikelihood;
+function negLogLik(lik: Pick<Likelihood, 'evaluate'>, L: SearchLayout, allowJitter: boolean, tick?: () => void): (x: number[]) => number {
+  if (!tick) return (x) => -lik.evaluate(L.toTheta(x), { allowJitter }).logLikelihood;
+  return (x) => {
+    const v = -lik.evaluate(L.toTheta(x), { allowJitter }).logLikelihood;
+    tick();
+    return v;
+  };
+}
+
+/** Progress of a fit: the work done and the work in all (likelihood evaluations, or stages). */
+export type FitProgress = (done: number, total: number) => void;
+
+/** Most evaluations newtonRefine makes in d parameters: 1 + (2d + d(d−1)/2 + 1) + 3·(d + 1). */
+function newtonBudget(d: number): number {
+  return 5 + 5 * d + (d * (d - 1)) / 2;
+}
+
+/**
+ * Counts likelihood evaluations for a progress callback, against the budget still ahead: the rest
+ * of the current stage's budget, the budgets of the stages after it and the final evaluation. A
+ * stage that ends early (converged) or is skipped gives its unused budget back, and `cap` only
+ * lowers budgets of later stages, so the total only shrinks and done/total only grows; `finish`
+ * counts the final evaluation and reports done = total. `goTo(k)` starts stage k (k only grows).
+ */
+function evaluationCounter(onProgress: FitProgress, budgetsIn: number[]) {
+  const budgets = budgetsIn.slice();
+  let done = 0;
+  let stage = 0;
+  let stageEnd = budgets[0] ?? 0;
+  let later = budgets.reduce((a, b) => a + b, 0) - (budgets[0] ?? 0);
+  return {
+    tick: () => {
+      done++;
+      onProgress(done, done + Math.max(0, stageEnd - done) + later + 1);
+    },
+    goTo: (k: number) => {
+      for (let i = stage + 1; i <= k && i < budgets.length; i++) later -= budgets[i];
+      stage = k;
+      stageEnd = done + (budgets[k] ?? 0);
+    },
+    /** Lowers the budgets of stages `from` to `to` not yet started to at most `max`. */
+    cap: (from: number, to: number, max: number) => {
+      for (let i = Math.max(from, stage + 1); i <= to && i < budgets.length; i++) {
+        if (budgets[i] > max) {
+          later -= budgets[i] - max;
+          budgets[i] = max;
+        }
+      }
+    },
+    finish: () => {
+      done++;
+      onProgress(done, done);
+    },
+  };
 }
 
 /** Flags parameters that ended within 1 % (log scale) of a bound. */
@@ -233,7 +285,7 @@ function buildModel(r: Resolved, scale: number, nu: number | undefined, sill: nu
 }
 
 /** REML or ML: multi-start Nelder–Mead on the profiled likelihood. */
-function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number): CovarianceModel {
+function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number, onProgress?: FitProgress): CovarianceModel {
   const method = r.method as 'reml' | 'ml';
   const setup = { family: r.family, nu: r.nuFixed, trend: r.trend, anisotropy: r.anisotropy, method };
   const lik = createLikelihood(samples, setup);
@@ -250,8 +302,22 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
   const etas = r.nugget ? [0.01, 0.1, 0.5] : [0];
   const nus = r.nuFree ? [0.5, 1.5, 2.5] : [undefined];
   const grid: { x: number[]; value: number }[] = [];
-  const fScreen = negLogLik(screen, L, allowJitter);
-  for (const scale of scaleStarts(r.family, lik.maxDistance)) {
+  const scales = scaleStarts(r.family, lik.maxDistance);
+  const d = L.spaces.length;
+  const near = screening && n > MID_ABOVE;
+  // Stages, in order: starts grid, optimiser runs from the best starts, then when screening the
+  // ranking on the next stage, the nearest-neighbour run and Newton steps, and the last run.
+  const starts = Math.min(r.starts, scales.length * etas.length * nus.length);
+  // Stage 0 the grid, 1..starts the optimiser runs (after the first, the others are expected to
+  // take at most twice its evaluations), then the screening stages from RANK on.
+  const RANK = starts + 1;
+  const counter = onProgress ? evaluationCounter(onProgress, [
+    scales.length * etas.length * nus.length, ...new Array<number>(starts).fill(maxEvaluations ?? 150 * d),
+    ...(screening ? [starts, near ? maxEvaluations ?? 80 * d : 0, near ? newtonBudget(d) : 0, maxEvaluations ?? 80 * d] : []),
+  ]) : undefined;
+  const tick = counter?.tick;
+  const fScreen = negLogLik(screen, L, allowJitter, tick);
+  for (const scale of scales) {
     for (const eta of etas) {
       for (const nu of nus) {
         const x = [scale];
@@ -265,11 +331,10 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
   if (!Number.isFinite(grid[0].value)) {
     throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${r.family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
-  const d = L.spaces.length;
   let iterations = 0;
   let evaluations = grid.length * (screening ? 0 : 1);
   let screenEvaluations = screening ? grid.length : 0;
-  const fFull = negLogLik(lik, L, allowJitter);
+  const fFull = negLogLik(lik, L, allowJitter, tick);
   // Absolute tolerance on ℓ of about 1e-3 (immaterial next to AIC differences; a parameter error of
   // a few per cent of its standard error), relative to its size.
   const fTolerance = (scaleOf: number) => 1e-3 / Math.max(1, Math.abs(scaleOf));
@@ -277,6 +342,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
   const candidates: { x: number[]; value: number; converged: boolean }[] = [];
   for (const start of grid.slice(0, r.starts)) {
     if (!Number.isFinite(start.value)) break;
+    counter?.goTo(candidates.length + 1);
     const res = minimizeBounded(fScreen, start.x, L.spaces, {
       step: 0.7, restarts: screening ? 0 : 1, xTolerance: screening ? 0.1 : 0.01,
       fTolerance: screening ? 1e-2 / Math.max(1, Math.abs(start.value)) : fTolerance(start.value), maxEvaluations: maxEvaluations ?? 150 * d,
@@ -285,6 +351,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
     if (screening) screenEvaluations += res.evaluations;
     else evaluations += res.evaluations;
     candidates.push({ x: res.x, value: res.value, converged: res.converged });
+    if (candidates.length === 1) counter?.cap(2, starts, 2 * res.evaluations);
   }
 
   let best: { x: number[]; value: number; converged: boolean } | undefined;
@@ -294,24 +361,27 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
     // cost of an exact evaluation) takes the optimum most of the way; Newton steps on the exact
     // likelihood finish (Nelder–Mead when they do not converge). Up to 1,000 samples the screened
     // optima are polished on all samples directly.
-    const near = n > MID_ABOVE ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
-    const fStage = near ? negLogLik(near, L, allowJitter) : fFull;
+    const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
+    const fStage = nearLik ? negLogLik(nearLik, L, allowJitter, tick) : fFull;
+    counter?.goTo(RANK);
     // Rank the screened optima on the next stage, then polish the best there.
     let top = { x: candidates[0].x, value: Infinity };
     for (const c of candidates) {
       const v = fStage(c.x);
-      if (near) screenEvaluations++;
+      if (nearLik) screenEvaluations++;
       else evaluations++;
       if (v < top.value) top = { x: c.x, value: v };
     }
     if (!Number.isFinite(top.value)) top = { x: grid[0].x, value: fStage(grid[0].x) };
     let step = 0.2;
-    if (near) {
+    counter?.goTo(RANK + 1);
+    if (nearLik) {
       const res = minimizeBounded(fStage, top.x, L.spaces, {
         step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
       });
       iterations += res.iterations;
       screenEvaluations += res.evaluations;
+      counter?.goTo(RANK + 2);
       const refined = newtonRefine(fFull, res.x, L.spaces);
       iterations += refined.iterations;
       evaluations += refined.evaluations;
@@ -319,6 +389,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
       if (refined.converged) best = { x: refined.x, value: refined.value, converged: true };
       step = 0.1;
     }
+    counter?.goTo(RANK + 3);
     if (!best) {
       const res = minimizeBounded(fFull, top.x, L.spaces, {
         step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
@@ -339,6 +410,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number)
 
   const theta = L.toTheta(best.x);
   const final = lik.evaluate(theta, { allowJitter });
+  counter?.finish();
   const warnings: string[] = [];
   if (!best.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations); the fit may be improved by more starts.`);
   warnings.push(...boundWarnings(best.x, L, r));
@@ -557,13 +629,16 @@ export function fitToEmpiricalLags(lagsIn: ReadonlyArray<LagPoint>, options: Lag
 }
 
 /** WLS on the empirical variogram (of plane residuals for a linear trend), then the REML likelihood there. */
-function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOptions, maxEvaluations?: number): CovarianceModel {
+function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOptions, maxEvaluations?: number, onProgress?: FitProgress): CovarianceModel {
   const n = samples.value.length;
   const values = r.p === 3 ? planeResiduals(samples) : Float64Array.from(samples.value);
   const v = empiricalVariogram(isotropicFrame(samples, values, r.anisotropy), variogramOptions);
+  // Progress in three stages: the empirical variogram, the least-squares search, the likelihood.
+  onProgress?.(1, 3);
   const w = fitToEmpiricalLags(v.lags, {
     family: r.family, nu: r.nuFree ? 'free' : r.nuFixed, nugget: r.nugget, maxDistance: v.maxDistance, maxEvaluations,
   });
+  onProgress?.(2, 3);
   const { scale, sill, nugget, nu } = w;
   const warnings: string[] = v.warnings.map((x) => x.message);
   if (!w.converged) warnings.push('The weighted least-squares search stopped before meeting its tolerance.');
@@ -594,6 +669,7 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
   } else {
     warnings.push(`No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.`);
   }
+  onProgress?.(3, 3);
   return buildModel(r, scale, nu, sill, nugget, fit);
 }
 
@@ -602,10 +678,17 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
  * (method, logLikelihood, aic, converged, iterations, n, warnings, …) and `practicalRange`.
  * Throws GapwiseError 'too-few-samples' (n < 3, or n < 5 with a linear trend), 'constant-values'
  * (all values identical), 'bad-option' or 'fit-failed'. Non-convergence is a warning in fit.warnings.
+ *
+ * `onProgress(done, total)`, when given, is called as the work goes: for REML/ML after every
+ * likelihood evaluation, with the evaluations done and those done plus the budget still ahead (the
+ * total shrinks when a search converges before its budget; done/total only grows), for WLS after
+ * each of three stages; the last call has done = total. It never changes the result.
  */
-export function fitModel(samples: Samples, options: FitOptions): CovarianceModel {
+export function fitModel(samples: Samples, options: FitOptions, onProgress?: FitProgress): CovarianceModel {
   const r = resolve(samples, options);
-  return r.method === 'wls' ? fitByWls(samples, r, options.variogram ?? {}, options.maxEvaluations) : fitByLikelihood(samples, r, options.maxEvaluations);
+  return r.method === 'wls'
+    ? fitByWls(samples, r, options.variogram ?? {}, options.maxEvaluations, onProgress)
+    : fitByLikelihood(samples, r, options.maxEvaluations, onProgress);
 }
 
 /**
@@ -621,13 +704,25 @@ export const CANDIDATES: ReadonlyArray<{ family: Family; nu?: number | 'free' }>
  * Fits every standard candidate with the same options and returns them sorted by AIC (best first).
  * A candidate that cannot be fitted ('fit-failed', 'not-positive-definite') is left out and named in
  * the warnings of every returned model; input errors are thrown as by fitModel.
+ * `onProgress(done, total)` counts candidates (total = CANDIDATES.length), a fractional `done`
+ * while one is being fitted; it only grows and ends at the total.
  */
-export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'family' | 'nu'> = {}): CovarianceModel[] {
+export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'family' | 'nu'> = {}, onProgress?: FitProgress): CovarianceModel[] {
   const models: CovarianceModel[] = [];
   const failures: string[] = [];
-  for (const c of CANDIDATES) {
+  const total = CANDIDATES.length;
+  let shown = 0;
+  const report = (done: number) => {
+    if (done > shown) {
+      shown = done;
+      onProgress!(done, total);
+    }
+  };
+  for (let i = 0; i < total; i++) {
+    const c = CANDIDATES[i];
     try {
-      models.push(fitModel(samples, { ...options, family: c.family, nu: c.nu }));
+      const inner = onProgress ? (d: number, t: number) => report(i + Math.min(1, d / t)) : undefined;
+      models.push(fitModel(samples, { ...options, family: c.family, nu: c.nu }, inner));
     } catch (e) {
       if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
         failures.push(`The ${c.family}${c.nu !== undefined ? ` (ν ${c.nu})` : ''} candidate could not be fitted: ${e.message}`);
@@ -635,6 +730,7 @@ export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'famil
         throw e;
       }
     }
+    if (onProgress) report(i + 1);
   }
   if (models.length === 0) throw new GapwiseError('fit-failed', `None of the ${CANDIDATES.length} candidate models could be fitted. ${failures.join(' ')}`);
   for (const m of models) m.fit!.warnings = [...(m.fit!.warnings ?? []), ...failures];

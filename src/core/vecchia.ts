@@ -617,10 +617,11 @@ function subsample(samples: Samples, size: number, seed: number): Samples {
  * 10 nearest neighbours; then (subsampled) Newton steps on all samples with 10 neighbours; finally
  * Newton steps on all samples with m neighbours (Nelder–Mead when a Newton stage fails). Returns the model with fit.method 'nnl' and a note naming the sample
  * and neighbour counts. `hooks.threads` splits each all-sample pass over threads (same values up to
- * the order of one sum). Throws GapwiseError ('bad-option', 'too-few-samples', 'constant-values',
- * 'bad-value', 'fit-failed').
+ * the order of one sum); `hooks.onPass`, when given, is called after each likelihood pass over all
+ * samples (for a progress line; the number of passes is not known ahead). Throws GapwiseError
+ * ('bad-option', 'too-few-samples', 'constant-values', 'bad-value', 'fit-failed').
  */
-export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads } = {}): VecchiaFitResult {
+export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads; onPass?: () => void } = {}): VecchiaFitResult {
   if (typeof options !== 'object' || options === null) throw new GapwiseError('bad-option', 'Expected fit options as an object.');
   const family: Family = options.family;
   if (!['matern', 'exponential', 'spherical', 'gaussian'].includes(family)) {
@@ -676,8 +677,14 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
     scale: x[0], nuggetRatio: fitNugget ? x[1] : 0, nu: nuFree ? x[d - 1] : undefined,
   });
   const allowJitter = !fitNugget;
-  const objective = (lik: VecchiaLikelihood, neighbors?: number) => (x: number[]) =>
-    -lik.evaluate(toTheta(x), { allowJitter, neighbors }).logLikelihood;
+  const onPass = hooks.onPass;
+  const objective = (lik: VecchiaLikelihood, neighbors?: number) => (onPass && lik === full
+    ? (x: number[]) => {
+      const v = -lik.evaluate(toTheta(x), { allowJitter, neighbors }).logLikelihood;
+      onPass();
+      return v;
+    }
+    : (x: number[]) => -lik.evaluate(toTheta(x), { allowJitter, neighbors }).logLikelihood);
   // Absolute tolerance on ℓ of about 1e-4 (the approximation itself is coarser), relative to its size.
   const tolerance = (v: number) => 1e-4 / Math.max(1, Math.abs(v));
   let iterations = 0;

@@ -84,6 +84,8 @@ export interface PrepareOptions {
    * (default true; costs a few model fits).
    */
   compare?: boolean;
+  /** Progress of the candidate fits for the comparison table: candidates done (fractional) and in all. */
+  onCompareProgress?: (done: number, total: number) => void;
   /** Results already at hand (the app): used instead of recomputing. */
   surface?: ReportSurface | null;
   cv?: LeaveOneOutResult | null;
@@ -169,21 +171,27 @@ export function candidateLabel(family: string, nu?: number | 'free'): string {
  * cross-validates each, as the app's comparison table does. A candidate that cannot be fitted keeps
  * its row with `error`.
  */
-export function compareCandidates(intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log'): ComparisonRow[] {
+export function compareCandidates(
+  intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log', onProgress?: (done: number, total: number) => void,
+): ComparisonRow[] {
   const fitSamples = modelSamples(intake.samples, transform === 'log');
-  return CANDIDATES.map((c): ComparisonRow => {
+  const total = CANDIDATES.length;
+  return CANDIDATES.map((c, i): ComparisonRow => {
     const key = c.family === 'matern' ? `matern-${c.nu}` : c.family;
     const label = candidateLabel(c.family, c.nu);
     try {
-      const m = fitModel(fitSamples, { family: c.family, nu: c.nu, method });
+      // Progress counts candidates: nine tenths of each for its fit, the rest for its leave-one-out.
+      const m = fitModel(fitSamples, { family: c.family, nu: c.nu, method }, onProgress ? (d, t) => onProgress(i + 0.9 * Math.min(1, d / t), total) : undefined);
       m.transform = transform;
       const cv = leaveOneOut(intake.samples, m);
+      onProgress?.(i + 1, total);
       return {
         key, label, model: m, logLikelihood: m.fit?.logLikelihood ?? null, aic: m.fit?.aic ?? null,
         rmse: cv.summary.rmse, msse: cv.summary.msse,
       };
     } catch (e) {
       if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
+        onProgress?.(i + 1, total);
         return { key, label, model: null, logLikelihood: null, aic: null, rmse: null, msse: null, error: e.message };
       }
       throw e;
@@ -245,7 +253,7 @@ export function prepareReport(project: Project, options: PrepareOptions): Report
   }
   let comparison = options.comparison ?? project.structure.comparison ?? [];
   if (comparison.length === 0 && model && options.compare !== false) {
-    comparison = compareCandidates(intake, project.structure.method, project.structure.transform);
+    comparison = compareCandidates(intake, project.structure.method, project.structure.transform, options.onCompareProgress);
   }
   return {
     project, intake, boundary, variogram, comparison, cv, grid, surface, simulation,

@@ -22,9 +22,10 @@ export interface Workspace {
 
 /**
  * `maxWorkers`: most threads --workers may ask for (4 by default, so that tests of the split over 3
- * threads run the same on a 2-core machine).
+ * threads run the same on a 2-core machine). `progressAfterSeconds`: 0 shows progress lines from the
+ * start of a run (default: the command line's own delay, so short runs print none).
  */
-export function workspace(options: { maxWorkers?: number } = {}): Workspace {
+export function workspace(options: { maxWorkers?: number; progressAfterSeconds?: number } = {}): Workspace {
   const dir = mkdtempSync(join(tmpdir(), 'gapwise-cli-'));
   return {
     dir,
@@ -38,7 +39,8 @@ export function workspace(options: { maxWorkers?: number } = {}): Workspace {
     async run(...argv) {
       let stdout = '';
       let stderr = '';
-      const code = await main(argv, { stdout: (t) => { stdout += t; }, stderr: (t) => { stderr += t; }, cwd: dir, maxWorkers: options.maxWorkers ?? 4 });
+      const code = await main(argv, { stdout: (t) => { stdout += t; }, stderr: (t) => { stderr += t; }, cwd: dir, maxWorkers: options.maxWorkers ?? 4,
+        ...(options.progressAfterSeconds !== undefined ? { progressAfterSeconds: options.progressAfterSeconds } : {}) });
       return { code, stdout, stderr };
     },
     remove() {

@@ -45,7 +45,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   printWarnings(io, path.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };
   const cv = path.path === 'exact'
-    ? naming(files, () => leaveOneOut(samples, modelFile.model))
+    ? naming(files, () => leaveOneOut(samples, modelFile.model, {}, progressLine(io, 'leave-one-out stages')))
     : naming(files, () => localLeaveOneOut(samples, modelFile.model, { neighbors: path.neighbors, globalMean: path.globalMean }, progressLine(io, 'samples')));
   printNotes(io, [describePredictionPath(path, n, 'each sample left out and predicted', 'nearest other samples')]);
   printWarnings(io, cv.warnings ?? []);

@@ -16,7 +16,7 @@ import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, activityLine, count, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
+  CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 
@@ -136,7 +136,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       model = naming(files, () => vecchiaFit(samples, {
         family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
         ...(family === 'matern' ? { nu } : {}),
-      }, { threads: pool ? countingPasses(pool.threads, passes) : undefined }));
+      }, pool ? { threads: countingPasses(pool.threads, passes) } : { onPass: () => passes.step() }));
     } finally {
       passes.done();
       await pool?.close();
@@ -144,7 +144,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   } else {
     const options: FitOptions = { family, method, trend, nugget };
     if (family === 'matern') options.nu = nu;
-    model = naming(files, () => fitModel(samples, options));
+    // REML/ML count likelihood evaluations against the budget still ahead; WLS counts its stages.
+    const progress = progressLine(io, method === 'wls' ? 'fitting stages' : 'likelihood evaluations planned');
+    model = naming(files, () => fitModel(samples, options, progress));
     if (model.fit) model.fit.note = `fitted with ${METHOD_NAMES[method]} on ${count(n)} samples`;
   }
   model.transform = transform;

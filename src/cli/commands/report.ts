@@ -91,6 +91,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const input = naming(files, () => prepareReport(project, {
     software: softwareVersion(),
     compare: !booleanOption(values, 'no-compare'),
+    onCompareProgress: progressLine(io, 'candidate models'),
     ...(cell !== undefined ? { cellSize: cell } : {}),
     ...(simulate ? { simulate, ...(drawn ? { drawn } : {}) } : {}),
   }));
