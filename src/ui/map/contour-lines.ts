@@ -1,6 +1,6 @@
 /**
  * Contour lines of the mean surface for the map, as plain data (no Leaflet): round levels over the
- * drawn values plus the action level, each with its lines as map positions [lat, lng]. On a
+ * drawn values (even or log steps, like the colours) plus the action level, each with its lines as map positions [lat, lng]. On a
  * geographic map these are WGS 84 latitude/longitude (the working-CRS lines through the inverse
  * projection); on a planar map (local coordinates, L.CRS.Simple) lat holds y and lng holds x.
  * Isolines come from the export's own contouring (io/contours.ts, marching squares by d3-contour),
@@ -18,23 +18,51 @@ export interface MapContour {
 }
 
 /**
- * About `count` round levels strictly inside (min, max), with the action level added when it lies
- * inside; a round level closer to the action level than a third of their step is left out, so the
- * emphasised line never runs beside a near twin.
+ * Round levels in log steps strictly inside (min, max), for skewed values drawn with log colours:
+ * 1, 2, 5 × 10^k, or 1, 3 × 10^k, or 1 × 10^k, the finest of these with at most `count` + 2 levels.
+ * Falls back to even steps when min is not positive.
  */
-export function mapContourLevels(min: number, max: number, actionLevel: number | null, count = 8): Array<{ level: number; action: boolean }> {
-  const round = contourLevels(min, max, count);
-  const step = round.length > 1 ? round[1] - round[0] : (max - min) / Math.max(1, count);
+export function logContourLevels(min: number, max: number, count = 8): number[] {
+  if (!(min > 0) || !Number.isFinite(max) || !(max > min)) return contourLevels(min, max, count);
+  const from = Math.floor(Math.log10(min)), to = Math.ceil(Math.log10(max));
+  let levels: number[] = [];
+  for (const mantissas of [[1, 2, 5], [1, 3], [1]]) {
+    levels = [];
+    for (let k = from; k <= to; k++) {
+      for (const m of mantissas) {
+        const v = Number((m * 10 ** k).toPrecision(12));
+        if (v > min && v < max) levels.push(v);
+      }
+    }
+    if (levels.length <= count + 2) break;
+  }
+  return levels;
+}
+
+/**
+ * About `count` round levels strictly inside (min, max) — even steps, or log steps when `log` — with
+ * the action level added when it lies inside; a round level closer to the action level than a third
+ * of the step between them (a third of the ratio's log in log steps) is left out, so the emphasised
+ * line never runs beside a near twin.
+ */
+export function mapContourLevels(min: number, max: number, actionLevel: number | null, count = 8, log = false): Array<{ level: number; action: boolean }> {
+  const useLog = log && min > 0;
+  const round = useLog ? logContourLevels(min, max, count) : contourLevels(min, max, count);
+  const at = (v: number) => (useLog ? Math.log(v) : v);
+  const step = round.length > 1 ? at(round[1]) - at(round[0]) : (at(max) - at(min)) / Math.max(1, count);
   const hasAction = actionLevel !== null && Number.isFinite(actionLevel) && actionLevel > min && actionLevel < max;
   const out = round
-    .filter((l) => !hasAction || Math.abs(l - actionLevel!) >= step / 3)
+    .filter((l) => !hasAction || Math.abs(at(l) - at(actionLevel!)) >= step / 3)
     .map((level) => ({ level, action: false }));
   if (hasAction) out.push({ level: actionLevel!, action: true });
   return out.sort((a, b) => a.level - b.level);
 }
 
-/** Isolines of `values` on `grid` (working CRS `workCrs`, or local) at round levels and the action level. */
-export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: string, actionLevel: number | null, count = 8): MapContour[] {
+/**
+ * Isolines of `values` on `grid` (working CRS `workCrs`, or local) at round levels (log steps when
+ * `log`, as for log colours) and the action level.
+ */
+export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: string, actionLevel: number | null, count = 8, log = false): MapContour[] {
   let min = Infinity, max = -Infinity;
   for (let k = 0; k < values.length; k++) {
     const v = values[k];
@@ -42,7 +70,7 @@ export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: stri
     if (v < min) min = v;
     if (v > max) max = v;
   }
-  const levels = mapContourLevels(min, max, actionLevel, count);
+  const levels = mapContourLevels(min, max, actionLevel, count, log);
   if (levels.length === 0) return [];
   const features = contourFeatures({ grid, values, surface: 'mean', workCrs, levels: levels.map((l) => l.level), bands: false });
   const out: MapContour[] = [];

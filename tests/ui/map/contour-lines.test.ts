@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { mapContourLevels, mapContours } from '../../../src/ui/map/contour-lines.ts';
+import { logContourLevels, mapContourLevels, mapContours } from '../../../src/ui/map/contour-lines.ts';
 import { createTransform, LOCAL_CRS } from '../../../src/io/crs.ts';
 import type { Grid } from '../../../src/core/grid.ts';
 
@@ -19,6 +19,18 @@ describe('contour-lines', () => {
     // An action level outside the values draws no line of its own.
     expect(mapContourLevels(0, 100, 150, 5).some((l) => l.action)).toBe(false);
     expect(mapContourLevels(5, 5, 5)).toEqual([]);
+  });
+
+  it('logContourLevels steps 1, 2, 5 per decade, coarser for wide ranges, even steps for values not all positive', () => {
+    expect(logContourLevels(3, 1700, 8)).toEqual([5, 10, 20, 50, 100, 200, 500, 1000]);
+    // 1, 3 per decade would give 11 levels: one per decade instead.
+    expect(logContourLevels(0.01, 1e4, 8)).toEqual([0.1, 1, 10, 100, 1000]);
+    expect(logContourLevels(0.02, 900, 8)).toEqual([0.03, 0.1, 0.3, 1, 3, 10, 30, 100, 300]);
+    expect(logContourLevels(1e-6, 1e6, 8)).toEqual([1e-5, 1e-4, 1e-3, 0.01, 0.1, 1, 10, 100, 1000, 1e4, 1e5]);
+    expect(logContourLevels(-1, 9, 5)).toEqual([0, 2, 4, 6, 8]);
+    // With log steps the action level replaces a round level within a third of a step's log ratio.
+    expect(mapContourLevels(3, 1700, 220, 8, true).map((l) => l.level)).toEqual([5, 10, 20, 50, 100, 220, 500, 1000]);
+    expect(mapContourLevels(3, 1700, 300, 8, true).map((l) => l.level)).toEqual([5, 10, 20, 50, 100, 200, 300, 500, 1000]);
   });
 
   it('mapContours on local coordinates puts each line at the x where the linear surface equals its level (lat = y, lng = x)', () => {
