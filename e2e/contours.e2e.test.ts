@@ -7,7 +7,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask } from './harness.ts';
 import { localBoundaryGeoJson, localGridCsv } from './files.ts';
 
 const run = useHarness('Gapwise contour-line figures');
@@ -85,16 +85,21 @@ function readAcrossActionLine(page: Page): Promise<Crossing> {
   });
 }
 
-/** Turns the contour lines on and waits for them; returns the SVG path counts. */
-async function contoursOn(page: Page): Promise<{ all: number; action: number }> {
+/** Turns the contour lines on and waits for them; returns the SVG path counts and the longest main-thread task meanwhile. */
+async function contoursOn(page: Page): Promise<{ all: number; action: number; longestMs: number }> {
   await openStep(page, 'surface');
   const toggle = page.locator('[data-testid=contours-toggle]');
   expect(await toggle.isChecked()).toBe(false);
   expect(await page.locator('path.gapwise-contour').count()).toBe(0);
+  await page.waitForTimeout(500);
+  await takeLongestTask(page);
   await toggle.check();
   await page.waitForSelector('path.gapwise-contour-action');
+  await page.waitForTimeout(200);
+  const longestMs = (await takeLongestTask(page)).longest;
   await page.mouse.move(5, 795);
   return {
+    longestMs,
     all: await page.locator('path.gapwise-contour').count(),
     action: await page.locator('path.gapwise-contour-action').count(),
   };
@@ -109,6 +114,14 @@ describe('Contour lines on the map', () => {
     await page.setInputFiles('#samples-file', { name: 'site-grid.csv', mimeType: 'text/csv', buffer: Buffer.from(localGridCsv().text, 'utf8') });
     await page.waitForSelector('path[data-sample-id]');
     expect(await page.locator('[data-testid=map]').getAttribute('data-planar')).toBe('yes');
+    // Local coordinates are in coordinate units, not metres, until the user says so.
+    const samplesText = await page.locator('#samples-body').innerText();
+    expect(samplesText).toMatch(/taken as local planar coordinates \(in coordinate units\)/);
+    expect(samplesText).toMatch(/Worked in local \(coordinate units\)/);
+    // Metres are named only where the user can say so.
+    expect(samplesText).toMatch(/coordinate units \(metres only once you say so\)/);
+    expect(samplesText.replace('These coordinates are metres', '').replace('metres only once you say so', '')).not.toMatch(/metre/);
+    figures.push(`screenshot ${await shot(page, '8-contours-local-samples-1280x800')}`);
     await openStep(page, 'structure');
     await page.selectOption('#fit-method', 'wls');
     await page.click('[data-testid=fit-button]');
@@ -128,6 +141,7 @@ describe('Contour lines on the map', () => {
     expect(counts.all).toBe(levels!.filter((c) => c.lines > 0).length);
     expect(counts.action).toBe(1);
     const x = await readAcrossActionLine(page);
+    figures.push(`local: longest main-thread task while the lines were computed and drawn ${counts.longestMs.toFixed(0)} ms (0 = none over 50 ms)`);
     figures.push(`local: ${counts.all} contour paths, levels ${levels!.map((c) => c.level).join(', ')}; action line: ${x.across} of ${x.points} points with the cells a cell (${x.cellPx.toFixed(1)} px) either side across ${x.level}, ${x.astray} astray`);
     expect(x.points).toBeGreaterThanOrEqual(10);
     expect(x.astray).toBe(0);
@@ -160,6 +174,7 @@ describe('Contour lines on the map', () => {
     expect(counts.action).toBe(1);
     expect(counts.all).toBeGreaterThanOrEqual(3);
     const x = await readAcrossActionLine(page);
+    figures.push(`demo: longest main-thread task while the lines were computed and drawn ${counts.longestMs.toFixed(0)} ms (0 = none over 50 ms)`);
     figures.push(`demo: ${counts.all} contour paths, levels ${levels!.map((c) => c.level).join(', ')}; action line: ${x.across} of ${x.points} points with the cells a cell (${x.cellPx.toFixed(1)} px) either side across ${x.level}, ${x.astray} astray`);
     expect(x.points).toBeGreaterThanOrEqual(10);
     expect(x.astray).toBe(0);
