@@ -58,11 +58,8 @@ export function mapContourLevels(min: number, max: number, actionLevel: number |
   return out.sort((a, b) => a.level - b.level);
 }
 
-/**
- * Isolines of `values` on `grid` (working CRS `workCrs`, or local) at round levels (log steps when
- * `log`, as for log colours) and the action level.
- */
-export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: string, actionLevel: number | null, count = 8, log = false): MapContour[] {
+/** The levels to draw for `values` on `grid` (masked cells and NaN left out); see mapContourLevels. */
+export function mapContourLevelsOf(grid: Grid, values: ArrayLike<number>, actionLevel: number | null, count = 8, log = false): Array<{ level: number; action: boolean }> {
   let min = Infinity, max = -Infinity;
   for (let k = 0; k < values.length; k++) {
     const v = values[k];
@@ -70,18 +67,31 @@ export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: stri
     if (v < min) min = v;
     if (v > max) max = v;
   }
-  const levels = mapContourLevels(min, max, actionLevel, count, log);
-  if (levels.length === 0) return [];
-  const features = contourFeatures({ grid, values, surface: 'mean', workCrs, levels: levels.map((l) => l.level), bands: false });
+  return mapContourLevels(min, max, actionLevel, count, log);
+}
+
+/** The isolines of one level (null when the level draws no line), as map positions [lat, lng]. */
+export function mapContourAt(grid: Grid, values: ArrayLike<number>, workCrs: string, level: { level: number; action: boolean }): MapContour | null {
+  const features = contourFeatures({ grid, values, surface: 'mean', workCrs, levels: [level.level], bands: false });
+  const f = features.find((g) => g.geometry.type === 'MultiLineString');
+  if (!f || f.geometry.type !== 'MultiLineString') return null;
+  return {
+    level: level.level,
+    action: level.action,
+    lines: f.geometry.coordinates.map((line) => line.map((p) => [p[1], p[0]] as [number, number])),
+  };
+}
+
+/**
+ * Isolines of `values` on `grid` (working CRS `workCrs`, or local) at round levels (log steps when
+ * `log`, as for log colours) and the action level. The map computes them a level at a time
+ * (mapContourLevelsOf, then mapContourAt per level) so no single task is long.
+ */
+export function mapContours(grid: Grid, values: ArrayLike<number>, workCrs: string, actionLevel: number | null, count = 8, log = false): MapContour[] {
   const out: MapContour[] = [];
-  for (const f of features) {
-    if (f.geometry.type !== 'MultiLineString' || f.properties.level === undefined) continue;
-    const level = f.properties.level;
-    out.push({
-      level,
-      action: levels.some((l) => l.action && l.level === level),
-      lines: f.geometry.coordinates.map((line) => line.map((p) => [p[1], p[0]] as [number, number])),
-    });
+  for (const level of mapContourLevelsOf(grid, values, actionLevel, count, log)) {
+    const c = mapContourAt(grid, values, workCrs, level);
+    if (c) out.push(c);
   }
   return out;
 }
