@@ -15,6 +15,7 @@ const SUITES: Record<string, { file: string; fn: string }> = {
   large: { file: './large.ts', fn: 'runLargeBench' },
   design: { file: './design.ts', fn: 'runDesignBench' },
   simulation: { file: './simulation.ts', fn: 'runSimulationBench' },
+  contours: { file: './contours.ts', fn: 'runContoursBench' },
 };
 
 function format(rows: BenchRow[]): string {

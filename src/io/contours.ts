@@ -44,6 +44,8 @@ export interface ContourInput {
   count?: number;
   /** Action level, named in the pExceed properties. */
   threshold?: number;
+  /** Filled bands as well as isolines (default true); isolines alone cost one pass per level. */
+  bands?: boolean;
 }
 
 export interface ContourProperties {
@@ -301,8 +303,8 @@ export function contourFeatures(input: ContourInput): Feature<MultiLineString | 
   const edges = [-Infinity, ...levels, Infinity];
   let narrowest = Infinity;
   for (let b = 1; b + 1 < levels.length + 1; b++) narrowest = Math.min(narrowest, edges[b + 1] - edges[b]);
-  const k = Number.isFinite(narrowest) ? Math.min(4, Math.max(1, Math.ceil(largestStep(field) / (narrowest / 2)))) : 1;
-  for (let b = 0; b + 1 < edges.length; b++) {
+  const k = input.bands === false ? 1 : Number.isFinite(narrowest) ? Math.min(4, Math.max(1, Math.ceil(largestStep(field) / (narrowest / 2)))) : 1;
+  for (let b = 0; input.bands !== false && b + 1 < edges.length; b++) {
     const lo = edges[b], hi = edges[b + 1];
     if (hi < range.min || lo > range.max) continue;
     const coordinates = bandCoordinates(field, lo, hi, project, k);

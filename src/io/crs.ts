@@ -187,7 +187,8 @@ const resolved = new Map<string, ResolvedCrs>();
 
 /**
  * Planar coordinates with no georeference (columns named x/y and no CRS given): distances are taken
- * in the file's units, assumed metres. Transforms exist only to itself.
+ * in the file's own coordinate units (metres only when the user says so). Transforms exist only to
+ * itself.
  */
 export const LOCAL_CRS = 'local';
 const LOCAL: ResolvedCrs = {
@@ -197,7 +198,7 @@ const LOCAL: ResolvedCrs = {
   geographic: false,
   bbox: null,
   metresPerUnit: 1,
-  unitName: 'metre (assumed)',
+  unitName: 'coordinate unit',
   utm: false,
   notes: [],
 };

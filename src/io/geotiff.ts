@@ -164,11 +164,11 @@ function crsKey(workCrs: string): { epsg: number; citation?: string; warning?: W
   if (epsg !== USER_DEFINED_CRS) return { epsg };
   return {
     epsg,
-    citation: workCrs === LOCAL_CRS ? 'local planar metres' : short(workCrs, 200),
+    citation: workCrs === LOCAL_CRS ? 'local planar coordinate units' : short(workCrs, 200),
     warning: {
       code: 'crs-not-epsg',
       message: workCrs === LOCAL_CRS
-        ? 'The samples have local planar coordinates with no CRS: the GeoTIFF has no georeference beyond its metre grid.'
+        ? 'The samples have local planar coordinates with no CRS: the GeoTIFF has no georeference beyond its grid in those coordinate units.'
         : `The working CRS ${short(workCrs, 60)} has no EPSG code: the GeoTIFF names it as user-defined, which most GIS cannot place; use an EPSG working CRS.`,
     },
   };

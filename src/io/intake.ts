@@ -706,16 +706,16 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     const degrees = parsed.every((p) => Math.abs(p.x) <= 180 && Math.abs(p.y) <= 90);
     if (naming === 'planar') {
       input = resolveCrs(LOCAL_CRS);
-      detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like planar coordinates and no CRS was given, so they were taken as local planar metres`;
-      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])}: distances are taken as metres, and the samples cannot be placed on a map or exported with a georeference. Give their CRS, e.g. EPSG:32633 (in the app under Coordinate system; on the command line with --crs).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give EPSG:4326.' : ''}` });
+      detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like planar coordinates and no CRS was given, so they were taken as local planar coordinates (in coordinate units)`;
+      warnings.push({ code: 'crs-needed', message: `No CRS was given for the planar columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])}: distances are in the file's coordinate units (metres only once you say so), and the samples are drawn on a plain planar map but cannot be placed on the earth or exported with a georeference. Give their CRS, e.g. EPSG:32633 (in the app under Coordinate system; on the command line with --crs).${degrees ? ' Their values all lie within ±180/±90: if they are longitude/latitude, give EPSG:4326.' : ''}` });
     } else if (degrees) {
       input = resolveCrs('EPSG:4326');
       detection = `the names ${quoted(columns[xCol])} and ${quoted(columns[yCol])} say nothing about the CRS; all values lie within longitude −180…180 and latitude −90…90, so WGS 84 (EPSG:4326) was assumed`;
       warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs if this is wrong.` });
     } else {
       input = resolveCrs(LOCAL_CRS);
-      detection = `the names ${quoted(columns[xCol])} and ${quoted(columns[yCol])} say nothing about the CRS and the values exceed longitude/latitude ranges, so they were taken as local planar metres`;
-      warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs to place the samples on a map.` });
+      detection = `the names ${quoted(columns[xCol])} and ${quoted(columns[yCol])} say nothing about the CRS and the values exceed longitude/latitude ranges, so they were taken as local planar coordinates (in coordinate units)`;
+      warnings.push({ code: 'crs-guessed', message: `The CRS was guessed from the coordinate ranges: ${detection}. Give --crs to place the samples on the earth.` });
     }
   }
   for (const n of input.notes) warnings.push({ code: 'crs-note', message: n });

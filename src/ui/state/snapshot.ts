@@ -65,6 +65,8 @@ export interface SurfaceChoices {
   layer: SurfaceLayerId;
   opacity: number;
   hideUncertain: boolean;
+  /** Contour lines of the mean drawn over the map. */
+  contours: boolean;
   /** sd level (data units) above which cells are hidden when hideUncertain is on. */
   sdLimit: number | null;
   /** The user asked for a surface; recomputed after a reload. */
@@ -138,7 +140,7 @@ export function emptySnapshot(): SessionSnapshot {
     structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null, likelihood: 'auto' },
     surface: {
       area: 'extent', padding: 0.05, cellSize: 0, threshold: null, layer: 'mean', opacity: 0.8,
-      hideUncertain: false, sdLimit: null, wanted: false, support: 'point', blockPoints: 4,
+      hideUncertain: false, contours: false, sdLimit: null, wanted: false, support: 'point', blockPoints: 4,
       method: 'auto',
     },
     simulation: { count: 100, seed: 1, depth: null },
@@ -226,6 +228,7 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       layer: oneOf(su.layer, ['mean', 'sd', 'exceed'] as const, 'mean'),
       opacity: num(su.opacity, d.surface.opacity, 0, 1),
       hideUncertain: bool(su.hideUncertain, false),
+      contours: bool(su.contours, false),
       sdLimit: optNum(su.sdLimit),
       wanted: bool(su.wanted, false),
       support: oneOf(su.support, ['point', 'block'] as const, 'point'),

@@ -16,6 +16,8 @@ export interface TestHook {
   sessionDigest(): Record<string, unknown>;
   /** On a planar map (local coordinates): the length unit, the grid lines drawn and the scale bar's length. */
   planarView(): { unit: string; lines: { x: number[]; y: number[] } | null; scale: number } | null;
+  /** The contour lines on the map: each level, whether it is the action level, its line count; null when off. */
+  contourLines(): Array<{ level: number; action: boolean; lines: number }> | null;
 }
 
 export function testHookEnabled(): boolean {

@@ -19,7 +19,7 @@ function fullSnapshot(): SessionSnapshot {
   };
   s.surface = {
     area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, layer: 'exceed', opacity: 0.6,
-    hideUncertain: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6, method: 'local',
+    hideUncertain: true, contours: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6, method: 'local',
   };
   s.simulation = { count: 250, seed: 17, depth: 0.3 };
   s.readId = 'reading-1';
