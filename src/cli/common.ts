@@ -65,7 +65,7 @@ export const SAMPLE_OPTIONS: OptionSpec[] = [
   { name: 'value', kind: 'string', placeholder: 'COL', help: 'column (or GeoJSON property) holding the measured value', defaultText: 'detected: the one numeric column besides the coordinates' },
   { name: 'x', kind: 'string', placeholder: 'COL', help: 'column of the x coordinate (longitude, easting)', defaultText: 'detected from usual names (lon, longitude, x, easting, e, ...)' },
   { name: 'y', kind: 'string', placeholder: 'COL', help: 'column of the y coordinate (latitude, northing)', defaultText: 'detected from usual names (lat, latitude, y, northing, n, ...)' },
-  { name: 'crs', kind: 'string', placeholder: 'CRS', help: 'coordinate reference system of the samples: EPSG:NNNN or a proj string', defaultText: 'EPSG:4326 for lon/lat column names, planar metres for x/y, easting/northing' },
+  { name: 'crs', kind: 'string', placeholder: 'CRS', help: 'coordinate reference system of the samples: EPSG:NNNN or a proj string', defaultText: 'EPSG:4326 for lon/lat column names, local planar coordinates (coordinate units) for x/y, easting/northing' },
   { name: 'work-crs', kind: 'string', placeholder: 'CRS', help: 'metric CRS the numbers are computed in', defaultText: 'the input CRS when projected, else the WGS 84 UTM zone of the samples' },
   { name: 'non-detect', kind: 'string', placeholder: 'RULE', choices: ['half', 'dl', 'sqrt2'], help: 'value used for a non-detect such as "<5": half the detection limit, the limit, or the limit/√2', defaultText: 'half' },
   { name: 'duplicates', kind: 'string', placeholder: 'RULE', choices: ['merge', 'keep'], help: 'samples at the same location: merged into their mean, or kept (kept duplicates need a nugget)', defaultText: 'merge' },
