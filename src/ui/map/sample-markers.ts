@@ -3,9 +3,9 @@
  * is affordable; larger ones use SamplePointsLayer), placed in slices so that a few hundred samples do
  * not hold the page in one long task. The first slice is placed at once (a small file is complete as
  * soon as `build` returns); the rest follow, one slice per task. Each marker is created in its final
- * colour, and a colour change restyles only the markers whose colour changed (restyling a path sets
- * about ten attributes). The selected sample is drawn larger with a dark ring, also when its marker
- * arrives in a later slice. Each path carries data-sample-index and data-sample-id.
+ * colour, and a colour change rewrites only the fill of the markers whose colour changed (a full
+ * restyle sets about ten attributes per path). The selected sample is drawn larger with a dark ring,
+ * also when its marker arrives in a later slice. Each path carries data-sample-index and data-sample-id.
  */
 import L from 'leaflet';
 
@@ -77,7 +77,16 @@ export class SampleMarkers {
     this.colours = colours;
     for (let i = 0; i < this.markers.length; i++) {
       const c = colours[i] ?? '#fbfaf7';
-      if (this.markers[i].options.fillColor !== c) this.markers[i].setStyle({ fillColor: c });
+      const marker = this.markers[i];
+      if (marker.options.fillColor === c) continue;
+      const path = marker.getElement();
+      if (path instanceof SVGElement && marker.options.fill !== false) {
+        // What setStyle does for a fill colour on an SVG path, without rewriting the other attributes.
+        marker.options.fillColor = c;
+        path.setAttribute('fill', c);
+      } else {
+        marker.setStyle({ fillColor: c });
+      }
     }
   }
 
