@@ -30,6 +30,21 @@ function powerOfTen(v: number, digits: number): string {
 }
 
 /**
+ * Number formats by fraction digits, made once: `toLocaleString` with options builds a new formatter
+ * on every call, a good part of a table's drawing time. Same text as `toLocaleString('en-US', ...)`.
+ */
+const grouped = new Map<number, Intl.NumberFormat>();
+function groupedFormat(maximumFractionDigits: number): Intl.NumberFormat {
+  let f = grouped.get(maximumFractionDigits);
+  if (!f) {
+    f = new Intl.NumberFormat('en-US', { maximumFractionDigits, useGrouping: true });
+    grouped.set(maximumFractionDigits, f);
+  }
+  return f;
+}
+const countFormat = new Intl.NumberFormat('en-US');
+
+/**
  * A measured or fitted quantity for people: `digits` significant digits (3 unless given), thousands
  * grouped ("12,400", "0.0184", "−84.16"), no exponent from 0.001 up to 10¹⁵; smaller or larger
  * magnitudes as "3.2 × 10⁻⁵". A missing or not-a-number value is a dash.
@@ -41,14 +56,14 @@ export function formatValue(v: number | null | undefined, digits = 3): string {
   const a = Math.abs(v);
   if (a < 1e-3 || a >= 1e15) return powerOfTen(v, digits);
   const rounded = Number(v.toPrecision(digits));
-  const text = rounded.toLocaleString('en-US', { maximumFractionDigits: decimalsFor(rounded, digits), useGrouping: true });
+  const text = groupedFormat(decimalsFor(rounded, digits)).format(rounded);
   return withMinus(text);
 }
 
 /** A count of things: "149", "30,079". */
 export function formatCount(n: number | null | undefined): string {
   if (n === null || n === undefined || !Number.isFinite(n)) return DASH;
-  return withMinus(Math.round(n).toLocaleString('en-US'));
+  return withMinus(countFormat.format(Math.round(n)));
 }
 
 /**

@@ -102,3 +102,23 @@ describe('formatValue in the read report', () => {
     expect(merged).not.toMatch(/13\.8999/);
   });
 });
+
+describe('formatValue with kept number formats', () => {
+  it('writes the same text as toLocaleString with the same options over many magnitudes and digits', () => {
+    // Reference: Number.prototype.toLocaleString('en-US', { maximumFractionDigits, useGrouping }) (ECMA-402).
+    for (const digits of [1, 2, 3, 4, 6]) {
+      for (let e = -3; e < 15; e++) {
+        for (const m of [1, 1.23456, 4.5, 9.995, 7.0001]) {
+          for (const v of [m * 10 ** e, -m * 10 ** e]) {
+            if (Math.abs(v) < 1e-3 || Math.abs(v) >= 1e15) continue;
+            const rounded = Number(v.toPrecision(digits));
+            const decimals = Math.max(0, digits - 1 - Math.floor(Math.log10(Math.abs(rounded))));
+            const expected = rounded.toLocaleString('en-US', { maximumFractionDigits: decimals, useGrouping: true }).replace('-', '\u2212');
+            expect(formatValue(v, digits)).toBe(expected);
+          }
+        }
+      }
+    }
+    expect(formatCount(-1234567)).toBe('\u22121,234,567');
+  });
+});

@@ -3,8 +3,9 @@
  * (an object, a path and event handlers) per sample would stall the page. The canvas covers the map
  * view; after every move or zoom the dots are projected (latLngToContainerPoint) and drawn again, at
  * most once per animation frame; positions are projected again only when the view changed, and each
- * dot is stamped from a pre-drawn sprite of its colour. It hides during zoom animations (Leaflet's
- * 'leaflet-zoom-hide'). A click picks the nearest dot within a few pixels (one pass over the
+ * dot is stamped from a pre-drawn sprite of its colour, a few tens of ms of stamping per task so that
+ * 20,000 dots do not hold the page (the finished canvas is the same as drawn in one go). It hides
+ * during zoom animations (Leaflet's 'leaflet-zoom-hide'). A click picks the nearest dot within a few pixels (one pass over the
  * projected positions, kept from the last drawing). Colours come per sample from the caller; the
  * selected sample is drawn larger with a dark ring. Written Leaflet's way (extends L.Layer); the
  * Svelte map component creates it and calls its setters.
@@ -17,6 +18,9 @@ export interface SamplePointsOptions extends L.LayerOptions {
   /** Largest distance from a click to a dot that picks it, px. */
   pickRadius?: number;
 }
+
+/** Time spent stamping dots in one task before the rest waits for the next one, ms. */
+const DRAW_BUDGET_MS = 25;
 
 export class SamplePointsLayer extends L.Layer {
   declare options: SamplePointsOptions;
@@ -58,6 +62,8 @@ export class SamplePointsLayer extends L.Layer {
   }
 
   private frame: number | null = null;
+  /** Bumped by each drawing: the remaining slices of an earlier one stop. */
+  private drawing = 0;
 
   /** Draws once in the next animation frame, however many changes and map events come before it. */
   scheduleDraw(): void {
@@ -95,6 +101,7 @@ export class SamplePointsLayer extends L.Layer {
     map.off('click', this.onClick, this);
     if (this.frame !== null) L.Util.cancelAnimFrame(this.frame);
     this.frame = null;
+    this.drawing++;
     this.canvas?.remove();
     this.canvas = null;
     return this;
@@ -188,22 +195,40 @@ export class SamplePointsLayer extends L.Layer {
     ctx.clearRect(0, 0, w, h);
     const n = this.lat.length;
     const offset = (radius + 1) * ratio;
-    for (let i = 0; i < n; i++) {
-      const x = this.px[i];
-      if (!Number.isFinite(x)) continue;
-      const img = this.sprite(this.colours[i] ?? '#fbfaf7', radius, ratio);
-      ctx.drawImage(img, Math.round(x * ratio - offset), Math.round(this.py[i] * ratio - offset));
-    }
-    const s = this.selected;
-    if (s !== null && s >= 0 && s < n && Number.isFinite(this.px[s])) {
-      ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
-      ctx.beginPath();
-      ctx.arc(this.px[s], this.py[s], 8, 0, 2 * Math.PI);
-      ctx.fillStyle = this.colours[s] ?? '#fbfaf7';
-      ctx.fill();
-      ctx.lineWidth = 3;
-      ctx.strokeStyle = '#000000';
-      ctx.stroke();
-    }
+    const sprites = new Map<string, HTMLCanvasElement>();
+    const generation = ++this.drawing;
+    let i = 0;
+    // Dots in order, DRAW_BUDGET_MS of stamping per task: the finished canvas is the same as in one go.
+    const slice = (): void => {
+      if (generation !== this.drawing || this.canvas !== c) return;
+      const until = performance.now() + DRAW_BUDGET_MS;
+      for (; i < n; i++) {
+        if ((i & 255) === 0 && i > 0 && performance.now() > until) {
+          setTimeout(slice, 0);
+          return;
+        }
+        const x = this.px[i];
+        if (!Number.isFinite(x)) continue;
+        const colour = this.colours[i] ?? '#fbfaf7';
+        let img = sprites.get(colour);
+        if (!img) {
+          img = this.sprite(colour, radius, ratio);
+          sprites.set(colour, img);
+        }
+        ctx.drawImage(img, Math.round(x * ratio - offset), Math.round(this.py[i] * ratio - offset));
+      }
+      const s = this.selected;
+      if (s !== null && s >= 0 && s < n && Number.isFinite(this.px[s])) {
+        ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
+        ctx.beginPath();
+        ctx.arc(this.px[s], this.py[s], 8, 0, 2 * Math.PI);
+        ctx.fillStyle = this.colours[s] ?? '#fbfaf7';
+        ctx.fill();
+        ctx.lineWidth = 3;
+        ctx.strokeStyle = '#000000';
+        ctx.stroke();
+      }
+    };
+    slice();
   }
 }
