@@ -5,7 +5,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, takeLongestTask, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, takeLongestTask, chooseCrs, pixelAt, type Watched } from './harness.ts';
 import { fiveHundredCsv, hostileCsv, projectedGridCsv } from './files.ts';
 import { buildLut } from '../src/ui/map/colour-scales.ts';
 
@@ -16,15 +16,6 @@ async function loadFile(page: Page, name: string, text: string): Promise<void> {
   await openStep(page, 'samples');
   await page.setInputFiles('#samples-file', { name, mimeType: 'text/csv', buffer: Buffer.from(text, 'utf8') });
   await page.waitForSelector(`[data-testid=source-name]:text-is("${name}")`);
-}
-
-async function chooseCrs(page: Page, code: string): Promise<void> {
-  const input = page.locator('#crs-picker');
-  await input.click();
-  await input.fill(code.replace('EPSG:', ''));
-  await page.waitForSelector(`#crs-picker-list [role=option]:has-text("${code}")`);
-  await input.press('Enter');
-  await page.waitForSelector(`[data-testid=crs-current]:text-is("${code}")`);
 }
 
 async function fitAll(page: Page, method: 'reml' | 'wls' = 'reml'): Promise<number> {
@@ -227,20 +218,9 @@ describe('Gapwise in the browser', () => {
       }
       return scale.domain[0] + best * step;
     };
-    const pixelAt = (x: number, y: number) => page.evaluate(([px, py]) => {
-      for (const c of document.querySelectorAll<HTMLCanvasElement>('[data-testid=surface-layer] canvas')) {
-        const r = c.getBoundingClientRect();
-        if (px >= r.left && px < r.right && py >= r.top && py < r.bottom) {
-          const ix = Math.floor(((px - r.left) * c.width) / r.width);
-          const iy = Math.floor(((py - r.top) * c.height) / r.height);
-          return Array.from(c.getContext('2d')!.getImageData(ix, iy, 1, 1).data);
-        }
-      }
-      return null;
-    }, [x, y]);
     const chosen = ['G11', 'G23', 'G42'].map((id) => points.find((p) => p.id === id)!);
     for (const p of chosen) {
-      const rgba = await pixelAt(p.pageX, p.pageY);
+      const rgba = await pixelAt(page, p.pageX, p.pageY);
       expect(rgba, `a surface pixel under ${p.id}`).not.toBeNull();
       expect(rgba![3]).toBe(255);
       const v = valueOf(rgba!);
@@ -255,7 +235,7 @@ describe('Gapwise in the browser', () => {
       return m / bar.getBoundingClientRect().width;
     });
     const off = chosen[1];
-    const rgbaOff = await pixelAt(off.pageX + 12 / mPerPx, off.pageY);
+    const rgbaOff = await pixelAt(page, off.pageX + 12 / mPerPx, off.pageY);
     expect(Math.abs(valueOf(rgbaOff!) - off.value)).toBeGreaterThan(2 * step);
     figures.push(`colour read-back: 3 samples within one colour step (${step.toFixed(3)} data units) in EPSG:32633, ${mPerPx.toFixed(3)} m per pixel`);
     figures.push(`screenshot ${await shot(page, '6-readback-grid')}`);

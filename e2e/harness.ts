@@ -170,3 +170,28 @@ export function expectClean(w: Watched): void {
   expect(w.pageErrors, 'uncaught page errors').toEqual([]);
   expect(w.consoleErrors, 'console errors').toEqual([]);
 }
+
+/** The RGBA of the surface layer's canvas pixel under a screen point (null off the surface). */
+export function pixelAt(page: Page, x: number, y: number): Promise<number[] | null> {
+  return page.evaluate(([px, py]) => {
+    for (const c of document.querySelectorAll<HTMLCanvasElement>('[data-testid=surface-layer] canvas')) {
+      const r = c.getBoundingClientRect();
+      if (px >= r.left && px < r.right && py >= r.top && py < r.bottom) {
+        const ix = Math.floor(((px - r.left) * c.width) / r.width);
+        const iy = Math.floor(((py - r.top) * c.height) / r.height);
+        return Array.from(c.getContext('2d')!.getImageData(ix, iy, 1, 1).data);
+      }
+    }
+    return null;
+  }, [x, y]);
+}
+
+/** Chooses a coordinate system in the Samples step's picker by its code and waits until it is in use. */
+export async function chooseCrs(page: Page, code: string): Promise<void> {
+  const input = page.locator('#crs-picker');
+  await input.click();
+  await input.fill(code.replace('EPSG:', ''));
+  await page.waitForSelector(`#crs-picker-list [role=option]:has-text("${code}")`);
+  await input.press('Enter');
+  await page.waitForSelector(`[data-testid=crs-current]:text-is("${code}")`);
+}

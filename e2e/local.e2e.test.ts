@@ -10,7 +10,7 @@
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import type { Download, Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, pixelAt, type Watched } from './harness.ts';
 import { localBoundaryGeoJson, localGridCsv } from './files.ts';
 import { buildLut } from '../src/ui/map/colour-scales.ts';
 
@@ -33,20 +33,6 @@ async function download(page: Page, selector: string): Promise<{ name: string; b
 }
 
 /** The RGBA of the surface canvas pixel under a page position, or null off the surface. */
-function pixelAt(page: Page, x: number, y: number): Promise<number[] | null> {
-  return page.evaluate(([px, py]) => {
-    for (const c of document.querySelectorAll<HTMLCanvasElement>('[data-testid=surface-layer] canvas')) {
-      const r = c.getBoundingClientRect();
-      if (px >= r.left && px < r.right && py >= r.top && py < r.bottom) {
-        const ix = Math.floor(((px - r.left) * c.width) / r.width);
-        const iy = Math.floor(((py - r.top) * c.height) / r.height);
-        return Array.from(c.getContext('2d')!.getImageData(ix, iy, 1, 1).data);
-      }
-    }
-    return null;
-  }, [x, y]);
-}
-
 /** The value a colour stands for on the mean layer's scale (nearest table entry; log scales too). */
 function valueOfColour(rgb: number[], scale: { domain: [number, number]; steps: number; log: boolean }): { value: number; step: number } {
   const lut = buildLut('loam', scale.steps);

@@ -10,7 +10,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
 import { fiveHundredCsv } from './files.ts';
 import { createRandom } from '../src/core/random.ts';
 
@@ -36,15 +36,6 @@ async function saved(page: Page): Promise<void> {
     return at > 0 && Date.now() - at > 1000;
   }, null, { timeout: WAIT });
   expect(await page.locator('[data-testid=save-status]').innerText()).toBe('Saved in this browser');
-}
-
-async function chooseCrs(page: Page, code: string): Promise<void> {
-  const input = page.locator('#crs-picker');
-  await input.click();
-  await input.fill(code.replace('EPSG:', ''));
-  await page.waitForSelector(`#crs-picker-list [role=option]:has-text("${code}")`);
-  await input.press('Enter');
-  await page.waitForSelector(`[data-testid=crs-current]:text-is("${code}")`);
 }
 
 /**
