@@ -9,20 +9,8 @@ import type { Grid } from '../core/grid.ts';
 import { colourAtT, hexColour, paletteFromLut, paletteIndices, type Lut } from './report-colours.ts';
 import { palettePng, pngDataUrl } from './report-png.ts';
 import { formatValue } from './format.ts';
+import { niceTicks } from './ticks.ts';
 import { html, joinMarkup, trusted, type Markup } from './markup.ts';
-
-/** Round tick values (1, 2 or 5 × 10^k steps) covering [min, max], about `count` of them. */
-export function niceTicks(min: number, max: number, count = 5): number[] {
-  if (!Number.isFinite(min) || !Number.isFinite(max)) return [];
-  if (max === min) return [min];
-  const raw = (max - min) / Math.max(1, count);
-  const p = 10 ** Math.floor(Math.log10(raw));
-  const f = raw / p;
-  const step = (f < 1.5 ? 1 : f < 3 ? 2 : f < 7 ? 5 : 10) * p;
-  const out: number[] = [];
-  for (let k = Math.ceil(min / step - 1e-9); k * step <= max + step * 1e-9; k++) out.push(Number((k * step).toPrecision(12)));
-  return out;
-}
 
 /** Smallest and largest finite value (a loop: spreading large arrays into Math.min overflows). */
 export function finiteRange(...arrays: ArrayLike<number>[]): { min: number; max: number } {

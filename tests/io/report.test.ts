@@ -15,7 +15,7 @@ import { exceedanceArea } from '../../src/core/exceedance-area.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { DEFAULT_LUT_HEX, defaultLuts, colourAtT, paletteIndices, lutFromRgba } from '../../src/io/report-colours.ts';
 import { adler32, base64, crc32, palettePng } from '../../src/io/report-png.ts';
-import { logTicks, niceTicks, scaleBarLength } from '../../src/io/report-svg.ts';
+import { logTicks, scaleBarLength } from '../../src/io/report-svg.ts';
 import { escapeText } from '../../src/io/markup.ts';
 import { buildLut } from '../../src/ui/map/colour-scales.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
@@ -329,8 +329,7 @@ describe('report colours and drawing helpers', () => {
     expect(northAngle(grid, 'local')).toBeNull();
   });
 
-  it('niceTicks, logTicks, scaleBarLength, escapeText and candidateLabel give round, readable values', () => {
-    expect(niceTicks(0, 1, 4)).toEqual([0, 0.2, 0.4, 0.6, 0.8, 1]);
+  it('logTicks, scaleBarLength, escapeText and candidateLabel give round, readable values', () => {
     expect(logTicks(3, 1500)).toEqual([5, 10, 20, 50, 100, 200, 500, 1000]);
     expect(scaleBarLength(430)).toBe(200);
     expect(scaleBarLength(90)).toBe(50);

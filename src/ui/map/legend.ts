@@ -5,6 +5,7 @@
  */
 import { SCALES, colourAt, hex, type ScaleName } from './colour-scales.ts';
 import { html, type Markup } from '../../io/markup.ts';
+import { niceTicks } from '../../io/ticks.ts';
 
 export type LegendKind = 'mean' | 'sd' | 'pExceed';
 
@@ -76,24 +77,6 @@ export function logScaleTicks(min: number, max: number): number[] {
 }
 
 const DEFAULT_SCALE: Record<LegendKind, ScaleName> = { mean: 'loam', sd: 'haze', pExceed: 'tide' };
-
-/**
- * "Nice" tick values (multiples of 1, 2 or 5 × 10^k) inside [min, max], about `count` of them;
- * a single value when min = max.
- */
-export function niceTicks(min: number, max: number, count = 5): number[] {
-  if (!Number.isFinite(min) || !Number.isFinite(max)) return [];
-  if (max < min) [min, max] = [max, min];
-  if (max === min) return [min];
-  const raw = (max - min) / Math.max(1, count);
-  const power = 10 ** Math.floor(Math.log10(raw));
-  const step = [1, 2, 5, 10].map((m) => m * power).find((s) => s >= raw * 0.999) ?? 10 * power;
-  const first = Math.ceil(min / step - 1e-9);
-  const last = Math.floor(max / step + 1e-9);
-  const out: number[] = [];
-  for (let k = first; k <= last; k++) out.push(Number((k * step).toPrecision(12)));
-  return out;
-}
 
 /** Decimals needed to show numbers spaced `step` apart. */
 function decimalsFor(step: number): number {

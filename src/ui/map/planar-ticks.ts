@@ -2,7 +2,7 @@
  * The pure part of a planar map's guides (./planar-guides.ts): round grid-line values for a visible
  * range, their labels, and the length of a scale bar. No Leaflet and no DOM, so it is tested in Node.
  */
-import { niceTicks } from './legend.ts';
+import { niceTicks } from '../../io/ticks.ts';
 
 /** Grid lines for the visible range: round x and y values, about `count` of each, and their step. */
 export function gridLines(min: number, max: number, count: number): { values: number[]; step: number } {

@@ -1,5 +1,5 @@
 /**
- * Small helpers for the SVG charts: linear scales, rounded tick values and histogram bins. Pure
+ * Small helpers for the SVG charts: linear scales and histogram bins (ticks: io/ticks.ts). Pure
  * functions, no DOM; number formats are in io/format.ts.
  */
 
@@ -18,36 +18,6 @@ export function linearScale(domain: [number, number], range: [number, number]): 
   f.domain = [d0, d1];
   f.range = [r0, r1];
   return f;
-}
-
-/** Step between ticks: 1, 2 or 5 times a power of ten, giving about `count` ticks over [min, max]. */
-export function tickStep(min: number, max: number, count: number): number {
-  const span = Math.abs(max - min);
-  if (!(span > 0) || !Number.isFinite(span)) return 1;
-  const raw = span / Math.max(1, count);
-  const power = 10 ** Math.floor(Math.log10(raw));
-  const f = raw / power;
-  const nice = f >= 7.5 ? 10 : f >= 3.5 ? 5 : f >= 1.5 ? 2 : 1;
-  return nice * power;
-}
-
-/** Rounded tick values covering [min, max] (inside it), about `count` of them. */
-export function niceTicks(min: number, max: number, count = 5): number[] {
-  if (!Number.isFinite(min) || !Number.isFinite(max)) return [];
-  if (min === max) return [min];
-  const step = tickStep(min, max, count);
-  const start = Math.ceil(min / step - 1e-9) * step;
-  const out: number[] = [];
-  for (let v = start; v <= max + step * 1e-9; v += step) out.push(Math.abs(v) < step * 1e-9 ? 0 : +v.toPrecision(12));
-  return out;
-}
-
-/** The smallest rounded interval [a, b] containing [min, max], for axis domains. */
-export function niceDomain(min: number, max: number, count = 5): [number, number] {
-  if (!Number.isFinite(min) || !Number.isFinite(max)) return [0, 1];
-  if (min === max) return min === 0 ? [0, 1] : [Math.min(0, min), Math.max(0, max) || 1];
-  const step = tickStep(min, max, count);
-  return [Math.floor(min / step) * step, Math.ceil(max / step) * step];
 }
 
 export interface HistogramBin {

@@ -1,19 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { formatValue, legendData, legendSvg, logScaleTicks, niceTicks } from '../../../src/ui/map/legend.ts';
+import { formatValue, legendData, legendSvg, logScaleTicks } from '../../../src/ui/map/legend.ts';
 import { escapeText } from '../../../src/io/markup.ts';
 import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
-
-describe('niceTicks', () => {
-  it('niceTicks picks 1-2-5 steps inside the domain', () => {
-    expect(niceTicks(0, 100, 5)).toEqual([0, 20, 40, 60, 80, 100]);
-    expect(niceTicks(12.3, 487.9, 5)).toEqual([100, 200, 300, 400]);
-    expect(niceTicks(0.013, 0.061, 4)).toEqual([0.02, 0.04, 0.06]);
-    expect(niceTicks(0.013, 0.061, 8)).toEqual([0.02, 0.03, 0.04, 0.05, 0.06]);
-    expect(niceTicks(-3, 3, 6)).toEqual([-3, -2, -1, 0, 1, 2, 3]);
-    expect(niceTicks(5, 5)).toEqual([5]);
-    expect(niceTicks(NaN, 5)).toEqual([]);
-  });
-});
 
 describe('formatValue', () => {
   it('formatValue uses the decimals the spacing needs and a true minus sign', () => {

@@ -4,10 +4,10 @@ import { coordinateLabel, gridLines, scaleLength } from '../../../src/ui/map/pla
 describe('planar-ticks', () => {
   it('gridLines gives round values inside the range and their common step', () => {
     const g = gridLines(-13, 214, 8);
-    expect(g.step).toBe(50);
+    expect(g.step).toBe(20);
     expect(g.values[0]).toBe(0);
     expect(g.values[g.values.length - 1]).toBe(200);
-    for (let k = 1; k < g.values.length; k++) expect(g.values[k] - g.values[k - 1]).toBeCloseTo(50, 12);
+    for (let k = 1; k < g.values.length; k++) expect(g.values[k] - g.values[k - 1]).toBeCloseTo(20, 12);
     expect(gridLines(5, 5, 8)).toEqual({ values: [], step: 0 });
   });
 

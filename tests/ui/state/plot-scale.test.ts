@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  histogram, linearScale, niceDomain, niceTicks, tickStep,
+  histogram, linearScale,
 } from '../../../src/ui/state/plot-scale.ts';
 
 describe('linearScale', () => {
@@ -12,24 +12,6 @@ describe('linearScale', () => {
   });
   it('linearScale maps a zero-width domain to the middle of the range', () => {
     expect(linearScale([5, 5], [0, 100])(5)).toBe(50);
-  });
-});
-
-describe('tickStep / niceTicks / niceDomain', () => {
-  it('tickStep picks 1, 2 or 5 times a power of ten', () => {
-    expect(tickStep(0, 100, 5)).toBe(20);
-    expect(tickStep(0, 1, 4)).toBe(0.2);
-    expect(tickStep(0, 0.07, 5)).toBeCloseTo(0.01, 12);
-    expect(tickStep(0, 3000, 3)).toBe(1000);
-  });
-  it('niceTicks stays inside the interval and is evenly spaced', () => {
-    const t = niceTicks(3, 97, 5);
-    expect(t).toEqual([20, 40, 60, 80]);
-    expect(niceTicks(-0.3, 0.3, 6)).toEqual([-0.3, -0.2, -0.1, 0, 0.1, 0.2, 0.3]);
-  });
-  it('niceDomain widens to the rounded steps around the data', () => {
-    expect(niceDomain(3, 97, 5)).toEqual([0, 100]);
-    expect(niceDomain(0, 0)).toEqual([0, 1]);
   });
 });
 
