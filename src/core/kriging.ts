@@ -33,6 +33,7 @@ import {
   trendColumnCount, knownMean, coordinateFrame, centreCoordinates, designMatrix, designRow,
   type CoordinateFrame,
 } from './trend.ts';
+import { logPredictionToDataScale } from './lognormal.ts';
 
 /** Options for building a predictor (plain data). */
 export interface PredictorOptions {
@@ -398,21 +399,7 @@ export function predictWithSystem(
   // Lognormal back-transform. The bias correction exp(Ŷ + σ²/2) is exact for simple kriging; for
   // ordinary and universal kriging a Lagrange term also enters (Journel 1980, from memory). We use
   // the simple form for every trend.
-  const logMean = mean;
-  const logSd = sd;
-  const outMean = new Float64Array(total);
-  const outSd = new Float64Array(total);
-  const outSdObs = new Float64Array(total);
-  const median = new Float64Array(total);
-  for (let j = 0; j < total; j++) {
-    const s2 = logSd[j] * logSd[j];
-    const o2 = s2 + nugget;
-    median[j] = Math.exp(logMean[j]);
-    outMean[j] = Math.exp(logMean[j] + s2 / 2);
-    outSd[j] = outMean[j] * Math.sqrt(Math.expm1(s2));
-    outSdObs[j] = Math.exp(logMean[j] + o2 / 2) * Math.sqrt(Math.expm1(o2));
-  }
-  return { mean: outMean, sd: outSd, sdObserved: outSdObs, median, logMean, logSd };
+  return { ...logPredictionToDataScale(mean, sd, nugget), logMean: mean, logSd: sd };
 }
 
 /** Kriging weights at one target from a factorised system (see Predictor.weights). */

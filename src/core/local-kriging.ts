@@ -34,6 +34,7 @@ import { coordinateFrame, designRow, knownMean, trendColumnCount, type Coordinat
 import { NeighborIndex } from './neighbors.ts';
 import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
 import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
+import { logPredictionToDataScale } from './lognormal.ts';
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
@@ -599,19 +600,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     }
     if (!log) return { mean, sd, sdObserved, warnings: callWarnings };
     // Lognormal back-transform, as kriging.ts: mean exp(Ŷ + σ²/2), median exp(Ŷ).
-    const outMean = new Float64Array(total);
-    const outSd = new Float64Array(total);
-    const outSdObs = new Float64Array(total);
-    const median = new Float64Array(total);
-    for (let j = 0; j < total; j++) {
-      const s2 = sd[j] * sd[j];
-      const o2 = s2 + nugget;
-      median[j] = Math.exp(mean[j]);
-      outMean[j] = Math.exp(mean[j] + s2 / 2);
-      outSd[j] = outMean[j] * Math.sqrt(Math.expm1(s2));
-      outSdObs[j] = Math.exp(mean[j] + o2 / 2) * Math.sqrt(Math.expm1(o2));
-    }
-    return { mean: outMean, sd: outSd, sdObserved: outSdObs, median, logMean: mean, logSd: sd, warnings: callWarnings };
+    return { ...logPredictionToDataScale(mean, sd, nugget), logMean: mean, logSd: sd, warnings: callWarnings };
   };
 
   const checked = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction =>

@@ -1,16 +1,14 @@
 import { describe, expect, it } from 'vitest';
 import {
-  backTransform, lagrangeTerm, lognormalExceedance, lognormalMean, lognormalMedian, lognormalQuantile, lognormalSd,
-  lognormalUnbiasedMean, normalQuantile,
+  lognormalMean, lognormalMedian, lognormalSd, logPredictionToDataScale,
 } from '../../src/core/lognormal.ts';
-import { createPredictor } from '../../src/core/kriging.ts';
+import { createPredictor, type Predictor } from '../../src/core/kriging.ts';
 import { sampleCovarianceMatrix } from '../../src/core/covariance.ts';
 import { cholesky } from '../../src/core/linalg.ts';
-import { normalCdf } from '../../src/core/normal.ts';
 import { createRandom } from '../../src/core/random.ts';
 import { makeSamples } from '../../src/core/samples.ts';
 import type { CovarianceModel } from '../../src/core/model.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { designRow } from '../../src/core/trend.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 /** Mean and standard error of a sample. */
@@ -23,28 +21,25 @@ function meanAndError(values: Float64Array): { mean: number; se: number } {
   return { mean, se: Math.sqrt(ss / (values.length - 1) / values.length) };
 }
 
-describe('normalQuantile', () => {
-  it('normalQuantile inverts Φ to 1e-13 relative (1e-11 at p = 1e-300, where the rounding of Φ dominates)', () => {
-    // Source: Φ of ./normal.ts (checked against scipy in tests/core/normal.test.ts); Φ(Φ⁻¹(p)) = p.
-    for (const p of [1e-300, 1e-12, 1e-6, 0.001, 0.02425, 0.05, 0.2, 0.5, 0.7, 0.95, 0.97575, 0.999]) {
-      const z = normalQuantile(p);
-      expectClose(normalCdf(z), p, { rel: p < 1e-100 ? 1e-11 : 1e-13 }, `Φ(Φ⁻¹(${p}))`);
-    }
-    expect(normalQuantile(0.5)).toBe(0);
-  });
+/**
+ * The alternative estimator the app does NOT use, kept here to show why: the mean unbiased over
+ * repeated fields with an unknown trend, exp(Ŷ + σ²/2 + x₀ᵀμ), μ the kriging Lagrange multipliers.
+ */
+function lognormalUnbiasedMean(logMean: number, logSd: number, lagrange: number): number {
+  return Math.exp(logMean + 0.5 * logSd * logSd + lagrange);
+}
 
-  it('normalQuantile gives the tabulated percentage points', () => {
-    // Source: Abramowitz & Stegun 1964, Table 26.5 (from memory): z(0.95) = 1.644853627, z(0.975) = 1.959963985.
-    expectClose(normalQuantile(0.95), 1.644853627, { abs: 1e-9 });
-    expectClose(normalQuantile(0.05), -1.644853627, { abs: 1e-9 });
-    expectClose(normalQuantile(0.975), 1.959963985, { abs: 1e-9 });
-  });
-
-  it('normalQuantile rejects a probability outside [0, 1]', () => {
-    expect(() => normalQuantile(1.5)).toThrow(GapwiseError);
-    expect(normalQuantile(0)).toBe(-Infinity);
-  });
-});
+/** x₀ᵀμ at one target: the Lagrange multipliers times the target's trend columns. */
+function lagrangeTerm(predictor: Predictor, tx: number, ty: number): number {
+  const w = predictor.weights(tx, ty);
+  const p = w.lagrange.length;
+  if (p === 0) return 0;
+  const x0 = new Float64Array(p);
+  designRow(predictor.model.trend, tx, ty, predictor.frame, x0);
+  let sum = 0;
+  for (let a = 0; a < p; a++) sum += x0[a] * w.lagrange[a];
+  return sum;
+}
 
 describe('lognormalMean', () => {
   it('lognormalMean equals a seeded Monte Carlo average of exp(Y), Y ~ N(Ŷ, σ²) (4 standard errors)', () => {
@@ -58,38 +53,33 @@ describe('lognormalMean', () => {
     }
   });
 
-  it('lognormalMean, lognormalSd, lognormalMedian and quantiles have their exact values', () => {
-    // Source: lognormal moments exp(μ + σ²/2), √(e^{σ²} − 1)·mean and quantiles exp(μ + z_p σ)
-    // (Aitchison & Brown 1957, from memory); quantiles checked through Φ: P(Z ≤ q_p) = p exactly.
+  it('lognormalMean, lognormalSd and lognormalMedian have their exact values', () => {
+    // Source: lognormal moments exp(μ + σ²/2) and √(e^{σ²} − 1)·mean (Aitchison & Brown 1957, from memory).
     const m = 2.1, s = 0.6;
     expectClose(lognormalMean(m, s), Math.exp(2.1 + 0.18), { rel: 1e-15 });
     expectClose(lognormalSd(m, s), Math.exp(2.28) * Math.sqrt(Math.exp(0.36) - 1), { rel: 1e-14 });
     expect(lognormalMedian(m)).toBe(Math.exp(2.1));
-    for (const p of [0.05, 0.5, 0.95]) {
-      const q = lognormalQuantile(m, s, p);
-      expectClose(normalCdf((Math.log(q) - m) / s), p, { rel: 1e-13 }, `P(Z ≤ q_${p})`);
-    }
-    expectClose(lognormalQuantile(m, s, 0.5), Math.exp(m), { rel: 1e-15 });
-    expectClose(lognormalExceedance(m, s, Math.exp(m)), 0.5, { abs: 1e-15 });
-    expect(lognormalExceedance(m, s, 0)).toBe(1);
   });
 
-  it('backTransform agrees with the log-model predictions of kriging.ts and adds quantiles and P(exceed)', () => {
+  it('logPredictionToDataScale gives the moments per target, the nugget only in sdObserved, and is what kriging.ts returns', () => {
+    const d = logPredictionToDataScale([2.1, 0, NaN], [0.6, 0, 1], 0.09);
+    expectClose(d.mean[0], lognormalMean(2.1, 0.6), { rel: 1e-15 });
+    expectClose(d.sd[0], lognormalSd(2.1, 0.6), { rel: 1e-14 });
+    expectClose(d.sdObserved[0], lognormalSd(2.1, Math.sqrt(0.36 + 0.09)), { rel: 1e-14 });
+    expect(d.median[0]).toBe(Math.exp(2.1));
+    expect([d.mean[1], d.sd[1], d.median[1]]).toEqual([1, 0, 1]);
+    expectClose(d.sdObserved[1], Math.sqrt(Math.expm1(0.09)) * Math.exp(0.045), { rel: 1e-14 });
+    expect(Number.isNaN(d.mean[2]) && Number.isNaN(d.sd[2])).toBe(true);
     const model: CovarianceModel = {
       structures: [{ type: 'nugget', sill: 0.05 }, { type: 'exponential', sill: 0.5, scale: 120 }], trend: 'constant', transform: 'log',
     };
     const samples = makeSamples([0, 80, 150, 30, 200], [0, 40, -20, 160, 120], [12, 30, 8, 55, 21]);
     const p = createPredictor(samples, model).predict([50, 400], [50, 0]);
-    const b = backTransform(p.logMean!, p.logSd!, { threshold: 25 });
-    expectClose(b.mean, p.mean, { rel: 1e-14 }, 'mean');
-    expectClose(b.median, p.median!, { rel: 1e-14 }, 'median');
-    expectClose(b.sd, p.sd, { rel: 1e-13 }, 'sd');
-    for (let k = 0; k < 2; k++) {
-      expect(b.p05[k]).toBeLessThan(b.median[k]);
-      expect(b.p95[k]).toBeGreaterThan(b.mean[k]);
-      expectClose(b.pExceed![k], 1 - normalCdf((Math.log(25) - p.logMean![k]) / p.logSd![k]), { abs: 1e-15 });
-    }
-    expect(() => backTransform([1], [1], { threshold: 0 })).toThrow(/above 0/);
+    const b = logPredictionToDataScale(p.logMean!, p.logSd!, 0.05);
+    expect(b.mean).toEqual(p.mean);
+    expect(b.sd).toEqual(p.sd);
+    expect(b.sdObserved).toEqual(p.sdObserved);
+    expect(b.median).toEqual(p.median);
   });
 });
 
