@@ -1,0 +1,233 @@
+;; Dense linear-algebra kernel for Gapwise, hand-written WebAssembly text with 128-bit SIMD (f64x2).
+;; scripts/build-wasm.mjs assembles it (wabt) into src/core/generated/linalg-wasm.ts; the driver that
+;; splits Cholesky factorisations and triangular solves into calls of `gemm` is src/core/linalg-wasm.ts.
+;;
+;; Memory: one linear memory, exported, grown by the driver. Bytes [0, 128) are this module's scratch
+;; (a 4×4 tile at the matrix edges); the driver places its matrices from byte 1024 on.
+;; Addresses are byte offsets; leading dimensions (ld*) and sizes are in doubles. Matrices are row-major.
+(module
+  (memory (export "memory") 1)
+
+  ;; C[0:mr, 0:nr] -= Σ_p a_p ⊗ b_p for one register tile of 4 rows × 4 columns (8 f64x2 accumulators).
+  ;; ap: packed A micro-panel, 4 doubles per step p (rows 0..3 of column p); bp: packed B micro-panel,
+  ;; 4 doubles per step (columns 0..3 of row p); both zero-padded past mr / nr. c: address of C[0][0],
+  ;; ldc: bytes between rows of C. Full tiles are updated with vector loads and stores; edge tiles go
+  ;; through the scratch tile and scalar updates of the entries that exist.
+  (func $micro (param $ap i32) (param $bp i32) (param $kc i32) (param $c i32) (param $ldc i32)
+               (param $mr i32) (param $nr i32)
+    (local $c00 v128) (local $c01 v128) (local $c10 v128) (local $c11 v128)
+    (local $c20 v128) (local $c21 v128) (local $c30 v128) (local $c31 v128)
+    (local $a v128) (local $b0 v128) (local $b1 v128)
+    (local $end i32) (local $r i32) (local $j i32) (local $row i32)
+    (local.set $end (i32.add (local.get $ap) (i32.shl (local.get $kc) (i32.const 5))))
+    (loop $p
+      (local.set $b0 (v128.load (local.get $bp)))
+      (local.set $b1 (v128.load offset=16 (local.get $bp)))
+      (local.set $a (v128.load64_splat (local.get $ap)))
+      (local.set $c00 (f64x2.add (local.get $c00) (f64x2.mul (local.get $a) (local.get $b0))))
+      (local.set $c01 (f64x2.add (local.get $c01) (f64x2.mul (local.get $a) (local.get $b1))))
+      (local.set $a (v128.load64_splat offset=8 (local.get $ap)))
+      (local.set $c10 (f64x2.add (local.get $c10) (f64x2.mul (local.get $a) (local.get $b0))))
+      (local.set $c11 (f64x2.add (local.get $c11) (f64x2.mul (local.get $a) (local.get $b1))))
+      (local.set $a (v128.load64_splat offset=16 (local.get $ap)))
+      (local.set $c20 (f64x2.add (local.get $c20) (f64x2.mul (local.get $a) (local.get $b0))))
+      (local.set $c21 (f64x2.add (local.get $c21) (f64x2.mul (local.get $a) (local.get $b1))))
+      (local.set $a (v128.load64_splat offset=24 (local.get $ap)))
+      (local.set $c30 (f64x2.add (local.get $c30) (f64x2.mul (local.get $a) (local.get $b0))))
+      (local.set $c31 (f64x2.add (local.get $c31) (f64x2.mul (local.get $a) (local.get $b1))))
+      (local.set $ap (i32.add (local.get $ap) (i32.const 32)))
+      (local.set $bp (i32.add (local.get $bp) (i32.const 32)))
+      (br_if $p (i32.lt_u (local.get $ap) (local.get $end))))
+    (if (i32.and (i32.eq (local.get $mr) (i32.const 4)) (i32.eq (local.get $nr) (i32.const 4)))
+      (then
+        (local.set $row (local.get $c))
+        (v128.store (local.get $row) (f64x2.sub (v128.load (local.get $row)) (local.get $c00)))
+        (v128.store offset=16 (local.get $row) (f64x2.sub (v128.load offset=16 (local.get $row)) (local.get $c01)))
+        (local.set $row (i32.add (local.get $row) (local.get $ldc)))
+        (v128.store (local.get $row) (f64x2.sub (v128.load (local.get $row)) (local.get $c10)))
+        (v128.store offset=16 (local.get $row) (f64x2.sub (v128.load offset=16 (local.get $row)) (local.get $c11)))
+        (local.set $row (i32.add (local.get $row) (local.get $ldc)))
+        (v128.store (local.get $row) (f64x2.sub (v128.load (local.get $row)) (local.get $c20)))
+        (v128.store offset=16 (local.get $row) (f64x2.sub (v128.load offset=16 (local.get $row)) (local.get $c21)))
+        (local.set $row (i32.add (local.get $row) (local.get $ldc)))
+        (v128.store (local.get $row) (f64x2.sub (v128.load (local.get $row)) (local.get $c30)))
+        (v128.store offset=16 (local.get $row) (f64x2.sub (v128.load offset=16 (local.get $row)) (local.get $c31)))
+        (return)))
+    (v128.store offset=0 (i32.const 0) (local.get $c00))
+    (v128.store offset=16 (i32.const 0) (local.get $c01))
+    (v128.store offset=32 (i32.const 0) (local.get $c10))
+    (v128.store offset=48 (i32.const 0) (local.get $c11))
+    (v128.store offset=64 (i32.const 0) (local.get $c20))
+    (v128.store offset=80 (i32.const 0) (local.get $c21))
+    (v128.store offset=96 (i32.const 0) (local.get $c30))
+    (v128.store offset=112 (i32.const 0) (local.get $c31))
+    (local.set $r (i32.const 0))
+    (loop $rows
+      (local.set $row (i32.add (local.get $c) (i32.mul (local.get $r) (local.get $ldc))))
+      (local.set $j (i32.const 0))
+      (loop $cols
+        (f64.store
+          (i32.add (local.get $row) (i32.shl (local.get $j) (i32.const 3)))
+          (f64.sub
+            (f64.load (i32.add (local.get $row) (i32.shl (local.get $j) (i32.const 3))))
+            (f64.load (i32.shl (i32.add (i32.shl (local.get $r) (i32.const 2)) (local.get $j)) (i32.const 3)))))
+        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (br_if $cols (i32.lt_u (local.get $j) (local.get $nr))))
+      (local.set $r (i32.add (local.get $r) (i32.const 1)))
+      (br_if $rows (i32.lt_u (local.get $r) (local.get $mr)))))
+
+  ;; Packs op(B)[p0:p0+kc, j0:j0+nc] into micro-panels of 4 columns: dst[(jp·kc + p)·4 + jj], zero past n.
+  ;; op(B)[p][j] = B[p][j] when bt = 0, B[j][p] when bt = 1.
+  (func $packB (param $B i32) (param $ldb i32) (param $bt i32) (param $p0 i32) (param $j0 i32)
+               (param $kc i32) (param $nc i32) (param $n i32) (param $dst i32)
+    (local $jp i32) (local $j i32) (local $jj i32) (local $p i32) (local $src i32) (local $d i32)
+    (local $stepP i32) (local $full i32)
+    (local.set $jp (i32.const 0))
+    (loop $panels
+      (local.set $j (i32.add (local.get $j0) (i32.shl (local.get $jp) (i32.const 2))))
+      (local.set $d (i32.add (local.get $dst) (i32.shl (i32.mul (local.get $jp) (local.get $kc)) (i32.const 5))))
+      (local.set $full (i32.le_u (i32.add (local.get $j) (i32.const 4)) (local.get $n)))
+      (if (i32.and (local.get $full) (i32.eqz (local.get $bt)))
+        (then
+          ;; Rows of B are contiguous in j: two vector copies per step.
+          (local.set $src (i32.add (local.get $B)
+            (i32.shl (i32.add (i32.mul (local.get $p0) (local.get $ldb)) (local.get $j)) (i32.const 3))))
+          (local.set $stepP (i32.shl (local.get $ldb) (i32.const 3)))
+          (local.set $p (i32.const 0))
+          (loop $steps
+            (v128.store (local.get $d) (v128.load (local.get $src)))
+            (v128.store offset=16 (local.get $d) (v128.load offset=16 (local.get $src)))
+            (local.set $src (i32.add (local.get $src) (local.get $stepP)))
+            (local.set $d (i32.add (local.get $d) (i32.const 32)))
+            (local.set $p (i32.add (local.get $p) (i32.const 1)))
+            (br_if $steps (i32.lt_u (local.get $p) (local.get $kc)))))
+        (else
+          (local.set $jj (i32.const 0))
+          (loop $cols
+            (if (i32.lt_u (i32.add (local.get $j) (local.get $jj)) (local.get $n))
+              (then
+                (if (local.get $bt)
+                  (then
+                    (local.set $src (i32.add (local.get $B) (i32.shl
+                      (i32.add (i32.mul (i32.add (local.get $j) (local.get $jj)) (local.get $ldb)) (local.get $p0)) (i32.const 3))))
+                    (local.set $stepP (i32.const 8)))
+                  (else
+                    (local.set $src (i32.add (local.get $B) (i32.shl
+                      (i32.add (i32.mul (local.get $p0) (local.get $ldb)) (i32.add (local.get $j) (local.get $jj))) (i32.const 3))))
+                    (local.set $stepP (i32.shl (local.get $ldb) (i32.const 3)))))
+                (local.set $p (i32.const 0))
+                (loop $steps
+                  (f64.store
+                    (i32.add (local.get $d) (i32.shl (i32.add (i32.shl (local.get $p) (i32.const 2)) (local.get $jj)) (i32.const 3)))
+                    (f64.load (local.get $src)))
+                  (local.set $src (i32.add (local.get $src) (local.get $stepP)))
+                  (local.set $p (i32.add (local.get $p) (i32.const 1)))
+                  (br_if $steps (i32.lt_u (local.get $p) (local.get $kc)))))
+              (else
+                (local.set $p (i32.const 0))
+                (loop $zeros
+                  (f64.store
+                    (i32.add (local.get $d) (i32.shl (i32.add (i32.shl (local.get $p) (i32.const 2)) (local.get $jj)) (i32.const 3)))
+                    (f64.const 0))
+                  (local.set $p (i32.add (local.get $p) (i32.const 1)))
+                  (br_if $zeros (i32.lt_u (local.get $p) (local.get $kc))))))
+            (local.set $jj (i32.add (local.get $jj) (i32.const 1)))
+            (br_if $cols (i32.lt_u (local.get $jj) (i32.const 4))))))
+      (local.set $jp (i32.add (local.get $jp) (i32.const 1)))
+      (br_if $panels (i32.lt_u (i32.shl (local.get $jp) (i32.const 2)) (local.get $nc)))))
+
+  ;; Packs op(A)[i0:i0+4, p0:p0+kc] into dst[p·4 + r], zero for rows past m (r ≥ mr).
+  ;; op(A)[i][p] = A[i][p] when at = 0, A[p][i] when at = 1.
+  (func $packA (param $A i32) (param $lda i32) (param $at i32) (param $i0 i32) (param $p0 i32)
+               (param $kc i32) (param $mr i32) (param $dst i32)
+    (local $r i32) (local $p i32) (local $src i32) (local $step i32)
+    (local.set $r (i32.const 0))
+    (loop $rows
+      (if (i32.lt_u (local.get $r) (local.get $mr))
+        (then
+          (if (local.get $at)
+            (then
+              (local.set $src (i32.add (local.get $A) (i32.shl
+                (i32.add (i32.mul (local.get $p0) (local.get $lda)) (i32.add (local.get $i0) (local.get $r))) (i32.const 3))))
+              (local.set $step (i32.shl (local.get $lda) (i32.const 3))))
+            (else
+              (local.set $src (i32.add (local.get $A) (i32.shl
+                (i32.add (i32.mul (i32.add (local.get $i0) (local.get $r)) (local.get $lda)) (local.get $p0)) (i32.const 3))))
+              (local.set $step (i32.const 8))))
+          (local.set $p (i32.const 0))
+          (loop $steps
+            (f64.store
+              (i32.add (local.get $dst) (i32.shl (i32.add (i32.shl (local.get $p) (i32.const 2)) (local.get $r)) (i32.const 3)))
+              (f64.load (local.get $src)))
+            (local.set $src (i32.add (local.get $src) (local.get $step)))
+            (local.set $p (i32.add (local.get $p) (i32.const 1)))
+            (br_if $steps (i32.lt_u (local.get $p) (local.get $kc)))))
+        (else
+          (local.set $p (i32.const 0))
+          (loop $zeros
+            (f64.store
+              (i32.add (local.get $dst) (i32.shl (i32.add (i32.shl (local.get $p) (i32.const 2)) (local.get $r)) (i32.const 3)))
+              (f64.const 0))
+            (local.set $p (i32.add (local.get $p) (i32.const 1)))
+            (br_if $zeros (i32.lt_u (local.get $p) (local.get $kc))))))
+      (local.set $r (i32.add (local.get $r) (i32.const 1)))
+      (br_if $rows (i32.lt_u (local.get $r) (i32.const 4)))))
+
+  ;; C[m×n] -= op(A)[m×k] · op(B)[k×n]  (C at byte address C with ldc doubles per row).
+  ;; With lower = 1, C is a diagonal block of a symmetric matrix and only tiles touching the lower
+  ;; triangle (i ≥ j) are computed; a tile that straddles the diagonal also writes its entries above it.
+  ;; pa: 4·kcMax doubles of scratch; pb: kcMax·(ncMax rounded up to 4) doubles of scratch.
+  ;; Blocking: depth kcMax along p, width ncMax along j (the packed B block stays in L2), A packed 4 rows
+  ;; at a time (stays in L1) and run against every 4-column micro-panel of the packed B block.
+  (func (export "gemm") (param $C i32) (param $ldc i32) (param $A i32) (param $lda i32) (param $at i32)
+        (param $B i32) (param $ldb i32) (param $bt i32) (param $m i32) (param $n i32) (param $k i32)
+        (param $lower i32) (param $pa i32) (param $pb i32) (param $kcMax i32) (param $ncMax i32)
+    (local $pc i32) (local $kc i32) (local $jc i32) (local $nc i32) (local $ic i32) (local $mr i32)
+    (local $j i32) (local $jp i32) (local $ldcBytes i32) (local $cRow i32)
+    (if (i32.or (i32.or (i32.eqz (local.get $m)) (i32.eqz (local.get $n))) (i32.eqz (local.get $k))) (then (return)))
+    (local.set $ldcBytes (i32.shl (local.get $ldc) (i32.const 3)))
+    (local.set $pc (i32.const 0))
+    (loop $depth
+      (local.set $kc (i32.sub (local.get $k) (local.get $pc)))
+      (if (i32.gt_u (local.get $kc) (local.get $kcMax)) (then (local.set $kc (local.get $kcMax))))
+      (local.set $jc (i32.const 0))
+      (block $widthDone
+        (loop $width
+          (br_if $widthDone (i32.ge_u (local.get $jc) (local.get $n)))
+          (br_if $widthDone (i32.and (local.get $lower) (i32.ge_u (local.get $jc) (local.get $m))))
+          (local.set $nc (i32.sub (local.get $n) (local.get $jc)))
+          (if (i32.gt_u (local.get $nc) (local.get $ncMax)) (then (local.set $nc (local.get $ncMax))))
+          (call $packB (local.get $B) (local.get $ldb) (local.get $bt) (local.get $pc) (local.get $jc)
+                       (local.get $kc) (local.get $nc) (local.get $n) (local.get $pb))
+          ;; Rows above jc lie wholly above the diagonal for every column of this block.
+          (local.set $ic (select (i32.and (local.get $jc) (i32.const -4)) (i32.const 0) (local.get $lower)))
+          (block $rowsDone
+            (loop $rows
+              (br_if $rowsDone (i32.ge_u (local.get $ic) (local.get $m)))
+              (local.set $mr (i32.sub (local.get $m) (local.get $ic)))
+              (if (i32.gt_u (local.get $mr) (i32.const 4)) (then (local.set $mr (i32.const 4))))
+              (call $packA (local.get $A) (local.get $lda) (local.get $at) (local.get $ic) (local.get $pc)
+                           (local.get $kc) (local.get $mr) (local.get $pa))
+              (local.set $cRow (i32.add (local.get $C) (i32.mul (local.get $ic) (local.get $ldcBytes))))
+              (local.set $jp (i32.const 0))
+              (block $colsDone
+                (loop $cols
+                  (local.set $j (i32.add (local.get $jc) (i32.shl (local.get $jp) (i32.const 2))))
+                  (br_if $colsDone (i32.ge_u (local.get $j) (i32.add (local.get $jc) (local.get $nc))))
+                  (br_if $colsDone (i32.and (local.get $lower) (i32.gt_u (local.get $j) (i32.add (local.get $ic) (i32.const 3)))))
+                  (call $micro (local.get $pa)
+                    (i32.add (local.get $pb) (i32.shl (i32.mul (local.get $jp) (local.get $kc)) (i32.const 5)))
+                    (local.get $kc)
+                    (i32.add (local.get $cRow) (i32.shl (local.get $j) (i32.const 3)))
+                    (local.get $ldcBytes) (local.get $mr)
+                    (select (i32.const 4) (i32.sub (local.get $n) (local.get $j))
+                      (i32.ge_u (i32.sub (local.get $n) (local.get $j)) (i32.const 4))))
+                  (local.set $jp (i32.add (local.get $jp) (i32.const 1)))
+                  (br $cols)))
+              (local.set $ic (i32.add (local.get $ic) (i32.const 4)))
+              (br $rows)))
+          (local.set $jc (i32.add (local.get $jc) (local.get $nc)))
+          (br $width)))
+      (local.set $pc (i32.add (local.get $pc) (local.get $kc)))
+      (br_if $depth (i32.lt_u (local.get $pc) (local.get $k)))))
+)
