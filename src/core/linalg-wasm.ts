@@ -28,6 +28,8 @@ interface Kernel {
     C: number, ldc: number, A: number, lda: number, at: number, B: number, ldb: number, bt: number,
     m: number, n: number, k: number, lower: number, pa: number, pb: number, kcMax: number, ncMax: number,
   ) => void;
+  rowUpdate: (d: number, s: number, ld: number, coef: number, cstride: number, cnt: number, m: number, scale: number) => void;
+  trsmRightLeaf: (l: number, ldl: number, b: number, ldb: number, m: number, k: number) => void;
 }
 
 /** Depth of the packed blocks (doubles along the summed index). */
@@ -63,7 +65,7 @@ function load(): Kernel | null {
     const module = new WebAssembly.Module(decodeBase64(LINALG_WASM_BASE64) as BufferSource);
     const instance = new WebAssembly.Instance(module, {});
     const exports = instance.exports as unknown as Kernel;
-    return { memory: exports.memory, gemm: exports.gemm };
+    return { memory: exports.memory, gemm: exports.gemm, rowUpdate: exports.rowUpdate, trsmRightLeaf: exports.trsmRightLeaf };
   } catch {
     // No SIMD, or compilation refused (a Content-Security-Policy without 'wasm-unsafe-eval').
     return null;
@@ -147,16 +149,7 @@ function potrfLeaf(h: Float64Array, a: number, n: number, ld: number): boolean {
 /** X·Lᵀ = B for the m×k block B at b (overwritten by X), L the k×k lower block at l. */
 function trsmRightLowerTrans(k: Kernel, l: number, kk: number, b: number, m: number, ld: number): void {
   if (kk <= LEAF) {
-    const h = heap;
-    for (let i = 0; i < m; i++) {
-      const ri = b + i * ld;
-      for (let j = 0; j < kk; j++) {
-        const rj = l + j * ld;
-        let s = h[ri + j];
-        for (let p = 0; p < j; p++) s -= h[ri + p] * h[rj + p];
-        h[ri + j] = s / h[rj + j];
-      }
-    }
+    k.trsmRightLeaf(l * 8, ld * 8, b * 8, ld * 8, m, kk);
     return;
   }
   const k1 = half(kk);
@@ -204,17 +197,10 @@ export function wasmCholeskyInPlace(a: Float64Array, n: number): boolean | null 
 /** L·Y = B: L n×n lower at l (stride ldl), B n×m at b (stride ldb), overwritten by Y. */
 function trsmLeftLower(k: Kernel, l: number, n: number, ldl: number, b: number, m: number, ldb: number): void {
   if (n <= LEAF) {
-    const h = heap;
+    // Row i −= Σ_{p<i} L[i][p]·row p, then ÷ L[i][i].
     for (let i = 0; i < n; i++) {
       const rl = l + i * ldl;
-      const oi = b + i * ldb;
-      for (let p = 0; p < i; p++) {
-        const v = h[rl + p];
-        const op = b + p * ldb;
-        for (let j = 0; j < m; j++) h[oi + j] -= v * h[op + j];
-      }
-      const inv = 1 / h[rl + i];
-      for (let j = 0; j < m; j++) h[oi + j] *= inv;
+      k.rowUpdate((b + i * ldb) * 8, b * 8, ldb * 8, rl * 8, 8, i, m, 1 / heap[rl + i]);
     }
     return;
   }
@@ -228,17 +214,10 @@ function trsmLeftLower(k: Kernel, l: number, n: number, ldl: number, b: number, 
 /** Lᵀ·X = B: L n×n lower at l, B n×m at b, overwritten by X. */
 function trsmLeftLowerTrans(k: Kernel, l: number, n: number, ldl: number, b: number, m: number, ldb: number): void {
   if (n <= LEAF) {
-    const h = heap;
-    for (let r = n - 1; r >= 0; r--) {
-      const rl = l + r * ldl;
-      const or = b + r * ldb;
-      const inv = 1 / h[rl + r];
-      for (let j = 0; j < m; j++) h[or + j] *= inv;
-      for (let i = 0; i < r; i++) {
-        const v = h[rl + i];
-        const oi = b + i * ldb;
-        for (let j = 0; j < m; j++) h[oi + j] -= v * h[or + j];
-      }
+    // Row i −= Σ_{r>i} L[r][i]·row r, then ÷ L[i][i], from the last row up.
+    for (let i = n - 1; i >= 0; i--) {
+      const below = l + (i + 1) * ldl + i;
+      k.rowUpdate((b + i * ldb) * 8, (b + (i + 1) * ldb) * 8, ldb * 8, below * 8, ldl * 8, n - 1 - i, m, 1 / heap[l + i * ldl + i]);
     }
     return;
   }

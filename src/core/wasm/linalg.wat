@@ -230,4 +230,131 @@
           (br $width)))
       (local.set $pc (i32.add (local.get $pc) (local.get $kc)))
       (br_if $depth (i32.lt_u (local.get $pc) (local.get $k)))))
+
+  ;; Row d −= Σ_{t<cnt} coef_t · row(s + t·ld), then row d ·= scale; rows have m doubles.
+  ;; d, s, coef: byte addresses; ld, cstride: bytes between source rows and between coefficients.
+  ;; Four source rows per pass (5 loads and 1 store per 4 vector multiply-adds), the rest one by one.
+  (func (export "rowUpdate") (param $d i32) (param $s i32) (param $ld i32) (param $coef i32)
+        (param $cstride i32) (param $cnt i32) (param $m i32) (param $scale f64)
+    (local $t i32) (local $j i32) (local $end i32) (local $pairs i32)
+    (local $s0 i32) (local $s1 i32) (local $s2 i32) (local $s3 i32)
+    (local $k0 v128) (local $k1 v128) (local $k2 v128) (local $k3 v128) (local $acc v128)
+    (local $f0 f64) (local $f1 f64) (local $f2 f64) (local $f3 f64) (local $v f64)
+    (local.set $pairs (i32.shl (i32.shr_u (local.get $m) (i32.const 1)) (i32.const 4)))
+    (local.set $end (i32.shl (local.get $m) (i32.const 3)))
+    (local.set $t (i32.const 0))
+    (block $quadsDone
+      (loop $quads
+        (br_if $quadsDone (i32.gt_u (i32.add (local.get $t) (i32.const 4)) (local.get $cnt)))
+        (local.set $s0 (i32.add (local.get $s) (i32.mul (local.get $t) (local.get $ld))))
+        (local.set $s1 (i32.add (local.get $s0) (local.get $ld)))
+        (local.set $s2 (i32.add (local.get $s1) (local.get $ld)))
+        (local.set $s3 (i32.add (local.get $s2) (local.get $ld)))
+        (local.set $f0 (f64.load (i32.add (local.get $coef) (i32.mul (local.get $t) (local.get $cstride)))))
+        (local.set $f1 (f64.load (i32.add (local.get $coef) (i32.mul (i32.add (local.get $t) (i32.const 1)) (local.get $cstride)))))
+        (local.set $f2 (f64.load (i32.add (local.get $coef) (i32.mul (i32.add (local.get $t) (i32.const 2)) (local.get $cstride)))))
+        (local.set $f3 (f64.load (i32.add (local.get $coef) (i32.mul (i32.add (local.get $t) (i32.const 3)) (local.get $cstride)))))
+        (local.set $k0 (f64x2.splat (local.get $f0)))
+        (local.set $k1 (f64x2.splat (local.get $f1)))
+        (local.set $k2 (f64x2.splat (local.get $f2)))
+        (local.set $k3 (f64x2.splat (local.get $f3)))
+        (local.set $j (i32.const 0))
+        (block $vecDone
+          (loop $vec
+            (br_if $vecDone (i32.ge_u (local.get $j) (local.get $pairs)))
+            (local.set $acc (v128.load (i32.add (local.get $d) (local.get $j))))
+            (local.set $acc (f64x2.sub (local.get $acc) (f64x2.mul (local.get $k0) (v128.load (i32.add (local.get $s0) (local.get $j))))))
+            (local.set $acc (f64x2.sub (local.get $acc) (f64x2.mul (local.get $k1) (v128.load (i32.add (local.get $s1) (local.get $j))))))
+            (local.set $acc (f64x2.sub (local.get $acc) (f64x2.mul (local.get $k2) (v128.load (i32.add (local.get $s2) (local.get $j))))))
+            (local.set $acc (f64x2.sub (local.get $acc) (f64x2.mul (local.get $k3) (v128.load (i32.add (local.get $s3) (local.get $j))))))
+            (v128.store (i32.add (local.get $d) (local.get $j)) (local.get $acc))
+            (local.set $j (i32.add (local.get $j) (i32.const 16)))
+            (br $vec)))
+        (if (i32.lt_u (local.get $j) (local.get $end))
+          (then
+            (local.set $v (f64.load (i32.add (local.get $d) (local.get $j))))
+            (local.set $v (f64.sub (local.get $v) (f64.mul (local.get $f0) (f64.load (i32.add (local.get $s0) (local.get $j))))))
+            (local.set $v (f64.sub (local.get $v) (f64.mul (local.get $f1) (f64.load (i32.add (local.get $s1) (local.get $j))))))
+            (local.set $v (f64.sub (local.get $v) (f64.mul (local.get $f2) (f64.load (i32.add (local.get $s2) (local.get $j))))))
+            (local.set $v (f64.sub (local.get $v) (f64.mul (local.get $f3) (f64.load (i32.add (local.get $s3) (local.get $j))))))
+            (f64.store (i32.add (local.get $d) (local.get $j)) (local.get $v))))
+        (local.set $t (i32.add (local.get $t) (i32.const 4)))
+        (br $quads)))
+    (block $singlesDone
+      (loop $singles
+        (br_if $singlesDone (i32.ge_u (local.get $t) (local.get $cnt)))
+        (local.set $s0 (i32.add (local.get $s) (i32.mul (local.get $t) (local.get $ld))))
+        (local.set $f0 (f64.load (i32.add (local.get $coef) (i32.mul (local.get $t) (local.get $cstride)))))
+        (local.set $k0 (f64x2.splat (local.get $f0)))
+        (local.set $j (i32.const 0))
+        (block $vecDone
+          (loop $vec
+            (br_if $vecDone (i32.ge_u (local.get $j) (local.get $pairs)))
+            (v128.store (i32.add (local.get $d) (local.get $j))
+              (f64x2.sub (v128.load (i32.add (local.get $d) (local.get $j)))
+                (f64x2.mul (local.get $k0) (v128.load (i32.add (local.get $s0) (local.get $j))))))
+            (local.set $j (i32.add (local.get $j) (i32.const 16)))
+            (br $vec)))
+        (if (i32.lt_u (local.get $j) (local.get $end))
+          (then
+            (f64.store (i32.add (local.get $d) (local.get $j))
+              (f64.sub (f64.load (i32.add (local.get $d) (local.get $j)))
+                (f64.mul (local.get $f0) (f64.load (i32.add (local.get $s0) (local.get $j))))))))
+        (local.set $t (i32.add (local.get $t) (i32.const 1)))
+        (br $singles)))
+    (local.set $k0 (f64x2.splat (local.get $scale)))
+    (local.set $j (i32.const 0))
+    (block $vecDone
+      (loop $vec
+        (br_if $vecDone (i32.ge_u (local.get $j) (local.get $pairs)))
+        (v128.store (i32.add (local.get $d) (local.get $j))
+          (f64x2.mul (v128.load (i32.add (local.get $d) (local.get $j))) (local.get $k0)))
+        (local.set $j (i32.add (local.get $j) (i32.const 16)))
+        (br $vec)))
+    (if (i32.lt_u (local.get $j) (local.get $end))
+      (then
+        (f64.store (i32.add (local.get $d) (local.get $j))
+          (f64.mul (f64.load (i32.add (local.get $d) (local.get $j))) (local.get $scale))))))
+
+  ;; X·Lᵀ = B for the m×k block B at b (row stride ldb bytes), overwritten by X; L the k×k lower block
+  ;; at l (row stride ldl bytes). Row by row of B: x_j = (b_j − Σ_{p<j} x_p·L[j][p]) / L[j][j], the sums
+  ;; as f64x2 dot products along the contiguous rows.
+  (func (export "trsmRightLeaf") (param $l i32) (param $ldl i32) (param $b i32) (param $ldb i32)
+        (param $m i32) (param $k i32)
+    (local $i i32) (local $j i32) (local $p i32) (local $row i32) (local $lj i32) (local $pairs i32)
+    (local $acc v128) (local $s f64)
+    (local.set $i (i32.const 0))
+    (block $rowsDone
+      (loop $rows
+        (br_if $rowsDone (i32.ge_u (local.get $i) (local.get $m)))
+        (local.set $row (i32.add (local.get $b) (i32.mul (local.get $i) (local.get $ldb))))
+        (local.set $j (i32.const 0))
+        (block $colsDone
+          (loop $cols
+            (br_if $colsDone (i32.ge_u (local.get $j) (local.get $k)))
+            (local.set $lj (i32.add (local.get $l) (i32.mul (local.get $j) (local.get $ldl))))
+            (local.set $acc (v128.const f64x2 0 0))
+            (local.set $pairs (i32.shl (i32.shr_u (local.get $j) (i32.const 1)) (i32.const 4)))
+            (local.set $p (i32.const 0))
+            (block $dotDone
+              (loop $dot
+                (br_if $dotDone (i32.ge_u (local.get $p) (local.get $pairs)))
+                (local.set $acc (f64x2.add (local.get $acc)
+                  (f64x2.mul (v128.load (i32.add (local.get $row) (local.get $p)))
+                             (v128.load (i32.add (local.get $lj) (local.get $p))))))
+                (local.set $p (i32.add (local.get $p) (i32.const 16)))
+                (br $dot)))
+            (local.set $s (f64.sub (f64.load (i32.add (local.get $row) (i32.shl (local.get $j) (i32.const 3))))
+              (f64.add (f64x2.extract_lane 0 (local.get $acc)) (f64x2.extract_lane 1 (local.get $acc)))))
+            (if (i32.and (local.get $j) (i32.const 1))
+              (then
+                (local.set $s (f64.sub (local.get $s)
+                  (f64.mul (f64.load (i32.add (local.get $row) (local.get $pairs)))
+                           (f64.load (i32.add (local.get $lj) (local.get $pairs))))))))
+            (f64.store (i32.add (local.get $row) (i32.shl (local.get $j) (i32.const 3)))
+              (f64.div (local.get $s) (f64.load (i32.add (local.get $lj) (i32.shl (local.get $j) (i32.const 3))))))
+            (local.set $j (i32.add (local.get $j) (i32.const 1)))
+            (br $cols)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $rows))))
 )
