@@ -35,8 +35,9 @@ function moduleText(name, bytes) {
     + lines.map((l, i) => `  '${l}'${i === lines.length - 1 ? ';' : ' +'}`).join('\n') + '\n';
 }
 
+const main = process.argv[1] && fileURLToPath(import.meta.url) === process.argv[1];
 let stale = 0;
-for (const file of readdirSync(sourceDir).filter((f) => f.endsWith('.wat')).sort()) {
+if (main) for (const file of readdirSync(sourceDir).filter((f) => f.endsWith('.wat')).sort()) {
   const name = file.slice(0, -4);
   const text = moduleText(name, await assemble(join(sourceDir, file)));
   const out = join(outDir, `${name}-wasm.ts`);
@@ -51,4 +52,4 @@ for (const file of readdirSync(sourceDir).filter((f) => f.endsWith('.wat')).sort
   renameSync(`${out}.tmp`, out);
   console.log(`wrote ${out}`);
 }
-process.exit(stale ? 1 : 0);
+if (main) process.exit(stale ? 1 : 0);

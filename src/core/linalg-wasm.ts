@@ -174,10 +174,10 @@ function potrfRecursive(k: Kernel, a: number, n: number, ld: number): boolean {
 /**
  * Cholesky in place with the WebAssembly kernel (contract of linalg.ts choleskyInPlace: reads the lower
  * triangle, writes L and zeros above it). Returns true / false as the factorisation succeeds, or null
- * when this path declines (kernel unavailable, too small, too large) and `a` is untouched.
+ * when this path declines (kernel unavailable, n below `smallest`, too large) and `a` is untouched.
  */
-export function wasmCholeskyInPlace(a: Float64Array, n: number): boolean | null {
-  if (n < MIN_N) return null;
+export function wasmCholeskyInPlace(a: Float64Array, n: number, smallest = MIN_N): boolean | null {
+  if (n < smallest) return null;
   const k = reserve(n * n);
   if (!k) return null;
   const base = DATA / 8;
@@ -229,8 +229,8 @@ function trsmLeftLowerTrans(k: Kernel, l: number, n: number, ldl: number, b: num
   trsmLeftLowerTrans(k, l, n1, ldl, b, m, ldb);
 }
 
-function solveMultiple(L: Float64Array, n: number, B: Float64Array, m: number, transposed: boolean): boolean {
-  if (n < MIN_N || m < MIN_RHS) return false;
+function solveMultiple(L: Float64Array, n: number, B: Float64Array, m: number, transposed: boolean, any: boolean): boolean {
+  if (!any && (n < MIN_N || m < MIN_RHS)) return false;
   const k = reserve(n * n + n * m);
   if (!k) return false;
   const l = DATA / 8;
@@ -245,15 +245,16 @@ function solveMultiple(L: Float64Array, n: number, B: Float64Array, m: number, t
 
 /**
  * L·X = B in place for B n×m row-major (m right-hand sides as columns). Returns false, leaving B
- * untouched, when this path declines.
+ * untouched, when this path declines (kernel unavailable, too large, or — unless `anySize` — too small
+ * to gain from it).
  */
-export function wasmSolveLowerMultiple(L: Float64Array, n: number, B: Float64Array, m: number): boolean {
-  return solveMultiple(L, n, B, m, false);
+export function wasmSolveLowerMultiple(L: Float64Array, n: number, B: Float64Array, m: number, anySize = false): boolean {
+  return solveMultiple(L, n, B, m, false, anySize);
 }
 
 /** Lᵀ·X = B in place for B n×m row-major. Returns false, leaving B untouched, when this path declines. */
-export function wasmSolveUpperTransposeMultiple(L: Float64Array, n: number, B: Float64Array, m: number): boolean {
-  return solveMultiple(L, n, B, m, true);
+export function wasmSolveUpperTransposeMultiple(L: Float64Array, n: number, B: Float64Array, m: number, anySize = false): boolean {
+  return solveMultiple(L, n, B, m, true, anySize);
 }
 
 /**
