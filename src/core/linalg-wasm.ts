@@ -21,6 +21,8 @@
  * from the TypeScript path only by rounding (summation order), ~1e-15 relative.
  */
 import { LINALG_WASM_BASE64 } from './generated/linalg-wasm.ts';
+import { crossCovarianceInto, toIsotropicCoordinates } from './covariance.ts';
+import type { CovarianceModel } from './model.ts';
 
 interface Kernel {
   memory: WebAssembly.Memory;
@@ -30,6 +32,8 @@ interface Kernel {
   ) => void;
   rowUpdate: (d: number, s: number, ld: number, coef: number, cstride: number, cnt: number, m: number, scale: number) => void;
   trsmRightLeaf: (l: number, ldl: number, b: number, ldb: number, m: number, k: number) => void;
+  covarianceFill: (out: number, pu: number, pv: number, n: number, qu: number, qv: number, m: number,
+    kind: number, sill: number, f: number, add: number) => void;
 }
 
 /** Depth of the packed blocks (doubles along the summed index). */
@@ -65,7 +69,7 @@ function load(): Kernel | null {
     const module = new WebAssembly.Module(decodeBase64(LINALG_WASM_BASE64) as BufferSource);
     const instance = new WebAssembly.Instance(module, {});
     const exports = instance.exports as unknown as Kernel;
-    return { memory: exports.memory, gemm: exports.gemm, rowUpdate: exports.rowUpdate, trsmRightLeaf: exports.trsmRightLeaf };
+    return { memory: exports.memory, gemm: exports.gemm, rowUpdate: exports.rowUpdate, trsmRightLeaf: exports.trsmRightLeaf, covarianceFill: exports.covarianceFill };
   } catch {
     // No SIMD, or compilation refused (a Content-Security-Policy without 'wasm-unsafe-eval').
     return null;
@@ -273,4 +277,73 @@ export function wasmSubtractProductNT(C: Float64Array, A: Float64Array, B: Float
   gemm(k, c, n, a, depth, false, b, depth, true, m, n, depth, false);
   C.set(heap.subarray(c, c + m * n));
   return true;
+}
+
+// ---- Covariance fill ----------------------------------------------------------------------------
+
+/** The kernel's family codes and the factor taking a distance to its argument (as covariance.ts compiles them). */
+function fillStructures(model: CovarianceModel): Array<{ kind: number; sill: number; f: number }> | null {
+  const out: Array<{ kind: number; sill: number; f: number }> = [];
+  for (const s of model.structures) {
+    if (s.type === 'nugget' || s.sill === 0) continue;
+    const inv = 1 / s.scale;
+    if (s.type === 'exponential') out.push({ kind: 0, sill: s.sill, f: inv });
+    else if (s.type === 'gaussian') out.push({ kind: 1, sill: s.sill, f: 0.5 * inv * inv });
+    else if (s.type === 'spherical') out.push({ kind: 4, sill: s.sill, f: inv });
+    else {
+      const nu = s.nu ?? 1.5;
+      if (nu === 0.5) out.push({ kind: 0, sill: s.sill, f: inv });
+      else if (nu === 1.5) out.push({ kind: 2, sill: s.sill, f: Math.sqrt(3) * inv });
+      else if (nu === 2.5) out.push({ kind: 3, sill: s.sill, f: Math.sqrt(5) * inv });
+      else return null; // general ν: the tabulated Bessel form stays in TypeScript
+    }
+  }
+  return out;
+}
+
+/**
+ * The noise-free cross-covariances between m points (tx, ty) and n points (x, y) into `out` (m×n
+ * row-major, overwritten), as covariance.ts crossCovarianceInto computes them, with f64x2 distances
+ * and exponentials (exp to about 1 ulp; arguments below −708 give 0 where Math.exp gives < 1e-307).
+ * Returns false, leaving `out` untouched, when this path declines (kernel unavailable, a Matérn
+ * smoothness other than ½, 3/2, 5/2, too large).
+ */
+export function wasmCrossCovarianceInto(
+  model: CovarianceModel, tx: ArrayLike<number>, ty: ArrayLike<number>, x: ArrayLike<number>, y: ArrayLike<number>,
+  out: Float64Array,
+): boolean {
+  const m = tx.length;
+  const n = x.length;
+  if (ty.length !== m || y.length !== n || out.length < m * n) return false;
+  const structures = fillStructures(model);
+  if (!structures) return false;
+  const k = reserve(m * n + 2 * (m + n) + 4);
+  if (!k) return false;
+  const o = DATA / 8;
+  const pu = o + m * n;
+  const pv = pu + m;
+  const qu = pv + m;
+  const qv = qu + n;
+  const t = toIsotropicCoordinates(model.anisotropy, tx, ty);
+  const s = toIsotropicCoordinates(model.anisotropy, x, y);
+  heap.set(t.u, pu);
+  heap.set(t.v, pv);
+  heap.set(s.u, qu);
+  heap.set(s.v, qv);
+  if (structures.length === 0) heap.fill(0, o, o + m * n);
+  structures.forEach((c, idx) => k.covarianceFill(o * 8, pu * 8, pv * 8, m, qu * 8, qv * 8, n, c.kind, c.sill, c.f, idx > 0 ? 1 : 0));
+  out.set(heap.subarray(o, o + m * n));
+  return true;
+}
+
+/**
+ * covariance.ts crossCovarianceInto through the WebAssembly fill when it takes the model, else the
+ * TypeScript one; returns `out`.
+ */
+export function crossCovarianceFastInto(
+  model: CovarianceModel, tx: ArrayLike<number>, ty: ArrayLike<number>, x: ArrayLike<number>, y: ArrayLike<number>,
+  out: Float64Array,
+): Float64Array {
+  if (!wasmCrossCovarianceInto(model, tx, ty, x, y, out)) crossCovarianceInto(model, tx, ty, x, y, out);
+  return out;
 }

@@ -11,9 +11,11 @@ import {
 } from '../../src/core/linalg.ts';
 import {
   setWasmKernelEnabled, wasmCholeskyInPlace, wasmKernelActive, wasmSolveLowerMultiple,
-  wasmSolveUpperTransposeMultiple, wasmSubtractProductNT,
+  wasmSolveUpperTransposeMultiple, wasmSubtractProductNT, wasmCrossCovarianceInto,
 } from '../../src/core/linalg-wasm.ts';
 import { createRandom } from '../../src/core/random.ts';
+import { crossCovarianceInto } from '../../src/core/covariance.ts';
+import type { CovarianceModel, Structure } from '../../src/core/model.ts';
 
 /** An exponential covariance of random points plus a nugget: SPD for any points, O(n²) to build. */
 function randomCovariance(n: number, seed: number): Float64Array {
@@ -182,6 +184,51 @@ describe('WebAssembly kernel', () => {
     const y2 = Float64Array.from(B);
     solveUpperTransposeMultipleJs(reference, n, y2, m);
     expect(y1).toEqual(y2);
+  });
+
+  const families: Structure[] = [
+    { type: 'matern', sill: 1.3, scale: 100, nu: 1.5 }, { type: 'matern', sill: 0.7, scale: 40, nu: 2.5 },
+    { type: 'matern', sill: 2, scale: 7, nu: 0.5 }, { type: 'exponential', sill: 2, scale: 50 },
+    { type: 'gaussian', sill: 2, scale: 30 }, { type: 'spherical', sill: 2, scale: 300 },
+  ];
+  it.each(families.map((f) => [`${f.type}${f.type === 'matern' ? ` ν = ${f.nu}` : ''}`, f] as const))(
+    'covariance fill, %s (+ a nugget, a second structure, with and without anisotropy): matches covariance.ts to 1e-14', (_, family) => {
+      const rnd = createRandom(21);
+      const n = 301;
+      const m = 77; // odd: the last column goes through the half-vector path
+      const x = Float64Array.from({ length: n }, () => 2000 * rnd.uniform());
+      const y = Float64Array.from({ length: n }, () => 2000 * rnd.uniform());
+      const tx = Float64Array.from({ length: m }, () => 2000 * rnd.uniform());
+      const ty = Float64Array.from({ length: m }, () => 2000 * rnd.uniform());
+      tx[3] = x[5]; // a target on a sample: the full surface variance
+      ty[3] = y[5];
+      for (const anisotropy of [undefined, { azimuth: 30, ratio: 0.4 }]) {
+        const model: CovarianceModel = {
+          structures: [{ type: 'nugget', sill: 0.1 }, family, { type: 'exponential', sill: 0.3, scale: 500 }],
+          trend: 'constant', transform: 'none', anisotropy,
+        };
+        const expected = crossCovarianceInto(model, tx, ty, x, y, new Float64Array(m * n));
+        const got = new Float64Array(m * n);
+        expect(wasmCrossCovarianceInto(model, tx, ty, x, y, got)).toBe(true);
+        for (let i = 0; i < m * n; i++) {
+          const scale = Math.max(Math.abs(expected[i]), 1e-300);
+          if (!(Math.abs(got[i] - expected[i]) / scale <= 1e-14)) expect.fail(`entry ${i}: ${got[i]} against ${expected[i]}`);
+        }
+        expect(got[3 * n + 5]).toBeCloseTo(family.sill + 0.3, 14);
+      }
+    });
+
+  it('covariance fill: far beyond the range the exponential underflows to 0 (Math.exp gives < 1e-307 there); a general ν is declined', () => {
+    const model: CovarianceModel = { structures: [{ type: 'exponential', sill: 1, scale: 1 }], trend: 'constant', transform: 'none' };
+    const out = new Float64Array(4);
+    expect(wasmCrossCovarianceInto(model, [0, 0], [0, 0], [700, 720], [0, 0], out)).toBe(true);
+    expect(Math.abs(out[0] / Math.exp(-700) - 1)).toBeLessThan(1e-14);
+    expect(out[1]).toBe(0);
+    expect(Math.exp(-720)).toBeLessThan(1e-307);
+    const general: CovarianceModel = { structures: [{ type: 'matern', sill: 1, scale: 1, nu: 1.2 }], trend: 'constant', transform: 'none' };
+    const untouched = new Float64Array([7, 7, 7, 7]);
+    expect(wasmCrossCovarianceInto(general, [0, 0], [0, 0], [1, 2], [0, 0], untouched)).toBe(false);
+    expect(Array.from(untouched)).toEqual([7, 7, 7, 7]);
   });
 
   it('the committed binary is what src/core/wasm/linalg.wat assembles to (scripts/build-wasm.mjs --check)', () => {

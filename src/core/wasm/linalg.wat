@@ -357,4 +357,109 @@
             (br $cols)))
         (local.set $i (i32.add (local.get $i) (i32.const 1)))
         (br $rows))))
+
+  ;; exp(x) for each lane, x ≤ 0 (the covariance families only need that): x = k·ln 2 + r with
+  ;; k = round(x / ln 2), |r| ≤ ln 2 / 2 (ln 2 split in two for an exact product k·ln 2), exp(r) by its
+  ;; Taylor series to degree 13 (remainder below 1e-17 relative; Estrin's scheme), 2^k built in the exponent bits.
+  ;; Lanes below −708 (where 2^k would leave the normal range) give 0: the exact value is < 1e-307.
+  (func $expNonPositive (param $x v128) (result v128)
+    (local $k v128) (local $r v128) (local $p v128) (local $scale v128) (local $small v128)
+    (local $r2 v128) (local $r4 v128) (local $q0 v128) (local $q1 v128) (local $q2 v128) (local $q3 v128)
+    (local $q4 v128) (local $q5 v128) (local $q6 v128)
+    (local.set $small (f64x2.lt (local.get $x) (v128.const f64x2 -708 -708)))
+    (local.set $x (f64x2.max (local.get $x) (v128.const f64x2 -708 -708)))
+    (local.set $k (f64x2.nearest (f64x2.mul (local.get $x) (v128.const f64x2 1.4426950408889634 1.4426950408889634))))
+    (local.set $r (f64x2.sub (local.get $x) (f64x2.mul (local.get $k) (v128.const f64x2 0.6931471803691238 0.6931471803691238))))
+    (local.set $r (f64x2.sub (local.get $r) (f64x2.mul (local.get $k) (v128.const f64x2 1.9082149292705877e-10 1.9082149292705877e-10))))
+    ;; Estrin's scheme (short dependency chains): pairs in r, then r², r⁴, r⁸.
+    (local.set $r2 (f64x2.mul (local.get $r) (local.get $r)))
+    (local.set $r4 (f64x2.mul (local.get $r2) (local.get $r2)))
+    (local.set $q0 (f64x2.add (v128.const f64x2 1 1) (f64x2.mul (v128.const f64x2 1 1) (local.get $r))))
+    (local.set $q1 (f64x2.add (v128.const f64x2 0.5 0.5) (f64x2.mul (v128.const f64x2 0.16666666666666666 0.16666666666666666) (local.get $r))))
+    (local.set $q2 (f64x2.add (v128.const f64x2 0.041666666666666664 0.041666666666666664) (f64x2.mul (v128.const f64x2 0.008333333333333333 0.008333333333333333) (local.get $r))))
+    (local.set $q3 (f64x2.add (v128.const f64x2 0.001388888888888889 0.001388888888888889) (f64x2.mul (v128.const f64x2 0.0001984126984126984 0.0001984126984126984) (local.get $r))))
+    (local.set $q4 (f64x2.add (v128.const f64x2 2.48015873015873e-05 2.48015873015873e-05) (f64x2.mul (v128.const f64x2 2.7557319223985893e-06 2.7557319223985893e-06) (local.get $r))))
+    (local.set $q5 (f64x2.add (v128.const f64x2 2.755731922398589e-07 2.755731922398589e-07) (f64x2.mul (v128.const f64x2 2.505210838544172e-08 2.505210838544172e-08) (local.get $r))))
+    (local.set $q6 (f64x2.add (v128.const f64x2 2.08767569878681e-09 2.08767569878681e-09) (f64x2.mul (v128.const f64x2 1.6059043836821613e-10 1.6059043836821613e-10) (local.get $r))))
+    (local.set $q0 (f64x2.add (local.get $q0) (f64x2.mul (local.get $q1) (local.get $r2))))
+    (local.set $q2 (f64x2.add (local.get $q2) (f64x2.mul (local.get $q3) (local.get $r2))))
+    (local.set $q4 (f64x2.add (local.get $q4) (f64x2.mul (local.get $q5) (local.get $r2))))
+    (local.set $q0 (f64x2.add (local.get $q0) (f64x2.mul (local.get $q2) (local.get $r4))))
+    (local.set $q4 (f64x2.add (local.get $q4) (f64x2.mul (local.get $q6) (local.get $r4))))
+    (local.set $p (f64x2.add (local.get $q0) (f64x2.mul (local.get $q4) (f64x2.mul (local.get $r4) (local.get $r4)))))
+    ;; 2^k: k + 1023 + 2^52 holds k + 1023 in its low mantissa bits; shifted by 52 it is the exponent.
+    (local.set $scale (i64x2.shl (f64x2.add (local.get $k) (v128.const f64x2 4503599627371519 4503599627371519)) (i32.const 52)))
+    (v128.andnot (f64x2.mul (local.get $p) (local.get $scale)) (local.get $small)))
+
+  ;; One covariance structure between points P (pu, pv: n of them) and Q (qu, qv: m of them):
+  ;; out[i·m + j] (+)= C(|P_i − Q_j|) for i < n, j < m (overwrites when add = 0). Families (kind):
+  ;; 0 exponential sill·e^(−f·h); 1 gaussian sill·e^(−f·h²); 2 Matérn 3/2 sill·(1 + a)·e^(−a);
+  ;; 3 Matérn 5/2 sill·(1 + a + a²/3)·e^(−a), a = f·h; 4 spherical sill·(1 − r(1.5 − 0.5r²)) for r = f·h < 1.
+  (func (export "covarianceFill") (param $out i32) (param $pu i32) (param $pv i32) (param $n i32)
+        (param $qu i32) (param $qv i32) (param $m i32) (param $kind i32) (param $sill f64) (param $f f64)
+        (param $add i32)
+    (local $i i32) (local $j i32) (local $o i32) (local $pairs i32) (local $end i32)
+    (local $u v128) (local $v v128) (local $du v128) (local $dv v128) (local $h2 v128) (local $a v128)
+    (local $c v128) (local $sillv v128) (local $fv v128)
+    (local.set $sillv (f64x2.splat (local.get $sill)))
+    (local.set $fv (f64x2.splat (local.get $f)))
+    (local.set $pairs (i32.shl (i32.shr_u (local.get $m) (i32.const 1)) (i32.const 4)))
+    (local.set $end (i32.shl (local.get $m) (i32.const 3)))
+    (local.set $i (i32.const 0))
+    (block $rowsDone
+      (loop $rows
+        (br_if $rowsDone (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $u (v128.load64_splat (i32.add (local.get $pu) (i32.shl (local.get $i) (i32.const 3)))))
+        (local.set $v (v128.load64_splat (i32.add (local.get $pv) (i32.shl (local.get $i) (i32.const 3)))))
+        (local.set $o (i32.add (local.get $out) (i32.mul (local.get $i) (local.get $end))))
+        (local.set $j (i32.const 0))
+        (block $colsDone
+          (loop $cols
+            (br_if $colsDone (i32.ge_u (local.get $j) (local.get $end)))
+            (if (i32.lt_u (local.get $j) (local.get $pairs))
+              (then
+                (local.set $du (f64x2.sub (local.get $u) (v128.load (i32.add (local.get $qu) (local.get $j)))))
+                (local.set $dv (f64x2.sub (local.get $v) (v128.load (i32.add (local.get $qv) (local.get $j))))))
+              (else
+                ;; The last column of an odd m: the same arithmetic on a half-filled vector.
+                (local.set $du (f64x2.sub (local.get $u) (v128.load64_zero (i32.add (local.get $qu) (local.get $j)))))
+                (local.set $dv (f64x2.sub (local.get $v) (v128.load64_zero (i32.add (local.get $qv) (local.get $j)))))))
+            (local.set $h2 (f64x2.add (f64x2.mul (local.get $du) (local.get $du)) (f64x2.mul (local.get $dv) (local.get $dv))))
+            (block $done
+              (if (i32.eq (local.get $kind) (i32.const 1))
+                (then
+                  (local.set $c (f64x2.mul (local.get $sillv)
+                    (call $expNonPositive (f64x2.neg (f64x2.mul (local.get $fv) (local.get $h2))))))
+                  (br $done)))
+              (local.set $a (f64x2.mul (local.get $fv) (f64x2.sqrt (local.get $h2))))
+              (if (i32.eq (local.get $kind) (i32.const 4))
+                (then
+                  (local.set $c (v128.and
+                    (f64x2.mul (local.get $sillv)
+                      (f64x2.sub (v128.const f64x2 1 1)
+                        (f64x2.mul (local.get $a)
+                          (f64x2.sub (v128.const f64x2 1.5 1.5)
+                            (f64x2.mul (v128.const f64x2 0.5 0.5) (f64x2.mul (local.get $a) (local.get $a)))))))
+                    (f64x2.lt (local.get $a) (v128.const f64x2 1 1))))
+                  (br $done)))
+              (local.set $c (f64x2.mul (local.get $sillv) (call $expNonPositive (f64x2.neg (local.get $a)))))
+              (if (i32.eq (local.get $kind) (i32.const 2))
+                (then (local.set $c (f64x2.mul (local.get $c) (f64x2.add (v128.const f64x2 1 1) (local.get $a))))))
+              (if (i32.eq (local.get $kind) (i32.const 3))
+                (then (local.set $c (f64x2.mul (local.get $c)
+                  (f64x2.add (f64x2.add (v128.const f64x2 1 1) (local.get $a))
+                    (f64x2.div (f64x2.mul (local.get $a) (local.get $a)) (v128.const f64x2 3 3))))))))
+            (if (i32.lt_u (local.get $j) (local.get $pairs))
+              (then
+                (if (local.get $add)
+                  (then (local.set $c (f64x2.add (local.get $c) (v128.load (i32.add (local.get $o) (local.get $j)))))))
+                (v128.store (i32.add (local.get $o) (local.get $j)) (local.get $c)))
+              (else
+                (if (local.get $add)
+                  (then (local.set $c (f64x2.add (local.get $c) (v128.load64_zero (i32.add (local.get $o) (local.get $j)))))))
+                (v128.store64_lane 0 (i32.add (local.get $o) (local.get $j)) (local.get $c))))
+            (local.set $j (i32.add (local.get $j) (i32.const 16)))
+            (br $cols)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $rows))))
 )
