@@ -6,14 +6,16 @@
  *     unblocked version and ml-matrix 6.15.1 CholeskyDecomposition (skipped where it would take long);
  *   - triangular solves with many right-hand sides, L·X = B and Lᵀ·X = B (n = 2,000, m = 1,000),
  *     WebAssembly and TypeScript;
- *   - the covariance fill of an n×m cross-covariance (Matérn 3/2, n = 2,000, m = 10,000;
- *     covariance.ts crossCovarianceInto), in million entries per second;
+ *   - the covariance fill of an n×m cross-covariance (Matérn 3/2, n = 2,000, m = 10,000), WebAssembly
+ *     (wasmCrossCovarianceInto, what exact predictions use) and TypeScript (covariance.ts
+ *     crossCovarianceInto), in million entries per second;
  *   - the same operations in numpy/scipy on the machine's BLAS (bench/reference_linalg.py with
  *     Debian's /usr/bin/python3; Debian links numpy to OpenBLAS), with one BLAS thread and with its
  *     default (one per core): our kernels run on one thread.
  * Figures: wall-clock seconds, median of 3, and GFLOP/s = (n³/3)/t for Cholesky, n²·m/t for a solve;
- * the note gives the process CPU time of the median run (the machine may be shared: compare CPU time
- * when wall time is inflated by other work). Run alone: `npx tsx bench/linalg.ts` (`--quick`: small n).
+ * the note gives the process CPU time of the median run and the GFLOP/s per CPU second (the machine may
+ * be shared: compare those when wall time is inflated by other work; numpy's CPU time counts all its
+ * threads). Run alone: `npx tsx bench/linalg.ts` (`--quick`: small n).
  */
 import type { Row } from './common.ts';
 import { loadavg } from 'node:os';
@@ -26,7 +28,9 @@ import { join } from 'node:path';
 import {
   choleskyBlockedInPlace, choleskyUnblockedInPlace, solveLowerMultipleJs, solveUpperTransposeMultipleJs,
 } from '../src/core/linalg.ts';
-import { wasmCholeskyInPlace, wasmKernelActive, wasmSolveLowerMultiple, wasmSolveUpperTransposeMultiple } from '../src/core/linalg-wasm.ts';
+import {
+  wasmCholeskyInPlace, wasmCrossCovarianceInto, wasmKernelActive, wasmSolveLowerMultiple, wasmSolveUpperTransposeMultiple,
+} from '../src/core/linalg-wasm.ts';
 import { crossCovarianceInto } from '../src/core/covariance.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
 import { createRandom } from '../src/core/random.ts';
@@ -69,16 +73,21 @@ function measure<T>(reps: number, prepare: () => T, work: (input: T) => void): T
   return runs[runs.length >> 1];
 }
 
+/** The note: CPU seconds and, for a flop count, GFLOP/s per CPU second (the figure to compare on a busy machine). */
+function cpuNote(flops: number | undefined, cpuSeconds: number): string {
+  return `cpu ${cpuSeconds.toFixed(3)} s${flops ? `, ${(flops / cpuSeconds / 1e9).toFixed(2)} GFLOP/s of cpu` : ''}`;
+}
+
 function row(name: string, n: number, flops: number, t: Timing): Row {
-  return { name, n, seconds: t.seconds, gflops: flops / t.seconds / 1e9, note: `cpu ${t.cpuSeconds.toFixed(3)} s` };
+  return { name, n, seconds: t.seconds, gflops: flops / t.seconds / 1e9, cpuSeconds: t.cpuSeconds, note: cpuNote(flops, t.cpuSeconds) };
 }
 
 interface NumpyTimes {
   numpy: string;
   threads: string;
-  cholesky: Array<{ n: number; seconds: number }>;
-  solve: { n: number; m: number; seconds: number };
-  fill: { n: number; m: number; seconds: number };
+  cholesky: Array<{ n: number; seconds: number; cpuSeconds: number }>;
+  solve: { n: number; m: number; seconds: number; cpuSeconds: number };
+  fill: { n: number; m: number; seconds: number; cpuSeconds: number };
 }
 
 /** bench/reference_linalg.py with the given BLAS thread count ('' = its default); undefined when absent. */
@@ -101,8 +110,9 @@ function numpyTimes(sizes: number[], solve: [number, number], fill: [number, num
   }
 }
 
-function wallRow(name: string, n: number, flops: number | undefined, seconds: number, note: string): Row {
-  return { name, n, seconds, ...(flops === undefined ? {} : { gflops: flops / seconds / 1e9 }), note };
+function wallRow(name: string, n: number, flops: number | undefined, t: { seconds: number; cpuSeconds: number }, note: string): Row {
+  return { name, n, seconds: t.seconds, ...(flops === undefined ? {} : { gflops: flops / t.seconds / 1e9 }), cpuSeconds: t.cpuSeconds,
+    note: `${note}; ${cpuNote(flops, t.cpuSeconds)}` };
 }
 
 /** Runs the linear algebra benchmarks and returns one row per figure. */
@@ -169,9 +179,14 @@ export async function runLinalgBench(options: { quick?: boolean } = {}): Promise
   const tu = Float64Array.from({ length: mf }, () => 1000 * rf.uniform());
   const tv = Float64Array.from({ length: mf }, () => 1000 * rf.uniform());
   const fillOut = new Float64Array(n * mf);
-  const fill = measure(reps, () => fillOut, (out) => crossCovarianceInto(model, pu, pv, tu, tv, out));
-  rows.push({ ...row(`covariance fill TypeScript (${n} × ${mf})`, n, 0, fill), gflops: undefined,
-    note: `${((n * mf) / fill.seconds / 1e6).toFixed(0)} M entries/s; cpu ${fill.cpuSeconds.toFixed(3)} s` });
+  const fillRow = (name: string, t: Timing): Row => ({ name: `covariance fill ${name} (${n} × ${mf})`, n, seconds: t.seconds, cpuSeconds: t.cpuSeconds,
+    note: `${((n * mf) / t.seconds / 1e6).toFixed(0)} M entries/s; ${cpuNote(undefined, t.cpuSeconds)}` });
+  if (wasmKernelActive()) {
+    rows.push(fillRow('WebAssembly', measure(reps, () => fillOut, (out) => {
+      if (!wasmCrossCovarianceInto(model, pu, pv, tu, tv, out)) throw new Error('declined');
+    })));
+  }
+  rows.push(fillRow('TypeScript', measure(reps, () => fillOut, (out) => crossCovarianceInto(model, pu, pv, tu, tv, out))));
 
   // numpy / OpenBLAS on the same machine, same sizes.
   for (const threads of ['1', '']) {
@@ -181,9 +196,9 @@ export async function runLinalgBench(options: { quick?: boolean } = {}): Promise
       rows.push({ name: `${label}: not available (/usr/bin/python3 with numpy and scipy)`, n: 0, seconds: NaN });
       break;
     }
-    for (const c of np.cholesky) rows.push(wallRow(`cholesky ${label}`, c.n, (c.n ** 3) / 3, c.seconds, `numpy ${np.numpy}`));
-    rows.push(wallRow(`L·X = B ${label} (m = ${np.solve.m})`, np.solve.n, np.solve.n ** 2 * np.solve.m, np.solve.seconds, 'scipy solve_triangular'));
-    rows.push(wallRow(`covariance fill ${label} (${np.fill.n} × ${np.fill.m})`, np.fill.n, undefined, np.fill.seconds,
+    for (const c of np.cholesky) rows.push(wallRow(`cholesky ${label}`, c.n, (c.n ** 3) / 3, c, `numpy ${np.numpy}`));
+    rows.push(wallRow(`L·X = B ${label} (m = ${np.solve.m})`, np.solve.n, np.solve.n ** 2 * np.solve.m, np.solve, 'scipy solve_triangular'));
+    rows.push(wallRow(`covariance fill ${label} (${np.fill.n} × ${np.fill.m})`, np.fill.n, undefined, np.fill,
       `${((np.fill.n * np.fill.m) / np.fill.seconds / 1e6).toFixed(0)} M entries/s; cdist + exp`));
   }
   return rows;

@@ -140,7 +140,56 @@
   ;; op(A)[i][p] = A[i][p] when at = 0, A[p][i] when at = 1.
   (func $packA (param $A i32) (param $lda i32) (param $at i32) (param $i0 i32) (param $p0 i32)
                (param $kc i32) (param $mr i32) (param $dst i32)
-    (local $r i32) (local $p i32) (local $src i32) (local $step i32)
+    (local $r i32) (local $p i32) (local $src i32) (local $step i32) (local $d i32) (local $end i32)
+    (local $x0 v128) (local $x1 v128) (local $x2 v128) (local $x3 v128)
+    (if (i32.eq (local.get $mr) (i32.const 4))
+      (then
+        (if (local.get $at)
+          (then
+            ;; op(A)[i0..i0+3][p] = A[p][i0..i0+3] is contiguous: two vector copies per step.
+            (local.set $src (i32.add (local.get $A) (i32.shl
+              (i32.add (i32.mul (local.get $p0) (local.get $lda)) (local.get $i0)) (i32.const 3))))
+            (local.set $step (i32.shl (local.get $lda) (i32.const 3)))
+            (local.set $d (local.get $dst))
+            (local.set $end (i32.add (local.get $dst) (i32.shl (local.get $kc) (i32.const 5))))
+            (loop $copy
+              (v128.store (local.get $d) (v128.load (local.get $src)))
+              (v128.store offset=16 (local.get $d) (v128.load offset=16 (local.get $src)))
+              (local.set $src (i32.add (local.get $src) (local.get $step)))
+              (local.set $d (i32.add (local.get $d) (i32.const 32)))
+              (br_if $copy (i32.lt_u (local.get $d) (local.get $end))))
+            (return)))
+        ;; Four contiguous rows: two steps at a time, 4 loads and 4 lane shuffles into 4 stores.
+        (local.set $src (i32.add (local.get $A) (i32.shl
+          (i32.add (i32.mul (local.get $i0) (local.get $lda)) (local.get $p0)) (i32.const 3))))
+        (local.set $step (i32.shl (local.get $lda) (i32.const 3)))
+        (local.set $d (local.get $dst))
+        (local.set $end (i32.add (local.get $dst) (i32.shl (i32.and (local.get $kc) (i32.const -2)) (i32.const 5))))
+        (block $pairsDone
+          (loop $pairs
+            (br_if $pairsDone (i32.ge_u (local.get $d) (local.get $end)))
+            (local.set $x0 (v128.load (local.get $src)))
+            (local.set $x1 (v128.load (i32.add (local.get $src) (local.get $step))))
+            (local.set $x2 (v128.load (i32.add (local.get $src) (i32.shl (local.get $step) (i32.const 1)))))
+            (local.set $x3 (v128.load (i32.add (local.get $src) (i32.mul (local.get $step) (i32.const 3)))))
+            (v128.store (local.get $d)
+              (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23 (local.get $x0) (local.get $x1)))
+            (v128.store offset=16 (local.get $d)
+              (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23 (local.get $x2) (local.get $x3)))
+            (v128.store offset=32 (local.get $d)
+              (i8x16.shuffle 8 9 10 11 12 13 14 15 24 25 26 27 28 29 30 31 (local.get $x0) (local.get $x1)))
+            (v128.store offset=48 (local.get $d)
+              (i8x16.shuffle 8 9 10 11 12 13 14 15 24 25 26 27 28 29 30 31 (local.get $x2) (local.get $x3)))
+            (local.set $src (i32.add (local.get $src) (i32.const 16)))
+            (local.set $d (i32.add (local.get $d) (i32.const 64)))
+            (br $pairs)))
+        (if (i32.and (local.get $kc) (i32.const 1))
+          (then
+            (f64.store (local.get $d) (f64.load (local.get $src)))
+            (f64.store offset=8 (local.get $d) (f64.load (i32.add (local.get $src) (local.get $step))))
+            (f64.store offset=16 (local.get $d) (f64.load (i32.add (local.get $src) (i32.shl (local.get $step) (i32.const 1)))))
+            (f64.store offset=24 (local.get $d) (f64.load (i32.add (local.get $src) (i32.mul (local.get $step) (i32.const 3)))))))
+        (return)))
     (local.set $r (i32.const 0))
     (loop $rows
       (if (i32.lt_u (local.get $r) (local.get $mr))
