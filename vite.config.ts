@@ -5,7 +5,9 @@ import { svelte } from '@sveltejs/vite-plugin-svelte';
 /**
  * The built app's Content-Security-Policy (a <meta> the build puts first in <head>; the dev server
  * goes without, as its live reload needs inline code and a websocket). Everything comes from the
- * app's own origin: scripts and workers (no 'unsafe-eval', no inline script), styles, fonts, the
+ * app's own origin: scripts and workers (no 'unsafe-eval', no inline script; 'wasm-unsafe-eval' lets
+ * the app compile its own WebAssembly linear-algebra kernel, bytes shipped inside its scripts — it
+ * allows no JavaScript eval), styles, fonts, the
  * engine's requests. Images: the app's own files, data: (Leaflet's and the app's small images),
  * blob: (canvases turned into downloads), and https: for the opt-in background map, whose tile server
  * the user may choose freely (images cannot run code; plain http: tiles are refused). No plugins,
@@ -13,7 +15,7 @@ import { svelte } from '@sveltejs/vite-plugin-svelte';
  */
 export const CONTENT_SECURITY_POLICY = [
   "default-src 'self'",
-  "script-src 'self'",
+  "script-src 'self' 'wasm-unsafe-eval'",
   "worker-src 'self'",
   "style-src 'self'",
   "img-src 'self' data: blob: https:",

@@ -24,11 +24,12 @@ import { checkModelScale, nonFiniteResult, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import {
-  sampleCovarianceMatrix, crossCovarianceMatrix, crossCovarianceInto, surfaceVariance,
+  sampleCovarianceMatrix, crossCovarianceMatrix, surfaceVariance,
 } from './covariance.ts';
 import {
   cholesky, solveLowerInPlace, solveUpperTransposeInPlace, solveLowerBlock, type CholeskyFactor,
 } from './linalg.ts';
+import { crossCovarianceFastInto } from './linalg-wasm.ts';
 import {
   trendColumnCount, knownMean, coordinateFrame, centreCoordinates, designMatrix, designRow,
   type CoordinateFrame,
@@ -349,7 +350,7 @@ export function predictWithSystem(
     }
     // n×m: row i holds the covariances of sample i with the block's targets (C is symmetric in the pair).
     const B = m * n === buffer.length ? buffer : buffer.subarray(0, n * m);
-    crossCovarianceInto(model, u, v, tu, tv, B);
+    crossCovarianceFastInto(model, u, v, tu, tv, B);
 
     // mean = m0 + x₀ᵀβ̂ + k₀ᵀα
     for (let j = 0; j < m; j++) {
