@@ -18,8 +18,8 @@
  */
 import { CAUTION } from '../core/caution.ts';
 import { GapwiseError, type Warning } from '../core/errors.ts';
-import type { CovarianceModel, Structure } from '../core/model.ts';
-import { nuggetOf } from '../core/model.ts';
+import type { CovarianceModel, CovariateTrend, Structure } from '../core/model.ts';
+import { isCovariateTrend, nuggetOf } from '../core/model.ts';
 import type { Samples } from '../core/samples.ts';
 import { cellCount, type Grid } from '../core/grid.ts';
 import { computeSurface } from '../core/surface.ts';
@@ -374,12 +374,22 @@ function structureText(s: Structure): string {
   return `${family}: partial sill ${fmt(s.sill)}, scale ${fmt(s.scale)} m`;
 }
 
+/** A covariate trend in words: the covariates, categorical ones with their levels (reference first). */
+function covariateTrendText(t: CovariateTrend): string {
+  const names = t.covariates.map((name) => {
+    const levels = t.levels?.[name];
+    return levels ? `${name} (categorical: ${levels.join(', ')}; ${levels[0]} the reference)` : name;
+  });
+  return `unknown constant plus covariates ${names.join(', ')}${t.coordinates ? ' and a linear drift in x, y' : ''} (kriging with external drift)`;
+}
+
 /** The model in one line: structures, trend, transform, anisotropy. */
 export function modelText(m: CovarianceModel): string {
   const parts = m.structures.map(structureText);
   const trend = m.trend === 'constant' ? 'unknown constant mean (ordinary kriging)'
     : m.trend === 'linear' ? 'linear drift in x, y (universal kriging)'
-      : `known mean ${fmt(m.trend.known)} (simple kriging)`;
+      : isCovariateTrend(m.trend) ? covariateTrendText(m.trend)
+        : `known mean ${fmt(m.trend.known)} (simple kriging)`;
   parts.push(trend);
   if (m.transform === 'log') parts.push('fitted to ln(value), results back-transformed with the lognormal correction');
   if (m.anisotropy) parts.push(`anisotropy: long axis ${fmt(m.anisotropy.azimuth, 3)}° from north, ratio ${fmt(m.anisotropy.ratio, 3)}`);
