@@ -31,6 +31,7 @@ import { GapwiseError } from './errors.ts';
 import { centroid, pickSamples } from './samples.ts';
 import { isCovariateTrend } from './model.ts';
 import { resolveFitTrend, leastSquaresResiduals, attachTrendCoefficients } from './covariate-fit.ts';
+import { polishLikelihoodFit } from './fit-polish.ts';
 import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from './optimize.ts';
 import { createVecchiaLikelihood } from './vecchia.ts';
@@ -60,6 +61,11 @@ export interface FitOptions {
   variogram?: VariogramOptions;
   /** Evaluation budget of each optimiser run (default: enough to converge); small values leave the fit unconverged. */
   maxEvaluations?: number;
+  /**
+   * Absolute tolerance on ℓ at a REML/ML optimum; default about 1e-3. A smaller value polishes the
+   * optimum on the exact likelihood (./fit-polish.ts), at tens of extra evaluations.
+   */
+  tolerance?: number;
 }
 
 /** Smoothness bounds when ν is estimated (defined beside the likelihood). */
@@ -683,9 +689,10 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
  */
 export function fitModel(samples: Samples, options: FitOptions, onProgress?: FitProgress): CovarianceModel {
   const r = resolve(samples, options);
-  const model = r.method === 'wls'
+  let model = r.method === 'wls'
     ? fitByWls(samples, r, options.variogram ?? {}, options.maxEvaluations, onProgress)
     : fitByLikelihood(samples, r, options.maxEvaluations, onProgress);
+  if (options.tolerance !== undefined && options.tolerance < 1e-3) model = polishLikelihoodFit(samples, model, options.tolerance, r.nuFree);
   return isCovariateTrend(model.trend) ? attachTrendCoefficients(samples, model) : model;
 }
 
