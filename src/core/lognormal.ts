@@ -56,12 +56,12 @@ export function lognormalUnbiasedMean(logMean: number, logSd: number, lagrangeTe
  * x₀ᵀμ at one target: the kriging Lagrange multipliers (Predictor.weights) times the trend columns
  * of the target in the predictor's frame. 0 for simple kriging.
  */
-export function lagrangeTerm(predictor: Predictor, tx: number, ty: number): number {
-  const w = predictor.weights(tx, ty);
+export function lagrangeTerm(predictor: Predictor, tx: number, ty: number, covariates?: ArrayLike<number>): number {
+  const w = predictor.weights(tx, ty, covariates);
   const p = w.lagrange.length;
   if (p === 0) return 0;
   const x0 = new Float64Array(p);
-  designRow(predictor.model.trend, tx, ty, predictor.frame, x0);
+  designRow(predictor.model.trend, tx, ty, predictor.frame, x0, 0, covariates);
   let s = 0;
   for (let a = 0; a < p; a++) s += x0[a] * w.lagrange[a];
   return s;
