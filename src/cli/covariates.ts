@@ -12,7 +12,9 @@ import type { IntakeResult } from '../io/types.ts';
 import { covariateColumns } from '../io/sample-columns.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../io/numbers.ts';
 import type { OptionSpec } from './args.ts';
-import { stringOption } from './args.ts';
+import { repeatedOption, stringOption } from './args.ts';
+import { openInputFile } from './input-file.ts';
+import { readCovariateRaster, type CovariateRaster } from '../io/covariate-raster.ts';
 import type { CsvTable } from './csv.ts';
 import type { OptionValues } from './common.ts';
 
@@ -139,4 +141,34 @@ export function refuseCovariateModel(trend: Trend, command: string, why: string)
   if (isCovariateTrend(trend)) {
     throw new GapwiseError('bad-option', `"gapwise ${command}" cannot use a model with covariates (${(trend as CovariateTrend).covariates.join(', ')}) here: ${why}; expected a model without covariates.`);
   }
+}
+
+/** The option `grid` takes for covariate rasters (repeatable). */
+export const COVARIATE_RASTER_OPTION: OptionSpec = {
+  name: 'covariate-raster', kind: 'string', placeholder: 'NAME=FILE.tif', repeatable: true,
+  help: 'a model covariate on the grid from a single-band GeoTIFF in any EPSG CRS (reprojected; bilinear for numbers, nearest cell for categories); give it once per covariate. Without --cell the grid is the raster\'s own lattice (clipped by --boundary)',
+  defaultText: 'none',
+};
+
+/** Raster size limit: the same as for sample files. */
+const MAX_RASTER_BYTES = 512 * 1024 * 1024;
+
+/** Reads every --covariate-raster NAME=FILE. Throws 'bad-option' for a malformed value or a name given twice. */
+export async function readCovariateRasters(values: OptionValues, cwd: string): Promise<CovariateRaster[]> {
+  const out: CovariateRaster[] = [];
+  for (const raw of repeatedOption(values, 'covariate-raster')) {
+    const eq = raw.indexOf('=');
+    const name = eq > 0 ? raw.slice(0, eq).trim() : '';
+    const file = eq > 0 ? raw.slice(eq + 1).trim() : '';
+    if (name === '' || file === '') {
+      throw new GapwiseError('bad-option', `Option "--covariate-raster" expects NAME=FILE.tif (e.g. workshop_dist_m=workshop-distance.tif), got "${raw}".`);
+    }
+    if (out.some((r) => r.name === name)) throw new GapwiseError('bad-option', `Option "--covariate-raster" names "${name}" twice; expected one raster per covariate.`);
+    const { size, chunks } = openInputFile(cwd, file, MAX_RASTER_BYTES);
+    const bytes = new Uint8Array(size);
+    let at = 0;
+    for (const c of chunks) { bytes.set(c.subarray(0, Math.min(c.length, size - at)), at); at += c.length; }
+    out.push(await readCovariateRaster(bytes.subarray(0, Math.min(at, size)), name, file));
+  }
+  return out;
 }
