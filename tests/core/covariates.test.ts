@@ -10,7 +10,9 @@ import { createLikelihood } from '../../src/core/likelihood.ts';
 import { fitModel } from '../../src/core/fit.ts';
 import { parseModel, type CovarianceModel, type CovariateTrend } from '../../src/core/model.ts';
 import { trendColumnCount, trendColumnNames } from '../../src/core/trend.ts';
-import type { Samples } from '../../src/core/samples.ts';
+import { pickSamples, type Samples } from '../../src/core/samples.ts';
+import { createLocalPredictor } from '../../src/core/local-kriging.ts';
+import { leaveOneOut } from '../../src/core/cross-validation.ts';
 
 interface CovariateCase {
   name: string;
@@ -173,5 +175,34 @@ describe('encodeCovariates and resolveCovariateTrend', () => {
       .toEqual({ covariates: ['a', 'b'], coordinates: true, levels: { b: ['x', 'y'] } });
     expect(thrown(() => parseModel({ structures: [{ type: 'nugget', sill: 1 }], trend: { covariates: ['a', 'a'] } })).message).toContain('twice');
     expect(thrown(() => parseModel({ structures: [{ type: 'nugget', sill: 1 }], trend: { covariates: ['a'], levels: { z: ['1'] } } })).code).toBe('bad-model');
+  });
+});
+
+describe('local kriging and leave-one-out with covariates', () => {
+  const trend = resolveCovariateTrend({ covariates: ['sqrt_dist', 'soil'] }, columnsOf(S));
+  const model = parseModel({ structures: [{ type: 'nugget', sill: 0.05 }, { type: 'exponential', sill: 0.6, scale: 150 }], trend });
+  const samples = samplesFor(trend, false);
+  const targets = encodeCovariates(trend, columnsOf(T), T.x.length);
+  it('createLocalPredictor with all samples as the neighbourhood equals simple kriging of the residuals from the global GLS trend', () => {
+    const local = createLocalPredictor(samples, model, { neighbors: samples.value.length }).predict(T.x, T.y, { covariates: targets });
+    // Independent path: the exact predictor's β̂ and trend, then simple kriging (known mean 0) of the residuals.
+    const exact = createPredictor(samples, model);
+    const k = systemTrendCoefficients(exact.system).map((c) => c.estimate);
+    const trendAt = (x: number, y: number, row: Float64Array) => k[0] + k[1] * row[0] + k[2] * row[1] + k[3] * row[2];
+    const n = samples.value.length;
+    const resid = Float64Array.from(samples.value, (v, i) => v - trendAt(S.x[i], S.y[i], samples.covariates!.subarray(i * 3, i * 3 + 3)));
+    const sk = createPredictor({ x: samples.x, y: samples.y, value: resid }, { ...model, trend: { known: 0 } }).predict(T.x, T.y);
+    const expected = Array.from(sk.mean, (m, j) => m + trendAt(T.x[j], T.y[j], targets.subarray(j * 3, j * 3 + 3)));
+    expectClose(local.mean, expected, { rel: 1e-9, abs: 1e-9 }, 'mean');
+    expectClose(local.sd, sk.sd, { rel: 1e-9 }, 'sd');
+    expect(n).toBe(80);
+  });
+  it('leaveOneOut with a covariate trend equals refitting without each sample (brute force on 3 samples)', () => {
+    const cv = leaveOneOut(samples, model);
+    for (const i of [0, 17, 63]) {
+      const keep = Array.from({ length: samples.value.length }, (_, k) => k).filter((k) => k !== i);
+      const p = createPredictor(pickSamples(samples, keep), model).predict([S.x[i]], [S.y[i]], { covariates: samples.covariates!.subarray(i * 3, i * 3 + 3) });
+      expectClose(cv.prediction[i], p.mean[0], { rel: 1e-9 }, `prediction ${i}`);
+    }
   });
 });
