@@ -9,7 +9,8 @@ import { createPredictor, systemTrendCoefficients } from '../../src/core/kriging
 import { createLikelihood } from '../../src/core/likelihood.ts';
 import { fitModel } from '../../src/core/fit.ts';
 import { parseModel, type CovarianceModel, type CovariateTrend } from '../../src/core/model.ts';
-import { trendColumnCount, trendColumnNames } from '../../src/core/trend.ts';
+import { trendCoefficients, trendColumnCount, trendColumnNames } from '../../src/core/trend.ts';
+import { createVecchiaLikelihood, vecchiaTrend } from '../../src/core/vecchia.ts';
 import { pickSamples, type Samples } from '../../src/core/samples.ts';
 import { createLocalPredictor } from '../../src/core/local-kriging.ts';
 import { leaveOneOut } from '../../src/core/cross-validation.ts';
@@ -204,5 +205,26 @@ describe('local kriging and leave-one-out with covariates', () => {
       const p = createPredictor(pickSamples(samples, keep), model).predict([S.x[i]], [S.y[i]], { covariates: samples.covariates!.subarray(i * 3, i * 3 + 3) });
       expectClose(cv.prediction[i], p.mean[0], { rel: 1e-9 }, `prediction ${i}`);
     }
+  });
+});
+
+describe('nearest-neighbour likelihood with covariates', () => {
+  const trend = resolveCovariateTrend({ covariates: ['sqrt_dist', 'soil'], coordinates: true }, columnsOf(S));
+  const samples = samplesFor(trend, false);
+  it('createVecchiaLikelihood with m ≥ n − 1 equals the exact REML likelihood with covariates and coordinates (1e-8)', () => {
+    const setup = { family: 'exponential' as const, trend, method: 'reml' as const };
+    const exact = createLikelihood(samples, setup).evaluate({ scale: 120, nuggetRatio: 0.08 });
+    const nn = createVecchiaLikelihood(samples, { ...setup, neighbors: samples.value.length - 1 }).evaluate({ scale: 120, nuggetRatio: 0.08 });
+    expectClose(nn.logLikelihood, exact.logLikelihood, { rel: 1e-8 }, 'logLikelihood');
+    expectClose(nn.sigma2, exact.sigma2, { rel: 1e-8 }, 'sigma2');
+    expectClose(nn.beta, exact.beta, { rel: 1e-7, abs: 1e-9 }, 'beta');
+  });
+  it('vecchiaTrend with all earlier samples as neighbours gives the exact GLS coefficients and standard errors', () => {
+    const model = parseModel({ structures: [{ type: 'nugget', sill: 0.05 }, { type: 'exponential', sill: 0.6, scale: 150 }], trend });
+    const t = vecchiaTrend(samples, model, { neighbors: samples.value.length - 1 });
+    const viaNn = trendCoefficients(trend, t.frame, t.beta, t.betaCovariance);
+    const exact = systemTrendCoefficients(createPredictor(samples, model).system);
+    expectClose(viaNn.map((c) => c.estimate), exact.map((c) => c.estimate), { rel: 1e-7, abs: 1e-10 }, 'estimates');
+    expectClose(viaNn.map((c) => c.standardError), exact.map((c) => c.standardError), { rel: 1e-7 }, 'standard errors');
   });
 });
