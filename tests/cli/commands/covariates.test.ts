@@ -86,6 +86,28 @@ describe('fit, predict and cv with covariates', () => {
     }
   });
 
+  it('fit --covariates with --method nnl and --method wls carries the levels and the coefficients', async () => {
+    for (const method of ['nnl', 'wls']) {
+      const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--method', method, '--covariates', 'd,soil', '--out', `model-${method}.json`);
+      expect(f.code, f.stderr).toBe(0);
+      const json = JSON.parse(ws.read(`model-${method}.json`));
+      expect(json.trend.levels).toEqual({ soil: ['clay', 'loam', 'sand'] });
+      expect(json.fit.coefficients.map((c: { name: string }) => c.name)).toEqual(['constant', 'd', 'soil=loam', 'soil=sand']);
+      expect(json.fit.trendVarianceExplained).toBeGreaterThan(0);
+    }
+  });
+
+  it('grid refuses a covariate model without its raster, and a raster for a model without covariates (exit 2)', async () => {
+    const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--covariates', 'd', '--out', 'model-d.json');
+    expect(f.code, f.stderr).toBe(0);
+    const a = await ws.run('grid', ...COMMON, '--model', 'model-d.json', '--out', 'g.tif');
+    expect(a.code).toBe(2);
+    expect(a.stderr).toContain('--covariate-raster NAME=FILE.tif');
+    const s = await ws.run('suggest', ...COMMON, '--model', 'model-d.json', '--count', '2', '--out', 's.csv');
+    expect(s.code).toBe(2);
+    expect(s.stderr).toContain('covariates (d)');
+  });
+
   it('fit --covariates names a missing sample column and refuses a known mean (exit 2)', async () => {
     const a = await ws.run('fit', ...COMMON, '--covariates', 'depth');
     expect(a.code).toBe(2);
