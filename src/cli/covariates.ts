@@ -66,11 +66,13 @@ export function trendWithCovariates(values: OptionValues, base: Trend): Trend {
 
 /**
  * The samples with their encoded covariate columns, and the trend with its categorical levels
- * recorded (kept as the model records them when they already are). Other trends pass through.
+ * recorded (kept as the model records them when they already are). `fitted` (default): the trend of a
+ * fitted model, so a covariate without levels must be numeric; false for the trend a fit starts from.
+ * Other trends pass through.
  */
-export function withSampleCovariates<T extends Trend>(intake: IntakeResult, samples: Samples, trend: T): { samples: Samples; trend: T } {
+export function withSampleCovariates<T extends Trend>(intake: IntakeResult, samples: Samples, trend: T, fitted = true): { samples: Samples; trend: T } {
   if (!isCovariateTrend(trend)) return { samples, trend };
-  const { columns, source } = covariateColumns(intake, trend);
+  const { columns, source } = covariateColumns(intake, trend, 'sample', fitted);
   const resolved = resolveCovariateTrend(trend, columns, source);
   const covariates = encodeCovariates(resolved, columns, samples.value.length, source);
   return { samples: { ...samples, covariates }, trend: resolved as T };

@@ -63,10 +63,12 @@ export function sampleLine(intake: IntakeResult, i: number): number {
 /**
  * The columns a covariate trend names, read from the samples (or targets) with `sourceColumn`: a
  * covariate that is not categorical (neither listed in `categorical` nor with recorded levels) must be
- * numeric: a text cell in it is GapwiseError 'bad-value' naming the column, the line and the cell.
+ * numeric: a text cell in it is GapwiseError 'bad-value' naming the column, the line and the cell. A
+ * column of words only is read as categorical, unless `fitted` (the trend of a fitted model, whose
+ * categorical covariates all have their levels recorded).
  */
 export function covariateColumns(
-  intake: IntakeResult, trend: CovariateTrend, what = 'sample',
+  intake: IntakeResult, trend: CovariateTrend, what = 'sample', fitted = false,
 ): { columns: Record<string, CovariateColumn>; source: CovariateSource } {
   const columns: Record<string, CovariateColumn> = {};
   const file = intake.report.fileName;
@@ -76,14 +78,15 @@ export function covariateColumns(
     const categorical = trend.levels?.[name] !== undefined || trend.categorical?.includes(name);
     if (c.kind === 'text' && !categorical) {
       const numbersToo = c.levels.filter((l) => l !== '' && Number.isFinite(Number(l))).length;
-      // A column of words is a category by nature; one of numbers with a stray word is a bad cell.
-      if (numbersToo === 0) {
+      // A column of words is a category by nature (unless a fitted model recorded it as numeric); one of
+      // numbers with a stray word is a bad cell.
+      if (numbersToo === 0 && !fitted) {
         columns[name] = c;
         continue;
       }
       for (let i = 0; i < c.codes.length; i++) {
         const level = c.levels[c.codes[i]];
-        if (level !== '' && !Number.isFinite(Number(level))) {
+        if (level !== '' && !(numbersToo > 0 && Number.isFinite(Number(level)))) {
           throw new GapwiseError('bad-value', `The covariate "${name}" holds "${level.length > 40 ? `${level.slice(0, 40)}...` : level}" in this ${what}; expected a number.`, { file, row: sampleLine(intake, i), column: name });
         }
       }

@@ -128,7 +128,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
 
   const nugget = !booleanOption(values, 'no-nugget');
-  const { samples, trend } = withSampleCovariates(intake, transform === 'log' ? logSamples(intake) : intake.samples, givenTrend);
+  const { samples, trend } = withSampleCovariates(intake, transform === 'log' ? logSamples(intake) : intake.samples, givenTrend, false);
   const files = { samples: intake.report.fileName };
   let model: CovarianceModel;
   if (method === 'nnl') {

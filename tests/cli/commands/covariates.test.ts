@@ -103,6 +103,11 @@ describe('fit, predict and cv with covariates', () => {
     const a = await ws.run('grid', ...COMMON, '--model', 'model-d.json', '--out', 'g.tif');
     expect(a.code).toBe(2);
     expect(a.stderr).toContain('--covariate-raster NAME=FILE.tif');
+    // Samples whose "d" holds words: a fitted model recorded d as numeric, so that is a bad cell, not a category.
+    const swapped = ws.write('swapped.csv', CSV.replace('id,easting,northing,value,d,soil', 'id,easting,northing,value,soil,d'));
+    const c = await ws.run('cv', '--samples', swapped, '--crs', 'EPSG:32633', '--value', 'value', '--model', 'model-d.json');
+    expect(c.code).toBe(2);
+    expect(c.stderr).toMatch(/line 2, column "d".*"clay".*expected a number/);
     const s = await ws.run('suggest', ...COMMON, '--model', 'model-d.json', '--count', '2', '--out', 's.csv');
     expect(s.code).toBe(2);
     expect(s.stderr).toContain('covariates (d)');
