@@ -1,6 +1,8 @@
 // Model-fitting benchmark: REML fit of a Matérn ν = 3/2 (fixed) + nugget model on invented simulated
 // samples in a 1 km square (true scale 150 m, sill 1, nugget 0.1), and the cost of one likelihood
-// evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick).
+// evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick). Then a REML fit
+// with two covariates in the mean (a distance and a three-level category) on 2,000 samples (500 with
+// --quick).
 // Alone: `npx tsx bench/fit.ts [--quick]`; with the others: `npm run bench -- fit`.
 import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
@@ -9,6 +11,7 @@ import { createLikelihood } from '../src/core/likelihood.ts';
 import { simulateSamples } from '../src/core/simulate.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
 import type { Samples } from '../src/core/samples.ts';
+import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../src/core/covariates.ts';
 
 const truth: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],
@@ -55,7 +58,36 @@ export async function runFitBench(options: { quick?: boolean } = {}): Promise<Ro
     }
     rows.push({ name: 'REML fit, Matérn 3/2 (fixed ν) + nugget', n, seconds: median(times), note: `${runs > 1 ? `median of ${runs}` : '1 run'}; ${describeFit(last!)}` });
   }
+  rows.push(covariateFitRow(options.quick ? 500 : 2000));
   return rows;
+}
+
+/**
+ * The invented samples with two covariates: the distance to an invented point source (300, 700) and a
+ * three-level category by region, with the values shifted by −0.002 per metre and by level (0, 0.8, −0.5).
+ */
+function covariateSamples(n: number): { samples: Samples; columns: Record<string, CovariateColumn> } {
+  const base = invented(n);
+  const dist = Float64Array.from(base.x, (x, i) => Math.hypot(x - 300, base.y[i] - 700));
+  const codes = Uint32Array.from(base.x, (x, i) => (x < 400 ? 0 : base.y[i] < 500 ? 1 : 2));
+  const shift = [0, 0.8, -0.5];
+  const value = Float64Array.from(base.value, (v, i) => v - 0.002 * dist[i] + shift[codes[i]]);
+  return { samples: { ...base, value }, columns: { dist: { kind: 'numeric', values: dist }, soil: { kind: 'text', codes, levels: ['clay', 'loam', 'sand'] } } };
+}
+
+export function covariateFitRow(n: number): Row {
+  const { samples, columns } = covariateSamples(n);
+  const trend = resolveCovariateTrend({ covariates: ['dist', 'soil'] }, columns);
+  const withCovariates = { ...samples, covariates: encodeCovariates(trend, columns, n) };
+  const t0 = performance.now();
+  const c0 = process.cpuUsage();
+  const m = fitModel(withCovariates, { family: 'matern', nu: 1.5, method: 'reml', trend });
+  const seconds = (performance.now() - t0) / 1000;
+  const cpu = process.cpuUsage(c0);
+  const cpuSeconds = (cpu.user + cpu.system) / 1e6;
+  const k = (m.fit!.coefficients as Array<{ name: string; estimate: number; standardError: number }>)
+    .map((c) => `${c.name} ${c.estimate.toFixed(4)} ± ${c.standardError.toFixed(4)}`).join(', ');
+  return { name: 'REML fit with two covariates (distance, 3-level category)', n, seconds, cpuSeconds, note: `1 run, ${cpuSeconds.toFixed(2)} s CPU; ${describeFit(m)}; ${k}` };
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {

@@ -13,6 +13,11 @@
  * heap); a strip of imported clean topsoil gives a few readings under the 5 mg/kg detection limit,
  * written "<5". One location was sampled twice (a field duplicate with a different reading).
  *
+ * A covariate of the mean, also invented: the distance from each sample to the old workshop (the
+ * centre of the larger hotspot), in metres, in lead-topsoil-covariates.csv (the same readings with a
+ * `workshop_dist_m` column), and the same distance on a 5 m lattice in UTM zone 32N
+ * (workshop-distance.tif, Float32, cell centres), for `gapwise grid --covariate-raster`.
+ *
  * Run `npx tsx scripts/make-demo-data.ts [folder]` (default data-demo/); the output is the same on every
  * run (seeded).
  */
@@ -23,6 +28,7 @@ import proj4 from 'proj4';
 import { createRandom } from '../src/core/random.ts';
 import { simulateField } from '../src/core/simulate.ts';
 import type { CovarianceModel } from '../src/core/model.ts';
+import { bandsGeoTiff } from '../src/io/geotiff.ts';
 
 const SEED = 20240711;
 const NAME = 'Wrenfallow Works yard (invented)';
@@ -139,7 +145,12 @@ const toLonLat = (px: number, py: number): [number, number] => {
   return [Number(lon.toFixed(7)), Number(lat.toFixed(7))];
 };
 
+/** The invented old workshop (centre of the larger hotspot), local metres. */
+const WORKSHOP: [number, number] = [-110, 60];
+const workshopDistance = (px: number, py: number): number => Math.hypot(px - WORKSHOP[0], py - WORKSHOP[1]);
+
 const lines = ['Sample ID,Longitude,Latitude,Pb (mg/kg),Notes,Site'];
+const covariateLines = ['Sample ID,Longitude,Latitude,Pb (mg/kg),workshop_dist_m,Notes,Site'];
 let count = 0;
 let nonDetects = 0;
 let max = 0;
@@ -151,10 +162,13 @@ for (const i of order) {
   if (r.startsWith('<')) nonDetects++;
   else { max = Math.max(max, values[i]); min = Math.min(min, values[i]); }
   count++;
+  const distance = workshopDistance(local[i][0], local[i][1]).toFixed(1);
   lines.push(`${id(count)},${lon},${lat},${r},${r.startsWith('<') ? 'lab reports less than the detection limit' : ''},${NAME}`);
+  covariateLines.push(`${id(count)},${lon},${lat},${r},${distance},${r.startsWith('<') ? 'lab reports less than the detection limit' : ''},${NAME}`);
   if (i === dupOf) {
     count++;
     lines.push(`${id(count)},${lon},${lat},${reading(dupValue)},field duplicate of ${id(count - 1)},${NAME}`);
+    covariateLines.push(`${id(count)},${lon},${lat},${reading(dupValue)},${distance},field duplicate of ${id(count - 1)},${NAME}`);
   }
 }
 
@@ -167,6 +181,29 @@ if (problems.length) throw new Error(`The demo scenario drifted: ${problems.join
 
 mkdirSync(outDir, { recursive: true });
 writeFileSync(resolve(outDir, 'lead-topsoil.csv'), `${lines.join('\n')}\n`);
+writeFileSync(resolve(outDir, 'lead-topsoil-covariates.csv'), `${covariateLines.join('\n')}\n`);
+
+// The workshop distance on a 5 m lattice in UTM zone 32N covering the site with a 20 m margin; the
+// lattice's corner on whole multiples of 5 m.
+const RASTER_CELL = 5;
+const rx0 = Math.floor((cx - 230) / RASTER_CELL) * RASTER_CELL;
+const ry0 = Math.ceil((cy + 175) / RASTER_CELL) * RASTER_CELL;
+const rnx = Math.ceil((cx + 230 - rx0) / RASTER_CELL);
+const rny = Math.ceil((ry0 - (cy - 175)) / RASTER_CELL);
+const distanceBand = new Float32Array(rnx * rny);
+for (let j = 0; j < rny; j++) {
+  for (let i = 0; i < rnx; i++) {
+    const px = rx0 + (i + 0.5) * RASTER_CELL - cx;
+    const py = ry0 - (j + 0.5) * RASTER_CELL - cy;
+    distanceBand[j * rnx + i] = workshopDistance(px, py);
+  }
+}
+const raster = bandsGeoTiff({
+  grid: { x0: rx0, y0: ry0, cell: RASTER_CELL, nx: rnx, ny: rny },
+  bands: [distanceBand], names: ['workshop_dist_m (m)'], workCrs: UTM,
+  title: `Distance to the old workshop of ${NAME}, metres: an invented covariate for the Gapwise demo.`,
+});
+writeFileSync(resolve(outDir, 'workshop-distance.tif'), raster.bytes);
 
 const ring = [...OUTLINE, OUTLINE[0]].map(([px, py]) => toLonLat(px, py));
 const boundary = {

@@ -21,6 +21,8 @@ export interface OptionSpec {
   /** Allowed values for a string option. */
   choices?: readonly string[];
   required?: boolean;
+  /** A string option that may be given more than once; its values are joined by a line feed (see `repeatedOption`). */
+  repeatable?: boolean;
 }
 
 export type OptionValue = string | number | boolean;
@@ -57,7 +59,7 @@ export function parseArgs(argv: readonly string[], specs: readonly OptionSpec[],
     const name = eq === -1 ? token.slice(2) : token.slice(2, eq);
     const spec = byName.get(name);
     if (!spec) throw optionError(`Unknown option "--${name}" for "gapwise ${command}"; ${helpHint}.`, `--${name}`);
-    if (name in values) throw optionError(`Option "--${name}" is given twice; expected it once.`, `--${name}`);
+    if (name in values && !spec.repeatable) throw optionError(`Option "--${name}" is given twice; expected it once.`, `--${name}`);
 
     let raw: string;
     if (spec.kind === 'boolean') {
@@ -94,7 +96,7 @@ export function parseArgs(argv: readonly string[], specs: readonly OptionSpec[],
     if (spec.choices && !spec.choices.includes(raw)) {
       throw optionError(`Option "--${name}" expects one of ${spec.choices.join(', ')}; got "${raw}".`, `--${name}`);
     }
-    values[name] = raw;
+    values[name] = spec.repeatable && name in values ? `${String(values[name])}\n${raw}` : raw;
   }
   for (const s of specs) {
     if (s.required && !(s.name in values)) {
@@ -117,4 +119,10 @@ export function numberOption(values: Record<string, OptionValue>, name: string):
 
 export function booleanOption(values: Record<string, OptionValue>, name: string): boolean {
   return values[name] === true;
+}
+
+/** The values of a repeatable string option, in the order given (empty when it was not given). */
+export function repeatedOption(values: Record<string, OptionValue>, name: string): string[] {
+  const v = values[name];
+  return typeof v === 'string' ? v.split('\n') : [];
 }

@@ -10,6 +10,7 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import type { CovarianceModel, Family } from '../core/model.ts';
+import { isCovariateTrend } from '../core/model.ts';
 import { openProject, projectIntake, type OpenedProject, type Project } from '../io/project.ts';
 import type { OptionSpec } from './args.ts';
 import { stringOption } from './args.ts';
@@ -53,7 +54,13 @@ function fitValues(project: Project, model: CovarianceModel): OptionValues {
     out.family = corr.type;
     if (corr.type === 'matern') out.nu = project.structure.chosen === 'matern-free' ? 'free' : String(corr.nu ?? 1.5);
   }
-  out.trend = typeof model.trend === 'object' ? `known:${model.trend.known}` : model.trend;
+  if (isCovariateTrend(model.trend)) {
+    out.trend = model.trend.coordinates ? 'linear' : 'constant';
+    out.covariates = model.trend.covariates.join(',');
+    const levels = model.trend.levels ?? {};
+    const categorical = Object.keys(levels).filter((name) => levels[name].every((l) => Number.isFinite(Number(l))));
+    if (categorical.length > 0) out.categorical = categorical.join(',');
+  } else out.trend = typeof model.trend === 'object' ? `known:${model.trend.known}` : model.trend;
   return out;
 }
 

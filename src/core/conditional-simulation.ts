@@ -36,7 +36,7 @@
  * memory 8·N·cells bytes for the realisations (Float32 bands: 4·N·cells).
  */
 import type { CovarianceModel } from './model.ts';
-import { nuggetOf } from './model.ts';
+import { isKnownTrend, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, checkCount, type Warning } from './errors.ts';
 import { crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from './covariance.ts';
@@ -290,7 +290,7 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
   const n = samples.x.length;
   const trend = model.trend;
   const p = trendColumnCount(trend);
-  const m0 = typeof trend === 'object' ? trend.known : 0;
+  const m0 = isKnownTrend(trend) ? trend.known : 0;
   const q = Math.min(neighbors, n);
   if (p > 0 && q <= p) throw new GapwiseError('bad-option', `Expected more than ${p} samples per neighbourhood for this trend, got ${q}.`);
   // Neighbours by effective distance: search in coordinates where the model is isotropic.

@@ -28,7 +28,10 @@ import type { CorrelationParameters, Likelihood } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
 import { numericalFailureAdvice } from './numerical-advice.ts';
 import { GapwiseError } from './errors.ts';
-import { centroid, makeSamples } from './samples.ts';
+import { centroid, pickSamples } from './samples.ts';
+import { isCovariateTrend } from './model.ts';
+import { resolveFitTrend, leastSquaresResiduals, attachTrendCoefficients } from './covariate-fit.ts';
+import { polishLikelihoodFit } from './fit-polish.ts';
 import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from './optimize.ts';
 import { createVecchiaLikelihood } from './vecchia.ts';
@@ -58,6 +61,11 @@ export interface FitOptions {
   variogram?: VariogramOptions;
   /** Evaluation budget of each optimiser run (default: enough to converge); small values leave the fit unconverged. */
   maxEvaluations?: number;
+  /**
+   * Absolute tolerance on ℓ at a REML/ML optimum; default about 1e-3. A smaller value polishes the
+   * optimum on the exact likelihood (./fit-polish.ts), at tens of extra evaluations.
+   */
+  tolerance?: number;
 }
 
 /** Smoothness bounds when ν is estimated (defined beside the likelihood). */
@@ -93,11 +101,7 @@ function resolve(samples: Samples, options: FitOptions): Resolved {
   if (method !== 'reml' && method !== 'ml' && method !== 'wls') {
     throw new GapwiseError('bad-option', `Expected the method to be reml, ml or wls, got ${JSON.stringify(method)}.`);
   }
-  const trend = options.trend ?? 'constant';
-  const known = typeof trend === 'object' && trend !== null && typeof trend.known === 'number' && Number.isFinite(trend.known);
-  if (trend !== 'constant' && trend !== 'linear' && !known) {
-    throw new GapwiseError('bad-option', `Expected the trend to be "constant", "linear" or {"known": number}, got ${JSON.stringify(trend)}.`);
-  }
+  const { trend, known, p } = resolveFitTrend(samples, options.trend);
   let nuFixed: number | undefined;
   let nuFree = false;
   if (options.family === 'matern') {
@@ -119,15 +123,13 @@ function resolve(samples: Samples, options: FitOptions): Resolved {
   if (options.maxEvaluations !== undefined && !(Number.isInteger(options.maxEvaluations) && options.maxEvaluations >= 1)) {
     throw new GapwiseError('bad-option', `Expected maxEvaluations to be a positive whole number, got ${JSON.stringify(options.maxEvaluations)}.`);
   }
-  const p = known ? 0 : trend === 'linear' ? 3 : 1;
-
   const n = samples.value.length;
   if (samples.x.length !== n || samples.y.length !== n) {
     throw new GapwiseError('bad-value', `Expected x, y and value of equal length, got ${samples.x.length}, ${samples.y.length} and ${n}.`);
   }
   const minimum = p + 2 > 3 ? p + 2 : 3;
   if (n < minimum) {
-    throw new GapwiseError('too-few-samples', `Expected at least ${minimum} samples to fit a model${p === 3 ? ' with a linear trend' : ''}, got ${n}.`);
+    throw new GapwiseError('too-few-samples', `Expected at least ${minimum} samples to fit a model${isCovariateTrend(trend) ? ` with ${p} trend coefficients` : p === 3 ? ' with a linear trend' : ''}, got ${n}.`);
   }
   for (let i = 0; i < n; i++) {
     if (!Number.isFinite(samples.value[i]) || !Number.isFinite(samples.x[i]) || !Number.isFinite(samples.y[i])) {
@@ -165,7 +167,7 @@ function subsetSamples(samples: Samples, m: number, seed: number): Samples {
     [idx[i], idx[j]] = [idx[j], idx[i]];
   }
   const pick = idx.slice(0, m).sort((a, b) => a - b);
-  return makeSamples(pick.map((i) => samples.x[i]), pick.map((i) => samples.y[i]), pick.map((i) => samples.value[i]));
+  return pickSamples(samples, pick);
 }
 
 interface SearchLayout {
@@ -631,7 +633,8 @@ export function fitToEmpiricalLags(lagsIn: ReadonlyArray<LagPoint>, options: Lag
 /** WLS on the empirical variogram (of plane residuals for a linear trend), then the REML likelihood there. */
 function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOptions, maxEvaluations?: number, onProgress?: FitProgress): CovarianceModel {
   const n = samples.value.length;
-  const values = r.p === 3 ? planeResiduals(samples) : Float64Array.from(samples.value);
+  const values = isCovariateTrend(r.trend) ? leastSquaresResiduals(samples, r.trend)
+    : r.p === 3 ? planeResiduals(samples) : Float64Array.from(samples.value);
   const v = empiricalVariogram(isotropicFrame(samples, values, r.anisotropy), variogramOptions);
   // Progress in three stages: the empirical variogram, the least-squares search, the likelihood.
   onProgress?.(1, 3);
@@ -686,9 +689,11 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
  */
 export function fitModel(samples: Samples, options: FitOptions, onProgress?: FitProgress): CovarianceModel {
   const r = resolve(samples, options);
-  return r.method === 'wls'
+  let model = r.method === 'wls'
     ? fitByWls(samples, r, options.variogram ?? {}, options.maxEvaluations, onProgress)
     : fitByLikelihood(samples, r, options.maxEvaluations, onProgress);
+  if (options.tolerance !== undefined && options.tolerance < 1e-3) model = polishLikelihoodFit(samples, model, options.tolerance, r.nuFree);
+  return isCovariateTrend(model.trend) ? attachTrendCoefficients(samples, model) : model;
 }
 
 /**

@@ -13,6 +13,7 @@
  * Cost: O(nx·ny) memory for the mask, O(ny·edges + nx·ny) to build it.
  */
 import { GapwiseError } from './errors.ts';
+import { pointInPolygons } from './polygon.ts';
 
 export interface Grid {
   /** x of the upper-left corner (west edge), metres. */
@@ -317,4 +318,27 @@ export function planSurfaceGrid(o: GridPlanOptions): { grid: Grid; cell: number;
   const cell = auto ? autoCellSize(width + 2 * pad, height + 2 * pad, o.targetCells ?? 40_000) : o.cellSize;
   const grid = useBoundary ? gridForPolygons(o.polygons!, cell) : gridFromExtent(e.xmin, e.ymin, e.xmax, e.ymax, cell, pad);
   return { grid, cell, auto };
+}
+
+/**
+ * The grid with the cells whose centre lies outside every polygon masked out (an existing mask is
+ * kept). Throws 'bad-geometry' when no cell centre is inside. O(cells · vertices).
+ */
+export function clipToPolygons(grid: Grid, polygons: ReadonlyArray<Polygon>): Grid {
+  const { nx, ny, x0, y0, cell } = grid;
+  const mask = new Uint8Array(nx * ny);
+  let inside = 0;
+  for (let j = 0; j < ny; j++) {
+    const yc = y0 - (j + 0.5) * cell;
+    for (let i = 0; i < nx; i++) {
+      const k = j * nx + i;
+      if (grid.mask && !grid.mask[k]) continue;
+      if (pointInPolygons(x0 + (i + 0.5) * cell, yc, polygons)) {
+        mask[k] = 1;
+        inside++;
+      }
+    }
+  }
+  if (inside === 0) throw new GapwiseError('bad-geometry', `The boundary holds no cell centre of the ${nx} × ${ny} grid; expected at least one.`);
+  return { ...grid, mask };
 }

@@ -31,10 +31,11 @@ import {
 } from './linalg.ts';
 import { crossCovarianceFastInto } from './linalg-wasm.ts';
 import {
-  trendColumnCount, knownMean, coordinateFrame, centreCoordinates, designMatrix, designRow,
-  type CoordinateFrame,
+  trendColumnCount, knownMean, centreCoordinates, designMatrix, designRow, trendFrame,
+  covariateColumnCount, checkCovariateRows, trendCoefficients, type CoordinateFrame, type TrendCoefficient,
 } from './trend.ts';
 import { logPredictionToDataScale } from './lognormal.ts';
+import { isCovariateTrend } from './model.ts';
 
 /** Options for building a predictor (plain data). */
 export interface PredictorOptions {
@@ -57,6 +58,11 @@ export interface PredictOptions {
   onProgress?: (done: number, total: number) => void;
   /** Polled after each block; returning true stops the work with GapwiseError('cancelled'). */
   isCancelled?: () => boolean;
+  /**
+   * Covariate trend only: the targets' encoded covariate columns (targets × q, row-major; see
+   * ./covariates.ts). Required when the model's trend has covariates.
+   */
+  covariates?: ArrayLike<number>;
 }
 
 /**
@@ -141,8 +147,8 @@ export interface Predictor {
   readonly frame: CoordinateFrame;
   /** Mean and sd at the targets (working-CRS coordinates). */
   predict(tx: ArrayLike<number>, ty: ArrayLike<number>, options?: PredictOptions): Prediction;
-  /** Kriging weights and Lagrange multipliers at one target. */
-  weights(tx: number, ty: number): KrigingWeights;
+  /** Kriging weights and Lagrange multipliers at one target (its encoded covariates for a covariate trend). */
+  weights(tx: number, ty: number, covariates?: ArrayLike<number>): KrigingWeights;
   /** The underlying system (shared with cross-validation). */
   readonly system: KrigingSystem;
 }
@@ -178,7 +184,7 @@ function checkSamples(samples: Samples, model: CovarianceModel, p: number): void
   }
   if (n < 1) throw new GapwiseError('too-few-samples', 'Expected at least 1 sample, got 0.');
   if (p > 0 && n <= p) {
-    const what = p === 1 ? 'an unknown constant mean' : 'a linear trend';
+    const what = p === 1 ? 'an unknown constant mean' : isCovariateTrend(model.trend) ? `a trend with ${p} coefficients` : 'a linear trend';
     throw new GapwiseError('too-few-samples', `Expected more than ${p} samples for ${what}, got ${n}.`);
   }
   const log = model.transform === 'log';
@@ -224,7 +230,7 @@ export function buildKrigingSystem(samples: Samples, model: CovarianceModel, opt
   const log = model.transform === 'log';
   const warnings: Warning[] = [];
 
-  const frame = coordinateFrame(samples.x, samples.y);
+  const frame = trendFrame(model.trend, samples.x, samples.y, samples.covariates);
   const { u, v } = centreCoordinates(samples.x, samples.y, frame);
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) z[i] = log ? Math.log(samples.value[i]) : samples.value[i];
@@ -251,8 +257,8 @@ export function buildKrigingSystem(samples: Samples, model: CovarianceModel, opt
   const L = factor.L;
 
   const m0 = knownMean(model.trend) ?? 0;
-  const centredFrame: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
-  const X = designMatrix(model.trend, u, v, centredFrame);
+  const centredFrame: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
+  const X = designMatrix(model.trend, u, v, centredFrame, samples.covariates);
   const W = new Float64Array(n * p);
   const Lg = new Float64Array(p * p);
   const beta = new Float64Array(p);
@@ -284,7 +290,9 @@ export function buildKrigingSystem(samples: Samples, model: CovarianceModel, opt
     let worst = Infinity;
     if (gFactor) for (let a = 0; a < p; a++) worst = Math.min(worst, gFactor.L[a * p + a] ** 2 / G[a * p + a]);
     if (!gFactor || !(worst > 1e-12)) {
-      throw new GapwiseError('not-positive-definite', p === 3
+      throw new GapwiseError('not-positive-definite', isCovariateTrend(model.trend)
+        ? `The trend coefficients cannot be estimated: a covariate is constant over the samples, a level has no sample, or a covariate is a combination of the others (${p} columns); drop that covariate or add samples.`
+        : p === 3
         ? 'The linear trend cannot be estimated: the samples lie on a line (or nearly so); use a constant trend or add samples off that line.'
         : 'The trend cannot be estimated from these samples; use a known mean or check the samples.');
     }
@@ -332,10 +340,13 @@ export function predictWithSystem(
   const mean = new Float64Array(total);
   const sd = new Float64Array(total);
   const sdObserved = new Float64Array(total);
-  const centredFrame: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
+  const centredFrame: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
+  const q = covariateColumnCount(model.trend);
+  if (q > 0) checkCovariateRows(model.trend, total, options.covariates, 'target');
+  const tc = options.covariates;
   const x0 = new Float64Array(Math.min(block, total) * p);
   const cross = new Float64Array(Math.min(block, total) * p);
-  const q = new Float64Array(Math.min(block, total));
+  const qq = new Float64Array(Math.min(block, total));
   const t = new Float64Array(p);
   const buffer = new Float64Array(n * Math.min(block, total));
 
@@ -346,7 +357,7 @@ export function predictWithSystem(
     for (let j = 0; j < m; j++) {
       tu[j] = tx[j0 + j] - frame.cx;
       tv[j] = ty[j0 + j] - frame.cy;
-      designRow(model.trend, tu[j], tv[j], centredFrame, x0, j * p);
+      designRow(model.trend, tu[j], tv[j], centredFrame, x0, j * p, tc, (j0 + j) * q);
     }
     // n×m: row i holds the covariances of sample i with the block's targets (C is symmetric in the pair).
     const B = m * n === buffer.length ? buffer : buffer.subarray(0, n * m);
@@ -366,11 +377,11 @@ export function predictWithSystem(
 
     if (wantSd) {
       solveLowerBlock(L, n, B, m);
-      q.fill(0, 0, m);
+      qq.fill(0, 0, m);
       cross.fill(0, 0, m * p);
       for (let i = 0; i < n; i++) {
         const bi = i * m;
-        for (let j = 0; j < m; j++) q[j] += B[bi + j] * B[bi + j];
+        for (let j = 0; j < m; j++) qq[j] += B[bi + j] * B[bi + j];
         for (let a = 0; a < p; a++) {
           const wia = W[i * p + a];
           const ca = a * m;
@@ -378,7 +389,7 @@ export function predictWithSystem(
         }
       }
       for (let j = 0; j < m; j++) {
-        let variance = c0 - q[j];
+        let variance = c0 - qq[j];
         if (p > 0) {
           for (let a = 0; a < p; a++) t[a] = x0[j * p + a] - cross[a * m + j];
           solveLowerInPlace(Lg, p, t);
@@ -404,14 +415,15 @@ export function predictWithSystem(
 }
 
 /** Kriging weights at one target from a factorised system (see Predictor.weights). */
-export function weightsWithSystem(sys: KrigingSystem, tx: number, ty: number): KrigingWeights {
+export function weightsWithSystem(sys: KrigingSystem, tx: number, ty: number, covariates?: ArrayLike<number>): KrigingWeights {
   checkTargets([tx], [ty]);
+  if (covariateColumnCount(sys.model.trend) > 0) checkCovariateRows(sys.model.trend, 1, covariates, 'target');
   const { n, p, model, frame, u, v, W, Lg, beta, alpha, c0, m0 } = sys;
   const L = sys.factor.L;
   const tu = tx - frame.cx;
   const tv = ty - frame.cy;
   const x0 = new Float64Array(p);
-  designRow(model.trend, tu, tv, { cx: 0, cy: 0, scale: frame.scale }, x0);
+  designRow(model.trend, tu, tv, { ...frame, cx: 0, cy: 0 }, x0, 0, covariates);
   const k0 = crossCovarianceMatrix(model, [tu], [tv], u, v);
   let mean = m0;
   for (let a = 0; a < p; a++) mean += x0[a] * beta[a];
@@ -459,7 +471,7 @@ export function createPredictor(samples: Samples, model: CovarianceModel, option
     frame: system.frame,
     system,
     predict: (tx, ty, opts) => checkPredictionFinite(model, predictWithSystem(system, tx, ty, opts), tx, ty, opts?.sd !== false || model.transform === 'log'),
-    weights: (tx, ty) => weightsWithSystem(system, tx, ty),
+    weights: (tx, ty, covariates) => weightsWithSystem(system, tx, ty, covariates),
   };
 }
 
@@ -477,6 +489,32 @@ export function checkPredictionFinite<P extends Prediction>(model: CovarianceMod
     }
   }
   return p;
+}
+
+/**
+ * Covariance of the GLS trend coefficients, (XᵀK⁻¹X)⁻¹ = Lg⁻ᵀLg⁻¹ in the system's columns (p×p,
+ * row-major); on the kriging scale (ln for a log model).
+ */
+export function trendCovariance(sys: KrigingSystem): Float64Array {
+  const p = sys.p;
+  const V = new Float64Array(p * p);
+  const e = new Float64Array(p);
+  for (let c = 0; c < p; c++) {
+    e.fill(0);
+    e[c] = 1;
+    solveLowerInPlace(sys.Lg, p, e);
+    solveUpperTransposeInPlace(sys.Lg, p, e);
+    for (let a = 0; a < p; a++) V[a * p + c] = e[a];
+  }
+  return V;
+}
+
+/**
+ * The GLS trend coefficients with their standard errors in the columns' own units (./trend.ts
+ * `trendCoefficients`): the covariance model is taken as known, so Cov(β̂) = (XᵀK⁻¹X)⁻¹.
+ */
+export function systemTrendCoefficients(sys: KrigingSystem): TrendCoefficient[] {
+  return trendCoefficients(sys.model.trend, sys.frame, sys.beta, trendCovariance(sys));
 }
 
 /** One-shot convenience: builds a predictor and predicts mean and sd at the targets. */

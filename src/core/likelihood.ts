@@ -9,12 +9,17 @@
  * ML drops the last term and uses n for n−p. A known mean m gives p = 0 and residuals y − m.
  * X holds 1 (constant trend) or 1, x, y (linear trend) with x, y centred on the sample centroid
  * (metres): β is reported in those centred coordinates, and ln|XᵀR⁻¹X| depends on that choice.
+ * A covariate trend adds the encoded covariate columns (samples.covariates) in their own units, each
+ * centred on its sample mean (a change of basis of determinant 1, so ln|XᵀR⁻¹X| is that of the raw
+ * columns; β of a covariate is per unit of it).
  * Computed via one Cholesky factor R = LLᵀ (never an inverse): ỹ = L⁻¹y, X̃ = L⁻¹X, Q = |ỹ − X̃β̂|².
  * Units: distances and scale in metres, σ² in data units squared. Cost per evaluation: n²/2
  * correlations, n³/3 flops for the factor, (p + 1)·n² for the solves; memory 8n² bytes for R plus
  * 4n² bytes of packed distances, allocated once per `createLikelihood`.
  */
 import type { Anisotropy, Family, Trend } from './model.ts';
+import { isKnownTrend } from './model.ts';
+import { covariateColumnCount, hasCoordinateDrift, trendColumnCount, checkCovariateRows } from './trend.ts';
 import type { Samples } from './samples.ts';
 import { centroid } from './samples.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
@@ -65,7 +70,7 @@ export interface LikelihoodValue {
 
 export interface Likelihood {
   readonly n: number;
-  /** Number of trend coefficients (0 known mean, 1 constant, 3 linear). */
+  /** Number of trend coefficients (0 known mean, 1 constant, 3 linear, 1 (+2) + q with covariates). */
   readonly p: number;
   readonly method: LikelihoodMethod;
   /** Sample centroid subtracted from the coordinates (metres). */
@@ -107,13 +112,26 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup): Like
   }
 
   const trend = setup.trend;
-  const known = typeof trend === 'object';
-  const p = known ? 0 : trend === 'linear' ? 3 : 1;
+  const known = isKnownTrend(trend);
+  const p = trendColumnCount(trend);
   const y0 = new Float64Array(n);
   for (let i = 0; i < n; i++) y0[i] = known ? samples.value[i] - trend.known : samples.value[i];
   const columns: Float64Array[] = [];
   if (p >= 1) columns.push(new Float64Array(n).fill(1));
-  if (p === 3) columns.push(Float64Array.from(xs), Float64Array.from(ys));
+  if (hasCoordinateDrift(trend)) columns.push(Float64Array.from(xs), Float64Array.from(ys));
+  const q = covariateColumnCount(trend);
+  if (q > 0) {
+    checkCovariateRows(trend, n, samples.covariates, 'sample');
+    const c = samples.covariates!;
+    for (let k = 0; k < q; k++) {
+      const col = new Float64Array(n);
+      let mean = 0;
+      for (let i = 0; i < n; i++) mean += c[i * q + k];
+      mean /= n;
+      for (let i = 0; i < n; i++) col[i] = c[i * q + k] - mean;
+      columns.push(col);
+    }
+  }
 
   const R = new Float64Array(n * n);
   const yt = new Float64Array(n);

@@ -12,7 +12,7 @@ import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from './local-kriging.ts'
 import { checkModelScale, type CovarianceModel } from './model.ts';
 import { NeighborIndex } from './neighbors.ts';
 import type { Samples } from './samples.ts';
-import { coordinateFrame, designRow, trendColumnCount } from './trend.ts';
+import { covariateColumnCount, designRow, trendColumnCount, trendFrame } from './trend.ts';
 import { isotropicCoordinates } from './vecchia.ts';
 
 /** Options of localLeaveOneOut (plain data). */
@@ -50,16 +50,18 @@ export function localLeaveOneOut(
   }
   checkModelScale(model, samples.x, samples.y, samples.value);
   const warnings: Warning[] = [];
-  const frame = coordinateFrame(samples.x, samples.y);
+  const frame = trendFrame(model.trend, samples.x, samples.y, samples.covariates);
+  const covariateCount = covariateColumnCount(model.trend);
   // With a global mean, neighbourhoods krige residuals from the GLS trend with a known mean of 0.
-  const globalMean = options.globalMean === true && pModel > 0;
+  // A covariate trend always does (the neighbourhood systems hold no covariate columns).
+  const globalMean = (options.globalMean === true || covariateCount > 0) && pModel > 0;
   const trendAt = new Float64Array(n);
   if (globalMean) {
     const g = globalMeanCoefficients(samples, model);
     warnings.push(...g.warnings);
     const row = new Float64Array(pModel);
     for (let i = 0; i < n; i++) {
-      designRow(model.trend, samples.x[i], samples.y[i], frame, row);
+      designRow(model.trend, samples.x[i], samples.y[i], frame, row, 0, samples.covariates, i * covariateCount);
       let t = 0;
       for (let a = 0; a < pModel; a++) t += row[a] * g.beta[a];
       trendAt[i] = t;

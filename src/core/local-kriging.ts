@@ -30,7 +30,9 @@ import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { surfaceVariance } from './covariance.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
-import { coordinateFrame, designRow, knownMean, trendColumnCount, type CoordinateFrame } from './trend.ts';
+import {
+  designRow, knownMean, trendColumnCount, trendFrame, covariateColumnCount, checkCovariateRows, type CoordinateFrame,
+} from './trend.ts';
 import { NeighborIndex } from './neighbors.ts';
 import { covarianceFunction, isotropicCoordinates, vecchiaTrend } from './vecchia.ts';
 import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
@@ -186,7 +188,7 @@ export function globalMeanCoefficients(
   const n = samples.value.length;
   const log = model.transform === 'log';
   const value = log ? Float64Array.from(samples.value, Math.log) : samples.value;
-  const zSamples: Samples = { x: samples.x, y: samples.y, value };
+  const zSamples: Samples = { x: samples.x, y: samples.y, value, covariates: samples.covariates };
   const linear: CovarianceModel = { ...model, transform: 'none' };
   if (n <= DENSE_GLOBAL_MEAN_LIMIT) {
     const exact = createPredictor(zSamples, linear);
@@ -211,7 +213,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const n = samples.x.length;
   const log = model.transform === 'log';
   const warnings: Warning[] = [];
-  const frame = coordinateFrame(samples.x, samples.y);
+  const frame = trendFrame(trend, samples.x, samples.y, samples.covariates);
+  const covariateCount = covariateColumnCount(trend);
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) z[i] = log ? Math.log(samples.value[i]) : samples.value[i];
   const { u: iu, v: iv } = isotropicCoordinates(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy);
@@ -228,7 +231,9 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   }
 
   // Global mean: β̂ from all samples, then residuals for simple kriging.
-  const globalMean = options.globalMean === true && pModel > 0;
+  // A covariate trend always takes the global GLS trend (regression kriging of the residuals): the
+  // neighbourhood systems below hold only the constant and x, y columns.
+  const globalMean = (options.globalMean === true || covariateCount > 0) && pModel > 0;
   let beta: Float64Array = new Float64Array(0);
   if (globalMean) {
     if (options.globalBeta !== undefined) {
@@ -246,10 +251,10 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const m0 = knownMean(trend) ?? 0;
   // Values the neighbourhood systems see: residuals from the known or global mean, else z.
   const zr = new Float64Array(n);
-  const row = new Float64Array(3);
+  const row = new Float64Array(Math.max(3, pModel));
   for (let i = 0; i < n; i++) {
     if (globalMean) {
-      designRow(trend, samples.x[i], samples.y[i], frame, row);
+      designRow(trend, samples.x[i], samples.y[i], frame, row, 0, samples.covariates, i * covariateCount);
       let mu = 0;
       for (let a = 0; a < pModel; a++) mu += row[a] * beta[a];
       zr[i] = z[i] - mu;
@@ -292,8 +297,10 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const betaLocal = new Float64Array(3);
   const kv = new Float64Array(cap);
   const w = new Float64Array(cap);
-  const x0 = new Float64Array(3);
+  const x0 = new Float64Array(Math.max(3, pModel));
   const t = new Float64Array(3);
+  /** The targets' encoded covariates of the current predict call (covariate trends). */
+  let targetCovariates: ArrayLike<number> | undefined;
   let have = false; // a factor for `ids` is ready
   let frameX = 0;
   let frameY = 0;
@@ -447,7 +454,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     solveLowerInPlace(L.subarray(0, q * q), q, kv.subarray(0, q));
     let mu: number;
     if (globalMean) {
-      designRow(trend, xj, yj, frame, x0);
+      designRow(trend, xj, yj, frame, x0, 0, targetCovariates, j * covariateCount);
       mu = 0;
       for (let a = 0; a < pModel; a++) mu += x0[a] * beta[a];
     } else if (p === 0) {
@@ -517,6 +524,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const predict = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction => {
     if (tx.length !== ty.length) throw new GapwiseError('bad-value', `Expected target x and y of equal length, got ${tx.length} and ${ty.length}.`);
     const total = tx.length;
+    if (covariateCount > 0) checkCovariateRows(trend, total, popts.covariates, 'target');
+    targetCovariates = popts.covariates;
     const wantSd = log || popts.sd !== false;
     const mean = new Float64Array(total);
     const sd = new Float64Array(total);

@@ -38,8 +38,85 @@ export interface CorrelatedStructure {
 
 export type Structure = NuggetStructure | CorrelatedStructure;
 
-/** 'constant' = ordinary kriging, 'linear' = universal kriging in x, y, {known: m} = simple kriging. */
-export type Trend = 'constant' | 'linear' | { known: number };
+/**
+ * Unknown constant plus a linear combination of covariates (kriging with external drift), plus the
+ * x, y drift when `coordinates` is true. Categorical covariates enter as indicator columns, one per
+ * level after the first (the reference).
+ */
+export interface CovariateTrend {
+  /** Covariate names (sample columns, target columns, raster names), in the order of their columns. */
+  covariates: string[];
+  /** Adds the x, y drift. */
+  coordinates?: boolean;
+  /** Levels of each categorical covariate as read from the samples; the first is the reference. */
+  levels?: Record<string, string[]>;
+  /** Covariates to treat as categories (integer codes) whose levels are not yet recorded. */
+  categorical?: string[];
+}
+
+/**
+ * 'constant' = ordinary kriging, 'linear' = universal kriging in x, y, {known: m} = simple kriging,
+ * {covariates: [...]} = kriging with external drift.
+ */
+export type Trend = 'constant' | 'linear' | { known: number } | CovariateTrend;
+
+/** True for a trend with covariates. */
+export function isCovariateTrend(trend: Trend | undefined): trend is CovariateTrend {
+  return typeof trend === 'object' && trend !== null && Array.isArray((trend as CovariateTrend).covariates);
+}
+
+/** True for a known-mean (simple kriging) trend. */
+export function isKnownTrend(trend: Trend | undefined): trend is { known: number } {
+  return typeof trend === 'object' && trend !== null && typeof (trend as { known?: unknown }).known === 'number';
+}
+
+/** Largest number of covariates in one trend. */
+export const MAX_COVARIATES = 20;
+/** Largest number of levels of one categorical covariate. */
+export const MAX_LEVELS = 50;
+
+/** Checks a covariate trend's shape (parse or option) and returns a clean copy. */
+export function parseCovariateTrend(o: Record<string, unknown>, where = 'trend'): CovariateTrend {
+  const names = o.covariates;
+  if (!Array.isArray(names) || names.length === 0 || names.length > MAX_COVARIATES
+    || !names.every((v) => typeof v === 'string' && v.trim() !== '')) {
+    bad(`Expected ${where}.covariates to be a list of 1 to ${MAX_COVARIATES} column names, got ${JSON.stringify(names)}.`);
+  }
+  const list = names as string[];
+  const seen = new Set<string>();
+  for (const name of list) {
+    if (seen.has(name)) bad(`Expected ${where}.covariates to name each column once, got ${JSON.stringify(name)} twice.`);
+    seen.add(name);
+  }
+  const out: CovariateTrend = { covariates: [...list] };
+  if (o.coordinates !== undefined) {
+    if (typeof o.coordinates !== 'boolean') bad(`Expected ${where}.coordinates to be true or false, got ${JSON.stringify(o.coordinates)}.`);
+    if (o.coordinates) out.coordinates = true;
+  }
+  if (o.levels !== undefined) {
+    if (typeof o.levels !== 'object' || o.levels === null || Array.isArray(o.levels)) {
+      bad(`Expected ${where}.levels to be an object of level lists, got ${JSON.stringify(o.levels)}.`);
+    }
+    const levels: Record<string, string[]> = {};
+    for (const [name, value] of Object.entries(o.levels as Record<string, unknown>)) {
+      if (!seen.has(name)) bad(`Expected ${where}.levels to name covariates of the trend, got ${JSON.stringify(name)}.`);
+      if (!Array.isArray(value) || value.length === 0 || value.length > MAX_LEVELS || !value.every((v) => typeof v === 'string')) {
+        bad(`Expected ${where}.levels.${name} to be a list of 1 to ${MAX_LEVELS} level names, got ${JSON.stringify(value)}.`);
+      }
+      if (new Set(value).size !== value.length) bad(`Expected ${where}.levels.${name} to list each level once, got ${JSON.stringify(value)}.`);
+      levels[name] = [...value as string[]];
+    }
+    if (Object.keys(levels).length > 0) out.levels = levels;
+  }
+  if (o.categorical !== undefined) {
+    if (!Array.isArray(o.categorical) || !o.categorical.every((v) => typeof v === 'string' && seen.has(v))) {
+      bad(`Expected ${where}.categorical to list covariates of the trend, got ${JSON.stringify(o.categorical)}.`);
+    }
+    const rest = (o.categorical as string[]).filter((v) => !out.levels?.[v]);
+    if (rest.length > 0) out.categorical = rest;
+  }
+  return out;
+}
 
 export interface Anisotropy {
   /** Long axis, degrees clockwise from grid north. */
@@ -131,10 +208,12 @@ export function parseModel(input: unknown): CovarianceModel {
   let trend: Trend = 'constant';
   if (o.trend !== undefined) {
     if (o.trend === 'constant' || o.trend === 'linear') trend = o.trend;
-    else if (typeof o.trend === 'object' && o.trend !== null && typeof (o.trend as { known?: unknown }).known === 'number'
+    else if (typeof o.trend === 'object' && o.trend !== null && 'covariates' in o.trend) {
+      trend = parseCovariateTrend(o.trend as Record<string, unknown>);
+    } else if (typeof o.trend === 'object' && o.trend !== null && typeof (o.trend as { known?: unknown }).known === 'number'
       && Number.isFinite((o.trend as { known: number }).known)) {
       trend = { known: withinRange((o.trend as { known: number }).known, 'trend.known', -MAX_ABS_MEAN, MAX_ABS_MEAN) };
-    } else bad(`Expected "trend" to be "constant", "linear" or {"known": number}; got ${JSON.stringify(o.trend)}.`);
+    } else bad(`Expected "trend" to be "constant", "linear", {"known": number} or {"covariates": [names]}; got ${JSON.stringify(o.trend)}.`);
   }
   const model: CovarianceModel = { structures, trend, transform: 'none' };
   if (o.transform !== undefined) {

@@ -8,6 +8,7 @@
  * thousand points.
  */
 import type { CovarianceModel } from './model.ts';
+import { isKnownTrend } from './model.ts';
 import type { Samples } from './samples.ts';
 import type { Warning } from './errors.ts';
 import { GapwiseError } from './errors.ts';
@@ -51,7 +52,7 @@ export function simulateField(model: CovarianceModel, x: ArrayLike<number>, y: A
   const random = createRandom(options.seed);
   const eps = new Float64Array(n);
   for (let i = 0; i < n; i++) eps[i] = random.normal();
-  const base = options.mean ?? (typeof model.trend === 'object' ? model.trend.known : 0);
+  const base = options.mean ?? (isKnownTrend(model.trend) ? model.trend.known : 0);
   const values = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const row = i * n;

@@ -29,6 +29,11 @@ export interface SurfaceOptions {
   blockCells?: number;
   /** 'float32' (default: display, GeoTIFF) or 'float64' (full precision, e.g. CSV output). */
   precision?: 'float32' | 'float64';
+  /**
+   * Covariate trend only: encoded covariates of every grid cell (nx·ny rows × q columns, row-major
+   * from the top row, q = covariateColumnCount(trend)); masked-out cells are never read.
+   */
+  covariates?: Float64Array;
 }
 
 export type SurfaceArray = Float32Array | Float64Array;
@@ -134,7 +139,13 @@ export function computeSurfaceWith(
     const centres = cellCentres(grid, j, Math.min(r1, j + rowsPerBlock));
     const m = centres.index.length;
     if (m === 0) continue;
-    const p = predictor.predict(centres.x, centres.y, { blockSize: Math.min(m, 512) });
+    let covariates: Float64Array | undefined;
+    if (options.covariates) {
+      const q = options.covariates.length / (grid.nx * grid.ny);
+      covariates = new Float64Array(m * q);
+      for (let c = 0; c < m; c++) covariates.set(options.covariates.subarray(centres.index[c] * q, centres.index[c] * q + q), c * q);
+    }
+    const p = predictor.predict(centres.x, centres.y, { blockSize: Math.min(m, 512), covariates });
     const offset = r0 * nx;
     for (let c = 0; c < m; c++) {
       const k = centres.index[c] - offset;

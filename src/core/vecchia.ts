@@ -19,6 +19,7 @@ import type { FitOptions } from './fit.ts';
 import { NU_BOUNDS } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
 import type { Samples } from './samples.ts';
+import { pickSamples } from './samples.ts';
 import { numericalFailureAdvice } from './numerical-advice.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
@@ -26,7 +27,10 @@ import { practicalRange, surfaceCovariance, surfaceVariance } from './covariance
 import { maternTableAtZ } from './matern.ts';
 import { nuggetOf } from './model.ts';
 import { maxminOrder, orderedNeighbors, type OrderedNeighbors } from './maxmin-order.ts';
-import { coordinateFrame, trendColumnCount, knownMean, type CoordinateFrame } from './trend.ts';
+import {
+  coordinateFrame, trendColumnCount, knownMean, designRow, covariateColumnCount, trendFrame, checkCovariateRows,
+  type CoordinateFrame,
+} from './trend.ts';
 import type { CorrelationParameters, LikelihoodMethod, LikelihoodSetup, LikelihoodValue } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from './optimize.ts';
 import { createRandom } from './random.ts';
@@ -441,14 +445,15 @@ export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup, t
   const known = knownMean(trend) ?? 0;
   const yo = new Float64Array(n);
   const Xo = new Float64Array(n * p);
+  // Columns as the exact likelihood has them: 1, x, y centred (metres), covariates centred only.
+  const q = covariateColumnCount(trend);
+  if (q > 0) checkCovariateRows(trend, n, samples.covariates, 'sample');
+  const tf = q > 0 ? trendFrame(trend, samples.x, samples.y, samples.covariates) : null;
+  const columnFrame: CoordinateFrame = { cx, cy, scale: 1, covariateCentre: tf?.covariateCentre, covariateScale: q > 0 ? new Float64Array(q).fill(1) : undefined };
   for (let k = 0; k < n; k++) {
     const i = ctx.order[k];
     yo[k] = samples.value[i] - known;
-    if (p >= 1) Xo[k * p] = 1;
-    if (p === 3) {
-      Xo[k * p + 1] = samples.x[i] - cx;
-      Xo[k * p + 2] = samples.y[i] - cy;
-    }
+    designRow(trend, samples.x[i], samples.y[i], columnFrame, Xo, k * p, samples.covariates, i * q);
   }
   let umin = Infinity, umax = -Infinity, vmin = Infinity, vmax = -Infinity;
   for (let k = 0; k < n; k++) {
@@ -518,7 +523,8 @@ export interface VecchiaTrend {
 export function vecchiaTrend(samples: Samples, model: CovarianceModel, options: { neighbors?: number } = {}): VecchiaTrend {
   const n = samples.value.length;
   const p = trendColumnCount(model.trend);
-  const frame = coordinateFrame(samples.x, samples.y);
+  const q = covariateColumnCount(model.trend);
+  const frame = q > 0 ? trendFrame(model.trend, samples.x, samples.y, samples.covariates) : coordinateFrame(samples.x, samples.y);
   if (p === 0 || n === 0) return { beta: new Float64Array(0), frame, betaCovariance: new Float64Array(0), warnings: [] };
   const ctx = prepareContext(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy, options.neighbors ?? DEFAULT_VECCHIA_NEIGHBORS);
   const yo = new Float64Array(n);
@@ -526,11 +532,7 @@ export function vecchiaTrend(samples: Samples, model: CovarianceModel, options: 
   for (let k = 0; k < n; k++) {
     const i = ctx.order[k];
     yo[k] = samples.value[i];
-    Xo[k * p] = 1;
-    if (p === 3) {
-      Xo[k * p + 1] = (samples.x[i] - frame.cx) / frame.scale;
-      Xo[k * p + 2] = (samples.y[i] - frame.cy) / frame.scale;
-    }
+    designRow(model.trend, samples.x[i], samples.y[i], frame, Xo, k * p, samples.covariates, i * q);
   }
   const cov = covarianceFunction(model);
   const diagonal = surfaceVariance(model) + nuggetOf(model);
@@ -599,15 +601,7 @@ function subsample(samples: Samples, size: number, seed: number): Samples {
   }
   const pick = idx.subarray(0, size);
   pick.sort();
-  const x = new Float64Array(size);
-  const y = new Float64Array(size);
-  const value = new Float64Array(size);
-  for (let k = 0; k < size; k++) {
-    x[k] = samples.x[pick[k]];
-    y[k] = samples.y[pick[k]];
-    value[k] = samples.value[pick[k]];
-  }
-  return { x, y, value };
+  return pickSamples(samples, pick);
 }
 
 /**

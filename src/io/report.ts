@@ -18,8 +18,8 @@
  */
 import { CAUTION } from '../core/caution.ts';
 import { GapwiseError, type Warning } from '../core/errors.ts';
-import type { CovarianceModel, Structure } from '../core/model.ts';
-import { nuggetOf } from '../core/model.ts';
+import type { CovarianceModel, CovariateTrend, Structure } from '../core/model.ts';
+import { isCovariateTrend, nuggetOf } from '../core/model.ts';
 import type { Samples } from '../core/samples.ts';
 import { cellCount, type Grid } from '../core/grid.ts';
 import { computeSurface } from '../core/surface.ts';
@@ -39,7 +39,7 @@ import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
 import {
   crossValidationSvg, finiteRange, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
 } from './report-svg.ts';
-import { formatCoordinate, formatProbability, formatValue } from './format.ts';
+import { formatCoordinate, formatPercent, formatProbability, formatValue } from './format.ts';
 import { html, joinMarkup, trusted, type Interpolation, type Markup } from './markup.ts';
 
 /** Surfaces of the whole grid (nx·ny cells each). */
@@ -374,12 +374,42 @@ function structureText(s: Structure): string {
   return `${family}: partial sill ${fmt(s.sill)}, scale ${fmt(s.scale)} m`;
 }
 
+/** A covariate trend in words: the covariates, categorical ones with their levels (reference first). */
+function covariateTrendText(t: CovariateTrend): string {
+  const names = t.covariates.map((name) => {
+    const levels = t.levels?.[name];
+    return levels ? `${name} (categorical: ${levels.join(', ')}; ${levels[0]} the reference)` : name;
+  });
+  return `unknown constant plus covariates ${names.join(', ')}${t.coordinates ? ' and a linear drift in x, y' : ''} (kriging with external drift)`;
+}
+
+/**
+ * The fitted trend coefficients of a covariate model with their standard errors (GLS) and the share of
+ * the values' variance the trend explains, as the fit recorded them; null for other models.
+ */
+export function trendCoefficientsTable(m: CovarianceModel): Markup | null {
+  const list = m.fit?.coefficients;
+  if (!isCovariateTrend(m.trend) || !Array.isArray(list) || list.length === 0) return null;
+  const rows = (list as Array<{ name?: unknown; estimate?: unknown; standardError?: unknown }>)
+    .filter((c) => typeof c.name === 'string' && typeof c.estimate === 'number' && typeof c.standardError === 'number')
+    .map((c) => [c.name as string, html`<span data-figure="coefficient ${c.name as string}" data-value="${String(c.estimate)}">${fmt(c.estimate as number)}</span>`,
+      html`<span data-figure="standard error ${c.name as string}" data-value="${String(c.standardError)}">${fmt(c.standardError as number)}</span>`]);
+  const share = typeof m.fit?.trendVarianceExplained === 'number' ? m.fit.trendVarianceExplained : null;
+  const scale = m.transform === 'log' ? ' They act on ln(value).' : '';
+  return joinMarkup([
+    html`<h3>Trend coefficients</h3>`,
+    table(['Column', 'Estimate', 'Standard error'], rows),
+    html`<p class="hint">The constant is the mean where every covariate is 0 (and, with an x, y drift, at the samples' centroid); a category level's coefficient is its difference from the first level; x and y are per metre.${scale}${share !== null ? html` The trend explains <span data-figure="variance explained" data-value="${String(share)}">${formatPercent(share)}</span> of the values' variance.` : ''}</p>`,
+  ]);
+}
+
 /** The model in one line: structures, trend, transform, anisotropy. */
 export function modelText(m: CovarianceModel): string {
   const parts = m.structures.map(structureText);
   const trend = m.trend === 'constant' ? 'unknown constant mean (ordinary kriging)'
     : m.trend === 'linear' ? 'linear drift in x, y (universal kriging)'
-      : `known mean ${fmt(m.trend.known)} (simple kriging)`;
+      : isCovariateTrend(m.trend) ? covariateTrendText(m.trend)
+        : `known mean ${fmt(m.trend.known)} (simple kriging)`;
   parts.push(trend);
   if (m.transform === 'log') parts.push('fitted to ln(value), results back-transformed with the lognormal correction');
   if (m.anisotropy) parts.push(`anisotropy: long axis ${fmt(m.anisotropy.azimuth, 3)}° from north, ratio ${fmt(m.anisotropy.ratio, 3)}`);
@@ -579,6 +609,8 @@ export function reportHtml(input: ReportInput): string {
       for (const w of model.fit.warnings ?? []) rows.push(['Fit note', String(w)]);
     }
     page.push(keyValues(rows));
+    const coefficients = trendCoefficientsTable(model);
+    if (coefficients) page.push(coefficients);
   }
   page.push(html`<h3>Model comparison</h3>`);
   if (input.comparison.length) {

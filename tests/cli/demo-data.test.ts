@@ -78,8 +78,27 @@ describe('demo data', () => {
     const r = spawnSync(process.execPath, [join(ROOT, 'node_modules', 'tsx', 'dist', 'cli.mjs'), join(ROOT, 'scripts', 'make-demo-data.ts'), ws.dir],
       { encoding: 'utf8', timeout: 60000 });
     expect(r.status, r.stderr).toBe(0);
-    for (const f of ['lead-topsoil.csv', 'site-boundary.geojson', 'scenario.json']) {
+    for (const f of ['lead-topsoil.csv', 'lead-topsoil-covariates.csv', 'site-boundary.geojson', 'scenario.json']) {
       expect(ws.read(f), f).toBe(readFileSync(join(DEMO, f), 'utf8'));
     }
+    expect(readFileSync(join(ws.dir, 'workshop-distance.tif')).equals(readFileSync(join(DEMO, 'workshop-distance.tif'))), 'workshop-distance.tif').toBe(true);
   }, 60000);
+
+  it('demo covariate (README worked example): fit --covariates, then grid on the raster\'s lattice clipped by the boundary', async () => {
+    const COV = join(DEMO, 'lead-topsoil-covariates.csv');
+    const common = ['--samples', COV, '--value', scenario.valueColumn];
+    const f = await ws.run('fit', ...common, '--transform', 'log', '--covariates', 'workshop_dist_m', '--out', 'cov-model.json');
+    expect(f.code, f.stderr).toBe(0);
+    const model = JSON.parse(ws.read('cov-model.json'));
+    expect(model.trend).toEqual({ covariates: ['workshop_dist_m'] });
+    const slope = model.fit.coefficients.find((c: { name: string }) => c.name === 'workshop_dist_m');
+    // ln(lead) falls away from the invented workshop: a negative slope, more than 2 standard errors from 0.
+    expect(slope.estimate).toBeLessThan(-2 * slope.standardError);
+    const g = await ws.run('grid', ...common, '--model', 'cov-model.json', '--covariate-raster', `workshop_dist_m=${join(DEMO, 'workshop-distance.tif')}`,
+      '--boundary', BOUNDARY, '--out', 'cov.tif', '--workers', '1');
+    expect(g.code, g.stderr).toBe(0);
+    const summary = JSON.parse(g.stdout);
+    expect(summary.grid.cell).toBe(5);
+    expect(summary.grid.cells).toBeGreaterThan(4000);
+  }, 120000);
 });

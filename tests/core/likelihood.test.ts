@@ -25,7 +25,7 @@ const data = fixture.data as { x: number[]; y: number[]; value: number[] };
 const samples = makeSamples(data.x, data.y, data.value);
 
 function label(c: LikelihoodCase): string {
-  const trend = typeof c.trend === 'object' ? `known ${c.trend.known}` : c.trend;
+  const trend = typeof c.trend === 'object' && 'known' in c.trend ? `known ${c.trend.known}` : c.trend;
   return `${c.method} ${c.family}${c.nu !== undefined ? ` ν=${c.nu}` : ''} ${trend}${c.anisotropy ? ' anisotropic' : ''} scale ${c.theta.scale} η ${c.theta.nuggetRatio}`;
 }
 

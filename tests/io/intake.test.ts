@@ -202,7 +202,8 @@ describe('readSamples on the demo data', () => {
   const csvs = existsSync(demo) ? readdirSync(demo).filter((f) => f.endsWith('.csv')) : [];
   it.skipIf(csvs.length === 0)('readSamples: each demo CSV reads with its non-detects and its duplicate location reported', () => {
     for (const f of csvs) {
-      const r = readSamples(readFileSync(resolve(demo, f), 'utf8'), { fileName: f });
+      // The covariate file holds a second numeric column (workshop_dist_m), so the value column is named.
+      const r = readSamples(readFileSync(resolve(demo, f), 'utf8'), { fileName: f, value: 'Pb (mg/kg)' });
       const rep = r.report;
       expect(rep.nonDetects.count, f).toBeGreaterThan(0);
       expect(r.rows.filter((q) => q.flags.includes('nd')).length).toBe(rep.nonDetects.count);

@@ -25,12 +25,15 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
+import { withSampleCovariates } from '../covariates.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
-  const { samples, rows } = intake;
+  const { rows } = intake;
+  // A covariate model: the samples' covariate columns (levels as the model records them).
+  const { samples } = withSampleCovariates(intake, intake.samples, modelFile.model.trend);
   if (rows.length !== samples.value.length) {
     throw new Error(`The intake returned ${rows.length} rows for ${samples.value.length} samples; expected one row per sample.`);
   }

@@ -15,6 +15,8 @@ import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
+import { COVARIATE_OPTIONS, trendWithCovariates, withSampleCovariates } from '../covariates.ts';
+import { attachTrendCoefficients } from '../../core/covariate-fit.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
@@ -117,7 +119,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     throw new GapwiseError('bad-option', `Option "--nu" applies to the matern family only; got --family ${family}.`);
   }
   const nu = parseNu(nuRaw ?? '1.5');
-  const trend = parseTrend(stringOption(values, 'trend') ?? 'constant');
+  const givenTrend = trendWithCovariates(values, parseTrend(stringOption(values, 'trend') ?? 'constant'));
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
   const nnlNeighbors = numberOption(values, 'nnl-neighbors');
   const workers = readWorkers(values, io);
@@ -126,7 +128,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
 
   const nugget = !booleanOption(values, 'no-nugget');
-  const samples = transform === 'log' ? logSamples(intake) : intake.samples;
+  const { samples, trend } = withSampleCovariates(intake, transform === 'log' ? logSamples(intake) : intake.samples, givenTrend, false);
   const files = { samples: intake.report.fileName };
   let model: CovarianceModel;
   if (method === 'nnl') {
@@ -141,6 +143,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       passes.done();
       await pool?.close();
     }
+    model = naming(files, () => attachTrendCoefficients(samples, model));
   } else {
     const options: FitOptions = { family, method, trend, nugget };
     if (family === 'matern') options.nu = nu;
@@ -202,6 +205,7 @@ export const fitCommand: CommandSpec = {
     { name: 'nnl-neighbors', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBORS) },
     { name: 'workers', kind: 'number', placeholder: 'N', help: `nearest-neighbour likelihood from ${count(THREADS_FROM)} samples: threads that share each pass over the samples (1 to 256)`, unit: 'threads', defaultText: 'one per core of this machine' },
     { name: 'trend', kind: 'string', placeholder: 'T', help: 'mean: constant (unknown constant), linear (unknown 1, x, y drift) or known:VALUE (a known mean in the samples\' unit; with --transform log, VALUE is on the log scale)', defaultText: 'constant' },
+    ...COVARIATE_OPTIONS,
     { name: 'transform', kind: 'string', placeholder: 'T', choices: ['none', 'log'], help: 'fit ln(value) for positive, right-skewed data; results come back on the data scale', defaultText: 'none' },
     { name: 'no-nugget', kind: 'boolean', help: 'fit without a nugget (exact interpolation of the samples)' },
     outOption('model JSON file to write', 'stdout'),
@@ -210,6 +214,7 @@ export const fitCommand: CommandSpec = {
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --out lead-model.json',
     'gapwise fit --samples wells.csv --value nitrate --family exponential --method ml --trend linear',
     'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbors 40 --out survey-model.json',
+    'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --covariates sqrt_dist_mill --out lead-covariate-model.json',
   ],
   run,
 };

@@ -26,6 +26,10 @@ import {
   readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
+import { COVARIATE_RASTER_OPTION, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
+import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
+import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
+import { clipToPolygons } from '../../core/grid.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
@@ -85,8 +89,23 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const projectBoundaryKey = project?.boundary ? `${projectPath}:${project.boundary.fileName}` : undefined;
   const sameArea = project !== null && padding === undefined
     && (project.grid.area === 'boundary' ? boundaryPath === projectBoundaryKey : boundaryPath === undefined);
+  // A covariate model: the samples' covariate columns, and on the grid the covariate rasters.
+  const rasters = await readCovariateRasters(values, io.cwd);
+  const covariateModel = isCovariateTrend(model.trend);
+  if (rasters.length > 0 && !covariateModel) {
+    throw new GapwiseError('bad-option', 'Option "--covariate-raster" applies to a model with covariates (fit --covariates); this model has none.');
+  }
+  if (covariateModel && rasters.length === 0) {
+    throw new GapwiseError('bad-option', `The model's mean uses the covariates ${(model.trend as CovariateTrend).covariates.join(', ')}; expected --covariate-raster NAME=FILE.tif for each on the grid.`);
+  }
+  const samples = covariateModel ? withSampleCovariates(intake, intake.samples, model.trend).samples : intake.samples;
   let grid: Grid;
-  if (project && sameArea) {
+  if (covariateModel && cell === undefined && !(project && sameArea)) {
+    // The first covariate's raster lattice, clipped by the boundary.
+    const first = rasters.find((r) => r.name === (model.trend as CovariateTrend).covariates[0]) ?? rasters[0];
+    grid = rasterLattice(first, workCrs);
+    if (boundary) grid = clipToPolygons(grid, boundary.polygons.map((p) => p.rings));
+  } else if (project && sameArea) {
     grid = projectGrid(project, intake, boundary ? { work: boundary.polygons } : null, cell !== undefined ? { cellSize: cell } : {});
   } else {
     grid = planSurfaceGrid({
@@ -97,6 +116,14 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }, intake.report.crs.work);
   }
 
+  const covariateWarnings: Warning[] = [];
+  let gridCovariateValues: Float64Array | undefined;
+  if (covariateModel) {
+    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs);
+    grid = g.grid;
+    gridCovariateValues = g.covariates;
+    covariateWarnings.push(...g.warnings);
+  }
   const threshold = numberOption(values, 'threshold');
   if (threshold !== undefined && model.transform === 'log' && !(threshold > 0)) {
     throw new GapwiseError('bad-option', `Option "--threshold" must be above 0 with a log model, got ${threshold}.`);
@@ -115,6 +142,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (blockKriging && (path.path === 'local' || numberOption(values, 'neighbors') !== undefined || path.globalMean)) {
     throw new GapwiseError('bad-option', 'Options "--local", "--neighbors" and "--global-mean" apply to point support; block kriging uses all samples.');
   }
+  if (covariateModel && (blockKriging || choice.realizations !== undefined)) {
+    throw new GapwiseError('bad-option', 'Block support and realisations are not available with a covariate model yet; use --support point without --realizations.');
+  }
   if (choice.realizations !== undefined) {
     const threads = simulationThreads(choice.realizations, workers);
     checkSimulationDemand({ grid, realisations: choice.realizations, blockPoints: choice.blockPoints, threads, keep: false }, 'realizations');
@@ -126,9 +156,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   let surface: SurfaceResult | undefined;
   if (!blockKriging) {
     surface = await namingAsync(files, () => computeSurfaceParallel({
-      samples: intake.samples, model, grid, path: path.path,
+      samples, model, grid, path: path.path,
       ...(path.path === 'local' ? { local: { neighbors: path.neighbors, globalMean: path.globalMean } } : {}),
-      surface: { ...(threshold !== undefined ? { threshold } : {}), precision },
+      surface: { ...(threshold !== undefined ? { threshold } : {}), precision, ...(gridCovariateValues ? { covariates: gridCovariateValues } : {}) },
     }, { workers, onProgress: progressLine(io, 'cells') }));
     const threads = Math.min(workers, grid.ny);
     printNotes(io, [`${describePredictionPath(path, n)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`]);
@@ -146,7 +176,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const t = extra.threads ?? 1;
     printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
   }
-  const warnings: Warning[] = [...surface.warnings, ...extra.warnings];
+  const warnings: Warning[] = [...covariateWarnings, ...surface.warnings, ...extra.warnings];
   const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
   let bands: string[] | undefined;
   let features: number | undefined;
@@ -217,6 +247,7 @@ export const gridCommand: CommandSpec = {
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
     { name: 'out', kind: 'string', placeholder: 'FILE', help: 'file to write: .tif, .csv or .geojson', required: true },
+    COVARIATE_RASTER_OPTION,
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'the project\'s, else about 40,000 cells rounded to 1, 2, 2.5 or 5 × 10^k m' },
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s) of the area (longitude/latitude); cells outside are no-data', defaultText: 'none: the samples\' extent' },
     { name: 'padding', kind: 'number', placeholder: 'F', help: 'margin around the samples\' extent as a fraction of its larger side (without --boundary)', defaultText: '0.05' },

@@ -18,6 +18,7 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvCell, formatNumber, readCsvTable, recordText, type CsvTable } from '../csv.ts';
+import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -100,17 +101,20 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
 
   const files = { samples: intake.report.fileName, model: modelPath };
   const n = intake.samples.value.length;
+  // A covariate model: the samples' covariate columns, and the same columns at every target.
+  const { samples } = naming(files, () => withSampleCovariates(intake, intake.samples, model.trend));
+  const covariates = tableCovariates(table, targetsPath, model.trend);
   const path = readPredictionPath(values, n);
   printWarnings(io, path.warnings);
   const warnings: Warning[] = [];
   let p: Prediction;
   if (path.path === 'exact') {
-    const predictor = naming(files, () => createPredictor(intake.samples, model));
+    const predictor = naming(files, () => createPredictor(samples, model));
     warnings.push(...predictor.warnings);
-    p = naming(files, () => predictor.predict(work.x, work.y));
+    p = naming(files, () => predictor.predict(work.x, work.y, { covariates }));
   } else {
-    const predictor = naming(files, () => createLocalPredictor(intake.samples, model, { neighbors: path.neighbors, globalMean: path.globalMean }));
-    const local = naming(files, () => predictor.predict(work.x, work.y));
+    const predictor = naming(files, () => createLocalPredictor(samples, model, { neighbors: path.neighbors, globalMean: path.globalMean }));
+    const local = naming(files, () => predictor.predict(work.x, work.y, { covariates }));
     warnings.push(...predictor.warnings);
     p = local;
   }
@@ -153,6 +157,10 @@ export const predictCommand: CommandSpec = {
       + 'from its --neighbors nearest samples (local neighbourhoods, found with a kd-tree; the mean is re-estimated '
       + 'in each, or with --global-mean taken from a GLS fit to all samples). --exact and --local override the '
       + 'choice, which is said on stderr ("note: predicted from the 64 nearest samples at each target ...").',
+    'A model with covariates (fit --covariates) needs the same columns in the targets file: a missing column, an '
+      + 'empty cell, a non-number in a numeric covariate or a category level the samples did not have stops with exit 2 '
+      + 'naming the column and the line. From 3,000 samples on, a covariate model takes its trend from a GLS fit to all '
+      + 'samples and kriges the residuals in each neighbourhood.',
     'The screening caution is printed on stderr (CSV has no place for it).',
   ],
   options: [

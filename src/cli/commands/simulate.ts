@@ -6,6 +6,7 @@
  * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff. The realisations
  * are shared out over --workers threads (../simulation-pool.ts; the same bands as one thread draws).
  */
+import { refuseCovariateModel } from '../covariates.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { cellCount } from '../../core/grid.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
@@ -26,6 +27,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const { model } = modelFile;
+  refuseCovariateModel(model.trend, 'simulate', 'conditional realisations with covariates in the mean are not available yet');
   const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
   const workCrs = intake.report.crs.work;
   if (modelFile.workCrs === undefined) printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);

@@ -4,6 +4,7 @@
  * action level; without a model: sites that cover the area evenly. Writes .geojson, .csv or .gpx by
  * the extension of --out and prints a JSON summary (with the caution) on stdout.
  */
+import { refuseCovariateModel } from '../covariates.ts';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { suggestSites, type DesignMode, type DesignOptions, type DesignResult } from '../../core/design.ts';
 import type { Polygon as CorePolygon } from '../../core/grid.ts';
@@ -129,6 +130,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out');
   const format = out === undefined ? null : formatOf(out);
   const modelFile = modelPath === undefined ? null : readModelFile(io, modelPath);
+  if (modelFile) refuseCovariateModel(modelFile.model.trend, 'suggest', 'candidate sites have no covariate values yet');
   const intake = readSamplesFile(io, values, modelFile && modelPath ? modelWorkCrs(values, modelFile, modelPath) : undefined);
   const workCrs = intake.report.crs.work;
   const inputCrs = intake.report.crs.input;

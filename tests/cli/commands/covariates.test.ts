@@ -1,0 +1,124 @@
+// Covariates of the mean through the command line: fit --covariates, predict with covariate columns
+// in the targets (and its errors), cv with a covariate model.
+import { afterAll, describe, expect, it } from 'vitest';
+import { readSamples } from '../../../src/io/intake.ts';
+import { createPredictor } from '../../../src/core/kriging.ts';
+import { encodeCovariates } from '../../../src/core/covariates.ts';
+import { parseModel, type CovariateTrend } from '../../../src/core/model.ts';
+import { covariateColumns } from '../../../src/io/sample-columns.ts';
+import { expectClose } from '../../helpers/tolerance.ts';
+import { workspace } from '../run-cli.ts';
+
+const ws = workspace();
+afterAll(() => ws.remove());
+
+/** Planar samples with a numeric covariate (d) and a categorical one (soil); invented. */
+function covariateCsv(): string {
+  const lines = ['id,easting,northing,value,d,soil'];
+  let k = 0;
+  for (let i = 0; i < 6; i++) {
+    for (let j = 0; j < 6; j++) {
+      k++;
+      const x = 500000 + 40 * i + ((k * 7) % 11);
+      const y = 5400000 + 35 * j + ((k * 5) % 9);
+      const d = Math.hypot(x - 500100, y - 5400090);
+      const soil = i < 2 ? 'clay' : j < 3 ? 'loam' : 'sand';
+      const v = 30 - 0.05 * d + (soil === 'loam' ? 3 : soil === 'sand' ? -2 : 0) + 2 * Math.sin(i / 1.3) + ((k * 13) % 7) / 4;
+      lines.push(`S${k},${x},${y},${v.toFixed(3)},${d.toFixed(2)},${soil}`);
+    }
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+const CSV = covariateCsv();
+const SAMPLES = ws.write('soil.csv', CSV);
+const COMMON = ['--samples', SAMPLES, '--crs', 'EPSG:32633', '--value', 'value'];
+
+describe('fit, predict and cv with covariates', () => {
+  it('fit --covariates records the levels and the coefficients with standard errors; predict matches the engine', async () => {
+    const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--covariates', 'd,soil', '--trend', 'linear', '--out', 'model.json');
+    expect(f.code, f.stderr).toBe(0);
+    const json = JSON.parse(ws.read('model.json'));
+    expect(json.trend).toEqual({ covariates: ['d', 'soil'], coordinates: true, levels: { soil: ['clay', 'loam', 'sand'] } });
+    const names = json.fit.coefficients.map((c: { name: string }) => c.name);
+    expect(names).toEqual(['constant', 'x', 'y', 'd', 'soil=loam', 'soil=sand']);
+    for (const c of json.fit.coefficients) expect(c.standardError).toBeGreaterThan(0);
+
+    const targets = ws.write('targets.csv', 'id,easting,northing,d,soil\nT1,500050,5400060,60.5,loam\nT2,500170,5400150,95,sand\n');
+    const p = await ws.run('predict', ...COMMON, '--model', 'model.json', '--targets', targets, '--out', 'pred.csv');
+    expect(p.code, p.stderr).toBe(0);
+    const rows = ws.read('pred.csv').trimEnd().split('\n').map((l) => l.split(','));
+    expect(rows[0]).toEqual(['id', 'easting', 'northing', 'd', 'soil', 'mean', 'sd', 'sd_obs']);
+
+    // The same prediction through the engine directly.
+    const intake = readSamples(CSV, { fileName: 'soil.csv', crs: 'EPSG:32633', value: 'value' });
+    const model = parseModel(json);
+    const trend = model.trend as CovariateTrend;
+    const { columns, source } = covariateColumns(intake, trend);
+    const samples = { ...intake.samples, covariates: encodeCovariates(trend, columns, intake.samples.value.length, source) };
+    const tc = encodeCovariates(trend, {
+      d: { kind: 'numeric', values: Float64Array.from([60.5, 95]) },
+      soil: { kind: 'text', codes: Uint32Array.from([0, 1]), levels: ['loam', 'sand'] },
+    }, 2);
+    const expected = createPredictor(samples, model).predict([500050, 500170], [5400060, 5400150], { covariates: tc });
+    expectClose(rows.slice(1).map((r) => Number(r[5])), expected.mean, { rel: 1e-10 }, 'mean');
+    expectClose(rows.slice(1).map((r) => Number(r[6])), expected.sd, { rel: 1e-10 }, 'sd');
+
+    const cv = await ws.run('cv', ...COMMON, '--model', 'model.json');
+    expect(cv.code, cv.stderr).toBe(0);
+    expect(JSON.parse(cv.stdout).n).toBe(36);
+  });
+
+  it('predict stops with exit 2 naming the column and line for a missing column, an empty or non-numeric cell and an unknown level', async () => {
+    const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--covariates', 'd,soil', '--out', 'model2.json');
+    expect(f.code, f.stderr).toBe(0);
+    const cases: Array<[string, RegExp]> = [
+      ['id,easting,northing,soil\nT1,500050,5400060,loam\n', /line 1, column "d".*no column "d"/],
+      ['id,easting,northing,d,soil\nT1,500050,5400060,1,loam\nT2,500050,5400060,,loam\n', /line 3, column "d".*empty/],
+      ['id,easting,northing,d,soil\nT1,500050,5400060,near,loam\n', /line 2, column "d".*"near" is not a number/],
+      ['id,easting,northing,d,soil\nT1,500050,5400060,3,peat\n', /line 2, column "soil".*"peat".*clay, loam, sand/],
+    ];
+    for (const [text, pattern] of cases) {
+      const t = ws.write('bad-targets.csv', text);
+      const r = await ws.run('predict', ...COMMON, '--model', 'model2.json', '--targets', t);
+      expect(r.code, r.stderr).toBe(2);
+      expect(r.stderr).toMatch(pattern);
+    }
+  });
+
+  it('fit --covariates with --method nnl and --method wls carries the levels and the coefficients', async () => {
+    for (const method of ['nnl', 'wls']) {
+      const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--method', method, '--covariates', 'd,soil', '--out', `model-${method}.json`);
+      expect(f.code, f.stderr).toBe(0);
+      const json = JSON.parse(ws.read(`model-${method}.json`));
+      expect(json.trend.levels).toEqual({ soil: ['clay', 'loam', 'sand'] });
+      expect(json.fit.coefficients.map((c: { name: string }) => c.name)).toEqual(['constant', 'd', 'soil=loam', 'soil=sand']);
+      expect(json.fit.trendVarianceExplained).toBeGreaterThan(0);
+    }
+  });
+
+  it('grid refuses a covariate model without its raster, and a raster for a model without covariates (exit 2)', async () => {
+    const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--covariates', 'd', '--out', 'model-d.json');
+    expect(f.code, f.stderr).toBe(0);
+    const a = await ws.run('grid', ...COMMON, '--model', 'model-d.json', '--out', 'g.tif');
+    expect(a.code).toBe(2);
+    expect(a.stderr).toContain('--covariate-raster NAME=FILE.tif');
+    // Samples whose "d" holds words: a fitted model recorded d as numeric, so that is a bad cell, not a category.
+    const swapped = ws.write('swapped.csv', CSV.replace('id,easting,northing,value,d,soil', 'id,easting,northing,value,soil,d'));
+    const c = await ws.run('cv', '--samples', swapped, '--crs', 'EPSG:32633', '--value', 'value', '--model', 'model-d.json');
+    expect(c.code).toBe(2);
+    expect(c.stderr).toMatch(/line 2, column "d".*"clay".*expected a number/);
+    const s = await ws.run('suggest', ...COMMON, '--model', 'model-d.json', '--count', '2', '--out', 's.csv');
+    expect(s.code).toBe(2);
+    expect(s.stderr).toContain('covariates (d)');
+  });
+
+  it('fit --covariates names a missing sample column and refuses a known mean (exit 2)', async () => {
+    const a = await ws.run('fit', ...COMMON, '--covariates', 'depth');
+    expect(a.code).toBe(2);
+    expect(a.stderr).toContain('"depth"');
+    const b = await ws.run('fit', ...COMMON, '--covariates', 'd', '--trend', 'known:3');
+    expect(b.code).toBe(2);
+    expect(b.stderr).toContain('--covariates');
+  });
+});
