@@ -250,13 +250,7 @@ export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<numb
   const n = x.length;
   if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
   const K = new Float64Array(n * n);
-  const cm = compile(model);
-  const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
-  scratch(n);
-  for (let i = 0; i < n; i++) {
-    covarianceRow(cm, u[i], v[i], u, v, i, K, i * n);
-    K[i * n + i] = cm.variance + cm.nugget;
-  }
+  sampleCovarianceLowerInto(model, x, y, K);
   // Mirror the lower triangle into the upper one, in tiles so both sides stay in cache.
   const T = 32;
   for (let bi = 0; bi < n; bi += T) {
@@ -271,6 +265,26 @@ export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<numb
     }
   }
   return K;
+}
+
+/**
+ * Fills the lower triangle and the diagonal of `out` (n×n row-major, length at least n²) with the
+ * samples' covariance matrix as sampleCovarianceMatrix gives it; the strict upper triangle is left as
+ * it was. For code that factorises in place many times (a Cholesky factor reads the lower triangle
+ * only), so no matrix is allocated per call.
+ */
+export function sampleCovarianceLowerInto(model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, out: Float64Array): Float64Array {
+  const n = x.length;
+  if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
+  if (out.length < n * n) throw new Error(`Expected an output buffer of at least ${n}×${n} = ${n * n} entries, got ${out.length}.`);
+  const cm = compile(model);
+  const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
+  scratch(n);
+  for (let i = 0; i < n; i++) {
+    covarianceRow(cm, u[i], v[i], u, v, i, out, i * n);
+    out[i * n + i] = cm.variance + cm.nugget;
+  }
+  return out;
 }
 
 /**

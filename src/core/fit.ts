@@ -156,7 +156,7 @@ function scaleStarts(family: Family, maxDistance: number): number[] {
 }
 
 /** Seeded subset of m distinct sample indices (partial Fisher–Yates). */
-function subsetSamples(samples: Samples, m: number, seed: number): Samples {
+export function subsetSamples(samples: Samples, m: number, seed: number): Samples {
   const n = samples.value.length;
   const idx = Array.from({ length: n }, (_, i) => i);
   const random = createRandom(seed);
