@@ -1,10 +1,13 @@
 // Model-fitting benchmark: REML fit of a Matérn ν = 3/2 (fixed) + nugget model on invented simulated
 // samples in a 1 km square (true scale 150 m, sill 1, nugget 0.1), and the cost of one likelihood
-// evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick).
+// evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick). Then a fitted
+// anisotropy (core/fit-anisotropy.ts: the isotropic fit, then azimuth and ratio) on 1,000 samples of an
+// anisotropic field (azimuth 30°, ratio 0.4), one run, target < 20 s (300 samples with --quick).
 // Alone: `npx tsx bench/fit.ts [--quick]`; with the others: `npm run bench -- fit`.
 import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { fitModel } from '../src/core/fit.ts';
+import { fitAnisotropic } from '../src/core/fit-anisotropy.ts';
 import { createLikelihood } from '../src/core/likelihood.ts';
 import { simulateSamples } from '../src/core/simulate.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
@@ -55,7 +58,30 @@ export async function runFitBench(options: { quick?: boolean } = {}): Promise<Ro
     }
     rows.push({ name: 'REML fit, Matérn 3/2 (fixed ν) + nugget', n, seconds: median(times), note: `${runs > 1 ? `median of ${runs}` : '1 run'}; ${describeFit(last!)}` });
   }
+  rows.push(anisotropicRow(options.quick ? 300 : 1000));
   return rows;
+}
+
+/** Wall and CPU seconds of one call. */
+function timed<T>(f: () => T): { value: T; seconds: number; cpu: number } {
+  const t = performance.now();
+  const c = process.cpuUsage();
+  const value = f();
+  const used = process.cpuUsage(c);
+  return { value, seconds: (performance.now() - t) / 1000, cpu: (used.user + used.system) / 1e6 };
+}
+
+function anisotropicRow(n: number): Row {
+  const field: CovarianceModel = { ...truth, anisotropy: { azimuth: 30, ratio: 0.4 } };
+  const samples = simulateSamples(field, { count: n, extent: { xmin: 0, ymin: 0, xmax: 1000, ymax: 1000 }, seed: 42 });
+  const run = timed(() => fitAnisotropic(samples, { family: 'matern', nu: 1.5, method: 'reml' }));
+  const m = run.value.model;
+  const iso = run.value.isotropic.fit!;
+  return {
+    name: 'REML fit with anisotropy (isotropic fit + azimuth, ratio)', n, seconds: run.seconds,
+    note: `CPU ${run.cpu.toFixed(1)} s; azimuth ${m.anisotropy!.azimuth.toFixed(1)}° (true 30), ratio ${m.anisotropy!.ratio.toFixed(3)} (true 0.4); `
+      + `${describeFit(m)}; isotropic part ${iso.evaluations} full evaluations; target < 20 s`,
+  };
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {

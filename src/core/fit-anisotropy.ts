@@ -118,7 +118,7 @@ export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress
     return { structures, trend: 'constant', transform: 'none', anisotropy: { azimuth: t.azimuth, ratio: t.ratio } };
   };
   const found = searchLikelihood(samples, setup, correlationAt, {
-    parameters, starts, runs: options.starts ?? 3, toTheta, allowJitter: !withNugget,
+    parameters, starts, anchor: point(iso.scale, 0, 1), runs: options.starts ?? 3, toTheta, allowJitter: !withNugget,
   }, { maxEvaluations: options.maxEvaluations, what: `anisotropic ${options.family} model` }, half(1));
 
   const isoLogLik = isotropic.fit!.logLikelihood ?? -Infinity;

@@ -88,7 +88,7 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
   const reach = extentDiagonal(samples) / (options.anisotropy?.ratio ?? 1);
   const parameters: SearchParameter[] = [
     { log: true, lower: reach * 1e-3, upper: reach * 10, step: 0.7 },
-    { log: true, lower: 1.01, upper: 1e3, step: 0.7 },
+    { log: true, lower: 1, upper: 1e3, step: 0.7 },
     { lower: 1e-3, upper: 1 - 1e-3, step: 0.2 },
   ];
   if (withNugget) parameters.push({ log: true, lower: 1e-6, upper: 1e3, step: 0.7 });
@@ -98,7 +98,9 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
     const s2 = Math.min(reach * 10, Math.max(reach * 1e-3, s1 * spread));
     return withNugget ? [s2, spread, w, eta0] : [s2, spread, w];
   };
+  // The one-structure optimum is the nested model with equal scales (s₂/s₁ = 1): the anchor.
   const starts: number[][] = [point(one.scale / 1.005, 1.01, 0.5)];
+  const anchor = point(one.scale, 1, 0.5);
   for (const f of [5, 3]) for (const spread of [5, 15]) for (const w of [0.3, 0.6]) starts.push(point(one.scale / f, spread, w));
   const structuresAt = (t: NestedParameters, sill: number, nugget: number): Structure[] => {
     const out: Structure[] = [];
@@ -116,7 +118,7 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
     return { structures, trend: 'constant', transform: 'none', anisotropy: options.anisotropy };
   };
   const found = searchLikelihood(samples, setup, correlationAt, {
-    parameters, starts, runs: options.starts ?? 3, toTheta, allowJitter: !withNugget,
+    parameters, starts, anchor, runs: options.starts ?? 3, toTheta, allowJitter: !withNugget,
   }, { maxEvaluations: options.maxEvaluations, what: `two-structure ${options.family} model` }, half(1));
 
   const theta = toTheta(found.x);

@@ -43,6 +43,12 @@ export interface SearchProblem {
   starts: number[][];
   /** Nelder–Mead runs from the best starts (default 3). */
   runs?: number;
+  /**
+   * A point the result must not fall below (the simpler model the richer one nests): evaluated on
+   * all samples and ranked with the optimiser's candidates there, so the result's likelihood is at
+   * least its likelihood.
+   */
+  anchor?: number[];
   /** θ for the likelihood (it may carry extra fields that `correlationAt` reads). */
   toTheta(x: number[]): CorrelationParameters;
   /** Jitter R's diagonal when it cannot be factorised (fits without a nugget). */
@@ -138,11 +144,15 @@ export function searchLikelihood(
   }
 
   let best: { x: number[]; value: number; converged: boolean };
+  if (problem.anchor && !screening) {
+    candidates.push({ x: problem.anchor, value: fFull(problem.anchor), converged: true });
+    evaluations++;
+  }
   if (!screening) {
     best = candidates.sort((a, b) => a.value - b.value)[0];
   } else {
     let top = { x: candidates[0].x, value: Infinity };
-    for (const c of candidates) {
+    for (const c of problem.anchor ? [...candidates, { x: problem.anchor }] : candidates) {
       const v = fFull(c.x);
       evaluations++;
       if (v < top.value) top = { x: c.x, value: v };

@@ -8,13 +8,15 @@
  * reml|ml|wls|nnl overrides it.
  */
 import { GapwiseError } from '../../core/errors.ts';
-import { fitModel, MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
+import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/vecchia.ts';
 import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
 import type { Samples } from '../../core/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
+import { analyteRequest, fitAnalytes } from '../analytes.ts';
+import { STRUCTURE_OPTIONS, fitWithStructure, printComparison, readStructureChoice } from '../fit-structure.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
@@ -111,6 +113,8 @@ function countingPasses(threads: VecchiaThreads, passes: { step(): void }): Vecc
 }
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
+  const analytes = analyteRequest(values);
+  if (analytes) return fitAnalytes(values, io, analytes, run);
   const family = (stringOption(values, 'family') ?? 'matern') as Family;
   const nuRaw = stringOption(values, 'nu');
   if (nuRaw !== undefined && family !== 'matern') {
@@ -125,6 +129,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const n = intake.samples.value.length;
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
 
+  const structureChoice = readStructureChoice(values, method);
   const nugget = !booleanOption(values, 'no-nugget');
   const samples = transform === 'log' ? logSamples(intake) : intake.samples;
   const files = { samples: intake.report.fileName };
@@ -145,8 +150,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const options: FitOptions = { family, method, trend, nugget };
     if (family === 'matern') options.nu = nu;
     // REML/ML count likelihood evaluations against the budget still ahead; WLS counts its stages.
-    const progress = progressLine(io, method === 'wls' ? 'fitting stages' : 'likelihood evaluations planned');
-    model = naming(files, () => fitModel(samples, options, progress));
+    const twoFits = structureChoice.anisotropy || structureChoice.structures === 2;
+    const progress = progressLine(io, method === 'wls' ? 'fitting stages' : twoFits ? 'fits (the simpler model, then the richer one)' : 'likelihood evaluations planned');
+    model = naming(files, () => fitWithStructure(samples, options, structureChoice, progress));
     if (model.fit) model.fit.note = `fitted with ${METHOD_NAMES[method]} on ${count(n)} samples`;
   }
   model.transform = transform;
@@ -157,6 +163,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       : method === 'nnl' ? `; chosen automatically from ${count(EXACT_FIT_LIMIT)} samples (--method reml|ml|wls overrides)` : '';
     printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
   }
+  printComparison(io, model);
   printWarnings(io, fit?.warnings ?? []);
   // The engine's own warnings usually say so already; this line covers a fit that does not.
   if (fit && !fit.converged && !(fit.warnings ?? []).some((w) => /optimiser stopped/i.test(w))) {
@@ -204,12 +211,15 @@ export const fitCommand: CommandSpec = {
     { name: 'trend', kind: 'string', placeholder: 'T', help: 'mean: constant (unknown constant), linear (unknown 1, x, y drift) or known:VALUE (a known mean in the samples\' unit; with --transform log, VALUE is on the log scale)', defaultText: 'constant' },
     { name: 'transform', kind: 'string', placeholder: 'T', choices: ['none', 'log'], help: 'fit ln(value) for positive, right-skewed data; results come back on the data scale', defaultText: 'none' },
     { name: 'no-nugget', kind: 'boolean', help: 'fit without a nugget (exact interpolation of the samples)' },
+    ...STRUCTURE_OPTIONS,
     outOption('model JSON file to write', 'stdout'),
   ],
   examples: [
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --out lead-model.json',
     'gapwise fit --samples wells.csv --value nitrate --family exponential --method ml --trend linear',
     'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbors 40 --out survey-model.json',
+    'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --anisotropy --out lead-anisotropic.json',
+    'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --structures 2 --out lead-nested.json',
   ],
   run,
 };

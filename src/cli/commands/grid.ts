@@ -26,6 +26,7 @@ import {
   readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
+import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
@@ -60,7 +61,10 @@ export function parseLevels(raw: string, option: string): number[] {
   return out;
 }
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
+  const analytes = analyteRequest(valuesGiven);
+  if (analytes) return gridAnalytes(valuesGiven, io, analytes);
+  const values = singleThreshold(valuesGiven);
   const out = stringOption(values, 'out') as string;
   const format = formatOf(out);
   const levels = stringOption(values, 'levels');
@@ -220,7 +224,7 @@ export const gridCommand: CommandSpec = {
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'the project\'s, else about 40,000 cells rounded to 1, 2, 2.5 or 5 × 10^k m' },
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s) of the area (longitude/latitude); cells outside are no-data', defaultText: 'none: the samples\' extent' },
     { name: 'padding', kind: 'number', placeholder: 'F', help: 'margin around the samples\' extent as a fraction of its larger side (without --boundary)', defaultText: '0.05' },
-    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
+    { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level: adds P(value > T); with several analytes (--value a,b) one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'none' },
     { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', unit: 'the samples\' unit', defaultText: 'about 8 round values over the range' },
     ...PREDICTION_PATH_OPTIONS,
     { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
