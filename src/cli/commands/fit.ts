@@ -196,6 +196,13 @@ export const fitCommand: CommandSpec = {
       + 'in a maxmin order, is conditioned on its --nnl-neighbors nearest earlier samples (n·m³/3 flops). The choice '
       + 'is said on stderr ("note: fitted with a nearest-neighbour likelihood on 48,211 samples ...") and in the '
       + 'model\'s "fit": "note" and "choice" ("automatic" or "given"). --method overrides it.',
+    '--anisotropy also estimates the azimuth of the long axis (degrees clockwise from grid north, 0 to 180) and the '
+      + 'ratio short/long range; --structures 2 fits a short and a long structure and keeps them only when the data '
+      + 'tell them apart. Both fit the simpler model first and print both side by side (parameters, log-likelihood, '
+      + 'AIC), also written to "fit": "comparison". They use the exact REML or ML likelihood (up to 3,000 samples).',
+    '--value a,b,c (column names separated by commas, or \'*\' for every numeric column besides the coordinates) '
+      + 'fits each analyte on its own, exactly as a run with --value a would, and writes one model set: '
+      + '{"analytes": {"a": MODEL, ...}} for "gapwise grid --value a,b,c".',
   ],
   options: [
     ...SAMPLE_OPTIONS,

@@ -217,6 +217,10 @@ export const gridCommand: CommandSpec = {
       + 'and 95 % values over the realisations, drawn over the same --workers threads. Those bands are written to GeoTIFF only.',
     'A JSON summary (grid, method, bands, value ranges, the area above the threshold and the screening caution) '
       + 'goes to stdout. The caution is also in the GeoTIFF description, on the first line of the CSV and in every contour.',
+    'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '
+      + 'each analyte is mapped with its own model on one grid planned from all their samples: the GeoTIFF holds mean, '
+      + 'sd (and P(exceed)) bands per analyte, the CSV the columns a_mean, a_sd (a_p_exceed), ...; --threshold takes '
+      + 'one number for all or a=T1,b=T2. Point support, .tif or .csv.',
   ],
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
@@ -234,6 +238,7 @@ export const gridCommand: CommandSpec = {
   examples: [
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --boundary data-demo/site-boundary.geojson --cell 2 --threshold 200 --out lead.tif',
     'gapwise grid --project site.gapwise.json --out lead-contours.geojson',
+    'gapwise grid --samples survey.csv --model models.json --value zinc,lead,copper --threshold zinc=720,lead=530 --cell 10 --out metals.tif',
     'gapwise grid --samples survey-48k.csv --model survey-model.json --cell 10 --neighbors 48 --out survey.tif',
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --cell 5 --support block --realizations 200 --seed 3 --threshold 200 --depth 0.3 --out lead-blocks.tif',
   ],
