@@ -39,7 +39,8 @@ export function readStructureChoice(values: OptionValues, method: string): Struc
   if ((anisotropy || structures === 2) && method !== 'reml' && method !== 'ml') {
     const what = anisotropy ? '--anisotropy' : '--structures 2';
     throw new GapwiseError('bad-option',
-      `Option "${what}" is fitted by the exact REML or ML likelihood (up to 3,000 samples); got --method ${method}${method === 'nnl' ? ' (chosen from 3,000 samples)' : ''}; give --method reml or ml.`);
+      `Option "${what}" is fitted by the exact REML or ML likelihood (up to 3,000 samples); got --method ${method}; `
+      + (method === 'nnl' ? 'below 3,000 samples give --method reml or ml, with more thin the samples first.' : 'give --method reml or ml.'));
   }
   return { anisotropy, structures };
 }
