@@ -2,11 +2,21 @@
 // samples in a 1 km square (true scale 150 m, sill 1, nugget 0.1), and the cost of one likelihood
 // evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick). Then a REML fit
 // with two covariates in the mean (a distance and a three-level category) on 2,000 samples (500 with
-// --quick).
+// --quick). Then a fitted
+// anisotropy (core/fit-anisotropy.ts: the isotropic fit, then azimuth and ratio) on 1,000 samples of an
+// anisotropic field (azimuth 30°, ratio 0.4), one run, target < 20 s (300 samples with --quick).
+// Last, several analytes: `gapwise grid` (in process, as a user runs it) on a 200 × 200 grid from
+// 500 samples, one analyte and then four (--value a,b,c,d with a model set), target four < 4 × one.
 // Alone: `npx tsx bench/fit.ts [--quick]`; with the others: `npm run bench -- fit`.
 import type { Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../src/cli/main.ts';
+import { createRandom } from '../src/core/random.ts';
 import { fitModel } from '../src/core/fit.ts';
+import { fitAnisotropic } from '../src/core/fit-anisotropy.ts';
 import { createLikelihood } from '../src/core/likelihood.ts';
 import { simulateSamples } from '../src/core/simulate.ts';
 import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
@@ -59,7 +69,87 @@ export async function runFitBench(options: { quick?: boolean } = {}): Promise<Ro
     rows.push({ name: 'REML fit, Matérn 3/2 (fixed ν) + nugget', n, seconds: median(times), note: `${runs > 1 ? `median of ${runs}` : '1 run'}; ${describeFit(last!)}` });
   }
   rows.push(covariateFitRow(options.quick ? 500 : 2000));
+  rows.push(anisotropicRow(options.quick ? 300 : 1000));
+  rows.push(...(await analyteGridRows(options.quick ? 50 : 200)));
   return rows;
+}
+
+/** Runs `gapwise ARGS` in process in `dir`; throws on a non-zero exit. */
+async function gapwise(dir: string, ...argv: string[]): Promise<string> {
+  let out = '';
+  let err = '';
+  const code = await main(argv, { stdout: (t) => { out += t; }, stderr: (t) => { err += t; }, cwd: dir, quiet: true });
+  if (code !== 0) throw new Error(`gapwise ${argv.join(' ')} exited ${code}: ${err}`);
+  return out;
+}
+
+export async function analyteGridRows(side: number): Promise<Row[]> {
+  const dir = mkdtempSync(join(tmpdir(), 'gapwise-bench-'));
+  try {
+    // Invented survey: 500 planar samples in a 1 km square, four analytes of different patterns.
+    const rng = createRandom(11);
+    const lines = ['id,easting,northing,zinc,lead,copper,nickel'];
+    for (let i = 0; i < 500; i++) {
+      const dx = 1000 * rng.uniform();
+      const dy = 1000 * rng.uniform();
+      const v = [500 + 150 * Math.sin(dx / 200), 300 + 120 * Math.cos(dy / 150), 40 + 10 * Math.sin((dx + dy) / 250), 20 + 5 * Math.cos((dx - dy) / 300)]
+        .map((m) => (m + m * 0.1 * rng.normal()).toFixed(2));
+      lines.push(`P${i + 1},${(500000 + dx).toFixed(2)},${(5400000 + dy).toFixed(2)},${v.join(',')}`);
+    }
+    writeFileSync(join(dir, 'survey.csv'), `${lines.join('\n')}\n`);
+    const base = ['--samples', 'survey.csv', '--crs', 'EPSG:32633'];
+    await gapwise(dir, 'fit', ...base, '--value', 'zinc,lead,copper,nickel', '--family', 'exponential', '--out', 'set.json');
+    const cell = String(1000 / side);
+    const grid = ['grid', ...base, '--model', 'set.json', '--cell', cell, '--padding', '0', '--exact'];
+    // A warm-up run (module loading, compilation) that is not timed; then one analyte as the plain
+    // one-analyte command, then four from the model set.
+    await gapwise(dir, ...grid, '--value', 'zinc,lead', '--threshold', 'zinc=600', '--out', 'warm.tif');
+    await gapwise(dir, 'fit', ...base, '--value', 'zinc', '--family', 'exponential', '--out', 'zinc.json');
+    const s1 = performance.now();
+    const u1 = process.cpuUsage();
+    await gapwise(dir, 'grid', ...base, '--model', 'zinc.json', '--value', 'zinc', '--cell', cell, '--padding', '0', '--exact', '--threshold', '600', '--out', 'one.tif');
+    const oneSeconds = (performance.now() - s1) / 1000;
+    const oneCpu = cpuSince(u1);
+    const s4 = performance.now();
+    const u4 = process.cpuUsage();
+    await gapwise(dir, ...grid, '--value', 'zinc,lead,copper,nickel', '--threshold', 'zinc=600,lead=350', '--out', 'four.tif');
+    const fourSeconds = (performance.now() - s4) / 1000;
+    const fourCpu = cpuSince(u4);
+    const cells = `${side} × ${side} cells`;
+    return [
+      { name: `grid, one analyte, ${cells} (gapwise grid)`, n: 500, seconds: oneSeconds, note: `CPU of this thread ${oneCpu.toFixed(1)} s; exact kriging, workers one per core` },
+      { name: `grid, four analytes, ${cells} (gapwise grid --value a,b,c,d)`, n: 500, seconds: fourSeconds, note: `CPU of this thread ${fourCpu.toFixed(1)} s; ${(fourSeconds / oneSeconds).toFixed(2)} × one analyte; target < 4 ×` },
+    ];
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
+function cpuSince(start: NodeJS.CpuUsage): number {
+  const used = process.cpuUsage(start);
+  return (used.user + used.system) / 1e6;
+}
+
+/** Wall and CPU seconds of one call. */
+function timed<T>(f: () => T): { value: T; seconds: number; cpu: number } {
+  const t = performance.now();
+  const c = process.cpuUsage();
+  const value = f();
+  const used = process.cpuUsage(c);
+  return { value, seconds: (performance.now() - t) / 1000, cpu: (used.user + used.system) / 1e6 };
+}
+
+export function anisotropicRow(n: number): Row {
+  const field: CovarianceModel = { ...truth, anisotropy: { azimuth: 30, ratio: 0.4 } };
+  const samples = simulateSamples(field, { count: n, extent: { xmin: 0, ymin: 0, xmax: 1000, ymax: 1000 }, seed: 42 });
+  const run = timed(() => fitAnisotropic(samples, { family: 'matern', nu: 1.5, method: 'reml' }));
+  const m = run.value.model;
+  const iso = run.value.isotropic.fit!;
+  return {
+    name: 'REML fit with anisotropy (isotropic fit + azimuth, ratio)', n, seconds: run.seconds,
+    note: `CPU ${run.cpu.toFixed(1)} s; azimuth ${m.anisotropy!.azimuth.toFixed(1)}° (true 30), ratio ${m.anisotropy!.ratio.toFixed(3)} (true 0.4); `
+      + `${describeFit(m)}; isotropic part ${iso.evaluations} full evaluations; target < 20 s`,
+  };
 }
 
 /**

@@ -39,7 +39,7 @@ import type { CovarianceModel } from './model.ts';
 import { isKnownTrend, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, checkCount, type Warning } from './errors.ts';
-import { crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from './covariance.ts';
+import { acrossAxis, alongAxis, anisotropyFrame, crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from './covariance.ts';
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from './linalg.ts';
 import { buildKrigingSystem, type KrigingSystem } from './kriging.ts';
 import { MAX_LOCAL_NEIGHBORS } from './local-kriging.ts';
@@ -295,11 +295,8 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
   if (p > 0 && q <= p) throw new GapwiseError('bad-option', `Expected more than ${p} samples per neighbourhood for this trend, got ${q}.`);
   // Neighbours by effective distance: search in coordinates where the model is isotropic.
   const an = model.anisotropy;
-  const rot = (x: number, y: number): [number, number] => {
-    if (!an || an.ratio === 1) return [x, y];
-    const a = (an.azimuth * Math.PI) / 180;
-    return [x * Math.sin(a) + y * Math.cos(a), (x * Math.cos(a) - y * Math.sin(a)) / an.ratio];
-  };
+  const rotation = anisotropyFrame(an);
+  const rot = (x: number, y: number): [number, number] => (rotation ? [alongAxis(rotation, x, y), acrossAxis(rotation, x, y)] : [x, y]);
   let cx = 0, cy = 0;
   for (let i = 0; i < n; i++) { cx += samples.x[i]; cy += samples.y[i]; }
   cx /= n; cy /= n;

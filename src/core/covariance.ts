@@ -36,42 +36,64 @@ export function correlation(s: CorrelatedStructure, h: number): number {
   }
 }
 
+/**
+ * The rotation and stretch of a geometric anisotropy, worked out once: the long axis points along
+ * (sin a, cos a) in (east, north), a = azimuth clockwise from grid north. A separation (dx, dy) maps to
+ * u = dx·sin a + dy·cos a (along the long axis) and v = (dx·cos a − dy·sin a)·inverseRatio (across
+ * it, stretched), where plain distance is the model's effective distance. `null` when isotropic
+ * (no anisotropy, or ratio 1). The one place the rotation is written: every module that needs
+ * isotropic coordinates goes through this frame or the functions below.
+ */
+export interface AnisotropyFrame {
+  sin: number;
+  cos: number;
+  /** 1 / ratio. */
+  inverseRatio: number;
+}
+
+/** The frame of an anisotropy (see AnisotropyFrame), or null for an isotropic model. */
+export function anisotropyFrame(anisotropy?: Anisotropy): AnisotropyFrame | null {
+  if (!anisotropy || anisotropy.ratio === 1) return null;
+  const a = (anisotropy.azimuth * Math.PI) / 180;
+  return { sin: Math.sin(a), cos: Math.cos(a), inverseRatio: 1 / anisotropy.ratio };
+}
+
+/** Component of a separation along the long axis (metres). */
+export function alongAxis(frame: AnisotropyFrame, dx: number, dy: number): number {
+  return dx * frame.sin + dy * frame.cos;
+}
+
+/** Component of a separation across the long axis, stretched by 1/ratio (metres). */
+export function acrossAxis(frame: AnisotropyFrame, dx: number, dy: number): number {
+  return (dx * frame.cos - dy * frame.sin) * frame.inverseRatio;
+}
+
 /** Transforms a separation (dx east, dy north) into an effective isotropic distance. */
 export function effectiveDistance(dx: number, dy: number, anisotropy?: Anisotropy): number {
-  if (!anisotropy || anisotropy.ratio === 1) return Math.hypot(dx, dy);
-  const a = (anisotropy.azimuth * Math.PI) / 180;
-  // Unit vector of the long axis, clockwise from north: (sin a, cos a).
-  const along = dx * Math.sin(a) + dy * Math.cos(a);
-  const across = dx * Math.cos(a) - dy * Math.sin(a);
-  return Math.hypot(along, across / anisotropy.ratio);
+  const f = anisotropyFrame(anisotropy);
+  if (!f) return Math.hypot(dx, dy);
+  return Math.hypot(alongAxis(f, dx, dy), acrossAxis(f, dx, dy));
 }
 
 /**
  * Maps points into the stretched coordinates in which the anisotropic model is isotropic:
- * u = along the long axis, v = across it divided by the ratio. Euclidean distances between mapped
- * points equal effectiveDistance of the separations. Without anisotropy (or ratio 1) returns copies.
- * Useful for neighbour searches that must agree with the covariance.
+ * u = along the long axis, v = across it divided by the ratio, after subtracting (cx, cy) (default 0).
+ * Euclidean distances between mapped points equal effectiveDistance of the separations. Without
+ * anisotropy (or ratio 1) returns centred copies. Useful for neighbour searches that must agree with
+ * the covariance.
  */
 export function toIsotropicCoordinates(
-  anisotropy: Anisotropy | undefined, x: ArrayLike<number>, y: ArrayLike<number>,
+  anisotropy: Anisotropy | undefined, x: ArrayLike<number>, y: ArrayLike<number>, cx = 0, cy = 0,
 ): { u: Float64Array; v: Float64Array } {
   const n = x.length;
   const u = new Float64Array(n);
   const v = new Float64Array(n);
-  if (!anisotropy || anisotropy.ratio === 1) {
-    for (let i = 0; i < n; i++) {
-      u[i] = x[i];
-      v[i] = y[i];
-    }
-    return { u, v };
-  }
-  const a = (anisotropy.azimuth * Math.PI) / 180;
-  const sin = Math.sin(a);
-  const cos = Math.cos(a);
-  const inv = 1 / anisotropy.ratio;
+  const f = anisotropyFrame(anisotropy);
   for (let i = 0; i < n; i++) {
-    u[i] = x[i] * sin + y[i] * cos;
-    v[i] = (x[i] * cos - y[i] * sin) * inv;
+    const dx = x[i] - cx;
+    const dy = y[i] - cy;
+    u[i] = f ? alongAxis(f, dx, dy) : dx;
+    v[i] = f ? acrossAxis(f, dx, dy) : dy;
   }
   return { u, v };
 }
@@ -228,13 +250,7 @@ export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<numb
   const n = x.length;
   if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
   const K = new Float64Array(n * n);
-  const cm = compile(model);
-  const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
-  scratch(n);
-  for (let i = 0; i < n; i++) {
-    covarianceRow(cm, u[i], v[i], u, v, i, K, i * n);
-    K[i * n + i] = cm.variance + cm.nugget;
-  }
+  sampleCovarianceLowerInto(model, x, y, K);
   // Mirror the lower triangle into the upper one, in tiles so both sides stay in cache.
   const T = 32;
   for (let bi = 0; bi < n; bi += T) {
@@ -249,6 +265,26 @@ export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<numb
     }
   }
   return K;
+}
+
+/**
+ * Fills the lower triangle and the diagonal of `out` (n×n row-major, length at least n²) with the
+ * samples' covariance matrix as sampleCovarianceMatrix gives it; the strict upper triangle is left as
+ * it was. For code that factorises in place many times (a Cholesky factor reads the lower triangle
+ * only), so no matrix is allocated per call.
+ */
+export function sampleCovarianceLowerInto(model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, out: Float64Array): Float64Array {
+  const n = x.length;
+  if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
+  if (out.length < n * n) throw new Error(`Expected an output buffer of at least ${n}×${n} = ${n * n} entries, got ${out.length}.`);
+  const cm = compile(model);
+  const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
+  scratch(n);
+  for (let i = 0; i < n; i++) {
+    covarianceRow(cm, u[i], v[i], u, v, i, out, i * n);
+    out[i * n + i] = cm.variance + cm.nugget;
+  }
+  return out;
 }
 
 /**

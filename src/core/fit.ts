@@ -36,7 +36,7 @@ import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from './optimize.ts';
 import { createVecchiaLikelihood } from './vecchia.ts';
 import { empiricalVariogram } from './variogram.ts';
-import { correlation, practicalRange } from './covariance.ts';
+import { correlation, practicalRange, toIsotropicCoordinates } from './covariance.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { createRandom } from './random.ts';
 
@@ -158,7 +158,7 @@ function scaleStarts(family: Family, maxDistance: number): number[] {
 }
 
 /** Seeded subset of m distinct sample indices (partial Fisher–Yates). */
-function subsetSamples(samples: Samples, m: number, seed: number): Samples {
+export function subsetSamples(samples: Samples, m: number, seed: number): Samples {
   const n = samples.value.length;
   const idx = Array.from({ length: n }, (_, i) => i);
   const random = createRandom(seed);
@@ -460,23 +460,8 @@ function planeResiduals(samples: Samples): Float64Array {
 /** Coordinates in which plain distance is the anisotropic effective distance (covariance.ts). */
 function isotropicFrame(samples: Samples, values: Float64Array, anisotropy?: Anisotropy): Samples {
   const { cx, cy } = centroid(samples.x, samples.y);
-  const n = values.length;
-  const x = new Float64Array(n);
-  const y = new Float64Array(n);
-  const a = ((anisotropy?.azimuth ?? 0) * Math.PI) / 180;
-  const ratio = anisotropy?.ratio ?? 1;
-  for (let i = 0; i < n; i++) {
-    const dx = samples.x[i] - cx;
-    const dy = samples.y[i] - cy;
-    if (anisotropy) {
-      x[i] = dx * Math.sin(a) + dy * Math.cos(a);
-      y[i] = (dx * Math.cos(a) - dy * Math.sin(a)) / ratio;
-    } else {
-      x[i] = dx;
-      y[i] = dy;
-    }
-  }
-  return { x, y, value: values };
+  const { u, v } = toIsotropicCoordinates(anisotropy, samples.x, samples.y, cx, cy);
+  return { x: u, y: v, value: values };
 }
 
 /** Options of a variogram-only fit (plain data). */

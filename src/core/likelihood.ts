@@ -17,13 +17,13 @@
  * correlations, n³/3 flops for the factor, (p + 1)·n² for the solves; memory 8n² bytes for R plus
  * 4n² bytes of packed distances, allocated once per `createLikelihood`.
  */
-import type { Anisotropy, Family, Trend } from './model.ts';
+import type { Anisotropy, CovarianceModel, Family, Trend } from './model.ts';
 import { isKnownTrend } from './model.ts';
 import { covariateColumnCount, hasCoordinateDrift, trendColumnCount, checkCovariateRows } from './trend.ts';
 import type { Samples } from './samples.ts';
 import { centroid } from './samples.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
-import { correlation, effectiveDistance } from './covariance.ts';
+import { correlation, effectiveDistance, sampleCovarianceLowerInto } from './covariance.ts';
 
 export type LikelihoodMethod = 'reml' | 'ml';
 
@@ -87,10 +87,19 @@ export interface Likelihood {
 const LN_2PI = Math.log(2 * Math.PI);
 
 /**
+ * The correlation model at θ for likelihoods whose parameters go beyond one structure's (a fitted
+ * anisotropy, nested structures): a model with partial sills summing to 1 and the nugget η, in the
+ * units of CorrelationParameters. θ may carry the caller's extra fields.
+ */
+export type CorrelationModelAt = (theta: CorrelationParameters) => CovarianceModel;
+
+/**
  * Prepares the likelihood of `samples` under `setup`: centres the coordinates, packs the pairwise
  * distances and allocates the n×n work matrix once, so each `evaluate` is one fill and one Cholesky.
+ * With `correlationAt` the matrix R is that model's sample covariance (covariance.ts) at each θ
+ * instead of setup's one family: the same profiled likelihood for richer correlation models.
  */
-export function createLikelihood(samples: Samples, setup: LikelihoodSetup): Likelihood {
+export function createLikelihood(samples: Samples, setup: LikelihoodSetup, correlationAt?: CorrelationModelAt): Likelihood {
   const n = samples.value.length;
   const method: LikelihoodMethod = setup.method ?? 'reml';
   const { cx, cy } = centroid(samples.x, samples.y);
@@ -189,13 +198,19 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup): Like
     }
   };
 
+  const fillFromModel = (theta: CorrelationParameters, extraDiagonal: number): void => {
+    sampleCovarianceLowerInto(correlationAt!(theta), xs, ys, R);
+    if (extraDiagonal !== 0) for (let i = 0; i < n; i++) R[i * n + i] += extraDiagonal;
+  };
+  const fillAt = correlationAt ? fillFromModel : fill;
+
   const evaluate = (theta: CorrelationParameters, options: { sigma2?: number; allowJitter?: boolean } = {}): LikelihoodValue => {
     let jitter = 0;
-    fill(theta, 0);
+    fillAt(theta, 0);
     let ok = choleskyInPlace(R, n);
     if (!ok && options.allowJitter) {
       for (let add = 1e-10; add <= 1.0001e-6 && !ok; add *= 10) {
-        fill(theta, add);
+        fillAt(theta, add);
         ok = choleskyInPlace(R, n);
         jitter = add;
       }

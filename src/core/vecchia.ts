@@ -23,7 +23,7 @@ import { pickSamples } from './samples.ts';
 import { numericalFailureAdvice } from './numerical-advice.ts';
 import { GapwiseError, type Warning } from './errors.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
-import { practicalRange, surfaceCovariance, surfaceVariance } from './covariance.ts';
+import { practicalRange, surfaceCovariance, surfaceVariance, toIsotropicCoordinates } from './covariance.ts';
 import { maternTableAtZ } from './matern.ts';
 import { nuggetOf } from './model.ts';
 import { maxminOrder, orderedNeighbors, type OrderedNeighbors } from './maxmin-order.ts';
@@ -60,27 +60,7 @@ export function chooseFitMethod(n: number, override?: 'exact' | 'nnl'): 'exact' 
 export function isotropicCoordinates(
   x: ArrayLike<number>, y: ArrayLike<number>, cx: number, cy: number, anisotropy?: Anisotropy,
 ): { u: Float64Array; v: Float64Array } {
-  const n = x.length;
-  const u = new Float64Array(n);
-  const v = new Float64Array(n);
-  if (!anisotropy || anisotropy.ratio === 1) {
-    for (let i = 0; i < n; i++) {
-      u[i] = x[i] - cx;
-      v[i] = y[i] - cy;
-    }
-    return { u, v };
-  }
-  const a = (anisotropy.azimuth * Math.PI) / 180;
-  const sa = Math.sin(a);
-  const ca = Math.cos(a);
-  const inv = 1 / anisotropy.ratio;
-  for (let i = 0; i < n; i++) {
-    const dx = x[i] - cx;
-    const dy = y[i] - cy;
-    u[i] = dx * sa + dy * ca;
-    v[i] = (dx * ca - dy * sa) * inv;
-  }
-  return { u, v };
+  return toIsotropicCoordinates(anisotropy, x, y, cx, cy);
 }
 
 /**

@@ -6,7 +6,7 @@
  * `csvComment`); most CSV readers skip it with a comment option (pandas `comment="#"`, R
  * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
  */
-import { CSV_CAUTION, csvComment } from './csv-cells.ts';
+import { CSV_CAUTION, csvCell, csvComment } from './csv-cells.ts';
 import type { Grid } from '../core/grid.ts';
 import { cellCentres } from '../core/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
@@ -72,6 +72,62 @@ export function surfaceGridCsv(input: GridCsvInput): string {
       num(surface.mean[k], dm), num(surface.sd[k], ds),
     ];
     if (surface.pExceed) row.push(num(surface.pExceed[k], dp));
+    lines.push(row.join(','));
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+/** Input of the several-analyte table: one grid, each analyte's surfaces. */
+export interface AnalyteGridCsvInput {
+  grid: Grid;
+  workCrs: string;
+  analytes: ReadonlyArray<{ name: string; unit?: string; surface: GridCsvInput['surface'] }>;
+  /** Write the "# caution" first line (default true). */
+  caution?: boolean;
+}
+
+/** Column-name form of an analyte: letters, digits and _ kept, other runs of characters as one _. */
+export function analyteColumnName(name: string): string {
+  const s = name.replace(/\s*\([^)]*\)\s*$/, '').replace(/[^\p{L}\p{N}_]+/gu, '_').replace(/^_+|_+$/g, '');
+  return s === '' ? 'value' : s;
+}
+
+/**
+ * Several analytes' surfaces on one grid as a CSV table, one row per active cell: x, y (and lon, lat)
+ * as surfaceGridCsv writes them, then NAME_mean, NAME_sd (and NAME_p_exceed) per analyte, NAME the
+ * analyte's column name with other characters than letters, digits and _ made _. Same digits and
+ * comment line as surfaceGridCsv.
+ */
+export function analyteGridCsv(input: AnalyteGridCsvInput): string {
+  const { grid } = input;
+  const { x, y, index } = cellCentres(grid);
+  const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
+  const header = geo ? ['x', 'y', 'lon', 'lat'] : ['x', 'y'];
+  const described: string[] = [];
+  const used = new Set(header);
+  for (const a of input.analytes) {
+    let base = analyteColumnName(a.name);
+    for (let k = 2; used.has(`${base}_mean`); k++) base = `${analyteColumnName(a.name)}_${k}`;
+    const cols = [`${base}_mean`, `${base}_sd`, ...(a.surface.pExceed ? [`${base}_p_exceed`] : [])];
+    for (const c of cols) used.add(c);
+    header.push(...cols);
+    described.push(`${base}_mean, ${base}_sd${a.unit ? ` in ${a.unit}` : ''}`
+      + (a.surface.pExceed ? `, ${base}_p_exceed = P(${base} > ${a.surface.threshold ?? 'threshold'}${a.unit ? ` ${a.unit}` : ''})` : ''));
+  }
+  const lines: string[] = [];
+  if (input.caution !== false) {
+    const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
+    lines.push(csvComment(`${CSV_CAUTION} ${where}; ${described.join('; ')}`));
+  }
+  lines.push(header.map((h) => csvCell(h)).join(','));
+  const digits = input.analytes.map((a) => [digitsOf(a.surface.mean), digitsOf(a.surface.sd), a.surface.pExceed ? digitsOf(a.surface.pExceed) : 17]);
+  for (let c = 0; c < index.length; c++) {
+    const k = index[c];
+    const row = [fixed(x[c], 3), fixed(y[c], 3), ...(geo ? [fixed(geo.x[c], 8), fixed(geo.y[c], 8)] : [])];
+    input.analytes.forEach((a, i) => {
+      row.push(num(a.surface.mean[k], digits[i][0]), num(a.surface.sd[k], digits[i][1]));
+      if (a.surface.pExceed) row.push(num(a.surface.pExceed[k], digits[i][2]));
+    });
     lines.push(row.join(','));
   }
   return `${lines.join('\n')}\n`;

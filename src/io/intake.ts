@@ -540,7 +540,9 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   } else if (numericColumns.length === 0) {
     throw new GapwiseError('missing-column', `No column holds numbers to map; the columns are ${quotedList(columns)}. Expected one numeric value column.`, { file });
   } else {
-    throw new GapwiseError('missing-column', `Several columns hold numbers: ${quotedList(numericColumns)}; choose the one to map (in the app, the value column; on the command line, --value).`, { file });
+    const several = new GapwiseError('missing-column', `Several columns hold numbers: ${quotedList(numericColumns)}; choose the one to map (in the app, the value column; on the command line, --value).`, { file });
+    // The candidates, for a caller that maps every numeric column (gapwise --value '*').
+    throw Object.assign(several, { numericColumns });
   }
   const valueName = columns[valueCol];
   // The qualifier that belongs to the value column: one naming it, else the only one.

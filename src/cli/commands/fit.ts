@@ -8,7 +8,7 @@
  * reml|ml|wls|nnl overrides it.
  */
 import { GapwiseError } from '../../core/errors.ts';
-import { fitModel, MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
+import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/vecchia.ts';
 import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
 import type { Samples } from '../../core/samples.ts';
@@ -17,6 +17,8 @@ import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
 import { COVARIATE_OPTIONS, trendWithCovariates, withSampleCovariates } from '../covariates.ts';
 import { attachTrendCoefficients } from '../../core/covariate-fit.ts';
+import { analyteRequest, fitAnalytes } from '../analytes.ts';
+import { STRUCTURE_OPTIONS, fitWithStructure, printComparison, readStructureChoice } from '../fit-structure.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
@@ -113,6 +115,8 @@ function countingPasses(threads: VecchiaThreads, passes: { step(): void }): Vecc
 }
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
+  const analytes = analyteRequest(values);
+  if (analytes) return fitAnalytes(values, io, analytes, run);
   const family = (stringOption(values, 'family') ?? 'matern') as Family;
   const nuRaw = stringOption(values, 'nu');
   if (nuRaw !== undefined && family !== 'matern') {
@@ -127,6 +131,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const n = intake.samples.value.length;
   const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
 
+  const structureChoice = readStructureChoice(values, method);
   const nugget = !booleanOption(values, 'no-nugget');
   const { samples, trend } = withSampleCovariates(intake, transform === 'log' ? logSamples(intake) : intake.samples, givenTrend, false);
   const files = { samples: intake.report.fileName };
@@ -148,8 +153,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const options: FitOptions = { family, method, trend, nugget };
     if (family === 'matern') options.nu = nu;
     // REML/ML count likelihood evaluations against the budget still ahead; WLS counts its stages.
-    const progress = progressLine(io, method === 'wls' ? 'fitting stages' : 'likelihood evaluations planned');
-    model = naming(files, () => fitModel(samples, options, progress));
+    const twoFits = structureChoice.anisotropy || structureChoice.structures === 2;
+    const progress = progressLine(io, method === 'wls' ? 'fitting stages' : twoFits ? 'fits (the simpler model, then the richer one)' : 'likelihood evaluations planned');
+    model = naming(files, () => fitWithStructure(samples, options, structureChoice, progress));
     if (model.fit) model.fit.note = `fitted with ${METHOD_NAMES[method]} on ${count(n)} samples`;
   }
   model.transform = transform;
@@ -160,6 +166,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       : method === 'nnl' ? `; chosen automatically from ${count(EXACT_FIT_LIMIT)} samples (--method reml|ml|wls overrides)` : '';
     printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
   }
+  printComparison(io, model);
   printWarnings(io, fit?.warnings ?? []);
   // The engine's own warnings usually say so already; this line covers a fit that does not.
   if (fit && !fit.converged && !(fit.warnings ?? []).some((w) => /optimiser stopped/i.test(w))) {
@@ -192,6 +199,13 @@ export const fitCommand: CommandSpec = {
       + 'in a maxmin order, is conditioned on its --nnl-neighbors nearest earlier samples (n·m³/3 flops). The choice '
       + 'is said on stderr ("note: fitted with a nearest-neighbour likelihood on 48,211 samples ...") and in the '
       + 'model\'s "fit": "note" and "choice" ("automatic" or "given"). --method overrides it.',
+    '--anisotropy also estimates the azimuth of the long axis (degrees clockwise from grid north, 0 to 180) and the '
+      + 'ratio short/long range; --structures 2 fits a short and a long structure and keeps them only when the data '
+      + 'tell them apart. Both fit the simpler model first and print both side by side (parameters, log-likelihood, '
+      + 'AIC), also written to "fit": "comparison". They use the exact REML or ML likelihood (up to 3,000 samples).',
+    '--value a,b,c (column names separated by commas, or \'*\' for every numeric column besides the coordinates) '
+      + 'fits each analyte on its own, exactly as a run with --value a would, and writes one model set: '
+      + '{"analytes": {"a": MODEL, ...}} for "gapwise grid --value a,b,c".',
   ],
   options: [
     ...SAMPLE_OPTIONS,
@@ -208,6 +222,7 @@ export const fitCommand: CommandSpec = {
     ...COVARIATE_OPTIONS,
     { name: 'transform', kind: 'string', placeholder: 'T', choices: ['none', 'log'], help: 'fit ln(value) for positive, right-skewed data; results come back on the data scale', defaultText: 'none' },
     { name: 'no-nugget', kind: 'boolean', help: 'fit without a nugget (exact interpolation of the samples)' },
+    ...STRUCTURE_OPTIONS,
     outOption('model JSON file to write', 'stdout'),
   ],
   examples: [
@@ -215,6 +230,8 @@ export const fitCommand: CommandSpec = {
     'gapwise fit --samples wells.csv --value nitrate --family exponential --method ml --trend linear',
     'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbors 40 --out survey-model.json',
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --covariates sqrt_dist_mill --out lead-covariate-model.json',
+    'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --anisotropy --out lead-anisotropic.json',
+    'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --structures 2 --out lead-nested.json',
   ],
   run,
 };

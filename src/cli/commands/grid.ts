@@ -30,6 +30,7 @@ import { COVARIATE_RASTER_OPTION, readCovariateRasters, withSampleCovariates } f
 import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
 import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
 import { clipToPolygons } from '../../core/grid.ts';
+import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
@@ -64,7 +65,10 @@ export function parseLevels(raw: string, option: string): number[] {
   return out;
 }
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
+  const analytes = analyteRequest(valuesGiven);
+  if (analytes) return gridAnalytes(valuesGiven, io, analytes);
+  const values = singleThreshold(valuesGiven);
   const out = stringOption(values, 'out') as string;
   const format = formatOf(out);
   const levels = stringOption(values, 'levels');
@@ -243,6 +247,10 @@ export const gridCommand: CommandSpec = {
       + 'and 95 % values over the realisations, drawn over the same --workers threads. Those bands are written to GeoTIFF only.',
     'A JSON summary (grid, method, bands, value ranges, the area above the threshold and the screening caution) '
       + 'goes to stdout. The caution is also in the GeoTIFF description, on the first line of the CSV and in every contour.',
+    'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '
+      + 'each analyte is mapped with its own model on one grid planned from all their samples: the GeoTIFF holds mean, '
+      + 'sd (and P(exceed)) bands per analyte, the CSV the columns a_mean, a_sd (a_p_exceed), ...; --threshold takes '
+      + 'one number for all or a=T1,b=T2. Point support, .tif or .csv.',
   ],
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
@@ -251,7 +259,7 @@ export const gridCommand: CommandSpec = {
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'the project\'s, else about 40,000 cells rounded to 1, 2, 2.5 or 5 × 10^k m' },
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s) of the area (longitude/latitude); cells outside are no-data', defaultText: 'none: the samples\' extent' },
     { name: 'padding', kind: 'number', placeholder: 'F', help: 'margin around the samples\' extent as a fraction of its larger side (without --boundary)', defaultText: '0.05' },
-    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
+    { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level: adds P(value > T); with several analytes (--value a,b) one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'none' },
     { name: 'levels', kind: 'string', placeholder: 'LIST', help: 'contour levels of the mean for .geojson, comma-separated', unit: 'the samples\' unit', defaultText: 'about 8 round values over the range' },
     ...PREDICTION_PATH_OPTIONS,
     { name: 'workers', kind: 'number', placeholder: 'N', help: 'worker threads that share out the rows of the grid (1 to 256)', unit: 'threads', defaultText: 'one per core of this machine' },
@@ -261,6 +269,7 @@ export const gridCommand: CommandSpec = {
   examples: [
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --boundary data-demo/site-boundary.geojson --cell 2 --threshold 200 --out lead.tif',
     'gapwise grid --project site.gapwise.json --out lead-contours.geojson',
+    'gapwise grid --samples survey.csv --model models.json --value zinc,lead,copper --threshold zinc=720,lead=530 --cell 10 --out metals.tif',
     'gapwise grid --samples survey-48k.csv --model survey-model.json --cell 10 --neighbors 48 --out survey.tif',
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --cell 5 --support block --realizations 200 --seed 3 --threshold 200 --depth 0.3 --out lead-blocks.tif',
   ],
