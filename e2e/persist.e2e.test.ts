@@ -10,7 +10,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
 import { fiveHundredCsv } from './files.ts';
 import { createRandom } from '../src/core/random.ts';
 
@@ -42,16 +42,37 @@ async function saved(page: Page): Promise<void> {
  * Reloads; returns ms from the reload until the session is back with the surface drawn (`total`),
  * and the page's own clock (from navigation start) when it was restored and when the surface was drawn.
  */
-async function reloadAndTime(page: Page): Promise<{ total: number; restored: number; drawn: number }> {
+interface ReloadTiming {
+  total: number;
+  restored: number;
+  drawn: number;
+  /** Where the time went on the page's clock: the page's own load, then the app's marks (gapwise:*). */
+  stages: string;
+}
+
+async function reloadAndTime(page: Page): Promise<ReloadTiming> {
   const t0 = Date.now();
   await page.reload();
   const restored = await (await page.waitForFunction(() => document.querySelector('.app[data-ready=yes][data-restored=yes]') ? performance.now() : 0)).jsonValue();
   const drawn = await (await page.waitForFunction(() => document.querySelector('[data-testid=surface-layer][data-complete=yes]') ? performance.now() : 0, null, { timeout: WAIT })).jsonValue();
-  return { total: Date.now() - t0, restored: Math.round(restored), drawn: Math.round(drawn) };
+  const stages = await page.evaluate(() => {
+    const nav = performance.getEntriesByType('navigation')[0] as PerformanceNavigationTiming | undefined;
+    const parts = nav ? [`page received ${Math.round(nav.responseEnd)}`, `scripts run ${Math.round(nav.domContentLoadedEventEnd)}`] : [];
+    for (const m of performance.getEntriesByType('mark')) {
+      if (m.name.startsWith('gapwise:')) parts.push(`${m.name.slice(8)} ${Math.round(m.startTime)}`);
+    }
+    return parts.join(', ');
+  });
+  return { total: Date.now() - t0, restored: Math.round(restored), drawn: Math.round(drawn), stages };
 }
 
-const timing = (t: { total: number; restored: number; drawn: number }) =>
-  `${t.total} ms from the reload to the surface drawn (page clock: session back at ${t.restored} ms, surface drawn at ${t.drawn} ms)`;
+const timing = (t: ReloadTiming) =>
+  `${t.total} ms from the reload to the surface drawn (page clock, ms: ${t.stages}; session back at ${t.restored}, surface drawn at ${t.drawn})`;
+
+/** The longest-task figure against the aim of no main-thread task over 100 ms (printed, not asserted: times depend on the machine). */
+const MAIN_THREAD_AIM_MS = 100;
+const longestText = (task: { longest: number; count: number }) =>
+  `longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms; ${task.longest <= MAIN_THREAD_AIM_MS ? 'within' : 'OVER'} the ${MAIN_THREAD_AIM_MS} ms aim)`;
 
 async function stepDone(page: Page, id: string): Promise<boolean> {
   return page.locator(`section[data-step=${id}]`).evaluate((el) => el.classList.contains('done'));
@@ -86,17 +107,8 @@ describe('Reload and failed loads', () => {
   let before: Record<string, unknown>;
 
   it('reload after fit, surface, realisations and suggested sites: everything back from what was saved, nothing recomputed, exports enabled', async () => {
-    w = await openPage(run.h);
+    w = await openDemo(run.h, { fit: 'reml', cv: true, surface: true });
     const { page } = w;
-    await page.click('[data-testid=load-demo]');
-    await page.waitForSelector('[data-testid=read-report]');
-    await openStep(page, 'structure');
-    await page.click('[data-testid=fit-button]');
-    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
-    await openStep(page, 'surface');
-    await page.click('[data-testid=compute-surface]');
-    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
     for (const [id, v] of [['#sim-count', '20'], ['#sim-seed', '5']] as const) {
       await page.fill(id, v);
       await page.locator(id).press('Enter');
@@ -198,9 +210,10 @@ describe('Main thread (figures only)', () => {
     await page.setInputFiles('#samples-file', path);
     await page.waitForSelector('[data-testid=source-name]:text-is("twenty-thousand.csv")', { timeout: WAIT });
     await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
-    await page.waitForTimeout(500);
+    // The dots are stamped and the autosave written (300 ms after the change) within this wait.
+    await page.waitForTimeout(1500);
     const task = await takeLongestTask(page);
-    figures.push(`20,000 rows read and shown: ${Date.now() - t0} ms; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    figures.push(`20,000 rows read and shown: ${Date.now() - t0} ms; ${longestText(task)}`);
     expect(await page.locator('[data-testid=rows-used]').innerText()).toBe('20,000');
     expectClean(x);
     await x.context.close();
@@ -215,7 +228,7 @@ describe('Main thread (figures only)', () => {
       await act();
       await page.waitForTimeout(300);
       const task = await takeLongestTask(page);
-      figures.push(`500 samples, ${what}: ${((Date.now() - t0) / 1000).toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+      figures.push(`500 samples, ${what}: ${((Date.now() - t0) / 1000).toFixed(1)} s; ${longestText(task)}`);
     };
     await step('read', async () => {
       await offerSamples(page, 'five-hundred.csv', Buffer.from(fiveHundredCsv(), 'utf8'));

@@ -15,6 +15,7 @@ import { emptySnapshot, newReadId, type SampleChoices, type SessionSnapshot, typ
 import { createAutosave, type Autosave } from './autosave.ts';
 import { RESULTS_VERSION, type SavedResults } from './saved-results.ts';
 import { LatestRun } from './latest.ts';
+import { nextTask } from './next-task.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/samples.ts';
@@ -783,22 +784,31 @@ export class Session {
    * saved session.
    */
   async restore(): Promise<boolean> {
+    // Marks on the page's clock (performance.mark) say where a reload spends its time; the browser
+    // test prints them.
+    mark('restore-start');
     const saved = await this.autosave.load();
+    mark('snapshot-read');
     let results: SavedResults | null = null;
     if (saved?.source) {
       if (!saved.readId) saved.readId = newReadId();
       results = await this.autosave.loadResults({ readId: saved.readId, fileName: saved.source.fileName });
+      mark('results-read');
     }
     if (saved) {
       this.s = saved;
       let intake: IntakeResult | null = null;
       if (results) {
+        // Unpacking the rows and showing everything are tasks of their own (see readWith).
+        await nextTask();
         try {
           intake = engine.unpackIntake(results.intake);
           this.rowsJson = results.intake.rowsJson;
         } catch {
           results = null;
         }
+        mark('intake-unpacked');
+        await nextTask();
       }
       if (intake) {
         this.takeIntake(intake);
@@ -811,6 +821,7 @@ export class Session {
     this.ready = true;
     if (saved && this.intake) {
       const back = results ? this.showResults(results) : { fit: false, surface: false };
+      mark('results-shown');
       if (this.s.structure.model) {
         if (this.s.surface.wanted && !back.surface) void this.computeSurface();
         // Bring back the comparison table; the chosen (and possibly edited) model is kept.
@@ -1032,8 +1043,13 @@ export class Session {
     const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
     try {
       const packed = await engine.readSamplesFile(file.text, options, run.signal);
+      // Taking the answer in, unpacking it and showing it are separate tasks: with many rows each is
+      // tens of ms, and together they held the page for over 100 ms.
+      await nextTask();
       if (!run.current()) return { intake: null, error: null, stale: true };
       const intake = engine.unpackIntake(packed);
+      await nextTask();
+      if (!run.current()) return { intake: null, error: null, stale: true };
       this.rowsJson = packed.rowsJson;
       return { intake, error: null, stale: false };
     } catch (e) {
@@ -1154,6 +1170,15 @@ function modelKey(model: CovarianceModel | null): string {
     return JSON.stringify(parseModel(plain));
   } catch {
     return JSON.stringify(plain);
+  }
+}
+
+/** A named point on the page's clock ("gapwise:" + name), for the browser tests to print. */
+function mark(name: string): void {
+  try {
+    performance.mark(`gapwise:${name}`);
+  } catch {
+    // No user timing here (some test environments): nothing to mark.
   }
 }
 
