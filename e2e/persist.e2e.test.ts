@@ -109,6 +109,8 @@ describe('Reload and failed loads', () => {
   it('reload after fit, surface, realisations and suggested sites: everything back from what was saved, nothing recomputed, exports enabled', async () => {
     w = await openDemo(run.h, { fit: 'reml', cv: true, surface: true });
     const { page } = w;
+    // A colour choice that is not the default, to see it come back.
+    await page.selectOption('#mean-colours', 'log');
     for (const [id, v] of [['#sim-count', '20'], ['#sim-seed', '5']] as const) {
       await page.fill(id, v);
       await page.locator(id).press('Enter');
@@ -145,6 +147,7 @@ describe('Reload and failed loads', () => {
     expect(await page.locator('[data-testid=candidate-table] tbody tr').count()).toBe(6);
     await openStep(page, 'surface');
     expect(await page.locator('[data-testid=sim-seed-used]').innerText()).toBe('5');
+    expect(await page.inputValue('#mean-colours'), 'colour scale choice').toBe('log');
     expect(await page.locator('[data-testid=realisation-canvas]').count()).toBe(4);
     await openStep(page, 'next');
     expect(await page.locator('[data-testid=next-table] tbody tr').count()).toBe(5);
@@ -194,6 +197,64 @@ describe('Reload and failed loads', () => {
     expect(await page.locator('[data-testid=source-name]').innerText()).toBe('lead-topsoil.csv');
     expectClean(w);
     await w.context.close();
+  }, LONG);
+});
+
+describe('A reading choice the file cannot be read with', () => {
+  it('leaves the samples as read before, with the error beside them', async () => {
+    const x = await openPage(run.h);
+    const { page } = x;
+    await offerSamples(page, 'five-hundred.csv', Buffer.from(fiveHundredCsv(), 'utf8'));
+    await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
+    const crsBefore = await page.locator('[data-testid=crs-current]').innerText();
+    const rows = await page.locator('[data-testid=rows-used]').innerText();
+    // Projected metres taken as longitude/latitude: every row is out of range, so the file cannot be read so.
+    const input = page.locator('#crs-picker');
+    await input.click();
+    await input.fill('4326');
+    await page.waitForSelector('#crs-picker-list [role=option]:has-text("EPSG:4326")');
+    await input.press('Enter');
+    await page.waitForSelector('[data-testid=choice-rejected]', { timeout: WAIT });
+    const message = await page.locator('[data-testid=choice-rejected]').innerText();
+    figures.push(`rejected reading choice: ${message.replace(/\s+/g, ' ').slice(0, 240)}`);
+    expect(message).toMatch(/coordinate system EPSG:4326 was not used/);
+    expect(message).toMatch(/still in use/);
+    expect(await page.locator('[data-testid=rows-used]').innerText()).toBe(rows);
+    expect(await page.locator('[data-testid=crs-current]').innerText()).toBe(crsBefore);
+    expect(await page.locator('[data-testid=intake-error]').count()).toBe(0);
+    expect(await page.locator('[data-testid=value-histogram]').count()).toBe(1);
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+});
+
+describe('A surface interrupted by a reload', () => {
+  it('is said to be interrupted after the reload, is not started again unasked, and can be computed again', async () => {
+    const x = await openDemo(run.h, { fit: 'wls' });
+    const { page } = x;
+    await openStep(page, 'surface');
+    // A fine grid, so the surface is still arriving when the page reloads.
+    const cell = Number((await page.locator('#cell-size').getAttribute('placeholder'))!.replace(/[^\d.]/g, ''));
+    await page.fill('#cell-size', String(cell / 6));
+    await page.locator('#cell-size').press('Enter');
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-progress]', { timeout: WAIT });
+    await page.waitForTimeout(800);
+    expect(await page.locator('[data-testid=surface-done]').count(), 'still computing at the reload').toBe(0);
+    await page.reload();
+    await page.waitForSelector('.app[data-ready=yes][data-restored=yes]');
+    await openStep(page, 'surface');
+    await page.waitForSelector('[data-testid=surface-interrupted]');
+    figures.push(`interrupted surface note: ${(await page.locator('[data-testid=surface-interrupted]').innerText()).replace(/\s+/g, ' ')}`);
+    await page.waitForTimeout(500);
+    expect((await engineRequests(page)).surfaceRows ?? 0, 'no surface started unasked').toBe(0);
+    await page.fill('#cell-size', String(cell));
+    await page.locator('#cell-size').press('Enter');
+    await page.click('[data-testid=recompute-interrupted]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    expect(await page.locator('[data-testid=surface-interrupted]').count()).toBe(0);
+    expectClean(x);
+    await x.context.close();
   }, LONG);
 });
 
