@@ -227,6 +227,8 @@ describe('Layout and numbers for people', () => {
         await page.fill('#ns-count', '6');
         await page.click('[data-testid=suggest-sites]');
         await page.waitForSelector('[data-testid=next-result][data-count="6"]', { timeout: WAIT });
+        // The run just started may replace the table shown: wait until it has finished.
+        await page.waitForSelector('[data-testid=suggest-sites]:enabled', { timeout: WAIT });
         await page.locator('[data-testid=next-table]').scrollIntoViewIfNeeded();
       }
       expect(await brokenWords(page, `#${id}-body`)).toEqual([]);
