@@ -2,8 +2,11 @@
  * Nothing lost on reload, nothing replaced by a file that fails: the demo through fit, surface,
  * realisations and suggested sites, then a reload that must show all of it again from what was saved
  * (same figures, no engine request, exports enabled); rejected samples and boundary files that leave
- * the work in use as it was, before and after a reload. Prints the time the reload took and the
- * longest main-thread tasks while reading 20,000 rows and at each step with 500 samples (figures only).
+ * the work in use as it was, before and after a reload; a reading choice the file cannot be read with
+ * that leaves the samples in use; a surface interrupted by a reload, named as such and not restarted
+ * unasked. Prints the time the reload took (with the app's marks on the page's clock) and the longest
+ * main-thread tasks while reading 20,000 rows and at each step with 500 samples, against the 100 ms
+ * aim (figures only: times are never asserted).
  */
 import { describe, expect, it } from 'vitest';
 import { mkdtempSync, writeFileSync } from 'node:fs';
