@@ -7,18 +7,11 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, computeSurface, shot, takeLongestTask } from './harness.ts';
 import { localBoundaryGeoJson, localGridCsv } from './files.ts';
 
 const run = useHarness('Gapwise contour-line figures');
 const figures = run.figures;
-
-async function computeSurface(page: Page): Promise<void> {
-  await openStep(page, 'surface');
-  await page.click('[data-testid=compute-surface]');
-  await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
-  await page.waitForSelector('[data-testid=surface-layer][data-complete=yes][data-layer=mean]', { timeout: WAIT, state: 'attached' });
-}
 
 interface Crossing {
   /** Points read along the action line. */
@@ -131,7 +124,7 @@ describe('Contour lines on the map', () => {
     await page.waitForSelector('.leaflet-boundary-pane path');
     await page.fill('#threshold', '80');
     await page.locator('#threshold').press('Enter');
-    await computeSurface(page);
+    await computeSurface(page, 'mean');
 
     const counts = await contoursOn(page);
     const levels = await page.evaluate(() => (window as unknown as { __gapwiseTest: { contourLines(): Array<{ level: number; action: boolean; lines: number }> | null } }).__gapwiseTest.contourLines());
@@ -156,18 +149,9 @@ describe('Contour lines on the map', () => {
   }, LONG);
 
   it('draws the demo\'s contour lines on the geographic map through the inverse projection, the action level where the surface crosses it, and redraws them for a new action level', async () => {
-    const w = await openPage(run.h);
+    const w = await openDemo(run.h, { viewport: { width: 1280, height: 800 }, log: true, fit: 'wls', surface: true });
     const { page } = w;
-    await page.setViewportSize({ width: 1280, height: 800 });
-    await page.click('[data-testid=load-demo]');
-    await page.waitForSelector('[data-testid=read-report]');
     expect(await page.locator('[data-testid=map]').getAttribute('data-planar')).toBe('no');
-    await page.locator('input[name=transform][value=log]').check();
-    await openStep(page, 'structure');
-    await page.selectOption('#fit-method', 'wls');
-    await page.click('[data-testid=fit-button]');
-    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    await computeSurface(page);
     const counts = await contoursOn(page);
     const levels = await page.evaluate(() => (window as unknown as { __gapwiseTest: { contourLines(): Array<{ level: number; action: boolean; lines: number }> | null } }).__gapwiseTest.contourLines());
     expect(levels!.filter((c) => c.action).map((c) => c.level)).toEqual([200]);
@@ -184,7 +168,7 @@ describe('Contour lines on the map', () => {
     // A new action level and a new surface: the bold line follows.
     await page.fill('#threshold', '100');
     await page.locator('#threshold').press('Enter');
-    await computeSurface(page);
+    await computeSurface(page, 'mean');
     await page.waitForFunction(() => (window as unknown as { __gapwiseTest: { contourLines(): Array<{ level: number; action: boolean }> | null } }).__gapwiseTest.contourLines()?.find((c) => c.action)?.level === 100, undefined, { timeout: WAIT });
     const y = await readAcrossActionLine(page);
     expect(y.level).toBe(100);

@@ -195,3 +195,52 @@ export async function chooseCrs(page: Page, code: string): Promise<void> {
   await input.press('Enter');
   await page.waitForSelector(`[data-testid=crs-current]:text-is("${code}")`);
 }
+
+/** How far openDemo takes the invented demo. */
+export interface DemoOptions {
+  /** Viewport of the new page (default openPage's 1360 × 860). */
+  viewport?: { width: number; height: number };
+  /** Choose the log transform before fitting. */
+  log?: boolean;
+  /** Fit the six candidates with this method ('reml', the app's default, or 'wls'); absent: stop after reading. */
+  fit?: 'reml' | 'wls';
+  /** Also wait for the cross-validation figures after the fit. */
+  cv?: boolean;
+  /** After the fit, compute the surface and wait until the map has drawn it. */
+  surface?: boolean;
+}
+
+/**
+ * A fresh page with the invented demo read (samples, boundary, action level) and, on request, the log
+ * transform chosen, the candidates fitted and the surface computed and drawn: the start most browser
+ * tests share. Resolves with the watched page.
+ */
+export async function openDemo(h: Harness, options: DemoOptions = {}): Promise<Watched> {
+  const w = await openPage(h);
+  const { page } = w;
+  if (options.viewport) await page.setViewportSize(options.viewport);
+  await page.click('[data-testid=load-demo]');
+  await page.waitForSelector('[data-testid=read-report]');
+  if (options.log) await page.locator('input[name=transform][value=log]').check();
+  if (options.fit) {
+    await openStep(page, 'structure');
+    if (options.fit !== 'reml') await page.selectOption('#fit-method', options.fit);
+    await page.click('[data-testid=fit-button]');
+    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
+    if (options.cv) await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
+    if (options.surface) await computeSurface(page);
+  }
+  return w;
+}
+
+/**
+ * Opens the Surface step, computes the surface and waits until it is done and drawn in full (as
+ * `layer`, e.g. 'mean', when given).
+ */
+export async function computeSurface(page: Page, layer?: string): Promise<void> {
+  await openStep(page, 'surface');
+  await page.click('[data-testid=compute-surface]');
+  await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+  const drawn = `[data-testid=surface-layer][data-complete=yes]${layer ? `[data-layer=${layer}]` : ''}`;
+  await page.waitForSelector(drawn, { timeout: WAIT, state: 'attached' });
+}

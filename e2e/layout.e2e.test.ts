@@ -42,6 +42,15 @@ async function cellTexts(page: Page, selector: string): Promise<string[]> {
   return page.locator(selector).allInnerTexts();
 }
 
+/** Samples whose marker lies outside the map's box (after the map settled), by id. */
+async function samplesOutsideMap(page: Page): Promise<string[]> {
+  await page.waitForTimeout(300);
+  const box = (await page.locator('[data-testid=map]').boundingBox())!;
+  const points = await page.evaluate(() => (window as unknown as { __gapwiseTest: { samplePoints(): Array<{ id: string; pageX: number; pageY: number }> } }).__gapwiseTest.samplePoints());
+  expect(points.length).toBeGreaterThan(100);
+  return points.filter((p) => p.pageX < box.x || p.pageX > box.x + box.width || p.pageY < box.y || p.pageY > box.y + box.height).map((p) => p.id);
+}
+
 async function cautionCount(page: Page, stepId: string): Promise<number> {
   return page.locator(`#${stepId}-body [data-caution]`).count();
 }
@@ -184,6 +193,8 @@ describe('Layout and numbers for people', () => {
     await page.mouse.up();
     const after = (await column.boundingBox())!.width;
     expect(after).toBeGreaterThan(before + 100);
+    // The map, 120 px narrower, fitted the samples again: every one is still inside it.
+    expect(await samplesOutsideMap(page)).toEqual([]);
     await page.reload();
     await page.waitForSelector('.app[data-ready="yes"]');
     expect(Math.abs((await column.boundingBox())!.width - after)).toBeLessThan(2);
@@ -216,6 +227,8 @@ describe('Layout and numbers for people', () => {
         await page.fill('#ns-count', '6');
         await page.click('[data-testid=suggest-sites]');
         await page.waitForSelector('[data-testid=next-result][data-count="6"]', { timeout: WAIT });
+        // The run just started may replace the table shown: wait until it has finished.
+        await page.waitForSelector('[data-testid=suggest-sites]:enabled', { timeout: WAIT });
         await page.locator('[data-testid=next-table]').scrollIntoViewIfNeeded();
       }
       expect(await brokenWords(page, `#${id}-body`)).toEqual([]);

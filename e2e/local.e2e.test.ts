@@ -10,7 +10,7 @@
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import type { Download, Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, shot, pixelAt, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, useHarness, openPage, openDemo, computeSurface, shot, pixelAt, type Watched } from './harness.ts';
 import { localBoundaryGeoJson, localGridCsv } from './files.ts';
 import { buildLut } from '../src/ui/map/colour-scales.ts';
 
@@ -48,13 +48,6 @@ function valueOfColour(rgb: number[], scale: { domain: [number, number]; steps: 
   const value = Math.exp(Math.log(lo) + t * (Math.log(hi) - Math.log(lo)));
   // One table step at this value, on the data scale.
   return { value, step: value * (Math.log(hi) - Math.log(lo)) / (scale.steps - 1) };
-}
-
-async function computeSurface(page: Page): Promise<void> {
-  await openStep(page, 'surface');
-  await page.click('[data-testid=compute-surface]');
-  await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
-  await page.waitForSelector('[data-testid=surface-layer][data-complete=yes]', { timeout: WAIT, state: 'attached' });
 }
 
 describe('Local coordinates in the browser', () => {
@@ -258,17 +251,8 @@ describe('Local coordinates in the browser', () => {
   }, LONG);
 
   it('colours the demo (a log model) in log steps by default, with the action level on the mean legend', async () => {
-    const d = await openPage(run.h);
+    const d = await openDemo(run.h, { viewport: { width: 1280, height: 800 }, log: true, fit: 'wls', surface: true });
     const { page } = d;
-    await page.setViewportSize({ width: 1280, height: 800 });
-    await page.click('[data-testid=load-demo]');
-    await page.waitForSelector('[data-testid=read-report]');
-    await page.locator('input[name=transform][value=log]').check();
-    await openStep(page, 'structure');
-    await page.selectOption('#fit-method', 'wls');
-    await page.click('[data-testid=fit-button]');
-    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    await computeSurface(page);
     const scale = (await hook(page, (h) => h.meanScale()))!;
     expect(scale.log).toBe(true);
     expect(await page.locator('[data-testid=legend-level]').getAttribute('data-value')).toBe('200');

@@ -2,15 +2,18 @@
  * Nothing lost on reload, nothing replaced by a file that fails: the demo through fit, surface,
  * realisations and suggested sites, then a reload that must show all of it again from what was saved
  * (same figures, no engine request, exports enabled); rejected samples and boundary files that leave
- * the work in use as it was, before and after a reload. Prints the time the reload took and the
- * longest main-thread tasks while reading 20,000 rows and at each step with 500 samples (figures only).
+ * the work in use as it was, before and after a reload; a reading choice the file cannot be read with
+ * that leaves the samples in use; a surface interrupted by a reload, named as such and not restarted
+ * unasked. Prints the time the reload took (with the app's marks on the page's clock) and the longest
+ * main-thread tasks while reading 20,000 rows and at each step with 500 samples, against the 100 ms
+ * aim (figures only: times are never asserted).
  */
 import { describe, expect, it } from 'vitest';
 import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
 import { fiveHundredCsv } from './files.ts';
 import { createRandom } from '../src/core/random.ts';
 
@@ -42,16 +45,37 @@ async function saved(page: Page): Promise<void> {
  * Reloads; returns ms from the reload until the session is back with the surface drawn (`total`),
  * and the page's own clock (from navigation start) when it was restored and when the surface was drawn.
  */
-async function reloadAndTime(page: Page): Promise<{ total: number; restored: number; drawn: number }> {
+interface ReloadTiming {
+  total: number;
+  restored: number;
+  drawn: number;
+  /** Where the time went on the page's clock: the page's own load, then the app's marks (gapwise:*). */
+  stages: string;
+}
+
+async function reloadAndTime(page: Page): Promise<ReloadTiming> {
   const t0 = Date.now();
   await page.reload();
   const restored = await (await page.waitForFunction(() => document.querySelector('.app[data-ready=yes][data-restored=yes]') ? performance.now() : 0)).jsonValue();
   const drawn = await (await page.waitForFunction(() => document.querySelector('[data-testid=surface-layer][data-complete=yes]') ? performance.now() : 0, null, { timeout: WAIT })).jsonValue();
-  return { total: Date.now() - t0, restored: Math.round(restored), drawn: Math.round(drawn) };
+  const stages = await page.evaluate(() => {
+    const nav = performance.getEntriesByType('navigation')[0] as PerformanceNavigationTiming | undefined;
+    const parts = nav ? [`page received ${Math.round(nav.responseEnd)}`, `scripts run ${Math.round(nav.domContentLoadedEventEnd)}`] : [];
+    for (const m of performance.getEntriesByType('mark')) {
+      if (m.name.startsWith('gapwise:')) parts.push(`${m.name.slice(8)} ${Math.round(m.startTime)}`);
+    }
+    return parts.join(', ');
+  });
+  return { total: Date.now() - t0, restored: Math.round(restored), drawn: Math.round(drawn), stages };
 }
 
-const timing = (t: { total: number; restored: number; drawn: number }) =>
-  `${t.total} ms from the reload to the surface drawn (page clock: session back at ${t.restored} ms, surface drawn at ${t.drawn} ms)`;
+const timing = (t: ReloadTiming) =>
+  `${t.total} ms from the reload to the surface drawn (page clock, ms: ${t.stages}; session back at ${t.restored}, surface drawn at ${t.drawn})`;
+
+/** The longest-task figure against the aim of no main-thread task over 100 ms (printed, not asserted: times depend on the machine). */
+const MAIN_THREAD_AIM_MS = 100;
+const longestText = (task: { longest: number; count: number }) =>
+  `longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms; ${task.longest <= MAIN_THREAD_AIM_MS ? 'within' : 'OVER'} the ${MAIN_THREAD_AIM_MS} ms aim)`;
 
 async function stepDone(page: Page, id: string): Promise<boolean> {
   return page.locator(`section[data-step=${id}]`).evaluate((el) => el.classList.contains('done'));
@@ -86,17 +110,10 @@ describe('Reload and failed loads', () => {
   let before: Record<string, unknown>;
 
   it('reload after fit, surface, realisations and suggested sites: everything back from what was saved, nothing recomputed, exports enabled', async () => {
-    w = await openPage(run.h);
+    w = await openDemo(run.h, { fit: 'reml', cv: true, surface: true });
     const { page } = w;
-    await page.click('[data-testid=load-demo]');
-    await page.waitForSelector('[data-testid=read-report]');
-    await openStep(page, 'structure');
-    await page.click('[data-testid=fit-button]');
-    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    await page.waitForSelector('[data-testid=cv-figures]', { timeout: WAIT });
-    await openStep(page, 'surface');
-    await page.click('[data-testid=compute-surface]');
-    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    // A colour choice that is not the default, to see it come back.
+    await page.selectOption('#mean-colours', 'log');
     for (const [id, v] of [['#sim-count', '20'], ['#sim-seed', '5']] as const) {
       await page.fill(id, v);
       await page.locator(id).press('Enter');
@@ -133,6 +150,7 @@ describe('Reload and failed loads', () => {
     expect(await page.locator('[data-testid=candidate-table] tbody tr').count()).toBe(6);
     await openStep(page, 'surface');
     expect(await page.locator('[data-testid=sim-seed-used]').innerText()).toBe('5');
+    expect(await page.inputValue('#mean-colours'), 'colour scale choice').toBe('log');
     expect(await page.locator('[data-testid=realisation-canvas]').count()).toBe(4);
     await openStep(page, 'next');
     expect(await page.locator('[data-testid=next-table] tbody tr').count()).toBe(5);
@@ -185,6 +203,64 @@ describe('Reload and failed loads', () => {
   }, LONG);
 });
 
+describe('A reading choice the file cannot be read with', () => {
+  it('leaves the samples as read before, with the error beside them', async () => {
+    const x = await openPage(run.h);
+    const { page } = x;
+    await offerSamples(page, 'five-hundred.csv', Buffer.from(fiveHundredCsv(), 'utf8'));
+    await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
+    const crsBefore = await page.locator('[data-testid=crs-current]').innerText();
+    const rows = await page.locator('[data-testid=rows-used]').innerText();
+    // Projected metres taken as longitude/latitude: every row is out of range, so the file cannot be read so.
+    const input = page.locator('#crs-picker');
+    await input.click();
+    await input.fill('4326');
+    await page.waitForSelector('#crs-picker-list [role=option]:has-text("EPSG:4326")');
+    await input.press('Enter');
+    await page.waitForSelector('[data-testid=choice-rejected]', { timeout: WAIT });
+    const message = await page.locator('[data-testid=choice-rejected]').innerText();
+    figures.push(`rejected reading choice: ${message.replace(/\s+/g, ' ').slice(0, 240)}`);
+    expect(message).toMatch(/coordinate system EPSG:4326 was not used/);
+    expect(message).toMatch(/still in use/);
+    expect(await page.locator('[data-testid=rows-used]').innerText()).toBe(rows);
+    expect(await page.locator('[data-testid=crs-current]').innerText()).toBe(crsBefore);
+    expect(await page.locator('[data-testid=intake-error]').count()).toBe(0);
+    expect(await page.locator('[data-testid=value-histogram]').count()).toBe(1);
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+});
+
+describe('A surface interrupted by a reload', () => {
+  it('is said to be interrupted after the reload, is not started again unasked, and can be computed again', async () => {
+    const x = await openDemo(run.h, { fit: 'wls' });
+    const { page } = x;
+    await openStep(page, 'surface');
+    // A fine grid, so the surface is still arriving when the page reloads.
+    const cell = Number((await page.locator('#cell-size').getAttribute('placeholder'))!.replace(/[^\d.]/g, ''));
+    await page.fill('#cell-size', String(cell / 6));
+    await page.locator('#cell-size').press('Enter');
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-progress]', { timeout: WAIT });
+    await page.waitForTimeout(800);
+    expect(await page.locator('[data-testid=surface-done]').count(), 'still computing at the reload').toBe(0);
+    await page.reload();
+    await page.waitForSelector('.app[data-ready=yes][data-restored=yes]');
+    await openStep(page, 'surface');
+    await page.waitForSelector('[data-testid=surface-interrupted]');
+    figures.push(`interrupted surface note: ${(await page.locator('[data-testid=surface-interrupted]').innerText()).replace(/\s+/g, ' ')}`);
+    await page.waitForTimeout(500);
+    expect((await engineRequests(page)).surfaceRows ?? 0, 'no surface started unasked').toBe(0);
+    await page.fill('#cell-size', String(cell));
+    await page.locator('#cell-size').press('Enter');
+    await page.click('[data-testid=recompute-interrupted]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    expect(await page.locator('[data-testid=surface-interrupted]').count()).toBe(0);
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+});
+
 describe('Main thread (figures only)', () => {
   it('reads 20,000 rows in a worker: longest main-thread task printed', async () => {
     const x = await openPage(run.h);
@@ -198,9 +274,10 @@ describe('Main thread (figures only)', () => {
     await page.setInputFiles('#samples-file', path);
     await page.waitForSelector('[data-testid=source-name]:text-is("twenty-thousand.csv")', { timeout: WAIT });
     await page.waitForSelector('[data-testid=read-report]', { timeout: WAIT });
-    await page.waitForTimeout(500);
+    // The dots are stamped and the autosave written (300 ms after the change) within this wait.
+    await page.waitForTimeout(1500);
     const task = await takeLongestTask(page);
-    figures.push(`20,000 rows read and shown: ${Date.now() - t0} ms; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+    figures.push(`20,000 rows read and shown: ${Date.now() - t0} ms; ${longestText(task)}`);
     expect(await page.locator('[data-testid=rows-used]').innerText()).toBe('20,000');
     expectClean(x);
     await x.context.close();
@@ -215,7 +292,7 @@ describe('Main thread (figures only)', () => {
       await act();
       await page.waitForTimeout(300);
       const task = await takeLongestTask(page);
-      figures.push(`500 samples, ${what}: ${((Date.now() - t0) / 1000).toFixed(1)} s; longest main-thread task ${task.longest.toFixed(0)} ms (${task.count} over 50 ms)`);
+      figures.push(`500 samples, ${what}: ${((Date.now() - t0) / 1000).toFixed(1)} s; ${longestText(task)}`);
     };
     await step('read', async () => {
       await offerSamples(page, 'five-hundred.csv', Buffer.from(fiveHundredCsv(), 'utf8'));

@@ -10,7 +10,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../src/cli/main.ts';
 import type { Download, Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openPage, shot, type Harness, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, startHarness, openDemo, shot, type Harness, type Watched } from './harness.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION } from '../src/io/project.ts';
 
 let h: Harness;
@@ -18,7 +18,6 @@ let w: Watched;
 
 beforeAll(async () => {
   h = await startHarness();
-  w = await openPage(h);
 });
 
 afterAll(async () => {
@@ -52,15 +51,8 @@ async function markerNumbers(page: Page): Promise<string[]> {
 
 describe('Next samples and Report steps', () => {
   it('NextSamplesPanel runs a variance and a decision design on the demo and marks the sites', { timeout: LONG }, async () => {
+    w = await openDemo(h, { fit: 'reml', surface: true });
     const { page } = w;
-    await page.click('[data-testid=load-demo]');
-    await page.waitForSelector('[data-testid=read-report]');
-    await openStep(page, 'structure');
-    await page.click('[data-testid=fit-button]');
-    await page.waitForSelector('[data-testid=candidate-table][data-fit-status=done]', { timeout: WAIT });
-    await openStep(page, 'surface');
-    await page.click('[data-testid=compute-surface]');
-    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
 
     await openStep(page, 'next');
     expect(await page.locator('#next-body [data-caution]').allInnerTexts()).toContain(CAUTION);

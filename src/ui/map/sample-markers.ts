@@ -1,16 +1,17 @@
 /**
  * SampleMarkers: one Leaflet circle marker per sample (for data sets small enough that a marker each
- * is affordable; larger ones use SamplePointsLayer), placed in slices so that a few hundred samples do
- * not hold the page in one long task. The first slice is placed at once (a small file is complete as
- * soon as `build` returns); the rest follow, one slice per task. Each marker is created in its final
+ * is affordable; larger ones use SamplePointsLayer), placed in slices of at most MARKER_SLICE_MS so
+ * that a few hundred samples do not hold the page in one long task. The first slice is placed in the
+ * task after `build` (which runs inside whatever task changed the samples, often a long one already);
+ * the rest follow, one slice per task. Each marker is created in its final
  * colour, and a colour change rewrites only the fill of the markers whose colour changed (a full
  * restyle sets about ten attributes per path). The selected sample is drawn larger with a dark ring,
  * also when its marker arrives in a later slice. Each path carries data-sample-index and data-sample-id.
  */
 import L from 'leaflet';
 
-/** Markers placed per task. */
-export const MARKER_SLICE = 200;
+/** Time spent placing markers in one task before the rest waits for the next one, ms. */
+export const MARKER_SLICE_MS = 20;
 
 export const BASE_STYLE = { radius: 5, weight: 1.2, color: '#1f2b33' };
 export const SELECTED_STYLE = { radius: 8, weight: 3, color: '#000000' };
@@ -36,7 +37,7 @@ export class SampleMarkers {
     this.selectedMarker = null;
   }
 
-  /** Places one marker per sample: the first slice now, the rest one slice per task. */
+  /** Places one marker per sample, one slice per task from the next task on. */
   build(lat: ArrayLike<number>, lon: ArrayLike<number>, ids: string[], colours: string[], selected: number | null): void {
     this.clear();
     this.lat = lat;
@@ -49,13 +50,17 @@ export class SampleMarkers {
     const slice = (): void => {
       if (generation !== this.generation) return;
       const from = this.markers.length;
-      const to = Math.min(n, from + MARKER_SLICE);
-      for (let i = from; i < to; i++) this.place(i);
+      const until = performance.now() + MARKER_SLICE_MS;
+      let to = from;
+      while (to < n) {
+        this.place(to++);
+        if ((to - from) % 16 === 0 && performance.now() >= until) break;
+      }
       if (this.selected !== null && this.selected >= from && this.selected < to) this.highlight(this.selected);
       else this.selectedMarker?.bringToFront();
       if (to < n) setTimeout(slice, 0);
     };
-    slice();
+    setTimeout(slice, 0);
   }
 
   private place(i: number): void {

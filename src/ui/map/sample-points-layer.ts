@@ -1,8 +1,9 @@
 /**
  * SamplePointsLayer: many samples drawn as dots on one canvas, for data sets where a Leaflet marker
  * (an object, a path and event handlers) per sample would stall the page. The canvas covers the map
- * view; after every move or zoom the dots are projected (latLngToContainerPoint) and drawn again, at
- * most once per animation frame; positions are projected again only when the view changed, and each
+ * view; after every move or zoom the dots are placed again (each point's position at scale 1 is
+ * projected once per point set, then scaled to the zoom) and drawn again, at most once per task;
+ * positions are placed again only when the view changed, and each
  * dot is stamped from a pre-drawn sprite of its colour, a few tens of ms of stamping per task so that
  * 20,000 dots do not hold the page (the finished canvas is the same as drawn in one go). It hides
  * during zoom animations (Leaflet's 'leaflet-zoom-hide'). A click picks the nearest dot within a few pixels (one pass over the
@@ -43,6 +44,7 @@ export class SamplePointsLayer extends L.Layer {
   setPoints(lat: ArrayLike<number>, lon: ArrayLike<number>, colours: string[]): this {
     this.lat = lat;
     this.lon = lon;
+    this.unitFor = null;
     this.projectedFor = '';
     this.colours = colours;
     this.scheduleDraw();
@@ -61,17 +63,21 @@ export class SamplePointsLayer extends L.Layer {
     return this;
   }
 
-  private frame: number | null = null;
+  private frame: ReturnType<typeof setTimeout> | null = null;
   /** Bumped by each drawing: the remaining slices of an earlier one stop. */
   private drawing = 0;
 
-  /** Draws once in the next animation frame, however many changes and map events come before it. */
+  /**
+   * Draws once in a coming task, however many changes and map events come before it. A timer, not an
+   * animation frame: work in a frame callback shares its task with the page's own painting of the
+   * canvas, which made one long task of the two.
+   */
   scheduleDraw(): void {
     if (this.frame !== null) return;
-    this.frame = L.Util.requestAnimFrame(() => {
+    this.frame = setTimeout(() => {
       this.frame = null;
       this.draw();
-    });
+    }, 0);
   }
 
   /** Called with the index of a clicked sample. */
@@ -99,7 +105,7 @@ export class SamplePointsLayer extends L.Layer {
   override onRemove(map: L.Map): this {
     map.off('moveend zoomend resize viewreset', this.scheduleDraw, this);
     map.off('click', this.onClick, this);
-    if (this.frame !== null) L.Util.cancelAnimFrame(this.frame);
+    if (this.frame !== null) clearTimeout(this.frame);
     this.frame = null;
     this.drawing++;
     this.canvas?.remove();
@@ -127,23 +133,57 @@ export class SamplePointsLayer extends L.Layer {
   /** The view the positions were projected for (container size, pixel origin, zoom), and the point count. */
   private projectedFor = '';
 
-  /** Container-pixel positions of every dot, recomputed only when the view or the points change. */
+  /**
+   * Each point's map position at scale 1 (the CRS's pixel position at zoom 0 over its scale there: a
+   * projection then a linear transformation), kept for the map's CRS it was computed with: at zoom z a point's pixel is these times crs.scale(z), so a new
+   * view costs a multiply and a round per point instead of a projection (latLngToContainerPoint).
+   */
+  private ux = new Float64Array(0);
+  private uy = new Float64Array(0);
+  private unitFor: L.CRS | null = null;
+
+  private unitPositions(crs: L.CRS): void {
+    if (this.unitFor === crs && this.ux.length === this.lat.length) return;
+    const n = this.lat.length;
+    this.ux = new Float64Array(n);
+    this.uy = new Float64Array(n);
+    const s0 = crs.scale(0);
+    for (let i = 0; i < n; i++) {
+      const p = crs.latLngToPoint(L.latLng(this.lat[i], this.lon[i]), 0);
+      this.ux[i] = p.x / s0;
+      this.uy[i] = p.y / s0;
+    }
+    this.unitFor = crs;
+  }
+
+  /**
+   * Container-pixel positions of every dot (as latLngToContainerPoint gives them: the projected pixel
+   * rounded, less the pixel origin, plus the map pane's offset), recomputed only when the view or the
+   * points change.
+   */
   private project(map: L.Map, size: L.Point, radius: number): void {
     const n = this.lat.length;
     const origin = map.getPixelOrigin();
     const pane = map.containerPointToLayerPoint([0, 0]);
-    const key = `${size.x}x${size.y}|${map.getZoom()}|${origin.x},${origin.y}|${pane.x},${pane.y}|${n}`;
+    const zoom = map.getZoom();
+    const key = `${size.x}x${size.y}|${zoom}|${origin.x},${origin.y}|${pane.x},${pane.y}|${n}`;
     if (key === this.projectedFor && this.px.length === n) return;
     this.projectedFor = key;
     if (this.px.length !== n) {
       this.px = new Float32Array(n);
       this.py = new Float32Array(n);
     }
+    const crs = map.options.crs ?? L.CRS.EPSG3857;
+    this.unitPositions(crs);
+    const scale = crs.scale(zoom);
+    const dx = origin.x + pane.x;
+    const dy = origin.y + pane.y;
     for (let i = 0; i < n; i++) {
-      const p = map.latLngToContainerPoint([this.lat[i], this.lon[i]]);
-      const inside = p.x >= -radius && p.y >= -radius && p.x <= size.x + radius && p.y <= size.y + radius;
-      this.px[i] = inside ? p.x : NaN;
-      this.py[i] = inside ? p.y : NaN;
+      const x = Math.round(this.ux[i] * scale) - dx;
+      const y = Math.round(this.uy[i] * scale) - dy;
+      const inside = x >= -radius && y >= -radius && x <= size.x + radius && y <= size.y + radius;
+      this.px[i] = inside ? x : NaN;
+      this.py[i] = inside ? y : NaN;
     }
   }
 
@@ -190,6 +230,13 @@ export class SamplePointsLayer extends L.Layer {
     const ctx = c.getContext('2d');
     if (!ctx) return;
     const radius = this.options.radius ?? 3;
+    const crs = map.options.crs ?? L.CRS.EPSG3857;
+    if (this.unitFor !== crs || this.ux.length !== this.lat.length) {
+      // New points: their positions at scale 1 in this task, the drawing in the next.
+      this.unitPositions(crs);
+      this.scheduleDraw();
+      return;
+    }
     this.project(map, size, radius);
     ctx.setTransform(1, 0, 0, 1, 0, 0);
     ctx.clearRect(0, 0, w, h);

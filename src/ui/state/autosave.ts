@@ -29,7 +29,10 @@ export interface Autosave {
   schedule(snapshot: SessionSnapshot): void;
   /** Writes any pending snapshot now. */
   flush(): Promise<void>;
-  /** The stored snapshot, or null when there is none or it cannot be read. */
+  /**
+   * The stored snapshot, or null when there is none or it cannot be read. Also starts reading the
+   * stored results, which the next `loadResults` takes (so a reload waits for one read, not two).
+   */
   load(): Promise<SessionSnapshot | null>;
   /** Schedules a save of the computed results (null deletes them); a later call within the delay replaces it. */
   scheduleResults(results: SavedResults | null): void;
@@ -58,6 +61,8 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
   let timer: ReturnType<typeof setTimeout> | null = null;
   let saves = 0;
   let chain: Promise<void> = Promise.resolve();
+  /** The stored results, asked for together with the snapshot by `load` (one wait for both on a reload). */
+  let resultsAsked: Promise<unknown> | null = null;
 
   const write = (): Promise<void> => {
     if (timer !== null) {
@@ -98,14 +103,19 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
     },
     flush: write,
     async loadResults(expect) {
+      const asked = resultsAsked ?? store.get(RESULTS_KEY);
+      resultsAsked = null;
       try {
-        return parseResults(await store.get(RESULTS_KEY), expect);
+        return parseResults(await asked, expect);
       } catch (e) {
         options.onError?.(e);
         return null;
       }
     },
     async load() {
+      // The results are asked for at once too: a reload wants both, and the two reads overlap.
+      resultsAsked = store.get(RESULTS_KEY);
+      resultsAsked.catch(() => undefined);
       try {
         const v = await store.get(AUTOSAVE_KEY);
         return typeof v === 'string' ? deserialiseSnapshot(v) : null;
@@ -115,6 +125,7 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
       }
     },
     async clear() {
+      resultsAsked = null;
       pending = null;
       pendingResults = undefined;
       if (timer !== null) clearTimeout(timer);

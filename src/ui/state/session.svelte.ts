@@ -15,6 +15,7 @@ import { emptySnapshot, newReadId, type SampleChoices, type SessionSnapshot, typ
 import { createAutosave, type Autosave } from './autosave.ts';
 import { RESULTS_VERSION, type SavedResults } from './saved-results.ts';
 import { LatestRun } from './latest.ts';
+import { nextTask } from './next-task.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/samples.ts';
@@ -397,8 +398,19 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
-  /** Colours of the mean layer: 'auto' spaces them by ln(value) for log models, evenly otherwise. */
-  meanColours = $state<'auto' | 'linear' | 'log'>('auto');
+  /**
+   * True after a reload when a surface was being computed as the page closed: it was not stored (a
+   * surface still arriving never is), so the Surface step says so and offers to compute it again.
+   */
+  surfaceInterrupted = $state(false);
+  /** Colours of the mean layer: 'auto' spaces them by ln(value) for log models, evenly otherwise (saved). */
+  get meanColours(): 'auto' | 'linear' | 'log' {
+    return this.s.surface.colours;
+  }
+
+  set meanColours(v: 'auto' | 'linear' | 'log') {
+    this.s.surface.colours = v;
+  }
 
   /** True when the mean layer's colours are spaced by ln(value). */
   get logColours(): boolean {
@@ -455,6 +467,8 @@ export class Session {
     if (!intake || !model || !plan) return;
     const run = this.surfaceRuns.begin();
     this.s.surface.wanted = true;
+    this.s.surface.running = true;
+    this.surfaceInterrupted = false;
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const key = this.surfaceKey;
@@ -487,6 +501,7 @@ export class Session {
         (merged) => { if (run.current()) this.surface = view(merged, false, ++bands); },
       );
       if (!run.current()) return;
+      this.s.surface.running = false;
       const ms = performance.now() - t0;
       this.surface = view(result, true, ++bands, ms);
       this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, ms };
@@ -496,6 +511,7 @@ export class Session {
       }
     } catch (e) {
       if (!run.current()) return;
+      this.s.surface.running = false;
       const err = showError(e);
       if (err.code === 'cancelled') this.surface = null;
       this.surfaceTask = { ...this.surfaceTask, status: err.code === 'cancelled' ? 'cancelled' : 'error', error: err, ms: performance.now() - t0 };
@@ -637,6 +653,7 @@ export class Session {
     this.surfaceRuns.cancel();
     this.surface = null;
     this.s.surface.wanted = false;
+    this.s.surface.running = false;
     this.surfaceTask = { ...this.surfaceTask, status: 'cancelled' };
   }
 
@@ -783,22 +800,35 @@ export class Session {
    * saved session.
    */
   async restore(): Promise<boolean> {
+    // Marks on the page's clock (performance.mark) say where a reload spends its time; the browser
+    // test prints them.
+    mark('restore-start');
     const saved = await this.autosave.load();
+    mark('snapshot-read');
     let results: SavedResults | null = null;
     if (saved?.source) {
       if (!saved.readId) saved.readId = newReadId();
       results = await this.autosave.loadResults({ readId: saved.readId, fileName: saved.source.fileName });
+      mark('results-read');
     }
     if (saved) {
+      // A surface still arriving when the page closed was not stored: say so rather than start it again unasked.
+      const interrupted = saved.surface.running;
+      saved.surface.running = false;
       this.s = saved;
+      this.surfaceInterrupted = interrupted;
       let intake: IntakeResult | null = null;
       if (results) {
+        // Unpacking the rows and showing everything are tasks of their own (see readWith).
+        await nextTask();
         try {
           intake = engine.unpackIntake(results.intake);
           this.rowsJson = results.intake.rowsJson;
         } catch {
           results = null;
         }
+        mark('intake-unpacked');
+        await nextTask();
       }
       if (intake) {
         this.takeIntake(intake);
@@ -811,8 +841,9 @@ export class Session {
     this.ready = true;
     if (saved && this.intake) {
       const back = results ? this.showResults(results) : { fit: false, surface: false };
+      mark('results-shown');
       if (this.s.structure.model) {
-        if (this.s.surface.wanted && !back.surface) void this.computeSurface();
+        if (this.s.surface.wanted && !back.surface && !this.surfaceInterrupted) void this.computeSurface();
         // Bring back the comparison table; the chosen (and possibly edited) model is kept.
         if (!back.fit) void this.fit();
       }
@@ -871,6 +902,7 @@ export class Session {
     this.boundaryError = null;
     this.rejectedSource = null;
     this.rejectedBoundary = null;
+    this.rejectedChoice = null;
     this.selected = null;
     this.dropResults();
     if (suggestions.session === this) suggestions.set(null);
@@ -902,6 +934,8 @@ export class Session {
     this.surface = null;
     this.kriged = null;
     this.surfaceTask = idleTask();
+    this.s.surface.running = false;
+    this.surfaceInterrupted = false;
     this.onSamplesChanged?.();
   }
 
@@ -986,24 +1020,51 @@ export class Session {
     return null;
   }
 
-  /** Changes one reading choice (value column, CRS, non-detect rule) and reads the file again. */
-  setReadChoice(choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): Promise<void> {
+  /**
+   * Changes one reading choice (value column, CRS, non-detect rule) and reads the file again. The
+   * choice is taken only when the file reads with it: a choice the file cannot be read with (e.g. a
+   * value column with no usable row) leaves the samples, the choices and every result as they were,
+   * and is named in `rejectedChoice` beside them.
+   */
+  async setReadChoice(choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): Promise<void> {
+    const src = this.s.source;
+    if (!src) return;
+    const next = { ...($state.snapshot(this.s.samples) as SampleChoices) };
     if ('value' in choice) {
-      this.s.samples.value = choice.value;
-      this.s.samples.unit = '';
+      next.value = choice.value;
+      next.unit = '';
+    }
+    if ('crs' in choice) next.crs = choice.crs;
+    if ('nonDetect' in choice) next.nonDetect = choice.nonDetect;
+    const got = await this.readWith(src, next);
+    if (got.stale) return;
+    if (!got.intake) {
+      if (this.intake) {
+        this.rejectedChoice = { what: choiceText(choice), error: got.error! };
+      } else {
+        // Nothing in use to keep (the file did not read before either): the error takes the samples' place.
+        this.s.samples = next;
+        this.failIntake(got.error);
+      }
+      return;
+    }
+    this.rejectedChoice = null;
+    this.s.samples = next;
+    if ('value' in choice) {
       this.s.structure.model = null;
       this.s.structure.chosen = '';
       this.s.surface.threshold = null;
     }
-    if ('crs' in choice) this.s.samples.crs = choice.crs;
-    if ('nonDetect' in choice) this.s.samples.nonDetect = choice.nonDetect;
-    return this.readSource();
+    this.takeNewReading(got.intake);
   }
+
+  /** A reading choice that the file could not be read with, and why; the samples in use are unchanged. Cleared by the next good reading. */
+  rejectedChoice = $state.raw<{ what: string; error: ShownError } | null>(null);
 
   /**
    * Reads s.source again with the current choices (in a worker). On success the samples and every
    * result are replaced; when the file cannot be read with these choices the error is shown instead
-   * of samples (the choice can be changed back).
+   * of samples.
    */
   async readSource(): Promise<void> {
     const src = this.s.source;
@@ -1032,8 +1093,13 @@ export class Session {
     const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
     try {
       const packed = await engine.readSamplesFile(file.text, options, run.signal);
+      // Taking the answer in, unpacking it and showing it are separate tasks: with many rows each is
+      // tens of ms, and together they held the page for over 100 ms.
+      await nextTask();
       if (!run.current()) return { intake: null, error: null, stale: true };
       const intake = engine.unpackIntake(packed);
+      await nextTask();
+      if (!run.current()) return { intake: null, error: null, stale: true };
       this.rowsJson = packed.rowsJson;
       return { intake, error: null, stale: false };
     } catch (e) {
@@ -1046,6 +1112,7 @@ export class Session {
 
   /** Samples read anew: a new reading id, the results of the old reading dropped. */
   private takeNewReading(intake: IntakeResult): void {
+    this.rejectedChoice = null;
     this.s.readId = newReadId();
     this.takeIntake(intake);
     this.dropResults();
@@ -1138,6 +1205,7 @@ export class Session {
       choices: {
         simulation: { ...this.s.simulation }, next: { ...this.s.next }, support: this.s.surface.support,
         blockPoints: this.s.surface.blockPoints, threshold: this.s.surface.threshold, layer: this.s.surface.layer,
+        colours: this.s.surface.colours,
       },
     };
   }
@@ -1154,6 +1222,22 @@ function modelKey(model: CovarianceModel | null): string {
     return JSON.stringify(parseModel(plain));
   } catch {
     return JSON.stringify(plain);
+  }
+}
+
+/** A reading choice as the user would name it ("value column \"Zn\"", "coordinate system EPSG:32632"). */
+function choiceText(choice: { value?: string; crs?: string | undefined; nonDetect?: string }): string {
+  if ('value' in choice) return `value column "${choice.value ?? ''}"`;
+  if ('crs' in choice) return choice.crs ? `coordinate system ${choice.crs}` : 'coordinate system detected from the file';
+  return 'non-detect rule';
+}
+
+/** A named point on the page's clock ("gapwise:" + name), for the browser tests to print. */
+function mark(name: string): void {
+  try {
+    performance.mark(`gapwise:${name}`);
+  } catch {
+    // No user timing here (some test environments): nothing to mark.
   }
 }
 

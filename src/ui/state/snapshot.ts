@@ -67,10 +67,14 @@ export interface SurfaceChoices {
   hideUncertain: boolean;
   /** Contour lines of the mean drawn over the map. */
   contours: boolean;
+  /** Colours of the mean layer: 'auto' (spaced by ln(value) for log models, evenly otherwise), 'linear' or 'log'. */
+  colours: 'auto' | 'linear' | 'log';
   /** sd level (data units) above which cells are hidden when hideUncertain is on. */
   sdLimit: number | null;
   /** The user asked for a surface; recomputed after a reload. */
   wanted: boolean;
+  /** A surface was being computed (a reload then says it was interrupted: one still arriving is not stored). */
+  running: boolean;
   /** Point values at cell centres, or cell (block) averages. */
   support: 'point' | 'block';
   /** Block support: discretisation points per cell side (1..16). */
@@ -140,7 +144,7 @@ export function emptySnapshot(): SessionSnapshot {
     structure: { lagWidth: 0, maxLag: 0, directional: false, cloud: false, method: 'reml', chosen: '', model: null, likelihood: 'auto' },
     surface: {
       area: 'extent', padding: 0.05, cellSize: 0, threshold: null, layer: 'mean', opacity: 0.8,
-      hideUncertain: false, contours: false, sdLimit: null, wanted: false, support: 'point', blockPoints: 4,
+      hideUncertain: false, contours: false, colours: 'auto', sdLimit: null, wanted: false, running: false, support: 'point', blockPoints: 4,
       method: 'auto',
     },
     simulation: { count: 100, seed: 1, depth: null },
@@ -229,8 +233,10 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       opacity: num(su.opacity, d.surface.opacity, 0, 1),
       hideUncertain: bool(su.hideUncertain, false),
       contours: bool(su.contours, false),
+      colours: oneOf(su.colours, ['auto', 'linear', 'log'] as const, 'auto'),
       sdLimit: optNum(su.sdLimit),
       wanted: bool(su.wanted, false),
+      running: bool(su.running, false),
       support: oneOf(su.support, ['point', 'block'] as const, 'point'),
       blockPoints: whole(su.blockPoints, d.surface.blockPoints, 1, 16),
       method: oneOf(su.method, ['auto', 'exact', 'local'] as const, 'auto'),

@@ -19,7 +19,7 @@ function fullSnapshot(): SessionSnapshot {
   };
   s.surface = {
     area: 'boundary', padding: 0.1, cellSize: 5, threshold: 200, layer: 'exceed', opacity: 0.6,
-    hideUncertain: true, contours: true, sdLimit: 40, wanted: true, support: 'block', blockPoints: 6, method: 'local',
+    hideUncertain: true, contours: true, colours: 'log', sdLimit: 40, wanted: true, running: true, support: 'block', blockPoints: 6, method: 'local',
   };
   s.simulation = { count: 250, seed: 17, depth: 0.3 };
   s.readId = 'reading-1';
@@ -59,7 +59,7 @@ describe('parseSnapshot', () => {
       step: 'nowhere',
       samples: { unit: 5, transform: 'sqrt', value: 'Pb' },
       structure: { lagWidth: -3, maxLag: 'x', method: 'ols', model: { structures: 'no' } },
-      surface: { opacity: 3, cellSize: 10, threshold: 'high', layer: 'exceed' },
+      surface: { opacity: 3, cellSize: 10, threshold: 'high', layer: 'exceed', colours: 'rainbow' },
       map: { basemap: 'satellite', customUrl: 7 },
     })!;
     expect(s.step).toBe('samples');
@@ -72,6 +72,8 @@ describe('parseSnapshot', () => {
     expect(s.surface.cellSize).toBe(10);
     expect(s.surface.threshold).toBeNull();
     expect(s.surface.layer).toBe('exceed');
+    expect(s.surface.colours).toBe('auto');
+    expect(parseSnapshot({ version: 1, surface: { colours: 'linear' } })!.surface.colours).toBe('linear');
     expect(s.map).toEqual({ basemap: 'none', customUrl: '' });
   });
 
