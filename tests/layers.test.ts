@@ -48,3 +48,63 @@ describe('layer rule', () => {
     });
   }
 });
+
+// Import loops. In core and io none at all, type imports included (a loop there means two files
+// that should be one, or a shared type in the wrong file); elsewhere none that runs (value imports).
+describe('no import loops', () => {
+  const all = files(SRC);
+  const edges = new Map<string, { to: string; typeOnly: boolean }[]>();
+  for (const file of all) {
+    const text = readFileSync(file, 'utf8');
+    const deps = [...text.matchAll(/(?:import|export)([^'";]*?)from\s*['"](\.[^'"]+)['"]/g)]
+      .map((m) => ({ to: resolve(dirname(file), m[2]), typeOnly: /^\s*type\b/.test(m[1]) }))
+      .filter((d) => all.includes(d.to));
+    edges.set(file, deps);
+  }
+  /** Strongly connected groups of more than one file (Tarjan), following the given edges. */
+  function loops(follow: (from: string, d: { to: string; typeOnly: boolean }) => boolean): string[][] {
+    let next = 0;
+    const index = new Map<string, number>();
+    const low = new Map<string, number>();
+    const stack: string[] = [];
+    const onStack = new Set<string>();
+    const out: string[][] = [];
+    const visit = (v: string): void => {
+      index.set(v, next); low.set(v, next); next++;
+      stack.push(v); onStack.add(v);
+      for (const d of edges.get(v) ?? []) {
+        if (!follow(v, d)) continue;
+        if (!index.has(d.to)) { visit(d.to); low.set(v, Math.min(low.get(v)!, low.get(d.to)!)); }
+        else if (onStack.has(d.to)) low.set(v, Math.min(low.get(v)!, index.get(d.to)!));
+      }
+      if (low.get(v) === index.get(v)) {
+        const group: string[] = [];
+        let w: string;
+        do { w = stack.pop()!; onStack.delete(w); group.push(relative(SRC, w)); } while (w !== v);
+        if (group.length > 1) out.push(group.sort());
+      }
+    };
+    for (const v of edges.keys()) if (!index.has(v)) visit(v);
+    return out;
+  }
+  const layerOf = (f: string): string => relative(SRC, f).split(/[\\/]/)[0];
+  it('core and io have no import loops, type imports included', () => {
+    expect(loops((from) => layerOf(from) === 'core' || layerOf(from) === 'io')).toEqual([]);
+  });
+  it('no file takes part in a loop of value imports', () => {
+    expect(loops((_from, d) => !d.typeOnly)).toEqual([]);
+  });
+  it('the loop finder finds a loop when there is one', () => {
+    const a = resolve(SRC, 'core/fit.ts');
+    const b = resolve(SRC, 'core/fit-options.ts');
+    const saved = edges.get(b)!;
+    edges.set(b, [...saved, { to: a, typeOnly: true }]);
+    try {
+      const found = loops((from) => layerOf(from) === 'core');
+      expect(found).toHaveLength(1);
+      expect(found[0]).toEqual(expect.arrayContaining(['core/fit-options.ts', 'core/fit.ts']));
+    } finally {
+      edges.set(b, saved);
+    }
+  });
+});

@@ -40,33 +40,8 @@ import { correlation, practicalRange, toIsotropicCoordinates } from './covarianc
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import { createRandom } from './random.ts';
 
-export type FitMethod = 'reml' | 'ml' | 'wls';
-
-/** Plain-data fitting options (the same object from the app, a project file, the CLI and tests). */
-export interface FitOptions {
-  family: Family;
-  /** Matérn smoothness: a fixed value (default 1.5) or 'free' to estimate it in [0.2, 5]. */
-  nu?: number | 'free';
-  /** Default 'reml'. */
-  method?: FitMethod;
-  /** Default 'constant'. */
-  trend?: Trend;
-  /** Fit a nugget (default true); false fixes it at 0. */
-  nugget?: boolean;
-  /** Fixed geometric anisotropy (not estimated). */
-  anisotropy?: Anisotropy;
-  /** Number of optimiser runs from the best starting points; default 3. */
-  starts?: number;
-  /** Empirical variogram settings for 'wls' (defaults from variogram.ts). */
-  variogram?: VariogramOptions;
-  /** Evaluation budget of each optimiser run (default: enough to converge); small values leave the fit unconverged. */
-  maxEvaluations?: number;
-  /**
-   * Absolute tolerance on ℓ at a REML/ML optimum; default about 1e-3. A smaller value polishes the
-   * optimum on the exact likelihood (./fit-polish.ts), at tens of extra evaluations.
-   */
-  tolerance?: number;
-}
+export type { FitMethod, FitOptions } from './fit-options.ts';
+import type { FitMethod, FitOptions } from './fit-options.ts';
 
 /** Smoothness bounds when ν is estimated (defined beside the likelihood). */
 export { NU_BOUNDS } from './likelihood.ts';

@@ -31,8 +31,8 @@ export interface Grid {
 }
 
 /** A ring of [x, y] vertices (closing vertex optional); a polygon is [outer, ...holes]. */
-export type Ring = ReadonlyArray<ReadonlyArray<number>>;
-export type Polygon = ReadonlyArray<Ring>;
+export type { Polygon, Ring } from './polygon.ts';
+import type { Polygon } from './polygon.ts';
 
 /** The most cells a grid may have (about 48 MB for mean, sd and P(exceed) as Float32). */
 export const MAX_CELLS = 4_000_000;

@@ -7,7 +7,9 @@
  * hole; polygons add. Area by the shoelace formula, holes subtracted.
  * Units: working-CRS metres (m² for areas). Cost O(vertices) per test.
  */
-import type { Polygon, Ring } from './grid.ts';
+/** A ring of [x, y] vertices (closed or not); a polygon is an outer ring and its holes. */
+export type Ring = ReadonlyArray<ReadonlyArray<number>>;
+export type Polygon = ReadonlyArray<Ring>;
 
 /** Even–odd ray test against one ring. */
 function insideRing(x: number, y: number, ring: Ring): boolean {

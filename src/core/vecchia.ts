@@ -15,7 +15,7 @@
  * n·m²/2 correlations and n·m³/3 flops; memory n·m·4 bytes for the neighbour lists.
  */
 import type { Anisotropy, CovarianceModel, Family, FitInfo, Structure, Trend } from './model.ts';
-import type { FitOptions } from './fit.ts';
+import type { FitOptions } from './fit-options.ts';
 import { NU_BOUNDS } from './likelihood.ts';
 import type { ParameterSpace } from './optimize.ts';
 import type { Samples } from './samples.ts';
