@@ -1,6 +1,16 @@
 #!/usr/bin/env node
-// Runs the TypeScript CLI without a build step: tsx registers a loader, then the entry is imported.
-import { register } from 'tsx/esm/api';
-register();
-const { main } = await import('../src/cli/main.ts');
+// The `gapwise` command. In a checkout (src/ present) it runs the TypeScript sources through tsx, so
+// no build step is needed while developing; in the installed package it runs the compiled JavaScript
+// of dist-cli/ (written by `npm run build`) with no loader.
+import { existsSync } from 'node:fs';
+
+const source = new URL('../src/cli/main.ts', import.meta.url);
+let main;
+if (existsSync(source)) {
+  const { register } = await import('tsx/esm/api');
+  register();
+  ({ main } = await import(source.href));
+} else {
+  ({ main } = await import('../dist-cli/main.js'));
+}
 process.exitCode = await main(process.argv.slice(2));
