@@ -1,6 +1,7 @@
 import { defineConfig } from 'vitest/config';
 import type { Plugin } from 'vite';
 import { svelte } from '@sveltejs/vite-plugin-svelte';
+import { offlineApp } from './pwa/build-service-worker.ts';
 
 /**
  * The built app's Content-Security-Policy (a <meta> the build puts first in <head>; the dev server
@@ -11,7 +12,8 @@ import { svelte } from '@sveltejs/vite-plugin-svelte';
  * engine's requests. Images: the app's own files, data: (Leaflet's and the app's small images),
  * blob: (canvases turned into downloads), and https: for the opt-in background map, whose tile server
  * the user may choose freely (images cannot run code; plain http: tiles are refused). No plugins,
- * forms or <base>. IndexedDB (the autosave) and downloads are outside what CSP governs.
+ * forms or <base>. IndexedDB (the autosave) and downloads are outside what CSP governs. The service
+ * worker (dist/sw.js, from 'self' under worker-src) and the manifest (default-src 'self') need nothing more.
  */
 export const CONTENT_SECURITY_POLICY = [
   "default-src 'self'",
@@ -40,7 +42,7 @@ function contentSecurityPolicy(): Plugin {
 
 export default defineConfig({
   base: './',
-  plugins: [svelte(), contentSecurityPolicy()],
+  plugins: [svelte(), contentSecurityPolicy(), offlineApp()],
   worker: { format: 'es' },
   server: { host: '127.0.0.1' },
   preview: { host: '127.0.0.1' },

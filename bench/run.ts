@@ -16,6 +16,7 @@ const SUITES: Record<string, { file: string; fn: string }> = {
   design: { file: './design.ts', fn: 'runDesignBench' },
   simulation: { file: './simulation.ts', fn: 'runSimulationBench' },
   contours: { file: './contours.ts', fn: 'runContoursBench' },
+  ship: { file: './ship.ts', fn: 'runShipBench' },
 };
 
 function format(rows: BenchRow[]): string {

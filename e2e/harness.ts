@@ -61,6 +61,12 @@ export function useHarness(title: string): { readonly h: Harness; figures: strin
   };
 }
 
+/** Debian's Chromium, headless, through playwright-core. */
+export async function launchBrowser(): Promise<Browser> {
+  if (!existsSync('/usr/bin/chromium')) throw new Error('/usr/bin/chromium is missing: apt-get install -y chromium.');
+  return chromium.launch({ executablePath: '/usr/bin/chromium', args: CHROMIUM_ARGS });
+}
+
 export async function startHarness(): Promise<Harness> {
   if (!existsSync(resolve(ROOT, 'dist', 'index.html'))) {
     throw new Error('dist/index.html is missing: run `npx vite build` before the browser tests.');
@@ -74,7 +80,7 @@ export async function startHarness(): Promise<Harness> {
     logLevel: 'silent',
     preview: { host: '127.0.0.1', port, strictPort: true, open: false },
   });
-  const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: CHROMIUM_ARGS });
+  const browser = await launchBrowser();
   return {
     baseUrl: `http://127.0.0.1:${port}/`,
     browser,
@@ -99,7 +105,7 @@ export interface Watched {
 const LOOPBACK = /^(https?|wss?):\/\/(127\.0\.0\.1|localhost|\[::1\])(:\d+)?\//;
 
 /** A fresh context (own IndexedDB) and page with the outside world cut off and problems recorded. */
-export async function openPage(h: Harness, context?: BrowserContext, path = '?gapwise-test'): Promise<Watched> {
+export async function openPage(h: Pick<Harness, 'browser' | 'baseUrl'>, context?: BrowserContext, path = '?gapwise-test'): Promise<Watched> {
   const ctx = context ?? (await h.browser.newContext({ viewport: { width: 1360, height: 860 }, deviceScaleFactor: 1 }));
   const outside: string[] = [];
   await ctx.route('**/*', (route) => {

@@ -1,5 +1,6 @@
 #!/usr/bin/env node
-// Runs the whole test suite: unit tests, then the app build and the browser (end-to-end) tests.
+// Runs the whole test suite: unit tests, then the build (app and command line) and the browser
+// (end-to-end) tests, among them the offline app and the packed package.
 // Ends with the plain line "N passed, N failed" and exits non-zero on any failure.
 // `node scripts/test.mjs --unit` runs only the type checks and unit tests (no browser needed).
 // The type checks (tsc for the TypeScript, svelte-check for the components) count as one test each.
@@ -48,9 +49,11 @@ typeCheck('tsc', 'npx', ['tsc', '-p', '.', '--noEmit']);
 typeCheck('svelte-check', 'npx', ['svelte-check', '--tsconfig', './tsconfig.json', '--fail-on-warnings', '--output', 'machine']);
 vitest('unit', []);
 if (!unitOnly) {
+  // The app (dist/) and the compiled command line (dist-cli/): the browser tests and the package test use both.
   const b = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { stdio: 'inherit', env });
-  if (b.status !== 0) {
-    console.error('The app build failed.');
+  const c = b.status === 0 ? spawnSync('node', ['scripts/build-cli.mjs'], { stdio: 'inherit', env }) : b;
+  if (b.status !== 0 || c.status !== 0) {
+    console.error('The build (app or command line) failed.');
     failed += 1;
   } else {
     vitest('e2e', ['--config', 'vitest.e2e.config.ts', '--passWithNoTests']);

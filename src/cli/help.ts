@@ -61,6 +61,7 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
     '',
     'Usage: gapwise <command> [options]',
     '       gapwise <command> --help',
+    '       gapwise --version',
     '',
     'Commands:',
   ];

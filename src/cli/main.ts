@@ -11,6 +11,7 @@ import { checkOutputTarget, installSignalCleanup, type RunInput } from './safe-w
 import { terminalSafeIo } from './terminal-text.ts';
 import { COMMANDS, PLANNED } from './commands/index.ts';
 import { commandHelp, toolHelp } from './help.ts';
+import { SOFTWARE } from '../core/version.ts';
 
 /**
  * The process's own streams and working directory. Installs the signal handlers that remove a
@@ -57,6 +58,10 @@ export async function main(argv: readonly string[], given: CliIo = processIo()):
     if (name === undefined) {
       io.stderr(toolHelp(COMMANDS, PLANNED));
       return 2;
+    }
+    if (name === '--version' || name === '-v') {
+      io.stdout(`${SOFTWARE}\n`);
+      return 0;
     }
     if (name === '--help' || name === '-h' || name === 'help') {
       const target = name === 'help' ? rest[0] : undefined;

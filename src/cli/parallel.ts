@@ -4,7 +4,8 @@
 // once (exact: kriging.ts, local neighbourhoods: core/local-kriging.ts) and then takes bands of rows
 // from a shared queue until none are left, so fast and slow bands balance out. Every cell is computed
 // the same way whichever worker gets it, so the result equals the single-thread one bit for bit.
-// Workers run the TypeScript sources through tsx's loader (no build step; see startWorker).
+// Workers run the TypeScript sources through tsx's loader in a checkout (no build step), and the
+// compiled JavaScript beside this module in the installed package (see startWorker).
 import { Worker } from 'node:worker_threads';
 import { availableParallelism } from 'node:os';
 import { createRequire } from 'node:module';
@@ -86,12 +87,21 @@ function tsxEsmApi(): string {
 }
 
 /**
- * Starts a worker thread on a TypeScript entry (file URL; default the surface worker). Node 20 does
- * not apply loader hooks given by `--import` in a worker's execArgv to the worker's own entry file,
- * so the worker starts from a small script that registers tsx's loader and then imports the
- * TypeScript entry (both resolved from this file, so the CLI works from any directory).
+ * True when this module runs from its TypeScript source (through tsx in a checkout); false in the
+ * compiled CLI (dist-cli/, written by scripts/build-cli.mjs), where every worker entry sits beside
+ * this module's chunk as plain JavaScript under the same name.
+ */
+const FROM_SOURCE = import.meta.url.endsWith('.ts');
+
+/**
+ * Starts a worker thread on a worker entry (file URL of its `.ts` source; default the surface
+ * worker). Compiled, the entry is the `.js` file of the same name and starts with no loader at all.
+ * From source, Node 20 does not apply loader hooks given by `--import` in a worker's execArgv to the
+ * worker's own entry file, so the worker starts from a small script that registers tsx's loader and
+ * then imports the TypeScript entry (both resolved from this file, so the CLI works from any directory).
  */
 export function startWorker(entry = new URL('./surface-worker.ts', import.meta.url).href): Worker {
+  if (!FROM_SOURCE) return new Worker(new URL(entry.replace(/\.ts$/, '.js')));
   const api = tsxEsmApi();
   const boot = `import(${JSON.stringify(api)}).then((m) => { m.register(); return import(${JSON.stringify(entry)}); })` +
     '.catch((e) => { setImmediate(() => { throw e; }); });';

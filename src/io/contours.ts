@@ -22,6 +22,7 @@ import { contours as d3Contours } from 'd3-contour';
 import type { Feature, FeatureCollection, MultiLineString, MultiPolygon, Position } from 'geojson';
 import { GapwiseError } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
+import { SOFTWARE } from '../core/version.ts';
 import type { Grid } from '../core/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 
@@ -341,9 +342,9 @@ export interface SurfaceContourInput {
 /**
  * Contours of the mean and (with a threshold) of P(exceed) in one FeatureCollection: bands first,
  * then isolines, each with kind, surface, level or min/max, unit, label and the caution. The
- * collection carries the caution and the source CRS as foreign members too.
+ * collection carries the caution, the software version and the source CRS as foreign members too.
  */
-export function surfaceContours(input: SurfaceContourInput): FeatureCollection & { caution: string; source: Record<string, unknown> } {
+export function surfaceContours(input: SurfaceContourInput): FeatureCollection & { caution: string; software: string; source: Record<string, unknown> } {
   const features: Feature[] = contourFeatures({
     grid: input.grid, values: input.surface.mean, surface: 'mean', workCrs: input.workCrs, unit: input.unit, levels: input.meanLevels,
   });
@@ -356,6 +357,7 @@ export function surfaceContours(input: SurfaceContourInput): FeatureCollection &
   return {
     type: 'FeatureCollection',
     caution: CAUTION,
+    software: SOFTWARE,
     source: { workCrs: input.workCrs, cell: input.grid.cell, unit: input.unit ?? '', threshold: input.surface.threshold ?? null },
     ...(input.workCrs === LOCAL_CRS ? { coordinates: 'local', coordinatesNote: LOCAL_CONTOURS_NOTE } : {}),
     features,

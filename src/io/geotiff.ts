@@ -16,6 +16,7 @@
  */
 import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
+import { SOFTWARE } from '../core/version.ts';
 import type { Grid } from '../core/grid.ts';
 import { epsgCode, LOCAL_CRS } from './crs.ts';
 import { xml } from './markup.ts';
@@ -27,7 +28,7 @@ export const USER_DEFINED_CRS = 32767;
 
 const TAG = {
   width: 256, height: 257, bitsPerSample: 258, compression: 259, photometric: 262, imageDescription: 270,
-  stripOffsets: 273, samplesPerPixel: 277, rowsPerStrip: 278, stripByteCounts: 279, planarConfiguration: 284,
+  stripOffsets: 273, samplesPerPixel: 277, rowsPerStrip: 278, stripByteCounts: 279, planarConfiguration: 284, software: 305,
   extraSamples: 338, sampleFormat: 339, modelPixelScale: 33550, modelTiepoint: 33922, geoKeyDirectory: 34735,
   geoAsciiParams: 34737, gdalMetadata: 42112, gdalNoData: 42113,
 } as const;
@@ -53,6 +54,8 @@ export interface GeoTiffInput {
   extraBands?: ReadonlyArray<{ name: string; values: ArrayLike<number> }>;
   /** Set when mean, sd, P(exceed) are per-cell summaries of this many realisations: the bands say so. */
   realisations?: number;
+  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
+  software?: string;
 }
 
 /** Input of the general writer (plain data). */
@@ -66,6 +69,8 @@ export interface BandsGeoTiffInput {
   workCrs: string;
   /** First sentence(s) of ImageDescription; the screening caution is appended. */
   title: string;
+  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
+  software?: string;
 }
 
 export interface GeoTiffOutput {
@@ -217,6 +222,7 @@ export function bandsGeoTiff(input: BandsGeoTiffInput): GeoTiffOutput {
     { code: TAG.rowsPerStrip, type: 4, values: [ny] },
     { code: TAG.stripByteCounts, type: 4, values: new Array(nb).fill(bandBytes) },
     { code: TAG.planarConfiguration, type: 3, values: [2] },
+    { code: TAG.software, type: 2, values: ascii(input.software ?? SOFTWARE) },
     ...(nb > 1 ? [{ code: TAG.extraSamples, type: 3 as const, values: new Array(nb - 1).fill(0) }] : []),
     { code: TAG.sampleFormat, type: 3, values: new Array(nb).fill(3) },
     { code: TAG.modelPixelScale, type: 12, values: [grid.cell, grid.cell, 0] },
@@ -297,5 +303,5 @@ export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
     names.push(extra.name);
   }
   const title = drawn ? `Gapwise: per-cell summaries of ${drawn} conditional realisations (not the kriged surface).` : 'Gapwise surfaces.';
-  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title });
+  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title, ...(input.software !== undefined ? { software: input.software } : {}) });
 }

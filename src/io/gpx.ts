@@ -7,6 +7,7 @@
  * which escapes every value.
  */
 import { CAUTION } from '../core/caution.ts';
+import { SOFTWARE } from '../core/version.ts';
 import type { ExportableDesign } from './suggestions-export.ts';
 import { checkLonLat } from './suggestions-export.ts';
 import { joinMarkup, xml, type Markup } from './markup.ts';
@@ -56,7 +57,7 @@ export function suggestionsToGpx(design: ExportableDesign, options: GpxOptions =
   const total = design.suggestions.length;
   const lines: Markup[] = [
     xml`<?xml version="1.0" encoding="UTF-8"?>`,
-    xml`<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">`,
+    xml`<gpx version="1.1" creator="${SOFTWARE}" xmlns="http://www.topografix.com/GPX/1/1" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance" xsi:schemaLocation="http://www.topografix.com/GPX/1/1 http://www.topografix.com/GPX/1/1/gpx.xsd">`,
     xml`  <metadata>`,
     xml`    <name>${options.name ?? 'Suggested sample sites'}</name>`,
     xml`    <desc>${total} suggested sample sites, chosen ${MODE_WORDS[design.mode] ?? design.mode}. ${CAUTION}</desc>`,

@@ -7,6 +7,7 @@
  * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
  */
 import { CSV_CAUTION, csvCell, csvComment } from './csv-cells.ts';
+import { SOFTWARE } from '../core/version.ts';
 import type { Grid } from '../core/grid.ts';
 import { cellCentres } from '../core/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
@@ -60,7 +61,7 @@ export function surfaceGridCsv(input: GridCsvInput): string {
         + (surface.pExceed ? `; realisation_p_exceed = share of the realisations above ${surface.threshold ?? 'the threshold'}${input.unit ? ` ${input.unit}` : ''}` : '')
       : `${where}; mean, sd${input.unit ? ` in ${input.unit}` : ''}`
         + (surface.pExceed ? `; p_exceed = P(value > ${surface.threshold ?? 'threshold'}${input.unit ? ` ${input.unit}` : ''})` : '');
-    lines.push(csvComment(`${CSV_CAUTION} ${what}`));
+    lines.push(csvComment(`${CSV_CAUTION} Written by ${SOFTWARE}. ${what}`));
   }
   lines.push(header.join(','));
   const dm = digitsOf(surface.mean), ds = digitsOf(surface.sd), dp = surface.pExceed ? digitsOf(surface.pExceed) : 17;

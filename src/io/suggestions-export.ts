@@ -7,6 +7,7 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
+import { SOFTWARE } from '../core/version.ts';
 import type { DesignResult, Suggestion } from '../core/design.ts';
 import { csvLine } from './csv-cells.ts';
 
@@ -59,6 +60,7 @@ function orNull(v: number | null): number | null {
 export function designSummary(design: ExportableDesign): Record<string, unknown> {
   return {
     caution: CAUTION,
+    software: SOFTWARE,
     mode: design.mode,
     benefit: design.benefitMeaning,
     threshold: design.threshold,

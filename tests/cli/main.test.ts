@@ -5,6 +5,7 @@ import { main } from '../../src/cli/main.ts';
 import { CAUTION } from '../../src/cli/common.ts';
 import { COMMANDS, PLANNED } from '../../src/cli/commands/index.ts';
 import { workspace } from './run-cli.ts';
+import { SOFTWARE } from '../../src/core/version.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());
@@ -34,6 +35,14 @@ describe('main', () => {
       expect(r.stdout).toMatch(/Examples?:\n  gapwise /);
       expect(r.stdout).toContain(CAUTION);
       expect((await ws.run('help', c.name)).stdout).toBe(r.stdout);
+    }
+  });
+
+  it('main prints the version for --version and -v, exit 0', async () => {
+    for (const flag of ['--version', '-v']) {
+      const r = await ws.run(flag);
+      expect(r.code).toBe(0);
+      expect(r.stdout).toBe(`${SOFTWARE}\n`);
     }
   });
 

@@ -10,7 +10,8 @@ import { join } from 'node:path';
 import { fromArrayBuffer } from 'geotiff';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { expectClose } from '../helpers/tolerance.ts';
-import { EXTRA_BANDS, extraBandValue, gdalCases, type GdalCase } from '../reference/gdal-case.ts';
+import { EXTRA_BANDS, extraBandValue, GDAL_CASE_SOFTWARE, gdalCases, type GdalCase } from '../reference/gdal-case.ts';
+import { SOFTWARE } from '../../src/core/version.ts';
 import { bandDescriptions, bandsGeoTiff, gdalMetadataXml, NO_DATA, readAsciiTag, surfaceGeoTiff, USER_DEFINED_CRS } from '../../src/io/geotiff.ts';
 import { createPredictor } from '../../src/core/kriging.ts';
 import { cellCentres } from '../../src/core/grid.ts';
@@ -26,6 +27,7 @@ interface GdalRecord {
   size: [number, number];
   areaOrPoint: string;
   description: string;
+  software: string;
   bandCount: number;
   bands: Array<{ description: string; noData: number; type: string; values: Array<number | null> }>;
 }
@@ -70,6 +72,7 @@ describe('surfaceGeoTiff', () => {
       expect(rec.areaOrPoint).toBe('Area');
       expect(rec.bandCount).toBe(c.threshold === undefined ? 2 : 3);
       expect(rec.description).toBe(`Gapwise surfaces. ${CAUTION}`);
+      expect(rec.software).toBe(GDAL_CASE_SOFTWARE);
       expect(rec.bands.map((b) => b.description)).toEqual(
         c.threshold === undefined ? ['mean nitrate (mg/L)', 'sd nitrate (mg/L)'] : ['mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 60 mg/L)']);
       for (const b of rec.bands) {
@@ -211,6 +214,8 @@ describe('bandsGeoTiff', () => {
     expect(readAsciiTag(out.buffer, 270)).toBe(`Test bands. ${CAUTION}`);
     expect(readAsciiTag(out.buffer, 42113)).toBe(String(NO_DATA));
     expect(readAsciiTag(out.buffer, 42112)).toBe(gdalMetadataXml(names));
+    // TIFF 6.0 tag 305 Software: "name and version number of the software package" (TIFF 6.0 specification, from memory).
+    expect(readAsciiTag(out.buffer, 305)).toBe(SOFTWARE);
     const image = await (await fromArrayBuffer(out.buffer)).getImage();
     expect(image.getSamplesPerPixel()).toBe(5);
     expect(image.getOrigin()).toEqual([1000, 2030, 0]);

@@ -3,6 +3,7 @@ import { suggestionsToGpx, waypointName } from '../../src/io/gpx.ts';
 import { escapeText } from '../../src/io/markup.ts';
 import type { ExportableDesign } from '../../src/io/suggestions-export.ts';
 import { CAUTION } from '../../src/core/caution.ts';
+import { SOFTWARE } from '../../src/core/version.ts';
 
 function design(overrides: Partial<ExportableDesign> = {}): ExportableDesign {
   return {
@@ -57,7 +58,8 @@ describe('suggestionsToGpx', () => {
   const xml = suggestionsToGpx(design(), { name: 'Yard <north> & "east"', time: new Date(Date.UTC(2025, 2, 4, 9, 30, 15, 123)), unit: 'mg/kg' });
 
   it('suggestionsToGpx writes the GPX 1.1 root with version, creator and namespace', () => {
-    expect(xml.startsWith('<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1"')).toBe(true);
+    expect(xml.startsWith(`<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="${SOFTWARE}" xmlns="http://www.topografix.com/GPX/1/1"`)).toBe(true);
+    expect(SOFTWARE).toMatch(/^Gapwise \d+\.\d+\.\d+/);
     expect(xml.trimEnd().endsWith('</gpx>')).toBe(true);
   });
 

@@ -27,6 +27,9 @@ export interface GdalCase {
 }
 
 /** Number of extra bands of the many-band case (40 bands in all with mean, sd and P(exceed)). */
+/** The Software tag of the fixture files: fixed, so a new release does not change their bytes. */
+export const GDAL_CASE_SOFTWARE = 'Gapwise (reference case)';
+
 export const EXTRA_BANDS = 37;
 
 /** Extra band b (0-based) at cell k: a value that tells band and cell apart, exact in Float32. */
@@ -69,7 +72,7 @@ export function gdalCases(): GdalCase[] {
       name: `realisation ${b + 1} (mg/L)`,
       values: Float32Array.from({ length: cells }, (_, k) => extraBandValue(b, k)),
     }));
-    const tiff = surfaceGeoTiff({ grid: s.grid, surface, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', extraBands }).buffer;
+    const tiff = surfaceGeoTiff({ grid: s.grid, surface, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', extraBands, software: GDAL_CASE_SOFTWARE }).buffer;
     return { name: s.name, samples, model: CASE_MODEL, grid: s.grid, threshold: s.threshold, workCrs: 'EPSG:32633', unit: 'mg/L', valueName: 'nitrate', extraBands, tiff };
   });
 }

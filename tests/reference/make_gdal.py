@@ -50,6 +50,7 @@ def main():
                 "size": info["size"],
                 "areaOrPoint": info["metadata"][""].get("AREA_OR_POINT"),
                 "description": info["metadata"][""].get("TIFFTAG_IMAGEDESCRIPTION"),
+                "software": info["metadata"][""].get("TIFFTAG_SOFTWARE"),
                 "bandCount": len(info["bands"]),
                 "bands": bands,
             })

@@ -7,6 +7,7 @@
  * ordering from 3,000 on. The choice is said on stderr and in the model's "fit.note"; --method
  * reml|ml|wls|nnl overrides it.
  */
+import { SOFTWARE } from '../../core/version.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/vecchia.ts';
@@ -179,6 +180,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     crs: { work: r.crs.work, input: r.crs.input },
     data: { file: r.fileName, valueColumn: r.valueColumn, unit: r.unit, n },
     caution: CAUTION,
+    software: SOFTWARE,
   };
   await writeOutput(io, stringOption(values, 'out'), jsonText(out));
   return 0;

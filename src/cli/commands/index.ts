@@ -12,8 +12,12 @@ import { reportCommand } from './report.ts';
 import { withProject } from '../project-options.ts';
 import { suggestCommand } from './suggest.ts';
 import { simulateCommand } from './simulate.ts';
+import { appCommand } from './app.ts';
 
-export const COMMANDS: readonly CommandSpec[] = [inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, simulateCommand, reportCommand].map(withProject).map(withQuiet);
+export const COMMANDS: readonly CommandSpec[] = [
+  ...[inspectCommand, fitCommand, predictCommand, cvCommand, gridCommand, suggestCommand, simulateCommand, reportCommand].map(withProject),
+  appCommand, // serves the built app: no samples, so no --project
+].map(withQuiet);
 
 /** Commands of the design that are not built yet; running one says so (exit 2). */
 export const PLANNED: readonly string[] = [];

@@ -7,7 +7,7 @@
  * as `gapwise simulate` draws them (../simulation-pool.ts; options read by ../simulation-options.ts)
  * before the report is prepared; the figure and the thread count are also printed on stderr.
  */
-import { readFileSync } from 'node:fs';
+import { GAPWISE_VERSION } from '../../core/version.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { GapwiseError } from '../../core/errors.ts';
 import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml, reportSimulationJob } from '../../io/report.ts';
@@ -52,14 +52,9 @@ export function reportSimulationSettings(values: OptionValues, project: Project)
   return { count: choice.realizations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
 }
 
-/** The name and version in package.json. */
+/** The name and version written into the report (src/core/version.ts, equal to package.json's). */
 export function softwareVersion(): { name: string; version: string } {
-  try {
-    const pkg = JSON.parse(readFileSync(new URL('../../../package.json', import.meta.url), 'utf8')) as { name?: string; version?: string };
-    return { name: pkg.name ?? 'gapwise', version: pkg.version ?? 'unknown' };
-  } catch {
-    return { name: 'gapwise', version: 'unknown' };
-  }
+  return { name: 'Gapwise', version: GAPWISE_VERSION };
 }
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {

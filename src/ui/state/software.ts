@@ -1,5 +1,7 @@
 /**
- * The name and version the app writes into reports and project files. The version is kept equal to
- * package.json's by tests/ui/state/software.test.ts (the ui layer does not import package.json).
+ * The name and version the app writes into reports and project files and shows in its footer
+ * (src/core/version.ts, kept equal to package.json's by tests/core/version.test.ts).
  */
-export const SOFTWARE: Readonly<{ name: string; version: string }> = Object.freeze({ name: 'Gapwise', version: '0.1.0' });
+import { GAPWISE_VERSION } from '../../core/version.ts';
+
+export const SOFTWARE: Readonly<{ name: string; version: string }> = Object.freeze({ name: 'Gapwise', version: GAPWISE_VERSION });

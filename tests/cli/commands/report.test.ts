@@ -32,7 +32,7 @@ describe('gapwise report', () => {
     expect(r.stderr).toContain(`caution: ${CAUTION}`);
     const html = ws.read('r.html');
     expect(html.startsWith('<!DOCTYPE html>')).toBe(true);
-    expect(html).toContain(`gapwise ${version}`);
+    expect(html).toContain(`Gapwise ${version}`);
     expect(html).toContain('Wells &lt;north&gt;');
     expect(html).not.toContain('Wells <north>');
     expect(html.split(CAUTION).length - 1).toBeGreaterThanOrEqual(3);

@@ -8,6 +8,7 @@ import { pointInPolygons } from '../../../src/core/polygon.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { planarSamplesCsv, workspace } from '../run-cli.ts';
+import { SOFTWARE } from '../../../src/core/version.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());
@@ -95,7 +96,7 @@ describe('suggest command', () => {
       for (const t of sites) if (t !== s) expect(Math.hypot(s.x - t.x, s.y - t.y)).toBeGreaterThanOrEqual(25);
     }
     const gpx = ws.read('walk.gpx');
-    expect(gpx).toContain('<gpx version="1.1" creator="Gapwise" xmlns="http://www.topografix.com/GPX/1/1"');
+    expect(gpx).toContain(`<gpx version="1.1" creator="${SOFTWARE}" xmlns="http://www.topografix.com/GPX/1/1"`);
     expect((gpx.match(/<wpt /g) ?? []).length).toBe(sites.length);
     expect(gpx).toContain('mg/L');
   });
