@@ -157,8 +157,6 @@ export class Session {
   /** A boundary file that was refused, with why; the boundary in use is unchanged. */
   rejectedBoundary = $state.raw<{ fileName: string; error: ShownError } | null>(null);
   private readRuns = new LatestRun();
-  /** intake.rows as JSON text, as the worker sent it: what the saved results store. */
-  private rowsJson = '[]';
 
   // ---------------------------------------------------------------- structure
 
@@ -762,7 +760,7 @@ export class Session {
     return {
       version: RESULTS_VERSION,
       readId,
-      intake: { samples: intake.samples, report: intake.report, rowsJson: this.rowsJson },
+      intake,
       variograms: v?.set ? { key: v.key, set: v.set } : null,
       fit: this.candidates.length && this.fittedFor
         ? { key: this.fittedFor, rows: this.candidates, fittedWith: this.fittedWith, ms: this.fitTask.ms }
@@ -791,15 +789,7 @@ export class Session {
     }
     if (saved) {
       this.s = saved;
-      let intake: IntakeResult | null = null;
-      if (results) {
-        try {
-          intake = engine.unpackIntake(results.intake);
-          this.rowsJson = results.intake.rowsJson;
-        } catch {
-          results = null;
-        }
-      }
+      const intake: IntakeResult | null = results ? results.intake : null;
       if (intake) {
         this.takeIntake(intake);
       } else if (saved.source) {
@@ -1031,10 +1021,8 @@ export class Session {
     this.reading = file.fileName;
     const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
     try {
-      const packed = await engine.readSamplesFile(file.text, options, run.signal);
+      const intake = await engine.readSamplesFile(file.text, options, run.signal);
       if (!run.current()) return { intake: null, error: null, stale: true };
-      const intake = engine.unpackIntake(packed);
-      this.rowsJson = packed.rowsJson;
       return { intake, error: null, stale: false };
     } catch (e) {
       const error = showError(e);

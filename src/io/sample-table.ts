@@ -1,0 +1,500 @@
+/**
+ * The samples as read, stored by column: typed arrays for the coordinates, values, flags and lines of
+ * the accepted samples, and every source column of the file kept cell by cell in a compact form (plain
+ * numbers as Float64 with the few other texts beside them, repeated texts as codes into their levels,
+ * other texts as UTF-8 bytes). About 40 bytes a sample plus about 10 bytes a source cell, where one
+ * object per row took several hundred; plain data of typed arrays, so it crosses postMessage by
+ * transfer and IndexedDB by structured clone.
+ *
+ * Read it through the accessors: `table.length`, `rowAt(table, i)` (one SampleRow, for display),
+ * `sampleId(table, i)`, `sampleIds(table)`, `sourceColumn(intake, name)` (a column of the file, one
+ * entry per sample).
+ */
+import type { ReadReport, SampleRow } from './types.ts';
+import { isMissing, parseColumnNumber } from './numbers.ts';
+import type { ColumnMarks } from './numbers.ts';
+import { LIST_NAMES, quoted } from './quote.ts';
+
+/** Flag bits of `SampleTable.flags`. */
+export const FLAG_ND = 1;
+export const FLAG_DUP = 2;
+export const FLAG_OUTLIER = 4;
+
+/** `decimals` code of a numbers column: the cell was empty. */
+const EMPTY = 254;
+/** `decimals` code of a numbers column: the cell's text is in `otherText`. */
+const OTHER = 255;
+/** Plain numbers with at most this many digits come back from their double exactly (IEEE 754: 15). */
+const SAFE_DIGITS = 15;
+
+/** One source column, cell by cell, in the form that suits its cells. */
+export type StoredColumn =
+  /** Plain decimal numbers: the value and its count of decimals (the cell is `value.toFixed(decimals)`); other cells as text. */
+  | { kind: 'numbers'; length: number; values: Float64Array; decimals: Uint8Array; otherAt: Uint32Array; otherText: string[] }
+  /** Few distinct texts: a code per cell into `levels`. */
+  | { kind: 'codes'; length: number; codes: Uint32Array; levels: string[] }
+  /** Many distinct texts: UTF-8 bytes, cell k is bytes[offsets[k]..offsets[k+1]). */
+  | { kind: 'texts'; length: number; bytes: Uint8Array; offsets: Uint32Array };
+
+/** A column of the file with one entry per sample (the first source row of a merged sample). */
+export type SourceColumn =
+  | { kind: 'numeric'; values: Float64Array }
+  | { kind: 'text'; codes: Uint32Array; levels: string[] };
+
+/** The accepted samples and the source rows they came from. Plain data (see the file's header). */
+export interface SampleTable {
+  /** Number of samples (after duplicates were merged). */
+  length: number;
+  format: 'csv' | 'geojson';
+  /** Input-CRS coordinates as read (the mean over a merged group). */
+  inputX: Float64Array;
+  inputY: Float64Array;
+  /** Value after non-detect substitution (the mean over a merged group). */
+  value: Float64Array;
+  /** FLAG_ND | FLAG_DUP | FLAG_OUTLIER. */
+  flags: Uint8Array;
+  /** 1-based line (CSV) or feature number (GeoJSON) of the sample's first source row. */
+  line: Uint32Array;
+  /** Index of the sample's first source row in the stored columns. */
+  record: Uint32Array;
+  /** Merged samples: sample index and its source rows, records[start[k]..start[k+1]). */
+  merged: { sample: Uint32Array; start: Uint32Array; records: Uint32Array };
+  /** Line (CSV) or feature number (GeoJSON) of each stored source row. */
+  recordLine: Uint32Array;
+  /** Column names of the file, as in the read report. */
+  columns: string[];
+  /** One stored column per name of `columns`. */
+  cells: StoredColumn[];
+  /** Decimal marks of each column the intake looked at for numbers (null for the others). */
+  marks: Array<ColumnMarks | null>;
+  /** Index into `columns` of the ID column, -1 when there is none. */
+  idColumn: number;
+  /** GeoJSON: each source feature's own "id" ('' when it has none) and its position as read. */
+  featureIds?: StoredColumn;
+  geometry?: { lon: Float64Array; lat: Float64Array };
+}
+
+const NO_F64 = new Float64Array(0);
+const NO_U8 = new Uint8Array(0);
+const NO_U32 = new Uint32Array(0);
+const encoder = new TextEncoder();
+const decoder = new TextDecoder();
+
+function grow<T extends Float64Array | Uint8Array | Uint32Array>(a: T, need: number): T {
+  if (need <= a.length) return a;
+  let size = Math.max(16, a.length);
+  while (size < need) size *= 2;
+  const b = new (a.constructor as new (n: number) => T)(size);
+  b.set(a);
+  return b;
+}
+
+/**
+ * Digits after the decimal point when `s` is a plain decimal number ("-12.50", "7") whose double
+ * gives `s` back through toFixed; -1 otherwise (exponents, "+1", "007", "-0", ".5", "1.", long digit runs
+ * that do not come back).
+ */
+function plainDecimals(s: string, v: number): number {
+  const n = s.length;
+  if (n === 0 || n > 40) return -1;
+  let i = s.charCodeAt(0) === 45 ? 1 : 0;
+  const intStart = i;
+  while (i < n && s.charCodeAt(i) >= 48 && s.charCodeAt(i) <= 57) i++;
+  const intDigits = i - intStart;
+  if (intDigits === 0 || (intDigits > 1 && s.charCodeAt(intStart) === 48)) return -1;
+  let decimals = 0;
+  if (i < n) {
+    if (s.charCodeAt(i) !== 46) return -1;
+    i++;
+    const f = i;
+    while (i < n && s.charCodeAt(i) >= 48 && s.charCodeAt(i) <= 57) i++;
+    if (i < n || i === f) return -1;
+    decimals = i - f;
+  }
+  if (v === 0 && intStart === 1) return -1;
+  if (intDigits + decimals <= SAFE_DIGITS) return decimals;
+  return decimals < 100 && v.toFixed(decimals) === s ? decimals : -1;
+}
+
+/**
+ * Collects one source column cell by cell and chooses its stored form: it starts as numbers, turns to
+ * texts when the first few thousand cells are mostly not plain numbers, and keeps texts as codes while
+ * they repeat (few levels), else as UTF-8 bytes.
+ */
+export class ColumnBuilder {
+  private kind: 'numbers' | 'codes' | 'texts' = 'numbers';
+  private n = 0;
+  // Empty until used: a file may have a million columns of one row each.
+  private values = NO_F64;
+  private decimals = NO_U8;
+  private otherAt: number[] = [];
+  private otherText: string[] = [];
+  private codes = NO_U32;
+  private levels: string[] = [];
+  private index: Map<string, number> | null = null;
+  private bytes = NO_U8;
+  private offsets = NO_U32;
+  private used = 0;
+
+  get length(): number {
+    return this.n;
+  }
+
+  push(text: string): void {
+    if (this.kind === 'numbers') {
+      this.pushNumber(text);
+      if (this.n <= 4096 && this.otherText.length > 32 && this.otherText.length * 2 > this.n) this.toTexts();
+    } else if (this.kind === 'codes') this.pushCode(text);
+    else this.pushText(text);
+    this.n++;
+  }
+
+  private pushNumber(text: string): void {
+    const k = this.n;
+    if (k >= this.values.length) {
+      this.values = grow(this.values, k + 1);
+      this.decimals = grow(this.decimals, k + 1);
+    }
+    if (text === '') {
+      this.values[k] = NaN;
+      this.decimals[k] = EMPTY;
+      return;
+    }
+    const v = +text;
+    const d = plainDecimals(text, v);
+    if (d >= 0) {
+      this.values[k] = v;
+      this.decimals[k] = d;
+    } else {
+      this.values[k] = NaN;
+      this.decimals[k] = OTHER;
+      this.otherAt.push(k);
+      this.otherText.push(text);
+    }
+  }
+
+  private pushCode(text: string): void {
+    if (this.index === null) this.index = new Map();
+    let c = this.index.get(text);
+    if (c === undefined) {
+      if (this.levels.length >= 4096 && this.levels.length * 4 > this.n) {
+        this.codesToTexts();
+        this.pushText(text);
+        return;
+      }
+      c = this.levels.length;
+      // A copy, so that a level never keeps the parsed chunk it was cut from alive.
+      this.levels.push((' ' + text).slice(1));
+      this.index.set(text, c);
+    }
+    if (this.n >= this.codes.length) this.codes = grow(this.codes, this.n + 1);
+    this.codes[this.n] = c;
+  }
+
+  private pushText(text: string): void {
+    const k = this.n;
+    if (k + 2 > this.offsets.length) this.offsets = grow(this.offsets, k + 2);
+    const need = this.used + text.length * 3;
+    if (need > this.bytes.length) this.bytes = grow(this.bytes, need);
+    let ascii = true;
+    for (let i = 0; i < text.length; i++) {
+      const c = text.charCodeAt(i);
+      if (c >= 0x80) {
+        ascii = false;
+        break;
+      }
+      this.bytes[this.used + i] = c;
+    }
+    if (ascii) this.used += text.length;
+    else this.used += encoder.encodeInto(text, this.bytes.subarray(this.used)).written;
+    this.offsets[k + 1] = this.used;
+  }
+
+  /** Texts of the cells so far, in the current form. */
+  private texts(): string[] {
+    const col = this.finish();
+    const out: string[] = new Array(this.n);
+    for (let k = 0; k < this.n; k++) out[k] = cellText(col, k);
+    return out;
+  }
+
+  private toTexts(): void {
+    const all = this.texts();
+    this.kind = 'codes';
+    this.values = new Float64Array(0);
+    this.decimals = new Uint8Array(0);
+    this.otherAt = [];
+    this.otherText = [];
+    const n = this.n;
+    this.n = 0;
+    for (const t of all) {
+      if (this.kind === 'codes') this.pushCode(t);
+      else this.pushText(t);
+      this.n++;
+    }
+    if (this.n !== n) throw new Error('column conversion lost cells');
+  }
+
+  private codesToTexts(): void {
+    const codes = this.codes;
+    const levels = this.levels;
+    const n = this.n;
+    this.kind = 'texts';
+    this.codes = new Uint32Array(0);
+    this.levels = [];
+    this.index = null;
+    this.offsets = new Uint32Array(Math.max(16, n + 2));
+    this.bytes = new Uint8Array(Math.max(64, n * 8));
+    this.used = 0;
+    for (let k = 0; k < n; k++) {
+      this.n = k;
+      this.pushText(levels[codes[k]]);
+    }
+    this.n = n;
+  }
+
+  /** The column as stored (trimmed to its length). */
+  finish(): StoredColumn {
+    const n = this.n;
+    if (this.kind === 'numbers') {
+      return { kind: 'numbers', length: n, values: this.values.slice(0, n), decimals: this.decimals.slice(0, n), otherAt: Uint32Array.from(this.otherAt), otherText: this.otherText.slice() };
+    }
+    if (this.kind === 'codes') return { kind: 'codes', length: n, codes: this.codes.slice(0, n), levels: this.levels.slice() };
+    return { kind: 'texts', length: n, bytes: this.bytes.slice(0, this.used), offsets: this.offsets.slice(0, n + 1) };
+  }
+
+  /** The text of cell k while building (for detection before the column is finished). */
+  textAt(k: number): string {
+    if (this.kind === 'numbers') return numberCellText(this.values, this.decimals, this.otherAt, this.otherText, k);
+    if (this.kind === 'codes') return this.levels[this.codes[k]];
+    return decodeBytes(this.bytes, this.offsets[k], this.offsets[k + 1]);
+  }
+
+  /** The value of cell k when it is a plain decimal number, else NaN (while building). */
+  plainNumberAt(k: number): number {
+    return this.kind === 'numbers' && this.decimals[k] < EMPTY ? this.values[k] : NaN;
+  }
+
+  /** Digits after the point of cell k when it is a plain decimal number, else -1 (while building). */
+  plainDecimalsAt(k: number): number {
+    return this.kind === 'numbers' && this.decimals[k] < EMPTY ? this.decimals[k] : -1;
+  }
+}
+
+function decodeBytes(bytes: Uint8Array, a: number, b: number): string {
+  let ascii = true;
+  for (let i = a; i < b; i++) {
+    if (bytes[i] >= 0x80) {
+      ascii = false;
+      break;
+    }
+  }
+  if (!ascii) return decoder.decode(bytes.subarray(a, b));
+  let s = '';
+  for (let i = a; i < b; i += 4096) s += String.fromCharCode.apply(null, bytes.subarray(i, Math.min(b, i + 4096)) as unknown as number[]);
+  return s;
+}
+
+function numberCellText(values: Float64Array, decimals: Uint8Array, otherAt: ArrayLike<number>, otherText: string[], k: number): string {
+  const d = decimals[k];
+  if (d === EMPTY) return '';
+  if (d !== OTHER) return values[k].toFixed(d);
+  let lo = 0;
+  let hi = otherAt.length - 1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (otherAt[mid] < k) lo = mid + 1;
+    else if (otherAt[mid] > k) hi = mid - 1;
+    else return otherText[mid];
+  }
+  throw new Error(`stored column has no text for cell ${k}`);
+}
+
+/** The text of cell k of a stored column, exactly as it was in the file. */
+export function cellText(col: StoredColumn, k: number): string {
+  if (col.kind === 'numbers') return numberCellText(col.values, col.decimals, col.otherAt, col.otherText, k);
+  if (col.kind === 'codes') return col.levels[col.codes[k]];
+  return decodeBytes(col.bytes, col.offsets[k], col.offsets[k + 1]);
+}
+
+/** "line 12" (CSV) or "feature 3" / "feature 3 (id "A-1")" (GeoJSON): where a source row is. */
+export function recordPlace(table: Pick<SampleTable, 'format' | 'recordLine' | 'featureIds'>, record: number): string {
+  const n = table.recordLine[record];
+  if (table.format === 'csv') return `line ${n}`;
+  const id = table.featureIds ? cellText(table.featureIds, record) : '';
+  return `feature ${n}${id !== '' ? ` (id ${quoted(id)})` : ''}`;
+}
+
+function recordId(table: SampleTable, record: number): string {
+  if (table.idColumn >= 0) {
+    const t = cellText(table.cells[table.idColumn], record);
+    if (t.trim() !== '') return t;
+  }
+  return recordPlace(table, record);
+}
+
+/** Position of sample i among the merged samples, or -1. */
+function mergedIndex(table: SampleTable, i: number): number {
+  const s = table.merged.sample;
+  let lo = 0;
+  let hi = s.length - 1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (s[mid] < i) lo = mid + 1;
+    else if (s[mid] > i) hi = mid - 1;
+    else return mid;
+  }
+  return -1;
+}
+
+/** The source rows of sample i (one, or several for a merged sample). */
+export function sampleRecords(table: SampleTable, i: number): Uint32Array {
+  const m = mergedIndex(table, i);
+  if (m < 0) return table.record.subarray(i, i + 1);
+  return table.merged.records.subarray(table.merged.start[m], table.merged.start[m + 1]);
+}
+
+/** The ID of sample i: its ID cell, else its place; a merged sample joins its rows' IDs with " + ". */
+export function sampleId(table: SampleTable, i: number): string {
+  const records = sampleRecords(table, i);
+  if (records.length === 1) return recordId(table, records[0]);
+  const shown = Array.from(records.subarray(0, LIST_NAMES), (r) => recordId(table, r)).join(' + ');
+  return records.length > LIST_NAMES ? `${shown} + ${records.length - LIST_NAMES} more` : shown;
+}
+
+/** The IDs of all samples (for tables and markers of a size that is shown anyway). */
+export function sampleIds(table: SampleTable): string[] {
+  const out: string[] = new Array(table.length);
+  for (let i = 0; i < table.length; i++) out[i] = sampleId(table, i);
+  return out;
+}
+
+/** The flags of sample i as words: 'nd', 'dup', 'outlier' (a merged sample: 'dup' first). */
+export function sampleFlags(table: SampleTable, i: number): string[] {
+  const f = table.flags[i];
+  const flags: string[] = [];
+  if (mergedIndex(table, i) >= 0) {
+    flags.push('dup');
+    if (f & FLAG_ND) flags.push('nd');
+  } else {
+    if (f & FLAG_ND) flags.push('nd');
+    if (f & FLAG_DUP) flags.push('dup');
+  }
+  if (f & FLAG_OUTLIER) flags.push('outlier');
+  return flags;
+}
+
+/**
+ * Sets an own property even for names like "__proto__" (a plain assignment would change the
+ * object's prototype instead): column names come from the file.
+ */
+export function setOwn(o: Record<string, string>, key: string, value: string): void {
+  if (key === '__proto__') Object.defineProperty(o, key, { value, enumerable: true, writable: true, configurable: true });
+  else o[key] = value;
+}
+
+/** Sample i as one object, for display: the first source row's cells as text (never as HTML). */
+export function rowAt(table: SampleTable, i: number): SampleRow {
+  if (!(i >= 0 && i < table.length)) throw new RangeError(`Sample ${i} is outside 0…${table.length - 1}.`);
+  const records = sampleRecords(table, i);
+  const first = records[0];
+  const raw: Record<string, string> = {};
+  for (let c = 0; c < table.columns.length; c++) setOwn(raw, table.columns[c], cellText(table.cells[c], first));
+  if (table.geometry) setOwn(raw, 'geometry', `${table.geometry.lon[first]}, ${table.geometry.lat[first]}`);
+  return {
+    id: sampleId(table, i),
+    inputX: table.inputX[i],
+    inputY: table.inputY[i],
+    value: table.value[i],
+    flags: sampleFlags(table, i),
+    lines: Array.from(records, (r) => table.recordLine[r]),
+    raw,
+  };
+}
+
+/**
+ * A column of the file with one entry per sample (for a merged sample, its first source row's), by
+ * its name in the read report's `columns`: numeric for the report's numeric columns, the coordinate
+ * columns and the detection-limit column (each cell read with the column's decimal mark, as the
+ * intake reads numbers; NaN where a cell is not a number), else text as codes into its levels (in the
+ * order first met). Null when the file has no such column.
+ */
+export function sourceColumn(intake: { table: SampleTable; report: ReadReport }, name: string): SourceColumn | null {
+  const { table, report } = intake;
+  const c = table.columns.indexOf(name);
+  if (c < 0) return null;
+  const col = table.cells[c];
+  const n = table.length;
+  const rec = table.record;
+  const numeric = report.numericColumns.includes(name) || name === report.xColumn || name === report.yColumn || name === report.detectionLimitColumn;
+  if (numeric) {
+    const marks: ColumnMarks = table.marks[c] ?? { mark: '.', mixed: false, decided: true };
+    const pointOnly = marks.mark === '.' && marks.decided && !marks.mixed;
+    const parse = (t: string) => {
+      if (isMissing(t)) return NaN;
+      const p = parseColumnNumber(t, marks);
+      return p.ok ? p.value : NaN;
+    };
+    const values = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const r = rec[i];
+      if (col.kind === 'numbers') {
+        const d = col.decimals[r];
+        if (d === EMPTY) values[i] = NaN;
+        else if (d === 0 || (d < EMPTY && pointOnly)) values[i] = col.values[r];
+        else values[i] = parse(cellText(col, r));
+      } else values[i] = parse(cellText(col, r));
+    }
+    return { kind: 'numeric', values };
+  }
+  const codes = new Uint32Array(n);
+  const levels: string[] = [];
+  const index = new Map<string, number>();
+  for (let i = 0; i < n; i++) {
+    const t = cellText(col, rec[i]);
+    let k = index.get(t);
+    if (k === undefined) {
+      k = levels.length;
+      levels.push(t);
+      index.set(t, k);
+    }
+    codes[i] = k;
+  }
+  return { kind: 'text', codes, levels };
+}
+
+/**
+ * Checks that a value is a SampleTable whose arrays agree in length (saved results, worker answers);
+ * false for anything else.
+ */
+export function isSampleTable(v: unknown): v is SampleTable {
+  if (typeof v !== 'object' || v === null) return false;
+  const t = v as Partial<SampleTable>;
+  const n = t.length;
+  if (typeof n !== 'number' || !Number.isInteger(n) || n < 0) return false;
+  const f64 = (a: unknown, len: number) => a instanceof Float64Array && a.length === len;
+  const u32 = (a: unknown) => a instanceof Uint32Array;
+  if (!f64(t.inputX, n) || !f64(t.inputY, n) || !f64(t.value, n)) return false;
+  if (!(t.flags instanceof Uint8Array) || t.flags.length !== n || !u32(t.line) || t.line!.length !== n || !u32(t.record) || t.record!.length !== n) return false;
+  if (!u32(t.recordLine) || !Array.isArray(t.columns) || !Array.isArray(t.cells) || t.cells.length !== t.columns.length) return false;
+  const records = t.recordLine!.length;
+  if (!t.merged || !u32(t.merged.sample) || !u32(t.merged.start) || !u32(t.merged.records)) return false;
+  for (let i = 0; i < n; i++) if (t.record![i] >= records) return false;
+  return t.cells.every((c) => typeof c === 'object' && c !== null && (c as StoredColumn).length === records);
+}
+
+/** The buffers of a table, to transfer it across postMessage. */
+export function tableBuffers(table: SampleTable): ArrayBuffer[] {
+  const out = new Set<ArrayBuffer>();
+  const add = (a: ArrayBufferView) => {
+    if (a.buffer instanceof ArrayBuffer && a.buffer.byteLength > 0) out.add(a.buffer);
+  };
+  for (const a of [table.inputX, table.inputY, table.value, table.flags, table.line, table.record, table.recordLine, table.merged.sample, table.merged.start, table.merged.records]) add(a);
+  for (const c of [...table.cells, ...(table.featureIds ? [table.featureIds] : [])]) {
+    if (c.kind === 'numbers') [c.values, c.decimals, c.otherAt].forEach(add);
+    else if (c.kind === 'codes') add(c.codes);
+    else [c.bytes, c.offsets].forEach(add);
+  }
+  if (table.geometry) [table.geometry.lon, table.geometry.lat].forEach(add);
+  return [...out];
+}
