@@ -143,8 +143,11 @@ export class ColumnBuilder {
   push(text: string): void {
     if (this.kind === 'numbers') {
       this.pushNumber(text);
+      this.n++;
       if (this.n <= 4096 && this.otherText.length > 32 && this.otherText.length * 2 > this.n) this.toTexts();
-    } else if (this.kind === 'codes') this.pushCode(text);
+      return;
+    }
+    if (this.kind === 'codes') this.pushCode(text);
     else this.pushText(text);
     this.n++;
   }
