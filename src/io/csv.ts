@@ -184,6 +184,8 @@ export class CsvReader {
     }
     const unclosed = parsed.errors.find((e) => e.code === 'MissingQuotes');
     const data = parsed.data;
+    // Only a quoted cell can hold a line break: without a quote in the text every row is one line.
+    const quotes = input.indexOf('"') >= 0;
     for (let r = 0; r < data.length; r++) {
       const cells = data[r];
       const start = this.line;
@@ -192,8 +194,10 @@ export class CsvReader {
       }
       // A row spans one line plus every line break inside its quoted cells.
       let breaks = 0;
-      for (const c of cells) {
-        for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
+      if (quotes) {
+        for (const c of cells) {
+          for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
+        }
       }
       this.line += 1 + breaks;
       if (isBlank(cells)) {

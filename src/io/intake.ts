@@ -13,8 +13,8 @@ import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts'
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMarkFrom, isMissing, markEvidence, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks, MarkEvidence } from './numbers.ts';
-import { ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, setOwn } from './sample-table.ts';
-import type { SampleTable } from './sample-table.ts';
+import { ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
+import type { SampleTable, StoredColumn } from './sample-table.ts';
 import { duplicateGroups, outlierIndices, summarise, transformAdvice } from './quality.ts';
 import { formatValue } from './format.ts';
 import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry } from './types.ts';
@@ -79,14 +79,14 @@ export function splitUnit(header: string): { base: string; unit: string } {
 interface Table {
   format: 'csv' | 'geojson';
   columns: string[];
-  /** One builder per column (the cells of each stored row). */
-  store: ColumnBuilder[];
+  /** One stored column per name (the cells of each stored row). */
+  store: StoredColumn[];
   /** Line or feature number of each stored row. */
   recordLine: Uint32Array;
   /** The stored rows that are read, in file order. */
   rows: Uint32Array;
   /** GeoJSON: each feature's own id ('' when none) and position. */
-  featureIds?: ColumnBuilder;
+  featureIds?: StoredColumn;
   lon?: Float64Array;
   lat?: Float64Array;
   delimiter: string;
@@ -125,7 +125,7 @@ class RecordStore {
 function placeOf(table: Table, rec: number): { line?: number; feature?: number; id?: string } {
   const n = table.recordLine[rec];
   if (table.format === 'csv') return { line: n };
-  const id = table.featureIds ? table.featureIds.textAt(rec) : '';
+  const id = table.featureIds ? cellText(table.featureIds, rec) : '';
   return id !== '' ? { feature: n, id } : { feature: n };
 }
 
@@ -189,7 +189,7 @@ function missingColumn(file: string, what: string, want: string, columns: string
 
 /** The text of cell `col` of the table's k-th row. */
 function cellAt(table: Table, k: number, col: number): string {
-  return table.store[col].textAt(table.rows[k]);
+  return cellText(table.store[col], table.rows[k]);
 }
 
 /** Share of non-missing cells (of the first 2000 rows) of a column that read as numbers or "<number" non-detects. */
@@ -221,8 +221,8 @@ function marksFor(table: Table, col: number, delimiter: string): ColumnMarks {
   function* evidence(): Generator<MarkEvidence> {
     for (let k = 0; k < table.rows.length; k++) {
       const rec = table.rows[k];
-      const d = b.plainDecimalsAt(rec);
-      yield d >= 0 ? plainEvidence(b.plainNumberAt(rec), d) : markEvidence(b.textAt(rec));
+      const d = plainDecimalsAt(b, rec);
+      yield d >= 0 ? plainEvidence(plainNumberAt(b, rec), d) : markEvidence(cellText(b, rec));
     }
   }
   return chooseMarkFrom(evidence(), delimiter);
@@ -357,7 +357,7 @@ class CsvCollector {
       throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
     }
     return {
-      format: 'csv', columns: t.header, store: store.builders.slice(0, width), recordLine: store.lines.slice(0, store.n), rows,
+      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines.slice(0, store.n), rows,
       delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines,
     };
   }
@@ -385,7 +385,7 @@ function geojsonTable(text: string, fileName: string, limits: Limits): Table {
   const rows = new Uint32Array(n);
   for (let k = 0; k < n; k++) rows[k] = k;
   return {
-    format: 'geojson', columns: g.columns, store: store.builders, recordLine: store.lines.slice(0, n), rows, featureIds, lon, lat,
+    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines.slice(0, n), rows, featureIds: featureIds.finish(), lon, lat,
     delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs,
   };
 }
@@ -670,7 +670,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   };
   let rec = 0;
   const reject = (field: string, raw: string, reason: string) => entries.push({ ...placeOf(table, rec), field, raw, action: 'rejected', reason });
-  const cell = (col: number) => table.store[col].textAt(rec);
+  const cell = (col: number) => cellText(table.store[col], rec);
   const dlFromColumn = (): number | null => {
     if (dlCol < 0) return null;
     const p = parseColumnNumber(cell(dlCol), dlMarks as ColumnMarks);
@@ -681,8 +681,9 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const pointOnly = (m: ColumnMarks | null) => m !== null && m.mark === '.' && m.decided && !m.mixed;
   const fastNumber = (col: number, point: boolean): number => {
     const b = table.store[col];
-    const d = b.plainDecimalsAt(rec);
-    return d === 0 || (d > 0 && point) ? b.plainNumberAt(rec) : NaN;
+    if (b.kind !== 'numbers') return NaN;
+    const d = b.decimals[rec];
+    return d === 0 || (d < 254 && point) ? b.values[rec] : NaN;
   };
   const xPoint = pointOnly(xMarks);
   const yPoint = pointOnly(yMarks);
@@ -1032,7 +1033,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       }
       const m = g.length;
       for (const j of g) {
-        entries.push({ ...placeOf(table, prec[j]), field: valueName, raw: table.store[valueCol].textAt(prec[j]), action: 'merged', reason: `same location as ${listPlaces(table, g.filter((k) => k !== j).map((k) => prec[k]))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
+        entries.push({ ...placeOf(table, prec[j]), field: valueName, raw: cellText(table.store[valueCol], prec[j]), action: 'merged', reason: `same location as ${listPlaces(table, g.filter((k) => k !== j).map((k) => prec[k]))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
       }
       out.inputX[o] = ix / m;
       out.inputY[o] = iy / m;
@@ -1144,10 +1145,10 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     merged: { sample: Uint32Array.from(mergedSample), start: Uint32Array.from(mergedSample.length ? mergedStart : []), records: Uint32Array.from(mergedRecords) },
     recordLine: table.recordLine,
     columns: [...columns],
-    cells: table.store.map((b) => b.finish()),
+    cells: table.store,
     marks: columns.map((_, i) => marksCache.get(i) ?? null),
     idColumn: idCol,
-    ...(table.featureIds ? { featureIds: table.featureIds.finish() } : {}),
+    ...(table.featureIds ? { featureIds: table.featureIds } : {}),
     ...(table.lon && table.lat ? { geometry: { lon: table.lon, lat: table.lat } } : {}),
   };
   return { samples: { x: out.sx, y: out.sy, value: out.value }, table: sampleTable, report };

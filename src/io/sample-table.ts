@@ -74,67 +74,136 @@ export interface SampleTable {
   geometry?: { lon: Float64Array; lat: Float64Array };
 }
 
-const NO_F64 = new Float64Array(0);
-const NO_U8 = new Uint8Array(0);
-const NO_U32 = new Uint32Array(0);
 const encoder = new TextEncoder();
 const decoder = new TextDecoder();
 
-function grow<T extends Float64Array | Uint8Array | Uint32Array>(a: T, need: number): T {
-  if (need <= a.length) return a;
-  let size = Math.max(16, a.length);
-  while (size < need) size *= 2;
-  const b = new (a.constructor as new (n: number) => T)(size);
-  b.set(a);
-  return b;
-}
+type Typed = Float64Array | Uint8Array | Uint32Array;
 
 /**
- * Digits after the decimal point when `s` is a plain decimal number ("-12.50", "7") whose double
- * gives `s` back through toFixed; -1 otherwise (exponents, "+1", "007", "-0", ".5", "1.", long digit runs
- * that do not come back).
+ * A typed array that grows by chunks (16 items, doubling to 65,536): no large copy while a column is
+ * read and at most one chunk unused, where doubling one array leaves up to half of it unused and
+ * briefly holds both the old and the new array.
  */
-function plainDecimals(s: string, v: number): number {
+class Chunked<T extends Typed> {
+  private readonly full: T[] = [];
+  private current: T;
+  private used = 0;
+  length = 0;
+
+  constructor(private readonly make: (n: number) => T) {
+    this.current = make(0);
+  }
+
+  push(v: number): void {
+    if (this.used === this.current.length) {
+      if (this.current.length) this.full.push(this.current);
+      this.current = this.make(Math.min(65536, Math.max(16, this.length)));
+      this.used = 0;
+    }
+    this.current[this.used++] = v;
+    this.length++;
+  }
+
+  /** Item k (walks the chunks: for the few reads made while a column is built). */
+  get(k: number): number {
+    for (const c of this.full) {
+      if (k < c.length) return c[k];
+      k -= c.length;
+    }
+    return this.current[k];
+  }
+
+  /** The items in one array of exactly their number; the chunks are released. */
+  take(): T {
+    const out = this.make(this.length);
+    let at = 0;
+    for (const c of this.full) {
+      out.set(c, at);
+      at += c.length;
+    }
+    out.set(this.current.subarray(0, this.used), at);
+    this.full.length = 0;
+    this.current = this.make(0);
+    this.used = 0;
+    this.length = 0;
+    return out;
+  }
+}
+
+const f64 = (n: number) => new Float64Array(n);
+const plainRead = { value: 0 };
+const u8 = (n: number) => new Uint8Array(n);
+const u32 = (n: number) => new Uint32Array(n);
+
+/** Powers of ten that doubles hold exactly (10^0 … 10^22). */
+const POW10 = Array.from({ length: 23 }, (_, k) => Number(`1e${k}`));
+
+/**
+ * Reads a plain decimal number ("-12.50", "7") in one pass: sets `plain.value` and returns its digits
+ * after the point, or -1 for any other text (exponents, "+1", "007", "-0", ".5", "1.", spaces). With at
+ * most 15 digits the digits form an exact integer and one division by an exact power of ten is
+ * correctly rounded, so the value is the one Number(s) gives (Clinger 1990, the exact fast path); longer
+ * digit runs are read by Number and kept only when toFixed gives the text back.
+ */
+function plainDecimals(s: string, plain: { value: number }): number {
   const n = s.length;
   if (n === 0 || n > 40) return -1;
-  let i = s.charCodeAt(0) === 45 ? 1 : 0;
+  const negative = s.charCodeAt(0) === 45;
+  let i = negative ? 1 : 0;
   const intStart = i;
-  while (i < n && s.charCodeAt(i) >= 48 && s.charCodeAt(i) <= 57) i++;
+  let m = 0;
+  let c = 0;
+  while (i < n && (c = s.charCodeAt(i)) >= 48 && c <= 57) {
+    m = m * 10 + (c - 48);
+    i++;
+  }
   const intDigits = i - intStart;
   if (intDigits === 0 || (intDigits > 1 && s.charCodeAt(intStart) === 48)) return -1;
   let decimals = 0;
   if (i < n) {
-    if (s.charCodeAt(i) !== 46) return -1;
+    if (c !== 46) return -1;
     i++;
     const f = i;
-    while (i < n && s.charCodeAt(i) >= 48 && s.charCodeAt(i) <= 57) i++;
+    while (i < n && (c = s.charCodeAt(i)) >= 48 && c <= 57) {
+      m = m * 10 + (c - 48);
+      i++;
+    }
     if (i < n || i === f) return -1;
     decimals = i - f;
   }
-  if (v === 0 && intStart === 1) return -1;
-  if (intDigits + decimals <= SAFE_DIGITS) return decimals;
-  return decimals < 100 && v.toFixed(decimals) === s ? decimals : -1;
+  if (negative && m === 0) return -1;
+  if (intDigits + decimals <= SAFE_DIGITS) {
+    const v = decimals ? m / POW10[decimals] : m;
+    plain.value = negative ? -v : v;
+    return decimals;
+  }
+  const v = Number(s);
+  if (decimals < 100 && v.toFixed(decimals) === s) {
+    plain.value = v;
+    return decimals;
+  }
+  return -1;
 }
 
 /**
  * Collects one source column cell by cell and chooses its stored form: it starts as numbers, turns to
  * texts when the first few thousand cells are mostly not plain numbers, and keeps texts as codes while
- * they repeat (few levels), else as UTF-8 bytes.
+ * they repeat (few levels), else as UTF-8 bytes. `finish()` gives the StoredColumn.
  */
 export class ColumnBuilder {
   private kind: 'numbers' | 'codes' | 'texts' = 'numbers';
   private n = 0;
-  // Empty until used: a file may have a million columns of one row each.
-  private values = NO_F64;
-  private decimals = NO_U8;
+  private values = new Chunked(f64);
+  private decimals = new Chunked(u8);
   private otherAt: number[] = [];
   private otherText: string[] = [];
-  private codes = NO_U32;
+  private codes = new Chunked(u32);
   private levels: string[] = [];
   private index: Map<string, number> | null = null;
-  private bytes = NO_U8;
-  private offsets = NO_U32;
-  private used = 0;
+  private bytes = new Chunked(u8);
+  /** End of each cell's bytes (cell k ends at ends[k], starts at ends[k - 1] or 0). */
+  private ends = new Chunked(u32);
+  private usedBytes = 0;
 
   get length(): number {
     return this.n;
@@ -153,25 +222,19 @@ export class ColumnBuilder {
   }
 
   private pushNumber(text: string): void {
-    const k = this.n;
-    if (k >= this.values.length) {
-      this.values = grow(this.values, k + 1);
-      this.decimals = grow(this.decimals, k + 1);
-    }
     if (text === '') {
-      this.values[k] = NaN;
-      this.decimals[k] = EMPTY;
+      this.values.push(NaN);
+      this.decimals.push(EMPTY);
       return;
     }
-    const v = +text;
-    const d = plainDecimals(text, v);
+    const d = plainDecimals(text, plainRead);
     if (d >= 0) {
-      this.values[k] = v;
-      this.decimals[k] = d;
+      this.values.push(plainRead.value);
+      this.decimals.push(d);
     } else {
-      this.values[k] = NaN;
-      this.decimals[k] = OTHER;
-      this.otherAt.push(k);
+      this.values.push(NaN);
+      this.decimals.push(OTHER);
+      this.otherAt.push(this.n);
       this.otherText.push(text);
     }
   }
@@ -190,98 +253,84 @@ export class ColumnBuilder {
       this.levels.push((' ' + text).slice(1));
       this.index.set(text, c);
     }
-    if (this.n >= this.codes.length) this.codes = grow(this.codes, this.n + 1);
-    this.codes[this.n] = c;
+    this.codes.push(c);
   }
 
   private pushText(text: string): void {
-    const k = this.n;
-    if (k + 2 > this.offsets.length) this.offsets = grow(this.offsets, k + 2);
-    const need = this.used + text.length * 3;
-    if (need > this.bytes.length) this.bytes = grow(this.bytes, need);
     let ascii = true;
     for (let i = 0; i < text.length; i++) {
-      const c = text.charCodeAt(i);
-      if (c >= 0x80) {
+      if (text.charCodeAt(i) >= 0x80) {
         ascii = false;
         break;
       }
-      this.bytes[this.used + i] = c;
     }
-    if (ascii) this.used += text.length;
-    else this.used += encoder.encodeInto(text, this.bytes.subarray(this.used)).written;
-    this.offsets[k + 1] = this.used;
-  }
-
-  /** Texts of the cells so far, in the current form. */
-  private texts(): string[] {
-    const col = this.finish();
-    const out: string[] = new Array(this.n);
-    for (let k = 0; k < this.n; k++) out[k] = cellText(col, k);
-    return out;
+    if (ascii) {
+      for (let i = 0; i < text.length; i++) this.bytes.push(text.charCodeAt(i));
+      this.usedBytes += text.length;
+    } else {
+      const b = encoder.encode(text);
+      for (let i = 0; i < b.length; i++) this.bytes.push(b[i]);
+      this.usedBytes += b.length;
+    }
+    this.ends.push(this.usedBytes);
   }
 
   private toTexts(): void {
-    const all = this.texts();
+    const n = this.n;
+    const all: string[] = [];
+    let other = 0;
+    for (let k = 0; k < n; k++) {
+      const d = this.decimals.get(k);
+      all.push(d === EMPTY ? '' : d === OTHER ? this.otherText[other++] : this.values.get(k).toFixed(d));
+    }
     this.kind = 'codes';
-    this.values = new Float64Array(0);
-    this.decimals = new Uint8Array(0);
+    this.values = new Chunked(f64);
+    this.decimals = new Chunked(u8);
     this.otherAt = [];
     this.otherText = [];
-    const n = this.n;
     this.n = 0;
     for (const t of all) {
       if (this.kind === 'codes') this.pushCode(t);
       else this.pushText(t);
       this.n++;
     }
-    if (this.n !== n) throw new Error('column conversion lost cells');
   }
 
   private codesToTexts(): void {
-    const codes = this.codes;
+    const codes = this.codes.take();
     const levels = this.levels;
-    const n = this.n;
     this.kind = 'texts';
-    this.codes = new Uint32Array(0);
     this.levels = [];
     this.index = null;
-    this.offsets = new Uint32Array(Math.max(16, n + 2));
-    this.bytes = new Uint8Array(Math.max(64, n * 8));
-    this.used = 0;
-    for (let k = 0; k < n; k++) {
-      this.n = k;
-      this.pushText(levels[codes[k]]);
-    }
-    this.n = n;
+    for (let k = 0; k < codes.length; k++) this.pushText(levels[codes[k]]);
   }
 
-  /** The column as stored (trimmed to its length). */
+  /** The column as stored; the builder is empty afterwards. */
   finish(): StoredColumn {
     const n = this.n;
+    this.n = 0;
     if (this.kind === 'numbers') {
-      return { kind: 'numbers', length: n, values: this.values.slice(0, n), decimals: this.decimals.slice(0, n), otherAt: Uint32Array.from(this.otherAt), otherText: this.otherText.slice() };
+      const col: StoredColumn = { kind: 'numbers', length: n, values: this.values.take(), decimals: this.decimals.take(), otherAt: Uint32Array.from(this.otherAt), otherText: this.otherText };
+      this.otherAt = [];
+      this.otherText = [];
+      return col;
     }
-    if (this.kind === 'codes') return { kind: 'codes', length: n, codes: this.codes.slice(0, n), levels: this.levels.slice() };
-    return { kind: 'texts', length: n, bytes: this.bytes.slice(0, this.used), offsets: this.offsets.slice(0, n + 1) };
+    if (this.kind === 'codes') return { kind: 'codes', length: n, codes: this.codes.take(), levels: this.levels };
+    const ends = this.ends.take();
+    const offsets = new Uint32Array(n + 1);
+    offsets.set(ends, 1);
+    return { kind: 'texts', length: n, bytes: this.bytes.take(), offsets };
   }
+}
 
-  /** The text of cell k while building (for detection before the column is finished). */
-  textAt(k: number): string {
-    if (this.kind === 'numbers') return numberCellText(this.values, this.decimals, this.otherAt, this.otherText, k);
-    if (this.kind === 'codes') return this.levels[this.codes[k]];
-    return decodeBytes(this.bytes, this.offsets[k], this.offsets[k + 1]);
-  }
+/** The value of cell k when it is a plain decimal number ("12.5", "-3"), else NaN. */
+export function plainNumberAt(col: StoredColumn, k: number): number {
+  return col.kind === 'numbers' && col.decimals[k] < EMPTY ? col.values[k] : NaN;
+}
 
-  /** The value of cell k when it is a plain decimal number, else NaN (while building). */
-  plainNumberAt(k: number): number {
-    return this.kind === 'numbers' && this.decimals[k] < EMPTY ? this.values[k] : NaN;
-  }
-
-  /** Digits after the point of cell k when it is a plain decimal number, else -1 (while building). */
-  plainDecimalsAt(k: number): number {
-    return this.kind === 'numbers' && this.decimals[k] < EMPTY ? this.decimals[k] : -1;
-  }
+/** Digits after the point of cell k when it is a plain decimal number, else -1. */
+export function plainDecimalsAt(col: StoredColumn, k: number): number {
+  return col.kind === 'numbers' && col.decimals[k] < EMPTY ? col.decimals[k] : -1;
 }
 
 function decodeBytes(bytes: Uint8Array, a: number, b: number): string {
