@@ -96,7 +96,7 @@ export async function writeOutput(io: CliIo, file: string | undefined, data: str
     io.stdout(data);
     return;
   }
-  await writeFileSafely(io.cwd, file, data);
+  await writeFileSafely(io.cwd, file, data, (text) => io.stderr(`note: ${text}\n`));
 }
 
 /** Prints warnings on stderr, each line prefixed with "warning: ". */
