@@ -134,6 +134,24 @@ function writeAll(fd: number, bytes: Uint8Array): Promise<void> | void {
   })();
 }
 
+/** What an output holds: text, bytes, or pieces of either written one after another (a large text never whole). */
+export type OutputData = string | Uint8Array | Iterable<string | Uint8Array>;
+
+function bytesOf(piece: string | Uint8Array): Uint8Array {
+  return typeof piece === 'string' ? Buffer.from(piece, 'utf8') : piece;
+}
+
+async function writeData(fd: number, data: OutputData): Promise<void> {
+  if (typeof data === 'string' || data instanceof Uint8Array) {
+    await writeAll(fd, bytesOf(data));
+    return;
+  }
+  for (const piece of data) {
+    await writeAll(fd, bytesOf(piece));
+    await turn();
+  }
+}
+
 /** The start of every temporary name of `target`: hidden, the (cut) name, then ".gapwise-". */
 function temporaryPrefix(target: string): string {
   // Cut long names so that the temporary name stays within the 255 bytes most file systems allow.
@@ -193,15 +211,14 @@ export function removeStaleTemporaries(target: string): string[] {
  * and renamed onto the final name. Throws GapwiseError('bad-file') naming the file; on any failure
  * the temporary file is removed and the final name is untouched.
  */
-export async function writeFileSafely(cwd: string, file: string, data: string | Uint8Array, onNote?: (text: string) => void): Promise<void> {
-  const bytes = typeof data === 'string' ? Buffer.from(data, 'utf8') : data;
+export async function writeFileSafely(cwd: string, file: string, data: OutputData, onNote?: (text: string) => void): Promise<void> {
   const target = resolvedPath(cwd, file);
   const existing = statOrNull(target);
   if (existing !== null && !existing.isFile() && (existing.isCharacterDevice() || existing.isFIFO())) {
     let fd = -1;
     try {
       fd = openSync(target, 'w');
-      await writeAll(fd, bytes);
+      await writeData(fd, data);
     } catch (e) {
       throw writeError(file, e);
     } finally {
@@ -219,7 +236,7 @@ export async function writeFileSafely(cwd: string, file: string, data: string | 
   try {
     // 'wx': never follow or reuse something already there under the temporary name.
     fd = openSync(temp, 'wx', existing ? existing.mode & 0o777 : 0o666);
-    await writeAll(fd, bytes);
+    await writeData(fd, data);
     fsyncSync(fd);
     closeSync(fd);
     fd = -1;
@@ -231,6 +248,8 @@ export async function writeFileSafely(cwd: string, file: string, data: string | 
     }
     removeQuietly(temp);
     pending.delete(temp);
+    // A problem of the data being written (pieces made as they are written) is said as it is.
+    if (e instanceof GapwiseError) throw e;
     throw writeError(file, e);
   }
 }

@@ -13,9 +13,9 @@ import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts'
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMarkFrom, isMissing, markEvidence, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks, MarkEvidence } from './numbers.ts';
-import { ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
+import { Chunked, ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
 import type { SampleTable, StoredColumn } from './sample-table.ts';
-import { duplicateGroups, outlierIndices, summarise, transformAdvice } from './quality.ts';
+import { duplicateGroups, outlierIndices, sortedCopy, summarise, transformAdvice } from './quality.ts';
 import { formatValue } from './format.ts';
 import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry } from './types.ts';
 
@@ -99,7 +99,7 @@ interface Table {
 /** Cells of rows stored by column as they arrive. */
 class RecordStore {
   readonly builders: ColumnBuilder[];
-  lines = new Uint32Array(1024);
+  private readonly lineChunks = new Chunked((n) => new Uint32Array(n));
   n = 0;
 
   constructor(width: number) {
@@ -108,16 +108,16 @@ class RecordStore {
 
   add(line: number, cells: readonly string[]): number {
     const k = this.n;
-    if (k >= this.lines.length) {
-      const bigger = new Uint32Array(this.lines.length * 2);
-      bigger.set(this.lines);
-      this.lines = bigger;
-    }
-    this.lines[k] = line;
+    this.lineChunks.push(line);
     const b = this.builders;
     for (let c = 0; c < b.length; c++) b[c].push(c < cells.length ? cells[c] : '');
     this.n++;
     return k;
+  }
+
+  /** The line or feature number of each stored row (once, at the end). */
+  lines(): Uint32Array {
+    return this.lineChunks.take();
   }
 }
 
@@ -357,7 +357,7 @@ class CsvCollector {
       throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
     }
     return {
-      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines.slice(0, store.n), rows,
+      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines(), rows,
       delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines,
     };
   }
@@ -385,7 +385,7 @@ function geojsonTable(text: string, fileName: string, limits: Limits): Table {
   const rows = new Uint32Array(n);
   for (let k = 0; k < n; k++) rows[k] = k;
   return {
-    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines.slice(0, n), rows, featureIds: featureIds.finish(), lon, lat,
+    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines(), rows, featureIds: featureIds.finish(), lon, lat,
     delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs,
   };
 }
@@ -1072,7 +1072,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
 
   // --- quality ------------------------------------------------------------------------------
   const sv = out.value;
-  const outliers = outlierIndices(sv);
+  const sortedValues = sortedCopy(sv);
+  const outliers = outlierIndices(sv, 3, sortedValues);
   for (const i of outliers) {
     out.flags[i] |= FLAG_OUTLIER;
     const first = out.line[i];
@@ -1081,7 +1082,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   if (outliers.length) {
     warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${sv[i]} (${format === 'csv' ? 'line' : 'feature'} ${out.line[i]})`).join(', ')}${outliers.length > 12 ? ` and ${outliers.length - 12} more` : ''}.` });
   }
-  const summary = summarise(sv);
+  const summary = summarise(sv, sortedValues);
   if (summary.n < 3) {
     warnings.push({ code: 'too-few-samples', message: `Only ${summary.n} sample${summary.n === 1 ? '' : 's'} after reading; fitting a model needs at least 3 and will be refused (predicting with a given model still works).` });
   } else if (summary.min === summary.max) {
@@ -1138,7 +1139,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     format,
     inputX: out.inputX,
     inputY: out.inputY,
-    value: out.value.slice(),
+    // The same array as samples.value (both read-only after the read): one copy fewer of the largest files.
+    value: out.value,
     flags: out.flags,
     line: out.line,
     record: out.record,

@@ -104,14 +104,19 @@ export function quantile(sorted: ArrayLike<number>, p: number): number {
   return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
 }
 
+/** The values in ascending order, in a new array (callers that need both may share it: `outlierIndices`, `summarise`). */
+export function sortedCopy(values: ArrayLike<number>): Float64Array {
+  return (values instanceof Float64Array ? values.slice() : Float64Array.from(values)).sort();
+}
+
 /**
  * Indices of values beyond 3 interquartile ranges below the first or above the third quartile
  * (Tukey's "far out" fence; common practice). Flagged only, never removed.
  */
-export function outlierIndices(values: ArrayLike<number>, fence = 3): number[] {
+export function outlierIndices(values: ArrayLike<number>, fence = 3, sortedValues?: Float64Array): number[] {
   const n = values.length;
   if (n < 4) return [];
-  const sorted = (values instanceof Float64Array ? values.slice() : Float64Array.from(values)).sort();
+  const sorted = sortedValues ?? sortedCopy(values);
   const q1 = quantile(sorted, 0.25);
   const q3 = quantile(sorted, 0.75);
   const iqr = q3 - q1;
@@ -135,10 +140,10 @@ export interface Summary {
 }
 
 /** Summary statistics; for no values every field is 0 except n. */
-export function summarise(values: ArrayLike<number>): Summary {
+export function summarise(values: ArrayLike<number>, sortedValues?: Float64Array): Summary {
   const n = values.length;
   if (n === 0) return { n: 0, min: 0, max: 0, mean: 0, median: 0, sd: 0, skewness: 0 };
-  const sorted = (values instanceof Float64Array ? values.slice() : Float64Array.from(values)).sort();
+  const sorted = sortedValues ?? sortedCopy(values);
   let sum = 0;
   for (let i = 0; i < n; i++) sum += values[i];
   const mean = sum / n;

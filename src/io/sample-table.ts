@@ -78,25 +78,27 @@ const encoder = new TextEncoder();
 const decoder = new TextDecoder();
 
 type Typed = Float64Array | Uint8Array | Uint32Array;
+const NOTHING = new Uint8Array(0);
 
 /**
  * A typed array that grows by chunks (16 items, doubling to 65,536): no large copy while a column is
  * read and at most one chunk unused, where doubling one array leaves up to half of it unused and
  * briefly holds both the old and the new array.
  */
-class Chunked<T extends Typed> {
-  private readonly full: T[] = [];
+export class Chunked<T extends Typed> {
+  private full: T[] | null = null;
   private current: T;
   private used = 0;
   length = 0;
 
   constructor(private readonly make: (n: number) => T) {
-    this.current = make(0);
+    // No array until the first item: a file may have a million columns of one row each.
+    this.current = NOTHING as unknown as T;
   }
 
   push(v: number): void {
     if (this.used === this.current.length) {
-      if (this.current.length) this.full.push(this.current);
+      if (this.current.length) (this.full ??= []).push(this.current);
       this.current = this.make(Math.min(65536, Math.max(16, this.length)));
       this.used = 0;
     }
@@ -106,7 +108,7 @@ class Chunked<T extends Typed> {
 
   /** Item k (walks the chunks: for the few reads made while a column is built). */
   get(k: number): number {
-    for (const c of this.full) {
+    for (const c of this.full ?? []) {
       if (k < c.length) return c[k];
       k -= c.length;
     }
@@ -117,13 +119,13 @@ class Chunked<T extends Typed> {
   take(): T {
     const out = this.make(this.length);
     let at = 0;
-    for (const c of this.full) {
+    for (const c of this.full ?? []) {
       out.set(c, at);
       at += c.length;
     }
     out.set(this.current.subarray(0, this.used), at);
-    this.full.length = 0;
-    this.current = this.make(0);
+    this.full = null;
+    this.current = NOTHING as unknown as T;
     this.used = 0;
     this.length = 0;
     return out;
@@ -195,14 +197,15 @@ export class ColumnBuilder {
   private n = 0;
   private values = new Chunked(f64);
   private decimals = new Chunked(u8);
-  private otherAt: number[] = [];
-  private otherText: string[] = [];
-  private codes = new Chunked(u32);
+  private otherAt: number[] | null = null;
+  private otherText: string[] | null = null;
+  // Made when the column turns to text.
+  private codes!: Chunked<Uint32Array>;
   private levels: string[] = [];
   private index: Map<string, number> | null = null;
-  private bytes = new Chunked(u8);
+  private bytes!: Chunked<Uint8Array>;
   /** End of each cell's bytes (cell k ends at ends[k], starts at ends[k - 1] or 0). */
-  private ends = new Chunked(u32);
+  private ends!: Chunked<Uint32Array>;
   private usedBytes = 0;
 
   get length(): number {
@@ -213,7 +216,7 @@ export class ColumnBuilder {
     if (this.kind === 'numbers') {
       this.pushNumber(text);
       this.n++;
-      if (this.n <= 4096 && this.otherText.length > 32 && this.otherText.length * 2 > this.n) this.toTexts();
+      if (this.otherText !== null && this.n <= 4096 && this.otherText.length > 32 && this.otherText.length * 2 > this.n) this.toTexts();
       return;
     }
     if (this.kind === 'codes') this.pushCode(text);
@@ -234,8 +237,8 @@ export class ColumnBuilder {
     } else {
       this.values.push(NaN);
       this.decimals.push(OTHER);
-      this.otherAt.push(this.n);
-      this.otherText.push(text);
+      (this.otherAt ??= []).push(this.n);
+      (this.otherText ??= []).push(text);
     }
   }
 
@@ -281,13 +284,14 @@ export class ColumnBuilder {
     let other = 0;
     for (let k = 0; k < n; k++) {
       const d = this.decimals.get(k);
-      all.push(d === EMPTY ? '' : d === OTHER ? this.otherText[other++] : this.values.get(k).toFixed(d));
+      all.push(d === EMPTY ? '' : d === OTHER ? (this.otherText as string[])[other++] : this.values.get(k).toFixed(d));
     }
     this.kind = 'codes';
+    this.codes = new Chunked(u32);
     this.values = new Chunked(f64);
     this.decimals = new Chunked(u8);
-    this.otherAt = [];
-    this.otherText = [];
+    this.otherAt = null;
+    this.otherText = null;
     this.n = 0;
     for (const t of all) {
       if (this.kind === 'codes') this.pushCode(t);
@@ -300,6 +304,8 @@ export class ColumnBuilder {
     const codes = this.codes.take();
     const levels = this.levels;
     this.kind = 'texts';
+    this.bytes = new Chunked(u8);
+    this.ends = new Chunked(u32);
     this.levels = [];
     this.index = null;
     for (let k = 0; k < codes.length; k++) this.pushText(levels[codes[k]]);
@@ -310,9 +316,12 @@ export class ColumnBuilder {
     const n = this.n;
     this.n = 0;
     if (this.kind === 'numbers') {
-      const col: StoredColumn = { kind: 'numbers', length: n, values: this.values.take(), decimals: this.decimals.take(), otherAt: Uint32Array.from(this.otherAt), otherText: this.otherText };
-      this.otherAt = [];
-      this.otherText = [];
+      const col: StoredColumn = {
+        kind: 'numbers', length: n, values: this.values.take(), decimals: this.decimals.take(),
+        otherAt: this.otherAt ? Uint32Array.from(this.otherAt) : new Uint32Array(0), otherText: this.otherText ?? [],
+      };
+      this.otherAt = null;
+      this.otherText = null;
       return col;
     }
     if (this.kind === 'codes') return { kind: 'codes', length: n, codes: this.codes.take(), levels: this.levels };
