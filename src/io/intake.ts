@@ -83,8 +83,10 @@ interface Table {
   store: StoredColumn[];
   /** Line or feature number of each stored row. */
   recordLine: Uint32Array;
-  /** The stored rows that are read, in file order. */
-  rows: Uint32Array;
+  /** The stored rows that are read, in file order; null when they are all of them (0, 1, 2, …). */
+  rows: Uint32Array | null;
+  /** How many stored rows are read. */
+  rowCount: number;
   /** GeoJSON: each feature's own id ('' when none) and position. */
   featureIds?: StoredColumn;
   lon?: Float64Array;
@@ -189,14 +191,14 @@ function missingColumn(file: string, what: string, want: string, columns: string
 
 /** The text of cell `col` of the table's k-th row. */
 function cellAt(table: Table, k: number, col: number): string {
-  return cellText(table.store[col], table.rows[k]);
+  return cellText(table.store[col], table.rows ? table.rows[k] : k);
 }
 
 /** Share of non-missing cells (of the first 2000 rows) of a column that read as numbers or "<number" non-detects. */
 function numericShare(table: Table, col: number, marks: ColumnMarks): { share: number; filled: number } {
   let filled = 0;
   let ok = 0;
-  const limit = Math.min(table.rows.length, 2000);
+  const limit = Math.min(table.rowCount, 2000);
   for (let k = 0; k < limit; k++) {
     const raw = cellAt(table, k, col);
     if (isMissing(raw)) continue;
@@ -219,8 +221,8 @@ function marksFor(table: Table, col: number, delimiter: string): ColumnMarks {
   // Lazily: with a comma delimiter the mark is settled without looking at a cell.
   const b = table.store[col];
   function* evidence(): Generator<MarkEvidence> {
-    for (let k = 0; k < table.rows.length; k++) {
-      const rec = table.rows[k];
+    for (let k = 0; k < table.rowCount; k++) {
+      const rec = table.rows ? table.rows[k] : k;
       const d = plainDecimalsAt(b, rec);
       yield d >= 0 ? plainEvidence(plainNumberAt(b, rec), d) : markEvidence(cellText(b, rec));
     }
@@ -343,8 +345,12 @@ class CsvCollector {
         entries.push({ line: r.line, raw: r.raw, action: 'rejected', reason: `has ${r.count} field${r.count === 1 ? '' : 's'} but the header has ${width}` });
       }
     }
-    const rows = new Uint32Array(store.n - dropped.size);
-    for (let k = 0, j = 0; k < store.n; k++) if (!dropped.has(k)) rows[j++] = k;
+    let rows: Uint32Array | null = null;
+    if (dropped.size) {
+      rows = new Uint32Array(store.n - dropped.size);
+      for (let k = 0, j = 0; k < store.n; k++) if (!dropped.has(k)) rows[j++] = k;
+    }
+    const rowCount = store.n - dropped.size;
     if (t.renamed.length) {
       const shown = t.renamed.slice(0, LIST_NAMES).map(([x, y]) => `${quoted(x)} → ${quoted(y)}`).join(', ');
       const more = t.renamed.length > LIST_NAMES ? ` and ${(t.renamed.length - LIST_NAMES).toLocaleString('en-US')} more` : '';
@@ -353,11 +359,11 @@ class CsvCollector {
     if (t.blankLines.length) {
       warnings.push({ code: 'blank-lines', message: `${t.blankLines.length} blank line${t.blankLines.length === 1 ? '' : 's'} skipped (${listLines(t.blankLines)}).` });
     }
-    if (rows.length === 0 && entries.length === 0) {
+    if (rowCount === 0 && entries.length === 0) {
       throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
     }
     return {
-      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines(), rows,
+      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines(), rows, rowCount,
       delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines,
     };
   }
@@ -382,10 +388,8 @@ function geojsonTable(text: string, fileName: string, limits: Limits): Table {
   if (n === 0 && g.entries.length === 0) {
     throw new GapwiseError('bad-file', 'The FeatureCollection has no features; expected at least one Point or MultiPoint feature.', { file: fileName });
   }
-  const rows = new Uint32Array(n);
-  for (let k = 0; k < n; k++) rows[k] = k;
   return {
-    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines(), rows, featureIds: featureIds.finish(), lon, lat,
+    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines(), rows: null, rowCount: n, featureIds: featureIds.finish(), lon, lat,
     delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs,
   };
 }
@@ -493,7 +497,7 @@ export class SampleIntake {
     if (this.format === 'geojson') {
       table = geojsonTable(this.held, file, this.limits);
       this.held = '';
-      this.counter.rows = table.rows.length + table.entries.filter((e) => e.action === 'rejected').length;
+      this.counter.rows = table.rowCount + table.entries.filter((e) => e.action === 'rejected').length;
     } else {
       table = (this.csv ?? new CsvCollector(file, this.counter, this.limits)).end();
     }
@@ -541,7 +545,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const dupRule = options.duplicates ?? 'merge';
   const tolerance = options.duplicateTolerance ?? 0.01;
   const { columns } = table;
-  const nRows = table.rows.length;
+  const nRows = table.rowCount;
+  const rowIndex = table.rows;
   const entries: ReportEntry[] = [...table.entries];
   const warnings: Warning[] = [...table.warnings];
   const norm = columns.map(normaliseName);
@@ -691,7 +696,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const lonOf = table.lon;
   const latOf = table.lat;
   for (let k = 0; k < nRows; k++) {
-    rec = table.rows[k];
+    rec = rowIndex ? rowIndex[k] : k;
     let x: number;
     let y: number;
     if (format === 'geojson') {

@@ -37,7 +37,8 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
     }
   }
   // Only roots with company get a list: no array per sample for the (usual) sample with none.
-  const size = new Int32Array(n);
+  // The order is no longer needed: its array counts each root's points.
+  const size = order.fill(0);
   for (let i = 0; i < n; i++) size[find(i)]++;
   const groups = new Map<number, number[]>();
   for (let i = 0; i < n; i++) {

@@ -238,7 +238,8 @@ export class ColumnBuilder {
       this.values.push(NaN);
       this.decimals.push(OTHER);
       (this.otherAt ??= []).push(this.n);
-      (this.otherText ??= []).push(text);
+      // Long texts copied (as the levels are), so that one never keeps its whole parsed chunk alive.
+      (this.otherText ??= []).push(text.length > 12 ? (' ' + text).slice(1) : text);
     }
   }
 
@@ -538,6 +539,7 @@ export function isSampleTable(v: unknown): v is SampleTable {
   if (!f64(t.inputX, n) || !f64(t.inputY, n) || !f64(t.value, n)) return false;
   if (!(t.flags instanceof Uint8Array) || t.flags.length !== n || !u32(t.line) || t.line!.length !== n || !u32(t.record) || t.record!.length !== n) return false;
   if (!u32(t.recordLine) || !Array.isArray(t.columns) || !Array.isArray(t.cells) || t.cells.length !== t.columns.length) return false;
+  if (!Array.isArray(t.marks) || t.marks.length !== t.columns.length) return false;
   const records = t.recordLine!.length;
   if (!t.merged || !u32(t.merged.sample) || !u32(t.merged.start) || !u32(t.merged.records)) return false;
   for (let i = 0; i < n; i++) if (t.record![i] >= records) return false;
