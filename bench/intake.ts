@@ -5,12 +5,14 @@
  * (wall time is unreliable on a shared, loaded machine) and memory: the change in
  * heapUsed kept by the result (after a collection with --expose-gc) and the rss growth over the read.
  * Targets: under 2 s and about 50 MB beyond the file for 100,000 rows.
- * File figures: a lon/lat CSV written to a temporary folder and read the command line's way (streamed
- * from the disk through SampleIntake), each size in a fresh process so that its peak RSS is its own:
- * seconds and peak RSS for 1 M rows and for the row limit; a file one row past the limit, and one of
- * 10 M rows, to time the refusal. Target for a file within the limits: under 60 s and 2 GB.
+ * File figures: a lon/lat CSV written block by block to a temporary folder (never whole in memory) and
+ * read the command line's way (its bytes streamed from the disk through readSamplesStream: parsed,
+ * validated, projected to UTM, duplicates and outliers checked, stored by column), each size in a fresh
+ * process so that its peak RSS (process.resourceUsage().maxRSS) is its own: seconds, rows per second,
+ * CPU and peak RSS for 1 M rows and for the row limit (10 M rows); a file one row past the limit, to
+ * time the refusal. Target for 10 M rows: under 60 s and under 2 GB.
  * Run alone: `npx tsx bench/intake.ts` (`--quick`: 20,000 rows, smaller files), `--files` for only
- * the file figures, or via `npm run bench`.
+ * the file figures (`--files --rows 10000000` for one size), or via `npm run bench -- intake`.
  */
 import type { Row } from './common.ts';
 import { pathToFileURL, fileURLToPath } from 'node:url';
@@ -18,7 +20,7 @@ import { spawnSync } from 'node:child_process';
 import { closeSync, mkdtempSync, openSync, rmSync, statSync, writeSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { SampleIntake, readSamples } from '../src/io/intake.ts';
+import { readSamples, readSamplesStream } from '../src/io/intake.ts';
 import { MAX_SAMPLE_ROWS } from '../src/io/intake-limits.ts';
 import { openInputFile } from '../src/cli/input-file.ts';
 import { GapwiseError } from '../src/core/errors.ts';
@@ -61,16 +63,15 @@ export function writeLonLatCsv(path: string, n: number, seed = 7): number {
 }
 
 /** In a child process: reads `file` as the command line does and prints seconds, peak RSS and rows. */
-function childRead(file: string): void {
+async function childRead(file: string): Promise<void> {
   const t0 = performance.now();
   const c0 = process.cpuUsage();
   let rows = 0;
   let refused = '';
   try {
     const { size, chunks } = openInputFile('.', file);
-    const intake = new SampleIntake({ fileName: file }, { totalBytes: size });
-    for (const c of chunks) intake.push(c);
-    rows = intake.finish().report.rowsUsed;
+    const result = await readSamplesStream(chunks, { fileName: file }, { totalBytes: size });
+    rows = result.report.rowsUsed;
   } catch (e) {
     if (!(e instanceof GapwiseError)) throw e;
     refused = e.message;
@@ -91,15 +92,15 @@ function fileFigure(dir: string, n: number): Row {
   rmSync(path, { force: true });
   if (child.status !== 0) throw new Error(`bench child failed: ${child.stderr}`);
   const r = JSON.parse(child.stdout.trim().split('\n').pop() as string) as { seconds: number; cpu: number; peakMB: number; rows: number; refused: string };
-  const what = r.refused ? `refused: "${r.refused}"` : `${r.rows.toLocaleString('en-US')} rows used`;
+  const what = r.refused ? `refused: "${r.refused}"` : `${r.rows.toLocaleString('en-US')} rows used, ${Math.round(n / r.seconds).toLocaleString('en-US')} rows/s`;
   return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `CPU ${r.cpu.toFixed(1)} s (all threads); file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MB (whole process); ${what}` };
 }
 
-/** The file figures: 1 M rows (quick: 100,000), the row limit, one past it, and 10 M rows. */
-export function runIntakeFileBench(options: { quick?: boolean } = {}): Row[] {
+/** The file figures: 1 M rows (quick: 100,000), the row limit (10 M rows) and one row past it; `sizes` picks others. */
+export function runIntakeFileBench(options: { quick?: boolean; sizes?: number[] } = {}): Row[] {
   const dir = mkdtempSync(join(tmpdir(), 'gapwise-bench-intake-'));
   try {
-    const sizes = options.quick ? [100_000, MAX_SAMPLE_ROWS + 1] : [1_000_000, MAX_SAMPLE_ROWS, MAX_SAMPLE_ROWS + 1, 10_000_000];
+    const sizes = options.sizes ?? (options.quick ? [100_000] : [1_000_000, MAX_SAMPLE_ROWS, MAX_SAMPLE_ROWS + 1]);
     return sizes.map((n) => fileFigure(dir, n));
   } finally {
     rmSync(dir, { recursive: true, force: true });
@@ -180,9 +181,12 @@ export async function runIntakeBench(options: { quick?: boolean } = {}): Promise
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href && process.argv.includes('--child')) {
-  childRead(process.argv[process.argv.indexOf('--child') + 1]);
+  await childRead(process.argv[process.argv.indexOf('--child') + 1]);
 } else if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
   const quick = process.argv.includes('--quick');
-  const rows = process.argv.includes('--files') ? runIntakeFileBench({ quick }) : await runIntakeBench({ quick });
+  // `--rows N` (with --files): only a file of N rows.
+  const at = process.argv.indexOf('--rows');
+  const sizes = at > 0 ? [Number(process.argv[at + 1])] : undefined;
+  const rows = process.argv.includes('--files') ? runIntakeFileBench({ quick, sizes }) : await runIntakeBench({ quick });
   for (const row of rows) console.log(`${row.name.padEnd(34)} n=${String(row.n).padEnd(7)} ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
 }

@@ -35,7 +35,7 @@ function demoReport(): string {
   });
   const intake = projectIntake(base);
   const suggestions = [0, 40, 90].map((i, k) => ({
-    rank: k + 1, x: intake.samples.x[i] + 7, y: intake.samples.y[i] - 9, lon: intake.rows[i].inputX, lat: intake.rows[i].inputY,
+    rank: k + 1, x: intake.samples.x[i] + 7, y: intake.samples.y[i] - 9, lon: intake.table.inputX[i], lat: intake.table.inputY[i],
     benefit: 0.2 - 0.05 * k, mean: 150, sd: 60, pExceed: 0.35,
   }));
   const project = { ...base, suggestions };

@@ -6,6 +6,7 @@ import { polygonsArea } from '../core/polygon.ts';
 import { GapwiseError } from '../core/errors.ts';
 import { pointInPolygons, projectPolygons, readPolygons, type Polygon } from '../io/boundary.ts';
 import type { IntakeResult } from '../io/types.ts';
+import { sampleId } from '../io/sample-table.ts';
 import { printWarnings, readText, type CliIo } from './common.ts';
 
 export interface BoundaryReport {
@@ -38,7 +39,7 @@ export function readBoundaryFile(io: CliIo, file: string, intake: IntakeResult):
   for (let i = 0; i < x.length; i++) {
     if (!pointInPolygons(x[i], y[i], projected)) {
       outside++;
-      if (outsideIds.length < 50) outsideIds.push(intake.rows[i]?.id ?? String(i + 1));
+      if (outsideIds.length < 50) outsideIds.push(sampleId(intake.table, i));
     }
   }
   if (outside > 0) {

@@ -16,7 +16,7 @@ import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '
 import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../core/local-kriging.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
-import { writeFileSafely } from './safe-write.ts';
+import { writeFileSafely, type OutputData } from './safe-write.ts';
 
 /** Carried by every result, export and help text. */
 export const CAUTION =
@@ -90,13 +90,19 @@ export function readText(io: CliIo, file: string): string {
  * Writes `data` to `file` through a temporary file renamed onto the name (./safe-write.ts: never a
  * partial file under the name), or text to stdout when no file is given.
  */
-export async function writeOutput(io: CliIo, file: string | undefined, data: string | Uint8Array): Promise<void> {
+export async function writeOutput(io: CliIo, file: string | undefined, data: OutputData): Promise<void> {
   if (file === undefined) {
-    if (typeof data !== 'string') throw new Error('Binary output needs --out FILE; stdout takes text only.');
-    io.stdout(data);
+    if (data instanceof Uint8Array) throw new Error('Binary output needs --out FILE; stdout takes text only.');
+    if (typeof data === 'string') io.stdout(data);
+    else {
+      for (const piece of data) {
+        if (typeof piece !== 'string') throw new Error('Binary output needs --out FILE; stdout takes text only.');
+        io.stdout(piece);
+      }
+    }
     return;
   }
-  await writeFileSafely(io.cwd, file, data);
+  await writeFileSafely(io.cwd, file, data, (text) => io.stderr(`note: ${text}\n`));
 }
 
 /** Prints warnings on stderr, each line prefixed with "warning: ". */

@@ -11,12 +11,14 @@
  *   link as output is followed (the file it points to is replaced, the link stays). The temporary file
  *   is removed on any error (full disk, file-size limit) and, through `installSignalCleanup`, on
  *   SIGINT, SIGTERM and SIGHUP, after which the process exits with 128 + the signal number. A SIGKILL
- *   cannot be caught: the final name is then intact and a `.….tmp` file may stay behind.
+ *   cannot be caught: the final name is then intact and a `.….tmp` file may stay behind; the next
+ *   write of the same output removes it once no process holds its process id (`removeStaleTemporaries`),
+ *   and says so.
  * - Character devices and FIFOs (`--out /dev/stdout`) are written to directly: they hold no previous
  *   output to protect and cannot be renamed onto.
  */
 import {
-  accessSync, closeSync, constants, fsyncSync, openSync, realpathSync, renameSync, statSync, unlinkSync, writeSync, type Stats,
+  accessSync, closeSync, constants, fsyncSync, lstatSync, openSync, readdirSync, realpathSync, renameSync, statSync, unlinkSync, writeSync, type Stats,
 } from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
 import { randomBytes } from 'node:crypto';
@@ -132,11 +134,76 @@ function writeAll(fd: number, bytes: Uint8Array): Promise<void> | void {
   })();
 }
 
-/** The temporary name beside `target`: hidden, with the process id and random letters. */
-export function temporaryName(target: string): string {
+/** What an output holds: text, bytes, or pieces of either written one after another (a large text never whole). */
+export type OutputData = string | Uint8Array | Iterable<string | Uint8Array>;
+
+function bytesOf(piece: string | Uint8Array): Uint8Array {
+  return typeof piece === 'string' ? Buffer.from(piece, 'utf8') : piece;
+}
+
+async function writeData(fd: number, data: OutputData): Promise<void> {
+  if (typeof data === 'string' || data instanceof Uint8Array) {
+    await writeAll(fd, bytesOf(data));
+    return;
+  }
+  for (const piece of data) {
+    await writeAll(fd, bytesOf(piece));
+    await turn();
+  }
+}
+
+/** The start of every temporary name of `target`: hidden, the (cut) name, then ".gapwise-". */
+function temporaryPrefix(target: string): string {
   // Cut long names so that the temporary name stays within the 255 bytes most file systems allow.
   const name = Buffer.from(basename(target)).subarray(0, 200).toString('utf8').replace(/\uFFFD$/, '');
-  return join(dirname(target), `.${name}.gapwise-${process.pid}-${randomBytes(4).toString('hex')}.tmp`);
+  return `.${name}.gapwise-`;
+}
+
+/** The temporary name beside `target`: hidden, with the writer's process id and random letters. */
+export function temporaryName(target: string, pid = process.pid): string {
+  return join(dirname(target), `${temporaryPrefix(target)}${pid}-${randomBytes(4).toString('hex')}.tmp`);
+}
+
+/** Whether a process with this id exists (signal 0 only asks; EPERM: it exists under another user). */
+function processExists(pid: number): boolean {
+  if (pid === process.pid) return true;
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (e) {
+    return (e as { code?: string }).code === 'EPERM';
+  }
+}
+
+/**
+ * Removes the temporary files that earlier writes of `target` left beside it when they were killed
+ * outright (SIGKILL, a power cut): regular files named as `temporaryName` names them whose process id
+ * no running process holds. A file of a writer still running is kept. Returns the names removed.
+ */
+export function removeStaleTemporaries(target: string): string[] {
+  const folder = dirname(target);
+  const prefix = temporaryPrefix(target);
+  let names: string[];
+  try {
+    names = readdirSync(folder);
+  } catch {
+    return [];
+  }
+  const removed: string[] = [];
+  for (const name of names) {
+    if (!name.startsWith(prefix)) continue;
+    const m = /^(\d{1,10})-[0-9a-f]{8}\.tmp$/.exec(name.slice(prefix.length));
+    if (!m || processExists(Number(m[1]))) continue;
+    const path = join(folder, name);
+    try {
+      if (!lstatSync(path).isFile()) continue;
+      unlinkSync(path);
+      removed.push(name);
+    } catch {
+      // Gone meanwhile, or not ours to remove.
+    }
+  }
+  return removed;
 }
 
 /**
@@ -144,15 +211,14 @@ export function temporaryName(target: string): string {
  * and renamed onto the final name. Throws GapwiseError('bad-file') naming the file; on any failure
  * the temporary file is removed and the final name is untouched.
  */
-export async function writeFileSafely(cwd: string, file: string, data: string | Uint8Array): Promise<void> {
-  const bytes = typeof data === 'string' ? Buffer.from(data, 'utf8') : data;
+export async function writeFileSafely(cwd: string, file: string, data: OutputData, onNote?: (text: string) => void): Promise<void> {
   const target = resolvedPath(cwd, file);
   const existing = statOrNull(target);
   if (existing !== null && !existing.isFile() && (existing.isCharacterDevice() || existing.isFIFO())) {
     let fd = -1;
     try {
       fd = openSync(target, 'w');
-      await writeAll(fd, bytes);
+      await writeData(fd, data);
     } catch (e) {
       throw writeError(file, e);
     } finally {
@@ -160,13 +226,17 @@ export async function writeFileSafely(cwd: string, file: string, data: string | 
     }
     return;
   }
+  const stale = removeStaleTemporaries(target);
+  if (stale.length) {
+    onNote?.(`removed ${stale.length} temporary file${stale.length === 1 ? '' : 's'} that an earlier, interrupted write of ${file} left in its folder: ${stale.join(', ')}`);
+  }
   const temp = temporaryName(target);
   let fd = -1;
   pending.add(temp);
   try {
     // 'wx': never follow or reuse something already there under the temporary name.
     fd = openSync(temp, 'wx', existing ? existing.mode & 0o777 : 0o666);
-    await writeAll(fd, bytes);
+    await writeData(fd, data);
     fsyncSync(fd);
     closeSync(fd);
     fd = -1;
@@ -178,6 +248,8 @@ export async function writeFileSafely(cwd: string, file: string, data: string | 
     }
     removeQuietly(temp);
     pending.delete(temp);
+    // A problem of the data being written (pieces made as they are written) is said as it is.
+    if (e instanceof GapwiseError) throw e;
     throw writeError(file, e);
   }
 }

@@ -105,6 +105,9 @@ export class CsvReader {
   private headerLine = 0;
   private readonly rows: CsvRow[] = [];
   private readonly blankLines: number[] = [];
+  /** Trailing header cells with no name, and whether any row has something in them. */
+  private blankTail: number[] = [];
+  private tailFilled = new Set<number>();
 
   constructor(
     private readonly fileName: string,
@@ -112,7 +115,19 @@ export class CsvReader {
     private readonly onRow?: (row: CsvRow) => void,
     /** Text held before the delimiter is chosen and parsing starts (tests make it small). */
     private readonly detectChars = DETECT_CHARS,
+    /** False: rows go only to `onRow` and the table's `rows` stay empty (a large file read by column). */
+    private readonly keepRows = true,
   ) {}
+
+  /** The header's cells as read (before empty or repeated names are renamed), once it has been read. */
+  get headerCells(): string[] | null {
+    return this.header;
+  }
+
+  /** The delimiter, once chosen. */
+  get chosenDelimiter(): Delimiter | null {
+    return this.delimiter;
+  }
 
   push(chunk: string): void {
     let t = chunk;
@@ -169,6 +184,8 @@ export class CsvReader {
     }
     const unclosed = parsed.errors.find((e) => e.code === 'MissingQuotes');
     const data = parsed.data;
+    // Only a quoted cell can hold a line break: without a quote in the text every row is one line.
+    const quotes = input.indexOf('"') >= 0;
     for (let r = 0; r < data.length; r++) {
       const cells = data[r];
       const start = this.line;
@@ -177,8 +194,10 @@ export class CsvReader {
       }
       // A row spans one line plus every line break inside its quoted cells.
       let breaks = 0;
-      for (const c of cells) {
-        for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
+      if (quotes) {
+        for (const c of cells) {
+          for (let i = c.indexOf('\n'); i !== -1; i = c.indexOf('\n', i + 1)) breaks++;
+        }
       }
       this.line += 1 + breaks;
       if (isBlank(cells)) {
@@ -188,10 +207,12 @@ export class CsvReader {
       if (this.header === null) {
         this.header = cells;
         this.headerLine = start;
+        for (let k = cells.length - 1; k > 0 && cells[k].trim() === ''; k--) this.blankTail.push(k);
       } else {
+        for (const k of this.blankTail) if ((cells[k] ?? '').trim() !== '') this.tailFilled.add(k);
         const row = { line: start, cells };
         this.onRow?.(row);
-        this.rows.push(row);
+        if (this.keepRows) this.rows.push(row);
       }
     }
   }
@@ -218,7 +239,7 @@ export class CsvReader {
       return name;
     });
     // Trailing empty header cells (a delimiter at the end of the header line) are not columns.
-    while (names.length > 1 && header[names.length - 1].trim() === '' && rows.every((r) => (r.cells[names.length - 1] ?? '').trim() === '')) {
+    while (names.length > 1 && header[names.length - 1].trim() === '' && !this.tailFilled.has(names.length - 1)) {
       names.pop();
       renamed.pop();
     }

@@ -46,6 +46,20 @@ function fixed(v: number, decimals: number): string {
 
 /** The CSV text (LF line ends). Local planar coordinates (no CRS) have no lon, lat columns. */
 export function surfaceGridCsv(input: GridCsvInput): string {
+  let text = '';
+  for (const piece of surfaceGridCsvChunks(input)) text += piece;
+  return text;
+}
+
+/** Characters of CSV text in one piece of `surfaceGridCsvChunks` (about a mebibyte). */
+const CHUNK_CHARS = 1 << 20;
+
+/**
+ * The same CSV text as `surfaceGridCsv`, in pieces of whole lines of about `chunkChars` characters: a
+ * writer that takes them one by one never holds the text of a large grid (200 MB for 2 million cells)
+ * as one string.
+ */
+export function* surfaceGridCsvChunks(input: GridCsvInput, chunkChars = CHUNK_CHARS): Generator<string> {
   const { grid, surface } = input;
   const { x, y, index } = cellCentres(grid);
   const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
@@ -53,7 +67,8 @@ export function surfaceGridCsv(input: GridCsvInput): string {
   const prefix = drawn ? 'realisation_' : '';
   const header = [...(geo ? ['x', 'y', 'lon', 'lat'] : ['x', 'y']), `${prefix}mean`, `${prefix}sd`];
   if (surface.pExceed) header.push(`${prefix}p_exceed`);
-  const lines: string[] = [];
+  let lines: string[] = [];
+  let chars = 0;
   if (input.caution !== false) {
     const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
     const what = drawn
@@ -73,9 +88,16 @@ export function surfaceGridCsv(input: GridCsvInput): string {
       num(surface.mean[k], dm), num(surface.sd[k], ds),
     ];
     if (surface.pExceed) row.push(num(surface.pExceed[k], dp));
-    lines.push(row.join(','));
+    const line = row.join(',');
+    lines.push(line);
+    chars += line.length + 1;
+    if (chars >= chunkChars) {
+      yield `${lines.join('\n')}\n`;
+      lines = [];
+      chars = 0;
+    }
   }
-  return `${lines.join('\n')}\n`;
+  if (lines.length) yield `${lines.join('\n')}\n`;
 }
 
 /** Input of the several-analyte table: one grid, each analyte's surfaces. */

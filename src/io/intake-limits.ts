@@ -4,11 +4,15 @@
  * the memory runs out: a file is read as a stream, and the limits stop it early.
  */
 
-/** Largest samples file read, in bytes (CSV or GeoJSON). */
-export const MAX_SAMPLE_BYTES = 128 * 1024 * 1024;
+/**
+ * Largest samples file read, in bytes (CSV or GeoJSON): room for 10 million rows of an ID, two
+ * coordinates and a value, and below the longest string a JavaScript engine holds (about 512 MB in V8),
+ * since the app reads a file as text.
+ */
+export const MAX_SAMPLE_BYTES = 500 * 1024 * 1024;
 
-/** Most data rows (CSV) or point features (GeoJSON) read from one samples file. */
-export const MAX_SAMPLE_ROWS = 2_000_000;
+/** Most data rows (CSV) or point features (GeoJSON) read from one samples file (stored by column, about 60 bytes a row). */
+export const MAX_SAMPLE_ROWS = 10_000_000;
 
 /** "256 MB" (binary megabytes, as file managers commonly show them). */
 export function megabytes(bytes: number): string {

@@ -5,19 +5,19 @@
  */
 import { GapwiseError } from '../core/errors.ts';
 import type { Warning } from '../core/errors.ts';
-import { makeSamples } from '../core/samples.ts';
 import { CsvReader } from './csv.ts';
-import type { CsvTable } from './csv.ts';
 import { readPointFeatures } from './geojson.ts';
 import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from './intake-limits.ts';
 import { TextFromBytes, binaryKind } from './text-bytes.ts';
 import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts';
 import type { ResolvedCrs } from './crs.ts';
-import { chooseMark, isMissing, nonDetectLimit, parseColumnNumber } from './numbers.ts';
-import type { ColumnMarks } from './numbers.ts';
-import { duplicateGroups, outlierIndices, summarise, transformAdvice } from './quality.ts';
+import { chooseMarkFrom, isMissing, markEvidence, nonDetectLimit, parseColumnNumber } from './numbers.ts';
+import type { ColumnMarks, MarkEvidence } from './numbers.ts';
+import { Chunked, ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
+import type { SampleTable, StoredColumn } from './sample-table.ts';
+import { duplicateGroups, outlierIndices, sortedCopy, summarise, transformAdvice } from './quality.ts';
 import { formatValue } from './format.ts';
-import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry, SampleRow } from './types.ts';
+import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry } from './types.ts';
 
 /** The note every report carries on non-detect substitution. */
 export const NON_DETECT_NOTE =
@@ -71,21 +71,26 @@ export function splitUnit(header: string): { base: string; unit: string } {
   return { base: header.trim(), unit: '' };
 }
 
-interface Row {
-  line?: number;
-  /** 1-based feature number (GeoJSON). */
-  feature?: number;
-  /** The feature's own id (GeoJSON), for messages. */
-  featureId?: string;
-  cells: string[];
-  lon?: number;
-  lat?: number;
-}
-
+/**
+ * The file's rows as read, stored by column (see sample-table.ts): the cells of every data row that
+ * reached the store, the line (CSV) or feature number (GeoJSON) of each, and which of them passed the
+ * field-count check (`rows`, indices into the store in file order).
+ */
 interface Table {
   format: 'csv' | 'geojson';
   columns: string[];
-  rows: Row[];
+  /** One stored column per name (the cells of each stored row). */
+  store: StoredColumn[];
+  /** Line or feature number of each stored row. */
+  recordLine: Uint32Array;
+  /** The stored rows that are read, in file order; null when they are all of them (0, 1, 2, …). */
+  rows: Uint32Array | null;
+  /** How many stored rows are read. */
+  rowCount: number;
+  /** GeoJSON: each feature's own id ('' when none) and position. */
+  featureIds?: StoredColumn;
+  lon?: Float64Array;
+  lat?: Float64Array;
   delimiter: string;
   entries: ReportEntry[];
   warnings: Warning[];
@@ -93,49 +98,57 @@ interface Table {
   legacyCrs?: string;
 }
 
-function place(r: Row): { line?: number; feature?: number; id?: string } {
-  if (r.line !== undefined) return { line: r.line };
-  return r.featureId !== undefined ? { feature: r.feature, id: r.featureId } : { feature: r.feature };
+/** Cells of rows stored by column as they arrive. */
+class RecordStore {
+  readonly builders: ColumnBuilder[];
+  private readonly lineChunks = new Chunked((n) => new Uint32Array(n));
+  n = 0;
+
+  constructor(width: number) {
+    this.builders = Array.from({ length: width }, () => new ColumnBuilder());
+  }
+
+  add(line: number, cells: readonly string[]): number {
+    const k = this.n;
+    this.lineChunks.push(line);
+    const b = this.builders;
+    for (let c = 0; c < b.length; c++) b[c].push(c < cells.length ? cells[c] : '');
+    this.n++;
+    return k;
+  }
+
+  /** The line or feature number of each stored row (once, at the end). */
+  lines(): Uint32Array {
+    return this.lineChunks.take();
+  }
 }
 
-function where(r: Row): string {
-  return r.line !== undefined ? `line ${r.line}` : `feature ${r.feature}${r.featureId !== undefined ? ` (id ${quoted(r.featureId)})` : ''}`;
+/** Where a stored row is, for a report entry. */
+function placeOf(table: Table, rec: number): { line?: number; feature?: number; id?: string } {
+  const n = table.recordLine[rec];
+  if (table.format === 'csv') return { line: n };
+  const id = table.featureIds ? cellText(table.featureIds, rec) : '';
+  return id !== '' ? { feature: n, id } : { feature: n };
 }
 
 /** "lines 3, 7, 9" with at most `max` listed. */
-function listPlaces(rs: Array<{ line?: number; feature?: number }>, max = 12): string {
-  if (rs.length === 0) return '';
-  const kind = rs[0].line !== undefined ? 'line' : 'feature';
-  const nums = rs.slice(0, max).map((r) => (r.line ?? r.feature) as number);
-  const more = rs.length > max ? ` and ${(rs.length - max).toLocaleString('en-US')} more` : '';
-  return `${kind}${rs.length > 1 ? 's' : ''} ${nums.join(', ')}${more}`;
+function listPlaces(table: Table, recs: ArrayLike<number>, max = 12): string {
+  if (recs.length === 0) return '';
+  const kind = table.format === 'csv' ? 'line' : 'feature';
+  const nums: number[] = [];
+  for (let i = 0; i < Math.min(max, recs.length); i++) nums.push(table.recordLine[recs[i]]);
+  const more = recs.length > max ? ` and ${(recs.length - max).toLocaleString('en-US')} more` : '';
+  return `${kind}${recs.length > 1 ? 's' : ''} ${nums.join(', ')}${more}`;
 }
 
-/**
- * Sets an own property even for names like "__proto__" (a plain assignment would change the
- * object's prototype instead): column names come from the file.
- */
-function setOwn(o: Record<string, string>, key: string, value: string): void {
-  if (key === '__proto__') Object.defineProperty(o, key, { value, enumerable: true, writable: true, configurable: true });
-  else o[key] = value;
+/** "lines 3, 7" from line numbers. */
+function listLines(lines: number[]): string {
+  const more = lines.length > 12 ? ` and ${(lines.length - 12).toLocaleString('en-US')} more` : '';
+  return `line${lines.length > 1 ? 's' : ''} ${lines.slice(0, 12).join(', ')}${more}`;
 }
 
-/** Longest piece of file text quoted in a message; longer text is cut with "…". */
-const QUOTE_CHARS = 80;
-/** Most names listed in a message. */
-const LIST_NAMES = 12;
-
-/** File text in double quotes for a message: control characters shown as \u codes, cut at QUOTE_CHARS. */
-export function quoted(text: string): string {
-  const cut = text.length > QUOTE_CHARS ? `${text.slice(0, QUOTE_CHARS)}…` : text;
-  return `"${cut.replace(/[\u0000-\u001f\u007f-\u009f]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`)}"`;
-}
-
-/** '"a", "b", "c"', at most LIST_NAMES names, then "and N more". */
-export function quotedList(names: readonly string[]): string {
-  const shown = names.slice(0, LIST_NAMES).map(quoted).join(', ');
-  return names.length > LIST_NAMES ? `${shown} and ${(names.length - LIST_NAMES).toLocaleString('en-US')} more` : shown;
-}
+export { quoted, quotedList } from './quote.ts';
+import { LIST_NAMES, quoted, quotedList } from './quote.ts';
 
 function checkOptions(o: IntakeOptions): void {
   if (!o || typeof o !== 'object') throw new GapwiseError('bad-option', 'The intake options are missing; expected an object with at least fileName.');
@@ -161,57 +174,6 @@ function detectFormat(text: string, o: IntakeOptions): 'csv' | 'geojson' {
   return /^\ufeff?\s*\{/.test(text) ? 'geojson' : 'csv';
 }
 
-function csvTable(t: CsvTable, fileName: string): Table {
-  const width = t.header.length;
-  const rows: Row[] = [];
-  const entries: ReportEntry[] = [];
-  const warnings: Warning[] = [];
-  for (const r of t.rows) {
-    const cells = r.cells;
-    if (cells.length > width) {
-      const extra = cells.slice(width);
-      if (extra.every((c) => c.trim() === '')) cells.length = width;
-      else {
-        entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} fields but the header has ${width}; a value may hold an unquoted ${t.delimiter === '\t' ? 'tab' : `${quoted(t.delimiter)}`}` });
-        continue;
-      }
-    }
-    if (cells.length < width) {
-      entries.push({ line: r.line, raw: cells.join(t.delimiter), action: 'rejected', reason: `has ${cells.length} field${cells.length === 1 ? '' : 's'} but the header has ${width}` });
-      continue;
-    }
-    rows.push(r);
-  }
-  if (t.renamed.length) {
-    const shown = t.renamed.slice(0, LIST_NAMES).map(([a, b]) => `${quoted(a)} → ${quoted(b)}`).join(', ');
-    const more = t.renamed.length > LIST_NAMES ? ` and ${(t.renamed.length - LIST_NAMES).toLocaleString('en-US')} more` : '';
-    warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${shown}${more}.` });
-  }
-  if (t.blankLines.length) {
-    warnings.push({ code: 'blank-lines', message: `${t.blankLines.length} blank line${t.blankLines.length === 1 ? '' : 's'} skipped (${listPlaces(t.blankLines.map((line) => ({ line })))}).` });
-  }
-  if (rows.length === 0 && entries.length === 0) {
-    throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
-  }
-  return { format: 'csv', columns: t.header, rows, delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines };
-}
-
-function geojsonTable(text: string, fileName: string): Table {
-  const g = readPointFeatures(text, fileName);
-  if (g.records.length > MAX_SAMPLE_ROWS) throw tooManyRows(fileName, g.records.length);
-  const rows: Row[] = g.records.map((r) => ({
-    feature: r.feature,
-    ...(r.id !== undefined ? { featureId: r.id } : {}),
-    lon: r.lon,
-    lat: r.lat,
-    cells: g.columns.map((c) => r.cells.get(c) ?? ''),
-  }));
-  if (rows.length === 0 && g.entries.length === 0) {
-    throw new GapwiseError('bad-file', 'The FeatureCollection has no features; expected at least one Point or MultiPoint feature.', { file: fileName });
-  }
-  return { format: 'geojson', columns: g.columns, rows, delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs };
-}
-
 /** Finds a column by exact name, then case-insensitively, then by its name without the unit. */
 function findColumn(columns: string[], want: string): number {
   let i = columns.indexOf(want);
@@ -227,13 +189,18 @@ function missingColumn(file: string, what: string, want: string, columns: string
   return new GapwiseError('missing-column', `There is no ${what} column ${quoted(want)}; the columns are ${quotedList(columns)}.`, { file, column: want });
 }
 
+/** The text of cell `col` of the table's k-th row. */
+function cellAt(table: Table, k: number, col: number): string {
+  return cellText(table.store[col], table.rows ? table.rows[k] : k);
+}
+
 /** Share of non-missing cells (of the first 2000 rows) of a column that read as numbers or "<number" non-detects. */
-function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: number; filled: number } {
+function numericShare(table: Table, col: number, marks: ColumnMarks): { share: number; filled: number } {
   let filled = 0;
   let ok = 0;
-  const limit = Math.min(rows.length, 2000);
+  const limit = Math.min(table.rowCount, 2000);
   for (let k = 0; k < limit; k++) {
-    const raw = rows[k].cells[col];
+    const raw = cellAt(table, k, col);
     if (isMissing(raw)) continue;
     filled++;
     const nd = nonDetectLimit(raw);
@@ -243,12 +210,24 @@ function numericShare(rows: Row[], col: number, marks: ColumnMarks): { share: nu
   return { share: filled ? ok / filled : 0, filled };
 }
 
-function marksFor(rows: Row[], col: number, delimiter: string): ColumnMarks {
+/** What a plain decimal cell (value v, d digits after the point) says about the decimal mark (as markEvidence). */
+function plainEvidence(v: number, d: number): MarkEvidence {
+  if (d === 0) return 'none';
+  const whole = Math.trunc(Math.abs(v));
+  return d === 3 && whole >= 1 && whole <= 999 ? 'ambiguous' : '.';
+}
+
+function marksFor(table: Table, col: number, delimiter: string): ColumnMarks {
   // Lazily: with a comma delimiter the mark is settled without looking at a cell.
-  function* cells(): Generator<string> {
-    for (const r of rows) yield r.cells[col];
+  const b = table.store[col];
+  function* evidence(): Generator<MarkEvidence> {
+    for (let k = 0; k < table.rowCount; k++) {
+      const rec = table.rows ? table.rows[k] : k;
+      const d = plainDecimalsAt(b, rec);
+      yield d >= 0 ? plainEvidence(plainNumberAt(b, rec), d) : markEvidence(cellText(b, rec));
+    }
   }
-  return chooseMark(cells(), delimiter);
+  return chooseMarkFrom(evidence(), delimiter);
 }
 
 /** resolveCrs with the file named in the error's place. */
@@ -259,14 +238,6 @@ function resolveIn(crs: string, file: string, option: string): ResolvedCrs {
     if (e instanceof GapwiseError) throw new GapwiseError(e.code, `${option}: ${e.message}`, { ...e.place, file });
     throw e;
   }
-}
-
-interface Parsed {
-  row: Row;
-  x: number;
-  y: number;
-  value: number;
-  nd: boolean;
 }
 
 /** Progress of a streamed read: bytes and data rows read so far, and the file's size when known. */
@@ -282,25 +253,145 @@ export interface IntakeStreamHooks {
   onProgress?: (progress: IntakeProgress) => void;
   /** The file's size when known (a File's size, fstat): refused at once when over the limit. */
   totalBytes?: number;
+  /** Smaller limits than MAX_SAMPLE_BYTES and MAX_SAMPLE_ROWS (tests of the refusals). */
+  limits?: { bytes?: number; rows?: number };
 }
 
 /** The chunks of a file: an async or plain iterable of byte arrays, or a web ReadableStream. */
 export type ByteChunks = AsyncIterable<Uint8Array> | Iterable<Uint8Array> | ReadableStream<Uint8Array>;
 
-function tooManyBytes(file: string, bytes: number, exact: boolean): GapwiseError {
-  return new GapwiseError('bad-file', `The file is ${exact ? '' : 'over '}${megabytes(bytes)}; expected a samples file of at most ${megabytes(MAX_SAMPLE_BYTES)}.`, { file });
+function tooManyBytes(file: string, bytes: number, exact: boolean, limit: number): GapwiseError {
+  return new GapwiseError('bad-file', `The file is ${exact ? '' : 'over '}${megabytes(bytes)}; expected a samples file of at most ${megabytes(limit)}.`, { file });
 }
 
-function tooManyRows(file: string, rows: number): GapwiseError {
-  return new GapwiseError('bad-file', `The file holds over ${(rows - 1).toLocaleString('en-US')} rows of samples; expected at most ${MAX_SAMPLE_ROWS.toLocaleString('en-US')}.`, { file });
+function tooManyRows(file: string, rows: number, limit: number): GapwiseError {
+  return new GapwiseError('bad-file', `The file holds over ${(rows - 1).toLocaleString('en-US')} rows of samples; expected at most ${limit.toLocaleString('en-US')}.`, { file });
 }
 
-/** A CSV reader that refuses more than MAX_SAMPLE_ROWS data rows as soon as it meets one more. */
-function limitedCsvReader(file: string, counter: { rows: number }): CsvReader {
-  return new CsvReader(file, undefined, () => {
-    counter.rows++;
-    if (counter.rows > MAX_SAMPLE_ROWS) throw tooManyRows(file, counter.rows);
+/** Limits of one read: MAX_SAMPLE_BYTES and MAX_SAMPLE_ROWS unless a test sets smaller ones. */
+interface Limits {
+  bytes: number;
+  rows: number;
+}
+
+/**
+ * Reads CSV text pushed in pieces straight into a RecordStore: rows are checked against the header's
+ * field count as they come, and no row object outlives its chunk.
+ */
+class CsvCollector {
+  private readonly reader: CsvReader;
+  private store: RecordStore | null = null;
+  private width0 = 0;
+  /** Rows with more fields than the header and something in the extra ones: never read. */
+  private readonly long: Array<{ line: number; count: number; raw: string }> = [];
+  /** Stored rows with fewer fields than the header: read only if the header's width shrinks to them. */
+  private readonly short: Array<{ record: number; line: number; count: number; raw: string }> = [];
+
+  constructor(
+    private readonly file: string,
+    counter: { rows: number },
+    limits: Limits,
+  ) {
+    this.reader = new CsvReader(file, undefined, (row) => {
+      counter.rows++;
+      if (counter.rows > limits.rows) throw tooManyRows(file, counter.rows, limits.rows);
+      this.take(row.line, row.cells);
+    }, undefined, false);
+  }
+
+  push(text: string): void {
+    this.reader.push(text);
+  }
+
+  private take(line: number, cells: string[]): void {
+    if (this.store === null) {
+      this.width0 = (this.reader.headerCells as string[]).length;
+      this.store = new RecordStore(this.width0);
+    }
+    const w = this.width0;
+    if (cells.length > w) {
+      for (let k = w; k < cells.length; k++) {
+        if (cells[k].trim() !== '') {
+          this.long.push({ line, count: cells.length, raw: cells.join(this.reader.chosenDelimiter as string) });
+          return;
+        }
+      }
+    }
+    const record = this.store.add(line, cells);
+    if (cells.length < w) this.short.push({ record, line, count: cells.length, raw: cells.join(this.reader.chosenDelimiter as string) });
+  }
+
+  /** The table once every piece was pushed. */
+  end(): Table {
+    const t = this.reader.end();
+    const fileName = this.file;
+    const width = t.header.length;
+    const store = this.store ?? new RecordStore(this.width0 || width);
+    const entries: ReportEntry[] = [];
+    const warnings: Warning[] = [];
+    const tab = t.delimiter === '\t' ? 'tab' : `${quoted(t.delimiter)}`;
+    const dropped = new Set<number>();
+    let a = 0;
+    let b = 0;
+    // Both lists are in file order: merged, the entries are too.
+    while (a < this.long.length || b < this.short.length) {
+      if (b >= this.short.length || (a < this.long.length && this.long[a].line < this.short[b].line)) {
+        const r = this.long[a++];
+        entries.push({ line: r.line, raw: r.raw, action: 'rejected', reason: `has ${r.count} fields but the header has ${width}; a value may hold an unquoted ${tab}` });
+      } else {
+        const r = this.short[b++];
+        if (r.count >= width) continue;
+        dropped.add(r.record);
+        entries.push({ line: r.line, raw: r.raw, action: 'rejected', reason: `has ${r.count} field${r.count === 1 ? '' : 's'} but the header has ${width}` });
+      }
+    }
+    let rows: Uint32Array | null = null;
+    if (dropped.size) {
+      rows = new Uint32Array(store.n - dropped.size);
+      for (let k = 0, j = 0; k < store.n; k++) if (!dropped.has(k)) rows[j++] = k;
+    }
+    const rowCount = store.n - dropped.size;
+    if (t.renamed.length) {
+      const shown = t.renamed.slice(0, LIST_NAMES).map(([x, y]) => `${quoted(x)} → ${quoted(y)}`).join(', ');
+      const more = t.renamed.length > LIST_NAMES ? ` and ${(t.renamed.length - LIST_NAMES).toLocaleString('en-US')} more` : '';
+      warnings.push({ code: 'renamed-columns', message: `Header names that were empty or repeated were renamed: ${shown}${more}.` });
+    }
+    if (t.blankLines.length) {
+      warnings.push({ code: 'blank-lines', message: `${t.blankLines.length} blank line${t.blankLines.length === 1 ? '' : 's'} skipped (${listLines(t.blankLines)}).` });
+    }
+    if (rowCount === 0 && entries.length === 0) {
+      throw new GapwiseError('bad-file', 'The file has a header but no rows of samples; expected at least one row under it.', { file: fileName, row: t.headerLine });
+    }
+    return {
+      format: 'csv', columns: t.header, store: store.builders.slice(0, width).map((b) => b.finish()), recordLine: store.lines(), rows, rowCount,
+      delimiter: t.delimiter, entries, warnings, blankLines: t.blankLines,
+    };
+  }
+}
+
+function geojsonTable(text: string, fileName: string, limits: Limits): Table {
+  const g = readPointFeatures(text, fileName);
+  if (g.records.length > limits.rows) throw tooManyRows(fileName, g.records.length, limits.rows);
+  const store = new RecordStore(g.columns.length);
+  const featureIds = new ColumnBuilder();
+  const n = g.records.length;
+  const lon = new Float64Array(n);
+  const lat = new Float64Array(n);
+  const cells: string[] = new Array(g.columns.length);
+  g.records.forEach((r, k) => {
+    for (let c = 0; c < g.columns.length; c++) cells[c] = r.cells.get(g.columns[c]) ?? '';
+    store.add(r.feature, cells);
+    featureIds.push(r.id ?? '');
+    lon[k] = r.lon;
+    lat[k] = r.lat;
   });
+  if (n === 0 && g.entries.length === 0) {
+    throw new GapwiseError('bad-file', 'The FeatureCollection has no features; expected at least one Point or MultiPoint feature.', { file: fileName });
+  }
+  return {
+    format: 'geojson', columns: g.columns, store: store.builders.map((b) => b.finish()), recordLine: store.lines(), rows: null, rowCount: n, featureIds: featureIds.finish(), lon, lat,
+    delimiter: ',', entries: g.entries, warnings: [], legacyCrs: g.legacyCrs,
+  };
 }
 
 /** Text that holds NUL characters is not text: say what it looks like. */
@@ -333,14 +424,15 @@ export function readSamples(text: string, options: IntakeOptions): IntakeResult 
   if (typeof text !== 'string') throw new GapwiseError('bad-file', `The file content is ${typeof text}; expected text.`, { file: options.fileName });
   const file = options.fileName;
   refuseBinaryText(text, file);
-  if (text.length > MAX_SAMPLE_BYTES) throw tooManyBytes(file, text.length, false);
+  if (text.length > MAX_SAMPLE_BYTES) throw tooManyBytes(file, text.length, false, MAX_SAMPLE_BYTES);
   const format = detectFormat(text, options);
+  const limits = { bytes: MAX_SAMPLE_BYTES, rows: MAX_SAMPLE_ROWS };
   let table: Table;
-  if (format === 'geojson') table = geojsonTable(text, file);
+  if (format === 'geojson') table = geojsonTable(text, file, limits);
   else {
-    const reader = limitedCsvReader(file, { rows: 0 });
+    const reader = new CsvCollector(file, { rows: 0 }, limits);
     reader.push(text);
-    table = csvTable(reader.end(), file);
+    table = reader.end();
   }
   return samplesFromTable(table, format, options);
 }
@@ -372,7 +464,8 @@ export class SampleIntake {
   private readonly decoder: TextFromBytes;
   private readonly counter = { rows: 0 };
   private format: 'csv' | 'geojson' | null;
-  private csv: CsvReader | null = null;
+  private csv: CsvCollector | null = null;
+  private readonly limits: Limits;
   private held = '';
   private bytes = 0;
 
@@ -382,7 +475,8 @@ export class SampleIntake {
   ) {
     checkOptions(options);
     const file = options.fileName;
-    if (hooks.totalBytes !== undefined && hooks.totalBytes > MAX_SAMPLE_BYTES) throw tooManyBytes(file, hooks.totalBytes, true);
+    this.limits = { bytes: hooks.limits?.bytes ?? MAX_SAMPLE_BYTES, rows: hooks.limits?.rows ?? MAX_SAMPLE_ROWS };
+    if (hooks.totalBytes !== undefined && hooks.totalBytes > this.limits.bytes) throw tooManyBytes(file, hooks.totalBytes, true, this.limits.bytes);
     this.decoder = new TextFromBytes(file);
     this.format = options.format ?? (/\.(geo)?json$/i.test(file) ? 'geojson' : /\.(csv|tsv|txt)$/i.test(file) ? 'csv' : null);
   }
@@ -390,7 +484,7 @@ export class SampleIntake {
   /** Takes the next chunk of the file's bytes. */
   push(chunk: Uint8Array): void {
     this.bytes += chunk.length;
-    if (this.bytes > MAX_SAMPLE_BYTES) throw tooManyBytes(this.options.fileName, MAX_SAMPLE_BYTES, false);
+    if (this.bytes > this.limits.bytes) throw tooManyBytes(this.options.fileName, this.limits.bytes, false, this.limits.bytes);
     this.take(this.decoder.push(chunk), false);
     this.progress();
   }
@@ -401,11 +495,11 @@ export class SampleIntake {
     this.take(this.decoder.end(), true);
     let table: Table;
     if (this.format === 'geojson') {
-      table = geojsonTable(this.held, file);
+      table = geojsonTable(this.held, file, this.limits);
       this.held = '';
-      this.counter.rows = table.rows.length + table.entries.filter((e) => e.action === 'rejected').length;
+      this.counter.rows = table.rowCount + table.entries.filter((e) => e.action === 'rejected').length;
     } else {
-      table = csvTable((this.csv ?? limitedCsvReader(file, this.counter)).end(), file);
+      table = (this.csv ?? new CsvCollector(file, this.counter, this.limits)).end();
     }
     this.progress();
     table.warnings.unshift(...this.decoder.warnings);
@@ -428,7 +522,7 @@ export class SampleIntake {
     }
     if (this.format === 'geojson') this.held += text;
     else {
-      if (this.csv === null) this.csv = limitedCsvReader(this.options.fileName, this.counter);
+      if (this.csv === null) this.csv = new CsvCollector(this.options.fileName, this.counter, this.limits);
       if (text) this.csv.push(text);
     }
   }
@@ -450,7 +544,9 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const rule: NonDetectRule = options.nonDetect ?? 'half';
   const dupRule = options.duplicates ?? 'merge';
   const tolerance = options.duplicateTolerance ?? 0.01;
-  const { columns, rows } = table;
+  const { columns } = table;
+  const nRows = table.rowCount;
+  const rowIndex = table.rows;
   const entries: ReportEntry[] = [...table.entries];
   const warnings: Warning[] = [...table.warnings];
   const norm = columns.map(normaliseName);
@@ -495,8 +591,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const textLike = (i: number) => {
     let codes = 0;
     let filled = 0;
-    for (let k = 0; k < Math.min(rows.length, 2000); k++) {
-      const v = rows[k].cells[i].trim().toLowerCase();
+    for (let k = 0; k < Math.min(nRows, 2000); k++) {
+      const v = cellAt(table, k, i).trim().toLowerCase();
       if (v === '') continue;
       filled++;
       if (ND_CODES.has(v) || DETECT_CODES.has(v) || YES.has(v) || NO.has(v)) codes++;
@@ -513,7 +609,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const marksOf = (i: number) => {
     let m = marksCache.get(i);
     if (!m) {
-      m = marksFor(rows, i, delimiter);
+      m = marksFor(table, i, delimiter);
       marksCache.set(i, m);
     }
     return m;
@@ -521,7 +617,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const numericColumns: string[] = [];
   for (let i = 0; i < columns.length; i++) {
     if (taken.has(i)) continue;
-    const { share, filled } = numericShare(rows, i, marksOf(i));
+    const { share, filled } = numericShare(table, i, marksOf(i));
     if (filled > 0 && share >= 0.5) numericColumns.push(columns[i]);
   }
   let valueCol: number;
@@ -558,120 +654,169 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   for (const [name, m] of [[columns[xCol], xMarks], [columns[yCol], yMarks], [valueName, vMarks]] as Array<[string, ColumnMarks | null]>) {
     if (m?.mixed) warnings.push({ code: 'mixed-decimal-marks', message: `Column ${quoted(name)} mixes decimal points and decimal commas; each cell was read by its own mark and ambiguous ones were rejected.` });
   }
-  let parsed: Parsed[] = [];
-  const grouped: Array<{ line?: number; feature?: number }> = [];
-  const missing: Row[] = [];
+  // Parsed rows, by column: input coordinates, value, non-detect, stored row.
+  let px = new Float64Array(nRows);
+  let py = new Float64Array(nRows);
+  let pv = new Float64Array(nRows);
+  let pnd = new Uint8Array(nRows);
+  let prec = new Uint32Array(nRows);
+  let np = 0;
+  const grouped: number[] = [];
+  const missing: number[] = [];
   const unknownQualifiers = new Set<string>();
   let ndCount = 0;
   const factor = RULE_FACTOR[rule];
-  let r: Row = rows[0];
-  const reject = (field: string, raw: string, reason: string) => entries.push({ ...place(r), field, raw, action: 'rejected', reason });
+  // One text per distinct reason: a large file with many non-detects at a few limits keeps a few strings.
+  const reasons = new Map<string, string>();
+  const ndReason = (dl: number, qualNote: string, value: number) => {
+    const text = `non-detect below ${dl}${qualNote}: replaced by ${value} (${RULE_TEXT[rule]})`;
+    const known = reasons.get(text);
+    if (known !== undefined) return known;
+    reasons.set(text, text);
+    return text;
+  };
+  let rec = 0;
+  const reject = (field: string, raw: string, reason: string) => entries.push({ ...placeOf(table, rec), field, raw, action: 'rejected', reason });
+  const cell = (col: number) => cellText(table.store[col], rec);
   const dlFromColumn = (): number | null => {
     if (dlCol < 0) return null;
-    const p = parseColumnNumber(r.cells[dlCol], dlMarks as ColumnMarks);
+    const p = parseColumnNumber(cell(dlCol), dlMarks as ColumnMarks);
     return p.ok ? p.value : null;
   };
-  for (let k = 0; k < rows.length; k++) {
-    r = rows[k];
+  // A plain decimal cell ("12.5", "-3") reads as its stored number when the column's mark is a decided
+  // point, and a whole number reads so under any mark: the same number parseColumnNumber gives.
+  const pointOnly = (m: ColumnMarks | null) => m !== null && m.mark === '.' && m.decided && !m.mixed;
+  const fastNumber = (col: number, point: boolean): number => {
+    const b = table.store[col];
+    if (b.kind !== 'numbers') return NaN;
+    const d = b.decimals[rec];
+    return d === 0 || (d < 254 && point) ? b.values[rec] : NaN;
+  };
+  const xPoint = pointOnly(xMarks);
+  const yPoint = pointOnly(yMarks);
+  const vPoint = pointOnly(vMarks);
+  const lonOf = table.lon;
+  const latOf = table.lat;
+  for (let k = 0; k < nRows; k++) {
+    rec = rowIndex ? rowIndex[k] : k;
     let x: number;
     let y: number;
     if (format === 'geojson') {
-      x = r.lon as number;
-      y = r.lat as number;
+      x = (lonOf as Float64Array)[rec];
+      y = (latOf as Float64Array)[rec];
     } else {
-      const xs = r.cells[xCol];
-      const ys = r.cells[yCol];
-      if (isMissing(xs) || isMissing(ys)) {
-        const [f, s] = isMissing(xs) ? [columns[xCol], xs] : [columns[yCol], ys];
-        reject(f, s, 'missing coordinate');
-        missing.push(r);
-        continue;
+      x = fastNumber(xCol, xPoint);
+      y = fastNumber(yCol, yPoint);
+      if (Number.isNaN(x) || Number.isNaN(y)) {
+        const xs = cell(xCol);
+        const ys = cell(yCol);
+        if (isMissing(xs) || isMissing(ys)) {
+          const [f, t] = isMissing(xs) ? [columns[xCol], xs] : [columns[yCol], ys];
+          reject(f, t, 'missing coordinate');
+          missing.push(rec);
+          continue;
+        }
+        const px1 = parseColumnNumber(xs, xMarks as ColumnMarks);
+        if (!px1.ok) {
+          reject(columns[xCol], xs, `${quoted(xs)} ${px1.reason}`);
+          continue;
+        }
+        const py1 = parseColumnNumber(ys, yMarks as ColumnMarks);
+        if (!py1.ok) {
+          reject(columns[yCol], ys, `${quoted(ys)} ${py1.reason}`);
+          continue;
+        }
+        if (px1.grouped || py1.grouped) {
+          grouped.push(rec);
+          entries.push({ ...placeOf(table, rec), field: px1.grouped ? columns[xCol] : columns[yCol], raw: px1.grouped ? xs : ys, action: 'changed', reason: `thousands separators removed: read as ${px1.grouped ? px1.value : py1.value}` });
+        }
+        x = px1.value;
+        y = py1.value;
       }
-      const px = parseColumnNumber(xs, xMarks as ColumnMarks);
-      if (!px.ok) {
-        reject(columns[xCol], xs, `${quoted(xs)} ${px.reason}`);
-        continue;
-      }
-      const py = parseColumnNumber(ys, yMarks as ColumnMarks);
-      if (!py.ok) {
-        reject(columns[yCol], ys, `${quoted(ys)} ${py.reason}`);
-        continue;
-      }
-      if (px.grouped || py.grouped) {
-        grouped.push(r);
-        entries.push({ ...place(r), field: px.grouped ? columns[xCol] : columns[yCol], raw: px.grouped ? xs : ys, action: 'changed', reason: `thousands separators removed: read as ${px.grouped ? px.value : py.value}` });
-      }
-      x = px.value;
-      y = py.value;
     }
-    const vs = r.cells[valueCol];
-    const qualVerdict = qualCol >= 0 ? qualifierSaysNd(norm[qualCol], r.cells[qualCol]) : false;
+    const qualVerdict = qualCol >= 0 ? qualifierSaysNd(norm[qualCol], cell(qualCol)) : false;
     const qualSaysNd = qualVerdict === true;
-    if (qualVerdict === null) unknownQualifiers.add(r.cells[qualCol].trim());
-    let value: number;
+    if (qualVerdict === null) unknownQualifiers.add(cell(qualCol).trim());
+    let value = fastNumber(valueCol, vPoint);
     let nd = false;
     let dl = NaN;
-    const ndText = nonDetectLimit(vs);
-    if (ndText !== null) {
-      const p = parseColumnNumber(ndText, vMarks);
-      if (!p.ok) {
-        reject(valueName, vs, `the detection limit ${quoted(ndText)} ${p.reason}`);
-        continue;
-      }
-      nd = true;
-      dl = p.value;
-    } else if (isMissing(vs) || ND_WORDS.has(vs.trim().toLowerCase())) {
-      const fromCol = qualSaysNd || ND_WORDS.has(vs.trim().toLowerCase()) ? dlFromColumn() : null;
-      if (fromCol === null) {
-        if (isMissing(vs)) {
-          reject(valueName, vs, qualSaysNd ? 'non-detect without a detection limit' : 'missing value');
-          missing.push(r);
-        } else reject(valueName, vs, 'non-detect without a detection limit; expected "<limit" or a detection-limit column');
-        continue;
-      }
-      nd = true;
-      dl = fromCol;
-    } else {
-      const p = parseColumnNumber(vs, vMarks);
-      if (!p.ok) {
-        reject(valueName, vs, `${quoted(vs)} ${p.reason}`);
-        continue;
-      }
-      if (p.grouped) {
-        grouped.push(r);
-        entries.push({ ...place(r), field: valueName, raw: vs, action: 'changed', reason: `thousands separators removed: read as ${p.value}` });
-      }
+    let vs = '';
+    let ndText: string | null = null;
+    if (!Number.isNaN(value)) {
       if (qualSaysNd) {
         nd = true;
+        dl = value;
+      }
+    } else {
+      vs = cell(valueCol);
+      ndText = nonDetectLimit(vs);
+      if (ndText !== null) {
+        const p = parseColumnNumber(ndText, vMarks);
+        if (!p.ok) {
+          reject(valueName, vs, `the detection limit ${quoted(ndText)} ${p.reason}`);
+          continue;
+        }
+        nd = true;
         dl = p.value;
-      } else value = p.value;
+      } else if (isMissing(vs) || ND_WORDS.has(vs.trim().toLowerCase())) {
+        const fromCol = qualSaysNd || ND_WORDS.has(vs.trim().toLowerCase()) ? dlFromColumn() : null;
+        if (fromCol === null) {
+          if (isMissing(vs)) {
+            reject(valueName, vs, qualSaysNd ? 'non-detect without a detection limit' : 'missing value');
+            missing.push(rec);
+          } else reject(valueName, vs, 'non-detect without a detection limit; expected "<limit" or a detection-limit column');
+          continue;
+        }
+        nd = true;
+        dl = fromCol;
+      } else {
+        const p = parseColumnNumber(vs, vMarks);
+        if (!p.ok) {
+          reject(valueName, vs, `${quoted(vs)} ${p.reason}`);
+          continue;
+        }
+        if (p.grouped) {
+          grouped.push(rec);
+          entries.push({ ...placeOf(table, rec), field: valueName, raw: vs, action: 'changed', reason: `thousands separators removed: read as ${p.value}` });
+        }
+        if (qualSaysNd) {
+          nd = true;
+          dl = p.value;
+        } else value = p.value;
+      }
     }
     if (nd) {
+      if (vs === '' && ndText === null) vs = cell(valueCol);
       if (!(dl > 0)) {
         reject(valueName, vs, `non-detect with detection limit ${dl}; expected a limit above 0`);
         continue;
       }
       value = dl * factor;
       ndCount++;
-      const qualNote = qualSaysNd && ndText === null ? ` (qualifier ${quoted(r.cells[qualCol].trim())} in ${quoted(columns[qualCol])})` : '';
-      entries.push({ ...place(r), field: valueName, raw: vs, action: 'changed', reason: `non-detect below ${dl}${qualNote}: replaced by ${value} (${RULE_TEXT[rule]})` });
+      const qualNote = qualSaysNd && ndText === null ? ` (qualifier ${quoted(cell(qualCol).trim())} in ${quoted(columns[qualCol])})` : '';
+      entries.push({ ...placeOf(table, rec), field: valueName, raw: vs, action: 'changed', reason: ndReason(dl, qualNote, value) });
     }
-    parsed.push({ row: r, x, y, value: value!, nd });
+    px[np] = x;
+    py[np] = y;
+    pv[np] = value;
+    pnd[np] = nd ? 1 : 0;
+    prec[np] = rec;
+    np++;
   }
   if (grouped.length) {
-    warnings.push({ code: 'thousands-separator', message: `Thousands separators were removed on ${listPlaces(grouped)}; check those numbers.` });
+    warnings.push({ code: 'thousands-separator', message: `Thousands separators were removed on ${listPlaces(table, grouped)}; check those numbers.` });
   }
   if (missing.length) {
-    warnings.push({ code: 'missing-values', message: `${missing.length} row${missing.length === 1 ? '' : 's'} with a missing value or coordinate skipped (${listPlaces(missing)}).` });
+    warnings.push({ code: 'missing-values', message: `${missing.length} row${missing.length === 1 ? '' : 's'} with a missing value or coordinate skipped (${listPlaces(table, missing)}).` });
   }
   if (unknownQualifiers.size) {
     warnings.push({ code: 'unknown-qualifier', message: `Qualifier values ${[...unknownQualifiers].slice(0, 8).map((v) => `${quoted(v)}`).join(', ')} in ${quoted(columns[qualCol])} were taken as detected.` });
   }
   const rejected = entries.filter((e) => e.action === 'rejected');
-  if (parsed.length === 0) {
+  if (np === 0) {
     const first = rejected[0];
     const detail = first ? ` The first rejected (at the place named): ${first.reason}.` : '';
-    throw new GapwiseError('bad-value', `None of the ${rows.length + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line, feature: first?.feature, column: first?.field, raw: first?.raw });
+    throw new GapwiseError('bad-value', `None of the ${nRows + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line, feature: first?.feature, column: first?.field, raw: first?.raw });
   }
   if (options.strict && rejected.length) {
     const first = rejected[0];
@@ -705,7 +850,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     input = resolveCrs('EPSG:4326');
     detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like longitude/latitude, so WGS 84 (EPSG:4326) was assumed`;
   } else {
-    const degrees = parsed.every((p) => Math.abs(p.x) <= 180 && Math.abs(p.y) <= 90);
+    let degrees = true;
+    for (let i = 0; i < np && degrees; i++) degrees = Math.abs(px[i]) <= 180 && Math.abs(py[i]) <= 90;
     if (naming === 'planar') {
       input = resolveCrs(LOCAL_CRS);
       detection = `columns ${quoted(columns[xCol])} and ${quoted(columns[yCol])} are named like planar coordinates and no CRS was given, so they were taken as local planar coordinates (in coordinate units)`;
@@ -725,59 +871,79 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   // Range checks in the input CRS.
   const xName = format === 'csv' ? columns[xCol] : 'geometry';
   const yName = format === 'csv' ? columns[yCol] : 'geometry';
+  /** Keeps the parsed rows for which keep(i) holds, in order. */
+  const compact = (keep: (i: number) => boolean) => {
+    let j = 0;
+    for (let i = 0; i < np; i++) {
+      if (!keep(i)) continue;
+      px[j] = px[i];
+      py[j] = py[i];
+      pv[j] = pv[i];
+      pnd[j] = pnd[i];
+      prec[j] = prec[i];
+      j++;
+    }
+    np = j;
+  };
   if (input.geographic) {
     const inRange = (x: number, y: number) => y >= -90 && y <= 90 && x >= -180 && x <= 180;
-    const bad = parsed.filter((p) => !inRange(p.x, p.y));
+    const bad: number[] = [];
+    for (let i = 0; i < np; i++) if (!inRange(px[i], py[i])) bad.push(i);
     if (bad.length) {
       const p = bad[0];
-      const latBad = !(p.y >= -90 && p.y <= 90);
-      const what = (q: Parsed) => (!(q.y >= -90 && q.y <= 90) ? `latitude ${q.y} is outside −90…90` : `longitude ${q.x} is outside −180…180`);
-      if (bad.length * 2 > parsed.length) {
+      const latBad = !(py[p] >= -90 && py[p] <= 90);
+      const what = (q: number) => (!(py[q] >= -90 && py[q] <= 90) ? `latitude ${py[q]} is outside −90…90` : `longitude ${px[q]} is outside −180…180`);
+      if (bad.length * 2 > np) {
         // Most rows are out of range: a whole-file problem, said with the hint that holds, if any.
         // Swapping is a whole-column matter: it must also leave the good rows good.
-        const swapped = parsed.every((q) => inRange(q.y, q.x)) ? bad.length : 0;
-        const projected = bad.filter((q) => Math.abs(q.x) > 360 || Math.abs(q.y) > 360).length;
-        const hint = swapped * 2 > parsed.length
+        let allSwapped = true;
+        for (let i = 0; i < np && allSwapped; i++) allSwapped = inRange(py[i], px[i]);
+        const swapped = allSwapped ? bad.length : 0;
+        const projected = bad.filter((q) => Math.abs(px[q]) > 360 || Math.abs(py[q]) > 360).length;
+        const hint = swapped * 2 > np
           ? ' Most rows would be in range with the two columns swapped: check the column order (on the command line, --x and --y name them).'
-          : projected * 2 > parsed.length
+          : projected * 2 > np
             ? ' Most values look like projected coordinates (metres), not degrees: give their CRS (in the app under Coordinate system; on the command line with --crs).'
             : '';
-        throw new GapwiseError('bad-value', `${bad.length.toLocaleString('en-US')} of ${parsed.length.toLocaleString('en-US')} rows are outside WGS 84 longitude/latitude; the first: ${what(p)}; expected degrees in ${input.key}.${hint}`, {
+        const at = placeOf(table, prec[p]);
+        throw new GapwiseError('bad-value', `${bad.length.toLocaleString('en-US')} of ${np.toLocaleString('en-US')} rows are outside WGS 84 longitude/latitude; the first: ${what(p)}; expected degrees in ${input.key}.${hint}`, {
           file,
-          row: p.row.line,
-          feature: p.row.feature,
+          row: at.line,
+          feature: at.feature,
           column: latBad ? yName : xName,
-          raw: String(latBad ? p.y : p.x),
+          raw: String(latBad ? py[p] : px[p]),
         });
       }
       // A few rows out of range: each is rejected with its line; the rest are read.
       for (const q of bad) {
-        const qLat = !(q.y >= -90 && q.y <= 90);
-        entries.push({ ...place(q.row), field: qLat ? yName : xName, raw: String(qLat ? q.y : q.x), action: 'rejected', reason: `${what(q)}; expected degrees in ${input.key}` });
+        const qLat = !(py[q] >= -90 && py[q] <= 90);
+        entries.push({ ...placeOf(table, prec[q]), field: qLat ? yName : xName, raw: String(qLat ? py[q] : px[q]), action: 'rejected', reason: `${what(q)}; expected degrees in ${input.key}` });
       }
-      const badSet = new Set(bad);
-      parsed = parsed.filter((q) => !badSet.has(q));
+      const firstText = what(p);
+      const at = placeOf(table, prec[p]);
+      const firstRaw = String(latBad ? py[p] : px[p]);
+      compact((i) => inRange(px[i], py[i]));
       if (options.strict) {
-        throw new GapwiseError('bad-value', `${bad.length} row${bad.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${what(p)}.`, { file, row: p.row.line, feature: p.row.feature, column: latBad ? yName : xName, raw: String(latBad ? p.y : p.x) });
+        throw new GapwiseError('bad-value', `${bad.length} row${bad.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${firstText}.`, { file, row: at.line, feature: at.feature, column: latBad ? yName : xName, raw: firstRaw });
       }
     }
   } else if (input.key !== LOCAL_CRS) {
     if (input.utm) {
-      const off = parsed.filter((p) => p.x < 100_000 || p.x > 900_000).map((p) => p.row);
-      if (off.length) warnings.push({ code: 'utm-easting', message: `UTM eastings outside 100–900 km on ${listPlaces(off)}: those samples lie outside the zone of ${input.key}; check the CRS and the x column.` });
+      const off: number[] = [];
+      for (let i = 0; i < np; i++) if (px[i] < 100_000 || px[i] > 900_000) off.push(prec[i]);
+      if (off.length) warnings.push({ code: 'utm-easting', message: `UTM eastings outside 100–900 km on ${listPlaces(table, off)}: those samples lie outside the zone of ${input.key}; check the CRS and the x column.` });
     }
     if (input.bbox) {
       const [north, west, south, east] = input.bbox;
       const t = createTransform(input.key, 'EPSG:4326');
       const margin = 1;
       const lonIn = (lon: number) => (west <= east ? lon >= west - margin && lon <= east + margin : lon >= west - margin || lon <= east + margin);
-      const outside = parsed
-        .filter((p) => {
-          const [lon, lat] = t.forward(p.x, p.y);
-          return !(lat <= north + margin && lat >= south - margin && lonIn(lon));
-        })
-        .map((p) => p.row);
-      if (outside.length) warnings.push({ code: 'outside-area', message: `${outside.length} sample${outside.length === 1 ? '' : 's'} lie outside the area of use of ${input.key} (${input.name}) on ${listPlaces(outside)}; check the CRS.` });
+      const outside: number[] = [];
+      for (let i = 0; i < np; i++) {
+        const [lon, lat] = t.forward(px[i], py[i]);
+        if (!(lat <= north + margin && lat >= south - margin && lonIn(lon))) outside.push(prec[i]);
+      }
+      if (outside.length) warnings.push({ code: 'outside-area', message: `${outside.length} sample${outside.length === 1 ? '' : 's'} lie outside the area of use of ${input.key} (${input.name}) on ${listPlaces(table, outside)}; check the CRS.` });
     }
   }
 
@@ -785,7 +951,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   let work: ResolvedCrs;
   try {
     const requested = options.workCrs !== undefined ? resolveIn(options.workCrs, file, 'Working coordinate system') : undefined;
-    const choice = chooseWorkCrs(input, Float64Array.from(parsed, (p) => p.x), Float64Array.from(parsed, (p) => p.y), requested);
+    const choice = chooseWorkCrs(input, px.subarray(0, np), py.subarray(0, np), requested);
     work = choice.work;
     warnings.push(...choice.warnings);
   } catch (e) {
@@ -799,88 +965,111 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     if (e instanceof GapwiseError) throw new GapwiseError(e.code, e.message, { ...e.place, file });
     throw e;
   }
-  const kept: Parsed[] = [];
-  const wx: number[] = [];
-  const wy: number[] = [];
-  for (const p of parsed) {
-    const [a, b] = toWork.forward(p.x, p.y);
-    if (!Number.isFinite(a) || !Number.isFinite(b)) {
-      entries.push({ ...place(p.row), field: xName, raw: `${p.x}, ${p.y}`, action: 'rejected', reason: `cannot be projected from ${input.key} to ${work.key}` });
-      continue;
+  const wx = new Float64Array(np);
+  const wy = new Float64Array(np);
+  {
+    let j = 0;
+    for (let i = 0; i < np; i++) {
+      const [a, b] = toWork.forward(px[i], py[i]);
+      if (!Number.isFinite(a) || !Number.isFinite(b)) {
+        entries.push({ ...placeOf(table, prec[i]), field: xName, raw: `${px[i]}, ${py[i]}`, action: 'rejected', reason: `cannot be projected from ${input.key} to ${work.key}` });
+        continue;
+      }
+      px[j] = px[i];
+      py[j] = py[i];
+      pv[j] = pv[i];
+      pnd[j] = pnd[i];
+      prec[j] = prec[i];
+      wx[j] = a;
+      wy[j] = b;
+      j++;
     }
-    kept.push(p);
-    wx.push(a);
-    wy.push(b);
+    np = j;
   }
-  if (kept.length === 0) {
+  if (np === 0) {
     throw new GapwiseError('bad-value', `None of the samples could be projected from ${input.key} to ${work.key}; check the CRS.`, { file });
   }
+  const kept = np;
+  px = fit(px, kept);
+  py = fit(py, kept);
+  pv = fit(pv, kept);
+  pnd = fit(pnd, kept);
+  prec = fit(prec, kept);
+  const kx = fit(wx, kept);
+  const ky = fit(wy, kept);
 
-  // --- rows, duplicates ---------------------------------------------------------------------
-  const idOf = (r: Row) => (idCol >= 0 && r.cells[idCol].trim() !== '' ? r.cells[idCol] : where(r));
-  const rawOf = (r: Row) => {
-    const o: Record<string, string> = {};
-    for (let i = 0; i < columns.length; i++) setOwn(o, columns[i], r.cells[i]);
-    if (format === 'geojson') setOwn(o, 'geometry', `${r.lon}, ${r.lat}`);
-    return o;
+  // --- samples, duplicates ------------------------------------------------------------------
+  const groups = duplicateGroups(kx, ky, tolerance);
+  const merge = dupRule === 'merge' && groups.length > 0;
+  let n = kept;
+  if (merge) for (const g of groups) n -= g.length - 1;
+  const out = {
+    inputX: merge ? new Float64Array(n) : px,
+    inputY: merge ? new Float64Array(n) : py,
+    value: merge ? new Float64Array(n) : pv,
+    sx: merge ? new Float64Array(n) : kx,
+    sy: merge ? new Float64Array(n) : ky,
+    flags: new Uint8Array(n),
+    line: new Uint32Array(n),
+    record: merge ? new Uint32Array(n) : prec,
   };
-  const groups = duplicateGroups(wx, wy, tolerance);
-  const inGroup = new Int32Array(kept.length).fill(-1);
+  const mergedSample: number[] = [];
+  const mergedStart: number[] = [0];
+  const mergedRecords: number[] = [];
+  const inGroup = new Int32Array(groups.length ? kept : 0).fill(-1);
   groups.forEach((g, k) => {
     for (const i of g) inGroup[i] = k;
   });
-  const outRows: SampleRow[] = [];
-  const sx: number[] = [];
-  const sy: number[] = [];
-  const sv: number[] = [];
-  const rowNumber = (r: Row) => (r.line ?? r.feature) as number;
-  for (let i = 0; i < kept.length; i++) {
-    const g = inGroup[i] >= 0 ? groups[inGroup[i]] : null;
-    if (g && dupRule === 'merge') {
+  for (let i = 0, o = 0; i < kept; i++) {
+    const g = groups.length && inGroup[i] >= 0 ? groups[inGroup[i]] : null;
+    if (g && merge) {
       if (g[0] !== i) continue;
       let mx = 0;
       let my = 0;
       let mv = 0;
       let ix = 0;
       let iy = 0;
+      let anyNd = false;
       for (const j of g) {
-        mx += wx[j];
-        my += wy[j];
-        mv += kept[j].value;
-        ix += kept[j].x;
-        iy += kept[j].y;
+        mx += kx[j];
+        my += ky[j];
+        mv += pv[j];
+        ix += px[j];
+        iy += py[j];
+        anyNd ||= pnd[j] === 1;
       }
       const m = g.length;
-      const flags = ['dup'];
-      if (g.some((j) => kept[j].nd)) flags.push('nd');
       for (const j of g) {
-        entries.push({ ...place(kept[j].row), field: valueName, raw: kept[j].row.cells[valueCol], action: 'merged', reason: `same location as ${listPlaces(g.filter((k) => k !== j).map((k) => kept[k].row))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
+        entries.push({ ...placeOf(table, prec[j]), field: valueName, raw: cellText(table.store[valueCol], prec[j]), action: 'merged', reason: `same location as ${listPlaces(table, g.filter((k) => k !== j).map((k) => prec[k]))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
       }
-      outRows.push({
-        id: g.slice(0, LIST_NAMES).map((j) => idOf(kept[j].row)).join(' + ') + (g.length > LIST_NAMES ? ` + ${g.length - LIST_NAMES} more` : ''),
-        inputX: ix / m,
-        inputY: iy / m,
-        value: mv / m,
-        flags,
-        lines: g.map((j) => rowNumber(kept[j].row)),
-        raw: rawOf(kept[g[0]].row),
-      });
-      sx.push(mx / m);
-      sy.push(my / m);
-      sv.push(mv / m);
+      out.inputX[o] = ix / m;
+      out.inputY[o] = iy / m;
+      out.value[o] = mv / m;
+      out.sx[o] = mx / m;
+      out.sy[o] = my / m;
+      out.flags[o] = FLAG_DUP | (anyNd ? FLAG_ND : 0);
+      out.record[o] = prec[g[0]];
+      out.line[o] = table.recordLine[prec[g[0]]];
+      mergedSample.push(o);
+      for (const j of g) mergedRecords.push(prec[j]);
+      mergedStart.push(mergedRecords.length);
+      o++;
     } else {
-      const p = kept[i];
-      const flags: string[] = [];
-      if (p.nd) flags.push('nd');
-      if (g) flags.push('dup');
-      outRows.push({ id: idOf(p.row), inputX: p.x, inputY: p.y, value: p.value, flags, lines: [rowNumber(p.row)], raw: rawOf(p.row) });
-      sx.push(wx[i]);
-      sy.push(wy[i]);
-      sv.push(p.value);
+      if (merge) {
+        out.inputX[o] = px[i];
+        out.inputY[o] = py[i];
+        out.value[o] = pv[i];
+        out.sx[o] = kx[i];
+        out.sy[o] = ky[i];
+        out.record[o] = prec[i];
+      }
+      out.flags[o] = (pnd[i] ? FLAG_ND : 0) | (g ? FLAG_DUP : 0);
+      out.line[o] = table.recordLine[prec[i]];
+      o++;
     }
   }
   if (groups.length) {
-    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(g.map((j) => kept[j].row))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
+    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(table, g.map((j) => prec[j]))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
     warnings.push(
       dupRule === 'merge'
         ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }
@@ -889,16 +1078,18 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   }
 
   // --- quality ------------------------------------------------------------------------------
-  const outliers = outlierIndices(sv);
+  const sv = out.value;
+  const sortedValues = sortedCopy(sv);
+  const outliers = outlierIndices(sv, 3, sortedValues);
   for (const i of outliers) {
-    outRows[i].flags.push('outlier');
-    const first = outRows[i].lines[0];
-    entries.push({ ...(format === 'csv' ? { line: first } : { feature: first }), field: valueName, raw: String(outRows[i].value), action: 'flagged', reason: 'outlier: beyond 3 interquartile ranges from the quartiles; kept' });
+    out.flags[i] |= FLAG_OUTLIER;
+    const first = out.line[i];
+    entries.push({ ...(format === 'csv' ? { line: first } : { feature: first }), field: valueName, raw: String(sv[i]), action: 'flagged', reason: 'outlier: beyond 3 interquartile ranges from the quartiles; kept' });
   }
   if (outliers.length) {
-    warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${outRows[i].value} (${format === 'csv' ? 'line' : 'feature'} ${outRows[i].lines[0]})`).join(', ')}${outliers.length > 12 ? ` and ${outliers.length - 12} more` : ''}.` });
+    warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${sv[i]} (${format === 'csv' ? 'line' : 'feature'} ${out.line[i]})`).join(', ')}${outliers.length > 12 ? ` and ${outliers.length - 12} more` : ''}.` });
   }
-  const summary = summarise(sv);
+  const summary = summarise(sv, sortedValues);
   if (summary.n < 3) {
     warnings.push({ code: 'too-few-samples', message: `Only ${summary.n} sample${summary.n === 1 ? '' : 's'} after reading; fitting a model needs at least 3 and will be refused (predicting with a given model still works).` });
   } else if (summary.min === summary.max) {
@@ -929,8 +1120,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const report: ReadReport = {
     fileName: file,
     format,
-    rowsRead: rows.length + table.entries.filter((e) => e.action === 'rejected').length,
-    rowsUsed: kept.length,
+    rowsRead: nRows + table.entries.filter((e) => e.action === 'rejected').length,
+    rowsUsed: kept,
     columns: [...columns],
     numericColumns,
     valueColumn: valueName,
@@ -950,5 +1141,31 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     ...(qualCol >= 0 ? { qualifierColumn: columns[qualCol] } : {}),
     ...(dlCol >= 0 ? { detectionLimitColumn: columns[dlCol] } : {}),
   };
-  return { samples: makeSamples(sx, sy, sv), rows: outRows, report };
+  const sampleTable: SampleTable = {
+    length: n,
+    format,
+    inputX: out.inputX,
+    inputY: out.inputY,
+    // The same array as samples.value (both read-only after the read): one copy fewer of the largest files.
+    value: out.value,
+    flags: out.flags,
+    line: out.line,
+    record: out.record,
+    merged: { sample: Uint32Array.from(mergedSample), start: Uint32Array.from(mergedSample.length ? mergedStart : []), records: Uint32Array.from(mergedRecords) },
+    recordLine: table.recordLine,
+    columns: [...columns],
+    cells: table.store,
+    marks: columns.map((_, i) => marksCache.get(i) ?? null),
+    idColumn: idCol,
+    ...(table.featureIds ? { featureIds: table.featureIds } : {}),
+    ...(table.lon && table.lat ? { geometry: { lon: table.lon, lat: table.lat } } : {}),
+  };
+  return { samples: { x: out.sx, y: out.sy, value: out.value }, table: sampleTable, report };
 }
+
+/** `a` itself when it holds exactly n items, else a copy of its first n. */
+function fit<T extends Float64Array | Uint8Array | Uint32Array>(a: T, n: number): T {
+  return (a.length === n ? a : a.slice(0, n)) as T;
+}
+
+export { rowAt, sampleId, sampleIds } from './sample-table.ts';

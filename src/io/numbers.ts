@@ -111,10 +111,18 @@ export interface ColumnMarks {
  */
 export function chooseMark(cells: Iterable<string>, delimiter: string): ColumnMarks {
   if (delimiter === ',') return { mark: '.', mixed: false, decided: true };
+  function* evidence(): Generator<MarkEvidence> {
+    for (const c of cells) yield markEvidence(c);
+  }
+  return chooseMarkFrom(evidence(), delimiter);
+}
+
+/** `chooseMark` from each cell's `markEvidence` (a caller that knows the evidence without the text). */
+export function chooseMarkFrom(evidence: Iterable<MarkEvidence>, delimiter: string): ColumnMarks {
+  if (delimiter === ',') return { mark: '.', mixed: false, decided: true };
   let dot = 0;
   let comma = 0;
-  for (const c of cells) {
-    const e = markEvidence(c);
+  for (const e of evidence) {
     if (e === '.') dot++;
     else if (e === ',') comma++;
   }

@@ -20,10 +20,8 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
     }
     return i;
   };
-  const order = new Uint32Array(n);
-  for (let i = 0; i < n; i++) order[i] = i;
-  const xs = Float64Array.from(x);
-  order.sort((a, b) => xs[a] - xs[b]);
+  const xs = x instanceof Float64Array ? x : Float64Array.from(x);
+  const order = orderOf(xs);
   for (let a = 0; a < n; a++) {
     const i = order[a];
     for (let b = a + 1; b < n; b++) {
@@ -39,7 +37,8 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
     }
   }
   // Only roots with company get a list: no array per sample for the (usual) sample with none.
-  const size = new Int32Array(n);
+  // The order is no longer needed: its array counts each root's points.
+  const size = order.fill(0);
   for (let i = 0; i < n; i++) size[find(i)]++;
   const groups = new Map<number, number[]>();
   for (let i = 0; i < n; i++) {
@@ -52,6 +51,50 @@ export function duplicateGroups(x: ArrayLike<number>, y: ArrayLike<number>, tole
   return [...groups.values()].sort((a, b) => a[0] - b[0]);
 }
 
+const LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
+/**
+ * Indices of `x` in ascending order of its values: a least-significant-digit radix sort on the doubles'
+ * bits (four passes of 16 bits; a double's bits, with the sign bit flipped for positives and all bits
+ * inverted for negatives, order like the numbers), several times faster than a comparison sort of
+ * millions of indices.
+ */
+export function orderOf(x: Float64Array): Uint32Array {
+  const n = x.length;
+  let order = new Uint32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  if (n < 1024 || !LITTLE_ENDIAN) return order.sort((a, b) => x[a] - x[b]);
+  const words = new Uint32Array(x.buffer, x.byteOffset, 2 * n);
+  let next = new Uint32Array(n);
+  const count = new Uint32Array(65536);
+  for (let pass = 0; pass < 4; pass++) {
+    const high = pass >= 2;
+    const shift = (pass & 1) * 16;
+    const digit = (j: number) => {
+      const h = words[2 * j + 1];
+      const w = high ? h : words[2 * j];
+      const key = h >>> 31 ? ~w : high ? (w | 0x80000000) : w;
+      return (key >>> shift) & 0xffff;
+    };
+    count.fill(0);
+    for (let j = 0; j < n; j++) count[digit(j)]++;
+    let sum = 0;
+    for (let d = 0; d < 65536; d++) {
+      const c = count[d];
+      count[d] = sum;
+      sum += c;
+    }
+    for (let i = 0; i < n; i++) {
+      const j = order[i];
+      next[count[digit(j)]++] = j;
+    }
+    const t = order;
+    order = next;
+    next = t;
+  }
+  return order;
+}
+
 /** Quantile with linear interpolation between order statistics (type 7, the common default). */
 export function quantile(sorted: ArrayLike<number>, p: number): number {
   const n = sorted.length;
@@ -62,14 +105,19 @@ export function quantile(sorted: ArrayLike<number>, p: number): number {
   return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
 }
 
+/** The values in ascending order, in a new array (callers that need both may share it: `outlierIndices`, `summarise`). */
+export function sortedCopy(values: ArrayLike<number>): Float64Array {
+  return (values instanceof Float64Array ? values.slice() : Float64Array.from(values)).sort();
+}
+
 /**
  * Indices of values beyond 3 interquartile ranges below the first or above the third quartile
  * (Tukey's "far out" fence; common practice). Flagged only, never removed.
  */
-export function outlierIndices(values: ArrayLike<number>, fence = 3): number[] {
+export function outlierIndices(values: ArrayLike<number>, fence = 3, sortedValues?: Float64Array): number[] {
   const n = values.length;
   if (n < 4) return [];
-  const sorted = Float64Array.from(values).sort();
+  const sorted = sortedValues ?? sortedCopy(values);
   const q1 = quantile(sorted, 0.25);
   const q3 = quantile(sorted, 0.75);
   const iqr = q3 - q1;
@@ -93,10 +141,10 @@ export interface Summary {
 }
 
 /** Summary statistics; for no values every field is 0 except n. */
-export function summarise(values: ArrayLike<number>): Summary {
+export function summarise(values: ArrayLike<number>, sortedValues?: Float64Array): Summary {
   const n = values.length;
   if (n === 0) return { n: 0, min: 0, max: 0, mean: 0, median: 0, sd: 0, skewness: 0 };
-  const sorted = Float64Array.from(values).sort();
+  const sorted = sortedValues ?? sortedCopy(values);
   let sum = 0;
   for (let i = 0; i < n; i++) sum += values[i];
   const mean = sum / n;

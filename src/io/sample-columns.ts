@@ -9,6 +9,7 @@ import type { CovariateTrend } from '../core/model.ts';
 import { GapwiseError } from '../core/errors.ts';
 import { chooseMark, isMissing, parseColumnNumber } from './numbers.ts';
 import type { IntakeResult } from './types.ts';
+import { cellText } from './sample-table.ts';
 
 /** One source column: numbers, or text codes into levels. */
 export type SourceColumn = CovariateColumn;
@@ -19,13 +20,15 @@ export type SourceColumn = CovariateColumn;
  * 'missing-column' when no sample has the column.
  */
 export function sourceColumn(intake: IntakeResult, name: string): SourceColumn {
-  const rows = intake.rows;
-  if (!rows.some((r) => Object.prototype.hasOwnProperty.call(r.raw, name))) {
-    const known = rows.length > 0 ? Object.keys(rows[0].raw) : [];
+  const { table } = intake;
+  const c = table.columns.indexOf(name);
+  if (c < 0) {
+    const known = table.columns;
     const shown = known.length > 12 ? `${known.slice(0, 12).join(', ')}, ...` : known.join(', ');
     throw new GapwiseError('missing-column', `The samples have no column "${name}"; expected one of ${shown || 'their columns'}.`, { file: intake.report.fileName, column: name });
   }
-  const cells = rows.map((r) => r.raw[name] ?? '');
+  // One cell per sample: a merged sample's first source row.
+  const cells = Array.from(table.record, (r) => cellText(table.cells[c], r));
   const marks = chooseMark(cells.filter((c) => !isMissing(c)), intake.report.delimiter ?? ',');
   const values = new Float64Array(cells.length);
   let numeric = true;
@@ -57,7 +60,7 @@ export function sourceColumn(intake: IntakeResult, name: string): SourceColumn {
 
 /** The source line (CSV, header = 1) or feature number of sample i. */
 export function sampleLine(intake: IntakeResult, i: number): number {
-  return intake.rows[i]?.lines[0] ?? i + 2;
+  return intake.table.line[i] ?? i + 2;
 }
 
 /**

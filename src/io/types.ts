@@ -5,6 +5,7 @@
  */
 import type { Samples } from '../core/samples.ts';
 import type { Warning } from '../core/errors.ts';
+import type { SampleTable } from './sample-table.ts';
 
 export type NonDetectRule = 'half' | 'dl' | 'sqrt2';
 export type DuplicateRule = 'merge' | 'keep';
@@ -92,7 +93,7 @@ export interface ReadReport {
   blankLines?: number[];
 }
 
-/** One accepted sample as read, in the input CRS, with its flags. */
+/** One accepted sample as read, in the input CRS, with its flags (`rowAt` of io/sample-table.ts, for display). */
 export interface SampleRow {
   id: string;
   /** Input-CRS coordinates as read. */
@@ -110,6 +111,7 @@ export interface SampleRow {
 export interface IntakeResult {
   /** In the working CRS, after non-detect substitution and duplicate handling. */
   samples: Samples;
-  rows: SampleRow[];
+  /** The same samples as read (input CRS, flags, lines, source columns), by column: see io/sample-table.ts. */
+  table: SampleTable;
   report: ReadReport;
 }

@@ -179,11 +179,6 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
         const q = p as RequestPayloads['readSamples'];
         return ops.readSamples(q.text, q.options) as ResultPayloads[K];
       }
-      case 'readSamplesPacked': {
-        const q = p as RequestPayloads['readSamplesPacked'];
-        const r = ops.readSamples(q.text, q.options);
-        return { samples: r.samples, report: r.report, rowsJson: JSON.stringify(r.rows) } as ResultPayloads[K];
-      }
       case 'design':
         return runDesignRequest(p as RequestPayloads['design'], progress) as ResultPayloads[K];
     }

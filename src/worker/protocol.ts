@@ -47,20 +47,7 @@ export interface RequestPayloads {
   /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
-  /** readSamples with the rows as JSON text (see PackedIntake): cheap to post and to store. */
-  readSamplesPacked: { text: string; options: IntakeOptions };
   design: DesignRequestPayload;
-}
-
-/**
- * An intake result with its rows (one small object each, slow to structured-clone by the ten
- * thousand) as one JSON text, which crosses postMessage and IndexedDB as a single string.
- */
-export interface PackedIntake {
-  samples: IntakeResult['samples'];
-  report: IntakeResult['report'];
-  /** JSON.stringify(rows). */
-  rowsJson: string;
 }
 
 /** What each request type answers. */
@@ -75,14 +62,13 @@ export interface ResultPayloads {
   blockSurfaceRows: BlockSurfaceResult;
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
-  readSamplesPacked: PackedIntake;
   design: DesignResult;
 }
 
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'readSamplesPacked', 'design',
+  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
 ];
 
 /** A request; `id` is unique per client. */

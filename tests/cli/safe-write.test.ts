@@ -2,7 +2,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { spawn, spawnSync } from 'node:child_process';
 import { chmodSync, mkdirSync, readFileSync, readdirSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
-import { pendingFiles, writeFileSafely } from '../../src/cli/safe-write.ts';
+import { pendingFiles, temporaryName, writeFileSafely } from '../../src/cli/safe-write.ts';
 import { createRandom } from '../../src/core/random.ts';
 import { planarSamplesCsv, workspace } from './run-cli.ts';
 
@@ -113,6 +113,34 @@ describe('writeFileSafely', () => {
     }
     // At least one kill landed mid-write (the previous file kept).
     expect(outcomes.some((o) => o.includes('previous kept')), outcomes.join('; ')).toBe(true);
+  }, 60_000);
+
+  it('writeFileSafely removes temporary files that killed writes of the same output left, and says so; a live writer\'s and another output\'s stay', async () => {
+    const dir = fresh('stale');
+    const target = join(dir, 'out.txt');
+    writeFileSync(target, PREVIOUS);
+    // A process id that no process holds any more: a child that has exited.
+    const dead = spawnSync(process.execPath, ['-e', '']).pid as number;
+    const staleName = temporaryName(target, dead);
+    writeFileSync(staleName, 'half of a killed write');
+    const live = temporaryName(target, process.pid);
+    writeFileSync(live, 'a write in progress');
+    const other = temporaryName(join(dir, 'other.txt'), dead);
+    writeFileSync(other, 'another output');
+    const notes: string[] = [];
+    await writeFileSafely(dir, 'out.txt', 'new\n', (t) => notes.push(t));
+    expect(readFileSync(target, 'utf8')).toBe('new\n');
+    expect(temporaries(dir).sort()).toEqual([live, other].map((p) => p.slice(dir.length + 1)).sort());
+    expect(notes).toEqual([`removed 1 temporary file that an earlier, interrupted write of out.txt left in its folder: ${staleName.slice(dir.length + 1)}`]);
+    // After a real SIGKILL mid-write, the next write of the output clears what it left.
+    const killed = fresh('stale-kill');
+    writeFileSync(join(killed, 'out.txt'), PREVIOUS);
+    await killDuringWrite(killed, 48, 'SIGKILL', 20);
+    const left = temporaries(killed);
+    const after: string[] = [];
+    await writeFileSafely(killed, 'out.txt', 'new\n', (t) => after.push(t));
+    expect(temporaries(killed)).toEqual([]);
+    expect(after.length).toBe(left.length ? 1 : 0);
   }, 60_000);
 
   it('gapwise grid under a file-size limit exits 2 naming the output, keeps the previous grid and leaves no temporary file', () => {

@@ -1,7 +1,11 @@
 // surfaceGridCsv: one row per active cell with centres, WGS 84 positions and values that read back
 // exactly; the caution on the first line.
 import { describe, expect, it } from 'vitest';
-import { surfaceGridCsv } from '../../src/io/grid-csv.ts';
+import { surfaceGridCsv, surfaceGridCsvChunks } from '../../src/io/grid-csv.ts';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { writeFileSafely } from '../../src/cli/safe-write.ts';
 import { createTransform } from '../../src/io/crs.ts';
 import { CAUTION } from '../../src/core/caution.ts';
 import { FORMULA_NOTE } from '../../src/io/csv-cells.ts';
@@ -28,6 +32,29 @@ describe('surfaceGridCsv', () => {
     const [lon, lat] = t.forward(500015, 5400025);
     expect(Number(rows[0][2])).toBeCloseTo(lon, 8);
     expect(Number(rows[0][3])).toBeCloseTo(lat, 8);
+  });
+
+  it('surfaceGridCsvChunks: pieces of whole lines that, written one by one through the safe writer, give the bytes of the whole text', async () => {
+    // The text the one-string writer gave for this grid (before the pieces), pinned.
+    const before = `# ${CAUTION} ${FORMULA_NOTE} x, y: cell centres in EPSG:32633; lon, lat: WGS 84; mean, sd in mg/L; p_exceed = P(value > 3 mg/L)\n`
+      + 'x,y,lon,lat,mean,sd,p_exceed\n'
+      + '500015,5400025,15.00020407,48.7532379,1.10000002,0.100000001,0.00999999978\n'
+      + '500005,5400015,15.00006802,48.75314794,2.20000005,0.200000003,0.0199999996\n'
+      + '500015,5400015,15.00020407,48.75314794,3.29999995,0.300000012,0.5\n'
+      + '500025,5400015,15.00034012,48.75314794,4.4000001,0.400000006,0.980000019\n'
+      + '500015,5400005,15.00020407,48.75305798,5.5,0.5,0.99000001\n';
+    const input = { grid, surface: { mean, sd, pExceed, threshold: 3 }, workCrs: 'EPSG:32633', unit: 'mg/L' };
+    expect(surfaceGridCsv(input)).toBe(before);
+    const pieces = [...surfaceGridCsvChunks(input, 100)];
+    expect(pieces.length).toBeGreaterThan(2);
+    for (const p of pieces) expect(p.endsWith('\n')).toBe(true);
+    const dir = mkdtempSync(join(tmpdir(), 'gapwise-grid-csv-'));
+    try {
+      await writeFileSafely(dir, 'grid.csv', surfaceGridCsvChunks(input, 100));
+      expect(readFileSync(join(dir, 'grid.csv')).equals(Buffer.from(before, 'utf8'))).toBe(true);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 
   it('surfaceGridCsv leaves out p_exceed without a threshold, the comment on request, and lon/lat for local coordinates', () => {

@@ -2,7 +2,8 @@
 // population moments m2 = 50/5 = 10 and m3 = 180/5 = 36, so g1 = 36 / 10^1.5 = 1.1384199576606167;
 // the sample sd is √(50/4); quartiles by linear interpolation (type 7, numpy's default) are 2 and 4.
 import { describe, expect, it } from 'vitest';
-import { duplicateGroups, outlierIndices, quantile, summarise, transformAdvice } from '../../src/io/quality.ts';
+import { duplicateGroups, orderOf, outlierIndices, quantile, summarise, transformAdvice } from '../../src/io/quality.ts';
+import { createRandom } from '../../src/core/random.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 describe('summarise', () => {
@@ -56,6 +57,52 @@ describe('duplicateGroups', () => {
 
   it('duplicateGroups: no groups among distinct points', () => {
     expect(duplicateGroups([0, 1, 2], [0, 1, 2], 0.5)).toEqual([]);
+  });
+
+  it('duplicateGroups: 5,000 points with planted pairs and a chain give the groups a pairwise search gives', () => {
+    const rnd = createRandom(11);
+    const n = 5000;
+    const x = new Float64Array(n);
+    const y = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      x[i] = -500 + 1000 * rnd.uniform();
+      y[i] = 1000 * rnd.uniform();
+    }
+    for (let k = 0; k < 40; k++) {
+      x[k * 100 + 1] = x[k * 100] + 0.003;
+      y[k * 100 + 1] = y[k * 100] - 0.004;
+    }
+    x[4001] = x[4000] + 0.009;
+    y[4001] = y[4000];
+    x[4002] = x[4001] + 0.009;
+    y[4002] = y[4001];
+    const parent = Array.from({ length: n }, (_, i) => i);
+    const find = (i: number): number => (parent[i] === i ? i : (parent[i] = find(parent[i])));
+    for (let i = 0; i < n; i++) {
+      for (let j = i + 1; j < n; j++) if (Math.hypot(x[i] - x[j], y[i] - y[j]) <= 0.01) parent[Math.max(find(i), find(j))] = Math.min(find(i), find(j));
+    }
+    const byRoot = new Map<number, number[]>();
+    for (let i = 0; i < n; i++) byRoot.set(find(i), [...(byRoot.get(find(i)) ?? []), i]);
+    const want = [...byRoot.values()].filter((g) => g.length > 1).sort((a, b) => a[0] - b[0]);
+    expect(want.length).toBeGreaterThanOrEqual(40);
+    expect(duplicateGroups(x, y, 0.01)).toEqual(want);
+  });
+});
+
+describe('orderOf', () => {
+  it('orderOf: orders indices by value for negatives, zeros, ties, tiny and huge values', () => {
+    const rnd = createRandom(5);
+    const v = new Float64Array(3000);
+    for (let i = 0; i < v.length; i++) {
+      const k = i % 6;
+      v[i] = k === 0 ? -1e300 * rnd.uniform() : k === 1 ? 1e-300 * rnd.normal() : k === 2 ? Math.round(10 * rnd.normal()) : k === 3 ? (i % 2 ? -0 : 0) : k === 4 ? 1e6 * rnd.normal() : 5e-324;
+    }
+    const order = orderOf(v);
+    expect(new Set(order).size).toBe(v.length);
+    const sorted = Array.from(order, (i) => v[i]);
+    const zeroless = (a: number[]) => a.map((q) => (q === 0 ? 0 : q));
+    expect(zeroless(sorted)).toEqual(zeroless(Array.from(v).sort((a, b) => a - b)));
+    for (let i = 1; i < sorted.length; i++) expect(sorted[i] >= sorted[i - 1]).toBe(true);
   });
 });
 

@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
-import type { EngineResponse, PackedIntake } from '../../src/worker/protocol.ts';
+import type { EngineResponse } from '../../src/worker/protocol.ts';
+import type { IntakeResult } from '../../src/io/types.ts';
+import { rowAt } from '../../src/io/sample-table.ts';
 import { readSamples } from '../../src/io/intake.ts';
 import { computeSurface } from '../../src/core/surface.ts';
 import { empiricalVariogram, variogramSet } from '../../src/core/variogram.ts';
@@ -125,16 +127,19 @@ describe('createEngineHandler', () => {
     expect(last.transfer).toContain(r.samples.value.buffer);
   });
 
-  it('createEngineHandler answers readSamplesPacked with the rows of readSamples as JSON text and the arrays transferred', () => {
+  it('createEngineHandler answers readSamples with the sample table of readSamples and every array of it transferred', () => {
     const { sent, run } = collect();
     const text = 'id,easting,northing,lead\nA,500010,4980010,120\nB,500050,4980020,<5\nC,500030,4980070,95\n';
     const options = { fileName: 'yard.csv', crs: 'EPSG:32633' };
-    run({ id: 6, type: 'readSamplesPacked', payload: { text, options } });
+    run({ id: 6, type: 'readSamples', payload: { text, options } });
     const last = sent.at(-1)!;
     expect(last.message.type, JSON.stringify(last.message)).toBe('result');
-    const r = (last.message as Extract<EngineResponse, { type: 'result' }>).result as PackedIntake;
+    const r = (last.message as Extract<EngineResponse, { type: 'result' }>).result as IntakeResult;
     const direct = readSamples(text, options);
-    expect(JSON.parse(r.rowsJson)).toEqual(direct.rows);
+    expect(r.table).toEqual(direct.table);
+    expect([0, 1, 2].map((i) => rowAt(r.table, i))).toEqual([0, 1, 2].map((i) => rowAt(direct.table, i)));
+    expect(rowAt(r.table, 1)).toMatchObject({ id: 'B', flags: ['nd'], lines: [3], raw: { lead: '<5' } });
+    for (const a of [r.table.inputX, r.table.value, r.table.flags, r.table.line, r.table.record]) expect(last.transfer).toContain(a.buffer);
     expect(r.report).toEqual(direct.report);
     expect(Array.from(r.samples.value)).toEqual(Array.from(direct.samples.value));
     expect(last.transfer).toContain(r.samples.x.buffer);

@@ -26,16 +26,17 @@ import {
 } from '../common.ts';
 import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
 import { withSampleCovariates } from '../covariates.ts';
+import { sampleId } from '../../io/sample-table.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
-  const { rows } = intake;
+  const { table } = intake;
   // A covariate model: the samples' covariate columns (levels as the model records them).
   const { samples } = withSampleCovariates(intake, intake.samples, modelFile.model.trend);
-  if (rows.length !== samples.value.length) {
-    throw new Error(`The intake returned ${rows.length} rows for ${samples.value.length} samples; expected one row per sample.`);
+  if (table.length !== samples.value.length) {
+    throw new Error(`The intake returned ${table.length} rows for ${samples.value.length} samples; expected one row per sample.`);
   }
   if (modelFile.workCrs === undefined) {
     printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${intake.report.crs.work} is assumed.`]);
@@ -58,11 +59,11 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out');
   if (out !== undefined) {
     const lines = [csvLine(['id', 'x', 'y', 'observed', 'predicted', 'sd_obs', 'error', 'standardised_error'])];
-    for (let i = 0; i < rows.length; i++) {
+    for (let i = 0; i < table.length; i++) {
       // The observation on the scale the errors are on (ln for a log model).
       const observed = log ? Math.log(samples.value[i]) : samples.value[i];
       lines.push(csvLine([
-        rows[i].id, formatNumber(rows[i].inputX), formatNumber(rows[i].inputY), formatNumber(observed),
+        sampleId(table, i), formatNumber(table.inputX[i]), formatNumber(table.inputY[i]), formatNumber(observed),
         formatNumber(cv.prediction[i]), formatNumber(cv.sdObserved[i]), formatNumber(cv.error[i]), formatNumber(cv.standardisedError[i]),
       ]));
     }

@@ -63,10 +63,9 @@ function logSamples(intake: IntakeResult): Samples {
   const logValue = new Float64Array(value.length);
   for (let i = 0; i < value.length; i++) {
     if (!(value[i] > 0)) {
-      const row = intake.rows[i];
       throw new GapwiseError('bad-value',
         `The value ${value[i]} cannot be log-transformed; expected every value above 0 for --transform log (use --transform none).`,
-        { file: intake.report.fileName, row: row?.lines[0], column: intake.report.valueColumn });
+        { file: intake.report.fileName, row: intake.table.line[i], column: intake.report.valueColumn });
     }
     logValue[i] = Math.log(value[i]);
   }

@@ -17,7 +17,7 @@ import { cellCount, type Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
-import { surfaceGridCsv } from '../../io/grid-csv.ts';
+import { surfaceGridCsvChunks } from '../../io/grid-csv.ts';
 import { DEFAULT_PADDING, openProject, planSurfaceGrid, projectGrid, type Project } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
@@ -190,7 +190,7 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
   } else if (format === 'csv') {
-    await writeOutput(io, out, surfaceGridCsv({ grid, surface, workCrs, unit }));
+    await writeOutput(io, out, surfaceGridCsvChunks({ grid, surface, workCrs, unit }));
   } else {
     const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels });
     features = fc.features.length;

@@ -9,6 +9,7 @@ import {
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
+import { sampleFlags, sampleId } from '../../io/sample-table.ts';
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const intake = readSamplesFile(io, values);
@@ -19,11 +20,12 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (out !== undefined) {
     const r = intake.report;
     const lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
-    for (const row of intake.rows) {
-      lines.push(csvLine([row.id, formatNumber(row.inputX), formatNumber(row.inputY), formatNumber(row.value), row.flags.join(';')]));
+    const t = intake.table;
+    for (let i = 0; i < t.length; i++) {
+      lines.push(csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]));
     }
     await writeOutput(io, out, `${lines.join('\n')}\n`);
-    io.stderr(`wrote ${intake.rows.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
+    io.stderr(`wrote ${intake.table.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
     io.stderr(`caution: ${CSV_CAUTION}\n`);
   }
   const report: Record<string, unknown> = { caution: CAUTION, ...intake.report };

@@ -20,7 +20,7 @@ import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readSamples } from '../../io/intake.ts';
 import { epsgIndexLoaded } from '../../io/crs.ts';
-import type { PackedIntake, RequestType } from '../../worker/protocol.ts';
+import type { RequestType } from '../../worker/protocol.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -196,19 +196,14 @@ export function variograms(
  * intake's GapwiseError. The workers know the built-in coordinate systems only; a code from the full
  * EPSG list (loaded on this thread by the CRS picker) is read here instead.
  */
-export async function readSamplesFile(text: string, options: IntakeOptions, signal?: AbortSignal): Promise<PackedIntake> {
+export async function readSamplesFile(text: string, options: IntakeOptions, signal?: AbortSignal): Promise<IntakeResult> {
   try {
-    return await enginePool().request('readSamplesPacked', { text, options }, { signal });
+    return await enginePool().request('readSamples', { text, options }, { signal });
   } catch (e) {
     if ((e as { code?: string }).code === 'bad-crs' && epsgIndexLoaded() && !signal?.aborted) {
-      const r = readSamples(text, options);
-      return { samples: r.samples, report: r.report, rowsJson: JSON.stringify(r.rows) };
+      return readSamples(text, options);
     }
     throw e;
   }
 }
 
-/** The intake result of a packed one (its rows parsed back). */
-export function unpackIntake(p: PackedIntake): IntakeResult {
-  return { samples: p.samples, report: p.report, rows: JSON.parse(p.rowsJson) as IntakeResult['rows'] };
-}

@@ -10,7 +10,8 @@
  * session computes that part again when it is wanted. Each part also carries the key of the inputs it
  * was computed from, which the session compares with its current inputs as it does before a reload.
  */
-import type { PackedIntake } from '../../worker/protocol.ts';
+import type { IntakeResult } from '../../io/types.ts';
+import { isSampleTable } from '../../io/sample-table.ts';
 import type { VariogramSet } from '../../core/variogram.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import type { DesignResult } from '../../core/design.ts';
@@ -20,7 +21,7 @@ import type { CandidateRow } from './structure.ts';
 import type { SurfaceSpeed } from './grid-plan.ts';
 import type { SimulationView, SurfaceView } from './session.svelte.ts';
 
-export const RESULTS_VERSION = 1;
+export const RESULTS_VERSION = 2;
 
 /** How the candidates in the table were fitted. */
 export interface FittedWith {
@@ -33,8 +34,8 @@ export interface SavedResults {
   version: typeof RESULTS_VERSION;
   /** The reading the results belong to (SessionSnapshot.readId). */
   readId: string;
-  /** The samples as read, rows as JSON text (one string stores fast; see PackedIntake). */
-  intake: PackedIntake;
+  /** The samples as read (the sample table's typed arrays store by structured clone). */
+  intake: IntakeResult;
   /** Variograms computed in a worker (many samples), with the key of their settings. */
   variograms: { key: string; set: VariogramSet } | null;
   /** The candidate table, the key it was fitted for, and how long the fit took (ms). */
@@ -81,12 +82,12 @@ export function validGrid(v: unknown): v is Grid {
   return v.mask === undefined || (v.mask instanceof Uint8Array && v.mask.length === v.nx * v.ny);
 }
 
-function validIntake(v: unknown, fileName: string): v is PackedIntake {
-  if (!isObj(v) || !isObj(v.samples) || !isObj(v.report) || typeof v.rowsJson !== 'string' || !v.rowsJson.startsWith('[')) return false;
+function validIntake(v: unknown, fileName: string): v is IntakeResult {
+  if (!isObj(v) || !isObj(v.samples) || !isObj(v.report) || !isSampleTable(v.table)) return false;
   const s = v.samples;
   if (!(s.x instanceof Float64Array) || s.x.length < 1) return false;
   const n = s.x.length;
-  if (!isFloatArray(s.y, n) || !isFloatArray(s.value, n)) return false;
+  if (!isFloatArray(s.y, n) || !isFloatArray(s.value, n) || v.table.length !== n) return false;
   const r = v.report;
   return r.fileName === fileName && whole(r.rowsUsed, 0) && isObj(r.crs) && typeof r.crs.work === 'string'
     && typeof r.valueColumn === 'string' && isObj(r.summary) && Array.isArray(r.entries) && Array.isArray(r.warnings);

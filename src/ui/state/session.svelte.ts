@@ -158,8 +158,6 @@ export class Session {
   /** A boundary file that was refused, with why; the boundary in use is unchanged. */
   rejectedBoundary = $state.raw<{ fileName: string; error: ShownError } | null>(null);
   private readRuns = new LatestRun();
-  /** intake.rows as JSON text, as the worker sent it: what the saved results store. */
-  private rowsJson = '[]';
 
   // ---------------------------------------------------------------- structure
 
@@ -779,7 +777,7 @@ export class Session {
     return {
       version: RESULTS_VERSION,
       readId,
-      intake: { samples: intake.samples, report: intake.report, rowsJson: this.rowsJson },
+      intake,
       variograms: v?.set ? { key: v.key, set: v.set } : null,
       fit: this.candidates.length && this.fittedFor
         ? { key: this.fittedFor, rows: this.candidates, fittedWith: this.fittedWith, ms: this.fitTask.ms }
@@ -817,19 +815,7 @@ export class Session {
       saved.surface.running = false;
       this.s = saved;
       this.surfaceInterrupted = interrupted;
-      let intake: IntakeResult | null = null;
-      if (results) {
-        // Unpacking the rows and showing everything are tasks of their own (see readWith).
-        await nextTask();
-        try {
-          intake = engine.unpackIntake(results.intake);
-          this.rowsJson = results.intake.rowsJson;
-        } catch {
-          results = null;
-        }
-        mark('intake-unpacked');
-        await nextTask();
-      }
+      const intake: IntakeResult | null = results ? results.intake : null;
       if (intake) {
         this.takeIntake(intake);
       } else if (saved.source) {
@@ -1092,15 +1078,11 @@ export class Session {
     this.reading = file.fileName;
     const options: IntakeOptions = { fileName: file.fileName, value: c.value, crs: c.crs, nonDetect: c.nonDetect };
     try {
-      const packed = await engine.readSamplesFile(file.text, options, run.signal);
-      // Taking the answer in, unpacking it and showing it are separate tasks: with many rows each is
-      // tens of ms, and together they held the page for over 100 ms.
+      const intake = await engine.readSamplesFile(file.text, options, run.signal);
+      // Showing the answer is a task of its own: with many rows, taking it in and showing it held the
+      // page for over 100 ms together.
       await nextTask();
       if (!run.current()) return { intake: null, error: null, stale: true };
-      const intake = engine.unpackIntake(packed);
-      await nextTask();
-      if (!run.current()) return { intake: null, error: null, stale: true };
-      this.rowsJson = packed.rowsJson;
       return { intake, error: null, stale: false };
     } catch (e) {
       const error = showError(e);

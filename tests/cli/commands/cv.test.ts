@@ -1,5 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
+import { sampleIds } from '../../../src/io/sample-table.ts';
 import { leaveOneOut } from '../../../src/core/cross-validation.ts';
 import { parseModel } from '../../../src/core/model.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
@@ -28,9 +29,9 @@ describe('cv command', () => {
     expect(lines[0]).toBe('id,x,y,observed,predicted,sd_obs,error,standardised_error');
     expect(lines.length).toBe(26);
     const rows = lines.slice(1).map((l) => l.split(','));
-    expect(rows.map((c) => c[0])).toEqual(intake.rows.map((row) => row.id));
+    expect(rows.map((c) => c[0])).toEqual(sampleIds(intake.table));
     const col = (k: number) => rows.map((c) => Number(c[k]));
-    expectClose(col(1), intake.rows.map((row) => row.inputX), { rel: 1e-12 }, 'x');
+    expectClose(col(1), intake.table.inputX, { rel: 1e-12 }, 'x');
     expectClose(col(3), intake.samples.value, { rel: 1e-11 }, 'observed');
     expectClose(col(4), direct.prediction, { rel: 1e-11 }, 'predicted');
     expectClose(col(5), direct.sdObserved, { rel: 1e-11 }, 'sd_obs');

@@ -16,7 +16,7 @@ function record(): SavedResults {
   return {
     version: RESULTS_VERSION,
     readId: 'reading-7',
-    intake: { samples: r.samples, report: r.report, rowsJson: JSON.stringify(r.rows) },
+    intake: r,
     variograms: null,
     fit: {
       key: 'reading-7|none', ms: 1200, fittedWith: { likelihood: 'exact', n, automatic: true },
@@ -53,19 +53,20 @@ describe('parseResults', () => {
     const back = parseResults(structuredClone(r), expectation);
     expect(back).toEqual(r);
     expect(back!.surface!.result.mean).toBeInstanceOf(Float32Array);
-    expect(JSON.parse(back!.intake.rowsJson)).toHaveLength(4);
+    expect(back!.intake.table.length).toBe(4);
+    expect(back!.intake.table.inputX).toBeInstanceOf(Float64Array);
   });
 
   it('parseResults drops a record of another reading, another file, another version or without readable samples', () => {
     expect(parseResults(record(), { ...expectation, readId: 'reading-8' })).toBeNull();
     expect(parseResults(record(), { ...expectation, readId: '' })).toBeNull();
     expect(parseResults(record(), { ...expectation, fileName: 'other.csv' })).toBeNull();
-    expect(parseResults({ ...record(), version: 2 }, expectation)).toBeNull();
+    expect(parseResults({ ...record(), version: 1 }, expectation)).toBeNull();
     const shortY = record();
     shortY.intake.samples = { ...shortY.intake.samples, y: new Float64Array(2) };
     expect(parseResults(shortY, expectation)).toBeNull();
-    const noRows = record() as unknown as { intake: { rowsJson: unknown } };
-    noRows.intake.rowsJson = 42;
+    const noRows = record() as unknown as { intake: { table: unknown } };
+    noRows.intake.table = { length: 4 };
     expect(parseResults(noRows, expectation)).toBeNull();
     expect(parseResults(null, expectation)).toBeNull();
     expect(parseResults('{"version":1}', expectation)).toBeNull();
