@@ -263,7 +263,9 @@ export function predictLocalChecked(
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
   const seed = options.seed ?? DEFAULT_CHECK_SEED;
   const base = options.local ?? {};
-  let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true };
+  // The GLS mean of all samples only means something when the trend is estimated.
+  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
+  let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true && estimated };
   const warnings: Warning[] = [];
   const run = (s: LocalSettings): Prediction => {
     const predictor = createLocalPredictor(samples, model, { ...base, ...s });

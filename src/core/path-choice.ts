@@ -131,6 +131,27 @@ export function choosePredictionPath(input: PathChoiceInput): PathChoice {
 }
 
 /**
+ * Exact or local leave-one-out (cv). The closed form of exact leave-one-out (./cross-validation.ts)
+ * costs about n³/2 multiply-adds; checking local leave-one-out against it costs the same, so up to
+ * REFERENCE_EXACT_LIMIT samples exact leave-one-out is taken, and local above (where the exact
+ * reference is out of reach; every sample is predicted from its nearest other samples).
+ */
+export function chooseLeaveOneOutPath(input: Pick<PathChoiceInput, 'samples' | 'tolerance' | 'force'>): PathChoice {
+  const n = input.samples;
+  const ex = n <= EXACT_SAMPLE_LIMIT ? n ** 3 / 2 : Infinity;
+  const lo = localCost(n, n, 64, 1);
+  if (input.force === 'exact') {
+    if (n > EXACT_SAMPLE_LIMIT) return choosePredictionPath({ samples: n, targets: n, force: 'exact' });
+    return { path: 'exact', automatic: false, exactCost: ex, localCost: lo, reason: 'as asked (--exact)' };
+  }
+  if (input.force === 'local') return { path: 'local', automatic: false, exactCost: ex, localCost: lo, reason: 'as asked (--local)' };
+  if (n <= REFERENCE_EXACT_LIMIT) {
+    return { path: 'exact', automatic: true, exactCost: ex, localCost: lo, reason: `up to ${REFERENCE_EXACT_LIMIT.toLocaleString('en-US')} samples exact leave-one-out costs no more than checking local neighbourhoods against it` };
+  }
+  return { path: 'local', automatic: true, exactCost: ex, localCost: lo, reason: `above ${REFERENCE_EXACT_LIMIT.toLocaleString('en-US')} samples exact leave-one-out (about n³/2 operations) costs too much` };
+}
+
+/**
  * Reads a tolerance such as "mean=1,sd=2" or "mean=0.5" (percent of the prior sd; a part left out
  * keeps its default). Throws GapwiseError('bad-option') naming the bad part.
  */
