@@ -4,7 +4,7 @@
  * neighbourhood holds every target's m nearest samples needs only that each target lies in its tile,
  * not a lattice; the spacing only sizes the tiles, through the targets per tile it implies.
  * Spacing = √(A/T) for T targets over their bounding box of area A, returned when the targets are
- * denser than the samples (T/A > n/A_s over the samples' box), else undefined. Cost O(T + n).
+ * more than the samples and denser (T/A > n/A_s over the samples' box), else undefined. Cost O(T + n).
  */
 
 function boxArea(x: ArrayLike<number>, y: ArrayLike<number>): number {
@@ -24,7 +24,8 @@ export function denseTargetSpacing(
 ): number | undefined {
   const T = tx.length;
   const n = sx.length;
-  if (T < 2 || n < 2) return undefined;
+  // Tiles pay only when many targets share a neighbourhood: more targets than samples as well.
+  if (T <= n || n < 2) return undefined;
   const targetArea = boxArea(tx, ty);
   const sampleArea = boxArea(sx, sy);
   if (!(targetArea > 0) || !(sampleArea > 0)) return undefined;

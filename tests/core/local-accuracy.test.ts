@@ -132,13 +132,15 @@ describe('growthSteps', () => {
 });
 
 describe('denseTargetSpacing', () => {
-  it('denseTargetSpacing is √(area/targets) for targets denser than the samples, undefined otherwise', () => {
+  it('denseTargetSpacing is √(area/targets) for targets more and denser than the samples, undefined otherwise', () => {
     const { samples, tx, ty } = problem(100, 2000, 1);
     let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
     for (let j = 0; j < tx.length; j++) { x0 = Math.min(x0, tx[j]); x1 = Math.max(x1, tx[j]); y0 = Math.min(y0, ty[j]); y1 = Math.max(y1, ty[j]); }
     expectClose(denseTargetSpacing(tx, ty, samples.x, samples.y)!, Math.sqrt(((x1 - x0) * (y1 - y0)) / 2000), { rel: 1e-12 });
     expect(denseTargetSpacing(tx.subarray(0, 50), ty.subarray(0, 50), samples.x, samples.y)).toBeUndefined();
     expect(denseTargetSpacing([1, 2, 3], [5, 5, 5], samples.x, samples.y)).toBeUndefined();
+    // Fewer targets than samples: no tiles however close together.
+    expect(denseTargetSpacing(tx.subarray(0, 99).map((v) => 300000 + (v - 300000) / 100), ty.subarray(0, 99), samples.x, samples.y)).toBeUndefined();
   });
   it('tiles from denseTargetSpacing bring scattered targets closer to exact kriging than one neighbourhood each', () => {
     const { samples, tx, ty } = problem(600, 8000, 12);
