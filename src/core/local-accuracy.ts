@@ -21,6 +21,7 @@ import { createRandom } from './random.ts';
 import type { Warning } from './errors.ts';
 import { surfaceVariance } from './covariance.ts';
 import { trendColumnCount } from './trend.ts';
+import { cellCentres, type Grid } from './grid.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, type LocalKrigingOptions } from './local-kriging.ts';
 import {
@@ -314,4 +315,29 @@ export function predictLocalChecked(
   }
   warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); no larger neighbourhood met it and exact kriging was not taken.` });
   return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
+}
+
+/**
+ * The measured error of a local-neighbourhood surface on a grid computed with `settings` (tiles of the
+ * grid's cell, as every surface path uses): the local values at a seeded subset of the cells, which
+ * equal the surface's there (results do not depend on which cells are predicted together), against
+ * the reference. For the app, which computes surfaces band by band in workers.
+ */
+export function measureLocalGrid(
+  samples: Samples, model: CovarianceModel, grid: Grid, settings: LocalSettings,
+  options: { tolerance?: Tolerance; seed?: number } = {},
+): LocalAccuracy {
+  const n = samples.x.length;
+  const seed = options.seed ?? DEFAULT_CHECK_SEED;
+  const centres = cellCentres(grid);
+  const T = centres.x.length;
+  const idx = chooseCheckTargets(T, checkCount(n, T), seed);
+  const cx = Float64Array.from(idx, (i) => centres.x[i]);
+  const cy = Float64Array.from(idx, (i) => centres.y[i]);
+  const reference = referencePredictions(samples, model, cx, cy);
+  const p = createLocalPredictor(samples, model, { ...settings, targetSpacing: grid.cell }).predict(cx, cy);
+  const all = Uint32Array.from({ length: idx.length }, (_, k) => k);
+  return compareWithReference(model, reference, checkedValues(p, all, model.transform === 'log'), {
+    targets: T, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
+  });
 }
