@@ -76,7 +76,7 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
     'numbers were computed follows "note: ".',
     '',
     wrap(`Many samples: from ${count(EXACT_FIT_LIMIT)} samples on, fit uses a nearest-neighbour likelihood `
-      + `(--method overrides). predict, cv, grid, suggest and simulate choose exact kriging or local neighbourhoods: ${AUTOMATIC_PATH_TEXT} `
+      + `(--method overrides). predict, cv and grid choose exact kriging or local neighbourhoods: ${AUTOMATIC_PATH_TEXT} `
       + '(--exact and --local override; the choice, the reason and the measured error are said on stderr); '
       + 'grid shares its rows out among worker threads, one per core.', 0),
     '',

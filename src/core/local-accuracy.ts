@@ -22,6 +22,7 @@ import type { Warning } from './errors.ts';
 import { surfaceVariance } from './covariance.ts';
 import { trendColumnCount } from './trend.ts';
 import { cellCentres, type Grid } from './grid.ts';
+import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, type LocalKrigingOptions } from './local-kriging.ts';
 import {
@@ -240,7 +241,21 @@ export interface CheckedLocalPrediction {
   warnings: Warning[];
 }
 
-/** "mean 0.12 % / sd 0.05 %" style summary of a measurement. */
+/** The prediction at targets given in `order` (order[k] = the target at position k), back in the targets' order. */
+function unpermute(p: Prediction, order: Uint32Array): Prediction {
+  const back = (a: Float64Array | undefined): Float64Array | undefined => {
+    if (!a) return undefined;
+    const out = new Float64Array(a.length);
+    for (let k = 0; k < order.length; k++) out[order[k]] = a[k];
+    return out;
+  };
+  return {
+    mean: back(p.mean)!, sd: back(p.sd)!, sdObserved: back(p.sdObserved)!,
+    ...(p.median ? { median: back(p.median)!, logMean: back(p.logMean)!, logSd: back(p.logSd)! } : {}),
+  };
+}
+
+/** A one-line summary of a measurement: against what, where, largest and RMS differences, the tolerance. */
 export function describeAccuracy(a: LocalAccuracy): string {
   const against = a.reference === 'exact'
     ? 'exact kriging'
@@ -268,9 +283,13 @@ export function predictLocalChecked(
   const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
   let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true && estimated };
   const warnings: Warning[] = [];
+  // Targets visited cell by cell share neighbourhoods; the results are put back in the targets' order.
+  const order = spatialOrder(x, y);
+  const ox = Float64Array.from(order, (i) => x[i]);
+  const oy = Float64Array.from(order, (i) => y[i]);
   const run = (s: LocalSettings): Prediction => {
     const predictor = createLocalPredictor(samples, model, { ...base, ...s });
-    const p = predictor.predict(x, y);
+    const p = unpermute(predictor.predict(ox, oy), order);
     for (const w of predictor.warnings) if (!warnings.some((v) => v.message === w.message)) warnings.push(w);
     return p;
   };

@@ -32,3 +32,33 @@ export function denseTargetSpacing(
   if (T / targetArea <= n / sampleArea) return undefined;
   return Math.sqrt(targetArea / T);
 }
+
+/**
+ * An order of the targets that visits them cell by cell (cells of about `cellTargets` targets, rows
+ * of cells in alternating direction), so that consecutive targets mostly share their neighbourhood
+ * and its factor (./local-kriging.ts reuses it). Local results do not depend on the order.
+ * Cost O(T log T).
+ */
+export function spatialOrder(x: ArrayLike<number>, y: ArrayLike<number>, cellTargets = 4): Uint32Array {
+  const T = x.length;
+  const order = Uint32Array.from({ length: T }, (_, i) => i);
+  if (T < 3) return order;
+  let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+  for (let i = 0; i < T; i++) {
+    if (x[i] < x0) x0 = x[i];
+    if (x[i] > x1) x1 = x[i];
+    if (y[i] < y0) y0 = y[i];
+    if (y[i] > y1) y1 = y[i];
+  }
+  const area = Math.max((x1 - x0) * (y1 - y0), 1e-300);
+  const side = Math.sqrt((area * cellTargets) / T);
+  if (!(side > 0) || !Number.isFinite(side)) return order;
+  const key = new Float64Array(T);
+  const across = Math.floor((x1 - x0) / side) + 1;
+  for (let i = 0; i < T; i++) {
+    const row = Math.floor((y[i] - y0) / side);
+    const col = Math.floor((x[i] - x0) / side);
+    key[i] = row * across + (row % 2 === 0 ? col : across - 1 - col);
+  }
+  return order.sort((a, b) => key[a] - key[b] || a - b);
+}
