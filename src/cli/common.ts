@@ -360,12 +360,15 @@ export function readPredictionPath(values: OptionValues, n: number, job: PathJob
  * samples at each target (local neighbourhoods, with the GLS mean of all samples); 48,211 samples;
  * chosen automatically: ... (--exact overrides)". cv passes its own `verb` and `nearest`.
  */
-export function describePredictionPath(p: PredictionPath, n: number, verb = 'predicted', nearest = 'nearest samples at each target'): string {
+export function describePredictionPath(
+  p: PredictionPath, n: number, verb = 'predicted', nearest = 'nearest samples at each target', knownMean = false,
+): string {
   if (p.path === 'exact') {
     return `${verb} by exact kriging from all ${count(n)} samples${p.automatic ? `; chosen automatically: ${p.reason} (--local overrides)` : ' (--exact)'}`;
   }
   const m = Math.min(p.neighbors, n);
-  const how = p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods, the mean re-estimated in each';
+  const how = knownMean ? 'local neighbourhoods, around the known mean'
+    : p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods, the mean re-estimated in each';
   const why = p.automatic ? `; chosen automatically: ${p.reason} (--exact overrides)` : ' (--local)';
   return `${verb} from the ${m} ${nearest} (${how}); ${count(n)} samples${why}`;
 }

@@ -16,7 +16,7 @@ import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { cellCount, type Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
 import { EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
-import { trendColumnCount } from '../../core/trend.ts';
+import { knownMean, trendColumnCount } from '../../core/trend.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
 import { surfaceGridCsv } from '../../io/grid-csv.ts';
@@ -153,7 +153,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       notes.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
     }
     const threads = Math.min(workers, grid.ny);
-    printNotes(io, [`${describePredictionPath(used, n)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`, ...notes]);
+    printNotes(io, [`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`, ...notes]);
   } else {
     printNotes(io, [`block kriging: each of ${count(cells)} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
   }

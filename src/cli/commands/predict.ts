@@ -14,6 +14,7 @@ import { exceedanceProbability } from '../../core/normal.ts';
 import { createTransform } from '../../io/crs.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
+import { knownMean } from '../../core/trend.ts';
 import {
   AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
   printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
@@ -122,7 +123,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     warnings.push(...checked.warnings);
     p = checked.prediction;
     const used = { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
-    notes.push(`${describePredictionPath(used, n)}; ${tx.length.toLocaleString('en-US')} targets${spacing !== undefined ? ' (dense: in shared tile neighbourhoods)' : ''}`);
+    notes.push(`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${tx.length.toLocaleString('en-US')} targets${spacing !== undefined ? ' (dense: in shared tile neighbourhoods)' : ''}`);
     notes.push(...checked.notes);
     notes.push(`measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
   }
