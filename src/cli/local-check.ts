@@ -5,7 +5,8 @@ import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import { cellCentres, type Grid } from '../core/grid.ts';
 import type { SurfaceResult } from '../core/surface.ts';
-import { createLocalPredictor } from '../core/local-kriging.ts';
+import { createLocalPredictor, globalMeanCoefficients } from '../core/local-kriging.ts';
+import { trendColumnCount } from '../core/trend.ts';
 import {
   DEFAULT_CHECK_SEED, checkedValues, chooseCheckTargets, compareWithReference, findGrowth, referencePredictions,
   type CheckedValues, type GrowthAttempt, type LocalAccuracy, type LocalSettings,
@@ -50,13 +51,15 @@ export async function checkLocalSurface(c: LocalSurfaceCheck): Promise<CheckedSu
   const idx = chooseCheckTargets(T, checkCount(n, T), seed);
   const cx = Float64Array.from(idx, (i) => centres.x[i]);
   const cy = Float64Array.from(idx, (i) => centres.y[i]);
-  const reference = referencePredictions(samples, model, cx, cy);
+  // The global trend coefficients once for the reference and every growth step.
+  const globalBeta = trendColumnCount(model.trend ?? 'constant') > 0 ? Array.from(globalMeanCoefficients(samples, model).beta) : undefined;
+  const reference = referencePredictions(samples, model, cx, cy, globalBeta);
   // What the surface holds at the checked cells; a log surface holds data-scale values, so its
   // kriging-scale values are computed again there (the same neighbourhoods: results do not depend on
   // which cells are predicted together).
   const valuesOf = (surface: SurfaceResult, settings: LocalSettings): CheckedValues => {
     if (log) {
-      const p = createLocalPredictor(samples, model, { ...settings, targetSpacing: grid.cell }).predict(cx, cy);
+      const p = createLocalPredictor(samples, model, { ...settings, targetSpacing: grid.cell, ...(globalBeta ? { globalBeta } : {}) }).predict(cx, cy);
       return checkedValues(p, Uint32Array.from({ length: idx.length }, (_, k) => k), true);
     }
     return {
@@ -71,7 +74,7 @@ export async function checkLocalSurface(c: LocalSurfaceCheck): Promise<CheckedSu
   let accuracy = measure(surface);
   if (accuracy.within || !c.grow) return { surface, path: 'local', settings, accuracy, attempts: [], notes: [] };
   const first = accuracy;
-  const { settings: grown, attempts } = findGrowth(samples, model, cx, cy, reference, settings, { targetSpacing: grid.cell }, tolerance);
+  const { settings: grown, attempts } = findGrowth(samples, model, cx, cy, reference, settings, { targetSpacing: grid.cell, ...(globalBeta ? { globalBeta } : {}) }, tolerance);
   const missed = `the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
   if (grown) {
     settings = grown;

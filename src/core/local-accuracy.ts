@@ -24,7 +24,7 @@ import { trendColumnCount } from './trend.ts';
 import { cellCentres, type Grid } from './grid.ts';
 import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
-import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, type LocalKrigingOptions } from './local-kriging.ts';
+import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
 import {
   DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, type Tolerance,
 } from './path-choice.ts';
@@ -112,7 +112,9 @@ export function checkedValues(p: Prediction, idx: ArrayLike<number>, log: boolea
 }
 
 /** Kriging of the checked targets by the reference (see the file header). */
-export function referencePredictions(samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>): ReferenceValues {
+export function referencePredictions(
+  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, globalBeta?: number[],
+): ReferenceValues {
   const n = samples.x.length;
   const log = model.transform === 'log';
   const all = Uint32Array.from({ length: x.length }, (_, i) => i);
@@ -120,7 +122,7 @@ export function referencePredictions(samples: Samples, model: CovarianceModel, x
     const p = createPredictor(samples, model).predict(x, y);
     return { ...checkedValues(p, all, log), reference: 'exact' };
   }
-  const p = createLocalPredictor(samples, model, { neighbors: REFERENCE_NEIGHBORS, globalMean: true }).predict(x, y);
+  const p = createLocalPredictor(samples, model, { neighbors: REFERENCE_NEIGHBORS, globalMean: true, ...(globalBeta ? { globalBeta } : {}) }).predict(x, y);
   return { ...checkedValues(p, all, log), reference: 'nearest', referenceNeighbors: Math.min(n, REFERENCE_NEIGHBORS) };
 }
 
@@ -278,11 +280,18 @@ export function predictLocalChecked(
   const log = model.transform === 'log';
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
   const seed = options.seed ?? DEFAULT_CHECK_SEED;
-  const base = options.local ?? {};
+  let base = options.local ?? {};
   // The GLS mean of all samples only means something when the trend is estimated.
   const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
   let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true && estimated };
+  // The global trend coefficients once for every run, the reference and the growth (n > 1,000: a
+  // nearest-neighbour GLS over all samples, the costliest step to repeat).
   const warnings: Warning[] = [];
+  if (estimated && base.globalBeta === undefined) {
+    const g = globalMeanCoefficients(samples, model, base);
+    base = { ...base, globalBeta: Array.from(g.beta) };
+    warnings.push(...g.warnings);
+  }
   // Targets visited cell by cell share neighbourhoods; the results are put back in the targets' order.
   const order = spatialOrder(x, y);
   const ox = Float64Array.from(order, (i) => x[i]);
@@ -297,7 +306,7 @@ export function predictLocalChecked(
   const idx = chooseCheckTargets(T, checkCount(n, T), seed);
   const cx = Float64Array.from(idx, (i) => x[i]);
   const cy = Float64Array.from(idx, (i) => y[i]);
-  const reference = referencePredictions(samples, model, cx, cy);
+  const reference = referencePredictions(samples, model, cx, cy, base.globalBeta);
   const measure = (p: Prediction): LocalAccuracy =>
     compareWithReference(model, reference, checkedValues(p, idx, log), { targets: T, seed, ...settings, tolerance });
   let accuracy = measure(prediction);
