@@ -202,6 +202,8 @@ const raster = bandsGeoTiff({
   grid: { x0: rx0, y0: ry0, cell: RASTER_CELL, nx: rnx, ny: rny },
   bands: [distanceBand], names: ['workshop_dist_m (m)'], workCrs: UTM,
   title: `Distance to the old workshop of ${NAME}, metres: an invented covariate for the Gapwise demo.`,
+  // A fixed Software tag, so that a new release does not change the demo file's bytes.
+  software: 'Gapwise demo data',
 });
 writeFileSync(resolve(outDir, 'workshop-distance.tif'), raster.bytes);
 

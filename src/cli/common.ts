@@ -13,8 +13,12 @@ import { openInputFile, readInputText } from './input-file.ts';
 import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
-import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../core/local-kriging.ts';
+import {
+  CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS,
+  chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance,
+} from '../core/path-choice.ts';
+import { MAX_GROWN_NEIGHBORS } from '../core/local-accuracy.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 import { writeFileSafely, type OutputData } from './safe-write.ts';
 
@@ -253,30 +257,44 @@ export function count(n: number): string {
   return n.toLocaleString('en-US');
 }
 
-/** Below this many samples predict, cv and grid use exact kriging unless told otherwise (the fit's limit too). */
-export const EXACT_PREDICTION_LIMIT = EXACT_FIT_LIMIT;
 /** Most samples `--exact` accepts: the dense system takes 8·n² bytes (800 MB at 10,000) in each worker. */
-export const FORCED_EXACT_LIMIT = 10_000;
+export const FORCED_EXACT_LIMIT = EXACT_SAMPLE_LIMIT;
 /** Largest `--neighbors` (local-kriging.ts accepts up to 2,000). */
 const MAX_NEIGHBORS = 2000;
+
+/** How the automatic choice is made, for help texts (generated from the constants it uses). */
+export const AUTOMATIC_PATH_TEXT = `automatic: the cheaper of exact kriging and local neighbourhoods by estimated cost (samples, targets, threads); `
+  + `a local run is checked against exact kriging at up to ${count(CHECK_COUNT)} seeded random targets (from ${count(REFERENCE_EXACT_LIMIT + 1)} samples: `
+  + `against the ${count(REFERENCE_NEIGHBORS)} nearest samples at ${count(LARGE_CHECK_COUNT)} targets), grown when it misses --tolerance, `
+  + `or replaced by exact kriging; never exact above ${count(EXACT_SAMPLE_LIMIT)} samples`;
 
 /** The options of predict, cv and grid that choose between exact kriging and local neighbourhoods. */
 export const PREDICTION_PATH_OPTIONS: OptionSpec[] = [
   {
     name: 'neighbors', kind: 'number', placeholder: 'M',
-    help: 'local neighbourhoods: each target is predicted from its M nearest samples (distance as the model measures it, anisotropy included); a whole number from 1 to 2,000',
-    unit: 'samples', defaultText: String(DEFAULT_LOCAL_NEIGHBORS),
+    help: 'local neighbourhoods: each target is predicted from its M nearest samples (distance as the model measures it, anisotropy included); a whole number from 1 to 2,000; a given M is not grown',
+    unit: 'samples', defaultText: `${DEFAULT_LOCAL_NEIGHBORS}, grown up to ${MAX_GROWN_NEIGHBORS} when the measured error misses --tolerance`,
   },
   {
     name: 'exact', kind: 'boolean',
     help: `exact kriging from all samples whatever their number (memory 8·n² bytes per worker; up to ${count(FORCED_EXACT_LIMIT)} samples)`,
-    defaultText: `automatic: exact below ${count(EXACT_PREDICTION_LIMIT)} samples, local neighbourhoods from ${count(EXACT_PREDICTION_LIMIT)}`,
+    defaultText: AUTOMATIC_PATH_TEXT,
   },
-  { name: 'local', kind: 'boolean', help: 'local neighbourhoods whatever the number of samples', defaultText: 'automatic, as for --exact' },
+  { name: 'local', kind: 'boolean', help: 'local neighbourhoods whatever the number of samples (their error is still measured and reported)', defaultText: 'automatic, as for --exact' },
+  {
+    name: 'tolerance', kind: 'string', placeholder: 'mean=P,sd=P',
+    help: 'how close local neighbourhoods must come to exact kriging: largest difference of the mean and of the sd, in % of the prior sd of the surface (a part left out keeps its default; 0 takes exact kriging)',
+    defaultText: `mean=${DEFAULT_TOLERANCE.mean},sd=${DEFAULT_TOLERANCE.sd}`,
+  },
   {
     name: 'global-mean', kind: 'boolean',
-    help: 'local neighbourhoods: use the mean (trend) estimated by GLS from all samples in every neighbourhood instead of re-estimating it in each (exact kriging always uses the GLS mean of all samples)',
-    defaultText: 'off: the mean is re-estimated in each neighbourhood',
+    help: 'local neighbourhoods: use the mean (trend) estimated by GLS from all samples in every neighbourhood, as exact kriging does',
+    defaultText: 'on (--local-mean turns it off)',
+  },
+  {
+    name: 'local-mean', kind: 'boolean',
+    help: 'local neighbourhoods: re-estimate the mean (trend) in each neighbourhood instead of using the GLS mean of all samples',
+    defaultText: 'off',
   },
 ];
 
@@ -285,55 +303,79 @@ export interface PredictionPath {
   path: 'exact' | 'local';
   /** Samples per neighbourhood on the local path (min(M, n) are used). */
   neighbors: number;
+  /** True when --neighbors was given (the neighbourhood is then not grown). */
+  neighborsGiven: boolean;
   /** Local path: the GLS mean of all samples in every neighbourhood. */
   globalMean: boolean;
-  /** True when the number of samples chose the path (no --exact, no --local). */
+  /** True when cost and tolerance chose the path (no --exact, no --local). */
   automatic: boolean;
+  /** Why this path, one clause. */
+  reason: string;
+  tolerance: Tolerance;
   /** Notes about options that do not apply to the chosen path. */
   warnings: string[];
 }
 
+/** The job the path is chosen for: targets (cells, points, or samples for leave-one-out) and threads. */
+export interface PathJob {
+  targets: number;
+  threads?: number;
+  /** Leave-one-out (cv) instead of prediction at targets. */
+  leaveOneOut?: boolean;
+}
+
 /**
- * Reads --neighbors, --exact, --local and --global-mean for `n` samples: exact kriging below
- * EXACT_PREDICTION_LIMIT samples, local neighbourhoods from there on, unless --exact or --local says
- * otherwise. Throws GapwiseError('bad-option') for contradictory or out-of-range values.
+ * Reads --neighbors, --exact, --local, --tolerance, --global-mean and --local-mean for `n` samples
+ * and chooses the path (core/path-choice.ts) unless --exact or --local says. Throws
+ * GapwiseError('bad-option') for contradictory or out-of-range values.
  */
-export function readPredictionPath(values: OptionValues, n: number): PredictionPath {
+export function readPredictionPath(values: OptionValues, n: number, job: PathJob = { targets: n }): PredictionPath {
   const exact = booleanOption(values, 'exact');
   const local = booleanOption(values, 'local');
   const given = numberOption(values, 'neighbors');
-  const globalMean = booleanOption(values, 'global-mean');
+  const localMean = booleanOption(values, 'local-mean');
   if (exact && local) throw new GapwiseError('bad-option', 'Options "--exact" and "--local" contradict each other; expected at most one of them.');
+  if (localMean && booleanOption(values, 'global-mean')) {
+    throw new GapwiseError('bad-option', 'Options "--global-mean" and "--local-mean" contradict each other; expected at most one of them.');
+  }
   if (given !== undefined && !(Number.isInteger(given) && given >= 1 && given <= MAX_NEIGHBORS)) {
     throw new GapwiseError('bad-option', `Option "--neighbors" expects a whole number of samples from 1 to ${count(MAX_NEIGHBORS)}, got ${given}.`);
   }
   if (exact && given !== undefined) {
     throw new GapwiseError('bad-option', 'Option "--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact" (exact kriging uses all samples).');
   }
-  if (exact && n > FORCED_EXACT_LIMIT) {
-    throw new GapwiseError('bad-option',
-      `Option "--exact" is limited to ${count(FORCED_EXACT_LIMIT)} samples (its matrix takes 8·n² bytes, here ${((8 * n * n) / 1e9).toFixed(1)} GB), got ${count(n)}; leave it out to predict from local neighbourhoods.`);
-  }
-  const automatic = !exact && !local;
-  const path: 'exact' | 'local' = exact ? 'exact' : local ? 'local' : n < EXACT_PREDICTION_LIMIT ? 'exact' : 'local';
+  const toleranceText = stringOption(values, 'tolerance');
+  const tolerance = toleranceText === undefined ? { ...DEFAULT_TOLERANCE } : parseTolerance(toleranceText);
+  const force = exact ? 'exact' as const : local ? 'local' as const : undefined;
+  const neighbors = given ?? DEFAULT_LOCAL_NEIGHBORS;
+  const choice = job.leaveOneOut
+    ? chooseLeaveOneOutPath({ samples: n, tolerance, ...(force ? { force } : {}) })
+    : choosePredictionPath({ samples: n, targets: job.targets, threads: job.threads ?? 1, neighbors, tolerance, ...(force ? { force } : {}) });
   const warnings: string[] = [];
-  if (path === 'exact' && automatic && given !== undefined) {
-    warnings.push(`--neighbors ${given} is not used: ${count(n)} samples are few enough for exact kriging from all of them; add --local to predict from neighbourhoods.`);
+  if (choice.path === 'exact' && choice.automatic && given !== undefined) {
+    warnings.push(`--neighbors ${given} is not used: exact kriging from all ${count(n)} samples was chosen (${choice.reason}); add --local to predict from neighbourhoods.`);
   }
-  return { path, neighbors: given ?? DEFAULT_LOCAL_NEIGHBORS, globalMean, automatic, warnings };
+  return {
+    path: choice.path, neighbors, neighborsGiven: given !== undefined, globalMean: !localMean, automatic: choice.automatic,
+    reason: choice.reason, tolerance, warnings,
+  };
 }
 
 /**
- * The note that says how the numbers were computed, e.g. "predicted from the 64 nearest samples at
- * each target (local neighbourhoods); 48,211 samples". cv passes its own `verb` and `nearest`.
+ * The note that says how the numbers were computed and why, e.g. "predicted from the 64 nearest
+ * samples at each target (local neighbourhoods, with the GLS mean of all samples); 48,211 samples;
+ * chosen automatically: ... (--exact overrides)". cv passes its own `verb` and `nearest`.
  */
-export function describePredictionPath(p: PredictionPath, n: number, verb = 'predicted', nearest = 'nearest samples at each target'): string {
+export function describePredictionPath(
+  p: PredictionPath, n: number, verb = 'predicted', nearest = 'nearest samples at each target', knownMean = false,
+): string {
   if (p.path === 'exact') {
-    return `${verb} by exact kriging from all ${count(n)} samples${p.automatic ? '' : ' (--exact)'}`;
+    return `${verb} by exact kriging from all ${count(n)} samples${p.automatic ? `; chosen automatically: ${p.reason} (--local overrides)` : ' (--exact)'}`;
   }
   const m = Math.min(p.neighbors, n);
-  const how = p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods';
-  const why = p.automatic ? `; chosen automatically from ${count(EXACT_PREDICTION_LIMIT)} samples (--exact overrides)` : '';
+  const how = knownMean ? 'local neighbourhoods, around the known mean'
+    : p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods, the mean re-estimated in each';
+  const why = p.automatic ? `; chosen automatically: ${p.reason} (--exact overrides)` : ' (--local)';
   return `${verb} from the ${m} ${nearest} (${how}); ${count(n)} samples${why}`;
 }
 

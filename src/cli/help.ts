@@ -3,7 +3,8 @@
  * examples and the screening caution.
  */
 import type { OptionSpec } from './args.ts';
-import { CAUTION, EXACT_PREDICTION_LIMIT, count, type CommandSpec } from './common.ts';
+import { AUTOMATIC_PATH_TEXT, CAUTION, count, type CommandSpec } from './common.ts';
+import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
 
 const WIDTH = 100;
 
@@ -75,9 +76,10 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
     'way as "gapwise inspect" does. Warnings go to stderr, each line starting with "warning: "; how the',
     'numbers were computed follows "note: ".',
     '',
-    wrap(`Many samples: from ${count(EXACT_PREDICTION_LIMIT)} samples on, fit uses a nearest-neighbour likelihood `
-      + '(--method overrides), and predict, cv and grid predict from local neighbourhoods of --neighbors samples '
-      + '(--exact overrides); grid shares its rows out among worker threads, one per core.', 0),
+    wrap(`Many samples: from ${count(EXACT_FIT_LIMIT)} samples on, fit uses a nearest-neighbour likelihood `
+      + `(--method overrides). predict, cv and grid choose exact kriging or local neighbourhoods: ${AUTOMATIC_PATH_TEXT} `
+      + '(--exact and --local override; the choice, the reason and the measured error are said on stderr); '
+      + 'grid shares its rows out among worker threads, one per core.', 0),
     '',
     wrap('Files: --out is written to a temporary file in the same folder and renamed onto the name when complete, '
       + 'so a stopped run leaves the previous file in place; an --out that names one of the run\'s input files, '

@@ -18,6 +18,7 @@ import { GapwiseError, type Warning } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { SOFTWARE } from '../core/version.ts';
 import type { Grid } from '../core/grid.ts';
+import type { LocalAccuracy } from '../core/local-accuracy.ts';
 import { epsgCode, LOCAL_CRS } from './crs.ts';
 import { xml } from './markup.ts';
 
@@ -56,6 +57,29 @@ export interface GeoTiffInput {
   realisations?: number;
   /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
   software?: string;
+  /** Local neighbourhoods: their measured error against exact kriging (written as metadata items). */
+  accuracy?: LocalAccuracy;
+}
+
+/**
+ * The measured error of local neighbourhoods as GDAL metadata items (percent of the prior sd; see
+ * core/local-accuracy.ts), e.g. LOCAL_ERROR_MEAN_MAX_PCT = "0.13".
+ */
+export function localAccuracyMetadata(a: LocalAccuracy): Record<string, string> {
+  const pct = (x: number): string => x.toPrecision(3);
+  return {
+    LOCAL_NEIGHBORS: String(a.neighbors),
+    LOCAL_GLOBAL_MEAN: a.globalMean ? 'yes' : 'no',
+    LOCAL_ERROR_REFERENCE: a.reference === 'exact' ? 'exact kriging from all samples' : `kriging from the ${a.referenceNeighbors} nearest samples`,
+    LOCAL_ERROR_CHECKED: `${a.checked} of ${a.targets} cells, seed ${a.seed}`,
+    LOCAL_ERROR_SCALE: a.scale,
+    LOCAL_ERROR_MEAN_MAX_PCT: pct(a.mean.max),
+    LOCAL_ERROR_MEAN_RMS_PCT: pct(a.mean.rms),
+    LOCAL_ERROR_SD_MAX_PCT: pct(a.sd.max),
+    LOCAL_ERROR_SD_RMS_PCT: pct(a.sd.rms),
+    LOCAL_ERROR_TOLERANCE: `mean=${a.tolerance.mean},sd=${a.tolerance.sd}`,
+    LOCAL_ERROR_WITHIN_TOLERANCE: a.within ? 'yes' : 'no',
+  };
 }
 
 /** Input of the general writer (plain data). */
@@ -71,6 +95,8 @@ export interface BandsGeoTiffInput {
   title: string;
   /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
   software?: string;
+  /** Dataset metadata items (GDAL metadata, default domain), e.g. the measured error of local neighbourhoods. */
+  metadata?: Readonly<Record<string, string>>;
 }
 
 export interface GeoTiffOutput {
@@ -125,8 +151,8 @@ export function realisationBandDescriptions(surface: GeoTiffSurfaces, count: num
 }
 
 /** GDAL_METADATA XML naming each band (sample = 0-based band index). */
-export function gdalMetadataXml(descriptions: readonly string[]): string {
-  return xml`<GDALMetadata>${descriptions.map((d, i) => xml`<Item name="DESCRIPTION" sample="${i}" role="description">${d}</Item>`)}</GDALMetadata>`.text;
+export function gdalMetadataXml(descriptions: readonly string[], items: Readonly<Record<string, string>> = {}): string {
+  return xml`<GDALMetadata>${Object.entries(items).map(([k, v]) => xml`<Item name="${k}">${v}</Item>`)}${descriptions.map((d, i) => xml`<Item name="DESCRIPTION" sample="${i}" role="description">${d}</Item>`)}</GDALMetadata>`.text;
 }
 
 /** Reads one ASCII tag (UTF-8) of a TIFF's first IFD, either byte order, or null when it is absent. */
@@ -229,7 +255,7 @@ export function bandsGeoTiff(input: BandsGeoTiffInput): GeoTiffOutput {
     { code: TAG.modelTiepoint, type: 12, values: [0, 0, 0, grid.x0, grid.y0, 0] },
     { code: TAG.geoKeyDirectory, type: 3, values: geoKeys },
     ...(citation ? [{ code: TAG.geoAsciiParams, type: 2 as const, values: [...citation, 0] }] : []),
-    { code: TAG.gdalMetadata, type: 2, values: ascii(gdalMetadataXml(names)) },
+    { code: TAG.gdalMetadata, type: 2, values: ascii(gdalMetadataXml(names, input.metadata)) },
     { code: TAG.gdalNoData, type: 2, values: ascii(String(NO_DATA)) },
   ];
   const ifdOffset = 8;
@@ -303,5 +329,13 @@ export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
     names.push(extra.name);
   }
   const title = drawn ? `Gapwise: per-cell summaries of ${drawn} conditional realisations (not the kriged surface).` : 'Gapwise surfaces.';
-  return bandsGeoTiff({ grid: input.grid, bands: layers, names, workCrs: input.workCrs, title, ...(input.software !== undefined ? { software: input.software } : {}) });
+  const a = input.accuracy;
+  const measured = a
+    ? ` Local neighbourhoods of ${a.neighbors} samples; measured against ${a.reference === 'exact' ? 'exact kriging' : 'a large neighbourhood'} at ${a.checked} cells: mean within ${a.mean.max.toPrecision(2)} %, sd within ${a.sd.max.toPrecision(2)} % of the prior sd.`
+    : '';
+  return bandsGeoTiff({
+    grid: input.grid, bands: layers, names, workCrs: input.workCrs, title: title + measured,
+    ...(a ? { metadata: localAccuracyMetadata(a) } : {}),
+    ...(input.software !== undefined ? { software: input.software } : {}),
+  });
 }

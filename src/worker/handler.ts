@@ -17,6 +17,7 @@ import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } fr
 import { simulateConditional } from '../core/conditional-simulation.ts';
 import { vecchiaFit } from '../core/vecchia.ts';
 import { createLocalPredictor } from '../core/local-kriging.ts';
+import { measureLocalGrid } from '../core/local-accuracy.ts';
 import type { SurfacePredictor } from '../core/surface.ts';
 import type { LocalKrigingOptions } from '../core/local-kriging.ts';
 import { GapwiseError } from '../core/errors.ts';
@@ -159,6 +160,11 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
           ? localPredictorFor(q.samples, q.model, { ...q.local, targetSpacing: q.local.targetSpacing ?? q.grid.cell })
           : predictorFor(q.samples, q.model);
         return ops.computeSurfaceWith(predictor, q.grid, q.options ?? {}, progress) as ResultPayloads[K];
+      }
+      case 'localAccuracy': {
+        const q = p as RequestPayloads['localAccuracy'];
+        checkSamples(q.samples);
+        return measureLocalGrid(q.samples, q.model, q.grid, q.local, q.tolerance ? { tolerance: q.tolerance } : {}) as ResultPayloads[K];
       }
       case 'fitNearestNeighbour': {
         const q = p as RequestPayloads['fitNearestNeighbour'];

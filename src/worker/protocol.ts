@@ -18,6 +18,8 @@ import type { DesignResult } from '../core/design.ts';
 import type { BlockSurfaceOptions } from '../core/block-kriging.ts';
 import type { VecchiaFitOptions } from '../core/vecchia.ts';
 import type { LocalKrigingOptions } from '../core/local-kriging.ts';
+import type { LocalAccuracy, LocalSettings } from '../core/local-accuracy.ts';
+import type { Tolerance } from '../core/path-choice.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 
 /** Simulation options that cross postMessage (no callbacks). */
@@ -48,6 +50,8 @@ export interface RequestPayloads {
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
   design: DesignRequestPayload;
+  /** The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its cells. */
+  localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance };
 }
 
 /** What each request type answers. */
@@ -63,12 +67,13 @@ export interface ResultPayloads {
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
   design: DesignResult;
+  localAccuracy: LocalAccuracy;
 }
 
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design',
+  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design', 'localAccuracy',
 ];
 
 /** A request; `id` is unique per client. */

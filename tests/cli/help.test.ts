@@ -11,12 +11,15 @@ describe('commandHelp', () => {
     for (const name of ['predict', 'cv', 'grid']) {
       const text = help(name);
       expect(text, name).toContain('--neighbors M local neighbourhoods: each target is predicted from its M nearest samples');
-      expect(text, name).toContain('(unit: samples; default: 64)');
+      expect(text, name).toContain('(unit: samples; default: 64, grown up to 512 when the measured error misses --tolerance)');
       expect(text, name).toContain('--exact exact kriging from all samples whatever their number');
-      expect(text, name).toContain('default: automatic: exact below 3,000 samples, local neighbourhoods from 3,000)');
-      expect(text, name).toContain('--local local neighbourhoods whatever the number of samples (default: automatic, as for --exact)');
+      expect(text, name).toContain('default: automatic: the cheaper of exact kriging and local neighbourhoods by estimated cost (samples, targets, threads); '
+        + 'a local run is checked against exact kriging at up to 200 seeded random targets');
+      expect(text, name).toContain('--local local neighbourhoods whatever the number of samples (their error is still measured and reported) (default: automatic, as for --exact)');
+      expect(text, name).toContain('--tolerance mean=P,sd=P how close local neighbourhoods must come to exact kriging');
+      expect(text, name).toContain('(default: mean=1,sd=2)');
       expect(text, name).toContain('--global-mean local neighbourhoods: use the mean (trend) estimated by GLS from all samples');
-      expect(text, name).toContain('(default: off: the mean is re-estimated in each neighbourhood)');
+      expect(text, name).toContain('(default: on (--local-mean turns it off))');
     }
   });
 

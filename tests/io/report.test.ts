@@ -6,6 +6,7 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { inflateSync } from 'node:zlib';
 import {
+  localAccuracyText,
   prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob, designOptionsText,
 } from '../../src/io/report.ts';
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
@@ -70,6 +71,24 @@ describe('prepareReport', () => {
     expect(got).not.toBeNull();
     expectClose(Number(got![1]), expected, { rel: 1e-12 }, 'expected area (m²)');
     expect(html).toContain(`${Number((expected / 10000).toPrecision(3))} ha</span>`);
+  });
+});
+
+describe('localAccuracyText', () => {
+  it('prepareReport shows how a surface was computed: exact when it computed it, the measured error of local neighbourhoods when given', () => {
+    const p = project();
+    const exact = reportHtml(prepareReport(p, { software: SOFTWARE, compare: false }));
+    expect(exact).toContain('exact kriging from all samples');
+    const own = prepareReport(p, { software: SOFTWARE, compare: false });
+    const accuracy = {
+      checked: 200, targets: 4000, seed: 1, reference: 'exact' as const, scale: 'data' as const, priorSd: Math.sqrt(12),
+      mean: { max: 0.134, rms: 0.021 }, sd: { max: 0.052, rms: 0.011 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbors: 64, globalMean: true,
+    };
+    const html = reportHtml(prepareReport(p, { software: SOFTWARE, compare: false, surface: own.surface, localAccuracy: accuracy }));
+    expect(html).toContain(escapeText(localAccuracyText(accuracy)));
+    expect(localAccuracyText(accuracy)).toBe('local neighbourhoods of the 64 nearest samples around the mean of all samples; against exact kriging at 200 cells '
+      + 'the mean is within 0.13 % (RMS 0.021 %) and the sd within 0.052 % (RMS 0.011 %) of the prior sd (tolerance 1 % / 2 %: met)');
+    expect(html).not.toContain('exact kriging from all samples');
   });
 });
 

@@ -2,8 +2,8 @@
  * `gapwise cv`: leave-one-out cross-validation with a given model. The JSON summary (me, rmse,
  * msse, coverage95, n) goes to stdout; the per-sample table to --out as CSV.
  *
- * Below 3,000 samples (or with --exact) the closed form of core/cross-validation.ts: one
- * factorisation of all samples, n³/3 flops. From 3,000 samples on (or with --local) each sample is
+ * Up to REFERENCE_EXACT_LIMIT samples (or with --exact) the closed form of core/cross-validation.ts: one
+ * factorisation of all samples, n³/3 flops. Above (or with --local; core/path-choice.ts chooseLeaveOneOutPath) each sample is
  * left out and predicted from its M nearest other samples (core/local-cross-validation.ts): the same
  * kriging as the local path of predict and grid, m³/3 flops per sample. With M ≥ n − 1 it is the
  * closed form's answer.
@@ -18,9 +18,10 @@ import { NeighborIndex } from '../../core/neighbors.ts';
 import type { Samples } from '../../core/samples.ts';
 import { coordinateFrame, designRow, trendColumnCount } from '../../core/trend.ts';
 import { isotropicCoordinates } from '../../core/vecchia.ts';
+import { REFERENCE_EXACT_LIMIT } from '../../core/path-choice.ts';
 import { stringOption } from '../args.ts';
 import {
-  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, jsonText, modelWorkCrs, naming, outOption,
+  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText, modelWorkCrs, naming, outOption,
   printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
@@ -45,7 +46,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     throw new GapwiseError('too-few-samples', `Expected at least 3 samples for cross-validation, got ${samples.value.length}.`, { file: stringOption(values, 'samples') });
   }
   const n = samples.value.length;
-  const path = readPredictionPath(values, n);
+  const path = readPredictionPath(values, n, { targets: n, leaveOneOut: true });
   printWarnings(io, path.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };
   const cv = path.path === 'exact'
@@ -74,6 +75,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   io.stdout(jsonText({
     me: s.me, rmse: s.rmse, msse: s.msse, coverage95: s.coverage95, n: s.n,
     scale: cv.scale,
+    method: path.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
+    ...(path.path === 'local' ? { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean } : {}),
+    reason: path.reason,
     unit: log ? `ln(${unit || 'value'})` : unit,
     caution: CAUTION,
   }));
@@ -92,9 +96,10 @@ export const cvCommand: CommandSpec = {
       + '--out writes one row per sample: id, x, y (input CRS), observed, predicted, sd_obs, error '
       + '(predicted − observed) and standardised_error (error / sd_obs). For a log model every figure is on the '
       + 'log scale ("scale": "log"; observed is then ln(value)).',
-    'Below 3,000 samples the closed form uses all samples (n³/3 flops). From 3,000 samples on, each sample is '
-      + 'left out and predicted from its --neighbors nearest other samples (local neighbourhoods, as predict and grid '
-      + 'do there); --exact and --local override the choice, which is said on stderr.',
+    `Up to ${count(REFERENCE_EXACT_LIMIT)} samples the closed form uses all samples (about n³/2 operations: no more than checking `
+      + `local neighbourhoods against it would cost). Above, each sample is left out and predicted from its --neighbors nearest `
+      + 'other samples (local neighbourhoods around the GLS mean of all samples, as predict and grid do there; no exact '
+      + 'reference is computed for cv); --exact and --local override the choice, which is said on stderr with its reason.',
     'The screening caution is in the JSON summary and, for the CSV, on stderr.',
   ],
   options: [

@@ -15,13 +15,15 @@
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { cellCount, type Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
+import { EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
+import { knownMean, trendColumnCount } from '../../core/trend.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
 import { surfaceGridCsvChunks } from '../../io/grid-csv.ts';
 import { DEFAULT_PADDING, openProject, planSurfaceGrid, projectGrid, type Project } from '../../io/project.ts';
-import { numberOption, stringOption } from '../args.ts';
+import { booleanOption, numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, EXACT_PREDICTION_LIMIT, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
   modelWorkCrs, naming, printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile,
   readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
@@ -32,6 +34,8 @@ import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
 import { clipToPolygons } from '../../core/grid.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
+import { checkLocalSurface } from '../local-check.ts';
+import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/local-accuracy.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
@@ -134,17 +138,17 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   }
   const n = intake.samples.value.length;
   const choice = readSimulationChoice(values, model);
-  const path = readPredictionPath(values, n);
   const workers = readWorkers(values, io);
+  const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
   const blockKriging = choice.support === 'block' && model.transform !== 'log';
-  if (blockKriging && n >= EXACT_PREDICTION_LIMIT) {
+  if (blockKriging && n >= EXACT_FIT_LIMIT) {
     throw new GapwiseError('bad-option',
-      `Block kriging (--support block) uses all samples and is limited to fewer than ${count(EXACT_PREDICTION_LIMIT)} of them; got ${count(n)}. `
+      `Block kriging (--support block) uses all samples and is limited to fewer than ${count(EXACT_FIT_LIMIT)} of them; got ${count(n)}. `
       + 'Use --support point (local neighbourhoods from that many samples), or thin the samples.');
   }
-  if (blockKriging && (path.path === 'local' || numberOption(values, 'neighbors') !== undefined || path.globalMean)) {
-    throw new GapwiseError('bad-option', 'Options "--local", "--neighbors" and "--global-mean" apply to point support; block kriging uses all samples.');
+  if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbors') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
+    throw new GapwiseError('bad-option', 'Options "--local", "--neighbors", "--global-mean" and "--local-mean" apply to point support; block kriging uses all samples.');
   }
   if (covariateModel && (blockKriging || choice.realizations !== undefined)) {
     throw new GapwiseError('bad-option', 'Block support and realisations are not available with a covariate model yet; use --support point without --realizations.');
@@ -158,14 +162,33 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
   const cells = cellCount(grid);
   let surface: SurfaceResult | undefined;
+  let accuracy: LocalAccuracy | undefined;
+  let used = path;
   if (!blockKriging) {
-    surface = await namingAsync(files, () => computeSurfaceParallel({
-      samples, model, grid, path: path.path,
-      ...(path.path === 'local' ? { local: { neighbors: path.neighbors, globalMean: path.globalMean } } : {}),
+    const compute = (p: 'exact' | 'local', settings?: LocalSettings): Promise<SurfaceResult> => namingAsync(files, () => computeSurfaceParallel({
+      samples, model, grid, path: p,
+      ...(p === 'local' && settings ? { local: { ...settings } } : {}),
       surface: { ...(threshold !== undefined ? { threshold } : {}), precision, ...(gridCovariateValues ? { covariates: gridCovariateValues } : {}) },
     }, { workers, onProgress: progressLine(io, 'cells') }));
+    const settings = { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean && trendColumnCount(model.trend ?? 'constant') > 0 };
+    surface = await compute(path.path, settings);
+    const notes: string[] = [];
+    if (path.path === 'local') {
+      const checked = await namingAsync(files, () => checkLocalSurface({
+        samples, model, grid, surface: surface!, settings, tolerance: path.tolerance,
+        ...(gridCovariateValues ? { covariates: gridCovariateValues } : {}),
+        grow: !path.neighborsGiven, exactFallback: path.automatic,
+        rerun: (s) => (s === 'exact' ? compute('exact') : compute('local', s)),
+      }));
+      surface = checked.surface;
+      used = checked.path === 'exact'
+        ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
+        : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+      if (checked.path === 'local') accuracy = checked.accuracy;
+      notes.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
+    }
     const threads = Math.min(workers, grid.ny);
-    printNotes(io, [`${describePredictionPath(path, n)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`]);
+    printNotes(io, [`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`, ...notes]);
   } else {
     printNotes(io, [`block kriging: each of ${count(cells)} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
   }
@@ -185,7 +208,7 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   let bands: string[] | undefined;
   let features: number | undefined;
   if (format === 'tif') {
-    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName, extraBands: extra.bands });
+    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName, extraBands: extra.bands, ...(accuracy ? { accuracy } : {}) });
     warnings.push(...tif.warnings);
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
@@ -209,8 +232,10 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     threshold: threshold ?? null,
     support: choice.support,
     ...(choice.support === 'block' ? { blockPoints: choice.blockPoints } : {}),
-    method: blockKriging ? 'block kriging' : path.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
-    ...(blockKriging || path.path === 'exact' ? {} : { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean }),
+    method: blockKriging ? 'block kriging' : used.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
+    ...(blockKriging || used.path === 'exact' ? {} : { neighbors: Math.min(used.neighbors, n), globalMean: used.globalMean }),
+    ...(blockKriging ? {} : { reason: used.reason }),
+    ...(accuracy ? { localError: accuracy } : {}),
     n,
     ...(bands ? { bands } : {}),
     ...(features !== undefined ? { features } : {}),
@@ -235,10 +260,11 @@ export const gridCommand: CommandSpec = {
       + 'the sd and, with --threshold, P(value > T), with the working CRS\'s EPSG code, band names and no-data '
       + '-9999 outside the area; .csv writes x, y, lon, lat, mean, sd (and p_exceed) for each cell inside the area; '
       + '.geojson writes filled bands and isolines of the mean (and of P(exceed)) in WGS 84 longitude/latitude.',
-    'Below 3,000 samples every cell is computed by exact kriging from all samples; from 3,000 samples on, from '
-      + 'its --neighbors nearest samples (local neighbourhoods from a kd-tree, the mean re-estimated in each unless '
-      + '--global-mean). --exact and --local override the choice, which is said on stderr ("note: predicted from the '
-      + '64 nearest samples at each target (local neighbourhoods); 48,211 samples ..."). The rows are shared out '
+    'Every cell is computed by exact kriging from all samples or from its --neighbors nearest samples (local '
+      + 'neighbourhoods from a kd-tree, shared by tiles of cells, around the GLS mean of all samples unless --local-mean), '
+      + `${AUTOMATIC_PATH_TEXT}. --exact and --local override the choice, which is said on stderr with its reason; the `
+      + 'measured error of local neighbourhoods (largest and RMS difference from exact kriging, % of the prior sd) is '
+      + 'said on stderr, in the JSON summary ("localError") and in the GeoTIFF\'s metadata. The rows are shared out '
       + 'among --workers threads; a run that lasts more than 2 s prints a progress line at every 10 %.',
     'With --support block each cell holds the average over the cell (block kriging from all samples, fewer than '
       + '3,000) instead of the value at its centre. With --realizations N, N conditional realisations add a band '

@@ -1,19 +1,22 @@
 /**
  * `gapwise predict`: kriging at the points of a targets CSV with a given model (never refits).
  * The target rows are written back in their order and with their cells verbatim, with mean, sd,
- * sd_obs (and p_exceed with --threshold) appended. Exact kriging from all samples below 3,000
- * samples, local neighbourhoods (the --neighbors nearest samples of each target) from there on, or
- * as --exact / --local say; the choice is a note on stderr.
+ * sd_obs (and p_exceed with --threshold) appended. Exact kriging from all samples or local
+ * neighbourhoods, whichever core/path-choice.ts finds cheaper (or as --exact / --local say); a local
+ * run is checked against exact kriging at a seeded subset of the targets (core/local-accuracy.ts),
+ * grown or replaced when it misses --tolerance. The choice and the measured error are notes on stderr.
  */
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { createPredictor, type Prediction } from '../../core/kriging.ts';
-import { createLocalPredictor } from '../../core/local-kriging.ts';
+import { describeAccuracy, predictLocalChecked } from '../../core/local-accuracy.ts';
+import { denseTargetSpacing } from '../../core/target-spacing.ts';
 import { exceedanceProbability } from '../../core/normal.ts';
 import { createTransform } from '../../io/crs.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
+import { knownMean } from '../../core/trend.ts';
 import {
-  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
   printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
@@ -104,21 +107,32 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   // A covariate model: the samples' covariate columns, and the same columns at every target.
   const { samples } = naming(files, () => withSampleCovariates(intake, intake.samples, model.trend));
   const covariates = tableCovariates(table, targetsPath, model.trend);
-  const path = readPredictionPath(values, n);
+  const path = readPredictionPath(values, n, { targets: tx.length });
   printWarnings(io, path.warnings);
   const warnings: Warning[] = [];
   let p: Prediction;
+  const notes: string[] = [];
   if (path.path === 'exact') {
     const predictor = naming(files, () => createPredictor(samples, model));
     warnings.push(...predictor.warnings);
     p = naming(files, () => predictor.predict(work.x, work.y, { covariates }));
+    notes.push(`${describePredictionPath(path, n)}; ${tx.length.toLocaleString('en-US')} targets`);
   } else {
-    const predictor = naming(files, () => createLocalPredictor(samples, model, { neighbors: path.neighbors, globalMean: path.globalMean }));
-    const local = naming(files, () => predictor.predict(work.x, work.y, { covariates }));
-    warnings.push(...predictor.warnings);
-    p = local;
+    // Targets denser than the samples share tile neighbourhoods, as grid cells do.
+    const spacing = denseTargetSpacing(work.x, work.y, samples.x, samples.y);
+    const checked = naming(files, () => predictLocalChecked(samples, model, work.x, work.y, {
+      ...(covariates ? { covariates } : {}),
+      local: { neighbors: path.neighbors, globalMean: path.globalMean, ...(spacing !== undefined ? { targetSpacing: spacing } : {}) },
+      tolerance: path.tolerance, grow: !path.neighborsGiven, exactFallback: path.automatic,
+    }));
+    warnings.push(...checked.warnings);
+    p = checked.prediction;
+    const used = { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+    notes.push(`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${tx.length.toLocaleString('en-US')} targets${spacing !== undefined ? ' (dense: in shared tile neighbourhoods)' : ''}`);
+    notes.push(...checked.notes);
+    notes.push(`measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
   }
-  printNotes(io, [`${describePredictionPath(path, n)}; ${tx.length.toLocaleString('en-US')} targets`]);
+  printNotes(io, notes);
   printWarnings(io, warnings);
 
   const d = table.delimiter;
@@ -153,14 +167,11 @@ export const predictCommand: CommandSpec = {
       + 'with --threshold, p_exceed = P(value > T) for the noise-free surface. For a log model mean is the '
       + 'bias-corrected data-scale mean and p_exceed is computed on the log scale. All values are in the unit of the '
       + 'samples.',
-    'Below 3,000 samples every target is predicted by exact kriging from all samples; from 3,000 samples on, '
-      + 'from its --neighbors nearest samples (local neighbourhoods, found with a kd-tree; the mean is re-estimated '
-      + 'in each, or with --global-mean taken from a GLS fit to all samples). --exact and --local override the '
-      + 'choice, which is said on stderr ("note: predicted from the 64 nearest samples at each target ...").',
-    'A model with covariates (fit --covariates) needs the same columns in the targets file: a missing column, an '
-      + 'empty cell, a non-number in a numeric covariate or a category level the samples did not have stops with exit 2 '
-      + 'naming the column and the line. From 3,000 samples on, a covariate model takes its trend from a GLS fit to all '
-      + 'samples and kriges the residuals in each neighbourhood.',
+    'Each target is predicted by exact kriging from all samples or from its --neighbors nearest samples (local '
+      + 'neighbourhoods, found with a kd-tree, around the GLS mean of all samples; targets denser than the samples '
+      + `share tile neighbourhoods), ${AUTOMATIC_PATH_TEXT}. --exact and --local override the `
+      + 'choice, which is said on stderr with its reason and, for local neighbourhoods, the measured error '
+      + '("note: measured error of the local neighbourhoods against exact kriging at 200 of 40,000 targets ...").',
     'The screening caution is printed on stderr (CSV has no place for it).',
   ],
   options: [

@@ -16,6 +16,8 @@ import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
 import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
+import type { LocalAccuracy, LocalSettings } from '../../core/local-accuracy.ts';
+import { chooseLeaveOneOutPath } from '../../core/path-choice.ts';
 import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readSamples } from '../../io/intake.ts';
@@ -111,11 +113,12 @@ export function crossValidate(samples: Samples, model: CovarianceModel, signal?:
 }
 
 /**
- * From 3,000 samples leave-one-out predicts each sample from its 64 nearest others (core
- * local-cross-validation.ts, n·64³/3 flops) instead of the closed form's n³/3 flops and 8n² bytes.
+ * Above REFERENCE_EXACT_LIMIT samples (core/path-choice.ts chooseLeaveOneOutPath, as `gapwise cv`)
+ * leave-one-out predicts each sample from its 64 nearest others (core/local-cross-validation.ts,
+ * n·64³/3 flops) instead of the closed form's n³/3 flops and 8n² bytes.
  */
 function localCv(samples: Samples): { local?: { neighbors: number } } {
-  return samples.x.length >= EXACT_FIT_LIMIT ? { local: { neighbors: DEFAULT_LOCAL_NEIGHBORS } } : {};
+  return chooseLeaveOneOutPath({ samples: samples.x.length }).path === 'local' ? { local: { neighbors: DEFAULT_LOCAL_NEIGHBORS } } : {};
 }
 
 export interface SurfaceRequest {
@@ -144,6 +147,11 @@ export function surface(
     onBand: (_band, merged) => onBand?.(merged),
     support: req.support, blockPoints: req.blockPoints, local: req.local,
   });
+}
+
+/** The measured error of a local-neighbourhood surface against exact kriging (core/local-accuracy.ts measureLocalGrid). */
+export function localAccuracy(samples: Samples, model: CovarianceModel, grid: Grid, local: LocalSettings, signal?: AbortSignal): Promise<LocalAccuracy> {
+  return enginePool().request('localAccuracy', { samples, model, grid, local }, { signal });
 }
 
 export interface SimulateRequest {

@@ -32,6 +32,8 @@ import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from 
 import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
 import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
+import { choosePredictionPath } from '../../core/path-choice.ts';
+import type { LocalAccuracy } from '../../core/local-accuracy.ts';
 
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
 export const MANY_SAMPLES = EXACT_FIT_LIMIT;
@@ -267,7 +269,7 @@ export class Session {
 
   /** How the candidates in the table were fitted. */
   fittedWith = $state.raw<{ likelihood: 'exact' | 'nnl'; n: number; automatic: boolean } | null>(null);
-  /** 'auto' uses local neighbourhoods from MANY_SAMPLES; 'exact' (all samples) or 'local' overrides (saved). */
+  /** 'auto' takes the cheaper path (core/path-choice.ts); 'exact' (all samples) or 'local' overrides (saved). */
   get surfaceMethod(): 'auto' | 'exact' | 'local' {
     return this.s.surface.method;
   }
@@ -280,7 +282,9 @@ export class Session {
   /** True when the next surface is computed from local neighbourhoods. */
   get surfaceLocal(): boolean {
     const n = this.intake?.samples.x.length ?? 0;
-    return this.surfaceMethod === 'local' || (this.surfaceMethod === 'auto' && n >= MANY_SAMPLES);
+    if (this.surfaceMethod !== 'auto') return this.surfaceMethod === 'local';
+    const cells = this.gridPlan.value?.cells ?? 0;
+    return n > 0 && cells > 0 && choosePredictionPath({ samples: n, targets: cells, threads: engine.workerCount() }).path === 'local';
   }
 
   /** Fits every candidate model (in workers); keeps the user's choice and any edited model. */
@@ -396,6 +400,8 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
+  /** The measured error of the surface shown when it came from local neighbourhoods (its key, the figures). */
+  surfaceAccuracy = $state.raw<{ key: string; accuracy: LocalAccuracy } | null>(null);
   /**
    * True after a reload when a surface was being computed as the page closed: it was not stored (a
    * surface still arriving never is), so the Surface step says so and offers to compute it again.
@@ -506,6 +512,12 @@ export class Session {
       this.rate = measureSurfaceSpeed({ n: intake.samples.x.length, cells: plan.cells, workers: engine.workerCount(), seconds: ms / 1000, progress }) ?? this.rate;
       if (!this.s.surface.sdLimit && Number.isFinite(result.range.sd.max)) {
         this.s.surface.sdLimit = +result.range.sd.max.toPrecision(2);
+      }
+      if (local) {
+        // Exact kriging at a seeded subset of the cells against the local values there (a worker).
+        const accuracy = await engine.localAccuracy(intake.samples, $state.snapshot(model) as CovarianceModel, plan.grid,
+          { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true }, run.signal);
+        if (run.current()) this.surfaceAccuracy = { key, accuracy };
       }
     } catch (e) {
       if (!run.current()) return;

@@ -22,7 +22,10 @@ describe('cv command', () => {
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
     const direct = leaveOneOut(intake.samples, parseModel(MODEL));
-    expect(summary).toEqual({ ...direct.summary, scale: 'data', unit: 'mg/L', caution: CAUTION });
+    expect(summary).toEqual({
+      ...direct.summary, scale: 'data', unit: 'mg/L', caution: CAUTION, method: 'exact kriging',
+      reason: 'up to 3,000 samples exact leave-one-out costs no more than checking local neighbourhoods against it',
+    });
     expect(r.stderr).toContain(`caution: ${CAUTION}`);
 
     const lines = ws.read('cv.csv').trimEnd().split('\n');
@@ -72,9 +75,9 @@ describe('cv command', () => {
   });
 
   it('cv --local --neighbors 24 on 25 samples (every other sample) gives the closed form\'s numbers, and says how it was done', async () => {
-    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--neighbors', '24', '--out', 'cv-local.csv');
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbors', '24', '--out', 'cv-local.csv');
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('note: each sample left out and predicted from the 24 nearest other samples (local neighbourhoods); 25 samples\n');
+    expect(r.stderr).toContain('note: each sample left out and predicted from the 24 nearest other samples (local neighbourhoods, the mean re-estimated in each); 25 samples (--local)\n');
     const summary = JSON.parse(r.stdout);
     const direct = leaveOneOut(intake.samples, parseModel(MODEL)).summary;
     expectClose([summary.me, summary.rmse, summary.msse], [direct.me, direct.rmse, direct.msse], { rel: 1e-9, abs: 1e-12 }, 'summary');
@@ -86,10 +89,13 @@ describe('cv command', () => {
     ws.write('field.json', JSON.stringify(FIELD_MODEL));
     const r = await ws.run('cv', '--samples', 'field.csv', '--crs', 'EPSG:32633', '--model', 'field.json');
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('note: each sample left out and predicted from the 64 nearest other samples (local neighbourhoods); 3,500 samples; chosen automatically from 3,000 samples (--exact overrides)\n');
+    expect(r.stderr).toContain('note: each sample left out and predicted from the 64 nearest other samples (local neighbourhoods, with the GLS mean of all samples); 3,500 samples; chosen automatically: above 3,000 samples exact leave-one-out (about n³/2 operations) costs too much (--exact overrides)\n');
     const summary = JSON.parse(r.stdout);
     const field = readSamples(fieldSamplesCsv(3500, 7), { fileName: 'field.csv', crs: 'EPSG:32633' });
-    expect(summary).toEqual({ ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbors: 64 }).summary, scale: 'data', unit: '', caution: CAUTION });
+    expect(summary).toEqual({
+      ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbors: 64, globalMean: true }).summary, scale: 'data', unit: '', caution: CAUTION,
+      method: 'local neighbourhoods', neighbors: 64, globalMean: true, reason: 'above 3,000 samples exact leave-one-out (about n³/2 operations) costs too much',
+    });
     // The field's noise has sd 0.5 (run-cli.ts): errors of about that size, honest sds.
     expect(summary.rmse).toBeGreaterThan(0.4);
     expect(summary.rmse).toBeLessThan(0.7);

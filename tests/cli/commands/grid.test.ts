@@ -178,11 +178,15 @@ describe('gapwise grid on many samples', () => {
     const r = await ws.run('grid', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--cell', '50', '--padding', '0', '--workers', '2', '--threshold', '35', '--out', 'big.tif');
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
-    expect(summary).toMatchObject({ method: 'local neighbourhoods', neighbors: 64, globalMean: false, n: 5000 });
+    expect(summary).toMatchObject({ method: 'local neighbourhoods', neighbors: 64, globalMean: true, n: 5000 });
+    // The measured error: against the 800 nearest samples at 30 cells (above 3,000 samples), within the default tolerance.
+    expect(summary.localError).toMatchObject({ reference: 'nearest', referenceNeighbors: 800, checked: 30, targets: summary.grid.cells, tolerance: { mean: 1, sd: 2 }, within: true });
+    expect(summary.localError.mean.max).toBeGreaterThanOrEqual(summary.localError.mean.rms);
     const cells = summary.grid.cells.toLocaleString('en-US');
-    expect(r.stderr).toContain(`note: predicted from the 64 nearest samples at each target (local neighbourhoods); 5,000 samples; chosen automatically from 3,000 samples (--exact overrides); ${cells} cells on 2 worker threads\n`);
+    expect(r.stderr).toMatch(new RegExp(`note: predicted from the 64 nearest samples at each target \\(local neighbourhoods, with the GLS mean of all samples\\); 5,000 samples; chosen automatically: local neighbourhoods are cheaper here \\(about [\\d.]+ billion operations local, [\\d.]+ exact\\) \\(--exact overrides\\); ${cells} cells on 2 worker threads\n`));
+    expect(r.stderr).toContain(`note: measured error of the local neighbourhoods against kriging from the 800 nearest samples at 30 of ${cells} targets (seed 1): mean largest`);
     const intake = readSamples(fieldSamplesCsv(5000, 1), { fileName: 'field-5k.csv', crs: 'EPSG:32633' });
-    const single = computeSurfaceSingle({ samples: intake.samples, model, grid: gridOf(summary), path: 'local', local: { neighbors: 64, globalMean: false }, surface: { threshold: 35 } });
+    const single = computeSurfaceSingle({ samples: intake.samples, model, grid: gridOf(summary), path: 'local', local: { neighbors: 64, globalMean: true }, surface: { threshold: 35 } });
     const [mean, sd, p] = await readBands(ws, 'big.tif');
     expect(Array.from(mean)).toEqual(asWritten(single.mean));
     expect(Array.from(sd)).toEqual(asWritten(single.sd));
@@ -201,16 +205,22 @@ describe('gapwise grid on many samples', () => {
     const exact = await ws.run('grid', ...common, 'exact.tif', '--exact');
     expect(exact.code, exact.stderr).toBe(0);
     expect(exact.stderr).toContain('note: predicted by exact kriging from all 1,000 samples (--exact); ');
-    const local = await ws.run('grid', ...common, 'local.tif', '--local');
+    const local = await ws.run('grid', ...common, 'local.tif', '--local', '--local-mean');
     expect(local.code, local.stderr).toBe(0);
-    expect(local.stderr).toContain('note: predicted from the 64 nearest samples at each target (local neighbourhoods); 1,000 samples; ');
-    const global = await ws.run('grid', ...common, 'global.tif', '--local', '--global-mean');
+    expect(local.stderr).toContain('note: predicted from the 64 nearest samples at each target (local neighbourhoods, the mean re-estimated in each); 1,000 samples (--local); ');
+    const global = await ws.run('grid', ...common, 'global.tif', '--local');
     expect(global.code, global.stderr).toBe(0);
-    expect(global.stderr).toContain('(local neighbourhoods, with the GLS mean of all samples); 1,000 samples;');
-    // Automatic choice below 3,000 samples: exact kriging, the same file.
+    expect(global.stderr).toContain('(local neighbourhoods, with the GLS mean of all samples); 1,000 samples (--local);');
+    // The measured error (exact kriging at 200 cells) is in the JSON summary and in the GeoTIFF's metadata.
+    const measured = JSON.parse(global.stdout).localError;
+    expect(measured).toMatchObject({ reference: 'exact', checked: 200, within: true });
+    const tags = readFileSync(join(ws.dir, 'global.tif')).toString('latin1');
+    expect(tags).toContain(`<Item name="LOCAL_ERROR_MEAN_MAX_PCT">${measured.mean.max.toPrecision(3)}</Item>`);
+    expect(tags).toContain('<Item name="LOCAL_ERROR_REFERENCE">exact kriging from all samples</Item>');
+    // Automatic choice for 1,000 samples and 1,024 cells on 2 threads: local neighbourhoods are cheaper, the same file as --local.
     const auto = await ws.run('grid', ...common, 'auto.tif');
-    expect(auto.stderr).toContain('note: predicted by exact kriging from all 1,000 samples; ');
-    expect(readFileSync(join(ws.dir, 'auto.tif')).equals(readFileSync(join(ws.dir, 'exact.tif')))).toBe(true);
+    expect(auto.stderr).toContain('1,000 samples; chosen automatically: local neighbourhoods are cheaper here');
+    expect(readFileSync(join(ws.dir, 'auto.tif')).equals(readFileSync(join(ws.dir, 'global.tif')))).toBe(true);
 
     const priorSd = Math.sqrt(178);
     const [me, se] = await readBands(ws, 'exact.tif');

@@ -154,10 +154,11 @@ describe('predict command', () => {
     ws.write('two.csv', 'easting,northing\n500050,5400050\n500170,5400020\n');
     const r = await ws.run('predict', ...COMMON, '--model', 'log-local.json', '--targets', 'two.csv', '--threshold', '22', '--local', '--neighbors', '8');
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('note: predicted from the 8 nearest samples at each target (local neighbourhoods); 25 samples; 2 targets\n');
+    expect(r.stderr).toContain('note: predicted from the 8 nearest samples at each target (local neighbourhoods, with the GLS mean of all samples); 25 samples (--local); 2 targets\n');
+    expect(r.stderr).toMatch(/note: measured error of the local neighbourhoods against exact kriging at 2 of 2 targets \(seed 1\): mean largest [\d.]+ %, RMS [\d.]+ %; sd largest [\d.]+ %, RMS [\d.]+ % of the prior sd \(log scale\); tolerance 1 % \/ 2 % (met|MISSED)\n/);
     const rows = csvRows(r.stdout).slice(1).map((c) => c.map(Number));
     const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
-    const p = createLocalPredictor(intake.samples, parseModel(logModel), { neighbors: 8 }).predict([500050, 500170], [5400050, 5400020]);
+    const p = createLocalPredictor(intake.samples, parseModel(logModel), { neighbors: 8, globalMean: true }).predict([500050, 500170], [5400050, 5400020]);
     for (let i = 0; i < 2; i++) {
       expectClose(rows[i][2], p.mean[i], { rel: 1e-10 }, `mean ${i}`);
       expectClose(rows[i][3], p.sd[i], { rel: 1e-10 }, `sd ${i}`);
@@ -169,17 +170,18 @@ describe('predict command', () => {
     expect(rows[1][2]).not.toBe(Number(exact.mean[1].toPrecision(12)));
   });
 
-  it('predict on 5,000 samples predicts from the 64 nearest samples by itself, with the local predictor\'s numbers', async () => {
+  it('predict on 5,000 samples at 3 targets predicts from the 64 nearest samples by itself, with the local predictor\'s numbers', async () => {
     ws.write('field-5k.csv', fieldSamplesCsv(5000, 6));
     ws.write('field.json', JSON.stringify(FIELD_MODEL));
     ws.write('field-targets.csv', 'easting,northing\n500400,5400400\n501000,5401200\n501700,5400100\n');
     const args = ['--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--targets', 'field-targets.csv'];
     const r = await ws.run('predict', ...args);
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('note: predicted from the 64 nearest samples at each target (local neighbourhoods); 5,000 samples; chosen automatically from 3,000 samples (--exact overrides); 3 targets\n');
+    expect(r.stderr).toMatch(/note: predicted from the 64 nearest samples at each target \(local neighbourhoods, with the GLS mean of all samples\); 5,000 samples; chosen automatically: local neighbourhoods are cheaper here \(about [\d.]+ billion operations local, [\d.]+ exact\) \(--exact overrides\); 3 targets\n/);
+    expect(r.stderr).toMatch(/note: measured error of the local neighbourhoods against kriging from the 800 nearest samples at 3 of 3 targets/);
     const rows = csvRows(r.stdout).slice(1).map((c) => c.map(Number));
     const intake = readSamples(fieldSamplesCsv(5000, 6), { fileName: 'field-5k.csv', crs: 'EPSG:32633' });
-    const p = createLocalPredictor(intake.samples, parseModel(FIELD_MODEL)).predict([500400, 501000, 501700], [5400400, 5401200, 5400100]);
+    const p = createLocalPredictor(intake.samples, parseModel(FIELD_MODEL), { globalMean: true }).predict([500400, 501000, 501700], [5400400, 5401200, 5400100]);
     expectClose(rows.map((c) => c[2]), p.mean, { rel: 1e-10 }, 'mean');
     expectClose(rows.map((c) => c[3]), p.sd, { rel: 1e-10 }, 'sd');
   });
@@ -187,7 +189,7 @@ describe('predict command', () => {
   it('predict --neighbors on few samples is not used (exact kriging) and says so', async () => {
     const r = await ws.run('predict', ...COMMON, '--model', 'smooth.json', '--targets', SAMPLES, '--neighbors', '10');
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('warning: --neighbors 10 is not used: 25 samples are few enough for exact kriging from all of them; add --local to predict from neighbourhoods.\n');
-    expect(r.stderr).toContain('note: predicted by exact kriging from all 25 samples; 25 targets\n');
+    expect(r.stderr).toContain('warning: --neighbors 10 is not used: exact kriging from all 25 samples was chosen (25 targets are few enough to krige exactly (the error check would do it anyway)); add --local to predict from neighbourhoods.\n');
+    expect(r.stderr).toContain('note: predicted by exact kriging from all 25 samples; chosen automatically: 25 targets are few enough to krige exactly (the error check would do it anyway) (--local overrides); 25 targets\n');
   });
 });
