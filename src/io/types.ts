@@ -5,7 +5,7 @@
  */
 import type { Samples } from '../core/samples.ts';
 import type { Warning } from '../core/errors.ts';
-import type { SampleTable } from './sample-table.ts';
+import type { ColumnMarks } from './numbers.ts';
 
 export type NonDetectRule = 'half' | 'dl' | 'sqrt2';
 export type DuplicateRule = 'merge' | 'keep';
@@ -114,4 +114,46 @@ export interface IntakeResult {
   /** The same samples as read (input CRS, flags, lines, source columns), by column: see io/sample-table.ts. */
   table: SampleTable;
   report: ReadReport;
+}
+
+/** One source column, cell by cell, in the form that suits its cells. */
+export type StoredColumn =
+  /** Plain decimal numbers: the value and its count of decimals (the cell is `value.toFixed(decimals)`); other cells as text. */
+  | { kind: 'numbers'; length: number; values: Float64Array; decimals: Uint8Array; otherAt: Uint32Array; otherText: string[] }
+  /** Few distinct texts: a code per cell into `levels`. */
+  | { kind: 'codes'; length: number; codes: Uint32Array; levels: string[] }
+  /** Many distinct texts: UTF-8 bytes, cell k is bytes[offsets[k]..offsets[k+1]). */
+  | { kind: 'texts'; length: number; bytes: Uint8Array; offsets: Uint32Array };
+
+/** The accepted samples and the source rows they came from. Plain data (see the file's header). */
+export interface SampleTable {
+  /** Number of samples (after duplicates were merged). */
+  length: number;
+  format: 'csv' | 'geojson';
+  /** Input-CRS coordinates as read (the mean over a merged group). */
+  inputX: Float64Array;
+  inputY: Float64Array;
+  /** Value after non-detect substitution (the mean over a merged group). */
+  value: Float64Array;
+  /** FLAG_ND | FLAG_DUP | FLAG_OUTLIER. */
+  flags: Uint8Array;
+  /** 1-based line (CSV) or feature number (GeoJSON) of the sample's first source row. */
+  line: Uint32Array;
+  /** Index of the sample's first source row in the stored columns. */
+  record: Uint32Array;
+  /** Merged samples: sample index and its source rows, records[start[k]..start[k+1]). */
+  merged: { sample: Uint32Array; start: Uint32Array; records: Uint32Array };
+  /** Line (CSV) or feature number (GeoJSON) of each stored source row. */
+  recordLine: Uint32Array;
+  /** Column names of the file, as in the read report. */
+  columns: string[];
+  /** One stored column per name of `columns`. */
+  cells: StoredColumn[];
+  /** Decimal marks of each column the intake looked at for numbers (null for the others). */
+  marks: Array<ColumnMarks | null>;
+  /** Index into `columns` of the ID column, -1 when there is none. */
+  idColumn: number;
+  /** GeoJSON: each source feature's own "id" ('' when it has none) and its position as read. */
+  featureIds?: StoredColumn;
+  geometry?: { lon: Float64Array; lat: Float64Array };
 }

@@ -1,5 +1,6 @@
 // surfaceGridCsv: one row per active cell with centres, WGS 84 positions and values that read back
 // exactly; the caution on the first line.
+import { SOFTWARE } from '../../src/core/version.ts';
 import { describe, expect, it } from 'vitest';
 import { surfaceGridCsv, surfaceGridCsvChunks } from '../../src/io/grid-csv.ts';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
@@ -36,7 +37,7 @@ describe('surfaceGridCsv', () => {
 
   it('surfaceGridCsvChunks: pieces of whole lines that, written one by one through the safe writer, give the bytes of the whole text', async () => {
     // The text the one-string writer gave for this grid (before the pieces), pinned.
-    const before = `# ${CAUTION} ${FORMULA_NOTE} x, y: cell centres in EPSG:32633; lon, lat: WGS 84; mean, sd in mg/L; p_exceed = P(value > 3 mg/L)\n`
+    const before = `# ${CAUTION} ${FORMULA_NOTE} Written by ${SOFTWARE}. x, y: cell centres in EPSG:32633; lon, lat: WGS 84; mean, sd in mg/L; p_exceed = P(value > 3 mg/L)\n`
       + 'x,y,lon,lat,mean,sd,p_exceed\n'
       + '500015,5400025,15.00020407,48.7532379,1.10000002,0.100000001,0.00999999978\n'
       + '500005,5400015,15.00006802,48.75314794,2.20000005,0.200000003,0.0199999996\n'
