@@ -1216,6 +1216,7 @@ export class Session {
       boundary: this.s.boundary?.fileName ?? null,
       candidates: this.candidates.map((c) => [c.key, c.aic, c.rmse, c.msse]),
       chosen: this.s.structure.chosen,
+      model: this.s.structure.model ? { anisotropy: this.s.structure.model.anisotropy ?? null, structures: this.s.structure.model.structures.length } : null,
       cv: this.cv ? { ...this.cv.summary } : null,
       surface: sf ? {
         done: sf.done, cells: sf.result.cells, nx: sf.grid.nx, ny: sf.grid.ny, mean: sum(sf.result.mean), sd: sum(sf.result.sd),
