@@ -8,6 +8,8 @@
  * typed-array buffers for transfer.
  */
 import { fitCandidates, fitModel } from '../core/fit.ts';
+import { fitAnisotropic } from '../core/fit-anisotropy.ts';
+import { fitNested } from '../core/fit-nested.ts';
 import { empiricalVariogram, variogramSet } from '../core/variogram.ts';
 import { leaveOneOut } from '../core/cross-validation.ts';
 import { localLeaveOneOut } from '../core/local-cross-validation.ts';
@@ -37,6 +39,8 @@ export type Send = (message: EngineResponse, transfer: ArrayBuffer[]) => void;
 export interface EngineOperations {
   fitModel: typeof fitModel;
   fitCandidates: typeof fitCandidates;
+  fitAnisotropic: typeof fitAnisotropic;
+  fitNested: typeof fitNested;
   empiricalVariogram: typeof empiricalVariogram;
   variogramSet: typeof variogramSet;
   leaveOneOut: typeof leaveOneOut;
@@ -52,7 +56,7 @@ export interface EngineOperations {
 }
 
 export const ENGINE_OPERATIONS: EngineOperations = {
-  fitModel, fitCandidates, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
+  fitModel, fitCandidates, fitAnisotropic, fitNested, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
   createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor, readSamples,
 };
 
@@ -135,6 +139,24 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
         const q = p as RequestPayloads['fitCandidates'];
         checkSamples(q.samples);
         return ops.fitCandidates(q.samples, q.options ?? {}) as ResultPayloads[K];
+      }
+      case 'fitStructure': {
+        const q = p as RequestPayloads['fitStructure'];
+        checkSamples(q.samples);
+        if (q.choice.anisotropy && q.choice.structures === 2) {
+          throw new GapwiseError('bad-option', 'Expected a fitted anisotropy or two structures, one at a time; got both.');
+        }
+        if (q.choice.anisotropy) {
+          const r = ops.fitAnisotropic(q.samples, q.options, progress);
+          return { model: r.model, simpler: r.isotropic, comparison: r.comparison } as ResultPayloads[K];
+        }
+        if (q.choice.structures === 2) {
+          const r = ops.fitNested(q.samples, q.options, progress);
+          const out: ResultPayloads['fitStructure'] = { model: r.model, simpler: r.single, comparison: r.comparison };
+          if (r.notIdentifiable) out.notIdentifiable = r.notIdentifiable;
+          return out as ResultPayloads[K];
+        }
+        throw new GapwiseError('bad-option', 'Expected a fitted anisotropy or two structures; got neither (fit the candidate models instead).');
       }
       case 'variogram': {
         const q = p as RequestPayloads['variogram'];

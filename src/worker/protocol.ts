@@ -9,6 +9,7 @@
 import type { Samples } from '../core/samples.ts';
 import type { CovarianceModel } from '../core/model.ts';
 import type { FitOptions } from '../core/fit.ts';
+import type { FitComparisonRow } from '../core/fit-anisotropy.ts';
 import type { EmpiricalVariogram, VariogramOptions, VariogramSet } from '../core/variogram.ts';
 import type { LeaveOneOutResult } from '../core/cross-validation.ts';
 import type { Grid } from '../core/grid.ts';
@@ -30,10 +31,30 @@ export type BlockSurfaceResult = SurfaceResult & { support: 'block'; points: num
 import type { DesignRequestPayload } from './design-handler.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/errors.ts';
 
+/** The richer fit of the Structure step: a fitted anisotropy, or two structures (short and long range). */
+export interface StructureFitChoice {
+  anisotropy: boolean;
+  structures: 1 | 2;
+}
+
+/**
+ * What a richer fit answers: the model kept (the anisotropic one; or two structures, or one when the
+ * guard keeps one), the simpler model fitted beside it, the comparison rows (log-likelihood, AIC) and,
+ * for two structures, why they were not kept.
+ */
+export interface StructureFitResult {
+  model: CovarianceModel;
+  simpler: CovarianceModel;
+  comparison: FitComparisonRow[];
+  notIdentifiable?: 'merged' | 'vanishing-sill' | 'no-gain';
+}
+
 /** What each request type carries. */
 export interface RequestPayloads {
   fit: { samples: Samples; options: FitOptions };
   fitCandidates: { samples: Samples; options?: Omit<FitOptions, 'family' | 'nu'> };
+  /** A fitted anisotropy (core/fit-anisotropy.ts) or two structures (core/fit-nested.ts), with progress. */
+  fitStructure: { samples: Samples; options: FitOptions; choice: StructureFitChoice };
   variogram: { samples: Samples; options?: VariogramOptions };
   /** The variogram with, on request, the four directions and the cloud (core/variogram.ts variogramSet). */
   variogramSet: { samples: Samples; options?: VariogramOptions; directional?: boolean; cloudPairs?: number };
@@ -58,6 +79,7 @@ export interface RequestPayloads {
 export interface ResultPayloads {
   fit: CovarianceModel;
   fitCandidates: CovarianceModel[];
+  fitStructure: StructureFitResult;
   variogram: EmpiricalVariogram;
   variogramSet: VariogramSet;
   crossValidate: LeaveOneOutResult;
@@ -73,7 +95,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design', 'localAccuracy',
+  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design', 'localAccuracy',
 ];
 
 /** A request; `id` is unique per client. */

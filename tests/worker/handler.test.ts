@@ -16,6 +16,8 @@ import { suggestSites } from '../../src/core/design.ts';
 import { computeBlockSurface } from '../../src/core/block-kriging.ts';
 import { simulateConditional } from '../../src/core/conditional-simulation.ts';
 import { vecchiaFit } from '../../src/core/vecchia.ts';
+import { fitAnisotropic } from '../../src/core/fit-anisotropy.ts';
+import { fitNested } from '../../src/core/fit-nested.ts';
 import { createLocalPredictor } from '../../src/core/local-kriging.ts';
 import { computeSurfaceWith } from '../../src/core/surface.ts';
 
@@ -246,6 +248,45 @@ describe('predictorKey', () => {
     const progress = sent.slice(0, -1).map((s) => s.message);
     expect(progress.length).toBeGreaterThan(0);
     for (const p of progress) expect(p).toMatchObject({ id: 13, type: 'progress' });
+  });
+
+  it('createEngineHandler answers fitStructure (anisotropy) with the model, the isotropic one and the comparison of fitAnisotropic, progress first', () => {
+    const { sent, run } = collect();
+    const options = { family: 'exponential' as const, method: 'reml' as const };
+    run({ id: 16, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: true, structures: 1 } } });
+    const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>;
+    expect(last).toMatchObject({ id: 16, type: 'result', request: 'fitStructure' });
+    const direct = fitAnisotropic(samples, options);
+    const r = last.result as { model: CovarianceModel; simpler: CovarianceModel; comparison: unknown[] };
+    expect(r.model).toEqual(JSON.parse(JSON.stringify(direct.model)));
+    expect(r.simpler).toEqual(JSON.parse(JSON.stringify(direct.isotropic)));
+    expect(r.comparison.map((c) => (c as { label: string }).label)).toEqual(['isotropic', 'anisotropic']);
+    expect(r.model.anisotropy?.ratio).toBeLessThanOrEqual(1);
+    const progress = sent.slice(0, -1).map((s) => s.message);
+    expect(progress.length).toBeGreaterThan(0);
+    for (const p of progress) expect(p).toMatchObject({ id: 16, type: 'progress' });
+  });
+
+  it('createEngineHandler answers fitStructure (two structures) as fitNested, with the guard\'s reason when one structure is kept', () => {
+    const { sent, run } = collect();
+    const options = { family: 'exponential' as const, method: 'reml' as const };
+    run({ id: 17, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: false, structures: 2 } } });
+    const r = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as { model: CovarianceModel; simpler: CovarianceModel; notIdentifiable?: string };
+    const direct = fitNested(samples, options);
+    expect(r.model).toEqual(JSON.parse(JSON.stringify(direct.model)));
+    expect(r.simpler).toEqual(JSON.parse(JSON.stringify(direct.single)));
+    expect(r.notIdentifiable).toBe(direct.notIdentifiable);
+  });
+
+  it('createEngineHandler refuses fitStructure with both choices or neither, as error data', () => {
+    const { sent, run } = collect();
+    const options = { family: 'exponential' as const };
+    run({ id: 18, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: true, structures: 2 } } });
+    run({ id: 19, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: false, structures: 1 } } });
+    expect(sent.map((s) => s.message)).toMatchObject([
+      { id: 18, type: 'error', error: { code: 'bad-option' } },
+      { id: 19, type: 'error', error: { code: 'bad-option' } },
+    ]);
   });
 
   it('createEngineHandler answers fitNearestNeighbour with the same model as vecchiaFit', () => {

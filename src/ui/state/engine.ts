@@ -22,7 +22,8 @@ import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readSamples } from '../../io/intake.ts';
 import { epsgIndexLoaded } from '../../io/crs.ts';
-import type { RequestType } from '../../worker/protocol.ts';
+import type { RequestType, StructureFitChoice, StructureFitResult } from '../../worker/protocol.ts';
+import type { FitOptions } from '../../core/fit-options.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -105,6 +106,29 @@ export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, s
   }));
   if (signal?.aborted) throw new GapwiseError('cancelled', 'Fitting was cancelled.');
   return rows;
+}
+
+export interface StructureFitRequest {
+  /** Samples in data units. */
+  samples: Samples;
+  transform: 'none' | 'log';
+  /** Family and ν of the candidate the richer model builds on (REML). */
+  options: FitOptions;
+  choice: StructureFitChoice;
+}
+
+/**
+ * A fitted anisotropy or two structures (on ln values for a log transform), in a worker, with
+ * progress; both models come back with the transform set.
+ */
+export async function fitStructure(req: StructureFitRequest, onProgress?: Progress, signal?: AbortSignal): Promise<StructureFitResult> {
+  const fitSamples = req.transform === 'log' ? logSamples(req.samples) : req.samples;
+  const r = await enginePool().request('fitStructure', { samples: fitSamples, options: req.options, choice: req.choice }, {
+    signal, onProgress: (p) => onProgress?.(p.done, p.total),
+  });
+  r.model.transform = req.transform;
+  r.simpler.transform = req.transform;
+  return r;
 }
 
 /** Leave-one-out cross-validation of a model (samples in data units). */

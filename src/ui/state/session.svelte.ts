@@ -26,6 +26,7 @@ import {
 } from '../../core/variogram.ts';
 import { bestKey, withParts, type CandidateRow, type ModelParts } from './structure.ts';
 import * as engine from './engine.ts';
+import { RichFitState } from './rich-fit.svelte.ts';
 import type { Grid } from '../../core/grid.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
 import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
@@ -327,6 +328,28 @@ export class Session {
   cancelFit(): void {
     this.fitRuns.cancel();
     this.fitTask = { ...this.fitTask, status: 'cancelled' };
+  }
+
+  /** The richer fit (direction-dependent range, or two ranges) of the candidate in use. */
+  rich = new RichFitState();
+
+  /** What the richer fit is for: the reading and the transform. */
+  get richKey(): string {
+    return this.fitKey;
+  }
+
+  /** Runs the richer fit the user chose; its kept model becomes the model in use. */
+  fitRich(): Promise<void> {
+    const row = this.candidates.find((r) => r.key === this.s.structure.chosen);
+    return this.rich.run({
+      samples: this.intake?.samples ?? null, transform: this.s.samples.transform, chosen: this.s.structure.chosen,
+      chosenModel: row?.model ?? null, key: this.fitKey,
+    }, (model) => this.useModel(model));
+  }
+
+  /** Puts a fitted model (from the richer fit's comparison) in use; the candidate choice stays. */
+  useModel(model: CovarianceModel): void {
+    this.s.structure.model = model;
   }
 
   /** The user picks a candidate: it becomes the model in use (any edit is dropped). */
@@ -917,6 +940,7 @@ export class Session {
 
   /** Drops every result computed from the samples (they changed). */
   dropResults(): void {
+    this.rich.reset();
     this.fitRuns.cancel();
     this.candidates = [];
     this.fittedFor = '';
@@ -1186,6 +1210,7 @@ export class Session {
       boundary: this.s.boundary?.fileName ?? null,
       candidates: this.candidates.map((c) => [c.key, c.aic, c.rmse, c.msse]),
       chosen: this.s.structure.chosen,
+      model: this.s.structure.model ? { anisotropy: this.s.structure.model.anisotropy ?? null, structures: this.s.structure.model.structures.length } : null,
       cv: this.cv ? { ...this.cv.summary } : null,
       surface: sf ? {
         done: sf.done, cells: sf.result.cells, nx: sf.grid.nx, ny: sf.grid.ny, mean: sum(sf.result.mean), sd: sum(sf.result.sd),

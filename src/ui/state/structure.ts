@@ -165,7 +165,16 @@ export function anisotropyHint(dirs: readonly EmpiricalVariogram[], directions: 
 /** Human name of a model, e.g. "Matérn ν = 1.5 + nugget". */
 export function modelName(model: CovarianceModel): string {
   const p = modelParts(model);
-  if (!p) return model.structures.map((s) => s.type).join(' + ');
+  const byDirection = model.anisotropy && model.anisotropy.ratio < 1 ? ', range by direction' : '';
+  if (!p) {
+    const corr = model.structures.filter((s) => s.type !== 'nugget');
+    if (corr.length === 2 && corr[0].type === corr[1].type) {
+      const c = corr[0] as { type: Family; nu?: number };
+      const fam = c.type === 'matern' ? `Matérn ν = ${+(c.nu ?? 1.5).toFixed(2)}` : c.type[0].toUpperCase() + c.type.slice(1);
+      return `${fam}, two ranges${byDirection}${nuggetOf(model) > 0 ? ' + nugget' : ''}`;
+    }
+    return model.structures.map((s) => s.type).join(' + ') + byDirection;
+  }
   const fam = p.family === 'matern' ? `Matérn ν = ${+(p.nu ?? 1.5).toFixed(2)}` : p.family[0].toUpperCase() + p.family.slice(1);
-  return p.nugget > 0 ? `${fam} + nugget` : fam;
+  return `${fam}${byDirection}${p.nugget > 0 ? ' + nugget' : ''}`;
 }
