@@ -694,6 +694,13 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
+    if (isCovariateTrend(model.trend)) {
+      this.simTask = {
+        ...idleTask(), status: 'error',
+        error: { code: 'bad-option', message: `Realisations are not offered for a model with covariates (${model.trend.covariates.join(', ')}) yet; the kriged surface above uses them. Expected a model without covariates for realisations.` },
+      };
+      return;
+    }
     const run = this.simRuns.begin();
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
