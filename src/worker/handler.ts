@@ -24,7 +24,8 @@ import type { SurfacePredictor } from '../core/surface.ts';
 import type { LocalKrigingOptions } from '../core/local-kriging.ts';
 import { GapwiseError } from '../core/errors.ts';
 import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
+import { isCovariateTrend, type CovarianceModel } from '../core/model.ts';
+import { attachTrendCoefficients } from '../core/covariate-fit.ts';
 import { readSamples } from '../io/intake.ts';
 import { runDesignRequest } from './design-handler.ts';
 import {
@@ -83,7 +84,7 @@ export function predictorKey(samples: Samples, model: CovarianceModel): string {
   const asF64 = (a: ArrayLike<number>) => (a instanceof Float64Array ? a : Float64Array.from(a));
   const m = { s: model.structures, t: model.trend, a: model.anisotropy ?? null, f: model.transform };
   return [samples.x.length, hashArray(asF64(samples.x), 0x811c9dc5), hashArray(asF64(samples.y), 0x9747b28c),
-    hashArray(asF64(samples.value), 0x3c6ef372), JSON.stringify(m)].join('|');
+    hashArray(asF64(samples.value), 0x3c6ef372), samples.covariates ? hashArray(asF64(samples.covariates), 0x2545f491) : '', JSON.stringify(m)].join('|');
 }
 
 function checkSamples(samples: unknown): asserts samples is Samples {
@@ -191,7 +192,9 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'fitNearestNeighbour': {
         const q = p as RequestPayloads['fitNearestNeighbour'];
         checkSamples(q.samples);
-        return ops.vecchiaFit(q.samples, q.options) as ResultPayloads[K];
+        const m = ops.vecchiaFit(q.samples, q.options);
+        // A covariate model carries its coefficients with standard errors, as an exact fit's does.
+        return (isCovariateTrend(m.trend) && !m.fit?.coefficients ? attachTrendCoefficients(q.samples, m) : m) as ResultPayloads[K];
       }
       case 'blockSurfaceRows': {
         const q = p as RequestPayloads['blockSurfaceRows'];

@@ -85,6 +85,13 @@ function widen(r: ValueRange | undefined, s: ValueRange | undefined): ValueRange
   return { min: Math.min(r.min, s.min), max: Math.max(r.max, s.max) };
 }
 
+/** Surface options for the rows r0..r1: a covariate grid's rows of those cells only (a copy, so the post is small). */
+export function bandOptions(options: Omit<SurfaceOptions, 'rows'>, grid: Grid, r0: number, r1: number): Omit<SurfaceOptions, 'rows'> {
+  if (!options.covariates) return { ...options };
+  const q = options.covariates.length / (grid.nx * grid.ny);
+  return { ...options, covariates: options.covariates.slice(r0 * grid.nx * q, r1 * grid.nx * q) };
+}
+
 /** An empty whole-grid surface (all NaN) to merge bands into. */
 export function emptySurface(grid: Grid, options: SurfaceOptions, log: boolean): SurfaceResult {
   const size = grid.nx * grid.ny;
@@ -215,7 +222,7 @@ export class EnginePool {
             samples, model, grid: bandOf,
             options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints },
           }, { onProgress })
-          : client.start('surfaceRows', { samples, model, grid: bandOf, options: { ...options }, local: job.local }, { onProgress });
+          : client.start('surfaceRows', { samples, model, grid: bandOf, options: bandOptions(options, grid, r0, r1), local: job.local }, { onProgress });
         running.set(client, id);
         promise.then((band) => {
           if (stopped) return;

@@ -122,6 +122,8 @@ export interface ErrorData {
   code: ErrorCode | 'internal';
   message: string;
   place: ErrorPlace;
+  /** The numeric columns to choose the value from, when a file has several (intake's `numericColumns`). */
+  choices?: string[];
 }
 
 export interface ErrorMessage {
@@ -162,7 +164,11 @@ export function isEngineResponse(value: unknown): value is EngineResponse {
 
 /** Turns anything thrown into error data (GapwiseError keeps its code and place). */
 export function errorData(error: unknown): ErrorData {
-  if (error instanceof GapwiseError) return { code: error.code, message: error.message, place: { ...error.place } };
+  if (error instanceof GapwiseError) {
+    const choices = (error as { numericColumns?: unknown }).numericColumns;
+    const listed = Array.isArray(choices) && choices.every((c) => typeof c === 'string') ? { choices: [...choices] as string[] } : {};
+    return { code: error.code, message: error.message, place: { ...error.place }, ...listed };
+  }
   if (error instanceof EngineError) return { code: 'internal', message: error.message, place: { ...error.place } };
   const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
   return { code: 'internal', message: `Unexpected failure in the engine (a bug): ${message}`, place: {} };
@@ -171,7 +177,8 @@ export function errorData(error: unknown): ErrorData {
 /** Error data back into an error object: GapwiseError for our codes, EngineError for 'internal'. */
 export function errorFromData(data: ErrorData): GapwiseError | EngineError {
   if (data.code === 'internal') return new EngineError(data.message, data.place);
-  return new GapwiseError(data.code, data.message, data.place);
+  const error = new GapwiseError(data.code, data.message, data.place);
+  return data.choices ? Object.assign(error, { numericColumns: [...data.choices] }) : error;
 }
 
 /**

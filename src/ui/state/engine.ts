@@ -4,7 +4,7 @@
  * in a pool of engine workers (src/worker) so the page stays responsive.
  */
 import type { Samples } from '../../core/samples.ts';
-import type { CovarianceModel } from '../../core/model.ts';
+import type { CovarianceModel, Trend } from '../../core/model.ts';
 import type { Grid } from '../../core/grid.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import type { SurfaceResult } from '../../core/surface.ts';
@@ -56,10 +56,12 @@ export interface FitRequest {
    * samples; leave-one-out then predicts each sample from its 64 nearest others). Default: chooseFitMethod(n).
    */
   likelihood?: 'exact' | 'nnl';
+  /** The mean: a covariate trend (samples then carry its encoded columns); default constant. */
+  trend?: Trend;
 }
 
 function logSamples(s: Samples): Samples {
-  return { x: s.x, y: s.y, value: Float64Array.from(s.value, Math.log) };
+  return { ...s, value: Float64Array.from(s.value, Math.log) };
 }
 
 /**
@@ -77,7 +79,7 @@ export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, s
     try {
       if (nnl) {
         const m = await p.request('fitNearestNeighbour', {
-          samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: 'reml', neighbors: DEFAULT_VECCHIA_NEIGHBORS },
+          samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: 'reml', neighbors: DEFAULT_VECCHIA_NEIGHBORS, ...(req.trend ? { trend: req.trend } : {}) },
         }, { signal });
         m.transform = req.transform;
         const cv = await p.request('crossValidate', { samples: req.samples, model: m, ...localCv(req.samples) }, { signal });
@@ -87,7 +89,7 @@ export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, s
           rmse: cv.summary.rmse, msse: cv.summary.msse,
         };
       }
-      const m = await p.request('fit', { samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: req.method } }, { signal });
+      const m = await p.request('fit', { samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: req.method, ...(req.trend ? { trend: req.trend } : {}) } }, { signal });
       m.transform = req.transform;
       const cv = await p.request('crossValidate', { samples: req.samples, model: m }, { signal });
       return {
@@ -156,6 +158,8 @@ export interface SurfaceRequest {
   blockPoints?: number;
   /** Point support from local neighbourhoods (many samples). */
   local?: LocalKrigingOptions;
+  /** Encoded covariates of every grid cell (nx·ny rows, row-major from the top) for a covariate model. */
+  covariates?: Float64Array;
 }
 
 /**
@@ -165,7 +169,7 @@ export interface SurfaceRequest {
 export function surface(
   req: SurfaceRequest, onProgress?: Progress, signal?: AbortSignal, onBand?: (merged: SurfaceResult) => void,
 ): Promise<SurfaceResult> {
-  return enginePool().surface(req.samples, req.model, req.grid, { threshold: req.threshold }, {
+  return enginePool().surface(req.samples, req.model, req.grid, { threshold: req.threshold, ...(req.covariates ? { covariates: req.covariates } : {}) }, {
     signal,
     onProgress: (p) => onProgress?.(p.done, p.total),
     onBand: (_band, merged) => onBand?.(merged),

@@ -35,6 +35,10 @@ import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
 import { choosePredictionPath } from '../../core/path-choice.ts';
 import type { LocalAccuracy } from '../../core/local-accuracy.ts';
+import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
+import type { Warning } from '../../core/errors.ts';
+import { covariateCandidates, residualSamples, samplesForModel, withChosenCovariates } from './covariates.ts';
+import type { CovariateRaster } from '../../io/covariate-raster.ts';
 
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
 export const MANY_SAMPLES = EXACT_FIT_LIMIT;
@@ -110,10 +114,15 @@ const idleTask = (): TaskState => ({ status: 'idle', done: 0, total: 0, what: ''
 export interface ShownError {
   message: string;
   code?: string;
+  /** A file with several numeric columns: the columns the value can be chosen from. */
+  choices?: string[];
 }
 
 export function showError(e: unknown): ShownError {
-  if (e instanceof GapwiseError) return { message: e.describe(), code: e.code };
+  if (e instanceof GapwiseError) {
+    const choices = (e as { numericColumns?: unknown }).numericColumns;
+    return { message: e.describe(), code: e.code, ...(Array.isArray(choices) && choices.length ? { choices: choices.map(String) } : {}) };
+  }
   if (e && typeof e === 'object' && 'message' in e) {
     const o = e as { message: string; code?: string; place?: { file?: string; row?: number; column?: string } };
     const where = o.place ? [o.place.file, o.place.row !== undefined ? `line ${o.place.row}` : '', o.place.column ? `column "${o.place.column}"` : ''].filter(Boolean).join(', ') : '';
@@ -123,7 +132,7 @@ export function showError(e: unknown): ShownError {
 }
 
 /**
- * Sample positions for the map, aligned with intake.rows and intake.samples: WGS 84 longitude and
+ * Sample positions for the map, aligned with intake.table and intake.samples: WGS 84 longitude and
  * latitude, or for local coordinates (no CRS) the working x (in `lon`) and y (in `lat`), drawn on a
  * plain planar map.
  */
@@ -146,7 +155,7 @@ export class Session {
   /** Boundary polygons in WGS 84 and in the working CRS. */
   boundary = $state.raw<{ lonLat: Polygon[]; work: Polygon[] } | null>(null);
   boundaryError = $state.raw<ShownError | null>(null);
-  /** Index (into intake.rows) of the sample shown in the sample panel. */
+  /** Index (into intake.table and intake.samples) of the sample shown in the sample panel. */
   selected = $state<number | null>(null);
   /** 'restoring' until the saved session has been read back. */
   ready = $state(false);
@@ -164,14 +173,59 @@ export class Session {
 
   // ---------------------------------------------------------------- structure
 
-  /** Samples on the modelling scale (ln values for a log transform). */
+  /** Covariate columns chosen in the Samples step (saved); none = constant mean. */
+  get covariateNames(): string[] {
+    return this.s.samples.covariates ?? [];
+  }
+
+  /** Chooses the covariate columns: the candidate table (fitted for other covariates) is dropped. */
+  setCovariates(names: string[]): void {
+    const next = [...new Set(names)];
+    if (next.join('\u0000') === this.covariateNames.join('\u0000')) return;
+    if (next.length > 0) this.s.samples.covariates = next;
+    else delete this.s.samples.covariates;
+    this.candidates = [];
+    this.fittedFor = '';
+  }
+
+  /**
+   * The samples (data units) with the encoded columns of the chosen covariates and the trend with its
+   * levels recorded; value null with no covariate chosen, error for a column that cannot serve.
+   */
+  covariateSetup = $derived.by((): Outcome<{ samples: Samples; trend: CovariateTrend }> => {
+    const intake = this.intake;
+    // A column that became the value (or a coordinate) since it was chosen is no covariate.
+    const names = intake ? (this.s.samples.covariates ?? []).filter((c) => covariateCandidates(intake).includes(c)) : [];
+    if (!intake || names.length === 0) return { value: null, error: null };
+    return attempt(() => withChosenCovariates(intake, names)!);
+  });
+
+  /** True when the variogram views show least-squares residuals of the covariate trend. */
+  get residualVariogram(): boolean {
+    return !!this.covariateSetup.value;
+  }
+
+  /**
+   * Samples on the modelling scale (ln values for a log transform); with covariates chosen, the
+   * least-squares residuals of those values on the covariates (what the variogram is computed from).
+   */
   modelSamples = $derived.by((): Samples | null => {
     const intake = this.intake;
     if (!intake) return null;
     const s = intake.samples;
+    const cov = this.covariateSetup.value;
+    if (cov) {
+      const r = attempt(() => residualSamples(cov.samples, cov.trend, this.s.samples.transform === 'log'));
+      if (r.value) return r.value;
+    }
     if (this.s.samples.transform !== 'log') return s;
     return { x: s.x, y: s.y, value: Float64Array.from(s.value, Math.log) };
   });
+
+  /** The samples the model in use is cross-validated and mapped with (its covariates encoded). */
+  private samplesFor(model: CovarianceModel | null): Samples {
+    return samplesForModel(this.intake!, model ? ($state.snapshot(model) as CovarianceModel) : null);
+  }
 
   /** What the variogram views are computed from (options as the structure step sets them). */
   private variogramRequest = $derived.by(() => {
@@ -179,7 +233,7 @@ export class Session {
     if (!samples) return null;
     const { lagWidth, maxLag, directional, cloud } = this.s.structure;
     const options = { lagWidth: lagWidth || undefined, maxLag: maxLag || undefined };
-    return { samples, options, directional, cloud, key: `${this.s.readId}|${this.s.samples.transform}|${lagWidth}|${maxLag}|${directional}|${cloud}` };
+    return { samples, options, directional, cloud, key: `${this.s.readId}|${this.s.samples.transform}|${lagWidth}|${maxLag}|${directional}|${cloud}|${(this.s.samples.covariates ?? []).join('\u0000')}` };
   });
 
   /**
@@ -247,7 +301,7 @@ export class Session {
 
   /** What the candidate table is fitted for: the reading and the transform. */
   private get fitKey(): string {
-    return `${this.s.readId}|${this.s.samples.transform}`;
+    return `${this.s.readId}|${this.s.samples.transform}|${(this.s.samples.covariates ?? []).join('\u0000')}`;
   }
 
   /** What the cross-validation of the model in use is computed from. */
@@ -299,8 +353,13 @@ export class Session {
     const n = intake.samples.x.length;
     const likelihood = chooseFitMethod(n, this.fitLikelihood === 'auto' ? undefined : this.fitLikelihood);
     try {
+      const cov = this.covariateSetup;
+      if (cov.error) throw new GapwiseError(cov.error.code as never, cov.error.message);
       const rows = await engine.fitCandidateRows(
-        { samples: intake.samples, method: this.s.structure.method, transform: this.s.samples.transform, likelihood },
+        {
+          samples: cov.value?.samples ?? intake.samples, method: this.s.structure.method, transform: this.s.samples.transform, likelihood,
+          ...(cov.value ? { trend: cov.value.trend } : {}),
+        },
         (done, total, what) => { if (run.current()) this.fitTask = { ...this.fitTask, done, total, what: what ?? '' }; },
         run.signal,
       );
@@ -392,7 +451,7 @@ export class Session {
     if (this.cv && this.cvFor === key) return;
     const run = this.cvRuns.begin();
     try {
-      const r = await engine.crossValidate(intake.samples, $state.snapshot(model) as CovarianceModel, run.signal);
+      const r = await engine.crossValidate(this.samplesFor(model), $state.snapshot(model) as CovarianceModel, run.signal);
       if (!run.current()) return;
       this.cv = r;
       this.cvFor = key;
@@ -425,6 +484,48 @@ export class Session {
   surface = $state.raw<SurfaceView | null>(null);
   /** The measured error of the surface shown when it came from local neighbourhoods (its key, the figures). */
   surfaceAccuracy = $state.raw<{ key: string; accuracy: LocalAccuracy } | null>(null);
+
+  /** Covariate rasters loaded in the Surface step, one per covariate (not saved: load them again after a reload). */
+  covariateRasters = $state.raw<CovariateRaster[]>([]);
+  /** A raster that could not be used, and why; the rasters in use are unchanged. */
+  rasterError = $state.raw<{ fileName: string; error: ShownError } | null>(null);
+  /** The covariate raster shown as a map layer of its own (by covariate name), or null. */
+  covariateLayer = $state<string | null>(null);
+  /** Warnings of the last surface's covariates on the grid (cells without a covariate value). */
+  covariateWarnings = $state.raw<Warning[]>([]);
+
+  /** Covariates of the model in use that have no raster yet (empty for a model without covariates). */
+  get missingRasters(): string[] {
+    const t = this.s.structure.model?.trend;
+    if (!t || !isCovariateTrend(t)) return [];
+    return t.covariates.filter((c) => !this.covariateRasters.some((r) => r.name === c));
+  }
+
+  /**
+   * Reads a covariate GeoTIFF for the covariate `name` (geotiff.js, on this thread); it replaces that
+   * covariate's raster only when it reads and its CRS is known.
+   */
+  async loadCovariateRaster(name: string, fileName: string, bytes: Uint8Array): Promise<ShownError | null> {
+    try {
+      const { readCovariateRaster } = await import('../../io/covariate-raster.ts');
+      const raster = await readCovariateRaster(bytes, name, fileName);
+      // Checks the raster's CRS can be reprojected to the working one before it is taken.
+      const work = this.intake?.report.crs.work;
+      if (work) createTransform(raster.crs, work);
+      this.covariateRasters = [...this.covariateRasters.filter((r) => r.name !== name), raster];
+      this.rasterError = null;
+      return null;
+    } catch (e) {
+      const error = showError(e);
+      this.rasterError = { fileName, error };
+      return error;
+    }
+  }
+
+  removeCovariateRaster(name: string): void {
+    this.covariateRasters = this.covariateRasters.filter((r) => r.name !== name);
+    if (this.covariateLayer === name) this.covariateLayer = null;
+  }
   /**
    * True after a reload when a surface was being computed as the page closed: it was not stored (a
    * surface still arriving never is), so the Surface step says so and offers to compute it again.
@@ -479,6 +580,7 @@ export class Session {
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, this.s.surface.area] : null,
       t: this.s.surface.threshold,
       s: this.support, k: this.support === 'block' ? this.blockPoints : 0, l: this.surfaceLocal,
+      c: this.covariateRasters.map((r) => [r.name, r.crs, r.x0, r.y0, r.dx, r.nx, r.ny]),
     });
   }
 
@@ -492,6 +594,32 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
+    const missing = this.missingRasters;
+    if (missing.length > 0) {
+      this.surfaceTask = {
+        ...idleTask(), status: 'error',
+        error: { code: 'bad-option', message: `The model's covariate${missing.length > 1 ? 's' : ''} ${missing.join(', ')} need${missing.length > 1 ? '' : 's'} a raster on the map area; expected "Load covariate raster…" for ${missing.length > 1 ? 'each' : 'it'} first.` },
+      };
+      return;
+    }
+    let grid = plan.grid;
+    let covariates: Float64Array | undefined;
+    let samples = intake.samples;
+    this.covariateWarnings = [];
+    if (isCovariateTrend(model.trend)) {
+      try {
+        const { gridCovariates } = await import('../../io/covariate-raster.ts');
+        const plain = $state.snapshot(model) as CovarianceModel;
+        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.covariateRasters, intake.report.crs.work);
+        grid = g.grid;
+        covariates = g.covariates;
+        this.covariateWarnings = g.warnings;
+        samples = this.samplesFor(model);
+      } catch (e) {
+        this.surfaceTask = { ...idleTask(), status: 'error', error: showError(e) };
+        return;
+      }
+    }
     const run = this.surfaceRuns.begin();
     this.s.surface.wanted = true;
     this.s.surface.running = true;
@@ -505,7 +633,7 @@ export class Session {
     const t0 = performance.now();
     this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
     const view = (result: SurfaceResult, done: boolean, bands: number, ms?: number): SurfaceView => ({
-      grid: plan.grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
+      grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
       support, points: support === 'block' ? this.blockPoints : 1,
       local: local ? DEFAULT_LOCAL_NEIGHBORS : null,
       ...(ms !== undefined ? { ms } : {}),
@@ -515,8 +643,8 @@ export class Session {
     try {
       const result = await engine.surface(
         {
-          samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid, threshold: useThreshold ? threshold! : undefined,
-          support, blockPoints: this.blockPoints,
+          samples, model: $state.snapshot(model) as CovarianceModel, grid, threshold: useThreshold ? threshold! : undefined,
+          support, blockPoints: this.blockPoints, covariates,
           local: local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : undefined,
         },
         (done, total) => {
@@ -599,6 +727,13 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
+    if (isCovariateTrend(model.trend)) {
+      this.simTask = {
+        ...idleTask(), status: 'error',
+        error: { code: 'bad-option', message: `Realisations are not offered for a model with covariates (${model.trend.covariates.join(', ')}) yet; the kriged surface above uses them. Expected a model without covariates for realisations.` },
+      };
+      return;
+    }
     const run = this.simRuns.begin();
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
@@ -973,8 +1108,18 @@ export class Session {
    */
   async loadSource(file: SourceFile, choices: Partial<SampleChoices> = {}): Promise<ShownError | null> {
     const samples: SampleChoices = { unit: '', transform: 'none', ...choices };
-    const got = await this.readWith(file, samples);
+    let got = await this.readWith(file, samples);
     if (got.stale) return null;
+    let valueNote: string | null = null;
+    const several = got.error?.choices;
+    if (!got.intake && several && samples.value === undefined) {
+      // Several numeric columns: the first is mapped and the user told, so the file opens and the
+      // Value column choice (and the covariates) can be made on it.
+      samples.value = several[0];
+      got = await this.readWith(file, samples);
+      if (got.stale) return null;
+      valueNote = `Several columns hold numbers (${several.join(', ')}): ${several[0]}, the first, is mapped. Choose another under Value column; the others can serve as covariates.`;
+    }
     if (!got.intake) {
       this.rejectedSource = { fileName: file.fileName, error: got.error! };
       return got.error;
@@ -991,6 +1136,7 @@ export class Session {
     this.s.surface.sdLimit = null;
     this.rejectedSource = null;
     this.takeNewReading(got.intake);
+    this.valueNote = valueNote;
     return null;
   }
 
@@ -1049,6 +1195,7 @@ export class Session {
    * and is named in `rejectedChoice` beside them.
    */
   async setReadChoice(choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): Promise<void> {
+    if (choice.value !== undefined) this.valueNote = null;
     const src = this.s.source;
     if (!src) return;
     const next = { ...($state.snapshot(this.s.samples) as SampleChoices) };
@@ -1079,6 +1226,9 @@ export class Session {
     }
     this.takeNewReading(got.intake);
   }
+
+  /** Which column became the value when the file left the choice open (several numeric columns); null otherwise. */
+  valueNote = $state<string | null>(null);
 
   /** A reading choice that the file could not be read with, and why; the samples in use are unchanged. Cleared by the next good reading. */
   rejectedChoice = $state.raw<{ what: string; error: ShownError } | null>(null);

@@ -36,6 +36,8 @@ export interface SampleChoices {
   transform: 'none' | 'log';
   /** Local coordinates (no CRS) that the user says are metres; otherwise they are "coordinate units". */
   localMetres?: boolean;
+  /** Sample columns chosen as covariates of the mean (kriging with external drift); none when absent. */
+  covariates?: string[];
 }
 
 export interface StructureChoices {
@@ -213,6 +215,8 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       unit: str(s.unit, ''),
       transform: oneOf(s.transform, ['none', 'log'] as const, 'none'),
       ...(s.localMetres === true ? { localMetres: true } : {}),
+      ...(Array.isArray(s.covariates) && s.covariates.length > 0 && s.covariates.every((c) => typeof c === 'string' && c !== '')
+        ? { covariates: [...new Set(s.covariates as string[])].slice(0, 20) } : {}),
     },
     structure: {
       lagWidth: num(st.lagWidth, 0, 0),

@@ -6,6 +6,7 @@
  * recomputes). `drawnSimulation` is the project's record of realisations on screen. Pure functions,
  * no Svelte.
  */
+import { isCovariateTrend } from '../../../core/model.ts';
 import type { Grid } from '../../../core/grid.ts';
 import type { ConditionalSimulationResult } from '../../../core/conditional-simulation.ts';
 import {
@@ -97,7 +98,11 @@ export function snapshotFromProject(project: Project, base: SessionSnapshot): Se
     step: 'report',
     source: { fileName: project.samples.fileName, text: project.samples.text, invented: project.samples.invented === true },
     boundary: project.boundary ? { fileName: project.boundary.fileName, text: project.boundary.text, invented: project.boundary.invented === true } : null,
-    samples: { value: i.value, x: i.x, y: i.y, crs: i.crs, nonDetect: i.nonDetect, unit: project.samples.unit, transform: project.structure.transform },
+    samples: {
+      value: i.value, x: i.x, y: i.y, crs: i.crs, nonDetect: i.nonDetect, unit: project.samples.unit, transform: project.structure.transform,
+      // The covariates chosen are the model's own (a project stores the model, not the choice).
+      ...(project.model && isCovariateTrend(project.model.trend) ? { covariates: [...project.model.trend.covariates] } : {}),
+    },
     structure: {
       ...base.structure,
       lagWidth: project.structure.variogram.lagWidth ?? 0,
