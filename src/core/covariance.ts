@@ -68,6 +68,12 @@ export function acrossAxis(frame: AnisotropyFrame, dx: number, dy: number): numb
   return (dx * frame.cos - dy * frame.sin) * frame.inverseRatio;
 }
 
+/** The inverse of (alongAxis, acrossAxis): the separation (dx east, dy north) of a point (u, v) in stretched coordinates. */
+export function fromStretched(frame: AnisotropyFrame, u: number, v: number): { dx: number; dy: number } {
+  const w = v / frame.inverseRatio;
+  return { dx: u * frame.sin + w * frame.cos, dy: u * frame.cos - w * frame.sin };
+}
+
 /** Transforms a separation (dx east, dy north) into an effective isotropic distance. */
 export function effectiveDistance(dx: number, dy: number, anisotropy?: Anisotropy): number {
   const f = anisotropyFrame(anisotropy);

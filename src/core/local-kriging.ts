@@ -28,7 +28,7 @@ import type { CovarianceModel } from './model.ts';
 import { checkModelScale, nuggetOf } from './model.ts';
 import type { Samples } from './samples.ts';
 import { GapwiseError, type Warning } from './errors.ts';
-import { surfaceVariance } from './covariance.ts';
+import { acrossAxis, alongAxis, anisotropyFrame, fromStretched, surfaceVariance } from './covariance.ts';
 import { choleskyInPlace, solveLowerInPlace } from './linalg.ts';
 import {
   designRow, knownMean, trendColumnCount, trendFrame, covariateColumnCount, checkCovariateRows, type CoordinateFrame,
@@ -269,11 +269,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const diagonal = c0 + nugget;
   const allowJitter = options.jitter ?? true;
   // Targets go through the same rotation and stretch as the samples (isotropicCoordinates).
-  const rotate = !!model.anisotropy && model.anisotropy.ratio !== 1;
-  const angle = ((model.anisotropy?.azimuth ?? 0) * Math.PI) / 180;
-  const sinA = Math.sin(angle);
-  const cosA = Math.cos(angle);
-  const invRatio = 1 / (model.anisotropy?.ratio ?? 1);
+  const rotation = anisotropyFrame(model.anisotropy);
 
   // Tiles: targets in one square tile of side w (isotropic coordinates) share one neighbourhood.
   const tile = options.targetSpacing !== undefined ? chooseTile(n, q, iu, iv, options.targetSpacing) : null;
@@ -514,9 +510,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     const found = tileFound.subarray(0, count);
     found.sort();
     // The local trend frame is centred on the tile centre (in centred working coordinates).
-    const cx = rotate ? tu * sinA + tv * cosA / invRatio : tu;
-    const cy = rotate ? tu * cosA - tv * sinA / invRatio : tv;
-    useSet(found, cx, cy);
+    const back = rotation ? fromStretched(rotation, tu, tv) : { dx: tu, dy: tv };
+    useSet(found, back.dx, back.dy);
     return true;
   };
   const tileDist2 = new Float64Array(q);
@@ -547,8 +542,8 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       const pv = yj - frame.cy;
       PU[j] = pu;
       PV[j] = pv;
-      QU[j] = rotate ? (pu * sinA + pv * cosA) : pu;
-      QV[j] = rotate ? (pu * cosA - pv * sinA) * invRatio : pv;
+      QU[j] = rotation ? alongAxis(rotation, pu, pv) : pu;
+      QV[j] = rotation ? acrossAxis(rotation, pu, pv) : pv;
     }
     let done = 0;
     const step = (): void => {

@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import {
   correlation, crossCovarianceInto, crossCovarianceMatrix, effectiveDistance, practicalRange, sampleCovarianceMatrix,
-  surfaceCovariance, surfaceVariance, toIsotropicCoordinates,
+  surfaceCovariance, surfaceVariance, toIsotropicCoordinates, anisotropyFrame, alongAxis, acrossAxis, fromStretched,
 } from '../../src/core/covariance.ts';
 import { maternCorrelation } from '../../src/core/matern.ts';
 import { cholesky } from '../../src/core/linalg.ts';
@@ -211,5 +211,25 @@ describe('practicalRange', () => {
   });
   it('practicalRange is 0 for a pure nugget', () => {
     expect(practicalRange(model([{ type: 'nugget', sill: 1 }]))).toBe(0);
+  });
+});
+
+describe('the anisotropy rotation', () => {
+  it('fromStretched undoes alongAxis and acrossAxis (azimuths all round, ratios 0.02 to 1)', () => {
+    const r = createRandom(7);
+    for (let k = 0; k < 200; k++) {
+      const frame = anisotropyFrame({ azimuth: 360 * r.uniform(), ratio: 0.02 + 0.98 * r.uniform() })!;
+      const dx = 2000 * (r.uniform() - 0.5);
+      const dy = 2000 * (r.uniform() - 0.5);
+      const back = fromStretched(frame, alongAxis(frame, dx, dy), acrossAxis(frame, dx, dy));
+      expectClose(back.dx, dx, { abs: 1e-9 });
+      expectClose(back.dy, dy, { abs: 1e-9 });
+    }
+  });
+  it('the long axis at azimuth 90° (east) keeps east-west separations and stretches north-south ones by 1/ratio', () => {
+    const frame = anisotropyFrame({ azimuth: 90, ratio: 0.5 })!;
+    expectClose(alongAxis(frame, 10, 0), 10, { abs: 1e-12 });
+    expectClose(Math.abs(acrossAxis(frame, 0, 10)), 20, { abs: 1e-12 });
+    expect(anisotropyFrame({ azimuth: 30, ratio: 1 })).toBeNull();
   });
 });
