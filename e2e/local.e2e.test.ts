@@ -132,8 +132,9 @@ describe('Local coordinates in the browser', () => {
     expect(await page.locator('[data-export=next-gpx]').count()).toBe(0);
     expect(await page.locator('[data-testid=next-local-note]').innerText()).toMatch(/GPX .* needs longitude\/latitude/);
     const csv = (await download(page, '[data-export=next-csv]')).bytes.toString('utf8').trim().split('\n');
-    expect(csv[0]).toBe('rank,x,y,benefit,mean,sd');
-    const sites = csv.slice(1).map((l) => l.split(',').map(Number));
+    expect(csv[0]).toMatch(/^# Screening only: .* Written by Gapwise /);
+    expect(csv[1]).toBe('rank,x,y,benefit,mean,sd');
+    const sites = csv.slice(2).map((l) => l.split(',').map(Number));
     expect(sites).toHaveLength(5);
     for (const [, x, y] of sites) {
       expect(x).toBeGreaterThanOrEqual(-1);

@@ -9,7 +9,7 @@ import { GapwiseError } from '../core/errors.ts';
 import { CAUTION } from '../core/caution.ts';
 import { SOFTWARE } from '../core/version.ts';
 import type { DesignResult, Suggestion } from '../core/design.ts';
-import { csvLine } from './csv-cells.ts';
+import { csvComment, csvLine } from './csv-cells.ts';
 
 /** What the exports need of a design: its suggestions (lon and lat filled) and its summary. */
 export type ExportableDesign = Pick<DesignResult,
@@ -25,6 +25,8 @@ export interface CsvExportOptions {
   newline?: '\n' | '\r\n';
   /** Local coordinates with no CRS: no lon, lat columns (there are none to give). */
   local?: boolean;
+  /** The first line, "# " + the screening caution and the version (default true), as the grid CSV's. */
+  caution?: boolean;
 }
 
 /** What a local-coordinate GeoJSON says about its positions (they are not RFC 7946 lon/lat). */
@@ -107,7 +109,9 @@ export function suggestionsToGeoJson(design: ExportableDesign, options: { local?
 }
 
 /**
- * CSV with the columns rank, x, y (the samples' CRS), lon, lat, benefit, mean, sd, and p_exceed when
+ * CSV: a first line "# " with the screening caution and the version (most CSV readers skip it with a
+ * comment option; `caution: false` leaves it out), then the columns rank, x, y (the samples' CRS), lon,
+ * lat, benefit, mean, sd, and p_exceed when
  * the design has a threshold. Empty cells where there is no value (coverage without a model; lon and
  * lat for local coordinates without a CRS). Every cell is a number, written through csvLine like
  * every CSV Gapwise writes.
@@ -122,7 +126,7 @@ export function suggestionsToCsv(design: ExportableDesign, options: CsvExportOpt
   if ((inputX && inputX.length !== design.suggestions.length) || (inputY && inputY.length !== design.suggestions.length)) {
     throw new GapwiseError('bad-value', `Expected ${design.suggestions.length} input-CRS coordinates, got ${inputX?.length ?? 0} and ${inputY?.length ?? 0}.`);
   }
-  const lines = [csvLine(header)];
+  const lines = [...(options.caution === false ? [] : [csvComment(`${CAUTION} Written by ${SOFTWARE}.`)]), csvLine(header)];
   design.suggestions.forEach((s, k) => {
     const cells = [
       String(s.rank), numberText(inputX ? inputX[k] : s.x), numberText(inputY ? inputY[k] : s.y),

@@ -1,3 +1,4 @@
+import { SOFTWARE } from '../../src/core/version.ts';
 import { describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
 import { designSummary, numberText, suggestionsToCsv, suggestionsToGeoJson, type ExportableDesign } from '../../src/io/suggestions-export.ts';
@@ -32,7 +33,7 @@ describe('suggestionsToGeoJson', () => {
     expect(Object.keys(obj.properties).filter((k) => /_m2?$/.test(k))).toEqual([]);
     // Without `local`, a suggestion with no lon/lat is refused.
     expect(() => suggestionsToGeoJson(local)).toThrow(/longitude/);
-    const csv = suggestionsToCsv(local, { local: true }).split('\n');
+    const csv = suggestionsToCsv(local, { local: true, caution: false }).split('\n');
     expect(csv[0]).toBe('rank,x,y,benefit,mean,sd,p_exceed');
     expect(csv[1]).toBe('1,10.25,20.5,512.25,180.5,35.1,0.29');
   });
@@ -69,7 +70,8 @@ describe('suggestionsToGeoJson', () => {
 
 describe('suggestionsToCsv', () => {
   it('suggestionsToCsv writes rank, x, y, lon, lat, benefit, mean, sd, p_exceed', () => {
-    const lines = suggestionsToCsv(design()).split('\n');
+    const [caution, ...lines] = suggestionsToCsv(design()).split('\n');
+    expect(caution).toBe(`# ${CAUTION} Written by ${SOFTWARE}.`);
     expect(lines[0]).toBe('rank,x,y,lon,lat,benefit,mean,sd,p_exceed');
     expect(lines[1]).toBe('1,500010.25,5400020.5,15.0001235,48.7523457,512.25,180.5,35.1,0.29');
     expect(lines[2]).toBe('2,500110,5400120,15.002,48.754,300.1,220,30,0.74');
@@ -77,7 +79,7 @@ describe('suggestionsToCsv', () => {
   });
 
   it('suggestionsToCsv uses the samples\' CRS coordinates when given, and drops p_exceed without a threshold', () => {
-    const text = suggestionsToCsv(design({ threshold: null }), { inputX: [15.0001234567, 15.002], inputY: [48.7523456789, 48.754], newline: '\r\n' });
+    const text = suggestionsToCsv(design({ threshold: null }), { inputX: [15.0001234567, 15.002], inputY: [48.7523456789, 48.754], newline: '\r\n', caution: false });
     const lines = text.split('\r\n');
     expect(lines[0]).toBe('rank,x,y,lon,lat,benefit,mean,sd');
     expect(lines[1].split(',').slice(0, 3)).toEqual(['1', '15.0001234567', '48.7523456789']);
@@ -85,13 +87,13 @@ describe('suggestionsToCsv', () => {
   });
 
   it('suggestionsToCsv writes negative numbers as numbers (no apostrophe: only text cells are neutralised)', () => {
-    const text = suggestionsToCsv(design({ threshold: null }), { inputX: [-12.5, -0.001], inputY: [-3e-7, 4] });
+    const text = suggestionsToCsv(design({ threshold: null }), { inputX: [-12.5, -0.001], inputY: [-3e-7, 4], caution: false });
     expect(text.split('\n')[1].split(',').slice(0, 3)).toEqual(['1', '-12.5', '-3e-7']);
     expect(text).not.toContain("'");
   });
 
   it('suggestionsToCsv leaves lon and lat empty for local coordinates without a CRS', () => {
-    const text = suggestionsToCsv(design({ suggestions: [{ rank: 1, x: 12.5, y: 40, benefit: 2, mean: 3, sd: 1, pExceed: 0.5 }] }));
+    const text = suggestionsToCsv(design({ suggestions: [{ rank: 1, x: 12.5, y: 40, benefit: 2, mean: 3, sd: 1, pExceed: 0.5 }] }), { caution: false });
     expect(text.split('\n')[1]).toBe('1,12.5,40,,,2,3,1,0.5');
   });
 });

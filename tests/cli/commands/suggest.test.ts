@@ -75,7 +75,8 @@ describe('suggest command', () => {
     expect(summary.mode).toBe('coverage');
     expect(summary.coverage_distance_after_m).toBeLessThan(summary.coverage_distance_before_m);
     expect(r.stderr).toContain(`caution: ${CAUTION}`);
-    const lines = ws.read('first.csv').trimEnd().split('\n');
+    const [caution, ...lines] = ws.read('first.csv').trimEnd().split('\n');
+    expect(caution).toBe(`# ${CAUTION} Written by ${SOFTWARE}.`);
     expect(lines[0]).toBe('rank,x,y,lon,lat,benefit,mean,sd');
     expect(lines).toHaveLength(5);
     const cells = lines[1].split(',');
