@@ -68,7 +68,7 @@ describe('Next samples and Report steps', () => {
 
     await design(page, 'decision', 5);
     expect(await page.locator('[data-testid=next-table] tbody tr').count()).toBe(5);
-    expect(await page.locator('[data-testid=next-table] thead').innerText()).toMatch(/Chance > level \(%\)/);
+    expect(await page.locator('[data-testid=next-table] thead').innerText()).toMatch(/Chance\s>\slevel\s\(%\)/);
     expect(await markerNumbers(page)).toEqual(['1', '2', '3', '4', '5']);
     expect(await page.locator('[data-testid=next-figures]').innerText()).toMatch(/Expected area on the wrong side of/);
 

@@ -81,7 +81,7 @@ export interface SurfaceChoices {
   support: 'point' | 'block';
   /** Block support: discretisation points per cell side (1..16). */
   blockPoints: number;
-  /** Point values from all samples ('exact'), local neighbourhoods ('local'), or 'auto' by sample count. */
+  /** Point values from all samples ('exact'), local neighbourhoods ('local'), or 'auto' by estimated cost (core/path-choice.ts). */
   method: 'auto' | 'exact' | 'local';
 }
 
