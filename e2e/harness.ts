@@ -250,3 +250,14 @@ export async function computeSurface(page: Page, layer?: string): Promise<void> 
   const drawn = `[data-testid=surface-layer][data-complete=yes]${layer ? `[data-layer=${layer}]` : ''}`;
   await page.waitForSelector(drawn, { timeout: WAIT, state: 'attached' });
 }
+
+/** Waits until the autosave has been quiet for a second (it writes 300 ms after the last change). */
+export async function waitForSave(page: Page): Promise<void> {
+  // A change made just now is written 300 ms later: give it time to start, then wait for quiet.
+  await page.waitForTimeout(1000);
+  await page.waitForFunction(() => {
+    const at = Number(document.querySelector('[data-testid=save-status]')?.getAttribute('data-saved-at') || 0);
+    return at > 0 && Date.now() - at > 1000;
+  }, null, { timeout: WAIT });
+  expect(await page.locator('[data-testid=save-status]').innerText()).toBe('Saved in this browser');
+}

@@ -10,7 +10,7 @@ import { cpSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:f
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import type { Browser, Page } from 'playwright-core';
-import { expectClean, launchBrowser, LONG, openPage, openStep, ROOT, shot, WAIT, type Watched } from './harness.ts';
+import { expectClean, launchBrowser, LONG, openPage, openStep, ROOT, shot, WAIT, waitForSave, type Watched } from './harness.ts';
 import { serveStatic, type StaticServer } from '../src/cli/static-server.ts';
 import { writeServiceWorker } from '../pwa/build-service-worker.ts';
 import { SOFTWARE } from '../src/core/version.ts';
@@ -72,15 +72,6 @@ async function surface(page: Page): Promise<void> {
 
 type Hook = { sessionDigest(): Record<string, unknown> };
 const digest = (page: Page) => page.evaluate(() => (window as unknown as { __gapwiseTest: Hook }).__gapwiseTest.sessionDigest());
-
-/** Waits until the autosave has been quiet for a second (it writes 300 ms after the last change). */
-async function saved(page: Page): Promise<void> {
-  await page.waitForTimeout(1000);
-  await page.waitForFunction(() => {
-    const at = Number(document.querySelector('[data-testid=save-status]')?.getAttribute('data-saved-at') || 0);
-    return at > 0 && Date.now() - at > 1000;
-  }, null, { timeout: WAIT });
-}
 
 describe('the built app offline', () => {
   it('after one visit, reloads and works with the server stopped and the browser offline: demo, EPSG list, fit, surface', async () => {
@@ -145,7 +136,7 @@ describe('a new deployment', () => {
       await keptOffline(page);
       await loadDemo(page);
       await fit(page);
-      await saved(page);
+      await waitForSave(page);
       const before = await digest(page);
 
       // The next build: another page (a marker in index.html) and its own service worker.

@@ -13,7 +13,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, shot, takeLongestTask, chooseCrs, type Watched } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, shot, takeLongestTask, chooseCrs, waitForSave, type Watched } from './harness.ts';
 import { fiveHundredCsv } from './files.ts';
 import { createRandom } from '../src/core/random.ts';
 
@@ -28,17 +28,6 @@ async function digest(page: Page): Promise<Record<string, unknown>> {
 
 async function engineRequests(page: Page): Promise<Record<string, number>> {
   return page.evaluate(() => (window as unknown as { __gapwiseTest: Hook }).__gapwiseTest.engineRequests());
-}
-
-/** Waits until the autosave has been quiet for a second (it writes 300 ms after the last change). */
-async function saved(page: Page): Promise<void> {
-  // A change made just now is written 300 ms later: give it time to start, then wait for quiet.
-  await page.waitForTimeout(1000);
-  await page.waitForFunction(() => {
-    const at = Number(document.querySelector('[data-testid=save-status]')?.getAttribute('data-saved-at') || 0);
-    return at > 0 && Date.now() - at > 1000;
-  }, null, { timeout: WAIT });
-  expect(await page.locator('[data-testid=save-status]').innerText()).toBe('Saved in this browser');
 }
 
 /**
@@ -125,7 +114,7 @@ describe('Reload and failed loads', () => {
     await page.selectOption('#ns-mode', 'variance');
     await page.click('[data-testid=suggest-sites]');
     await page.waitForSelector('[data-testid=next-result][data-mode=variance][data-count="5"]', { timeout: WAIT });
-    await saved(page);
+    await waitForSave(page);
     before = await digest(page);
     const computed = await engineRequests(page);
     expect(computed.fit ?? 0).toBeGreaterThan(0);
@@ -190,7 +179,7 @@ describe('Reload and failed loads', () => {
     figures.push(`screenshot ${await shot(page, 'rejected-boundary')}`);
     await page.waitForTimeout(800);
     expect(await digest(page)).toEqual(before);
-    await saved(page);
+    await waitForSave(page);
     const ms = await reloadAndTime(page);
     await page.waitForTimeout(400);
     figures.push(`reload after the rejected files: ${timing(ms)}`);
@@ -320,7 +309,7 @@ describe('Main thread (figures only)', () => {
       await page.click('[data-testid=suggest-sites]');
       await page.waitForSelector('[data-testid=next-result]', { timeout: WAIT });
     });
-    await saved(page);
+    await waitForSave(page);
     await step('reload', async () => {
       await reloadAndTime(page);
     });
