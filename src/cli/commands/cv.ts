@@ -8,6 +8,7 @@
  * kriging as the local path of predict and grid, m³/3 flops per sample. With M ≥ n − 1 it is the
  * closed form's answer.
  */
+import { SOFTWARE } from '../../core/version.ts';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { leaveOneOut, type LeaveOneOutResult } from '../../core/cross-validation.ts';
 import { localLeaveOneOut } from '../../core/local-cross-validation.ts';
@@ -69,7 +70,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       ]));
     }
     await writeOutput(io, out, `${lines.join('\n')}\n`);
-    io.stderr(`caution: ${CSV_CAUTION}\n`);
+    io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }
   const s = cv.summary;
   io.stdout(jsonText({

@@ -2,6 +2,7 @@
  * `gapwise inspect`: reads the samples (and a boundary) exactly as every other command does and
  * reports what was read: a JSON read report on stdout; --out writes the parsed samples as CSV.
  */
+import { SOFTWARE } from '../../core/version.ts';
 import { stringOption } from '../args.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, jsonText, outOption, readSamplesFile, writeOutput,
@@ -26,7 +27,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     }
     await writeOutput(io, out, `${lines.join('\n')}\n`);
     io.stderr(`wrote ${intake.table.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
-    io.stderr(`caution: ${CSV_CAUTION}\n`);
+    io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }
   const report: Record<string, unknown> = { caution: CAUTION, ...intake.report };
   if (boundary) report.boundary = boundary;

@@ -6,6 +6,7 @@
  * run is checked against exact kriging at a seeded subset of the targets (core/local-accuracy.ts),
  * grown or replaced when it misses --tolerance. The choice and the measured error are notes on stderr.
  */
+import { SOFTWARE } from '../../core/version.ts';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { createPredictor, type Prediction } from '../../core/kriging.ts';
 import { describeAccuracy, predictLocalChecked } from '../../core/local-accuracy.ts';
@@ -152,7 +153,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     lines.push(recordText(table.records[i], d) + d + cells.join(d));
   }
   await writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
-  io.stderr(`caution: ${CSV_CAUTION}\n`);
+  io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   return 0;
 }
 

@@ -4,6 +4,7 @@
  * action level; without a model: sites that cover the area evenly. Writes .geojson, .csv or .gpx by
  * the extension of --out and prints a JSON summary (with the caution) on stdout.
  */
+import { SOFTWARE } from '../../core/version.ts';
 import { refuseCovariateModel } from '../covariates.ts';
 import { GapwiseError, type Warning } from '../../core/errors.ts';
 import { suggestSites, type DesignMode, type DesignOptions, type DesignResult } from '../../core/design.ts';
@@ -186,7 +187,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
       : format === 'gpx' ? suggestionsToGpx(result, { unit: intake.report.unit || undefined })
         : suggestionsToCsv(result, { inputX: input.x, inputY: input.y });
     await writeOutput(io, out, text);
-    if (format === 'csv') io.stderr(`caution: ${CSV_CAUTION}\n`);
+    if (format === 'csv') io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }
 
   const unit = intake.report.unit;

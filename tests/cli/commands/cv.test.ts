@@ -1,3 +1,4 @@
+import { SOFTWARE } from '../../../src/core/version.ts';
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
 import { sampleIds } from '../../../src/io/sample-table.ts';
@@ -27,6 +28,7 @@ describe('cv command', () => {
       reason: 'up to 3,000 samples exact leave-one-out costs no more than checking local neighbourhoods against it',
     });
     expect(r.stderr).toContain(`caution: ${CAUTION}`);
+    expect(r.stderr).toContain(`Written by ${SOFTWARE}.`);
 
     const lines = ws.read('cv.csv').trimEnd().split('\n');
     expect(lines[0]).toBe('id,x,y,observed,predicted,sd_obs,error,standardised_error');
