@@ -1,3 +1,4 @@
+import { SOFTWARE } from '../../../../src/core/version.ts';
 import { describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
 import {
@@ -45,7 +46,10 @@ describe('exportFile', () => {
     expect(gjv.valid(obj, true)).toEqual([]);
     expect(obj.properties.caution).toBe(CAUTION);
     const csv = exportFile(result, 'csv', 'lead', { toInput: toLonLat });
-    const first = csv.text.split('\n')[1].split(',');
+    const [caution, header, row] = csv.text.split('\n');
+    expect(caution).toBe(`# ${CAUTION} Written by ${SOFTWARE}.`);
+    expect(header.startsWith('rank,x,y')).toBe(true);
+    const first = row.split(',');
     expect(Number(first[1])).toBeCloseTo(result.suggestions[0].lon!, 9);
     const gpx = exportFile(result, 'gpx', 'lead', { unit: 'mg/kg', time: new Date(0) });
     expect(gpx.name).toBe('lead-next-samples.gpx');
