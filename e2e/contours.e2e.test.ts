@@ -98,6 +98,23 @@ async function contoursOn(page: Page): Promise<{ all: number; action: number; lo
   };
 }
 
+type ContourLevel = { level: number; action: boolean; lines: number };
+
+/** The contour levels the map draws (the test hook), with the action level marked. */
+async function contourLevels(page: Page): Promise<ContourLevel[] | null> {
+  return page.evaluate(() => (window as unknown as { __gapwiseTest: { contourLines(): ContourLevel[] | null } }).__gapwiseTest.contourLines());
+}
+
+/** Reads across the drawn action line: it must lie where the surface crosses the level; the figures are printed. */
+async function checkActionLine(page: Page, tag: string, counts: { all: number; longestMs: number }, levels: ContourLevel[]): Promise<void> {
+  const x = await readAcrossActionLine(page);
+  figures.push(`${tag}: longest main-thread task while the lines were computed and drawn ${counts.longestMs.toFixed(0)} ms (0 = none over 50 ms)`);
+  figures.push(`${tag}: ${counts.all} contour paths, levels ${levels.map((c) => c.level).join(', ')}; action line: ${x.across} of ${x.points} points with the cells a cell (${x.cellPx.toFixed(1)} px) either side across ${x.level}, ${x.astray} astray`);
+  expect(x.points).toBeGreaterThanOrEqual(10);
+  expect(x.astray).toBe(0);
+  expect(x.across / x.points).toBeGreaterThan(0.8);
+}
+
 describe('Contour lines on the map', () => {
   it('draws the mean\'s contour lines on a planar map of local coordinates, the action level where the surface crosses it', async () => {
     const w = await openPage(run.h);
@@ -127,18 +144,13 @@ describe('Contour lines on the map', () => {
     await computeSurface(page, 'mean');
 
     const counts = await contoursOn(page);
-    const levels = await page.evaluate(() => (window as unknown as { __gapwiseTest: { contourLines(): Array<{ level: number; action: boolean; lines: number }> | null } }).__gapwiseTest.contourLines());
+    const levels = await contourLevels(page);
     expect(levels!.filter((c) => c.action).map((c) => c.level)).toEqual([80]);
     expect(levels!.length).toBeGreaterThanOrEqual(4);
     // One SVG path per level drawn (a polyline of several parts is one path).
     expect(counts.all).toBe(levels!.filter((c) => c.lines > 0).length);
     expect(counts.action).toBe(1);
-    const x = await readAcrossActionLine(page);
-    figures.push(`local: longest main-thread task while the lines were computed and drawn ${counts.longestMs.toFixed(0)} ms (0 = none over 50 ms)`);
-    figures.push(`local: ${counts.all} contour paths, levels ${levels!.map((c) => c.level).join(', ')}; action line: ${x.across} of ${x.points} points with the cells a cell (${x.cellPx.toFixed(1)} px) either side across ${x.level}, ${x.astray} astray`);
-    expect(x.points).toBeGreaterThanOrEqual(10);
-    expect(x.astray).toBe(0);
-    expect(x.across / x.points).toBeGreaterThan(0.8);
+    await checkActionLine(page, 'local', counts, levels!);
     figures.push(`screenshot ${await shot(page, '8-contours-local-1280x800')}`);
 
     // Off again: the lines go.
@@ -153,16 +165,11 @@ describe('Contour lines on the map', () => {
     const { page } = w;
     expect(await page.locator('[data-testid=map]').getAttribute('data-planar')).toBe('no');
     const counts = await contoursOn(page);
-    const levels = await page.evaluate(() => (window as unknown as { __gapwiseTest: { contourLines(): Array<{ level: number; action: boolean; lines: number }> | null } }).__gapwiseTest.contourLines());
+    const levels = await contourLevels(page);
     expect(levels!.filter((c) => c.action).map((c) => c.level)).toEqual([200]);
     expect(counts.action).toBe(1);
     expect(counts.all).toBeGreaterThanOrEqual(3);
-    const x = await readAcrossActionLine(page);
-    figures.push(`demo: longest main-thread task while the lines were computed and drawn ${counts.longestMs.toFixed(0)} ms (0 = none over 50 ms)`);
-    figures.push(`demo: ${counts.all} contour paths, levels ${levels!.map((c) => c.level).join(', ')}; action line: ${x.across} of ${x.points} points with the cells a cell (${x.cellPx.toFixed(1)} px) either side across ${x.level}, ${x.astray} astray`);
-    expect(x.points).toBeGreaterThanOrEqual(10);
-    expect(x.astray).toBe(0);
-    expect(x.across / x.points).toBeGreaterThan(0.8);
+    await checkActionLine(page, 'demo', counts, levels!);
     figures.push(`screenshot ${await shot(page, '8-contours-demo-1280x800')}`);
 
     // A new action level and a new surface: the bold line follows.
