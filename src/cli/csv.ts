@@ -3,6 +3,7 @@
  * record while keeping each record's original text, so that `predict` can write the rows back
  * verbatim with its columns appended (RFC 4180 quoting; comma, semicolon or tab delimiters).
  */
+import Papa from 'papaparse';
 import { GapwiseError } from '../core/errors.ts';
 import { detectDelimiter, normaliseText } from '../io/csv.ts';
 import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
@@ -41,7 +42,8 @@ export function recordText(record: CsvRecord, delimiter: string): string {
 }
 
 /**
- * Splits CSV text into records, keeping the raw text of each. Blank lines are skipped.
+ * Splits CSV text into records with papaparse (the parser the samples intake uses), keeping the raw
+ * text of each record from the parser's cursor. Blank lines are skipped.
  * Throws GapwiseError('bad-file') for an unclosed quote or a file without a header.
  */
 export function readCsvTable(text: string, fileName: string): CsvTable {
@@ -52,63 +54,35 @@ export function readCsvTable(text: string, fileName: string): CsvTable {
   // The same delimiter choice as the samples intake.
   const delimiter = detectDelimiter(normaliseText(body));
   const records: CsvRecord[] = [];
-  let i = 0;
+  let start = 0;
   let line = 1;
-  while (i < body.length) {
-    const start = i;
-    const startLine = line;
-    const cells: string[] = [];
-    let cell = '';
-    let quoted = false;
-    let end = -1;
-    let next = body.length;
-    while (i < body.length) {
-      const ch = body[i];
-      if (quoted) {
-        if (ch === '"') {
-          if (body[i + 1] === '"') {
-            cell += '"';
-            i += 2;
-            continue;
-          }
-          quoted = false;
-        } else {
-          if (ch === '\n') line++;
-          cell += ch;
-        }
-        i++;
-        continue;
+  Papa.parse<string[]>(body, {
+    delimiter,
+    // Records end at LF; a CR before it is the CRLF ending, taken off below, so files that mix CRLF
+    // and LF lines split where a reader of either kind expects.
+    newline: '\n',
+    quoteChar: '"',
+    escapeChar: '"',
+    skipEmptyLines: false,
+    header: false,
+    dynamicTyping: false,
+    step: (row) => {
+      const cursor = row.meta.cursor;
+      let end = body[cursor - 1] === '\n' ? cursor - 1 : cursor;
+      if (end > start && body[end - 1] === '\r') end--;
+      const raw = body.slice(start, end);
+      const cells = row.data;
+      const last = cells.length - 1;
+      if (end < cursor && body[end] === '\r' && !raw.endsWith('"') && cells[last].endsWith('\r')) cells[last] = cells[last].slice(0, -1);
+      if (row.errors.some((e) => e.code === 'MissingQuotes')) {
+        throw new GapwiseError('bad-file', 'A quoted cell is never closed; expected a closing double quote.', { file: fileName, row: line });
       }
-      if (ch === '"' && cell.trim() === '') {
-        quoted = true;
-        cell = '';
-        i++;
-        continue;
-      }
-      if (ch === delimiter) {
-        cells.push(cell);
-        cell = '';
-        i++;
-        continue;
-      }
-      if (ch === '\n' || (ch === '\r' && body[i + 1] === '\n')) {
-        end = i;
-        next = ch === '\r' ? i + 2 : i + 1;
-        break;
-      }
-      cell += ch;
-      i++;
-    }
-    if (quoted) {
-      throw new GapwiseError('bad-file', 'A quoted cell is never closed; expected a closing double quote.', { file: fileName, row: startLine });
-    }
-    cells.push(cell);
-    const raw = body.slice(start, end === -1 ? body.length : end);
-    i = next;
-    line++;
-    if (raw.trim() === '') continue;
-    records.push({ cells, raw, line: startLine });
-  }
+      if (raw.trim() !== '') records.push({ cells, raw, line });
+      // The next record starts after this one's line breaks, those inside quoted cells included.
+      for (let i = body.indexOf('\n', start); i !== -1 && i < cursor; i = body.indexOf('\n', i + 1)) line++;
+      start = cursor;
+    },
+  });
   const header = records.shift();
   if (!header) throw new GapwiseError('bad-file', 'The file is empty; expected a header line and at least one row.', { file: fileName });
   return { delimiter, newline, header, records };

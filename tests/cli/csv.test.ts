@@ -73,3 +73,13 @@ describe('formatNumber', () => {
     expect(formatNumber(0)).toBe('0');
   });
 });
+
+describe('readCsvTable line endings', () => {
+  it('readCsvTable splits a file that mixes CRLF and LF lines at every line end, keeping raw text without the ending', () => {
+    const t = readCsvTable('id,x\r\na,1\nb,"2"\r\nc,3', 'm.csv');
+    expect(t.newline).toBe('\r\n');
+    expect(t.records.map((r) => r.cells)).toEqual([['a', '1'], ['b', '2'], ['c', '3']]);
+    expect(t.records.map((r) => r.raw)).toEqual(['a,1', 'b,"2"', 'c,3']);
+    expect(t.records.map((r) => r.line)).toEqual([2, 3, 4]);
+  });
+});
