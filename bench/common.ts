@@ -1,7 +1,7 @@
 // Pieces every benchmark shares: the row each suite returns to bench/run.ts, and seeded invented
 // samples on a square at UTM-like coordinates (a smooth wave pattern plus unit noise).
-import { createRandom } from '../src/core/random.ts';
-import type { Samples } from '../src/core/samples.ts';
+import { createRandom } from '../src/core/shared/random.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
 
 /** One benchmark figure; bench/run.ts prints these as a table and writes them to JSON. */
 export interface Row {

@@ -3,7 +3,7 @@
 // UTM zone 33 (each vertex through the inverse projection to latitude/longitude). Median of 5 runs.
 import { mapContours } from '../src/ui/map/contour-lines.ts';
 import { LOCAL_CRS } from '../src/io/crs.ts';
-import type { Grid } from '../src/core/grid.ts';
+import type { Grid } from '../src/core/geometry/grid.ts';
 import type { Row } from './common.ts';
 
 function wave(n: number): { grid: Grid; values: Float64Array } {

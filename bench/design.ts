@@ -7,10 +7,10 @@
  */
 import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
-import { suggestSites, type DesignOptions, type DesignResult } from '../src/core/design.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
-import type { Samples } from '../src/core/samples.ts';
-import type { Polygon } from '../src/core/grid.ts';
+import { suggestSites, type DesignOptions, type DesignResult } from '../src/core/design/design.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
+import type { Polygon } from '../src/core/geometry/grid.ts';
 
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 250, nu: 1.5 }],

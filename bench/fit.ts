@@ -3,7 +3,7 @@
 // evaluation. n = 500: median of 3 runs; n = 2,000: one run (skipped with --quick). Then a REML fit
 // with two covariates in the mean (a distance and a three-level category) on 2,000 samples (500 with
 // --quick). Then a fitted
-// anisotropy (core/fit-anisotropy.ts: the isotropic fit, then azimuth and ratio) on 1,000 samples of an
+// anisotropy (core/fitting/fit-anisotropy.ts: the isotropic fit, then azimuth and ratio) on 1,000 samples of an
 // anisotropic field (azimuth 30°, ratio 0.4), one run, target < 20 s (300 samples with --quick).
 // Last, several analytes: `gapwise grid` (in process, as a user runs it) on a 200 × 200 grid from
 // 500 samples, one analyte and then four (--value a,b,c,d with a model set), target four < 4 × one.
@@ -14,14 +14,14 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../src/cli/main.ts';
-import { createRandom } from '../src/core/random.ts';
-import { fitModel } from '../src/core/fit.ts';
-import { fitAnisotropic } from '../src/core/fit-anisotropy.ts';
-import { createLikelihood } from '../src/core/likelihood.ts';
-import { simulateSamples } from '../src/core/simulate.ts';
-import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
-import type { Samples } from '../src/core/samples.ts';
-import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../src/core/covariates.ts';
+import { createRandom } from '../src/core/shared/random.ts';
+import { fitModel } from '../src/core/fitting/fit.ts';
+import { fitAnisotropic } from '../src/core/fitting/fit-anisotropy.ts';
+import { createLikelihood } from '../src/core/fitting/likelihood.ts';
+import { simulateSamples } from '../src/core/simulation/simulate.ts';
+import type { CorrelatedStructure, CovarianceModel } from '../src/core/covariance/model.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
+import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../src/core/covariance/covariates.ts';
 
 const truth: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],

@@ -23,9 +23,9 @@ import { join } from 'node:path';
 import { readSamples, readSamplesStream } from '../src/io/intake.ts';
 import { MAX_SAMPLE_ROWS } from '../src/io/intake-limits.ts';
 import { openInputFile } from '../src/cli/input-file.ts';
-import { GapwiseError } from '../src/core/errors.ts';
+import { GapwiseError } from '../src/core/shared/errors.ts';
 import { projectPolygons, readPolygons } from '../src/io/boundary.ts';
-import { createRandom } from '../src/core/random.ts';
+import { createRandom } from '../src/core/shared/random.ts';
 
 /** Invented lon/lat samples near 11.3° E, 48.5° N (seeded). */
 export function makeLonLatCsv(n: number, seed = 7): string {

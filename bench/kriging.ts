@@ -7,11 +7,11 @@
  */
 import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
-import { createPredictor } from '../src/core/kriging.ts';
-import { leaveOneOut } from '../src/core/cross-validation.ts';
-import { createRandom } from '../src/core/random.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
-import type { Samples } from '../src/core/samples.ts';
+import { createPredictor } from '../src/core/prediction/kriging.ts';
+import { leaveOneOut } from '../src/core/validation/cross-validation.ts';
+import { createRandom } from '../src/core/shared/random.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
 
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 400, nu: 1.5 }],

@@ -28,15 +28,15 @@ import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'nod
 import { tmpdir, availableParallelism, cpus, loadavg } from 'node:os';
 import { join } from 'node:path';
 import { spawnSync } from 'node:child_process';
-import { createPredictor } from '../src/core/kriging.ts';
-import { createLocalPredictor } from '../src/core/local-kriging.ts';
-import { vecchiaFit } from '../src/core/vecchia.ts';
+import { createPredictor } from '../src/core/prediction/kriging.ts';
+import { createLocalPredictor } from '../src/core/prediction/local-kriging.ts';
+import { vecchiaFit } from '../src/core/fitting/vecchia.ts';
 import { computeSurfaceParallel } from '../src/cli/parallel.ts';
 import { startVecchiaPool } from '../src/cli/vecchia-pool.ts';
-import { createRandom } from '../src/core/random.ts';
-import type { CorrelatedStructure, CovarianceModel } from '../src/core/model.ts';
-import type { Samples } from '../src/core/samples.ts';
-import type { Grid } from '../src/core/grid.ts';
+import { createRandom } from '../src/core/shared/random.ts';
+import type { CorrelatedStructure, CovarianceModel } from '../src/core/covariance/model.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
+import type { Grid } from '../src/core/geometry/grid.ts';
 
 const SILL = 1;
 const SCALE = 80;

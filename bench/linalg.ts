@@ -1,7 +1,7 @@
 /**
  * Linear algebra benchmark, TypeScript against WebAssembly against numpy/OpenBLAS in one run:
  *   - Cholesky of an n×n covariance matrix (n = 500 / 1,000 / 2,000): the WebAssembly SIMD kernel
- *     (src/core/linalg-wasm.ts, what choleskyInPlace uses when WebAssembly is there), the blocked
+ *     (src/core/linalg/linalg-wasm.ts, what choleskyInPlace uses when WebAssembly is there), the blocked
  *     TypeScript factorisation (choleskyBlockedInPlace, the reference and fallback), the plain
  *     unblocked version and ml-matrix 6.15.1 CholeskyDecomposition (skipped where it would take long);
  *   - triangular solves with many right-hand sides, L·X = B and Lᵀ·X = B (n = 2,000, m = 1,000),
@@ -27,13 +27,13 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import {
   choleskyBlockedInPlace, choleskyUnblockedInPlace, solveLowerMultipleJs, solveUpperTransposeMultipleJs,
-} from '../src/core/linalg.ts';
+} from '../src/core/linalg/linalg.ts';
 import {
   wasmCholeskyInPlace, wasmCrossCovarianceInto, wasmKernelActive, wasmSolveLowerMultiple, wasmSolveUpperTransposeMultiple,
-} from '../src/core/linalg-wasm.ts';
-import { crossCovarianceInto } from '../src/core/covariance.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
-import { createRandom } from '../src/core/random.ts';
+} from '../src/core/linalg/linalg-wasm.ts';
+import { crossCovarianceInto } from '../src/core/covariance/covariance.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
+import { createRandom } from '../src/core/shared/random.ts';
 
 /** An exponential covariance (scale 200 m, nugget 0.1) of n random points on a 1 km square. */
 function covarianceMatrix(n: number): Float64Array {

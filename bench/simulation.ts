@@ -12,12 +12,12 @@ import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
 import { availableParallelism } from 'node:os';
 import { simulateParallel, simulationThreads } from '../src/cli/simulation-pool.ts';
-import { simulateConditional, type ConditionalSimulationResult } from '../src/core/conditional-simulation.ts';
-import { createCirculantEmbedding } from '../src/core/circulant-embedding.ts';
-import { createFft2Plan } from '../src/core/fft.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
-import type { Samples } from '../src/core/samples.ts';
-import type { Grid } from '../src/core/grid.ts';
+import { simulateConditional, type ConditionalSimulationResult } from '../src/core/simulation/conditional-simulation.ts';
+import { createCirculantEmbedding } from '../src/core/simulation/circulant-embedding.ts';
+import { createFft2Plan } from '../src/core/simulation/fft.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
+import type { Samples } from '../src/core/shared/samples.ts';
+import type { Grid } from '../src/core/geometry/grid.ts';
 
 const MODEL: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 150, nu: 1.5 }],

@@ -9,9 +9,9 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import type { Download } from 'playwright-core';
 import { readSamples } from '../src/io/intake.ts';
-import { attachTrendCoefficients } from '../src/core/covariate-fit.ts';
+import { attachTrendCoefficients } from '../src/core/fitting/covariate-fit.ts';
 import { withChosenCovariates } from '../src/ui/state/covariates.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
 import { expectClean, openStep, WAIT, LONG, CAUTION, ROOT, useHarness, openPage, shot, pixelAt } from './harness.ts';
 
 const run = useHarness('Gapwise covariate figures');

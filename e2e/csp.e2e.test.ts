@@ -53,7 +53,7 @@ describe('Content-Security-Policy of the built app', () => {
     expect(ran).toBe(false);
     expect((await violations()).map((v) => v.split(' ')[0])).toEqual(['script-src-elem']);
 
-    // WebAssembly compiles in the page (the linear-algebra kernel, src/core/linalg-wasm.ts) with no violation.
+    // WebAssembly compiles in the page (the linear-algebra kernel, src/core/linalg/linalg-wasm.ts) with no violation.
     const compiled = await page.evaluate(() => {
       try {
         return new WebAssembly.Module(new Uint8Array([0, 97, 115, 109, 1, 0, 0, 0])) instanceof WebAssembly.Module;

@@ -3,7 +3,7 @@
  * (for the colour read-back), a hostile file, and a 500-sample file for timing. Seeded, so every run
  * sees the same numbers.
  */
-import { createRandom } from '../src/core/random.ts';
+import { createRandom } from '../src/core/shared/random.ts';
 
 /**
  * 25 samples on a 5 × 5 layout, 40 m apart, in WGS 84 / UTM zone 33N (EPSG:32633) about 3.7° west of

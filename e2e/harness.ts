@@ -10,7 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { preview, type PreviewServer } from 'vite';
 import { chromium, type Browser, type BrowserContext, type Page } from 'playwright-core';
 import { afterAll, beforeAll, expect } from 'vitest';
-export { CAUTION } from '../src/core/caution.ts';
+export { CAUTION } from '../src/core/shared/caution.ts';
 
 export const ROOT = resolve(fileURLToPath(new URL('.', import.meta.url)), '..');
 export const SCREENSHOTS = resolve(ROOT, 'e2e', 'screenshots');

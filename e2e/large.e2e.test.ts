@@ -7,7 +7,7 @@
 import { describe, expect, it } from 'vitest';
 import { expectClean, openStep, WAIT, LONG, useHarness, openPage, shot, takeLongestTask } from './harness.ts';
 import type { Page } from 'playwright-core';
-import { createRandom } from '../src/core/random.ts';
+import { createRandom } from '../src/core/shared/random.ts';
 
 const run = useHarness('Gapwise many-sample figures');
 const figures = run.figures;

@@ -13,7 +13,7 @@ import type { Browser, Page } from 'playwright-core';
 import { expectClean, launchBrowser, LONG, openPage, openStep, ROOT, shot, WAIT, waitForSave, type Watched } from './harness.ts';
 import { serveStatic, type StaticServer } from '../src/cli/static-server.ts';
 import { writeServiceWorker } from '../pwa/build-service-worker.ts';
-import { SOFTWARE } from '../src/core/version.ts';
+import { SOFTWARE } from '../src/core/shared/version.ts';
 
 const DIST = resolve(ROOT, 'dist');
 const LOOPBACK = /^http:\/\/127\.0\.0\.1:\d+\//;

@@ -13,8 +13,8 @@ import { tmpdir } from 'node:os';
 import { get } from 'node:http';
 import { join, resolve } from 'node:path';
 import { ROOT } from './harness.ts';
-import { SOFTWARE, GAPWISE_VERSION } from '../src/core/version.ts';
-import { CAUTION } from '../src/core/caution.ts';
+import { SOFTWARE, GAPWISE_VERSION } from '../src/core/shared/version.ts';
+import { CAUTION } from '../src/core/shared/caution.ts';
 import { readAsciiTag } from '../src/io/geotiff.ts';
 
 let scratch: string;

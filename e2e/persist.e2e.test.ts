@@ -15,7 +15,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import { expectClean, openStep, WAIT, LONG, useHarness, openPage, openDemo, shot, takeLongestTask, chooseCrs, waitForSave, type Watched } from './harness.ts';
 import { fiveHundredCsv } from './files.ts';
-import { createRandom } from '../src/core/random.ts';
+import { createRandom } from '../src/core/shared/random.ts';
 
 const run = useHarness('Reload and main-thread figures');
 const figures = run.figures;

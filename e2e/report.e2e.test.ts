@@ -12,7 +12,7 @@ import { chromium, type Browser } from 'playwright-core';
 import { CHROMIUM_ARGS, ROOT, SCREENSHOTS } from './harness.ts';
 import { createProject, projectIntake } from '../src/io/project.ts';
 import { prepareReport, reportHtml } from '../src/io/report.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
 
 const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
 

@@ -8,7 +8,7 @@
  *   ln Pb(s) = μ + hotspots(s) − clean-fill dip(s) + Z(s) + ε,
  * Z a zero-mean Gaussian field with a Matérn ν = 3/2 covariance (sill 0.30, scale 45 m; Rasmussen &
  * Williams 2006, eq. 4.17) and ε independent
- * measurement noise (sd 0.12), both drawn by src/core/simulate.ts (Cholesky factor of the covariance
+ * measurement noise (sd 0.12), both drawn by src/core/simulation/simulate.ts (Cholesky factor of the covariance
  * matrix). Hotspots are Gaussian bumps in log space (an old workshop and a spoil
  * heap); a strip of imported clean topsoil gives a few readings under the 5 mg/kg detection limit,
  * written "<5". One location was sampled twice (a field duplicate with a different reading).
@@ -25,9 +25,9 @@ import { writeFileSync, mkdirSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import proj4 from 'proj4';
-import { createRandom } from '../src/core/random.ts';
-import { simulateField } from '../src/core/simulate.ts';
-import type { CovarianceModel } from '../src/core/model.ts';
+import { createRandom } from '../src/core/shared/random.ts';
+import { simulateField } from '../src/core/simulation/simulate.ts';
+import type { CovarianceModel } from '../src/core/covariance/model.ts';
 import { bandsGeoTiff } from '../src/io/geotiff.ts';
 
 const SEED = 20240711;

@@ -95,16 +95,54 @@ describe('no import loops', () => {
     expect(loops((_from, d) => !d.typeOnly)).toEqual([]);
   });
   it('the loop finder finds a loop when there is one', () => {
-    const a = resolve(SRC, 'core/fit.ts');
-    const b = resolve(SRC, 'core/fit-options.ts');
+    const a = resolve(SRC, 'core/fitting/fit.ts');
+    const b = resolve(SRC, 'core/fitting/fit-options.ts');
     const saved = edges.get(b)!;
     edges.set(b, [...saved, { to: a, typeOnly: true }]);
     try {
       const found = loops((from) => layerOf(from) === 'core');
       expect(found).toHaveLength(1);
-      expect(found[0]).toEqual(expect.arrayContaining(['core/fit-options.ts', 'core/fit.ts']));
+      expect(found[0]).toEqual(expect.arrayContaining(['core/fitting/fit-options.ts', 'core/fitting/fit.ts']));
     } finally {
       edges.set(b, saved);
     }
   });
+});
+
+// The engine's folders, in the order they may depend on each other: a folder imports only itself and
+// folders before it. Fitting and prediction are the one pair that use each other (a fit estimates the
+// trend with the kriging system; the local predictor takes the nearest-neighbour trend estimate).
+const CORE_FOLDERS = ['shared', 'covariance', 'linalg', 'geometry', 'fitting', 'prediction', 'validation', 'design', 'simulation'];
+const PEERS = new Set(['fitting>prediction', 'prediction>fitting']);
+
+describe('core folders', () => {
+  const CORE = resolve(SRC, 'core');
+  const coreFiles = files(CORE);
+  it('every engine file lives in one of the capability folders, each with a README saying what it holds', () => {
+    const folders = new Set(coreFiles.map((f) => relative(CORE, f).split(/[\\/]/)[0]));
+    expect([...folders].sort()).toEqual([...CORE_FOLDERS].sort());
+    for (const folder of CORE_FOLDERS) {
+      const readme = readFileSync(join(CORE, folder, 'README.md'), 'utf8');
+      expect(readme.length, `core/${folder}/README.md`).toBeGreaterThan(80);
+    }
+  });
+  it('unit tests mirror the folders', () => {
+    const testFolders = readdirSync(resolve(SRC, '..', 'tests', 'core')).filter((f) => statSync(resolve(SRC, '..', 'tests', 'core', f)).isDirectory());
+    for (const f of testFolders) expect(CORE_FOLDERS, `tests/core/${f}`).toContain(f);
+    const loose = readdirSync(resolve(SRC, '..', 'tests', 'core')).filter((f) => f.endsWith('.ts'));
+    expect(loose).toEqual([]);
+  });
+  for (const file of coreFiles) {
+    const folder = relative(CORE, file).split(/[\\/]/)[0];
+    it(`core/${relative(CORE, file)} imports only its own folder and the folders before it`, () => {
+      const text = readFileSync(file, 'utf8');
+      const specs = [...text.matchAll(/(?:import|export)[^'"]*?from\s*['"](\.[^'"]+)['"]/g)].map((m) => m[1]);
+      for (const spec of specs) {
+        const target = relative(CORE, resolve(dirname(file), spec)).split(/[\\/]/)[0];
+        if (target === folder || PEERS.has(`${folder}>${target}`)) continue;
+        expect(CORE_FOLDERS.indexOf(target), `core/${relative(CORE, file)} imports ${spec}`).toBeGreaterThanOrEqual(0);
+        expect(CORE_FOLDERS.indexOf(target), `core/${relative(CORE, file)} imports ${spec}`).toBeLessThan(CORE_FOLDERS.indexOf(folder));
+      }
+    });
+  }
 });

@@ -13,10 +13,10 @@
  * bands per analyte, named by analyte; the grid CSV has the columns zinc_mean, zinc_sd,
  * zinc_p_exceed, lead_mean, ... Each analyte's numbers are those of a one-analyte run on the same grid.
  */
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { cellCount, type Grid } from '../core/grid.ts';
-import type { SurfaceResult } from '../core/surface.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
+import { cellCount, type Grid } from '../core/geometry/grid.ts';
+import type { SurfaceResult } from '../core/prediction/surface.ts';
 import type { IntakeResult } from '../io/types.ts';
 import { bandDescriptions, bandsGeoTiff } from '../io/geotiff.ts';
 import { analyteGridCsv } from '../io/grid-csv.ts';

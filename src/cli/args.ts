@@ -3,7 +3,7 @@
  * against a command's option list. Anything it does not know is an error naming the option
  * (`GapwiseError('bad-option')`, exit code 2), never silently ignored.
  */
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 
 export type OptionKind = 'string' | 'number' | 'boolean';
 

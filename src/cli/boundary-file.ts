@@ -2,8 +2,8 @@
  * Reads a boundary GeoJSON for a command and reports it: the polygons, their area in the working
  * CRS (shoelace formula, holes subtracted) and which samples lie outside.
  */
-import { polygonsArea } from '../core/polygon.ts';
-import { GapwiseError } from '../core/errors.ts';
+import { polygonsArea } from '../core/geometry/polygon.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { pointInPolygons, projectPolygons, readPolygons, type Polygon } from '../io/boundary.ts';
 import type { IntakeResult } from '../io/types.ts';
 import { sampleId } from '../io/sample-table.ts';

@@ -6,19 +6,19 @@
  */
 import { resolve } from 'node:path';
 import { availableParallelism } from 'node:os';
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import { parseModel, type CovarianceModel } from '../core/model.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
 import { SampleIntake, readSamples } from '../io/intake.ts';
 import { openInputFile, readInputText } from './input-file.ts';
 import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../core/local-kriging.ts';
+import { DEFAULT_LOCAL_NEIGHBORS } from '../core/prediction/local-kriging.ts';
 import {
   CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS,
   chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance,
-} from '../core/path-choice.ts';
-import { MAX_GROWN_NEIGHBORS } from '../core/local-accuracy.ts';
+} from '../core/prediction/path-choice.ts';
+import { MAX_GROWN_NEIGHBORS } from '../core/prediction/local-accuracy.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 import { writeFileSafely, type OutputData } from './safe-write.ts';
 
@@ -326,7 +326,7 @@ export interface PathJob {
 
 /**
  * Reads --neighbors, --exact, --local, --tolerance, --global-mean and --local-mean for `n` samples
- * and chooses the path (core/path-choice.ts) unless --exact or --local says. Throws
+ * and chooses the path (core/prediction/path-choice.ts) unless --exact or --local says. Throws
  * GapwiseError('bad-option') for contradictory or out-of-range values.
  */
 export function readPredictionPath(values: OptionValues, n: number, job: PathJob = { targets: n }): PredictionPath {

@@ -4,10 +4,10 @@
  * columns for `predict` (a missing column, an empty or a non-numeric cell is exit 2 naming the column
  * and the line).
  */
-import { GapwiseError } from '../core/errors.ts';
-import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../core/covariates.ts';
-import { isCovariateTrend, isKnownTrend, parseCovariateTrend, type CovariateTrend, type Trend } from '../core/model.ts';
-import type { Samples } from '../core/samples.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../core/covariance/covariates.ts';
+import { isCovariateTrend, isKnownTrend, parseCovariateTrend, type CovariateTrend, type Trend } from '../core/covariance/model.ts';
+import type { Samples } from '../core/shared/samples.ts';
 import type { IntakeResult } from '../io/types.ts';
 import { covariateColumns } from '../io/sample-columns.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../io/numbers.ts';

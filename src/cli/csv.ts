@@ -4,7 +4,7 @@
  * verbatim with its columns appended (RFC 4180 quoting; comma, semicolon or tab delimiters).
  */
 import Papa from 'papaparse';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { detectDelimiter, normaliseText } from '../io/csv.ts';
 import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
 import { formatFullPrecision } from '../io/format.ts';

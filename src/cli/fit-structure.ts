@@ -1,17 +1,17 @@
 /**
  * `fit --anisotropy` and `fit --structures 2`: the options, their checks, the fit they choose
- * (core/fit-anisotropy.ts, core/fit-nested.ts, else core/fit.ts fitModel) and the comparison table
+ * (core/fitting/fit-anisotropy.ts, core/fitting/fit-nested.ts, else core/fitting/fit.ts fitModel) and the comparison table
  * printed on stderr (the rows also go into the model's "fit": "comparison").
  */
-import type { CovarianceModel } from '../core/model.ts';
-import type { Samples } from '../core/samples.ts';
-import type { FitOptions, FitProgress } from '../core/fit.ts';
-import type { FitComparisonRow } from '../core/fit-anisotropy.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { FitOptions, FitProgress } from '../core/fitting/fit.ts';
+import type { FitComparisonRow } from '../core/fitting/fit-anisotropy.ts';
 import type { OptionSpec } from './args.ts';
-import { GapwiseError } from '../core/errors.ts';
-import { fitModel } from '../core/fit.ts';
-import { fitAnisotropic } from '../core/fit-anisotropy.ts';
-import { fitNested } from '../core/fit-nested.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { fitModel } from '../core/fitting/fit.ts';
+import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
+import { fitNested } from '../core/fitting/fit-nested.ts';
 import { booleanOption, numberOption } from './args.ts';
 import { printNotes, type CliIo, type OptionValues } from './common.ts';
 

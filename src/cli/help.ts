@@ -4,7 +4,7 @@
  */
 import type { OptionSpec } from './args.ts';
 import { AUTOMATIC_PATH_TEXT, CAUTION, count, type CommandSpec } from './common.ts';
-import { EXACT_FIT_LIMIT } from '../core/vecchia.ts';
+import { EXACT_FIT_LIMIT } from '../core/fitting/vecchia.ts';
 
 const WIDTH = 100;
 

@@ -5,7 +5,7 @@
  */
 import { closeSync, fstatSync, openSync, readSync, statSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { MAX_SAMPLE_BYTES, megabytes } from '../io/intake-limits.ts';
 
 /** Bytes read from the disk at a time. */

@@ -1,17 +1,17 @@
-// The measured error of a local-neighbourhood grid surface (core/local-accuracy.ts): exact kriging at
+// The measured error of a local-neighbourhood grid surface (core/prediction/local-accuracy.ts): exact kriging at
 // a seeded subset of the cells against the values computed, and — when the tolerance is missed — a
 // larger neighbourhood rerun through the worker pool, or exact kriging.
-import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import { cellCentres, type Grid } from '../core/grid.ts';
-import type { SurfaceResult } from '../core/surface.ts';
-import { createLocalPredictor, globalMeanCoefficients } from '../core/local-kriging.ts';
-import { covariateColumnCount, trendColumnCount } from '../core/trend.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import { cellCentres, type Grid } from '../core/geometry/grid.ts';
+import type { SurfaceResult } from '../core/prediction/surface.ts';
+import { createLocalPredictor, globalMeanCoefficients } from '../core/prediction/local-kriging.ts';
+import { covariateColumnCount, trendColumnCount } from '../core/covariance/trend.ts';
 import {
   DEFAULT_CHECK_SEED, checkedValues, chooseCheckTargets, compareWithReference, findGrowth, referencePredictions,
   type CheckedValues, type GrowthAttempt, type LocalAccuracy, type LocalSettings,
-} from '../core/local-accuracy.ts';
-import { EXACT_SAMPLE_LIMIT, checkCount, type Tolerance } from '../core/path-choice.ts';
+} from '../core/prediction/local-accuracy.ts';
+import { EXACT_SAMPLE_LIMIT, checkCount, type Tolerance } from '../core/prediction/path-choice.ts';
 
 /** What checkLocalSurface needs (the surface was computed with `settings` and tiles of the grid's cell). */
 export interface LocalSurfaceCheck {

@@ -4,14 +4,14 @@
  * message names the file, line and column, no stack trace); 3 the numbers failed (kind 'numeric':
  * why, and what to try); 1 a bug (anything else, with its stack).
  */
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { parseArgs } from './args.ts';
 import type { CliIo, CommandSpec, OptionValues } from './common.ts';
 import { checkOutputTarget, installSignalCleanup, type RunInput } from './safe-write.ts';
 import { terminalSafeIo } from './terminal-text.ts';
 import { COMMANDS, PLANNED } from './commands/index.ts';
 import { commandHelp, toolHelp } from './help.ts';
-import { SOFTWARE } from '../core/version.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
 
 /**
  * The process's own streams and working directory. Installs the signal handlers that remove a

@@ -1,7 +1,7 @@
 // A worker_threads pool that computes grid surfaces in row bands, for the CLI.
 //
 // One worker per available core (os.availableParallelism(), or `workers`); each builds the predictor
-// once (exact: kriging.ts, local neighbourhoods: core/local-kriging.ts) and then takes bands of rows
+// once (exact: kriging.ts, local neighbourhoods: core/prediction/local-kriging.ts) and then takes bands of rows
 // from a shared queue until none are left, so fast and slow bands balance out. Every cell is computed
 // the same way whichever worker gets it, so the result equals the single-thread one bit for bit.
 // Workers run the TypeScript sources through tsx's loader in a checkout (no build step), and the
@@ -12,14 +12,14 @@ import { createRequire } from 'node:module';
 import { pathToFileURL } from 'node:url';
 import { readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
-import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { Grid } from '../core/grid.ts';
-import { cellCount } from '../core/grid.ts';
-import { GapwiseError, type ErrorCode, type Warning } from '../core/errors.ts';
-import { createPredictor } from '../core/kriging.ts';
-import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/local-kriging.ts';
-import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/surface.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import { cellCount } from '../core/geometry/grid.ts';
+import { GapwiseError, type ErrorCode, type Warning } from '../core/shared/errors.ts';
+import { createPredictor } from '../core/prediction/kriging.ts';
+import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
+import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
 
 export type SurfacePath = 'exact' | 'local';
 
@@ -69,7 +69,7 @@ export function chooseSurfacePath(n: number, cells: number): SurfacePath {
 /** The predictor a job asks for (used by the workers and by the single-thread path). */
 export function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
   if (job.path === 'exact') return createPredictor(job.samples, job.model);
-  // Grid cells one cell apart may share tile neighbourhoods (core/local-kriging.ts chooseTile).
+  // Grid cells one cell apart may share tile neighbourhoods (core/prediction/local-kriging.ts chooseTile).
   return createLocalPredictor(job.samples, job.model, { ...job.local, targetSpacing: job.local?.targetSpacing ?? job.grid.cell });
 }
 

@@ -8,9 +8,9 @@
  * fitting choices for `fit`, and the stored suggestion options. Options given explicitly win.
  * Options that were required (--samples, --model) become "required unless --project gives them".
  */
-import { GapwiseError } from '../core/errors.ts';
-import type { CovarianceModel, Family } from '../core/model.ts';
-import { isCovariateTrend } from '../core/model.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { CovarianceModel, Family } from '../core/covariance/model.ts';
+import { isCovariateTrend } from '../core/covariance/model.ts';
 import { openProject, projectIntake, type OpenedProject, type Project } from '../io/project.ts';
 import type { OptionSpec } from './args.ts';
 import { stringOption } from './args.ts';

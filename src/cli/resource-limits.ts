@@ -14,8 +14,8 @@
  * classic TIFF can address.
  */
 import { totalmem } from 'node:os';
-import { GapwiseError } from '../core/errors.ts';
-import type { Grid } from '../core/grid.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { Grid } from '../core/geometry/grid.ts';
 
 /** Largest torus the core's circulant embedding accepts, in nodes (conditional-simulation.ts). */
 const LATTICE_CAP = 1 << 22;

@@ -22,7 +22,7 @@ import {
 } from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
 import { randomBytes } from 'node:crypto';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 
 /** Bytes written between two turns of the event loop, so that a signal is handled during a long write. */
 const CHUNK_BYTES = 4 * 1024 * 1024;

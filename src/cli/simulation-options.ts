@@ -5,20 +5,20 @@
  * `grid` lists GRID_SIMULATION_OPTIONS (--support point|block, --block-points K, --realizations N,
  * --seed S, --depth D); `simulate` lists SIMULATE_OPTIONS (the same with --count N instead of
  * --realizations). With --support block and no realisations, cells are block-kriged averages
- * (core/block-kriging.ts); with realisations, P(exceed) comes from conditional simulation
- * (core/conditional-simulation.ts) and the area above the threshold gets a median and 90 % interval.
+ * (core/prediction/block-kriging.ts); with realisations, P(exceed) comes from conditional simulation
+ * (core/simulation/conditional-simulation.ts) and the area above the threshold gets a median and 90 % interval.
  * A log model with --support block needs realisations (block averages of a lognormal surface have
  * no closed form): asking without them is an option error that says so.
  * Realisations are drawn over worker threads (./simulation-pool.ts, --workers), equal to one run.
  */
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { Samples } from '../core/samples.ts';
-import type { Grid } from '../core/grid.ts';
-import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/block-kriging.ts';
-import { MAX_REALISATIONS } from '../core/conditional-simulation.ts';
-import type { ExceedanceAreaSummary } from '../core/exceedance-area.ts';
-import type { SurfaceResult } from '../core/surface.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/prediction/block-kriging.ts';
+import { MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
+import type { ExceedanceAreaSummary } from '../core/prediction/exceedance-area.ts';
+import type { SurfaceResult } from '../core/prediction/surface.ts';
 import { numberOption, stringOption, type OptionSpec } from './args.ts';
 import { naming, type OptionValues } from './common.ts';
 import { simulateParallel, simulationThreads } from './simulation-pool.ts';

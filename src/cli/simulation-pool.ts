@@ -11,14 +11,14 @@
 // One thread (workers = 1, or fewer than 4 realisations) runs in-process without starting workers.
 import type { Worker } from 'node:worker_threads';
 import { availableParallelism } from 'node:os';
-import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { Grid } from '../core/grid.ts';
-import { GapwiseError, type ErrorCode } from '../core/errors.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import { GapwiseError, type ErrorCode } from '../core/shared/errors.ts';
 import {
   MAX_REALISATIONS, mergeSimulationParts, simulateConditional, simulationPart,
   type ConditionalSimulationOptions, type ConditionalSimulationResult,
-} from '../core/conditional-simulation.ts';
+} from '../core/simulation/conditional-simulation.ts';
 import { startWorker } from './parallel.ts';
 
 /** The options of one part, without the callbacks (plain data, structured-cloned to a worker). */

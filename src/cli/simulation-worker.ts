@@ -4,8 +4,8 @@
 //                    { type: 'done', result }                          arrays transferred, not copied
 //                    { type: 'error', error: { code?, message } }
 import { parentPort } from 'node:worker_threads';
-import { GapwiseError } from '../core/errors.ts';
-import { simulateConditional } from '../core/conditional-simulation.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { simulateConditional } from '../core/simulation/conditional-simulation.ts';
 import { resultTransfer, type SimulationWorkerReply, type SimulationWorkerRequest } from './simulation-pool.ts';
 
 if (!parentPort) throw new Error('simulation-worker.ts must run as a worker thread.');

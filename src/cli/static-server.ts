@@ -9,7 +9,7 @@
 import { createServer, type IncomingMessage, type ServerResponse } from 'node:http';
 import { createReadStream, statSync } from 'node:fs';
 import { extname, join, resolve, sep } from 'node:path';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 
 const TYPES: Record<string, string> = {
   '.html': 'text/html; charset=utf-8',

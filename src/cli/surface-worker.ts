@@ -4,8 +4,8 @@
 //   worker → parent  { type: 'ready' } | { type: 'band', id, result } (arrays transferred)
 //                    { type: 'progress', id, done, total } | { type: 'error', id?, error }
 import { parentPort } from 'node:worker_threads';
-import { GapwiseError } from '../core/errors.ts';
-import { computeSurfaceWith, type SurfaceResult } from '../core/surface.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { computeSurfaceWith, type SurfaceResult } from '../core/prediction/surface.ts';
 import { buildSurfacePredictor, type SurfaceJob, type WorkerReply, type WorkerRequest } from './parallel.ts';
 
 if (!parentPort) throw new Error('surface-worker.ts must run as a worker thread.');

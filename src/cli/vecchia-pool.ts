@@ -1,4 +1,4 @@
-// Splits the passes of the nearest-neighbour likelihood (core/vecchia.ts) over worker threads, for
+// Splits the passes of the nearest-neighbour likelihood (core/fitting/vecchia.ts) over worker threads, for
 // the CLI's fits of many samples.
 //
 // The pass arrays live in SharedArrayBuffers handed to every worker once (`attach`). A pass is then
@@ -10,8 +10,8 @@
 // a new attachment or to stop.
 import type { Worker } from 'node:worker_threads';
 import { availableParallelism } from 'node:os';
-import { GapwiseError } from '../core/errors.ts';
-import { runVecchiaPass, type VecchiaPassData, type VecchiaPassJob, type VecchiaPassPart, type VecchiaThreads } from '../core/vecchia.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { runVecchiaPass, type VecchiaPassData, type VecchiaPassJob, type VecchiaPassPart, type VecchiaThreads } from '../core/fitting/vecchia.ts';
 import { startWorker } from './parallel.ts';
 
 /** Control words (Int32Array over a SharedArrayBuffer). */

@@ -4,7 +4,7 @@
 // After an attachment the worker blocks in Atomics.wait on the generation counter; for each new
 // generation it runs its part of the pass (command RUN) or returns to its event loop (LEAVE).
 import { parentPort } from 'node:worker_threads';
-import { runVecchiaPass } from '../core/vecchia.ts';
+import { runVecchiaPass } from '../core/fitting/vecchia.ts';
 import { COMMAND, FINISHED, GENERATION, LEAVE, RESULT, partRange, readJob, type VecchiaWorkerRequest, type VecchiaWorkerReply } from './vecchia-pool.ts';
 
 if (!parentPort) throw new Error('vecchia-worker.ts must run as a worker thread.');

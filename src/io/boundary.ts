@@ -4,9 +4,9 @@
  * have at least four positions and must not cross or touch themselves. Point-in-polygon by the even-odd rule over all rings, so holes
  * exclude; polygons can be projected to the working CRS.
  */
-import { pointInPolygon as corePointInPolygon, ringSelfCrossing } from '../core/polygon.ts';
+import { pointInPolygon as corePointInPolygon, ringSelfCrossing } from '../core/geometry/polygon.ts';
 import * as gjv from 'geojson-validation';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { createTransform } from './crs.ts';
 import { parseJson, propertyText, validationProblem } from './geojson.ts';
 

@@ -20,10 +20,10 @@
  */
 import { contours as d3Contours } from 'd3-contour';
 import type { Feature, FeatureCollection, MultiLineString, MultiPolygon, Position } from 'geojson';
-import { GapwiseError } from '../core/errors.ts';
-import { CAUTION } from '../core/caution.ts';
-import { SOFTWARE } from '../core/version.ts';
-import type { Grid } from '../core/grid.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
+import type { Grid } from '../core/geometry/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 
 export type ContourSurface = 'mean' | 'sd' | 'pExceed';

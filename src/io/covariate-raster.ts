@@ -10,10 +10,10 @@
  * NaN, which callers count as no-data. Cost: O(1) per point after one read of the band.
  */
 import { fromArrayBuffer } from 'geotiff';
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import { cellCentres, type Grid } from '../core/grid.ts';
-import { encodeCovariates, type CovariateColumn } from '../core/covariates.ts';
-import type { CovariateTrend } from '../core/model.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import { cellCentres, type Grid } from '../core/geometry/grid.ts';
+import { encodeCovariates, type CovariateColumn } from '../core/covariance/covariates.ts';
+import type { CovariateTrend } from '../core/covariance/model.ts';
 import { createTransform } from './crs.ts';
 
 /** A covariate raster as read: one band, north-up, values at cell centres. */

@@ -9,7 +9,7 @@
  * shift replaces the grid where there is one, otherwise the shift is dropped, and `notes` say so.
  */
 import proj4 from 'proj4';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 
 /** One EPSG entry as the app lists it. */
 export interface CrsListItem {

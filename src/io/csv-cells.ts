@@ -6,7 +6,7 @@
  * Every CSV Gapwise writes goes through `csvCell` / `csvLine` / `csvComment`, and its caution line
  * says so with `FORMULA_NOTE`.
  */
-import { CAUTION } from '../core/caution.ts';
+import { CAUTION } from '../core/shared/caution.ts';
 
 /** What the caution line of a CSV says about its text cells. */
 export const FORMULA_NOTE = "Text cells beginning with = + - @ or a tab or carriage return were prefixed with an apostrophe (') so that spreadsheets do not run them as formulas.";

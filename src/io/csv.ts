@@ -5,7 +5,7 @@
  * CR and LF line ends; skips blank lines; keeps every cell as plain text (never interpreted).
  */
 import Papa from 'papaparse';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 
 export type Delimiter = ',' | ';' | '\t';
 

@@ -5,7 +5,7 @@
  * the file. Properties are kept in a Map, so that names like "__proto__" are names like any other.
  */
 import * as gjv from 'geojson-validation';
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import type { ReportEntry } from './types.ts';
 
 /** One sample point from a feature (a MultiPoint gives one per position). */

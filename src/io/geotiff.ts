@@ -14,11 +14,11 @@
  * ImageDescription. ASCII tags hold UTF-8 text (GDAL reads it so).
  * Cost: one pass over the cells of each band; the file is 4·cells·bands bytes plus a few hundred.
  */
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import { CAUTION } from '../core/caution.ts';
-import { SOFTWARE } from '../core/version.ts';
-import type { Grid } from '../core/grid.ts';
-import type { LocalAccuracy } from '../core/local-accuracy.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import type { LocalAccuracy } from '../core/prediction/local-accuracy.ts';
 import { epsgCode, LOCAL_CRS } from './crs.ts';
 import { xml } from './markup.ts';
 
@@ -55,7 +55,7 @@ export interface GeoTiffInput {
   extraBands?: ReadonlyArray<{ name: string; values: ArrayLike<number> }>;
   /** Set when mean, sd, P(exceed) are per-cell summaries of this many realisations: the bands say so. */
   realisations?: number;
-  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
+  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/shared/version.ts). */
   software?: string;
   /** Local neighbourhoods: their measured error against exact kriging (written as metadata items). */
   accuracy?: LocalAccuracy;
@@ -63,7 +63,7 @@ export interface GeoTiffInput {
 
 /**
  * The measured error of local neighbourhoods as GDAL metadata items (percent of the prior sd; see
- * core/local-accuracy.ts), e.g. LOCAL_ERROR_MEAN_MAX_PCT = "0.13".
+ * core/prediction/local-accuracy.ts), e.g. LOCAL_ERROR_MEAN_MAX_PCT = "0.13".
  */
 export function localAccuracyMetadata(a: LocalAccuracy): Record<string, string> {
   const pct = (x: number): string => x.toPrecision(3);
@@ -93,7 +93,7 @@ export interface BandsGeoTiffInput {
   workCrs: string;
   /** First sentence(s) of ImageDescription; the screening caution is appended. */
   title: string;
-  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/version.ts). */
+  /** The TIFF Software tag; default the running version ("Gapwise 0.1.0", src/core/shared/version.ts). */
   software?: string;
   /** Dataset metadata items (GDAL metadata, default domain), e.g. the measured error of local neighbourhoods. */
   metadata?: Readonly<Record<string, string>>;

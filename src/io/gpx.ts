@@ -6,8 +6,8 @@
  * The metadata's desc carries the screening caution. Built with the `xml` template (io/markup.ts),
  * which escapes every value.
  */
-import { CAUTION } from '../core/caution.ts';
-import { SOFTWARE } from '../core/version.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
 import type { ExportableDesign } from './suggestions-export.ts';
 import { checkLonLat } from './suggestions-export.ts';
 import { joinMarkup, xml, type Markup } from './markup.ts';

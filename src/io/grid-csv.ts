@@ -7,9 +7,9 @@
  * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
  */
 import { CSV_CAUTION, csvCell, csvComment } from './csv-cells.ts';
-import { SOFTWARE } from '../core/version.ts';
-import type { Grid } from '../core/grid.ts';
-import { cellCentres } from '../core/grid.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import { cellCentres } from '../core/geometry/grid.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 
 export interface GridCsvInput {

@@ -3,8 +3,8 @@
  * accounts for every row (rejected, changed, merged or flagged, with its line or feature index, field,
  * raw text and reason). Shared by the app and the CLI; everything returned is plain data.
  */
-import { GapwiseError } from '../core/errors.ts';
-import type { Warning } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { Warning } from '../core/shared/errors.ts';
 import { CsvReader } from './csv.ts';
 import { readPointFeatures } from './geojson.ts';
 import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from './intake-limits.ts';

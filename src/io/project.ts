@@ -11,11 +11,11 @@
  * file and the field) and brings version 1 files up to version 2. `projectIntake`, `projectBoundary`
  * and `projectGrid` turn a project back into what the engine takes, the same way the app does.
  */
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import { CAUTION } from '../core/caution.ts';
-import { parseModel, type CovarianceModel } from '../core/model.ts';
-import { MAX_CELLS, gridBounds, gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/grid.ts';
-import { MAX_REALISATIONS as MAX_COUNT, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
+import { MAX_CELLS, gridBounds, gridForPolygons, planSurfaceGrid as planGrid, type Grid, type GridPlanOptions } from '../core/geometry/grid.ts';
+import { MAX_REALISATIONS as MAX_COUNT, type ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
 import { readSamples } from './intake.ts';
 import { projectPolygons, readPolygons, type Polygon } from './boundary.ts';
 import { LOCAL_CRS, checkGridInCrs } from './crs.ts';
@@ -607,9 +607,9 @@ export function projectBoundary(project: Project, workCrs: string): { lonLat: Po
   return { lonLat, work: projectPolygons(lonLat, workCrs) };
 }
 
-export { roundCell, type GridPlanOptions } from '../core/grid.ts';
+export { roundCell, type GridPlanOptions } from '../core/geometry/grid.ts';
 
-/** The grid a surface is computed on (see core/grid.ts planSurfaceGrid: one plan for app, files and CLI). */
+/** The grid a surface is computed on (see core/geometry/grid.ts planSurfaceGrid: one plan for app, files and CLI). */
 export function planSurfaceGrid(o: GridPlanOptions, workCrs?: string): Grid {
   const grid = planGrid(o).grid;
   if (workCrs !== undefined) checkGridInCrs(gridBounds(grid), workCrs);

@@ -5,7 +5,7 @@
  * bar and a north arrow), built with the `html` template (io/markup.ts), which escapes every value.
  * Units: map coordinates in working-CRS metres; values in data units.
  */
-import type { Grid } from '../core/grid.ts';
+import type { Grid } from '../core/geometry/grid.ts';
 import { colourAtT, hexColour, paletteFromLut, paletteIndices, type Lut } from './report-colours.ts';
 import { palettePng, pngDataUrl } from './report-png.ts';
 import { formatValue } from './format.ts';

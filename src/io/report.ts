@@ -16,18 +16,18 @@
  * can be drawn elsewhere (the command line draws them over threads): `reportSimulationJob` says what
  * to draw and `prepareReport({ simulate, drawn })` takes the result.
  */
-import { CAUTION } from '../core/caution.ts';
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import type { CovarianceModel, CovariateTrend, Structure } from '../core/model.ts';
-import { isCovariateTrend, nuggetOf } from '../core/model.ts';
-import type { Samples } from '../core/samples.ts';
-import { cellCount, type Grid } from '../core/grid.ts';
-import { computeSurface } from '../core/surface.ts';
-import { leaveOneOut, type LeaveOneOutResult } from '../core/cross-validation.ts';
-import { empiricalVariogram, type EmpiricalVariogram } from '../core/variogram.ts';
-import { surfaceCovariance, surfaceVariance } from '../core/covariance.ts';
-import { CANDIDATES, fitModel } from '../core/fit.ts';
-import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../core/conditional-simulation.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import type { CovarianceModel, CovariateTrend, Structure } from '../core/covariance/model.ts';
+import { isCovariateTrend, nuggetOf } from '../core/covariance/model.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import { cellCount, type Grid } from '../core/geometry/grid.ts';
+import { computeSurface } from '../core/prediction/surface.ts';
+import { leaveOneOut, type LeaveOneOutResult } from '../core/validation/cross-validation.ts';
+import { empiricalVariogram, type EmpiricalVariogram } from '../core/fitting/variogram.ts';
+import { surfaceCovariance, surfaceVariance } from '../core/covariance/covariance.ts';
+import { CANDIDATES, fitModel } from '../core/fitting/fit.ts';
+import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
 import type { Polygon } from './boundary.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 import type { IntakeResult } from './types.ts';
@@ -40,7 +40,7 @@ import {
   crossValidationSvg, finiteRange, histogramSvg, legendBarSvg, mapSvg, variogramSvg,
 } from './report-svg.ts';
 import { formatCoordinate, formatPercent, formatProbability, formatValue } from './format.ts';
-import type { LocalAccuracy } from '../core/local-accuracy.ts';
+import type { LocalAccuracy } from '../core/prediction/local-accuracy.ts';
 import { html, joinMarkup, trusted, type Interpolation, type Markup } from './markup.ts';
 
 /** Surfaces of the whole grid (nx·ny cells each). */
@@ -87,7 +87,7 @@ export interface ReportInput {
   /** Colour tables for the maps (default: the app's scales). */
   luts?: Partial<Record<ReportScale, Lut>>;
   warnings?: Warning[];
-  /** The surface came from local neighbourhoods: their measured error against exact kriging (core/local-accuracy.ts). */
+  /** The surface came from local neighbourhoods: their measured error against exact kriging (core/prediction/local-accuracy.ts). */
   localAccuracy?: LocalAccuracy | null;
   /** True when prepareReport computed the surface itself (exact kriging from all samples). */
   exactSurface?: boolean;

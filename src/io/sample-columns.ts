@@ -4,9 +4,9 @@
  * ""). Covariates of the mean come from here: `covariateColumns` reads the columns a covariate trend
  * names, with messages that name the column and line of a bad cell.
  */
-import type { CovariateColumn, CovariateSource } from '../core/covariates.ts';
-import type { CovariateTrend } from '../core/model.ts';
-import { GapwiseError } from '../core/errors.ts';
+import type { CovariateColumn, CovariateSource } from '../core/covariance/covariates.ts';
+import type { CovariateTrend } from '../core/covariance/model.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import { chooseMark, isMissing, parseColumnNumber } from './numbers.ts';
 import type { IntakeResult } from './types.ts';
 import { cellText } from './sample-table.ts';

@@ -5,10 +5,10 @@
  * a foreign member "properties" of the collection (RFC 7946 §6.1); the CSV has no place for it, so its
  * writers show the caution beside it.
  */
-import { GapwiseError } from '../core/errors.ts';
-import { CAUTION } from '../core/caution.ts';
-import { SOFTWARE } from '../core/version.ts';
-import type { DesignResult, Suggestion } from '../core/design.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import { CAUTION } from '../core/shared/caution.ts';
+import { SOFTWARE } from '../core/shared/version.ts';
+import type { DesignResult, Suggestion } from '../core/design/design.ts';
 import { csvComment, csvLine } from './csv-cells.ts';
 
 /** What the exports need of a design: its suggestions (lon and lat filled) and its summary. */

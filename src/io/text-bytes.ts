@@ -5,8 +5,8 @@
  * valid UTF-8 as Latin-1 (Windows-1252) with a warning. Used by the one intake for the app's worker
  * and the command line alike.
  */
-import { GapwiseError } from '../core/errors.ts';
-import type { Warning } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { Warning } from '../core/shared/errors.ts';
 
 /** Leading bytes of formats people pick by mistake (file signatures; common practice). */
 const SIGNATURES: Array<[string, number[]]> = [

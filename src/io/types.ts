@@ -3,8 +3,8 @@
  * Implemented by src/io/intake.ts (`readSamplesStream` for a file's bytes, `readSamples` for text). Everything
  * here is plain data (postMessage-safe).
  */
-import type { Samples } from '../core/samples.ts';
-import type { Warning } from '../core/errors.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { Warning } from '../core/shared/errors.ts';
 import type { ColumnMarks } from './numbers.ts';
 
 export type NonDetectRule = 'half' | 'dl' | 'sqrt2';

@@ -8,7 +8,7 @@
  * and posts the other waiting requests to it again (requests are copied on posting, so they are
  * still at hand). A worker that dies rejects everything waiting with EngineError and is replaced.
  */
-import { GapwiseError } from '../core/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import {
   EngineError, errorFromData, isEngineResponse,
   type EngineRequest, type RequestPayloads, type RequestType, type ResultPayloads,

@@ -1,14 +1,14 @@
 /**
- * The engine worker's "design" request: where to sample next (src/core/design.ts), as plain data in
+ * The engine worker's "design" request: where to sample next (src/core/design/design.ts), as plain data in
  * and out. The request handler registers it as one more request type:
  *   RequestPayloads.design = DesignRequestPayload, ResultPayloads.design = DesignResult,
  *   and in the dispatch: case 'design': return runDesignRequest(payload, progress);
  * Progress is reported in steps (area, evaluation points, candidates, each site).
  */
-import { suggestSites, type DesignOptions, type DesignResult } from '../core/design.ts';
-import { GapwiseError } from '../core/errors.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { Samples } from '../core/samples.ts';
+import { suggestSites, type DesignOptions, type DesignResult } from '../core/design/design.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Samples } from '../core/shared/samples.ts';
 
 /** What a design request carries (structured-clone safe). */
 export interface DesignRequestPayload {

@@ -7,25 +7,25 @@
  * surface factorise once per worker, turns every exception into error data, and names the result's
  * typed-array buffers for transfer.
  */
-import { fitCandidates, fitModel } from '../core/fit.ts';
-import { fitAnisotropic } from '../core/fit-anisotropy.ts';
-import { fitNested } from '../core/fit-nested.ts';
-import { empiricalVariogram, variogramSet } from '../core/variogram.ts';
-import { leaveOneOut } from '../core/cross-validation.ts';
-import { localLeaveOneOut } from '../core/local-cross-validation.ts';
-import { createPredictor, type Predictor } from '../core/kriging.ts';
-import { computeSurfaceWith } from '../core/surface.ts';
-import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/block-kriging.ts';
-import { simulateConditional } from '../core/conditional-simulation.ts';
-import { vecchiaFit } from '../core/vecchia.ts';
-import { createLocalPredictor } from '../core/local-kriging.ts';
-import { measureLocalGrid } from '../core/local-accuracy.ts';
-import type { SurfacePredictor } from '../core/surface.ts';
-import type { LocalKrigingOptions } from '../core/local-kriging.ts';
-import { GapwiseError } from '../core/errors.ts';
-import type { Samples } from '../core/samples.ts';
-import { isCovariateTrend, type CovarianceModel } from '../core/model.ts';
-import { attachTrendCoefficients } from '../core/covariate-fit.ts';
+import { fitCandidates, fitModel } from '../core/fitting/fit.ts';
+import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
+import { fitNested } from '../core/fitting/fit-nested.ts';
+import { empiricalVariogram, variogramSet } from '../core/fitting/variogram.ts';
+import { leaveOneOut } from '../core/validation/cross-validation.ts';
+import { localLeaveOneOut } from '../core/validation/local-cross-validation.ts';
+import { createPredictor, type Predictor } from '../core/prediction/kriging.ts';
+import { computeSurfaceWith } from '../core/prediction/surface.ts';
+import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/prediction/block-kriging.ts';
+import { simulateConditional } from '../core/simulation/conditional-simulation.ts';
+import { vecchiaFit } from '../core/fitting/vecchia.ts';
+import { createLocalPredictor } from '../core/prediction/local-kriging.ts';
+import { measureLocalGrid } from '../core/prediction/local-accuracy.ts';
+import type { SurfacePredictor } from '../core/prediction/surface.ts';
+import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import { isCovariateTrend, type CovarianceModel } from '../core/covariance/model.ts';
+import { attachTrendCoefficients } from '../core/fitting/covariate-fit.ts';
 import { readSamples } from '../io/intake.ts';
 import { runDesignRequest } from './design-handler.ts';
 import {
@@ -178,7 +178,7 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'surfaceRows': {
         const q = p as RequestPayloads['surfaceRows'];
         checkSamples(q.samples);
-        // On a grid, targets one cell apart may share tile neighbourhoods (core/local-kriging.ts chooseTile).
+        // On a grid, targets one cell apart may share tile neighbourhoods (core/prediction/local-kriging.ts chooseTile).
         const predictor = q.local
           ? localPredictorFor(q.samples, q.model, { ...q.local, targetSpacing: q.local.targetSpacing ?? q.grid.cell })
           : predictorFor(q.samples, q.model);

@@ -7,12 +7,12 @@
  * Each worker factorises the kriging system once per surface and reuses it for all its bands
  * (see the predictor cache in ./handler.ts); memory is 8n² bytes per worker.
  */
-import { GapwiseError, type Warning } from '../core/errors.ts';
-import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { Grid } from '../core/grid.ts';
-import type { SurfaceArray, SurfaceOptions, SurfaceResult, ValueRange } from '../core/surface.ts';
-import type { LocalKrigingOptions } from '../core/local-kriging.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import type { SurfaceArray, SurfaceOptions, SurfaceResult, ValueRange } from '../core/prediction/surface.ts';
+import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
 import type { RequestPayloads, RequestType, ResultPayloads } from './protocol.ts';
 import { EngineClient, createEngineWorker, type Progress, type RequestOptions, type WorkerFactory } from './client.ts';
 

@@ -6,22 +6,22 @@
  * become GapwiseError again on the main thread. Results are posted with their typed-array buffers
  * transferred (no copy); requests are copied, so the main thread keeps its samples.
  */
-import type { Samples } from '../core/samples.ts';
-import type { CovarianceModel } from '../core/model.ts';
-import type { FitOptions } from '../core/fit.ts';
-import type { FitComparisonRow } from '../core/fit-anisotropy.ts';
-import type { EmpiricalVariogram, VariogramOptions, VariogramSet } from '../core/variogram.ts';
-import type { LeaveOneOutResult } from '../core/cross-validation.ts';
-import type { Grid } from '../core/grid.ts';
-import type { SurfaceOptions, SurfaceResult } from '../core/surface.ts';
+import type { Samples } from '../core/shared/samples.ts';
+import type { CovarianceModel } from '../core/covariance/model.ts';
+import type { FitOptions } from '../core/fitting/fit.ts';
+import type { FitComparisonRow } from '../core/fitting/fit-anisotropy.ts';
+import type { EmpiricalVariogram, VariogramOptions, VariogramSet } from '../core/fitting/variogram.ts';
+import type { LeaveOneOutResult } from '../core/validation/cross-validation.ts';
+import type { Grid } from '../core/geometry/grid.ts';
+import type { SurfaceOptions, SurfaceResult } from '../core/prediction/surface.ts';
 import type { IntakeOptions, IntakeResult } from '../io/types.ts';
-import type { DesignResult } from '../core/design.ts';
-import type { BlockSurfaceOptions } from '../core/block-kriging.ts';
-import type { VecchiaFitOptions } from '../core/vecchia.ts';
-import type { LocalKrigingOptions } from '../core/local-kriging.ts';
-import type { LocalAccuracy, LocalSettings } from '../core/local-accuracy.ts';
-import type { Tolerance } from '../core/path-choice.ts';
-import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/conditional-simulation.ts';
+import type { DesignResult } from '../core/design/design.ts';
+import type { BlockSurfaceOptions } from '../core/prediction/block-kriging.ts';
+import type { VecchiaFitOptions } from '../core/fitting/vecchia.ts';
+import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
+import type { LocalAccuracy, LocalSettings } from '../core/prediction/local-accuracy.ts';
+import type { Tolerance } from '../core/prediction/path-choice.ts';
+import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
 
 /** Simulation options that cross postMessage (no callbacks). */
 export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 'isCancelled'>;
@@ -29,7 +29,7 @@ export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 
 /** A block surface band: every cell is a block average (SurfaceResult shape, plus the block facts). */
 export type BlockSurfaceResult = SurfaceResult & { support: 'block'; points: number; blockVariance: number };
 import type { DesignRequestPayload } from './design-handler.ts';
-import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/errors.ts';
+import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/shared/errors.ts';
 
 /** The richer fit of the Structure step: a fitted anisotropy, or two structures (short and long range). */
 export interface StructureFitChoice {
@@ -53,10 +53,10 @@ export interface StructureFitResult {
 export interface RequestPayloads {
   fit: { samples: Samples; options: FitOptions };
   fitCandidates: { samples: Samples; options?: Omit<FitOptions, 'family' | 'nu'> };
-  /** A fitted anisotropy (core/fit-anisotropy.ts) or two structures (core/fit-nested.ts), with progress. */
+  /** A fitted anisotropy (core/fitting/fit-anisotropy.ts) or two structures (core/fitting/fit-nested.ts), with progress. */
   fitStructure: { samples: Samples; options: FitOptions; choice: StructureFitChoice };
   variogram: { samples: Samples; options?: VariogramOptions };
-  /** The variogram with, on request, the four directions and the cloud (core/variogram.ts variogramSet). */
+  /** The variogram with, on request, the four directions and the cloud (core/fitting/variogram.ts variogramSet). */
   variogramSet: { samples: Samples; options?: VariogramOptions; directional?: boolean; cloudPairs?: number };
   /** Leave-one-out: closed form from all samples, or with `local` from each sample's nearest others (many samples). */
   crossValidate: { samples: Samples; model: CovarianceModel; local?: { neighbors: number } };

@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fromArrayBuffer } from 'geotiff';
-import { createRandom } from '../../src/core/random.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
 import { workspace, type Workspace } from './run-cli.ts';
 import { analyteColumnName } from '../../src/io/grid-csv.ts';
 

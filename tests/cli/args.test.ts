@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { parseArgs, type OptionSpec } from '../../src/cli/args.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 const SPECS: OptionSpec[] = [
   { name: 'samples', kind: 'string', placeholder: 'FILE', help: 'samples', required: true },

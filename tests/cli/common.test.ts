@@ -3,10 +3,10 @@ import { describe, expect, it } from 'vitest';
 import {
   activityLine, describePredictionPath, progressLine, readPredictionPath, readWorkers, type CliIo,
 } from '../../src/cli/common.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('readPredictionPath', () => {
-  it('readPredictionPath chooses by cost (core/path-choice.ts): exact for few targets, local for many, always local above 10,000 samples', () => {
+  it('readPredictionPath chooses by cost (core/prediction/path-choice.ts): exact for few targets, local for many, always local above 10,000 samples', () => {
     const common = { neighbors: 64, neighborsGiven: false, globalMean: true, automatic: true, tolerance: { mean: 1, sd: 2 }, warnings: [] };
     expect(readPredictionPath({}, 2000, { targets: 100 })).toMatchObject({ ...common, path: 'exact' });
     expect(readPredictionPath({}, 2000, { targets: 40_000 })).toMatchObject({ ...common, path: 'local' });

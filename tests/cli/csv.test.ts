@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { csvCell, csvLine, formatNumber, readCsvTable, recordText } from '../../src/cli/csv.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('readCsvTable', () => {
   it('readCsvTable keeps each record\'s raw text and its starting line', () => {

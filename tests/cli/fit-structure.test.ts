@@ -1,8 +1,8 @@
 // gapwise fit --anisotropy and --structures 2 (src/cli/fit-structure.ts): the model written, the
 // comparison table on stderr and in the model, and the refused combinations.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { simulateSamples } from '../../src/core/simulate.ts';
-import { parseModel, type CovarianceModel } from '../../src/core/model.ts';
+import { simulateSamples } from '../../src/core/simulation/simulate.ts';
+import { parseModel, type CovarianceModel } from '../../src/core/covariance/model.ts';
 import { comparisonLines } from '../../src/cli/fit-structure.ts';
 import { workspace, type Workspace } from './run-cli.ts';
 

@@ -6,7 +6,7 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { workspace, type Workspace } from './run-cli.ts';
 import { openInputFile, readInputText } from '../../src/cli/input-file.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 let ws: Workspace;
 beforeAll(() => {

@@ -5,7 +5,7 @@ import { main } from '../../src/cli/main.ts';
 import { CAUTION } from '../../src/cli/common.ts';
 import { COMMANDS, PLANNED } from '../../src/cli/commands/index.ts';
 import { workspace } from './run-cli.ts';
-import { SOFTWARE } from '../../src/core/version.ts';
+import { SOFTWARE } from '../../src/core/shared/version.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());

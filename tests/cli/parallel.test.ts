@@ -1,11 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { availableParallelism } from 'node:os';
 import { chooseSurfacePath, computeSurfaceParallel, computeSurfaceSingle, type SurfaceJob } from '../../src/cli/parallel.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import { createRandom } from '../../src/core/random.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
-import type { Grid } from '../../src/core/grid.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
+import type { Grid } from '../../src/core/geometry/grid.ts';
 
 function samplesOf(n: number, seed: number, positive = false) {
   const rng = createRandom(seed);

@@ -3,7 +3,7 @@ import { mkdtempSync, rmSync, writeFileSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../../src/cli/main.ts';
-import { createRandom } from '../../src/core/random.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
 
 export interface CliRun {
   code: number;

@@ -3,7 +3,7 @@ import { spawn, spawnSync } from 'node:child_process';
 import { chmodSync, mkdirSync, readFileSync, readdirSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { pendingFiles, temporaryName, writeFileSafely } from '../../src/cli/safe-write.ts';
-import { createRandom } from '../../src/core/random.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
 import { planarSamplesCsv, workspace } from './run-cli.ts';
 
 const ws = workspace();

@@ -1,11 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { simulateParallel, simulationThreads } from '../../src/cli/simulation-pool.ts';
-import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../../src/core/conditional-simulation.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import { createRandom } from '../../src/core/random.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
-import type { Grid } from '../../src/core/grid.ts';
+import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../../src/core/simulation/conditional-simulation.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
+import type { Grid } from '../../src/core/geometry/grid.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 // Invented samples: a smooth wave plus noise on a 600 m × 450 m square, seeded.

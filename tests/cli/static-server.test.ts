@@ -4,7 +4,7 @@ import { request } from 'node:http';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { serveStatic, type StaticServer } from '../../src/cli/static-server.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { appCommand, packageRoot } from '../../src/cli/commands/app.ts';
 import { workspace } from './run-cli.ts';
 

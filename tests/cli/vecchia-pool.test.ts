@@ -1,9 +1,9 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { partRange, readJob, startVecchiaPool, writeJob, type VecchiaPool } from '../../src/cli/vecchia-pool.ts';
-import { createVecchiaLikelihood, vecchiaFit } from '../../src/core/vecchia.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import type { CorrelatedStructure } from '../../src/core/model.ts';
-import { createRandom } from '../../src/core/random.ts';
+import { createVecchiaLikelihood, vecchiaFit } from '../../src/core/fitting/vecchia.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import type { CorrelatedStructure } from '../../src/core/covariance/model.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 function samplesOf(n: number, seed: number) {

@@ -4,7 +4,7 @@
 // and by the browser test that opens such a report.
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
 import { prepareReport, type ReportInput } from '../../src/io/report.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 import { planarSamplesCsv } from '../cli/run-cli.ts';
 
 /**

@@ -1,4 +1,4 @@
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 /** The GapwiseError `f` throws; any other error is thrown on, and no error at all fails the test. */
 export function thrown(f: () => unknown): GapwiseError {

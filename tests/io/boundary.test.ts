@@ -4,7 +4,7 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { pointInPolygon, pointInPolygons, projectPolygons, readPolygons } from '../../src/io/boundary.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 

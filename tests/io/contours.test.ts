@@ -6,8 +6,8 @@ import * as gjv from 'geojson-validation';
 import type { MultiLineString, Position } from 'geojson';
 import { contourFeatures, contourLevels, surfaceContours, PROBABILITY_LEVELS } from '../../src/io/contours.ts';
 import { createTransform } from '../../src/io/crs.ts';
-import { CAUTION } from '../../src/core/caution.ts';
-import type { Grid } from '../../src/core/grid.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
+import type { Grid } from '../../src/core/geometry/grid.ts';
 
 const WORK = 'EPSG:32633';
 const toWork = createTransform('EPSG:4326', WORK);

@@ -5,7 +5,7 @@ import {
   LOCAL_CRS, WORK_CRS_SCALE_LIMIT, WORK_CRS_SCALE_WARNING, checkGridInCrs, chooseWorkCrs, createTransform, epsgCode, isGeographic, loadEpsgIndex, metreEquivalent, resolveCrs,
   scaleFactors, searchCrs, utmZoneFor,
 } from '../../src/io/crs.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 

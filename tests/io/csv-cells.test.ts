@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { CSV_CAUTION, FORMULA_NOTE, csvCell, csvComment, csvLine, neutraliseFormula } from '../../src/io/csv-cells.ts';
 import { readCsvTable } from '../../src/cli/csv.ts';
-import { CAUTION } from '../../src/core/caution.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
 
 /** Starts like a formula to a spreadsheet (common practice: = + - @, tab, CR; spaces before them). */
 const FORMULA_LIKE = /^(?: *[=+\-@]|[\t\r])/;

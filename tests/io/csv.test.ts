@@ -2,7 +2,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { CsvReader, detectDelimiter, normaliseText, readCsv } from '../../src/io/csv.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('detectDelimiter', () => {
   it('detectDelimiter: picks comma, semicolon or tab by consistent field counts', () => {

@@ -1,7 +1,7 @@
 // GeoJSON point features as sample tables; expected values read off the test objects.
 import { describe, expect, it } from 'vitest';
 import { jsonErrorOffset, parseJson, propertyText, readPointFeatures } from '../../src/io/geojson.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 const fc = (features: unknown[], extra: object = {}) => JSON.stringify({ type: 'FeatureCollection', features, ...extra });
 const pt = (lon: number, lat: number, properties: object | null, id?: unknown) => ({ type: 'Feature', id, geometry: { type: 'Point', coordinates: [lon, lat] }, properties });

@@ -11,13 +11,13 @@ import { fromArrayBuffer } from 'geotiff';
 import { loadFixture } from '../helpers/fixtures.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { EXTRA_BANDS, extraBandValue, GDAL_CASE_SOFTWARE, gdalCases, type GdalCase } from '../reference/gdal-case.ts';
-import { SOFTWARE } from '../../src/core/version.ts';
+import { SOFTWARE } from '../../src/core/shared/version.ts';
 import { bandDescriptions, bandsGeoTiff, gdalMetadataXml, NO_DATA, readAsciiTag, surfaceGeoTiff, USER_DEFINED_CRS } from '../../src/io/geotiff.ts';
-import { createPredictor } from '../../src/core/kriging.ts';
-import { cellCentres } from '../../src/core/grid.ts';
-import { exceedanceProbability } from '../../src/core/normal.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { CAUTION } from '../../src/core/caution.ts';
+import { createPredictor } from '../../src/core/prediction/kriging.ts';
+import { cellCentres } from '../../src/core/geometry/grid.ts';
+import { exceedanceProbability } from '../../src/core/shared/normal.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
 
 interface GdalRecord {
   name: string;

@@ -2,8 +2,8 @@ import { describe, expect, it } from 'vitest';
 import { suggestionsToGpx, waypointName } from '../../src/io/gpx.ts';
 import { escapeText } from '../../src/io/markup.ts';
 import type { ExportableDesign } from '../../src/io/suggestions-export.ts';
-import { CAUTION } from '../../src/core/caution.ts';
-import { SOFTWARE } from '../../src/core/version.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
+import { SOFTWARE } from '../../src/core/shared/version.ts';
 
 function design(overrides: Partial<ExportableDesign> = {}): ExportableDesign {
   return {

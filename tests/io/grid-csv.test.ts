@@ -1,6 +1,6 @@
 // surfaceGridCsv: one row per active cell with centres, WGS 84 positions and values that read back
 // exactly; the caution on the first line.
-import { SOFTWARE } from '../../src/core/version.ts';
+import { SOFTWARE } from '../../src/core/shared/version.ts';
 import { describe, expect, it } from 'vitest';
 import { surfaceGridCsv, surfaceGridCsvChunks } from '../../src/io/grid-csv.ts';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
@@ -8,7 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { writeFileSafely } from '../../src/cli/safe-write.ts';
 import { createTransform } from '../../src/io/crs.ts';
-import { CAUTION } from '../../src/core/caution.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
 import { FORMULA_NOTE } from '../../src/io/csv-cells.ts';
 
 describe('surfaceGridCsv', () => {

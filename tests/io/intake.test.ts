@@ -7,7 +7,7 @@ import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { readSamples, readSamplesStream, splitUnit, normaliseName, NON_DETECT_NOTE } from '../../src/io/intake.ts';
 import { readPolygons, pointInPolygons } from '../../src/io/boundary.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS, megabytes } from '../../src/io/intake-limits.ts';
 import type { IntakeOptions, IntakeResult, ReportEntry, SampleRow } from '../../src/io/types.ts';
 import { rowAt } from '../../src/io/sample-table.ts';

@@ -7,11 +7,11 @@ import {
   createProject, gridGeometry, openProject, planSurfaceGrid, projectBoundary, projectGrid, projectIntake, projectSimulation, saveProject,
   simulationMethodText, PROJECT_VERSION, type Project, type ProjectSimulation,
 } from '../../src/io/project.ts';
-import { summariseExceedanceCounts } from '../../src/core/exceedance-area.ts';
+import { summariseExceedanceCounts } from '../../src/core/prediction/exceedance-area.ts';
 import { planGrid } from '../../src/ui/state/grid-plan.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { CAUTION } from '../../src/core/caution.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 const DEMO = resolve(__dirname, '..', '..', 'data-demo');

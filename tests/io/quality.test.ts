@@ -3,7 +3,7 @@
 // the sample sd is √(50/4); quartiles by linear interpolation (type 7, numpy's default) are 2 and 4.
 import { describe, expect, it } from 'vitest';
 import { duplicateGroups, orderOf, outlierIndices, quantile, summarise, transformAdvice } from '../../src/io/quality.ts';
-import { createRandom } from '../../src/core/random.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 describe('summarise', () => {

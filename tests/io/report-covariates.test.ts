@@ -1,7 +1,7 @@
 // The report's trend coefficients of a covariate model: values, standard errors, share explained, escaping.
 import { describe, expect, it } from 'vitest';
 import { modelText, trendCoefficientsTable } from '../../src/io/report.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 
 const model: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.1 }, { type: 'exponential', sill: 1, scale: 80 }],

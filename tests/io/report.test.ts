@@ -10,19 +10,19 @@ import {
   prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob, designOptionsText,
 } from '../../src/io/report.ts';
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
-import { mergeSimulationParts, simulateConditional } from '../../src/core/conditional-simulation.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { exceedanceArea } from '../../src/core/exceedance-area.ts';
+import { mergeSimulationParts, simulateConditional } from '../../src/core/simulation/conditional-simulation.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { exceedanceArea } from '../../src/core/prediction/exceedance-area.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 import { DEFAULT_LUT_HEX, defaultLuts, colourAtT, paletteIndices, lutFromRgba } from '../../src/io/report-colours.ts';
 import { adler32, base64, crc32, palettePng } from '../../src/io/report-png.ts';
 import { logTicks, scaleBarLength } from '../../src/io/report-svg.ts';
 import { escapeText } from '../../src/io/markup.ts';
 import { buildLut } from '../../src/ui/map/colour-scales.ts';
-import { leaveOneOut } from '../../src/core/cross-validation.ts';
-import { computeSurface } from '../../src/core/surface.ts';
-import { CAUTION } from '../../src/core/caution.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import { leaveOneOut } from '../../src/core/validation/cross-validation.ts';
+import { computeSurface } from '../../src/core/prediction/surface.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 import { planarSamplesCsv } from '../cli/run-cli.ts';
 
 const SOFTWARE = { name: 'gapwise', version: '9.9.9' };
@@ -178,7 +178,7 @@ describe('reportHtml: area above the action level', () => {
     const p = project();
     const settings = { count: 24, seed: 11, support: 'point' as const, blockPoints: 1, depth: 0.4 };
     const input = prepareReport(p, { software: SOFTWARE, compare: false, simulate: settings, created: '2026-03-01T10:00:00.000Z' });
-    // The same realisations kept, then summarised by core/exceedance-area.ts on their own.
+    // The same realisations kept, then summarised by core/prediction/exceedance-area.ts on their own.
     const sim = simulateConditional(input.intake.samples, model, input.grid!, { count: 24, seed: 11, keepRealisations: true });
     const expected = exceedanceArea(sim.realisations!, { threshold: 25, cell: input.grid!.cell, depth: 0.4 });
     const got = input.simulation!.summary!;

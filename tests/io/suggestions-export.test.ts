@@ -1,8 +1,8 @@
-import { SOFTWARE } from '../../src/core/version.ts';
+import { SOFTWARE } from '../../src/core/shared/version.ts';
 import { describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
 import { designSummary, numberText, suggestionsToCsv, suggestionsToGeoJson, type ExportableDesign } from '../../src/io/suggestions-export.ts';
-import { CAUTION } from '../../src/core/caution.ts';
+import { CAUTION } from '../../src/core/shared/caution.ts';
 
 function design(overrides: Partial<ExportableDesign> = {}): ExportableDesign {
   return {

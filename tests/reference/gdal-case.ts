@@ -5,11 +5,11 @@
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { createRandom } from '../../src/core/random.ts';
-import { makeSamples, type Samples } from '../../src/core/samples.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
-import { gridForPolygons, gridFromExtent, type Grid } from '../../src/core/grid.ts';
-import { computeSurface } from '../../src/core/surface.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
+import { makeSamples, type Samples } from '../../src/core/shared/samples.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
+import { gridForPolygons, gridFromExtent, type Grid } from '../../src/core/geometry/grid.ts';
+import { computeSurface } from '../../src/core/prediction/surface.ts';
 import { surfaceGeoTiff } from '../../src/io/geotiff.ts';
 
 export interface GdalCase {

@@ -4,7 +4,7 @@ independent numpy implementation.
 
 A block of width w and height h centred at (cx, cy) is discretised into k x k points at the centres of
 its k x k sub-rectangles. Covariances follow the covariance model contract (documented in
-src/core/model.ts), written here from that contract and not from the engine's code:
+src/core/covariance/model.ts), written here from that contract and not from the engine's code:
   point-to-sample   C(p, s_i)                   (noise-free; the nugget is on K's diagonal only)
   block-to-sample   kbar_i = mean_p C(p, s_i)
   block-to-block    Cbar   = mean_{p,q} C(p, q) (every pair of discretisation points, the p = q pairs

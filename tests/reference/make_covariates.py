@@ -6,7 +6,7 @@ independent numpy/scipy implementation.
 Kriging: for every target the bordered system [[K, X], [X^T, 0]] (lambda; mu) = (k0; x0) is solved with
 numpy.linalg.solve (LAPACK LU); mean = lambda . z and variance = c0 - lambda . k0 - mu . x0
 (Cressie 1993, ch. 3). z is ln(value) for a log model (results compared on the ln scale). Covariances
-from the covariance model contract (src/core/model.ts), via make_kriging.py's functions.
+from the covariance model contract (src/core/covariance/model.ts), via make_kriging.py's functions.
 Trend columns here: 1, (x - xmin)/1000, (y - ymin)/1000 (with coordinates), the numeric covariate in its
 own unit, and one indicator per categorical level after the first (levels sorted, first = reference).
 A different basis from the engine's (which centres and scales every column): same column space, so

@@ -1,4 +1,4 @@
-"""Writes tests/reference/design.json for tests/core/design-misclassification.test.ts:
+"""Writes tests/reference/design.json for tests/core/design/design-misclassification.test.ts:
 the bivariate normal distribution function from scipy.stats.multivariate_normal.cdf (cross-checked
 here against scipy.integrate.quad of phi(x)*Phi((y - rho*x)/sqrt(1 - rho^2))), and the expected future
 misclassification probability E[Phi(-|M' - T|/s')] with M' ~ N(m, s^2 - s'^2) by scipy.integrate.quad

@@ -1,6 +1,6 @@
 """Writes tests/reference/grid.json: cell masks of boundary polygons burnt by GDAL's rasterizer
 (osgeo.gdal.RasterizeLayer, default rule: a pixel is burnt when its centre is inside), on north-up
-grids given by their upper-left corner and cell size. Used by tests/core/grid.test.ts."""
+grids given by their upper-left corner and cell size. Used by tests/core/geometry/grid.test.ts."""
 import json
 import os
 

@@ -6,7 +6,7 @@ For every target the system [[K, X], [X^T, 0]] (lambda; mu) = (k0; x0) is solved
 numpy.linalg.solve (LAPACK LU with partial pivoting); then mean = lambda . y (simple kriging:
 m + lambda . (y - m)) and variance = c0 - lambda . k0 - mu . x0 (universal kriging, Cressie 1993, ch. 3;
 the simple-kriging form drops mu). Covariances are written here from the covariance model contract
-(documented in src/core/model.ts), not from the engine's code: nugget on the diagonal of K only;
+(documented in src/core/covariance/model.ts), not from the engine's code: nugget on the diagonal of K only;
 exponential exp(-h/l); gaussian exp(-h^2/(2 l^2)); spherical 1 - 1.5 r + 0.5 r^3 for r < 1;
 Matern 2^(1-nu)/Gamma(nu) z^nu K_nu(z), z = sqrt(2 nu) h/l, with K_nu from scipy.special.kv for EVERY nu (no closed forms).
 Anisotropy: azimuth of the long axis clockwise from north, distances across it divided by the ratio.

@@ -1,5 +1,5 @@
 """Writes tests/reference/normal.json: the standard normal CDF and erfc from scipy.special
-(Debian python3-scipy), used by tests/core/normal.test.ts."""
+(Debian python3-scipy), used by tests/core/shared/normal.test.ts."""
 import json
 import os
 

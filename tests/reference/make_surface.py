@@ -1,6 +1,6 @@
 #!/usr/bin/python3
 """Writes tests/reference/surface.json: kriging surfaces on small masked grids, for
-tests/core/surface.test.ts.
+tests/core/prediction/surface.test.ts.
 
 Simple kriging (known mean m): scikit-learn GaussianProcessRegressor with a fixed kernel
 ConstantKernel(sill) * Matern(length_scale=scale, nu) and alpha = nugget (optimizer=None), fitted to

@@ -1,11 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { EngineClient } from '../../src/worker/client.ts';
 import { EngineError } from '../../src/worker/protocol.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
-import { computeSurface } from '../../src/core/surface.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
-import type { Grid } from '../../src/core/grid.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
+import { computeSurface } from '../../src/core/prediction/surface.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
+import type { Grid } from '../../src/core/geometry/grid.ts';
 import { fakeFactory } from './fake-worker.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
 

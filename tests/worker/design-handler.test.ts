@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { runDesignRequest, type DesignRequestPayload } from '../../src/worker/design-handler.ts';
-import { suggestSites } from '../../src/core/design.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import { suggestSites } from '../../src/core/design/design.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 
 const samples = makeSamples([10, 80, 40, 70, 20, 55], [15, 20, 50, 85, 75, 40], [3, 5, 4, 7, 6, 5]);
 const model: CovarianceModel = { structures: [{ type: 'nugget', sill: 0.1 }, { type: 'exponential', sill: 1, scale: 30 }], trend: 'constant', transform: 'none' };

@@ -1,11 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { EnginePool, bandGrid, emptySurface, mergeBand, splitBands } from '../../src/worker/pool.ts';
-import { computeSurface, type SurfaceResult } from '../../src/core/surface.ts';
-import { cellCentres, type Grid } from '../../src/core/grid.ts';
-import { makeSamples } from '../../src/core/samples.ts';
-import type { CovarianceModel } from '../../src/core/model.ts';
+import { computeSurface, type SurfaceResult } from '../../src/core/prediction/surface.ts';
+import { cellCentres, type Grid } from '../../src/core/geometry/grid.ts';
+import { makeSamples } from '../../src/core/shared/samples.ts';
+import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 import { ENGINE_OPERATIONS, type EngineOperations } from '../../src/worker/handler.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { fakeFactory } from './fake-worker.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
 

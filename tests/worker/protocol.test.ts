@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { EngineError, errorData, errorFromData, isEngineRequest, isEngineResponse, transferablesOf } from '../../src/worker/protocol.ts';
-import { GapwiseError } from '../../src/core/errors.ts';
+import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('isEngineRequest', () => {
   it('isEngineRequest accepts {id, known type, payload} and nothing else', () => {

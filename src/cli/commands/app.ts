@@ -9,8 +9,8 @@ import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { numberOption } from '../args.ts';
-import { GapwiseError } from '../../core/errors.ts';
-import { SOFTWARE } from '../../core/version.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
 import type { CliIo, CommandSpec, OptionValues } from '../common.ts';
 import { serveStatic } from '../static-server.ts';
 

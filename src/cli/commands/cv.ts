@@ -2,24 +2,23 @@
  * `gapwise cv`: leave-one-out cross-validation with a given model. The JSON summary (me, rmse,
  * msse, coverage95, n) goes to stdout; the per-sample table to --out as CSV.
  *
- * Up to REFERENCE_EXACT_LIMIT samples (or with --exact) the closed form of core/cross-validation.ts: one
- * factorisation of all samples, n³/3 flops. Above (or with --local; core/path-choice.ts chooseLeaveOneOutPath) each sample is
- * left out and predicted from its M nearest other samples (core/local-cross-validation.ts): the same
+ * Up to REFERENCE_EXACT_LIMIT samples (or with --exact) the closed form of core/validation/cross-validation.ts: one
+ * factorisation of all samples, n³/3 flops. Above (or with --local; core/prediction/path-choice.ts chooseLeaveOneOutPath) each sample is
+ * left out and predicted from its M nearest other samples (core/validation/local-cross-validation.ts): the same
  * kriging as the local path of predict and grid, m³/3 flops per sample. With M ≥ n − 1 it is the
  * closed form's answer.
  */
-import { SOFTWARE } from '../../core/version.ts';
-import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { leaveOneOut, type LeaveOneOutResult } from '../../core/cross-validation.ts';
-import { localLeaveOneOut } from '../../core/local-cross-validation.ts';
-import { createPredictor } from '../../core/kriging.ts';
-import { globalMeanCoefficients } from '../../core/local-kriging.ts';
-import type { CovarianceModel } from '../../core/model.ts';
-import { NeighborIndex } from '../../core/neighbors.ts';
-import type { Samples } from '../../core/samples.ts';
-import { coordinateFrame, designRow, trendColumnCount } from '../../core/trend.ts';
-import { isotropicCoordinates } from '../../core/vecchia.ts';
-import { REFERENCE_EXACT_LIMIT } from '../../core/path-choice.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
+import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
+import { leaveOneOut, type LeaveOneOutResult } from '../../core/validation/cross-validation.ts';
+import { localLeaveOneOut } from '../../core/validation/local-cross-validation.ts';
+import { createPredictor } from '../../core/prediction/kriging.ts';
+import { globalMeanCoefficients } from '../../core/prediction/local-kriging.ts';
+import type { CovarianceModel } from '../../core/covariance/model.ts';
+import { NeighborIndex } from '../../core/geometry/neighbors.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import { coordinateFrame, designRow, trendColumnCount } from '../../core/covariance/trend.ts';
+import { REFERENCE_EXACT_LIMIT } from '../../core/prediction/path-choice.ts';
 import { stringOption } from '../args.ts';
 import {
   CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText, modelWorkCrs, naming, outOption,

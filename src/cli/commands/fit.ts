@@ -2,22 +2,22 @@
  * `gapwise fit`: fits a covariance model to the samples and writes the model JSON (with its fit
  * diagnostics, practical range and the working CRS its distances are in).
  *
- * Method: by default the number of samples chooses (core/vecchia.ts chooseFitMethod): the exact
+ * Method: by default the number of samples chooses (core/fitting/vecchia.ts chooseFitMethod): the exact
  * REML likelihood below 3,000 samples, the nearest-neighbour (Vecchia) REML likelihood with maxmin
  * ordering from 3,000 on. The choice is said on stderr and in the model's "fit.note"; --method
  * reml|ml|wls|nnl overrides it.
  */
-import { SOFTWARE } from '../../core/version.ts';
-import { GapwiseError } from '../../core/errors.ts';
-import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fit.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/vecchia.ts';
-import type { CovarianceModel, Family, Trend } from '../../core/model.ts';
-import type { Samples } from '../../core/samples.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
+import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fitting/fit.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/fitting/vecchia.ts';
+import type { CovarianceModel, Family, Trend } from '../../core/covariance/model.ts';
+import type { Samples } from '../../core/shared/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { startVecchiaPool, type VecchiaPool } from '../vecchia-pool.ts';
 import { COVARIATE_OPTIONS, trendWithCovariates, withSampleCovariates } from '../covariates.ts';
-import { attachTrendCoefficients } from '../../core/covariate-fit.ts';
+import { attachTrendCoefficients } from '../../core/fitting/covariate-fit.ts';
 import { analyteRequest, fitAnalytes } from '../analytes.ts';
 import { STRUCTURE_OPTIONS, fitWithStructure, printComparison, readStructureChoice } from '../fit-structure.ts';
 import {

@@ -12,11 +12,11 @@
  * surface by block-kriged cells and add bands, the area above the threshold and warnings; the
  * realisations are shared out over the same --workers threads (../simulation-pool.ts).
  */
-import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { cellCount, type Grid } from '../../core/grid.ts';
-import type { SurfaceResult } from '../../core/surface.ts';
-import { EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
-import { knownMean, trendColumnCount } from '../../core/trend.ts';
+import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
+import { cellCount, type Grid } from '../../core/geometry/grid.ts';
+import type { SurfaceResult } from '../../core/prediction/surface.ts';
+import { EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+import { knownMean, trendColumnCount } from '../../core/covariance/trend.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
 import { surfaceGridCsvChunks } from '../../io/grid-csv.ts';
@@ -30,12 +30,12 @@ import {
 import { readBoundaryFile } from '../boundary-file.ts';
 import { COVARIATE_RASTER_OPTION, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
 import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
-import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
-import { clipToPolygons } from '../../core/grid.ts';
+import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
+import { clipToPolygons } from '../../core/geometry/grid.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { checkLocalSurface } from '../local-check.ts';
-import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/local-accuracy.ts';
+import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';

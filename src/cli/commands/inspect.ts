@@ -2,7 +2,7 @@
  * `gapwise inspect`: reads the samples (and a boundary) exactly as every other command does and
  * reports what was read: a JSON read report on stdout; --out writes the parsed samples as CSV.
  */
-import { SOFTWARE } from '../../core/version.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
 import { stringOption } from '../args.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, jsonText, outOption, readSamplesFile, writeOutput,

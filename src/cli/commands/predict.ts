@@ -2,20 +2,20 @@
  * `gapwise predict`: kriging at the points of a targets CSV with a given model (never refits).
  * The target rows are written back in their order and with their cells verbatim, with mean, sd,
  * sd_obs (and p_exceed with --threshold) appended. Exact kriging from all samples or local
- * neighbourhoods, whichever core/path-choice.ts finds cheaper (or as --exact / --local say); a local
- * run is checked against exact kriging at a seeded subset of the targets (core/local-accuracy.ts),
+ * neighbourhoods, whichever core/prediction/path-choice.ts finds cheaper (or as --exact / --local say); a local
+ * run is checked against exact kriging at a seeded subset of the targets (core/prediction/local-accuracy.ts),
  * grown or replaced when it misses --tolerance. The choice and the measured error are notes on stderr.
  */
-import { SOFTWARE } from '../../core/version.ts';
-import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { createPredictor, type Prediction } from '../../core/kriging.ts';
-import { describeAccuracy, predictLocalChecked } from '../../core/local-accuracy.ts';
-import { denseTargetSpacing } from '../../core/target-spacing.ts';
-import { exceedanceProbability } from '../../core/normal.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
+import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
+import { createPredictor, type Prediction } from '../../core/prediction/kriging.ts';
+import { describeAccuracy, predictLocalChecked } from '../../core/prediction/local-accuracy.ts';
+import { denseTargetSpacing } from '../../core/prediction/target-spacing.ts';
+import { exceedanceProbability } from '../../core/shared/normal.ts';
 import { createTransform } from '../../io/crs.ts';
 import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
-import { knownMean } from '../../core/trend.ts';
+import { knownMean } from '../../core/covariance/trend.ts';
 import {
   AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
   printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,

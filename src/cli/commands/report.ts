@@ -7,9 +7,9 @@
  * as `gapwise simulate` draws them (../simulation-pool.ts; options read by ../simulation-options.ts)
  * before the report is prepared; the figure and the thread count are also printed on stderr.
  */
-import { GAPWISE_VERSION } from '../../core/version.ts';
+import { GAPWISE_VERSION } from '../../core/shared/version.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
-import { GapwiseError } from '../../core/errors.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
 import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml, reportSimulationJob } from '../../io/report.ts';
 import type { Project, SimulationSettings } from '../../io/project.ts';
 import {
@@ -19,7 +19,7 @@ import { readProjectFile } from '../project-options.ts';
 import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
-import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
 const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
@@ -52,7 +52,7 @@ export function reportSimulationSettings(values: OptionValues, project: Project)
   return { count: choice.realizations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
 }
 
-/** The name and version written into the report (src/core/version.ts, equal to package.json's). */
+/** The name and version written into the report (src/core/shared/version.ts, equal to package.json's). */
 export function softwareVersion(): { name: string; version: string } {
   return { name: 'Gapwise', version: GAPWISE_VERSION };
 }

@@ -7,8 +7,8 @@
  * are shared out over --workers threads (../simulation-pool.ts; the same bands as one thread draws).
  */
 import { refuseCovariateModel } from '../covariates.ts';
-import { GapwiseError } from '../../core/errors.ts';
-import { cellCount } from '../../core/grid.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
+import { cellCount } from '../../core/geometry/grid.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';

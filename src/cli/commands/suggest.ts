@@ -4,11 +4,11 @@
  * action level; without a model: sites that cover the area evenly. Writes .geojson, .csv or .gpx by
  * the extension of --out and prints a JSON summary (with the caution) on stdout.
  */
-import { SOFTWARE } from '../../core/version.ts';
+import { SOFTWARE } from '../../core/shared/version.ts';
 import { refuseCovariateModel } from '../covariates.ts';
-import { GapwiseError, type Warning } from '../../core/errors.ts';
-import { suggestSites, type DesignMode, type DesignOptions, type DesignResult } from '../../core/design.ts';
-import type { Polygon as CorePolygon } from '../../core/grid.ts';
+import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
+import { suggestSites, type DesignMode, type DesignOptions, type DesignResult } from '../../core/design/design.ts';
+import type { Polygon as CorePolygon } from '../../core/geometry/grid.ts';
 import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
 import { projectPolygons, readPolygons } from '../../io/boundary.ts';
 import { readPointFeatures } from '../../io/geojson.ts';

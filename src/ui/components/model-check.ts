@@ -3,8 +3,8 @@
  * (the map's sd too small or too large), and a model curve that levels off well below the empirical
  * variogram's plateau. Each concern says what it means and what to try. Pure, no DOM.
  */
-import type { CovarianceModel } from '../../core/model.ts';
-import type { EmpiricalVariogram } from '../../core/variogram.ts';
+import type { CovarianceModel } from '../../core/covariance/model.ts';
+import type { EmpiricalVariogram } from '../../core/fitting/variogram.ts';
 import { modelCurve } from '../state/structure.ts';
 import { formatValue } from '../../io/format.ts';
 

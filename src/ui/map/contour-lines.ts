@@ -6,7 +6,7 @@
  * Isolines come from the export's own contouring (io/contours.ts, marching squares by d3-contour),
  * so the map and the contour file agree. Cost: O(nx·ny) per level.
  */
-import type { Grid } from '../../core/grid.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
 import { contourFeatures, contourLevels } from '../../io/contours.ts';
 
 export interface MapContour {

@@ -18,7 +18,7 @@
  * leave hairline seams where the background shows through).
  */
 import L from 'leaflet';
-import type { Grid } from '../../core/grid.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
 import { buildLut, type ScaleName } from './colour-scales.ts';
 import { buildTileLattice, paintTile, readCell, type CellReading, type TileLattice, type ToWork } from './tile-lookup.ts';
 import { provideTestHook, type TestHook } from '../state/test-hook.ts';

@@ -9,7 +9,7 @@
  * projection is smooth over a lattice cell. The lattice stores working-CRS x, y (not grid indices), so
  * it stays valid when the grid or the values change; only a new projection needs a new lattice.
  */
-import type { Grid } from '../../core/grid.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
 
 /** Global pixel position at the tile's zoom → [longitude, latitude] in degrees. */
 export type PixelToLngLat = (px: number, py: number) => [number, number];

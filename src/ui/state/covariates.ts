@@ -3,11 +3,11 @@
  * encoded covariate columns for a chosen list (fits, variogram of residuals) or for a model's own trend
  * (cross-validation, surfaces), and the residuals the Structure step's variogram is computed from.
  */
-import type { CovariateTrend, CovarianceModel, Trend } from '../../core/model.ts';
-import { isCovariateTrend } from '../../core/model.ts';
-import type { Samples } from '../../core/samples.ts';
-import { encodeCovariates, resolveCovariateTrend } from '../../core/covariates.ts';
-import { leastSquaresResiduals } from '../../core/covariate-fit.ts';
+import type { CovariateTrend, CovarianceModel, Trend } from '../../core/covariance/model.ts';
+import { isCovariateTrend } from '../../core/covariance/model.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import { encodeCovariates, resolveCovariateTrend } from '../../core/covariance/covariates.ts';
+import { leastSquaresResiduals } from '../../core/fitting/covariate-fit.ts';
 import { covariateColumns, sourceColumn, type SourceColumn } from '../../io/sample-columns.ts';
 import type { IntakeResult } from '../../io/types.ts';
 

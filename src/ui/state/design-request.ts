@@ -3,7 +3,7 @@
  * in one of the engine's workers (the pool the fits and surfaces use, ./engine.ts) so the page stays
  * responsive, with progress and cancel.
  */
-import type { DesignResult } from '../../core/design.ts';
+import type { DesignResult } from '../../core/design/design.ts';
 import type { DesignRequestPayload } from '../../worker/design-handler.ts';
 import { enginePool } from './engine.ts';
 

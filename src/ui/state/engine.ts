@@ -3,27 +3,27 @@
  * Every call is asynchronous, reports progress and can be cancelled with an AbortSignal; the work runs
  * in a pool of engine workers (src/worker) so the page stays responsive.
  */
-import type { Samples } from '../../core/samples.ts';
-import type { CovarianceModel, Trend } from '../../core/model.ts';
-import type { Grid } from '../../core/grid.ts';
-import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
-import type { SurfaceResult } from '../../core/surface.ts';
-import { GapwiseError } from '../../core/errors.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import type { CovarianceModel, Trend } from '../../core/covariance/model.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
+import type { LeaveOneOutResult } from '../../core/validation/cross-validation.ts';
+import type { SurfaceResult } from '../../core/prediction/surface.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
 import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
-import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
+import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
-import type { LocalKrigingOptions } from '../../core/local-kriging.ts';
-import type { LocalAccuracy, LocalSettings } from '../../core/local-accuracy.ts';
-import { chooseLeaveOneOutPath } from '../../core/path-choice.ts';
-import type { VariogramOptions, VariogramSet } from '../../core/variogram.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
+import type { LocalKrigingOptions } from '../../core/prediction/local-kriging.ts';
+import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
+import { chooseLeaveOneOutPath } from '../../core/prediction/path-choice.ts';
+import type { VariogramOptions, VariogramSet } from '../../core/fitting/variogram.ts';
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readSamples } from '../../io/intake.ts';
 import { epsgIndexLoaded } from '../../io/crs.ts';
 import type { RequestType, StructureFitChoice, StructureFitResult } from '../../worker/protocol.ts';
-import type { FitOptions } from '../../core/fit-options.ts';
+import type { FitOptions } from '../../core/fitting/fit-options.ts';
 
 export type Progress = (done: number, total: number, what?: string) => void;
 
@@ -139,8 +139,8 @@ export function crossValidate(samples: Samples, model: CovarianceModel, signal?:
 }
 
 /**
- * Above REFERENCE_EXACT_LIMIT samples (core/path-choice.ts chooseLeaveOneOutPath, as `gapwise cv`)
- * leave-one-out predicts each sample from its 64 nearest others (core/local-cross-validation.ts,
+ * Above REFERENCE_EXACT_LIMIT samples (core/prediction/path-choice.ts chooseLeaveOneOutPath, as `gapwise cv`)
+ * leave-one-out predicts each sample from its 64 nearest others (core/validation/local-cross-validation.ts,
  * n·64³/3 flops) instead of the closed form's n³/3 flops and 8n² bytes.
  */
 function localCv(samples: Samples): { local?: { neighbors: number } } {
@@ -177,7 +177,7 @@ export function surface(
   });
 }
 
-/** The measured error of a local-neighbourhood surface against exact kriging (core/local-accuracy.ts measureLocalGrid). */
+/** The measured error of a local-neighbourhood surface against exact kriging (core/prediction/local-accuracy.ts measureLocalGrid). */
 export function localAccuracy(samples: Samples, model: CovarianceModel, grid: Grid, local: LocalSettings, signal?: AbortSignal): Promise<LocalAccuracy> {
   return enginePool().request('localAccuracy', { samples, model, grid, local }, { signal });
 }

@@ -2,9 +2,9 @@
  * Grid planning for the Surface step: the automatic cell size, the grid over the samples' extent
  * (padded) or the boundary, and the cell count and rough time the user sees before computing.
  */
-import { planSurfaceGrid, cellCount, estimateSurfaceCost, type Grid, type Polygon } from '../../core/grid.ts';
+import { planSurfaceGrid, cellCount, estimateSurfaceCost, type Grid, type Polygon } from '../../core/geometry/grid.ts';
 
-export { roundCell, autoCellSize, extentOf } from '../../core/grid.ts';
+export { roundCell, autoCellSize, extentOf } from '../../core/geometry/grid.ts';
 
 export interface GridPlan {
   grid: Grid;

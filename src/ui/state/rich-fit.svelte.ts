@@ -4,12 +4,12 @@
  * progress, one run at a time (LatestRun: a newer run or new samples drop the older answer). The
  * model kept by the fit becomes the model in use; the simpler one stays at hand to switch back.
  */
-import type { CovarianceModel } from '../../core/model.ts';
-import type { Samples } from '../../core/samples.ts';
-import type { FitOptions } from '../../core/fit-options.ts';
+import type { CovarianceModel } from '../../core/covariance/model.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import type { FitOptions } from '../../core/fitting/fit-options.ts';
 import type { StructureFitResult } from '../../worker/protocol.ts';
-import { GapwiseError } from '../../core/errors.ts';
-import { EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
+import { EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
 import { LatestRun } from './latest.ts';
 import { specByKey } from './structure.ts';
 import type { RichChoice } from './rich-fit.ts';

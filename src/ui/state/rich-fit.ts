@@ -3,18 +3,18 @@
  * ranges): the model's semivariance along a compass direction, plain-language rows and notes for the
  * comparison table, and the model's shape in words.
  */
-import type { CovarianceModel, CorrelatedStructure } from '../../core/model.ts';
-import type { FitComparisonRow } from '../../core/fit-anisotropy.ts';
+import type { CovarianceModel, CorrelatedStructure } from '../../core/covariance/model.ts';
+import type { FitComparisonRow } from '../../core/fitting/fit-anisotropy.ts';
 import type { StructureFitResult } from '../../worker/protocol.ts';
-import { effectiveDistance, surfaceCovariance, surfaceVariance, practicalRange } from '../../core/covariance.ts';
-import { nuggetOf } from '../../core/model.ts';
+import { effectiveDistance, surfaceCovariance, surfaceVariance, practicalRange } from '../../core/covariance/covariance.ts';
+import { nuggetOf } from '../../core/covariance/model.ts';
 import { formatDistance } from '../../io/format.ts';
 
 export type RichChoice = 'none' | 'anisotropy' | 'nested';
 
 /**
  * Effective distance of one metre of separation toward `direction` (degrees clockwise from north),
- * under the model's anisotropy (core/covariance.ts effectiveDistance holds the rotation): 1 along the
+ * under the model's anisotropy (core/covariance/covariance.ts effectiveDistance holds the rotation): 1 along the
  * long axis, 1/ratio across it, 1 for an isotropic model.
  */
 export function distanceFactor(model: CovarianceModel, direction: number): number {

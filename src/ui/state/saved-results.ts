@@ -12,11 +12,11 @@
  */
 import type { IntakeResult } from '../../io/types.ts';
 import { isSampleTable } from '../../io/sample-table.ts';
-import type { VariogramSet } from '../../core/variogram.ts';
-import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
-import type { DesignResult } from '../../core/design.ts';
-import type { Grid } from '../../core/grid.ts';
-import { parseModel } from '../../core/model.ts';
+import type { VariogramSet } from '../../core/fitting/variogram.ts';
+import type { LeaveOneOutResult } from '../../core/validation/cross-validation.ts';
+import type { DesignResult } from '../../core/design/design.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
+import { parseModel } from '../../core/covariance/model.ts';
 import type { CandidateRow } from './structure.ts';
 import type { SurfaceSpeed } from './grid-plan.ts';
 import type { SimulationView, SurfaceView } from './session.svelte.ts';

@@ -9,7 +9,7 @@
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
 import { readPolygons, projectPolygons, type Polygon } from '../../io/boundary.ts';
 import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
-import { GapwiseError } from '../../core/errors.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
 import { untrack } from 'svelte';
 import { emptySnapshot, newReadId, type SampleChoices, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
 import { createAutosave, type Autosave } from './autosave.ts';
@@ -18,25 +18,25 @@ import { LatestRun } from './latest.ts';
 import { nextTask } from './next-task.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
-import type { Samples } from '../../core/samples.ts';
-import { parseModel, type CovarianceModel } from '../../core/model.ts';
-import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import { parseModel, type CovarianceModel } from '../../core/covariance/model.ts';
+import type { LeaveOneOutResult } from '../../core/validation/cross-validation.ts';
 import {
   directionalVariograms, empiricalVariogram, variogramCloud, type EmpiricalVariogram, type VariogramCloud, type VariogramSet,
-} from '../../core/variogram.ts';
+} from '../../core/fitting/variogram.ts';
 import { bestKey, withParts, type CandidateRow, type ModelParts } from './structure.ts';
 import * as engine from './engine.ts';
 import { RichFitState } from './rich-fit.svelte.ts';
-import type { Grid } from '../../core/grid.ts';
-import type { SurfaceResult } from '../../core/surface.ts';
+import type { Grid } from '../../core/geometry/grid.ts';
+import type { SurfaceResult } from '../../core/prediction/surface.ts';
 import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
-import type { ConditionalSimulationResult } from '../../core/conditional-simulation.ts';
-import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/vecchia.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/local-kriging.ts';
-import { choosePredictionPath } from '../../core/path-choice.ts';
-import type { LocalAccuracy } from '../../core/local-accuracy.ts';
-import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
-import type { Warning } from '../../core/errors.ts';
+import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
+import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
+import { choosePredictionPath } from '../../core/prediction/path-choice.ts';
+import type { LocalAccuracy } from '../../core/prediction/local-accuracy.ts';
+import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
+import type { Warning } from '../../core/shared/errors.ts';
 import { covariateCandidates, residualSamples, samplesForModel, withChosenCovariates } from './covariates.ts';
 import type { CovariateRaster } from '../../io/covariate-raster.ts';
 
@@ -324,7 +324,7 @@ export class Session {
 
   /** How the candidates in the table were fitted. */
   fittedWith = $state.raw<{ likelihood: 'exact' | 'nnl'; n: number; automatic: boolean } | null>(null);
-  /** 'auto' takes the cheaper path (core/path-choice.ts); 'exact' (all samples) or 'local' overrides (saved). */
+  /** 'auto' takes the cheaper path (core/prediction/path-choice.ts); 'exact' (all samples) or 'local' overrides (saved). */
   get surfaceMethod(): 'auto' | 'exact' | 'local' {
     return this.s.surface.method;
   }

@@ -4,8 +4,8 @@
  * table, surfaces, realisations, suggestions) are stored beside it (./saved-results.ts), tied to the
  * snapshot's `readId`, so a reload shows them again without recomputing.
  */
-import type { CovarianceModel } from '../../core/model.ts';
-import { parseModel } from '../../core/model.ts';
+import type { CovarianceModel } from '../../core/covariance/model.ts';
+import { parseModel } from '../../core/covariance/model.ts';
 import type { NonDetectRule } from '../../io/types.ts';
 
 export const SNAPSHOT_VERSION = 1;
@@ -81,7 +81,7 @@ export interface SurfaceChoices {
   support: 'point' | 'block';
   /** Block support: discretisation points per cell side (1..16). */
   blockPoints: number;
-  /** Point values from all samples ('exact'), local neighbourhoods ('local'), or 'auto' by estimated cost (core/path-choice.ts). */
+  /** Point values from all samples ('exact'), local neighbourhoods ('local'), or 'auto' by estimated cost (core/prediction/path-choice.ts). */
   method: 'auto' | 'exact' | 'local';
 }
 

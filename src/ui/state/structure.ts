@@ -3,10 +3,10 @@
  * model the user edits (nugget, sill, scale), the model's semivariance curve for the plot, and a
  * plain-language anisotropy hint from the four directional variograms.
  */
-import type { CovarianceModel, Family } from '../../core/model.ts';
-import type { EmpiricalVariogram } from '../../core/variogram.ts';
-import { surfaceCovariance, surfaceVariance, practicalRange } from '../../core/covariance.ts';
-import { nuggetOf } from '../../core/model.ts';
+import type { CovarianceModel, Family } from '../../core/covariance/model.ts';
+import type { EmpiricalVariogram } from '../../core/fitting/variogram.ts';
+import { surfaceCovariance, surfaceVariance, practicalRange } from '../../core/covariance/covariance.ts';
+import { nuggetOf } from '../../core/covariance/model.ts';
 
 export interface CandidateSpec {
   key: string;
@@ -15,7 +15,7 @@ export interface CandidateSpec {
   label: string;
 }
 
-/** The candidate set of the comparison table (core/fit.ts CANDIDATES; the exponential is Matérn ν = ½, listed once). */
+/** The candidate set of the comparison table (core/fitting/fit.ts CANDIDATES; the exponential is Matérn ν = ½, listed once). */
 export const CANDIDATE_SPECS: readonly CandidateSpec[] = [
   { key: 'exponential', family: 'exponential', label: 'Exponential (Matérn ν = ½)' },
   { key: 'matern-1.5', family: 'matern', nu: 1.5, label: 'Matérn ν = 3/2' },

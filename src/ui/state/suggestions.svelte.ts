@@ -4,10 +4,10 @@
  * Suggestions belong to the samples they were made from: `current` drops them once the samples are
  * read again.
  */
-import type { DesignResult } from '../../core/design.ts';
+import type { DesignResult } from '../../core/design/design.ts';
 import type { Suggestion as ProjectSuggestion } from '../../io/project.ts';
 import type { Session } from './session.svelte.ts';
-import { CAUTION } from '../../core/caution.ts';
+import { CAUTION } from '../../core/shared/caution.ts';
 
 export class SuggestionsState {
   /** The app's session (registered by the map view, which every page has). */

@@ -2,9 +2,9 @@
 // in the targets (and its errors), cv with a covariate model.
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
-import { createPredictor } from '../../../src/core/kriging.ts';
-import { encodeCovariates } from '../../../src/core/covariates.ts';
-import { parseModel, type CovariateTrend } from '../../../src/core/model.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { encodeCovariates } from '../../../src/core/covariance/covariates.ts';
+import { parseModel, type CovariateTrend } from '../../../src/core/covariance/model.ts';
 import { covariateColumns } from '../../../src/io/sample-columns.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { workspace } from '../run-cli.ts';

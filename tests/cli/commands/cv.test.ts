@@ -1,11 +1,11 @@
-import { SOFTWARE } from '../../../src/core/version.ts';
+import { SOFTWARE } from '../../../src/core/shared/version.ts';
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
 import { sampleIds } from '../../../src/io/sample-table.ts';
-import { leaveOneOut } from '../../../src/core/cross-validation.ts';
-import { parseModel } from '../../../src/core/model.ts';
+import { leaveOneOut } from '../../../src/core/validation/cross-validation.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
-import { localLeaveOneOut } from '../../../src/core/local-cross-validation.ts';
+import { localLeaveOneOut } from '../../../src/core/validation/local-cross-validation.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace } from '../run-cli.ts';
 

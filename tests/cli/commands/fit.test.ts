@@ -1,8 +1,8 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
-import { fitModel } from '../../../src/core/fit.ts';
-import { vecchiaFit } from '../../../src/core/vecchia.ts';
-import { parseModel } from '../../../src/core/model.ts';
+import { fitModel } from '../../../src/core/fitting/fit.ts';
+import { vecchiaFit } from '../../../src/core/fitting/vecchia.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { parseNu, parseTrend, resolveFitMethod } from '../../../src/cli/commands/fit.ts';

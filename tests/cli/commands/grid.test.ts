@@ -8,12 +8,12 @@ import * as gjv from 'geojson-validation';
 import { fromArrayBuffer } from 'geotiff';
 import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace, type Workspace } from '../run-cli.ts';
 import { readSamples } from '../../../src/io/intake.ts';
-import { computeSurface } from '../../../src/core/surface.ts';
-import { gridFromExtent, type Grid } from '../../../src/core/grid.ts';
-import { computeBlockSurface } from '../../../src/core/block-kriging.ts';
-import { simulateConditional } from '../../../src/core/conditional-simulation.ts';
-import { parseModel } from '../../../src/core/model.ts';
-import { CAUTION } from '../../../src/core/caution.ts';
+import { computeSurface } from '../../../src/core/prediction/surface.ts';
+import { gridFromExtent, type Grid } from '../../../src/core/geometry/grid.ts';
+import { computeBlockSurface } from '../../../src/core/prediction/block-kriging.ts';
+import { simulateConditional } from '../../../src/core/simulation/conditional-simulation.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
+import { CAUTION } from '../../../src/core/shared/caution.ts';
 import { computeSurfaceSingle } from '../../../src/cli/parallel.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 

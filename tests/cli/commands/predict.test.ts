@@ -1,9 +1,9 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSamples } from '../../../src/io/intake.ts';
-import { createPredictor } from '../../../src/core/kriging.ts';
-import { createLocalPredictor } from '../../../src/core/local-kriging.ts';
-import { parseModel } from '../../../src/core/model.ts';
-import { normalCdf } from '../../../src/core/normal.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { createLocalPredictor } from '../../../src/core/prediction/local-kriging.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
+import { normalCdf } from '../../../src/core/shared/normal.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { loadFixture } from '../../helpers/fixtures.ts';
 import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace } from '../run-cli.ts';

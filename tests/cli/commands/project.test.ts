@@ -10,12 +10,12 @@ import { createProject, gridGeometry, saveProject, type Project } from '../../..
 import { readSamples } from '../../../src/io/intake.ts';
 import { planGrid } from '../../../src/ui/state/grid-plan.ts';
 import { splitBands, bandGrid } from '../../../src/worker/pool.ts';
-import { createPredictor } from '../../../src/core/kriging.ts';
-import { computeSurfaceWith } from '../../../src/core/surface.ts';
-import { leaveOneOut } from '../../../src/core/cross-validation.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { computeSurfaceWith } from '../../../src/core/prediction/surface.ts';
+import { leaveOneOut } from '../../../src/core/validation/cross-validation.ts';
 import { readPolygons, projectPolygons } from '../../../src/io/boundary.ts';
-import type { CovarianceModel } from '../../../src/core/model.ts';
-import type { Grid } from '../../../src/core/grid.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import type { Grid } from '../../../src/core/geometry/grid.ts';
 
 const DEMO = resolve(__dirname, '..', '..', '..', 'data-demo');
 const csv = readFileSync(resolve(DEMO, 'lead-topsoil.csv'), 'utf8');

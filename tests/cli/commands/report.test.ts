@@ -5,10 +5,10 @@ import { resolve } from 'node:path';
 import { planarSamplesCsv, workspace, type Workspace } from '../run-cli.ts';
 import { createProject, openProject, projectBoundary, projectGrid, projectIntake, saveProject, type ProjectSimulation } from '../../../src/io/project.ts';
 import { formatQuantity } from '../../../src/io/report.ts';
-import { CAUTION } from '../../../src/core/caution.ts';
-import { simulateConditional } from '../../../src/core/conditional-simulation.ts';
-import { exceedanceArea } from '../../../src/core/exceedance-area.ts';
-import type { CovarianceModel } from '../../../src/core/model.ts';
+import { CAUTION } from '../../../src/core/shared/caution.ts';
+import { simulateConditional } from '../../../src/core/simulation/conditional-simulation.ts';
+import { exceedanceArea } from '../../../src/core/prediction/exceedance-area.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 
 const version = (JSON.parse(readFileSync(resolve(__dirname, '..', '..', '..', 'package.json'), 'utf8')) as { version: string }).version;
@@ -89,7 +89,7 @@ describe('gapwise report: area above the action level', () => {
     const r = await ws.run('report', '--project', 'demo.json', '--realizations', '30', '--depth', '0.3', '--seed', '3', '--workers', '3', '--no-compare', '--out', 'r.html');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toMatch(/; drawn in \d+\.\d s on 3 worker threads\n/);
-    // The same realisations drawn here, kept, and summarised by core/exceedance-area.ts.
+    // The same realisations drawn here, kept, and summarised by core/prediction/exceedance-area.ts.
     const { project } = openProject(ws.read('demo.json'), 'demo.json');
     const intake = projectIntake(project);
     const grid = projectGrid(project, intake, projectBoundary(project, intake.report.crs.work));

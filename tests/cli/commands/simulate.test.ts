@@ -2,7 +2,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fromArrayBuffer } from 'geotiff';
-import { quantileSorted } from '../../../src/core/exceedance-area.ts';
+import { quantileSorted } from '../../../src/core/prediction/exceedance-area.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { planarSamplesCsv, workspace } from '../run-cli.ts';
 

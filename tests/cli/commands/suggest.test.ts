@@ -2,13 +2,13 @@ import { afterAll, describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
 import { readSamples } from '../../../src/io/intake.ts';
 import { createTransform } from '../../../src/io/crs.ts';
-import { suggestSites } from '../../../src/core/design.ts';
-import { parseModel } from '../../../src/core/model.ts';
-import { pointInPolygons } from '../../../src/core/polygon.ts';
+import { suggestSites } from '../../../src/core/design/design.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
+import { pointInPolygons } from '../../../src/core/geometry/polygon.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { planarSamplesCsv, workspace } from '../run-cli.ts';
-import { SOFTWARE } from '../../../src/core/version.ts';
+import { SOFTWARE } from '../../../src/core/shared/version.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { empiricalPlateau, modelConcerns } from '../../../src/ui/components/model-check.ts';
-import type { CovarianceModel } from '../../../src/core/model.ts';
-import type { EmpiricalVariogram } from '../../../src/core/variogram.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import type { EmpiricalVariogram } from '../../../src/core/fitting/variogram.ts';
 
 /** A variogram with a plateau of 10 beyond 40 m (lags 10 … 90 m, 50 pairs each). */
 function variogram(): EmpiricalVariogram {

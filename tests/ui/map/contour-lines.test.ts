@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { logContourLevels, mapContourLevels, mapContours } from '../../../src/ui/map/contour-lines.ts';
 import { createTransform, LOCAL_CRS } from '../../../src/io/crs.ts';
-import type { Grid } from '../../../src/core/grid.ts';
+import type { Grid } from '../../../src/core/geometry/grid.ts';
 
 /** A grid whose values rise linearly with x: v = a + b·x at each cell centre. */
 function ramp(grid: Grid, a: number, b: number): Float64Array {

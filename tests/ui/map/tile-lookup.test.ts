@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import proj4 from 'proj4';
 import { buildTileLattice, latticePosition, paintTile, readCell, type TileLattice } from '../../../src/ui/map/tile-lookup.ts';
 import { buildLut, colourAt } from '../../../src/ui/map/colour-scales.ts';
-import type { Grid } from '../../../src/core/grid.ts';
+import type { Grid } from '../../../src/core/geometry/grid.ts';
 
 // Web Mercator as Leaflet's default CRS (EPSG:3857, 256-pixel tiles) unprojects a global pixel
 // (spherical Mercator, the EPSG:3857 definition; written here from the formula, not from Leaflet).

@@ -15,9 +15,9 @@ import { emptySnapshot, parseSnapshot } from '../../../src/ui/state/snapshot.ts'
 import { bandOptions } from '../../../src/worker/pool.ts';
 import { errorData, errorFromData } from '../../../src/worker/protocol.ts';
 import { predictorKey } from '../../../src/worker/handler.ts';
-import { computeSurface } from '../../../src/core/surface.ts';
-import type { CovarianceModel } from '../../../src/core/model.ts';
-import { GapwiseError } from '../../../src/core/errors.ts';
+import { computeSurface } from '../../../src/core/prediction/surface.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import { GapwiseError } from '../../../src/core/shared/errors.ts';
 
 const TEXT = readFileSync(new URL('../../../data-demo/lead-topsoil-covariates.csv', import.meta.url), 'utf8');
 const intake = readSamples(TEXT, { fileName: 'lead-topsoil-covariates.csv', value: 'Pb (mg/kg)' });

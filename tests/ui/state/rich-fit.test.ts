@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import type { CovarianceModel } from '../../../src/core/model.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
 import type { StructureFitResult } from '../../../src/worker/protocol.ts';
 import { anisotropyText, comparisonLabel, directionalModelCurve, distanceFactor, guardNote, nestedText } from '../../../src/ui/state/rich-fit.ts';
 import { richFitOptions } from '../../../src/ui/state/rich-fit.svelte.ts';

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { CANDIDATES } from '../../../src/core/fit.ts';
-import type { CovarianceModel } from '../../../src/core/model.ts';
-import type { EmpiricalVariogram } from '../../../src/core/variogram.ts';
+import { CANDIDATES } from '../../../src/core/fitting/fit.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import type { EmpiricalVariogram } from '../../../src/core/fitting/variogram.ts';
 import {
   anisotropyHint, bestKey, CANDIDATE_SPECS, modelCurve, modelName, modelParts, withParts, type CandidateRow,
 } from '../../../src/ui/state/structure.ts';

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { designFromProject, projectSuggestions } from '../../../src/ui/state/suggestions.svelte.ts';
-import type { DesignResult, Suggestion } from '../../../src/core/design.ts';
+import type { DesignResult, Suggestion } from '../../../src/core/design/design.ts';
 
 function design(suggestions: Suggestion[]): DesignResult {
   return {

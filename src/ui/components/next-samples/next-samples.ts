@@ -3,13 +3,13 @@
  * working CRS, longitude/latitude for the suggestions, export files (GeoJSON, CSV, GPX) and the
  * figures the panel shows. No DOM here, so it is tested in Node.
  */
-import type { DesignMode, DesignResult } from '../../../core/design.ts';
-import type { Polygon } from '../../../core/grid.ts';
+import type { DesignMode, DesignResult } from '../../../core/design/design.ts';
+import type { Polygon } from '../../../core/geometry/grid.ts';
 import { readPolygons } from '../../../io/boundary.ts';
 import { suggestionsToCsv, suggestionsToGeoJson } from '../../../io/suggestions-export.ts';
 import { suggestionsToGpx } from '../../../io/gpx.ts';
 import { formatCount, formatValue } from '../../../io/format.ts';
-import { GapwiseError } from '../../../core/errors.ts';
+import { GapwiseError } from '../../../core/shared/errors.ts';
 
 export type ExportFormat = 'geojson' | 'csv' | 'gpx';
 export type PointTransform = (x: number, y: number) => [number, number];

@@ -6,9 +6,9 @@
  * recomputes). `drawnSimulation` is the project's record of realisations on screen. Pure functions,
  * no Svelte.
  */
-import { isCovariateTrend } from '../../../core/model.ts';
-import type { Grid } from '../../../core/grid.ts';
-import type { ConditionalSimulationResult } from '../../../core/conditional-simulation.ts';
+import { isCovariateTrend } from '../../../core/covariance/model.ts';
+import type { Grid } from '../../../core/geometry/grid.ts';
+import type { ConditionalSimulationResult } from '../../../core/simulation/conditional-simulation.ts';
 import {
   createProject, gridGeometry, projectSimulation, type ComparisonRow, type Project, type ProjectSimulation, type Suggestion,
 } from '../../../io/project.ts';

@@ -1,13 +1,13 @@
-import { SOFTWARE } from '../../../../src/core/version.ts';
+import { SOFTWARE } from '../../../../src/core/shared/version.ts';
 import { describe, expect, it } from 'vitest';
 import * as gjv from 'geojson-validation';
 import {
   areaText, defaultMode, exclusionsFromGeoJson, exportFile, safeStem, valueText, withLonLat,
 } from '../../../../src/ui/components/next-samples/next-samples.ts';
-import { suggestSites } from '../../../../src/core/design.ts';
-import { makeSamples } from '../../../../src/core/samples.ts';
+import { suggestSites } from '../../../../src/core/design/design.ts';
+import { makeSamples } from '../../../../src/core/shared/samples.ts';
 import { createTransform } from '../../../../src/io/crs.ts';
-import { CAUTION } from '../../../../src/core/caution.ts';
+import { CAUTION } from '../../../../src/core/shared/caution.ts';
 
 const utm = createTransform('EPSG:4326', 'EPSG:32633');
 const toWork = (lon: number, lat: number) => utm.forward(lon, lat);

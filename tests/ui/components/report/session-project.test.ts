@@ -1,10 +1,10 @@
 // sessionProject / snapshotFromProject: the app's session and a project file carry the same choices.
 import { describe, expect, it } from 'vitest';
 import { drawnSimulation, sessionProject, snapshotFromProject } from '../../../../src/ui/components/report/session-project.ts';
-import { summariseExceedanceCounts } from '../../../../src/core/exceedance-area.ts';
+import { summariseExceedanceCounts } from '../../../../src/core/prediction/exceedance-area.ts';
 import { emptySnapshot } from '../../../../src/ui/state/snapshot.ts';
 import { openProject, saveProject } from '../../../../src/io/project.ts';
-import type { CovarianceModel } from '../../../../src/core/model.ts';
+import type { CovarianceModel } from '../../../../src/core/covariance/model.ts';
 
 const model: CovarianceModel = { structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 50, nu: 1.5 }], trend: 'constant', transform: 'log' };
 

@@ -1,0 +1,453 @@
+/**
+ * Where to sample next: ranked new sample sites inside an area, by one of three criteria.
+ *
+ * - 'variance': greedy sites that most reduce the average variance of the noise-free surface over the
+ *   area (./design-greedy.ts; exact rank-one updates of the kriging posterior covariance).
+ * - 'decision': greedy sites that most reduce the expected misclassified area against an action level
+ *   T (./design-misclassification.ts; Bect et al. 2012, Stat. Comput. 22:773).
+ * - 'coverage': before any model, k-means spatial coverage with the samples held fixed
+ *   (./design-coverage.ts; Walvoort, Brus & de Gruijter 2010, Comput. Geosci. 36:1261).
+ * The area is a grid of cells: those with their centre inside the boundary polygons, or the samples'
+ * bounding box without a boundary. Candidates are the cell centres inside the area and outside the
+ * exclusion polygons, or given points (those inside the area and outside exclusions); every new site
+ * keeps the minimum spacing to the samples and to the other new sites. The average over the area is
+ * taken over the cells, thinned to a regular sub-lattice when there are more than
+ * `maxEvaluationPoints` (a coarser quadrature of the same integral).
+ * Units: working-CRS metres and m²; mean and sd in data units; variances on the kriging scale.
+ * Cost: see ./design-greedy.ts and ./design-coverage.ts.
+ */
+import type { CovarianceModel } from '../covariance/model.ts';
+import { nuggetOf } from '../covariance/model.ts';
+import type { Samples } from '../shared/samples.ts';
+import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
+import { CAUTION } from '../shared/caution.ts';
+import { cellCentres, gridForPolygons, gridFromExtent, type Grid, type Polygon } from '../geometry/grid.ts';
+import { pointInPolygons, polygonsArea, polygonsExtent } from '../geometry/polygon.ts';
+import { buildKrigingSystem, predictWithSystem } from '../prediction/kriging.ts';
+import { exceedanceProbability } from '../shared/normal.ts';
+import { NeighborIndex } from '../geometry/neighbors.ts';
+import { greedyDesign, type Points } from './design-greedy.ts';
+import { coverageDesign } from './design-coverage.ts';
+
+export type DesignMode = 'variance' | 'decision' | 'coverage';
+
+/** Options of a design (plain data: the same object in the app, the worker, the CLI and tests). */
+export interface DesignOptions {
+  /** How many new sites, 1 to 500. */
+  count: number;
+  /** Default: 'decision' with a threshold, 'variance' with a model, 'coverage' without a model. */
+  mode?: DesignMode;
+  /** Action level in data units: the target of 'decision'; with 'variance', the misclassified area is reported too. */
+  threshold?: number;
+  /** Cell size of the area grid and of the candidate grid, metres. Default: about 10,000 cells over the area. */
+  cell?: number;
+  /** Area polygons in the working CRS ([outer ring, ...holes], rings of [x, y]). Default: the samples' bounding box. */
+  boundary?: Polygon[];
+  /** Places not to sample (working CRS). They still count in the area's average. */
+  exclusions?: Polygon[];
+  /** Least distance from a new site to the samples and to the other new sites, metres. Default 0. */
+  minSpacing?: number;
+  /** Accessible points (working CRS) to choose from instead of the grid cells. */
+  candidates?: { x: ArrayLike<number>; y: ArrayLike<number> };
+  /** Noise variance of a new measurement (kriging scale). Default: the model's nugget. */
+  noise?: number;
+  /** Most evaluation points for the area average (default 1,000). */
+  maxEvaluationPoints?: number;
+  /** Most candidates examined in the screening pass before refinement (default 1,000). */
+  maxScreenCandidates?: number;
+  /** Coverage: most grid points for k-means (default 20,000). */
+  maxCoveragePoints?: number;
+  /** Coverage: seed and restarts (defaults 1 and 4). */
+  seed?: number;
+  restarts?: number;
+}
+
+/** Progress and cancellation (functions, so outside the JSON options). */
+export interface DesignHooks {
+  onProgress?: (done: number, total: number, stage: string) => void;
+  isCancelled?: () => boolean;
+}
+
+/** One suggested site. */
+export interface Suggestion {
+  /** 1 = the most useful. */
+  rank: number;
+  /** Working-CRS metres. */
+  x: number;
+  y: number;
+  /** WGS 84, filled by the caller that knows the CRS. */
+  lon?: number;
+  lat?: number;
+  /**
+   * Expected benefit when added after the higher-ranked sites: 'variance' the drop of the average
+   * variance over the area (kriging-scale units²); 'decision' the drop of the expected misclassified
+   * area (m²); 'coverage' how much the mean squared distance to the nearest sample would rise without
+   * this site (m²).
+   */
+  benefit: number;
+  /** Current kriging mean and sd there (data units; null without a model). */
+  mean: number | null;
+  sd: number | null;
+  /** Current P(value > threshold) there (null without a threshold or model). */
+  pExceed: number | null;
+}
+
+export interface DesignResult {
+  mode: DesignMode;
+  /** Sites asked for (suggestions may be fewer when the constraints leave no room). */
+  requested: number;
+  suggestions: Suggestion[];
+  /** What `benefit` measures, in words with its unit. */
+  benefitMeaning: string;
+  /** Scale of the variances and average sd: the data or, for a log model, ln(value). */
+  scale: 'data' | 'log';
+  /** Mean over the area of the sd of the noise-free surface, before and after the new sites (null in coverage without a model). */
+  averageSdBefore: number | null;
+  averageSdAfter: number | null;
+  /** Expected misclassified area against the threshold, before and after, and their difference (m²). */
+  misclassifiedAreaBefore: number | null;
+  misclassifiedAreaAfter: number | null;
+  /** m² expected to move from uncertain to decided: before − after. */
+  areaDecided: number | null;
+  /** Coverage: root mean squared distance from the area to the nearest sample, before and after (m). */
+  coverageDistanceBefore: number | null;
+  coverageDistanceAfter: number | null;
+  threshold: number | null;
+  /** Area of the grid cells inside the boundary (m²) and the cell size (m). */
+  area: number;
+  cell: number;
+  minSpacing: number;
+  evaluationPoints: number;
+  /** Candidates after the constraints, and how many the screening pass examined. */
+  candidatePoints: number;
+  screenedCandidates: number;
+  warnings: Warning[];
+  caution: string;
+}
+
+const DEFAULT_CELLS = 10_000;
+const MAX_COUNT = 500;
+/** The most evaluation points and screened candidates of a variance-based design (each a row of n features). */
+export const MAX_DESIGN_POINTS = 20_000;
+/** The most points of a coverage design's objective. */
+export const MAX_COVERAGE_POINTS = 200_000;
+
+function checkNumber(v: unknown, name: string, min: number, inclusive: boolean): number {
+  if (typeof v !== 'number' || !Number.isFinite(v) || (inclusive ? v < min : v <= min)) {
+    throw new GapwiseError('bad-option', `Expected ${name} to be a number ${inclusive ? '≥' : '>'} ${min}, got ${String(v)}.`);
+  }
+  return v;
+}
+
+/** A round cell size near `raw`: 1, 2, 2.5 or 5 times a power of ten. */
+export function niceCell(raw: number): number {
+  if (!(raw > 0) || !Number.isFinite(raw)) return 1;
+  const p = 10 ** Math.floor(Math.log10(raw));
+  const f = raw / p;
+  const step = f < 1.5 ? 1 : f < 2.25 ? 2 : f < 3.5 ? 2.5 : f < 7.5 ? 5 : 10;
+  return step * p;
+}
+
+/** The default cell size: about 10,000 cells over the area (m² → m). */
+export function defaultCell(area: number): number {
+  return niceCell(Math.sqrt(area / DEFAULT_CELLS));
+}
+
+function extentOf(xs: ArrayLike<number>[], ys: ArrayLike<number>[]): { xmin: number; ymin: number; xmax: number; ymax: number } {
+  let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
+  xs.forEach((x, k) => {
+    const y = ys[k];
+    for (let i = 0; i < x.length; i++) {
+      if (x[i] < xmin) xmin = x[i];
+      if (x[i] > xmax) xmax = x[i];
+      if (y[i] < ymin) ymin = y[i];
+      if (y[i] > ymax) ymax = y[i];
+    }
+  });
+  return { xmin, ymin, xmax, ymax };
+}
+
+/** Active cells thinned to at most `max`: a regular sub-lattice, else every k-th cell. */
+function thinCells(grid: Grid, max: number): Points {
+  const all = cellCentres(grid);
+  const total = all.x.length;
+  if (total <= max) return { x: all.x, y: all.y };
+  const f = Math.ceil(Math.sqrt(total / max));
+  const off = f >> 1;
+  const xs: number[] = [];
+  const ys: number[] = [];
+  for (let k = 0; k < total; k++) {
+    const idx = all.index[k];
+    const i = idx % grid.nx;
+    const j = Math.floor(idx / grid.nx);
+    if (i % f === off && j % f === off) {
+      xs.push(all.x[k]);
+      ys.push(all.y[k]);
+    }
+  }
+  if (xs.length >= Math.min(max, total) / 8 && xs.length <= max) return { x: Float64Array.from(xs), y: Float64Array.from(ys) };
+  const stride = total / max;
+  const m = Math.floor(total / stride);
+  const x = new Float64Array(m);
+  const y = new Float64Array(m);
+  for (let k = 0; k < m; k++) {
+    const at = Math.floor((k + 0.5) * stride);
+    x[k] = all.x[at];
+    y[k] = all.y[at];
+  }
+  return { x, y };
+}
+
+/** One candidate per square bucket of side `size` (the one nearest the bucket's centre). */
+function screenSubset(c: Points, size: number): Uint32Array {
+  const best = new Map<string, { id: number; d: number }>();
+  for (let i = 0; i < c.x.length; i++) {
+    const bi = Math.floor(c.x[i] / size);
+    const bj = Math.floor(c.y[i] / size);
+    const d = Math.hypot(c.x[i] - (bi + 0.5) * size, c.y[i] - (bj + 0.5) * size);
+    const key = `${bi},${bj}`;
+    const b = best.get(key);
+    if (!b || d < b.d || (d === b.d && i < b.id)) best.set(key, { id: i, d });
+  }
+  return Uint32Array.from([...best.values()].map((b) => b.id).sort((a, b) => a - b));
+}
+
+function resolveMode(options: DesignOptions, model: CovarianceModel | null): DesignMode {
+  const mode = options.mode ?? (model === null ? 'coverage' : options.threshold !== undefined ? 'decision' : 'variance');
+  if (mode !== 'variance' && mode !== 'decision' && mode !== 'coverage') {
+    throw new GapwiseError('bad-option', `Expected the mode to be "variance", "decision" or "coverage", got ${JSON.stringify(mode)}.`);
+  }
+  if (mode !== 'coverage' && model === null) {
+    throw new GapwiseError('bad-option', `The ${mode} design needs a fitted model; without one, use the coverage design.`);
+  }
+  if (mode === 'decision' && options.threshold === undefined) {
+    throw new GapwiseError('bad-option', 'The decision design needs an action level (threshold); expected a number in data units.');
+  }
+  return mode;
+}
+
+/**
+ * Suggests where to sample next. `model` may be null (coverage design only).
+ * Throws GapwiseError: 'bad-option' (count, cell, spacing, mode, no room for candidates),
+ * 'bad-geometry' (boundary), 'cancelled', and the kriging errors of ./kriging.ts.
+ */
+export function suggestSites(
+  samples: Samples, model: CovarianceModel | null, options: DesignOptions, hooks: DesignHooks = {},
+): DesignResult {
+  if (!options || typeof options !== 'object') throw new GapwiseError('bad-option', 'Expected design options with at least a count.');
+  const count = checkNumber(options.count, 'the count of new sites', 1, true);
+  if (!Number.isInteger(count) || count > MAX_COUNT) {
+    throw new GapwiseError('bad-option', `Expected the count of new sites to be a whole number from 1 to ${MAX_COUNT}, got ${count}.`);
+  }
+  const mode = resolveMode(options, model);
+  const minSpacing = options.minSpacing === undefined ? 0 : checkNumber(options.minSpacing, 'the minimum spacing (m)', 0, true);
+  if (options.threshold !== undefined) checkNumber(options.threshold, 'the threshold', -Infinity, false);
+  if (options.noise !== undefined) checkNumber(options.noise, 'the noise variance', 0, true);
+  const maxEval = Math.floor(checkNumber(options.maxEvaluationPoints ?? 1000, 'maxEvaluationPoints', 1, true));
+  const maxScreen = Math.floor(checkNumber(options.maxScreenCandidates ?? 1000, 'maxScreenCandidates', 1, true));
+  const maxCoverage = Math.floor(checkNumber(options.maxCoveragePoints ?? 20_000, 'maxCoveragePoints', 1, true));
+  // Each evaluation point and screened candidate holds a row of n posterior features.
+  checkCount(maxEval, MAX_DESIGN_POINTS, 'The evaluation points (maxEvaluationPoints)', 'choose fewer');
+  checkCount(maxScreen, MAX_DESIGN_POINTS, 'The screened candidates (maxScreenCandidates)', 'choose fewer');
+  checkCount(maxCoverage, MAX_COVERAGE_POINTS, 'The coverage points (maxCoveragePoints)', 'choose fewer');
+  const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
+  const exclusions = options.exclusions ?? [];
+  const log = model?.transform === 'log';
+  const warnings: Warning[] = [];
+  const n = samples.x.length;
+  const progress = (done: number, total: number, stage: string): void => hooks.onProgress?.(done, total, stage);
+  progress(0, 1, 'area');
+
+  // The area and its grid.
+  const given = options.candidates;
+  const gx = given ? Float64Array.from(given.x) : null;
+  const gy = given ? Float64Array.from(given.y) : null;
+  if (gx && gy && gx.length !== gy.length) {
+    throw new GapwiseError('bad-option', `Expected candidate x and y of equal length, got ${gx.length} and ${gy.length}.`);
+  }
+  let areaGuess: number;
+  let extent: { xmin: number; ymin: number; xmax: number; ymax: number } | null;
+  if (boundary) {
+    extent = polygonsExtent(boundary);
+    areaGuess = polygonsArea(boundary);
+  } else {
+    const xs: ArrayLike<number>[] = [samples.x];
+    const ys: ArrayLike<number>[] = [samples.y];
+    if (gx && gy) {
+      xs.push(gx);
+      ys.push(gy);
+    }
+    extent = extentOf(xs, ys);
+    if (!(extent.xmax > extent.xmin && extent.ymax > extent.ymin)) {
+      throw new GapwiseError('bad-option', 'Without a boundary the area is the samples\' bounding box, which is empty here; expected a boundary polygon or samples spread in both directions.');
+    }
+    areaGuess = (extent.xmax - extent.xmin) * (extent.ymax - extent.ymin);
+    warnings.push({ code: 'no-boundary', message: 'No boundary was given: the area is the bounding box of the samples.' });
+  }
+  if (!extent || !(areaGuess > 0)) throw new GapwiseError('bad-geometry', 'The boundary encloses no area; expected polygons with a positive area.');
+  const cell = options.cell === undefined ? defaultCell(areaGuess) : checkNumber(options.cell, 'the cell size (m)', 0, false);
+  const grid = boundary ? gridForPolygons(boundary, cell) : gridFromExtent(extent.xmin, extent.ymin, extent.xmax, extent.ymax, cell);
+  const cellsIn = cellCentres(grid);
+  const area = cellsIn.x.length * cell * cell;
+
+  // Candidates: inside the area, outside exclusions, spaced from the samples.
+  const rawX = gx ?? cellsIn.x;
+  const rawY = gy ?? cellsIn.y;
+  const sampleIndex = n > 0 ? new NeighborIndex(samples.x, samples.y) : null;
+  const keepX: number[] = [];
+  const keepY: number[] = [];
+  let outside = 0, excluded = 0, tooClose = 0;
+  const nearId = new Uint32Array(1);
+  const nearD2 = new Float64Array(1);
+  for (let i = 0; i < rawX.length; i++) {
+    const x = rawX[i], y = rawY[i];
+    if (!Number.isFinite(x) || !Number.isFinite(y)) {
+      throw new GapwiseError('bad-option', `Candidate ${i + 1} has coordinates (${x}, ${y}); expected finite numbers.`, { row: i + 1 });
+    }
+    if (boundary ? !pointInPolygons(x, y, boundary) : gx !== null && (x < extent.xmin || x > extent.xmax || y < extent.ymin || y > extent.ymax)) {
+      outside++;
+      continue;
+    }
+    if (exclusions.length > 0 && pointInPolygons(x, y, exclusions)) {
+      excluded++;
+      continue;
+    }
+    if (minSpacing > 0 && sampleIndex) {
+      sampleIndex.nearest(x, y, 1, nearId, nearD2);
+      if (Math.sqrt(nearD2[0]) < minSpacing) {
+        tooClose++;
+        continue;
+      }
+    }
+    keepX.push(x);
+    keepY.push(y);
+  }
+  if (gx && outside > 0) warnings.push({ code: 'candidates-outside', message: `${outside} of ${gx.length} candidate points lie outside the area and were left out.` });
+  if (gx && excluded > 0) warnings.push({ code: 'candidates-excluded', message: `${excluded} of ${gx.length} candidate points lie in an excluded area and were left out.` });
+  if (gx && tooClose > 0) warnings.push({ code: 'candidates-too-close', message: `${tooClose} of ${gx.length} candidate points lie closer than ${minSpacing} m to a sample and were left out.` });
+  if (keepX.length === 0) {
+    throw new GapwiseError('bad-option', `No candidate site is left after the constraints (${outside} outside the area, ${excluded} excluded, ${tooClose} closer than ${minSpacing} m to a sample); expected at least one: relax the spacing or the exclusions.`);
+  }
+  const candidates: Points = { x: Float64Array.from(keepX), y: Float64Array.from(keepY) };
+  const candIndex = new NeighborIndex(candidates.x, candidates.y);
+  const within = (x: number, y: number, r: number): number[] => candIndex.within(x, y, r);
+
+  const base = {
+    mode, requested: count, threshold: options.threshold ?? null, area, cell, minSpacing,
+    candidatePoints: candidates.x.length, warnings, caution: CAUTION,
+  };
+  const finish = (sites: Array<{ x: number; y: number; benefit: number }>, predicted: ReturnType<typeof predictWithSystem> | null): Suggestion[] =>
+    sites.map((s, k) => {
+      let pExceed: number | null = null;
+      if (predicted && options.threshold !== undefined) {
+        const t = options.threshold;
+        pExceed = log
+          ? t <= 0 ? 1 : exceedanceProbability(predicted.logMean![k], predicted.logSd![k], Math.log(t))
+          : exceedanceProbability(predicted.mean[k], predicted.sd[k], t);
+      }
+      return {
+        rank: k + 1, x: s.x, y: s.y, benefit: s.benefit,
+        mean: predicted ? predicted.mean[k] : null, sd: predicted ? predicted.sd[k] : null, pExceed,
+      };
+    });
+  const shortfall = (got: number): void => {
+    if (got < count) warnings.push({ code: 'too-few-sites', message: `Only ${got} of ${count} sites fit the constraints (area, exclusions, a spacing of ${minSpacing} m).` });
+  };
+
+  if (mode === 'coverage') {
+    const points = thinCells(grid, maxCoverage);
+    const result = coverageDesign({
+      points, fixed: { x: samples.x, y: samples.y }, candidates, count, minSpacing,
+      seed: options.seed ?? 1, restarts: Math.max(1, Math.floor(options.restarts ?? 4)), maxIterations: 100,
+    }, hooks.isCancelled);
+    shortfall(result.sites.length);
+    let predicted: ReturnType<typeof predictWithSystem> | null = null;
+    if (model && n > 0 && result.sites.length > 0) {
+      const sys = buildKrigingSystem(samples, model);
+      warnings.push(...sys.warnings);
+      predicted = predictWithSystem(sys, result.sites.map((s) => s.x), result.sites.map((s) => s.y));
+    }
+    progress(1, 1, 'done');
+    return {
+      ...base,
+      suggestions: finish(result.sites, predicted),
+      benefitMeaning: 'how much the mean squared distance from the area to the nearest sample would rise without this site (m²)',
+      scale: log ? 'log' : 'data',
+      averageSdBefore: null, averageSdAfter: null,
+      misclassifiedAreaBefore: null, misclassifiedAreaAfter: null, areaDecided: null,
+      coverageDistanceBefore: Number.isFinite(result.objectiveBefore) ? Math.sqrt(result.objectiveBefore) : null,
+      coverageDistanceAfter: Math.sqrt(result.objectiveAfter),
+      evaluationPoints: points.x.length, screenedCandidates: candidates.x.length,
+    };
+  }
+
+  const m = model as CovarianceModel;
+  const sys = buildKrigingSystem(samples, m);
+  warnings.push(...sys.warnings);
+  const noise = options.noise ?? nuggetOf(m);
+  if (noise === 0) warnings.push({ code: 'no-nugget', message: 'The model has no nugget: new measurements are treated as exact.' });
+  let threshold: number | undefined;
+  if (options.threshold !== undefined) {
+    if (log && !(options.threshold > 0)) {
+      throw new GapwiseError('bad-option', `A log model needs a threshold greater than 0, got ${options.threshold}.`);
+    }
+    threshold = log ? Math.log(options.threshold) : options.threshold;
+  }
+  const evaluation = thinCells(grid, maxEval);
+  const mE = evaluation.x.length;
+  let screen: Uint32Array | undefined;
+  let refineRadius: number | undefined;
+  if (candidates.x.length > maxScreen) {
+    const spacing = gx ? Math.sqrt(Math.max(area, 1) / candidates.x.length) : cell;
+    let size = spacing * Math.ceil(Math.sqrt(candidates.x.length / maxScreen));
+    screen = screenSubset(candidates, size);
+    while (screen.length > maxScreen) {
+      size *= 1.15;
+      screen = screenSubset(candidates, size);
+    }
+    refineRadius = 0.75 * size;
+    warnings.push({
+      code: 'screened',
+      message: `${candidates.x.length.toLocaleString('en')} candidates were screened on ${screen.length.toLocaleString('en')} of them, and each pick refined among the candidates within ${Math.round(refineRadius)} m.`,
+    });
+  }
+  if (mE < cellsIn.x.length) {
+    warnings.push({ code: 'thinned-area', message: `The area's average is taken over ${mE.toLocaleString('en')} of its ${cellsIn.x.length.toLocaleString('en')} cells (a regular sub-lattice).` });
+  }
+  const result = greedyDesign({
+    system: sys, evaluation, evaluationArea: area / mE, candidates, screen, refineRadius, within,
+    allowed: new Uint8Array(candidates.x.length).fill(1), count, noise, minSpacing,
+    threshold: mode === 'decision' ? threshold : undefined,
+    reportThreshold: threshold,
+  }, { onProgress: (d, t) => progress(d, t, 'sites'), isCancelled: hooks.isCancelled });
+  shortfall(result.picks.length);
+  const predicted = result.picks.length > 0
+    ? predictWithSystem(sys, result.picks.map((s) => s.x), result.picks.map((s) => s.y))
+    : null;
+  let sdBefore = 0;
+  let sdAfter = 0;
+  for (let e = 0; e < mE; e++) {
+    sdBefore += Math.sqrt(result.varianceBefore[e]);
+    sdAfter += Math.sqrt(result.varianceAfter[e]);
+  }
+  progress(1, 1, 'done');
+  const before = result.misclassifiedBefore ?? null;
+  const after = result.misclassifiedAfter ?? null;
+  return {
+    ...base,
+    suggestions: finish(result.picks, predicted),
+    benefitMeaning: mode === 'decision'
+      ? 'drop of the expected misclassified area against the threshold (m²)'
+      : `drop of the average variance of the surface over the area (${log ? 'ln(value)' : 'data unit'} squared)`,
+    scale: log ? 'log' : 'data',
+    averageSdBefore: sdBefore / mE,
+    averageSdAfter: sdAfter / mE,
+    misclassifiedAreaBefore: before,
+    misclassifiedAreaAfter: after,
+    areaDecided: before !== null && after !== null ? before - after : null,
+    coverageDistanceBefore: null,
+    coverageDistanceAfter: null,
+    evaluationPoints: mE,
+    screenedCandidates: screen ? screen.length : candidates.x.length,
+  };
+}

@@ -1,0 +1,385 @@
+/**
+ * The measured error of local neighbourhoods (./local-kriging.ts) against exact kriging, and the
+ * growth of the neighbourhood when a tolerance is missed.
+ *
+ * After a local run, a seeded random subset of the targets (CHECK_COUNT, all when fewer; see
+ * ./path-choice.ts) is kriged again by the reference: exact kriging from all samples up to
+ * REFERENCE_EXACT_LIMIT samples (./kriging.ts), above that kriging from the REFERENCE_NEIGHBORS nearest
+ * samples of each checked target around the GLS mean of all samples. The differences of mean and sd
+ * at those targets are reported as largest and root-mean-square, in % of the prior sd of the
+ * surface (√ of its sill without the nugget; on the log scale for a log model, where kriging works).
+ * When the largest difference misses the tolerance, larger settings are tried at the checked targets
+ * only, cheapest first (the GLS mean of all samples, then twice the neighbours up to
+ * maxGrownNeighbors(n)), and the first within the tolerance is rerun for every target; when none is,
+ * the caller may take the exact path. Local results do not depend on which targets are predicted
+ * together (./local-kriging.ts), so the subset's values equal those of the full run.
+ * Cost: the reference (see ./path-choice.ts localCost) plus, per growth step, c local predictions.
+ */
+import type { CovarianceModel } from '../covariance/model.ts';
+import type { Samples } from '../shared/samples.ts';
+import { createRandom } from '../shared/random.ts';
+import type { Warning } from '../shared/errors.ts';
+import { surfaceVariance } from '../covariance/covariance.ts';
+import { covariateColumnCount, trendColumnCount } from '../covariance/trend.ts';
+import { cellCentres, type Grid } from '../geometry/grid.ts';
+import { spatialOrder } from './target-spacing.ts';
+import { createPredictor, type Prediction } from './kriging.ts';
+import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
+import {
+  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, type Tolerance,
+} from './path-choice.ts';
+
+/** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
+export const MAX_GROWN_NEIGHBORS = 512;
+/** Largest neighbourhood the growth tries when the reference is itself a neighbourhood (REFERENCE_NEIGHBORS). */
+export const MAX_GROWN_NEIGHBORS_LARGE = 256;
+
+/** The largest neighbourhood the growth tries for n samples. */
+export function maxGrownNeighbors(samples: number): number {
+  return Math.min(samples, samples <= REFERENCE_EXACT_LIMIT ? MAX_GROWN_NEIGHBORS : MAX_GROWN_NEIGHBORS_LARGE);
+}
+/** Seed of the checked subset when none is given. */
+export const DEFAULT_CHECK_SEED = 1;
+
+/** Largest and root-mean-square difference, % of the prior sd. */
+export interface ErrorFigures {
+  max: number;
+  rms: number;
+}
+
+/** The measured error of a local run (plain data: goes to JSON, GeoTIFF metadata, the report). */
+export interface LocalAccuracy {
+  /** Targets checked, and of how many. */
+  checked: number;
+  targets: number;
+  seed: number;
+  /** 'exact': exact kriging from all samples; 'nearest': from the `referenceNeighbors` nearest samples. */
+  reference: 'exact' | 'nearest';
+  referenceNeighbors?: number;
+  /** 'log' when compared on the log scale (log models). */
+  scale: 'data' | 'log';
+  /** The prior sd the figures are relative to (on `scale`). */
+  priorSd: number;
+  mean: ErrorFigures;
+  sd: ErrorFigures;
+  tolerance: Tolerance;
+  within: boolean;
+  /** Settings of the local run measured. */
+  neighbors: number;
+  globalMean: boolean;
+}
+
+/** Kriging-scale values at the checked targets. */
+export interface CheckedValues {
+  mean: ArrayLike<number>;
+  sd: ArrayLike<number>;
+}
+
+/** The reference at the checked targets (kriging scale) and what it is. */
+export interface ReferenceValues extends CheckedValues {
+  reference: 'exact' | 'nearest';
+  referenceNeighbors?: number;
+}
+
+/** `count` distinct target indices out of `total`, seeded, in increasing order (all when count ≥ total). */
+export function chooseCheckTargets(total: number, count: number, seed = DEFAULT_CHECK_SEED): Uint32Array {
+  const k = Math.max(0, Math.min(total, Math.floor(count)));
+  if (k === total) return Uint32Array.from({ length: total }, (_, i) => i);
+  // Partial Fisher–Yates on a sparse map: O(k) memory whatever the total.
+  const r = createRandom(seed);
+  const swapped = new Map<number, number>();
+  const out = new Uint32Array(k);
+  for (let i = 0; i < k; i++) {
+    const j = i + Math.floor(r.uniform() * (total - i));
+    const vj = swapped.get(j) ?? j;
+    swapped.set(j, swapped.get(i) ?? i);
+    out[i] = vj;
+  }
+  return out.sort();
+}
+
+/** The values of `p` at indices `idx`, on the kriging scale (log scale for a log model). */
+export function checkedValues(p: Prediction, idx: ArrayLike<number>, log: boolean): CheckedValues {
+  const mean = new Float64Array(idx.length);
+  const sd = new Float64Array(idx.length);
+  const m = log ? p.logMean! : p.mean;
+  const s = log ? p.logSd! : p.sd;
+  for (let k = 0; k < idx.length; k++) {
+    mean[k] = m[idx[k]];
+    sd[k] = s[idx[k]];
+  }
+  return { mean, sd };
+}
+
+/** Kriging of the checked targets by the reference (see the file header). */
+export function referencePredictions(
+  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, globalBeta?: number[],
+  covariates?: ArrayLike<number>,
+): ReferenceValues {
+  const withCovariates = covariates ? { covariates } : {};
+  const n = samples.x.length;
+  const log = model.transform === 'log';
+  const all = Uint32Array.from({ length: x.length }, (_, i) => i);
+  if (n <= REFERENCE_EXACT_LIMIT) {
+    const p = createPredictor(samples, model).predict(x, y, withCovariates);
+    return { ...checkedValues(p, all, log), reference: 'exact' };
+  }
+  const p = createLocalPredictor(samples, model, { neighbors: REFERENCE_NEIGHBORS, globalMean: true, ...(globalBeta ? { globalBeta } : {}) }).predict(x, y, withCovariates);
+  return { ...checkedValues(p, all, log), reference: 'nearest', referenceNeighbors: Math.min(n, REFERENCE_NEIGHBORS) };
+}
+
+/** The prior sd of the surface on the kriging scale: √ of its sill without the nugget. */
+export function priorSdOf(model: CovarianceModel): number {
+  return Math.sqrt(surfaceVariance(model));
+}
+
+/** Largest and RMS differences of `local` from `reference`, % of `priorSd`. */
+export function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, priorSd: number): ErrorFigures {
+  let max = 0;
+  let ss = 0;
+  for (let k = 0; k < reference.length; k++) {
+    const d = Math.abs(local[k] - reference[k]);
+    // A NaN difference is never within tolerance.
+    if (!(d <= max)) max = Number.isNaN(d) ? NaN : d;
+    ss += d * d;
+  }
+  const count = Math.max(1, reference.length);
+  return { max: (100 * max) / priorSd, rms: (100 * Math.sqrt(ss / count)) / priorSd };
+}
+
+/** Compares local values at the checked targets with the reference there. */
+export function compareWithReference(
+  model: CovarianceModel, reference: ReferenceValues, local: CheckedValues,
+  info: { targets: number; seed: number; neighbors: number; globalMean: boolean; tolerance?: Tolerance },
+): LocalAccuracy {
+  const priorSd = priorSdOf(model);
+  const tolerance = info.tolerance ?? DEFAULT_TOLERANCE;
+  const mean = errorFigures(reference.mean, local.mean, priorSd);
+  const sd = errorFigures(reference.sd, local.sd, priorSd);
+  return {
+    checked: reference.mean.length, targets: info.targets, seed: info.seed,
+    reference: reference.reference,
+    ...(reference.referenceNeighbors !== undefined ? { referenceNeighbors: reference.referenceNeighbors } : {}),
+    scale: model.transform === 'log' ? 'log' : 'data',
+    priorSd, mean, sd, tolerance,
+    within: mean.max <= tolerance.mean && sd.max <= tolerance.sd,
+    neighbors: info.neighbors, globalMean: info.globalMean,
+  };
+}
+
+/** Local settings the growth may change (the rest of LocalKrigingOptions is kept). */
+export interface LocalSettings {
+  neighbors: number;
+  globalMean: boolean;
+}
+
+/**
+ * The larger settings to try after `start` missed the tolerance, cheapest first: the GLS mean of all
+ * samples (when the trend is estimated), then twice the neighbours up to maxGrownNeighbors(n).
+ */
+export function growthSteps(start: LocalSettings, samples: number, model: CovarianceModel): LocalSettings[] {
+  const steps: LocalSettings[] = [];
+  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
+  let s = { ...start };
+  if (!s.globalMean && estimated) {
+    s = { ...s, globalMean: true };
+    steps.push(s);
+  }
+  const cap = maxGrownNeighbors(samples);
+  while (s.neighbors < cap) {
+    s = { ...s, neighbors: Math.min(2 * s.neighbors, cap) };
+    steps.push(s);
+  }
+  return steps;
+}
+
+/** One tried setting and what it measured at the checked targets. */
+export interface GrowthAttempt extends LocalSettings {
+  meanMax: number;
+  sdMax: number;
+  within: boolean;
+}
+
+/**
+ * Tries the growth steps at the checked targets only and returns the first within the tolerance
+ * (null when none is), with every attempt's figures.
+ */
+export function findGrowth(
+  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, reference: ReferenceValues,
+  start: LocalSettings, base: LocalKrigingOptions, tolerance: Tolerance = DEFAULT_TOLERANCE,
+  covariates?: ArrayLike<number>,
+): { settings: LocalSettings | null; attempts: GrowthAttempt[] } {
+  const log = model.transform === 'log';
+  const all = Uint32Array.from({ length: x.length }, (_, i) => i);
+  const attempts: GrowthAttempt[] = [];
+  for (const step of growthSteps(start, samples.x.length, model)) {
+    const p = createLocalPredictor(samples, model, { ...base, ...step }).predict(x, y, covariates ? { covariates } : {});
+    const a = compareWithReference(model, reference, checkedValues(p, all, log), { targets: x.length, seed: 0, ...step, tolerance });
+    attempts.push({ ...step, meanMax: a.mean.max, sdMax: a.sd.max, within: a.within });
+    if (a.within) return { settings: step, attempts };
+  }
+  return { settings: null, attempts };
+}
+
+/** Options of predictLocalChecked (plain data). */
+export interface CheckedLocalOptions {
+  local?: LocalKrigingOptions;
+  tolerance?: Tolerance;
+  seed?: number;
+  /** Try larger settings when the tolerance is missed; default true. */
+  grow?: boolean;
+  /** Take exact kriging when no larger setting meets the tolerance; default true. */
+  exactFallback?: boolean;
+  /** A covariate model: the targets' encoded covariates, row-major (targets × covariate columns). */
+  covariates?: ArrayLike<number>;
+}
+
+/** A local prediction with its measured error and what was done to meet the tolerance. */
+export interface CheckedLocalPrediction {
+  prediction: Prediction;
+  path: 'local' | 'exact';
+  /** Settings of the local run returned (the last one run when the path became exact). */
+  settings: LocalSettings;
+  /** The measured error of the returned local values (of the last local run when the path became exact). */
+  accuracy: LocalAccuracy;
+  attempts: GrowthAttempt[];
+  /** Sentences for the user: the growth or the switch to exact kriging, and a missed tolerance. */
+  notes: string[];
+  warnings: Warning[];
+}
+
+/** The prediction at targets given in `order` (order[k] = the target at position k), back in the targets' order. */
+function unpermute(p: Prediction, order: Uint32Array): Prediction {
+  const back = (a: Float64Array | undefined): Float64Array | undefined => {
+    if (!a) return undefined;
+    const out = new Float64Array(a.length);
+    for (let k = 0; k < order.length; k++) out[order[k]] = a[k];
+    return out;
+  };
+  return {
+    mean: back(p.mean)!, sd: back(p.sd)!, sdObserved: back(p.sdObserved)!,
+    ...(p.median ? { median: back(p.median)!, logMean: back(p.logMean)!, logSd: back(p.logSd)! } : {}),
+  };
+}
+
+/** A one-line summary of a measurement: against what, where, largest and RMS differences, the tolerance. */
+export function describeAccuracy(a: LocalAccuracy): string {
+  const against = a.reference === 'exact'
+    ? 'exact kriging'
+    : `kriging from the ${a.referenceNeighbors!.toLocaleString('en-US')} nearest samples`;
+  const f = (x: number): string => (x >= 10 ? x.toFixed(0) : x >= 1 ? x.toFixed(1) : x.toFixed(2));
+  return `against ${against} at ${a.checked.toLocaleString('en-US')} of ${a.targets.toLocaleString('en-US')} targets (seed ${a.seed}): `
+    + `mean largest ${f(a.mean.max)} %, RMS ${f(a.mean.rms)} %; sd largest ${f(a.sd.max)} %, RMS ${f(a.sd.rms)} % of the prior sd`
+    + `${a.scale === 'log' ? ' (log scale)' : ''}; tolerance ${a.tolerance.mean} % / ${a.tolerance.sd} % ${a.within ? 'met' : 'MISSED'}`;
+}
+
+/**
+ * Local prediction at every target, its error measured at a seeded subset, grown or replaced by
+ * exact kriging when the tolerance is missed (see the file header).
+ */
+export function predictLocalChecked(
+  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, options: CheckedLocalOptions = {},
+): CheckedLocalPrediction {
+  const n = samples.x.length;
+  const T = x.length;
+  const log = model.transform === 'log';
+  const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
+  const seed = options.seed ?? DEFAULT_CHECK_SEED;
+  let base = options.local ?? {};
+  // The GLS mean of all samples only means something when the trend is estimated.
+  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
+  let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true && estimated };
+  // The global trend coefficients once for every run, the reference and the growth (n > 1,000: a
+  // nearest-neighbour GLS over all samples, the costliest step to repeat).
+  const warnings: Warning[] = [];
+  if (estimated && base.globalBeta === undefined) {
+    const g = globalMeanCoefficients(samples, model, base);
+    base = { ...base, globalBeta: Array.from(g.beta) };
+    warnings.push(...g.warnings);
+  }
+  // Targets visited cell by cell share neighbourhoods; the results are put back in the targets' order.
+  const order = spatialOrder(x, y);
+  const ox = Float64Array.from(order, (i) => x[i]);
+  const oy = Float64Array.from(order, (i) => y[i]);
+  const q = covariateColumnCount(model.trend ?? 'constant');
+  const rows = (src: ArrayLike<number> | undefined, at: ArrayLike<number>): Float64Array | undefined => {
+    if (!src || q === 0) return undefined;
+    const out = new Float64Array(at.length * q);
+    for (let k = 0; k < at.length; k++) for (let j = 0; j < q; j++) out[k * q + j] = src[at[k] * q + j];
+    return out;
+  };
+  const oc = rows(options.covariates, order);
+  const run = (s: LocalSettings): Prediction => {
+    const predictor = createLocalPredictor(samples, model, { ...base, ...s });
+    const p = unpermute(predictor.predict(ox, oy, oc ? { covariates: oc } : {}), order);
+    for (const w of predictor.warnings) if (!warnings.some((v) => v.message === w.message)) warnings.push(w);
+    return p;
+  };
+  let prediction = run(settings);
+  const idx = chooseCheckTargets(T, checkCount(n, T), seed);
+  const cx = Float64Array.from(idx, (i) => x[i]);
+  const cy = Float64Array.from(idx, (i) => y[i]);
+  const cc = rows(options.covariates, idx);
+  const reference = referencePredictions(samples, model, cx, cy, base.globalBeta, cc);
+  const measure = (p: Prediction): LocalAccuracy =>
+    compareWithReference(model, reference, checkedValues(p, idx, log), { targets: T, seed, ...settings, tolerance });
+  let accuracy = measure(prediction);
+  const notes: string[] = [];
+  if (accuracy.within || options.grow === false) {
+    return { prediction, path: 'local', settings, accuracy, attempts: [], notes, warnings };
+  }
+  const first = accuracy;
+  const { settings: grown, attempts } = findGrowth(samples, model, cx, cy, reference, settings, base, tolerance, cc);
+  if (grown) {
+    settings = grown;
+    prediction = run(settings);
+    accuracy = measure(prediction);
+    notes.push(`the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %); `
+      + `grown to the ${settings.neighbors} nearest${settings.globalMean ? ' with the GLS mean of all samples' : ''} and rerun for every target`);
+    return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
+  }
+  if (options.exactFallback !== false && n <= EXACT_SAMPLE_LIMIT) {
+    const exact = createPredictor(samples, model);
+    notes.push(`no neighbourhood up to ${maxGrownNeighbors(n)} samples met the tolerance (best mean ${Math.min(...attempts.map((a) => a.meanMax)).toFixed(2)} %); took exact kriging from all ${n.toLocaleString('en-US')} samples instead`);
+    return { prediction: exact.predict(x, y, options.covariates ? { covariates: options.covariates } : {}), path: 'exact', settings, accuracy: first, attempts, notes, warnings: [...warnings, ...exact.warnings] };
+  }
+  // Keep the best attempt when nothing meets the tolerance.
+  let best = settings;
+  let bestScore = first.mean.max / tolerance.mean + first.sd.max / tolerance.sd;
+  for (const a of attempts) {
+    const score = a.meanMax / tolerance.mean + a.sdMax / tolerance.sd;
+    if (score < bestScore) { bestScore = score; best = a; }
+  }
+  if (best !== settings) {
+    settings = { neighbors: best.neighbors, globalMean: best.globalMean };
+    prediction = run(settings);
+    accuracy = measure(prediction);
+  }
+  warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); no larger neighbourhood met it and exact kriging was not taken.` });
+  return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
+}
+
+/**
+ * The measured error of a local-neighbourhood surface on a grid computed with `settings` (tiles of the
+ * grid's cell, as every surface path uses): the local values at a seeded subset of the cells, which
+ * equal the surface's there (results do not depend on which cells are predicted together), against
+ * the reference. For the app, which computes surfaces band by band in workers.
+ */
+export function measureLocalGrid(
+  samples: Samples, model: CovarianceModel, grid: Grid, settings: LocalSettings,
+  options: { tolerance?: Tolerance; seed?: number } = {},
+): LocalAccuracy {
+  const n = samples.x.length;
+  const seed = options.seed ?? DEFAULT_CHECK_SEED;
+  const centres = cellCentres(grid);
+  const T = centres.x.length;
+  const idx = chooseCheckTargets(T, checkCount(n, T), seed);
+  const cx = Float64Array.from(idx, (i) => centres.x[i]);
+  const cy = Float64Array.from(idx, (i) => centres.y[i]);
+  const reference = referencePredictions(samples, model, cx, cy);
+  const p = createLocalPredictor(samples, model, { ...settings, targetSpacing: grid.cell }).predict(cx, cy);
+  const all = Uint32Array.from({ length: idx.length }, (_, k) => k);
+  return compareWithReference(model, reference, checkedValues(p, all, model.transform === 'log'), {
+    targets: T, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
+  });
+}

@@ -1,0 +1,45 @@
+import { describe, expect, it } from 'vitest';
+import { numericalFailureAdvice, LARGEST_SQUARABLE } from '../../../src/core/covariance/numerical-advice.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { fitModel } from '../../../src/core/fitting/fit.ts';
+import { GapwiseError } from '../../../src/core/shared/errors.ts';
+import { parseModel } from '../../../src/core/covariance/model.ts';
+import { thrown } from '../../helpers/thrown.ts';
+
+// Ten samples along a bent line, 10 m apart, values about 5 ± 2.
+const x = Float64Array.from({ length: 10 }, (_, i) => 10 * i);
+const y = Float64Array.from({ length: 10 }, (_, i) => (i % 3) * 7);
+const value = Float64Array.from({ length: 10 }, (_, i) => 5 + 2 * Math.sin(i));
+
+describe('numericalFailureAdvice', () => {
+  it('numericalFailureAdvice names values too large to square before anything else', () => {
+    const big = value.map((v) => v * 1e200);
+    expect(numericalFailureAdvice(x, y, big)).toMatch(/^the values reach .*e\+200, too large to square in double precision \(the most is about 1\.00e\+150\): rescale them/);
+    expect(LARGEST_SQUARABLE).toBe(1e150);
+  });
+
+  it('numericalFailureAdvice tells duplicates, near-duplicates and an over-long scale apart', () => {
+    const noNugget = parseModel({ structures: [{ type: 'exponential', sill: 4, scale: 30 }] });
+    const dx = Float64Array.from(x); dx[3] = dx[2]; const dy = Float64Array.from(y); dy[3] = dy[2];
+    expect(numericalFailureAdvice(dx, dy, value, noNugget)).toBe('1 sample shares its location with another and the model has no nugget: try merging duplicates or a model with a nugget');
+    const nx = Float64Array.from(x); nx[3] = nx[2] + 1e-6; const ny = Float64Array.from(y); ny[3] = ny[2];
+    expect(numericalFailureAdvice(nx, ny, value, noNugget)).toMatch(/^the closest two samples are 1\.00e-6 m apart, .* of the extent \(.* m\): try merging near-duplicate locations/);
+    const long = parseModel({ structures: [{ type: 'nugget', sill: 0.1 }, { type: 'gaussian', sill: 4, scale: 1e6 }] });
+    expect(numericalFailureAdvice(x, y, value, long)).toMatch(/^the model's scale \(1\.00e\+6 m\) is .* times the samples' extent \(.* m\), so the covariance is nearly constant/);
+  });
+
+  it('createPredictor without jitter on a singular matrix gives the advice that fits the cause', () => {
+    const dx = Float64Array.from(x); dx[3] = dx[2]; const dy = Float64Array.from(y); dy[3] = dy[2];
+    const model = parseModel({ structures: [{ type: 'exponential', sill: 4, scale: 30 }] });
+    const e = thrown(() => createPredictor({ x: dx, y: dy, value }, model, { jitter: false }));
+    expect(e.code).toBe('not-positive-definite');
+    expect(e.message).toBe('The 10×10 covariance matrix is not positive definite: 1 sample shares its location with another and the model has no nugget: try merging duplicates or a model with a nugget.');
+  });
+
+  it('fitModel on values of 1e200 says the values are out of scale, not that locations are duplicated', () => {
+    const e = thrown(() => fitModel({ x, y, value: value.map((v) => v * 1e200) }, { family: 'exponential' }));
+    expect(e.code).toBe('fit-failed');
+    expect(e.message).toContain('too large to square in double precision');
+    expect(e.message).not.toContain('duplicated');
+  });
+});

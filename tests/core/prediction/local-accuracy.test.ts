@@ -1,0 +1,153 @@
+import { describe, expect, it } from 'vitest';
+import {
+  chooseCheckTargets, compareWithReference, growthSteps, maxGrownNeighbors, predictLocalChecked, priorSdOf, referencePredictions,
+} from '../../../src/core/prediction/local-accuracy.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { createLocalPredictor } from '../../../src/core/prediction/local-kriging.ts';
+import { denseTargetSpacing } from '../../../src/core/prediction/target-spacing.ts';
+import { makeSamples } from '../../../src/core/shared/samples.ts';
+import { createRandom } from '../../../src/core/shared/random.ts';
+import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import { expectClose } from '../../helpers/tolerance.ts';
+
+/** Invented samples on a square with a smooth signal plus noise, and scattered targets over it. */
+function problem(n: number, targets: number, seed: number, side = 1000) {
+  const r = createRandom(seed);
+  const x: number[] = [];
+  const y: number[] = [];
+  const v: number[] = [];
+  for (let i = 0; i < n; i++) {
+    x.push(300000 + side * r.uniform());
+    y.push(5000000 + side * r.uniform());
+    v.push(10 + Math.sin(x[i] / 120) + Math.cos(y[i] / 170) + 0.3 * r.normal());
+  }
+  const tx = new Float64Array(targets);
+  const ty = new Float64Array(targets);
+  for (let j = 0; j < targets; j++) {
+    tx[j] = 300000 + side * r.uniform();
+    ty[j] = 5000000 + side * r.uniform();
+  }
+  return { samples: makeSamples(x, y, v), tx, ty };
+}
+
+const MODEL: CovarianceModel = {
+  structures: [{ type: 'nugget', sill: 0.05 }, { type: 'matern', sill: 1, scale: 100, nu: 1.5 }],
+  trend: 'constant', transform: 'none',
+};
+
+describe('chooseCheckTargets', () => {
+  it('chooseCheckTargets gives count distinct indices in increasing order, the same for the same seed', () => {
+    const a = chooseCheckTargets(10_000, 200, 7);
+    expect(a.length).toBe(200);
+    for (let i = 1; i < a.length; i++) expect(a[i]).toBeGreaterThan(a[i - 1]);
+    expect(a[a.length - 1]).toBeLessThan(10_000);
+    expect(Array.from(chooseCheckTargets(10_000, 200, 7))).toEqual(Array.from(a));
+    expect(Array.from(chooseCheckTargets(10_000, 200, 8))).not.toEqual(Array.from(a));
+    expect(Array.from(chooseCheckTargets(5, 200, 7))).toEqual([0, 1, 2, 3, 4]);
+  });
+});
+
+describe('predictLocalChecked', () => {
+  it('predictLocalChecked reports the largest and RMS differences over the checked subset, recomputed independently', () => {
+    const { samples, tx, ty } = problem(600, 1500, 3);
+    const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 16 }, seed: 5, grow: false });
+    expect(res.path).toBe('local');
+    const idx = chooseCheckTargets(1500, 200, 5);
+    // Independently: exact kriging at the subset, against the values returned for every target.
+    const exact = createPredictor(samples, MODEL).predict(Float64Array.from(idx, (i) => tx[i]), Float64Array.from(idx, (i) => ty[i]));
+    let maxMean = 0;
+    let maxSd = 0;
+    let ssMean = 0;
+    idx.forEach((i, k) => {
+      const dm = Math.abs(res.prediction.mean[i] - exact.mean[k]);
+      maxMean = Math.max(maxMean, dm);
+      maxSd = Math.max(maxSd, Math.abs(res.prediction.sd[i] - exact.sd[k]));
+      ssMean += dm * dm;
+    });
+    const prior = Math.sqrt(1); // the Matérn sill; the nugget is measurement error
+    expect(res.accuracy.checked).toBe(200);
+    expect(res.accuracy.reference).toBe('exact');
+    expectClose(res.accuracy.mean.max, (100 * maxMean) / prior, { rel: 1e-9 }, 'largest mean difference');
+    expectClose(res.accuracy.sd.max, (100 * maxSd) / prior, { rel: 1e-9 }, 'largest sd difference');
+    expectClose(res.accuracy.mean.rms, (100 * Math.sqrt(ssMean / 200)) / prior, { rel: 1e-9 }, 'RMS mean difference');
+    expect(res.accuracy.mean.max).toBeGreaterThan(0);
+    // The subset's values equal a full local run's: the figures describe what was returned.
+    const full = createLocalPredictor(samples, MODEL, { neighbors: 16 }).predict(tx, ty);
+    expect(Array.from(res.prediction.mean)).toEqual(Array.from(full.mean));
+  });
+
+  it('predictLocalChecked grows a neighbourhood that misses the tolerance and ends within it', () => {
+    // Few neighbours and a locally re-estimated mean: far from exact kriging on this problem.
+    const { samples, tx, ty } = problem(800, 1200, 9);
+    const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2 });
+    expect(res.attempts.length).toBeGreaterThan(0);
+    expect(res.attempts[res.attempts.length - 1].within).toBe(true);
+    expect(res.notes.join(' ')).toMatch(/missed the tolerance.*grown to the \d+ nearest/);
+    expect(res.path).toBe('local');
+    expect(res.settings.neighbors > 8 || res.settings.globalMean).toBe(true);
+    expect(res.accuracy.within).toBe(true);
+    expect(res.accuracy.mean.max).toBeLessThanOrEqual(1);
+    expect(res.accuracy.sd.max).toBeLessThanOrEqual(2);
+    // The figures are those of the values returned.
+    const check = compareWithReference(MODEL, referencePredictions(samples, MODEL,
+      Float64Array.from(chooseCheckTargets(1200, 200, 2), (i) => tx[i]), Float64Array.from(chooseCheckTargets(1200, 200, 2), (i) => ty[i]),
+    ), { mean: Array.from(chooseCheckTargets(1200, 200, 2), (i) => res.prediction.mean[i]), sd: Array.from(chooseCheckTargets(1200, 200, 2), (i) => res.prediction.sd[i]) },
+    { targets: 1200, seed: 2, ...res.settings });
+    expectClose(res.accuracy.mean.max, check.mean.max, { rel: 1e-12 });
+  });
+
+  it('predictLocalChecked takes exact kriging when no neighbourhood meets the tolerance, and says so', () => {
+    const { samples, tx, ty } = problem(300, 600, 4);
+    const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, tolerance: { mean: 1e-9, sd: 1e-9 } });
+    expect(res.path).toBe('exact');
+    expect(res.notes.join(' ')).toMatch(/took exact kriging from all 300 samples/);
+    const exact = createPredictor(samples, MODEL).predict(tx, ty);
+    expect(Array.from(res.prediction.mean)).toEqual(Array.from(exact.mean));
+  });
+
+  it('predictLocalChecked compares a log model on the log scale', () => {
+    const { samples, tx, ty } = problem(400, 500, 6);
+    const model: CovarianceModel = { ...MODEL, transform: 'log' };
+    const res = predictLocalChecked(samples, model, tx, ty, { local: { neighbors: 32, globalMean: true }, grow: false });
+    expect(res.accuracy.scale).toBe('log');
+    expect(res.accuracy.priorSd).toBe(priorSdOf(model));
+    const idx = chooseCheckTargets(500, 200, 1);
+    const exact = createPredictor(samples, model).predict(Float64Array.from(idx, (i) => tx[i]), Float64Array.from(idx, (i) => ty[i]));
+    let max = 0;
+    idx.forEach((i, k) => { max = Math.max(max, Math.abs(res.prediction.logMean![i] - exact.logMean![k])); });
+    expectClose(res.accuracy.mean.max, 100 * max, { rel: 1e-9 });
+  });
+});
+
+describe('growthSteps', () => {
+  it('growthSteps tries the GLS mean first, then doubles the neighbours up to maxGrownNeighbors(n)', () => {
+    expect(growthSteps({ neighbors: 64, globalMean: false }, 2000, MODEL)).toEqual([
+      { neighbors: 64, globalMean: true }, { neighbors: 128, globalMean: true }, { neighbors: 256, globalMean: true }, { neighbors: 512, globalMean: true },
+    ]);
+    expect(maxGrownNeighbors(100_000)).toBe(256);
+    expect(growthSteps({ neighbors: 64, globalMean: true }, 100, MODEL)).toEqual([{ neighbors: 100, globalMean: true }]);
+    // A known mean has nothing to estimate globally.
+    expect(growthSteps({ neighbors: 200, globalMean: false }, 300, { ...MODEL, trend: { known: 10 } })).toEqual([{ neighbors: 300, globalMean: false }]);
+  });
+});
+
+describe('denseTargetSpacing', () => {
+  it('denseTargetSpacing is √(area/targets) for targets more and denser than the samples, undefined otherwise', () => {
+    const { samples, tx, ty } = problem(100, 2000, 1);
+    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
+    for (let j = 0; j < tx.length; j++) { x0 = Math.min(x0, tx[j]); x1 = Math.max(x1, tx[j]); y0 = Math.min(y0, ty[j]); y1 = Math.max(y1, ty[j]); }
+    expectClose(denseTargetSpacing(tx, ty, samples.x, samples.y)!, Math.sqrt(((x1 - x0) * (y1 - y0)) / 2000), { rel: 1e-12 });
+    expect(denseTargetSpacing(tx.subarray(0, 50), ty.subarray(0, 50), samples.x, samples.y)).toBeUndefined();
+    expect(denseTargetSpacing([1, 2, 3], [5, 5, 5], samples.x, samples.y)).toBeUndefined();
+    // Fewer targets than samples: no tiles however close together.
+    expect(denseTargetSpacing(tx.subarray(0, 99).map((v) => 300000 + (v - 300000) / 100), ty.subarray(0, 99), samples.x, samples.y)).toBeUndefined();
+  });
+  it('tiles from denseTargetSpacing bring scattered targets closer to exact kriging than one neighbourhood each', () => {
+    const { samples, tx, ty } = problem(600, 8000, 12);
+    const spacing = denseTargetSpacing(tx, ty, samples.x, samples.y);
+    expect(spacing).toBeDefined();
+    const plain = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 64 }, grow: false });
+    const tiled = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 64, targetSpacing: spacing }, grow: false });
+    expect(tiled.accuracy.mean.max).toBeLessThan(plain.accuracy.mean.max);
+  });
+});
