@@ -27,7 +27,8 @@ import {
   readSamplesFile, readText, readWorkers, writeOutput, type CliIo, type OptionValues,
 } from './common.ts';
 import { readBoundaryFile } from './boundary-file.ts';
-import { computeSurfaceParallel } from './parallel.ts';
+import type { SurfaceJob } from './parallel.ts';
+import { computeSurfacesShared } from './analyte-surfaces.ts';
 
 /** `--value` naming every numeric column besides the coordinates. */
 export const ALL_NUMERIC = '*';
@@ -215,24 +216,34 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
   }, workCrs);
   const workers = readWorkers(values, io);
   const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
-  const surfaces: { name: string; unit: string; surface: SurfaceResult }[] = [];
   const warnings: Warning[] = [];
-  for (let a = 0; a < names.length; a++) {
-    const name = names[a];
-    const intake = intakes[a];
-    const n = intake.samples.value.length;
-    const path = readPredictionPath(values, n);
-    printWarnings(io, path.warnings);
+  const paths = intakes.map((intake) => readPredictionPath(values, intake.samples.value.length));
+  for (const p of paths) printWarnings(io, p.warnings);
+  // One pool of workers for every analyte (./analyte-surfaces.ts): each analyte's bands as a one-analyte run computes them.
+  const jobs: SurfaceJob[] = names.map((name, a) => {
+    const path = paths[a];
     const threshold = thresholds.get(name);
-    const surface = await naming({ samples: intake.report.fileName, model: modelPath }, () => computeSurfaceParallel({
-      samples: intake.samples, model: models.get(name)!, grid, path: path.path,
+    return {
+      samples: intakes[a].samples, model: models.get(name)!, grid, path: path.path,
       ...(path.path === 'local' ? { local: { neighbors: path.neighbors, globalMean: path.globalMean } } : {}),
       surface: { ...(threshold !== undefined ? { threshold } : {}), precision },
-    }, { workers, onProgress: progressLine(io, `cells of ${name}`) }));
-    printNotes(io, [`[${name}] ${describePredictionPath(path, n)}; ${count(cellCount(grid))} cells`]);
-    warnings.push(...surface.warnings.map((w) => ({ ...w, message: `[${name}] ${w.message}` })));
-    surfaces.push({ name, unit: intake.report.unit, surface });
+    };
+  });
+  const progress = names.map((name) => progressLine(io, `cells of ${name}`));
+  let results: SurfaceResult[];
+  try {
+    results = await computeSurfacesShared(jobs, { workers, onProgress: (j, done, total) => progress[j]?.(done, total) });
+  } catch (e) {
+    const j = (e as { job?: number }).job;
+    if (j === undefined) throw e;
+    return naming({ samples: intakes[j].report.fileName, model: modelPath }, () => {
+      if (e instanceof GapwiseError) e.message = `[${names[j]}] ${e.message}`;
+      throw e;
+    });
   }
+  const surfaces = names.map((name, a) => ({ name, unit: intakes[a].report.unit, surface: results[a] }));
+  printNotes(io, names.map((name, a) => `[${name}] ${describePredictionPath(paths[a], intakes[a].samples.value.length)}; ${count(cellCount(grid))} cells`));
+  for (const s of surfaces) warnings.push(...s.surface.warnings.map((w) => ({ ...w, message: `[${s.name}] ${w.message}` })));
   let bands: string[] | undefined;
   if (format === 'tif') {
     const layers: ArrayLike<number>[] = [];
