@@ -107,6 +107,83 @@ describe('several analytes (--value a,b,c)', () => {
     expect(missing.stderr).toMatch(/model set with "analytes"/);
   }, 120_000);
 
+  it('predict --value a,b writes each analyte\'s columns equal to the one-analyte predict, thresholds per analyte', async () => {
+    // Targets with a quoted id holding the delimiter, to check the rows are written back as read.
+    ws.write('targets.csv', 'id,easting,northing\n"T,1",500100,5400100\nT2,500250.5,5400333\nT3,500390,5400010\n');
+    const multi = await ws.run('predict', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),lead (mg/kg)', '--targets', 'targets.csv',
+      '--threshold', 'lead (mg/kg)=330', '--out', 'multi-pred.csv');
+    expect(multi.code, multi.stderr).toBe(0);
+    expect(multi.stderr.match(/^caution: /gm)?.length).toBe(1);
+    const m = ws.read('multi-pred.csv').trim().split('\n');
+    expect(m[0]).toBe('id,easting,northing,zinc_mean,zinc_sd,zinc_sd_obs,lead_mean,lead_sd,lead_sd_obs,lead_p_exceed');
+    expect(m[1].startsWith('"T,1",500100,5400100,')).toBe(true);
+    const zinc = await ws.run('predict', ...base, '--model', 'zinc.json', '--value', 'zinc (mg/kg)', '--targets', 'targets.csv', '--out', 'zinc-pred.csv');
+    const lead = await ws.run('predict', ...base, '--model', 'lead.json', '--value', 'lead (mg/kg)', '--targets', 'targets.csv', '--threshold', '330', '--out', 'lead-pred.csv');
+    expect(zinc.code, zinc.stderr).toBe(0);
+    expect(lead.code, lead.stderr).toBe(0);
+    const z = ws.read('zinc-pred.csv').trim().split('\n');
+    const l = ws.read('lead-pred.csv').trim().split('\n');
+    for (let i = 1; i < z.length; i++) {
+      // The appended cells, digit for digit: three of zinc, then four of lead.
+      const cells = m[i].split(',');
+      expect(cells.slice(-7, -4)).toEqual(z[i].split(',').slice(-3));
+      expect(cells.slice(-4)).toEqual(l[i].split(',').slice(-4));
+    }
+  }, 300_000);
+
+  it('predict with a model set and one --value uses that analyte\'s model: equal to its own model file', async () => {
+    const fromSet = await ws.run('predict', ...base, '--model', 'set.json', '--value', 'copper', '--targets', 'targets.csv', '--threshold', '45');
+    const own = await ws.run('predict', ...base, '--model', 'copper.json', '--value', 'copper', '--targets', 'targets.csv', '--threshold', '45');
+    expect(fromSet.code, fromSet.stderr).toBe(0);
+    expect(fromSet.stdout).toBe(own.stdout);
+    const none = await ws.run('predict', ...base, '--model', 'set.json', '--targets', 'targets.csv');
+    expect(none.code).toBe(2);
+    expect(none.stderr).toMatch(/model set of 3 analytes .*expected --value naming the analyte/);
+  }, 120_000);
+
+  it('cv --value a,b gives each analyte\'s summary keyed by analyte and every row, equal to one-analyte runs', async () => {
+    const multi = await ws.run('cv', ...base, '--model', 'set.json', '--value', '*', '--out', 'multi-cv.csv');
+    expect(multi.code, multi.stderr).toBe(0);
+    const json = JSON.parse(multi.stdout);
+    expect(Object.keys(json.analytes)).toEqual(['zinc (mg/kg)', 'lead (mg/kg)', 'copper']);
+    expect(typeof json.caution).toBe('string');
+    // The table on stderr: a header and one line per analyte.
+    expect(multi.stderr).toMatch(/^analyte\s+n\s+me\s+rmse\s+msse\s+coverage95\s+scale$/m);
+    expect(multi.stderr).toMatch(/^copper\s+40\s/m);
+    const rows = ws.read('multi-cv.csv').trim().split('\n');
+    expect(rows[0]).toBe('analyte,id,x,y,observed,predicted,sd_obs,error,standardised_error');
+    for (const [name, col] of [['zinc', 'zinc (mg/kg)'], ['copper', 'copper']]) {
+      const one = await ws.run('cv', ...base, '--model', `${name}.json`, '--value', col, '--out', `${name}-cv.csv`);
+      expect(one.code, one.stderr).toBe(0);
+      const { caution: _c, ...summary } = JSON.parse(one.stdout);
+      expect(json.analytes[col]).toEqual(summary);
+      const own = ws.read(`${name}-cv.csv`).trim().split('\n').slice(1);
+      const prefix = col.includes(' ') ? `${col},` : `${col},`;
+      expect(rows.filter((r) => r.startsWith(prefix)).map((r) => r.slice(prefix.length))).toEqual(own);
+    }
+  }, 300_000);
+
+  it('predict and cv name an analyte missing from the model set or from the samples file (exit 2)', async () => {
+    const notInSet = await ws.run('cv', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),nickel');
+    expect(notInSet.code).toBe(2);
+    expect(notInSet.stderr).toMatch(/no model for "nickel"/);
+    ws.write('set-nickel.json', JSON.stringify({ analytes: { ...JSON.parse(ws.read('set.json')).analytes, nickel: JSON.parse(ws.read('copper.json')) } }));
+    const notInFile = await ws.run('predict', ...base, '--model', 'set-nickel.json', '--value', 'copper,nickel', '--targets', 'targets.csv');
+    expect(notInFile.code).toBe(2);
+    expect(notInFile.stderr).toMatch(/no value column "nickel"/);
+  }, 120_000);
+
+  it('suggest takes one analyte: several are refused (exit 2), one from a model set equals its own model file', async () => {
+    const several = await ws.run('suggest', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),copper', '--count', '3');
+    expect(several.code).toBe(2);
+    expect(several.stderr).toMatch(/one analyte at a time, got 2 analytes \(zinc \(mg\/kg\), copper\)/);
+    const fromSet = await ws.run('suggest', ...base, '--model', 'set.json', '--value', 'copper', '--count', '3', '--cell', '40');
+    const own = await ws.run('suggest', ...base, '--model', 'copper.json', '--value', 'copper', '--count', '3', '--cell', '40');
+    expect(fromSet.code, fromSet.stderr).toBe(0);
+    expect(JSON.parse(fromSet.stdout)).toEqual(JSON.parse(own.stdout));
+    expect(JSON.parse(fromSet.stdout).count).toBe(3);
+  }, 120_000);
+
   it('analyteColumnName keeps letters and digits, drops a unit in brackets', () => {
     expect(analyteColumnName('zinc (mg/kg)')).toBe('zinc');
     expect(analyteColumnName('Pb total')).toBe('Pb_total');
