@@ -17,11 +17,17 @@ import { GapwiseError } from '../core/errors.ts';
 import { formatCount, formatValue } from '../io/format.ts';
 import { analyteColumnName } from '../io/grid-csv.ts';
 import { SOFTWARE } from '../core/version.ts';
-import { stringOption } from './args.ts';
-import { CAUTION, jsonText, readText, writeOutput, type CliIo, type OptionValues } from './common.ts';
+import type { CovarianceModel } from '../core/model.ts';
+import { projectIntake, type Project } from '../io/project.ts';
+import { analyteReportHtml, prepareReport, type ReportInput } from '../io/report.ts';
+import { booleanOption, numberOption, stringOption } from './args.ts';
+import {
+  CAUTION, jsonText, naming, printNotes, printWarnings, progressLine, readText, writeOutput, type CliIo, type OptionValues,
+} from './common.ts';
+import { readProjectFile } from './project-options.ts';
 import { CSV_CAUTION, csvCell, readCsvTable, recordText, type CsvTable } from './csv.ts';
 import type { OutputData } from './safe-write.ts';
-import { ALL_NUMERIC, readAnalyteThresholds, readModelSet, resolveAnalytes } from './analytes.ts';
+import { ALL_NUMERIC, MAX_ANALYTES, readAnalyteThresholds, readModelSet, resolveAnalytes } from './analytes.ts';
 
 type OneRun = (values: OptionValues, io: CliIo) => Promise<number>;
 
@@ -222,4 +228,93 @@ export function refuseSeveralAnalytes(command: string, request: string[] | typeo
   const what = request === ALL_NUMERIC ? 'every numeric column (--value *)' : `${request.length} analytes (${request.join(', ')})`;
   throw new GapwiseError('bad-option',
     `"gapwise ${command}" chooses sites for one analyte at a time, got ${what}; expected one --value NAME (a model set as --model gives that analyte's model), run once per analyte.`);
+}
+
+/** Options of `report` that need one analyte (realisations and their settings). */
+const REPORT_ONE_ANALYTE = ['realizations', 'support', 'block-points', 'seed', 'depth', 'workers'];
+
+/**
+ * The project as a one-analyte project of `name` with `model`: the same samples text, reading
+ * options (but the value column), grid and boundary. What belongs to the project's own analyte and
+ * model (the comparison table, suggestions, realisations) is kept only for that analyte with that
+ * model; the threshold is the analyte's from --threshold, else the project's for its own analyte.
+ */
+export function analyteProject(project: Project, own: string, name: string, model: CovarianceModel, threshold: number | undefined, title?: string): Project {
+  const same = name === own && project.model !== null && JSON.stringify(project.model) === JSON.stringify(model);
+  const p: Project = {
+    ...project,
+    title: title !== undefined ? `${title} — ${name}` : project.title ? `${project.title} — ${name}` : '',
+    samples: { ...project.samples, intake: { ...project.samples.intake, value: name }, unit: name === own ? project.samples.unit : '' },
+    structure: {
+      ...project.structure,
+      transform: model.transform === 'log' ? 'log' : 'none',
+      comparison: same ? project.structure.comparison : [],
+      chosen: same ? project.structure.chosen : '',
+    },
+    model,
+    threshold: threshold ?? (name === own ? project.threshold : null),
+  };
+  if (!same) {
+    delete p.suggestions;
+    delete p.suggestOptions;
+    delete p.simulation;
+  }
+  return p;
+}
+
+/**
+ * `report` for several analytes (or one analyte with a model set): one document, a section per
+ * analyte with everything a one-analyte report of `analyteProject(...)` shows.
+ */
+export async function reportAnalytes(
+  values: OptionValues, io: CliIo, request: string[] | typeof ALL_NUMERIC, software: { name: string; version: string },
+): Promise<number> {
+  for (const name of REPORT_ONE_ANALYTE) {
+    if (values[name] !== undefined) throw new GapwiseError('bad-option', `Option "--${name}" is not available with several analytes; report them one at a time for it.`);
+  }
+  const file = stringOption(values, 'project') as string;
+  const modelPath = stringOption(values, 'model');
+  if (modelPath === undefined) {
+    throw new GapwiseError('bad-option', 'Option "--value" with a report of several analytes needs "--model FILE", a model set written by "gapwise fit --value a,b".');
+  }
+  const { project } = readProjectFile(io, file);
+  const samplesName = `${file}:${project.samples.fileName}`;
+  const base = naming({ samples: samplesName }, () => projectIntake(project));
+  const own = base.report.valueColumn;
+  const names = request === ALL_NUMERIC ? base.report.numericColumns.slice(0, MAX_ANALYTES + 1) : request;
+  if (names.length > MAX_ANALYTES) throw new GapwiseError('bad-option', `The samples hold more than ${MAX_ANALYTES} numeric columns; "--value *" reports at most ${MAX_ANALYTES}: name the analytes.`);
+  const { models, workCrs } = readModelSet(io, modelPath, names);
+  const projectCrs = project.samples.intake.workCrs ?? base.report.crs.work;
+  if (workCrs !== undefined && workCrs !== projectCrs) {
+    throw new GapwiseError('bad-option', `The model set's working CRS ${workCrs} differs from the project's ${projectCrs}; the models' scales are in its units.`, { file: modelPath });
+  }
+  const thresholds = readAnalyteThresholds(values, names);
+  const cell = numberOption(values, 'cell');
+  if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
+  const title = stringOption(values, 'title');
+  const created = new Date().toISOString();
+  const sections: { name: string; input: ReportInput }[] = [];
+  for (const name of names) {
+    const p = analyteProject(project, own, name, models.get(name)!, thresholds.get(name), title);
+    const input = naming({ samples: samplesName, model: modelPath }, () => {
+      try {
+        return prepareReport(p, {
+          software, created,
+          compare: !booleanOption(values, 'no-compare'),
+          onCompareProgress: progressLine(io, `candidate models of ${name}`),
+          ...(cell !== undefined ? { cellSize: cell } : {}),
+        });
+      } catch (e) {
+        if (e instanceof GapwiseError && e.code !== 'missing-column') e.message = `[${name}] ${e.message}`;
+        throw e;
+      }
+    });
+    printWarnings(io, (input.warnings ?? []).map((w) => `[${name}] ${w.message}`));
+    sections.push({ name, input });
+  }
+  const documentTitle = title ?? (project.title || `Screening maps of ${names.join(', ')}`);
+  await writeOutput(io, stringOption(values, 'out'), analyteReportHtml(sections, documentTitle));
+  printNotes(io, [`${names.length} analytes reported: ${names.join(', ')}`]);
+  io.stderr(`caution: ${CAUTION}\n`);
+  return 0;
 }

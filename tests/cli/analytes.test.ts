@@ -8,6 +8,8 @@ import { fromArrayBuffer } from 'geotiff';
 import { createRandom } from '../../src/core/random.ts';
 import { workspace, type Workspace } from './run-cli.ts';
 import { analyteColumnName } from '../../src/io/grid-csv.ts';
+import { createProject, saveProject } from '../../src/io/project.ts';
+import { parseModel } from '../../src/core/model.ts';
 
 /** Invented survey: 40 planar samples (EPSG:32633 metres) with three analytes of different pattern. */
 function surveyCsv(): string {
@@ -182,6 +184,53 @@ describe('several analytes (--value a,b,c)', () => {
     expect(fromSet.code, fromSet.stderr).toBe(0);
     expect(JSON.parse(fromSet.stdout)).toEqual(JSON.parse(own.stdout));
     expect(JSON.parse(fromSet.stdout).count).toBe(3);
+  }, 120_000);
+
+  it('report --value a,b has a section per analyte equal to the one-analyte report of that analyte\'s project', async () => {
+    const project = (value: string, model: string, threshold: number | null) => saveProject(createProject({
+      samples: { fileName: 'survey.csv', text: surveyCsv(), intake: { crs: 'EPSG:32633', value } },
+      model: parseModel(JSON.parse(ws.read(model))), grid: { cellSize: 40 }, threshold,
+    }));
+    ws.write('zinc-project.json', project('zinc (mg/kg)', 'zinc.json', 700));
+    ws.write('lead-project.json', project('lead (mg/kg)', 'lead.json', 530));
+    const multi = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set.json', '--value', 'zinc (mg/kg),lead (mg/kg)',
+      '--threshold', 'lead (mg/kg)=530', '--no-compare', '--out', 'multi.html');
+    expect(multi.code, multi.stderr).toBe(0);
+    const html = ws.read('multi.html');
+    expect(html.match(/<section class="analyte page"/g)?.length).toBe(2);
+    // Each section carries the caution, the model, the maps and the cross-validation of its analyte.
+    const timeless = (t: string) => t.replace(/\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(\.\d+)?Z/g, 'TIME');
+    const section = (k: number) => {
+      const start = html.indexOf('>', html.indexOf(`id="analyte-${k}"`)) + 2;
+      return timeless(html.slice(start, html.indexOf('\n</section>', start)).replaceAll(`a${k}-legend`, 'legend'));
+    };
+    for (const [k, name] of [[1, 'zinc'], [2, 'lead']] as const) {
+      const one = await ws.run('report', '--project', `${name}-project.json`, '--no-compare', '--out', `${name}.html`);
+      expect(one.code, one.stderr).toBe(0);
+      const single = ws.read(`${name}.html`);
+      const main = single.slice(single.indexOf('\n', single.indexOf('<div class="footer-caution">')) + 1, single.indexOf('\n</main>'));
+      const s = section(k);
+      expect(s).toContain('Screening only');
+      expect(s).toContain('<h2>Cross-validation</h2>');
+      expect(s).toContain('class="map"');
+      expect(s).toContain(`P(${name} &gt;`);
+      expect(s).toBe(timeless(main));
+    }
+  }, 300_000);
+
+  it('report --value refuses an analyte missing from the model set or the project\'s samples, and realisations (exit 2)', async () => {
+    const notInSet = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set.json', '--value', 'zinc (mg/kg),nickel', '--no-compare');
+    expect(notInSet.code).toBe(2);
+    expect(notInSet.stderr).toMatch(/no model for "nickel"/);
+    const notInFile = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set-nickel.json', '--value', 'copper,nickel', '--no-compare');
+    expect(notInFile.code).toBe(2);
+    expect(notInFile.stderr).toMatch(/no value column "nickel"/);
+    const noSet = await ws.run('report', '--project', 'zinc-project.json', '--value', 'zinc (mg/kg),copper');
+    expect(noSet.code).toBe(2);
+    expect(noSet.stderr).toMatch(/needs "--model FILE", a model set/);
+    const sims = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set.json', '--value', 'copper,zinc (mg/kg)', '--realizations', '10');
+    expect(sims.code).toBe(2);
+    expect(sims.stderr).toMatch(/"--realizations" is not available with several analytes/);
   }, 120_000);
 
   it('analyteColumnName keeps letters and digits, drops a unit in brackets', () => {
