@@ -133,11 +133,16 @@ describe('several analytes (--value a,b,c)', () => {
     }
   }, 300_000);
 
-  it('predict with a model set and one --value uses that analyte\'s model: equal to its own model file', async () => {
+  it('predict and grid with a model set and one --value use that analyte\'s model: equal to its own model file', async () => {
     const fromSet = await ws.run('predict', ...base, '--model', 'set.json', '--value', 'copper', '--targets', 'targets.csv', '--threshold', '45');
     const own = await ws.run('predict', ...base, '--model', 'copper.json', '--value', 'copper', '--targets', 'targets.csv', '--threshold', '45');
     expect(fromSet.code, fromSet.stderr).toBe(0);
     expect(fromSet.stdout).toBe(own.stdout);
+    const grid = await ws.run('grid', ...base, '--model', 'set.json', '--value', 'copper', '--cell', '50', '--out', 'copper-set.csv');
+    const gridOwn = await ws.run('grid', ...base, '--model', 'copper.json', '--value', 'copper', '--cell', '50', '--out', 'copper-own.csv');
+    expect(grid.code, grid.stderr).toBe(0);
+    expect(gridOwn.code, gridOwn.stderr).toBe(0);
+    expect(ws.read('copper-set.csv')).toBe(ws.read('copper-own.csv'));
     const none = await ws.run('predict', ...base, '--model', 'set.json', '--targets', 'targets.csv');
     expect(none.code).toBe(2);
     expect(none.stderr).toMatch(/model set of 3 analytes .*expected --value naming the analyte/);
