@@ -94,6 +94,22 @@ describe('several analytes (--value a,b,c)', () => {
     }
   }, 300_000);
 
+  it('grid with a model set on local neighbourhoods: each analyte equals its one-analyte run, with its measured error', async () => {
+    const local = ['--local', '--neighbors', '12', '--cell', '25'];
+    const multi = await ws.run('grid', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),copper', ...local, '--out', 'local.csv');
+    expect(multi.code, multi.stderr).toBe(0);
+    const summary = JSON.parse(multi.stdout);
+    expect(Object.keys(summary.localError)).toEqual(['zinc (mg/kg)', 'copper']);
+    expect(summary.localError.copper.neighbors).toBe(12);
+    expect(multi.stderr).toMatch(/note: \[copper\] measured error of the local neighbourhoods/);
+    const m = csvRows(ws.read('local.csv'));
+    const one = await ws.run('grid', ...base, '--model', 'copper.json', '--value', 'copper', ...local, '--out', 'copper-local.csv');
+    expect(one.code, one.stderr).toBe(0);
+    expect(JSON.parse(one.stdout).localError).toEqual(summary.localError.copper);
+    const c = csvRows(ws.read('copper-local.csv'));
+    expect(m.rows.map((r) => r.slice(6, 8))).toEqual(c.rows.map((r) => r.slice(4, 6)));
+  }, 300_000);
+
   it('grid --threshold NAME=T refuses an unknown analyte, a bad number, and pairs with one analyte', async () => {
     const unknown = await ws.run('grid', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),copper', '--threshold', 'nickel=5', '--out', 'x.tif');
     expect(unknown.code).toBe(2);
