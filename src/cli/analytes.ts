@@ -18,8 +18,12 @@ import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
 import { cellCount, type Grid } from '../core/geometry/grid.ts';
 import type { SurfaceResult } from '../core/prediction/surface.ts';
 import type { IntakeResult } from '../io/types.ts';
-import { bandDescriptions, bandsGeoTiff } from '../io/geotiff.ts';
-import { analyteGridCsv } from '../io/grid-csv.ts';
+import { bandDescriptions, bandsGeoTiff, localAccuracyMetadata } from '../io/geotiff.ts';
+import { analyteColumnName, analyteGridCsv } from '../io/grid-csv.ts';
+import { trendColumnCount } from '../core/covariance/trend.ts';
+import { isCovariateTrend } from '../core/covariance/model.ts';
+import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../core/prediction/local-accuracy.ts';
+import { checkLocalSurface } from './local-check.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../io/project.ts';
 import { numberOption, stringOption } from './args.ts';
 import {
@@ -27,7 +31,8 @@ import {
   readSamplesFile, readText, readWorkers, writeOutput, type CliIo, type OptionValues,
 } from './common.ts';
 import { readBoundaryFile } from './boundary-file.ts';
-import { computeSurfaceParallel } from './parallel.ts';
+import { computeSurfaceParallel, type SurfaceJob } from './parallel.ts';
+import { computeSurfacesShared } from './analyte-surfaces.ts';
 
 /** `--value` naming every numeric column besides the coordinates. */
 export const ALL_NUMERIC = '*';
@@ -197,6 +202,11 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
   }
   const intakes: IntakeResult[] = names.map((name) => readSamplesFile(io, { ...values, value: name }, given ?? modelCrs));
   const workCrs = intakes[0].report.crs.work;
+  for (const [name, m] of models) {
+    if (isCovariateTrend(m.trend)) {
+      throw new GapwiseError('bad-option', `The model of "${name}" has covariates in its mean (${m.trend.covariates.join(', ')}); map it on its own with --covariate-raster, one analyte at a time.`);
+    }
+  }
   const thresholds = readAnalyteThresholds(values, names);
   for (const [name, t] of thresholds) {
     if (models.get(name)!.transform === 'log' && !(t > 0)) throw new GapwiseError('bad-option', `Option "--threshold" for "${name}" must be above 0 with a log model, got ${t}.`);
@@ -215,24 +225,64 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
   }, workCrs);
   const workers = readWorkers(values, io);
   const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
-  const surfaces: { name: string; unit: string; surface: SurfaceResult }[] = [];
   const warnings: Warning[] = [];
-  for (let a = 0; a < names.length; a++) {
-    const name = names[a];
-    const intake = intakes[a];
-    const n = intake.samples.value.length;
-    const path = readPredictionPath(values, n);
-    printWarnings(io, path.warnings);
-    const threshold = thresholds.get(name);
-    const surface = await naming({ samples: intake.report.fileName, model: modelPath }, () => computeSurfaceParallel({
-      samples: intake.samples, model: models.get(name)!, grid, path: path.path,
-      ...(path.path === 'local' ? { local: { neighbors: path.neighbors, globalMean: path.globalMean } } : {}),
+  // The path and local settings each analyte's own run would take on this grid.
+  const threads = Math.min(workers, grid.ny);
+  const paths = intakes.map((intake) => readPredictionPath(values, intake.samples.value.length, { targets: cellCount(grid), threads }));
+  for (const p of paths) printWarnings(io, p.warnings);
+  const settings: LocalSettings[] = names.map((name, a) => ({
+    neighbors: Math.min(paths[a].neighbors, intakes[a].samples.value.length),
+    globalMean: paths[a].globalMean && trendColumnCount(models.get(name)!.trend ?? 'constant') > 0,
+  }));
+  const jobOf = (a: number, how: 'exact' | LocalSettings): SurfaceJob => {
+    const threshold = thresholds.get(names[a]);
+    return {
+      samples: intakes[a].samples, model: models.get(names[a])!, grid, path: how === 'exact' ? 'exact' : 'local',
+      ...(how !== 'exact' ? { local: { ...how } } : {}),
       surface: { ...(threshold !== undefined ? { threshold } : {}), precision },
-    }, { workers, onProgress: progressLine(io, `cells of ${name}`) }));
-    printNotes(io, [`[${name}] ${describePredictionPath(path, n)}; ${count(cellCount(grid))} cells`]);
-    warnings.push(...surface.warnings.map((w) => ({ ...w, message: `[${name}] ${w.message}` })));
-    surfaces.push({ name, unit: intake.report.unit, surface });
+    };
+  };
+  const failed = (a: number, e: unknown): never => naming({ samples: intakes[a].report.fileName, model: modelPath }, () => {
+    if (e instanceof GapwiseError) e.message = `[${names[a]}] ${e.message}`;
+    throw e;
+  });
+  // One pool of workers for every analyte (./analyte-surfaces.ts): each analyte's bands as a one-analyte run computes them.
+  const jobs = names.map((_, a) => jobOf(a, paths[a].path === 'exact' ? 'exact' : settings[a]));
+  const progress = names.map((name) => progressLine(io, `cells of ${name}`));
+  let results: SurfaceResult[];
+  try {
+    results = await computeSurfacesShared(jobs, { workers, onProgress: (j, done, total) => progress[j]?.(done, total) });
+  } catch (e) {
+    const j = (e as { job?: number }).job;
+    if (j === undefined) throw e;
+    return failed(j, e);
   }
+  // Local neighbourhoods: measured against exact kriging, grown or replaced when they miss, as in a one-analyte run.
+  const notes: string[] = [];
+  const accuracies = new Map<string, LocalAccuracy>();
+  for (let a = 0; a < names.length; a++) {
+    const n = intakes[a].samples.value.length;
+    let used = paths[a];
+    const extra: string[] = [];
+    if (used.path === 'local') {
+      const path = paths[a];
+      const checked = await checkLocalSurface({
+        samples: intakes[a].samples, model: models.get(names[a])!, grid, surface: results[a], settings: settings[a], tolerance: path.tolerance,
+        grow: !path.neighborsGiven, exactFallback: path.automatic,
+        rerun: (s) => computeSurfaceParallel(jobOf(a, s), { workers, onProgress: progress[a] }),
+      }).catch((e: unknown) => failed(a, e));
+      results[a] = checked.surface;
+      used = checked.path === 'exact'
+        ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
+        : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+      if (checked.path === 'local') accuracies.set(names[a], checked.accuracy);
+      extra.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
+    }
+    notes.push(`[${names[a]}] ${describePredictionPath(used, n)}; ${count(cellCount(grid))} cells`, ...extra.map((t) => `[${names[a]}] ${t}`));
+  }
+  const surfaces = names.map((name, a) => ({ name, unit: intakes[a].report.unit, surface: results[a] }));
+  printNotes(io, notes);
+  for (const s of surfaces) warnings.push(...s.surface.warnings.map((w) => ({ ...w, message: `[${s.name}] ${w.message}` })));
   let bands: string[] | undefined;
   if (format === 'tif') {
     const layers: ArrayLike<number>[] = [];
@@ -243,7 +293,15 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
       // As the one-analyte grid names them: the column name without its unit in brackets.
       descriptions.push(...bandDescriptions(s.surface, s.unit, s.name.replace(/\s*\([^)]*\)\s*$/, '')));
     }
-    const tif = bandsGeoTiff({ grid, bands: layers, names: descriptions, workCrs, title: `Gapwise surfaces of ${surfaces.length} analytes.` });
+    // The measured error of each local analyte, its items prefixed by the analyte's column name.
+    const metadata: Record<string, string> = {};
+    for (const [name, acc] of accuracies) {
+      for (const [k, v] of Object.entries(localAccuracyMetadata(acc))) metadata[`${analyteColumnName(name).toUpperCase()}_${k}`] = v;
+    }
+    const tif = bandsGeoTiff({
+      grid, bands: layers, names: descriptions, workCrs, title: `Gapwise surfaces of ${surfaces.length} analytes.`,
+      ...(accuracies.size > 0 ? { metadata } : {}),
+    });
     warnings.push(...tif.warnings);
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
@@ -257,6 +315,7 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
     thresholds: Object.fromEntries(thresholds),
     ...(bands ? { bands } : {}),
     ranges: Object.fromEntries(surfaces.map((s) => [s.name, s.surface.range])),
+    ...(accuracies.size > 0 ? { localError: Object.fromEntries(accuracies) } : {}),
     caution: CAUTION,
   }));
   return 0;

@@ -46,6 +46,11 @@ export interface CliIo {
   progressAfterSeconds?: number;
   /** Most threads --workers may ask for; default the number of cores (tests check splits over more). */
   maxWorkers?: number;
+  /**
+   * Outputs kept in memory instead of written (one analyte's run inside a several-analyte run,
+   * ./analytes.ts): writeOutput hands `--out`'s data here and writes no file.
+   */
+  capture?: (file: string, data: OutputData) => void;
 }
 
 export type OptionValues = Record<string, OptionValue>;
@@ -104,6 +109,10 @@ export async function writeOutput(io: CliIo, file: string | undefined, data: Out
         io.stdout(piece);
       }
     }
+    return;
+  }
+  if (io.capture) {
+    io.capture(file, data);
     return;
   }
   await writeFileSafely(io.cwd, file, data, (text) => io.stderr(`note: ${text}\n`));

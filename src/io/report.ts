@@ -505,8 +505,55 @@ p.figure { font-size: 16px; margin: 8px 0; }
 }
 `;
 
+/** The document's start, up to and with the caution fixed at the foot of printed pages. */
+function documentStart(title: string, software: { name: string; version: string }): Markup[] {
+  return [
+    html`<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">`,
+    html`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">`,
+    html`<meta name="viewport" content="width=device-width, initial-scale=1">`,
+    html`<meta name="generator" content="${software.name} ${software.version}">`,
+    html`<title>${title} — Gapwise report</title><style>${trusted(STYLE)}</style></head><body><main>`,
+    html`<div class="footer-caution">${CAUTION}</div>`,
+  ];
+}
+
+/** The report's title: the project's, else "<value> screening map". */
+function reportTitle(input: ReportInput): string {
+  const valueName = input.intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '') || 'value';
+  return input.project.title || `${valueName} screening map`;
+}
+
 /** The report as one self-contained HTML document. */
 export function reportHtml(input: ReportInput): string {
+  const page = [...documentStart(reportTitle(input), input.software), ...reportMain(input)];
+  page.push(html`</main></body></html>\n`);
+  return joinMarkup(page, '\n').text;
+}
+
+/**
+ * Several analytes' reports as one document (`gapwise report --value a,b`): a contents list, then
+ * each analyte's report as a section of its own (everything `reportHtml` shows for it, caution
+ * included), its figure ids prefixed so that they stay unique.
+ */
+export function analyteReportHtml(sections: ReadonlyArray<{ name: string; input: ReportInput }>, title: string): string {
+  if (sections.length === 0) throw new Error('Expected at least one analyte section.');
+  const first = sections[0].input;
+  const page = documentStart(title, first.software);
+  page.push(html`<h1>${title}</h1>`);
+  page.push(html`<p class="meta">Gapwise screening report of ${sections.length} analytes · ${first.created.slice(0, 10)} · ${first.software.name} ${first.software.version}</p>`);
+  page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
+  page.push(html`<ol class="analytes">${joinMarkup(sections.map((s, k) => html`<li><a href="#analyte-${String(k + 1)}">${s.name}</a></li>`))}</ol>`);
+  sections.forEach((s, k) => {
+    page.push(html`<section class="analyte page" id="analyte-${String(k + 1)}" data-analyte="${s.name}">`);
+    page.push(...reportMain(s.input, `a${k + 1}-`));
+    page.push(html`</section>`);
+  });
+  page.push(html`</main></body></html>\n`);
+  return joinMarkup(page, '\n').text;
+}
+
+/** One report's content inside <main>: title, caution, summary, samples, structure, maps, reproduction. */
+function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
   const { project, intake, surface, grid, cv } = input;
   const r = intake.report;
   const luts = { ...defaultLuts(), ...(input.luts ?? {}) };
@@ -517,17 +564,10 @@ export function reportHtml(input: ReportInput): string {
   const log = project.structure.transform === 'log';
   const threshold = surface?.pExceed ? surface.threshold ?? project.threshold : null;
   const created = input.created;
-  const title = project.title || `${valueName} screening map`;
+  const title = reportTitle(input);
   const work = r.crs.work;
   const s = r.summary;
   const page: Markup[] = [];
-
-  page.push(html`<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">`);
-  page.push(html`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">`);
-  page.push(html`<meta name="viewport" content="width=device-width, initial-scale=1">`);
-  page.push(html`<meta name="generator" content="${input.software.name} ${input.software.version}">`);
-  page.push(html`<title>${title} — Gapwise report</title><style>${trusted(STYLE)}</style></head><body><main>`);
-  page.push(html`<div class="footer-caution">${CAUTION}</div>`);
   page.push(html`<h1>${title}</h1>`);
   page.push(html`<p class="meta">Gapwise screening report · ${created.slice(0, 10)} · ${input.software.name} ${input.software.version}</p>`);
   page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
@@ -683,7 +723,7 @@ export function reportHtml(input: ReportInput): string {
       const shown = logColours ? Float64Array.from(values, (v) => (v > 0 ? Math.log(v) : NaN)) : values;
       const shownDomain: [number, number] = logColours ? [Math.log(domain[0]), Math.log(domain[1])] : domain;
       const svg = mapSvg({ title: name, grid, values: shown, domain: shownDomain, lut: luts[kind], samples: intake.samples, rings, suggestions, northAngle: north });
-      const legend = legendBarSvg({ title: name, domain, lut: luts[kind], idPrefix: `legend-${kind}`, ticks, log: logColours });
+      const legend = legendBarSvg({ title: name, domain, lut: luts[kind], idPrefix: `${idPrefix}legend-${kind}`, ticks, log: logColours });
       page.push(html`<figure class="map">${svg}<div>${legend}</div><figcaption>${caption}</figcaption></figure>`);
     };
     const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
@@ -738,6 +778,5 @@ export function reportHtml(input: ReportInput): string {
     : '';
   page.push(html`<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json${simArgs} --out report.html</pre>`);
   page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
-  page.push(html`</main></body></html>\n`);
-  return joinMarkup(page, '\n').text;
+  return page;
 }

@@ -28,8 +28,13 @@ import {
 import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
 import { withSampleCovariates } from '../covariates.ts';
 import { sampleId } from '../../io/sample-table.ts';
+import { analyteRequest } from '../analytes.ts';
+import { cvAnalytes, modelFromSet } from '../analyte-runs.ts';
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
+  const analytes = analyteRequest(values);
+  if (analytes) return cvAnalytes(values, ioGiven, analytes, run);
+  const io = modelFromSet(values, ioGiven);
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
@@ -100,14 +105,21 @@ export const cvCommand: CommandSpec = {
       + `local neighbourhoods against it would cost). Above, each sample is left out and predicted from its --neighbors nearest `
       + 'other samples (local neighbourhoods around the GLS mean of all samples, as predict and grid do there; no exact '
       + 'reference is computed for cv); --exact and --local override the choice, which is said on stderr with its reason.',
+    'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '
+      + 'each analyte is cross-validated with its own model, exactly as a run with --value a would: a table of each '
+      + 'analyte\'s figures on stderr, the JSON {"analytes": {"a": SUMMARY, ...}} on stdout, and --out one CSV of every '
+      + 'analyte\'s rows with a first column analyte. With one --value, a model set gives that analyte\'s model.',
     'The screening caution is in the JSON summary and, for the CSV, on stderr.',
   ],
   options: [
-    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
+    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit" (a model set from "gapwise fit --value a,b" with --value naming its analytes)', required: true },
     outOption('CSV file for the per-sample table', 'not written'),
     ...PREDICTION_PATH_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],
-  examples: ['gapwise cv --samples data-demo/lead-topsoil.csv --model lead-model.json --out lead-cv.csv'],
+  examples: [
+    'gapwise cv --samples data-demo/lead-topsoil.csv --model lead-model.json --out lead-cv.csv',
+    'gapwise cv --samples survey.csv --model set.json --value zinc,lead --out survey-cv.csv',
+  ],
   run,
 };

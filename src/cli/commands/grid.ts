@@ -33,6 +33,7 @@ import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
 import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
 import { clipToPolygons } from '../../core/geometry/grid.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
+import { modelFromSet } from '../analyte-runs.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { checkLocalSurface } from '../local-check.ts';
 import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/prediction/local-accuracy.ts';
@@ -69,10 +70,11 @@ export function parseLevels(raw: string, option: string): number[] {
   return out;
 }
 
-async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
+async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   const analytes = analyteRequest(valuesGiven);
-  if (analytes) return gridAnalytes(valuesGiven, io, analytes);
+  if (analytes) return gridAnalytes(valuesGiven, ioGiven, analytes);
   const values = singleThreshold(valuesGiven);
+  const io = modelFromSet(values, ioGiven);
   const out = stringOption(values, 'out') as string;
   const format = formatOf(out);
   const levels = stringOption(values, 'levels');

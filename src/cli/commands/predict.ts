@@ -23,6 +23,8 @@ import {
 } from '../common.ts';
 import { CSV_CAUTION, csvCell, formatNumber, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
+import { analyteRequest, singleThreshold } from '../analytes.ts';
+import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -72,7 +74,11 @@ function readCoordinates(table: CsvTable, file: string, col: number): Float64Arr
   return out;
 }
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
+  const analytes = analyteRequest(valuesGiven);
+  if (analytes) return predictAnalytes(valuesGiven, ioGiven, analytes, run);
+  const values = singleThreshold(valuesGiven);
+  const io = modelFromSet(values, ioGiven);
   const modelPath = stringOption(values, 'model') as string;
   const targetsPath = stringOption(values, 'targets') as string;
   const threshold = numberOption(values, 'threshold');
@@ -173,21 +179,26 @@ export const predictCommand: CommandSpec = {
       + `share tile neighbourhoods), ${AUTOMATIC_PATH_TEXT}. --exact and --local override the `
       + 'choice, which is said on stderr with its reason and, for local neighbourhoods, the measured error '
       + '("note: measured error of the local neighbourhoods against exact kriging at 200 of 40,000 targets ...").',
+    'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '
+      + 'each analyte is predicted with its own model, exactly as a run with --value a would: the targets file is written '
+      + 'once with the columns a_mean, a_sd, a_sd_obs (a_p_exceed), b_mean, ...; --threshold takes one number for all '
+      + 'or NAME=T pairs. With one --value, a model set gives that analyte\'s model.',
     'The screening caution is printed on stderr (CSV has no place for it).',
   ],
   options: [
-    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
+    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit" (a model set from "gapwise fit --value a,b" with --value naming its analytes)', required: true },
     { name: 'targets', kind: 'string', placeholder: 'FILE', help: 'CSV of target points with a header and coordinate columns', required: true },
     { name: 'targets-x', kind: 'string', placeholder: 'COL', help: 'x column of the targets', defaultText: 'the samples\' x column name, else a usual name' },
     { name: 'targets-y', kind: 'string', placeholder: 'COL', help: 'y column of the targets', defaultText: 'the samples\' y column name, else a usual name' },
     { name: 'targets-crs', kind: 'string', placeholder: 'CRS', help: 'CRS of the target coordinates', defaultText: '--crs, else the samples\' CRS' },
-    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: adds p_exceed = P(value > T)', unit: 'the samples\' unit', defaultText: 'none' },
+    { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level: adds p_exceed = P(value > T); with several analytes (--value a,b) one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'none' },
     outOption('CSV file to write', 'stdout'),
     ...PREDICTION_PATH_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],
   examples: [
     'gapwise predict --samples data-demo/lead-topsoil.csv --model lead-model.json --targets plots.csv --threshold 200 --out plots-predicted.csv',
+    'gapwise predict --samples survey.csv --model set.json --value zinc,lead --targets plots.csv --threshold zinc=720,lead=530 --out plots-predicted.csv',
   ],
   run,
 };

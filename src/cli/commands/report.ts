@@ -20,6 +20,8 @@ import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulatio
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
+import { analyteRequest, singleThreshold } from '../analytes.ts';
+import { reportAnalytes } from '../analyte-runs.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
 const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
@@ -57,7 +59,15 @@ export function softwareVersion(): { name: string; version: string } {
   return { name: 'Gapwise', version: GAPWISE_VERSION };
 }
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
+  // Several analytes (--value a,b with a model set), or one analyte other than the project's.
+  const raw = stringOption(valuesGiven, 'value');
+  const analytes = analyteRequest(valuesGiven) ?? (raw !== undefined || valuesGiven.model !== undefined ? [raw ?? ''] : null);
+  if (analytes) {
+    if (analytes[0] === '') throw new GapwiseError('bad-option', 'Option "--model" on report takes a model set and needs "--value NAME" (or a,b) naming the analytes to report.');
+    return reportAnalytes(valuesGiven, io, analytes, softwareVersion());
+  }
+  const values = singleThreshold(valuesGiven);
   const file = stringOption(values, 'project') as string;
   const { project } = readProjectFile(io, file);
   const title = stringOption(values, 'title');
@@ -125,6 +135,12 @@ export const reportCommand: CommandSpec = {
       + 'and depth not given here come from the project\'s saved settings), shared out among --workers threads. '
       + 'The figure is also printed on stderr. '
       + 'Without either, the report says in one line that no area estimate was made.',
+    'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, the '
+      + 'report has a section per analyte, each what a report of the project with that value column and that model '
+      + 'shows (caution, summary, samples, variogram with the model, comparison, cross-validation, maps, reproduction); '
+      + '--threshold takes one number for all or NAME=T pairs. The comparison table, suggestions and realisations saved in '
+      + 'the project belong to its own analyte and model and appear only in that analyte\'s section; --realizations '
+      + 'takes one analyte at a time.',
   ],
   options: [
     { name: 'project', kind: 'string', placeholder: 'FILE', help: 'the project file (as saved by the app)', required: true },
@@ -132,13 +148,16 @@ export const reportCommand: CommandSpec = {
     { name: 'title', kind: 'string', placeholder: 'TEXT', help: 'title at the top of the report', defaultText: 'the project\'s title, else "<value> screening map"' },
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'draw the maps on a grid of this cell size instead of the project\'s', unit: 'm', defaultText: 'the project\'s grid' },
     { name: 'no-compare', kind: 'boolean', help: 'do not fit the candidate models when the project has no comparison table' },
-    { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the exceedance map and the area above it', unit: 'the samples\' unit', defaultText: 'the project\'s' },
+    { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level for the exceedance map and the area above it; with --value a,b one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'the project\'s (for its own analyte)' },
+    { name: 'value', kind: 'string', placeholder: 'COLS', help: 'analytes to report, each in a section of its own: column names separated by commas, or \'*\' for every numeric column; needs --model', defaultText: 'the project\'s value column' },
+    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model set written by "gapwise fit --value a,b" (one model per analyte), with --value', defaultText: 'the project\'s model' },
     ...GRID_SIMULATION_OPTIONS,
     SIMULATION_WORKERS,
   ],
   examples: [
     'gapwise report --project site.gapwise.json --out site-report.html',
     'gapwise report --project site.gapwise.json --realizations 100 --depth 0.3 --seed 1 --out site-report.html',
+    'gapwise report --project site.gapwise.json --model set.json --value zinc,lead --threshold zinc=720,lead=530 --out site-report.html',
   ],
   run,
 };

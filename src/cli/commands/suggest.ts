@@ -23,6 +23,8 @@ import {
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, readCsvTable } from '../csv.ts';
+import { analyteRequest } from '../analytes.ts';
+import { modelFromSet, refuseSeveralAnalytes } from '../analyte-runs.ts';
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -126,7 +128,10 @@ function rounded(v: number | null, digits = 6): number | null {
   return v === null || !Number.isFinite(v) ? null : Number(v.toPrecision(digits + 6));
 }
 
-async function run(values: OptionValues, io: CliIo): Promise<number> {
+async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
+  const analytes = analyteRequest(values);
+  if (analytes) refuseSeveralAnalytes('suggest', analytes);
+  const io = modelFromSet(values, ioGiven);
   const modelPath = stringOption(values, 'model');
   const out = stringOption(values, 'out');
   const format = out === undefined ? null : formatOf(out);
@@ -248,9 +253,12 @@ export const suggestCommand: CommandSpec = {
       + 'and the caution), .csv (rank, x, y in the samples\' CRS, lon, lat, benefit, mean, sd, p_exceed) or '
       + '.gpx (waypoints S01, S02, ... for a field GPS). stdout gets a JSON summary: the sites, the average sd '
       + 'before and after, the expected misclassified area before and after (m²), and the caution.',
+    'One analyte at a time: with a model set from "gapwise fit --value a,b" as --model, --value names the analyte '
+      + 'whose model chooses the sites; several analytes in --value are refused (exit 2), since each analyte\'s map '
+      + 'has its own uncertainty and action level: run suggest once per analyte and pool the sites in the field plan.',
   ],
   options: [
-    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', defaultText: 'none: a coverage design' },
+    { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit" (a model set from "gapwise fit --value a,b" with --value naming one analyte)', defaultText: 'none: a coverage design' },
     { name: 'count', kind: 'number', placeholder: 'N', help: 'number of new sites (1 to 500)', defaultText: '10' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level: choose the sites that best settle which side of it each place is on', unit: 'the samples\' unit', defaultText: 'none: reduce the average variance' },
     { name: 'mode', kind: 'string', placeholder: 'MODE', choices: ['variance', 'decision', 'coverage'], help: 'the criterion', defaultText: 'decision with --threshold, variance with --model, else coverage' },

@@ -1,0 +1,191 @@
+/**
+ * Several analytes' surfaces on one grid through one pool of worker threads.
+ *
+ * `computeSurfaceParallel` (./parallel.ts) starts a pool per surface; starting a worker costs about
+ * as much CPU as a 500-sample analyte on a 200 × 200 grid (from source it loads tsx and compiles the
+ * engine), so several analytes would pay it once per analyte. Here the workers start once: each takes
+ * the jobs in turn (the surface worker builds a fresh predictor on every `init`), moving on to the
+ * next analyte's bands as soon as the current analyte has none left, so no worker waits for the others
+ * between analytes. Every band is computed exactly as a one-analyte run computes it (same predictor,
+ * same bands: `bandRows` as there), so each analyte's arrays equal that run's bit for bit.
+ */
+import { availableParallelism } from 'node:os';
+import type { Worker } from 'node:worker_threads';
+import { cellCount } from '../core/geometry/grid.ts';
+import { GapwiseError, type ErrorCode, type Warning } from '../core/shared/errors.ts';
+import { globalMeanCoefficients } from '../core/prediction/local-kriging.ts';
+import type { SurfaceArray, SurfaceResult, ValueRange } from '../core/prediction/surface.ts';
+import { startWorker, type SurfaceJob, type WorkerReply, type WorkerRequest } from './parallel.ts';
+
+/** Options of a several-analyte computation. */
+export interface SharedSurfaceOptions {
+  /** Worker threads; default os.availableParallelism(). */
+  workers?: number;
+  /** Cells done so far and in total, for job `job`. */
+  onProgress?: (job: number, done: number, total: number) => void;
+}
+
+interface JobState {
+  job: SurfaceJob;
+  bands: [number, number][];
+  next: number;
+  finished: number;
+  bandDone: Float64Array;
+  doneCells: number;
+  totalCells: number;
+  mean: SurfaceArray;
+  sd: SurfaceArray;
+  pExceed?: SurfaceArray;
+  median?: SurfaceArray;
+  make: () => SurfaceArray;
+  warnings: Map<string, Warning>;
+}
+
+function rangeOf(a: SurfaceArray): ValueRange {
+  let min = Infinity;
+  let max = -Infinity;
+  for (let k = 0; k < a.length; k++) {
+    const v = a[k];
+    if (v < min) min = v;
+    if (v > max) max = v;
+  }
+  return min <= max ? { min, max } : { min: NaN, max: NaN };
+}
+
+function toError(error: { code?: string; message: string }): Error {
+  return error.code ? new GapwiseError(error.code as ErrorCode, error.message) : new Error(error.message);
+}
+
+/** The state of one job: its bands (as computeSurfaceParallel cuts them for `workers`) and arrays. */
+function prepare(jobGiven: SurfaceJob, workers: number): JobState {
+  let job = jobGiven;
+  const warnings = new Map<string, Warning>();
+  if (job.path === 'local' && job.local?.globalMean && job.local.globalBeta === undefined) {
+    // The global GLS mean is the same for every band: once here, not in every worker.
+    const { beta, warnings: w } = globalMeanCoefficients(job.samples, job.model, job.local);
+    job = { ...job, local: { ...job.local, globalBeta: Array.from(beta) } };
+    for (const x of w) warnings.set(`${x.code}:${x.message}`, x);
+  }
+  const { grid } = job;
+  if (!(grid.ny >= 1 && grid.nx >= 1)) throw new GapwiseError('bad-option', `Expected a grid with at least one row and column, got ${grid.nx} × ${grid.ny}.`);
+  const bandRows = Math.max(1, Math.ceil(grid.ny / (4 * workers)));
+  const bands: [number, number][] = [];
+  for (let r = 0; r < grid.ny; r += bandRows) bands.push([r, Math.min(grid.ny, r + bandRows)]);
+  const size = grid.nx * grid.ny;
+  const float64 = job.surface?.precision === 'float64';
+  const make = (): SurfaceArray => (float64 ? new Float64Array(size) : new Float32Array(size)).fill(NaN);
+  return {
+    job, bands, next: 0, finished: 0, bandDone: new Float64Array(bands.length), doneCells: 0, totalCells: cellCount(grid),
+    mean: make(), sd: make(), ...(job.surface?.threshold !== undefined ? { pExceed: make() } : {}), make, warnings,
+  };
+}
+
+function resultOf(s: JobState): SurfaceResult {
+  const { grid } = s.job;
+  const result: SurfaceResult = {
+    rows: [0, grid.ny], nx: grid.nx, mean: s.mean, sd: s.sd,
+    range: { mean: rangeOf(s.mean), sd: rangeOf(s.sd) },
+    cells: s.totalCells,
+    warnings: [...s.warnings.values()],
+  };
+  if (s.pExceed) {
+    result.pExceed = s.pExceed;
+    result.threshold = s.job.surface?.threshold;
+    result.range.pExceed = rangeOf(s.pExceed);
+  }
+  if (s.median) result.median = s.median;
+  return result;
+}
+
+/**
+ * The surfaces of every job (one per analyte, usually on one grid) through one worker pool.
+ * Resolves with one SurfaceResult per job, each equal to `computeSurfaceParallel(job, { workers })`;
+ * rejects with the first worker error after stopping every worker.
+ */
+export async function computeSurfacesShared(jobs: readonly SurfaceJob[], options: SharedSurfaceOptions = {}): Promise<SurfaceResult[]> {
+  const workers = Math.max(1, Math.floor(options.workers ?? availableParallelism()));
+  const states = jobs.map((j) => prepare(j, workers));
+  if (states.length === 0) return [];
+  const poolSize = Math.min(workers, Math.max(...states.map((s) => s.bands.length)));
+  const totalBands = states.reduce((t, s) => t + s.bands.length, 0);
+  const pool: Worker[] = [];
+  // Band ids across jobs: job j's band b is offsets[j] + b.
+  const offsets = states.map((_, j) => states.slice(0, j).reduce((t, s) => t + s.bands.length, 0));
+  const locate = (id: number): [number, number] => {
+    let j = states.length - 1;
+    while (offsets[j] > id) j--;
+    return [j, id - offsets[j]];
+  };
+  try {
+    await new Promise<void>((resolve, reject) => {
+      let finished = 0;
+      let failed = false;
+      const fail = (e: Error) => {
+        if (failed) return;
+        failed = true;
+        reject(e);
+      };
+      const current = new Int32Array(poolSize).fill(-1);
+      const give = (w: Worker, k: number) => {
+        if (failed) return;
+        let j = current[k];
+        if (j >= 0 && states[j].next < states[j].bands.length) {
+          const s = states[j];
+          const b = s.next++;
+          w.postMessage({ type: 'band', id: offsets[j] + b, rows: s.bands[b] } satisfies WorkerRequest);
+          return;
+        }
+        // This job has no band left for this worker: the next job that has one (the worker rebuilds its predictor).
+        for (j = Math.max(0, j + 1); j < states.length && states[j].next >= states[j].bands.length; j++);
+        if (j >= states.length) return;
+        current[k] = j;
+        w.postMessage({ type: 'init', job: states[j].job } satisfies WorkerRequest);
+      };
+      for (let k = 0; k < poolSize; k++) {
+        const w = startWorker();
+        pool.push(w);
+        w.on('message', (reply: WorkerReply) => {
+          if (reply.type === 'ready') give(w, k);
+          else if (reply.type === 'progress') {
+            const [j, b] = locate(reply.id);
+            const s = states[j];
+            s.doneCells += reply.done - s.bandDone[b];
+            s.bandDone[b] = reply.done;
+            options.onProgress?.(j, s.doneCells, s.totalCells);
+          } else if (reply.type === 'band') {
+            const [j] = locate(reply.id);
+            const s = states[j];
+            const r = reply.result;
+            const offset = r.rows[0] * s.job.grid.nx;
+            s.mean.set(r.mean, offset);
+            s.sd.set(r.sd, offset);
+            if (s.pExceed && r.pExceed) s.pExceed.set(r.pExceed, offset);
+            if (r.median) {
+              s.median ??= s.make();
+              s.median.set(r.median, offset);
+            }
+            for (const wn of r.warnings) s.warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
+            s.finished++;
+            finished++;
+            if (finished === totalBands) resolve();
+            else give(w, k);
+          } else if (reply.type === 'error') {
+            const e = toError(reply.error);
+            // Which job failed, for a message that names its analyte.
+            if (reply.id !== undefined) (e as Error & { job?: number }).job = locate(reply.id)[0];
+            else if (current[k] >= 0) (e as Error & { job?: number }).job = current[k];
+            fail(e);
+          }
+        });
+        w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
+        w.on('exit', (code) => {
+          if (code !== 0 && finished < totalBands) fail(new Error(`A surface worker stopped with exit code ${code}.`));
+        });
+        give(w, k);
+      }
+    });
+  } finally {
+    await Promise.all(pool.map((w) => w.terminate()));
+  }
+  return states.map(resultOf);
+}
