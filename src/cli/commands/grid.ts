@@ -124,12 +124,17 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     }, intake.report.crs.work);
   }
 
+  const choice = readSimulationChoice(values, model);
   const covariateWarnings: Warning[] = [];
   let gridCovariateValues: Float64Array | undefined;
+  let nodeCovariateValues: Float64Array | undefined;
   if (covariateModel) {
-    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs);
+    // Block support and realisations read the covariates at each cell's block points (or its centre).
+    const nodes = choice.support === 'block' || choice.realizations !== undefined ? choice.blockPoints : undefined;
+    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs, nodes !== undefined ? { nodes } : {});
     grid = g.grid;
     gridCovariateValues = g.covariates;
+    nodeCovariateValues = g.nodeCovariates;
     covariateWarnings.push(...g.warnings);
   }
   const threshold = numberOption(values, 'threshold');
@@ -137,7 +142,6 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     throw new GapwiseError('bad-option', `Option "--threshold" must be above 0 with a log model, got ${threshold}.`);
   }
   const n = intake.samples.value.length;
-  const choice = readSimulationChoice(values, model);
   const workers = readWorkers(values, io);
   const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
@@ -149,9 +153,6 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   }
   if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbors') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
     throw new GapwiseError('bad-option', 'Options "--local", "--neighbors", "--global-mean" and "--local-mean" apply to point support; block kriging uses all samples.');
-  }
-  if (covariateModel && (blockKriging || choice.realizations !== undefined)) {
-    throw new GapwiseError('bad-option', 'Block support and realisations are not available with a covariate model yet; use --support point without --realizations.');
   }
   if (choice.realizations !== undefined) {
     const threads = simulationThreads(choice.realizations, workers);
@@ -194,7 +195,8 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   }
   const unit = project?.samples.unit || intake.report.unit;
   const extra = await namingAsync(files, () => addSimulationBands({
-    samples: intake.samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    ...(nodeCovariateValues ? { covariates: nodeCovariateValues } : {}),
     workers, onProgress: progressLine(io, 'realisations'),
   }));
   if (extra.surface) surface = extra.surface;
