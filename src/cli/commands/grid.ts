@@ -28,10 +28,9 @@ import {
   readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { COVARIATE_RASTER_OPTION, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
-import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
+import { COVARIATE_RASTER_OPTION, checkCovariateRasters, covariateLattice, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
+import { gridCovariates } from '../../io/covariate-raster.ts';
 import { isCovariateTrend, type CovariateTrend } from '../../core/model.ts';
-import { clipToPolygons } from '../../core/grid.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
 import { checkLocalSurface } from '../local-check.ts';
@@ -100,19 +99,11 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   // A covariate model: the samples' covariate columns, and on the grid the covariate rasters.
   const rasters = await readCovariateRasters(values, io.cwd);
   const covariateModel = isCovariateTrend(model.trend);
-  if (rasters.length > 0 && !covariateModel) {
-    throw new GapwiseError('bad-option', 'Option "--covariate-raster" applies to a model with covariates (fit --covariates); this model has none.');
-  }
-  if (covariateModel && rasters.length === 0) {
-    throw new GapwiseError('bad-option', `The model's mean uses the covariates ${(model.trend as CovariateTrend).covariates.join(', ')}; expected --covariate-raster NAME=FILE.tif for each on the grid.`);
-  }
+  checkCovariateRasters(model.trend, rasters);
   const samples = covariateModel ? withSampleCovariates(intake, intake.samples, model.trend).samples : intake.samples;
   let grid: Grid;
   if (covariateModel && cell === undefined && !(project && sameArea)) {
-    // The first covariate's raster lattice, clipped by the boundary.
-    const first = rasters.find((r) => r.name === (model.trend as CovariateTrend).covariates[0]) ?? rasters[0];
-    grid = rasterLattice(first, workCrs);
-    if (boundary) grid = clipToPolygons(grid, boundary.polygons.map((p) => p.rings));
+    grid = covariateLattice(model.trend as CovariateTrend, rasters, workCrs, boundary ? boundary.polygons.map((p) => p.rings) : null);
   } else if (project && sameArea) {
     grid = projectGrid(project, intake, boundary ? { work: boundary.polygons } : null, cell !== undefined ? { cellSize: cell } : {});
   } else {
