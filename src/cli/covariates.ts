@@ -17,6 +17,10 @@ import { openInputFile } from './input-file.ts';
 import { readCovariateRaster, type CovariateRaster } from '../io/covariate-raster.ts';
 import type { CsvTable } from './csv.ts';
 import type { OptionValues } from './common.ts';
+import type { Warning } from '../core/shared/errors.ts';
+import { clipToPolygons, type Grid, type Polygon } from '../core/geometry/grid.ts';
+import { designGrid, type DesignOptions } from '../core/design/design.ts';
+import { gridCovariates, rasterCovariatesAt, rasterLattice } from '../io/covariate-raster.ts';
 
 /** The options `fit` takes for covariates. */
 export const COVARIATE_OPTIONS: OptionSpec[] = [
@@ -138,12 +142,6 @@ export function tableCovariates(table: CsvTable, file: string, trend: Trend): Fl
   return encodeCovariates(trend, columns, table.records.length, { file, line: (i) => table.records[i].line, what: 'target' });
 }
 
-/** Refuses a covariate model in a command that cannot yet give covariates at its own locations. */
-export function refuseCovariateModel(trend: Trend, command: string, why: string): void {
-  if (isCovariateTrend(trend)) {
-    throw new GapwiseError('bad-option', `"gapwise ${command}" cannot use a model with covariates (${(trend as CovariateTrend).covariates.join(', ')}) here: ${why}; expected a model without covariates.`);
-  }
-}
 
 /** The option `grid` takes for covariate rasters (repeatable). */
 export const COVARIATE_RASTER_OPTION: OptionSpec = {
@@ -173,4 +171,90 @@ export async function readCovariateRasters(values: OptionValues, cwd: string): P
     out.push(await readCovariateRaster(bytes.subarray(0, Math.min(at, size)), name, file));
   }
   return out;
+}
+
+/**
+ * Checks that --covariate-raster goes with a covariate model and that a covariate model has rasters.
+ * Throws GapwiseError 'bad-option'.
+ */
+export function checkCovariateRasters(trend: Trend, rasters: ReadonlyArray<CovariateRaster>): void {
+  const covariateModel = isCovariateTrend(trend);
+  if (rasters.length > 0 && !covariateModel) {
+    throw new GapwiseError('bad-option', 'Option "--covariate-raster" applies to a model with covariates (fit --covariates); this model has none.');
+  }
+  if (covariateModel && rasters.length === 0) {
+    throw new GapwiseError('bad-option', `The model's mean uses the covariates ${(trend as CovariateTrend).covariates.join(', ')}; expected --covariate-raster NAME=FILE.tif for each on the grid.`);
+  }
+}
+
+/** The grid of a covariate model without --cell: the first covariate's raster lattice, clipped by the boundary. */
+export function covariateLattice(trend: CovariateTrend, rasters: ReadonlyArray<CovariateRaster>, workCrs: string, polygons: ReadonlyArray<Polygon> | null): Grid {
+  const first = rasters.find((r) => r.name === trend.covariates[0]) ?? rasters[0];
+  const grid = rasterLattice(first, workCrs);
+  return polygons && polygons.length > 0 ? clipToPolygons(grid, polygons) : grid;
+}
+
+/** What a command's grid needs for a covariate model (`simulate`, `grid`). */
+export interface GridCovariates {
+  /** The samples, with their encoded covariate columns for a covariate model. */
+  samples: Samples;
+  /** The grid, cells without covariate values masked out. */
+  grid: Grid;
+  /** The covariates at each cell's k × k block points (k = 1: the centre), for simulations and block kriging. */
+  nodeCovariates?: Float64Array;
+  warnings: Warning[];
+}
+
+/**
+ * The samples, grid and covariates of a command that works on a grid: for a covariate model, the
+ * rasters of --covariate-raster, the grid (`planned()` when --cell is given, else the first
+ * covariate's raster lattice clipped by the boundary) and the covariates at each cell's `nodes` × `nodes`
+ * block points; for other models the samples as read and `planned()`.
+ */
+export async function gridWithCovariates(
+  values: OptionValues, cwd: string, intake: IntakeResult, trend: Trend,
+  options: { cell?: number; polygons: ReadonlyArray<Polygon> | null; planned: () => Grid; nodes: number },
+): Promise<GridCovariates> {
+  const rasters = await readCovariateRasters(values, cwd);
+  checkCovariateRasters(trend, rasters);
+  if (!isCovariateTrend(trend)) return { samples: intake.samples, grid: options.planned(), warnings: [] };
+  const workCrs = intake.report.crs.work;
+  const { samples, trend: resolved } = withSampleCovariates(intake, intake.samples, trend);
+  const grid = options.cell === undefined ? covariateLattice(resolved, rasters, workCrs, options.polygons) : options.planned();
+  const g = gridCovariates(grid, resolved, rasters, workCrs, { nodes: options.nodes });
+  return { samples, grid: g.grid, ...(g.nodeCovariates ? { nodeCovariates: g.nodeCovariates } : {}), warnings: g.warnings };
+}
+
+/**
+ * `suggest` with a covariate model: the samples with their covariate columns and the design options
+ * that carry the covariates — the area grid (`--cell` over the boundary, else the first covariate's
+ * raster lattice clipped by the boundary) with its cells' covariates (cells without a value left out
+ * of the area), and the covariates at given candidates (a candidate without a value is GapwiseError
+ * 'bad-value' naming it). Other models: the samples as read, no additions.
+ */
+export async function designWithCovariates(
+  values: OptionValues, cwd: string, intake: IntakeResult, trend: Trend | null, options: DesignOptions,
+): Promise<{ samples: Samples; options: Pick<DesignOptions, 'grid' | 'covariates' | 'candidates'>; warnings: Warning[] }> {
+  const rasters = await readCovariateRasters(values, cwd);
+  if (trend === null) {
+    if (rasters.length > 0) throw new GapwiseError('bad-option', 'Option "--covariate-raster" applies to a model with covariates (fit --covariates); none was given.');
+    return { samples: intake.samples, options: {}, warnings: [] };
+  }
+  checkCovariateRasters(trend, rasters);
+  if (!isCovariateTrend(trend)) return { samples: intake.samples, options: {}, warnings: [] };
+  const workCrs = intake.report.crs.work;
+  const { samples, trend: resolved } = withSampleCovariates(intake, intake.samples, trend);
+  const planned = options.cell === undefined ? covariateLattice(resolved, rasters, workCrs, options.boundary ?? null) : designGrid(samples, options).grid;
+  const g = gridCovariates(planned, resolved, rasters, workCrs);
+  const out: Pick<DesignOptions, 'grid' | 'covariates' | 'candidates'> = { grid: g.grid, covariates: g.covariates };
+  if (options.candidates) {
+    const { x, y } = options.candidates;
+    const at = rasterCovariatesAt(resolved, rasters, x, y, workCrs);
+    const bad = at.missing.indexOf(1);
+    if (bad >= 0) {
+      throw new GapwiseError('bad-value', `Candidate ${bad + 1} at (${x[bad]}, ${y[bad]}) has no value in a covariate raster (${resolved.covariates.join(', ')}); expected candidates inside the rasters.`, { row: bad + 1 });
+    }
+    out.candidates = { x, y, covariates: at.covariates };
+  }
+  return { samples, options: out, warnings: g.warnings };
 }

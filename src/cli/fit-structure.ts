@@ -1,7 +1,8 @@
 /**
- * `fit --anisotropy` and `fit --structures 2`: the options, their checks, the fit they choose
- * (core/fitting/fit-anisotropy.ts, core/fitting/fit-nested.ts, else core/fitting/fit.ts fitModel) and the comparison table
- * printed on stderr (the rows also go into the model's "fit": "comparison").
+ * `fit --anisotropy` and `fit --structures 2` (alone or together): the options, their checks, the fit
+ * they choose (core/fitting/fit-anisotropy.ts, core/fitting/fit-nested.ts, core/fitting/fit-anisotropic-nested.ts, else
+ * core/fitting/fit.ts fitModel) and the comparison table printed on stderr (the rows also go into the
+ * model's "fit": "comparison").
  */
 import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { Samples } from '../core/shared/samples.ts';
@@ -12,6 +13,7 @@ import { GapwiseError } from '../core/shared/errors.ts';
 import { fitModel } from '../core/fitting/fit.ts';
 import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
 import { fitNested } from '../core/fitting/fit-nested.ts';
+import { fitAnisotropicNested } from '../core/fitting/fit-anisotropic-nested.ts';
 import { booleanOption, numberOption } from './args.ts';
 import { printNotes, type CliIo, type OptionValues } from './common.ts';
 
@@ -22,7 +24,7 @@ export interface StructureChoice {
 
 export const STRUCTURE_OPTIONS: OptionSpec[] = [
   { name: 'anisotropy', kind: 'boolean', help: 'estimate a geometric anisotropy (azimuth of the long axis, ratio short/long range) with the other parameters by likelihood; the isotropic fit is compared beside it (AIC)' },
-  { name: 'structures', kind: 'number', placeholder: 'N', help: '1, or 2 for a short and a long structure plus nugget by likelihood; when the two are not identifiable (their scales merge, or one sill goes to zero, or the AIC does not improve) the one-structure model is kept with a warning', defaultText: '1' },
+  { name: 'structures', kind: 'number', placeholder: 'N', help: '1, or 2 for a short and a long structure plus nugget by likelihood (with --anisotropy, both sharing one fitted anisotropy); when the two are not identifiable (their scales merge, or one sill goes to zero, or the AIC does not improve) the one-structure model is kept with a warning', defaultText: '1' },
 ];
 
 /** Reads --anisotropy and --structures; refuses them with a method that does not take them. */
@@ -33,9 +35,6 @@ export function readStructureChoice(values: OptionValues, method: string): Struc
     throw new GapwiseError('bad-option', `Option "--structures" expects 1 or 2, got ${given}.`);
   }
   const structures = (given ?? 1) as 1 | 2;
-  if (anisotropy && structures === 2) {
-    throw new GapwiseError('bad-option', 'Options "--anisotropy" and "--structures 2" are fitted one at a time; got both (fit the anisotropy first, then give it in the model).');
-  }
   if ((anisotropy || structures === 2) && method !== 'reml' && method !== 'ml') {
     const what = anisotropy ? '--anisotropy' : '--structures 2';
     throw new GapwiseError('bad-option',
@@ -47,6 +46,7 @@ export function readStructureChoice(values: OptionValues, method: string): Struc
 
 /** The fit the choice asks for. */
 export function fitWithStructure(samples: Samples, options: FitOptions, choice: StructureChoice, onProgress?: FitProgress): CovarianceModel {
+  if (choice.anisotropy && choice.structures === 2) return fitAnisotropicNested(samples, options, onProgress).model;
   if (choice.anisotropy) return fitAnisotropic(samples, options, onProgress).model;
   if (choice.structures === 2) return fitNested(samples, options, onProgress).model;
   return fitModel(samples, options, onProgress);

@@ -163,13 +163,17 @@ export interface AreaReport {
 export async function addSimulationBands(input: {
   samples: Samples; model: CovarianceModel; grid: Grid; choice: SimulationChoice; threshold?: number; unit?: string;
   workers?: number; onProgress?: (done: number, total: number) => void;
+  /** Covariate model: the encoded covariates at the block points of every cell (core/prediction/block-kriging.ts order; one per cell for point support). */
+  covariates?: Float64Array;
 }): Promise<{ surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[]; threads?: number }> {
   const { samples, model, grid, choice, threshold, unit } = input;
   const bands: SimulationBand[] = [];
   const warnings: Warning[] = [];
   let surface: SurfaceResult | undefined;
   if (choice.support === 'block' && model.transform !== 'log') {
-    surface = computeBlockSurface(samples, model, grid, { points: choice.blockPoints, ...(threshold !== undefined ? { threshold } : {}) });
+    surface = computeBlockSurface(samples, model, grid, {
+      points: choice.blockPoints, ...(threshold !== undefined ? { threshold } : {}), ...(input.covariates ? { covariates: input.covariates } : {}),
+    });
     warnings.push(...surface.warnings);
   }
   if (choice.realizations === undefined) return { ...(surface ? { surface } : {}), bands, warnings };
@@ -177,6 +181,7 @@ export async function addSimulationBands(input: {
   const sim = await simulateParallel(samples, model, grid, {
     count: choice.realizations, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints,
     keepRealisations: false,
+    ...(input.covariates ? { covariates: input.covariates } : {}),
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
   }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}) });

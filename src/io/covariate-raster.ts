@@ -155,17 +155,18 @@ export function rasterLattice(raster: CovariateRaster, workCrs: string): Grid {
 }
 
 /**
- * Encoded covariates of every grid cell (nx·ny rows × q, row-major from the top row) from one raster
- * per covariate, and the grid with the cells that lack a covariate value masked out (counted in a
- * warning). Categorical covariates need integer-code levels (a raster holds numbers).
+ * Encoded covariates (m rows × q, row-major) at m points of the working CRS, one raster per covariate,
+ * and a flag per point without a value in some raster (outside it, no-data, or a category that is not
+ * among the model's levels). Flagged points get the reference level (or 0) so that they encode; callers
+ * leave them out. Categorical covariates need integer-code levels (a raster holds numbers).
+ * Throws GapwiseError 'bad-option' for a covariate without a raster or with text levels.
  */
-export function gridCovariates(
-  grid: Grid, trend: CovariateTrend, rasters: ReadonlyArray<CovariateRaster>, workCrs: string,
-): { grid: Grid; covariates: Float64Array; warnings: Warning[] } {
-  const all = cellCentres({ ...grid, mask: undefined });
-  const m = all.x.length;
-  const columns: Record<string, CovariateColumn> = {};
+export function rasterCovariatesAt(
+  trend: CovariateTrend, rasters: ReadonlyArray<CovariateRaster>, x: ArrayLike<number>, y: ArrayLike<number>, workCrs: string,
+): { covariates: Float64Array; missing: Uint8Array } {
+  const m = x.length;
   const missing = new Uint8Array(m);
+  const filled: Record<string, CovariateColumn> = {};
   for (const name of trend.covariates) {
     const raster = rasters.find((r) => r.name === name);
     if (!raster) {
@@ -175,37 +176,69 @@ export function gridCovariates(
     if (levels && !levels.every((l) => Number.isFinite(Number(l)))) {
       throw new GapwiseError('bad-option', `The covariate "${name}" is categorical with text levels (${levels.join(', ')}); a raster holds numbers, so expected integer-code levels.`);
     }
-    const values = sampleRaster(raster, all.x, all.y, workCrs, levels ? 'nearest' : 'bilinear');
+    const values = sampleRaster(raster, x, y, workCrs, levels ? 'nearest' : 'bilinear');
     for (let k = 0; k < m; k++) {
-      if (grid.mask && !grid.mask[k]) continue;
       if (Number.isNaN(values[k]) || (levels && !levels.includes(String(values[k])))) missing[k] = 1;
     }
-    columns[name] = { kind: 'numeric', values };
+    filled[name] = { kind: 'numeric', values };
+  }
+  // Points without a value get a level the encoder accepts; they are left out by the caller.
+  for (const name of trend.covariates) {
+    const v = (filled[name] as { values: Float64Array }).values;
+    const first = trend.levels?.[name]?.[0];
+    for (let k = 0; k < m; k++) if (missing[k]) v[k] = first !== undefined ? Number(first) : 0;
+  }
+  return { covariates: encodeCovariates(trend, filled, m, { what: 'point' }), missing };
+}
+
+/**
+ * Encoded covariates of every grid cell (nx·ny rows × q, row-major from the top row) from one raster
+ * per covariate, and the grid with the cells that lack a covariate value masked out (counted in a
+ * warning). Categorical covariates need integer-code levels (a raster holds numbers).
+ * With `nodes` k (block support, realisations), also `nodeCovariates`: the covariates at the k × k
+ * points of every cell (nx·ny cells × k² rows × q, the points row by row from the north-west at
+ * ((a + ½)/k, (b + ½)/k) of the cell, the order of core/prediction/block-kriging.ts `blockOffsets` and of the
+ * simulation lattice), and a cell is masked out when any of its points lacks a value.
+ */
+export function gridCovariates(
+  grid: Grid, trend: CovariateTrend, rasters: ReadonlyArray<CovariateRaster>, workCrs: string, options: { nodes?: number } = {},
+): { grid: Grid; covariates: Float64Array; nodeCovariates?: Float64Array; warnings: Warning[] } {
+  const all = cellCentres({ ...grid, mask: undefined });
+  const m = all.x.length;
+  const centre = rasterCovariatesAt(trend, rasters, all.x, all.y, workCrs);
+  const missing = Uint8Array.from(centre.missing);
+  const k = options.nodes ?? 1;
+  let nodeCovariates: Float64Array | undefined;
+  if (options.nodes !== undefined) {
+    const kk = k * k;
+    const nx = new Float64Array(m * kk);
+    const ny = new Float64Array(m * kk);
+    for (let c = 0; c < m; c++) {
+      const i = c % grid.nx, j = Math.floor(c / grid.nx);
+      for (let s = 0; s < kk; s++) {
+        nx[c * kk + s] = grid.x0 + (i + ((s % k) + 0.5) / k) * grid.cell;
+        ny[c * kk + s] = grid.y0 - (j + (Math.floor(s / k) + 0.5) / k) * grid.cell;
+      }
+    }
+    const nodes = rasterCovariatesAt(trend, rasters, nx, ny, workCrs);
+    for (let c = 0; c < m; c++) for (let s = 0; s < kk; s++) if (nodes.missing[c * kk + s]) missing[c] = 1;
+    nodeCovariates = nodes.covariates;
   }
   const mask = new Uint8Array(m);
   let lost = 0;
   let kept = 0;
-  for (let k = 0; k < m; k++) {
-    const inArea = !grid.mask || grid.mask[k] === 1;
-    if (inArea && missing[k]) lost++;
-    mask[k] = inArea && !missing[k] ? 1 : 0;
-    kept += mask[k];
+  for (let c = 0; c < m; c++) {
+    const inArea = !grid.mask || grid.mask[c] === 1;
+    if (inArea && missing[c]) lost++;
+    mask[c] = inArea && !missing[c] ? 1 : 0;
+    kept += mask[c];
   }
   if (kept === 0) {
     throw new GapwiseError('bad-option', `None of the ${m} grid cells has a value in every covariate raster (${trend.covariates.join(', ')}); expected rasters that cover the grid.`);
   }
-  // Cells without a value get a level the encoder accepts; they are masked out and never predicted.
-  const filled: Record<string, CovariateColumn> = {};
-  for (const name of trend.covariates) {
-    const v = Float64Array.from((columns[name] as { values: Float64Array }).values);
-    const first = trend.levels?.[name]?.[0];
-    for (let k = 0; k < m; k++) if (!mask[k]) v[k] = first !== undefined ? Number(first) : 0;
-    filled[name] = { kind: 'numeric', values: v };
-  }
-  const covariates = encodeCovariates(trend, filled, m, { what: 'grid cell' });
   const warnings: Warning[] = [];
   if (lost > 0) {
-    warnings.push({ code: 'covariate-no-data', message: `${lost} of ${lost + kept} grid cells have no value in a covariate raster (outside it, or no-data there) and are left empty.` });
+    warnings.push({ code: 'covariate-no-data', message: `${lost} of ${lost + kept} grid cells have no value in a covariate raster (outside it, or no-data there${k > 1 ? `, at one of its ${k} × ${k} block points` : ''}) and are left empty.` });
   }
-  return { grid: { ...grid, mask }, covariates, warnings };
+  return { grid: { ...grid, mask }, covariates: centre.covariates, ...(nodeCovariates ? { nodeCovariates } : {}), warnings };
 }

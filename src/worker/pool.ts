@@ -220,7 +220,8 @@ export class EnginePool {
         const { id, promise } = job.support === 'block'
           ? client.start('blockSurfaceRows', {
             samples, model, grid: bandOf,
-            options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints },
+            // A covariate model's block points (k² rows per cell): the band's rows, as for points.
+            options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints, ...(options.covariates ? { covariates: bandOptions(options, grid, r0, r1).covariates } : {}) },
           }, { onProgress })
           : client.start('surfaceRows', { samples, model, grid: bandOf, options: bandOptions(options, grid, r0, r1), local: job.local }, { onProgress });
         running.set(client, id);

@@ -53,13 +53,23 @@ describe('gapwise fit --anisotropy / --structures 2', () => {
     expect(json.fit.comparison.map((x: { label: string }) => x.label)).toEqual(['one structure', 'two structures']);
   }, 300_000);
 
-  it('fit refuses --anisotropy with wls or nnl, both options together, and --structures 3', async () => {
+  it('fit --anisotropy --structures 2 compares the four fits and, on a one-structure field, keeps one anisotropic structure', async () => {
+    const r = await ws.run('fit', ...base, '--anisotropy', '--structures', '2', '--out', 'both.json');
+    expect(r.code, r.stderr).toBe(0);
+    const json = JSON.parse(ws.read('both.json'));
+    const rows = json.fit.comparison as { label: string; logLikelihood: number; chosen: boolean }[];
+    expect(rows.map((x) => x.label)).toEqual(['isotropic', 'anisotropic', 'two structures', 'anisotropic, two structures']);
+    expect(rows[3].logLikelihood).toBeGreaterThanOrEqual(Math.max(rows[1].logLikelihood, rows[2].logLikelihood) - 1e-9 * Math.abs(rows[3].logLikelihood));
+    expect(json.structures.filter((s: { type: string }) => s.type !== 'nugget').length).toBe(1);
+    expect(Math.abs(json.anisotropy.azimuth - 60)).toBeLessThan(15);
+    expect(r.stderr).toMatch(/warning: Two structures are not identifiable from these samples: .*; the one-structure anisotropic model is kept\./);
+    expect(r.stderr).toContain('anisotropic, two structures');
+  }, 300_000);
+
+  it('fit refuses --anisotropy with wls or nnl, and --structures 3', async () => {
     const wls = await ws.run('fit', ...base, '--anisotropy', '--method', 'wls');
     expect(wls.code).toBe(2);
     expect(wls.stderr).toMatch(/"--anisotropy" is fitted by the exact REML or ML likelihood/);
-    const both = await ws.run('fit', ...base, '--anisotropy', '--structures', '2');
-    expect(both.code).toBe(2);
-    expect(both.stderr).toMatch(/one at a time/);
     const three = await ws.run('fit', ...base, '--structures', '3');
     expect(three.code).toBe(2);
     expect(three.stderr).toMatch(/expects 1 or 2, got 3/);

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { EnginePool, bandGrid, emptySurface, mergeBand, splitBands } from '../../src/worker/pool.ts';
 import { computeSurface, type SurfaceResult } from '../../src/core/prediction/surface.ts';
+import { computeBlockSurface } from '../../src/core/prediction/block-kriging.ts';
 import { cellCentres, type Grid } from '../../src/core/geometry/grid.ts';
 import { makeSamples } from '../../src/core/shared/samples.ts';
 import type { CovarianceModel } from '../../src/core/covariance/model.ts';
@@ -149,5 +150,24 @@ describe('EnginePool', () => {
     expect(r.threshold).toBe(c.threshold);
     expect(r.median).toBeInstanceOf(Float64Array);
     expect(Array.from(r.median!)).toEqual(Array.from(computeSurface(pos, c.model, grid, { threshold: c.threshold, precision: 'float64' }).median!));
+  });
+});
+
+describe('EnginePool block support with covariates', () => {
+  it('EnginePool.surface with block support gives each band its rows of the block points\' covariates: the one-shot block surface', async () => {
+    // Invented covariate: the easting of each block point (per metre), k = 2 points per side.
+    const k = 2;
+    const trendModel: CovarianceModel = { ...model, structures: model.structures.filter((s) => s.type !== 'nugget' || s.sill > 0), trend: { covariates: ['east'] }, transform: 'none' };
+    const withCovariate = { ...samples, covariates: Float64Array.from(samples.x) };
+    const covariates = new Float64Array(grid.nx * grid.ny * k * k);
+    for (let c = 0; c < grid.nx * grid.ny; c++) {
+      for (let s = 0; s < k * k; s++) covariates[c * k * k + s] = grid.x0 + ((c % grid.nx) + ((s % k) + 0.5) / k) * grid.cell;
+    }
+    const { factory } = fakeFactory();
+    const pool = new EnginePool({ size: 2, factory, bandsPerWorker: 2 });
+    const result = await pool.surface(withCovariate, trendModel, grid, { covariates }, { support: 'block', blockPoints: k });
+    const ref = computeBlockSurface(withCovariate, trendModel, grid, { points: k, covariates });
+    expect(Array.from(result.mean)).toEqual(Array.from(ref.mean));
+    expect(Array.from(result.sd)).toEqual(Array.from(ref.sd));
   });
 });

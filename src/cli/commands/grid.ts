@@ -28,10 +28,9 @@ import {
   readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { COVARIATE_RASTER_OPTION, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
-import { gridCovariates, rasterLattice } from '../../io/covariate-raster.ts';
+import { COVARIATE_RASTER_OPTION, checkCovariateRasters, covariateLattice, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
+import { gridCovariates } from '../../io/covariate-raster.ts';
 import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
-import { clipToPolygons } from '../../core/geometry/grid.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { modelFromSet } from '../analyte-runs.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
@@ -102,19 +101,11 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   // A covariate model: the samples' covariate columns, and on the grid the covariate rasters.
   const rasters = await readCovariateRasters(values, io.cwd);
   const covariateModel = isCovariateTrend(model.trend);
-  if (rasters.length > 0 && !covariateModel) {
-    throw new GapwiseError('bad-option', 'Option "--covariate-raster" applies to a model with covariates (fit --covariates); this model has none.');
-  }
-  if (covariateModel && rasters.length === 0) {
-    throw new GapwiseError('bad-option', `The model's mean uses the covariates ${(model.trend as CovariateTrend).covariates.join(', ')}; expected --covariate-raster NAME=FILE.tif for each on the grid.`);
-  }
+  checkCovariateRasters(model.trend, rasters);
   const samples = covariateModel ? withSampleCovariates(intake, intake.samples, model.trend).samples : intake.samples;
   let grid: Grid;
   if (covariateModel && cell === undefined && !(project && sameArea)) {
-    // The first covariate's raster lattice, clipped by the boundary.
-    const first = rasters.find((r) => r.name === (model.trend as CovariateTrend).covariates[0]) ?? rasters[0];
-    grid = rasterLattice(first, workCrs);
-    if (boundary) grid = clipToPolygons(grid, boundary.polygons.map((p) => p.rings));
+    grid = covariateLattice(model.trend as CovariateTrend, rasters, workCrs, boundary ? boundary.polygons.map((p) => p.rings) : null);
   } else if (project && sameArea) {
     grid = projectGrid(project, intake, boundary ? { work: boundary.polygons } : null, cell !== undefined ? { cellSize: cell } : {});
   } else {
@@ -126,12 +117,17 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     }, intake.report.crs.work);
   }
 
+  const choice = readSimulationChoice(values, model);
   const covariateWarnings: Warning[] = [];
   let gridCovariateValues: Float64Array | undefined;
+  let nodeCovariateValues: Float64Array | undefined;
   if (covariateModel) {
-    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs);
+    // Block support and realisations read the covariates at each cell's block points (or its centre).
+    const nodes = choice.support === 'block' || choice.realizations !== undefined ? choice.blockPoints : undefined;
+    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs, nodes !== undefined ? { nodes } : {});
     grid = g.grid;
     gridCovariateValues = g.covariates;
+    nodeCovariateValues = g.nodeCovariates;
     covariateWarnings.push(...g.warnings);
   }
   const threshold = numberOption(values, 'threshold');
@@ -139,7 +135,6 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     throw new GapwiseError('bad-option', `Option "--threshold" must be above 0 with a log model, got ${threshold}.`);
   }
   const n = intake.samples.value.length;
-  const choice = readSimulationChoice(values, model);
   const workers = readWorkers(values, io);
   const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
@@ -151,9 +146,6 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   }
   if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbors') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
     throw new GapwiseError('bad-option', 'Options "--local", "--neighbors", "--global-mean" and "--local-mean" apply to point support; block kriging uses all samples.');
-  }
-  if (covariateModel && (blockKriging || choice.realizations !== undefined)) {
-    throw new GapwiseError('bad-option', 'Block support and realisations are not available with a covariate model yet; use --support point without --realizations.');
   }
   if (choice.realizations !== undefined) {
     const threads = simulationThreads(choice.realizations, workers);
@@ -196,7 +188,8 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   }
   const unit = project?.samples.unit || intake.report.unit;
   const extra = await namingAsync(files, () => addSimulationBands({
-    samples: intake.samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    ...(nodeCovariateValues ? { covariates: nodeCovariateValues } : {}),
     workers, onProgress: progressLine(io, 'realisations'),
   }));
   if (extra.surface) surface = extra.surface;

@@ -6,7 +6,7 @@
  * The GeoTIFF comes from the one multi-band writer, src/io/geotiff.ts bandsGeoTiff. The realisations
  * are shared out over --workers threads (../simulation-pool.ts; the same bands as one thread draws).
  */
-import { refuseCovariateModel } from '../covariates.ts';
+import { COVARIATE_RASTER_OPTION, gridWithCovariates } from '../covariates.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
 import { cellCount } from '../../core/geometry/grid.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
@@ -27,7 +27,6 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const modelPath = stringOption(values, 'model') as string;
   const modelFile = readModelFile(io, modelPath);
   const { model } = modelFile;
-  refuseCovariateModel(model.trend, 'simulate', 'conditional realisations with covariates in the mean are not available yet');
   const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
   const workCrs = intake.report.crs.work;
   if (modelFile.workCrs === undefined) printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
@@ -35,18 +34,21 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const boundary = boundaryPath === undefined ? null : readBoundaryFile(io, boundaryPath, intake);
   const cell = numberOption(values, 'cell');
   if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
-  const grid = planSurfaceGrid({
-    x: intake.samples.x, y: intake.samples.y, padding: DEFAULT_PADDING, cellSize: cell ?? 0,
-    polygons: boundary ? boundary.polygons.map((p) => p.rings) : null,
-  }, intake.report.crs.work);
   const choice = readSimulationChoice(values, model, 'count');
+  const polygons = boundary ? boundary.polygons.map((p) => p.rings) : null;
+  // A covariate model: the samples' covariate columns and the rasters' values at the grid's block points.
+  const { samples, grid, nodeCovariates, warnings: covariateWarnings } = await gridWithCovariates(values, io.cwd, intake, model.trend, {
+    ...(cell !== undefined ? { cell } : {}), polygons, nodes: choice.blockPoints,
+    planned: () => planSurfaceGrid({ x: intake.samples.x, y: intake.samples.y, padding: DEFAULT_PADDING, cellSize: cell ?? 0, polygons }, intake.report.crs.work),
+  });
   const threshold = numberOption(values, 'threshold');
   const files = { samples: intake.report.fileName, model: modelPath };
   const n = choice.realizations ?? 0;
   const threads = simulationThreads(n, readWorkers(values, io));
   checkSimulationDemand({ grid, realisations: n, blockPoints: choice.blockPoints, threads, keep: true }, 'count');
-  const sim = await namingAsync(files, () => simulateParallel(intake.samples, model, grid, {
+  const sim = await namingAsync(files, () => simulateParallel(samples, model, grid, {
     count: n,
+    ...(nodeCovariates ? { covariates: nodeCovariates } : {}),
     seed: choice.seed,
     support: choice.support,
     blockPoints: choice.blockPoints,
@@ -58,7 +60,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const names = sim.realisations!.map((_, r) => `realisation ${r + 1}${unit ? ` (${unit})` : ''}`);
   const tif = bandsGeoTiff({ grid, bands: sim.realisations!, names, workCrs, title: `Gapwise conditional realisations (${sim.support} support).` });
   await writeOutput(io, out, tif.bytes);
-  printWarnings(io, [...sim.warnings, ...tif.warnings]);
+  printWarnings(io, [...covariateWarnings, ...sim.warnings, ...tif.warnings]);
   const area = sim.area;
   io.stdout(jsonText({
     out, format: 'tif', workCrs, epsg: tif.epsg === USER_DEFINED_CRS ? null : tif.epsg,
@@ -89,6 +91,9 @@ export const simulateCommand: CommandSpec = {
     'With --threshold the JSON summary on stdout gives the area above T (square metres) as the median over the '
       + 'realisations with a 90 % interval (5 % and 95 %), and with --depth the volume (cubic metres = area × depth). '
       + 'With --support block each cell is the average of --block-points × --block-points lattice points.',
+    'A model with covariates (fit --covariates) needs --covariate-raster NAME=FILE.tif for each: the realisations are '
+      + 'conditioned under the kriging mean with covariates, each lattice point with the rasters\' values there; without '
+      + '--cell the grid is the first raster\'s lattice, and cells without a value are left empty.',
     'The realisations are shared out among --workers threads in consecutive parts (the same bands as one thread '
       + 'draws); the thread count is said on stderr, and a run that lasts more than 2 s prints a progress line at every 10 %.',
     'The screening caution is in the summary and in the GeoTIFF description.',
@@ -96,7 +101,8 @@ export const simulateCommand: CommandSpec = {
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit"', required: true },
     { name: 'out', kind: 'string', placeholder: 'FILE', help: 'GeoTIFF to write, one band per realisation', required: true },
-    { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'about 40,000 cells over the area' },
+    COVARIATE_RASTER_OPTION,
+    { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size', unit: 'm', defaultText: 'about 40,000 cells over the area (a covariate model: the raster\'s lattice)' },
     { name: 'boundary', kind: 'string', placeholder: 'FILE', help: 'GeoJSON polygon(s): only cells whose centre lies inside', defaultText: 'the samples\' extent' },
     { name: 'threshold', kind: 'number', placeholder: 'T', help: 'action level for the area (and volume) above it', unit: 'the samples\' unit', defaultText: 'none' },
     ...SIMULATE_OPTIONS,

@@ -5,7 +5,7 @@
  * the extension of --out and prints a JSON summary (with the caution) on stdout.
  */
 import { SOFTWARE } from '../../core/shared/version.ts';
-import { refuseCovariateModel } from '../covariates.ts';
+import { COVARIATE_RASTER_OPTION, designWithCovariates } from '../covariates.ts';
 import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
 import { suggestSites, type DesignMode, type DesignOptions, type DesignResult } from '../../core/design/design.ts';
 import type { Polygon as CorePolygon } from '../../core/geometry/grid.ts';
@@ -136,7 +136,6 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const out = stringOption(values, 'out');
   const format = out === undefined ? null : formatOf(out);
   const modelFile = modelPath === undefined ? null : readModelFile(io, modelPath);
-  if (modelFile) refuseCovariateModel(modelFile.model.trend, 'suggest', 'candidate sites have no covariate values yet');
   const intake = readSamplesFile(io, values, modelFile && modelPath ? modelWorkCrs(values, modelFile, modelPath) : undefined);
   const workCrs = intake.report.crs.work;
   const inputCrs = intake.report.crs.input;
@@ -166,9 +165,13 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const candidatesPath = stringOption(values, 'candidates');
   if (candidatesPath !== undefined) options.candidates = readCandidates(io, candidatesPath, values, intake);
 
+  // A covariate model: the area grid and candidates with the rasters' values (--covariate-raster).
+  const covariates = await designWithCovariates(values, io.cwd, intake, modelFile?.model.trend ?? null, options);
+  Object.assign(options, covariates.options);
+  printWarnings(io, covariates.warnings);
   const files = { samples: intake.report.fileName, model: modelPath };
   const sitesProgress = progressLine(io, 'sites');
-  const result: DesignResult = naming(files, () => suggestSites(intake.samples, modelFile?.model ?? null, options, {
+  const result: DesignResult = naming(files, () => suggestSites(covariates.samples, modelFile?.model ?? null, options, {
     onProgress: (done, total, stage) => { if (stage === 'sites') sitesProgress(done, total); },
   }));
   const warnings: Warning[] = result.warnings;
@@ -256,6 +259,9 @@ export const suggestCommand: CommandSpec = {
     'One analyte at a time: with a model set from "gapwise fit --value a,b" as --model, --value names the analyte '
       + 'whose model chooses the sites; several analytes in --value are refused (exit 2), since each analyte\'s map '
       + 'has its own uncertainty and action level: run suggest once per analyte and pool the sites in the field plan.',
+    'A model with covariates (fit --covariates) needs --covariate-raster NAME=FILE.tif for each: the area grid is '
+      + 'the first raster\'s lattice clipped by --boundary (or the --cell grid), cells without a value are left out, '
+      + 'and --candidates take the rasters\' values at their points.',
   ],
   options: [
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model JSON, as written by "gapwise fit" (a model set from "gapwise fit --value a,b" with --value naming one analyte)', defaultText: 'none: a coverage design' },
@@ -267,7 +273,8 @@ export const suggestCommand: CommandSpec = {
     { name: 'min-spacing', kind: 'number', placeholder: 'M', help: 'least distance from a new site to any sample and to the other new sites', unit: 'm', defaultText: '0' },
     { name: 'candidates', kind: 'string', placeholder: 'FILE', help: 'accessible points to choose from: CSV with coordinate columns, or GeoJSON points', defaultText: 'the cell centres of the area' },
     { name: 'candidates-crs', kind: 'string', placeholder: 'CRS', help: 'CRS of a CSV candidates file', defaultText: '--crs, else the samples\' CRS' },
-    { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size of the area grid and the candidate grid', unit: 'm', defaultText: 'about 10,000 cells over the area' },
+    { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size of the area grid and the candidate grid', unit: 'm', defaultText: 'about 10,000 cells over the area (a covariate model: the raster\'s lattice)' },
+    COVARIATE_RASTER_OPTION,
     { name: 'seed', kind: 'number', placeholder: 'N', help: 'seed of the coverage design', defaultText: '1' },
     outOption('sites file: .geojson, .csv or .gpx', 'not written (the sites are in the JSON summary)'),
     ...SAMPLE_OPTIONS,

@@ -29,7 +29,7 @@ import type { KrigingSystem } from '../prediction/kriging.ts';
 import { solveLowerBlock } from '../linalg/linalg.ts';
 import { crossCovarianceMatrix } from '../covariance/covariance.ts';
 import { solveLowerInPlace } from '../linalg/linalg.ts';
-import { designRow, type CoordinateFrame } from '../covariance/trend.ts';
+import { covariateColumnCount, designRow, type CoordinateFrame } from '../covariance/trend.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { expectedMisclassification, misclassificationProbability } from './design-misclassification.ts';
 
@@ -37,6 +37,13 @@ import { expectedMisclassification, misclassificationProbability } from './desig
 export interface Points {
   x: Float64Array;
   y: Float64Array;
+  /** Covariate trend only: the points' encoded covariates (points × q, row-major). */
+  covariates?: Float64Array;
+}
+
+/** The covariates of point i of a set, or undefined without covariates. */
+function covariatesOf(points: Points, i: number, q: number): Float64Array | undefined {
+  return points.covariates ? points.covariates.subarray(i * q, i * q + q) : undefined;
 }
 
 /** Posterior features of points: a = L⁻¹k(S, q) (one row of n per point) and t (one row of p). */
@@ -111,9 +118,13 @@ export interface GreedyResult {
 /** Below this misclassification chance an evaluation point cannot change a decision benefit by more than it. */
 const DECIDED = 1e-12;
 
-/** Posterior features (a, t, k₀(q, q)) of points through the factorised system. */
-export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py: ArrayLike<number>): Features {
+/**
+ * Posterior features (a, t, k₀(q, q)) of points through the factorised system; a covariate trend reads
+ * the points' encoded covariates (points × q, row-major).
+ */
+export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py: ArrayLike<number>, covariates?: ArrayLike<number>): Features {
   const { n, p, model, frame, u, v, W, Lg, c0 } = sys;
+  const nq = covariateColumnCount(model.trend);
   const m = px.length;
   const qu = new Float64Array(m);
   const qv = new Float64Array(m);
@@ -124,7 +135,7 @@ export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py:
   const a = new Float64Array(m * n);
   const t = new Float64Array(m * p);
   const variance = new Float64Array(m);
-  const centred: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
+  const centred: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
   const BLOCK = 512;
   const x0 = new Float64Array(p);
   const tj = new Float64Array(p);
@@ -143,7 +154,7 @@ export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py:
       for (let i = 0; i < n; i++) q += a[row + i] * a[row + i];
       let s = c0 - q;
       if (p > 0) {
-        designRow(model.trend, qu[j0 + j], qv[j0 + j], centred, x0);
+        designRow(model.trend, qu[j0 + j], qv[j0 + j], centred, x0, 0, covariates, (j0 + j) * nq);
         for (let c = 0; c < p; c++) {
           let acc = x0[c];
           for (let i = 0; i < n; i++) acc -= W[i * p + c] * a[row + i];
@@ -247,16 +258,17 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
   };
 
   // Mean at the evaluation points (kriging scale): m0 + x₀ᵀβ̂ + k₀ᵀα, for the decision sums.
-  const fE = posteriorFeatures(sys, evaluation.x, evaluation.y);
+  const q = covariateColumnCount(sys.model.trend);
+  const fE = posteriorFeatures(sys, evaluation.x, evaluation.y, evaluation.covariates);
   const mean = new Float64Array(mE);
   {
-    const centred: CoordinateFrame = { cx: 0, cy: 0, scale: sys.frame.scale };
+    const centred: CoordinateFrame = { ...sys.frame, cx: 0, cy: 0 };
     const x0 = new Float64Array(p);
     const kE = crossCovarianceMatrix(sys.model, fE.u, fE.v, sys.u, sys.v);
     for (let e = 0; e < mE; e++) {
       let s = sys.m0;
       if (p > 0) {
-        designRow(sys.model.trend, fE.u[e], fE.v[e], centred, x0);
+        designRow(sys.model.trend, fE.u[e], fE.v[e], centred, x0, 0, evaluation.covariates, e * q);
         for (let c = 0; c < p; c++) s += x0[c] * sys.beta[c];
       }
       for (let i = 0; i < n; i++) s += sys.alpha[i] * kE[e * n + i];
@@ -267,11 +279,13 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
   checkCancelled(hooks, 'while preparing the evaluation points');
   const sx = new Float64Array(mC);
   const sy = new Float64Array(mC);
+  const sc = candidates.covariates ? new Float64Array(mC * q) : undefined;
   for (let c = 0; c < mC; c++) {
     sx[c] = candidates.x[screen[c]];
     sy[c] = candidates.y[screen[c]];
+    if (sc) sc.set(covariatesOf(candidates, screen[c], q)!, c * q);
   }
-  const fC = posteriorFeatures(sys, sx, sy);
+  const fC = posteriorFeatures(sys, sx, sy, sc);
   step();
   checkCancelled(hooks, 'while preparing the candidates');
   const P = posteriorCrossCovariance(sys, fE, fC); // k_j(E, C), updated in place
@@ -334,9 +348,9 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
     return s * problem.evaluationArea;
   };
 
-  /** The current column k_j(E, q), k_j(q, q) and U_l(q) of an arbitrary point, from scratch. */
-  const columnOf = (x: number, y: number) => {
-    const f = posteriorFeatures(sys, [x], [y]);
+  /** The current column k_j(E, q), k_j(q, q) and U_l(q) of candidate `id`, from scratch. */
+  const columnOf = (id: number) => {
+    const f = posteriorFeatures(sys, [candidates.x[id]], [candidates.y[id]], covariatesOf(candidates, id, q));
     const colE = posteriorCrossCovariance(sys, fE, f); // mE×1
     let d = f.variance[0];
     const j = picks.length;
@@ -400,7 +414,7 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
     if (problem.screen && problem.refineRadius && problem.refineRadius > 0) {
       for (const id of problem.within(candidates.x[chosen], candidates.y[chosen], problem.refineRadius)) {
         if (!allowed[id] || screened[id] >= 0) continue;
-        const col = columnOf(candidates.x[id], candidates.y[id]);
+        const col = columnOf(id);
         refined++;
         const b = benefitOf((e) => col.colE[e], col.d);
         if (b > bestBenefit) {
@@ -411,7 +425,7 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
       }
     }
     if (!(bestBenefit > 0)) break;
-    column ??= columnOf(candidates.x[chosen], candidates.y[chosen]);
+    column ??= columnOf(chosen);
     // 3. Rank-one update with the chosen site.
     const delta = Math.sqrt(column.d + noise);
     const ue = new Float64Array(mE);

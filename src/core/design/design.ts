@@ -13,6 +13,10 @@
  * keeps the minimum spacing to the samples and to the other new sites. The average over the area is
  * taken over the cells, thinned to a regular sub-lattice when there are more than
  * `maxEvaluationPoints` (a coarser quadrature of the same integral).
+ * Covariates in the mean: the area grid is given (`grid`, e.g. a covariate raster's lattice, its mask
+ * the cells with covariate values) with the encoded covariates of every cell (`covariates`), and given
+ * candidate points carry their own (`candidates.covariates`); the posterior of ./design-greedy.ts then
+ * has the covariate columns in its trend.
  * Units: working-CRS metres and m²; mean and sd in data units; variances on the kriging scale.
  * Cost: see ./design-greedy.ts and ./design-coverage.ts.
  */
@@ -27,6 +31,7 @@ import { buildKrigingSystem, predictWithSystem } from '../prediction/kriging.ts'
 import { exceedanceProbability } from '../shared/normal.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
 import { greedyDesign, type Points } from './design-greedy.ts';
+import { checkCovariateRows, covariateColumnCount } from '../covariance/trend.ts';
 import { coverageDesign } from './design-coverage.ts';
 
 export type DesignMode = 'variance' | 'decision' | 'coverage';
@@ -47,8 +52,18 @@ export interface DesignOptions {
   exclusions?: Polygon[];
   /** Least distance from a new site to the samples and to the other new sites, metres. Default 0. */
   minSpacing?: number;
-  /** Accessible points (working CRS) to choose from instead of the grid cells. */
-  candidates?: { x: ArrayLike<number>; y: ArrayLike<number> };
+  /**
+   * Accessible points (working CRS) to choose from instead of the grid cells; with a covariate model
+   * their encoded covariates (points × q, row-major).
+   */
+  candidates?: { x: ArrayLike<number>; y: ArrayLike<number>; covariates?: ArrayLike<number> };
+  /**
+   * The area grid itself (cells whose centre is in the area have mask 1), instead of one planned from
+   * `cell` and `boundary` (see `designGrid`); a boundary still limits given candidates.
+   */
+  grid?: Grid;
+  /** Covariate model: the encoded covariates of every cell of `grid` (nx·ny rows × q, row-major from the top). */
+  covariates?: ArrayLike<number>;
   /** Noise variance of a new measurement (kriging scale). Default: the model's nugget. */
   noise?: number;
   /** Most evaluation points for the area average (default 1,000). */
@@ -167,15 +182,25 @@ function extentOf(xs: ArrayLike<number>[], ys: ArrayLike<number>[]): { xmin: num
   return { xmin, ymin, xmax, ymax };
 }
 
+/** Points at cells (indices into the grid) with their rows of the cells' covariates, when there are any. */
+function cellPoints(grid: Grid, x: Float64Array, y: Float64Array, cells: ArrayLike<number>, covariates: ArrayLike<number> | undefined): Points {
+  if (!covariates) return { x, y };
+  const q = covariates.length / (grid.nx * grid.ny);
+  const c = new Float64Array(cells.length * q);
+  for (let k = 0; k < cells.length; k++) for (let a = 0; a < q; a++) c[k * q + a] = covariates[cells[k] * q + a];
+  return { x, y, covariates: c };
+}
+
 /** Active cells thinned to at most `max`: a regular sub-lattice, else every k-th cell. */
-function thinCells(grid: Grid, max: number): Points {
+function thinCells(grid: Grid, max: number, covariates?: ArrayLike<number>): Points {
   const all = cellCentres(grid);
   const total = all.x.length;
-  if (total <= max) return { x: all.x, y: all.y };
+  if (total <= max) return cellPoints(grid, all.x, all.y, all.index, covariates);
   const f = Math.ceil(Math.sqrt(total / max));
   const off = f >> 1;
   const xs: number[] = [];
   const ys: number[] = [];
+  const ids: number[] = [];
   for (let k = 0; k < total; k++) {
     const idx = all.index[k];
     const i = idx % grid.nx;
@@ -183,19 +208,22 @@ function thinCells(grid: Grid, max: number): Points {
     if (i % f === off && j % f === off) {
       xs.push(all.x[k]);
       ys.push(all.y[k]);
+      ids.push(idx);
     }
   }
-  if (xs.length >= Math.min(max, total) / 8 && xs.length <= max) return { x: Float64Array.from(xs), y: Float64Array.from(ys) };
+  if (xs.length >= Math.min(max, total) / 8 && xs.length <= max) return cellPoints(grid, Float64Array.from(xs), Float64Array.from(ys), ids, covariates);
   const stride = total / max;
   const m = Math.floor(total / stride);
   const x = new Float64Array(m);
   const y = new Float64Array(m);
+  const cells = new Uint32Array(m);
   for (let k = 0; k < m; k++) {
     const at = Math.floor((k + 0.5) * stride);
     x[k] = all.x[at];
     y[k] = all.y[at];
+    cells[k] = all.index[at];
   }
-  return { x, y };
+  return cellPoints(grid, x, y, cells, covariates);
 }
 
 /** One candidate per square bucket of side `size` (the one nearest the bucket's centre). */
@@ -210,6 +238,46 @@ function screenSubset(c: Points, size: number): Uint32Array {
     if (!b || d < b.d || (d === b.d && i < b.id)) best.set(key, { id: i, d });
   }
   return Uint32Array.from([...best.values()].map((b) => b.id).sort((a, b) => a - b));
+}
+
+/**
+ * The area grid a design plans from its options (without `grid`): the cells of `cell` metres (default
+ * about 10,000 over the area) whose centre lies in the boundary, or the bounding box of the samples
+ * and given candidates without one; `extent` bounds given candidates without a boundary. Throws
+ * GapwiseError 'bad-option' / 'bad-geometry' for an empty area or a bad cell size.
+ */
+export function designGrid(
+  samples: Pick<Samples, 'x' | 'y'>, options: Pick<DesignOptions, 'boundary' | 'candidates' | 'cell'>,
+): { grid: Grid; extent: { xmin: number; ymin: number; xmax: number; ymax: number }; warnings: Warning[] } {
+  const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
+  const given = options.candidates;
+  if (given && given.x.length !== given.y.length) {
+    throw new GapwiseError('bad-option', `Expected candidate x and y of equal length, got ${given.x.length} and ${given.y.length}.`);
+  }
+  const warnings: Warning[] = [];
+  let areaGuess: number;
+  let extent: { xmin: number; ymin: number; xmax: number; ymax: number } | null;
+  if (boundary) {
+    extent = polygonsExtent(boundary);
+    areaGuess = polygonsArea(boundary);
+  } else {
+    const xs: ArrayLike<number>[] = [samples.x];
+    const ys: ArrayLike<number>[] = [samples.y];
+    if (given) {
+      xs.push(given.x);
+      ys.push(given.y);
+    }
+    extent = extentOf(xs, ys);
+    if (!(extent.xmax > extent.xmin && extent.ymax > extent.ymin)) {
+      throw new GapwiseError('bad-option', 'Without a boundary the area is the samples\' bounding box, which is empty here; expected a boundary polygon or samples spread in both directions.');
+    }
+    areaGuess = (extent.xmax - extent.xmin) * (extent.ymax - extent.ymin);
+    warnings.push({ code: 'no-boundary', message: 'No boundary was given: the area is the bounding box of the samples.' });
+  }
+  if (!extent || !(areaGuess > 0)) throw new GapwiseError('bad-geometry', 'The boundary encloses no area; expected polygons with a positive area.');
+  const cell = options.cell === undefined ? defaultCell(areaGuess) : checkNumber(options.cell, 'the cell size (m)', 0, false);
+  const grid = boundary ? gridForPolygons(boundary, cell) : gridFromExtent(extent.xmin, extent.ymin, extent.xmax, extent.ymax, cell);
+  return { grid, extent, warnings };
 }
 
 function resolveMode(options: DesignOptions, model: CovarianceModel | null): DesignMode {
@@ -262,37 +330,26 @@ export function suggestSites(
   const given = options.candidates;
   const gx = given ? Float64Array.from(given.x) : null;
   const gy = given ? Float64Array.from(given.y) : null;
-  if (gx && gy && gx.length !== gy.length) {
-    throw new GapwiseError('bad-option', `Expected candidate x and y of equal length, got ${gx.length} and ${gy.length}.`);
+  const planned = designGrid(samples, options);
+  const { extent } = planned;
+  warnings.push(...planned.warnings);
+  const grid = options.grid ?? planned.grid;
+  const cell = grid.cell;
+  const q = model ? covariateColumnCount(model.trend) : 0;
+  if (q > 0) {
+    if (!options.grid) throw new GapwiseError('bad-option', 'A model with covariates needs the area grid with the covariates of its cells; expected grid and covariates.');
+    checkCovariateRows(model!.trend, grid.nx * grid.ny, options.covariates, 'grid cell');
+    if (given) checkCovariateRows(model!.trend, given.x.length, given.covariates, 'candidate');
   }
-  let areaGuess: number;
-  let extent: { xmin: number; ymin: number; xmax: number; ymax: number } | null;
-  if (boundary) {
-    extent = polygonsExtent(boundary);
-    areaGuess = polygonsArea(boundary);
-  } else {
-    const xs: ArrayLike<number>[] = [samples.x];
-    const ys: ArrayLike<number>[] = [samples.y];
-    if (gx && gy) {
-      xs.push(gx);
-      ys.push(gy);
-    }
-    extent = extentOf(xs, ys);
-    if (!(extent.xmax > extent.xmin && extent.ymax > extent.ymin)) {
-      throw new GapwiseError('bad-option', 'Without a boundary the area is the samples\' bounding box, which is empty here; expected a boundary polygon or samples spread in both directions.');
-    }
-    areaGuess = (extent.xmax - extent.xmin) * (extent.ymax - extent.ymin);
-    warnings.push({ code: 'no-boundary', message: 'No boundary was given: the area is the bounding box of the samples.' });
-  }
-  if (!extent || !(areaGuess > 0)) throw new GapwiseError('bad-geometry', 'The boundary encloses no area; expected polygons with a positive area.');
-  const cell = options.cell === undefined ? defaultCell(areaGuess) : checkNumber(options.cell, 'the cell size (m)', 0, false);
-  const grid = boundary ? gridForPolygons(boundary, cell) : gridFromExtent(extent.xmin, extent.ymin, extent.xmax, extent.ymax, cell);
   const cellsIn = cellCentres(grid);
   const area = cellsIn.x.length * cell * cell;
 
   // Candidates: inside the area, outside exclusions, spaced from the samples.
   const rawX = gx ?? cellsIn.x;
   const rawY = gy ?? cellsIn.y;
+  // Their covariate rows: a given point's own, or its cell's.
+  const rawCovariates = q === 0 ? undefined : given ? given.covariates! : cellPoints(grid, cellsIn.x, cellsIn.y, cellsIn.index, options.covariates).covariates!;
+  const keepCovariates: number[] = [];
   const sampleIndex = n > 0 ? new NeighborIndex(samples.x, samples.y) : null;
   const keepX: number[] = [];
   const keepY: number[] = [];
@@ -321,6 +378,7 @@ export function suggestSites(
     }
     keepX.push(x);
     keepY.push(y);
+    for (let a = 0; a < q; a++) keepCovariates.push(rawCovariates![i * q + a]);
   }
   if (gx && outside > 0) warnings.push({ code: 'candidates-outside', message: `${outside} of ${gx.length} candidate points lie outside the area and were left out.` });
   if (gx && excluded > 0) warnings.push({ code: 'candidates-excluded', message: `${excluded} of ${gx.length} candidate points lie in an excluded area and were left out.` });
@@ -328,7 +386,10 @@ export function suggestSites(
   if (keepX.length === 0) {
     throw new GapwiseError('bad-option', `No candidate site is left after the constraints (${outside} outside the area, ${excluded} excluded, ${tooClose} closer than ${minSpacing} m to a sample); expected at least one: relax the spacing or the exclusions.`);
   }
-  const candidates: Points = { x: Float64Array.from(keepX), y: Float64Array.from(keepY) };
+  const candidates: Points = { x: Float64Array.from(keepX), y: Float64Array.from(keepY), ...(q > 0 ? { covariates: Float64Array.from(keepCovariates) } : {}) };
+  const covariatesAt = (ids: number[]): { covariates?: Float64Array } => (q > 0
+    ? { covariates: Float64Array.from(ids.flatMap((id) => Array.from(candidates.covariates!.subarray(id * q, id * q + q)))) }
+    : {});
   const candIndex = new NeighborIndex(candidates.x, candidates.y);
   const within = (x: number, y: number, r: number): number[] => candIndex.within(x, y, r);
 
@@ -355,7 +416,7 @@ export function suggestSites(
   };
 
   if (mode === 'coverage') {
-    const points = thinCells(grid, maxCoverage);
+    const points = thinCells(grid, maxCoverage, options.covariates);
     const result = coverageDesign({
       points, fixed: { x: samples.x, y: samples.y }, candidates, count, minSpacing,
       seed: options.seed ?? 1, restarts: Math.max(1, Math.floor(options.restarts ?? 4)), maxIterations: 100,
@@ -365,7 +426,7 @@ export function suggestSites(
     if (model && n > 0 && result.sites.length > 0) {
       const sys = buildKrigingSystem(samples, model);
       warnings.push(...sys.warnings);
-      predicted = predictWithSystem(sys, result.sites.map((s) => s.x), result.sites.map((s) => s.y));
+      predicted = predictWithSystem(sys, result.sites.map((s) => s.x), result.sites.map((s) => s.y), covariatesAt(result.sites.map((s) => s.index)));
     }
     progress(1, 1, 'done');
     return {
@@ -393,7 +454,7 @@ export function suggestSites(
     }
     threshold = log ? Math.log(options.threshold) : options.threshold;
   }
-  const evaluation = thinCells(grid, maxEval);
+  const evaluation = thinCells(grid, maxEval, options.covariates);
   const mE = evaluation.x.length;
   let screen: Uint32Array | undefined;
   let refineRadius: number | undefined;
@@ -422,7 +483,7 @@ export function suggestSites(
   }, { onProgress: (d, t) => progress(d, t, 'sites'), isCancelled: hooks.isCancelled });
   shortfall(result.picks.length);
   const predicted = result.picks.length > 0
-    ? predictWithSystem(sys, result.picks.map((s) => s.x), result.picks.map((s) => s.y))
+    ? predictWithSystem(sys, result.picks.map((s) => s.x), result.picks.map((s) => s.y), covariatesAt(result.picks.map((s) => s.index)))
     : null;
   let sdBefore = 0;
   let sdAfter = 0;

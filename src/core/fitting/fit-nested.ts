@@ -50,7 +50,7 @@ interface NestedParameters extends CorrelationParameters {
 }
 
 /** Diagonal of the samples' bounding box, metres. */
-function extentDiagonal(samples: Samples): number {
+export function extentDiagonal(samples: Samples): number {
   let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
   for (let i = 0; i < samples.x.length; i++) {
     xmin = Math.min(xmin, samples.x[i]); xmax = Math.max(xmax, samples.x[i]);
@@ -61,6 +61,28 @@ function extentDiagonal(samples: Samples): number {
 
 function fmt(v: number): string {
   return Number(v.toPrecision(3)).toLocaleString('en-US');
+}
+
+/**
+ * The identifiability guard of a two-structure fit: 'merged' when the scales s₁ and s₁·spread lie
+ * within MERGE_RATIO, 'vanishing-sill' when a structure carries less than MIN_SHARE of the partial
+ * sill, 'no-gain' when its AIC is not below the simpler model's (`simpler` names it in the reason);
+ * undefined when the two structures are identifiable.
+ */
+export function nestedGuard(
+  shortScale: number, spread: number, shortShare: number, aic: number, simplerAic: number, simpler: string,
+): { notIdentifiable?: 'merged' | 'vanishing-sill' | 'no-gain'; reason: string } {
+  const minorShare = Math.min(shortShare, 1 - shortShare);
+  if (spread < MERGE_RATIO) {
+    return { notIdentifiable: 'merged', reason: `the two fitted scales (${fmt(shortScale)} m and ${fmt(shortScale * spread)} m) lie within a factor ${MERGE_RATIO} of each other, so they describe one structure` };
+  }
+  if (minorShare < MIN_SHARE) {
+    return { notIdentifiable: 'vanishing-sill', reason: `the ${shortShare < 0.5 ? 'short' : 'long'} structure carries ${fmt(100 * minorShare)} % of the partial sill (expected at least ${100 * MIN_SHARE} %), so its sill goes to zero` };
+  }
+  if (!(aic < simplerAic)) {
+    return { notIdentifiable: 'no-gain', reason: `the second structure does not lower the AIC (${aic.toFixed(2)} against ${simplerAic.toFixed(2)} with ${simpler})` };
+  }
+  return { reason: '' };
 }
 
 /**
@@ -142,19 +164,7 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
   if (options.anisotropy) nested.anisotropy = { ...options.anisotropy };
   nested.practicalRange = practicalRange(nested);
 
-  let notIdentifiable: NestedFit['notIdentifiable'];
-  let reason = '';
-  const minorShare = Math.min(theta.shortShare, 1 - theta.shortShare);
-  if (theta.spread < MERGE_RATIO) {
-    notIdentifiable = 'merged';
-    reason = `the two fitted scales (${fmt(theta.scale)} m and ${fmt(theta.scale * theta.spread)} m) lie within a factor ${MERGE_RATIO} of each other, so they describe one structure`;
-  } else if (minorShare < MIN_SHARE) {
-    notIdentifiable = 'vanishing-sill';
-    reason = `the ${theta.shortShare < 0.5 ? 'short' : 'long'} structure carries ${fmt(100 * minorShare)} % of the partial sill (expected at least ${100 * MIN_SHARE} %), so its sill goes to zero`;
-  } else if (!(aic < singleAic)) {
-    notIdentifiable = 'no-gain';
-    reason = `the second structure does not lower the AIC (${aic.toFixed(2)} against ${singleAic.toFixed(2)} with one structure)`;
-  }
+  const { notIdentifiable, reason } = nestedGuard(theta.scale, theta.spread, theta.shortShare, aic, singleAic, 'one structure');
   const comparison: FitComparisonRow[] = [
     { label: 'one structure', logLikelihood: single.fit!.logLikelihood ?? -Infinity, aic: singleAic, parameters: singleParameters, chosen: notIdentifiable !== undefined },
     { label: 'two structures', logLikelihood: final.logLikelihood, aic, parameters: k, chosen: notIdentifiable === undefined },

@@ -49,6 +49,8 @@ export interface SearchProblem {
    * least its likelihood.
    */
   anchor?: number[];
+  /** More such points (the result is at least the best of them all). */
+  anchors?: number[][];
   /** θ for the likelihood (it may carry extra fields that `correlationAt` reads). */
   toTheta(x: number[]): CorrelationParameters;
   /** Jitter R's diagonal when it cannot be factorised (fits without a nugget). */
@@ -144,15 +146,18 @@ export function searchLikelihood(
   }
 
   let best: { x: number[]; value: number; converged: boolean };
-  if (problem.anchor && !screening) {
-    candidates.push({ x: problem.anchor, value: fFull(problem.anchor), converged: true });
-    evaluations++;
+  const anchors = [...(problem.anchor ? [problem.anchor] : []), ...(problem.anchors ?? [])];
+  if (!screening) {
+    for (const a of anchors) {
+      candidates.push({ x: a, value: fFull(a), converged: true });
+      evaluations++;
+    }
   }
   if (!screening) {
     best = candidates.sort((a, b) => a.value - b.value)[0];
   } else {
     let top = { x: candidates[0].x, value: Infinity };
-    for (const c of problem.anchor ? [...candidates, { x: problem.anchor }] : candidates) {
+    for (const c of [...candidates, ...anchors.map((x) => ({ x }))]) {
       const v = fFull(c.x);
       evaluations++;
       if (v < top.value) top = { x: c.x, value: v };

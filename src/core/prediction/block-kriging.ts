@@ -11,7 +11,11 @@
  * and then the dual GLS form of ./kriging.ts with k̄, x̄, C̄_BB in place of k₀, x₀, c₀:
  *   mean_B = m₀ + x̄ᵀβ̂ + k̄ᵀα,   var_B = C̄_BB − ‖L⁻¹k̄‖² + ‖Lg⁻¹(x̄ − Wᵀ·L⁻¹k̄)‖²
  * (block kriging: Journel & Huijbregts 1978, ch. V; Cressie 1993 §5.2 — from memory). Simple,
- * ordinary and universal kriging follow model.trend as for points. C̄_BB depends only on the
+ * ordinary and universal kriging follow model.trend as for points. A covariate trend averages its
+ * columns by the same rule: x̄ is the mean of the design rows at the k×k discretisation points, each
+ * with the covariates at that point (`BlockPredictOptions.covariates`), so an indicator column
+ * becomes the share of the block in that level and a numeric covariate its block average. As the
+ * mean is linear in the columns, x̄ᵀβ is exactly the block average of the point means. C̄_BB depends only on the
  * block's shape, so it is computed once from the (2k−1)² distinct lags between discretisation
  * points, each weighted by its count (k − |a|)(k − |b|).
  * P(block mean > T) = 1 − Φ((T − mean_B)/sd_B): the block mean of a Gaussian surface is Gaussian.
@@ -27,7 +31,7 @@ import { GapwiseError, type Warning } from '../shared/errors.ts';
 import { crossCovarianceMatrix, effectiveDistance, surfaceCovariance } from '../covariance/covariance.ts';
 import { solveLowerBlock, solveLowerInPlace } from '../linalg/linalg.ts';
 import { buildKrigingSystem, type KrigingSystem, type PredictorOptions } from './kriging.ts';
-import { designRow, type CoordinateFrame } from '../covariance/trend.ts';
+import { checkCovariateRows, covariateColumnCount, designRow, type CoordinateFrame } from '../covariance/trend.ts';
 import { exceedanceProbability } from '../shared/normal.ts';
 import { cellCentres, type Grid } from '../geometry/grid.ts';
 import { checkSurfaceCell, type SurfaceArray, type SurfaceResult, type ValueRange } from './surface.ts';
@@ -68,6 +72,12 @@ export interface BlockPredictOptions {
   batch?: number;
   onProgress?: (done: number, total: number) => void;
   isCancelled?: () => boolean;
+  /**
+   * Covariate trend only: the encoded covariates at every discretisation point of every block
+   * (blocks × k² rows × q columns, row-major; points in the order of `blockOffsets`). Required when
+   * the model's trend has covariates.
+   */
+  covariates?: ArrayLike<number>;
 }
 
 function checkShape(shape: BlockShape): { w: number; h: number; k: number } {
@@ -143,7 +153,11 @@ export function predictBlocksWithSystem(
   const mean = new Float64Array(total);
   const sd = new Float64Array(total);
   const pExceed = threshold !== undefined ? new Float64Array(total) : undefined;
-  const centred: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
+  // Keep the covariate centres and scales of the frame: only the coordinates are already centred.
+  const centred: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
+  const q = covariateColumnCount(model.trend);
+  if (q > 0) checkCovariateRows(model.trend, total * kk, options.covariates, 'block point');
+  const tc = options.covariates;
   const row = new Float64Array(Math.max(1, p));
   const xbar = new Float64Array(batch * p);
   const t = new Float64Array(p);
@@ -159,11 +173,11 @@ export function predictBlocksWithSystem(
       if (!Number.isFinite(bu) || !Number.isFinite(bv)) {
         throw new GapwiseError('bad-value', `Block ${j0 + j + 1} has the centre (${cx[j0 + j]}, ${cy[j0 + j]}); expected finite numbers.`);
       }
-      for (let q = 0; q < kk; q++) {
-        pu[j * kk + q] = bu + dx[q];
-        pv[j * kk + q] = bv + dy[q];
+      for (let s = 0; s < kk; s++) {
+        pu[j * kk + s] = bu + dx[s];
+        pv[j * kk + s] = bv + dy[s];
         if (p > 0) {
-          designRow(model.trend, pu[j * kk + q], pv[j * kk + q], centred, row);
+          designRow(model.trend, pu[j * kk + s], pv[j * kk + s], centred, row, 0, tc, ((j0 + j) * kk + s) * q);
           for (let a = 0; a < p; a++) xbar[j * p + a] += row[a] / kk;
         }
       }
@@ -176,7 +190,7 @@ export function predictBlocksWithSystem(
       for (let j = 0; j < m; j++) {
         let s = 0;
         const cj = ci + j * kk;
-        for (let q = 0; q < kk; q++) s += C[cj + q];
+        for (let r = 0; r < kk; r++) s += C[cj + r];
         B[i * m + j] = s / kk;
       }
     }
@@ -191,9 +205,9 @@ export function predictBlocksWithSystem(
     }
     solveLowerBlock(L, n, B, m);
     for (let j = 0; j < m; j++) {
-      let q = 0;
-      for (let i = 0; i < n; i++) q += B[i * m + j] * B[i * m + j];
-      let variance = cbb - q;
+      let ss = 0;
+      for (let i = 0; i < n; i++) ss += B[i * m + j] * B[i * m + j];
+      let variance = cbb - ss;
       if (p > 0) {
         for (let a = 0; a < p; a++) {
           let s = xbar[j * p + a];
@@ -247,6 +261,11 @@ export interface BlockSurfaceOptions {
   /** Rows [start, end); default all. */
   rows?: [number, number];
   precision?: 'float32' | 'float64';
+  /**
+   * Covariate trend only: the encoded covariates at the k×k discretisation points of every grid cell
+   * (nx·ny cells row-major from the top, each k² rows in the order of `blockOffsets`, × q columns).
+   */
+  covariates?: Float64Array;
 }
 
 function rangeOf(a: SurfaceArray): ValueRange {
@@ -275,7 +294,14 @@ export function computeBlockSurfaceWith(
   const { nx } = grid;
   const centres = cellCentres(grid, r0, r1);
   const shape: BlockShape = { width: grid.cell, height: grid.cell, points: options.points ?? DEFAULT_BLOCK_POINTS };
-  const p = predictor.predict(centres.x, centres.y, shape, { threshold: options.threshold, onProgress });
+  let covariates: Float64Array | undefined;
+  if (options.covariates) {
+    // The active cells' rows, in the order of the centres.
+    const per = options.covariates.length / (grid.nx * grid.ny);
+    covariates = new Float64Array(centres.index.length * per);
+    for (let c = 0; c < centres.index.length; c++) covariates.set(options.covariates.subarray(centres.index[c] * per, centres.index[c] * per + per), c * per);
+  }
+  const p = predictor.predict(centres.x, centres.y, shape, { threshold: options.threshold, onProgress, ...(covariates ? { covariates } : {}) });
   const size = (r1 - r0) * nx;
   const make = (): SurfaceArray => (options.precision === 'float64' ? new Float64Array(size) : new Float32Array(size)).fill(NaN);
   const mean = make();

@@ -31,6 +31,16 @@
  * realisation) up to `DENSE_LIMIT` samples; beyond it (or with `neighbors`), from the m nearest
  * samples of each node (m = 64 by default), with weights reused across realisations. Local
  * neighbourhoods are an approximation of the global posterior, as in local kriging.
+ * Covariates in the mean (kriging with external drift): K[r] is universal kriging with the covariate
+ * columns, the nodes' covariates given in `options.covariates`. We condition the zero-mean residual
+ * field on the samples under the universal-kriging mean rather than add residual realisations to the
+ * fitted GLS mean: the realisations then have exactly the kriged mean and the kriging variance,
+ * uncertainty of the coefficients included (a fixed GLS mean would leave that uncertainty out and
+ * make the spread too narrow away from the samples). With local neighbourhoods a covariate trend is
+ * estimated once from all samples for each residual vector (β̂_r = G⁻¹XᵀK⁻¹r, as local kriging uses
+ * the global GLS mean) and the rest kriged from the neighbours with a known zero mean: the
+ * realisations' mean is then the local kriging mean around the global GLS trend. Block support
+ * averages the nodes' trend rows, each with its own covariates (the rule of ./block-kriging.ts).
  * Units: metres; values in data units (realisations of the surface, not of new measurements).
  * Cost (dense): n³/3 + N·(n² + 30·M·log₂M / 2) + nodes·n·(cov + 2N) flops, M the torus size;
  * memory 8·N·cells bytes for the realisations (Float32 bands: 4·N·cells).
@@ -43,7 +53,7 @@ import { acrossAxis, alongAxis, anisotropyFrame, crossCovarianceMatrix, effectiv
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from '../linalg/linalg.ts';
 import { buildKrigingSystem, type KrigingSystem } from '../prediction/kriging.ts';
 import { MAX_LOCAL_NEIGHBORS } from '../prediction/local-kriging.ts';
-import { designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
+import { checkCovariateRows, covariateColumnCount, designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from '../shared/random.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
@@ -95,6 +105,13 @@ export interface ConditionalSimulationOptions {
   keepRealisations?: boolean;
   /** Passed to the circulant embedding (size cap, accepted truncation). */
   embedding?: EmbeddingOptions;
+  /**
+   * Covariate trend only: the encoded covariates at every lattice node of every grid cell (nx·ny
+   * cells row-major from the top, each k² nodes row by row from the north-west — the order of
+   * ./block-kriging.ts `blockOffsets` — × q columns; k = 1 for point support: one row per cell).
+   * Required when the model's trend has covariates; masked cells' rows are never read.
+   */
+  covariates?: Float64Array;
   onProgress?: (done: number, total: number) => void;
   isCancelled?: () => boolean;
 }
@@ -152,16 +169,18 @@ function mixSeed(seed: number, stream: number, index: number): number {
  * factorised system: C(a, b) − k_aᵀK⁻¹k_b + (x_a − Wᵀ·L⁻¹k_a)ᵀ G⁻¹ (x_b − Wᵀ·L⁻¹k_b)
  * (Rasmussen & Williams 2006 §2.7, from memory). Used to check simulations.
  */
-export function posteriorCovariance(sys: KrigingSystem, ax: number, ay: number, bx: number, by: number): number {
+export function posteriorCovariance(
+  sys: KrigingSystem, ax: number, ay: number, bx: number, by: number, covariatesA?: ArrayLike<number>, covariatesB?: ArrayLike<number>,
+): number {
   const { n, p, model, frame, u, v, W, Lg } = sys;
   const L = sys.factor.L;
-  const centred: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
-  const one = (x: number, y: number): { w: Float64Array; t: Float64Array } => {
+  const centred: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
+  const one = (x: number, y: number, c?: ArrayLike<number>): { w: Float64Array; t: Float64Array } => {
     const tu = x - frame.cx, tv = y - frame.cy;
     const w = crossCovarianceMatrix(model, [tu], [tv], u, v);
     solveLowerInPlace(L, n, w);
     const x0 = new Float64Array(p);
-    designRow(model.trend, tu, tv, centred, x0);
+    designRow(model.trend, tu, tv, centred, x0, 0, c);
     const t = new Float64Array(p);
     for (let a = 0; a < p; a++) {
       let s = x0[a];
@@ -171,8 +190,8 @@ export function posteriorCovariance(sys: KrigingSystem, ax: number, ay: number, 
     solveLowerInPlace(Lg, p, t);
     return { w, t };
   };
-  const A = one(ax, ay);
-  const B = one(bx, by);
+  const A = one(ax, ay, covariatesA);
+  const B = one(bx, by, covariatesB);
   let c = surfaceCovariance(model, effectiveDistance(ax - bx, ay - by, model.anisotropy));
   for (let i = 0; i < n; i++) c -= A.w[i] * B.w[i];
   for (let a = 0; a < p; a++) c += A.t[a] * B.t[a];
@@ -183,56 +202,84 @@ export function posteriorCovariance(sys: KrigingSystem, ax: number, ay: number, 
 interface ResidualKriger {
   /**
    * Prepares B residual vectors r (n × B row-major). Afterwards `apply` adds K[r_b](node) for
-   * nodes (working-CRS x, y) into out (nodes × B row-major).
+   * nodes (working-CRS x, y; a covariate trend also reads the nodes' encoded covariates, nodes × q)
+   * into out (nodes × B row-major).
    */
   prepare(r: Float64Array, B: number): void;
-  apply(tx: Float64Array, ty: Float64Array, out: Float64Array): void;
+  apply(tx: Float64Array, ty: Float64Array, out: Float64Array, covariates?: Float64Array): void;
+}
+
+/**
+ * GLS trend coefficients of B residual vectors (alpha: n × B row-major, the known mean already taken
+ * off) through the factorised system: β̂ = G⁻¹WᵀL⁻¹r (p × B row-major). With `subtract`, alpha
+ * becomes r − Xβ̂ in place.
+ */
+function glsCoefficients(sys: KrigingSystem, alpha: Float64Array, B: number, subtract: boolean): Float64Array {
+  const { n, p, X, W, Lg } = sys;
+  const beta = new Float64Array(p * B);
+  if (p === 0) return beta;
+  const y = Float64Array.from(alpha);
+  solveLowerBlock(sys.factor.L, n, y, B);
+  const t = new Float64Array(p);
+  for (let b = 0; b < B; b++) {
+    for (let a = 0; a < p; a++) {
+      let s = 0;
+      for (let i = 0; i < n; i++) s += W[i * p + a] * y[i * B + b];
+      t[a] = s;
+    }
+    solveLowerInPlace(Lg, p, t);
+    solveUpperTransposeInPlace(Lg, p, t);
+    for (let a = 0; a < p; a++) beta[a * B + b] = t[a];
+  }
+  if (subtract) {
+    for (let i = 0; i < n; i++) {
+      for (let b = 0; b < B; b++) {
+        let s = 0;
+        for (let a = 0; a < p; a++) s += X[i * p + a] * beta[a * B + b];
+        alpha[i * B + b] -= s;
+      }
+    }
+  }
+  return beta;
+}
+
+/** out[node, b] += x(node)ᵀβ̂_b for nodes given in centred coordinates (tu, tv). */
+function addTrend(sys: KrigingSystem, tu: Float64Array, tv: Float64Array, beta: Float64Array, B: number, out: Float64Array, covariates?: Float64Array): void {
+  const { p, model, frame } = sys;
+  if (p === 0) return;
+  const centred: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
+  const q = covariateColumnCount(model.trend);
+  const row = new Float64Array(p);
+  for (let j = 0; j < tu.length; j++) {
+    designRow(model.trend, tu[j], tv[j], centred, row, 0, covariates, j * q);
+    for (let b = 0; b < B; b++) {
+      let s = 0;
+      for (let a = 0; a < p; a++) s += row[a] * beta[a * B + b];
+      out[j * B + b] += s;
+    }
+  }
 }
 
 function denseKriger(sys: KrigingSystem): ResidualKriger {
-  const { n, p, model, frame, u, v, X, W, Lg, m0 } = sys;
+  const { n, model, frame, u, v, m0 } = sys;
   const L = sys.factor.L;
   let alpha = new Float64Array(0);
   let alphaT = new Float64Array(0);
-  let beta = new Float64Array(0);
+  let beta: Float64Array = new Float64Array(0);
   let B = 0;
-  const centred: CoordinateFrame = { cx: 0, cy: 0, scale: frame.scale };
   return {
     prepare(r: Float64Array, count: number): void {
       B = count;
       alpha = Float64Array.from(r);
       for (let k = 0; k < alpha.length; k++) alpha[k] -= m0;
-      beta = new Float64Array(p * B);
-      if (p > 0) {
-        // β̂ = G⁻¹ Wᵀ L⁻¹ r for every column.
-        const y = Float64Array.from(alpha);
-        solveLowerBlock(L, n, y, B);
-        const t = new Float64Array(p);
-        for (let b = 0; b < B; b++) {
-          for (let a = 0; a < p; a++) {
-            let s = 0;
-            for (let i = 0; i < n; i++) s += W[i * p + a] * y[i * B + b];
-            t[a] = s;
-          }
-          solveLowerInPlace(Lg, p, t);
-          solveUpperTransposeInPlace(Lg, p, t);
-          for (let a = 0; a < p; a++) beta[a * B + b] = t[a];
-        }
-        for (let i = 0; i < n; i++) {
-          for (let b = 0; b < B; b++) {
-            let s = 0;
-            for (let a = 0; a < p; a++) s += X[i * p + a] * beta[a * B + b];
-            alpha[i * B + b] -= s;
-          }
-        }
-      }
+      beta = glsCoefficients(sys, alpha, B, true);
       solveLowerBlock(L, n, alpha, B);
       solveUpperTransposeMultiple(L, n, alpha, B);
       // Transposed (B × n) so each node's sum over samples is a contiguous dot product.
       alphaT = new Float64Array(B * n);
       for (let i = 0; i < n; i++) for (let b = 0; b < B; b++) alphaT[b * n + i] = alpha[i * B + b];
     },
-    apply(tx: Float64Array, ty: Float64Array, out: Float64Array): void {
+    apply(tx: Float64Array, ty: Float64Array, out: Float64Array, covariates?: Float64Array): void {
       const m = tx.length;
       const tu = new Float64Array(m);
       const tv = new Float64Array(m);
@@ -241,16 +288,8 @@ function denseKriger(sys: KrigingSystem): ResidualKriger {
         tv[q] = ty[q] - frame.cy;
       }
       const C = crossCovarianceMatrix(model, tu, tv, u, v); // m × n
-      const row = new Float64Array(Math.max(1, p));
-      for (let q = 0; q < m; q++) {
-        const o = q * B;
-        if (p > 0) designRow(model.trend, tu[q], tv[q], centred, row);
-        for (let b = 0; b < B; b++) {
-          let s = m0;
-          for (let a = 0; a < p; a++) s += row[a] * beta[a * B + b];
-          out[o + b] += s;
-        }
-      }
+      if (m0 !== 0) for (let k = 0; k < m * B; k++) out[k] += m0;
+      addTrend(sys, tu, tv, beta, B, out, covariates);
       // out[q, b] += Σᵢ C[q, i]·α[i, b]: dot products over contiguous rows, two nodes × two realisations at a time.
       let q = 0;
       for (; q + 1 < m; q += 2) {
@@ -414,6 +453,31 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
   };
 }
 
+/**
+ * Local kriging of residuals around the global GLS trend (covariate trends): β̂_r from all samples
+ * through the dense system, then the neighbours krige r − Xβ̂_r with a known zero mean.
+ */
+function globalTrendLocalKriger(sys: KrigingSystem, samples: Samples, model: CovarianceModel, neighbors: number, warnings: Warning[]): ResidualKriger {
+  const local = localKriger(samples, { ...model, trend: { known: 0 }, transform: 'none' }, neighbors, warnings);
+  const { frame } = sys;
+  let beta: Float64Array = new Float64Array(0);
+  let B = 0;
+  return {
+    prepare(r: Float64Array, count: number): void {
+      B = count;
+      const alpha = Float64Array.from(r);
+      beta = glsCoefficients(sys, alpha, B, true);
+      local.prepare(alpha, B);
+    },
+    apply(tx: Float64Array, ty: Float64Array, out: Float64Array, covariates?: Float64Array): void {
+      const tu = Float64Array.from(tx, (x) => x - frame.cx);
+      const tv = Float64Array.from(ty, (y) => y - frame.cy);
+      addTrend(sys, tu, tv, beta, B, out, covariates);
+      local.apply(tx, ty, out);
+    },
+  };
+}
+
 /** Union–find over sample indices. */
 function groups(n: number, near: (i: number, j: number) => boolean, candidates: (i: number) => number[]): number[][] {
   const parent = Int32Array.from({ length: n }, (_, i) => i);
@@ -507,9 +571,10 @@ export function simulateConditional(
   const sys = buildKrigingSystem(samples, model);
   warnings.push(...sys.warnings);
   const z = sys.z;
-  const kriger = useLocal
-    ? localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbors, warnings)
-    : denseKriger(sys);
+  const q = covariateColumnCount(model.trend);
+  const kriger = !useLocal ? denseKriger(sys)
+    : q > 0 ? globalTrendLocalKriger(sys, { x: samples.x, y: samples.y, value: z }, model, neighbors, warnings)
+      : localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbors, warnings);
   const c0 = surfaceVariance(model);
   const nugget = nuggetOf(model);
   const an = model.anisotropy;
@@ -670,6 +735,14 @@ export function simulateConditional(
   const averageFirst = !log && k > 1;
   const perCell = averageFirst ? 1 : kk;
   const nodesOut = nActive * perCell;
+  // The covariates of every kriged node (active cells, k² nodes each), × q.
+  let nodeCovariates: Float64Array | undefined;
+  if (q > 0) {
+    checkCovariateRows(model.trend, cellsTotal * kk, options.covariates?.length === cellsTotal * kk * q ? options.covariates : undefined, 'lattice node');
+    nodeCovariates = new Float64Array(nActive * kk * q);
+    const c = options.covariates as Float64Array;
+    for (let a = 0; a < nActive; a++) nodeCovariates.set(c.subarray(active[a] * kk * q, (active[a] + 1) * kk * q), a * kk * q);
+  }
   const batch = Math.max(2, Math.min(N, Math.floor(BATCH_BYTES / (8 * Math.max(1, nodesOut)))));
 
   const realisations: Float32Array[] | undefined = options.keepRealisations === false ? undefined : [];
@@ -763,10 +836,10 @@ export function simulateConditional(
           py[q * kk + s] = outY[q0 + q] + blockShape.dy[s];
         }
         const Ysub = new Float64Array(m * kk * B);
-        kriger.apply(px, py, Ysub);
+        kriger.apply(px, py, Ysub, nodeCovariates?.subarray(q0 * kk * q, (q0 + m) * kk * q));
         for (let q = 0; q < m; q++) for (let s = 0; s < kk; s++) for (let b = 0; b < B; b++) Y[q * B + b] += Ysub[(q * kk + s) * B + b] / kk;
       } else {
-        kriger.apply(outX.subarray(q0, q0 + m), outY.subarray(q0, q0 + m), Y);
+        kriger.apply(outX.subarray(q0, q0 + m), outY.subarray(q0, q0 + m), Y, nodeCovariates?.subarray(q0 * q, (q0 + m) * q));
       }
       for (let q = 0; q < m; q++) for (let b = 0; b < B; b++) G[(q0 + q) * B + b] += Y[q * B + b];
       // A batch may hold every realisation: report the share of its kriging done (whole realisations).

@@ -610,9 +610,11 @@ export class Session {
       try {
         const { gridCovariates } = await import('../../io/covariate-raster.ts');
         const plain = $state.snapshot(model) as CovarianceModel;
-        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.covariateRasters, intake.report.crs.work);
+        // Block support reads the covariates at each cell's block points (averaged into its trend row).
+        const block = model.transform !== 'log' && this.support === 'block';
+        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.covariateRasters, intake.report.crs.work, block ? { nodes: this.blockPoints } : {});
         grid = g.grid;
-        covariates = g.covariates;
+        covariates = block ? g.nodeCovariates : g.covariates;
         this.covariateWarnings = g.warnings;
         samples = this.samplesFor(model);
       } catch (e) {

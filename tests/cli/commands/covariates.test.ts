@@ -8,6 +8,10 @@ import { parseModel, type CovariateTrend } from '../../../src/core/covariance/mo
 import { covariateColumns } from '../../../src/io/sample-columns.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { workspace } from '../run-cli.ts';
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { bandsGeoTiff } from '../../../src/io/geotiff.ts';
+import { readCovariateRaster, sampleRaster } from '../../../src/io/covariate-raster.ts';
 
 const ws = workspace();
 afterAll(() => ws.remove());
@@ -108,9 +112,11 @@ describe('fit, predict and cv with covariates', () => {
     const c = await ws.run('cv', '--samples', swapped, '--crs', 'EPSG:32633', '--value', 'value', '--model', 'model-d.json');
     expect(c.code).toBe(2);
     expect(c.stderr).toMatch(/line 2, column "d".*"clay".*expected a number/);
-    const s = await ws.run('suggest', ...COMMON, '--model', 'model-d.json', '--count', '2', '--out', 's.csv');
-    expect(s.code).toBe(2);
-    expect(s.stderr).toContain('covariates (d)');
+    for (const command of ['suggest', 'simulate']) {
+      const s = await ws.run(command, ...COMMON, '--model', 'model-d.json', '--count', '2', '--out', command === 'suggest' ? 's.csv' : 's.tif');
+      expect(s.code, command).toBe(2);
+      expect(s.stderr, command).toContain('covariates d; expected --covariate-raster NAME=FILE.tif');
+    }
   });
 
   it('fit --covariates names a missing sample column and refuses a known mean (exit 2)', async () => {
@@ -121,4 +127,72 @@ describe('fit, predict and cv with covariates', () => {
     expect(b.code).toBe(2);
     expect(b.stderr).toContain('--covariates');
   });
+});
+
+describe('suggest, simulate and block support with covariates', () => {
+  // A raster of the covariate d (distance to the invented point (500100, 5400090)) on a 5 m lattice
+  // over the samples, in the samples' CRS.
+  const lattice = { x0: 499980, y0: 5400220, cell: 5, nx: 60, ny: 56 };
+  const d = new Float32Array(lattice.nx * lattice.ny);
+  for (let j = 0; j < lattice.ny; j++) for (let i = 0; i < lattice.nx; i++) {
+    d[j * lattice.nx + i] = Math.hypot(lattice.x0 + (i + 0.5) * 5 - 500100, lattice.y0 - (j + 0.5) * 5 - 5400090);
+  }
+  const RASTER = 'd.tif';
+  writeFileSync(join(ws.dir, RASTER), bandsGeoTiff({ grid: lattice, bands: [d], names: ['d'], workCrs: 'EPSG:32633', title: 'd' }).bytes);
+  const WITH_RASTER = ['--model', 'model-dr.json', '--covariate-raster', `d=${RASTER}`];
+
+  it('suggest with a covariate model picks cells of the raster lattice; the sites\' mean and sd are kriging with the raster\'s value there', async () => {
+    const f = await ws.run('fit', ...COMMON, '--family', 'exponential', '--covariates', 'd', '--out', 'model-dr.json');
+    expect(f.code, f.stderr).toBe(0);
+    const r = await ws.run('suggest', ...COMMON, ...WITH_RASTER, '--count', '3', '--out', 'sites.csv');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    expect(summary.cell_m).toBe(5);
+    expect(summary.suggestions).toHaveLength(3);
+    const raster = await readCovariateRaster(new Uint8Array(readFileSync(join(ws.dir, RASTER))), 'd', 'd.tif');
+    const intake = readSamples(CSV, { fileName: 'soil.csv', crs: 'EPSG:32633', value: 'value' });
+    const model = parseModel(JSON.parse(ws.read('model-dr.json')));
+    const trend = model.trend as CovariateTrend;
+    const { columns, source } = covariateColumns(intake, trend);
+    const samples = { ...intake.samples, covariates: encodeCovariates(trend, columns, intake.samples.value.length, source) };
+    for (const s of summary.suggestions) {
+      // A cell centre of the raster's lattice.
+      expect(Math.abs((s.x - lattice.x0) / 5 - 0.5 - Math.round((s.x - lattice.x0) / 5 - 0.5))).toBeLessThan(1e-6);
+      const at = sampleRaster(raster, [s.x], [s.y], 'EPSG:32633', 'bilinear');
+      const p = createPredictor(samples, model).predict([s.x], [s.y], { covariates: at });
+      expectClose(s.mean, p.mean[0], { rel: 1e-9 }, 'mean');
+      expectClose(s.sd, p.sd[0], { rel: 1e-9 }, 'sd');
+    }
+  }, 60000);
+
+  it('simulate with a covariate model draws on the raster\'s lattice, the same bands over two threads as over one', async () => {
+    const one = await ws.run('simulate', ...COMMON, ...WITH_RASTER, '--count', '4', '--seed', '3', '--workers', '1', '--out', 'one.tif');
+    expect(one.code, one.stderr).toBe(0);
+    const two = await ws.run('simulate', ...COMMON, ...WITH_RASTER, '--count', '4', '--seed', '3', '--workers', '2', '--out', 'two.tif');
+    expect(two.code, two.stderr).toBe(0);
+    const summary = JSON.parse(two.stdout);
+    expect(summary.grid).toMatchObject({ x0: lattice.x0, y0: lattice.y0, cell: 5, nx: 60, ny: 56 });
+    const a = readFileSync(join(ws.dir, 'one.tif'));
+    const b = readFileSync(join(ws.dir, 'two.tif'));
+    expect(Buffer.compare(a, b)).toBe(0);
+  }, 120000);
+
+  it('grid with block support and realisations honours a covariate model', async () => {
+    const block = await ws.run('grid', ...COMMON, ...WITH_RASTER, '--cell', '20', '--support', 'block', '--out', 'block.csv', '--workers', '1');
+    expect(block.code, block.stderr).toBe(0);
+    const b = JSON.parse(block.stdout);
+    expect(b.method).toBe('block kriging');
+    expect(Number.isFinite(b.range.mean.min) && Number.isFinite(b.range.mean.max)).toBe(true);
+    const point = await ws.run('grid', ...COMMON, ...WITH_RASTER, '--cell', '20', '--out', 'point.csv', '--workers', '1');
+    expect(point.code, point.stderr).toBe(0);
+    // Block averages are smoother than point values: a narrower sd range, the same grid.
+    const p = JSON.parse(point.stdout);
+    expect(b.grid).toEqual(p.grid);
+    expect(b.range.sd.max).toBeLessThan(p.range.sd.max);
+    const sim = await ws.run('grid', ...COMMON, ...WITH_RASTER, '--cell', '20', '--realizations', '8', '--threshold', '25', '--out', 'sim.tif', '--workers', '1');
+    expect(sim.code, sim.stderr).toBe(0);
+    const summary = JSON.parse(sim.stdout);
+    expect(summary.realizations).toBe(8);
+    expect(summary.areaAbove.unit).toBe('m²');
+  }, 120000);
 });

@@ -3,13 +3,15 @@ import fc from 'fast-check';
 import { suggestSites, defaultCell, niceCell, type DesignOptions } from '../../../src/core/design/design.ts';
 import { createPredictor } from '../../../src/core/prediction/kriging.ts';
 import { makeSamples, type Samples } from '../../../src/core/shared/samples.ts';
-import { cellCentres, gridForPolygons, type Polygon } from '../../../src/core/geometry/grid.ts';
+import { cellCentres, gridForPolygons, gridFromExtent, type Polygon } from '../../../src/core/geometry/grid.ts';
 import { pointInPolygons } from '../../../src/core/geometry/polygon.ts';
 import { expectedMisclassification } from '../../../src/core/design/design-misclassification.ts';
 import { coverageObjective } from '../../../src/core/design/design-coverage.ts';
 import { createRandom } from '../../../src/core/shared/random.ts';
 import { normalCdf } from '../../../src/core/shared/normal.ts';
-import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import type { CovarianceModel, CovariateTrend } from '../../../src/core/covariance/model.ts';
+import { buildKrigingSystem } from '../../../src/core/prediction/kriging.ts';
+import { posteriorCovariance } from '../../../src/core/simulation/conditional-simulation.ts';
 import { CAUTION } from '../../../src/core/shared/caution.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 
@@ -278,5 +280,63 @@ describe('niceCell / defaultCell', () => {
   it('defaultCell gives about 10,000 cells: 1 km² → 10 m', () => {
     expect(defaultCell(1e6)).toBe(10);
     expect(defaultCell(4e4)).toBe(2);
+  });
+});
+
+describe('suggestSites with covariates in the mean', () => {
+  // Invented covariates as functions of position: √(distance to an old building at (30, 70)) and a
+  // two-level zone (x < 50 m is the reference level). Encoded: [√d, zone=b].
+  const covariatesAt = (x: number, y: number): number[] => [Math.sqrt(Math.hypot(x - 30, y - 70)), x < 50 ? 0 : 1];
+  const trend: CovariateTrend = { covariates: ['sqrt_dist', 'zone'], levels: { zone: ['a', 'b'] } };
+  const model: CovarianceModel = {
+    structures: [{ type: 'nugget', sill: 0.1 }, { type: 'exponential', sill: 1, scale: 40 }], trend, transform: 'none',
+  };
+  const base = fieldSamples(12, 21);
+  const samples: Samples = { ...base, covariates: Float64Array.from(Array.from(base.x, (x, i) => covariatesAt(x, base.y[i])).flat()) };
+  const grid = gridFromExtent(0, 0, 100, 80, 10);
+  const centres = cellCentres(grid);
+  const covariates = Float64Array.from(Array.from(centres.x, (x, i) => covariatesAt(x, centres.y[i])).flat());
+
+  it('suggestSites picks the cell that most reduces the average universal-kriging variance with covariates (brute force over the posterior covariance)', () => {
+    // Source: the posterior covariance written apart from the design's features
+    // (conditional-simulation.ts posteriorCovariance, with each point's covariates); benefit
+    // (1/m)·Σ_e k(e, c)²/(k(c, c) + τ²) over every cell, and the kriging mean and sd at the pick.
+    const result = suggestSites(samples, model, { count: 1, mode: 'variance', grid, covariates });
+    const sys = buildKrigingSystem(samples, model);
+    const m = centres.x.length;
+    const cov = (i: number) => covariates.subarray(2 * i, 2 * i + 2);
+    const k = (a: number, b: number) => posteriorCovariance(sys, centres.x[a], centres.y[a], centres.x[b], centres.y[b], cov(a), cov(b));
+    let best = -1, bestBenefit = -Infinity, sdSum = 0;
+    for (let c = 0; c < m; c++) {
+      let s = 0;
+      for (let e = 0; e < m; e++) s += k(e, c) ** 2;
+      const benefit = s / (k(c, c) + 0.1) / m;
+      if (benefit > bestBenefit) { bestBenefit = benefit; best = c; }
+      sdSum += Math.sqrt(k(c, c));
+    }
+    const site = result.suggestions[0];
+    expect([site.x, site.y]).toEqual([centres.x[best], centres.y[best]]);
+    expectClose(site.benefit, bestBenefit, { rel: 1e-9 }, 'benefit');
+    expectClose(result.averageSdBefore!, sdSum / m, { rel: 1e-9 }, 'average sd');
+    const p = createPredictor(samples, model).predict([site.x], [site.y], { covariates: cov(best) });
+    expectClose(site.mean!, p.mean[0], { rel: 1e-12 }, 'mean');
+    expectClose(site.sd!, p.sd[0], { rel: 1e-12 }, 'sd');
+    // Without the covariate columns the posterior is another one: the check can tell them apart.
+    const plain = suggestSites(makeSamples(base.x, base.y, base.value), { ...model, trend: 'constant' }, { count: 1, mode: 'variance', grid });
+    expect(Math.abs(plain.averageSdBefore! - result.averageSdBefore!)).toBeGreaterThan(1e-3);
+  });
+
+  it('suggestSites with given candidates uses their own covariates; a covariate model without them is refused', () => {
+    const cx = [15, 55, 85], cy = [25, 45, 65];
+    const own = Float64Array.from(cx.flatMap((x, i) => covariatesAt(x, cy[i])));
+    const result = suggestSites(samples, model, { count: 2, mode: 'variance', grid, covariates, candidates: { x: cx, y: cy, covariates: own } });
+    for (const s of result.suggestions) {
+      const i = cx.indexOf(s.x);
+      const p = createPredictor(samples, model).predict([s.x], [s.y], { covariates: own.subarray(2 * i, 2 * i + 2) });
+      expectClose(s.mean!, p.mean[0], { rel: 1e-12 }, 'mean');
+    }
+    expect(() => suggestSites(samples, model, { count: 1 })).toThrow(/covariates of its cells/);
+    expect(() => suggestSites(samples, model, { count: 1, grid })).toThrow(/covariate values/);
+    expect(() => suggestSites(samples, model, { count: 1, grid, covariates, candidates: { x: cx, y: cy } })).toThrow(/covariate values/);
   });
 });

@@ -5,7 +5,8 @@ import {
 import { buildKrigingSystem, createPredictor } from '../../../src/core/prediction/kriging.ts';
 import { erf, exceedanceProbability } from '../../../src/core/shared/normal.ts';
 import { gridFromExtent } from '../../../src/core/geometry/grid.ts';
-import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import { parseModel, type CovarianceModel, type CovariateTrend } from '../../../src/core/covariance/model.ts';
+import { encodeCovariates, resolveCovariateTrend, type CovariateColumn } from '../../../src/core/covariance/covariates.ts';
 import { makeSamples, type Samples } from '../../../src/core/shared/samples.ts';
 import { createRandom } from '../../../src/core/shared/random.ts';
 import { GapwiseError } from '../../../src/core/shared/errors.ts';
@@ -155,5 +156,61 @@ describe('computeBlockSurface', () => {
     expectClose(s.sd[1], one.sd[0], { rel: 1e-14 });
     expectClose(s.pExceed![1], exceedanceProbability(one.mean[0], one.sd[0], 5), { rel: 1e-14 });
     expect(s.support).toBe('block');
+  });
+});
+
+// Outside reference: numpy linalg.solve of the bordered block-kriging system with covariate columns
+// averaged over the block's discretisation points (tests/reference/make_block_covariates.py).
+interface BlockCovariateCase {
+  name: string;
+  model: CovarianceModel;
+  width: number;
+  height: number;
+  points: number;
+  blockPoints: Array<{ x: number[]; y: number[]; sqrt_dist: number[]; soil: string[] }>;
+  expected: { mean: number[]; sd: number[]; blockVariance: number; pointAverageMean: number[] };
+}
+const covariateFixture = loadFixture<BlockCovariateCase>('block_covariates.json');
+
+function textColumn(values: string[], levels?: string[]): CovariateColumn {
+  const seen: string[] = levels ? [...levels] : [];
+  const codes = Uint32Array.from(values, (v) => {
+    if (!seen.includes(v)) seen.push(v);
+    return seen.indexOf(v);
+  });
+  return { kind: 'text', codes, levels: seen };
+}
+
+describe('predictBlocksWithSystem with covariates', () => {
+  const S = covariateFixture.samples as { x: number[]; y: number[]; value: number[]; sqrt_dist: number[]; soil: string[] };
+  const B = covariateFixture.blocks as { x: number[]; y: number[] };
+  for (const c of covariateFixture.cases) {
+    it(`predictBlocksWithSystem averages the covariate columns over the block as numpy does: ${c.name}`, () => {
+      const columns = { sqrt_dist: { kind: 'numeric' as const, values: Float64Array.from(S.sqrt_dist) }, soil: textColumn(S.soil) };
+      const trend = resolveCovariateTrend(c.model.trend as CovariateTrend, columns);
+      const model = parseModel({ ...c.model, trend });
+      const samples: Samples = { ...makeSamples(S.x, S.y, S.value), covariates: encodeCovariates(trend, columns, S.x.length) };
+      const sys = buildKrigingSystem(samples, model);
+      const pts = c.blockPoints;
+      const covariates = encodeCovariates(trend, {
+        sqrt_dist: { kind: 'numeric', values: Float64Array.from(pts.flatMap((p) => p.sqrt_dist)) },
+        soil: textColumn(pts.flatMap((p) => p.soil), trend.levels?.soil),
+      }, pts.length * c.points * c.points);
+      const got = predictBlocksWithSystem(sys, B.x, B.y, { width: c.width, height: c.height, points: c.points }, { covariates });
+      expectClose(got.blockVariance, c.expected.blockVariance, covariateFixture.tolerance, 'blockVariance');
+      expectClose(got.mean, c.expected.mean, covariateFixture.tolerance, 'mean');
+      expectClose(got.sd, c.expected.sd, covariateFixture.tolerance, 'sd');
+      // The block mean is the average of the point means, each point with its own covariates (numpy).
+      expectClose(got.mean, c.expected.pointAverageMean, covariateFixture.tolerance, 'point average');
+    });
+  }
+
+  it('predictBlocksWithSystem refuses a covariate model without covariates at the block points', () => {
+    const S2 = covariateFixture.samples as { x: number[]; y: number[]; value: number[]; sqrt_dist: number[] };
+    const model = parseModel({ ...covariateFixture.cases[0].model });
+    const samples: Samples = { ...makeSamples(S2.x, S2.y, S2.value), covariates: Float64Array.from(S2.sqrt_dist) };
+    const sys = buildKrigingSystem(samples, model);
+    expect(() => predictBlocksWithSystem(sys, [10], [10], { width: 5, points: 2 })).toThrow(/covariate values/);
+    expect(() => predictBlocksWithSystem(sys, [10], [10], { width: 5, points: 2 }, { covariates: [1, 2, 3] })).toThrow(/Expected 4 covariate values/);
   });
 });

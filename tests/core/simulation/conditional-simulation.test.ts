@@ -2,10 +2,11 @@ import { describe, expect, it } from 'vitest';
 import { mergeSimulationParts, posteriorCovariance, simulateConditional, simulationPart } from '../../../src/core/simulation/conditional-simulation.ts';
 import { buildKrigingSystem, createPredictor } from '../../../src/core/prediction/kriging.ts';
 import { createBlockPredictor } from '../../../src/core/prediction/block-kriging.ts';
+import { createLocalPredictor } from '../../../src/core/prediction/local-kriging.ts';
 import { computeSurface } from '../../../src/core/prediction/surface.ts';
 import { cellCentres, type Grid } from '../../../src/core/geometry/grid.ts';
 import { makeSamples, type Samples } from '../../../src/core/shared/samples.ts';
-import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
+import type { CovarianceModel, CovariateTrend } from '../../../src/core/covariance/model.ts';
 import { GapwiseError } from '../../../src/core/shared/errors.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 
@@ -219,5 +220,84 @@ describe('simulationPart', () => {
       }
       expect(at).toBe(7 + count);
     }
+  });
+});
+
+describe('simulateConditional with covariates in the mean', () => {
+  // Invented covariates as functions of position: √(distance to an old building at (20, −30)) and a
+  // two-level zone (x < 40 m is the reference level). Encoded: [√d, zone=b].
+  const covariatesAt = (x: number, y: number): [number, number] => [Math.sqrt(Math.hypot(x - 20, y + 30)), x < 40 ? 0 : 1];
+  const trend: CovariateTrend = { covariates: ['sqrt_dist', 'zone'], levels: { zone: ['a', 'b'] } };
+  const model: CovarianceModel = { ...matern, trend };
+  const withCovariates = (s: Samples): Samples => ({ ...s, covariates: Float64Array.from(Array.from(s.x, (x, i) => covariatesAt(x, s.y[i])).flat()) });
+  const samples = withCovariates(makeSamples(
+    [13, 47, 71, 22, 60, 35, 96, 8, 55, 77], [-12, -25, -66, -70, -44, -50, -30, -40, -8, -12],
+    [2.1, 3.6, 4.4, 3.2, 4.9, 2.8, 5.0, 2.0, 3.9, 4.1]));
+  /** Covariates at every lattice node of every cell: k × k nodes per cell, row by row from the north-west. */
+  const nodeCovariates = (g: Grid, k: number): Float64Array => {
+    const out: number[] = [];
+    for (let j = 0; j < g.ny; j++) for (let i = 0; i < g.nx; i++) for (let b = 0; b < k; b++) for (let a = 0; a < k; a++) {
+      out.push(...covariatesAt(g.x0 + (i + (a + 0.5) / k) * g.cell, g.y0 - (j + (b + 0.5) / k) * g.cell));
+    }
+    return Float64Array.from(out);
+  };
+
+  it('simulateConditional: the mean and variance of 3,000 realisations are the universal-kriging mean and variance with covariates (4 standard errors)', () => {
+    // Source: kriging with covariates (kriging.ts, checked against numpy in make_covariates.py);
+    // Monte Carlo standard errors sd/√N for means and sd²√(2/N) for variances (Gaussian).
+    const N = 3000;
+    const sim = simulateConditional(samples, model, grid, { count: N, seed: 5, covariates: nodeCovariates(grid, 1) });
+    const c = cellCentres(grid);
+    const p = createPredictor(samples, model).predict(c.x, c.y, { covariates: nodeCovariates(grid, 1) });
+    for (let k = 0; k < 64; k++) {
+      expect(Math.abs(sim.mean[k] - p.mean[k]), `mean cell ${k}`).toBeLessThan(4 * p.sd[k] / Math.sqrt(N));
+      expect(Math.abs(sim.sd[k] ** 2 - p.sd[k] ** 2), `variance cell ${k}`).toBeLessThan(4 * p.sd[k] ** 2 * Math.sqrt(2 / N));
+    }
+    const sys = buildKrigingSystem(samples, model);
+    const cov = nodeCovariates(grid, 1);
+    for (const [a, b] of [[0, 1], [9, 27], [36, 63]]) {
+      const want = posteriorCovariance(sys, c.x[a], c.y[a], c.x[b], c.y[b], cov.subarray(2 * a, 2 * a + 2), cov.subarray(2 * b, 2 * b + 2));
+      const se = Math.sqrt((p.sd[a] ** 2 * p.sd[b] ** 2 + want * want) / N);
+      expect(Math.abs(empiricalCovariance(sim.realisations!, a, b) - want), `cov ${a},${b}`).toBeLessThan(4 * se);
+    }
+  });
+
+  it('simulateConditional with block support and covariates matches block kriging with covariates averaged over the block (4 standard errors)', () => {
+    // Source: block kriging with covariates (block-kriging.ts, checked against numpy in make_block_covariates.py).
+    const short: CovarianceModel = { ...model, structures: [{ type: 'nugget', sill: 0.05 }, { type: 'exponential', sill: 1, scale: 12 }] };
+    const N = 1500;
+    const cov = nodeCovariates(grid, 4);
+    const sim = simulateConditional(samples, short, grid, { count: N, seed: 9, support: 'block', blockPoints: 4, covariates: cov });
+    const c = cellCentres(grid);
+    const b = createBlockPredictor(samples, short).predict(c.x, c.y, { width: 10, points: 4 }, { covariates: cov });
+    for (let k = 0; k < 64; k += 2) {
+      expect(Math.abs(sim.mean[k] - b.mean[k]), `mean ${k}`).toBeLessThan(4 * b.sd[k] / Math.sqrt(N));
+      expect(Math.abs(sim.sd[k] ** 2 - b.sd[k] ** 2), `variance ${k}`).toBeLessThan(4 * b.sd[k] ** 2 * Math.sqrt(2 / N));
+    }
+  });
+
+  it('simulateConditional with local neighbourhoods and covariates: the realisations\' mean is the local kriging mean around the global GLS trend (4 standard errors)', () => {
+    // Source: createLocalPredictor (local-kriging.ts: the m nearest samples krige the residuals from
+    // the GLS trend of all samples); Monte Carlo standard error from the realisations' own sd.
+    const N = 3000;
+    const cov = nodeCovariates(grid, 1);
+    const sim = simulateConditional(samples, model, grid, { count: N, seed: 4, neighbors: 4, covariates: cov });
+    expect(sim.neighbors).toBe(4);
+    const c = cellCentres(grid);
+    const p = createLocalPredictor(samples, model, { neighbors: 4 }).predict(c.x, c.y, { covariates: cov });
+    const dense = createPredictor(samples, model).predict(c.x, c.y, { covariates: cov });
+    let apart = 0;
+    for (let k = 0; k < 64; k++) {
+      const tolerance = 4 * sim.sd[k] / Math.sqrt(N);
+      expect(Math.abs(sim.mean[k] - p.mean[k]), `mean cell ${k}`).toBeLessThan(tolerance);
+      apart = Math.max(apart, Math.abs(dense.mean[k] - p.mean[k]) / tolerance);
+    }
+    // The check can tell the local mean from the dense one: they differ beyond the tolerance somewhere.
+    expect(apart).toBeGreaterThan(1.5);
+  });
+
+  it('simulateConditional refuses a covariate model without the nodes\' covariates', () => {
+    expect(() => simulateConditional(samples, model, grid, { count: 2 })).toThrow(/covariate values/);
+    expect(() => simulateConditional(samples, model, grid, { count: 2, support: 'block', blockPoints: 2, covariates: nodeCovariates(grid, 1) })).toThrow(/covariate values/);
   });
 });
