@@ -5,6 +5,11 @@
 // bytes; the likelihood's value as the exact double).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createHash } from 'node:crypto';
+import { Worker } from 'node:worker_threads';
+import { startEngineThreads, threadTransport } from '../../src/cli/engine-threads.ts';
+import { EngineClient } from '../../src/worker/client.ts';
+import { EngineError } from '../../src/worker/protocol.ts';
+import { GapwiseError } from '../../src/core/errors.ts';
 import { computeSurfaceParallel, computeSurfaceSingle, type SurfaceJob } from '../../src/cli/parallel.ts';
 import { simulateParallel } from '../../src/cli/simulation-pool.ts';
 import { startVecchiaPool, type VecchiaPool } from '../../src/cli/vecchia-pool.ts';
@@ -112,4 +117,26 @@ describe('the engine runner over worker threads', () => {
       expect(Object.is(split.sigma2, PINNED.sigma2)).toBe(true);
     });
   });
+});
+
+describe('threadTransport', () => {
+  it('threadTransport reports a worker thread that exits unasked as the engine stopping, to whatever was waiting', async () => {
+    const client = new EngineClient(() => threadTransport(new Worker('process.exit(3)', { eval: true })));
+    const error = await client.request('ready', {}).catch((e: unknown) => e);
+    expect(error).toBeInstanceOf(EngineError);
+    expect((error as Error).message).toMatch(/exit code 3/);
+    await client.dispose();
+  });
+
+  it('startEngineThreads answers engine requests from the one worker entry and returns errors as data', async () => {
+    const pool = startEngineThreads(2);
+    try {
+      await expect(pool.request('ready', {})).resolves.toBe(true);
+      const bad = await pool.request('surfaceRows', { samples: samplesOf(20, 25, 600, 450), model: { ...model, structures: [] }, grid: maskedGrid(6, 5) }).catch((e: unknown) => e);
+      expect(bad).toBeInstanceOf(GapwiseError);
+      expect((bad as GapwiseError).code).toBe('bad-model');
+    } finally {
+      await pool.dispose();
+    }
+  }, 60_000);
 });
