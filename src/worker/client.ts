@@ -124,10 +124,7 @@ export class EngineClient {
    */
   dispose(): Promise<void> {
     this.disposed = true;
-    const all = [...this.pending.entries()];
-    for (const [id] of all) this.settle(id);
-    this.killWorker();
-    for (const [, p] of all) p.reject(cancelledError(p.request.type));
+    this.cancelAll();
     return Promise.all(this.stopping).then(() => undefined);
   }
 
