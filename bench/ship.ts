@@ -13,7 +13,7 @@ import { join, resolve } from 'node:path';
 import { Worker } from 'node:worker_threads';
 import type { Row } from './common.ts';
 import { precacheList } from '../pwa/build-service-worker.ts';
-import { startWorker } from '../src/cli/parallel.ts';
+import { startWorker } from '../src/cli/engine-threads.ts';
 
 const ROOT = resolve(fileURLToPath(new URL('.', import.meta.url)), '..');
 const DIST = join(ROOT, 'dist');
@@ -67,15 +67,19 @@ function helpFigures(runs: number): Row[] {
   return rows;
 }
 
+/** The engine's request that answers as soon as the worker runs (src/worker/protocol.ts). */
+const READY = { id: 1, type: 'ready', payload: {} };
+
 /**
- * Seconds from starting a worker thread until its first message ('ready'), wall and CPU (the whole
- * process's CPU time over that span: the main thread only waits, so it is the worker's start-up cost,
- * a fairer figure than wall time on a busy machine).
+ * Seconds from starting a worker thread until it answers a `ready` request posted at once, wall and
+ * CPU (the whole process's CPU time over that span: the main thread only waits, so it is the worker's
+ * start-up cost, a fairer figure than wall time on a busy machine).
  */
 async function workerStart(start: () => Worker): Promise<Start> {
   const c0 = process.cpuUsage();
   const t0 = performance.now();
   const w = start();
+  w.postMessage(READY);
   await new Promise<void>((res, rej) => {
     w.once('message', () => res());
     w.once('error', rej);
@@ -94,7 +98,7 @@ function compiledWorkerStarts(runs: number): { compiled: Start[]; empty: Start[]
   const script = `
     import { Worker } from 'node:worker_threads';
     const start = async (make) => {
-      const c0 = process.cpuUsage(); const t0 = performance.now(); const w = make();
+      const c0 = process.cpuUsage(); const t0 = performance.now(); const w = make(); w.postMessage(${JSON.stringify(READY)});
       await new Promise((res, rej) => { w.once('message', res); w.once('error', rej); });
       const wall = (performance.now() - t0) / 1000; const c = process.cpuUsage(c0); await w.terminate();
       return { wall, cpu: (c.user + c.system) / 1e6 };
@@ -102,7 +106,7 @@ function compiledWorkerStarts(runs: number): { compiled: Start[]; empty: Start[]
     const empty = "data:text/javascript,import { parentPort } from 'node:worker_threads'; parentPort.postMessage('ready');";
     const out = { compiled: [], empty: [] };
     for (let i = 0; i < ${runs}; i++) {
-      out.compiled.push(await start(() => new Worker(new URL(${JSON.stringify(pathToFileURL(join(CLI, 'vecchia-worker.js')).href)}), { execArgv: [] })));
+      out.compiled.push(await start(() => new Worker(new URL(${JSON.stringify(pathToFileURL(join(CLI, 'engine.worker.js')).href)}), { execArgv: [] })));
       out.empty.push(await start(() => new Worker(new URL(empty), { execArgv: [] })));
     }
     console.log(JSON.stringify(out));`;
@@ -115,7 +119,7 @@ type Start = { wall: number; cpu: number };
 
 async function workerFigures(runs: number): Promise<Row[]> {
   const source: Start[] = [];
-  for (let i = 0; i < runs; i++) source.push(await workerStart(() => startWorker(pathToFileURL(join(ROOT, 'src', 'cli', 'vecchia-worker.ts')).href)));
+  for (let i = 0; i < runs; i++) source.push(await workerStart(() => startWorker()));
   const { compiled, empty } = compiledWorkerStarts(runs);
   const row = (name: string, t: Start[], target = ''): Row => ({
     name, n: runs, seconds: median(t.map((x) => x.wall)), note: `median wall; CPU ${median(t.map((x) => x.cpu)).toFixed(3)} s${target}`,

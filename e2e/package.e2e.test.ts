@@ -54,7 +54,7 @@ describe('the packed gapwise package', () => {
   it('npm pack holds the compiled command line, the built app and the demo, and no TypeScript source', () => {
     expect(tgz).toMatch(new RegExp(`gapwise-${GAPWISE_VERSION.replace(/\./g, '\\.')}\\.tgz$`));
     const installed = join(project, 'node_modules', 'gapwise');
-    for (const f of ['bin/gapwise.js', 'dist-cli/main.js', 'dist-cli/surface-worker.js', 'dist-cli/simulation-worker.js', 'dist-cli/vecchia-worker.js',
+    for (const f of ['bin/gapwise.js', 'dist-cli/main.js', 'dist-cli/engine.worker.js',
       'dist-cli/THIRD-PARTY-LICENSES.txt', 'dist/index.html', 'dist/sw.js', 'dist/manifest.webmanifest', 'data-demo/lead-topsoil.csv', 'CHANGELOG.md', 'README.md']) {
       expect(existsSync(join(installed, f)), f).toBe(true);
     }

@@ -1,8 +1,8 @@
 #!/usr/bin/env node
 // Compiles the command line and its worker-thread entries to plain JavaScript in dist-cli/, so the
 // installed package runs with no TypeScript loader. One ES module per entry (main.js and the
-// *-worker.js files) plus shared chunks, all in one folder: the pools find a worker entry beside
-// their own chunk (src/cli/parallel.ts startWorker).
+// engine's worker-thread entry engine.worker.js) plus shared chunks, all in one folder: the pool finds
+// the worker entry beside its own chunk (src/cli/engine-threads.ts startWorker).
 // The packages the CLI uses are bundled in (Node then starts it without parsing CommonJS modules one
 // by one: `gapwise --help` takes about half the CPU time), their licences gathered in
 // dist-cli/THIRD-PARTY-LICENSES.txt. Two stay packages, installed as "dependencies": the EPSG list
@@ -16,7 +16,7 @@ import { fileURLToPath } from 'node:url';
 
 const ROOT = join(dirname(fileURLToPath(import.meta.url)), '..');
 export const CLI_OUT = join(ROOT, 'dist-cli');
-const ENTRIES = ['main', 'surface-worker', 'simulation-worker', 'vecchia-worker'];
+const ENTRIES = ['main', 'engine.worker'];
 /**
  * Packages left as imports, installed with the package ("dependencies"): the EPSG list (8 MB of
  * JSON read on demand) and geojson-validation (LGPL: kept a separate, replaceable library).

@@ -1,5 +1,6 @@
 // The layer rule of the design: core imports only core; io imports core; worker imports core and io;
-// cli imports core and io; ui imports anything but cli. Checked by reading every import in src/.
+// cli imports core, io and worker (the engine's protocol, handler and pool, run over worker threads);
+// ui imports anything but cli. Checked by reading every import in src/.
 import { describe, expect, it } from 'vitest';
 import { readdirSync, readFileSync, statSync } from 'node:fs';
 import { join, relative, resolve, dirname } from 'node:path';
@@ -9,7 +10,7 @@ const ALLOWED: Record<string, string[]> = {
   core: ['core'],
   io: ['core', 'io'],
   worker: ['core', 'io', 'worker'],
-  cli: ['core', 'io', 'cli'],
+  cli: ['core', 'io', 'worker', 'cli'],
   ui: ['core', 'io', 'worker', 'ui'],
 };
 // Packages each layer may use besides relative imports.
@@ -42,6 +43,9 @@ describe('layer rule', () => {
           expect(ALLOWED[layer] ?? [], `${relative(SRC, file)} imports ${spec}`).toContain(target);
         } else if (layer === 'core') {
           expect(CORE_FORBIDDEN_PACKAGES.test(spec), `core file ${relative(SRC, file)} imports ${spec}`).toBe(false);
+        } else if (layer === 'worker') {
+          // The worker layer runs in the browser too: Node's modules stay in the cli's adapter.
+          expect(/^node:/.test(spec), `worker file ${relative(SRC, file)} imports ${spec}`).toBe(false);
         }
       }
       if (layer === 'core') expect(/\b(document|window|self)\.\w/.test(text.replace(/\/\/.*$/gm, ''))).toBe(false);

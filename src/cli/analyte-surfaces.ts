@@ -10,12 +10,12 @@
  * same bands: `bandRows` as there), so each analyte's arrays equal that run's bit for bit.
  */
 import { availableParallelism } from 'node:os';
-import type { Worker } from 'node:worker_threads';
 import { cellCount } from '../core/geometry/grid.ts';
 import { GapwiseError, type ErrorCode, type Warning } from '../core/shared/errors.ts';
 import { globalMeanCoefficients } from '../core/prediction/local-kriging.ts';
 import type { SurfaceArray, SurfaceResult, ValueRange } from '../core/prediction/surface.ts';
-import { startWorker, type SurfaceJob, type WorkerReply, type WorkerRequest } from './parallel.ts';
+import type { SurfaceJob } from './parallel.ts';
+import { startEngineThreads } from './engine-threads.ts';
 
 /** Options of a several-analyte computation. */
 export interface SharedSurfaceOptions {
@@ -98,94 +98,54 @@ function resultOf(s: JobState): SurfaceResult {
 }
 
 /**
- * The surfaces of every job (one per analyte, usually on one grid) through one worker pool.
+ * The surfaces of every job (one per analyte, usually on one grid) through one pool of engine threads.
  * Resolves with one SurfaceResult per job, each equal to `computeSurfaceParallel(job, { workers })`;
- * rejects with the first worker error after stopping every worker.
+ * rejects with the first band's error, its `job` set to the failing job, after stopping every worker.
  */
 export async function computeSurfacesShared(jobs: readonly SurfaceJob[], options: SharedSurfaceOptions = {}): Promise<SurfaceResult[]> {
   const workers = Math.max(1, Math.floor(options.workers ?? availableParallelism()));
   const states = jobs.map((j) => prepare(j, workers));
   if (states.length === 0) return [];
-  const poolSize = Math.min(workers, Math.max(...states.map((s) => s.bands.length)));
-  const totalBands = states.reduce((t, s) => t + s.bands.length, 0);
-  const pool: Worker[] = [];
-  // Band ids across jobs: job j's band b is offsets[j] + b.
-  const offsets = states.map((_, j) => states.slice(0, j).reduce((t, s) => t + s.bands.length, 0));
-  const locate = (id: number): [number, number] => {
-    let j = states.length - 1;
-    while (offsets[j] > id) j--;
-    return [j, id - offsets[j]];
-  };
+  // Every job's bands in one queue, job by job: a worker moves on to the next job's bands as soon as
+  // the current job has none left (its predictor is rebuilt once per job and worker, then cached).
+  const parts = states.flatMap((s, j) => s.bands.map((rows, b) => ({ j, b, rows })));
+  const pool = startEngineThreads(Math.min(workers, parts.length));
   try {
-    await new Promise<void>((resolve, reject) => {
-      let finished = 0;
-      let failed = false;
-      const fail = (e: Error) => {
-        if (failed) return;
-        failed = true;
-        reject(e);
+    await pool.run(parts.map(({ j, rows }) => {
+      const { job } = states[j];
+      const local = job.path === 'local' ? job.local ?? {} : undefined;
+      return {
+        type: 'surfaceRows' as const,
+        payload: { samples: job.samples, model: job.model, grid: job.grid, options: { ...job.surface, rows }, ...(local ? { local } : {}) },
       };
-      const current = new Int32Array(poolSize).fill(-1);
-      const give = (w: Worker, k: number) => {
-        if (failed) return;
-        let j = current[k];
-        if (j >= 0 && states[j].next < states[j].bands.length) {
-          const s = states[j];
-          const b = s.next++;
-          w.postMessage({ type: 'band', id: offsets[j] + b, rows: s.bands[b] } satisfies WorkerRequest);
-          return;
+    }), {
+      name: 'surfaces', parts: 'bands',
+      onProgress: (i, p) => {
+        const { j, b } = parts[i];
+        const s = states[j];
+        s.doneCells += p.done - s.bandDone[b];
+        s.bandDone[b] = p.done;
+        options.onProgress?.(j, s.doneCells, s.totalCells);
+      },
+      onResult: (i, r) => {
+        const s = states[parts[i].j];
+        const offset = r.rows[0] * s.job.grid.nx;
+        s.mean.set(r.mean, offset);
+        s.sd.set(r.sd, offset);
+        if (s.pExceed && r.pExceed) s.pExceed.set(r.pExceed, offset);
+        if (r.median) {
+          s.median ??= s.make();
+          s.median.set(r.median, offset);
         }
-        // This job has no band left for this worker: the next job that has one (the worker rebuilds its predictor).
-        for (j = Math.max(0, j + 1); j < states.length && states[j].next >= states[j].bands.length; j++);
-        if (j >= states.length) return;
-        current[k] = j;
-        w.postMessage({ type: 'init', job: states[j].job } satisfies WorkerRequest);
-      };
-      for (let k = 0; k < poolSize; k++) {
-        const w = startWorker();
-        pool.push(w);
-        w.on('message', (reply: WorkerReply) => {
-          if (reply.type === 'ready') give(w, k);
-          else if (reply.type === 'progress') {
-            const [j, b] = locate(reply.id);
-            const s = states[j];
-            s.doneCells += reply.done - s.bandDone[b];
-            s.bandDone[b] = reply.done;
-            options.onProgress?.(j, s.doneCells, s.totalCells);
-          } else if (reply.type === 'band') {
-            const [j] = locate(reply.id);
-            const s = states[j];
-            const r = reply.result;
-            const offset = r.rows[0] * s.job.grid.nx;
-            s.mean.set(r.mean, offset);
-            s.sd.set(r.sd, offset);
-            if (s.pExceed && r.pExceed) s.pExceed.set(r.pExceed, offset);
-            if (r.median) {
-              s.median ??= s.make();
-              s.median.set(r.median, offset);
-            }
-            for (const wn of r.warnings) s.warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
-            s.finished++;
-            finished++;
-            if (finished === totalBands) resolve();
-            else give(w, k);
-          } else if (reply.type === 'error') {
-            const e = toError(reply.error);
-            // Which job failed, for a message that names its analyte.
-            if (reply.id !== undefined) (e as Error & { job?: number }).job = locate(reply.id)[0];
-            else if (current[k] >= 0) (e as Error & { job?: number }).job = current[k];
-            fail(e);
-          }
-        });
-        w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
-        w.on('exit', (code) => {
-          if (code !== 0 && finished < totalBands) fail(new Error(`A surface worker stopped with exit code ${code}.`));
-        });
-        give(w, k);
-      }
+        for (const wn of r.warnings) s.warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
+        s.finished++;
+      },
+      onError: (i, e) => {
+        if (e && typeof e === 'object') (e as { job?: number }).job = parts[i].j;
+      },
     });
   } finally {
-    await Promise.all(pool.map((w) => w.terminate()));
+    await pool.dispose();
   }
   return states.map(resultOf);
 }

@@ -1,25 +1,21 @@
-// A worker_threads pool that computes grid surfaces in row bands, for the CLI.
+// Grid surfaces in row bands over worker threads, for the CLI.
 //
-// One worker per available core (os.availableParallelism(), or `workers`); each builds the predictor
-// once (exact: kriging.ts, local neighbourhoods: core/prediction/local-kriging.ts) and then takes bands of rows
-// from a shared queue until none are left, so fast and slow bands balance out. Every cell is computed
-// the same way whichever worker gets it, so the result equals the single-thread one bit for bit.
-// Workers run the TypeScript sources through tsx's loader in a checkout (no build step), and the
-// compiled JavaScript beside this module in the installed package (see startWorker).
-import { Worker } from 'node:worker_threads';
+// One worker per available core (os.availableParallelism(), or `workers`), on the engine's pool
+// (./engine-threads.ts): each band is a `surfaceRows` request of the whole grid with its `rows`, and
+// idle workers take the next band from the queue, so fast and slow bands balance out. Each worker
+// builds the predictor once (exact: kriging.ts, local neighbourhoods: core/prediction/local-kriging.ts; the
+// handler keeps it for the next band). Every cell is computed the same way whichever worker gets it,
+// so the result equals the single-thread one bit for bit.
 import { availableParallelism } from 'node:os';
-import { createRequire } from 'node:module';
-import { pathToFileURL } from 'node:url';
-import { readFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
 import type { Samples } from '../core/shared/samples.ts';
 import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { Grid } from '../core/geometry/grid.ts';
 import { cellCount } from '../core/geometry/grid.ts';
-import { GapwiseError, type ErrorCode, type Warning } from '../core/shared/errors.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { createPredictor } from '../core/prediction/kriging.ts';
 import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
 import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
+import { startEngineThreads } from './engine-threads.ts';
 
 export type SurfacePath = 'exact' | 'local';
 
@@ -45,16 +41,6 @@ export interface ParallelSurfaceOptions {
   onProgress?: (done: number, total: number) => void;
 }
 
-export type WorkerRequest =
-  | { type: 'init'; job: SurfaceJob }
-  | { type: 'band'; id: number; rows: [number, number] };
-
-export type WorkerReply =
-  | { type: 'ready' }
-  | { type: 'band'; id: number; result: SurfaceResult }
-  | { type: 'progress'; id: number; done: number; total: number }
-  | { type: 'error'; id?: number; error: { code?: string; message: string } };
-
 /** Largest estimated flop count (n³/3 + cells·n²) for which 'auto' picks the exact path. */
 const EXACT_FLOP_LIMIT = 2e9;
 
@@ -78,45 +64,11 @@ export function computeSurfaceSingle(job: SurfaceJob): SurfaceResult {
   return computeSurfaceWith(buildSurfacePredictor(job), job.grid, { ...job.surface });
 }
 
-/** File URL of tsx's ESM register API (the "import" condition of its "./esm/api" export). */
-function tsxEsmApi(): string {
-  const require = createRequire(import.meta.url);
-  const manifest = require.resolve('tsx/package.json');
-  const pkg = JSON.parse(readFileSync(manifest, 'utf8')) as { exports: Record<string, { import: { default: string } }> };
-  return pathToFileURL(join(dirname(manifest), pkg.exports['./esm/api'].import.default)).href;
-}
-
-/**
- * True when this module runs from its TypeScript source (through tsx in a checkout); false in the
- * compiled CLI (dist-cli/, written by scripts/build-cli.mjs), where every worker entry sits beside
- * this module's chunk as plain JavaScript under the same name.
- */
-const FROM_SOURCE = import.meta.url.endsWith('.ts');
-
-/**
- * Starts a worker thread on a worker entry (file URL of its `.ts` source; default the surface
- * worker). Compiled, the entry is the `.js` file of the same name and starts with no loader at all.
- * From source, Node 20 does not apply loader hooks given by `--import` in a worker's execArgv to the
- * worker's own entry file, so the worker starts from a small script that registers tsx's loader and
- * then imports the TypeScript entry (both resolved from this file, so the CLI works from any directory).
- */
-export function startWorker(entry = new URL('./surface-worker.ts', import.meta.url).href): Worker {
-  if (!FROM_SOURCE) return new Worker(new URL(entry.replace(/\.ts$/, '.js')));
-  const api = tsxEsmApi();
-  const boot = `import(${JSON.stringify(api)}).then((m) => { m.register(); return import(${JSON.stringify(entry)}); })` +
-    '.catch((e) => { setImmediate(() => { throw e; }); });';
-  return new Worker(boot, { eval: true });
-}
-
-function toError(error: { code?: string; message: string }): Error {
-  return error.code ? new GapwiseError(error.code as ErrorCode, error.message) : new Error(error.message);
-}
-
 /**
  * Computes mean, sd (and P(exceed) / median) on every row of the grid with a pool of worker threads,
  * in bands of rows handed out from a queue. Resolves with full-grid arrays (Float32 unless
  * job.surface.precision is 'float64'); rejects with the first worker error (GapwiseError when it was
- * one) after stopping every worker.
+ * one, EngineError for a bug) after stopping every worker.
  */
 export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelSurfaceOptions = {}): Promise<SurfaceResult> {
   const { grid } = job;
@@ -148,57 +100,33 @@ export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelS
   const warnings = new Map<string, Warning>();
   for (const w of globalWarnings) warnings.set(`${w.code}:${w.message}`, w);
 
-  const pool: Worker[] = [];
+  const pool = startEngineThreads(poolSize);
+  const local = job.path === 'local' ? job.local ?? {} : undefined;
   try {
-    await new Promise<void>((resolve, reject) => {
-      let next = 0;
-      let finished = 0;
-      let failed = false;
-      const fail = (e: Error) => {
-        if (failed) return;
-        failed = true;
-        reject(e);
-      };
-      const give = (w: Worker) => {
-        if (failed) return;
-        if (next >= bands.length) return;
-        const id = next++;
-        w.postMessage({ type: 'band', id, rows: bands[id] } satisfies WorkerRequest);
-      };
-      for (let k = 0; k < poolSize; k++) {
-        const w = startWorker();
-        pool.push(w);
-        w.on('message', (reply: WorkerReply) => {
-          if (reply.type === 'ready') give(w);
-          else if (reply.type === 'progress') {
-            doneCells += reply.done - bandDone[reply.id];
-            bandDone[reply.id] = reply.done;
-            options.onProgress?.(doneCells, totalCells);
-          } else if (reply.type === 'band') {
-            const r = reply.result;
-            const offset = r.rows[0] * grid.nx;
-            mean.set(r.mean, offset);
-            sd.set(r.sd, offset);
-            if (pExceed && r.pExceed) pExceed.set(r.pExceed, offset);
-            if (r.median) {
-              median ??= make();
-              median.set(r.median, offset);
-            }
-            for (const wn of r.warnings) warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
-            finished++;
-            if (finished === bands.length) resolve();
-            else give(w);
-          } else if (reply.type === 'error') fail(toError(reply.error));
-        });
-        w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
-        w.on('exit', (code) => {
-          if (code !== 0 && finished < bands.length) fail(new Error(`A surface worker stopped with exit code ${code}.`));
-        });
-        w.postMessage({ type: 'init', job } satisfies WorkerRequest);
-      }
+    await pool.run(bands.map((rows) => ({
+      type: 'surfaceRows' as const,
+      payload: { samples: job.samples, model: job.model, grid, options: { ...job.surface, rows }, ...(local ? { local } : {}) },
+    })), {
+      name: 'surface', parts: 'bands',
+      onProgress: (b, p) => {
+        doneCells += p.done - bandDone[b];
+        bandDone[b] = p.done;
+        options.onProgress?.(doneCells, totalCells);
+      },
+      onResult: (_b, r) => {
+        const offset = r.rows[0] * grid.nx;
+        mean.set(r.mean, offset);
+        sd.set(r.sd, offset);
+        if (pExceed && r.pExceed) pExceed.set(r.pExceed, offset);
+        if (r.median) {
+          median ??= make();
+          median.set(r.median, offset);
+        }
+        for (const wn of r.warnings) warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
+      },
     });
   } finally {
-    await Promise.all(pool.map((w) => w.terminate()));
+    await pool.dispose();
   }
 
   const rangeOf = (a: SurfaceArray) => {

@@ -6,36 +6,24 @@
 // (src/ui/state/engine.ts). Each worker thread runs core simulateConditional on its
 // part with `first` and `keepTotals`; every realisation has its own random stream, so the parts
 // merged by mergeSimulationParts give the realisations and the area of one run exactly (per-cell
-// mean, sd and P(exceed) up to the order of the sums). Each worker repeats the set-up (embedding,
-// kriging factor, placement of the samples): cheap beside the realisations.
+// mean, sd and P(exceed) up to the order of the sums). Each part is a `simulate` request on the
+// engine's pool over worker threads (./engine-threads.ts), one part per worker. Each worker repeats
+// the set-up (embedding, kriging factor, placement of the samples): cheap beside the realisations.
 // One thread (workers = 1, or fewer than 4 realisations) runs in-process without starting workers.
-import type { Worker } from 'node:worker_threads';
 import { availableParallelism } from 'node:os';
 import type { Samples } from '../core/shared/samples.ts';
 import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { Grid } from '../core/geometry/grid.ts';
-import { GapwiseError, type ErrorCode } from '../core/shared/errors.ts';
+import { GapwiseError } from '../core/shared/errors.ts';
 import {
   MAX_REALISATIONS, mergeSimulationParts, simulateConditional, simulationPart,
   type ConditionalSimulationOptions, type ConditionalSimulationResult,
 } from '../core/simulation/conditional-simulation.ts';
-import { startWorker } from './parallel.ts';
+import type { SimulateOptions } from '../worker/protocol.ts';
+import { startEngineThreads } from './engine-threads.ts';
 
 /** The options of one part, without the callbacks (plain data, structured-cloned to a worker). */
-export type SimulationPartOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 'isCancelled'>;
-
-export type SimulationWorkerRequest = {
-  type: 'run';
-  samples: Samples;
-  model: CovarianceModel;
-  grid: Grid;
-  options: SimulationPartOptions;
-};
-
-export type SimulationWorkerReply =
-  | { type: 'progress'; done: number; total: number }
-  | { type: 'done'; result: ConditionalSimulationResult }
-  | { type: 'error'; error: { code?: string; message: string } };
+export type SimulationPartOptions = SimulateOptions;
 
 /** Options of a parallel simulation. */
 export interface ParallelSimulationOptions {
@@ -56,22 +44,6 @@ export function simulationThreads(count: number, workers = availableParallelism(
   const w = Math.max(1, Math.floor(workers));
   if (!(Number.isInteger(count) && count >= MIN_SPLIT && count <= MAX_REALISATIONS)) return 1;
   return Math.max(1, Math.min(w, Math.floor(count / 2)));
-}
-
-function toError(error: { code?: string; message: string }): Error {
-  return error.code ? new GapwiseError(error.code as ErrorCode, error.message) : new Error(error.message);
-}
-
-/** The buffers of a part's result, moved rather than copied back to the main thread. */
-export function resultTransfer(r: ConditionalSimulationResult): ArrayBuffer[] {
-  const list: ArrayBuffer[] = [r.mean.buffer as ArrayBuffer, r.sd.buffer as ArrayBuffer];
-  if (r.pExceed) list.push(r.pExceed.buffer as ArrayBuffer);
-  if (r.totals) {
-    list.push(r.totals.sum.buffer as ArrayBuffer, r.totals.sumSq.buffer as ArrayBuffer, r.totals.counts.buffer as ArrayBuffer);
-    if (r.totals.above) list.push(r.totals.above.buffer as ArrayBuffer);
-  }
-  if (r.realisations) for (const v of r.realisations) list.push(v.buffer as ArrayBuffer);
-  return [...new Set(list)];
 }
 
 /**
@@ -96,44 +68,28 @@ export async function simulateParallel(
 
   const results: ConditionalSimulationResult[] = new Array(parts);
   const done = new Float64Array(parts);
-  const pool: Worker[] = [];
+  const pool = startEngineThreads(parts);
+  const stop = new AbortController();
   try {
-    await new Promise<void>((resolve, reject) => {
-      let finished = 0;
-      let failed = false;
-      const fail = (e: Error) => {
-        if (failed) return;
-        failed = true;
-        reject(e);
-      };
-      for (let i = 0; i < parts; i++) {
-        const part = simulationPart(start, N, i, parts);
-        const w = startWorker(new URL('./simulation-worker.ts', import.meta.url).href);
-        pool.push(w);
-        w.on('message', (reply: SimulationWorkerReply) => {
-          if (failed) return;
-          if (reply.type === 'progress') {
-            done[i] = reply.done;
-            let sum = 0;
-            for (let k = 0; k < parts; k++) sum += done[k];
-            onProgress?.(sum, N);
-            if (isCancelled?.()) fail(new GapwiseError('cancelled', `Simulation stopped after ${sum} of ${N} realisations.`));
-          } else if (reply.type === 'done') {
-            results[i] = { ...reply.result, grid };
-            finished++;
-            if (finished === parts) resolve();
-          } else if (reply.type === 'error') fail(toError(reply.error));
-        });
-        w.on('error', (e) => fail(e instanceof Error ? e : new Error(String(e))));
-        w.on('exit', (code) => {
-          if (results[i] === undefined) fail(new Error(`A simulation worker stopped with exit code ${code} before its realisations were done.`));
-        });
-        const partOptions: SimulationPartOptions = { ...plain, first: part.first, count: part.count, keepTotals: true };
-        w.postMessage({ type: 'run', samples, model, grid, options: partOptions } satisfies SimulationWorkerRequest);
-      }
+    await pool.run(Array.from({ length: parts }, (_, i) => {
+      const part = simulationPart(start, N, i, parts);
+      const partOptions: SimulationPartOptions = { ...plain, first: part.first, count: part.count, keepTotals: true };
+      return { type: 'simulate' as const, payload: { samples, model, grid, options: partOptions } };
+    }), {
+      name: 'simulation', parts: 'parts', signal: stop.signal,
+      onProgress: (i, p) => {
+        done[i] = p.done;
+        let sum = 0;
+        for (let k = 0; k < parts; k++) sum += done[k];
+        onProgress?.(sum, N);
+        if (isCancelled?.()) stop.abort(new GapwiseError('cancelled', `Simulation stopped after ${sum} of ${N} realisations.`));
+      },
+      onResult: (i, result) => {
+        results[i] = { ...result, grid };
+      },
     });
   } finally {
-    await Promise.all(pool.map((w) => w.terminate()));
+    await pool.dispose();
   }
   const merged = mergeSimulationParts(results, { depth: options.depth });
   if (!options.keepTotals) delete merged.totals;

@@ -1,67 +1,23 @@
 // Splits the passes of the nearest-neighbour likelihood (core/fitting/vecchia.ts) over worker threads, for
 // the CLI's fits of many samples.
 //
-// The pass arrays live in SharedArrayBuffers handed to every worker once (`attach`). A pass is then
-// started and finished through shared memory only: the main thread writes the parameters, bumps a
-// generation counter and wakes the workers (Atomics.notify), runs its own part, and waits
-// (Atomics.wait) until every worker has counted itself done. So the likelihood stays a synchronous
-// function and the optimiser in core needs no change; each of T threads runs a contiguous n/T of the
-// points. Workers block in Atomics.wait between passes and return to their event loop only to take
-// a new attachment or to stop.
-import type { Worker } from 'node:worker_threads';
+// The pass arrays live in SharedArrayBuffers handed to every worker once, as a `likelihoodPart`
+// request on the engine's pool over worker threads (./engine-threads.ts; the worker's side is
+// src/worker/likelihood-part.ts). A pass is then started and finished through shared memory only:
+// the main thread writes the parameters, bumps a generation counter and wakes the workers
+// (Atomics.notify), runs its own part, and waits (Atomics.wait) until every worker has counted itself
+// done. So the likelihood stays a synchronous function and the optimiser in core needs no change;
+// each of T threads runs a contiguous n/T of the points. Workers block in Atomics.wait between passes
+// and return to their event loop only when told to leave (a new attachment, or the end).
 import { availableParallelism } from 'node:os';
 import { GapwiseError } from '../core/shared/errors.ts';
-import { runVecchiaPass, type VecchiaPassData, type VecchiaPassJob, type VecchiaPassPart, type VecchiaThreads } from '../core/fitting/vecchia.ts';
-import { startWorker } from './parallel.ts';
+import { runVecchiaPass, type VecchiaPassJob, type VecchiaPassPart, type VecchiaThreads } from '../core/fitting/vecchia.ts';
+import {
+  COMMAND, FINISHED, GENERATION, LEAVE, PARAMETERS, RESULT, RUN, partRange, readJob, writeJob,
+} from '../worker/likelihood-part.ts';
+import { startEngineThreads } from './engine-threads.ts';
 
-/** Control words (Int32Array over a SharedArrayBuffer). */
-export const GENERATION = 0;
-export const FINISHED = 1;
-export const COMMAND = 2;
-export const RUN = 1;
-export const LEAVE = 2;
-/** Parameters of a pass (Float64Array): family, scale, nu, diagonal, allowJitter, limit. */
-export const PARAMETERS = 6;
-/** Result of one part (Float64Array, per thread): ok, logDet, jitter, failed. */
-export const RESULT = 4;
-
-export type VecchiaWorkerRequest = {
-  type: 'attach';
-  data: VecchiaPassData;
-  control: Int32Array;
-  parameters: Float64Array;
-  results: Float64Array;
-  /** This worker's part (1 .. parts − 1; the main thread runs part 0) and the number of parts. */
-  part: number;
-  parts: number;
-  /** Generation at attach time: a pass is pending when the counter differs. */
-  generation: number;
-};
-
-export type VecchiaWorkerReply = { type: 'ready' } | { type: 'attached' } | { type: 'error'; message: string };
-
-/** Points [start, end) of part k of n points in `parts` contiguous parts. */
-export function partRange(n: number, k: number, parts: number): [number, number] {
-  return [Math.floor((k * n) / parts), Math.floor(((k + 1) * n) / parts)];
-}
-
-/** Writes a job into the shared parameters. */
-export function writeJob(parameters: Float64Array, job: VecchiaPassJob): void {
-  parameters[0] = job.family;
-  parameters[1] = job.scale;
-  parameters[2] = job.nu;
-  parameters[3] = job.diagonal;
-  parameters[4] = job.allowJitter ? 1 : 0;
-  parameters[5] = job.limit;
-}
-
-/** Reads a job from the shared parameters. */
-export function readJob(parameters: Float64Array): VecchiaPassJob {
-  return {
-    family: parameters[0], scale: parameters[1], nu: parameters[2], diagonal: parameters[3],
-    allowJitter: parameters[4] === 1, limit: parameters[5],
-  };
-}
+export { partRange, readJob, writeJob };
 
 /** A started pool: `threads` goes to vecchiaFit / createVecchiaLikelihood; close it when done. */
 export interface VecchiaPool {
@@ -80,18 +36,16 @@ export interface VecchiaPool {
 export async function startVecchiaPool(options: { threads?: number; stallSeconds?: number } = {}): Promise<VecchiaPool> {
   const size = Math.max(1, Math.floor(options.threads ?? availableParallelism()));
   const stallMs = 1000 * (options.stallSeconds ?? 600);
-  const workers: Worker[] = [];
-  const entry = new URL('./vecchia-worker.ts', import.meta.url).href;
-  try {
-    await Promise.all(Array.from({ length: size - 1 }, () => new Promise<void>((resolve, reject) => {
-      const w = startWorker(entry);
-      workers.push(w);
-      w.once('message', (m: VecchiaWorkerReply) => (m.type === 'ready' ? resolve() : reject(new Error(m.type === 'error' ? m.message : 'unexpected reply'))));
-      w.once('error', reject);
-    })));
-  } catch (e) {
-    await Promise.all(workers.map((w) => w.terminate()));
-    throw e;
+  const pool = size > 1 ? startEngineThreads(size - 1) : null;
+  if (pool) {
+    // Every worker answers once before the first pass blocks this thread (a worker that fails to
+    // start fails here, not as a stalled pass).
+    try {
+      await pool.run(Array.from({ length: size - 1 }, () => ({ type: 'ready' as const, payload: {} })), { name: 'start of the likelihood threads' });
+    } catch (e) {
+      await pool.dispose();
+      throw e;
+    }
   }
   let current: { control: Int32Array } | null = null;
 
@@ -111,7 +65,10 @@ export async function startVecchiaPool(options: { threads?: number; stallSeconds
       const control = new Int32Array(new SharedArrayBuffer(16));
       const parameters = new Float64Array(new SharedArrayBuffer(8 * PARAMETERS));
       const results = new Float64Array(new SharedArrayBuffer(8 * RESULT * parts));
-      workers.forEach((w, k) => w.postMessage({ type: 'attach', data, control, parameters, results, part: k + 1, parts, generation: 0 } satisfies VecchiaWorkerRequest));
+      // One part per worker (as many tasks as workers); the answer comes when the workers leave.
+      pool?.run(Array.from({ length: parts - 1 }, (_, k) => ({
+        type: 'likelihoodPart' as const, payload: { data, control, parameters, results, part: k + 1, parts, generation: 0 },
+      }))).catch(() => {}); // a worker lost mid-fit shows as a stalled pass; closing cancels what is left
       current = { control };
       const mine = partRange(data.n, 0, parts);
       return (job: VecchiaPassJob): VecchiaPassPart => {
@@ -152,7 +109,7 @@ export async function startVecchiaPool(options: { threads?: number; stallSeconds
     threads,
     async close() {
       leave();
-      await Promise.all(workers.map((w) => w.terminate()));
+      await pool?.dispose();
     },
   };
 }

@@ -1,5 +1,6 @@
 /**
- * EngineClient: the main thread's handle on one engine worker. Each request gets an id and a
+ * EngineClient: the caller's handle on one engine worker, over any transport (./transport.ts: a Web
+ * Worker in the app, a worker thread in the command line). Each request gets an id and a
  * promise; progress messages go to the request's callback; results and errors settle it; messages
  * for ids no longer waiting (cancelled, or from a worker that was replaced) are dropped.
  *
@@ -13,20 +14,11 @@ import {
   EngineError, errorFromData, isEngineResponse,
   type EngineRequest, type RequestPayloads, type RequestType, type ResultPayloads,
 } from './protocol.ts';
+import { webWorkerTransport, type Transport, type TransportFactory } from './transport.ts';
 
-/** The part of the Worker API the client uses (a real Worker, or a fake in tests). */
-export interface WorkerLike {
-  postMessage(message: unknown, transfer?: Transferable[]): void;
-  terminate(): void;
-  onmessage: ((event: MessageEvent) => void) | null;
-  onerror: ((event: ErrorEvent) => void) | null;
-}
-
-export type WorkerFactory = () => WorkerLike;
-
-/** Starts the engine worker (Vite bundles it from this exact `new Worker(new URL(...))` form). */
-export function createEngineWorker(): WorkerLike {
-  return new Worker(new URL('./engine.worker.ts', import.meta.url), { type: 'module', name: 'gapwise-engine' });
+/** Starts the app's engine worker (Vite bundles it from this exact `new Worker(new URL(...))` form). */
+export function createEngineWorker(): Transport {
+  return webWorkerTransport(new Worker(new URL('./engine.worker.ts', import.meta.url), { type: 'module', name: 'gapwise-engine' }));
 }
 
 export interface Progress {
@@ -60,7 +52,9 @@ function cancelledError(type: RequestType): GapwiseError {
 }
 
 export class EngineClient {
-  private worker: WorkerLike | null = null;
+  private worker: Transport | null = null;
+  /** Workers being terminated (dispose waits for them). */
+  private readonly stopping = new Set<Promise<void>>();
   private readonly pending = new Map<number, Pending>();
   private nextId = 1;
   private disposed = false;
@@ -69,7 +63,7 @@ export class EngineClient {
   /** Requests started so far, by type (read by the browser tests to tell what was computed). */
   readonly started: Partial<Record<RequestType, number>> = {};
 
-  constructor(private readonly factory: WorkerFactory = createEngineWorker) {}
+  constructor(private readonly factory: TransportFactory = createEngineWorker) {}
 
   /** Requests waiting for an answer. */
   get waiting(): number {
@@ -99,7 +93,7 @@ export class EngineClient {
         cleanup: () => options.signal?.removeEventListener('abort', onAbort),
       });
     });
-    this.ensureWorker().postMessage(request);
+    this.ensureWorker().post(request);
     return { id, promise };
   }
 
@@ -124,23 +118,25 @@ export class EngineClient {
     for (const [, p] of all) p.reject(cancelledError(p.request.type));
   }
 
-  /** Terminates the worker and rejects whatever is waiting; the client cannot be used afterwards. */
-  dispose(): void {
+  /**
+   * Terminates the worker and rejects whatever is waiting; the client cannot be used afterwards.
+   * Resolves when the worker has stopped (at once where the host does not say).
+   */
+  dispose(): Promise<void> {
     this.disposed = true;
     this.cancelAll();
+    return Promise.all(this.stopping).then(() => undefined);
   }
 
-  private ensureWorker(): WorkerLike {
+  private ensureWorker(): Transport {
     if (this.worker) return this.worker;
     const worker = this.factory();
     this.startedWorkers++;
-    worker.onmessage = (event) => {
-      if (this.worker === worker) this.receive(event.data);
+    worker.onmessage = (data) => {
+      if (this.worker === worker) this.receive(data);
     };
-    worker.onerror = (event) => {
-      if (this.worker !== worker) return;
-      event.preventDefault?.();
-      this.crash(event.message || 'the engine worker failed to run');
+    worker.onerror = (reason) => {
+      if (this.worker === worker) this.crash(reason);
     };
     this.worker = worker;
     return worker;
@@ -149,18 +145,19 @@ export class EngineClient {
   private killWorker(): void {
     const w = this.worker;
     this.worker = null;
-    if (w) {
-      w.onmessage = null;
-      w.onerror = null;
-      w.terminate();
-    }
+    if (!w) return;
+    w.onmessage = null;
+    w.onerror = null;
+    const stopped = Promise.resolve(w.terminate()).catch(() => undefined);
+    this.stopping.add(stopped);
+    void stopped.then(() => this.stopping.delete(stopped));
   }
 
   private restart(): void {
     this.killWorker();
     if (this.pending.size === 0 || this.disposed) return;
     const worker = this.ensureWorker();
-    for (const p of this.pending.values()) worker.postMessage(p.request);
+    for (const p of this.pending.values()) worker.post(p.request);
   }
 
   private crash(reason: string): void {

@@ -28,6 +28,7 @@ import { isCovariateTrend, type CovarianceModel } from '../core/covariance/model
 import { attachTrendCoefficients } from '../core/fitting/covariate-fit.ts';
 import { readSamples } from '../io/intake.ts';
 import { runDesignRequest } from './design-handler.ts';
+import { runLikelihoodPart } from './likelihood-part.ts';
 import {
   errorData, isEngineRequest, transferablesOf, REQUEST_TYPES,
   type EngineRequest, type EngineResponse, type RequestPayloads, type RequestType, type ResultPayloads,
@@ -212,6 +213,10 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       }
       case 'design':
         return runDesignRequest(p as RequestPayloads['design'], progress) as ResultPayloads[K];
+      case 'ready':
+        return true as ResultPayloads[K];
+      case 'likelihoodPart':
+        return runLikelihoodPart(p as RequestPayloads['likelihoodPart']) as ResultPayloads[K];
     }
     throw new GapwiseError('bad-option', `Unknown request type ${JSON.stringify(type)}.`);
   };

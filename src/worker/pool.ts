@@ -14,12 +14,14 @@ import type { Grid } from '../core/geometry/grid.ts';
 import type { SurfaceArray, SurfaceOptions, SurfaceResult, ValueRange } from '../core/prediction/surface.ts';
 import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
 import type { RequestPayloads, RequestType, ResultPayloads } from './protocol.ts';
-import { EngineClient, createEngineWorker, type Progress, type RequestOptions, type WorkerFactory } from './client.ts';
+import { EngineClient, createEngineWorker, type Progress, type RequestOptions } from './client.ts';
+import type { TransportFactory } from './transport.ts';
 
 export interface PoolOptions {
   /** Number of workers (default navigator.hardwareConcurrency, at least 1). */
   size?: number;
-  factory?: WorkerFactory;
+  /** Starts one worker (default the app's Web Worker; the command line passes worker threads). */
+  factory?: TransportFactory;
   /** Bands per worker for a surface (default 4): more bands give earlier pictures and better balance. */
   bandsPerWorker?: number;
 }
@@ -35,6 +37,26 @@ export interface SurfaceJobOptions {
   blockPoints?: number;
   /** Point support from local neighbourhoods (many samples) rather than all samples. */
   local?: LocalKrigingOptions;
+}
+
+/** One request of a queue (EnginePool.run). */
+export interface Task<K extends RequestType> {
+  type: K;
+  payload: RequestPayloads[K];
+}
+
+export interface RunOptions<K extends RequestType> {
+  /** Aborting cancels the running tasks; a GapwiseError reason is the rejection. */
+  signal?: AbortSignal;
+  /** Progress of task `index`. */
+  onProgress?: (index: number, progress: Progress) => void;
+  /** The result of task `index`, as soon as it is done. */
+  onResult?: (index: number, result: ResultPayloads[K]) => void;
+  /** Task `index` failed with `error`, just before the run rejects with it (to say which task it was). */
+  onError?: (index: number, error: unknown) => void;
+  /** For the cancelled message: what runs ('surface') and what its tasks are ('bands'). */
+  name?: string;
+  parts?: string;
 }
 
 /**
@@ -170,24 +192,23 @@ export class EnginePool {
   }
 
   /**
-   * Computes mean, sd (and P(exceed)) on the whole grid in parallel row bands, at points (cell
-   * centres) or, with job.support 'block', as cell averages. Resolves with the
-   * merged surface; rejects with GapwiseError('cancelled') when aborted, or with the first band's error.
+   * Runs `tasks` as a queue over the workers: each idle worker takes the next task, so fast and slow
+   * tasks balance out (with as many tasks as workers, each worker takes one). `onResult` gets each
+   * result as it arrives (in the order they finish) and may abort. Resolves when every task is done;
+   * rejects with the first task's error (GapwiseError or EngineError), or when `signal` aborts with
+   * its reason when that is a GapwiseError, else GapwiseError('cancelled'); the running tasks are then
+   * cancelled (their workers terminated and restarted only when something else waits on them).
    */
-  surface(
-    samples: Samples, model: CovarianceModel, grid: Grid, options: Omit<SurfaceOptions, 'rows'> = {}, job: SurfaceJobOptions = {},
-  ): Promise<SurfaceResult> {
-    const bands = splitBands(grid, this.size * this.bandsPerWorker);
-    const merged = emptySurface(grid, options, model.transform === 'log');
-    let total = 0;
-    if (grid.mask) { for (let k = 0; k < grid.mask.length; k++) total += grid.mask[k]; } else total = grid.nx * grid.ny;
-    const doneByBand = new Float64Array(bands.length);
-    let doneAll = 0;
-    const report = () => job.onProgress?.({ done: doneAll, total, fraction: total > 0 ? doneAll / total : 1 });
-
-    return new Promise<SurfaceResult>((resolve, reject) => {
-      if (job.signal?.aborted) {
-        reject(new GapwiseError('cancelled', 'The surface was cancelled before it started.'));
+  run<K extends RequestType>(tasks: readonly Task<K>[], options: RunOptions<K> = {}): Promise<void> {
+    const { signal } = options;
+    const what = options.name ?? 'work';
+    const cancelled = (finished: number | null): GapwiseError => (signal?.reason instanceof GapwiseError ? signal.reason
+      : new GapwiseError('cancelled', finished === null
+        ? `The ${what} was cancelled before it started.`
+        : `The ${what} was cancelled after ${finished} of ${tasks.length} ${options.parts ?? 'parts'}.`));
+    return new Promise<void>((resolve, reject) => {
+      if (signal?.aborted) {
+        reject(cancelled(null));
         return;
       }
       let next = 0;
@@ -198,59 +219,100 @@ export class EnginePool {
       const stop = (error: unknown) => {
         if (stopped) return;
         stopped = true;
-        job.signal?.removeEventListener('abort', onAbort);
+        signal?.removeEventListener('abort', onAbort);
         for (const [client, id] of running) client.cancel(id);
         running.clear();
         reject(error);
       };
-      const onAbort = () => stop(new GapwiseError('cancelled', `The surface was cancelled after ${finished} of ${bands.length} bands.`));
-      job.signal?.addEventListener('abort', onAbort, { once: true });
+      const onAbort = () => stop(cancelled(finished));
+      signal?.addEventListener('abort', onAbort, { once: true });
 
       const feed = (client: EngineClient) => {
-        if (stopped || next >= bands.length) return;
-        const b = next++;
-        const [r0, r1] = bands[b];
-        const bandOf = bandGrid(grid, r0, r1);
-        const onProgress = (p: Progress) => {
-          if (stopped) return;
-          doneAll += p.done - doneByBand[b];
-          doneByBand[b] = p.done;
-          report();
-        };
-        const { id, promise } = job.support === 'block'
-          ? client.start('blockSurfaceRows', {
-            samples, model, grid: bandOf,
-            // A covariate model's block points (k² rows per cell): the band's rows, as for points.
-            options: { threshold: options.threshold, precision: options.precision, points: job.blockPoints, ...(options.covariates ? { covariates: bandOptions(options, grid, r0, r1).covariates } : {}) },
-          }, { onProgress })
-          : client.start('surfaceRows', { samples, model, grid: bandOf, options: bandOptions(options, grid, r0, r1), local: job.local }, { onProgress });
+        if (stopped || next >= tasks.length) return;
+        const index = next++;
+        const task = tasks[index];
+        const onProgress = options.onProgress && ((p: Progress) => {
+          if (!stopped) options.onProgress!(index, p);
+        });
+        const { id, promise } = client.start(task.type, task.payload, { onProgress });
         running.set(client, id);
-        promise.then((band) => {
+        promise.then((result) => {
           if (stopped) return;
           running.delete(client);
-          const placed: SurfaceResult = { ...band, rows: [r0, r1] };
-          mergeBand(merged, placed);
-          doneAll += band.cells - doneByBand[b];
-          doneByBand[b] = band.cells;
           finished++;
-          report();
-          job.onBand?.(placed, merged);
-          if (stopped) return; // onBand may have aborted
-          if (finished === bands.length) {
+          options.onResult?.(index, result);
+          if (stopped) return; // onResult may have aborted
+          if (finished === tasks.length) {
             stopped = true;
-            job.signal?.removeEventListener('abort', onAbort);
-            resolve(merged);
+            signal?.removeEventListener('abort', onAbort);
+            resolve();
           } else {
             feed(client);
           }
         }, (error) => {
           running.delete(client);
+          if (!stopped) options.onError?.(index, error);
           stop(error);
         });
       };
-      report();
+      if (tasks.length === 0) {
+        stopped = true;
+        signal?.removeEventListener('abort', onAbort);
+        resolve();
+        return;
+      }
       for (const c of this.clients) feed(c);
     });
+  }
+
+  /**
+   * Computes mean, sd (and P(exceed)) on the whole grid in parallel row bands, at points (cell
+   * centres) or, with job.support 'block', as cell averages. Resolves with the
+   * merged surface; rejects with GapwiseError('cancelled') when aborted, or with the first band's error.
+   */
+  async surface(
+    samples: Samples, model: CovarianceModel, grid: Grid, options: Omit<SurfaceOptions, 'rows'> = {}, job: SurfaceJobOptions = {},
+  ): Promise<SurfaceResult> {
+    const bands = splitBands(grid, this.size * this.bandsPerWorker);
+    const merged = emptySurface(grid, options, model.transform === 'log');
+    let total = 0;
+    if (grid.mask) { for (let k = 0; k < grid.mask.length; k++) total += grid.mask[k]; } else total = grid.nx * grid.ny;
+    const doneByBand = new Float64Array(bands.length);
+    let doneAll = 0;
+    const report = () => job.onProgress?.({ done: doneAll, total, fraction: total > 0 ? doneAll / total : 1 });
+    const run = {
+      name: 'surface', parts: 'bands', signal: job.signal,
+      onProgress: (b: number, p: Progress) => {
+        doneAll += p.done - doneByBand[b];
+        doneByBand[b] = p.done;
+        report();
+      },
+      onResult: (b: number, band: SurfaceResult) => {
+        const [r0, r1] = bands[b];
+        const placed: SurfaceResult = { ...band, rows: [r0, r1] };
+        mergeBand(merged, placed);
+        doneAll += band.cells - doneByBand[b];
+        doneByBand[b] = band.cells;
+        report();
+        job.onBand?.(placed, merged);
+      },
+    };
+    if (!job.signal?.aborted) report();
+    if (job.support === 'block') {
+      const blockOptions = { threshold: options.threshold, precision: options.precision, points: job.blockPoints };
+      await this.run(bands.map(([r0, r1]) => ({
+        type: 'blockSurfaceRows' as const, payload: {
+          samples, model, grid: bandGrid(grid, r0, r1),
+          // A covariate model's block points (k² rows per cell): the band's rows, as for points.
+          options: { ...blockOptions, ...(options.covariates ? { covariates: bandOptions(options, grid, r0, r1).covariates } : {}) },
+        },
+      })), run);
+    } else {
+      await this.run(bands.map(([r0, r1]) => ({
+        type: 'surfaceRows' as const, payload: { samples, model, grid: bandGrid(grid, r0, r1), options: bandOptions(options, grid, r0, r1), local: job.local },
+      })), run);
+    }
+    return merged;
   }
 
   /** Cancels everything running on every worker. */
@@ -258,8 +320,8 @@ export class EnginePool {
     for (const c of this.clients) c.cancelAll();
   }
 
-  /** Terminates every worker. */
-  dispose(): void {
-    for (const c of this.clients) c.dispose();
+  /** Terminates every worker; resolves when they have stopped (at once where the host does not say). */
+  async dispose(): Promise<void> {
+    await Promise.all(this.clients.map((c) => c.dispose()));
   }
 }

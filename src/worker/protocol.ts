@@ -29,6 +29,7 @@ export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 
 /** A block surface band: every cell is a block average (SurfaceResult shape, plus the block facts). */
 export type BlockSurfaceResult = SurfaceResult & { support: 'block'; points: number; blockVariance: number };
 import type { DesignRequestPayload } from './design-handler.ts';
+import type { LikelihoodPartPayload } from './likelihood-part.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/shared/errors.ts';
 
 /** The richer fit of the Structure step: a fitted anisotropy, or two structures (short and long range). */
@@ -73,6 +74,10 @@ export interface RequestPayloads {
   design: DesignRequestPayload;
   /** The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its cells. */
   localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance };
+  /** Answers once the worker runs: starts workers ahead of work that blocks the caller (the likelihood passes). */
+  ready: Record<string, never>;
+  /** This worker's part of every nearest-neighbour likelihood pass, over shared memory until told to leave (./likelihood-part.ts). */
+  likelihoodPart: LikelihoodPartPayload;
 }
 
 /** What each request type answers. */
@@ -90,12 +95,15 @@ export interface ResultPayloads {
   readSamples: IntakeResult;
   design: DesignResult;
   localAccuracy: LocalAccuracy;
+  ready: true;
+  likelihoodPart: { passes: number };
 }
 
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
   'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design', 'localAccuracy',
+  'ready', 'likelihoodPart',
 ];
 
 /** A request; `id` is unique per client. */

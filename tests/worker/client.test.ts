@@ -75,8 +75,8 @@ describe('EngineClient', () => {
     const client = new EngineClient(factory);
     const p = client.request('variogram', { samples, options: { lagCount: 4 } });
     // A stale answer (an id long settled or never sent) and junk must change nothing.
-    made[0].onmessage?.({ data: { id: 999, type: 'result', request: 'fit', result: {} } } as MessageEvent);
-    made[0].onmessage?.({ data: { nonsense: true } } as MessageEvent);
+    made[0].onmessage?.({ id: 999, type: 'result', request: 'fit', result: {} });
+    made[0].onmessage?.({ nonsense: true });
     const v = await p;
     expect(v.lags.length).toBeGreaterThan(0);
     expect(client.waiting).toBe(0);

@@ -1,12 +1,12 @@
-// A stand-in for a Web Worker in Node: messages are structured-cloned both ways (transfer lists
+// A stand-in for a worker transport in Node: messages are structured-cloned both ways (transfer lists
 // honoured, so transferred buffers are detached on the sending side), handled by the real engine
 // handler on a later tick, and nothing is delivered after terminate().
 import { createEngineHandler, ENGINE_OPERATIONS, type EngineOperations } from '../../src/worker/handler.ts';
-import type { WorkerLike } from '../../src/worker/client.ts';
+import type { Transport } from '../../src/worker/transport.ts';
 
-export class FakeWorker implements WorkerLike {
-  onmessage: ((event: MessageEvent) => void) | null = null;
-  onerror: ((event: ErrorEvent) => void) | null = null;
+export class FakeWorker implements Transport {
+  onmessage: ((data: unknown) => void) | null = null;
+  onerror: ((reason: string) => void) | null = null;
   terminated = false;
   readonly received: unknown[] = [];
   private readonly handle;
@@ -15,7 +15,7 @@ export class FakeWorker implements WorkerLike {
     this.handle = createEngineHandler(ops);
   }
 
-  postMessage(message: unknown): void {
+  post(message: unknown): void {
     const copy = structuredClone(message);
     this.received.push(copy);
     setTimeout(() => {
@@ -23,7 +23,7 @@ export class FakeWorker implements WorkerLike {
       this.handle(copy, (response, transfer) => {
         const out = structuredClone(response, { transfer });
         setTimeout(() => {
-          if (!this.terminated) this.onmessage?.({ data: out } as MessageEvent);
+          if (!this.terminated) this.onmessage?.(out);
         }, 0);
       });
     }, this.delay);
@@ -35,7 +35,7 @@ export class FakeWorker implements WorkerLike {
 
   /** Simulates the worker dying. */
   crash(message: string): void {
-    this.onerror?.({ message, preventDefault() {} } as ErrorEvent);
+    this.onerror?.(message);
   }
 }
 

@@ -171,3 +171,36 @@ describe('EnginePool block support with covariates', () => {
     expect(Array.from(result.sd)).toEqual(Array.from(ref.sd));
   });
 });
+
+describe('EnginePool.run', () => {
+  it('EnginePool.run feeds a queue to idle workers, gives each worker one task when there are as many, and reports every result', async () => {
+    const { factory, made } = fakeFactory(undefined, 1);
+    const pool = new EnginePool({ size: 3, factory });
+    const results: number[] = [];
+    await pool.run(Array.from({ length: 3 }, () => ({ type: 'ready' as const, payload: {} })), { onResult: (i, r) => { expect(r).toBe(true); results.push(i); } });
+    expect(results.sort()).toEqual([0, 1, 2]);
+    expect(made.map((w) => w.received.length)).toEqual([1, 1, 1]);
+    // Seven tasks on two workers: every task once, each worker taking the next when it is free.
+    const two = fakeFactory(undefined, 1);
+    const queue = new EnginePool({ size: 2, factory: two.factory });
+    const seen = new Set<number>();
+    await queue.run(Array.from({ length: 7 }, () => ({ type: 'variogram' as const, payload: { samples } })), { onResult: (i, v) => { expect(v.n).toBe(30); seen.add(i); } });
+    expect(seen.size).toBe(7);
+    expect(two.made.reduce((s, w) => s + w.received.length, 0)).toBe(7);
+    await queue.dispose();
+    expect(two.made.every((w) => w.terminated)).toBe(true);
+  });
+
+  it('EnginePool.run rejects with a GapwiseError given as the abort reason, and with cancelled before it starts', async () => {
+    const { factory, made } = fakeFactory(undefined, 2);
+    const pool = new EnginePool({ size: 2, factory });
+    const ctl = new AbortController();
+    const tasks = Array.from({ length: 6 }, () => ({ type: 'variogram' as const, payload: { samples } }));
+    const stopped = pool.run(tasks, { signal: ctl.signal, onResult: () => ctl.abort(new GapwiseError('cancelled', 'Stopped after one.')) });
+    await expect(stopped).rejects.toMatchObject({ code: 'cancelled', message: 'Stopped after one.' });
+    expect(made.filter((w) => w.terminated).length).toBe(1); // the other worker was busy
+    await expect(pool.run(tasks, { signal: ctl.signal })).rejects.toMatchObject({ message: 'Stopped after one.' });
+    await expect(pool.run(tasks, { signal: AbortSignal.abort(), name: 'job' })).rejects.toMatchObject({ code: 'cancelled', message: 'The job was cancelled before it started.' });
+    await expect(pool.run([])).resolves.toBeUndefined();
+  });
+});
