@@ -20,6 +20,9 @@ export interface SavedRaster {
   bytes: Uint8Array;
 }
 
+/** A raster file larger than this is not kept in the browser (the Surface step says so). */
+export const MAX_SAVED_RASTER_BYTES = 100 * 1024 * 1024;
+
 /** Rasters kept at most (one per covariate; a model rarely has more than a few). */
 export const MAX_SAVED_RASTERS = 20;
 
@@ -30,7 +33,7 @@ export function parseRasters(v: unknown): SavedRaster[] {
   for (const r of v.slice(0, MAX_SAVED_RASTERS)) {
     if (typeof r !== 'object' || r === null) continue;
     const { name, fileName, bytes } = r as Record<string, unknown>;
-    if (typeof name !== 'string' || name === '' || typeof fileName !== 'string' || !(bytes instanceof Uint8Array) || bytes.length === 0) continue;
+    if (typeof name !== 'string' || name === '' || typeof fileName !== 'string' || !(bytes instanceof Uint8Array) || bytes.length === 0 || bytes.length > MAX_SAVED_RASTER_BYTES) continue;
     if (out.some((o) => o.name === name)) continue;
     out.push({ name, fileName, bytes });
   }

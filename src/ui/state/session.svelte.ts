@@ -14,13 +14,14 @@ import { untrack } from 'svelte';
 import {
   analyteChoicesOf, emptySnapshot, MAX_ANALYTES, newReadId, type AnalyteChoices, type SampleChoices, type SessionSnapshot, type SourceFile, type StepId,
 } from './snapshot.ts';
-import { createAutosave, type Autosave, type SavedRaster } from './autosave.ts';
+import { createAutosave, MAX_SAVED_RASTER_BYTES, type Autosave, type SavedRaster } from './autosave.ts';
 import { RESULTS_VERSION, type SavedResults } from './saved-results.ts';
 import { LatestRun } from './latest.ts';
 import { nextTask } from './next-task.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/samples.ts';
+import type { DesignResult } from '../../core/design.ts';
 import { parseModel, type CovarianceModel } from '../../core/model.ts';
 import type { LeaveOneOutResult } from '../../core/cross-validation.ts';
 import {
@@ -84,6 +85,21 @@ export interface SurfaceView {
   fromSimulation?: number;
   /** Wall-clock time the computation took, ms (when known). */
   ms?: number;
+}
+
+/** One analyte's work as the report and the project file take it (see Session.analyteWork). */
+export interface AnalyteWork {
+  name: string;
+  /** True for the analyte in use. */
+  current: boolean;
+  /** The session's snapshot with this analyte's choices. */
+  snapshot: SessionSnapshot;
+  candidates: CandidateRow[];
+  surface: SurfaceView | null;
+  accuracy: LocalAccuracy | null;
+  cv: LeaveOneOutResult | null;
+  simulation: SimulationView | null;
+  suggestions: { result: DesignResult; options: Record<string, unknown> | null } | null;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -517,7 +533,8 @@ export class Session {
       const work = this.intake?.report.crs.work;
       if (work) createTransform(raster.crs, work);
       this.covariateRasters = [...this.covariateRasters.filter((r) => r.name !== name), raster];
-      this.rasterFiles = [...this.rasterFiles.filter((r) => r.name !== name), { name, fileName, bytes: bytes.slice() }];
+      const kept = bytes.length <= MAX_SAVED_RASTER_BYTES ? [{ name, fileName, bytes: bytes.slice() }] : [];
+      this.rasterFiles = [...this.rasterFiles.filter((r) => r.name !== name), ...kept];
       this.rasterError = null;
       return null;
     } catch (e) {
@@ -1168,7 +1185,7 @@ export class Session {
       samples.value = several[0];
       got = await this.readWith(file, samples);
       if (got.stale) return null;
-      valueNote = `Several columns hold numbers (${several.join(', ')}): ${several[0]}, the first, is mapped. Choose another under Value column; the others can serve as covariates.`;
+      valueNote = `Several columns hold numbers (${several.join(', ')}): ${several[0]}, the first, is mapped. Choose another under Value column, tick others under Analytes to map them too, or use them as covariates.`;
     }
     if (!got.intake) {
       this.rejectedSource = { fileName: file.fileName, error: got.error! };
@@ -1364,6 +1381,47 @@ export class Session {
       structure: { ...c.structure, chosen: '', model: null, lagWidth: 0, maxLag: 0 },
       surface: { ...c.surface, threshold: null, sdLimit: null, wanted: false, running: false },
     };
+  }
+
+  /**
+   * Each chosen analyte's work for the report and the project file, in the order chosen: the one in
+   * use as on screen, the others as parked. A surface comes only finished and current (for a parked
+   * analyte: one from all samples; one from local neighbourhoods is left out, as its measured error
+   * is not kept), realisations only when drawn on that surface, cross-validation only for the model
+   * in use.
+   */
+  analyteWork(): AnalyteWork[] {
+    const snap = $state.snapshot(this.s) as SessionSnapshot;
+    const names = this.analyteNames;
+    const current = this.currentAnalyte;
+    const out: AnalyteWork[] = [];
+    for (const name of names) {
+      if (name === current) {
+        const surface = this.exportSurface;
+        const design = suggestions.current;
+        out.push({
+          name, current: true, snapshot: snap, candidates: this.candidates,
+          surface: surface?.done && !this.surfaceStale ? surface : null,
+          accuracy: surface && this.surfaceAccuracy?.key === surface.key ? this.surfaceAccuracy.accuracy : null,
+          cv: this.cv && this.cvFor === this.cvKey ? this.cv : null,
+          simulation: this.simulation && !this.simulationStale ? this.simulation : null,
+          suggestions: design ? { result: design, options: suggestions.options } : null,
+        });
+        continue;
+      }
+      const c = snap.analytes?.parked[name];
+      if (!c) continue;
+      const snapshot: SessionSnapshot = { ...snap, readId: c.readId, samples: c.samples, structure: c.structure, surface: c.surface, simulation: c.simulation, next: c.next };
+      const work = c.readId && this.parkedWork[name]?.readId === c.readId ? this.parkedWork[name] : null;
+      const surface = work?.surface && work.surface.local === null ? work.surface : null;
+      out.push({
+        name, current: false, snapshot, candidates: work?.fit?.rows ?? [], surface, accuracy: null,
+        cv: work?.cv && work.cv.key === JSON.stringify([c.readId, modelKey(c.structure.model)]) ? work.cv.result : null,
+        simulation: work?.simulation && surface && work.simulation.base === surface.key ? work.simulation : null,
+        suggestions: work?.suggestions ?? null,
+      });
+    }
+    return out;
   }
 
   /** True while switching to an analyte whose samples are being read. */
