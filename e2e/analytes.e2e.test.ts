@@ -63,6 +63,8 @@ describe('several analytes in the app', () => {
     await page.locator(`[data-testid="analyte-${ZN}"]`).check();
     await page.waitForSelector(`[data-testid=analyte-switch][data-current="${PB}"]`);
     expect(await page.locator('[data-testid=analyte-button]').allInnerTexts()).toEqual([PB, ZN]);
+    await page.locator('[data-testid=analyte-picker]').scrollIntoViewIfNeeded();
+    await shot(page, 'analytes-samples');
 
     await fitAndMap(page, 400);
     const pb = await digest(page);
@@ -117,6 +119,7 @@ describe('several analytes in the app', () => {
     // The report: one section per analyte, each with its own maps and action level.
     await openStep(page, 'report');
     expect(await page.locator('[data-testid=report-analytes-note]').innerText()).toContain(ZN);
+    await shot(page, 'analytes-report');
     const [d] = await Promise.all([page.waitForEvent('download') as Promise<Download>, page.click('[data-export=report]')]);
     const report = readFileSync((await d.path())!, 'utf8');
     const sections = [...report.matchAll(/<section class="analyte page" id="analyte-(\d)" data-analyte="([^"]+)">/g)].map((m) => m[2]);
