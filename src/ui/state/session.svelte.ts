@@ -1006,6 +1006,8 @@ export class Session {
     // Marks on the page's clock (performance.mark) say where a reload spends its time; the browser
     // test prints them.
     mark('restore-start');
+    // The raster files are asked for at once too (one more read that overlaps the others).
+    const rasters = this.autosave.loadRasters();
     const saved = await this.autosave.load();
     mark('snapshot-read');
     let results: SavedResults | null = null;
@@ -1033,7 +1035,7 @@ export class Session {
       }
     }
     this.parkedWork = results?.parked ?? {};
-    if (saved && this.intake) await this.restoreRasters();
+    if (saved && this.intake) await this.restoreRasters(await rasters);
     this.ready = true;
     if (saved && this.intake) {
       const back = results ? this.showResults(results) : { fit: false, surface: false };
@@ -1051,8 +1053,7 @@ export class Session {
    * Reads the saved covariate raster files again (so each is checked as a new one would be); a file
    * that no longer reads is dropped and named in `rasterError`.
    */
-  private async restoreRasters(): Promise<void> {
-    const files = await this.autosave.loadRasters();
+  private async restoreRasters(files: SavedRaster[]): Promise<void> {
     if (files.length === 0) return;
     this.rasterFiles = files;
     const failed: string[] = [];
