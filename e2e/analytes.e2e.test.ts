@@ -2,7 +2,7 @@
  * Several analytes in the browser: a samples file with lead and an invented zinc column, both chosen;
  * a model fitted and a surface drawn for each with its own action level; switching back shows the
  * other's work again with no engine request; a reload brings both back; the report has one section per
- * analyte and the project file holds both.
+ * analyte and the project file holds both, which opened in a fresh page brings both back.
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
@@ -141,6 +141,21 @@ describe('several analytes in the app', () => {
     expect(project.threshold).toBe(400);
     expect(project.analytes.map((a) => [a.value, a.threshold])).toEqual([[ZN, 800]]);
     expect(project.analytes[0].model).not.toBeNull();
+
+    // The project opened in a fresh page: both analytes come back, each with its model and action level
+    // (the other analyte's samples are read when it is switched to).
+    const fresh = await openPage(run.h);
+    await openStep(fresh.page, 'report');
+    await fresh.page.locator('.report-panel input[type=file]').setInputFiles((await pd.path())!);
+    await fresh.page.waitForSelector(`[data-testid=analyte-switch][data-current="${PB}"]`, { timeout: WAIT });
+    expect(((await digest(fresh.page)).choices as { threshold: number }).threshold).toBe(400);
+    await switchTo(fresh.page, ZN);
+    const opened = await digest(fresh.page);
+    expect((opened.choices as { threshold: number }).threshold).toBe(800);
+    expect(opened.model).toEqual(zn.model);
+    expect((opened.samples as { value: number }).value).toBe((zn.samples as { value: number }).value);
+    expectClean(fresh);
+    await fresh.context.close();
     expectClean(w);
     await w.context.close();
   }, LONG);
