@@ -2,7 +2,7 @@
  * Covariates of the mean in the browser: the demo's covariate file read, its distance column chosen
  * (scatter drawn), the residual variogram labelled, the candidates fitted with the covariate trend
  * (coefficients shown), the Surface step asking for the raster, the raster loaded and shown as its
- * own layer, and the surface drawn with the covariate on the grid.
+ * own layer, the surface drawn with the covariate on the grid, and the raster still there after a reload.
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
@@ -12,7 +12,7 @@ import { readSamples } from '../src/io/intake.ts';
 import { attachTrendCoefficients } from '../src/core/fitting/covariate-fit.ts';
 import { withChosenCovariates } from '../src/ui/state/covariates.ts';
 import type { CovarianceModel } from '../src/core/covariance/model.ts';
-import { expectClean, openStep, WAIT, LONG, CAUTION, ROOT, useHarness, openPage, shot, pixelAt } from './harness.ts';
+import { expectClean, openStep, WAIT, LONG, CAUTION, ROOT, useHarness, openPage, shot, pixelAt, waitForSave } from './harness.ts';
 
 const run = useHarness('Gapwise covariate figures');
 
@@ -85,8 +85,11 @@ describe('covariates of the mean in the app', () => {
     // file's ln values and distances (computed here in Node from the file itself).
     await openStep(page, 'report');
     const [pd] = await Promise.all([page.waitForEvent('download') as Promise<Download>, page.click('[data-export=project]')]);
-    const project = JSON.parse(readFileSync((await pd.path())!, 'utf8')) as { model: CovarianceModel };
+    const project = JSON.parse(readFileSync((await pd.path())!, 'utf8')) as { model: CovarianceModel; covariateRasters: unknown };
     expect(project.model.trend).toEqual({ covariates: ['workshop_dist_m'] });
+    // The project names the raster it does not hold, and the page says it was saved without it.
+    expect(project.covariateRasters).toEqual([{ covariate: 'workshop_dist_m', fileName: 'workshop-distance.tif' }]);
+    expect(await page.locator('.report-panel .done').innerText()).toMatch(/without the covariate raster file workshop-distance\.tif \(workshop_dist_m\)/);
     const intake = readSamples(csv.toString('utf8'), { fileName: 'lead-topsoil-covariates.csv', value: 'Pb (mg/kg)' });
     const chosen = withChosenCovariates(intake, ['workshop_dist_m'])!;
     const lnSamples = { ...chosen.samples, value: Float64Array.from(chosen.samples.value, Math.log) };
@@ -110,7 +113,8 @@ describe('covariates of the mean in the app', () => {
     expect(report).toContain('data-figure="variance explained"');
     expect(report).toContain(CAUTION);
 
-    // After a reload the choice is kept; the raster (not saved) is asked for again.
+    // After a reload the choice is kept and the raster is back (read again from the browser's store).
+    await waitForSave(page);
     await page.reload();
     await page.waitForSelector('.app[data-ready="yes"]');
     await openStep(page, 'samples');
@@ -119,7 +123,11 @@ describe('covariates of the mean in the app', () => {
     await page.waitForSelector('[data-testid=residual-variogram-label]');
     await page.waitForSelector('[data-testid=coefficient-table]');
     await openStep(page, 'surface');
-    expect(await page.locator('[data-testid=raster-needed]').innerText()).toMatch(/raster of workshop_dist_m/);
+    await page.waitForSelector('[data-testid=raster-loaded-workshop_dist_m]');
+    await page.waitForSelector('[data-testid=raster-kept-workshop_dist_m]');
+    expect(await page.locator('[data-testid=raster-needed]').count()).toBe(0);
+    await page.locator('[data-testid=raster-layer-workshop_dist_m]').check();
+    await page.waitForSelector('[data-testid=covariate-layer]', { state: 'attached', timeout: WAIT });
     expectClean(w);
     await w.context.close();
   }, LONG);

@@ -93,3 +93,25 @@ export function localBoundaryGeoJson(): string {
     geometry: { type: 'Polygon', coordinates: [[[-1, -1], [203, -1], [203, 123], [100, 131], [-1, 123], [-1, -1]]] },
   });
 }
+
+/**
+ * The invented demo samples with a second analyte beside lead: an INVENTED zinc column, 1.8 × lead +
+ * 40 plus seeded noise (so it follows the same pattern with its own spread), for the several-analyte
+ * browser test. Nothing in it describes a real site.
+ */
+export function leadZincCsv(demoText: string): string {
+  const rnd = createRandom(1313);
+  const lines = demoText.replace(/\r\n/g, '\n').trimEnd().split('\n');
+  const head = lines[0].split(',');
+  const lead = head.indexOf('Pb (mg/kg)');
+  if (lead < 0) throw new Error('The demo samples have no "Pb (mg/kg)" column.');
+  const out = [[...head.slice(0, lead + 1), 'Zn (mg/kg)', ...head.slice(lead + 1)].join(',')];
+  for (const line of lines.slice(1)) {
+    const cells = line.split(',');
+    const pb = Number(cells[lead]);
+    // Lead below its detection limit: zinc below its own.
+    const zn = cells[lead].startsWith('<') ? '<20' : (Math.max(21, 1.8 * pb + 40 + 25 * rnd.normal())).toFixed(1);
+    out.push([...cells.slice(0, lead + 1), zn, ...cells.slice(lead + 1)].join(','));
+  }
+  return out.join('\n') + '\n';
+}

@@ -161,6 +161,56 @@ export interface Project {
   suggestOptions?: Record<string, unknown>;
   /** Conditional realisations: settings and the area above the action level they gave. */
   simulation?: ProjectSimulation;
+  /**
+   * Further analytes mapped from the same samples file, each with its own value column and work;
+   * the top level is the analyte `samples.intake.value`. Absent with one analyte.
+   */
+  analytes?: ProjectAnalyte[];
+  /** Covariate rasters the surfaces were computed with, named (the files themselves are not held). */
+  covariateRasters?: ProjectRasterName[];
+}
+
+/** Another analyte of the project: what differs from the top level's. */
+export interface ProjectAnalyte {
+  /** Its value column. */
+  value: string;
+  unit: string;
+  structure: ProjectStructure;
+  model: CovarianceModel | null;
+  threshold: number | null;
+  suggestions?: Suggestion[];
+  suggestOptions?: Record<string, unknown>;
+  simulation?: ProjectSimulation;
+}
+
+/** A covariate raster by name: the covariate it serves and the file it was read from. */
+export interface ProjectRasterName {
+  covariate: string;
+  fileName: string;
+}
+
+/**
+ * The project of one analyte: the top level for its own value column, else the top level with that
+ * analyte's value column and work in place. Null when the project has no such analyte.
+ */
+export function analyteProject(project: Project, value: string): Project | null {
+  const own = project.samples.intake.value;
+  const { analytes, ...base } = project;
+  if (own === value) return base;
+  const a = analytes?.find((x) => x.value === value);
+  if (!a) return null;
+  const p: Project = {
+    ...base,
+    samples: { ...base.samples, intake: { ...base.samples.intake, value: a.value }, unit: a.unit },
+    structure: a.structure, model: a.model, threshold: a.threshold,
+  };
+  delete p.suggestions;
+  delete p.suggestOptions;
+  delete p.simulation;
+  if (a.suggestions) p.suggestions = a.suggestions;
+  if (a.suggestOptions) p.suggestOptions = a.suggestOptions;
+  if (a.simulation) p.simulation = a.simulation;
+  return p;
 }
 
 /** What a new project needs; everything else has a default. */
@@ -177,6 +227,8 @@ export interface ProjectParts {
   title?: string;
   software?: { name: string; version: string };
   saved?: string;
+  analytes?: ProjectAnalyte[];
+  covariateRasters?: ProjectRasterName[];
 }
 
 /** Default padding around the samples (5 % of the larger side), as in the app. */
@@ -215,6 +267,8 @@ export function createProject(parts: ProjectParts): Project {
   if (parts.suggestions) p.suggestions = parts.suggestions.map((x) => ({ ...x }));
   if (parts.suggestOptions) p.suggestOptions = { ...parts.suggestOptions };
   if (parts.simulation) p.simulation = copySimulation(parts.simulation);
+  if (parts.analytes?.length) p.analytes = JSON.parse(JSON.stringify(parts.analytes)) as ProjectAnalyte[];
+  if (parts.covariateRasters?.length) p.covariateRasters = parts.covariateRasters.map((r) => ({ covariate: r.covariate, fileName: r.fileName }));
   return p;
 }
 
@@ -465,7 +519,52 @@ function validateV2(input: unknown, file: string): Project {
   if (o.suggestOptions !== undefined) project.suggestOptions = c.obj(o.suggestOptions, 'suggestOptions');
   const simulation = readSimulation(c, o.simulation);
   if (simulation) project.simulation = simulation;
+  if (o.analytes !== undefined && o.analytes !== null) project.analytes = readAnalytes(c, o.analytes, o, project);
+  if (o.covariateRasters !== undefined && o.covariateRasters !== null) {
+    if (!Array.isArray(o.covariateRasters)) c.fail('covariateRasters', 'a list of {covariate, fileName}', o.covariateRasters);
+    project.covariateRasters = (o.covariateRasters as unknown[]).map((r, k) => {
+      const e = c.obj(r, `covariateRasters[${k}]`);
+      return { covariate: c.str(e.covariate, `covariateRasters[${k}].covariate`), fileName: c.str(e.fileName, `covariateRasters[${k}].fileName`) };
+    });
+  }
   return project;
+}
+
+/**
+ * The further analytes: each is checked as the whole project would be with its value column and
+ * work in place of the top level's (a problem names the entry and the analyte).
+ */
+function readAnalytes(c: Checker, v: unknown, top: Obj, project: Project): ProjectAnalyte[] {
+  if (!Array.isArray(v)) c.fail('analytes', 'a list of analytes', v);
+  const seen = new Set([project.samples.intake.value ?? '']);
+  return (v as unknown[]).map((entry, k) => {
+    const where = `analytes[${k}]`;
+    const a = c.obj(entry, where);
+    const value = c.str(a.value, `${where}.value`);
+    if (value === '' || seen.has(value)) c.fail(`${where}.value`, 'a value column not named before in the project', value);
+    seen.add(value);
+    const samples = c.obj(top.samples, 'samples');
+    const whole = {
+      ...top, analytes: undefined,
+      samples: { ...samples, intake: { ...c.obj(samples.intake ?? {}, 'samples.intake'), value }, unit: a.unit },
+      structure: a.structure, model: a.model, threshold: a.threshold,
+      suggestions: a.suggestions, suggestOptions: a.suggestOptions, simulation: a.simulation,
+    };
+    let checked: Project;
+    try {
+      checked = validateV2(whole, c.file);
+    } catch (e) {
+      if (e instanceof GapwiseError) throw new GapwiseError(e.code, `In ${where} (${value}): ${e.message}`, e.place);
+      throw e;
+    }
+    const out: ProjectAnalyte = {
+      value, unit: checked.samples.unit, structure: checked.structure, model: checked.model, threshold: checked.threshold,
+    };
+    if (checked.suggestions) out.suggestions = checked.suggestions;
+    if (checked.suggestOptions) out.suggestOptions = checked.suggestOptions;
+    if (checked.simulation) out.simulation = checked.simulation;
+    return out;
+  });
 }
 
 function readSpread(c: Checker, v: unknown, path: string, min: number): SpreadFigure {

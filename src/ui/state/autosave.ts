@@ -10,6 +10,35 @@ import { parseResults, type ResultsExpectation, type SavedResults } from './save
 
 export const AUTOSAVE_KEY = 'gapwise-session-v1';
 export const RESULTS_KEY = 'gapwise-results-v1';
+export const RASTERS_KEY = 'gapwise-rasters-v1';
+
+/** A covariate raster file as loaded in the Surface step: read again (and so checked again) on a reload. */
+export interface SavedRaster {
+  /** The covariate it serves. */
+  name: string;
+  fileName: string;
+  bytes: Uint8Array;
+}
+
+/** A raster file larger than this is not kept in the browser (the Surface step says so). */
+export const MAX_SAVED_RASTER_BYTES = 100 * 1024 * 1024;
+
+/** Rasters kept at most (one per covariate; a model rarely has more than a few). */
+export const MAX_SAVED_RASTERS = 20;
+
+/** The stored raster list, checked: entries with a name, a file name and bytes; others dropped. */
+export function parseRasters(v: unknown): SavedRaster[] {
+  if (!Array.isArray(v)) return [];
+  const out: SavedRaster[] = [];
+  for (const r of v.slice(0, MAX_SAVED_RASTERS)) {
+    if (typeof r !== 'object' || r === null) continue;
+    const { name, fileName, bytes } = r as Record<string, unknown>;
+    if (typeof name !== 'string' || name === '' || typeof fileName !== 'string' || !(bytes instanceof Uint8Array) || bytes.length === 0 || bytes.length > MAX_SAVED_RASTER_BYTES) continue;
+    if (out.some((o) => o.name === name)) continue;
+    out.push({ name, fileName, bytes });
+  }
+  return out;
+}
 
 export interface KeyValueStore {
   get(key: string): Promise<unknown>;
@@ -38,7 +67,11 @@ export interface Autosave {
   scheduleResults(results: SavedResults | null): void;
   /** The stored results when they belong to the reading `expect` names (checked part by part), else null. */
   loadResults(expect: ResultsExpectation): Promise<SavedResults | null>;
-  /** Drops any pending save and deletes the stored snapshot and results. */
+  /** Schedules a save of the covariate raster files (an empty list deletes them). */
+  scheduleRasters(rasters: SavedRaster[]): void;
+  /** The stored covariate raster files (checked entry by entry; see parseRasters), [] when none. */
+  loadRasters(): Promise<SavedRaster[]>;
+  /** Drops any pending save and deletes the stored snapshot, results and rasters. */
   clear(): Promise<void>;
   /** Number of completed writes (shown as "saved" in the page; read by tests). */
   readonly saves: number;
@@ -58,6 +91,7 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
   let pending: SessionSnapshot | null = null;
   // undefined: nothing to write; null: delete the stored results.
   let pendingResults: SavedResults | null | undefined;
+  let pendingRasters: SavedRaster[] | undefined;
   let timer: ReturnType<typeof setTimeout> | null = null;
   let saves = 0;
   let chain: Promise<void> = Promise.resolve();
@@ -69,16 +103,22 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
       clearTimeout(timer);
       timer = null;
     }
-    if (pending === null && pendingResults === undefined) return chain;
+    if (pending === null && pendingResults === undefined && pendingRasters === undefined) return chain;
     const text = pending === null ? null : serialiseSnapshot(pending);
     const results = pendingResults;
+    const rasters = pendingRasters;
     pending = null;
     pendingResults = undefined;
+    pendingRasters = undefined;
     chain = chain
       .then(async () => {
         if (text !== null) await store.set(AUTOSAVE_KEY, text);
         if (results === null) await store.del(RESULTS_KEY);
         else if (results !== undefined) await store.set(RESULTS_KEY, results);
+        if (rasters !== undefined) {
+          if (rasters.length === 0) await store.del(RASTERS_KEY);
+          else await store.set(RASTERS_KEY, rasters.map((r) => ({ name: r.name, fileName: r.fileName, bytes: r.bytes })));
+        }
       })
       .then(() => {
         saves++;
@@ -100,6 +140,18 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
     scheduleResults(results) {
       pendingResults = results;
       later();
+    },
+    scheduleRasters(rasters) {
+      pendingRasters = rasters;
+      later();
+    },
+    async loadRasters() {
+      try {
+        return parseRasters(await store.get(RASTERS_KEY));
+      } catch (e) {
+        options.onError?.(e);
+        return [];
+      }
     },
     flush: write,
     async loadResults(expect) {
@@ -128,11 +180,13 @@ export function createAutosave(options: AutosaveOptions = {}): Autosave {
       resultsAsked = null;
       pending = null;
       pendingResults = undefined;
+      pendingRasters = undefined;
       if (timer !== null) clearTimeout(timer);
       timer = null;
       await chain;
       await store.del(AUTOSAVE_KEY);
       await store.del(RESULTS_KEY);
+      await store.del(RASTERS_KEY);
     },
     get saves() {
       return saves;

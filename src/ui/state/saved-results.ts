@@ -49,12 +49,19 @@ export interface SavedResults {
   simulation: SimulationView | null;
   simRate: number | null;
   suggestions: { result: DesignResult; options: Record<string, unknown> | null } | null;
+  /**
+   * Several analytes: the work of each analyte not in use now (its own reading, fit, surfaces,
+   * realisations, suggestions), by value column. Each is checked as a record of its own on load.
+   */
+  parked?: Record<string, SavedResults>;
 }
 
 /** What the stored record must match: the reading now in the saved session. */
 export interface ResultsExpectation {
   readId: string;
   fileName: string;
+  /** The readings of the analytes not in use now (value column → readId), from the saved session. */
+  parked?: Record<string, string>;
 }
 
 type Obj = Record<string, unknown>;
@@ -163,5 +170,21 @@ export function parseResults(input: unknown, expect: ResultsExpectation): SavedR
     simulation: validSimulation(input.simulation) ? input.simulation : null,
     simRate: rate(input.simRate),
     suggestions: validSuggestions(input.suggestions) ? input.suggestions : null,
+    ...parkedResults(input.parked, expect),
   };
+}
+
+/**
+ * The parked analytes' records that belong to the readings the saved session names for them (and
+ * whose samples hold that analyte as value); any other is dropped alone (that analyte is read again
+ * when it is switched to).
+ */
+function parkedResults(v: unknown, expect: ResultsExpectation): { parked?: Record<string, SavedResults> } {
+  if (!isObj(v) || !expect.parked) return {};
+  const out: Record<string, SavedResults> = {};
+  for (const [name, readId] of Object.entries(expect.parked)) {
+    const r = parseResults(v[name], { readId, fileName: expect.fileName });
+    if (r && r.intake.report.valueColumn === name) out[name] = r;
+  }
+  return Object.keys(out).length > 0 ? { parked: out } : {};
 }

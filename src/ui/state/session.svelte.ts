@@ -11,14 +11,17 @@ import { readPolygons, projectPolygons, type Polygon } from '../../io/boundary.t
 import { createTransform, LOCAL_CRS } from '../../io/crs.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
 import { untrack } from 'svelte';
-import { emptySnapshot, newReadId, type SampleChoices, type SessionSnapshot, type SourceFile, type StepId } from './snapshot.ts';
-import { createAutosave, type Autosave } from './autosave.ts';
+import {
+  analyteChoicesOf, emptySnapshot, MAX_ANALYTES, newReadId, type AnalyteChoices, type SampleChoices, type SessionSnapshot, type SourceFile, type StepId,
+} from './snapshot.ts';
+import { createAutosave, MAX_SAVED_RASTER_BYTES, type Autosave, type SavedRaster } from './autosave.ts';
 import { RESULTS_VERSION, type SavedResults } from './saved-results.ts';
 import { LatestRun } from './latest.ts';
 import { nextTask } from './next-task.ts';
 import { suggestions } from './suggestions.svelte.ts';
 import { provideTestHook } from './test-hook.ts';
 import type { Samples } from '../../core/shared/samples.ts';
+import type { DesignResult } from '../../core/design/design.ts';
 import { parseModel, type CovarianceModel } from '../../core/covariance/model.ts';
 import type { LeaveOneOutResult } from '../../core/validation/cross-validation.ts';
 import {
@@ -82,6 +85,21 @@ export interface SurfaceView {
   fromSimulation?: number;
   /** Wall-clock time the computation took, ms (when known). */
   ms?: number;
+}
+
+/** One analyte's work as the report and the project file take it (see Session.analyteWork). */
+export interface AnalyteWork {
+  name: string;
+  /** True for the analyte in use. */
+  current: boolean;
+  /** The session's snapshot with this analyte's choices. */
+  snapshot: SessionSnapshot;
+  candidates: CandidateRow[];
+  surface: SurfaceView | null;
+  accuracy: LocalAccuracy | null;
+  cv: LeaveOneOutResult | null;
+  simulation: SimulationView | null;
+  suggestions: { result: DesignResult; options: Record<string, unknown> | null } | null;
 }
 
 /** A value computed from the state, or the reason it could not be. */
@@ -485,8 +503,10 @@ export class Session {
   /** The measured error of the surface shown when it came from local neighbourhoods (its key, the figures). */
   surfaceAccuracy = $state.raw<{ key: string; accuracy: LocalAccuracy } | null>(null);
 
-  /** Covariate rasters loaded in the Surface step, one per covariate (not saved: load them again after a reload). */
+  /** Covariate rasters loaded in the Surface step, one per covariate (their files autosaved beside the session, read again on a reload). */
   covariateRasters = $state.raw<CovariateRaster[]>([]);
+  /** The files of `covariateRasters` as loaded (what the autosave keeps). */
+  rasterFiles = $state.raw<SavedRaster[]>([]);
   /** A raster that could not be used, and why; the rasters in use are unchanged. */
   rasterError = $state.raw<{ fileName: string; error: ShownError } | null>(null);
   /** The covariate raster shown as a map layer of its own (by covariate name), or null. */
@@ -513,6 +533,8 @@ export class Session {
       const work = this.intake?.report.crs.work;
       if (work) createTransform(raster.crs, work);
       this.covariateRasters = [...this.covariateRasters.filter((r) => r.name !== name), raster];
+      const kept = bytes.length <= MAX_SAVED_RASTER_BYTES ? [{ name, fileName, bytes: bytes.slice() }] : [];
+      this.rasterFiles = [...this.rasterFiles.filter((r) => r.name !== name), ...kept];
       this.rasterError = null;
       return null;
     } catch (e) {
@@ -524,6 +546,7 @@ export class Session {
 
   removeCovariateRaster(name: string): void {
     this.covariateRasters = this.covariateRasters.filter((r) => r.name !== name);
+    this.rasterFiles = this.rasterFiles.filter((r) => r.name !== name);
     if (this.covariateLayer === name) this.covariateLayer = null;
   }
   /**
@@ -922,6 +945,11 @@ export class Session {
       // null deletes the stored results (samples that no longer read); nothing to do with no file at all.
       if (this.ready && (record || this.s.source)) untrack(() => this.autosave.scheduleResults(record));
     });
+    // The covariate raster files follow, beside them.
+    $effect(() => {
+      const files = this.rasterFiles;
+      if (this.ready) untrack(() => this.autosave.scheduleRasters(files));
+    });
     // Variograms of many samples follow their settings in a worker.
     $effect(() => {
       void this.variogramRequest;
@@ -940,6 +968,13 @@ export class Session {
    * stored ones). A surface still arriving is left out: the last finished one is what a reload shows.
    */
   private resultsRecord(): SavedResults | null {
+    const own = this.ownResults();
+    const parked = this.parkedWork;
+    return own && Object.keys(parked).length > 0 ? { ...own, parked } : own;
+  }
+
+  /** The results of the analyte in use (the whole record with one analyte). */
+  private ownResults(): SavedResults | null {
     const intake = this.intake;
     const readId = this.s.readId;
     if (!intake || !readId || !this.s.source) return null;
@@ -973,12 +1008,17 @@ export class Session {
     // Marks on the page's clock (performance.mark) say where a reload spends its time; the browser
     // test prints them.
     mark('restore-start');
+    // The raster files are asked for at once too (one more read that overlaps the others).
+    const rasters = this.autosave.loadRasters();
     const saved = await this.autosave.load();
     mark('snapshot-read');
     let results: SavedResults | null = null;
     if (saved?.source) {
       if (!saved.readId) saved.readId = newReadId();
-      results = await this.autosave.loadResults({ readId: saved.readId, fileName: saved.source.fileName });
+      const parked = saved.analytes
+        ? Object.fromEntries(Object.entries(saved.analytes.parked).filter(([, c]) => c.readId).map(([name, c]) => [name, c.readId]))
+        : undefined;
+      results = await this.autosave.loadResults({ readId: saved.readId, fileName: saved.source.fileName, parked });
       mark('results-read');
     }
     if (saved) {
@@ -996,6 +1036,8 @@ export class Session {
         else this.failIntake(got.error);
       }
     }
+    this.parkedWork = results?.parked ?? {};
+    if (saved && this.intake) await this.restoreRasters(await rasters);
     this.ready = true;
     if (saved && this.intake) {
       const back = results ? this.showResults(results) : { fit: false, surface: false };
@@ -1007,6 +1049,27 @@ export class Session {
       }
     }
     return saved !== null;
+  }
+
+  /**
+   * Reads the saved covariate raster files again (so each is checked as a new one would be); a file
+   * that no longer reads is dropped and named in `rasterError`.
+   */
+  private async restoreRasters(files: SavedRaster[]): Promise<void> {
+    if (files.length === 0) return;
+    this.rasterFiles = files;
+    const failed: string[] = [];
+    for (const f of files) {
+      const error = await this.loadCovariateRaster(f.name, f.fileName, f.bytes);
+      if (error) failed.push(`${f.fileName} (${f.name}): ${error.message}`);
+    }
+    if (failed.length > 0) {
+      this.rasterFiles = this.rasterFiles.filter((f) => this.covariateRasters.some((r) => r.name === f.name));
+      this.rasterError = {
+        fileName: failed.length === 1 ? files.find((f) => !this.covariateRasters.some((r) => r.name === f.name))!.fileName : `${failed.length} saved rasters`,
+        error: { message: `The saved covariate raster could not be read again, so it was dropped: ${failed.join('; ')}. Expected a raster that reads as when it was loaded; load it again.` },
+      };
+    }
   }
 
   /** Puts stored results on screen (the intake is already taken); says which parts came back. */
@@ -1063,6 +1126,11 @@ export class Session {
     this.rejectedChoice = null;
     this.selected = null;
     this.dropResults();
+    this.parkedWork = {};
+    this.covariateRasters = [];
+    this.rasterFiles = [];
+    this.covariateLayer = null;
+    this.rasterError = null;
     if (suggestions.session === this) suggestions.set(null);
     this.savedAt = null;
   }
@@ -1120,7 +1188,7 @@ export class Session {
       samples.value = several[0];
       got = await this.readWith(file, samples);
       if (got.stale) return null;
-      valueNote = `Several columns hold numbers (${several.join(', ')}): ${several[0]}, the first, is mapped. Choose another under Value column; the others can serve as covariates.`;
+      valueNote = `Several columns hold numbers (${several.join(', ')}): ${several[0]}, the first, is mapped. Choose another under Value column, tick others under Analytes to map them too, or use them as covariates.`;
     }
     if (!got.intake) {
       this.rejectedSource = { fileName: file.fileName, error: got.error! };
@@ -1128,6 +1196,8 @@ export class Session {
     }
     this.s.source = file;
     this.s.samples = samples;
+    delete this.s.analytes;
+    this.parkedWork = {};
     this.s.structure.model = null;
     this.s.structure.chosen = '';
     this.s.structure.lagWidth = 0;
@@ -1181,6 +1251,8 @@ export class Session {
       return got.error;
     }
     this.s = next;
+    // The other analytes of an opened project are read when they are switched to.
+    this.parkedWork = {};
     this.rejectedSource = null;
     this.takeNewReading(got.intake);
     if (this.s.structure.model) {
@@ -1200,6 +1272,12 @@ export class Session {
     if (choice.value !== undefined) this.valueNote = null;
     const src = this.s.source;
     if (!src) return;
+    // Another chosen analyte as value: switch to it, its work kept.
+    if (choice.value !== undefined && this.s.analytes?.chosen.includes(choice.value)) {
+      await this.switchAnalyte(choice.value);
+      return;
+    }
+    const before = this.s.samples.value ?? this.intake?.report.valueColumn;
     const next = { ...($state.snapshot(this.s.samples) as SampleChoices) };
     if ('value' in choice) {
       next.value = choice.value;
@@ -1226,7 +1304,203 @@ export class Session {
       this.s.structure.chosen = '';
       this.s.surface.threshold = null;
     }
+    this.rereadAnalytes(before, choice);
     this.takeNewReading(got.intake);
+  }
+
+  // ---------------------------------------------------------------- several analytes
+
+  /**
+   * The work of each chosen analyte not in use now (its reading, fit, surfaces, realisations,
+   * suggestions), by value column: switching back shows it again without recomputing. Autosaved
+   * with the results.
+   */
+  parkedWork = $state.raw<Record<string, SavedResults>>({});
+
+  /** The value columns that can be chosen as analytes: the file's numeric columns but the coordinates. */
+  get analyteOptions(): string[] {
+    const r = this.intake?.report;
+    if (!r) return [];
+    const options = r.numericColumns.filter((c) => c !== r.xColumn && c !== r.yColumn);
+    return options.includes(r.valueColumn) ? options : [r.valueColumn, ...options];
+  }
+
+  /** The analytes chosen, in use first among them as listed; one (the value column) when none were chosen. */
+  get analyteNames(): string[] {
+    const set = this.s.analytes;
+    if (set) return set.chosen;
+    const v = this.s.samples.value ?? this.intake?.report.valueColumn;
+    return v ? [v] : [];
+  }
+
+  /** The analyte in use (the value column), or '' before a file is read. */
+  get currentAnalyte(): string {
+    return this.s.samples.value ?? this.intake?.report.valueColumn ?? '';
+  }
+
+  /** The action level of each chosen analyte (its own), for the switch. */
+  get analyteThresholds(): Record<string, number | null> {
+    const out: Record<string, number | null> = {};
+    const set = this.s.analytes;
+    for (const name of this.analyteNames) {
+      out[name] = name === this.currentAnalyte ? this.s.surface.threshold : set?.parked[name]?.surface.threshold ?? null;
+    }
+    return out;
+  }
+
+  /**
+   * Chooses the analytes (value columns) to map from this file; the one in use always stays. An
+   * analyte added starts with no model and no action level; one removed loses its work.
+   */
+  setAnalytes(names: readonly string[]): void {
+    const current = this.currentAnalyte;
+    if (!current || !this.s.source) return;
+    const options = this.analyteOptions;
+    const wanted = new Set([...names, current]);
+    const chosen = options.filter((c) => wanted.has(c)).slice(0, MAX_ANALYTES);
+    if (!chosen.includes(current)) chosen[chosen.length - 1] = current;
+    if (chosen.length < 2) {
+      delete this.s.analytes;
+      this.parkedWork = {};
+      return;
+    }
+    const before = this.s.analytes?.parked ?? {};
+    const parked: Record<string, AnalyteChoices> = {};
+    for (const name of chosen) if (name !== current) parked[name] = before[name] ?? this.freshAnalyte(name);
+    this.s.samples.value = current;
+    this.s.analytes = { chosen, parked };
+    this.parkedWork = Object.fromEntries(Object.entries(this.parkedWork).filter(([name]) => name in parked));
+  }
+
+  /** Choices for an analyte added now: the file's reading choices, everything else at its start. */
+  private freshAnalyte(name: string): AnalyteChoices {
+    const c = analyteChoicesOf($state.snapshot(this.s) as SessionSnapshot);
+    const { covariates: _dropped, ...samples } = c.samples;
+    void _dropped;
+    return {
+      ...c,
+      readId: '',
+      samples: { ...samples, value: name, unit: '', transform: 'none' },
+      structure: { ...c.structure, chosen: '', model: null, lagWidth: 0, maxLag: 0 },
+      surface: { ...c.surface, threshold: null, sdLimit: null, wanted: false, running: false },
+    };
+  }
+
+  /**
+   * Each chosen analyte's work for the report and the project file, in the order chosen: the one in
+   * use as on screen, the others as parked. A surface comes only finished and current (for a parked
+   * analyte: one from all samples; one from local neighbourhoods is left out, as its measured error
+   * is not kept), realisations only when drawn on that surface, cross-validation only for the model
+   * in use.
+   */
+  analyteWork(): AnalyteWork[] {
+    const snap = $state.snapshot(this.s) as SessionSnapshot;
+    const names = this.analyteNames;
+    const current = this.currentAnalyte;
+    const out: AnalyteWork[] = [];
+    for (const name of names) {
+      if (name === current) {
+        const surface = this.exportSurface;
+        const design = suggestions.current;
+        out.push({
+          name, current: true, snapshot: snap, candidates: this.candidates,
+          surface: surface?.done && !this.surfaceStale ? surface : null,
+          accuracy: surface && this.surfaceAccuracy?.key === surface.key ? this.surfaceAccuracy.accuracy : null,
+          cv: this.cv && this.cvFor === this.cvKey ? this.cv : null,
+          simulation: this.simulation && !this.simulationStale ? this.simulation : null,
+          suggestions: design ? { result: design, options: suggestions.options } : null,
+        });
+        continue;
+      }
+      const c = snap.analytes?.parked[name];
+      if (!c) continue;
+      const snapshot: SessionSnapshot = { ...snap, readId: c.readId, samples: c.samples, structure: c.structure, surface: c.surface, simulation: c.simulation, next: c.next };
+      const work = c.readId && this.parkedWork[name]?.readId === c.readId ? this.parkedWork[name] : null;
+      const surface = work?.surface && work.surface.local === null ? work.surface : null;
+      out.push({
+        name, current: false, snapshot, candidates: work?.fit?.rows ?? [], surface, accuracy: null,
+        cv: work?.cv && work.cv.key === JSON.stringify([c.readId, modelKey(c.structure.model)]) ? work.cv.result : null,
+        simulation: work?.simulation && surface && work.simulation.base === surface.key ? work.simulation : null,
+        suggestions: work?.suggestions ?? null,
+      });
+    }
+    return out;
+  }
+
+  /** True while switching to an analyte whose samples are being read. */
+  switching = $state<string | null>(null);
+
+  /**
+   * Puts another chosen analyte in use: the one in use is parked with its work; the other's choices
+   * and stored work come back as they were (nothing recomputed). An analyte not read yet (just
+   * added, or from an opened project) is read first; when its samples cannot be used nothing changes.
+   */
+  async switchAnalyte(name: string): Promise<ShownError | null> {
+    const current = this.currentAnalyte;
+    const set = this.s.analytes;
+    const src = this.s.source;
+    if (!set || !src || !current || name === current || !set.chosen.includes(name)) return null;
+    const target = set.parked[name] ?? this.freshAnalyte(name);
+    const work = this.parkedWork[name];
+    const stored = target.readId && work && work.readId === target.readId ? work : null;
+    let intake = stored?.intake ?? null;
+    if (!intake) {
+      this.switching = name;
+      const got = await this.readWith(src, target.samples);
+      if (this.switching === name) this.switching = null;
+      if (got.stale || this.currentAnalyte !== current || this.s.source !== src) return null;
+      if (!got.intake) {
+        this.rejectedChoice = { what: choiceText({ value: name }), error: got.error! };
+        return got.error;
+      }
+      intake = got.intake;
+    }
+    // Park the analyte in use with its work (taken before the samples change: suggestions belong to them).
+    const own = this.ownResults();
+    const parked = { ...set.parked, [current]: analyteChoicesOf($state.snapshot(this.s) as SessionSnapshot) };
+    delete parked[name];
+    const parkedWork = { ...this.parkedWork };
+    delete parkedWork[name];
+    if (own) parkedWork[current] = own;
+    else delete parkedWork[current];
+    this.parkedWork = parkedWork;
+    this.s.analytes = { chosen: [...set.chosen], parked };
+    this.s.readId = stored ? target.readId : newReadId();
+    this.s.samples = target.samples;
+    this.s.structure = target.structure;
+    this.s.surface = { ...target.surface, running: false };
+    this.s.simulation = target.simulation;
+    this.s.next = target.next;
+    this.valueNote = null;
+    this.rejectedChoice = null;
+    this.surfaceInterrupted = false;
+    this.dropResults();
+    this.takeIntake(intake);
+    const back = stored ? this.showResults(stored) : { fit: false, surface: false };
+    if (this.s.structure.model) {
+      if (this.s.surface.wanted && !back.surface) void this.computeSurface();
+      if (!back.fit) void this.fit();
+    }
+    return null;
+  }
+
+  /**
+   * After a reading choice changed: the analytes' list follows a new value column, and a changed CRS
+   * or non-detect rule applies to every analyte, whose samples are then read again on switching.
+   */
+  private rereadAnalytes(before: string | undefined, choice: { value?: string; crs?: string | undefined; nonDetect?: 'half' | 'dl' | 'sqrt2' }): void {
+    const set = this.s.analytes;
+    if (!set) return;
+    if ('value' in choice && choice.value !== undefined) {
+      this.s.analytes = { chosen: set.chosen.map((c) => (c === before ? choice.value! : c)), parked: set.parked };
+      return;
+    }
+    const parked: Record<string, AnalyteChoices> = {};
+    for (const [name, c] of Object.entries(set.parked)) {
+      parked[name] = { ...c, readId: '', samples: { ...c.samples, ...('crs' in choice ? { crs: choice.crs } : {}), ...('nonDetect' in choice ? { nonDetect: choice.nonDetect } : {}) } };
+    }
+    this.s.analytes = { chosen: set.chosen, parked };
+    this.parkedWork = {};
   }
 
   /** Which column became the value when the file left the choice open (several numeric columns); null otherwise. */
@@ -1358,6 +1632,10 @@ export class Session {
     const design = suggestions.current;
     return {
       readId: this.s.readId,
+      analyte: this.currentAnalyte,
+      analytes: this.analyteNames,
+      parked: Object.keys(this.parkedWork),
+      rasters: this.covariateRasters.map((r) => r.name),
       samples: this.intake ? { n: this.intake.samples.x.length, value: sum(this.intake.samples.value), x: sum(this.intake.samples.x) } : null,
       boundary: this.s.boundary?.fileName ?? null,
       candidates: this.candidates.map((c) => [c.key, c.aic, c.rmse, c.msse]),

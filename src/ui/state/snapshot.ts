@@ -108,6 +108,33 @@ export interface MapChoices {
   customUrl: string;
 }
 
+/**
+ * One analyte's own part of the saved session: its reading (value column and the choices that go
+ * with it), structure, surface (action level included), realisation and next-sample choices.
+ */
+export interface AnalyteChoices {
+  /** The reading of the samples with this analyte as value ('' = not read yet: read on switching to it). */
+  readId: string;
+  samples: SampleChoices;
+  structure: StructureChoices;
+  surface: SurfaceChoices;
+  simulation: SimulationChoices;
+  next: NextChoices;
+}
+
+/**
+ * Several analytes from one samples file: the value columns chosen (in the order shown) and, for each
+ * one not in use now, its own choices. The analyte in use is `samples.value`, its choices those of the
+ * snapshot itself.
+ */
+export interface AnalyteSet {
+  chosen: string[];
+  parked: Record<string, AnalyteChoices>;
+}
+
+/** Analytes that may be chosen at once (each keeps its samples, model and surfaces in memory). */
+export const MAX_ANALYTES = 12;
+
 export interface SessionSnapshot {
   version: typeof SNAPSHOT_VERSION;
   step: StepId;
@@ -125,6 +152,17 @@ export interface SessionSnapshot {
   simulation: SimulationChoices;
   next: NextChoices;
   map: MapChoices;
+  /** Several analytes chosen (absent = one analyte, the value column). */
+  analytes?: AnalyteSet;
+}
+
+/** The analyte's own parts of a snapshot (plain copies). */
+export function analyteChoicesOf(s: SessionSnapshot): AnalyteChoices {
+  const copy = <T>(v: T): T => JSON.parse(JSON.stringify(v)) as T;
+  return {
+    readId: s.readId, samples: copy(s.samples), structure: copy(s.structure), surface: copy(s.surface),
+    simulation: copy(s.simulation), next: copy(s.next),
+  };
 }
 
 /** A fresh reading id (random; only compared for equality). */
@@ -187,25 +225,71 @@ function readModel(v: unknown): CovarianceModel | null {
 export function parseSnapshot(input: unknown): SessionSnapshot | null {
   if (!isObj(input) || input.version !== SNAPSHOT_VERSION) return null;
   const d = emptySnapshot();
+  const source = readSource(input.source);
+  const own = readAnalyteChoices(input, d);
+  const snapshot: SessionSnapshot = {
+    version: SNAPSHOT_VERSION,
+    step: oneOf(input.step, STEP_IDS, d.step),
+    source,
+    // '' for a snapshot written before reading ids existed: no stored results can match it.
+    readId: source ? own.readId : '',
+    boundary: readSource(input.boundary),
+    samples: own.samples,
+    structure: own.structure,
+    surface: own.surface,
+    simulation: own.simulation,
+    next: own.next,
+    map: {
+      basemap: oneOf(isObj(input.map) ? input.map.basemap : undefined, ['none', 'osm', 'custom'] as const, 'none'),
+      customUrl: str(isObj(input.map) ? input.map.customUrl : undefined, ''),
+    },
+  };
+  const analytes = source ? readAnalyteSet(input.analytes, own.samples.value, d) : null;
+  if (analytes) snapshot.analytes = analytes;
+  return snapshot;
+}
+
+/**
+ * The analytes chosen, checked: names unique and non-empty, the one in use among them, at most
+ * MAX_ANALYTES; a parked analyte whose choices do not name it as value is dropped. Null when fewer
+ * than two remain.
+ */
+function readAnalyteSet(v: unknown, current: string | undefined, d: SessionSnapshot): AnalyteSet | null {
+  if (!isObj(v) || !Array.isArray(v.chosen) || current === undefined) return null;
+  const names = [...new Set(v.chosen.filter((c): c is string => typeof c === 'string' && c !== ''))].slice(0, MAX_ANALYTES);
+  if (!names.includes(current)) return null;
+  const parkedIn = isObj(v.parked) ? v.parked : {};
+  const parked: Record<string, AnalyteChoices> = {};
+  const chosen: string[] = [];
+  for (const name of names) {
+    if (name === current) {
+      chosen.push(name);
+      continue;
+    }
+    const p = parkedIn[name];
+    if (!isObj(p)) continue;
+    const choices = readAnalyteChoices(p, d);
+    if (choices.samples.value !== name) continue;
+    parked[name] = choices;
+    chosen.push(name);
+  }
+  return chosen.length >= 2 ? { chosen, parked } : null;
+}
+
+/** One analyte's choices from stored data, each missing or malformed field at its default. */
+function readAnalyteChoices(input: Obj, d: SessionSnapshot): AnalyteChoices {
   const s = isObj(input.samples) ? input.samples : {};
   const st = isObj(input.structure) ? input.structure : {};
   const su = isObj(input.surface) ? input.surface : {};
-  const m = isObj(input.map) ? input.map : {};
   const sim = isObj(input.simulation) ? input.simulation : {};
   const nx = isObj(input.next) ? input.next : {};
-  const source = readSource(input.source);
   const whole = (v: unknown, dflt: number, min: number, max: number): number => {
     const n = num(v, dflt, min, max);
     return Number.isInteger(n) ? n : dflt;
   };
   const nonDetect = oneOf(s.nonDetect, ['half', 'dl', 'sqrt2'] as const, 'half');
   return {
-    version: SNAPSHOT_VERSION,
-    step: oneOf(input.step, STEP_IDS, d.step),
-    source,
-    // '' for a snapshot written before reading ids existed: no stored results can match it.
-    readId: source ? str(input.readId, '') : '',
-    boundary: readSource(input.boundary),
+    readId: str(input.readId, ''),
     samples: {
       value: optStr(s.value),
       x: optStr(s.x),
@@ -254,10 +338,6 @@ export function parseSnapshot(input: unknown): SessionSnapshot | null {
       count: whole(nx.count, d.next.count, 1, 500),
       mode: oneOf(nx.mode, ['auto', 'variance', 'decision', 'coverage'] as const, 'auto'),
       spacing: num(nx.spacing, 0, 0),
-    },
-    map: {
-      basemap: oneOf(m.basemap, ['none', 'osm', 'custom'] as const, 'none'),
-      customUrl: str(m.customUrl, ''),
     },
   };
 }

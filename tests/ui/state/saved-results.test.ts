@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { parseResults, RESULTS_VERSION, validGrid, type SavedResults } from '../../../src/ui/state/saved-results.ts';
-import { createAutosave, RESULTS_KEY, AUTOSAVE_KEY, type KeyValueStore } from '../../../src/ui/state/autosave.ts';
+import {
+  createAutosave, parseRasters, RASTERS_KEY, RESULTS_KEY, AUTOSAVE_KEY, type KeyValueStore,
+} from '../../../src/ui/state/autosave.ts';
 import { readSamples } from '../../../src/io/intake.ts';
 
 const CSV = 'id,easting,northing,lead\nA,500010,4980010,120\nB,500050,4980020,180\nC,500030,4980070,95\nD,500070,4980060,60\n';
@@ -171,3 +173,55 @@ describe('createAutosave results', () => {
   });
 });
 
+
+describe('parseResults with several analytes', () => {
+  /** A record of the same file read with another value column (its own reading). */
+  function parkedRecord(readId: string): SavedResults {
+    const csv = 'id,easting,northing,lead,zinc\nA,500010,4980010,120,300\nB,500050,4980020,180,410\nC,500030,4980070,95,260\nD,500070,4980060,60,150\n';
+    return { ...record(), readId, intake: readSamples(csv, { fileName: 'yard.csv', crs: 'EPSG:32633', value: 'zinc' }) };
+  }
+
+  it('parseResults keeps a parked analyte\'s record for the reading the saved session names for it', () => {
+    const r = { ...record(), parked: { zinc: parkedRecord('reading-zinc') } };
+    const back = parseResults(structuredClone(r), { ...expectation, parked: { zinc: 'reading-zinc' } });
+    expect(Object.keys(back!.parked!)).toEqual(['zinc']);
+    expect(back!.parked!.zinc.intake.report.valueColumn).toBe('zinc');
+    expect(back!.parked!.zinc.intake.samples.value[1]).toBe(410);
+    expect(back!.parked!.zinc.surface!.result.mean).toBeInstanceOf(Float32Array);
+  });
+
+  it('parseResults drops a parked record of another reading, of another value column, or not named by the session, keeping the rest', () => {
+    const r = { ...record(), parked: { zinc: parkedRecord('reading-zinc'), copper: parkedRecord('reading-copper') } };
+    // Another reading for zinc; copper's record holds zinc's samples; nothing asked for "nickel".
+    const back = parseResults(structuredClone(r), { ...expectation, parked: { zinc: 'reading-old', copper: 'reading-copper', nickel: 'reading-n' } });
+    expect(back!.parked).toBeUndefined();
+    expect(back!.surface).not.toBeNull();
+    // Without the session naming any parked analyte, none is taken.
+    expect(parseResults(structuredClone(r), expectation)!.parked).toBeUndefined();
+  });
+});
+
+describe('createAutosave rasters', () => {
+  it('createAutosave.scheduleRasters stores the files that loadRasters gives back checked; an empty list and clear delete them', async () => {
+    const store = cloningStore();
+    const a = createAutosave({ store, delayMs: 5 });
+    const bytes = new Uint8Array([73, 73, 42, 0, 8, 0, 0, 0]);
+    a.scheduleRasters([{ name: 'dist', fileName: 'dist.tif', bytes }]);
+    await a.flush();
+    expect(await createAutosave({ store }).loadRasters()).toEqual([{ name: 'dist', fileName: 'dist.tif', bytes }]);
+    a.scheduleRasters([]);
+    await a.flush();
+    expect(store.data.has(RASTERS_KEY)).toBe(false);
+    a.scheduleRasters([{ name: 'dist', fileName: 'dist.tif', bytes }]);
+    await a.flush();
+    await a.clear();
+    expect(store.data.has(RASTERS_KEY)).toBe(false);
+  });
+
+  it('parseRasters drops entries without a name, a file name or bytes, and repeated covariates', () => {
+    const ok = { name: 'dist', fileName: 'd.tif', bytes: new Uint8Array([1]) };
+    expect(parseRasters(null)).toEqual([]);
+    expect(parseRasters([ok, { ...ok, fileName: 'again.tif' }, { name: '', fileName: 'x', bytes: new Uint8Array([1]) },
+      { name: 'soil', fileName: 's.tif', bytes: [1, 2] }, { name: 'elev', fileName: 'e.tif', bytes: new Uint8Array(0) }, 'text'])).toEqual([ok]);
+  });
+});

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  deserialiseSnapshot, emptySnapshot, parseSnapshot, serialiseSnapshot, type SessionSnapshot,
+  analyteChoicesOf, deserialiseSnapshot, emptySnapshot, MAX_ANALYTES, parseSnapshot, serialiseSnapshot, type SessionSnapshot,
 } from '../../../src/ui/state/snapshot.ts';
 
 function fullSnapshot(): SessionSnapshot {
@@ -90,5 +90,43 @@ describe('parseSnapshot', () => {
 
   it('parseSnapshot drops a source without text', () => {
     expect(parseSnapshot({ version: 1, source: { fileName: 'a.csv' } })!.source).toBeNull();
+  });
+});
+
+describe('parseSnapshot with several analytes', () => {
+  function withAnalytes(): SessionSnapshot {
+    const s = fullSnapshot();
+    const zinc = analyteChoicesOf(s);
+    zinc.readId = 'reading-zinc';
+    zinc.samples = { ...zinc.samples, value: 'Zn (mg/kg)', transform: 'none' };
+    zinc.structure = { ...zinc.structure, model: null, chosen: '' };
+    zinc.surface = { ...zinc.surface, threshold: 720 };
+    s.analytes = { chosen: ['Pb (mg/kg)', 'Zn (mg/kg)'], parked: { 'Zn (mg/kg)': zinc } };
+    return s;
+  }
+
+  it('parseSnapshot keeps the analytes chosen and each parked one\'s own choices', () => {
+    const s = withAnalytes();
+    const back = deserialiseSnapshot(serialiseSnapshot(s))!;
+    expect(back).toEqual(s);
+    expect(back.analytes!.parked['Zn (mg/kg)'].surface.threshold).toBe(720);
+    expect(back.surface.threshold).toBe(200);
+  });
+
+  it('parseSnapshot drops a parked analyte whose choices name another value, and the set when one analyte is left', () => {
+    const s = withAnalytes();
+    s.analytes!.parked['Zn (mg/kg)'].samples.value = 'Cu';
+    expect(parseSnapshot(JSON.parse(serialiseSnapshot(s)))!.analytes).toBeUndefined();
+  });
+
+  it('parseSnapshot drops the set when the analyte in use is not among the chosen, and keeps at most MAX_ANALYTES', () => {
+    const s = withAnalytes();
+    s.analytes!.chosen = ['Zn (mg/kg)', 'Cu'];
+    expect(parseSnapshot(JSON.parse(serialiseSnapshot(s)))!.analytes).toBeUndefined();
+    const many = withAnalytes();
+    const names = Array.from({ length: MAX_ANALYTES + 3 }, (_, k) => `v${k}`);
+    many.analytes = { chosen: ['Pb (mg/kg)', ...names], parked: {} };
+    for (const n of names) many.analytes.parked[n] = { ...analyteChoicesOf(many), samples: { ...many.samples, value: n } };
+    expect(parseSnapshot(JSON.parse(serialiseSnapshot(many)))!.analytes!.chosen).toHaveLength(MAX_ANALYTES);
   });
 });

@@ -10,9 +10,10 @@ import { isCovariateTrend } from '../../../core/covariance/model.ts';
 import type { Grid } from '../../../core/geometry/grid.ts';
 import type { ConditionalSimulationResult } from '../../../core/simulation/conditional-simulation.ts';
 import {
-  createProject, gridGeometry, projectSimulation, type ComparisonRow, type Project, type ProjectSimulation, type Suggestion,
+  analyteProject, createProject, gridGeometry, projectSimulation, type ComparisonRow, type Project, type ProjectAnalyte, type ProjectRasterName,
+  type ProjectSimulation, type Suggestion,
 } from '../../../io/project.ts';
-import type { SessionSnapshot } from '../../state/snapshot.ts';
+import type { AnalyteChoices, SessionSnapshot } from '../../state/snapshot.ts';
 import type { CandidateRow } from '../../state/structure.ts';
 
 export interface SessionParts {
@@ -30,6 +31,21 @@ export interface SessionParts {
   simulation?: ProjectSimulation | null;
   software: { name: string; version: string };
   title?: string;
+  /** Further analytes (see projectAnalyte), beside the one the snapshot holds. */
+  analytes?: ProjectAnalyte[];
+  /** Covariate rasters loaded, by name (the files are not held in the project). */
+  covariateRasters?: ProjectRasterName[];
+}
+
+/** One analyte's project as an entry of another project's `analytes`. */
+export function projectAnalyte(p: Project): ProjectAnalyte {
+  const out: ProjectAnalyte = {
+    value: p.samples.intake.value ?? '', unit: p.samples.unit, structure: p.structure, model: p.model, threshold: p.threshold,
+  };
+  if (p.suggestions) out.suggestions = p.suggestions;
+  if (p.suggestOptions) out.suggestOptions = p.suggestOptions;
+  if (p.simulation) out.simulation = p.simulation;
+  return out;
 }
 
 /** The project's record of realisations on screen: their settings and the area they gave. */
@@ -86,11 +102,30 @@ export function sessionProject(parts: SessionParts): Project | null {
     },
     software: parts.software,
     title: parts.title ?? '',
+    ...(parts.analytes?.length ? { analytes: parts.analytes } : {}),
+    ...(parts.covariateRasters?.length ? { covariateRasters: parts.covariateRasters } : {}),
   });
 }
 
 /** An opened project as a session snapshot, keeping the view choices (layer, map) of `base`. */
 export function snapshotFromProject(project: Project, base: SessionSnapshot): SessionSnapshot {
+  const own = oneAnalyteSnapshot(project, base);
+  const others = project.analytes ?? [];
+  if (others.length === 0 || project.samples.intake.value === undefined) return own;
+  // Further analytes wait parked (not read yet: each is read when it is switched to).
+  const parked: Record<string, AnalyteChoices> = {};
+  for (const a of others) {
+    const p = analyteProject(project, a.value);
+    if (!p) continue;
+    const s = oneAnalyteSnapshot(p, base);
+    parked[a.value] = { readId: '', samples: s.samples, structure: s.structure, surface: { ...s.surface, wanted: false }, simulation: s.simulation, next: s.next };
+  }
+  return { ...own, analytes: { chosen: [project.samples.intake.value, ...Object.keys(parked)], parked } };
+}
+
+function oneAnalyteSnapshot(project: Project, withAnalytes: SessionSnapshot): SessionSnapshot {
+  const { analytes: _other, ...base } = withAnalytes;
+  void _other;
   const i = project.samples.intake;
   const method = project.structure.method === 'wls' ? 'wls' : 'reml';
   return {

@@ -1,6 +1,6 @@
 // sessionProject / snapshotFromProject: the app's session and a project file carry the same choices.
 import { describe, expect, it } from 'vitest';
-import { drawnSimulation, sessionProject, snapshotFromProject } from '../../../../src/ui/components/report/session-project.ts';
+import { drawnSimulation, projectAnalyte, sessionProject, snapshotFromProject } from '../../../../src/ui/components/report/session-project.ts';
 import { summariseExceedanceCounts } from '../../../../src/core/prediction/exceedance-area.ts';
 import { emptySnapshot } from '../../../../src/ui/state/snapshot.ts';
 import { openProject, saveProject } from '../../../../src/io/project.ts';
@@ -68,5 +68,31 @@ describe('sessionProject', () => {
     const p = sessionProject({ snapshot: s, software: { name: 'gapwise', version: '1' } })!;
     expect(p.simulation).toEqual({ count: 30, seed: 5, support: 'point', blockPoints: 1, depth: null });
     expect(snapshotFromProject(p, emptySnapshot()).simulation).toEqual({ count: 30, seed: 5, depth: null });
+  });
+});
+
+describe('sessionProject / snapshotFromProject with several analytes', () => {
+  it('snapshotFromProject parks each further analyte with its own model and action level, to be read on switching', () => {
+    const lead = emptySnapshot();
+    lead.source = { fileName: 'a.csv', text: 'lon,lat,pb,zn\n11,48,1,3\n', invented: false };
+    lead.samples = { value: 'pb', crs: 'EPSG:4326', unit: 'mg/kg', transform: 'log' };
+    lead.structure = { ...lead.structure, chosen: 'matern-1.5', model };
+    lead.surface = { ...lead.surface, threshold: 200 };
+    const zinc = { ...lead, samples: { ...lead.samples, value: 'zn', transform: 'none' as const }, structure: { ...lead.structure, model: { ...model, transform: 'none' as const }, chosen: 'exp' }, surface: { ...lead.surface, threshold: 720 } };
+    const software = { name: 'gapwise', version: '1' };
+    const zp = sessionProject({ snapshot: zinc, software })!;
+    const p = sessionProject({ snapshot: lead, software, analytes: [projectAnalyte(zp)], covariateRasters: [{ covariate: 'd', fileName: 'd.tif' }] })!;
+    expect(p.analytes!.map((a) => [a.value, a.threshold, a.structure.chosen])).toEqual([['zn', 720, 'exp']]);
+    expect(p.covariateRasters).toEqual([{ covariate: 'd', fileName: 'd.tif' }]);
+    const back = snapshotFromProject(openProject(saveProject(p), 'p.json').project, emptySnapshot());
+    expect(back.samples.value).toBe('pb');
+    expect(back.surface.threshold).toBe(200);
+    expect(back.analytes!.chosen).toEqual(['pb', 'zn']);
+    const parked = back.analytes!.parked.zn;
+    expect(parked.readId).toBe('');
+    expect([parked.samples.value, parked.samples.crs, parked.samples.transform, parked.surface.threshold, parked.structure.chosen]).toEqual(['zn', 'EPSG:4326', 'none', 720, 'exp']);
+    expect(parked.structure.model!.transform).toBe('none');
+    // One analyte: no set, even when the session held one before.
+    expect(snapshotFromProject(zp, back).analytes).toBeUndefined();
   });
 });
