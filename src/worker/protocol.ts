@@ -19,7 +19,7 @@ import type { DesignResult } from '../core/design.ts';
 import type { BlockSurfaceOptions } from '../core/block-kriging.ts';
 import type { VecchiaFitOptions } from '../core/vecchia.ts';
 import type { LocalKrigingOptions } from '../core/local-kriging.ts';
-import type { LocalAccuracy, LocalSettings } from '../core/local-accuracy.ts';
+import type { LocalGridCheck, LocalSettings } from '../core/local-accuracy.ts';
 import type { Tolerance } from '../core/path-choice.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/conditional-simulation.ts';
 
@@ -71,8 +71,11 @@ export interface RequestPayloads {
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
   design: DesignRequestPayload;
-  /** The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its cells. */
-  localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance };
+  /**
+   * The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its
+   * cells; with `grow`, the larger settings that meet the tolerance when it is missed.
+   */
+  localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance; grow?: boolean };
 }
 
 /** What each request type answers. */
@@ -89,7 +92,7 @@ export interface ResultPayloads {
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
   design: DesignResult;
-  localAccuracy: LocalAccuracy;
+  localAccuracy: LocalGridCheck;
 }
 
 export type RequestType = keyof RequestPayloads;
