@@ -686,7 +686,12 @@ export class Session {
         // a missed tolerance grows the neighbourhood as the command line does, or takes every sample.
         this.surface = view(result, false, ++bands, settings.neighbors);
         this.surfaceTask = { ...this.surfaceTask, what: 'checking against exact kriging' };
-        const check = await engine.localAccuracy(samples, plainModel, grid, settings, true, run.signal);
+        // Chosen automatically, growth is tried only while a doubled neighbourhood stays cheaper than
+        // exact kriging; otherwise a miss goes straight to exact kriging (cheaper and exact).
+        const growthPays = this.surfaceMethod !== 'auto' || choosePredictionPath({
+          samples: samples.x.length, targets: plan.cells, threads: engine.workerCount(), neighbors: 2 * settings.neighbors,
+        }).path === 'local';
+        const check = await engine.localAccuracy(samples, plainModel, grid, settings, growthPays, run.signal);
         if (!run.current()) return;
         accuracy = check.accuracy;
         if (!accuracy.within) {
@@ -694,8 +699,13 @@ export class Session {
           const missed = `The ${first.neighbors} nearest samples${first.globalMean ? ' around the mean of all samples' : ''} missed the tolerance `
             + `(mean within ${first.mean.max.toFixed(2)} %, sd within ${first.sd.max.toFixed(2)} % of the prior sd; aim ${first.tolerance.mean} % / ${first.tolerance.sd} %)`;
           const exactAllowed = this.surfaceMethod === 'auto' && intake.samples.x.length <= EXACT_SAMPLE_LIMIT;
+          // A grown neighbourhood that costs more than exact kriging (up to every sample) is not
+          // worth it when the path is chosen automatically: exact kriging is then both cheaper and exact.
+          const grownCostsMore = !!check.grown && exactAllowed && choosePredictionPath({
+            samples: samples.x.length, targets: plan.cells, threads: engine.workerCount(), neighbors: check.grown.neighbors,
+          }).path === 'exact';
           if (check.grown || exactAllowed) {
-            const grown = check.grown;
+            const grown = grownCostsMore ? null : check.grown;
             settings = grown;
             this.surfaceTask = { ...this.surfaceTask, done: 0, what: grown ? `again with the ${grown.neighbors} nearest samples` : 'again from every sample' };
             result = await compute(settings, []);
@@ -706,7 +716,11 @@ export class Session {
               note = `${missed}, so the surface was computed again with the ${grown.neighbors} nearest samples.`;
             } else {
               accuracy = null;
-              note = `${missed}, and so did every larger neighbourhood tried, so the surface was computed again by exact kriging from every sample.`;
+              note = grownCostsMore
+                ? `${missed}; the ${check.grown!.neighbors} nearest would meet it but cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`
+                : growthPays
+                  ? `${missed}, and so did every larger neighbourhood tried, so the surface was computed again by exact kriging from every sample.`
+                  : `${missed}; larger neighbourhoods would cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`;
             }
           } else {
             note = `${missed}; no larger neighbourhood met it${this.surfaceMethod === 'local' ? '. Choose "every sample" for exact kriging' : ''}.`;
