@@ -96,7 +96,27 @@ describe('Layout and numbers for people', () => {
     expect(labels.filter((l) => /Exponential|ν = 0\.5|ν = ½/.test(l)).length).toBe(1);
     // No exponent in the table.
     for (const t of await cellTexts(page, '[data-testid=candidate-table] td')) expect(t).not.toMatch(/e[+−-]\d/);
+    // Every column header takes two lines at most (a name, then its unit).
+    const headerLines = await page.locator('[data-testid=candidate-table] thead th').evaluateAll((ths) => ths.map((th) => {
+      const lineHeight = parseFloat(getComputedStyle(th).lineHeight) || 15;
+      const r = document.createRange();
+      r.selectNodeContents(th);
+      const tops = [...r.getClientRects()].filter((b) => b.width > 0).map((b) => b.top).sort((a, b) => a - b);
+      let lines = tops.length ? 1 : 0;
+      for (let k = 1; k < tops.length; k++) if (tops[k] - tops[k - 1] > lineHeight / 2) lines++;
+      return { text: (th as HTMLElement).innerText.replace(/\s+/g, ' '), lines };
+    }));
+    for (const h of headerLines) expect(h.lines, `header "${h.text}" lines`).toBeLessThanOrEqual(2);
     await shot(page, 'layout-1280-2-structure');
+    // The scale bar stands clear of the attribution line under it and of the background button above it.
+    const gaps = await page.evaluate(() => {
+      const scale = document.querySelector('.leaflet-control-scale-line')!.getBoundingClientRect();
+      const attribution = document.querySelector('.leaflet-control-attribution')!.getBoundingClientRect();
+      const background = document.querySelector('[data-testid=map-background]')!.getBoundingClientRect();
+      return { below: attribution.top - scale.bottom, above: scale.top - background.bottom };
+    });
+    expect(gaps.below, 'px between the scale bar and the attribution').toBeGreaterThanOrEqual(6);
+    expect(gaps.above, 'px between the background button and the scale bar').toBeGreaterThanOrEqual(4);
 
     // The variogram opens large over the map, and closes again.
     await page.click('[data-testid=enlarge-variogram]');

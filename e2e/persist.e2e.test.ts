@@ -250,6 +250,49 @@ describe('A surface interrupted by a reload', () => {
   }, LONG);
 });
 
+describe('A local-neighbourhood surface', () => {
+  it('shows its measured error beside it (and what was done when it missed the aim), and shows it again after a reload with nothing recomputed', async () => {
+    const x = await openDemo(run.h, { fit: 'wls' });
+    const { page } = x;
+    await openStep(page, 'surface');
+    await page.selectOption('#surface-method', 'local');
+    await page.click('[data-testid=compute-surface]');
+    await page.waitForSelector('[data-testid=surface-done]', { timeout: WAIT });
+    const line = page.locator('[data-testid=local-accuracy]');
+    await line.waitFor({ timeout: WAIT });
+    const text = (await line.innerText()).replace(/\s+/g, ' ');
+    figures.push(`local surface on the demo: ${text}${await page.locator('[data-testid=local-path-note]').count() ? ` | ${await page.locator('[data-testid=local-path-note]').innerText()}` : ''}`);
+    expect(text).toMatch(/^This surface: the \d+ nearest samples around the mean of all samples, measured against exact kriging at [\d,]+ cells: mean within [\d.<]+ ?%, sd within [\d.<]+ ?% of the prior sd/);
+    const meanMax = Number(await line.getAttribute('data-mean-max'));
+    expect(Number.isFinite(meanMax)).toBe(true);
+    // Within the aim, or said plainly what was done about it.
+    if ((await line.getAttribute('data-within')) !== 'yes') expect(await page.locator('[data-testid=local-path-note]').count()).toBe(1);
+    figures.push(`screenshot ${await shot(page, 'local-surface-accuracy')}`);
+    // The mean legend (linear colours, action level near the low end): its level label and tick
+    // labels stay inside the legend, and no two tick labels touch.
+    const legend = await page.locator('[data-testid=surface-legend]').evaluate((el) => {
+      const box = el.getBoundingClientRect();
+      const label = el.querySelector('[data-testid=legend-level-label]')!.getBoundingClientRect();
+      const ticks = [...el.querySelectorAll('.ticks span')].map((t) => t.getBoundingClientRect());
+      return { box: [box.left, box.right], label: [label.left, label.right], ticks: ticks.map((t) => [t.left, t.right]) };
+    });
+    expect(legend.label[0]).toBeGreaterThanOrEqual(legend.box[0]);
+    expect(legend.label[1]).toBeLessThanOrEqual(legend.box[1]);
+    expect(legend.ticks.length).toBeGreaterThanOrEqual(2);
+    for (let k = 1; k < legend.ticks.length; k++) expect(legend.ticks[k][0] - legend.ticks[k - 1][1], 'px between tick labels').toBeGreaterThanOrEqual(2);
+    await waitForSave(page);
+    await page.reload();
+    await page.waitForSelector('.app[data-ready=yes][data-restored=yes]');
+    await openStep(page, 'surface');
+    await line.waitFor();
+    expect((await line.innerText()).replace(/\s+/g, ' ')).toBe(text);
+    expect(Number(await line.getAttribute('data-mean-max'))).toBe(meanMax);
+    expect(await engineRequests(page), 'engine requests after the reload').toEqual({});
+    expectClean(x);
+    await x.context.close();
+  }, LONG);
+});
+
 describe('Main thread (figures only)', () => {
   it('reads 20,000 rows in a worker: longest main-thread task printed', async () => {
     const x = await openPage(run.h);

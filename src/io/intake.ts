@@ -928,22 +928,42 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       }
     }
   } else if (input.key !== LOCAL_CRS) {
-    if (input.utm) {
-      const off: number[] = [];
-      for (let i = 0; i < np; i++) if (px[i] < 100_000 || px[i] > 900_000) off.push(prec[i]);
-      if (off.length) warnings.push({ code: 'utm-easting', message: `UTM eastings outside 100–900 km on ${listPlaces(table, off)}: those samples lie outside the zone of ${input.key}; check the CRS and the x column.` });
-    }
     if (input.bbox) {
       const [north, west, south, east] = input.bbox;
       const t = createTransform(input.key, 'EPSG:4326');
       const margin = 1;
       const lonIn = (lon: number) => (west <= east ? lon >= west - margin && lon <= east + margin : lon >= west - margin || lon <= east + margin);
       const outside: number[] = [];
+      const places: Array<[number, number]> = [];
       for (let i = 0; i < np; i++) {
         const [lon, lat] = t.forward(px[i], py[i]);
-        if (!(lat <= north + margin && lat >= south - margin && lonIn(lon))) outside.push(prec[i]);
+        if (!(lat <= north + margin && lat >= south - margin && lonIn(lon))) {
+          outside.push(i);
+          places.push([lon, lat]);
+        }
       }
-      if (outside.length) warnings.push({ code: 'outside-area', message: `${outside.length} sample${outside.length === 1 ? '' : 's'} lie outside the area of use of ${input.key} (${input.name}) on ${listPlaces(table, outside)}; check the CRS.` });
+      if (outside.length * 2 < np) {
+        // A few rows far outside the CRS's area of use (a mistyped coordinate): each is rejected with
+        // its line, as it would otherwise stretch the map, the grid and the working CRS over it.
+        const drop = new Set(outside);
+        outside.forEach((q, k) => {
+          const [lon, lat] = places[k];
+          const where = Number.isFinite(lon) && Number.isFinite(lat) ? `: at latitude ${lat.toFixed(2)}°, longitude ${lon.toFixed(2)}°` : '';
+          entries.push({ ...placeOf(table, prec[q]), field: xName, raw: `${px[q]}, ${py[q]}`, action: 'rejected', reason: `more than 1° outside the area of use of ${input.key} (${input.name})${where}, where the other samples are inside` });
+        });
+        if (options.strict && outside.length) {
+          const at = placeOf(table, prec[outside[0]]);
+          throw new GapwiseError('bad-value', `${outside.length} row${outside.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${px[outside[0]]}, ${py[outside[0]]} is outside the area of use of ${input.key}.`, { file, row: at.line, feature: at.feature, column: xName, raw: `${px[outside[0]]}, ${py[outside[0]]}` });
+        }
+        compact((i) => !drop.has(i));
+      } else {
+        warnings.push({ code: 'outside-area', message: `${outside.length} sample${outside.length === 1 ? ' lies' : 's lie'} outside the area of use of ${input.key} (${input.name}) on ${listPlaces(table, outside.map((q) => prec[q]))}; check the CRS.` });
+      }
+    }
+    if (input.utm) {
+      const off: number[] = [];
+      for (let i = 0; i < np; i++) if (px[i] < 100_000 || px[i] > 900_000) off.push(prec[i]);
+      if (off.length) warnings.push({ code: 'utm-easting', message: `UTM eastings outside 100–900 km on ${listPlaces(table, off)}: those samples lie outside the zone of ${input.key}; check the CRS and the x column.` });
     }
   }
 

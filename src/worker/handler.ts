@@ -19,7 +19,7 @@ import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } fr
 import { simulateConditional } from '../core/simulation/conditional-simulation.ts';
 import { vecchiaFit } from '../core/fitting/vecchia.ts';
 import { createLocalPredictor } from '../core/prediction/local-kriging.ts';
-import { measureLocalGrid } from '../core/prediction/local-accuracy.ts';
+import { checkLocalGrid } from '../core/prediction/local-accuracy.ts';
 import type { SurfacePredictor } from '../core/prediction/surface.ts';
 import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
 import { GapwiseError } from '../core/shared/errors.ts';
@@ -188,7 +188,7 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       case 'localAccuracy': {
         const q = p as RequestPayloads['localAccuracy'];
         checkSamples(q.samples);
-        return measureLocalGrid(q.samples, q.model, q.grid, q.local, q.tolerance ? { tolerance: q.tolerance } : {}) as ResultPayloads[K];
+        return checkLocalGrid(q.samples, q.model, q.grid, q.local, { ...(q.tolerance ? { tolerance: q.tolerance } : {}), grow: q.grow === true }) as ResultPayloads[K];
       }
       case 'fitNearestNeighbour': {
         const q = p as RequestPayloads['fitNearestNeighbour'];

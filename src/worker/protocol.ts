@@ -19,7 +19,7 @@ import type { DesignResult } from '../core/design/design.ts';
 import type { BlockSurfaceOptions } from '../core/prediction/block-kriging.ts';
 import type { VecchiaFitOptions } from '../core/fitting/vecchia.ts';
 import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
-import type { LocalAccuracy, LocalSettings } from '../core/prediction/local-accuracy.ts';
+import type { LocalGridCheck, LocalSettings } from '../core/prediction/local-accuracy.ts';
 import type { Tolerance } from '../core/prediction/path-choice.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
 
@@ -72,8 +72,11 @@ export interface RequestPayloads {
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
   design: DesignRequestPayload;
-  /** The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its cells. */
-  localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance };
+  /**
+   * The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its
+   * cells; with `grow`, the larger settings that meet the tolerance when it is missed.
+   */
+  localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance; grow?: boolean };
   /** Answers once the worker runs: starts workers ahead of work that blocks the caller (the likelihood passes). */
   ready: Record<string, never>;
   /** This worker's part of every nearest-neighbour likelihood pass, over shared memory until told to leave (./likelihood-part.ts). */
@@ -94,7 +97,7 @@ export interface ResultPayloads {
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
   design: DesignResult;
-  localAccuracy: LocalAccuracy;
+  localAccuracy: LocalGridCheck;
   ready: true;
   likelihoodPart: { passes: number };
 }

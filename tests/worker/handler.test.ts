@@ -20,6 +20,9 @@ import { fitAnisotropic } from '../../src/core/fitting/fit-anisotropy.ts';
 import { fitNested } from '../../src/core/fitting/fit-nested.ts';
 import { createLocalPredictor } from '../../src/core/prediction/local-kriging.ts';
 import { computeSurfaceWith } from '../../src/core/prediction/surface.ts';
+import { chooseCheckTargets, measureLocalGrid, type LocalGridCheck } from '../../src/core/prediction/local-accuracy.ts';
+import { createRandom } from '../../src/core/shared/random.ts';
+import { cellCentres } from '../../src/core/geometry/grid.ts';
 
 // Samples and a masked grid from the surface fixture (values from scikit-learn's reference case).
 const fx = loadFixture<{ values: number[]; model: CovarianceModel; threshold: number }>('surface.json');
@@ -311,5 +314,54 @@ describe('predictorKey', () => {
     // And not the exact answer: 12 neighbours out of every sample change the numbers.
     const exact = computeSurface(samples, model, grid, { threshold: 38, rows: [0, 6] });
     expect(Array.from(result.mean)).not.toEqual(Array.from(exact.mean));
+  });
+
+  it('createEngineHandler answers localAccuracy with grow: a neighbourhood that misses the tolerance gets the larger settings that meet it, rerun on the grid within it', () => {
+    // Invented samples with a smooth signal and noise; 8 neighbours with a locally re-estimated mean
+    // are far from exact kriging here (as the checked path's own test finds).
+    const rnd = createRandom(9);
+    const xs: number[] = [], ys: number[] = [], vs: number[] = [];
+    for (let i = 0; i < 800; i++) {
+      xs.push(300000 + 1000 * rnd.uniform());
+      ys.push(5000000 + 1000 * rnd.uniform());
+      vs.push(10 + Math.sin(xs[i] / 120) + Math.cos(ys[i] / 170) + 0.3 * rnd.normal());
+    }
+    const s = makeSamples(xs, ys, vs);
+    const m: CovarianceModel = { structures: [{ type: 'nugget', sill: 0.05 }, { type: 'matern', sill: 1, scale: 100, nu: 1.5 }], trend: 'constant', transform: 'none' };
+    const g: Grid = { x0: 300000, y0: 5001000, cell: 25, nx: 40, ny: 40 };
+    const start = { neighbors: 8, globalMean: false };
+    const { sent, run } = collect();
+    run({ id: 16, type: 'localAccuracy', payload: { samples: s, model: m, grid: g, local: start, grow: true } });
+    const check = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as LocalGridCheck;
+    // The first figures are the plain measurement's.
+    expect(check.accuracy).toEqual(measureLocalGrid(s, m, g, start));
+    expect(check.accuracy.within).toBe(false);
+    expect(check.grown).not.toBeNull();
+    expect(check.attempts.at(-1)).toMatchObject({ ...check.grown, within: true });
+    expect(check.grown!.neighbors > 8 || check.grown!.globalMean).toBe(true);
+    // The surface rerun with the grown settings through the handler measures within the tolerance.
+    run({ id: 17, type: 'surfaceRows', payload: { samples: s, model: m, grid: g, local: check.grown! } });
+    const rerun = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeSurface>;
+    run({ id: 18, type: 'localAccuracy', payload: { samples: s, model: m, grid: g, local: check.grown! } });
+    const after = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as LocalGridCheck;
+    expect(after.accuracy.within).toBe(true);
+    expect(after.accuracy.mean.max).toBeLessThanOrEqual(1);
+    expect(after.accuracy.sd.max).toBeLessThanOrEqual(2);
+    expect(after.grown).toBeNull();
+    expect(after.attempts).toEqual([]);
+    // The measured cells are the surface's own: its values there equal the checked local values.
+    const centres = cellCentres(g);
+    const idx = chooseCheckTargets(centres.x.length, after.accuracy.checked, after.accuracy.seed);
+    const p = createLocalPredictor(s, m, { ...check.grown!, targetSpacing: g.cell }).predict(Float64Array.from(idx, (i) => centres.x[i]), Float64Array.from(idx, (i) => centres.y[i]));
+    idx.forEach((i, k) => expect(rerun.mean[centres.index[i]]).toBeCloseTo(p.mean[k], 4));
+  });
+
+  it('createEngineHandler answers localAccuracy without grow: no growth tried even when the tolerance is missed', () => {
+    const { sent, run } = collect();
+    run({ id: 19, type: 'localAccuracy', payload: { samples, model, grid, local: { neighbors: 3, globalMean: false }, tolerance: { mean: 1e-9, sd: 1e-9 } } });
+    const check = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as LocalGridCheck;
+    expect(check.accuracy.within).toBe(false);
+    expect(check.grown).toBeNull();
+    expect(check.attempts).toEqual([]);
   });
 });

@@ -359,16 +359,27 @@ export function predictLocalChecked(
   return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
 }
 
+/** A grid surface's measured error and, when asked and the tolerance was missed, the growth that meets it. */
+export interface LocalGridCheck {
+  accuracy: LocalAccuracy;
+  /** The first larger settings within the tolerance at the checked cells (null: none, or not asked). */
+  grown: LocalSettings | null;
+  /** Every larger setting tried, with its figures (empty when none was). */
+  attempts: GrowthAttempt[];
+}
+
 /**
  * The measured error of a local-neighbourhood surface on a grid computed with `settings` (tiles of the
  * grid's cell, as every surface path uses): the local values at a seeded subset of the cells, which
  * equal the surface's there (results do not depend on which cells are predicted together), against
- * the reference. For the app, which computes surfaces band by band in workers.
+ * the reference. With `grow`, a missed tolerance tries the growth steps at the same cells
+ * (findGrowth); the caller reruns the surface with `grown`, or takes the exact path when it is null.
+ * For the app, which computes surfaces band by band in workers.
  */
-export function measureLocalGrid(
+export function checkLocalGrid(
   samples: Samples, model: CovarianceModel, grid: Grid, settings: LocalSettings,
-  options: { tolerance?: Tolerance; seed?: number } = {},
-): LocalAccuracy {
+  options: { tolerance?: Tolerance; seed?: number; grow?: boolean } = {},
+): LocalGridCheck {
   const n = samples.x.length;
   const seed = options.seed ?? DEFAULT_CHECK_SEED;
   const centres = cellCentres(grid);
@@ -379,7 +390,18 @@ export function measureLocalGrid(
   const reference = referencePredictions(samples, model, cx, cy);
   const p = createLocalPredictor(samples, model, { ...settings, targetSpacing: grid.cell }).predict(cx, cy);
   const all = Uint32Array.from({ length: idx.length }, (_, k) => k);
-  return compareWithReference(model, reference, checkedValues(p, all, model.transform === 'log'), {
+  const accuracy = compareWithReference(model, reference, checkedValues(p, all, model.transform === 'log'), {
     targets: T, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
   });
+  if (accuracy.within || options.grow !== true) return { accuracy, grown: null, attempts: [] };
+  const { settings: grown, attempts } = findGrowth(samples, model, cx, cy, reference, settings, { targetSpacing: grid.cell }, options.tolerance);
+  return { accuracy, grown, attempts };
+}
+
+/** The measured error of a local-neighbourhood surface on a grid (checkLocalGrid without the growth). */
+export function measureLocalGrid(
+  samples: Samples, model: CovarianceModel, grid: Grid, settings: LocalSettings,
+  options: { tolerance?: Tolerance; seed?: number } = {},
+): LocalAccuracy {
+  return checkLocalGrid(samples, model, grid, settings, options).accuracy;
 }

@@ -70,6 +70,19 @@ interface TileRecord {
   active?: boolean;
 }
 
+/** A tile waiting to be painted: the next lattice row, and for a new tile its coordinates and Leaflet's callback. */
+interface PaintJob {
+  row: number;
+  coords?: L.Coords;
+  done?: L.DoneCallback;
+}
+
+/**
+ * Longest stretch of painting in one task, ms: well under the 50 ms a task may take before the page
+ * feels held (a lattice row of a 256 px tile is 16 × 257 pixels, well under a millisecond once optimised).
+ */
+const PAINT_TASK_BUDGET_MS = 12;
+
 /** Pixels each tile reaches past its right and bottom edges (covers seams at fractional zoom). */
 export const OVERLAP = 1;
 
@@ -142,27 +155,26 @@ export class SurfaceLayer extends L.GridLayer {
     };
   }
 
-  /** Leaflet calls this for each tile; the tile is painted on the next tick so tiles appear one by one. */
+  /**
+   * Leaflet calls this for each tile; the tile is projected and painted in later tasks (see
+   * paintSoon) and handed to Leaflet when its last band is painted, so tiles appear one by one.
+   */
   protected override createTile(coords: L.Coords, done: L.DoneCallback): HTMLElement {
     const canvas = document.createElement('canvas');
     const size = this.getTileSize();
     canvas.width = size.x + OVERLAP;
     canvas.height = size.y + OVERLAP;
-    setTimeout(() => {
-      try {
-        this.prepareTile(canvas, coords, size);
-        done(undefined, canvas);
-      } catch (error) {
-        done(error instanceof Error ? error : new Error(String(error)), canvas);
-      }
-    }, 0);
+    this.jobs.set(canvas, { row: 0, coords, done });
+    this.paintSoon();
     return canvas;
   }
 
-  private prepareTile(canvas: HTMLCanvasElement, coords: L.Coords, size: L.Point): void {
+  /** Projects the tile's lattice (a few hundred inverse projections). */
+  private prepareTile(canvas: HTMLCanvasElement, coords: L.Coords): TileLattice | undefined {
     const map = this._map;
     const toWork = this.options.toWork;
-    if (!map || !toWork) return;
+    if (!map || !toWork) return undefined;
+    const size = this.getTileSize();
     const origin = coords.scaleBy(size);
     const lattice = buildTileLattice(origin.x, origin.y, size.x + OVERLAP, size.y + OVERLAP, this.options.latticeStep ?? 16,
       (px, py) => {
@@ -170,69 +182,107 @@ export class SurfaceLayer extends L.GridLayer {
         return [ll.lng, ll.lat];
       }, toWork);
     this.lattices.set(canvas, lattice);
-    this.paint(canvas);
+    return lattice;
   }
 
-  private paint(canvas: HTMLCanvasElement): void {
+  /**
+   * Paints lattice rows [fromRow, toRow) of a tile into its kept image; `finish` puts the image on
+   * the canvas (a tile is shown whole, never half painted). Returns false when there is nothing to
+   * paint with (no lattice, grid or values): the tile is then cleared.
+   */
+  private paintRows(canvas: HTMLCanvasElement, fromRow: number, toRow: number, finish: boolean): boolean {
     const lattice = this.lattices.get(canvas);
     let ctx = this.contexts.get(canvas);
     if (!ctx) {
       // One context per tile, kept: creating a context is a good part of a tile's cost.
       ctx = canvas.getContext('2d', { willReadFrequently: true }) ?? undefined;
-      if (!ctx) return;
+      if (!ctx) return false;
       this.contexts.set(canvas, ctx);
     }
     const { grid, values, sd, hideAboveSd, domain, log } = this.options;
     if (!lattice || !grid || !values) {
       ctx.clearRect(0, 0, canvas.width, canvas.height);
-      return;
+      return false;
     }
     let image = this.images.get(canvas);
     if (!image || image.width !== canvas.width || image.height !== canvas.height) {
       image = ctx.createImageData(canvas.width, canvas.height);
       this.images.set(canvas, image);
     }
-    paintTile(lattice, { grid, values, sd, hideAboveSd, lut: this.lut, domain: domain ?? [0, 1], log }, image.data);
-    ctx.putImageData(image, 0, 0);
+    paintTile(lattice, { grid, values, sd, hideAboveSd, lut: this.lut, domain: domain ?? [0, 1], log }, image.data, fromRow, toRow);
+    if (finish) ctx.putImageData(image, 0, 0);
+    return true;
   }
 
   /**
    * Repaints the tiles on the map from their kept lattices (no projection): after new values (a
    * band from the worker pool written into the same array), a scale, domain or sd cut-off change.
-   * One tile per task, so the page stays responsive; a repaint asked for while one is under way
-   * restarts the queue with every tile.
+   * A tile being painted starts again from its first row; 'repainted' fires when every tile is done.
    */
   repaint(): this {
     // Leaflet keeps its current tiles in `_tiles` (key → {el, coords, current}).
     const tiles = (this as unknown as { _tiles?: Record<string, TileRecord> })._tiles;
     if (!tiles) return this.redraw();
-    this.queue = [];
     for (const key of Object.keys(tiles)) {
       const el = tiles[key].el;
-      if (el instanceof HTMLCanvasElement && this.lattices.has(el)) this.queue.push(el);
+      if (!(el instanceof HTMLCanvasElement)) continue;
+      const job = this.jobs.get(el);
+      if (job) job.row = 0;
+      else if (this.lattices.has(el)) this.jobs.set(el, { row: 0 });
     }
-    this.drainSoon();
+    if (this.jobs.size === 0) {
+      // Nothing on the map to repaint: say so all the same (listeners wait for it).
+      setTimeout(() => { if (this.jobs.size === 0) this.fire('repainted'); }, 0);
+      return this;
+    }
+    this.paintSoon();
     return this;
   }
 
-  /** Tiles waiting to be repainted, and whether a task is scheduled to paint the next one. */
-  private queue: HTMLCanvasElement[] = [];
-  private draining = false;
+  /**
+   * Tiles waiting to be painted (new ones carry Leaflet's `done` and their coordinates, to be
+   * projected first), in the order asked, each with the next lattice row to paint.
+   */
+  private jobs = new Map<HTMLCanvasElement, PaintJob>();
+  private scheduled = false;
 
-  private drainSoon(): void {
-    if (this.draining) return;
-    if (this.queue.length === 0) {
-      // Nothing on the map to repaint: say so all the same (listeners wait for it).
-      setTimeout(() => { if (this.queue.length === 0 && !this.draining) this.fire('repainted'); }, 0);
-      return;
-    }
-    this.draining = true;
+  /**
+   * Paints waiting tiles in tasks of at most PAINT_TASK_BUDGET_MS (a lattice row at a time), so no
+   * task holds the page for long even while the painting code is not yet optimised by the engine.
+   */
+  private paintSoon(): void {
+    if (this.scheduled || this.jobs.size === 0) return;
+    this.scheduled = true;
     setTimeout(() => {
-      this.draining = false;
-      const canvas = this.queue.shift();
-      if (canvas && canvas.isConnected) this.paint(canvas);
-      if (this.queue.length === 0) this.fire('repainted');
-      else this.drainSoon();
+      this.scheduled = false;
+      const started = performance.now();
+      while (this.jobs.size > 0 && performance.now() - started < PAINT_TASK_BUDGET_MS) {
+        const [canvas, job] = this.jobs.entries().next().value as [HTMLCanvasElement, PaintJob];
+        try {
+          // A tile Leaflet dropped (map moved, layer removed) is not painted; Leaflet ignores its late `done`.
+          if (job.coords && canvas.isConnected) {
+            // A new tile: project its lattice first (its own step of the budget).
+            const coords = job.coords;
+            job.coords = undefined;
+            if (this.prepareTile(canvas, coords)) continue;
+          }
+          const lattice = this.lattices.get(canvas);
+          const rows = lattice ? lattice.rows - 1 : 0;
+          const last = job.row + 1 >= rows;
+          const painted = canvas.isConnected && !job.coords && this.paintRows(canvas, job.row, job.row + 1, last);
+          if (painted && !last) {
+            job.row++;
+            continue;
+          }
+          this.jobs.delete(canvas);
+          job.done?.(undefined, canvas);
+        } catch (error) {
+          this.jobs.delete(canvas);
+          job.done?.(error instanceof Error ? error : new Error(String(error)), canvas);
+        }
+      }
+      if (this.jobs.size === 0) this.fire('repainted');
+      else this.paintSoon();
     }, 0);
   }
 

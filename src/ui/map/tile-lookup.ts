@@ -109,9 +109,14 @@ export interface PaintSource {
 /**
  * Fills `out` (RGBA, width·height·4) with the colours of the cells under each pixel centre
  * (nearest cell); transparent outside the grid, outside the mask, for NaN values, and where sd is
- * above hideAboveSd. Returns the number of painted (opaque) pixels.
+ * above hideAboveSd. Returns the number of painted (opaque) pixels. `fromRow` and `toRow` (lattice
+ * rows, end excluded; default all `lattice.rows - 1`) paint one band of the tile, so a caller can
+ * spread a tile over several short tasks; the bands together give the same pixels as one call.
  */
-export function paintTile(lattice: TileLattice, source: PaintSource, out: Uint8ClampedArray): number {
+export function paintTile(
+  lattice: TileLattice, source: PaintSource, out: Uint8ClampedArray,
+  fromRow = 0, toRow = lattice.rows - 1,
+): number {
   const { width, height, step, cols, nodeX, nodeY } = lattice;
   const { grid, values, lut, domain } = source;
   const { nx, ny, cell, x0, y0, mask } = grid;
@@ -126,7 +131,8 @@ export function paintTile(lattice: TileLattice, source: PaintSource, out: Uint8C
   let painted = 0;
   // Grid coordinates (fi, fj) are affine in (x, y), so interpolating them is the same as
   // interpolating x, y first; do it per lattice cell with running increments.
-  for (let r = 0; r + 1 < lattice.rows; r++) {
+  const rowEnd = Math.min(toRow, lattice.rows - 1);
+  for (let r = Math.max(0, fromRow); r < rowEnd; r++) {
     for (let c = 0; c + 1 < cols; c++) {
       const k = r * cols + c;
       const fi00 = (lattice.x[k] - x0) / cell, fj00 = (y0 - lattice.y[k]) / cell;

@@ -16,7 +16,7 @@ import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
 import type { LocalKrigingOptions } from '../../core/prediction/local-kriging.ts';
-import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
+import type { LocalGridCheck, LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { chooseLeaveOneOutPath } from '../../core/prediction/path-choice.ts';
 import type { VariogramOptions, VariogramSet } from '../../core/fitting/variogram.ts';
 import type { IntakeOptions, IntakeResult } from '../../io/types.ts';
@@ -177,9 +177,12 @@ export function surface(
   });
 }
 
-/** The measured error of a local-neighbourhood surface against exact kriging (core/prediction/local-accuracy.ts measureLocalGrid). */
-export function localAccuracy(samples: Samples, model: CovarianceModel, grid: Grid, local: LocalSettings, signal?: AbortSignal): Promise<LocalAccuracy> {
-  return enginePool().request('localAccuracy', { samples, model, grid, local }, { signal });
+/**
+ * The measured error of a local-neighbourhood surface against exact kriging (core/prediction/local-accuracy.ts
+ * checkLocalGrid); with `grow`, the larger settings that meet the tolerance when it is missed.
+ */
+export function localAccuracy(samples: Samples, model: CovarianceModel, grid: Grid, local: LocalSettings, grow: boolean, signal?: AbortSignal): Promise<LocalGridCheck> {
+  return enginePool().request('localAccuracy', { samples, model, grid, local, grow }, { signal });
 }
 
 export interface SimulateRequest {

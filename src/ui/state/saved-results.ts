@@ -125,7 +125,15 @@ function validSurface(v: unknown): v is SurfaceView {
   if (!isFloatArray(r.mean, cells) || !isFloatArray(r.sd, cells) || r.nx !== v.grid.nx || !whole(r.cells, 0) || !isObj(r.range)) return false;
   if (r.pExceed !== undefined && !isFloatArray(r.pExceed, cells)) return false;
   if (r.median !== undefined && !isFloatArray(r.median, cells)) return false;
+  // A local-neighbourhood surface is never shown without its measured error: without it, it is computed again.
+  if (v.local !== null && v.local !== undefined && !validAccuracy(v.accuracy)) return false;
+  if (v.pathNote !== undefined && typeof v.pathNote !== 'string') return false;
   return (v.support === 'point' || v.support === 'block') && whole(v.points, 1) && optionalFinite(v.threshold) && Array.isArray(r.warnings);
+}
+
+function validAccuracy(a: unknown): boolean {
+  return isObj(a) && whole(a.checked, 1) && isObj(a.mean) && finite(a.mean.max) && finite(a.mean.rms)
+    && isObj(a.sd) && finite(a.sd.max) && finite(a.sd.rms) && isObj(a.tolerance) && typeof a.within === 'boolean';
 }
 
 function validSimulation(v: unknown): v is SimulationView {

@@ -36,8 +36,8 @@ import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from 
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
-import { choosePredictionPath } from '../../core/prediction/path-choice.ts';
-import type { LocalAccuracy } from '../../core/prediction/local-accuracy.ts';
+import { choosePredictionPath, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
+import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
 import type { Warning } from '../../core/shared/errors.ts';
 import { covariateCandidates, residualSamples, samplesForModel, withChosenCovariates } from './covariates.ts';
@@ -81,6 +81,10 @@ export interface SurfaceView {
   points: number;
   /** Samples per local neighbourhood, or null when every sample was used. */
   local: number | null;
+  /** The measured error of a local-neighbourhood surface against exact kriging (core/prediction/local-accuracy.ts). */
+  accuracy?: LocalAccuracy;
+  /** What was done when local neighbourhoods missed the tolerance: grown, exact kriging taken, or kept. */
+  pathNote?: string;
   /** Set when the layers show the per-cell summaries of this many realisations. */
   fromSimulation?: number;
   /** Wall-clock time the computation took, ms (when known). */
@@ -354,6 +358,9 @@ export class Session {
 
   /** True when the next surface is computed from local neighbourhoods. */
   get surfaceLocal(): boolean {
+    // The measured error (core/prediction/local-accuracy.ts checkLocalGrid) has no covariates at the checked
+    // cells: a model with covariates is kriged from every sample.
+    if (isCovariateTrend(this.s.structure.model?.trend)) return false;
     const n = this.intake?.samples.x.length ?? 0;
     if (this.surfaceMethod !== 'auto') return this.surfaceMethod === 'local';
     const cells = this.gridPlan.value?.cells ?? 0;
@@ -500,8 +507,16 @@ export class Session {
   });
 
   surface = $state.raw<SurfaceView | null>(null);
-  /** The measured error of the surface shown when it came from local neighbourhoods (its key, the figures). */
-  surfaceAccuracy = $state.raw<{ key: string; accuracy: LocalAccuracy } | null>(null);
+  /**
+   * The measured error of the surface shown when it came from local neighbourhoods (its key, the
+   * figures), kept with the surface (so it is saved and comes back with it); null for exact kriging.
+   */
+  get surfaceAccuracy(): { key: string; accuracy: LocalAccuracy } | null {
+    const sf = this.surface;
+    if (sf && !sf.fromSimulation && sf.accuracy) return { key: sf.key, accuracy: sf.accuracy };
+    const k = this.kriged;
+    return sf?.fromSimulation && k?.accuracy ? { key: k.key, accuracy: k.accuracy } : null;
+  }
 
   /** Covariate rasters loaded in the Surface step, one per covariate (their files autosaved beside the session, read again on a reload). */
   covariateRasters = $state.raw<CovariateRaster[]>([]);
@@ -657,43 +672,92 @@ export class Session {
     const local = support === 'point' && this.surfaceLocal;
     const t0 = performance.now();
     this.surfaceTask = { ...idleTask(), status: 'running', total: plan.cells };
-    const view = (result: SurfaceResult, done: boolean, bands: number, ms?: number): SurfaceView => ({
+    const view = (result: SurfaceResult, done: boolean, bands: number, neighbors: number | null, ms?: number): SurfaceView => ({
       grid, result, work: intake.report.crs.work, threshold: useThreshold ? threshold : null, key, bands, done,
       support, points: support === 'block' ? this.blockPoints : 1,
-      local: local ? DEFAULT_LOCAL_NEIGHBORS : null,
+      local: neighbors,
       ...(ms !== undefined ? { ms } : {}),
     });
+    const plainModel = $state.snapshot(model) as CovarianceModel;
     let bands = 0;
-    const progress: Array<{ seconds: number; done: number }> = [];
-    try {
-      const result = await engine.surface(
+    /** One run of the surface through the workers, band by band (`settings` null: every sample). */
+    const compute = async (settings: LocalSettings | null, progress: Array<{ seconds: number; done: number }>): Promise<SurfaceResult> => {
+      const started = performance.now();
+      return engine.surface(
         {
-          samples, model: $state.snapshot(model) as CovarianceModel, grid, threshold: useThreshold ? threshold! : undefined,
-          support, blockPoints: this.blockPoints, covariates,
-          local: local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : undefined,
+          samples, model: plainModel, grid, threshold: useThreshold ? threshold! : undefined,
+          support, blockPoints: this.blockPoints, covariates, local: settings ?? undefined,
         },
         (done, total) => {
           if (!run.current()) return;
           this.surfaceTask = { ...this.surfaceTask, done, total };
-          progress.push({ seconds: (performance.now() - t0) / 1000, done });
+          progress.push({ seconds: (performance.now() - started) / 1000, done });
         },
         run.signal,
-        (merged) => { if (run.current()) this.surface = view(merged, false, ++bands); },
+        (merged) => { if (run.current()) this.surface = view(merged, false, ++bands, settings?.neighbors ?? null); },
       );
+    };
+    try {
+      let settings: LocalSettings | null = local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : null;
+      const progress: Array<{ seconds: number; done: number }> = [];
+      let result = await compute(settings, progress);
       if (!run.current()) return;
+      const firstMs = performance.now() - t0;
+      this.rate = measureSurfaceSpeed({ n: intake.samples.x.length, cells: plan.cells, workers: engine.workerCount(), seconds: firstMs / 1000, progress }) ?? this.rate;
+      let accuracy: LocalAccuracy | null = null;
+      let note: string | null = null;
+      if (settings) {
+        // Exact kriging at a seeded subset of the cells against the local values there (a worker);
+        // a missed tolerance grows the neighbourhood as the command line does, or takes every sample.
+        this.surface = view(result, false, ++bands, settings.neighbors);
+        this.surfaceTask = { ...this.surfaceTask, what: 'checking against exact kriging' };
+        // Chosen automatically, growth is tried only while a doubled neighbourhood stays cheaper than
+        // exact kriging; otherwise a miss goes straight to exact kriging (cheaper and exact).
+        const growthPays = this.surfaceMethod !== 'auto' || choosePredictionPath({
+          samples: samples.x.length, targets: plan.cells, threads: engine.workerCount(), neighbors: 2 * settings.neighbors,
+        }).path === 'local';
+        const check = await engine.localAccuracy(samples, plainModel, grid, settings, growthPays, run.signal);
+        if (!run.current()) return;
+        accuracy = check.accuracy;
+        if (!accuracy.within) {
+          const first = accuracy;
+          const missed = `The ${first.neighbors} nearest samples${first.globalMean ? ' around the mean of all samples' : ''} missed the tolerance `
+            + `(mean within ${first.mean.max.toFixed(2)} %, sd within ${first.sd.max.toFixed(2)} % of the prior sd; aim ${first.tolerance.mean} % / ${first.tolerance.sd} %)`;
+          const exactAllowed = this.surfaceMethod === 'auto' && intake.samples.x.length <= EXACT_SAMPLE_LIMIT;
+          // A grown neighbourhood that costs more than exact kriging (up to every sample) is not
+          // worth it when the path is chosen automatically: exact kriging is then both cheaper and exact.
+          const grownCostsMore = !!check.grown && exactAllowed && choosePredictionPath({
+            samples: samples.x.length, targets: plan.cells, threads: engine.workerCount(), neighbors: check.grown.neighbors,
+          }).path === 'exact';
+          if (check.grown || exactAllowed) {
+            const grown = grownCostsMore ? null : check.grown;
+            settings = grown;
+            this.surfaceTask = { ...this.surfaceTask, done: 0, what: grown ? `again with the ${grown.neighbors} nearest samples` : 'again from every sample' };
+            result = await compute(settings, []);
+            if (!run.current()) return;
+            if (grown) {
+              accuracy = (await engine.localAccuracy(samples, plainModel, grid, grown, false, run.signal)).accuracy;
+              if (!run.current()) return;
+              note = `${missed}, so the surface was computed again with the ${grown.neighbors} nearest samples.`;
+            } else {
+              accuracy = null;
+              note = grownCostsMore
+                ? `${missed}; the ${check.grown!.neighbors} nearest would meet it but cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`
+                : growthPays
+                  ? `${missed}, and so did every larger neighbourhood tried, so the surface was computed again by exact kriging from every sample.`
+                  : `${missed}; larger neighbourhoods would cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`;
+            }
+          } else {
+            note = `${missed}; no larger neighbourhood met it${this.surfaceMethod === 'local' ? '. Choose "every sample" for exact kriging' : ''}.`;
+          }
+        }
+      }
       this.s.surface.running = false;
       const ms = performance.now() - t0;
-      this.surface = view(result, true, ++bands, ms);
-      this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, ms };
-      this.rate = measureSurfaceSpeed({ n: intake.samples.x.length, cells: plan.cells, workers: engine.workerCount(), seconds: ms / 1000, progress }) ?? this.rate;
+      this.surface = { ...view(result, true, ++bands, settings?.neighbors ?? null, ms), ...(accuracy ? { accuracy } : {}), ...(note ? { pathNote: note } : {}) };
+      this.surfaceTask = { ...this.surfaceTask, status: 'done', done: plan.cells, total: plan.cells, what: '', ms };
       if (!this.s.surface.sdLimit && Number.isFinite(result.range.sd.max)) {
         this.s.surface.sdLimit = +result.range.sd.max.toPrecision(2);
-      }
-      if (local) {
-        // Exact kriging at a seeded subset of the cells against the local values there (a worker).
-        const accuracy = await engine.localAccuracy(intake.samples, $state.snapshot(model) as CovarianceModel, plan.grid,
-          { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true }, run.signal);
-        if (run.current()) this.surfaceAccuracy = { key, accuracy };
       }
     } catch (e) {
       if (!run.current()) return;

@@ -132,6 +132,23 @@ describe('paintTile', () => {
     expect(at(out, 0, 0)).toEqual([...colourAt('loam', 0), 255]);
   });
 
+  it('paintTile by bands of lattice rows gives the same pixels and count as one call', () => {
+    const whole = new Uint8ClampedArray(10 * 6 * 4);
+    const source = { grid: g, values, lut, domain: [0, 11] as [number, number], sd, hideAboveSd: 5 };
+    const total = paintTile(lattice, source, whole);
+    const banded = new Uint8ClampedArray(10 * 6 * 4).fill(77);
+    let count = 0;
+    for (let r = 0; r < lattice.rows - 1; r++) count += paintTile(lattice, source, banded, r, r + 1);
+    expect(lattice.rows - 1).toBeGreaterThan(1);
+    expect(count).toBe(total);
+    expect(Array.from(banded)).toEqual(Array.from(whole));
+    // One band leaves the other rows untouched.
+    const first = new Uint8ClampedArray(10 * 6 * 4).fill(77);
+    paintTile(lattice, source, first, 0, 1);
+    expect(at(first, 0, 5)).toEqual([77, 77, 77, 77]);
+    expect(at(first, 0, 0)).toEqual(at(whole, 0, 0));
+  });
+
   it('paintTile with log spaces colours by ln(value): 3 halfway in ln between 1 and 9; 0 takes the first colour', () => {
     const out = new Uint8ClampedArray(10 * 6 * 4);
     paintTile(lattice, { grid: g, values, lut, domain: [1, 9], log: true }, out);

@@ -109,6 +109,22 @@ describe('parseResults', () => {
     expect(parseResults(badRate, expectation)!.rate).toBeNull();
   });
 
+  it('parseResults keeps a local-neighbourhood surface only with its measured error', () => {
+    const accuracy = {
+      checked: 6, targets: 6, seed: 1, reference: 'exact' as const, scale: 'data' as const, priorSd: 20,
+      mean: { max: 0.4, rms: 0.2 }, sd: { max: 0.9, rms: 0.5 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbors: 64, globalMean: true,
+    };
+    const measured = record();
+    measured.surface = { ...measured.surface!, local: 64, accuracy, pathNote: 'The 32 nearest samples missed the tolerance.' };
+    expect(parseResults(structuredClone(measured), expectation)!.surface).toEqual(measured.surface);
+    const unmeasured = record();
+    unmeasured.surface = { ...unmeasured.surface!, local: 64 };
+    expect(parseResults(unmeasured, expectation)!.surface).toBeNull();
+    const broken = record();
+    broken.surface = { ...broken.surface!, local: 64, accuracy: { ...accuracy, mean: { max: NaN, rms: 0 } } };
+    expect(parseResults(broken, expectation)!.surface).toBeNull();
+  });
+
   it('parseResults checks realisations against their grid', () => {
     const r = record();
     const grid = r.surface!.grid;
