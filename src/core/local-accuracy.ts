@@ -38,7 +38,8 @@ import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
 import {
-  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, type Tolerance,
+  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, localTargetCost,
+  type Tolerance,
 } from './path-choice.ts';
 
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
@@ -446,6 +447,11 @@ export function predictLocalChecked(
     // The values one step back, for the signal (null: none computed yet).
     let before: Prediction | null = null;
     const stepNotes: string[] = [];
+    // Above EXACT_SAMPLE_LIMIT samples no exact path follows a miss, and a rerun of many targets with
+    // many neighbours can cost minutes: growth stops at GROWTH_BUDGET times the first run's cost.
+    const budget = n > EXACT_SAMPLE_LIMIT ? GROWTH_BUDGET * T * localTargetCost(first.neighbors) : Infinity;
+    let spent = 0;
+    let stopped: string | null = null;
     for (const step of steps.slice(0, last + 1)) {
       const perChecked = missesAtEach(model, check.reference, checkedValues(prediction, check.idx, log), tolerance);
       if (!perChecked.some(Boolean)) break;
@@ -458,6 +464,14 @@ export function predictLocalChecked(
       } else {
         at = Uint32Array.from({ length: T }, (_, j) => j);
       }
+      // What reaching the grown setting at these targets would cost (the last step dominates).
+      const projected = at.length * localTargetCost(grown.neighbors);
+      if (spent + projected > budget) {
+        stopped = `rerunning ${at.length.toLocaleString('en-US')} targets up to the ${grown.neighbors} nearest would cost about `
+          + `${Math.ceil(projected / 1e9)} billion operations, more than ${GROWTH_BUDGET} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
+        break;
+      }
+      spent += at.length * localTargetCost(step.neighbors);
       const next = copyPrediction(prediction);
       if (at.length > 0) {
         // In spatial order, so consecutive targets share neighbourhoods.
@@ -472,10 +486,16 @@ export function predictLocalChecked(
       previous = step;
       settings = step;
     }
+    if (stepNotes.length === 0 && stopped !== null) {
+      // Nothing was rerun: the first measurement describes the values returned.
+      notes.push(`${missed}; ${stopped}`);
+      warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); growing them here costs too much to do unasked.` });
+      return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
+    }
     const fresh = subset(freshSeed(seed));
     accuracy = fresh.measure(prediction, settings);
     const gm = settings.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
-    notes.push(`${missed}; grown to the ${settings.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets), measured again at a fresh subset (seed ${freshSeed(seed)})`);
+    notes.push(`${missed}; grown to the ${settings.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets)${stopped !== null ? `; then ${stopped}` : ''}; measured again at a fresh subset (seed ${freshSeed(seed)})`);
     if (!accuracy.within && n <= EXACT_SAMPLE_LIMIT) {
       // The targeted rerun left out targets that needed it: rerun every target with the grown setting
       // (above EXACT_SAMPLE_LIMIT samples the miss is reported instead: a full rerun there is the
