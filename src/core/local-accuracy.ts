@@ -248,6 +248,11 @@ export interface CheckedLocalOptions {
   exactFallback?: boolean;
   /** A covariate model: the targets' encoded covariates, row-major (targets × covariate columns). */
   covariates?: ArrayLike<number>;
+  /**
+   * Most cost a growth may add, in multiples of the first run's estimated cost; default GROWTH_BUDGET
+   * above EXACT_SAMPLE_LIMIT samples, unlimited below (where exact kriging is the next step anyway).
+   */
+  growthBudget?: number;
 }
 
 /** A local prediction with its measured error and what was done to meet the tolerance. */
@@ -453,7 +458,7 @@ export function predictLocalChecked(
     const stepNotes: string[] = [];
     // Above EXACT_SAMPLE_LIMIT samples no exact path follows a miss, and a rerun of many targets with
     // many neighbours can cost minutes: growth stops at GROWTH_BUDGET times the first run's cost.
-    const budget = n > EXACT_SAMPLE_LIMIT ? GROWTH_BUDGET * T * localTargetCost(first.neighbors) : Infinity;
+    const budget = (options.growthBudget ?? (n > EXACT_SAMPLE_LIMIT ? GROWTH_BUDGET : Infinity)) * T * localTargetCost(first.neighbors);
     let spent = 0;
     let stopped: string | null = null;
     for (const step of steps.slice(0, last + 1)) {
@@ -472,7 +477,7 @@ export function predictLocalChecked(
       const projected = at.length * localTargetCost(grown.neighbors);
       if (spent + projected > budget) {
         stopped = `rerunning ${at.length.toLocaleString('en-US')} targets up to the ${grown.neighbors} nearest would cost about `
-          + `${Math.ceil(projected / 1e9)} billion operations, more than ${GROWTH_BUDGET} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
+          + `${Math.ceil(projected / 1e9)} billion operations, more than ${options.growthBudget ?? GROWTH_BUDGET} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
         break;
       }
       spent += at.length * localTargetCost(step.neighbors);

@@ -103,6 +103,20 @@ describe('predictLocalChecked', () => {
     expectClose(res.accuracy.sd.max, 100 * maxSd, { rel: 1e-9 }, 'largest sd difference at the fresh subset');
   });
 
+  it('predictLocalChecked stops a growth that would cost more than its budget and reports the first measurement', () => {
+    const { samples, tx, ty } = problem(800, 1200, 9);
+    const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2, growthBudget: 2 });
+    expect(res.path).toBe('local');
+    expect(res.settings).toEqual({ neighbors: 8, globalMean: false });
+    expect(res.notes.join(' ')).toMatch(/would cost about \d+ billion operations, more than 2 times the first run, so it was not done unasked \(--neighbors \d+ does it\)/);
+    expect(res.accuracy.seed).toBe(2);
+    expect(res.accuracy.within).toBe(false);
+    expect(res.warnings.some((w) => w.code === 'tolerance-missed')).toBe(true);
+    // The values are the first run's, unchanged.
+    const plain = createLocalPredictor(samples, MODEL, { neighbors: 8 }).predict(tx, ty);
+    expect(Array.from(res.prediction.mean)).toEqual(Array.from(plain.mean));
+  });
+
   it('predictLocalChecked takes exact kriging when no neighbourhood meets the tolerance, and says so', () => {
     const { samples, tx, ty } = problem(300, 600, 4);
     const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, tolerance: { mean: 1e-9, sd: 1e-9 } });
