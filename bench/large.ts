@@ -243,11 +243,14 @@ async function partB(quick: boolean): Promise<Row[]> {
 }
 
 /** `/usr/bin/time -f '%e %M'` around a command: wall seconds and peak resident memory (GiB). */
-function timed(args: string[]): { seconds: number; peakRssGiB: number; stdout: string; stderr: string } {
-  const r = spawnSync('/usr/bin/time', ['-f', 'TIME %e %M', ...args], { encoding: 'utf8', maxBuffer: 1 << 26 });
-  const m = /TIME ([\d.]+) (\d+)\s*$/.exec(r.stderr);
+function timed(args: string[]): { seconds: number; cpuSeconds: number; peakRssGiB: number; stdout: string; stderr: string } {
+  const r = spawnSync('/usr/bin/time', ['-f', 'TIME %e %M %U %S', ...args], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  const m = /TIME ([\d.]+) (\d+) ([\d.]+) ([\d.]+)\s*$/.exec(r.stderr);
   if (r.status !== 0 || !m) throw new Error(`${args.join(' ')} failed (${r.status}): ${r.stderr.slice(-2000)}`);
-  return { seconds: Number(m[1]), peakRssGiB: Number(m[2]) / 2 ** 20, stdout: r.stdout, stderr: r.stderr.replace(/TIME .*\s*$/, '') };
+  return {
+    seconds: Number(m[1]), cpuSeconds: Number(m[3]) + Number(m[4]), peakRssGiB: Number(m[2]) / 2 ** 20,
+    stdout: r.stdout, stderr: r.stderr.replace(/TIME .*\s*$/, ''),
+  };
 }
 
 /**
@@ -420,11 +423,17 @@ async function partE(quick: boolean): Promise<Row[]> {
     const modelFile = join(dir, 'model.json');
     const fit = timed([process.execPath, cli, 'fit', '--samples', job.csv, '--crs', 'EPSG:32633', '--out', modelFile]);
     const pred = timed([process.execPath, cli, 'predict', '--samples', job.csv, '--crs', 'EPSG:32633', '--model', modelFile, '--targets', job.targetsCsv, '--out', join(dir, 'out.csv')]);
-    const said = pred.stderr.split('\n').filter((l) => l.startsWith('note:')).join(' | ');
+    const said = pred.stderr.split('\n').filter((l) => l.startsWith('note:') || l.startsWith('warning:')).join(' | ');
     return [
-      { name: 'CLI: gapwise fit', n, seconds: fit.seconds, peakRssGiB: fit.peakRssGiB, note: `peak RSS ${fit.peakRssGiB.toFixed(2)} GiB` },
-      { name: `CLI: gapwise predict, ${targets.toLocaleString('en-US')} targets (plain)`, n, seconds: pred.seconds, targets, peakRssGiB: pred.peakRssGiB, note: said },
-      { name: 'CLI: fit + predict, total', n, seconds: fit.seconds + pred.seconds, note: `target < 60 s; load average at the end ${loadavg()[0].toFixed(1)}` },
+      { name: 'CLI: gapwise fit', n, seconds: fit.seconds, cpuSeconds: fit.cpuSeconds, peakRssGiB: fit.peakRssGiB, note: `${fit.cpuSeconds.toFixed(1)} CPU s; peak RSS ${fit.peakRssGiB.toFixed(2)} GiB` },
+      {
+        name: `CLI: gapwise predict, ${targets.toLocaleString('en-US')} targets (plain)`, n, seconds: pred.seconds, cpuSeconds: pred.cpuSeconds, targets,
+        peakRssGiB: pred.peakRssGiB, note: `${pred.cpuSeconds.toFixed(1)} CPU s; ${said}`,
+      },
+      {
+        name: 'CLI: fit + predict, total', n, seconds: fit.seconds + pred.seconds, cpuSeconds: fit.cpuSeconds + pred.cpuSeconds,
+        note: `target < 60 s; ${(fit.cpuSeconds + pred.cpuSeconds).toFixed(1)} CPU s; load average at the end ${loadavg()[0].toFixed(1)}`,
+      },
     ];
   } finally {
     rmSync(dir, { recursive: true, force: true });

@@ -42,6 +42,8 @@ import { logPredictionToDataScale } from '../shared/lognormal.ts';
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
 /** The most neighbours of a local neighbourhood (an m × m matrix is factorised per neighbourhood). */
 export const MAX_LOCAL_NEIGHBORS = 2000;
+/** From this size a neighbourhood is factorised by linalg.ts (its WebAssembly kernel) instead of the row-by-row loop below. */
+const LARGE_FACTOR = 96;
 /** Up to this many samples the global mean comes from the dense GLS; above, from the nearest-neighbour factor. */
 const DENSE_GLOBAL_MEAN_LIMIT = 1000;
 
@@ -156,6 +158,9 @@ function checkInputs(samples: Samples, model: CovarianceModel, p: number): void 
  * Returns false when a pivot is not positive. q³/6 multiply-adds.
  */
 function factorLower(a: Float64Array, q: number): boolean {
+  // Large neighbourhoods (growth, the accuracy reference) go through linalg.ts: the WebAssembly
+  // kernel when present (several times faster from about 100 rows), the blocked TypeScript otherwise.
+  if (q >= LARGE_FACTOR) return choleskyInPlace(a, q);
   for (let i = 0; i < q; i++) {
     const rowI = i * q;
     for (let j = 0; j < i; j++) {

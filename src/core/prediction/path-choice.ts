@@ -78,11 +78,25 @@ export function exactCost(samples: number, targets: number, threads = 1): number
   return n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + (targets * (n * n / 2 + KERNEL_COST * n)) / Math.max(1, threads);
 }
 
+/** Estimated multiply-adds of one target predicted from its own neighbourhood of m samples. */
+export function localTargetCost(neighbors: number): number {
+  const m = neighbors;
+  return m ** 3 / 6 + (m * m) / 2 + KERNEL_COST * (m + (m * m) / 16);
+}
+
+/**
+ * How many times the cost of the first local run a growth may add before it stops and reports the
+ * miss instead (above EXACT_SAMPLE_LIMIT samples, where no exact path follows). Doubling the
+ * neighbours costs about 8 times per target, so this allows one doubling at every target, or more
+ * at fewer targets.
+ */
+export const GROWTH_BUDGET = 8;
+
 /** Estimated multiply-adds of local neighbourhoods of m samples plus the measurement of their error. */
 export function localCost(samples: number, targets: number, neighbors = 64, threads = 1): number {
   const n = samples;
   const m = Math.min(neighbors, n);
-  const perTarget = m ** 3 / 6 + (m * m) / 2 + KERNEL_COST * (m + (m * m) / 16);
+  const perTarget = localTargetCost(m);
   const c = checkCount(n, targets);
   const R = REFERENCE_NEIGHBORS;
   const reference = n <= REFERENCE_EXACT_LIMIT

@@ -6,6 +6,10 @@ import { leaveOneOut } from '../../../src/core/validation/cross-validation.ts';
 import { parseModel } from '../../../src/core/covariance/model.ts';
 import { CAUTION } from '../../../src/cli/common.ts';
 import { localLeaveOneOut } from '../../../src/core/validation/local-cross-validation.ts';
+import { chooseCheckTargets } from '../../../src/core/prediction/local-accuracy.ts';
+import { globalMeanCoefficients } from '../../../src/core/prediction/local-kriging.ts';
+import { createPredictor } from '../../../src/core/prediction/kriging.ts';
+import { surfaceVariance } from '../../../src/core/covariance/covariance.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { FIELD_MODEL, fieldSamplesCsv, planarSamplesCsv, workspace } from '../run-cli.ts';
 
@@ -84,6 +88,31 @@ describe('cv command', () => {
     const direct = leaveOneOut(intake.samples, parseModel(MODEL)).summary;
     expectClose([summary.me, summary.rmse, summary.msse], [direct.me, direct.rmse, direct.msse], { rel: 1e-9, abs: 1e-12 }, 'summary');
     expect(summary.coverage95).toBe(direct.coverage95);
+    // The measurement: every sample checked against the closed form (24 others = all others: rounding only).
+    expect(r.stderr).toContain('note: measured error of the local leave-one-out against exact leave-one-out at 25 of 25 samples (seed 1)');
+    expect(summary.localError).toMatchObject({ checked: 25, targets: 25, reference: 'exact', within: true, neighbors: 24, globalMean: false });
+    expect(summary.localError.mean.max).toBeLessThan(1e-6);
+    expect(summary.localError.sd.max).toBeLessThan(1e-6);
+  });
+
+  it('cv --local --neighbors 4 reports its measured error: the largest differences from the closed form at every sample', async () => {
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbors', '4');
+    expect(r.code, r.stderr).toBe(0);
+    const summary = JSON.parse(r.stdout);
+    const local = localLeaveOneOut(intake.samples, parseModel(MODEL), { neighbors: 4 });
+    const exact = leaveOneOut(intake.samples, parseModel(MODEL));
+    let mean = 0;
+    let sd = 0;
+    for (let i = 0; i < 25; i++) {
+      mean = Math.max(mean, Math.abs(local.prediction[i] - exact.prediction[i]));
+      sd = Math.max(sd, Math.abs(local.sdObserved[i] - exact.sdObserved[i]));
+    }
+    const prior = Math.sqrt(16); // the Matérn sill; the nugget is measurement error
+    expectClose(summary.localError.mean.max, (100 * mean) / prior, { rel: 1e-9 }, 'largest prediction difference');
+    expectClose(summary.localError.sd.max, (100 * sd) / prior, { rel: 1e-9 }, 'largest sd_obs difference');
+    expect(summary.localError.mean.max).toBeGreaterThan(1);
+    expect(summary.localError.within).toBe(false);
+    expect(r.stderr).toContain('warning: The local leave-one-out missed the tolerance');
   });
 
   it('cv on 3,500 samples leaves each out of its 64 nearest others by itself, as localLeaveOneOut does', async () => {
@@ -97,7 +126,25 @@ describe('cv command', () => {
     expect(summary).toEqual({
       ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbors: 64, globalMean: true }).summary, scale: 'data', unit: '', caution: CAUTION,
       method: 'local neighbourhoods', neighbors: 64, globalMean: true, reason: 'above 3,000 samples exact leave-one-out (about n³/2 operations) costs too much',
+      localError: expect.any(Object),
     });
+    // The measured error, recomputed independently: the same 30 seeded samples, each kriged from its
+    // 800 nearest others found by sorting all distances, around the GLS mean of all samples.
+    const model = parseModel(FIELD_MODEL);
+    const local = localLeaveOneOut(field.samples, model, { neighbors: 64, globalMean: true });
+    const beta = globalMeanCoefficients(field.samples, model).beta[0];
+    const { x, y, value } = field.samples;
+    let largest = 0;
+    for (const i of chooseCheckTargets(3500, 30, 1)) {
+      const others = Array.from({ length: 3500 }, (_, j) => j).filter((j) => j !== i)
+        .sort((a, b) => Math.hypot(x[a] - x[i], y[a] - y[i]) - Math.hypot(x[b] - x[i], y[b] - y[i]) || a - b).slice(0, 800);
+      const p = createPredictor({ x: Float64Array.from(others, (j) => x[j]), y: Float64Array.from(others, (j) => y[j]), value: Float64Array.from(others, (j) => value[j] - beta) }, { ...model, trend: { known: 0 } }, { checkScale: false })
+        .predict([x[i]], [y[i]]);
+      largest = Math.max(largest, Math.abs(local.prediction[i] - (p.mean[0] + beta)));
+    }
+    expect(summary.localError).toMatchObject({ checked: 30, targets: 3500, reference: 'nearest', referenceNeighbors: 800, seed: 1 });
+    expectClose(summary.localError.mean.max, (100 * largest) / Math.sqrt(surfaceVariance(model)), { rel: 1e-6 }, 'largest prediction difference');
+    expect(r.stderr).toContain('note: measured error of the local leave-one-out against kriging from the 800 nearest other samples at 30 of 3,500 samples (seed 1)');
     // The field's noise has sd 0.5 (run-cli.ts): errors of about that size, honest sds.
     expect(summary.rmse).toBeGreaterThan(0.4);
     expect(summary.rmse).toBeLessThan(0.7);

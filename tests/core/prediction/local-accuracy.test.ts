@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  chooseCheckTargets, compareWithReference, growthSteps, maxGrownNeighbors, predictLocalChecked, priorSdOf, referencePredictions,
+  affectedTargets, chooseCheckTargets, freshSeed, growthSteps, maxGrownNeighbors, predictLocalChecked, priorSdOf,
 } from '../../../src/core/prediction/local-accuracy.ts';
 import { createPredictor } from '../../../src/core/prediction/kriging.ts';
 import { createLocalPredictor } from '../../../src/core/prediction/local-kriging.ts';
@@ -88,12 +88,33 @@ describe('predictLocalChecked', () => {
     expect(res.accuracy.within).toBe(true);
     expect(res.accuracy.mean.max).toBeLessThanOrEqual(1);
     expect(res.accuracy.sd.max).toBeLessThanOrEqual(2);
-    // The figures are those of the values returned.
-    const check = compareWithReference(MODEL, referencePredictions(samples, MODEL,
-      Float64Array.from(chooseCheckTargets(1200, 200, 2), (i) => tx[i]), Float64Array.from(chooseCheckTargets(1200, 200, 2), (i) => ty[i]),
-    ), { mean: Array.from(chooseCheckTargets(1200, 200, 2), (i) => res.prediction.mean[i]), sd: Array.from(chooseCheckTargets(1200, 200, 2), (i) => res.prediction.sd[i]) },
-    { targets: 1200, seed: 2, ...res.settings });
-    expectClose(res.accuracy.mean.max, check.mean.max, { rel: 1e-12 });
+    // The figures are those of the values returned, measured at a fresh subset (not the one that chose the growth).
+    expect(res.accuracy.seed).toBe(freshSeed(2));
+    const fresh = chooseCheckTargets(1200, 200, freshSeed(2));
+    expect(Array.from(fresh)).not.toEqual(Array.from(chooseCheckTargets(1200, 200, 2)));
+    const exact = createPredictor(samples, MODEL).predict(Float64Array.from(fresh, (i) => tx[i]), Float64Array.from(fresh, (i) => ty[i]));
+    let maxMean = 0;
+    let maxSd = 0;
+    fresh.forEach((i, k) => {
+      maxMean = Math.max(maxMean, Math.abs(res.prediction.mean[i] - exact.mean[k]));
+      maxSd = Math.max(maxSd, Math.abs(res.prediction.sd[i] - exact.sd[k]));
+    });
+    expectClose(res.accuracy.mean.max, 100 * maxMean, { rel: 1e-9 }, 'largest mean difference at the fresh subset');
+    expectClose(res.accuracy.sd.max, 100 * maxSd, { rel: 1e-9 }, 'largest sd difference at the fresh subset');
+  });
+
+  it('predictLocalChecked stops a growth that would cost more than its budget and reports the first measurement', () => {
+    const { samples, tx, ty } = problem(800, 1200, 9);
+    const res = predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2, growthBudget: 2 });
+    expect(res.path).toBe('local');
+    expect(res.settings).toEqual({ neighbors: 8, globalMean: false });
+    expect(res.notes.join(' ')).toMatch(/would cost about \d+ billion operations, more than 2 times the first run, so it was not done unasked \(--neighbors \d+ does it\)/);
+    expect(res.accuracy.seed).toBe(2);
+    expect(res.accuracy.within).toBe(false);
+    expect(res.warnings.some((w) => w.code === 'tolerance-missed')).toBe(true);
+    // The values are the first run's, unchanged.
+    const plain = createLocalPredictor(samples, MODEL, { neighbors: 8 }).predict(tx, ty);
+    expect(Array.from(res.prediction.mean)).toEqual(Array.from(plain.mean));
   });
 
   it('predictLocalChecked takes exact kriging when no neighbourhood meets the tolerance, and says so', () => {
@@ -116,6 +137,24 @@ describe('predictLocalChecked', () => {
     let max = 0;
     idx.forEach((i, k) => { max = Math.max(max, Math.abs(res.prediction.logMean![i] - exact.logMean![k])); });
     expectClose(res.accuracy.mean.max, 100 * max, { rel: 1e-9 });
+  });
+});
+
+describe('affectedTargets', () => {
+  it('affectedTargets reruns every target whose signal reaches half the smallest signal of a missed check (or half the tighter tolerance)', () => {
+    const signal = [0.1, 3, 0.6, 5, 0.2, 1.4];
+    // Checked targets 1 (signal 3, missed) and 4 (0.2, within): threshold min(3, 1, 2) / 2 = 0.5.
+    const a = affectedTargets(signal, [1, 4], [true, false], { mean: 1, sd: 2 });
+    expect(a.threshold).toBe(0.5);
+    expect(Array.from(a.rerun)).toEqual([1, 2, 3, 5]);
+    // A missed check with a small signal lowers the threshold: more is rerun.
+    const b = affectedTargets(signal, [1, 4], [true, true], { mean: 1, sd: 2 });
+    expect(b.threshold).toBe(0.1);
+    expect(Array.from(b.rerun)).toEqual([0, 1, 2, 3, 4, 5]);
+    // No check missed: nothing to rerun.
+    expect(affectedTargets(signal, [1, 4], [false, false]).rerun.length).toBe(0);
+    // A NaN signal (a value that is not finite) is never taken as settled.
+    expect(Array.from(affectedTargets([NaN, 0], [1], [true]).rerun)).toEqual([0, 1]);
   });
 });
 

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import {
   CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS,
-  checkCount, choosePredictionPath, exactCost, localCost, parseTolerance,
+  checkCount, chooseLeaveOneOutPath, choosePredictionPath, exactCost, localCost, localTargetCost, parseTolerance,
 } from '../../../src/core/prediction/path-choice.ts';
 import { thrown } from '../../helpers/thrown.ts';
 
@@ -101,5 +101,31 @@ describe('parseTolerance', () => {
     for (const bad of ['', 'mean', 'mean=x', 'mean=-1', 'mean=101', 'median=1', 'mean=1,mean=2']) {
       expect(thrown(() => parseTolerance(bad)).code, bad).toBe('bad-option');
     }
+  });
+});
+
+describe('chooseLeaveOneOutPath', () => {
+  it('chooseLeaveOneOutPath takes the closed form up to REFERENCE_EXACT_LIMIT samples and local neighbourhoods one sample above', () => {
+    const at = chooseLeaveOneOutPath({ samples: REFERENCE_EXACT_LIMIT });
+    const above = chooseLeaveOneOutPath({ samples: REFERENCE_EXACT_LIMIT + 1 });
+    expect(at.path).toBe('exact');
+    expect(at.automatic).toBe(true);
+    expect(above.path).toBe('local');
+    expect(above.reason).toMatch(/above 3,000 samples/);
+    expect(at.exactCost).toBe(REFERENCE_EXACT_LIMIT ** 3 / 2);
+  });
+  it('chooseLeaveOneOutPath follows --exact up to EXACT_SAMPLE_LIMIT samples and refuses it above', () => {
+    expect(chooseLeaveOneOutPath({ samples: EXACT_SAMPLE_LIMIT, force: 'exact' }).path).toBe('exact');
+    expect(thrown(() => chooseLeaveOneOutPath({ samples: EXACT_SAMPLE_LIMIT + 1, force: 'exact' }))?.code).toBe('bad-option');
+    expect(chooseLeaveOneOutPath({ samples: 50, force: 'local' })).toMatchObject({ path: 'local', automatic: false });
+  });
+});
+
+describe('localTargetCost', () => {
+  it('localTargetCost is m³/6 + m²/2 + K·(m + m²/16), the per-target term of localCost', () => {
+    expect(localTargetCost(64)).toBe(64 ** 3 / 6 + 64 * 64 / 2 + KERNEL_COST * (64 + 64 * 64 / 16));
+    // Doubling the neighbours costs about eight times as much per target (the growth budget's unit).
+    expect(localTargetCost(256) / localTargetCost(128)).toBeGreaterThan(7);
+    expect(localTargetCost(256) / localTargetCost(128)).toBeLessThan(8);
   });
 });
