@@ -4,9 +4,10 @@
  * by the main thread terminating this worker (see ./client.ts).
  */
 import { createEngineHandler } from './handler.ts';
+import { ENGINE_OPERATIONS } from './operations.ts';
 
 const scope = globalThis as unknown as DedicatedWorkerGlobalScope;
-const handle = createEngineHandler();
+const handle = createEngineHandler(ENGINE_OPERATIONS);
 
 scope.onmessage = (event: MessageEvent<unknown>) => {
   handle(event.data, (message, transfer) => scope.postMessage(message, transfer));

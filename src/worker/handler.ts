@@ -26,7 +26,7 @@ import { GapwiseError } from '../core/shared/errors.ts';
 import type { Samples } from '../core/shared/samples.ts';
 import { isCovariateTrend, type CovarianceModel } from '../core/covariance/model.ts';
 import { attachTrendCoefficients } from '../core/fitting/covariate-fit.ts';
-import { readSamples } from '../io/intake.ts';
+import type { readSamples } from '../io/intake.ts';
 import { runDesignRequest } from './design-handler.ts';
 import { runLikelihoodPart } from './likelihood-part.ts';
 import {
@@ -54,12 +54,14 @@ export interface EngineOperations {
   simulateConditional: typeof simulateConditional;
   vecchiaFit: typeof vecchiaFit;
   createLocalPredictor: typeof createLocalPredictor;
-  readSamples: typeof readSamples;
+  /** Reading a samples file: only the app's worker has it (./operations.ts), so the command line's workers never load the file reader. */
+  readSamples?: typeof readSamples;
 }
 
-export const ENGINE_OPERATIONS: EngineOperations = {
+/** The computing operations, without the file reader (what the command line's engine threads run). */
+export const COMPUTE_OPERATIONS: EngineOperations = {
   fitModel, fitCandidates, fitAnisotropic, fitNested, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
-  createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor, readSamples,
+  createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor,
 };
 
 /** Progress is posted when it has moved by at least this fraction (and at the end). */
@@ -99,7 +101,7 @@ function checkSamples(samples: unknown): asserts samples is Samples {
  * Creates a handler with its own predictor cache. Call it with each incoming message; it posts
  * progress, then exactly one result or error for the request's id.
  */
-export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): (message: unknown, send: Send) => void {
+export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS): (message: unknown, send: Send) => void {
   let cached: { key: string; predictor: Predictor } | null = null;
 
   const predictorFor = (samples: Samples, model: CovarianceModel): Predictor => {
@@ -209,6 +211,7 @@ export function createEngineHandler(ops: EngineOperations = ENGINE_OPERATIONS): 
       }
       case 'readSamples': {
         const q = p as RequestPayloads['readSamples'];
+        if (!ops.readSamples) throw new Error('This engine worker reads no files: the command line reads them on its main thread.');
         return ops.readSamples(q.text, q.options) as ResultPayloads[K];
       }
       case 'design':

@@ -1,7 +1,8 @@
 // A stand-in for a worker transport in Node: messages are structured-cloned both ways (transfer lists
 // honoured, so transferred buffers are detached on the sending side), handled by the real engine
 // handler on a later tick, and nothing is delivered after terminate().
-import { createEngineHandler, ENGINE_OPERATIONS, type EngineOperations } from '../../src/worker/handler.ts';
+import { createEngineHandler, type EngineOperations } from '../../src/worker/handler.ts';
+import { ENGINE_OPERATIONS } from '../../src/worker/operations.ts';
 import type { Transport } from '../../src/worker/transport.ts';
 
 export class FakeWorker implements Transport {

@@ -1,5 +1,7 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { createEngineHandler, ENGINE_OPERATIONS, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
+import { createEngineHandler, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
+import { ENGINE_OPERATIONS } from '../../src/worker/operations.ts';
 import type { EngineResponse } from '../../src/worker/protocol.ts';
 import type { IntakeResult } from '../../src/io/types.ts';
 import { rowAt } from '../../src/io/sample-table.ts';
@@ -30,7 +32,7 @@ const samples = makeSamples(fx.x as number[], fx.y as number[], fx.cases[1].valu
 const model = fx.cases[1].model;
 const grid: Grid = { ...(fx.grid as Omit<Grid, 'mask'>), mask: Uint8Array.from(fx.mask as number[]) };
 
-function collect(ops?: EngineOperations) {
+function collect(ops: EngineOperations = ENGINE_OPERATIONS) {
   const handle = createEngineHandler(ops);
   const sent: { message: EngineResponse; transfer: ArrayBuffer[] }[] = [];
   return { sent, run: (m: unknown) => handle(m, (message, transfer) => sent.push({ message, transfer })) };
@@ -363,5 +365,19 @@ describe('predictorKey', () => {
     expect(check.accuracy.within).toBe(false);
     expect(check.grown).toBeNull();
     expect(check.attempts).toEqual([]);
+  });
+});
+
+describe('the command line\'s engine threads', () => {
+  it('load no file reader: handler.ts and the thread entry import nothing from io/ but types, and the default handler refuses readSamples', () => {
+    for (const file of ['../../src/worker/handler.ts', '../../src/cli/engine.worker.ts', '../../src/worker/design-handler.ts', '../../src/worker/likelihood-part.ts']) {
+      const text = readFileSync(new URL(file, import.meta.url), 'utf8');
+      const valueImports = [...text.matchAll(/^import\s+(?!type\b)[^;]*?from\s+'([^']+)'/gm)].map((m) => m[1]);
+      expect(valueImports.filter((m) => m.includes('/io/')), file).toEqual([]);
+    }
+    const handle = createEngineHandler();
+    const sent: EngineResponse[] = [];
+    handle({ id: 1, type: 'readSamples', payload: { text: 'x,y,v\n1,2,3\n', options: { fileName: 'a.csv' } } }, (m) => sent.push(m));
+    expect(sent.at(-1)).toMatchObject({ id: 1, type: 'error', error: { code: 'internal' } });
   });
 });

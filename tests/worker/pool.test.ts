@@ -5,7 +5,8 @@ import { computeBlockSurface } from '../../src/core/prediction/block-kriging.ts'
 import { cellCentres, type Grid } from '../../src/core/geometry/grid.ts';
 import { makeSamples } from '../../src/core/shared/samples.ts';
 import type { CovarianceModel } from '../../src/core/covariance/model.ts';
-import { ENGINE_OPERATIONS, type EngineOperations } from '../../src/worker/handler.ts';
+import type { EngineOperations } from '../../src/worker/handler.ts';
+import { ENGINE_OPERATIONS } from '../../src/worker/operations.ts';
 import { GapwiseError } from '../../src/core/shared/errors.ts';
 import { fakeFactory } from './fake-worker.ts';
 import { loadFixture } from '../helpers/fixtures.ts';
