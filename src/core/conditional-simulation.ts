@@ -47,6 +47,7 @@ import { designRow, trendColumnCount, type CoordinateFrame } from './trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from './random.ts';
 import { NeighborIndex } from './neighbors.ts';
+import { neighbourhoodFailureAdvice } from './numerical-advice.ts';
 import type { Grid } from './grid.ts';
 import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from './exceedance-area.ts';
 
@@ -341,7 +342,7 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
         }
         ok = choleskyInPlace(L, q);
       }
-      if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised; merge duplicate samples or add a nugget.`);
+      if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, samples.value, model)}.`);
       jittered++;
     }
     if (p > 0) {
