@@ -6,6 +6,7 @@ import { GapwiseError } from '../../src/core/errors.ts';
 import { parseModel, type CovarianceModel } from '../../src/core/model.ts';
 import { createLocalPredictor } from '../../src/core/local-kriging.ts';
 import { vecchiaTrend } from '../../src/core/vecchia.ts';
+import { searchLikelihood } from '../../src/core/fit-search.ts';
 import { thrown } from '../helpers/thrown.ts';
 
 // Ten samples along a bent line, 10 m apart, values about 5 ± 2.
@@ -77,5 +78,18 @@ describe('numerical advice on the local-neighbourhood and nearest-neighbour path
     const e = thrown(() => vecchiaTrend({ x, y, value }, parseModel({ structures: [{ type: 'exponential', sill: 0, scale: 30 }] }), { neighbors: 5 }));
     expect(e.code).toBe('not-positive-definite');
     expect(e.message).toBe('The covariance of neighbouring samples is not positive definite: try another family, a nugget, or a log transform for positive, right-skewed values.');
+  });
+});
+
+describe('numerical advice of the richer likelihood fits', () => {
+  it('searchLikelihood on values of 1e200 says the values are out of scale', () => {
+    const e = thrown(() => searchLikelihood({ x, y, value: value.map((v) => v * 1e200) }, { family: 'exponential', trend: 'constant' }, undefined as never, {
+      parameters: [{ lower: 1, upper: 1e4, log: true, step: 0.5 }],
+      starts: [[20], [60]],
+      toTheta: (p) => ({ scale: p[0], nuggetRatio: 0.1 }),
+      allowJitter: true,
+    }, { what: 'test model' }));
+    expect(e.code).toBe('fit-failed');
+    expect(e.message).toMatch(/^No starting value gave a finite likelihood for the test model \(10 samples\): the values reach .*, too large to square in double precision/);
   });
 });
