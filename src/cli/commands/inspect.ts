@@ -10,7 +10,31 @@ import {
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
-import { sampleFlags, sampleId } from '../../io/sample-table.ts';
+import { sampleFlags, sampleId, type SampleTable } from '../../io/sample-table.ts';
+
+/** Characters of CSV text in one piece of `samplesCsvChunks` (about a mebibyte). */
+const CHUNK_CHARS = 1 << 20;
+
+/**
+ * The samples as read, as CSV (id, x, y in the input CRS, value, flags; LF line ends), in pieces of
+ * whole lines of about `chunkChars` characters: a writer that takes them one by one never holds the
+ * text of ten million samples as one string.
+ */
+export function* samplesCsvChunks(t: SampleTable, chunkChars = CHUNK_CHARS): Generator<string> {
+  let lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
+  let chars = 0;
+  for (let i = 0; i < t.length; i++) {
+    const line = csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]);
+    lines.push(line);
+    chars += line.length + 1;
+    if (chars >= chunkChars) {
+      yield `${lines.join('\n')}\n`;
+      lines = [];
+      chars = 0;
+    }
+  }
+  if (lines.length) yield `${lines.join('\n')}\n`;
+}
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const intake = readSamplesFile(io, values);
@@ -20,12 +44,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out');
   if (out !== undefined) {
     const r = intake.report;
-    const lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
-    const t = intake.table;
-    for (let i = 0; i < t.length; i++) {
-      lines.push(csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]));
-    }
-    await writeOutput(io, out, `${lines.join('\n')}\n`);
+    await writeOutput(io, out, samplesCsvChunks(intake.table));
     io.stderr(`wrote ${intake.table.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
     io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }
