@@ -9,31 +9,20 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
+import { CSV_CAUTION, PIECE_CHARS, csvLine, formatNumber, linePieces } from '../csv.ts';
 import { sampleFlags, sampleId, type SampleTable } from '../../io/sample-table.ts';
-
-/** Characters of CSV text in one piece of `samplesCsvChunks` (about a mebibyte). */
-const CHUNK_CHARS = 1 << 20;
 
 /**
  * The samples as read, as CSV (id, x, y in the input CRS, value, flags; LF line ends), in pieces of
  * whole lines of about `chunkChars` characters: a writer that takes them one by one never holds the
  * text of ten million samples as one string.
  */
-export function* samplesCsvChunks(t: SampleTable, chunkChars = CHUNK_CHARS): Generator<string> {
-  let lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
-  let chars = 0;
-  for (let i = 0; i < t.length; i++) {
-    const line = csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]);
-    lines.push(line);
-    chars += line.length + 1;
-    if (chars >= chunkChars) {
-      yield `${lines.join('\n')}\n`;
-      lines = [];
-      chars = 0;
-    }
-  }
-  if (lines.length) yield `${lines.join('\n')}\n`;
+export function samplesCsvChunks(t: SampleTable, chunkChars = PIECE_CHARS): Generator<string> {
+  return linePieces(t.length + 1, (k) => {
+    if (k === 0) return csvLine(['id', 'x', 'y', 'value', 'flags']);
+    const i = k - 1;
+    return csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]);
+  }, '\n', chunkChars);
 }
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
