@@ -19,7 +19,7 @@ import { cellCount, type Grid } from '../core/grid.ts';
 import type { SurfaceResult } from '../core/surface.ts';
 import type { IntakeResult } from '../io/types.ts';
 import { bandDescriptions, bandsGeoTiff } from '../io/geotiff.ts';
-import { analyteGridCsv } from '../io/grid-csv.ts';
+import { analyteGridCsvChunks } from '../io/grid-csv.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../io/project.ts';
 import { numberOption, stringOption } from './args.ts';
 import {
@@ -248,7 +248,7 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
   } else {
-    await writeOutput(io, out, analyteGridCsv({ grid, workCrs, analytes: surfaces }));
+    await writeOutput(io, out, analyteGridCsvChunks({ grid, workCrs, analytes: surfaces }));
   }
   printWarnings(io, warnings);
   io.stdout(jsonText({
