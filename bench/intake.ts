@@ -79,6 +79,7 @@ async function childRead(file: string): Promise<void> {
   const seconds = (performance.now() - t0) / 1000;
   const c1 = process.cpuUsage(c0);
   const cpu = (c1.user + c1.system) / 1e6;
+  // maxRSS is in KiB: the figure is in MiB.
   const peakMB = process.resourceUsage().maxRSS / 1024;
   console.log(JSON.stringify({ seconds, cpu, peakMB, rows, refused }));
 }
@@ -93,7 +94,7 @@ function fileFigure(dir: string, n: number): Row {
   if (child.status !== 0) throw new Error(`bench child failed: ${child.stderr}`);
   const r = JSON.parse(child.stdout.trim().split('\n').pop() as string) as { seconds: number; cpu: number; peakMB: number; rows: number; refused: string };
   const what = r.refused ? `refused: "${r.refused}"` : `${r.rows.toLocaleString('en-US')} rows used, ${Math.round(n / r.seconds).toLocaleString('en-US')} rows/s`;
-  return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `CPU ${r.cpu.toFixed(1)} s (all threads); file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MB (whole process); ${what}` };
+  return { name: 'CSV file streamed → samples (CLI path)', n, seconds: r.seconds, note: `CPU ${r.cpu.toFixed(1)} s (all threads); file ${(bytes / MB).toFixed(0)} MB; peak RSS ${r.peakMB.toFixed(0)} MiB = ${(r.peakMB * 1.048576).toFixed(0)} MB (whole process); ${what}` };
 }
 
 /** The file figures: 1 M rows (quick: 100,000), the row limit (10 M rows) and one row past it; `sizes` picks others. */

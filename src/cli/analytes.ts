@@ -19,7 +19,7 @@ import { cellCount, type Grid } from '../core/geometry/grid.ts';
 import type { SurfaceResult } from '../core/prediction/surface.ts';
 import type { IntakeResult } from '../io/types.ts';
 import { bandDescriptions, bandsGeoTiff, localAccuracyMetadata } from '../io/geotiff.ts';
-import { analyteColumnName, analyteGridCsv } from '../io/grid-csv.ts';
+import { analyteColumnName, analyteGridCsvChunks } from '../io/grid-csv.ts';
 import { trendColumnCount } from '../core/covariance/trend.ts';
 import { isCovariateTrend } from '../core/covariance/model.ts';
 import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../core/prediction/local-accuracy.ts';
@@ -306,7 +306,7 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
   } else {
-    await writeOutput(io, out, analyteGridCsv({ grid, workCrs, analytes: surfaces }));
+    await writeOutput(io, out, analyteGridCsvChunks({ grid, workCrs, analytes: surfaces }));
   }
   printWarnings(io, warnings);
   io.stdout(jsonText({

@@ -122,6 +122,13 @@ export function analyteColumnName(name: string): string {
  * comment line as surfaceGridCsv.
  */
 export function analyteGridCsv(input: AnalyteGridCsvInput): string {
+  let text = '';
+  for (const piece of analyteGridCsvChunks(input)) text += piece;
+  return text;
+}
+
+/** The same CSV text as `analyteGridCsv`, in pieces of whole lines of about `chunkChars` characters. */
+export function* analyteGridCsvChunks(input: AnalyteGridCsvInput, chunkChars = CHUNK_CHARS): Generator<string> {
   const { grid } = input;
   const { x, y, index } = cellCentres(grid);
   const geo = input.workCrs === LOCAL_CRS ? null : createTransform(input.workCrs, 'EPSG:4326').forwardMany(x, y);
@@ -137,7 +144,8 @@ export function analyteGridCsv(input: AnalyteGridCsvInput): string {
     described.push(`${base}_mean, ${base}_sd${a.unit ? ` in ${a.unit}` : ''}`
       + (a.surface.pExceed ? `, ${base}_p_exceed = P(${base} > ${a.surface.threshold ?? 'threshold'}${a.unit ? ` ${a.unit}` : ''})` : ''));
   }
-  const lines: string[] = [];
+  let lines: string[] = [];
+  let chars = 0;
   if (input.caution !== false) {
     const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
     lines.push(csvComment(`${CSV_CAUTION} ${where}; ${described.join('; ')}`));
@@ -151,7 +159,14 @@ export function analyteGridCsv(input: AnalyteGridCsvInput): string {
       row.push(num(a.surface.mean[k], digits[i][0]), num(a.surface.sd[k], digits[i][1]));
       if (a.surface.pExceed) row.push(num(a.surface.pExceed[k], digits[i][2]));
     });
-    lines.push(row.join(','));
+    const line = row.join(',');
+    lines.push(line);
+    chars += line.length + 1;
+    if (chars >= chunkChars) {
+      yield `${lines.join('\n')}\n`;
+      lines = [];
+      chars = 0;
+    }
   }
-  return `${lines.join('\n')}\n`;
+  if (lines.length) yield `${lines.join('\n')}\n`;
 }

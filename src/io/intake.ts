@@ -13,8 +13,10 @@ import { LOCAL_CRS, chooseWorkCrs, createTransform, resolveCrs } from './crs.ts'
 import type { ResolvedCrs } from './crs.ts';
 import { chooseMarkFrom, isMissing, markEvidence, nonDetectLimit, parseColumnNumber } from './numbers.ts';
 import type { ColumnMarks, MarkEvidence } from './numbers.ts';
-import { Chunked, ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
+import { ColumnBuilder, FLAG_DUP, FLAG_ND, FLAG_OUTLIER, cellText, plainDecimalsAt, plainNumberAt, setOwn } from './sample-table.ts';
 import type { SampleTable, StoredColumn } from './sample-table.ts';
+import { GrowingArray, type TypedKind } from './growing-array.ts';
+import { ReadNotes, lazyEntries } from './read-notes.ts';
 import { duplicateGroups, outlierIndices, sortedCopy, summarise, transformAdvice } from './quality.ts';
 import { formatValue } from './format.ts';
 import type { CrsInfo, IntakeOptions, IntakeResult, NonDetectRule, ReadReport, ReportEntry } from './types.ts';
@@ -101,7 +103,7 @@ interface Table {
 /** Cells of rows stored by column as they arrive. */
 class RecordStore {
   readonly builders: ColumnBuilder[];
-  private readonly lineChunks = new Chunked((n) => new Uint32Array(n));
+  private readonly lineChunks = new GrowingArray(Uint32Array as TypedKind<Uint32Array>, MAX_SAMPLE_ROWS + 1);
   n = 0;
 
   constructor(width: number) {
@@ -547,7 +549,9 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   const { columns } = table;
   const nRows = table.rowCount;
   const rowIndex = table.rows;
-  const entries: ReportEntry[] = [...table.entries];
+  // Row notes, compactly: non-detects and outliers (by the hundred thousand in a large file) take a few bytes each.
+  const notes = new ReadNotes();
+  for (const e of table.entries) notes.add(e);
   const warnings: Warning[] = [...table.warnings];
   const norm = columns.map(normaliseName);
 
@@ -676,7 +680,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     return text;
   };
   let rec = 0;
-  const reject = (field: string, raw: string, reason: string) => entries.push({ ...placeOf(table, rec), field, raw, action: 'rejected', reason });
+  const reject = (field: string, raw: string, reason: string) => notes.add({ ...placeOf(table, rec), field, raw, action: 'rejected', reason });
   const cell = (col: number) => cellText(table.store[col], rec);
   const dlFromColumn = (): number | null => {
     if (dlCol < 0) return null;
@@ -728,7 +732,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
         }
         if (px1.grouped || py1.grouped) {
           grouped.push(rec);
-          entries.push({ ...placeOf(table, rec), field: px1.grouped ? columns[xCol] : columns[yCol], raw: px1.grouped ? xs : ys, action: 'changed', reason: `thousands separators removed: read as ${px1.grouped ? px1.value : py1.value}` });
+          notes.add({ ...placeOf(table, rec), field: px1.grouped ? columns[xCol] : columns[yCol], raw: px1.grouped ? xs : ys, action: 'changed', reason: `thousands separators removed: read as ${px1.grouped ? px1.value : py1.value}` });
         }
         x = px1.value;
         y = py1.value;
@@ -777,7 +781,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
         }
         if (p.grouped) {
           grouped.push(rec);
-          entries.push({ ...placeOf(table, rec), field: valueName, raw: vs, action: 'changed', reason: `thousands separators removed: read as ${p.value}` });
+          notes.add({ ...placeOf(table, rec), field: valueName, raw: vs, action: 'changed', reason: `thousands separators removed: read as ${p.value}` });
         }
         if (qualSaysNd) {
           nd = true;
@@ -794,7 +798,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       value = dl * factor;
       ndCount++;
       const qualNote = qualSaysNd && ndText === null ? ` (qualifier ${quoted(cell(qualCol).trim())} in ${quoted(columns[qualCol])})` : '';
-      entries.push({ ...placeOf(table, rec), field: valueName, raw: vs, action: 'changed', reason: ndReason(dl, qualNote, value) });
+      // The note's raw text is the value cell's (vs), read again from the store when the entries are built.
+      notes.nonDetect(rec, ndReason(dl, qualNote, value));
     }
     px[np] = x;
     py[np] = y;
@@ -812,15 +817,15 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   if (unknownQualifiers.size) {
     warnings.push({ code: 'unknown-qualifier', message: `Qualifier values ${[...unknownQualifiers].slice(0, 8).map((v) => `${quoted(v)}`).join(', ')} in ${quoted(columns[qualCol])} were taken as detected.` });
   }
-  const rejected = entries.filter((e) => e.action === 'rejected');
+  const rejectedCount = notes.count('rejected');
   if (np === 0) {
-    const first = rejected[0];
+    const first = notes.firstRejected;
     const detail = first ? ` The first rejected (at the place named): ${first.reason}.` : '';
     throw new GapwiseError('bad-value', `None of the ${nRows + (table.entries.filter((e) => e.action === 'rejected').length)} rows could be used; expected at least one row with coordinates and a value.${detail}`, { file, row: first?.line, feature: first?.feature, column: first?.field, raw: first?.raw });
   }
-  if (options.strict && rejected.length) {
-    const first = rejected[0];
-    throw new GapwiseError('bad-value', `${rejected.length} row${rejected.length === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${first.reason}.`, { file, row: first.line, feature: first.feature, column: first.field, raw: first.raw });
+  if (options.strict && rejectedCount) {
+    const first = notes.firstRejected as ReportEntry;
+    throw new GapwiseError('bad-value', `${rejectedCount} row${rejectedCount === 1 ? ' was' : 's were'} rejected; the first (at the place named): ${first.reason}.`, { file, row: first.line, feature: first.feature, column: first.field, raw: first.raw });
   }
 
   // --- CRS ----------------------------------------------------------------------------------
@@ -917,7 +922,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       // A few rows out of range: each is rejected with its line; the rest are read.
       for (const q of bad) {
         const qLat = !(py[q] >= -90 && py[q] <= 90);
-        entries.push({ ...placeOf(table, prec[q]), field: qLat ? yName : xName, raw: String(qLat ? py[q] : px[q]), action: 'rejected', reason: `${what(q)}; expected degrees in ${input.key}` });
+        notes.add({ ...placeOf(table, prec[q]), field: qLat ? yName : xName, raw: String(qLat ? py[q] : px[q]), action: 'rejected', reason: `${what(q)}; expected degrees in ${input.key}` });
       }
       const firstText = what(p);
       const at = placeOf(table, prec[p]);
@@ -949,7 +954,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
         outside.forEach((q, k) => {
           const [lon, lat] = places[k];
           const where = Number.isFinite(lon) && Number.isFinite(lat) ? `: at latitude ${lat.toFixed(2)}°, longitude ${lon.toFixed(2)}°` : '';
-          entries.push({ ...placeOf(table, prec[q]), field: xName, raw: `${px[q]}, ${py[q]}`, action: 'rejected', reason: `more than 1° outside the area of use of ${input.key} (${input.name})${where}, where the other samples are inside` });
+          notes.add({ ...placeOf(table, prec[q]), field: xName, raw: `${px[q]}, ${py[q]}`, action: 'rejected', reason: `more than 1° outside the area of use of ${input.key} (${input.name})${where}, where the other samples are inside` });
         });
         if (options.strict && outside.length) {
           const at = placeOf(table, prec[outside[0]]);
@@ -992,7 +997,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     for (let i = 0; i < np; i++) {
       const [a, b] = toWork.forward(px[i], py[i]);
       if (!Number.isFinite(a) || !Number.isFinite(b)) {
-        entries.push({ ...placeOf(table, prec[i]), field: xName, raw: `${px[i]}, ${py[i]}`, action: 'rejected', reason: `cannot be projected from ${input.key} to ${work.key}` });
+        notes.add({ ...placeOf(table, prec[i]), field: xName, raw: `${px[i]}, ${py[i]}`, action: 'rejected', reason: `cannot be projected from ${input.key} to ${work.key}` });
         continue;
       }
       px[j] = px[i];
@@ -1010,38 +1015,36 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     throw new GapwiseError('bad-value', `None of the samples could be projected from ${input.key} to ${work.key}; check the CRS.`, { file });
   }
   const kept = np;
-  px = fit(px, kept);
-  py = fit(py, kept);
-  pv = fit(pv, kept);
-  pnd = fit(pnd, kept);
-  prec = fit(prec, kept);
-  const kx = fit(wx, kept);
-  const ky = fit(wy, kept);
+  const kx = wx.subarray(0, kept);
+  const ky = wy.subarray(0, kept);
 
   // --- samples, duplicates ------------------------------------------------------------------
   const groups = duplicateGroups(kx, ky, tolerance);
   const merge = dupRule === 'merge' && groups.length > 0;
   let n = kept;
   if (merge) for (const g of groups) n -= g.length - 1;
-  const out = {
-    inputX: merge ? new Float64Array(n) : px,
-    inputY: merge ? new Float64Array(n) : py,
-    value: merge ? new Float64Array(n) : pv,
-    sx: merge ? new Float64Array(n) : kx,
-    sy: merge ? new Float64Array(n) : ky,
-    flags: new Uint8Array(n),
-    line: new Uint32Array(n),
-    record: merge ? new Uint32Array(n) : prec,
-  };
+  // Said before the rows are merged in place (they name the groups' rows).
+  if (groups.length) {
+    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(table, g.map((j) => prec[j]))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
+    warnings.push(
+      dupRule === 'merge'
+        ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }
+        : { code: 'duplicates-kept', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) kept as separate samples: ${text}. Kriging needs a nugget (measurement error) to use them.` },
+    );
+  }
+  // The samples are written over the parsed rows, in place: sample o comes from rows i ≥ o, and a
+  // merged group is read whole at its first row, before anything is written at or after it. The flags
+  // take the place of the non-detect marks. No second copy of the largest arrays.
+  const out = { inputX: px, inputY: py, value: pv, sx: wx, sy: wy, flags: pnd, line: new Uint32Array(n), record: prec };
   const mergedSample: number[] = [];
   const mergedStart: number[] = [0];
   const mergedRecords: number[] = [];
-  const inGroup = new Int32Array(groups.length ? kept : 0).fill(-1);
-  groups.forEach((g, k) => {
-    for (const i of g) inGroup[i] = k;
-  });
+  // The rows in groups, in ascending order, and each one's group: walked with i below.
+  const members = groupMembers(groups);
+  let nextMember = 0;
   for (let i = 0, o = 0; i < kept; i++) {
-    const g = groups.length && inGroup[i] >= 0 ? groups[inGroup[i]] : null;
+    let g: number[] | null = null;
+    if (nextMember < members.row.length && members.row[nextMember] === i) g = groups[members.group[nextMember++]];
     if (g && merge) {
       if (g[0] !== i) continue;
       let mx = 0;
@@ -1060,7 +1063,7 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       }
       const m = g.length;
       for (const j of g) {
-        entries.push({ ...placeOf(table, prec[j]), field: valueName, raw: cellText(table.store[valueCol], prec[j]), action: 'merged', reason: `same location as ${listPlaces(table, g.filter((k) => k !== j).map((k) => prec[k]))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
+        notes.add({ ...placeOf(table, prec[j]), field: valueName, raw: cellText(table.store[valueCol], prec[j]), action: 'merged', reason: `same location as ${listPlaces(table, g.filter((k) => k !== j).map((k) => prec[k]))} (within ${tolerance} m): merged into one sample with the mean value ${formatValue(mv / m, 4)}` });
       }
       out.inputX[o] = ix / m;
       out.inputY[o] = iy / m;
@@ -1088,23 +1091,21 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
       o++;
     }
   }
-  if (groups.length) {
-    const text = groups.slice(0, LIST_NAMES).map((g) => listPlaces(table, g.map((j) => prec[j]))).join('; ') + (groups.length > LIST_NAMES ? `; and ${(groups.length - LIST_NAMES).toLocaleString('en-US')} more` : '');
-    warnings.push(
-      dupRule === 'merge'
-        ? { code: 'duplicates-merged', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) merged by their mean value: ${text}.` }
-        : { code: 'duplicates-kept', message: `${groups.length} duplicate location${groups.length === 1 ? '' : 's'} (within ${tolerance} m) kept as separate samples: ${text}. Kriging needs a nugget (measurement error) to use them.` },
-    );
-  }
 
+  out.inputX = fit(out.inputX, n);
+  out.inputY = fit(out.inputY, n);
+  out.value = fit(out.value, n);
+  out.sx = fit(out.sx, n);
+  out.sy = fit(out.sy, n);
+  out.flags = fit(out.flags, n);
+  out.record = fit(out.record, n);
   // --- quality ------------------------------------------------------------------------------
   const sv = out.value;
   const sortedValues = sortedCopy(sv);
   const outliers = outlierIndices(sv, 3, sortedValues);
   for (const i of outliers) {
     out.flags[i] |= FLAG_OUTLIER;
-    const first = out.line[i];
-    entries.push({ ...(format === 'csv' ? { line: first } : { feature: first }), field: valueName, raw: String(sv[i]), action: 'flagged', reason: 'outlier: beyond 3 interquartile ranges from the quartiles; kept' });
+    notes.outlier(out.line[i], sv[i]);
   }
   if (outliers.length) {
     warnings.push({ code: 'outliers', message: `${outliers.length} value${outliers.length === 1 ? '' : 's'} beyond 3 interquartile ranges from the quartiles (flagged, kept): ${outliers.slice(0, 12).map((i) => `${sv[i]} (${format === 'csv' ? 'line' : 'feature'} ${out.line[i]})`).join(', ')}${outliers.length > 12 ? ` and ${outliers.length - 12} more` : ''}.` });
@@ -1118,11 +1119,10 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
   if (ndCount) {
     warnings.push({ code: 'non-detects', message: `${ndCount} non-detect${ndCount === 1 ? '' : 's'} replaced by ${RULE_TEXT[rule]}. ${NON_DETECT_NOTE}` });
   }
-  const rejectedCount = entries.filter((e) => e.action === 'rejected').length;
-  if (rejectedCount) {
-    warnings.push({ code: 'rejected-rows', message: `${rejectedCount} row${rejectedCount === 1 ? ' was' : 's were'} rejected; the read report lists each with its reason.` });
+  const rejectedRows = notes.count('rejected');
+  if (rejectedRows) {
+    warnings.push({ code: 'rejected-rows', message: `${rejectedRows} row${rejectedRows === 1 ? ' was' : 's were'} rejected; the read report lists each with its reason.` });
   }
-  entries.sort((a, b) => (a.line ?? a.feature ?? 0) - (b.line ?? b.feature ?? 0));
 
   const crs: CrsInfo = {
     input: input.key,
@@ -1153,7 +1153,8 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     nonDetects: { count: ndCount, rule, note: NON_DETECT_NOTE },
     duplicates: { groups: groups.length, rule: dupRule, tolerance },
     outliers,
-    entries,
+    // Built from the notes when first read (below).
+    entries: [],
     warnings,
     transformAdvice: transformAdvice(summary),
     summary,
@@ -1180,12 +1181,37 @@ function samplesFromTable(table: Table, format: 'csv' | 'geojson', options: Inta
     ...(table.featureIds ? { featureIds: table.featureIds } : {}),
     ...(table.lon && table.lat ? { geometry: { lon: table.lon, lat: table.lat } } : {}),
   };
+  const store = table.store;
+  lazyEntries(report, () => notes.entries({ place: (rec) => placeOf(table, rec), raw: (rec) => cellText(store[valueCol], rec), field: valueName }, valueName, format));
   return { samples: { x: out.sx, y: out.sy, value: out.value }, table: sampleTable, report };
 }
 
-/** `a` itself when it holds exactly n items, else a copy of its first n. */
+/**
+ * The first n items of `a`: `a` itself when it holds exactly n, a view of them when at most an eighth
+ * of it would be left unused (no copy of a large array for a few rejected or merged rows), else a copy.
+ */
 function fit<T extends Float64Array | Uint8Array | Uint32Array>(a: T, n: number): T {
-  return (a.length === n ? a : a.slice(0, n)) as T;
+  if (a.length === n) return a;
+  return (8 * (a.length - n) <= a.length ? a.subarray(0, n) : a.slice(0, n)) as T;
+}
+
+/** The rows of all groups in ascending order, and the group of each. */
+function groupMembers(groups: number[][]): { row: Uint32Array; group: Uint32Array } {
+  let count = 0;
+  for (const g of groups) count += g.length;
+  const rows = new Uint32Array(count);
+  const of = new Uint32Array(count);
+  let k = 0;
+  groups.forEach((g, j) => {
+    for (const i of g) {
+      rows[k] = i;
+      of[k++] = j;
+    }
+  });
+  const order = new Uint32Array(count);
+  for (let a = 0; a < count; a++) order[a] = a;
+  order.sort((a, b) => rows[a] - rows[b]);
+  return { row: order.map((a) => rows[a]), group: order.map((a) => of[a]) };
 }
 
 export { rowAt, sampleId, sampleIds } from './sample-table.ts';

@@ -15,6 +15,8 @@ import type { ReadReport, SampleRow, SampleTable, StoredColumn } from './types.t
 export type { SampleTable, StoredColumn } from './types.ts';
 import type { ColumnMarks } from './numbers.ts';
 import { LIST_NAMES, quoted } from './quote.ts';
+import { GrowingArray, type TypedKind } from './growing-array.ts';
+import { MAX_SAMPLE_BYTES, MAX_SAMPLE_ROWS } from './intake-limits.ts';
 
 /** Flag bits of `SampleTable.flags`. */
 export const FLAG_ND = 1;
@@ -32,65 +34,10 @@ const SAFE_DIGITS = 15;
 const encoder = new TextEncoder();
 const decoder = new TextDecoder();
 
-type Typed = Float64Array | Uint8Array | Uint32Array;
-const NOTHING = new Uint8Array(0);
-
-/**
- * A typed array that grows by chunks (16 items, doubling to 65,536): no large copy while a column is
- * read and at most one chunk unused, where doubling one array leaves up to half of it unused and
- * briefly holds both the old and the new array.
- */
-export class Chunked<T extends Typed> {
-  private full: T[] | null = null;
-  private current: T;
-  private used = 0;
-  length = 0;
-
-  constructor(private readonly make: (n: number) => T) {
-    // No array until the first item: a file may have a million columns of one row each.
-    this.current = NOTHING as unknown as T;
-  }
-
-  push(v: number): void {
-    if (this.used === this.current.length) {
-      if (this.current.length) (this.full ??= []).push(this.current);
-      this.current = this.make(Math.min(65536, Math.max(16, this.length)));
-      this.used = 0;
-    }
-    this.current[this.used++] = v;
-    this.length++;
-  }
-
-  /** Item k (walks the chunks: for the few reads made while a column is built). */
-  get(k: number): number {
-    for (const c of this.full ?? []) {
-      if (k < c.length) return c[k];
-      k -= c.length;
-    }
-    return this.current[k];
-  }
-
-  /** The items in one array of exactly their number; the chunks are released. */
-  take(): T {
-    const out = this.make(this.length);
-    let at = 0;
-    for (const c of this.full ?? []) {
-      out.set(c, at);
-      at += c.length;
-    }
-    out.set(this.current.subarray(0, this.used), at);
-    this.full = null;
-    this.current = NOTHING as unknown as T;
-    this.used = 0;
-    this.length = 0;
-    return out;
-  }
-}
-
-const f64 = (n: number) => new Float64Array(n);
+const f64 = Float64Array as TypedKind<Float64Array>;
+const u8 = Uint8Array as TypedKind<Uint8Array>;
+const u32 = Uint32Array as TypedKind<Uint32Array>;
 const plainRead = { value: 0 };
-const u8 = (n: number) => new Uint8Array(n);
-const u32 = (n: number) => new Uint32Array(n);
 
 /** Powers of ten that doubles hold exactly (10^0 … 10^22). */
 const POW10 = Array.from({ length: 23 }, (_, k) => Number(`1e${k}`));
@@ -150,18 +97,24 @@ function plainDecimals(s: string, plain: { value: number }): number {
 export class ColumnBuilder {
   private kind: 'numbers' | 'codes' | 'texts' = 'numbers';
   private n = 0;
-  private values = new Chunked(f64);
-  private decimals = new Chunked(u8);
+  private values: GrowingArray<Float64Array>;
+  private decimals: GrowingArray<Uint8Array>;
   private otherAt: number[] | null = null;
   private otherText: string[] | null = null;
   // Made when the column turns to text.
-  private codes!: Chunked<Uint32Array>;
+  private codes!: GrowingArray<Uint32Array>;
   private levels: string[] = [];
   private index: Map<string, number> | null = null;
-  private bytes!: Chunked<Uint8Array>;
-  /** End of each cell's bytes (cell k ends at ends[k], starts at ends[k - 1] or 0). */
-  private ends!: Chunked<Uint32Array>;
+  private bytes!: GrowingArray<Uint8Array>;
+  /** Start of each cell's bytes, then the end of the last: 0, end of cell 0, end of cell 1, … (the offsets). */
+  private ends!: GrowingArray<Uint32Array>;
   private usedBytes = 0;
+
+  /** @param rows Cells the column is expected to hold at most (MAX_SAMPLE_ROWS): the room reserved to grow in. */
+  constructor(private readonly rows = MAX_SAMPLE_ROWS) {
+    this.values = new GrowingArray(f64, rows);
+    this.decimals = new GrowingArray(u8, rows);
+  }
 
   get length(): number {
     return this.n;
@@ -243,9 +196,9 @@ export class ColumnBuilder {
       all.push(d === EMPTY ? '' : d === OTHER ? (this.otherText as string[])[other++] : this.values.get(k).toFixed(d));
     }
     this.kind = 'codes';
-    this.codes = new Chunked(u32);
-    this.values = new Chunked(f64);
-    this.decimals = new Chunked(u8);
+    this.codes = new GrowingArray(u32, this.rows);
+    this.values = new GrowingArray(f64, 0);
+    this.decimals = new GrowingArray(u8, 0);
     this.otherAt = null;
     this.otherText = null;
     this.n = 0;
@@ -260,8 +213,10 @@ export class ColumnBuilder {
     const codes = this.codes.take();
     const levels = this.levels;
     this.kind = 'texts';
-    this.bytes = new Chunked(u8);
-    this.ends = new Chunked(u32);
+    // UTF-8 of a column read from at most MAX_SAMPLE_BYTES (Latin-1 letters take two bytes each).
+    this.bytes = new GrowingArray(u8, 2 * MAX_SAMPLE_BYTES);
+    this.ends = new GrowingArray(u32, this.rows + 1);
+    this.ends.push(0);
     this.levels = [];
     this.index = null;
     for (let k = 0; k < codes.length; k++) this.pushText(levels[codes[k]]);
@@ -281,10 +236,7 @@ export class ColumnBuilder {
       return col;
     }
     if (this.kind === 'codes') return { kind: 'codes', length: n, codes: this.codes.take(), levels: this.levels };
-    const ends = this.ends.take();
-    const offsets = new Uint32Array(n + 1);
-    offsets.set(ends, 1);
-    return { kind: 'texts', length: n, bytes: this.bytes.take(), offsets };
+    return { kind: 'texts', length: n, bytes: this.bytes.take(), offsets: this.ends.take() };
   }
 }
 

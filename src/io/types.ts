@@ -76,6 +76,11 @@ export interface ReadReport {
   duplicates: { groups: number; rule: DuplicateRule; tolerance: number };
   /** Indices into `rows` / `samples` of values beyond 3 IQR from the quartiles (flagged, kept). */
   outliers: number[];
+  /**
+   * Every rejected, changed, merged or flagged row, in line (feature) order. The intake keeps them
+   * compactly (io/read-notes.ts) and builds this array on its first read; JSON, a structured clone
+   * and a spread see a plain array.
+   */
   entries: ReportEntry[];
   warnings: Warning[];
   /** Suggestion text for a log transform when the data are positive and skewed; '' otherwise. */

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { csvCell, csvLine, formatNumber, readCsvTable, recordText } from '../../src/cli/csv.ts';
+import { csvCell, csvLine, formatNumber, linePieces, readCsvTable, recordText } from '../../src/cli/csv.ts';
 import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('readCsvTable', () => {
@@ -81,5 +81,19 @@ describe('readCsvTable line endings', () => {
     expect(t.records.map((r) => r.cells)).toEqual([['a', '1'], ['b', '2'], ['c', '3']]);
     expect(t.records.map((r) => r.raw)).toEqual(['a,1', 'b,"2"', 'c,3']);
     expect(t.records.map((r) => r.line)).toEqual([2, 3, 4]);
+  });
+});
+
+describe('linePieces', () => {
+  it('linePieces: whole lines in pieces whose bytes are the lines joined with a final line end', () => {
+    const lines = Array.from({ length: 1000 }, (_, i) => `S${i},${(i * 0.37).toFixed(2)},"ü ${i}"`);
+    for (const newline of ['\n', '\r\n']) {
+      const pieces = [...linePieces(lines.length, (i) => lines[i], newline, 300)];
+      expect(pieces.length).toBeGreaterThan(50);
+      for (const p of pieces) expect(p.endsWith(newline)).toBe(true);
+      expect(Buffer.from(pieces.join('')).equals(Buffer.from(lines.join(newline) + newline))).toBe(true);
+    }
+    expect([...linePieces(3, (i) => String(i))]).toEqual(['0\n1\n2\n']);
+    expect([...linePieces(0, () => 'never')]).toEqual([]);
   });
 });

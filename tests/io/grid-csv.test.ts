@@ -2,7 +2,7 @@
 // exactly; the caution on the first line.
 import { SOFTWARE } from '../../src/core/shared/version.ts';
 import { describe, expect, it } from 'vitest';
-import { surfaceGridCsv, surfaceGridCsvChunks } from '../../src/io/grid-csv.ts';
+import { analyteGridCsvChunks, surfaceGridCsv, surfaceGridCsvChunks } from '../../src/io/grid-csv.ts';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -33,6 +33,29 @@ describe('surfaceGridCsv', () => {
     const [lon, lat] = t.forward(500015, 5400025);
     expect(Number(rows[0][2])).toBeCloseTo(lon, 8);
     expect(Number(rows[0][3])).toBeCloseTo(lat, 8);
+  });
+
+  it('analyteGridCsvChunks: pieces of whole lines that, written through the safe writer, give the bytes the one-string writer gave', async () => {
+    // The text the one-string writer gave for two analytes on this grid (before the pieces), pinned.
+    const before = `# ${CAUTION} ${FORMULA_NOTE} x, y: cell centres in EPSG:32633; lon, lat: WGS 84; Pb_mean, Pb_sd in mg/kg, Pb_p_exceed = P(Pb > 3 mg/kg); As_mean, As_sd\n`
+      + 'x,y,lon,lat,Pb_mean,Pb_sd,Pb_p_exceed,As_mean,As_sd\n'
+      + '500015,5400025,15.00020407,48.7532379,1.10000002,0.100000001,0.00999999978,0.100000001,1.10000002\n'
+      + '500005,5400015,15.00006802,48.75314794,2.20000005,0.200000003,0.0199999996,0.200000003,2.20000005\n'
+      + '500015,5400015,15.00020407,48.75314794,3.29999995,0.300000012,0.5,0.300000012,3.29999995\n'
+      + '500025,5400015,15.00034012,48.75314794,4.4000001,0.400000006,0.980000019,0.400000006,4.4000001\n'
+      + '500015,5400005,15.00020407,48.75305798,5.5,0.5,0.99000001,0.5,5.5\n';
+    const input = { grid, workCrs: 'EPSG:32633', analytes: [{ name: 'Pb (mg/kg)', unit: 'mg/kg', surface: { mean, sd, pExceed, threshold: 3 } }, { name: 'As', surface: { mean: sd, sd: mean } }] };
+    const pieces = [...analyteGridCsvChunks(input, 100)];
+    expect(pieces.length).toBeGreaterThan(2);
+    for (const p of pieces) expect(p.endsWith('\n')).toBe(true);
+    expect(pieces.join('')).toBe(before);
+    const dir = mkdtempSync(join(tmpdir(), 'gapwise-grid-csv-'));
+    try {
+      await writeFileSafely(dir, 'analytes.csv', analyteGridCsvChunks(input, 100));
+      expect(readFileSync(join(dir, 'analytes.csv')).equals(Buffer.from(before, 'utf8'))).toBe(true);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 
   it('surfaceGridCsvChunks: pieces of whole lines that, written one by one through the safe writer, give the bytes of the whole text', async () => {

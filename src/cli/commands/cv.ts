@@ -26,7 +26,7 @@ import {
   printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
+import { CSV_CAUTION, csvLine, formatNumber, linePieces } from '../csv.ts';
 import { withSampleCovariates } from '../covariates.ts';
 import { sampleId } from '../../io/sample-table.ts';
 import { analyteRequest } from '../analytes.ts';
@@ -74,16 +74,17 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const unit = intake.report.unit;
   const out = stringOption(values, 'out');
   if (out !== undefined) {
-    const lines = [csvLine(['id', 'x', 'y', 'observed', 'predicted', 'sd_obs', 'error', 'standardised_error'])];
-    for (let i = 0; i < table.length; i++) {
+    // In pieces of whole lines, never one string of every sample.
+    await writeOutput(io, out, linePieces(table.length + 1, (k) => {
+      if (k === 0) return csvLine(['id', 'x', 'y', 'observed', 'predicted', 'sd_obs', 'error', 'standardised_error']);
+      const i = k - 1;
       // The observation on the scale the errors are on (ln for a log model).
       const observed = log ? Math.log(samples.value[i]) : samples.value[i];
-      lines.push(csvLine([
+      return csvLine([
         sampleId(table, i), formatNumber(table.inputX[i]), formatNumber(table.inputY[i]), formatNumber(observed),
         formatNumber(cv.prediction[i]), formatNumber(cv.sdObserved[i]), formatNumber(cv.error[i]), formatNumber(cv.standardisedError[i]),
-      ]));
-    }
-    await writeOutput(io, out, `${lines.join('\n')}\n`);
+      ]);
+    }));
     io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }
   const s = cv.summary;

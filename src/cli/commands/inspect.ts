@@ -9,8 +9,21 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { CSV_CAUTION, csvLine, formatNumber } from '../csv.ts';
-import { sampleFlags, sampleId } from '../../io/sample-table.ts';
+import { CSV_CAUTION, PIECE_CHARS, csvLine, formatNumber, linePieces } from '../csv.ts';
+import { sampleFlags, sampleId, type SampleTable } from '../../io/sample-table.ts';
+
+/**
+ * The samples as read, as CSV (id, x, y in the input CRS, value, flags; LF line ends), in pieces of
+ * whole lines of about `chunkChars` characters: a writer that takes them one by one never holds the
+ * text of ten million samples as one string.
+ */
+export function samplesCsvChunks(t: SampleTable, chunkChars = PIECE_CHARS): Generator<string> {
+  return linePieces(t.length + 1, (k) => {
+    if (k === 0) return csvLine(['id', 'x', 'y', 'value', 'flags']);
+    const i = k - 1;
+    return csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]);
+  }, '\n', chunkChars);
+}
 
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const intake = readSamplesFile(io, values);
@@ -20,12 +33,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out');
   if (out !== undefined) {
     const r = intake.report;
-    const lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
-    const t = intake.table;
-    for (let i = 0; i < t.length; i++) {
-      lines.push(csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]));
-    }
-    await writeOutput(io, out, `${lines.join('\n')}\n`);
+    await writeOutput(io, out, samplesCsvChunks(intake.table));
     io.stderr(`wrote ${intake.table.length} samples (x, y in ${r.crs.input}; value in ${r.unit || 'the file\'s unit'}) to ${out}\n`);
     io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   }

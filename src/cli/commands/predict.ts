@@ -21,7 +21,7 @@ import {
   printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { CSV_CAUTION, csvCell, formatNumber, readCsvTable, recordText, type CsvTable } from '../csv.ts';
+import { CSV_CAUTION, csvCell, formatNumber, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
 import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
@@ -145,9 +145,10 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   const d = table.delimiter;
   const added = ['mean', 'sd', 'sd_obs'];
   if (threshold !== undefined) added.push('p_exceed');
-  const lines = [recordText(table.header, d) + d + added.map((a) => csvCell(a, d)).join(d)];
   const log = model.transform === 'log';
-  for (let i = 0; i < table.records.length; i++) {
+  const line = (k: number): string => {
+    if (k === 0) return recordText(table.header, d) + d + added.map((a) => csvCell(a, d)).join(d);
+    const i = k - 1;
     const cells = [formatNumber(p.mean[i]), formatNumber(p.sd[i]), formatNumber(p.sdObserved[i])];
     if (threshold !== undefined) {
       // The noise-free surface; for a log model on the log scale, where the kriging error is normal.
@@ -156,9 +157,10 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
         : exceedanceProbability(p.mean[i], p.sd[i], threshold);
       cells.push(formatNumber(prob));
     }
-    lines.push(recordText(table.records[i], d) + d + cells.join(d));
-  }
-  await writeOutput(io, stringOption(values, 'out'), lines.join(table.newline) + table.newline);
+    return recordText(table.records[i], d) + d + cells.join(d);
+  };
+  // In pieces of whole lines, never one string of every target.
+  await writeOutput(io, stringOption(values, 'out'), linePieces(table.records.length + 1, line, table.newline));
   io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);
   return 0;
 }

@@ -42,6 +42,24 @@ function closestPair(x: ArrayLike<number>, y: ArrayLike<number>): { distance: nu
 }
 
 /**
+ * numericalFailureAdvice for some of the samples: those at `ids[0 … count)` of x, y and values (a
+ * local neighbourhood whose matrix failed). Cost O(count log count).
+ */
+export function neighbourhoodFailureAdvice(
+  ids: ArrayLike<number>, count: number, x: ArrayLike<number>, y: ArrayLike<number>, values: ArrayLike<number>, model?: CovarianceModel,
+): string {
+  const sx = new Float64Array(count);
+  const sy = new Float64Array(count);
+  const sv = new Float64Array(count);
+  for (let a = 0; a < count; a++) {
+    sx[a] = x[ids[a]];
+    sy[a] = y[ids[a]];
+    sv[a] = values[ids[a]];
+  }
+  return numericalFailureAdvice(sx, sy, sv, model);
+}
+
+/**
  * One sentence of advice (starting with a lower-case verb phrase, no final full stop) for a numerical
  * failure with these samples and, when known, this model.
  */

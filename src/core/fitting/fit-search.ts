@@ -19,6 +19,7 @@ import type { CorrelationModelAt, Likelihood, LikelihoodSetup, LikelihoodValue, 
 import type { Samples } from '../shared/samples.ts';
 import type { FitProgress } from './fit.ts';
 import { GapwiseError } from '../shared/errors.ts';
+import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
 import { createLikelihood } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
 import { subsetSamples } from './fit.ts';
@@ -128,7 +129,7 @@ export function searchLikelihood(
   const ranked = problem.starts.map((x) => ({ x, value: fScreen(x) })).sort((a, b) => a.value - b.value);
   count(ranked.length, screening);
   if (!Number.isFinite(ranked[0].value)) {
-    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${options.what} (${n} samples); try another family or a nugget.`);
+    throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${options.what} (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
   const spaces: ParameterSpace[] = problem.parameters.map(({ lower, upper, log }) => ({ lower, upper, log }));
   const steps = problem.parameters.map((p) => p.step);
@@ -194,7 +195,7 @@ export function searchLikelihood(
     }
   }
   if (!Number.isFinite(best.value)) {
-    throw new GapwiseError('fit-failed', `The optimiser found no finite likelihood for the ${options.what} (${n} samples); try another family or a nugget.`);
+    throw new GapwiseError('fit-failed', `The optimiser found no finite likelihood for the ${options.what} (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
   const final = lik.evaluate(problem.toTheta(best.x), { allowJitter: problem.allowJitter });
   if (onProgress) onProgress(done + 1, done + 1);

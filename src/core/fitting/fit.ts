@@ -382,7 +382,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
     best = candidates[0];
   }
   if (!Number.isFinite(best.value)) {
-    throw new GapwiseError('fit-failed', `The optimiser found no finite likelihood for the ${r.family} model (${n} samples); try another family or a nugget.`);
+    throw new GapwiseError('fit-failed', `The optimiser found no finite likelihood for the ${r.family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
 
   const theta = L.toTheta(best.x);

@@ -450,7 +450,7 @@ export function vecchiaTrend(samples: Samples, model: CovarianceModel, options: 
   const wh = whiten(ctx, yo, Xo, p, cov, diagonal, true, ctx.m, { yt: new Float64Array(n), Xt: new Float64Array(n * p) });
   if (!wh.ok) {
     throw new GapwiseError('not-positive-definite',
-      'The covariance of neighbouring samples is not positive definite: samples may be duplicated and the model has no nugget; merge duplicates or add a nugget.');
+      `The covariance of neighbouring samples is not positive definite: ${numericalFailureAdvice(samples.x, samples.y, samples.value, model)}.`);
   }
   const gls = whitenedGls(wh.yt, wh.Xt, n, p);
   if (!gls.ok) {
@@ -667,7 +667,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
     if (res.value <= best.value) best = { x: res.x, value: res.value, converged: res.converged };
   }
   if (!Number.isFinite(best.value)) {
-    throw new GapwiseError('fit-failed', `The optimiser found no finite nearest-neighbour likelihood for the ${family} model (${n} samples); try another family or a nugget.`);
+    throw new GapwiseError('fit-failed', `The optimiser found no finite nearest-neighbour likelihood for the ${family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
 
   const theta = toTheta(best.x);

@@ -37,6 +37,7 @@ import { NeighborIndex } from '../geometry/neighbors.ts';
 import { vecchiaTrend } from '../fitting/vecchia.ts';
 import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
 import { logPredictionToDataScale } from '../shared/lognormal.ts';
+import { neighbourhoodFailureAdvice } from '../covariance/numerical-advice.ts';
 
 /** Default neighbourhood size. */
 export const DEFAULT_LOCAL_NEIGHBORS = 64;
@@ -368,7 +369,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
       if (!ok) {
         throw new GapwiseError('not-positive-definite',
-          `The covariance matrix of a ${q}-sample neighbourhood is not positive definite: samples may be duplicated or the model has no nugget; try merging duplicates or adding a nugget.`);
+          `The covariance matrix of a ${q}-sample neighbourhood is not positive definite: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, z, model)}.`);
       }
     }
     for (let a = 0; a < q; a++) r[a] = zr[ids[a]];

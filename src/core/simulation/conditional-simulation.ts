@@ -57,6 +57,7 @@ import { checkCovariateRows, covariateColumnCount, designRow, trendColumnCount, 
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from '../shared/random.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
+import { neighbourhoodFailureAdvice } from '../covariance/numerical-advice.ts';
 import type { Grid } from '../geometry/grid.ts';
 import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from '../prediction/exceedance-area.ts';
 
@@ -380,7 +381,7 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
         }
         ok = choleskyInPlace(L, q);
       }
-      if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised; merge duplicate samples or add a nugget.`);
+      if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, samples.value, model)}.`);
       jittered++;
     }
     if (p > 0) {

@@ -4,6 +4,18 @@ import { CAUTION } from '../../../src/cli/common.ts';
 import { loadFixture } from '../../helpers/fixtures.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { planarSamplesCsv, workspace } from '../run-cli.ts';
+import { samplesCsvChunks } from '../../../src/cli/commands/inspect.ts';
+import { csvLine, formatNumber } from '../../../src/cli/csv.ts';
+import { sampleFlags, sampleId, type SampleTable } from '../../../src/io/sample-table.ts';
+
+/** The CSV as the command wrote it before it wrote pieces: one string of every line. */
+function wholeSamplesCsv(t: SampleTable): string {
+  const lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
+  for (let i = 0; i < t.length; i++) {
+    lines.push(csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]));
+  }
+  return `${lines.join('\n')}\n`;
+}
 
 const ws = workspace();
 afterAll(() => ws.remove());
@@ -66,5 +78,21 @@ describe('inspect command', () => {
     const r = await ws.run('inspect', '--samples', 'pts2.csv', '--crs', 'EPSG:32633', '--boundary', 'open.geojson');
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/^error: open\.geojson, .*column "geometry": Feature 0: .*outer ring has 3 positions/);
+  });
+
+  it('samplesCsvChunks: pieces of whole lines whose bytes are those of the CSV written as one string', async () => {
+    // Merged duplicates, a non-detect, formula-leading and quoted IDs.
+    const text = 'id,x,y,Pb\n=HYPERLINK("x"),0,0,12\n"B, 2",30,0,<5\nC,0,40,48\nD,60,20,20\nE,60,20,30\n' + Array.from({ length: 300 }, (_, i) => `S${i},${i * 3},${(i * 7) % 500},${10 + (i % 13)}`).join('\n') + '\n';
+    const t = readSamples(text, { fileName: 'c.csv', crs: 'EPSG:32633' }).table;
+    const whole = wholeSamplesCsv(t);
+    const pieces = [...samplesCsvChunks(t, 200)];
+    expect(pieces.length).toBeGreaterThan(20);
+    for (const p of pieces) expect(p.endsWith('\n')).toBe(true);
+    expect(Buffer.from(pieces.join('')).equals(Buffer.from(whole))).toBe(true);
+    expect([...samplesCsvChunks(t)]).toEqual([whole]);
+    ws.write('c.csv', text);
+    const r = await ws.run('inspect', '--samples', 'c.csv', '--crs', 'EPSG:32633', '--out', 'c-read.csv');
+    expect(r.code).toBe(0);
+    expect(ws.read('c-read.csv')).toBe(whole);
   });
 });
