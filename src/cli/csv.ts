@@ -10,31 +10,7 @@ import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
 import { formatFullPrecision } from '../io/format.ts';
 
 /** Cells are written by io/csv-cells.ts: quoted (RFC 4180), formula-leading text neutralised. */
-export { csvCell, csvLine, CSV_CAUTION, FORMULA_NOTE } from '../io/csv-cells.ts';
-
-/** Characters of text in one piece of `linePieces` (about a mebibyte). */
-export const PIECE_CHARS = 1 << 20;
-
-/**
- * Lines 0 … count − 1 (`lineAt(i)`), each followed by `newline`, in pieces of whole lines of about
- * `pieceChars` characters: a writer that takes the pieces one by one (writeOutput) never holds a large
- * output as one string. The pieces joined are the lines joined by `newline` with a final one.
- */
-export function* linePieces(count: number, lineAt: (i: number) => string, newline = '\n', pieceChars = PIECE_CHARS): Generator<string> {
-  let lines: string[] = [];
-  let chars = 0;
-  for (let i = 0; i < count; i++) {
-    const line = lineAt(i);
-    lines.push(line);
-    chars += line.length + newline.length;
-    if (chars >= pieceChars) {
-      yield lines.join(newline) + newline;
-      lines = [];
-      chars = 0;
-    }
-  }
-  if (lines.length) yield lines.join(newline) + newline;
-}
+export { csvCell, csvLine, CSV_CAUTION, FORMULA_NOTE, PIECE_CHARS, linePieces } from '../io/csv-cells.ts';
 
 /** A number for a CSV: up to 12 significant digits, no trailing zeros; NaN as empty, inf / -inf. */
 export const formatNumber = formatFullPrecision;

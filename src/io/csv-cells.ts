@@ -45,3 +45,27 @@ export function csvComment(text: string, delimiter = ','): string {
   const flat = text.replace(/[\r\n]+/g, ' ').replace(/"/g, "'");
   return `# ${flat.split(delimiter).map((piece, i) => (i === 0 ? piece : neutraliseFormula(piece))).join(delimiter)}`;
 }
+
+/** Characters of text in one piece of `linePieces` (about a mebibyte). */
+export const PIECE_CHARS = 1 << 20;
+
+/**
+ * Lines 0 … count − 1 (`lineAt(i)`), each followed by `newline`, in pieces of whole lines of about
+ * `pieceChars` characters: a writer that takes the pieces one by one (writeOutput) never holds a large
+ * output as one string. The pieces joined are the lines joined by `newline` with a final one.
+ */
+export function* linePieces(count: number, lineAt: (i: number) => string, newline = '\n', pieceChars = PIECE_CHARS): Generator<string> {
+  let lines: string[] = [];
+  let chars = 0;
+  for (let i = 0; i < count; i++) {
+    const line = lineAt(i);
+    lines.push(line);
+    chars += line.length + newline.length;
+    if (chars >= pieceChars) {
+      yield lines.join(newline) + newline;
+      lines = [];
+      chars = 0;
+    }
+  }
+  if (lines.length) yield lines.join(newline) + newline;
+}

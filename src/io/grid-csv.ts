@@ -6,7 +6,7 @@
  * `csvComment`); most CSV readers skip it with a comment option (pandas `comment="#"`, R
  * `comment.char = "#"`), and `caution: false` leaves it out. Every other cell is a number.
  */
-import { CSV_CAUTION, csvCell, csvComment } from './csv-cells.ts';
+import { CSV_CAUTION, csvCell, csvComment, linePieces } from './csv-cells.ts';
 import { SOFTWARE } from '../core/shared/version.ts';
 import type { Grid } from '../core/geometry/grid.ts';
 import { cellCentres } from '../core/geometry/grid.ts';
@@ -67,8 +67,7 @@ export function* surfaceGridCsvChunks(input: GridCsvInput, chunkChars = CHUNK_CH
   const prefix = drawn ? 'realisation_' : '';
   const header = [...(geo ? ['x', 'y', 'lon', 'lat'] : ['x', 'y']), `${prefix}mean`, `${prefix}sd`];
   if (surface.pExceed) header.push(`${prefix}p_exceed`);
-  let lines: string[] = [];
-  let chars = 0;
+  const lines: string[] = [];
   if (input.caution !== false) {
     const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
     const what = drawn
@@ -80,7 +79,9 @@ export function* surfaceGridCsvChunks(input: GridCsvInput, chunkChars = CHUNK_CH
   }
   lines.push(header.join(','));
   const dm = digitsOf(surface.mean), ds = digitsOf(surface.sd), dp = surface.pExceed ? digitsOf(surface.pExceed) : 17;
-  for (let c = 0; c < index.length; c++) {
+  yield* linePieces(lines.length + index.length, (i) => {
+    if (i < lines.length) return lines[i];
+    const c = i - lines.length;
     const k = index[c];
     const row = [
       fixed(x[c], 3), fixed(y[c], 3),
@@ -88,16 +89,8 @@ export function* surfaceGridCsvChunks(input: GridCsvInput, chunkChars = CHUNK_CH
       num(surface.mean[k], dm), num(surface.sd[k], ds),
     ];
     if (surface.pExceed) row.push(num(surface.pExceed[k], dp));
-    const line = row.join(',');
-    lines.push(line);
-    chars += line.length + 1;
-    if (chars >= chunkChars) {
-      yield `${lines.join('\n')}\n`;
-      lines = [];
-      chars = 0;
-    }
-  }
-  if (lines.length) yield `${lines.join('\n')}\n`;
+    return row.join(',');
+  }, '\n', chunkChars);
 }
 
 /** Input of the several-analyte table: one grid, each analyte's surfaces. */
@@ -144,29 +137,22 @@ export function* analyteGridCsvChunks(input: AnalyteGridCsvInput, chunkChars = C
     described.push(`${base}_mean, ${base}_sd${a.unit ? ` in ${a.unit}` : ''}`
       + (a.surface.pExceed ? `, ${base}_p_exceed = P(${base} > ${a.surface.threshold ?? 'threshold'}${a.unit ? ` ${a.unit}` : ''})` : ''));
   }
-  let lines: string[] = [];
-  let chars = 0;
+  const lines: string[] = [];
   if (input.caution !== false) {
     const where = geo ? `x, y: cell centres in ${input.workCrs}; lon, lat: WGS 84` : 'x, y: cell centres in the samples\' local coordinates (no coordinate system)';
-    lines.push(csvComment(`${CSV_CAUTION} ${where}; ${described.join('; ')}`));
+    lines.push(csvComment(`${CSV_CAUTION} Written by ${SOFTWARE}. ${where}; ${described.join('; ')}`));
   }
   lines.push(header.map((h) => csvCell(h)).join(','));
   const digits = input.analytes.map((a) => [digitsOf(a.surface.mean), digitsOf(a.surface.sd), a.surface.pExceed ? digitsOf(a.surface.pExceed) : 17]);
-  for (let c = 0; c < index.length; c++) {
+  yield* linePieces(lines.length + index.length, (i) => {
+    if (i < lines.length) return lines[i];
+    const c = i - lines.length;
     const k = index[c];
     const row = [fixed(x[c], 3), fixed(y[c], 3), ...(geo ? [fixed(geo.x[c], 8), fixed(geo.y[c], 8)] : [])];
-    input.analytes.forEach((a, i) => {
-      row.push(num(a.surface.mean[k], digits[i][0]), num(a.surface.sd[k], digits[i][1]));
-      if (a.surface.pExceed) row.push(num(a.surface.pExceed[k], digits[i][2]));
+    input.analytes.forEach((a, j) => {
+      row.push(num(a.surface.mean[k], digits[j][0]), num(a.surface.sd[k], digits[j][1]));
+      if (a.surface.pExceed) row.push(num(a.surface.pExceed[k], digits[j][2]));
     });
-    const line = row.join(',');
-    lines.push(line);
-    chars += line.length + 1;
-    if (chars >= chunkChars) {
-      yield `${lines.join('\n')}\n`;
-      lines = [];
-      chars = 0;
-    }
-  }
-  if (lines.length) yield `${lines.join('\n')}\n`;
+    return row.join(',');
+  }, '\n', chunkChars);
 }

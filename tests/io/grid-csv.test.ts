@@ -36,8 +36,9 @@ describe('surfaceGridCsv', () => {
   });
 
   it('analyteGridCsvChunks: pieces of whole lines that, written through the safe writer, give the bytes the one-string writer gave', async () => {
-    // The text the one-string writer gave for two analytes on this grid (before the pieces), pinned.
-    const before = `# ${CAUTION} ${FORMULA_NOTE} x, y: cell centres in EPSG:32633; lon, lat: WGS 84; Pb_mean, Pb_sd in mg/kg, Pb_p_exceed = P(Pb > 3 mg/kg); As_mean, As_sd\n`
+    // The text the one-string writer gave for two analytes on this grid (before the pieces), pinned;
+    // its caution line now also names the software and version, as the one-analyte CSV's does.
+    const before = `# ${CAUTION} ${FORMULA_NOTE} Written by ${SOFTWARE}. x, y: cell centres in EPSG:32633; lon, lat: WGS 84; Pb_mean, Pb_sd in mg/kg, Pb_p_exceed = P(Pb > 3 mg/kg); As_mean, As_sd\n`
       + 'x,y,lon,lat,Pb_mean,Pb_sd,Pb_p_exceed,As_mean,As_sd\n'
       + '500015,5400025,15.00020407,48.7532379,1.10000002,0.100000001,0.00999999978,0.100000001,1.10000002\n'
       + '500005,5400015,15.00006802,48.75314794,2.20000005,0.200000003,0.0199999996,0.200000003,2.20000005\n'

@@ -24,7 +24,7 @@ import type { CorrelationParameters, LikelihoodSetup } from './likelihood.ts';
 import type { SearchParameter } from './fit-search.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { axisAzimuth, fitAnisotropic, MIN_FITTED_RATIO, type FitComparisonRow } from './fit-anisotropy.ts';
-import { extentDiagonal, fitNested, nestedGuard } from './fit-nested.ts';
+import { extentDiagonal, fitNested, nestedGuard, nestedStructures } from './fit-nested.ts';
 import { practicalRange } from '../covariance/covariance.ts';
 import { searchLikelihood } from './fit-search.ts';
 
@@ -115,15 +115,7 @@ export function fitAnisotropicNested(samples: Samples, options: FitOptions, onPr
     point(pair[1].scale, pair[1].scale / pair[0].scale, pair[0].sill / pairSill, nuggetOf(iso.nested) / Math.max(pairSill, 1e-300), an.azimuth, Math.max(MIN_FITTED_RATIO, an.ratio)),
   ];
   for (const f of [5, 3]) for (const spread of [5, 15]) for (const w of [0.3, 0.6]) starts.push(point(one.scale / f * spread, spread, w, anisoEta, an.azimuth, an.ratio));
-  const structuresAt = (t: Parameters, sill: number, nugget: number): Structure[] => {
-    const out: Structure[] = [];
-    if (withNugget) out.push({ type: 'nugget', sill: nugget });
-    const a: CorrelatedStructure = { type: options.family, sill: sill * t.shortShare, scale: t.scale };
-    const b: CorrelatedStructure = { type: options.family, sill: sill * (1 - t.shortShare), scale: t.scale * t.spread };
-    if (nu !== undefined) { a.nu = nu; b.nu = nu; }
-    out.push(a, b);
-    return out;
-  };
+  const structuresAt = (t: Parameters, sill: number, nugget: number): Structure[] => nestedStructures(options.family, nu, withNugget, t, sill, nugget);
   const correlationAt = (theta: CorrelationParameters): CovarianceModel => {
     const t = theta as Parameters;
     const structures = structuresAt(t, 1, t.nuggetRatio);

@@ -42,6 +42,23 @@ export interface NestedFit {
   notIdentifiable?: 'merged' | 'vanishing-sill' | 'no-gain';
 }
 
+/**
+ * The structures of a two-range model: the nugget (when fitted), then the short structure with
+ * `shortShare` of the sill at `scale` and the long one with the rest at `scale · spread`.
+ */
+export function nestedStructures(
+  family: CorrelatedStructure['type'], nu: number | undefined, withNugget: boolean,
+  t: { scale: number; spread: number; shortShare: number }, sill: number, nugget: number,
+): Structure[] {
+  const out: Structure[] = [];
+  if (withNugget) out.push({ type: 'nugget', sill: nugget });
+  const a: CorrelatedStructure = { type: family, sill: sill * t.shortShare, scale: t.scale };
+  const b: CorrelatedStructure = { type: family, sill: sill * (1 - t.shortShare), scale: t.scale * t.spread };
+  if (nu !== undefined) { a.nu = nu; b.nu = nu; }
+  out.push(a, b);
+  return out;
+}
+
 interface NestedParameters extends CorrelationParameters {
   /** s₂ / s₁ ≥ 1. */
   spread: number;
@@ -124,15 +141,7 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
   const starts: number[][] = [point(one.scale / 1.005, 1.01, 0.5)];
   const anchor = point(one.scale, 1, 0.5);
   for (const f of [5, 3]) for (const spread of [5, 15]) for (const w of [0.3, 0.6]) starts.push(point(one.scale / f, spread, w));
-  const structuresAt = (t: NestedParameters, sill: number, nugget: number): Structure[] => {
-    const out: Structure[] = [];
-    if (withNugget) out.push({ type: 'nugget', sill: nugget });
-    const a: CorrelatedStructure = { type: options.family, sill: sill * t.shortShare, scale: t.scale };
-    const b: CorrelatedStructure = { type: options.family, sill: sill * (1 - t.shortShare), scale: t.scale * t.spread };
-    if (nu !== undefined) { a.nu = nu; b.nu = nu; }
-    out.push(a, b);
-    return out;
-  };
+  const structuresAt = (t: NestedParameters, sill: number, nugget: number): Structure[] => nestedStructures(options.family, nu, withNugget, t, sill, nugget);
   const correlationAt = (theta: CorrelationParameters): CovarianceModel => {
     const t = theta as NestedParameters;
     const structures = structuresAt(t, 1, t.nuggetRatio);
