@@ -1453,8 +1453,8 @@ export class Session {
   /**
    * Each chosen analyte's work for the report and the project file, in the order chosen: the one in
    * use as on screen, the others as parked. A surface comes only finished and current (for a parked
-   * analyte: one from all samples; one from local neighbourhoods is left out, as its measured error
-   * is not kept), realisations only when drawn on that surface, cross-validation only for the model
+   * analyte: from all samples, or from local neighbourhoods with the measured error kept beside it),
+   * realisations only when drawn on that surface, cross-validation only for the model
    * in use.
    */
   analyteWork(): AnalyteWork[] {
@@ -1480,9 +1480,10 @@ export class Session {
       if (!c) continue;
       const snapshot: SessionSnapshot = { ...snap, readId: c.readId, samples: c.samples, structure: c.structure, surface: c.surface, simulation: c.simulation, next: c.next };
       const work = c.readId && this.parkedWork[name]?.readId === c.readId ? this.parkedWork[name] : null;
-      const surface = work?.surface && work.surface.local === null ? work.surface : null;
+      // A surface from local neighbourhoods goes with its measured error (kept with the surface).
+      const surface = work?.surface && (work.surface.local === null || work.surface.accuracy) ? work.surface : null;
       out.push({
-        name, current: false, snapshot, candidates: work?.fit?.rows ?? [], surface, accuracy: null,
+        name, current: false, snapshot, candidates: work?.fit?.rows ?? [], surface, accuracy: surface?.accuracy ?? null,
         cv: work?.cv && work.cv.key === JSON.stringify([c.readId, modelKey(c.structure.model)]) ? work.cv.result : null,
         simulation: work?.simulation && surface && work.simulation.base === surface.key ? work.simulation : null,
         suggestions: work?.suggestions ?? null,
