@@ -19,7 +19,8 @@ import { NeighborIndex } from '../../core/geometry/neighbors.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import { coordinateFrame, designRow, trendColumnCount } from '../../core/covariance/trend.ts';
 import { CHECK_COUNT, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS } from '../../core/prediction/path-choice.ts';
-import { describeAccuracy, measureLocalLeaveOneOut } from '../../core/prediction/local-accuracy.ts';
+import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
+import { measureLocalLeaveOneOut } from '../../core/validation/local-cross-validation.ts';
 import { stringOption } from '../args.ts';
 import {
   CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText, modelWorkCrs, naming, outOption,

@@ -31,13 +31,11 @@ import type { CovarianceModel } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import { createRandom } from '../shared/random.ts';
 import type { Warning } from '../shared/errors.ts';
-import { surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
-import { covariateColumnCount, designRow, knownMean, trendColumnCount, trendFrame } from '../covariance/trend.ts';
+import { surfaceVariance } from '../covariance/covariance.ts';
+import { covariateColumnCount, trendColumnCount } from '../covariance/trend.ts';
 import { cellCentres, type Grid } from '../geometry/grid.ts';
 import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
-import { leaveOneOut, type LeaveOneOutResult } from '../validation/cross-validation.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
 import {
   DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, localTargetCost,
@@ -585,83 +583,4 @@ export function measureLocalGrid(
   options: { tolerance?: Tolerance; seed?: number } = {},
 ): LocalAccuracy {
   return checkLocalGrid(samples, model, grid, settings, options).accuracy;
-}
-
-/**
- * The measured error of a local leave-one-out (./local-cross-validation.ts): at a seeded subset of the
- * samples (checkCount(n, n)), the local prediction and sd_obs of each left-out sample against the
- * reference leave-one-out there: the closed form from all other samples (./cross-validation.ts) up to
- * REFERENCE_EXACT_LIMIT samples, above that kriging from the REFERENCE_NEIGHBORS nearest other samples
- * around the GLS mean of all samples (the reference of predictLocalChecked, for the same reason).
- * Largest and RMS differences in % of the prior sd (on the log scale for a log model, as leave-one-out
- * itself). `local` holds the local leave-one-out of every sample (the values the user gets).
- * Cost: n³/3 flops up to REFERENCE_EXACT_LIMIT samples; above, c factorisations of R × R.
- */
-export function measureLocalLeaveOneOut(
-  samples: Samples, model: CovarianceModel, local: Pick<LeaveOneOutResult, 'prediction' | 'sdObserved'>, settings: LocalSettings,
-  options: { tolerance?: Tolerance; seed?: number } = {},
-): LocalAccuracy {
-  const n = samples.x.length;
-  const seed = options.seed ?? DEFAULT_CHECK_SEED;
-  const idx = chooseCheckTargets(n, checkCount(n, n), seed);
-  const pick = (a: ArrayLike<number>): Float64Array => Float64Array.from(idx, (i) => a[i]);
-  let reference: ReferenceValues;
-  if (n <= REFERENCE_EXACT_LIMIT) {
-    const exact = leaveOneOut(samples, model);
-    reference = { mean: pick(exact.prediction), sd: pick(exact.sdObserved), reference: 'exact' };
-  } else {
-    const near = localLeaveOneOutAt(samples, model, idx, REFERENCE_NEIGHBORS);
-    reference = { ...near, reference: 'nearest', referenceNeighbors: Math.min(n - 1, REFERENCE_NEIGHBORS) };
-  }
-  return compareWithReference(model, reference, { mean: pick(local.prediction), sd: pick(local.sdObserved) }, {
-    targets: n, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
-  });
-}
-
-/**
- * Leave-one-out at the samples `idx` only, each predicted from its `neighbors` nearest other samples
- * around the GLS mean of all samples (kriging scale): prediction and sd_obs, in idx order.
- */
-function localLeaveOneOutAt(
-  samples: Samples, model: CovarianceModel, idx: Uint32Array, neighbors: number,
-): CheckedValues {
-  const n = samples.x.length;
-  const trend = model.trend ?? 'constant';
-  const log = model.transform === 'log';
-  const z = log ? Float64Array.from(samples.value, Math.log) : samples.value;
-  const p = trendColumnCount(trend);
-  const frame = trendFrame(trend, samples.x, samples.y, samples.covariates);
-  const qc = covariateColumnCount(trend);
-  const trendAt = new Float64Array(n);
-  if (p > 0) {
-    const beta = globalMeanCoefficients(samples, model).beta;
-    const row = new Float64Array(Math.max(3, p));
-    for (let i = 0; i < n; i++) {
-      designRow(trend, samples.x[i], samples.y[i], frame, row, 0, samples.covariates, i * qc);
-      let t = 0;
-      for (let a = 0; a < p; a++) t += row[a] * beta[a];
-      trendAt[i] = t;
-    }
-  } else {
-    trendAt.fill(knownMean(trend) ?? 0);
-  }
-  const simple: CovarianceModel = { ...model, transform: 'none', trend: { known: 0 } };
-  const { u, v } = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, frame.cx, frame.cy);
-  const index = new NeighborIndex(u, v);
-  const q = Math.min(neighbors, n - 1);
-  const ids = new Uint32Array(q + 1);
-  const mean = new Float64Array(idx.length);
-  const sd = new Float64Array(idx.length);
-  idx.forEach((i, k) => {
-    const found = index.nearest(u[i], v[i], q + 1, ids);
-    const chosen = Array.from(found).filter((j) => j !== i).slice(0, q);
-    const sub: Samples = {
-      x: Float64Array.from(chosen, (j) => samples.x[j]), y: Float64Array.from(chosen, (j) => samples.y[j]),
-      value: Float64Array.from(chosen, (j) => z[j] - trendAt[j]),
-    };
-    const r = createPredictor(sub, simple, { checkScale: false }).predict([samples.x[i]], [samples.y[i]]);
-    mean[k] = r.mean[0] + trendAt[i];
-    sd[k] = r.sdObserved[0];
-  });
-  return { mean, sd };
 }

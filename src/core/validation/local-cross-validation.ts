@@ -6,13 +6,17 @@
  * Units: data units (ln of them for a log model). Cost: n·(M³/3 + M²) flops, O(n + M²) memory.
  */
 import { GapwiseError, type Warning } from '../shared/errors.ts';
-import { checkLeaveOneOutFinite, summariseErrors, type LeaveOneOutResult } from './cross-validation.ts';
+import { checkLeaveOneOutFinite, leaveOneOut, summariseErrors, type LeaveOneOutResult } from './cross-validation.ts';
+import {
+  chooseCheckTargets, compareWithReference, DEFAULT_CHECK_SEED, type CheckedValues, type LocalAccuracy, type LocalSettings, type ReferenceValues,
+} from '../prediction/local-accuracy.ts';
+import { checkCount, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, type Tolerance } from '../prediction/path-choice.ts';
 import { createPredictor } from '../prediction/kriging.ts';
 import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from '../prediction/local-kriging.ts';
 import { checkModelScale, type CovarianceModel } from '../covariance/model.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
 import type { Samples } from '../shared/samples.ts';
-import { covariateColumnCount, designRow, trendColumnCount, trendFrame } from '../covariance/trend.ts';
+import { covariateColumnCount, designRow, knownMean, trendColumnCount, trendFrame } from '../covariance/trend.ts';
 import { toIsotropicCoordinates } from '../covariance/covariance.ts';
 
 /** Options of localLeaveOneOut (plain data). */
@@ -123,4 +127,83 @@ export function localLeaveOneOut(
     scale: log ? 'log' : 'data',
     warnings,
   });
+}
+
+/**
+ * The measured error of a local leave-one-out (localLeaveOneOut above): at a seeded subset of the
+ * samples (checkCount(n, n)), the local prediction and sd_obs of each left-out sample against the
+ * reference leave-one-out there: the closed form from all other samples (./cross-validation.ts leaveOneOut) up to
+ * REFERENCE_EXACT_LIMIT samples, above that kriging from the REFERENCE_NEIGHBORS nearest other samples
+ * around the GLS mean of all samples (the reference of core/prediction/local-accuracy.ts predictLocalChecked, for the same reason).
+ * Largest and RMS differences in % of the prior sd (on the log scale for a log model, as leave-one-out
+ * itself). `local` holds the local leave-one-out of every sample (the values the user gets).
+ * Cost: n³/3 flops up to REFERENCE_EXACT_LIMIT samples; above, c factorisations of R × R.
+ */
+export function measureLocalLeaveOneOut(
+  samples: Samples, model: CovarianceModel, local: Pick<LeaveOneOutResult, 'prediction' | 'sdObserved'>, settings: LocalSettings,
+  options: { tolerance?: Tolerance; seed?: number } = {},
+): LocalAccuracy {
+  const n = samples.x.length;
+  const seed = options.seed ?? DEFAULT_CHECK_SEED;
+  const idx = chooseCheckTargets(n, checkCount(n, n), seed);
+  const pick = (a: ArrayLike<number>): Float64Array => Float64Array.from(idx, (i) => a[i]);
+  let reference: ReferenceValues;
+  if (n <= REFERENCE_EXACT_LIMIT) {
+    const exact = leaveOneOut(samples, model);
+    reference = { mean: pick(exact.prediction), sd: pick(exact.sdObserved), reference: 'exact' };
+  } else {
+    const near = localLeaveOneOutAt(samples, model, idx, REFERENCE_NEIGHBORS);
+    reference = { ...near, reference: 'nearest', referenceNeighbors: Math.min(n - 1, REFERENCE_NEIGHBORS) };
+  }
+  return compareWithReference(model, reference, { mean: pick(local.prediction), sd: pick(local.sdObserved) }, {
+    targets: n, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
+  });
+}
+
+/**
+ * Leave-one-out at the samples `idx` only, each predicted from its `neighbors` nearest other samples
+ * around the GLS mean of all samples (kriging scale): prediction and sd_obs, in idx order.
+ */
+function localLeaveOneOutAt(
+  samples: Samples, model: CovarianceModel, idx: Uint32Array, neighbors: number,
+): CheckedValues {
+  const n = samples.x.length;
+  const trend = model.trend ?? 'constant';
+  const log = model.transform === 'log';
+  const z = log ? Float64Array.from(samples.value, Math.log) : samples.value;
+  const p = trendColumnCount(trend);
+  const frame = trendFrame(trend, samples.x, samples.y, samples.covariates);
+  const qc = covariateColumnCount(trend);
+  const trendAt = new Float64Array(n);
+  if (p > 0) {
+    const beta = globalMeanCoefficients(samples, model).beta;
+    const row = new Float64Array(Math.max(3, p));
+    for (let i = 0; i < n; i++) {
+      designRow(trend, samples.x[i], samples.y[i], frame, row, 0, samples.covariates, i * qc);
+      let t = 0;
+      for (let a = 0; a < p; a++) t += row[a] * beta[a];
+      trendAt[i] = t;
+    }
+  } else {
+    trendAt.fill(knownMean(trend) ?? 0);
+  }
+  const simple: CovarianceModel = { ...model, transform: 'none', trend: { known: 0 } };
+  const { u, v } = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, frame.cx, frame.cy);
+  const index = new NeighborIndex(u, v);
+  const q = Math.min(neighbors, n - 1);
+  const ids = new Uint32Array(q + 1);
+  const mean = new Float64Array(idx.length);
+  const sd = new Float64Array(idx.length);
+  idx.forEach((i, k) => {
+    const found = index.nearest(u[i], v[i], q + 1, ids);
+    const chosen = Array.from(found).filter((j) => j !== i).slice(0, q);
+    const sub: Samples = {
+      x: Float64Array.from(chosen, (j) => samples.x[j]), y: Float64Array.from(chosen, (j) => samples.y[j]),
+      value: Float64Array.from(chosen, (j) => z[j] - trendAt[j]),
+    };
+    const r = createPredictor(sub, simple, { checkScale: false }).predict([samples.x[i]], [samples.y[i]]);
+    mean[k] = r.mean[0] + trendAt[i];
+    sd[k] = r.sdObserved[0];
+  });
+  return { mean, sd };
 }
