@@ -14,13 +14,11 @@ import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../core/prediction/local-kriging.ts';
-import {
-  CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS,
-  chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance,
-} from '../core/prediction/path-choice.ts';
+import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS, chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance } from '../core/prediction/path-choice.ts';
 import { MAX_GROWN_NEIGHBORS } from '../core/prediction/local-accuracy.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 import { writeFileSafely, type OutputData } from './safe-write.ts';
+import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
 
 /** Carried by every result, export and help text. */
 export const CAUTION =
@@ -273,7 +271,7 @@ const MAX_NEIGHBORS = 2000;
 
 /** How the automatic choice is made, for help texts (generated from the constants it uses). */
 export const AUTOMATIC_PATH_TEXT = `automatic: the cheaper of exact kriging and local neighbourhoods by estimated cost (samples, targets, threads); `
-  + `a local run is checked against exact kriging at up to ${count(CHECK_COUNT)} seeded random targets (from ${count(REFERENCE_EXACT_LIMIT + 1)} samples: `
+  + `a local run is checked against exact kriging at up to ${count(CHECK_COUNT)} seeded random targets (from ${count(MAX_EXACT_SAMPLES + 1)} samples: `
   + `against the ${count(REFERENCE_NEIGHBORS)} nearest samples at ${count(LARGE_CHECK_COUNT)} targets), grown when it misses --tolerance, `
   + `or replaced by exact kriging; never exact above ${count(EXACT_SAMPLE_LIMIT)} samples`;
 

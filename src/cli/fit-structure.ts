@@ -9,6 +9,7 @@ import type { Samples } from '../core/shared/samples.ts';
 import type { FitOptions, FitProgress } from '../core/fitting/fit.ts';
 import type { FitComparisonRow } from '../core/fitting/fit-anisotropy.ts';
 import type { OptionSpec } from './args.ts';
+import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
 import { GapwiseError } from '../core/shared/errors.ts';
 import { fitModel } from '../core/fitting/fit.ts';
 import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
@@ -38,8 +39,8 @@ export function readStructureChoice(values: OptionValues, method: string): Struc
   if ((anisotropy || structures === 2) && method !== 'reml' && method !== 'ml') {
     const what = anisotropy ? '--anisotropy' : '--structures 2';
     throw new GapwiseError('bad-option',
-      `Option "${what}" is fitted by the exact REML or ML likelihood (up to 3,000 samples); got --method ${method}; `
-      + (method === 'nnl' ? 'below 3,000 samples give --method reml or ml, with more thin the samples first.' : 'give --method reml or ml.'));
+      `Option "${what}" is fitted by the exact REML or ML likelihood (up to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples); got --method ${method}; `
+      + (method === 'nnl' ? `below ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples give --method reml or ml, with more thin the samples first.` : 'give --method reml or ml.'));
   }
   return { anisotropy, structures };
 }

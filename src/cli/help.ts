@@ -4,7 +4,8 @@
  */
 import type { OptionSpec } from './args.ts';
 import { AUTOMATIC_PATH_TEXT, CAUTION, count, type CommandSpec } from './common.ts';
-import { EXACT_FIT_LIMIT } from '../core/fitting/vecchia.ts';
+import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
+
 
 const WIDTH = 100;
 
@@ -76,7 +77,7 @@ export function toolHelp(commands: readonly CommandSpec[], planned: readonly str
     'way as "gapwise inspect" does. Warnings go to stderr, each line starting with "warning: "; how the',
     'numbers were computed follows "note: ".',
     '',
-    wrap(`Many samples: from ${count(EXACT_FIT_LIMIT)} samples on, fit uses a nearest-neighbour likelihood `
+    wrap(`Many samples: from ${count(MAX_EXACT_SAMPLES)} samples on, fit uses a nearest-neighbour likelihood `
       + `(--method overrides). predict, cv and grid choose exact kriging or local neighbourhoods: ${AUTOMATIC_PATH_TEXT} `
       + '(--exact and --local override; the choice, the reason and the measured error are said on stderr); '
       + 'grid shares its rows out among worker threads, one per core.', 0),

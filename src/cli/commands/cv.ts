@@ -2,7 +2,7 @@
  * `gapwise cv`: leave-one-out cross-validation with a given model. The JSON summary (me, rmse,
  * msse, coverage95, n) goes to stdout; the per-sample table to --out as CSV.
  *
- * Up to REFERENCE_EXACT_LIMIT samples (or with --exact) the closed form of core/validation/cross-validation.ts: one
+ * Up to MAX_EXACT_SAMPLES samples (or with --exact) the closed form of core/validation/cross-validation.ts: one
  * factorisation of all samples, n³/3 flops. Above (or with --local; core/prediction/path-choice.ts chooseLeaveOneOutPath) each sample is
  * left out and predicted from its M nearest other samples (core/validation/local-cross-validation.ts): the same
  * kriging as the local path of predict and grid, m³/3 flops per sample. With M ≥ n − 1 it is the
@@ -18,7 +18,7 @@ import type { CovarianceModel } from '../../core/covariance/model.ts';
 import { NeighborIndex } from '../../core/geometry/neighbors.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import { coordinateFrame, designRow, trendColumnCount } from '../../core/covariance/trend.ts';
-import { CHECK_COUNT, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS } from '../../core/prediction/path-choice.ts';
+import { CHECK_COUNT, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS } from '../../core/prediction/path-choice.ts';
 import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
 import { measureLocalLeaveOneOut } from '../../core/validation/local-cross-validation.ts';
 import { stringOption } from '../args.ts';
@@ -32,6 +32,7 @@ import { withSampleCovariates } from '../covariates.ts';
 import { sampleId } from '../../io/sample-table.ts';
 import { analyteRequest } from '../analytes.ts';
 import { cvAnalytes, modelFromSet } from '../analyte-runs.ts';
+import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const analytes = analyteRequest(values);
@@ -114,12 +115,12 @@ export const cvCommand: CommandSpec = {
       + '--out writes one row per sample: id, x, y (input CRS), observed, predicted, sd_obs, error '
       + '(predicted − observed) and standardised_error (error / sd_obs). For a log model every figure is on the '
       + 'log scale ("scale": "log"; observed is then ln(value)).',
-    `Up to ${count(REFERENCE_EXACT_LIMIT)} samples the closed form uses all samples (about n³/2 operations: no more than checking `
+    `Up to ${count(MAX_EXACT_SAMPLES)} samples the closed form uses all samples (about n³/2 operations: no more than checking `
       + `local neighbourhoods against it would cost). Above, each sample is left out and predicted from its --neighbors nearest `
       + 'other samples (local neighbourhoods around the GLS mean of all samples, as predict and grid do there); --exact and '
       + '--local override the choice, which is said on stderr with its reason.',
-    `A local leave-one-out is measured: at ${count(CHECK_COUNT)} seeded samples (${count(LARGE_CHECK_COUNT)} above ${count(REFERENCE_EXACT_LIMIT)} samples) `
-      + `its prediction and sd_obs are compared with the closed form from all other samples (above ${count(REFERENCE_EXACT_LIMIT)} samples: `
+    `A local leave-one-out is measured: at ${count(CHECK_COUNT)} seeded samples (${count(LARGE_CHECK_COUNT)} above ${count(MAX_EXACT_SAMPLES)} samples) `
+      + `its prediction and sd_obs are compared with the closed form from all other samples (above ${count(MAX_EXACT_SAMPLES)} samples: `
       + `kriging from the ${count(REFERENCE_NEIGHBORS)} nearest other samples), and the largest and RMS differences, in % of the prior sd, `
       + 'are said on stderr and given in the JSON summary ("localError"); a miss of --tolerance is a warning.',
     'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '

@@ -3,14 +3,14 @@
  * diagnostics, practical range and the working CRS its distances are in).
  *
  * Method: by default the number of samples chooses (core/fitting/vecchia.ts chooseFitMethod): the exact
- * REML likelihood below 3,000 samples, the nearest-neighbour (Vecchia) REML likelihood with maxmin
- * ordering from 3,000 on. The choice is said on stderr and in the model's "fit.note"; --method
+ * REML likelihood below MAX_EXACT_SAMPLES (core/shared/sizes.ts) samples, the nearest-neighbour (Vecchia)
+ * REML likelihood with maxmin ordering from there on. The choice is said on stderr and in the model's "fit.note"; --method
  * reml|ml|wls|nnl overrides it.
  */
 import { SOFTWARE } from '../../core/shared/version.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
-import { MAX_EXACT_SAMPLES, type FitOptions } from '../../core/fitting/fit.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT, vecchiaFit, type VecchiaThreads } from '../../core/fitting/vecchia.ts';
+import { type FitOptions } from '../../core/fitting/fit.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, vecchiaFit, type VecchiaThreads } from '../../core/fitting/vecchia.ts';
 import type { CovarianceModel, Family, Trend } from '../../core/covariance/model.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
@@ -20,6 +20,7 @@ import { COVARIATE_OPTIONS, trendWithCovariates, withSampleCovariates } from '..
 import { attachTrendCoefficients } from '../../core/fitting/covariate-fit.ts';
 import { analyteRequest, fitAnalytes } from '../analytes.ts';
 import { STRUCTURE_OPTIONS, fitWithStructure, printComparison, readStructureChoice } from '../fit-structure.ts';
+import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
@@ -73,7 +74,7 @@ function logSamples(intake: IntakeResult): Samples {
 }
 
 /**
- * The method a fit uses: --method as given, or for 'auto' the exact REML likelihood below 3,000
+ * The method a fit uses: --method as given, or for 'auto' the exact REML likelihood below MAX_EXACT_SAMPLES
  * samples and the nearest-neighbour likelihood from there on. Throws GapwiseError('bad-option') for
  * an exact likelihood on more samples than it can take, and for --nnl-neighbors without 'nnl'.
  */
@@ -85,7 +86,7 @@ export function resolveFitMethod(given: MethodOption, n: number, nnlNeighbors?: 
     const method = chooseFitMethod(n) === 'nnl' ? 'nnl' : 'reml';
     if (nnlNeighbors !== undefined && method !== 'nnl') {
       throw new GapwiseError('bad-option',
-        `Option "--nnl-neighbors" applies to the nearest-neighbour likelihood, which is chosen from ${count(EXACT_FIT_LIMIT)} samples; got ${count(n)} samples (add --method nnl to use it anyway).`);
+        `Option "--nnl-neighbors" applies to the nearest-neighbour likelihood, which is chosen from ${count(MAX_EXACT_SAMPLES)} samples; got ${count(n)} samples (add --method nnl to use it anyway).`);
     }
     return { method, automatic: true };
   }
@@ -163,7 +164,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   if (fit) {
     fit.choice = automatic ? 'automatic' : 'given';
     const why = !automatic ? `; --method ${method}`
-      : method === 'nnl' ? `; chosen automatically from ${count(EXACT_FIT_LIMIT)} samples (--method reml|ml|wls overrides)` : '';
+      : method === 'nnl' ? `; chosen automatically from ${count(MAX_EXACT_SAMPLES)} samples (--method reml|ml|wls overrides)` : '';
     printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
   }
   printComparison(io, model);
@@ -195,7 +196,7 @@ export const fitCommand: CommandSpec = {
       + 'predict, cv and the app read. The JSON carries the fit diagnostics (method, log-likelihood, AIC, '
       + 'converged), the practical range (the distance where the correlation falls to 5 %) and "crs": {"work": ...}, '
       + 'the coordinate system its distances (metres) are measured in.',
-    `By default the number of samples chooses the method: the exact REML likelihood below ${count(EXACT_FIT_LIMIT)} samples `
+    `By default the number of samples chooses the method: the exact REML likelihood below ${count(MAX_EXACT_SAMPLES)} samples `
       + '(n³/3 flops per evaluation), and from there on a nearest-neighbour (Vecchia) REML likelihood: each sample, '
       + 'in a maxmin order, is conditioned on its --nnl-neighbors nearest earlier samples (n·m³/3 flops). The choice '
       + 'is said on stderr ("note: fitted with a nearest-neighbour likelihood on 48,211 samples ...") and in the '
@@ -203,7 +204,7 @@ export const fitCommand: CommandSpec = {
     '--anisotropy also estimates the azimuth of the long axis (degrees clockwise from grid north, 0 to 180) and the '
       + 'ratio short/long range; --structures 2 fits a short and a long structure and keeps them only when the data '
       + 'tell them apart. Both fit the simpler model first and print both side by side (parameters, log-likelihood, '
-      + 'AIC), also written to "fit": "comparison". They use the exact REML or ML likelihood (up to 3,000 samples).',
+      + `AIC), also written to "fit": "comparison". They use the exact REML or ML likelihood (up to ${count(MAX_EXACT_SAMPLES)} samples).`,
     '--value a,b,c (column names separated by commas, or \'*\' for every numeric column besides the coordinates) '
       + 'fits each analyte on its own, exactly as a run with --value a would, and writes one model set: '
       + '{"analytes": {"a": MODEL, ...}} for "gapwise grid --value a,b,c".',
@@ -214,7 +215,7 @@ export const fitCommand: CommandSpec = {
     { name: 'nu', kind: 'string', placeholder: 'NU', help: 'Matérn smoothness: a number > 0, or "free" to fit it', defaultText: '1.5' },
     {
       name: 'method', kind: 'string', placeholder: 'M', choices: ['auto', 'reml', 'ml', 'wls', 'nnl'],
-      help: `fitting method: reml or ml (exact likelihood, up to ${count(MAX_EXACT_SAMPLES)} samples), wls (variogram), nnl (nearest-neighbour REML likelihood, any number of samples), auto (reml below ${count(EXACT_FIT_LIMIT)} samples, nnl from there on)`,
+      help: `fitting method: reml or ml (exact likelihood, up to ${count(MAX_EXACT_SAMPLES)} samples), wls (variogram), nnl (nearest-neighbour REML likelihood, any number of samples), auto (reml below ${count(MAX_EXACT_SAMPLES)} samples, nnl from there on)`,
       defaultText: 'auto',
     },
     { name: 'nnl-neighbors', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBORS) },

@@ -6,8 +6,8 @@
  * cell, so the numbers are the app's.
  *
  * Point surfaces are computed in row bands by the worker-thread pool of ../parallel.ts (one worker
- * per core unless --workers says otherwise): exact kriging below 3,000 samples, local
- * neighbourhoods from there on (or as --exact / --local say), with a note on stderr and progress
+ * per core unless --workers says otherwise): exact kriging or local neighbourhoods, chosen by cost
+ * (core/prediction/path-choice.ts) or as --exact / --local say, with a note on stderr and progress
  * lines for long runs. Block support and realisations (../simulation-options.ts) replace the point
  * surface by block-kriged cells and add bands, the area above the threshold and warnings; the
  * realisations are shared out over the same --workers threads (../simulation-pool.ts).
@@ -15,7 +15,7 @@
 import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
 import { cellCount, type Grid } from '../../core/geometry/grid.ts';
 import type { SurfaceResult } from '../../core/prediction/surface.ts';
-import { EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+
 import { knownMean, trendColumnCount } from '../../core/covariance/trend.ts';
 import { surfaceGeoTiff } from '../../io/geotiff.ts';
 import { surfaceContours } from '../../io/contours.ts';
@@ -39,6 +39,7 @@ import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
+import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 /** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
 async function namingAsync<T>(files: { samples?: string; model?: string }, work: () => Promise<T>): Promise<T> {
@@ -139,9 +140,9 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
   const blockKriging = choice.support === 'block' && model.transform !== 'log';
-  if (blockKriging && n >= EXACT_FIT_LIMIT) {
+  if (blockKriging && n >= MAX_EXACT_SAMPLES) {
     throw new GapwiseError('bad-option',
-      `Block kriging (--support block) uses all samples and is limited to fewer than ${count(EXACT_FIT_LIMIT)} of them; got ${count(n)}. `
+      `Block kriging (--support block) uses all samples and is limited to fewer than ${count(MAX_EXACT_SAMPLES)} of them; got ${count(n)}. `
       + 'Use --support point (local neighbourhoods from that many samples), or thin the samples.');
   }
   if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbors') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
@@ -262,7 +263,7 @@ export const gridCommand: CommandSpec = {
       + 'said on stderr, in the JSON summary ("localError") and in the GeoTIFF\'s metadata. The rows are shared out '
       + 'among --workers threads; a run that lasts more than 2 s prints a progress line at every 10 %.',
     'With --support block each cell holds the average over the cell (block kriging from all samples, fewer than '
-      + '3,000) instead of the value at its centre. With --realizations N, N conditional realisations add a band '
+      + `${count(MAX_EXACT_SAMPLES)}) instead of the value at its centre. With --realizations N, N conditional realisations add a band `
       + '"P(... > T) from N realisations" (and, for a log model with block support, the realisations\' block mean) '
       + 'and the summary gives the area above --threshold (m²; with --depth the volume, m³) as the median with 5 % '
       + 'and 95 % values over the realisations, drawn over the same --workers threads. Those bands are written to GeoTIFF only.',

@@ -6,7 +6,7 @@
  * Residuals: ordinary least squares of the values on the trend columns (./trend.ts), solved through the
  * Cholesky factor of XᵀX in the standardised columns. Coefficients: β̂ = (XᵀK⁻¹X)⁻¹XᵀK⁻¹y with
  * Cov(β̂) = (XᵀK⁻¹X)⁻¹ under the fitted covariance (taken as known; Cressie 1993 §3.4, from memory),
- * computed exactly (one n×n Cholesky factor) up to MAX_EXACT_COEFFICIENTS samples and through the
+ * computed exactly (one n×n Cholesky factor) up to MAX_EXACT_SAMPLES samples and through the
  * nearest-neighbour factor (./vecchia.ts `vecchiaTrend`) above. Values as given: a log model's caller
  * passes ln(value), so the coefficients are on the ln scale. Cost: O(n·p²) residuals, n³/3 flops
  * coefficients (O(n·m³) above the limit).
@@ -22,8 +22,7 @@ import { buildKrigingSystem, systemTrendCoefficients } from '../prediction/krigi
 import { vecchiaTrend } from './vecchia.ts';
 import { choleskyInPlace, solveLowerInPlace, solveUpperTransposeInPlace } from '../linalg/linalg.ts';
 
-/** Largest n for exact GLS coefficients (one n×n factor); above, the nearest-neighbour factor. */
-export const MAX_EXACT_COEFFICIENTS = 3000;
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /**
  * The trend of a fit checked against the samples: 'constant', 'linear', {known: m} or a covariate
@@ -80,7 +79,7 @@ export function attachTrendCoefficients(samples: Samples, model: CovarianceModel
   const n = samples.value.length;
   let coefficients;
   const plain: CovarianceModel = { ...model, transform: 'none' };
-  if (n <= MAX_EXACT_COEFFICIENTS) {
+  if (n <= MAX_EXACT_SAMPLES) {
     const sys = buildKrigingSystem(samples, plain, { checkScale: false });
     coefficients = systemTrendCoefficients(sys);
   } else {

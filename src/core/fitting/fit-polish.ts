@@ -4,7 +4,7 @@
  * over ln scale, ln nugget ratio (and ln ν when it was free) from the fitted values, stopping when the
  * simplex values agree to `tolerance` and its diameter is below 1e-5 in log units. Used where a fit is
  * compared with an outside optimiser; the parameters move only when ℓ improves.
- * Cost: tens of exact evaluations (n³/3 flops each); exact fits only (n ≤ MAX_EXACT_SAMPLES).
+ * Cost: tens of exact evaluations (n³/3 flops each); exact fits only (n ≤ MAX_EXACT_SAMPLES, core/shared/sizes.ts).
  */
 import type { CovarianceModel, CorrelatedStructure, Structure } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';

@@ -45,8 +45,7 @@ import type { FitMethod, FitOptions } from './fit-options.ts';
 
 /** Smoothness bounds when ν is estimated (defined beside the likelihood). */
 export { NU_BOUNDS } from './likelihood.ts';
-/** Largest n for the exact (O(n³)) likelihood. */
-export const MAX_EXACT_SAMPLES = 3000;
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 const SCREEN_ABOVE = 250;
 const SCREEN_SIZE = 150;
 const MID_ABOVE = 1000;

@@ -33,22 +33,21 @@ import {
 import type { CorrelationParameters, LikelihoodMethod, LikelihoodSetup, LikelihoodValue } from './likelihood.ts';
 import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
 import { createRandom } from '../shared/random.ts';
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Default number of earlier neighbours each sample is conditioned on. */
 export const DEFAULT_VECCHIA_NEIGHBORS = 30;
-/** Below this many samples the exact (dense) likelihood is affordable; at or above it, 'nnl'. */
-export const EXACT_FIT_LIMIT = 3000;
 
 const LN_2PI = Math.log(2 * Math.PI);
 
 /**
- * 'exact' for fewer than 3,000 samples, otherwise 'nnl' (nearest-neighbour likelihood). An explicit
+ * 'exact' for fewer than MAX_EXACT_SAMPLES (3,000, core/shared/sizes.ts) samples, otherwise 'nnl' (nearest-neighbour likelihood). An explicit
  * `override` wins. The dense fit costs n³/3 flops and 8n² bytes per evaluation; the nearest-neighbour
  * one n·m³/3 flops and n·m·4 bytes.
  */
 export function chooseFitMethod(n: number, override?: 'exact' | 'nnl'): 'exact' | 'nnl' {
   if (override === 'exact' || override === 'nnl') return override;
-  return n < EXACT_FIT_LIMIT ? 'exact' : 'nnl';
+  return n < MAX_EXACT_SAMPLES ? 'exact' : 'nnl';
 }
 
 /** The ordering, neighbour lists and trend columns shared by every evaluation on one data set. */

@@ -4,7 +4,7 @@
  *
  * After a local run, a seeded random subset of the targets (CHECK_COUNT, all when fewer; see
  * ./path-choice.ts) is kriged again by the reference: exact kriging from all samples up to
- * REFERENCE_EXACT_LIMIT samples (./kriging.ts), above that kriging from the REFERENCE_NEIGHBORS nearest
+ * MAX_EXACT_SAMPLES samples (./kriging.ts), above that kriging from the REFERENCE_NEIGHBORS nearest
  * samples of each checked target around the GLS mean of all samples. The differences of mean and sd
  * at those targets are reported as largest and root-mean-square, in % of the prior sd of the
  * surface (√ of its sill without the nugget; on the log scale for a log model, where kriging works).
@@ -17,7 +17,7 @@
  * grown setting (up to EXACT_SAMPLE_LIMIT samples), then exact kriging may be taken, or a warning says
  * the tolerance was missed. Local results do not depend on which targets are predicted together
  * (./local-kriging.ts), so a subset's values equal those of a full run.
- * Why the reference above REFERENCE_EXACT_LIMIT samples is kriging from the R nearest: with the mean
+ * Why the reference above MAX_EXACT_SAMPLES samples is kriging from the R nearest: with the mean
  * fixed at the GLS estimate, a sample beyond the R-th nearest changes the kriging answer only through
  * the screened remainder of the covariance; on the benchmark field (100,000 samples, scale 17 sample
  * spacings, 8 % nugget) the local answer converged geometrically (largest mean difference 4.5 %, 2.1 %,
@@ -37,10 +37,8 @@ import { cellCentres, type Grid } from '../geometry/grid.ts';
 import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
-import {
-  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, checkCount, localTargetCost,
-  type Tolerance,
-} from './path-choice.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, REFERENCE_NEIGHBORS, checkCount, localTargetCost, type Tolerance } from './path-choice.ts';
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
 export const MAX_GROWN_NEIGHBORS = 512;
@@ -49,7 +47,7 @@ export const MAX_GROWN_NEIGHBORS_LARGE = 256;
 
 /** The largest neighbourhood the growth tries for n samples. */
 export function maxGrownNeighbors(samples: number): number {
-  return Math.min(samples, samples <= REFERENCE_EXACT_LIMIT ? MAX_GROWN_NEIGHBORS : MAX_GROWN_NEIGHBORS_LARGE);
+  return Math.min(samples, samples <= MAX_EXACT_SAMPLES ? MAX_GROWN_NEIGHBORS : MAX_GROWN_NEIGHBORS_LARGE);
 }
 /** Seed of the checked subset when none is given. */
 export const DEFAULT_CHECK_SEED = 1;
@@ -133,7 +131,7 @@ export function referencePredictions(
   const n = samples.x.length;
   const log = model.transform === 'log';
   const all = Uint32Array.from({ length: x.length }, (_, i) => i);
-  if (n <= REFERENCE_EXACT_LIMIT) {
+  if (n <= MAX_EXACT_SAMPLES) {
     const p = createPredictor(samples, model).predict(x, y, withCovariates);
     return { ...checkedValues(p, all, log), reference: 'exact' };
   }

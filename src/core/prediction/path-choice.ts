@@ -6,9 +6,9 @@
  *   exact = n³/6 + K·n²/2 + T·(n²/2 + K·n)/threads
  * Local neighbourhoods of m samples (./local-kriging.ts), plus the measurement of their error
  * (./local-accuracy.ts): exact kriging at c = min(T, CHECK_COUNT) targets, from all samples up to
- * REFERENCE_EXACT_LIMIT samples and from the REFERENCE_NEIGHBORS nearest of each checked target above:
+ * MAX_EXACT_SAMPLES samples and from the REFERENCE_NEIGHBORS nearest of each checked target above:
  *   local = T·(m³/6 + m²/2 + K·(m + m²/16))/threads + n·log₂n + reference
- *   reference = n³/6 + K·n²/2 + c·(n²/2 + K·n)        (n ≤ REFERENCE_EXACT_LIMIT)
+ *   reference = n³/6 + K·n²/2 + c·(n²/2 + K·n)        (n ≤ MAX_EXACT_SAMPLES)
  *             = c·(R³/6 + K·R²/2 + R²/2 + K·R)       (above)
  * The local path is taken when it is the cheaper one; exact kriging is taken when it is, when the
  * tolerance is 0, or when all targets are checked anyway (T ≤ CHECK_COUNT). The exact path is never
@@ -18,6 +18,7 @@
  * far below the kriging sd itself, which is rarely under 10 % of the prior sd).
  */
 import { GapwiseError } from '../shared/errors.ts';
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** How close the local path must come to exact kriging: largest differences in % of the prior sd. */
 export interface Tolerance {
@@ -31,11 +32,9 @@ export interface Tolerance {
 export const DEFAULT_TOLERANCE: Readonly<Tolerance> = Object.freeze({ mean: 1, sd: 2 });
 /** Targets at which the local path is checked against exact kriging (all of them when fewer). */
 export const CHECK_COUNT = 200;
-/** Up to this many samples the check is against exact kriging from all samples. */
-export const REFERENCE_EXACT_LIMIT = 3000;
-/** Above REFERENCE_EXACT_LIMIT, the check is against kriging from this many nearest samples of each checked target. */
+/** Above MAX_EXACT_SAMPLES, the check is against kriging from this many nearest samples of each checked target. */
 export const REFERENCE_NEIGHBORS = 800;
-/** Above REFERENCE_EXACT_LIMIT, at most this many targets are checked (each costs an R × R factorisation). */
+/** Above MAX_EXACT_SAMPLES, at most this many targets are checked (each costs an R × R factorisation). */
 export const LARGE_CHECK_COUNT = 30;
 /** Most samples for which exact kriging is chosen automatically (or allowed with --exact): 8·n² bytes per thread. */
 export const EXACT_SAMPLE_LIMIT = 10_000;
@@ -69,7 +68,7 @@ export interface PathChoice {
 
 /** Targets checked against the reference for `samples` samples and `targets` targets. */
 export function checkCount(samples: number, targets: number): number {
-  return Math.min(targets, samples <= REFERENCE_EXACT_LIMIT ? CHECK_COUNT : LARGE_CHECK_COUNT);
+  return Math.min(targets, samples <= MAX_EXACT_SAMPLES ? CHECK_COUNT : LARGE_CHECK_COUNT);
 }
 
 /** Estimated multiply-adds of exact kriging (mean and sd) of `targets` targets from `samples` samples. */
@@ -99,7 +98,7 @@ export function localCost(samples: number, targets: number, neighbors = 64, thre
   const perTarget = localTargetCost(m);
   const c = checkCount(n, targets);
   const R = REFERENCE_NEIGHBORS;
-  const reference = n <= REFERENCE_EXACT_LIMIT
+  const reference = n <= MAX_EXACT_SAMPLES
     ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + c * (n * n / 2 + KERNEL_COST * n)
     : c * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);
   return (targets * perTarget) / Math.max(1, threads) + n * Math.log2(Math.max(2, n)) + reference;
@@ -137,7 +136,7 @@ export function choosePredictionPath(input: PathChoiceInput): PathChoice {
   if (tolerance.mean === 0 || tolerance.sd === 0) {
     return { path: 'exact', automatic: true, exactCost: ex, localCost: lo, reason: 'a tolerance of 0 needs exact kriging' };
   }
-  if (T <= checkCount(n, T) && n <= REFERENCE_EXACT_LIMIT) {
+  if (T <= checkCount(n, T) && n <= MAX_EXACT_SAMPLES) {
     return { path: 'exact', automatic: true, exactCost: ex, localCost: lo, reason: `${T.toLocaleString('en-US')} targets are few enough to krige exactly (the error check would do it anyway)` };
   }
   if (lo < ex) return { path: 'local', automatic: true, exactCost: ex, localCost: lo, reason: `local neighbourhoods are cheaper here (${costs})` };
@@ -147,7 +146,7 @@ export function choosePredictionPath(input: PathChoiceInput): PathChoice {
 /**
  * Exact or local leave-one-out (cv). The closed form of exact leave-one-out (./cross-validation.ts)
  * costs about n³/2 multiply-adds; checking local leave-one-out against it costs the same, so up to
- * REFERENCE_EXACT_LIMIT samples exact leave-one-out is taken, and local above (where the exact
+ * MAX_EXACT_SAMPLES samples exact leave-one-out is taken, and local above (where the exact
  * reference is out of reach; every sample is predicted from its nearest other samples).
  */
 export function chooseLeaveOneOutPath(input: Pick<PathChoiceInput, 'samples' | 'tolerance' | 'force'>): PathChoice {
@@ -159,10 +158,10 @@ export function chooseLeaveOneOutPath(input: Pick<PathChoiceInput, 'samples' | '
     return { path: 'exact', automatic: false, exactCost: ex, localCost: lo, reason: 'as asked (--exact)' };
   }
   if (input.force === 'local') return { path: 'local', automatic: false, exactCost: ex, localCost: lo, reason: 'as asked (--local)' };
-  if (n <= REFERENCE_EXACT_LIMIT) {
-    return { path: 'exact', automatic: true, exactCost: ex, localCost: lo, reason: `up to ${REFERENCE_EXACT_LIMIT.toLocaleString('en-US')} samples exact leave-one-out costs no more than checking local neighbourhoods against it` };
+  if (n <= MAX_EXACT_SAMPLES) {
+    return { path: 'exact', automatic: true, exactCost: ex, localCost: lo, reason: `up to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples exact leave-one-out costs no more than checking local neighbourhoods against it` };
   }
-  return { path: 'local', automatic: true, exactCost: ex, localCost: lo, reason: `above ${REFERENCE_EXACT_LIMIT.toLocaleString('en-US')} samples exact leave-one-out (about n³/2 operations) costs too much` };
+  return { path: 'local', automatic: true, exactCost: ex, localCost: lo, reason: `above ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples exact leave-one-out (about n³/2 operations) costs too much` };
 }
 
 /**

@@ -10,7 +10,7 @@ import { checkLeaveOneOutFinite, leaveOneOut, summariseErrors, type LeaveOneOutR
 import {
   chooseCheckTargets, compareWithReference, DEFAULT_CHECK_SEED, type CheckedValues, type LocalAccuracy, type LocalSettings, type ReferenceValues,
 } from '../prediction/local-accuracy.ts';
-import { checkCount, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS, type Tolerance } from '../prediction/path-choice.ts';
+import { checkCount, REFERENCE_NEIGHBORS, type Tolerance } from '../prediction/path-choice.ts';
 import { createPredictor } from '../prediction/kriging.ts';
 import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from '../prediction/local-kriging.ts';
 import { checkModelScale, type CovarianceModel } from '../covariance/model.ts';
@@ -18,6 +18,7 @@ import { NeighborIndex } from '../geometry/neighbors.ts';
 import type { Samples } from '../shared/samples.ts';
 import { covariateColumnCount, designRow, knownMean, trendColumnCount, trendFrame } from '../covariance/trend.ts';
 import { toIsotropicCoordinates } from '../covariance/covariance.ts';
+import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Options of localLeaveOneOut (plain data). */
 export interface LocalLeaveOneOutOptions {
@@ -133,11 +134,11 @@ export function localLeaveOneOut(
  * The measured error of a local leave-one-out (localLeaveOneOut above): at a seeded subset of the
  * samples (checkCount(n, n)), the local prediction and sd_obs of each left-out sample against the
  * reference leave-one-out there: the closed form from all other samples (./cross-validation.ts leaveOneOut) up to
- * REFERENCE_EXACT_LIMIT samples, above that kriging from the REFERENCE_NEIGHBORS nearest other samples
+ * MAX_EXACT_SAMPLES samples, above that kriging from the REFERENCE_NEIGHBORS nearest other samples
  * around the GLS mean of all samples (the reference of core/prediction/local-accuracy.ts predictLocalChecked, for the same reason).
  * Largest and RMS differences in % of the prior sd (on the log scale for a log model, as leave-one-out
  * itself). `local` holds the local leave-one-out of every sample (the values the user gets).
- * Cost: n³/3 flops up to REFERENCE_EXACT_LIMIT samples; above, c factorisations of R × R.
+ * Cost: n³/3 flops up to MAX_EXACT_SAMPLES samples; above, c factorisations of R × R.
  */
 export function measureLocalLeaveOneOut(
   samples: Samples, model: CovarianceModel, local: Pick<LeaveOneOutResult, 'prediction' | 'sdObserved'>, settings: LocalSettings,
@@ -148,7 +149,7 @@ export function measureLocalLeaveOneOut(
   const idx = chooseCheckTargets(n, checkCount(n, n), seed);
   const pick = (a: ArrayLike<number>): Float64Array => Float64Array.from(idx, (i) => a[i]);
   let reference: ReferenceValues;
-  if (n <= REFERENCE_EXACT_LIMIT) {
+  if (n <= MAX_EXACT_SAMPLES) {
     const exact = leaveOneOut(samples, model);
     reference = { mean: pick(exact.prediction), sd: pick(exact.sdObserved), reference: 'exact' };
   } else {

@@ -13,7 +13,7 @@ import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
 import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS } from '../../core/fitting/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
 import type { LocalKrigingOptions } from '../../core/prediction/local-kriging.ts';
 import type { LocalGridCheck, LocalSettings } from '../../core/prediction/local-accuracy.ts';
@@ -139,7 +139,7 @@ export function crossValidate(samples: Samples, model: CovarianceModel, signal?:
 }
 
 /**
- * Above REFERENCE_EXACT_LIMIT samples (core/prediction/path-choice.ts chooseLeaveOneOutPath, as `gapwise cv`)
+ * Above MAX_EXACT_SAMPLES samples (core/prediction/path-choice.ts chooseLeaveOneOutPath, as `gapwise cv`)
  * leave-one-out predicts each sample from its 64 nearest others (core/validation/local-cross-validation.ts,
  * n·64³/3 flops) instead of the closed form's n³/3 flops and 8n² bytes.
  */

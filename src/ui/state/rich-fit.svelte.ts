@@ -9,11 +9,12 @@ import type { Samples } from '../../core/shared/samples.ts';
 import type { FitOptions } from '../../core/fitting/fit-options.ts';
 import type { StructureFitResult } from '../../worker/protocol.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
-import { EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+
 import { LatestRun } from './latest.ts';
 import { specByKey } from './structure.ts';
 import type { RichChoice } from './rich-fit.ts';
 import * as engine from './engine.ts';
+import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 /** What the richer fit reads from the session (a narrow view, so this file needs nothing else of it). */
 export interface RichFitSource {
@@ -72,8 +73,8 @@ export class RichFitState {
     this.task = { status: 'running', fraction: 0, error: null };
     try {
       const n = src.samples.x.length;
-      if (n >= EXACT_FIT_LIMIT) {
-        throw new GapwiseError('bad-option', `A richer fit uses the exact likelihood, for fewer than ${EXACT_FIT_LIMIT.toLocaleString('en-US')} samples; got ${n.toLocaleString('en-US')}.`);
+      if (n >= MAX_EXACT_SAMPLES) {
+        throw new GapwiseError('bad-option', `A richer fit uses the exact likelihood, for fewer than ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples; got ${n.toLocaleString('en-US')}.`);
       }
       const options = richFitOptions(src.chosen, choice, src.chosenModel);
       const result = await engine.fitStructure(

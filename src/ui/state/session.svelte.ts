@@ -34,7 +34,7 @@ import type { Grid } from '../../core/geometry/grid.ts';
 import type { SurfaceResult } from '../../core/prediction/surface.ts';
 import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
-import { chooseFitMethod, EXACT_FIT_LIMIT } from '../../core/fitting/vecchia.ts';
+import { chooseFitMethod } from '../../core/fitting/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
 import { choosePredictionPath, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
 import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
@@ -42,9 +42,10 @@ import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/mod
 import type { Warning } from '../../core/shared/errors.ts';
 import { covariateCandidates, residualSamples, samplesForModel, withChosenCovariates } from './covariates.ts';
 import type { CovariateRaster } from '../../io/covariate-raster.ts';
+import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
-export const MANY_SAMPLES = EXACT_FIT_LIMIT;
+export const MANY_SAMPLES = MAX_EXACT_SAMPLES;
 /** From this many samples the variograms are computed in a worker (below, at once on this thread). */
 export const ASYNC_VARIOGRAM_FROM = 3000;
 /** Pairs drawn in the variogram cloud. */

@@ -1,9 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import {
-  CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, LARGE_CHECK_COUNT, REFERENCE_EXACT_LIMIT, REFERENCE_NEIGHBORS,
-  checkCount, chooseLeaveOneOutPath, choosePredictionPath, exactCost, localCost, localTargetCost, parseTolerance,
-} from '../../../src/core/prediction/path-choice.ts';
+import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS, checkCount, chooseLeaveOneOutPath, choosePredictionPath, exactCost, localCost, localTargetCost, parseTolerance } from '../../../src/core/prediction/path-choice.ts';
 import { thrown } from '../../helpers/thrown.ts';
+import { MAX_EXACT_SAMPLES } from '../../../src/core/shared/sizes.ts';
 
 /** The smallest target count at which the local path is chosen for n samples (by search on the choice itself). */
 function breakEven(n: number, threads = 1): number {
@@ -24,27 +22,27 @@ describe('exactCost / localCost', () => {
     const T = 40_000;
     expect(exactCost(n, T, 2)).toBeCloseTo(n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + (T * (n * n / 2 + KERNEL_COST * n)) / 2, -3);
   });
-  it('localCost includes the exact reference up to REFERENCE_EXACT_LIMIT samples, a neighbourhood reference above', () => {
+  it('localCost includes the exact reference up to MAX_EXACT_SAMPLES samples, a neighbourhood reference above', () => {
     const m = 64;
     const perTarget = m ** 3 / 6 + (m * m) / 2 + KERNEL_COST * (m + (m * m) / 16);
-    const n = REFERENCE_EXACT_LIMIT;
+    const n = MAX_EXACT_SAMPLES;
     const ref = n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + CHECK_COUNT * (n * n / 2 + KERNEL_COST * n);
     expect(localCost(n, 10_000, m)).toBeCloseTo(10_000 * perTarget + n * Math.log2(n) + ref, -3);
-    const N = REFERENCE_EXACT_LIMIT + 1;
+    const N = MAX_EXACT_SAMPLES + 1;
     const R = REFERENCE_NEIGHBORS;
     const refN = LARGE_CHECK_COUNT * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);
     expect(localCost(N, 10_000, m)).toBeCloseTo(10_000 * perTarget + N * Math.log2(N) + refN, -3);
   });
   it('checkCount checks every target when there are few, CHECK_COUNT or LARGE_CHECK_COUNT otherwise', () => {
     expect(checkCount(500, 37)).toBe(37);
-    expect(checkCount(REFERENCE_EXACT_LIMIT, 1e6)).toBe(CHECK_COUNT);
-    expect(checkCount(REFERENCE_EXACT_LIMIT + 1, 1e6)).toBe(LARGE_CHECK_COUNT);
+    expect(checkCount(MAX_EXACT_SAMPLES, 1e6)).toBe(CHECK_COUNT);
+    expect(checkCount(MAX_EXACT_SAMPLES + 1, 1e6)).toBe(LARGE_CHECK_COUNT);
   });
 });
 
 describe('choosePredictionPath', () => {
   it('choosePredictionPath takes local from the break-even target count on, exact one target below', () => {
-    for (const [n, threads] of [[2000, 1], [2000, 2], [500, 1], [REFERENCE_EXACT_LIMIT, 1]] as const) {
+    for (const [n, threads] of [[2000, 1], [2000, 2], [500, 1], [MAX_EXACT_SAMPLES, 1]] as const) {
       const t = breakEven(n, threads);
       const below = choosePredictionPath({ samples: n, targets: t - 1, threads });
       const at = choosePredictionPath({ samples: n, targets: t, threads });
@@ -65,7 +63,7 @@ describe('choosePredictionPath', () => {
   it('choosePredictionPath: up to CHECK_COUNT targets are kriged exactly (the check would do it), one more may be local', () => {
     // 3,000 samples: exact kriging of 200 targets costs what the check costs.
     expect(choosePredictionPath({ samples: 10, targets: CHECK_COUNT }).path).toBe('exact');
-    expect(choosePredictionPath({ samples: REFERENCE_EXACT_LIMIT, targets: CHECK_COUNT }).path).toBe('exact');
+    expect(choosePredictionPath({ samples: MAX_EXACT_SAMPLES, targets: CHECK_COUNT }).path).toBe('exact');
   });
   it('choosePredictionPath never takes exact kriging automatically above EXACT_SAMPLE_LIMIT samples', () => {
     const at = choosePredictionPath({ samples: EXACT_SAMPLE_LIMIT, targets: 10 });
@@ -105,14 +103,14 @@ describe('parseTolerance', () => {
 });
 
 describe('chooseLeaveOneOutPath', () => {
-  it('chooseLeaveOneOutPath takes the closed form up to REFERENCE_EXACT_LIMIT samples and local neighbourhoods one sample above', () => {
-    const at = chooseLeaveOneOutPath({ samples: REFERENCE_EXACT_LIMIT });
-    const above = chooseLeaveOneOutPath({ samples: REFERENCE_EXACT_LIMIT + 1 });
+  it('chooseLeaveOneOutPath takes the closed form up to MAX_EXACT_SAMPLES samples and local neighbourhoods one sample above', () => {
+    const at = chooseLeaveOneOutPath({ samples: MAX_EXACT_SAMPLES });
+    const above = chooseLeaveOneOutPath({ samples: MAX_EXACT_SAMPLES + 1 });
     expect(at.path).toBe('exact');
     expect(at.automatic).toBe(true);
     expect(above.path).toBe('local');
     expect(above.reason).toMatch(/above 3,000 samples/);
-    expect(at.exactCost).toBe(REFERENCE_EXACT_LIMIT ** 3 / 2);
+    expect(at.exactCost).toBe(MAX_EXACT_SAMPLES ** 3 / 2);
   });
   it('chooseLeaveOneOutPath follows --exact up to EXACT_SAMPLE_LIMIT samples and refuses it above', () => {
     expect(chooseLeaveOneOutPath({ samples: EXACT_SAMPLE_LIMIT, force: 'exact' }).path).toBe('exact');
