@@ -3,17 +3,16 @@
  *
  * `computeSurfaceParallel` (./parallel.ts) starts a pool per surface; starting a worker costs about
  * as much CPU as a 500-sample analyte on a 200 × 200 grid (from source it loads tsx and compiles the
- * engine), so several analytes would pay it once per analyte. Here the workers start once: each takes
- * the jobs in turn (the surface worker builds a fresh predictor on every `init`), moving on to the
- * next analyte's bands as soon as the current analyte has none left, so no worker waits for the others
- * between analytes. Every band is computed exactly as a one-analyte run computes it (same predictor,
+ * engine), so several analytes would pay it once per analyte. Here the engine threads start once and
+ * every analyte's bands go through one `EnginePool.run` queue, job by job, so no worker waits for the
+ * others between analytes (each worker builds an analyte's predictor once and keeps it for its bands). Every band is computed exactly as a one-analyte run computes it (same predictor,
  * same bands: `bandRows` as there), so each analyte's arrays equal that run's bit for bit.
  */
 import { availableParallelism } from 'node:os';
 import { cellCount } from '../core/geometry/grid.ts';
-import { GapwiseError, type ErrorCode, type Warning } from '../core/shared/errors.ts';
+import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { globalMeanCoefficients } from '../core/prediction/local-kriging.ts';
-import type { SurfaceArray, SurfaceResult, ValueRange } from '../core/prediction/surface.ts';
+import { rangeOf, type SurfaceArray, type SurfaceResult } from '../core/prediction/surface.ts';
 import type { SurfaceJob } from './parallel.ts';
 import { startEngineThreads } from './engine-threads.ts';
 
@@ -28,8 +27,6 @@ export interface SharedSurfaceOptions {
 interface JobState {
   job: SurfaceJob;
   bands: [number, number][];
-  next: number;
-  finished: number;
   bandDone: Float64Array;
   doneCells: number;
   totalCells: number;
@@ -39,21 +36,6 @@ interface JobState {
   median?: SurfaceArray;
   make: () => SurfaceArray;
   warnings: Map<string, Warning>;
-}
-
-function rangeOf(a: SurfaceArray): ValueRange {
-  let min = Infinity;
-  let max = -Infinity;
-  for (let k = 0; k < a.length; k++) {
-    const v = a[k];
-    if (v < min) min = v;
-    if (v > max) max = v;
-  }
-  return min <= max ? { min, max } : { min: NaN, max: NaN };
-}
-
-function toError(error: { code?: string; message: string }): Error {
-  return error.code ? new GapwiseError(error.code as ErrorCode, error.message) : new Error(error.message);
 }
 
 /** The state of one job: its bands (as computeSurfaceParallel cuts them for `workers`) and arrays. */
@@ -75,7 +57,7 @@ function prepare(jobGiven: SurfaceJob, workers: number): JobState {
   const float64 = job.surface?.precision === 'float64';
   const make = (): SurfaceArray => (float64 ? new Float64Array(size) : new Float32Array(size)).fill(NaN);
   return {
-    job, bands, next: 0, finished: 0, bandDone: new Float64Array(bands.length), doneCells: 0, totalCells: cellCount(grid),
+    job, bands, bandDone: new Float64Array(bands.length), doneCells: 0, totalCells: cellCount(grid),
     mean: make(), sd: make(), ...(job.surface?.threshold !== undefined ? { pExceed: make() } : {}), make, warnings,
   };
 }
@@ -138,7 +120,6 @@ export async function computeSurfacesShared(jobs: readonly SurfaceJob[], options
           s.median.set(r.median, offset);
         }
         for (const wn of r.warnings) s.warnings.set(`${wn.code}:${wn.message.replace(/^\d+ /, '')}`, wn);
-        s.finished++;
       },
       onError: (i, e) => {
         if (e && typeof e === 'object') (e as { job?: number }).job = parts[i].j;

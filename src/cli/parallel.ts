@@ -14,7 +14,7 @@ import { cellCount } from '../core/geometry/grid.ts';
 import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { createPredictor } from '../core/prediction/kriging.ts';
 import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
-import { computeSurfaceWith, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
+import { computeSurfaceWith, rangeOf, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
 import { startEngineThreads } from './engine-threads.ts';
 
 export type SurfacePath = 'exact' | 'local';
@@ -129,16 +129,6 @@ export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelS
     await pool.dispose();
   }
 
-  const rangeOf = (a: SurfaceArray) => {
-    let min = Infinity;
-    let max = -Infinity;
-    for (let k = 0; k < a.length; k++) {
-      const v = a[k];
-      if (v < min) min = v;
-      if (v > max) max = v;
-    }
-    return min <= max ? { min, max } : { min: NaN, max: NaN };
-  };
   const result: SurfaceResult = {
     rows: [0, grid.ny], nx: grid.nx, mean, sd,
     range: { mean: rangeOf(mean), sd: rangeOf(sd) },

@@ -34,7 +34,7 @@ import { buildKrigingSystem, type KrigingSystem, type PredictorOptions } from '.
 import { checkCovariateRows, covariateColumnCount, designRow, type CoordinateFrame } from '../covariance/trend.ts';
 import { exceedanceProbability } from '../shared/normal.ts';
 import { cellCentres, type Grid } from '../geometry/grid.ts';
-import { checkSurfaceCell, type SurfaceArray, type SurfaceResult, type ValueRange } from './surface.ts';
+import { checkSurfaceCell, rangeOf, type SurfaceArray, type SurfaceResult } from './surface.ts';
 
 /** Default discretisation: 4×4 points per block (common practice). */
 export const DEFAULT_BLOCK_POINTS = 4;
@@ -266,16 +266,6 @@ export interface BlockSurfaceOptions {
    * (nx·ny cells row-major from the top, each k² rows in the order of `blockOffsets`, × q columns).
    */
   covariates?: Float64Array;
-}
-
-function rangeOf(a: SurfaceArray): ValueRange {
-  let min = Infinity, max = -Infinity;
-  for (let k = 0; k < a.length; k++) {
-    const x = a[k];
-    if (x < min) min = x;
-    if (x > max) max = x;
-  }
-  return min <= max ? { min, max } : { min: NaN, max: NaN };
 }
 
 /**

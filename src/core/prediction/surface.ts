@@ -79,7 +79,8 @@ function checkRows(grid: Grid, rows?: [number, number]): [number, number] {
   return [a, b];
 }
 
-function rangeOf(a: SurfaceArray): ValueRange {
+/** Smallest and largest value of a surface array (NaN cells left out; both NaN when none is a number). */
+export function rangeOf(a: ArrayLike<number>): ValueRange {
   let min = Infinity, max = -Infinity;
   for (let k = 0; k < a.length; k++) {
     const v = a[k];

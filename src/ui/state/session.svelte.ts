@@ -31,7 +31,7 @@ import { bestKey, withParts, type CandidateRow, type ModelParts } from './struct
 import * as engine from './engine.ts';
 import { RichFitState } from './rich-fit.svelte.ts';
 import type { Grid } from '../../core/geometry/grid.ts';
-import type { SurfaceResult } from '../../core/prediction/surface.ts';
+import { rangeOf, type SurfaceResult } from '../../core/prediction/surface.ts';
 import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import { chooseFitMethod } from '../../core/fitting/vecchia.ts';
@@ -866,11 +866,6 @@ export class Session {
     const intake = this.intake;
     if (!sim || !intake) return;
     const r = sim.result;
-    const rangeOf = (a: Float32Array) => {
-      let min = Infinity, max = -Infinity;
-      for (const v of a) { if (v < min) min = v; if (v > max) max = v; }
-      return min <= max ? { min, max } : { min: NaN, max: NaN };
-    };
     const mean = Float32Array.from(r.mean), sd = Float32Array.from(r.sd);
     let cells = 0;
     for (const v of mean) if (v === v) cells++;
