@@ -5,7 +5,7 @@
  */
 import Papa from 'papaparse';
 import { GapwiseError } from '../core/shared/errors.ts';
-import { detectDelimiter, normaliseText } from '../io/csv.ts';
+import { CSV_PARSE, detectDelimiter, normaliseText } from '../io/csv.ts';
 import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
 import { formatFullPrecision } from '../io/format.ts';
 
@@ -60,12 +60,7 @@ export function readCsvTable(text: string, fileName: string): CsvTable {
     delimiter,
     // Records end at LF; a CR before it is the CRLF ending, taken off below, so files that mix CRLF
     // and LF lines split where a reader of either kind expects.
-    newline: '\n',
-    quoteChar: '"',
-    escapeChar: '"',
-    skipEmptyLines: false,
-    header: false,
-    dynamicTyping: false,
+    ...CSV_PARSE,
     step: (row) => {
       const cursor = row.meta.cursor;
       let end = body[cursor - 1] === '\n' ? cursor - 1 : cursor;

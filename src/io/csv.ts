@@ -37,17 +37,17 @@ export function normaliseText(text: string): string {
   return t.replace(/\r\n?/g, '\n');
 }
 
+/**
+ * How every CSV in Gapwise is parsed (with a delimiter chosen by detectDelimiter): records end at LF
+ * (text normalised first, or a CR before the LF taken off by the caller), RFC 4180 double quotes,
+ * blank lines kept for the caller to count, every cell plain text.
+ */
+export const CSV_PARSE = {
+  newline: '\n', quoteChar: '"', escapeChar: '"', skipEmptyLines: false, header: false, dynamicTyping: false,
+} as const;
+
 function parseWith(text: string, delimiter: Delimiter, preview = 0): Papa.ParseResult<string[]> {
-  return Papa.parse<string[]>(text, {
-    delimiter,
-    newline: '\n',
-    quoteChar: '"',
-    escapeChar: '"',
-    skipEmptyLines: false,
-    header: false,
-    dynamicTyping: false,
-    preview,
-  });
+  return Papa.parse<string[]>(text, { delimiter, ...CSV_PARSE, preview });
 }
 
 function isBlank(cells: string[]): boolean {
@@ -164,7 +164,7 @@ export class CsvReader {
 
   private choose(): void {
     this.delimiter = this.fixedDelimiter ?? detectDelimiter(this.pending);
-    this.parser = new Papa.Parser({ delimiter: this.delimiter, newline: '\n', quoteChar: '"', escapeChar: '"', skipEmptyLines: false, header: false, dynamicTyping: false });
+    this.parser = new Papa.Parser({ delimiter: this.delimiter, ...CSV_PARSE });
   }
 
   private parse(final: boolean): void {
