@@ -1,0 +1,27 @@
+/**
+ * A digest of prepared report data: the data as canonical JSON (typed arrays as plain arrays, keys
+ * sorted, functions left out, numbers as JavaScript prints them, so bit-for-bit) hashed with SHA-256.
+ * Two preparations with the same digest hold the same numbers.
+ */
+import { createHash } from 'node:crypto';
+
+function canonical(value: unknown): unknown {
+  if (ArrayBuffer.isView(value)) return { typed: value.constructor.name, values: Array.from(value as unknown as ArrayLike<number>, (v) => (Number.isNaN(v) ? 'NaN' : v)) };
+  if (Array.isArray(value)) return value.map(canonical);
+  if (typeof value === 'number') return Number.isFinite(value) ? value : String(value);
+  if (value && typeof value === 'object') {
+    const out: Record<string, unknown> = {};
+    for (const key of Object.keys(value).sort()) {
+      const v = (value as Record<string, unknown>)[key];
+      if (typeof v === 'function' || v === undefined) continue;
+      out[key] = canonical(v);
+    }
+    return out;
+  }
+  return value;
+}
+
+/** SHA-256 (hex) of the value's canonical JSON. */
+export function reportDigest(value: unknown): string {
+  return createHash('sha256').update(JSON.stringify(canonical(value))).digest('hex');
+}
