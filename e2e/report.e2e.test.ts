@@ -11,7 +11,8 @@ import { pathToFileURL } from 'node:url';
 import { chromium, type Browser } from 'playwright-core';
 import { CHROMIUM_ARGS, ROOT, SCREENSHOTS } from './harness.ts';
 import { createProject, projectIntake } from '../src/io/project.ts';
-import { prepareReport, reportHtml } from '../src/io/report.ts';
+import { reportHtml } from '../src/io/report.ts';
+import { prepareReport } from '../src/worker/report-data.ts';
 import type { CovarianceModel } from '../src/core/covariance/model.ts';
 
 const CAUTION = 'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';

@@ -19,7 +19,8 @@ import { analyteColumnName } from '../io/grid-csv.ts';
 import { SOFTWARE } from '../core/shared/version.ts';
 import type { CovarianceModel } from '../core/covariance/model.ts';
 import { projectIntake, type Project } from '../io/project.ts';
-import { analyteReportHtml, prepareReport, type ReportInput } from '../io/report.ts';
+import { analyteReportHtml, type ReportInput } from '../io/report.ts';
+import { prepareReport } from '../worker/report-data.ts';
 import { booleanOption, numberOption, stringOption } from './args.ts';
 import {
   CAUTION, jsonText, naming, printNotes, printWarnings, progressLine, readText, writeOutput, type CliIo, type OptionValues,

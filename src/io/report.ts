@@ -11,29 +11,22 @@
  * arrow), suggested next samples (when present), and every parameter needed to reproduce the result
  * with the software version and date. Every text that comes from a file or the user is escaped.
  *
- * `prepareReport` recomputes what a report shows from a project exactly as the app computes it;
- * `reportHtml` only formats (pure, no I/O), so the app can pass results it already has. Realisations
- * can be drawn elsewhere (the command line draws them over threads): `reportSimulationJob` says what
- * to draw and `prepareReport({ simulate, drawn })` takes the result.
+ * `reportHtml` only formats (pure, no I/O) the data in a `ReportInput`: what the app already has, or
+ * what `prepareReport` (src/worker/report-data.ts, the engine) computes from a project.
  */
 import { CAUTION } from '../core/shared/caution.ts';
-import { GapwiseError, type Warning } from '../core/shared/errors.ts';
+import type { Warning } from '../core/shared/errors.ts';
 import type { CovarianceModel, CovariateTrend, Structure } from '../core/covariance/model.ts';
 import { isCovariateTrend, nuggetOf } from '../core/covariance/model.ts';
-import type { Samples } from '../core/shared/samples.ts';
 import { cellCount, type Grid } from '../core/geometry/grid.ts';
-import { computeSurface } from '../core/prediction/surface.ts';
-import { leaveOneOut, type LeaveOneOutResult } from '../core/validation/cross-validation.ts';
-import { empiricalVariogram, type EmpiricalVariogram } from '../core/fitting/variogram.ts';
+import type { LeaveOneOutResult } from '../core/validation/cross-validation.ts';
+import type { EmpiricalVariogram } from '../core/fitting/variogram.ts';
 import { surfaceCovariance, surfaceVariance } from '../core/covariance/covariance.ts';
-import { CANDIDATES, fitModel } from '../core/fitting/fit.ts';
-import { simulateConditional, type ConditionalSimulationOptions, type ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
 import type { Polygon } from './boundary.ts';
 import { createTransform, LOCAL_CRS } from './crs.ts';
 import type { IntakeResult } from './types.ts';
 import {
-  gridGeometry, projectBoundary, projectGrid, projectIntake, projectSimulation,
-  type ComparisonRow, type Project, type ProjectSimulation, type SimulationSettings, type Suggestion,
+  gridGeometry, type ComparisonRow, type Project, type ProjectSimulation, type Suggestion,
 } from './project.ts';
 import { defaultLuts, type Lut, type ReportScale } from './report-colours.ts';
 import {
@@ -89,200 +82,8 @@ export interface ReportInput {
   warnings?: Warning[];
   /** The surface came from local neighbourhoods: their measured error against exact kriging (core/prediction/local-accuracy.ts). */
   localAccuracy?: LocalAccuracy | null;
-  /** True when prepareReport computed the surface itself (exact kriging from all samples). */
+  /** True when the surface was computed for the report (exact kriging from all samples). */
   exactSurface?: boolean;
-}
-
-export interface PrepareOptions {
-  software: { name: string; version: string };
-  /** Default: now. */
-  created?: string;
-  /**
-   * Fit the standard candidate models for the comparison table when the project holds none
-   * (default true; costs a few model fits).
-   */
-  compare?: boolean;
-  /** Progress of the candidate fits for the comparison table: candidates done (fractional) and in all. */
-  onCompareProgress?: (done: number, total: number) => void;
-  /** Results already at hand (the app): used instead of recomputing. */
-  surface?: ReportSurface | null;
-  /** With `surface` from local neighbourhoods: their measured error, shown beside the surface. */
-  localAccuracy?: LocalAccuracy | null;
-  cv?: LeaveOneOutResult | null;
-  comparison?: ComparisonRow[];
-  /** Replaces the project's cell size (the grid is then planned anew). */
-  cellSize?: number;
-  /**
-   * Draw conditional realisations on the report's grid with these settings and report the area (and,
-   * with a depth, the volume) above the project's action level; replaces a summary the project holds.
-   */
-  simulate?: SimulationSettings;
-  /**
-   * The realisations for `simulate`, already drawn with the options reportSimulationJob gives (on
-   * the report's grid): used instead of drawing them here.
-   */
-  drawn?: ConditionalSimulationResult;
-  /** Progress of the realisations (done, total). */
-  onProgress?: (done: number, total: number) => void;
-}
-
-/** Realisations a report draws: the samples, model, grid and core options (plain data). */
-export interface ReportSimulationJob {
-  samples: Samples;
-  model: CovarianceModel;
-  grid: Grid;
-  options: ConditionalSimulationOptions;
-}
-
-/** Core options for the report's realisations; throws GapwiseError('bad-option') for an unusable action level. */
-function simulationOptions(threshold: number | null, model: CovarianceModel, set: SimulationSettings): ConditionalSimulationOptions {
-  if (threshold === null || !Number.isFinite(threshold)) {
-    throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected a threshold (for example "--threshold 200").');
-  }
-  if (model.transform === 'log' && !(threshold > 0)) {
-    throw new GapwiseError('bad-option', `The action level ${threshold} cannot be used with a log model; expected a level above 0.`);
-  }
-  return {
-    count: set.count, seed: set.seed, support: set.support, blockPoints: set.support === 'block' ? set.blockPoints : 1,
-    threshold, keepRealisations: false,
-    ...(set.depth !== null ? { depth: set.depth } : {}),
-  };
-}
-
-/**
- * The realisations prepareReport(project, { simulate, cellSize }) would draw, to be drawn elsewhere
- * and passed back as `drawn`: the samples read from the project, its model, the report's grid and
- * the core options. Null when the project has no model (prepareReport then warns that none were
- * drawn). Throws GapwiseError('bad-option') as prepareReport does for a missing or unusable action level.
- */
-export function reportSimulationJob(project: Project, options: { simulate: SimulationSettings; cellSize?: number }): ReportSimulationJob | null {
-  const model = project.model;
-  if (!model) return null;
-  const intake = projectIntake(project);
-  const work = intake.report.crs.work;
-  const boundary = project.boundary && work !== LOCAL_CRS ? projectBoundary(project, work) : null;
-  const grid = projectGrid(project, intake, boundary, options.cellSize !== undefined ? { cellSize: options.cellSize } : {});
-  return { samples: intake.samples, model, grid, options: simulationOptions(project.threshold, model, options.simulate) };
-}
-
-/** Throws GapwiseError('bad-option') unless `drawn` is a run of these options on this grid. */
-function checkDrawn(drawn: ConditionalSimulationResult, grid: Grid, o: ConditionalSimulationOptions): void {
-  const g = drawn.grid;
-  if (g.nx !== grid.nx || g.ny !== grid.ny || g.x0 !== grid.x0 || g.y0 !== grid.y0 || g.cell !== grid.cell) {
-    throw new GapwiseError('bad-option', `Expected realisations drawn on the report's grid (${grid.nx} × ${grid.ny} cells of ${grid.cell} m), got ${g.nx} × ${g.ny} cells of ${g.cell} m.`);
-  }
-  if (drawn.count !== o.count || drawn.threshold !== o.threshold || drawn.support !== o.support || !drawn.area) {
-    throw new GapwiseError('bad-option', `Expected ${o.count} realisations with the area above ${o.threshold} (${o.support} support), got ${drawn.count} (${drawn.support} support)${drawn.area ? ` above ${drawn.threshold}` : ' without an area'}.`);
-  }
-}
-
-function modelSamples(samples: Samples, log: boolean): Samples {
-  return log ? { x: samples.x, y: samples.y, value: Float64Array.from(samples.value, Math.log) } : samples;
-}
-
-/** Label of a candidate: "Matérn ν = 1.5", "Matérn, ν estimated", "Exponential". */
-export function candidateLabel(family: string, nu?: number | 'free'): string {
-  if (family === 'matern') return nu === 'free' ? 'Matérn, ν estimated' : `Matérn ν = ${nu === 0.5 ? '½' : nu === 1.5 ? '3/2' : nu === 2.5 ? '5/2' : String(nu)}`;
-  return family.charAt(0).toUpperCase() + family.slice(1);
-}
-
-/**
- * Fits the standard candidates (REML/ML/WLS as the project says, on ln values for a log model) and
- * cross-validates each, as the app's comparison table does. A candidate that cannot be fitted keeps
- * its row with `error`.
- */
-export function compareCandidates(
-  intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log', onProgress?: (done: number, total: number) => void,
-): ComparisonRow[] {
-  const fitSamples = modelSamples(intake.samples, transform === 'log');
-  const total = CANDIDATES.length;
-  return CANDIDATES.map((c, i): ComparisonRow => {
-    const key = c.family === 'matern' ? `matern-${c.nu}` : c.family;
-    const label = candidateLabel(c.family, c.nu);
-    try {
-      // Progress counts candidates: nine tenths of each for its fit, the rest for its leave-one-out.
-      const m = fitModel(fitSamples, { family: c.family, nu: c.nu, method }, onProgress ? (d, t) => onProgress(i + 0.9 * Math.min(1, d / t), total) : undefined);
-      m.transform = transform;
-      const cv = leaveOneOut(intake.samples, m);
-      onProgress?.(i + 1, total);
-      return {
-        key, label, model: m, logLikelihood: m.fit?.logLikelihood ?? null, aic: m.fit?.aic ?? null,
-        rmse: cv.summary.rmse, msse: cv.summary.msse,
-      };
-    } catch (e) {
-      if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
-        onProgress?.(i + 1, total);
-        return { key, label, model: null, logLikelihood: null, aic: null, rmse: null, msse: null, error: e.message };
-      }
-      throw e;
-    }
-  });
-}
-
-/**
- * Computes what the report shows from a project, the way the app computes it: the samples read
- * from the stored text, the variogram with the stored settings, leave-one-out cross-validation of
- * the model, and the surfaces on the project's grid with its threshold.
- */
-export function prepareReport(project: Project, options: PrepareOptions): ReportInput {
-  const warnings: Warning[] = [];
-  const intake = projectIntake(project);
-  const work = intake.report.crs.work;
-  const boundary = project.boundary && work !== LOCAL_CRS ? projectBoundary(project, work) : null;
-  const log = project.structure.transform === 'log';
-  const vg = project.structure.variogram;
-  let variogram: EmpiricalVariogram | null = null;
-  try {
-    variogram = empiricalVariogram(modelSamples(intake.samples, log), {
-      lagWidth: vg.lagWidth || undefined, maxLag: vg.maxLag || undefined, estimator: vg.estimator,
-    });
-  } catch (e) {
-    if (!(e instanceof GapwiseError)) throw e;
-    warnings.push({ code: 'no-variogram', message: `No variogram: ${e.message}` });
-  }
-  const model = project.model;
-  let cv = options.cv ?? null;
-  let grid: Grid | null = null;
-  let surface = options.surface ?? null;
-  let exactSurface = false;
-  if (model) {
-    if (!cv) cv = leaveOneOut(intake.samples, model);
-    grid = projectGrid(project, intake, boundary, options.cellSize !== undefined ? { cellSize: options.cellSize } : {});
-    if (!surface) {
-      const t = project.threshold;
-      const useThreshold = t !== null && Number.isFinite(t) && (model.transform !== 'log' || t > 0);
-      if (t !== null && !useThreshold) warnings.push({ code: 'threshold-ignored', message: `The threshold ${t} cannot be used with a log model (it must be above 0); no exceedance map.` });
-      surface = computeSurface(intake.samples, model, grid, useThreshold ? { threshold: t } : {});
-      exactSurface = true;
-    }
-  } else {
-    warnings.push({ code: 'no-model', message: 'The project has no model yet: the report shows the samples and the variogram only.' });
-  }
-  let simulation: ProjectSimulation | null = project.simulation?.summary ? project.simulation : null;
-  if (options.simulate) {
-    if (!model || !grid) {
-      warnings.push({ code: 'no-simulation', message: 'No realisations were drawn: the project has no model.' });
-    } else {
-      const set = options.simulate;
-      const simOptions = simulationOptions(project.threshold, model, set);
-      if (options.drawn) checkDrawn(options.drawn, grid, simOptions);
-      const sim = options.drawn ?? simulateConditional(intake.samples, model, grid, {
-        ...simOptions, ...(options.onProgress ? { onProgress: options.onProgress } : {}),
-      });
-      warnings.push(...sim.warnings);
-      simulation = projectSimulation(sim, { seed: set.seed, depth: set.depth, log: model.transform === 'log', made: options.created ?? new Date().toISOString() });
-    }
-  }
-  let comparison = options.comparison ?? project.structure.comparison ?? [];
-  if (comparison.length === 0 && model && options.compare !== false) {
-    comparison = compareCandidates(intake, project.structure.method, project.structure.transform, options.onCompareProgress);
-  }
-  return {
-    project, intake, boundary, variogram, comparison, cv, grid, surface, simulation,
-    software: options.software, created: options.created ?? new Date().toISOString(), warnings,
-    ...(options.surface && options.localAccuracy ? { localAccuracy: options.localAccuracy } : {}),
-    ...(exactSurface ? { exactSurface } : {}),
-  };
 }
 
 // ------------------------------------------------------------------------------------ formatting

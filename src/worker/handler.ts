@@ -27,6 +27,7 @@ import type { Samples } from '../core/shared/samples.ts';
 import { isCovariateTrend, type CovarianceModel } from '../core/covariance/model.ts';
 import { attachTrendCoefficients } from '../core/fitting/covariate-fit.ts';
 import type { readSamples } from '../io/intake.ts';
+import type { prepareReport } from './report-data.ts';
 import { runDesignRequest } from './design-handler.ts';
 import { runLikelihoodPart } from './likelihood-part.ts';
 import {
@@ -56,6 +57,8 @@ export interface EngineOperations {
   createLocalPredictor: typeof createLocalPredictor;
   /** Reading a samples file: only the app's worker has it (./operations.ts), so the command line's workers never load the file reader. */
   readSamples?: typeof readSamples;
+  /** A report's data from a project (it reads the project's files too): only the app's worker has it (./operations.ts). */
+  prepareReport?: typeof prepareReport;
 }
 
 /** The computing operations, without the file reader (what the command line's engine threads run). */
@@ -213,6 +216,12 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
         const q = p as RequestPayloads['readSamples'];
         if (!ops.readSamples) throw new Error('This engine worker reads no files: the command line reads them on its main thread.');
         return ops.readSamples(q.text, q.options) as ResultPayloads[K];
+      }
+      case 'prepareReport': {
+        const q = p as RequestPayloads['prepareReport'];
+        if (!ops.prepareReport) throw new Error('This engine worker prepares no reports: the command line prepares them on its main thread.');
+        // The candidate fits and the realisations each report progress; a request makes at most one of them count.
+        return ops.prepareReport(q.project, { ...q.options, onCompareProgress: progress, onProgress: progress }) as ResultPayloads[K];
       }
       case 'design':
         return runDesignRequest(p as RequestPayloads['design'], progress) as ResultPayloads[K];

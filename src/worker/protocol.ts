@@ -30,6 +30,9 @@ export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 
 export type BlockSurfaceResult = SurfaceResult & { support: 'block'; points: number; blockVariance: number };
 import type { DesignRequestPayload } from './design-handler.ts';
 import type { LikelihoodPartPayload } from './likelihood-part.ts';
+import type { PrepareRequestOptions } from './report-data.ts';
+import type { Project } from '../io/project.ts';
+import type { ReportInput } from '../io/report.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/shared/errors.ts';
 
 /** The richer fit of the Structure step: a fitted anisotropy, or two structures (short and long range). */
@@ -71,6 +74,8 @@ export interface RequestPayloads {
   /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
   readSamples: { text: string; options: IntakeOptions };
+  /** The data of a report from a project (./report-data.ts prepareReport; the app's worker only, like readSamples). */
+  prepareReport: { project: Project; options: PrepareRequestOptions };
   design: DesignRequestPayload;
   /**
    * The measured error of a local-neighbourhood surface against exact kriging at a seeded subset of its
@@ -96,6 +101,7 @@ export interface ResultPayloads {
   blockSurfaceRows: BlockSurfaceResult;
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
+  prepareReport: ReportInput;
   design: DesignResult;
   localAccuracy: LocalGridCheck;
   ready: true;
@@ -105,7 +111,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'design', 'localAccuracy',
+  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy',
   'ready', 'likelihoodPart',
 ];
 

@@ -3,7 +3,8 @@
 // put hostile text into every string field of it. Used by the hostile-report unit test (property-based)
 // and by the browser test that opens such a report.
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
-import { prepareReport, type ReportInput } from '../../src/io/report.ts';
+import type { ReportInput } from '../../src/io/report.ts';
+import { prepareReport } from '../../src/worker/report-data.ts';
 import type { CovarianceModel } from '../../src/core/covariance/model.ts';
 import { planarSamplesCsv } from '../cli/run-cli.ts';
 

@@ -1,7 +1,8 @@
 // analytesReportHtml: one document, one section per analyte holding that analyte's whole report, ids unique.
 import { describe, expect, it } from 'vitest';
 import { analytesReportHtml } from '../../src/io/report-analytes.ts';
-import { prepareReport, reportHtml } from '../../src/io/report.ts';
+import { reportHtml } from '../../src/io/report.ts';
+import { prepareReport } from '../../src/worker/report-data.ts';
 import { createProject } from '../../src/io/project.ts';
 import { computeSurface } from '../../src/core/prediction/surface.ts';
 import { readSamples } from '../../src/io/intake.ts';

@@ -7,8 +7,9 @@ import { resolve } from 'node:path';
 import { inflateSync } from 'node:zlib';
 import {
   localAccuracyText,
-  prepareReport, reportHtml, northAngle, candidateLabel, areaSection, formatQuantity, noAreaText, AREA_CAUTION, reportSimulationJob, designOptionsText,
+  reportHtml, northAngle, areaSection, formatQuantity, noAreaText, AREA_CAUTION, designOptionsText,
 } from '../../src/io/report.ts';
+import { candidateLabel, prepareReport, reportSimulationJob } from '../../src/worker/report-data.ts';
 import { createProject, simulationMethodText, type ComparisonRow, type ProjectSimulation } from '../../src/io/project.ts';
 import { mergeSimulationParts, simulateConditional } from '../../src/core/simulation/conditional-simulation.ts';
 import { GapwiseError } from '../../src/core/shared/errors.ts';

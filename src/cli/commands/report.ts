@@ -10,7 +10,8 @@
 import { GAPWISE_VERSION } from '../../core/shared/version.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
-import { areaFigureText, formatQuantity, noAreaText, prepareReport, reportHtml, reportSimulationJob } from '../../io/report.ts';
+import { areaFigureText, formatQuantity, noAreaText, reportHtml } from '../../io/report.ts';
+import { prepareReport, reportSimulationJob } from '../../worker/report-data.ts';
 import type { Project, SimulationSettings } from '../../io/project.ts';
 import {
   CAUTION, naming, outOption, printWarnings, progressLine, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
