@@ -147,14 +147,14 @@ function supportText(sim: ProjectSimulation, cell: number): string {
 }
 
 /** The "Area above the action level" section (HTML) for realisations that counted it. */
-export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold: number | null; cell: number | null }): Markup {
+export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold: number | null; cell: number | null; idPrefix?: string }): Markup {
   const m = sim.summary!;
   const { unit } = o;
   const u = unit ? ` ${unit}` : '';
   const a = m.area;
   const data = (name: string, v: number) => html`data-figure="${name}" data-value="${String(v)}"`;
   const out: Markup[] = [];
-  out.push(html`<h2 id="area-above">Area above the action level</h2>`);
+  out.push(html`<h2 id="${trusted(`${o.idPrefix ?? ''}area-above`)}">Area above the action level</h2>`);
   out.push(joinMarkup([html`<p class="figure"><strong ${data('area-median', a.median)}>${formatQuantity(a.median)} m²</strong> (${hectares(a.median)} ha) above ${fmt(m.threshold)}${u}; `,
     html`90 % interval <span ${data('area-p05', a.p05)}>${formatQuantity(a.p05)}</span> – <span ${data('area-p95', a.p95)}>${formatQuantity(a.p95)}</span> m² `,
     html`(${hectares(a.p05)} – ${hectares(a.p95)} ha).</p>`]));
@@ -332,17 +332,20 @@ export function reportHtml(input: ReportInput): string {
 }
 
 /**
- * Several analytes' reports as one document (`gapwise report --value a,b`): a contents list, then
- * each analyte's report as a section of its own (everything `reportHtml` shows for it, caution
- * included), its figure ids prefixed so that they stay unique.
+ * Several analytes' reports as one document (`gapwise report --value a,b`, the app with several
+ * analytes): a contents list, then each analyte's report as a section of its own (everything
+ * `reportHtml` shows for it, caution included), its element ids prefixed so that they stay unique.
+ * `title` defaults to "Screening maps of N analytes".
  */
-export function analyteReportHtml(sections: ReadonlyArray<{ name: string; input: ReportInput }>, title: string): string {
-  if (sections.length === 0) throw new Error('Expected at least one analyte section.');
+export function analyteReportHtml(sections: ReadonlyArray<{ name: string; input: ReportInput }>, title = ''): string {
+  if (sections.length === 0) throw new Error('A report of several analytes needs at least one analyte.');
   const first = sections[0].input;
-  const page = documentStart(title, first.software);
-  page.push(html`<h1>${title}</h1>`);
+  const heading = title || `Screening maps of ${sections.length} analytes`;
+  const page = documentStart(heading, first.software);
+  page.push(html`<h1>${heading}</h1>`);
   page.push(html`<p class="meta">Gapwise screening report of ${sections.length} analytes · ${first.created.slice(0, 10)} · ${first.software.name} ${first.software.version}</p>`);
   page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
+  page.push(html`<p>One section per analyte, each with its own model, action level, maps and suggested samples, from the same samples file (${first.project.samples.fileName}).</p>`);
   page.push(html`<ol class="analytes">${joinMarkup(sections.map((s, k) => html`<li><a href="#analyte-${String(k + 1)}">${s.name}</a></li>`))}</ol>`);
   sections.forEach((s, k) => {
     page.push(html`<section class="analyte page" id="analyte-${String(k + 1)}" data-analyte="${s.name}">`);
@@ -353,77 +356,128 @@ export function analyteReportHtml(sections: ReadonlyArray<{ name: string; input:
   return joinMarkup(page, '\n').text;
 }
 
+/** What every part of one report reads: the input and the names, units and choices derived from it. */
+interface ReportContext {
+  input: ReportInput;
+  project: Project;
+  intake: IntakeResult;
+  /** The read report of the samples. */
+  r: IntakeResult['report'];
+  model: CovarianceModel | null;
+  log: boolean;
+  unit: string;
+  /** The value column without its unit ("Pb" of "Pb (mg/kg)"). */
+  valueName: string;
+  /** A label with the unit: "Mean Pb (mg/kg)". */
+  u: (s: string) => string;
+  /** The threshold of the exceedance map (null without one). */
+  threshold: number | null | undefined;
+  work: string;
+  /** The realisations shown with their area, or null. */
+  sim: ProjectSimulation | null;
+  /** Prefix of element ids (unique per section in a report of several analytes). */
+  idPrefix: string;
+}
+
+function reportContext(input: ReportInput, idPrefix: string): ReportContext {
+  const { project, intake, surface } = input;
+  const r = intake.report;
+  const unit = project.samples.unit || r.unit;
+  return {
+    input, project, intake, r, model: project.model, log: project.structure.transform === 'log', unit,
+    valueName: r.valueColumn.replace(/\s*\([^)]*\)\s*$/, '') || 'value',
+    u: (s: string) => (unit ? `${s} (${unit})` : s),
+    threshold: surface?.pExceed ? surface.threshold ?? project.threshold : null,
+    work: r.crs.work,
+    sim: input.simulation === undefined ? (project.simulation?.summary ? project.simulation : null) : input.simulation,
+    idPrefix,
+  };
+}
+
 /** One report's content inside <main>: title, caution, summary, samples, structure, maps, reproduction. */
 function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
-  const { project, intake, surface, grid, cv } = input;
-  const r = intake.report;
-  const luts = { ...defaultLuts(), ...(input.luts ?? {}) };
-  const unit = project.samples.unit || r.unit;
-  const valueName = r.valueColumn.replace(/\s*\([^)]*\)\s*$/, '') || 'value';
-  const u = (s: string) => (unit ? `${s} (${unit})` : s);
-  const model = project.model;
-  const log = project.structure.transform === 'log';
-  const threshold = surface?.pExceed ? surface.threshold ?? project.threshold : null;
-  const created = input.created;
-  const title = reportTitle(input);
-  const work = r.crs.work;
-  const s = r.summary;
+  const c = reportContext(input, idPrefix);
+  return [
+    ...headerPart(c), ...summaryPart(c), ...samplesPart(c), ...structurePart(c), ...crossValidationPart(c),
+    ...mapsPart(c), ...suggestionsPart(c), ...reproducePart(c),
+  ];
+}
+
+/** Title, date and version, the caution, the invented-data banner and the warnings. */
+function headerPart(c: ReportContext): Markup[] {
+  const { input, project } = c;
   const page: Markup[] = [];
-  page.push(html`<h1>${title}</h1>`);
-  page.push(html`<p class="meta">Gapwise screening report · ${created.slice(0, 10)} · ${input.software.name} ${input.software.version}</p>`);
+  page.push(html`<h1>${reportTitle(input)}</h1>`);
+  page.push(html`<p class="meta">Gapwise screening report · ${input.created.slice(0, 10)} · ${input.software.name} ${input.software.version}</p>`);
   page.push(html`<div class="caution" role="note">${CAUTION}</div>`);
   if (project.samples.invented) page.push(html`<div class="invented">The samples in this report are INVENTED demo data: they describe no real site.</div>`);
   page.push(html`<p class="hint">To keep a PDF, use the browser's Print command and choose "Save as PDF".</p>`);
   for (const w of input.warnings ?? []) page.push(html`<p class="warn">${w.message}</p>`);
+  return page;
+}
 
-  // --- job summary ----------------------------------------------------------------------------
+/** The summary rows of the surfaces: their ranges, how they were computed, and the areas above the threshold. */
+function surfaceSummaryRows(c: ReportContext, surface: ReportSurface, grid: Grid): Array<[Interpolation, Interpolation]> {
+  const { input, unit } = c;
+  const summary: Array<[Interpolation, Interpolation]> = [];
+  const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
+  summary.push(['Mean surface', `${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`]);
+  summary.push(['Uncertainty (sd)', `${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`]);
+  const a = input.localAccuracy;
+  if (a) summary.push(['Computed by', localAccuracyText(a)]);
+  else if (input.exactSurface) summary.push(['Computed by', 'exact kriging from all samples']);
+  if (!surface.pExceed) return summary;
+  let over = 0, likely = 0, active = 0, expected = 0;
+  for (let k = 0; k < surface.pExceed.length; k++) {
+    const p = surface.pExceed[k];
+    if (!Number.isFinite(p)) continue;
+    active++;
+    expected += p;
+    if (p >= 0.5) over++;
+    if (p >= 0.9) likely++;
+  }
+  const ha = (n: number) => fmt((n * grid.cell * grid.cell) / 10000, 3);
+  summary.push(['Area more likely than not above the threshold', `${ha(over)} ha (${fmt((100 * over) / Math.max(1, active), 3)} % of the mapped area; P ≥ 0.5)`]);
+  summary.push(['Area very likely above the threshold', `${ha(likely)} ha (P ≥ 0.9)`]);
+  // E[area above T] = Σ P(exceed)·cell area (linearity of expectation): cells with a moderate
+  // chance count in part, so it can well exceed the P ≥ 0.5 area; realisations give its spread.
+  summary.push(['Expected area above the threshold', html`<span data-figure="expected-area" data-value="${expected * grid.cell * grid.cell}">${ha(expected)} ha</span> (Σ P(exceed) × cell area: cells with a moderate chance count in part)`]);
+  return summary;
+}
+
+/** The job summary, and the area above the action level from realisations when there are any. */
+function summaryPart(c: ReportContext): Markup[] {
+  const { input, project, intake, r, unit, model, threshold, sim } = c;
+  const { surface, grid, cv } = input;
+  const page: Markup[] = [];
   page.push(html`<h2>Summary</h2>`);
   const summary: Array<[Interpolation, Interpolation]> = [
     ['Samples file', project.samples.fileName],
     ['Value', `${r.valueColumn}${unit ? ` (unit ${unit})` : ''}`],
     ['Samples used', `${r.rowsUsed} of ${r.rowsRead} rows read${intake.samples.value.length !== r.rowsUsed ? `; ${intake.samples.value.length} locations after merging duplicates` : ''}`],
-    ['Coordinates', `${r.crs.input} → working CRS ${work}`],
+    ['Coordinates', `${r.crs.input} → working CRS ${c.work}`],
     ['Model', model ? modelText(model) : 'none chosen'],
   ];
   if (grid) summary.push(['Grid', `${fmt(grid.cell)} m cells, ${grid.nx} × ${grid.ny} (${cellCount(grid).toLocaleString('en')} cells ${grid.mask ? 'inside the boundary' : 'over the padded extent'})`]);
   if (threshold !== null && threshold !== undefined) summary.push(['Threshold (action level)', `${fmt(threshold)}${unit ? ` ${unit}` : ''}`]);
-  if (surface && grid) {
-    const mr = finiteRange(surface.mean), sr = finiteRange(surface.sd);
-    summary.push(['Mean surface', `${fmt(mr.min)} to ${fmt(mr.max)}${unit ? ` ${unit}` : ''}`]);
-    summary.push(['Uncertainty (sd)', `${fmt(sr.min)} to ${fmt(sr.max)}${unit ? ` ${unit}` : ''}`]);
-    const a = input.localAccuracy;
-    if (a) summary.push(['Computed by', localAccuracyText(a)]);
-    else if (input.exactSurface) summary.push(['Computed by', 'exact kriging from all samples']);
-    if (surface.pExceed) {
-      let over = 0, likely = 0, active = 0, expected = 0;
-      for (let k = 0; k < surface.pExceed.length; k++) {
-        const p = surface.pExceed[k];
-        if (!Number.isFinite(p)) continue;
-        active++;
-        expected += p;
-        if (p >= 0.5) over++;
-        if (p >= 0.9) likely++;
-      }
-      const ha = (c: number) => fmt((c * grid.cell * grid.cell) / 10000, 3);
-      summary.push(['Area more likely than not above the threshold', `${ha(over)} ha (${fmt((100 * over) / Math.max(1, active), 3)} % of the mapped area; P ≥ 0.5)`]);
-      summary.push(['Area very likely above the threshold', `${ha(likely)} ha (P ≥ 0.9)`]);
-      // E[area above T] = Σ P(exceed)·cell area (linearity of expectation): cells with a moderate
-      // chance count in part, so it can well exceed the P ≥ 0.5 area; realisations give its spread.
-      summary.push(['Expected area above the threshold', html`<span data-figure="expected-area" data-value="${expected * grid.cell * grid.cell}">${ha(expected)} ha</span> (Σ P(exceed) × cell area: cells with a moderate chance count in part)`]);
-    }
-  }
+  if (surface && grid) summary.push(...surfaceSummaryRows(c, surface, grid));
   if (cv) summary.push(['Cross-validation', `RMSE ${fmt(cv.summary.rmse)}${cv.scale === 'log' ? ' (ln units)' : unit ? ` ${unit}` : ''}, MSSE ${fmt(cv.summary.msse, 3)}, 95 % coverage ${fmt(100 * cv.summary.coverage95, 3)} %`]);
   if (project.suggestions?.length) summary.push(['Suggested next samples', String(project.suggestions.length)]);
-  const sim = input.simulation === undefined ? (project.simulation?.summary ? project.simulation : null) : input.simulation;
   if (sim?.summary) {
-    summary.push(['Area above the action level (realisations)', html`${areaFigureText(sim, unit)}; <a href="#area-above">method and caution below</a>`]);
+    summary.push(['Area above the action level (realisations)', html`${areaFigureText(sim, unit)}; <a href="#${trusted(`${c.idPrefix}area-above`)}">method and caution below</a>`]);
   } else if (model) {
     summary.push(['Area above the action level (with interval)', html`<span data-no-area>${noAreaText(project.threshold !== null)}</span>`]);
   }
   page.push(keyValues(summary));
-  if (sim?.summary) page.push(areaSection(sim, { unit, threshold: project.threshold, cell: grid?.cell ?? null }));
+  if (sim?.summary) page.push(areaSection(sim, { unit, threshold: project.threshold, cell: grid?.cell ?? null, idPrefix: c.idPrefix }));
+  return page;
+}
 
-  // --- samples -------------------------------------------------------------------------------
+/** The samples: data summary, histograms, and what was read (with the read report's entries). */
+function samplesPart(c: ReportContext): Markup[] {
+  const { project, intake, r, log, valueName, u, threshold } = c;
+  const s = r.summary;
+  const page: Markup[] = [];
   page.push(html`<h2 class="page">Samples</h2>`);
   page.push(html`<h3>Data summary</h3>`);
   page.push(table(['n', 'min', 'median', 'mean', 'max', 'sd', 'skewness'],
@@ -454,8 +508,13 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
     ]), 'entries'));
     if (r.entries.length > shown.length) page.push(html`<p>… and ${r.entries.length - shown.length} more entries.</p>`);
   }
+  return page;
+}
 
-  // --- structure -----------------------------------------------------------------------------
+/** The spatial structure: the variogram with the model, the chosen model, and the model comparison. */
+function structurePart(c: ReportContext): Markup[] {
+  const { input, project, log, valueName, unit, model } = c;
+  const page: Markup[] = [];
   page.push(html`<h2 class="page">Spatial structure</h2>`);
   const vgr = input.variogram;
   if (vgr) {
@@ -497,8 +556,14 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
   } else {
     page.push(html`<p>No comparison was made.</p>`);
   }
+  return page;
+}
 
-  // --- cross-validation ------------------------------------------------------------------------
+/** Leave-one-out cross-validation: figures and the predicted-against-observed plot. */
+function crossValidationPart(c: ReportContext): Markup[] {
+  const { cv } = c.input;
+  const { valueName, u, unit } = c;
+  const page: Markup[] = [];
   if (cv) {
     page.push(html`<h2>Cross-validation</h2>`);
     const cvUnit = cv.scale === 'log' ? `ln(${valueName})` : u(valueName);
@@ -513,8 +578,15 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
     for (let i = 0; i < observed.length; i++) observed[i] = cv.prediction[i] - cv.error[i];
     page.push(html`<figure>${crossValidationSvg(observed, cv.prediction, { title: 'Leave-one-out: predicted against observed', axisX: `observed ${cvUnit}`, axisY: `predicted ${cvUnit}` })}<figcaption>Each sample predicted from all the others with the chosen model; dashed: 1:1.</figcaption></figure>`);
   }
+  return page;
+}
 
-  // --- maps ----------------------------------------------------------------------------------
+/** The maps of the mean, the sd and P(exceed), with legends, samples, suggestions and north arrow. */
+function mapsPart(c: ReportContext): Markup[] {
+  const { input, project, intake, log, valueName, u, unit, threshold, work, idPrefix } = c;
+  const { surface, grid } = input;
+  const luts = { ...defaultLuts(), ...(input.luts ?? {}) };
+  const page: Markup[] = [];
   if (surface && grid) {
     page.push(html`<h2 class="page">Maps</h2>`);
     const rings = input.boundary?.work.flatMap((p) => p.rings);
@@ -542,8 +614,13 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
     }
     page.push(html`<p class="hint">Maps are drawn north-up in ${work}; the arrow shows true north.</p>`);
   }
+  return page;
+}
 
-  // --- suggestions ---------------------------------------------------------------------------
+/** The suggested next samples with the choices they were made with. */
+function suggestionsPart(c: ReportContext): Markup[] {
+  const { project, u, unit, work } = c;
+  const page: Markup[] = [];
   const sug: Suggestion[] = project.suggestions ?? [];
   if (sug.length) {
     page.push(html`<h2 class="page">Suggested next samples</h2>`);
@@ -553,8 +630,15 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
         )));
     if (project.suggestOptions) page.push(html`<p class="hint">${designOptionsText(project.suggestOptions, unit)}</p>`);
   }
+  return page;
+}
 
-  // --- reproduce -----------------------------------------------------------------------------
+/** Every parameter needed to reproduce the report, the model as JSON, the commands, and the caution. */
+function reproducePart(c: ReportContext): Markup[] {
+  const { input, project, r, model, work, sim } = c;
+  const { grid } = input;
+  const created = input.created;
+  const page: Markup[] = [];
   page.push(html`<h2 class="page">How to reproduce</h2>`);
   const intakeOptions = { fileName: project.samples.fileName, ...project.samples.intake };
   const params: Array<[Interpolation, Interpolation]> = [

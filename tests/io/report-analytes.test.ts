@@ -1,7 +1,6 @@
-// analytesReportHtml: one document, one section per analyte holding that analyte's whole report, ids unique.
+// analyteReportHtml: one document, one section per analyte holding that analyte's whole report, ids unique.
 import { describe, expect, it } from 'vitest';
-import { analytesReportHtml } from '../../src/io/report-analytes.ts';
-import { reportHtml } from '../../src/io/report.ts';
+import { analyteReportHtml, reportHtml } from '../../src/io/report.ts';
 import { prepareReport } from '../../src/worker/report-data.ts';
 import { createProject } from '../../src/io/project.ts';
 import { computeSurface } from '../../src/core/prediction/surface.ts';
@@ -23,11 +22,11 @@ function input(value: string, threshold: number) {
   return prepareReport(project, { software, compare: false, surface, created: '2026-01-02T00:00:00.000Z' });
 }
 
-describe('analytesReportHtml', () => {
-  it('analytesReportHtml holds each analyte\'s report in a section of its own, names escaped, ids unique', () => {
+describe('analyteReportHtml', () => {
+  it('analyteReportHtml holds each analyte\'s report in a section of its own, names escaped, ids unique', () => {
     const a = input('lead', 150);
     const b = input('<b>zinc</b>', 300);
-    const text = analytesReportHtml([{ name: 'lead', input: a }, { name: '<b>zinc</b>', input: b }]);
+    const text = analyteReportHtml([{ name: 'lead', input: a }, { name: '<b>zinc</b>', input: b }]);
     expect(text.startsWith('<!DOCTYPE html>')).toBe(true);
     expect(text).toContain('<title>Screening maps of 2 analytes — Gapwise report</title>');
     const sections = [...text.matchAll(/<section class="analyte page" id="analyte-(\d)" data-analyte="([^"]*)">/g)].map((m) => [m[1], m[2]]);
@@ -47,9 +46,28 @@ describe('analytesReportHtml', () => {
     expect(refs.filter((r) => r.startsWith('a2-')).length).toBeGreaterThan(0);
     for (const r of refs) expect(ids).toContain(r);
     expect(text.split(CAUTION).length - 1).toBeGreaterThanOrEqual(3);
+    expect(analyteReportHtml([{ name: 'lead', input: a }], 'Yard <survey>')).toContain('<title>Yard &lt;survey&gt; — Gapwise report</title>');
   });
 
-  it('analytesReportHtml refuses an empty list', () => {
-    expect(() => analytesReportHtml([])).toThrow(/at least one analyte/);
+  it('analyteReportHtml prefixes the area anchor of each section that has realisations, and its link follows', () => {
+    const simulation = {
+      count: 20, seed: 4, support: 'point' as const, blockPoints: 1, depth: null,
+      summary: {
+        threshold: 150, cell: 10, activeCells: 64, area: { median: 900, p05: 500, p95: 1400, mean: 930, unit: 'm²' as const },
+        fraction: { median: 0.14, p05: 0.08, p95: 0.22, mean: 0.145 }, method: 'test', made: '2026-01-02T00:00:00.000Z',
+      },
+    };
+    const a = { ...input('lead', 150), simulation };
+    const b = { ...input('<b>zinc</b>', 300), simulation };
+    const text = analyteReportHtml([{ name: 'lead', input: a }, { name: 'zinc', input: b }]);
+    expect(text).toContain('<h2 id="a1-area-above">');
+    expect(text).toContain('<h2 id="a2-area-above">');
+    expect(text).toContain('href="#a1-area-above"');
+    expect(text).toContain('href="#a2-area-above"');
+    expect(text).not.toContain('id="area-above"');
+  });
+
+  it('analyteReportHtml refuses an empty list', () => {
+    expect(() => analyteReportHtml([])).toThrow(/at least one analyte/);
   });
 });
