@@ -6,7 +6,10 @@
  * saved realisations, or with --realizations N from realisations drawn here over --workers threads
  * as `gapwise simulate` draws them (../simulation-pool.ts; options read by ../simulation-options.ts)
  * before the report is prepared; the figure and the thread count are also printed on stderr.
+ * A model with covariates takes its covariates on the grid from rasters: --covariate-raster NAME=FILE.tif,
+ * else the raster files the project names, looked for beside the project file.
  */
+import { dirname, join } from 'node:path';
 import { GAPWISE_VERSION } from '../../core/shared/version.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
@@ -23,6 +26,9 @@ import { checkSimulationDemand } from '../resource-limits.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
 import { reportAnalytes } from '../analyte-runs.ts';
+import { COVARIATE_RASTER_OPTION, checkCovariateRasters, readCovariateRasters } from '../covariates.ts';
+import type { CovariateRaster } from '../../io/covariate-raster.ts';
+import { isCovariateTrend } from '../../core/covariance/model.ts';
 
 /** Options that only shape realisations, refused without --realizations. */
 const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
@@ -55,6 +61,34 @@ export function reportSimulationSettings(values: OptionValues, project: Project)
   return { count: choice.realizations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
 }
 
+/**
+ * The covariate rasters of a covariate model's maps: each --covariate-raster NAME=FILE.tif, and for a
+ * covariate not given there the raster file the project names (saved by the app with its file name
+ * only), looked for beside the project file. None for other models (and --covariate-raster is then
+ * refused). Throws GapwiseError 'bad-option' naming the covariate when the project's file cannot be read.
+ */
+export async function reportRasters(values: OptionValues, cwd: string, projectFile: string, project: Project): Promise<CovariateRaster[]> {
+  const given = await readCovariateRasters(values, cwd);
+  const trend = project.model?.trend;
+  if (!trend || !isCovariateTrend(trend)) {
+    checkCovariateRasters(trend ?? 'constant', given);
+    return given;
+  }
+  const out = [...given];
+  for (const name of trend.covariates) {
+    const named = project.covariateRasters?.find((r) => r.covariate === name);
+    if (out.some((r) => r.name === name) || !named) continue;
+    const file = join(dirname(projectFile), named.fileName);
+    try {
+      out.push(...await readCovariateRasters({ 'covariate-raster': `${name}=${file}` }, cwd));
+    } catch (e) {
+      if (!(e instanceof GapwiseError) || e.code !== 'bad-file') throw e;
+      throw new GapwiseError('bad-option', `The project names the raster "${named.fileName}" for the covariate "${name}", and ${file} cannot be used (${e.message}); expected that file beside the project, or "--covariate-raster ${name}=FILE.tif".`, { file });
+    }
+  }
+  return out;
+}
+
 /** The name and version written into the report (src/core/shared/version.ts, equal to package.json's). */
 export function softwareVersion(): { name: string; version: string } {
   return { name: 'Gapwise', version: GAPWISE_VERSION };
@@ -79,13 +113,14 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
   if (threshold !== undefined) project.threshold = threshold;
   const simulate = reportSimulationSettings(values, project);
   const workers = readWorkers(values, io);
+  const rasters = await reportRasters(values, io.cwd, file, project);
   const files = { samples: `${file}:${project.samples.fileName}` };
   const t0 = performance.now();
   // The realisations are drawn first, over threads; prepareReport then takes them as they are.
   let drawn: ConditionalSimulationResult | undefined;
   let threads = 1;
   if (simulate) {
-    const job = naming(files, () => reportSimulationJob(project, { simulate, ...(cell !== undefined ? { cellSize: cell } : {}) }));
+    const job = naming(files, () => reportSimulationJob(project, { simulate, rasters, ...(cell !== undefined ? { cellSize: cell } : {}) }));
     if (job) {
       threads = simulationThreads(job.options.count, workers);
       const blockPoints = job.options.support === 'block' ? simulate.blockPoints : 1;
@@ -100,6 +135,7 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     onCompareProgress: progressLine(io, 'candidate models'),
     ...(cell !== undefined ? { cellSize: cell } : {}),
     ...(simulate ? { simulate, ...(drawn ? { drawn } : {}) } : {}),
+    ...(rasters.length > 0 ? { rasters } : {}),
   }));
   printWarnings(io, input.warnings ?? []);
   await writeOutput(io, stringOption(values, 'out'), reportHtml(input));
@@ -142,6 +178,11 @@ export const reportCommand: CommandSpec = {
       + '--threshold takes one number for all or NAME=T pairs. The comparison table, suggestions and realisations saved in '
       + 'the project belong to its own analyte and model and appear only in that analyte\'s section; --realizations '
       + 'takes one analyte at a time.',
+    'A model with covariates (fit --covariates) needs each covariate on the report\'s grid: --covariate-raster NAME=FILE.tif '
+      + '(repeatable; read as "gapwise grid" reads it), else the raster file the project names for it, looked for beside the project '
+      + 'file. Cells without a covariate value are left out of the maps and the realisations, counted in a warning; a covariate '
+      + 'with no raster is refused (exit 2). The report lists the trend coefficients with their standard errors and the share '
+      + 'of the values\' variance the covariates explain.',
   ],
   options: [
     { name: 'project', kind: 'string', placeholder: 'FILE', help: 'the project file (as saved by the app)', required: true },
@@ -152,12 +193,14 @@ export const reportCommand: CommandSpec = {
     { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level for the exceedance map and the area above it; with --value a,b one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'the project\'s (for its own analyte)' },
     { name: 'value', kind: 'string', placeholder: 'COLS', help: 'analytes to report, each in a section of its own: column names separated by commas, or \'*\' for every numeric column; needs --model', defaultText: 'the project\'s value column' },
     { name: 'model', kind: 'string', placeholder: 'FILE', help: 'model set written by "gapwise fit --value a,b" (one model per analyte), with --value', defaultText: 'the project\'s model' },
+    { ...COVARIATE_RASTER_OPTION, help: 'a model covariate on the report\'s grid from a single-band GeoTIFF in any EPSG CRS (reprojected; bilinear for numbers, nearest cell for categories); give it once per covariate', defaultText: 'the raster files the project names, beside the project file' },
     ...GRID_SIMULATION_OPTIONS,
     SIMULATION_WORKERS,
   ],
   examples: [
     'gapwise report --project site.gapwise.json --out site-report.html',
     'gapwise report --project site.gapwise.json --realizations 100 --depth 0.3 --seed 1 --out site-report.html',
+    'gapwise report --project site.gapwise.json --covariate-raster workshop_dist_m=workshop-distance.tif --realizations 100 --out site-report.html',
     'gapwise report --project site.gapwise.json --model set.json --value zinc,lead --threshold zinc=720,lead=530 --out site-report.html',
   ],
   run,
