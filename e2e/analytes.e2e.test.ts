@@ -122,6 +122,8 @@ describe('several analytes in the app', () => {
     await shot(page, 'analytes-report');
     const [d] = await Promise.all([page.waitForEvent('download') as Promise<Download>, page.click('[data-export=report]')]);
     const report = readFileSync((await d.path())!, 'utf8');
+    // Prepared by the engine workers, one request per analyte, not on the page's thread.
+    expect((await engineRequests(page)).prepareReport).toBe(2);
     const sections = [...report.matchAll(/<section class="analyte page" id="analyte-(\d)" data-analyte="([^"]+)">/g)].map((m) => m[2]);
     expect(sections).toEqual([PB, ZN]);
     const parts = report.split('<section class="analyte page"').slice(1);

@@ -147,7 +147,7 @@ function reportGrid(project: Project, read: ReadProject, model: CovarianceModel,
   const rasters = o.rasters ?? [];
   const missing = model.trend.covariates.filter((name) => !rasters.some((r) => r.name === name));
   if (missing.length > 0) {
-    throw new GapwiseError('bad-option', `The model's mean uses the covariate${missing.length > 1 ? 's' : ''} ${missing.map((m) => `"${m}"`).join(', ')}, and no raster of ${missing.length > 1 ? 'them' : 'it'} was given; expected one raster per covariate for the report's maps (gapwise report --covariate-raster NAME=FILE.tif).`);
+    throw new GapwiseError('bad-option', `The model's mean uses the covariate${missing.length > 1 ? 's' : ''} ${missing.map((m) => `"${m}"`).join(', ')}, and no raster of ${missing.length > 1 ? 'them' : 'it'} was given; expected one raster per covariate for the report's maps (on the command line: --covariate-raster NAME=FILE.tif).`);
   }
   const g = gridCovariates(grid, model.trend, rasters, read.work, o.nodes !== undefined ? { nodes: o.nodes } : {});
   return { grid: g.grid, covariates: g.covariates, ...(g.nodeCovariates ? { nodeCovariates: g.nodeCovariates } : {}), warnings: g.warnings };
