@@ -24,7 +24,7 @@ export function sessionDigest(app: Session): Record<string, unknown> {
     analyte: analytes.current,
     analytes: analytes.names,
     parked: Object.keys(analytes.parkedWork),
-    rasters: surface.covariateRasters.map((r) => r.name),
+    rasters: app.rasters.covariateRasters.map((r) => r.name),
     samples: intake ? { n: intake.samples.x.length, value: sum(intake.samples.value), x: sum(intake.samples.x) } : null,
     boundary: s.boundary?.fileName ?? null,
     candidates: structure.candidates.map((c) => [c.key, c.aic, c.rmse, c.msse]),

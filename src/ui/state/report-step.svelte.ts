@@ -126,7 +126,7 @@ export class ReportState {
     const error = await this.openSnapshot(snapshotFromProject(p, $state.snapshot(app.s) as SessionSnapshot));
     if (error) return { error: `The project was not opened; its samples could not be used: ${error.message} The work in use is unchanged.`, note: null };
     app.design.set(designFromProject(p.suggestions, p.suggestOptions, p.threshold), p.suggestOptions ?? null);
-    const missing = (p.covariateRasters ?? []).filter((r) => !app.surface.covariateRasters.some((c) => c.name === r.covariate));
+    const missing = (p.covariateRasters ?? []).filter((r) => !app.rasters.covariateRasters.some((c) => c.name === r.covariate));
     const note = missing.length === 0 ? null
       : `The project names covariate raster${missing.length > 1 ? 's' : ''} it does not hold: ${missing.map((r) => `${r.fileName} for ${r.covariate}`).join(', ')}. Load ${missing.length > 1 ? 'them' : 'it'} again in step 3 (Surface) to compute the surface.`;
     if (p.simulation?.summary && app.samples.intake && app.s.structure.model) void app.realisations.simulate();

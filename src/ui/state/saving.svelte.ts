@@ -45,7 +45,7 @@ export class SavingState {
     });
     // The covariate raster files follow, beside them.
     $effect(() => {
-      const files = app.surface.rasterFiles;
+      const files = app.rasters.rasterFiles;
       if (app.ready) untrack(() => this.autosave.scheduleRasters(files));
     });
   }
@@ -110,7 +110,7 @@ export class SavingState {
       await this.takeSavedSamples(saved, results?.intake ?? null);
     }
     app.analytes.parkedWork = results?.parked ?? {};
-    if (saved && app.samples.intake) await app.surface.restoreRasters(await rasters);
+    if (saved && app.samples.intake) await app.rasters.restoreRasters(await rasters);
     app.ready = true;
     if (saved && app.samples.intake) {
       const back = results ? this.showResults(results) : { fit: false, surface: false };

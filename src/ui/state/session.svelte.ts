@@ -3,7 +3,8 @@
  * state per step, each holding what that step computes from them and how:
  *   samples       ./samples-step.svelte.ts   the file read and checked, reading choices, boundary
  *   structure     ./structure-step.svelte.ts variograms, candidate fits, the model in use, cross-validation
- *   surface       ./surface-step.svelte.ts   grid plan, covariate rasters, the kriged surface
+ *   surface       ./surface-step.svelte.ts   grid plan and the kriged surface
+ *   rasters       ./covariate-rasters.svelte.ts  covariate rasters for a model with covariates
  *   realisations  ./realisations.svelte.ts   conditional realisations and their summaries
  *   design        ./design-step.svelte.ts    the next sample sites
  *   report        ./report-step.svelte.ts    each analyte's work for the report; opening a project
@@ -20,6 +21,7 @@ import * as engine from './engine.ts';
 import { SamplesState } from './samples-step.svelte.ts';
 import { StructureState } from './structure-step.svelte.ts';
 import { SurfaceState } from './surface-step.svelte.ts';
+import { RastersState } from './covariate-rasters.svelte.ts';
 import { RealisationsState } from './realisations.svelte.ts';
 import { DesignState, type DesignRunner } from './design-step.svelte.ts';
 import { ReportState } from './report-step.svelte.ts';
@@ -50,6 +52,7 @@ export class Session {
   readonly samples: SamplesState;
   readonly structure: StructureState;
   readonly surface: SurfaceState;
+  readonly rasters: RastersState;
   readonly realisations: RealisationsState;
   readonly design: DesignState;
   readonly report: ReportState;
@@ -61,6 +64,7 @@ export class Session {
     this.samples = new SamplesState(this);
     this.structure = new StructureState(this);
     this.surface = new SurfaceState(this);
+    this.rasters = new RastersState(this);
     this.realisations = new RealisationsState(this);
     this.design = new DesignState(this, o.design);
     this.report = new ReportState(this);
@@ -127,7 +131,7 @@ export class Session {
     this.s = emptySnapshot();
     this.dropResults();
     this.analytes.parkedWork = {};
-    this.surface.clearRasters();
+    this.rasters.clearRasters();
     this.design.clear();
   }
 

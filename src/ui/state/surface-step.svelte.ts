@@ -1,12 +1,10 @@
 /**
- * Step 3, Surface: the grid planned over the samples (or the boundary), the covariate rasters of a
- * model with covariates, and the kriged surface (mean, sd, P(exceed)) computed in workers band by
- * band, from every sample or from local neighbourhoods checked against exact kriging. The surface on
+ * Step 3, Surface: the grid planned over the samples (or the boundary) and the kriged surface (mean, sd, P(exceed)) computed in workers band by
+ * band, from every sample or from local neighbourhoods checked against exact kriging (a model with
+ * covariates reads them from the rasters of ./covariate-rasters.svelte.ts). The surface on
  * the map may be the realisations' summaries (./realisations.svelte.ts); the kriged one is then kept
  * in `kriged`. Engine work runs through LatestRequest: a newer surface drops the older one.
  */
-import { createTransform } from '../../io/crs.ts';
-import type { CovariateRaster } from '../../io/covariate-raster.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import type { Warning } from '../../core/shared/errors.ts';
 import { isCovariateTrend, type CovarianceModel, type CovariateTrend } from '../../core/covariance/model.ts';
@@ -16,10 +14,9 @@ import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts'
 import { choosePredictionPath, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
 import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import type { IntakeResult } from '../../io/types.ts';
-import { MAX_SAVED_RASTER_BYTES, type SavedRaster } from './autosave.ts';
 import { measureSurfaceSpeed, planGrid, type GridPlan, type SurfaceSpeed } from './grid-plan.ts';
 import { LatestRequest, type Run } from './latest-request.ts';
-import { attempt, idleTask, showError, type Outcome, type ShownError, type TaskState } from './shown-error.ts';
+import { attempt, idleTask, showError, type Outcome, type TaskState } from './shown-error.ts';
 import { modelKey } from './structure-step.svelte.ts';
 import * as engine from './engine.ts';
 import type { Session } from './session.svelte.ts';
@@ -95,14 +92,6 @@ export class SurfaceState {
    * surface still arriving never is), so the Surface step says so and offers to compute it again.
    */
   interrupted = $state(false);
-  /** Covariate rasters loaded in the Surface step, one per covariate (their files autosaved beside the session, read again on a reload). */
-  covariateRasters = $state.raw<CovariateRaster[]>([]);
-  /** The files of `covariateRasters` as loaded (what the autosave keeps). */
-  rasterFiles = $state.raw<SavedRaster[]>([]);
-  /** A raster that could not be used, and why; the rasters in use are unchanged. */
-  rasterError = $state.raw<{ fileName: string; error: ShownError } | null>(null);
-  /** The covariate raster shown as a map layer of its own (by covariate name), or null. */
-  covariateLayer = $state<string | null>(null);
   /** Warnings of the last surface's covariates on the grid (cells without a covariate value). */
   covariateWarnings = $state.raw<Warning[]>([]);
   private runs = new LatestRequest();
@@ -187,7 +176,7 @@ export class SurfaceState {
       g: g ? [g.x0, g.y0, g.cell, g.nx, g.ny, s.surface.area] : null,
       t: s.surface.threshold,
       s: this.support, k: this.support === 'block' ? this.blockPoints : 0, l: this.local,
-      c: this.covariateRasters.map((r) => [r.name, r.crs, r.x0, r.y0, r.dx, r.nx, r.ny]),
+      c: this.app.rasters.covariateRasters.map((r) => [r.name, r.crs, r.x0, r.y0, r.dx, r.nx, r.ny]),
     });
   }
 
@@ -217,73 +206,6 @@ export class SurfaceState {
     return k && k.key === sv.key ? k : null;
   }
 
-  // ---------------------------------------------------------------- covariate rasters
-
-  /** Covariates of the model in use that have no raster yet (empty for a model without covariates). */
-  get missingRasters(): string[] {
-    const t = this.app.s.structure.model?.trend;
-    if (!t || !isCovariateTrend(t)) return [];
-    return t.covariates.filter((c) => !this.covariateRasters.some((r) => r.name === c));
-  }
-
-  /**
-   * Reads a covariate GeoTIFF for the covariate `name` (geotiff.js, on this thread); it replaces that
-   * covariate's raster only when it reads and its CRS is known.
-   */
-  async loadCovariateRaster(name: string, fileName: string, bytes: Uint8Array): Promise<ShownError | null> {
-    try {
-      const { readCovariateRaster } = await import('../../io/covariate-raster.ts');
-      const raster = await readCovariateRaster(bytes, name, fileName);
-      // Checks the raster's CRS can be reprojected to the working one before it is taken.
-      const work = this.app.samples.intake?.report.crs.work;
-      if (work) createTransform(raster.crs, work);
-      this.covariateRasters = [...this.covariateRasters.filter((r) => r.name !== name), raster];
-      const kept = bytes.length <= MAX_SAVED_RASTER_BYTES ? [{ name, fileName, bytes: bytes.slice() }] : [];
-      this.rasterFiles = [...this.rasterFiles.filter((r) => r.name !== name), ...kept];
-      this.rasterError = null;
-      return null;
-    } catch (e) {
-      const error = showError(e);
-      this.rasterError = { fileName, error };
-      return error;
-    }
-  }
-
-  removeCovariateRaster(name: string): void {
-    this.covariateRasters = this.covariateRasters.filter((r) => r.name !== name);
-    this.rasterFiles = this.rasterFiles.filter((r) => r.name !== name);
-    if (this.covariateLayer === name) this.covariateLayer = null;
-  }
-
-  /**
-   * Reads the saved covariate raster files again (so each is checked as a new one would be); a file
-   * that no longer reads is dropped and named in `rasterError`.
-   */
-  async restoreRasters(files: SavedRaster[]): Promise<void> {
-    if (files.length === 0) return;
-    this.rasterFiles = files;
-    const failed: string[] = [];
-    for (const f of files) {
-      const error = await this.loadCovariateRaster(f.name, f.fileName, f.bytes);
-      if (error) failed.push(`${f.fileName} (${f.name}): ${error.message}`);
-    }
-    if (failed.length > 0) {
-      this.rasterFiles = this.rasterFiles.filter((f) => this.covariateRasters.some((r) => r.name === f.name));
-      this.rasterError = {
-        fileName: failed.length === 1 ? files.find((f) => !this.covariateRasters.some((r) => r.name === f.name))!.fileName : `${failed.length} saved rasters`,
-        error: { message: `The saved covariate raster could not be read again, so it was dropped: ${failed.join('; ')}. Expected a raster that reads as when it was loaded; load it again.` },
-      };
-    }
-  }
-
-  /** Forgets every raster (start over). */
-  clearRasters(): void {
-    this.covariateRasters = [];
-    this.rasterFiles = [];
-    this.covariateLayer = null;
-    this.rasterError = null;
-  }
-
   // ---------------------------------------------------------------- computing the surface
 
   /** Computes mean, sd and P(exceed) on the planned grid, in workers, band by band. */
@@ -292,7 +214,7 @@ export class SurfaceState {
     const model = this.app.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
-    const missing = this.missingRasters;
+    const missing = this.app.rasters.missingRasters;
     if (missing.length > 0) {
       this.task = {
         ...idleTask(), status: 'error',
@@ -341,7 +263,7 @@ export class SurfaceState {
         const { gridCovariates } = await import('../../io/covariate-raster.ts');
         // Block support reads the covariates at each cell's block points (averaged into its trend row).
         const block = support === 'block';
-        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.covariateRasters, job.work, block ? { nodes: this.blockPoints } : {});
+        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.app.rasters.covariateRasters, job.work, block ? { nodes: this.blockPoints } : {});
         job.grid = g.grid;
         job.covariates = block ? g.nodeCovariates : g.covariates;
         this.covariateWarnings = g.warnings;
