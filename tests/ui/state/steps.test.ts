@@ -6,6 +6,8 @@ import { sessionProject } from '../../../src/ui/components/report/session-projec
 import type { DesignResult } from '../../../src/core/design/design.ts';
 import type { SessionSnapshot } from '../../../src/ui/state/snapshot.ts';
 import { engineLog } from './fake-engine.ts';
+import { RichFitState } from '../../../src/ui/state/rich-fit.svelte.ts';
+import { MAX_EXACT_SAMPLES } from '../../../src/core/shared/sizes.ts';
 
 vi.mock('../../../src/ui/state/engine.ts', () => import('./fake-engine.ts'));
 
@@ -155,6 +157,21 @@ describe('StructureState', () => {
     expect(app.structure.cvFor).toBe(app.structure.cvKey);
     await app.structure.runCv();
     expect(engineLog.calls.filter((c) => c.name === 'crossValidate')).toHaveLength(1);
+  });
+});
+
+describe('RichFitState', () => {
+  it('RichFitState.run shows a refused richer fit as an error and keeps the model in use', async () => {
+    const rich = new RichFitState();
+    rich.choice = 'anisotropy';
+    const n = MAX_EXACT_SAMPLES;
+    const samples = { x: new Float64Array(n), y: new Float64Array(n), value: new Float64Array(n) };
+    const used: unknown[] = [];
+    await rich.run({ samples, transform: 'none', chosen: 'exponential', chosenModel: null, key: 'k' }, (m) => used.push(m));
+    expect(rich.task.status).toBe('error');
+    expect(rich.task.error).toContain(`got ${n.toLocaleString('en-US')}`);
+    expect(rich.outcome).toBeNull();
+    expect(used).toEqual([]);
   });
 });
 
