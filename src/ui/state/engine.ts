@@ -200,22 +200,23 @@ export interface SimulateRequest {
  * what one run gives: each realisation has its own random stream.
  */
 export async function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult> {
-  const pool = enginePool();
   const N = req.options.count;
   const parts = Math.max(1, Math.min(workerCount(), Math.floor(N / 2)));
   const keep = req.options.keepRealisations === false ? 0 : req.keepFirst ?? N;
   const done = new Array<number>(parts).fill(0);
-  const results = await Promise.all(Array.from({ length: parts }, (_, i) => {
+  const results = new Array<ConditionalSimulationResult>(parts);
+  await enginePool().run(Array.from({ length: parts }, (_, i) => {
     const { first, count } = simulationPart(0, N, i, parts);
     const options: SimulateOptions = { ...req.options, first, count, keepTotals: true, keepRealisations: first < keep };
-    return pool.request('simulate', { samples: req.samples, model: req.model, grid: req.grid, options }, {
-      signal,
-      onProgress: (p) => {
-        done[i] = p.done;
-        onProgress?.(done.reduce((a, b) => a + b, 0), N);
-      },
-    });
-  }));
+    return { type: 'simulate' as const, payload: { samples: req.samples, model: req.model, grid: req.grid, options } };
+  }), {
+    name: 'simulation', parts: 'parts', signal,
+    onProgress: (i, p) => {
+      done[i] = p.done;
+      onProgress?.(done.reduce((a, b) => a + b, 0), N);
+    },
+    onResult: (i, result) => { results[i] = result; },
+  });
   const merged = mergeSimulationParts(results, { depth: req.options.depth });
   delete merged.totals;
   if (merged.realisations && keep < merged.realisations.length) merged.realisations = merged.realisations.slice(0, keep);

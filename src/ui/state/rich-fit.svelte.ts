@@ -1,7 +1,7 @@
 /**
  * The Structure step's richer fit: the candidate in use refitted with a range that depends on
  * direction (a fitted anisotropy) or with two ranges (short and long structures), in a worker, with
- * progress, one run at a time (LatestRun: a newer run or new samples drop the older answer). The
+ * progress, one run at a time (LatestRequest: a newer run or new samples drop the older answer). The
  * model kept by the fit becomes the model in use; the simpler one stays at hand to switch back.
  */
 import type { CovarianceModel } from '../../core/covariance/model.ts';
@@ -10,7 +10,7 @@ import type { FitOptions } from '../../core/fitting/fit-options.ts';
 import type { StructureFitResult } from '../../worker/protocol.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
 
-import { LatestRun } from './latest.ts';
+import { LatestRequest } from './latest-request.ts';
 import { specByKey } from './structure.ts';
 import type { RichChoice } from './rich-fit.ts';
 import * as engine from './engine.ts';
@@ -63,35 +63,34 @@ export class RichFitState {
   choice = $state<RichChoice>('none');
   task = $state<RichFitTask>({ status: 'idle', fraction: 0, error: null });
   outcome = $state.raw<RichFitOutcome | null>(null);
-  private runs = new LatestRun();
+  private runs = new LatestRequest();
 
   /** Runs the chosen richer fit; on success its kept model is handed to `use`. */
   async run(src: RichFitSource, use: (model: CovarianceModel) => void): Promise<void> {
     const choice = this.choice;
     if (choice === 'none' || !src.samples) return;
-    const run = this.runs.begin();
     this.task = { status: 'running', fraction: 0, error: null };
-    try {
-      const n = src.samples.x.length;
+    const samples = src.samples;
+    const answer = await this.runs.run((run) => {
+      const n = samples.x.length;
       if (n >= MAX_EXACT_SAMPLES) {
         throw new GapwiseError('bad-option', `A richer fit uses the exact likelihood, for fewer than ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples; got ${n.toLocaleString('en-US')}.`);
       }
       const options = richFitOptions(src.chosen, choice, src.chosenModel);
-      const result = await engine.fitStructure(
-        { samples: src.samples, transform: src.transform, options, choice: { anisotropy: choice === 'anisotropy', structures: choice === 'nested' ? 2 : 1 } },
+      return engine.fitStructure(
+        { samples, transform: src.transform, options, choice: { anisotropy: choice === 'anisotropy', structures: choice === 'nested' ? 2 : 1 } },
         (done, total) => { if (run.current()) this.task = { ...this.task, fraction: total > 0 ? done / total : 0 }; },
         run.signal,
       );
-      if (!run.current()) return;
-      this.outcome = { choice, base: specByKey(src.chosen)?.label ?? src.chosen, key: src.key, result };
-      this.task = { status: 'done', fraction: 1, error: null };
-      use(result.model);
-    } catch (e) {
-      if (!run.current()) return;
-      const code = (e as { code?: string }).code;
-      const message = e instanceof GapwiseError ? e.describe() : (e as Error).message ?? String(e);
-      this.task = { status: code === 'cancelled' ? 'cancelled' : 'error', fraction: 0, error: message };
+    });
+    if (answer.status === 'stale') return;
+    if (answer.status !== 'done') {
+      this.task = { status: answer.status, fraction: 0, error: answer.error.message };
+      return;
     }
+    this.outcome = { choice, base: specByKey(src.chosen)?.label ?? src.chosen, key: src.key, result: answer.value };
+    this.task = { status: 'done', fraction: 1, error: null };
+    use(answer.value.model);
   }
 
   cancel(): void {

@@ -19,7 +19,8 @@ import type { Grid } from '../../core/geometry/grid.ts';
 import { parseModel } from '../../core/covariance/model.ts';
 import type { CandidateRow } from './structure.ts';
 import type { SurfaceSpeed } from './grid-plan.ts';
-import type { SimulationView, SurfaceView } from './session.svelte.ts';
+import type { SurfaceView } from './surface-step.svelte.ts';
+import type { SimulationView } from './realisations.svelte.ts';
 
 export const RESULTS_VERSION = 2;
 

@@ -20,7 +20,7 @@ export class SuggestionsState {
   /** The design for the samples now read, or null. */
   get current(): DesignResult | null {
     const s = this.session;
-    if (!this.result || !s || s.samplesVersion !== this.samplesVersion) return null;
+    if (!this.result || !s || s.samples.samplesVersion !== this.samplesVersion) return null;
     return this.result;
   }
 
@@ -28,7 +28,7 @@ export class SuggestionsState {
   set(result: DesignResult | null, options: Record<string, unknown> | null = null): void {
     this.result = result;
     this.options = result ? options : null;
-    this.samplesVersion = this.session?.samplesVersion ?? -1;
+    this.samplesVersion = this.session?.samples.samplesVersion ?? -1;
   }
 }
 
