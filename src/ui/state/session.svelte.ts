@@ -42,6 +42,7 @@ import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/mod
 import type { Warning } from '../../core/shared/errors.ts';
 import { covariateCandidates, residualSamples, samplesForModel, withChosenCovariates } from './covariates.ts';
 import type { CovariateRaster } from '../../io/covariate-raster.ts';
+import { covariatesOnGrid, missingRasters, type CovariateGrid } from './covariate-grid.ts';
 import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
@@ -532,9 +533,7 @@ export class Session {
 
   /** Covariates of the model in use that have no raster yet (empty for a model without covariates). */
   get missingRasters(): string[] {
-    const t = this.s.structure.model?.trend;
-    if (!t || !isCovariateTrend(t)) return [];
-    return t.covariates.filter((c) => !this.covariateRasters.some((r) => r.name === c));
+    return missingRasters(this.s.structure.model, this.covariateRasters);
   }
 
   /**
@@ -633,34 +632,25 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
-    const missing = this.missingRasters;
-    if (missing.length > 0) {
-      this.surfaceTask = {
-        ...idleTask(), status: 'error',
-        error: { code: 'bad-option', message: `The model's covariate${missing.length > 1 ? 's' : ''} ${missing.join(', ')} need${missing.length > 1 ? '' : 's'} a raster on the map area; expected "Load covariate raster…" for ${missing.length > 1 ? 'each' : 'it'} first.` },
-      };
-      return;
-    }
+    // ---- covariates on the grid from the loaded rasters (./covariate-grid.ts) ----
     let grid = plan.grid;
     let covariates: Float64Array | undefined;
     let samples = intake.samples;
     this.covariateWarnings = [];
     if (isCovariateTrend(model.trend)) {
       try {
-        const { gridCovariates } = await import('../../io/covariate-raster.ts');
-        const plain = $state.snapshot(model) as CovarianceModel;
         // Block support reads the covariates at each cell's block points (averaged into its trend row).
         const block = model.transform !== 'log' && this.support === 'block';
-        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.covariateRasters, intake.report.crs.work, block ? { nodes: this.blockPoints } : {});
-        grid = g.grid;
+        const g = await covariatesOnGrid(intake, $state.snapshot(model) as CovarianceModel, this.covariateRasters, plan.grid, block ? { nodes: this.blockPoints } : {});
+        ({ grid, samples } = g);
         covariates = block ? g.nodeCovariates : g.covariates;
         this.covariateWarnings = g.warnings;
-        samples = this.samplesFor(model);
       } catch (e) {
         this.surfaceTask = { ...idleTask(), status: 'error', error: showError(e) };
         return;
       }
     }
+    // ---- end covariates ----
     const run = this.surfaceRuns.begin();
     this.s.surface.wanted = true;
     this.s.surface.running = true;
@@ -817,14 +807,17 @@ export class Session {
     const model = this.s.structure.model;
     const plan = this.gridPlan.value;
     if (!intake || !model || !plan) return;
-    if (isCovariateTrend(model.trend)) {
-      this.simTask = {
-        ...idleTask(), status: 'error',
-        error: { code: 'bad-option', message: `Realisations are not offered for a model with covariates (${model.trend.covariates.join(', ')}) yet; the kriged surface above uses them. Expected a model without covariates for realisations.` },
-      };
+    const run = this.simRuns.begin();
+    // ---- covariates at the realisations' lattice nodes from the loaded rasters (./covariate-grid.ts) ----
+    let setup: CovariateGrid;
+    try {
+      setup = await covariatesOnGrid(intake, $state.snapshot(model) as CovarianceModel, this.covariateRasters, plan.grid, { nodes: this.support === 'block' ? this.blockPoints : 1 });
+    } catch (e) {
+      if (run.current()) this.simTask = { ...idleTask(), status: 'error', error: showError(e) };
       return;
     }
-    const run = this.simRuns.begin();
+    if (!run.current()) return;
+    // ---- end covariates ----
     const threshold = this.s.surface.threshold;
     const useThreshold = threshold !== null && Number.isFinite(threshold) && (model.transform !== 'log' || threshold > 0);
     const count = Math.max(1, Math.min(10_000, Math.round(this.simCount)));
@@ -835,9 +828,10 @@ export class Session {
     this.simTask = { ...idleTask(), status: 'running', total: count, what: 'realisations' };
     try {
       const result = await engine.simulate({
-        samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid,
+        samples: setup.samples, model: $state.snapshot(model) as CovarianceModel, grid: setup.grid,
         options: {
           count, seed, support: this.support, blockPoints: this.blockPoints, keepRealisations: true,
+          ...(setup.nodeCovariates ? { covariates: setup.nodeCovariates } : {}),
           threshold: useThreshold ? threshold! : undefined,
           depth: depth ?? undefined,
         },
@@ -846,8 +840,8 @@ export class Session {
       if (!run.current()) return;
       const ms = performance.now() - t0;
       // Keep the first four realisations only: the view shows them, the summaries are computed.
-      const kept = { ...result, realisations: result.realisations?.slice(0, 4) };
-      this.simulation = { grid: plan.grid, result: kept, key, base: this.surfaceKey, ms, seed, depth, made: new Date().toISOString() };
+      const kept = { ...result, realisations: result.realisations?.slice(0, 4), warnings: [...setup.warnings, ...result.warnings] };
+      this.simulation = { grid: setup.grid, result: kept, key, base: this.surfaceKey, ms, seed, depth, made: new Date().toISOString() };
       this.simRate = ms / 1000 / (count * plan.cells);
       this.simTask = { ...this.simTask, status: 'done', done: count, ms };
     } catch (e) {
