@@ -45,6 +45,7 @@ describe('realisations and next samples with covariates in the app', () => {
 
     // Next samples before the raster is loaded: the step says which raster is needed.
     await openStep(page, 'next');
+    expect(await page.locator('[data-testid=next-raster-needed]').innerText()).toMatch(/uses workshop_dist_m: load its raster in the Surface step/);
     await page.fill('#ns-count', '5');
     await page.selectOption('#ns-mode', 'variance');
     await page.click('[data-testid=suggest-sites]');
@@ -87,6 +88,7 @@ describe('realisations and next samples with covariates in the app', () => {
 
     // Next samples with the raster: five sites, no error.
     await openStep(page, 'next');
+    expect(await page.locator('[data-testid=next-raster-needed]').count()).toBe(0);
     await page.click('[data-testid=suggest-sites]');
     await page.waitForSelector('[data-testid=next-result][data-count="5"]', { timeout: WAIT });
     expect(await page.locator('[data-testid=next-samples] [role=alert]').count()).toBe(0);
