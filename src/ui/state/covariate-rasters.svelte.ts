@@ -5,7 +5,7 @@
  */
 import { createTransform } from '../../io/crs.ts';
 import type { CovariateRaster } from '../../io/covariate-raster.ts';
-import { isCovariateTrend } from '../../core/covariance/model.ts';
+import { missingRasters } from './covariate-grid.ts';
 import { MAX_SAVED_RASTER_BYTES, type SavedRaster } from './autosave.ts';
 import { showError, type ShownError } from './shown-error.ts';
 import type { Session } from './session.svelte.ts';
@@ -24,9 +24,7 @@ export class RastersState {
 
   /** Covariates of the model in use that have no raster yet (empty for a model without covariates). */
   get missingRasters(): string[] {
-    const t = this.app.s.structure.model?.trend;
-    if (!t || !isCovariateTrend(t)) return [];
-    return t.covariates.filter((c) => !this.covariateRasters.some((r) => r.name === c));
+    return missingRasters(this.app.s.structure.model, this.covariateRasters);
   }
 
   /**

@@ -6,6 +6,7 @@
 import type { CovariateTrend, CovarianceModel, Trend } from '../../core/covariance/model.ts';
 import { isCovariateTrend } from '../../core/covariance/model.ts';
 import type { Samples } from '../../core/shared/samples.ts';
+import { GapwiseError } from '../../core/shared/errors.ts';
 import { encodeCovariates, resolveCovariateTrend } from '../../core/covariance/covariates.ts';
 import { leastSquaresResiduals } from '../../core/fitting/covariate-fit.ts';
 import { covariateColumns, sourceColumn, type SourceColumn } from '../../io/sample-columns.ts';
@@ -48,10 +49,20 @@ export function withChosenCovariates(intake: IntakeResult, names: readonly strin
 /** The samples a model is used with: with the encoded covariates of its own trend when it has one. */
 export function samplesForModel(intake: IntakeResult, model: CovarianceModel | null): Samples {
   if (!model || !isCovariateTrend(model.trend)) return intake.samples;
+  return withModelCovariates(intake, model).samples;
+}
+
+/**
+ * The samples with the encoded covariates of a covariate model's own trend, and that trend with its
+ * categorical levels recorded (kept as the model records them). Throws GapwiseError naming the
+ * column and line of a bad cell, and 'bad-option' for a model without covariates.
+ */
+export function withModelCovariates(intake: IntakeResult, model: CovarianceModel): { samples: Samples; trend: CovariateTrend } {
   const trend = model.trend;
+  if (!isCovariateTrend(trend)) throw new GapwiseError('bad-option', 'Expected a model with covariates in its mean; this one has none.');
   const { columns, source } = covariateColumns(intake, trend, 'sample', true);
   const resolved = resolveCovariateTrend(trend, columns, source);
-  return { ...intake.samples, covariates: encodeCovariates(resolved, columns, intake.samples.value.length, source) };
+  return { samples: { ...intake.samples, covariates: encodeCovariates(resolved, columns, intake.samples.value.length, source) }, trend: resolved };
 }
 
 /**

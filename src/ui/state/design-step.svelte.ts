@@ -8,6 +8,7 @@ import type { DesignRequestPayload } from '../../worker/design-handler.ts';
 import { LatestRequest } from './latest-request.ts';
 import { runDesign } from './design-request.ts';
 import { suggestions } from './suggestions.svelte.ts';
+import { designWithCovariates } from './covariate-grid.ts';
 import type { Session } from './session.svelte.ts';
 
 /** Runs a design request in a worker (./design-request.ts runDesign; a test passes a fake). */
@@ -37,7 +38,13 @@ export class DesignState {
     const onAbort = () => this.cancel();
     signal.addEventListener('abort', onAbort, { once: true });
     try {
-      const answer = await this.runs.run((run) => this.runner(payload, (d, t) => { if (run.current()) onProgress(d, t); }, run.signal));
+      const intake = this.app.samples.intake;
+      const rasters = this.app.rasters.covariateRasters;
+      const answer = await this.runs.run((run) => {
+        const progress = (d: number, t: number) => { if (run.current()) onProgress(d, t); };
+        // A covariate model: the area's cells and the candidates take the covariates of the loaded rasters.
+        return intake ? designWithCovariates(intake, rasters, payload, (p) => this.runner(p, progress, run.signal)) : this.runner(payload, progress, run.signal);
+      });
       if (answer.status === 'done') return answer.value;
       throw answer.status === 'stale' ? { code: 'cancelled', message: 'The design was cancelled or replaced by a newer one.' } : answer.error;
     } finally {

@@ -3,7 +3,8 @@
  * workers), their per-cell mean, sd and P(exceed) put on the map in place of the kriged surface on
  * request, and the area above the action level. Engine work runs through LatestRequest.
  */
-import { isCovariateTrend, type CovarianceModel } from '../../core/covariance/model.ts';
+import type { CovarianceModel } from '../../core/covariance/model.ts';
+import { covariatesOnGrid } from './covariate-grid.ts';
 import type { Grid } from '../../core/geometry/grid.ts';
 import { rangeOf, type SurfaceResult } from '../../core/prediction/surface.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
@@ -84,13 +85,6 @@ export class RealisationsState {
     const model = this.app.s.structure.model;
     const plan = this.app.surface.gridPlan.value;
     if (!intake || !model || !plan) return;
-    if (isCovariateTrend(model.trend)) {
-      this.task = {
-        ...idleTask(), status: 'error',
-        error: { code: 'bad-option', message: `Realisations are not offered for a model with covariates (${model.trend.covariates.join(', ')}) yet; the kriged surface above uses them. Expected a model without covariates for realisations.` },
-      };
-      return;
-    }
     const threshold = usableThreshold(this.app.s.surface.threshold, model);
     const count = Math.max(1, Math.min(10_000, Math.round(this.count)));
     const seed = Number.isInteger(this.seed) ? this.seed : 1;
@@ -101,15 +95,23 @@ export class RealisationsState {
     const blockPoints = this.app.surface.blockPoints;
     const t0 = performance.now();
     this.task = { ...idleTask(), status: 'running', total: count, what: 'realisations' };
-    const answer = await this.runs.run((run) => engine.simulate({
-      samples: intake.samples, model: $state.snapshot(model) as CovarianceModel, grid: plan.grid,
-      options: {
-        count, seed, support, blockPoints, keepRealisations: true,
-        threshold: threshold ?? undefined,
-        depth: depth ?? undefined,
-      },
-      keepFirst: KEEP_FIRST,
-    }, (done, total) => { if (run.current()) this.task = { ...this.task, done, total }; }, run.signal));
+    const plain = $state.snapshot(model) as CovarianceModel;
+    const answer = await this.runs.run(async (run) => {
+      // A covariate model: the covariates at the lattice nodes (block points) from the loaded rasters.
+      const setup = await covariatesOnGrid(intake, plain, this.app.rasters.covariateRasters, plan.grid, { nodes: support === 'block' ? blockPoints : 1 });
+      run.check();
+      const result = await engine.simulate({
+        samples: setup.samples, model: plain, grid: setup.grid,
+        options: {
+          count, seed, support, blockPoints, keepRealisations: true,
+          ...(setup.nodeCovariates ? { covariates: setup.nodeCovariates } : {}),
+          threshold: threshold ?? undefined,
+          depth: depth ?? undefined,
+        },
+        keepFirst: KEEP_FIRST,
+      }, (done, total) => { if (run.current()) this.task = { ...this.task, done, total }; }, run.signal);
+      return { setup, result };
+    });
     if (answer.status === 'stale') return;
     const ms = performance.now() - t0;
     if (answer.status !== 'done') {
@@ -117,8 +119,9 @@ export class RealisationsState {
       return;
     }
     // Keep the first realisations only: the view shows them, the summaries are computed.
-    const kept = { ...answer.value, realisations: answer.value.realisations?.slice(0, KEEP_FIRST) };
-    this.simulation = { grid: plan.grid, result: kept, key, base, ms, seed, depth, made: new Date().toISOString() };
+    const { setup, result } = answer.value;
+    const kept = { ...result, realisations: result.realisations?.slice(0, KEEP_FIRST), warnings: [...setup.warnings, ...result.warnings] };
+    this.simulation = { grid: setup.grid, result: kept, key, base, ms, seed, depth, made: new Date().toISOString() };
     this.rate = ms / 1000 / (count * plan.cells);
     this.task = { ...this.task, status: 'done', done: count, ms };
   }

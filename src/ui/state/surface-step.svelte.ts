@@ -7,7 +7,8 @@
  */
 import type { Samples } from '../../core/shared/samples.ts';
 import type { Warning } from '../../core/shared/errors.ts';
-import { isCovariateTrend, type CovarianceModel, type CovariateTrend } from '../../core/covariance/model.ts';
+import { isCovariateTrend, type CovarianceModel } from '../../core/covariance/model.ts';
+import { covariatesOnGrid, missingRasterMessage } from './covariate-grid.ts';
 import type { Grid } from '../../core/geometry/grid.ts';
 import type { SurfaceResult } from '../../core/prediction/surface.ts';
 import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
@@ -218,7 +219,7 @@ export class SurfaceState {
     if (missing.length > 0) {
       this.task = {
         ...idleTask(), status: 'error',
-        error: { code: 'bad-option', message: `The model's covariate${missing.length > 1 ? 's' : ''} ${missing.join(', ')} need${missing.length > 1 ? '' : 's'} a raster on the map area; expected "Load covariate raster…" for ${missing.length > 1 ? 'each' : 'it'} first.` },
+        error: { code: 'bad-option', message: missingRasterMessage(missing) },
       };
       return;
     }
@@ -260,14 +261,13 @@ export class SurfaceState {
     this.covariateWarnings = [];
     if (isCovariateTrend(model.trend)) {
       try {
-        const { gridCovariates } = await import('../../io/covariate-raster.ts');
         // Block support reads the covariates at each cell's block points (averaged into its trend row).
         const block = support === 'block';
-        const g = gridCovariates(plan.grid, plain.trend as CovariateTrend, this.app.rasters.covariateRasters, job.work, block ? { nodes: this.blockPoints } : {});
+        const g = await covariatesOnGrid(intake, plain, this.app.rasters.covariateRasters, plan.grid, block ? { nodes: this.blockPoints } : {});
         job.grid = g.grid;
+        job.samples = g.samples;
         job.covariates = block ? g.nodeCovariates : g.covariates;
         this.covariateWarnings = g.warnings;
-        job.samples = this.app.structure.samplesFor(model);
       } catch (e) {
         this.task = { ...idleTask(), status: 'error', error: showError(e) };
         return null;
