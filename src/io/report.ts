@@ -20,6 +20,7 @@ import { CAUTION } from '../core/shared/caution.ts';
 import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import type { CovarianceModel, CovariateTrend, Structure } from '../core/covariance/model.ts';
 import { isCovariateTrend, nuggetOf } from '../core/covariance/model.ts';
+import { fitWarnings } from '../core/covariance/fit-warnings.ts';
 import type { Samples } from '../core/shared/samples.ts';
 import { cellCount, type Grid } from '../core/geometry/grid.ts';
 import { computeSurface } from '../core/prediction/surface.ts';
@@ -673,7 +674,7 @@ function reportMain(input: ReportInput, idPrefix = ''): Markup[] {
     if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
     if (model.fit) {
       rows.push(['Fit', `${model.fit.method}${model.fit.logLikelihood !== undefined ? `, ${model.fit.method === 'wls' ? 'REML log-likelihood at the least-squares parameters' : 'log-likelihood'} ${fmt(model.fit.logLikelihood)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`]);
-      for (const w of model.fit.warnings ?? []) rows.push(['Fit note', String(w)]);
+      for (const w of fitWarnings(model.fit)) rows.push(['Fit note', w.message]);
     }
     page.push(keyValues(rows));
     const coefficients = trendCoefficientsTable(model);

@@ -27,6 +27,7 @@ import type { VariogramOptions } from './variogram.ts';
 import type { CorrelationParameters, Likelihood } from './likelihood.ts';
 import type { ParameterSpace } from '../linalg/optimize.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
+import { fitWarning, withoutFitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { centroid, pickSamples } from '../shared/samples.ts';
 import { isCovariateTrend } from '../covariance/model.ts';
@@ -220,22 +221,22 @@ function evaluationCounter(onProgress: FitProgress, budgetsIn: number[]) {
 }
 
 /** Flags parameters that ended within 1 % (log scale) of a bound. */
-function boundWarnings(x: number[], L: SearchLayout, r: Resolved): string[] {
-  const out: string[] = [];
+function boundWarnings(x: number[], L: SearchLayout, r: Resolved): FitWarning[] {
+  const out: FitWarning[] = [];
   const near = (v: number, b: number | undefined) => b !== undefined && b > 0 && Math.abs(Math.log(v / b)) < 0.01;
   const [scaleSpace] = L.spaces;
   if (near(x[0], scaleSpace.upper)) {
-    out.push(`The scale reached its upper limit (${fmt(scaleSpace.upper!)} m, 10 × the largest sample distance): the data may hold a trend or the correlation length exceeds the sampled area; consider a linear trend.`);
+    out.push({ code: 'scale-at-bound', message: `The scale reached its upper limit (${fmt(scaleSpace.upper!)} m, 10 × the largest sample distance): the data may hold a trend or the correlation length exceeds the sampled area; consider a linear trend.` });
   }
   if (near(x[0], scaleSpace.lower)) {
-    out.push(`The scale reached its lower limit (${fmt(scaleSpace.lower!)} m): the samples show no spatial correlation at their spacing (pure nugget).`);
+    out.push({ code: 'scale-at-bound', message: `The scale reached its lower limit (${fmt(scaleSpace.lower!)} m): the samples show no spatial correlation at their spacing (pure nugget).` });
   }
   if (r.nugget && near(x[1], NUGGET_RATIO_BOUNDS.upper)) {
-    out.push('The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.');
+    out.push({ code: 'nugget-at-bound', message: 'The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.' });
   }
   if (r.nuFree) {
     const nu = x[x.length - 1];
-    if (near(nu, NU_BOUNDS.lower) || near(nu, NU_BOUNDS.upper)) out.push(`The smoothness ν reached its limit (${fmt(nu)}; allowed ${NU_BOUNDS.lower}–${NU_BOUNDS.upper}).`);
+    if (near(nu, NU_BOUNDS.lower) || near(nu, NU_BOUNDS.upper)) out.push({ code: 'smoothness-at-bound', message: `The smoothness ν reached its limit (${fmt(nu)}; allowed ${NU_BOUNDS.lower}–${NU_BOUNDS.upper}).` });
   }
   return out;
 }
@@ -387,10 +388,10 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
   const theta = L.toTheta(best.x);
   const final = lik.evaluate(theta, { allowJitter });
   counter?.finish();
-  const warnings: string[] = [];
-  if (!best.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations); the fit may be improved by more starts.`);
+  const warnings: FitWarning[] = [];
+  if (!best.converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations); the fit may be improved by more starts.` });
   warnings.push(...boundWarnings(best.x, L, r));
-  if (final.jitter > 0) warnings.push(`The correlation matrix was not numerically positive definite; ${final.jitter.toExponential(0)} was added to its diagonal (consider a nugget).`);
+  if (final.jitter > 0) warnings.push({ code: 'jitter', message: `The correlation matrix was not numerically positive definite; ${final.jitter.toExponential(0)} was added to its diagonal (consider a nugget).` });
   const k = parameterCount(r);
   const fit: FitInfo = {
     method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood, converged: best.converged,
@@ -602,13 +603,13 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
   });
   onProgress?.(2, 3);
   const { scale, sill, nugget, nu } = w;
-  const warnings: string[] = v.warnings.map((x) => x.message);
-  if (!w.converged) warnings.push('The weighted least-squares search stopped before meeting its tolerance.');
+  const warnings: FitWarning[] = v.warnings.map((x) => fitWarning(x as FitWarning));
+  if (!w.converged) warnings.push({ code: 'optimiser-stopped', message: 'The weighted least-squares search stopped before meeting its tolerance.' });
   const L = layout(r, v.maxDistance);
   const xEnd = [scale];
   if (r.nugget) xEnd.push(Math.max(nugget / sill, NUGGET_RATIO_BOUNDS.lower));
   if (r.nuFree) xEnd.push(nu!);
-  warnings.push(...boundWarnings(xEnd, L, r).filter((x) => !x.startsWith('The nugget reached')));
+  warnings.push(...withoutFitWarnings(boundWarnings(xEnd, L, r), 'nugget-at-bound'));
   const k = parameterCount(r);
   const fit: FitInfo = {
     method: 'wls', converged: w.converged, iterations: w.iterations, n, warnings, parameters: k,
@@ -622,14 +623,14 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
     if (value.jitter > 0 || !Number.isFinite(value.logLikelihood)) {
       // With values added to the diagonal the likelihood is that of another model: none is reported
       // rather than a number that does not describe this fit.
-      warnings.push('No likelihood reported: at the least-squares parameters the samples\' correlations are too close to singular (almost no nugget with a smooth, long-range model); compare this fit by its cross-validation instead.');
+      warnings.push({ code: 'no-likelihood', message: 'No likelihood reported: at the least-squares parameters the samples\' correlations are too close to singular (almost no nugget with a smooth, long-range model); compare this fit by its cross-validation instead.' });
     } else {
       fit.likelihoodMethod = 'reml';
       fit.logLikelihood = value.logLikelihood;
       fit.aic = 2 * k - 2 * value.logLikelihood;
     }
   } else {
-    warnings.push(`No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.`);
+    warnings.push({ code: 'no-likelihood', message: `No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.` });
   }
   onProgress?.(3, 3);
   return buildModel(r, scale, nu, sill, nugget, fit);
@@ -673,7 +674,7 @@ export const CANDIDATES: ReadonlyArray<{ family: Family; nu?: number | 'free' }>
  */
 export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'family' | 'nu'> = {}, onProgress?: FitProgress): CovarianceModel[] {
   const models: CovarianceModel[] = [];
-  const failures: string[] = [];
+  const failures: FitWarning[] = [];
   const total = CANDIDATES.length;
   let shown = 0;
   const report = (done: number) => {
@@ -689,14 +690,14 @@ export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'famil
       models.push(fitModel(samples, { ...options, family: c.family, nu: c.nu }, inner));
     } catch (e) {
       if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
-        failures.push(`The ${c.family}${c.nu !== undefined ? ` (ν ${c.nu})` : ''} candidate could not be fitted: ${e.message}`);
+        failures.push({ code: 'candidate-failed', message: `The ${c.family}${c.nu !== undefined ? ` (ν ${c.nu})` : ''} candidate could not be fitted: ${e.message}` });
       } else {
         throw e;
       }
     }
     if (onProgress) report(i + 1);
   }
-  if (models.length === 0) throw new GapwiseError('fit-failed', `None of the ${CANDIDATES.length} candidate models could be fitted. ${failures.join(' ')}`);
+  if (models.length === 0) throw new GapwiseError('fit-failed', `None of the ${CANDIDATES.length} candidate models could be fitted. ${failures.map((f) => f.message).join(' ')}`);
   for (const m of models) m.fit!.warnings = [...(m.fit!.warnings ?? []), ...failures];
   const aic = (m: CovarianceModel) => (typeof m.fit?.aic === 'number' && Number.isFinite(m.fit.aic) ? m.fit.aic : Infinity);
   return models.sort((a, b) => aic(a) - aic(b));

@@ -198,8 +198,10 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup, corre
     }
   };
 
+  // A fixed ν (none in θ) is the same for every evaluation: the general-ν Matérn then comes from its
+  // table (built once), not from one K_ν per pair; a ν searched over changes at every evaluation.
   const fillFromModel = (theta: CorrelationParameters, extraDiagonal: number): void => {
-    sampleCovarianceLowerInto(correlationAt!(theta), xs, ys, R);
+    sampleCovarianceLowerInto(correlationAt!(theta), xs, ys, R, { tabulate: theta.nu === undefined });
     if (extraDiagonal !== 0) for (let i = 0; i < n; i++) R[i * n + i] += extraDiagonal;
   };
   const fillAt = correlationAt ? fillFromModel : fill;
