@@ -3,7 +3,8 @@
  * aborted: the range by direction fitted in a worker, the comparison of the isotropic and the
  * anisotropic fit (log-likelihood, AIC), the fitted model drawn along the four directions, its long
  * axis and ratio in words, and a surface computed with it; then two ranges, with either the two
- * ranges or the guard's note in plain words. Screenshots 8-structure-rich*.png.
+ * ranges or the guard's note in plain words; then both boxes ticked: two ranges sharing one direction,
+ * compared with the three simpler fits. Screenshots 8-structure-rich*.png.
  */
 import { describe, expect, it } from 'vitest';
 import { expectClean, openStep, WAIT, LONG, useHarness, openDemo, computeSurface, shot, type Watched } from './harness.ts';
@@ -84,8 +85,10 @@ describe('Richer fits in the Structure step', () => {
   it('fits two ranges and shows them, or the guard\'s note that one range is kept', { timeout: LONG }, async () => {
     const { page } = w;
     await openStep(page, 'structure');
+    await page.locator('[data-testid=rich-anisotropy]').uncheck();
     await page.locator('[data-testid=rich-nested]').check();
     expect(await page.locator('[data-testid=rich-anisotropy]').isChecked()).toBe(false);
+    expect(await page.locator('[data-testid=rich-fit-button]').textContent()).toContain('Fit with two ranges');
     await page.click('[data-testid=rich-fit-button]');
     await page.waitForSelector('[data-testid=rich-comparison] tr[data-label="two structures"]', { timeout: WAIT });
     const labels = await page.locator('[data-testid=rich-comparison] tbody tr').evaluateAll((trs) => trs.map((tr) => tr.getAttribute('data-label')));
@@ -102,6 +105,46 @@ describe('Richer fits in the Structure step', () => {
     }
     await page.locator('[data-testid=rich-comparison]').scrollIntoViewIfNeeded();
     await shot(page, '8-structure-rich-nested');
+    expectClean(w);
+  });
+
+  it('with both boxes ticked fits two ranges sharing one direction, compares four fits and puts the kept model in use', { timeout: LONG }, async () => {
+    const { page } = w;
+    await openStep(page, 'structure');
+    await page.locator('[data-testid=rich-anisotropy]').check();
+    expect(await page.locator('[data-testid=rich-nested]').isChecked()).toBe(true);
+    expect(await page.locator('[data-testid=rich-fit-button]').textContent()).toContain('Fit with a range by direction and two ranges');
+    const t0 = Date.now();
+    await page.click('[data-testid=rich-fit-button]');
+    await page.waitForSelector('[data-testid=rich-comparison] tr[data-label="anisotropic, two structures"]', { timeout: WAIT });
+    run.figures.push(`range by direction with two ranges, demo in the browser: ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+    const rows = await page.locator('[data-testid=rich-comparison] tbody tr').evaluateAll((trs) => trs.map((tr) => ({
+      label: tr.getAttribute('data-label'),
+      name: tr.querySelector('th')?.textContent ?? '',
+      loglik: Number((tr.querySelector('[data-testid=rich-loglik]')?.textContent ?? '').replace(/[−–]/g, '-').replace(/,/g, '')),
+    })));
+    expect(rows.map((r) => r.label)).toEqual(['isotropic', 'anisotropic', 'two structures', 'anisotropic, two structures']);
+    expect(rows[3].name).toContain('Two ranges, both by direction');
+    // The combined model nests both simpler ones: its likelihood is never lower (4 significant digits shown).
+    for (const r of rows.slice(1, 3)) expect(rows[3].loglik).toBeGreaterThanOrEqual(r.loglik - Math.abs(r.loglik) * 1e-3);
+    // The model the fit keeps is in use: two ranges by direction, or (the guard) one range by direction.
+    const kept = rows.find((r) => r.name.includes('kept'))!;
+    expect(['anisotropic', 'anisotropic, two structures']).toContain(kept.label);
+    expect(kept.name).toContain('in use');
+    const inUse = await page.locator('[data-testid=model-in-use]').textContent();
+    const digest = await page.evaluate(() => (window as unknown as { __gapwiseTest: { sessionDigest(): Record<string, unknown> } }).__gapwiseTest.sessionDigest()) as
+      { model: { anisotropy: { azimuth: number; ratio: number } | null } | null };
+    expect(digest.model?.anisotropy).not.toBeNull();
+    if (kept.label === 'anisotropic, two structures') {
+      expect(inUse).toContain('two ranges, range by direction');
+      expect(await page.locator('[data-testid=rich-guard]').count()).toBe(0);
+    } else {
+      expect(inUse).toContain('range by direction');
+      expect(await page.locator('[data-testid=rich-guard]').textContent()).toMatch(/one-range model with a range by direction is kept/);
+    }
+    run.figures.push(`demo, both boxes: ${kept.label} kept; model in use: ${inUse}`);
+    await page.locator('[data-testid=rich-comparison]').scrollIntoViewIfNeeded();
+    await shot(page, '8-structure-rich-both');
     expectClean(w);
   });
 });

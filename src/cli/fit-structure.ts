@@ -1,7 +1,7 @@
 /**
  * `fit --anisotropy` and `fit --structures 2` (alone or together): the options, their checks, the fit
- * they choose (core/fitting/fit-anisotropy.ts, core/fitting/fit-nested.ts, core/fitting/fit-anisotropic-nested.ts, else
- * core/fitting/fit.ts fitModel) and the comparison table printed on stderr (the rows also go into the
+ * they choose (core/fitting/fit-structure.ts, which the app's worker calls too, else core/fitting/fit.ts
+ * fitModel) and the comparison table printed on stderr (the rows also go into the
  * model's "fit": "comparison").
  */
 import type { CovarianceModel } from '../core/covariance/model.ts';
@@ -12,16 +12,11 @@ import type { OptionSpec } from './args.ts';
 import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
 import { GapwiseError } from '../core/shared/errors.ts';
 import { fitModel } from '../core/fitting/fit.ts';
-import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
-import { fitNested } from '../core/fitting/fit-nested.ts';
-import { fitAnisotropicNested } from '../core/fitting/fit-anisotropic-nested.ts';
+import { fitStructure, type StructureChoice } from '../core/fitting/fit-structure.ts';
 import { booleanOption, numberOption } from './args.ts';
 import { printNotes, type CliIo, type OptionValues } from './common.ts';
 
-export interface StructureChoice {
-  anisotropy: boolean;
-  structures: 1 | 2;
-}
+export type { StructureChoice };
 
 export const STRUCTURE_OPTIONS: OptionSpec[] = [
   { name: 'anisotropy', kind: 'boolean', help: 'estimate a geometric anisotropy (azimuth of the long axis, ratio short/long range) with the other parameters by likelihood; the isotropic fit is compared beside it (AIC)' },
@@ -47,9 +42,7 @@ export function readStructureChoice(values: OptionValues, method: string): Struc
 
 /** The fit the choice asks for. */
 export function fitWithStructure(samples: Samples, options: FitOptions, choice: StructureChoice, onProgress?: FitProgress): CovarianceModel {
-  if (choice.anisotropy && choice.structures === 2) return fitAnisotropicNested(samples, options, onProgress).model;
-  if (choice.anisotropy) return fitAnisotropic(samples, options, onProgress).model;
-  if (choice.structures === 2) return fitNested(samples, options, onProgress).model;
+  if (choice.anisotropy || choice.structures === 2) return fitStructure(samples, options, choice, onProgress).model;
   return fitModel(samples, options, onProgress);
 }
 

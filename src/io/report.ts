@@ -18,6 +18,7 @@ import { CAUTION } from '../core/shared/caution.ts';
 import type { Warning } from '../core/shared/errors.ts';
 import type { CovarianceModel, CovariateTrend, Structure } from '../core/covariance/model.ts';
 import { isCovariateTrend, nuggetOf } from '../core/covariance/model.ts';
+import { fitWarnings } from '../core/covariance/fit-warnings.ts';
 import { cellCount, type Grid } from '../core/geometry/grid.ts';
 import type { LeaveOneOutResult } from '../core/validation/cross-validation.ts';
 import type { EmpiricalVariogram } from '../core/fitting/variogram.ts';
@@ -533,7 +534,7 @@ function structurePart(c: ReportContext): Markup[] {
     if (model.practicalRange) rows.push(['Practical range', `${fmt(model.practicalRange)} m (correlation falls to 5 %)`]);
     if (model.fit) {
       rows.push(['Fit', `${model.fit.method}${model.fit.logLikelihood !== undefined ? `, ${model.fit.method === 'wls' ? 'REML log-likelihood at the least-squares parameters' : 'log-likelihood'} ${fmt(model.fit.logLikelihood)}` : ''}${model.fit.aic !== undefined ? `, AIC ${fmt(model.fit.aic)}` : ''}, ${model.fit.converged ? 'converged' : 'NOT converged'}`]);
-      for (const w of model.fit.warnings ?? []) rows.push(['Fit note', String(w)]);
+      for (const w of fitWarnings(model.fit)) rows.push(['Fit note', w.message]);
     }
     page.push(keyValues(rows));
     const coefficients = trendCoefficientsTable(model);

@@ -8,8 +8,7 @@
  * typed-array buffers for transfer.
  */
 import { fitCandidates, fitModel } from '../core/fitting/fit.ts';
-import { fitAnisotropic } from '../core/fitting/fit-anisotropy.ts';
-import { fitNested } from '../core/fitting/fit-nested.ts';
+import { fitStructure } from '../core/fitting/fit-structure.ts';
 import { empiricalVariogram, variogramSet } from '../core/fitting/variogram.ts';
 import { leaveOneOut } from '../core/validation/cross-validation.ts';
 import { localLeaveOneOut } from '../core/validation/local-cross-validation.ts';
@@ -42,8 +41,7 @@ export type Send = (message: EngineResponse, transfer: ArrayBuffer[]) => void;
 export interface EngineOperations {
   fitModel: typeof fitModel;
   fitCandidates: typeof fitCandidates;
-  fitAnisotropic: typeof fitAnisotropic;
-  fitNested: typeof fitNested;
+  fitStructure: typeof fitStructure;
   empiricalVariogram: typeof empiricalVariogram;
   variogramSet: typeof variogramSet;
   leaveOneOut: typeof leaveOneOut;
@@ -63,7 +61,7 @@ export interface EngineOperations {
 
 /** The computing operations, without the file reader (what the command line's engine threads run). */
 export const COMPUTE_OPERATIONS: EngineOperations = {
-  fitModel, fitCandidates, fitAnisotropic, fitNested, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
+  fitModel, fitCandidates, fitStructure, empiricalVariogram, variogramSet, leaveOneOut, localLeaveOneOut, createPredictor, computeSurfaceWith,
   createBlockPredictor, computeBlockSurfaceWith, simulateConditional, vecchiaFit, createLocalPredictor,
 };
 
@@ -150,20 +148,7 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
       case 'fitStructure': {
         const q = p as RequestPayloads['fitStructure'];
         checkSamples(q.samples);
-        if (q.choice.anisotropy && q.choice.structures === 2) {
-          throw new GapwiseError('bad-option', 'Expected a fitted anisotropy or two structures, one at a time; got both.');
-        }
-        if (q.choice.anisotropy) {
-          const r = ops.fitAnisotropic(q.samples, q.options, progress);
-          return { model: r.model, simpler: r.isotropic, comparison: r.comparison } as ResultPayloads[K];
-        }
-        if (q.choice.structures === 2) {
-          const r = ops.fitNested(q.samples, q.options, progress);
-          const out: ResultPayloads['fitStructure'] = { model: r.model, simpler: r.single, comparison: r.comparison };
-          if (r.notIdentifiable) out.notIdentifiable = r.notIdentifiable;
-          return out as ResultPayloads[K];
-        }
-        throw new GapwiseError('bad-option', 'Expected a fitted anisotropy or two structures; got neither (fit the candidate models instead).');
+        return ops.fitStructure(q.samples, q.options, q.choice, progress) as ResultPayloads[K];
       }
       case 'variogram': {
         const q = p as RequestPayloads['variogram'];

@@ -9,7 +9,7 @@
 import type { Samples } from '../core/shared/samples.ts';
 import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { FitOptions } from '../core/fitting/fit.ts';
-import type { FitComparisonRow } from '../core/fitting/fit-anisotropy.ts';
+import type { StructureChoice, StructureFit } from '../core/fitting/fit-structure.ts';
 import type { EmpiricalVariogram, VariogramOptions, VariogramSet } from '../core/fitting/variogram.ts';
 import type { LeaveOneOutResult } from '../core/validation/cross-validation.ts';
 import type { Grid } from '../core/geometry/grid.ts';
@@ -35,29 +35,21 @@ import type { Project } from '../io/project.ts';
 import type { ReportInput } from '../io/report.ts';
 import { GapwiseError, type ErrorCode, type ErrorPlace } from '../core/shared/errors.ts';
 
-/** The richer fit of the Structure step: a fitted anisotropy, or two structures (short and long range). */
-export interface StructureFitChoice {
-  anisotropy: boolean;
-  structures: 1 | 2;
-}
+/** The richer fit of the Structure step: a fitted anisotropy, two structures (short and long range), or both. */
+export type StructureFitChoice = StructureChoice;
 
 /**
- * What a richer fit answers: the model kept (the anisotropic one; or two structures, or one when the
- * guard keeps one), the simpler model fitted beside it, the comparison rows (log-likelihood, AIC) and,
- * for two structures, why they were not kept.
+ * What a richer fit answers (core/fitting/fit-structure.ts): the model kept, the simpler model fitted
+ * beside it, the comparison rows (log-likelihood, AIC), the model behind each row that may be used
+ * and, for two structures, why they were not kept.
  */
-export interface StructureFitResult {
-  model: CovarianceModel;
-  simpler: CovarianceModel;
-  comparison: FitComparisonRow[];
-  notIdentifiable?: 'merged' | 'vanishing-sill' | 'no-gain';
-}
+export type StructureFitResult = StructureFit;
 
 /** What each request type carries. */
 export interface RequestPayloads {
   fit: { samples: Samples; options: FitOptions };
   fitCandidates: { samples: Samples; options?: Omit<FitOptions, 'family' | 'nu'> };
-  /** A fitted anisotropy (core/fitting/fit-anisotropy.ts) or two structures (core/fitting/fit-nested.ts), with progress. */
+  /** A fitted anisotropy, two structures or both (core/fitting/fit-structure.ts), with progress. */
   fitStructure: { samples: Samples; options: FitOptions; choice: StructureFitChoice };
   variogram: { samples: Samples; options?: VariogramOptions };
   /** The variogram with, on request, the four directions and the cloud (core/fitting/variogram.ts variogramSet). */

@@ -56,7 +56,7 @@ export function fillStrings(value: unknown, pick: (k: number) => string): number
 const model: CovarianceModel = {
   structures: [{ type: 'nugget', sill: 0.5 }, { type: 'exponential', sill: 12, scale: 80 }],
   trend: 'constant', transform: 'none',
-  fit: { method: 'reml', converged: true, logLikelihood: -50, aic: 106, warnings: ['the optimiser stopped at its bound'] },
+  fit: { method: 'reml', converged: true, logLikelihood: -50, aic: 106, warnings: [{ code: 'optimiser-stopped', message: 'the optimiser stopped at its bound' }] },
 };
 const comparison: ComparisonRow[] = [
   { key: 'exponential', label: 'Exponential', model, logLikelihood: -50, aic: 106, rmse: 2.1, msse: 1.02 },

@@ -25,3 +25,16 @@ function canonical(value: unknown): unknown {
 export function reportDigest(value: unknown): string {
   return createHash('sha256').update(JSON.stringify(canonical(value))).digest('hex');
 }
+
+/**
+ * The value with every model's `fit.warnings` read as their messages, as fit warnings were plain
+ * strings before they carried codes: digests pinned before then compare with this view.
+ */
+export function withFitWarningMessages(value: unknown, parentKey = ''): unknown {
+  if (Array.isArray(value)) return value.map((v) => withFitWarningMessages(v, parentKey));
+  if (!value || typeof value !== 'object' || ArrayBuffer.isView(value)) return value;
+  return Object.fromEntries(Object.entries(value).map(([k, v]) => [k,
+    parentKey === 'fit' && k === 'warnings' && Array.isArray(v)
+      ? v.map((w) => (typeof w === 'string' ? w : (w as { message: string }).message))
+      : withFitWarningMessages(v, k)]));
+}

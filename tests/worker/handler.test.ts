@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { createEngineHandler, predictorKey, type EngineOperations } from '../../src/worker/handler.ts';
 import { ENGINE_OPERATIONS } from '../../src/worker/operations.ts';
-import type { EngineResponse } from '../../src/worker/protocol.ts';
+import type { EngineResponse, StructureFitResult } from '../../src/worker/protocol.ts';
 import type { IntakeResult } from '../../src/io/types.ts';
 import { rowAt } from '../../src/io/sample-table.ts';
 import { readSamples } from '../../src/io/intake.ts';
@@ -20,6 +20,7 @@ import { simulateConditional } from '../../src/core/simulation/conditional-simul
 import { vecchiaFit } from '../../src/core/fitting/vecchia.ts';
 import { fitAnisotropic } from '../../src/core/fitting/fit-anisotropy.ts';
 import { fitNested } from '../../src/core/fitting/fit-nested.ts';
+import { fitAnisotropicNested } from '../../src/core/fitting/fit-anisotropic-nested.ts';
 import { createLocalPredictor } from '../../src/core/prediction/local-kriging.ts';
 import { computeSurfaceWith } from '../../src/core/prediction/surface.ts';
 import { chooseCheckTargets, measureLocalGrid, type LocalGridCheck } from '../../src/core/prediction/local-accuracy.ts';
@@ -283,15 +284,29 @@ describe('predictorKey', () => {
     expect(r.notIdentifiable).toBe(direct.notIdentifiable);
   });
 
-  it('createEngineHandler refuses fitStructure with both choices or neither, as error data', () => {
+  it('createEngineHandler answers fitStructure with both choices as fitAnisotropicNested: four rows, the model kept and a usable model per row', () => {
+    const { sent, run } = collect();
+    const options = { family: 'exponential' as const, method: 'reml' as const };
+    run({ id: 18, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: true, structures: 2 } } });
+    const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>;
+    expect(last).toMatchObject({ id: 18, type: 'result', request: 'fitStructure' });
+    const r = last.result as StructureFitResult;
+    const direct = fitAnisotropicNested(samples, options);
+    expect(r.model).toEqual(JSON.parse(JSON.stringify(direct.model)));
+    expect(r.simpler).toEqual(JSON.parse(JSON.stringify(direct.anisotropic)));
+    expect(r.notIdentifiable).toBe(direct.notIdentifiable);
+    expect(r.comparison.map((c) => c.label)).toEqual(['isotropic', 'anisotropic', 'two structures', 'anisotropic, two structures']);
+    const chosen = r.comparison.find((c) => c.chosen)!;
+    expect(r.rowModels[chosen.label]).toEqual(r.model);
+    expect(r.rowModels.isotropic).toEqual(JSON.parse(JSON.stringify(direct.isotropic)));
+    expect(r.rowModels['anisotropic, two structures'] === undefined).toBe(direct.notIdentifiable !== undefined);
+  }, 120_000);
+
+  it('createEngineHandler refuses fitStructure with neither choice, as error data', () => {
     const { sent, run } = collect();
     const options = { family: 'exponential' as const };
-    run({ id: 18, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: true, structures: 2 } } });
     run({ id: 19, type: 'fitStructure', payload: { samples, options, choice: { anisotropy: false, structures: 1 } } });
-    expect(sent.map((s) => s.message)).toMatchObject([
-      { id: 18, type: 'error', error: { code: 'bad-option' } },
-      { id: 19, type: 'error', error: { code: 'bad-option' } },
-    ]);
+    expect(sent.map((s) => s.message)).toMatchObject([{ id: 19, type: 'error', error: { code: 'bad-option' } }]);
   });
 
   it('createEngineHandler answers fitNearestNeighbour with the same model as vecchiaFit', () => {

@@ -21,6 +21,7 @@ import { attachTrendCoefficients } from '../../core/fitting/covariate-fit.ts';
 import { analyteRequest, fitAnalytes } from '../analytes.ts';
 import { STRUCTURE_OPTIONS, fitWithStructure, printComparison, readStructureChoice } from '../fit-structure.ts';
 import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
+import { fitWarnings, hasFitWarning } from '../../core/covariance/fit-warnings.ts';
 import {
   CAUTION, SAMPLE_OPTIONS, activityLine, count, progressLine, jsonText, naming, outOption, printNotes, printWarnings, readSamplesFile, readWorkers,
   writeOutput, type CliIo, type CommandSpec, type OptionValues,
@@ -168,9 +169,9 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     printNotes(io, [`${String(fit.note ?? `fitted on ${count(n)} samples`)}${why}`]);
   }
   printComparison(io, model);
-  printWarnings(io, fit?.warnings ?? []);
+  printWarnings(io, fitWarnings(fit));
   // The engine's own warnings usually say so already; this line covers a fit that does not.
-  if (fit && !fit.converged && !(fit.warnings ?? []).some((w) => /optimiser stopped/i.test(w))) {
+  if (fit && !fit.converged && !hasFitWarning(fit, 'optimiser-stopped')) {
     printWarnings(io, ['the optimiser stopped before it converged; the model may not be the best fit.']);
   }
 

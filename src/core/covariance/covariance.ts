@@ -129,6 +129,8 @@ interface CompiledStructure {
   factor: number;
   nu: number;
   logNormaliser: number;
+  /** General-ν Matérn: use the tabulated ρ on every row, however short (set by the caller's `tabulate`). */
+  tabulate?: boolean;
 }
 
 interface CompiledModel {
@@ -139,7 +141,7 @@ interface CompiledModel {
   needsDistance: boolean;
 }
 
-function compile(model: CovarianceModel): CompiledModel {
+function compile(model: CovarianceModel, tabulate = false): CompiledModel {
   const structures: CompiledStructure[] = [];
   let nugget = 0;
   let variance = 0;
@@ -161,7 +163,7 @@ function compile(model: CovarianceModel): CompiledModel {
       if (nu === 0.5) c = { kind: Kind.Exponential, sill: s.sill, factor: inv, nu, logNormaliser: 0 };
       else if (nu === 1.5) c = { kind: Kind.Matern32, sill: s.sill, factor: Math.sqrt(3) * inv, nu, logNormaliser: 0 };
       else if (nu === 2.5) c = { kind: Kind.Matern52, sill: s.sill, factor: Math.sqrt(5) * inv, nu, logNormaliser: 0 };
-      else c = { kind: Kind.MaternGeneral, sill: s.sill, factor: Math.sqrt(2 * nu) * inv, nu, logNormaliser: maternLogNormaliser(nu) };
+      else c = { kind: Kind.MaternGeneral, sill: s.sill, factor: Math.sqrt(2 * nu) * inv, nu, logNormaliser: maternLogNormaliser(nu), tabulate };
     }
     if (c.kind !== Kind.Gaussian) needsDistance = true;
     structures.push(c);
@@ -203,7 +205,7 @@ function addStructure(s: CompiledStructure, d: Float64Array, d2: Float64Array, c
       return;
     case Kind.MaternGeneral: {
       const nu = s.nu;
-      if (count >= TABLE_FROM) {
+      if (count >= TABLE_FROM || s.tabulate) {
         // Long rows: the tabulated ρ (./matern.ts; within about 1e-13, 10–30× faster than one K_ν each).
         const table = maternTableAtZ(nu);
         for (let j = 0; j < count; j++) {
@@ -277,13 +279,17 @@ export function sampleCovarianceMatrix(model: CovarianceModel, x: ArrayLike<numb
  * Fills the lower triangle and the diagonal of `out` (n×n row-major, length at least n²) with the
  * samples' covariance matrix as sampleCovarianceMatrix gives it; the strict upper triangle is left as
  * it was. For code that factorises in place many times (a Cholesky factor reads the lower triangle
- * only), so no matrix is allocated per call.
+ * only), so no matrix is allocated per call. `tabulate` takes a general-ν Matérn from its table
+ * (./matern.ts, within about 1e-13) on every row, not only on long ones: for repeated fills with one
+ * ν, where the table is built once and each fill would otherwise cost one K_ν per pair.
  */
-export function sampleCovarianceLowerInto(model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, out: Float64Array): Float64Array {
+export function sampleCovarianceLowerInto(
+  model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, out: Float64Array, options: { tabulate?: boolean } = {},
+): Float64Array {
   const n = x.length;
   if (y.length !== n) throw new Error(`Expected as many y as x coordinates (${n}), got ${y.length}.`);
   if (out.length < n * n) throw new Error(`Expected an output buffer of at least ${n}×${n} = ${n * n} entries, got ${out.length}.`);
-  const cm = compile(model);
+  const cm = compile(model, options.tabulate);
   const { u, v } = toIsotropicCoordinates(model.anisotropy, x, y);
   scratch(n);
   for (let i = 0; i < n; i++) {

@@ -18,6 +18,7 @@
  *   data carry no weight, and results are noise or infinite.
  */
 import { GapwiseError } from '../shared/errors.ts';
+import { fitWarnings, type FitWarning } from './fit-warnings.ts';
 
 export type Family = 'exponential' | 'gaussian' | 'matern' | 'spherical';
 export type StructureType = 'nugget' | Family;
@@ -132,7 +133,8 @@ export interface FitInfo {
   converged: boolean;
   iterations?: number;
   n?: number;
-  warnings?: string[];
+  /** Objects with a code (./fit-warnings.ts); models written before the codes hold strings, read by `fitWarnings`. */
+  warnings?: FitWarning[];
   [key: string]: unknown;
 }
 
@@ -230,6 +232,7 @@ export function parseModel(input: unknown): CovarianceModel {
     model.anisotropy = { azimuth: a.azimuth, ratio };
   }
   if (o.fit !== undefined) model.fit = o.fit as FitInfo;
+  if (Array.isArray(model.fit?.warnings)) model.fit = { ...model.fit, warnings: fitWarnings(model.fit) };
   if (typeof o.practicalRange === 'number') model.practicalRange = o.practicalRange;
   return model;
 }

@@ -23,8 +23,10 @@ import type { FitOptions, FitProgress } from './fit.ts';
 import type { CorrelationParameters, LikelihoodSetup } from './likelihood.ts';
 import type { SearchParameter } from './fit-search.ts';
 import { GapwiseError } from '../shared/errors.ts';
+import { fitWarnings, withoutFitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { axisAzimuth, fitAnisotropic, MIN_FITTED_RATIO, type FitComparisonRow } from './fit-anisotropy.ts';
 import { extentDiagonal, fitNested, nestedGuard, nestedStructures } from './fit-nested.ts';
+import { fitModel } from './fit.ts';
 import { practicalRange } from '../covariance/covariance.ts';
 import { searchLikelihood } from './fit-search.ts';
 
@@ -37,6 +39,8 @@ export interface AnisotropicNestedFit {
   isotropic: CovarianceModel;
   /** Two isotropic structures at their likelihood optimum (fit-nested.ts), kept there or not. */
   nestedIsotropic: CovarianceModel;
+  /** Why fit-nested.ts's guard did not keep the two isotropic structures; absent when it did. */
+  nestedIsotropicNotIdentifiable?: 'merged' | 'vanishing-sill' | 'no-gain';
   /** Two anisotropic structures at the likelihood optimum, kept or not. */
   nested: CovarianceModel;
   comparison: FitComparisonRow[];
@@ -62,7 +66,8 @@ function nuggetOf(model: CovarianceModel): number {
  * Fits one isotropic structure, one anisotropic structure, two isotropic structures and two
  * anisotropic structures with the same options (REML default, or ML; a fixed Matérn ν for all), and
  * keeps two anisotropic structures when the guard allows. Throws as fitAnisotropic and fitNested do
- * (a fixed anisotropy, method 'wls', a free ν). `onProgress` runs over the three fits in turn.
+ * (a fixed anisotropy, method 'wls', a free ν). `onProgress` runs over the four fits in turn (the
+ * isotropic one is fitted once and handed to both simpler fits).
  */
 export function fitAnisotropicNested(samples: Samples, options: FitOptions, onProgress?: FitProgress): AnisotropicNestedFit {
   if (options.anisotropy !== undefined) {
@@ -75,9 +80,11 @@ export function fitAnisotropicNested(samples: Samples, options: FitOptions, onPr
   if (options.family === 'matern' && options.nu === 'free') {
     throw new GapwiseError('bad-option', 'Expected a fixed Matérn ν for two structures (one ν for both), got "free"; give a number such as 1.5.');
   }
-  const third = (offset: number): FitProgress | undefined => (onProgress ? (d, t) => onProgress(offset + d / t, 3) : undefined);
-  const aniso = fitAnisotropic(samples, options, third(0));
-  const iso = fitNested(samples, options, third(1));
+  // One isotropic fit serves both simpler fits (each would otherwise fit it again).
+  const quarter = (offset: number): FitProgress | undefined => (onProgress ? (d, t) => onProgress(offset + d / t, 4) : undefined);
+  const isotropic = fitModel(samples, options, quarter(0));
+  const aniso = fitAnisotropic(samples, options, quarter(1), isotropic);
+  const iso = fitNested(samples, options, quarter(2), isotropic);
   const one = correlatedOf(aniso.model)[0];
   const an = aniso.model.anisotropy ?? { azimuth: 0, ratio: 1 };
   const withNugget = aniso.model.structures.some((s) => s.type === 'nugget');
@@ -124,7 +131,7 @@ export function fitAnisotropicNested(samples: Samples, options: FitOptions, onPr
   };
   const found = searchLikelihood(samples, setup, correlationAt, {
     parameters, starts, anchors: [anchorAniso, anchorNested], runs: options.starts ?? 3, toTheta, allowJitter: !withNugget,
-  }, { maxEvaluations: options.maxEvaluations, what: `anisotropic two-structure ${options.family} model` }, third(2));
+  }, { maxEvaluations: options.maxEvaluations, what: `anisotropic two-structure ${options.family} model` }, quarter(3));
 
   const theta = toTheta(found.x);
   const final = found.final;
@@ -132,14 +139,14 @@ export function fitAnisotropicNested(samples: Samples, options: FitOptions, onPr
   const k = anisoParameters + 2;
   const aic = 2 * k - 2 * final.logLikelihood;
   const anisoAic = aniso.model.fit!.aic ?? Infinity;
-  const warnings: string[] = [];
+  const warnings: FitWarning[] = [];
   if (Math.abs(Math.log(found.x[0] / parameters[0].upper!)) < 0.01) {
-    warnings.push('The long scale reached its upper limit (10 × the samples\' extent): the data may hold a trend; consider a linear trend.');
+    warnings.push({ code: 'scale-at-bound', message: 'The long scale reached its upper limit (10 × the samples\' extent): the data may hold a trend; consider a linear trend.' });
   }
   if (Math.abs(Math.log(theta.ratio / MIN_FITTED_RATIO)) < 0.01) {
-    warnings.push(`The anisotropy ratio reached its lower limit (${MIN_FITTED_RATIO}): the correlation across the long axis is too short for the sample spacing to resolve.`);
+    warnings.push({ code: 'ratio-at-bound', message: `The anisotropy ratio reached its lower limit (${MIN_FITTED_RATIO}): the correlation across the long axis is too short for the sample spacing to resolve.` });
   }
-  if (!found.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).`);
+  if (!found.converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).` });
   const sill = final.sigma2;
   const fit: FitInfo = {
     method, logLikelihood: final.logLikelihood, aic, converged: found.converged, iterations: found.iterations,
@@ -165,10 +172,10 @@ export function fitAnisotropicNested(samples: Samples, options: FitOptions, onPr
   fit.comparison = comparison;
   if (notIdentifiable) {
     const kept: CovarianceModel = { ...aniso.model, fit: { ...aniso.model.fit!, comparison, nestedNotIdentifiable: notIdentifiable } };
-    kept.fit!.warnings = [...(aniso.model.fit!.warnings ?? []),
-      `Two structures are not identifiable from these samples: ${reason}; the one-structure anisotropic model is kept.`];
-    return { model: kept, anisotropic: aniso.model, isotropic: aniso.isotropic, nestedIsotropic: iso.nested, nested, comparison, notIdentifiable };
+    kept.fit!.warnings = [...fitWarnings(aniso.model.fit),
+      { code: 'nested-not-identifiable', message: `Two structures are not identifiable from these samples: ${reason}; the one-structure anisotropic model is kept.` }];
+    return { model: kept, anisotropic: aniso.model, isotropic: aniso.isotropic, nestedIsotropic: iso.nested, nestedIsotropicNotIdentifiable: iso.notIdentifiable, nested, comparison, notIdentifiable };
   }
-  fit.warnings = [...(aniso.model.fit!.warnings ?? []).filter((w) => !/optimiser stopped|isotropic model has the lower AIC/.test(w)), ...warnings];
-  return { model: nested, anisotropic: aniso.model, isotropic: aniso.isotropic, nestedIsotropic: iso.nested, nested, comparison };
+  fit.warnings = [...withoutFitWarnings(aniso.model.fit!.warnings, 'optimiser-stopped', 'anisotropy-not-supported'), ...warnings];
+  return { model: nested, anisotropic: aniso.model, isotropic: aniso.isotropic, nestedIsotropic: iso.nested, nestedIsotropicNotIdentifiable: iso.notIdentifiable, nested, comparison };
 }

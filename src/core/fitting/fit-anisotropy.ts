@@ -21,6 +21,7 @@ import type { FitOptions, FitProgress } from './fit.ts';
 import type { CorrelationParameters, LikelihoodSetup } from './likelihood.ts';
 import type { SearchParameter } from './fit-search.ts';
 import { GapwiseError } from '../shared/errors.ts';
+import { fitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { fitModel, NU_BOUNDS } from './fit.ts';
 import { practicalRange } from '../covariance/covariance.ts';
 import { searchLikelihood } from './fit-search.ts';
@@ -66,9 +67,10 @@ function correlatedOf(model: CovarianceModel): CorrelatedStructure {
  * Fits the isotropic model and the anisotropic one (azimuth and ratio estimated) with the same
  * options, by REML (default) or ML. `options.anisotropy` must be absent (it would fix them);
  * method 'wls' is refused. Throws as fitModel does. `onProgress` counts the isotropic fit as the
- * first half and the anisotropic search as the second.
+ * first half and the anisotropic search as the second. `isotropicFit`, when given, is fitModel's
+ * answer for these samples and options, already computed by the caller (it is then not fitted again).
  */
-export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress?: FitProgress): AnisotropicFit {
+export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress?: FitProgress, isotropicFit?: CovarianceModel): AnisotropicFit {
   if (options.anisotropy !== undefined) {
     throw new GapwiseError('bad-option', 'Expected no fixed anisotropy when the anisotropy is to be fitted; got both.');
   }
@@ -77,7 +79,7 @@ export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress
     throw new GapwiseError('bad-option', `Expected the method reml or ml to fit an anisotropy by likelihood, got ${JSON.stringify(method)}.`);
   }
   const half = (offset: number): FitProgress | undefined => (onProgress ? (d, t) => onProgress(offset + d / t, 2) : undefined);
-  const isotropic = fitModel(samples, options, half(0));
+  const isotropic = isotropicFit ?? fitModel(samples, options, half(0));
   const iso = correlatedOf(isotropic);
   const isoNugget = isotropic.structures.find((s) => s.type === 'nugget');
   const withNugget = isoNugget !== undefined;
@@ -124,22 +126,22 @@ export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress
   const isoLogLik = isotropic.fit!.logLikelihood ?? -Infinity;
   const isoParameters = Number(isotropic.fit!.parameters ?? 0);
   const k = isoParameters + 2;
-  const warnings: string[] = [];
+  const warnings: FitWarning[] = [];
   let theta = toTheta(found.x);
   let final = found.final;
   if (!(final.logLikelihood >= isoLogLik)) {
     // The search ended below the isotropic optimum: keep that point (ratio 1), which the model nests.
     theta = { scale: iso.scale, nuggetRatio: eta0, nu: nuFree ? iso.nu : undefined, azimuth: 0, ratio: 1 };
     final = found.likelihood.evaluate(theta, { allowJitter: !withNugget });
-    warnings.push('The anisotropic search ended below the isotropic fit; the isotropic parameters (ratio 1) are kept.');
+    warnings.push({ code: 'anisotropy-search-below', message: 'The anisotropic search ended below the isotropic fit; the isotropic parameters (ratio 1) are kept.' });
   }
   const near = (v: number, b: number) => Math.abs(Math.log(v / b)) < 0.01;
-  if (near(theta.ratio, MIN_FITTED_RATIO)) warnings.push(`The anisotropy ratio reached its lower limit (${MIN_FITTED_RATIO}): the correlation across the long axis is too short for the sample spacing to resolve.`);
-  if (near(theta.scale, parameters[0].upper!)) warnings.push('The scale along the long axis reached its upper limit (100 × the isotropic scale): the data may hold a trend along that axis.');
-  if (!found.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).`);
+  if (near(theta.ratio, MIN_FITTED_RATIO)) warnings.push({ code: 'ratio-at-bound', message: `The anisotropy ratio reached its lower limit (${MIN_FITTED_RATIO}): the correlation across the long axis is too short for the sample spacing to resolve.` });
+  if (near(theta.scale, parameters[0].upper!)) warnings.push({ code: 'scale-at-bound', message: 'The scale along the long axis reached its upper limit (100 × the isotropic scale): the data may hold a trend along that axis.' });
+  if (!found.converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).` });
   const aic = 2 * k - 2 * final.logLikelihood;
   const isoAic = isotropic.fit!.aic ?? Infinity;
-  if (isoAic <= aic) warnings.push(`The isotropic model has the lower AIC (${isoAic.toFixed(2)} against ${aic.toFixed(2)}): the data do not support an anisotropy.`);
+  if (isoAic <= aic) warnings.push({ code: 'anisotropy-not-supported', message: `The isotropic model has the lower AIC (${isoAic.toFixed(2)} against ${aic.toFixed(2)}): the data do not support an anisotropy.` });
   const comparison: FitComparisonRow[] = [
     { label: 'isotropic', logLikelihood: isoLogLik, aic: isoAic, parameters: isoParameters, chosen: false },
     { label: 'anisotropic', logLikelihood: final.logLikelihood, aic, parameters: k, chosen: true },
@@ -153,7 +155,7 @@ export function fitAnisotropic(samples: Samples, options: FitOptions, onProgress
   structures.push(s);
   const fit: FitInfo = {
     method, logLikelihood: final.logLikelihood, aic, converged: found.converged, iterations: found.iterations,
-    n: found.likelihood.n, warnings: [...(isotropic.fit!.warnings ?? []), ...warnings], parameters: k,
+    n: found.likelihood.n, warnings: [...fitWarnings(isotropic.fit), ...warnings], parameters: k,
     evaluations: found.evaluations, screenEvaluations: found.screenEvaluations,
     trendCoefficients: final.beta, centre: found.likelihood.centre, anisotropyFitted: true, comparison,
   };

@@ -22,6 +22,7 @@ import type { CorrelationParameters, LikelihoodSetup } from './likelihood.ts';
 import type { SearchParameter } from './fit-search.ts';
 import type { FitComparisonRow } from './fit-anisotropy.ts';
 import { GapwiseError } from '../shared/errors.ts';
+import { fitWarnings, withoutFitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { fitModel } from './fit.ts';
 import { practicalRange } from '../covariance/covariance.ts';
 import { searchLikelihood } from './fit-search.ts';
@@ -105,9 +106,11 @@ export function nestedGuard(
 /**
  * Fits the one-structure model and the two-structure one with the same options (REML default, or
  * ML; a fixed Matérn ν applies to both structures) and applies the identifiability guard. Throws as
- * fitModel does, and GapwiseError 'bad-option' for method 'wls' or a free ν.
+ * fitModel does, and GapwiseError 'bad-option' for method 'wls' or a free ν. `singleFit`, when given,
+ * is fitModel's answer for these samples and options, already computed by the caller (it is then not
+ * fitted again).
  */
-export function fitNested(samples: Samples, options: FitOptions, onProgress?: FitProgress): NestedFit {
+export function fitNested(samples: Samples, options: FitOptions, onProgress?: FitProgress, singleFit?: CovarianceModel): NestedFit {
   const method = options.method ?? 'reml';
   if (method !== 'reml' && method !== 'ml') {
     throw new GapwiseError('bad-option', `Expected the method reml or ml to fit two structures by likelihood, got ${JSON.stringify(method)}.`);
@@ -116,7 +119,7 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
     throw new GapwiseError('bad-option', 'Expected a fixed Matérn ν for two structures (one ν for both), got "free"; give a number such as 1.5.');
   }
   const half = (offset: number): FitProgress | undefined => (onProgress ? (d, t) => onProgress(offset + d / t, 2) : undefined);
-  const single = fitModel(samples, options, half(0));
+  const single = singleFit ?? fitModel(samples, options, half(0));
   const one = single.structures.find((s) => s.type !== 'nugget') as CorrelatedStructure;
   const nuggetStructure = single.structures.find((s) => s.type === 'nugget');
   const withNugget = nuggetStructure !== undefined;
@@ -158,11 +161,11 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
   const k = singleParameters + 2;
   const aic = 2 * k - 2 * final.logLikelihood;
   const singleAic = single.fit!.aic ?? Infinity;
-  const warnings: string[] = [];
+  const warnings: FitWarning[] = [];
   if (Math.abs(Math.log(found.x[0] / parameters[0].upper!)) < 0.01) {
-    warnings.push(`The long scale reached its upper limit (${fmt(parameters[0].upper!)} m, 10 × the samples' extent): the data may hold a trend; consider a linear trend.`);
+    warnings.push({ code: 'scale-at-bound', message: `The long scale reached its upper limit (${fmt(parameters[0].upper!)} m, 10 × the samples' extent): the data may hold a trend; consider a linear trend.` });
   }
-  if (!found.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).`);
+  if (!found.converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${found.evaluations} likelihood evaluations on all samples).` });
   const sill = final.sigma2;
   const fit: FitInfo = {
     method, logLikelihood: final.logLikelihood, aic, converged: found.converged, iterations: found.iterations,
@@ -181,10 +184,10 @@ export function fitNested(samples: Samples, options: FitOptions, onProgress?: Fi
   fit.comparison = comparison;
   if (notIdentifiable) {
     const kept: CovarianceModel = { ...single, fit: { ...single.fit!, comparison, nestedNotIdentifiable: notIdentifiable } };
-    kept.fit!.warnings = [...(single.fit!.warnings ?? []),
-      `Two structures are not identifiable from these samples: ${reason}; the one-structure model is kept.`];
+    kept.fit!.warnings = [...fitWarnings(single.fit),
+      { code: 'nested-not-identifiable', message: `Two structures are not identifiable from these samples: ${reason}; the one-structure model is kept.` }];
     return { model: kept, single, nested, comparison, notIdentifiable };
   }
-  fit.warnings = [...(single.fit!.warnings ?? []).filter((w) => !/optimiser stopped/.test(w)), ...warnings];
+  fit.warnings = [...withoutFitWarnings(single.fit!.warnings, 'optimiser-stopped'), ...warnings];
   return { model: nested, single, nested, comparison };
 }

@@ -24,9 +24,10 @@
 import type { Anisotropy, CovarianceModel, Family, FitInfo, Structure, Trend } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import type { VariogramOptions } from './variogram.ts';
-import type { CorrelationParameters, Likelihood } from './likelihood.ts';
+import type { CorrelationParameters, Likelihood, LikelihoodSetup, LikelihoodValue } from './likelihood.ts';
 import type { ParameterSpace } from '../linalg/optimize.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
+import { fitWarning, withoutFitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { centroid, pickSamples } from '../shared/samples.ts';
 import { isCovariateTrend } from '../covariance/model.ts';
@@ -220,22 +221,22 @@ function evaluationCounter(onProgress: FitProgress, budgetsIn: number[]) {
 }
 
 /** Flags parameters that ended within 1 % (log scale) of a bound. */
-function boundWarnings(x: number[], L: SearchLayout, r: Resolved): string[] {
-  const out: string[] = [];
+function boundWarnings(x: number[], L: SearchLayout, r: Resolved): FitWarning[] {
+  const out: FitWarning[] = [];
   const near = (v: number, b: number | undefined) => b !== undefined && b > 0 && Math.abs(Math.log(v / b)) < 0.01;
   const [scaleSpace] = L.spaces;
   if (near(x[0], scaleSpace.upper)) {
-    out.push(`The scale reached its upper limit (${fmt(scaleSpace.upper!)} m, 10 × the largest sample distance): the data may hold a trend or the correlation length exceeds the sampled area; consider a linear trend.`);
+    out.push({ code: 'scale-at-bound', message: `The scale reached its upper limit (${fmt(scaleSpace.upper!)} m, 10 × the largest sample distance): the data may hold a trend or the correlation length exceeds the sampled area; consider a linear trend.` });
   }
   if (near(x[0], scaleSpace.lower)) {
-    out.push(`The scale reached its lower limit (${fmt(scaleSpace.lower!)} m): the samples show no spatial correlation at their spacing (pure nugget).`);
+    out.push({ code: 'scale-at-bound', message: `The scale reached its lower limit (${fmt(scaleSpace.lower!)} m): the samples show no spatial correlation at their spacing (pure nugget).` });
   }
   if (r.nugget && near(x[1], NUGGET_RATIO_BOUNDS.upper)) {
-    out.push('The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.');
+    out.push({ code: 'nugget-at-bound', message: 'The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.' });
   }
   if (r.nuFree) {
     const nu = x[x.length - 1];
-    if (near(nu, NU_BOUNDS.lower) || near(nu, NU_BOUNDS.upper)) out.push(`The smoothness ν reached its limit (${fmt(nu)}; allowed ${NU_BOUNDS.lower}–${NU_BOUNDS.upper}).`);
+    if (near(nu, NU_BOUNDS.lower) || near(nu, NU_BOUNDS.upper)) out.push({ code: 'smoothness-at-bound', message: `The smoothness ν reached its limit (${fmt(nu)}; allowed ${NU_BOUNDS.lower}–${NU_BOUNDS.upper}).` });
   }
   return out;
 }
@@ -258,6 +259,100 @@ function buildModel(r: Resolved, scale: number, nu: number | undefined, sill: nu
   if (r.anisotropy) model.anisotropy = { ...r.anisotropy };
   model.practicalRange = practicalRange(model);
   return model;
+}
+
+/** Likelihood evaluations and optimiser iterations of a fit, as its fit details report them. */
+interface Tally {
+  iterations: number;
+  /** Evaluations of the exact likelihood on all samples. */
+  evaluations: number;
+  /** Evaluations on the screening subset or of the nearest-neighbour likelihood. */
+  screenEvaluations: number;
+}
+
+type Point = { x: number[]; value: number; converged: boolean };
+
+/** The progress counter of a likelihood fit and the first stage of the screening ones. */
+interface Progression {
+  counter?: ReturnType<typeof evaluationCounter>;
+  tick?: () => void;
+  /** Stage index of the ranking that opens the screening stages. */
+  rank: number;
+}
+
+/**
+ * Screened fits (above SCREEN_ABOVE samples): the optima found on the subset are ranked on the next
+ * stage and the best is polished on all samples. Above MID_ABOVE samples the nearest-neighbour
+ * likelihood of all samples (./vecchia.ts, 30 neighbours: its optimum lies within a few per cent of
+ * the exact one, at about 1/100 of the cost of an exact evaluation) takes the optimum most of the way
+ * and Newton steps on the exact likelihood finish (Nelder–Mead when they do not converge); up to
+ * MID_ABOVE samples the screened optima are polished on all samples directly.
+ */
+function polishScreened(
+  samples: Samples, setup: LikelihoodSetup, L: SearchLayout, allowJitter: boolean, fFull: (x: number[]) => number,
+  candidates: Point[], fallback: number[], tally: Tally, progression: Progression, maxEvaluations?: number,
+): Point {
+  const { counter, tick, rank } = progression;
+  const d = L.spaces.length;
+  const near = samples.value.length > MID_ABOVE;
+  const fTolerance = (scaleOf: number) => 1e-3 / Math.max(1, Math.abs(scaleOf));
+  const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
+  const fStage = nearLik ? negLogLik(nearLik, L, allowJitter, tick) : fFull;
+  counter?.goTo(rank);
+  let best: Point | undefined;
+  let top = { x: candidates[0].x, value: Infinity };
+  for (const c of candidates) {
+    const v = fStage(c.x);
+    if (nearLik) tally.screenEvaluations++;
+    else tally.evaluations++;
+    if (v < top.value) top = { x: c.x, value: v };
+  }
+  if (!Number.isFinite(top.value)) top = { x: fallback, value: fStage(fallback) };
+  let step = 0.2;
+  counter?.goTo(rank + 1);
+  if (nearLik) {
+    const res = minimizeBounded(fStage, top.x, L.spaces, {
+      step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
+    });
+    tally.iterations += res.iterations;
+    tally.screenEvaluations += res.evaluations;
+    counter?.goTo(rank + 2);
+    const refined = newtonRefine(fFull, res.x, L.spaces);
+    tally.iterations += refined.iterations;
+    tally.evaluations += refined.evaluations;
+    top = { x: refined.x, value: refined.value };
+    if (refined.converged) best = { x: refined.x, value: refined.value, converged: true };
+    step = 0.1;
+  }
+  counter?.goTo(rank + 3);
+  if (!best) {
+    const res = minimizeBounded(fFull, top.x, L.spaces, {
+      step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
+    });
+    tally.iterations += res.iterations;
+    tally.evaluations += res.evaluations;
+    best = res.value <= top.value || !Number.isFinite(top.value)
+      ? { x: res.x, value: res.value, converged: res.converged }
+      : { x: top.x, value: top.value, converged: res.converged };
+  }
+  return best;
+}
+
+/** The model at the optimum x, with its fit details and warnings (not converged, a bound reached, jitter). */
+function likelihoodModel(r: Resolved, lik: Likelihood, L: SearchLayout, best: Point, final: LikelihoodValue, tally: Tally): CovarianceModel {
+  const theta = L.toTheta(best.x);
+  const warnings: FitWarning[] = [];
+  if (!best.converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${tally.evaluations} likelihood evaluations); the fit may be improved by more starts.` });
+  warnings.push(...boundWarnings(best.x, L, r));
+  if (final.jitter > 0) warnings.push({ code: 'jitter', message: `The correlation matrix was not numerically positive definite; ${final.jitter.toExponential(0)} was added to its diagonal (consider a nugget).` });
+  const k = parameterCount(r);
+  const fit: FitInfo = {
+    method: r.method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood, converged: best.converged,
+    iterations: tally.iterations, n: lik.n, warnings, parameters: k, evaluations: tally.evaluations, screenEvaluations: tally.screenEvaluations,
+    trendCoefficients: final.beta, centre: lik.centre,
+  };
+  const sill = final.sigma2;
+  return buildModel(r, theta.scale, theta.nu, sill, theta.nuggetRatio * sill, fit);
 }
 
 /** REML or ML: multi-start Nelder–Mead on the profiled likelihood. */
@@ -307,15 +402,13 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
   if (!Number.isFinite(grid[0].value)) {
     throw new GapwiseError('fit-failed', `No starting value gave a finite likelihood for the ${r.family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
-  let iterations = 0;
-  let evaluations = grid.length * (screening ? 0 : 1);
-  let screenEvaluations = screening ? grid.length : 0;
+  const tally: Tally = { iterations: 0, evaluations: grid.length * (screening ? 0 : 1), screenEvaluations: screening ? grid.length : 0 };
   const fFull = negLogLik(lik, L, allowJitter, tick);
   // Absolute tolerance on ℓ of about 1e-3 (immaterial next to AIC differences; a parameter error of
   // a few per cent of its standard error), relative to its size.
   const fTolerance = (scaleOf: number) => 1e-3 / Math.max(1, Math.abs(scaleOf));
 
-  const candidates: { x: number[]; value: number; converged: boolean }[] = [];
+  const candidates: Point[] = [];
   for (const start of grid.slice(0, r.starts)) {
     if (!Number.isFinite(start.value)) break;
     counter?.goTo(candidates.length + 1);
@@ -323,82 +416,22 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
       step: 0.7, restarts: screening ? 0 : 1, xTolerance: screening ? 0.1 : 0.01,
       fTolerance: screening ? 1e-2 / Math.max(1, Math.abs(start.value)) : fTolerance(start.value), maxEvaluations: maxEvaluations ?? 150 * d,
     });
-    iterations += res.iterations;
-    if (screening) screenEvaluations += res.evaluations;
-    else evaluations += res.evaluations;
+    tally.iterations += res.iterations;
+    if (screening) tally.screenEvaluations += res.evaluations;
+    else tally.evaluations += res.evaluations;
     candidates.push({ x: res.x, value: res.value, converged: res.converged });
     if (candidates.length === 1) counter?.cap(2, starts, 2 * res.evaluations);
   }
 
-  let best: { x: number[]; value: number; converged: boolean } | undefined;
-  if (screening) {
-    // Above 1,000 samples the nearest-neighbour likelihood of all samples (./vecchia.ts, 30
-    // neighbours: its optimum lies within a few per cent of the exact one, at about 1/100 of the
-    // cost of an exact evaluation) takes the optimum most of the way; Newton steps on the exact
-    // likelihood finish (Nelder–Mead when they do not converge). Up to 1,000 samples the screened
-    // optima are polished on all samples directly.
-    const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
-    const fStage = nearLik ? negLogLik(nearLik, L, allowJitter, tick) : fFull;
-    counter?.goTo(RANK);
-    // Rank the screened optima on the next stage, then polish the best there.
-    let top = { x: candidates[0].x, value: Infinity };
-    for (const c of candidates) {
-      const v = fStage(c.x);
-      if (nearLik) screenEvaluations++;
-      else evaluations++;
-      if (v < top.value) top = { x: c.x, value: v };
-    }
-    if (!Number.isFinite(top.value)) top = { x: grid[0].x, value: fStage(grid[0].x) };
-    let step = 0.2;
-    counter?.goTo(RANK + 1);
-    if (nearLik) {
-      const res = minimizeBounded(fStage, top.x, L.spaces, {
-        step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
-      });
-      iterations += res.iterations;
-      screenEvaluations += res.evaluations;
-      counter?.goTo(RANK + 2);
-      const refined = newtonRefine(fFull, res.x, L.spaces);
-      iterations += refined.iterations;
-      evaluations += refined.evaluations;
-      top = { x: refined.x, value: refined.value };
-      if (refined.converged) best = { x: refined.x, value: refined.value, converged: true };
-      step = 0.1;
-    }
-    counter?.goTo(RANK + 3);
-    if (!best) {
-      const res = minimizeBounded(fFull, top.x, L.spaces, {
-        step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
-      });
-      iterations += res.iterations;
-      evaluations += res.evaluations;
-      best = res.value <= top.value || !Number.isFinite(top.value)
-        ? { x: res.x, value: res.value, converged: res.converged }
-        : { x: top.x, value: top.value, converged: res.converged };
-    }
-  } else {
-    candidates.sort((a, b) => a.value - b.value);
-    best = candidates[0];
-  }
+  const best = screening
+    ? polishScreened(samples, setup, L, allowJitter, fFull, candidates, grid[0].x, tally, { counter, tick, rank: RANK }, maxEvaluations)
+    : candidates.sort((a, b) => a.value - b.value)[0];
   if (!Number.isFinite(best.value)) {
     throw new GapwiseError('fit-failed', `The optimiser found no finite likelihood for the ${r.family} model (${n} samples): ${numericalFailureAdvice(samples.x, samples.y, samples.value)}.`);
   }
-
-  const theta = L.toTheta(best.x);
-  const final = lik.evaluate(theta, { allowJitter });
+  const final = lik.evaluate(L.toTheta(best.x), { allowJitter });
   counter?.finish();
-  const warnings: string[] = [];
-  if (!best.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations); the fit may be improved by more starts.`);
-  warnings.push(...boundWarnings(best.x, L, r));
-  if (final.jitter > 0) warnings.push(`The correlation matrix was not numerically positive definite; ${final.jitter.toExponential(0)} was added to its diagonal (consider a nugget).`);
-  const k = parameterCount(r);
-  const fit: FitInfo = {
-    method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood, converged: best.converged,
-    iterations, n, warnings, parameters: k, evaluations, screenEvaluations,
-    trendCoefficients: final.beta, centre: lik.centre,
-  };
-  const sill = final.sigma2;
-  return buildModel(r, theta.scale, theta.nu, sill, theta.nuggetRatio * sill, fit);
+  return likelihoodModel(r, lik, L, best, final, tally);
 }
 
 /** Residuals from an ordinary least-squares plane in centred coordinates (for the WLS variogram). */
@@ -602,13 +635,13 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
   });
   onProgress?.(2, 3);
   const { scale, sill, nugget, nu } = w;
-  const warnings: string[] = v.warnings.map((x) => x.message);
-  if (!w.converged) warnings.push('The weighted least-squares search stopped before meeting its tolerance.');
+  const warnings: FitWarning[] = v.warnings.map((x) => fitWarning(x as FitWarning));
+  if (!w.converged) warnings.push({ code: 'optimiser-stopped', message: 'The weighted least-squares search stopped before meeting its tolerance.' });
   const L = layout(r, v.maxDistance);
   const xEnd = [scale];
   if (r.nugget) xEnd.push(Math.max(nugget / sill, NUGGET_RATIO_BOUNDS.lower));
   if (r.nuFree) xEnd.push(nu!);
-  warnings.push(...boundWarnings(xEnd, L, r).filter((x) => !x.startsWith('The nugget reached')));
+  warnings.push(...withoutFitWarnings(boundWarnings(xEnd, L, r), 'nugget-at-bound'));
   const k = parameterCount(r);
   const fit: FitInfo = {
     method: 'wls', converged: w.converged, iterations: w.iterations, n, warnings, parameters: k,
@@ -622,14 +655,14 @@ function fitByWls(samples: Samples, r: Resolved, variogramOptions: VariogramOpti
     if (value.jitter > 0 || !Number.isFinite(value.logLikelihood)) {
       // With values added to the diagonal the likelihood is that of another model: none is reported
       // rather than a number that does not describe this fit.
-      warnings.push('No likelihood reported: at the least-squares parameters the samples\' correlations are too close to singular (almost no nugget with a smooth, long-range model); compare this fit by its cross-validation instead.');
+      warnings.push({ code: 'no-likelihood', message: 'No likelihood reported: at the least-squares parameters the samples\' correlations are too close to singular (almost no nugget with a smooth, long-range model); compare this fit by its cross-validation instead.' });
     } else {
       fit.likelihoodMethod = 'reml';
       fit.logLikelihood = value.logLikelihood;
       fit.aic = 2 * k - 2 * value.logLikelihood;
     }
   } else {
-    warnings.push(`No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.`);
+    warnings.push({ code: 'no-likelihood', message: `No likelihood reported: the exact likelihood is limited to ${MAX_EXACT_SAMPLES.toLocaleString('en-US')} samples.` });
   }
   onProgress?.(3, 3);
   return buildModel(r, scale, nu, sill, nugget, fit);
@@ -673,7 +706,7 @@ export const CANDIDATES: ReadonlyArray<{ family: Family; nu?: number | 'free' }>
  */
 export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'family' | 'nu'> = {}, onProgress?: FitProgress): CovarianceModel[] {
   const models: CovarianceModel[] = [];
-  const failures: string[] = [];
+  const failures: FitWarning[] = [];
   const total = CANDIDATES.length;
   let shown = 0;
   const report = (done: number) => {
@@ -689,14 +722,14 @@ export function fitCandidates(samples: Samples, options: Omit<FitOptions, 'famil
       models.push(fitModel(samples, { ...options, family: c.family, nu: c.nu }, inner));
     } catch (e) {
       if (e instanceof GapwiseError && (e.code === 'fit-failed' || e.code === 'not-positive-definite')) {
-        failures.push(`The ${c.family}${c.nu !== undefined ? ` (ν ${c.nu})` : ''} candidate could not be fitted: ${e.message}`);
+        failures.push({ code: 'candidate-failed', message: `The ${c.family}${c.nu !== undefined ? ` (ν ${c.nu})` : ''} candidate could not be fitted: ${e.message}` });
       } else {
         throw e;
       }
     }
     if (onProgress) report(i + 1);
   }
-  if (models.length === 0) throw new GapwiseError('fit-failed', `None of the ${CANDIDATES.length} candidate models could be fitted. ${failures.join(' ')}`);
+  if (models.length === 0) throw new GapwiseError('fit-failed', `None of the ${CANDIDATES.length} candidate models could be fitted. ${failures.map((f) => f.message).join(' ')}`);
   for (const m of models) m.fit!.warnings = [...(m.fit!.warnings ?? []), ...failures];
   const aic = (m: CovarianceModel) => (typeof m.fit?.aic === 'number' && Number.isFinite(m.fit.aic) ? m.fit.aic : Infinity);
   return models.sort((a, b) => aic(a) - aic(b));

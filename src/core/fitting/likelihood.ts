@@ -93,15 +93,19 @@ const LN_2PI = Math.log(2 * Math.PI);
  */
 export type CorrelationModelAt = (theta: CorrelationParameters) => CovarianceModel;
 
-/**
- * Prepares the likelihood of `samples` under `setup`: centres the coordinates, packs the pairwise
- * distances and allocates the n×n work matrix once, so each `evaluate` is one fill and one Cholesky.
- * With `correlationAt` the matrix R is that model's sample covariance (covariance.ts) at each θ
- * instead of setup's one family: the same profiled likelihood for richer correlation models.
- */
-export function createLikelihood(samples: Samples, setup: LikelihoodSetup, correlationAt?: CorrelationModelAt): Likelihood {
+/** Coordinates centred on the sample centroid and the packed pairwise (effective) distances. */
+interface PairGeometry {
+  cx: number;
+  cy: number;
+  xs: Float64Array;
+  ys: Float64Array;
+  /** Packed strict lower triangle, row by row: pair (i, j), j < i, at i(i−1)/2 + j. */
+  dist: Float64Array;
+  maxDistance: number;
+}
+
+function pairGeometry(samples: Samples, anisotropy?: Anisotropy): PairGeometry {
   const n = samples.value.length;
-  const method: LikelihoodMethod = setup.method ?? 'reml';
   const { cx, cy } = centroid(samples.x, samples.y);
   const xs = new Float64Array(n);
   const ys = new Float64Array(n);
@@ -109,18 +113,21 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup, corre
     xs[i] = samples.x[i] - cx;
     ys[i] = samples.y[i] - cy;
   }
-  // Packed strict lower triangle, row by row: pair (i, j), j < i, at i(i−1)/2 + j.
   const dist = new Float64Array((n * (n - 1)) / 2);
   let maxDistance = 0;
   for (let i = 1, k = 0; i < n; i++) {
     for (let j = 0; j < i; j++, k++) {
-      const h = effectiveDistance(xs[i] - xs[j], ys[i] - ys[j], setup.anisotropy);
+      const h = effectiveDistance(xs[i] - xs[j], ys[i] - ys[j], anisotropy);
       dist[k] = h;
       if (h > maxDistance) maxDistance = h;
     }
   }
+  return { cx, cy, xs, ys, dist, maxDistance };
+}
 
-  const trend = setup.trend;
+/** The values less a known mean (y0) and the trend's columns of X: 1, centred x and y, centred covariates. */
+function trendDesign(samples: Samples, trend: Trend, xs: Float64Array, ys: Float64Array): { y0: Float64Array; columns: Float64Array[] } {
+  const n = samples.value.length;
   const known = isKnownTrend(trend);
   const p = trendColumnCount(trend);
   const y0 = new Float64Array(n);
@@ -141,16 +148,19 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup, corre
       columns.push(col);
     }
   }
+  return { y0, columns };
+}
 
-  const R = new Float64Array(n * n);
-  const yt = new Float64Array(n);
-  const Xt = columns.map(() => new Float64Array(n));
-  const A = new Float64Array(p * p);
-  const b = new Float64Array(p);
+/** Writes R(θ) (+ extraDiagonal on the diagonal) into the lower triangle of the n×n work matrix. */
+type CorrelationFill = (theta: CorrelationParameters, extraDiagonal: number) => void;
 
-  // Only the lower triangle is filled: choleskyInPlace reads no more. The closed forms are inlined
-  // (the same formulas as covariance.ts `correlation`, about 3× faster than a call per pair).
-  const fill = (theta: CorrelationParameters, extraDiagonal: number): void => {
+/**
+ * The fill of setup's one family from the packed distances. Only the lower triangle is filled:
+ * choleskyInPlace reads no more. The closed forms are inlined (the same formulas as covariance.ts
+ * `correlation`, about 3× faster than a call per pair).
+ */
+function familyFill(setup: LikelihoodSetup, dist: Float64Array, n: number, R: Float64Array): CorrelationFill {
+  return (theta, extraDiagonal) => {
     const nu = theta.nu ?? setup.nu ?? 1.5;
     const family = setup.family;
     const diag = 1 + theta.nuggetRatio + extraDiagonal;
@@ -197,84 +207,144 @@ export function createLikelihood(samples: Samples, setup: LikelihoodSetup, corre
       R[row + i] = diag;
     }
   };
+}
 
-  const fillFromModel = (theta: CorrelationParameters, extraDiagonal: number): void => {
-    sampleCovarianceLowerInto(correlationAt!(theta), xs, ys, R);
+/**
+ * The fill of a richer correlation model (covariance.ts). A fixed ν (none in θ) is the same for every
+ * evaluation: the general-ν Matérn then comes from its table (built once), not from one K_ν per
+ * pair; a ν searched over changes at every evaluation.
+ */
+function modelFill(correlationAt: CorrelationModelAt, xs: Float64Array, ys: Float64Array, n: number, R: Float64Array): CorrelationFill {
+  return (theta, extraDiagonal) => {
+    sampleCovarianceLowerInto(correlationAt(theta), xs, ys, R, { tabulate: theta.nu === undefined });
     if (extraDiagonal !== 0) for (let i = 0; i < n; i++) R[i * n + i] += extraDiagonal;
   };
-  const fillAt = correlationAt ? fillFromModel : fill;
+}
+
+/**
+ * Fills and factorises R = LLᵀ in place; with `allowJitter`, when it cannot be factorised, adds 1e-10,
+ * 1e-9, … up to 1e-6 to its diagonal until it can. Returns whether it was factorised and what was added.
+ */
+function factorCorrelation(fill: CorrelationFill, R: Float64Array, n: number, theta: CorrelationParameters, allowJitter?: boolean): { ok: boolean; jitter: number } {
+  let jitter = 0;
+  fill(theta, 0);
+  let ok = choleskyInPlace(R, n);
+  if (!ok && allowJitter) {
+    for (let add = 1e-10; add <= 1.0001e-6 && !ok; add *= 10) {
+      fill(theta, add);
+      ok = choleskyInPlace(R, n);
+      jitter = add;
+    }
+  }
+  return { ok, jitter };
+}
+
+/** Work arrays of the generalised least squares, allocated once per likelihood. */
+interface GlsWork {
+  yt: Float64Array;
+  Xt: Float64Array[];
+  A: Float64Array;
+  b: Float64Array;
+}
+
+/**
+ * Generalised least squares through the factor L of R: ỹ = L⁻¹y, X̃ = L⁻¹X, β̂ from A = X̃ᵀX̃,
+ * b = X̃ᵀỹ by A's own (p×p) Cholesky factor, ln|XᵀR⁻¹X| = ln|A| and Q = |ỹ − X̃β̂|² (summed directly
+ * rather than as ỹᵀỹ − bᵀβ̂: no cancellation). Null when A cannot be factorised.
+ */
+function generalisedLeastSquares(
+  R: Float64Array, n: number, y0: Float64Array, columns: Float64Array[], w: GlsWork,
+): { beta: number[]; logDetInformation: number; quadraticForm: number } | null {
+  const p = columns.length;
+  const { yt, Xt, A, b } = w;
+  yt.set(y0);
+  solveLowerInPlace(R, n, yt);
+  for (let c = 0; c < p; c++) {
+    Xt[c].set(columns[c]);
+    solveLowerInPlace(R, n, Xt[c]);
+  }
+  for (let r = 0; r < p; r++) {
+    let sb = 0;
+    for (let i = 0; i < n; i++) sb += Xt[r][i] * yt[i];
+    b[r] = sb;
+    for (let c = 0; c <= r; c++) {
+      let sa = 0;
+      for (let i = 0; i < n; i++) sa += Xt[r][i] * Xt[c][i];
+      A[r * p + c] = sa;
+      A[c * p + r] = sa;
+    }
+  }
+  let logDetInformation = 0;
+  const beta: number[] = [];
+  if (p > 0) {
+    if (!choleskyInPlace(A, p)) return null;
+    for (let i = 0; i < p; i++) logDetInformation += 2 * Math.log(A[i * p + i]);
+    const z = Float64Array.from(b);
+    solveLowerInPlace(A, p, z);
+    for (let i = p - 1; i >= 0; i--) {
+      let s = z[i];
+      for (let k = i + 1; k < p; k++) s -= A[k * p + i] * z[k];
+      z[i] = s / A[i * p + i];
+    }
+    beta.push(...z);
+  }
+  let Q = 0;
+  for (let i = 0; i < n; i++) {
+    let r = yt[i];
+    for (let c = 0; c < p; c++) r -= Xt[c][i] * beta[c];
+    Q += r * r;
+  }
+  return { beta, logDetInformation, quadraticForm: Q };
+}
+
+/** ℓ from its parts: profiled over σ² (σ̂² = Q/dof), or at a given σ²; −∞ when not finite. */
+function logLikelihoodFromParts(
+  method: LikelihoodMethod, n: number, p: number, logDetR: number, logDetInformation: number, Q: number, sigma2?: number,
+): { logLikelihood: number; sigma2Hat: number } {
+  const dof = method === 'reml' ? n - p : n;
+  const sigma2Hat = Q / dof;
+  const extra = method === 'reml' ? logDetInformation : 0;
+  let logLikelihood: number;
+  if (sigma2 === undefined) {
+    logLikelihood = -0.5 * (dof * (Math.log(sigma2Hat) + 1 + LN_2PI) + logDetR + extra);
+  } else {
+    logLikelihood = -0.5 * (dof * (LN_2PI + Math.log(sigma2)) + logDetR + extra + Q / sigma2);
+  }
+  if (!Number.isFinite(logLikelihood)) logLikelihood = -Infinity;
+  return { logLikelihood, sigma2Hat };
+}
+
+/**
+ * Prepares the likelihood of `samples` under `setup`: centres the coordinates, packs the pairwise
+ * distances and allocates the n×n work matrix once, so each `evaluate` is one fill and one Cholesky.
+ * With `correlationAt` the matrix R is that model's sample covariance (covariance.ts) at each θ
+ * instead of setup's one family: the same profiled likelihood for richer correlation models.
+ */
+export function createLikelihood(samples: Samples, setup: LikelihoodSetup, correlationAt?: CorrelationModelAt): Likelihood {
+  const n = samples.value.length;
+  const method: LikelihoodMethod = setup.method ?? 'reml';
+  const { cx, cy, xs, ys, dist, maxDistance } = pairGeometry(samples, setup.anisotropy);
+  const p = trendColumnCount(setup.trend);
+  const { y0, columns } = trendDesign(samples, setup.trend, xs, ys);
+  const R = new Float64Array(n * n);
+  const work: GlsWork = { yt: new Float64Array(n), Xt: columns.map(() => new Float64Array(n)), A: new Float64Array(p * p), b: new Float64Array(p) };
+  const fill = correlationAt ? modelFill(correlationAt, xs, ys, n, R) : familyFill(setup, dist, n, R);
 
   const evaluate = (theta: CorrelationParameters, options: { sigma2?: number; allowJitter?: boolean } = {}): LikelihoodValue => {
-    let jitter = 0;
-    fillAt(theta, 0);
-    let ok = choleskyInPlace(R, n);
-    if (!ok && options.allowJitter) {
-      for (let add = 1e-10; add <= 1.0001e-6 && !ok; add *= 10) {
-        fillAt(theta, add);
-        ok = choleskyInPlace(R, n);
-        jitter = add;
-      }
-    }
+    const { ok, jitter } = factorCorrelation(fill, R, n, theta, options.allowJitter);
     if (!ok) {
       return { logLikelihood: -Infinity, sigma2: NaN, beta: [], logDetR: NaN, logDetInformation: NaN, quadraticForm: NaN, jitter };
     }
     let logDetR = 0;
     for (let i = 0; i < n; i++) logDetR += Math.log(R[i * n + i]);
     logDetR *= 2;
-
-    yt.set(y0);
-    solveLowerInPlace(R, n, yt);
-    for (let c = 0; c < p; c++) {
-      Xt[c].set(columns[c]);
-      solveLowerInPlace(R, n, Xt[c]);
+    const gls = generalisedLeastSquares(R, n, y0, columns, work);
+    if (!gls) {
+      return { logLikelihood: -Infinity, sigma2: NaN, beta: [], logDetR, logDetInformation: NaN, quadraticForm: NaN, jitter };
     }
-    // A = X̃ᵀX̃, b = X̃ᵀỹ; β̂ = A⁻¹b through A's own (p×p) Cholesky factor.
-    for (let r = 0; r < p; r++) {
-      let sb = 0;
-      for (let i = 0; i < n; i++) sb += Xt[r][i] * yt[i];
-      b[r] = sb;
-      for (let c = 0; c <= r; c++) {
-        let sa = 0;
-        for (let i = 0; i < n; i++) sa += Xt[r][i] * Xt[c][i];
-        A[r * p + c] = sa;
-        A[c * p + r] = sa;
-      }
-    }
-    let logDetInformation = 0;
-    const beta: number[] = [];
-    if (p > 0) {
-      if (!choleskyInPlace(A, p)) {
-        return { logLikelihood: -Infinity, sigma2: NaN, beta: [], logDetR, logDetInformation: NaN, quadraticForm: NaN, jitter };
-      }
-      for (let i = 0; i < p; i++) logDetInformation += 2 * Math.log(A[i * p + i]);
-      const z = Float64Array.from(b);
-      solveLowerInPlace(A, p, z);
-      for (let i = p - 1; i >= 0; i--) {
-        let s = z[i];
-        for (let k = i + 1; k < p; k++) s -= A[k * p + i] * z[k];
-        z[i] = s / A[i * p + i];
-      }
-      beta.push(...z);
-    }
-    // Q = |ỹ − X̃β̂|², summed directly rather than as ỹᵀỹ − bᵀβ̂ (no cancellation).
-    let Q = 0;
-    for (let i = 0; i < n; i++) {
-      let r = yt[i];
-      for (let c = 0; c < p; c++) r -= Xt[c][i] * beta[c];
-      Q += r * r;
-    }
-    const dof = method === 'reml' ? n - p : n;
-    const sigma2Hat = Q / dof;
-    const extra = method === 'reml' ? logDetInformation : 0;
-    let logLikelihood: number;
-    if (options.sigma2 === undefined) {
-      logLikelihood = -0.5 * (dof * (Math.log(sigma2Hat) + 1 + LN_2PI) + logDetR + extra);
-    } else {
-      const s2 = options.sigma2;
-      logLikelihood = -0.5 * (dof * (LN_2PI + Math.log(s2)) + logDetR + extra + Q / s2);
-    }
-    if (!Number.isFinite(logLikelihood)) logLikelihood = -Infinity;
-    return { logLikelihood, sigma2: sigma2Hat, beta, logDetR, logDetInformation, quadraticForm: Q, jitter };
+    const { logDetInformation, quadraticForm, beta } = gls;
+    const { logLikelihood, sigma2Hat } = logLikelihoodFromParts(method, n, p, logDetR, logDetInformation, quadraticForm, options.sigma2);
+    return { logLikelihood, sigma2: sigma2Hat, beta, logDetR, logDetInformation, quadraticForm, jitter };
   };
 
   return { n, p, method, centre: { cx, cy }, maxDistance, evaluate };

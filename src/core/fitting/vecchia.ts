@@ -22,6 +22,7 @@ import type { Samples } from '../shared/samples.ts';
 import { pickSamples } from '../shared/samples.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
 import { GapwiseError, type Warning } from '../shared/errors.ts';
+import type { FitWarning } from '../covariance/fit-warnings.ts';
 import { choleskyInPlace, solveLowerInPlace } from '../linalg/linalg.ts';
 import { correlationFunction, covarianceFunction, practicalRange, surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
 import { nuggetOf } from '../covariance/model.ts';
@@ -525,7 +526,22 @@ function subsample(samples: Samples, size: number, seed: number): Samples {
  * samples (for a progress line; the number of passes is not known ahead). Throws GapwiseError
  * ('bad-option', 'too-few-samples', 'constant-values', 'bad-value', 'fit-failed').
  */
-export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads; onPass?: () => void } = {}): VecchiaFitResult {
+/** The options of a nearest-neighbour fit, checked, with their defaults. */
+interface VecchiaResolved {
+  family: Family;
+  method: 'reml' | 'ml';
+  nuFree: boolean;
+  nuFixed?: number;
+  trend: Trend;
+  p: number;
+  fitNugget: boolean;
+  m: number;
+  starts: number;
+  n: number;
+}
+
+/** Checks the options and the samples (GapwiseError 'bad-option', 'bad-value', 'too-few-samples', 'constant-values'). */
+function resolveVecchiaFit(samples: Samples, options: VecchiaFitOptions): VecchiaResolved {
   if (typeof options !== 'object' || options === null) throw new GapwiseError('bad-option', 'Expected fit options as an object.');
   const family: Family = options.family;
   if (!['matern', 'exponential', 'spherical', 'gaussian'].includes(family)) {
@@ -569,6 +585,12 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   for (let i = 1; i < n && same; i++) same = samples.value[i] === samples.value[0];
   if (same) throw new GapwiseError('constant-values', `All ${n} values equal ${samples.value[0]}: there is no variation to model; expected at least two different values.`);
 
+  return { family, method, nuFree, nuFixed, trend, p, fitNugget, m, starts, n };
+}
+
+export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads; onPass?: () => void } = {}): VecchiaFitResult {
+  const r = resolveVecchiaFit(samples, options);
+  const { family, method, nuFree, nuFixed, trend, p, fitNugget, m, starts, n } = r;
   const setup: VecchiaSetup = { family, nu: nuFixed, trend, method, anisotropy: options.anisotropy, neighbors: m };
   const full = createVecchiaLikelihood(samples, setup, hooks.threads);
   if (!(full.maxDistance > 0)) throw new GapwiseError('too-few-samples', `Expected samples at two or more distinct places, got all ${n} at one place.`);
@@ -671,30 +693,51 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
 
   const theta = toTheta(best.x);
   const final = full.evaluate(theta, { allowJitter });
-  const sigma2 = final.sigma2;
-  const warnings: string[] = [];
-  if (!best.converged) warnings.push(`The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations on all samples).`);
+  const warnings = vecchiaWarnings(theta, spaces[0], fitNugget, best.converged, evaluations, final.jitter);
+  return vecchiaModel(r, theta, final, options.anisotropy, {
+    converged: best.converged, iterations, n, warnings, evaluations, coarseEvaluations, screenEvaluations,
+    neighbors: full.neighbors, centre: full.centre,
+  });
+}
+
+/** The warnings of a nearest-neighbour fit: not converged, the scale or the nugget at a bound, jitter added. */
+function vecchiaWarnings(
+  theta: CorrelationParameters, scaleSpace: ParameterSpace, fitNugget: boolean, converged: boolean, evaluations: number, jitter: number,
+): FitWarning[] {
+  const warnings: FitWarning[] = [];
+  if (!converged) warnings.push({ code: 'optimiser-stopped', message: `The optimiser stopped before meeting its tolerance (${evaluations} likelihood evaluations on all samples).` });
   const near = (v: number, b: number | undefined) => b !== undefined && b > 0 && Math.abs(Math.log(v / b)) < 0.01;
-  if (near(theta.scale, spaces[0].upper)) warnings.push(`The scale reached its upper limit (${theta.scale.toPrecision(4)} m, 10 × the extent of the samples): the data may hold a trend; consider a linear trend.`);
-  if (near(theta.scale, spaces[0].lower)) warnings.push(`The scale reached its lower limit (${theta.scale.toPrecision(4)} m): the samples show no spatial correlation at their spacing.`);
-  if (fitNugget && near(theta.nuggetRatio, NUGGET_RATIO_BOUNDS.upper)) warnings.push('The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.');
-  if (final.jitter > 0) warnings.push(`Some neighbourhood correlation matrices were not numerically positive definite; up to ${final.jitter.toExponential(0)} was added to their diagonal (consider a nugget).`);
-  const k = 2 + (fitNugget ? 1 : 0) + (nuFree ? 1 : 0) + p;
+  if (near(theta.scale, scaleSpace.upper)) warnings.push({ code: 'scale-at-bound', message: `The scale reached its upper limit (${theta.scale.toPrecision(4)} m, 10 × the extent of the samples): the data may hold a trend; consider a linear trend.` });
+  if (near(theta.scale, scaleSpace.lower)) warnings.push({ code: 'scale-at-bound', message: `The scale reached its lower limit (${theta.scale.toPrecision(4)} m): the samples show no spatial correlation at their spacing.` });
+  if (fitNugget && near(theta.nuggetRatio, NUGGET_RATIO_BOUNDS.upper)) warnings.push({ code: 'nugget-at-bound', message: 'The nugget reached 1,000 × the partial sill: the samples show almost no spatial structure.' });
+  if (jitter > 0) warnings.push({ code: 'jitter', message: `Some neighbourhood correlation matrices were not numerically positive definite; up to ${jitter.toExponential(0)} was added to their diagonal (consider a nugget).` });
+  return warnings;
+}
+
+/** The fitted model of a nearest-neighbour fit at θ, with its fit details (method 'nnl'). */
+function vecchiaModel(
+  r: VecchiaResolved, theta: CorrelationParameters, final: { sigma2: number; logLikelihood: number; beta: number[] }, anisotropy: Anisotropy | undefined,
+  details: { converged: boolean; iterations: number; n: number; warnings: FitWarning[]; evaluations: number; coarseEvaluations: number; screenEvaluations: number; neighbors: number; centre: { cx: number; cy: number } },
+): VecchiaFitResult {
+  const sigma2 = final.sigma2;
+  const k = 2 + (r.fitNugget ? 1 : 0) + (r.nuFree ? 1 : 0) + r.p;
   const structures: Structure[] = [];
-  if (fitNugget) structures.push({ type: 'nugget', sill: theta.nuggetRatio * sigma2 });
-  const main: Structure = { type: family, sill: sigma2, scale: theta.scale };
-  if (family === 'matern') main.nu = theta.nu ?? nuFixed ?? 1.5;
+  if (r.fitNugget) structures.push({ type: 'nugget', sill: theta.nuggetRatio * sigma2 });
+  const main: Structure = { type: r.family, sill: sigma2, scale: theta.scale };
+  if (r.family === 'matern') main.nu = theta.nu ?? r.nuFixed ?? 1.5;
   structures.push(main);
+  const d = details;
   const model: CovarianceModel = {
-    structures, trend, transform: 'none',
+    structures, trend: r.trend, transform: 'none',
     fit: {
-      method: 'nnl', likelihood: method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood,
-      converged: best.converged, iterations, n, warnings, parameters: k, evaluations, coarseEvaluations, screenEvaluations,
-      neighbors: full.neighbors, trendCoefficients: final.beta, centre: full.centre,
-      note: `fitted with a nearest-neighbour likelihood on ${n.toLocaleString('en-US')} samples (${full.neighbors} neighbours)`,
+      method: 'nnl', likelihood: r.method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood,
+      converged: d.converged, iterations: d.iterations, n: d.n, warnings: d.warnings, parameters: k, evaluations: d.evaluations,
+      coarseEvaluations: d.coarseEvaluations, screenEvaluations: d.screenEvaluations,
+      neighbors: d.neighbors, trendCoefficients: final.beta, centre: d.centre,
+      note: `fitted with a nearest-neighbour likelihood on ${d.n.toLocaleString('en-US')} samples (${d.neighbors} neighbours)`,
     },
   };
-  if (options.anisotropy) model.anisotropy = { ...options.anisotropy };
+  if (anisotropy) model.anisotropy = { ...anisotropy };
   model.practicalRange = practicalRange(model);
   return model as VecchiaFitResult;
 }

@@ -12,7 +12,7 @@ import { GapwiseError } from '../../core/shared/errors.ts';
 
 import { LatestRequest } from './latest-request.ts';
 import { specByKey } from './structure.ts';
-import type { RichChoice } from './rich-fit.ts';
+import { hasTwoRanges, structureChoiceOf, type RichChoice } from './rich-fit.ts';
 import * as engine from './engine.ts';
 import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
@@ -50,7 +50,7 @@ export function richFitOptions(key: string, choice: Exclude<RichChoice, 'none'>,
   const options: FitOptions = { family: spec.family, method: 'reml' };
   if (spec.family === 'matern') {
     options.nu = spec.nu ?? 1.5;
-    if (choice === 'nested' && options.nu === 'free') {
+    if (hasTwoRanges(choice) && options.nu === 'free') {
       const corr = fitted?.structures.find((s) => s.type === 'matern') as { nu?: number } | undefined;
       options.nu = corr?.nu ?? 1.5;
     }
@@ -78,7 +78,7 @@ export class RichFitState {
       }
       const options = richFitOptions(src.chosen, choice, src.chosenModel);
       return engine.fitStructure(
-        { samples, transform: src.transform, options, choice: { anisotropy: choice === 'anisotropy', structures: choice === 'nested' ? 2 : 1 } },
+        { samples, transform: src.transform, options, choice: structureChoiceOf(choice) },
         (done, total) => { if (run.current()) this.task = { ...this.task, fraction: total > 0 ? done / total : 0 }; },
         run.signal,
       );

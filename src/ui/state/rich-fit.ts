@@ -1,16 +1,48 @@
 /**
- * Pure helpers of the Structure step's richer fits (a range that depends on direction, or two
- * ranges): the model's semivariance along a compass direction, plain-language rows and notes for the
- * comparison table, and the model's shape in words.
+ * Pure helpers of the Structure step's richer fits (a range that depends on direction, two ranges, or
+ * both): the choice the two boxes make, the model's semivariance along a compass direction,
+ * plain-language rows and notes for the comparison table, and the model's shape in words.
  */
 import type { CovarianceModel, CorrelatedStructure } from '../../core/covariance/model.ts';
 import type { FitComparisonRow } from '../../core/fitting/fit-anisotropy.ts';
-import type { StructureFitResult } from '../../worker/protocol.ts';
+import type { StructureFitChoice, StructureFitResult } from '../../worker/protocol.ts';
 import { effectiveDistance, surfaceCovariance, surfaceVariance, practicalRange } from '../../core/covariance/covariance.ts';
 import { nuggetOf } from '../../core/covariance/model.ts';
 import { formatDistance } from '../../io/format.ts';
 
-export type RichChoice = 'none' | 'anisotropy' | 'nested';
+/** What the two boxes ask for: a range by direction, two ranges, both at once, or neither. */
+export type RichChoice = 'none' | 'anisotropy' | 'nested' | 'both';
+
+/** Whether the choice fits a range by direction. */
+export function hasAnisotropy(choice: RichChoice): boolean {
+  return choice === 'anisotropy' || choice === 'both';
+}
+
+/** Whether the choice fits two ranges. */
+export function hasTwoRanges(choice: RichChoice): boolean {
+  return choice === 'nested' || choice === 'both';
+}
+
+/** The choice after one box is ticked or cleared (the other box stays as it was). */
+export function choiceWith(choice: RichChoice, box: 'anisotropy' | 'nested', on: boolean): RichChoice {
+  const anisotropy = box === 'anisotropy' ? on : hasAnisotropy(choice);
+  const nested = box === 'nested' ? on : hasTwoRanges(choice);
+  return anisotropy && nested ? 'both' : anisotropy ? 'anisotropy' : nested ? 'nested' : 'none';
+}
+
+/** The worker's request for a choice (core/fitting/fit-structure.ts). */
+export function structureChoiceOf(choice: RichChoice): StructureFitChoice {
+  return { anisotropy: hasAnisotropy(choice), structures: hasTwoRanges(choice) ? 2 : 1 };
+}
+
+/** The fit button's words and the running line's, for a choice. */
+export function richFitWords(choice: RichChoice): { button: string; running: string } {
+  switch (choice) {
+    case 'both': return { button: 'Fit with a range by direction and two ranges', running: 'a range by direction with two ranges' };
+    case 'nested': return { button: 'Fit with two ranges', running: 'two ranges' };
+    default: return { button: 'Fit with a range by direction', running: 'the range by direction' };
+  }
+}
 
 /**
  * Effective distance of one metre of separation toward `direction` (degrees clockwise from north),
@@ -47,18 +79,26 @@ export function comparisonLabel(row: FitComparisonRow): string {
     case 'anisotropic': return 'Range depends on direction';
     case 'one structure': return 'One range';
     case 'two structures': return 'Two ranges (short and long)';
+    case 'anisotropic, two structures': return 'Two ranges, both by direction';
     default: return row.label;
   }
 }
 
 /** Why two ranges were not kept, in plain words; null when they were kept (or not asked for). */
 export function guardNote(result: StructureFitResult): string | null {
+  const kept = result.comparison.some((r) => r.label === 'anisotropic, two structures')
+    ? 'The one-range model with a range by direction is kept.' : 'The one-range model is kept.';
   switch (result.notIdentifiable) {
-    case 'merged': return 'Two ranges could not be told apart: the short and the long range came out nearly the same, so the samples show one range. The one-range model is kept.';
-    case 'vanishing-sill': return 'Two ranges could not be told apart: one of them carries almost none of the variation. The one-range model is kept.';
-    case 'no-gain': return 'A second range does not improve the fit enough to pay for its extra parameters (higher or equal AIC). The one-range model is kept.';
+    case 'merged': return `Two ranges could not be told apart: the short and the long range came out nearly the same, so the samples show one range. ${kept}`;
+    case 'vanishing-sill': return `Two ranges could not be told apart: one of them carries almost none of the variation. ${kept}`;
+    case 'no-gain': return `A second range does not improve the fit enough to pay for its extra parameters (higher or equal AIC). ${kept}`;
     default: return null;
   }
+}
+
+/** The model behind a comparison row that may be put in use; null for two ranges the guard did not keep. */
+export function rowModel(result: StructureFitResult, row: FitComparisonRow): CovarianceModel | null {
+  return result.rowModels[row.label] ?? null;
 }
 
 /** The model's direction dependence in words: long axis (degrees from north, clockwise) and ratio; '' when isotropic. */

@@ -112,4 +112,19 @@ describe('createLikelihood invariants', () => {
     const aniso = createLikelihood(s, { family: 'exponential', trend: 'constant', anisotropy: { azimuth: 0, ratio: 0.5 } });
     expectClose(aniso.maxDistance, Math.hypot(400, 600), { rel: 1e-12 }, 'anisotropic');
   });
+  it('createLikelihood with a correlation model and a fixed general ν (tabulated Matérn) agrees with one K_ν per pair', () => {
+    // The table's accuracy (core/covariance/matern.ts): about 1e-13 absolute in ρ.
+    const nu = 1.3;
+    const correlationAt = (t: CorrelationParameters) => ({
+      structures: [{ type: 'nugget' as const, sill: t.nuggetRatio }, { type: 'matern' as const, sill: 1, scale: t.scale, nu: t.nu ?? nu }],
+      trend: 'constant' as const, transform: 'none' as const,
+    });
+    const setup: LikelihoodSetup = { family: 'matern', nu, trend: 'constant' };
+    const direct = createLikelihood(samples, setup).evaluate(theta);
+    const tabulated = createLikelihood(samples, setup, correlationAt).evaluate(theta);
+    const perPair = createLikelihood(samples, setup, correlationAt).evaluate({ ...theta, nu });
+    expectClose(tabulated.logLikelihood, direct.logLikelihood, { rel: 1e-10 }, 'ℓ tabulated against one K_ν per pair');
+    expectClose(perPair.logLikelihood, direct.logLikelihood, { rel: 1e-12 }, 'ℓ of the model fill against the inlined fill');
+    expect(tabulated.logLikelihood).not.toBe(perPair.logLikelihood);
+  });
 });

@@ -1,7 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import type { CovarianceModel } from '../../../src/core/covariance/model.ts';
 import type { StructureFitResult } from '../../../src/worker/protocol.ts';
-import { anisotropyText, comparisonLabel, directionalModelCurve, distanceFactor, guardNote, nestedText } from '../../../src/ui/state/rich-fit.ts';
+import {
+  anisotropyText, choiceWith, comparisonLabel, directionalModelCurve, distanceFactor, guardNote, nestedText, richFitWords, rowModel, structureChoiceOf,
+  type RichChoice,
+} from '../../../src/ui/state/rich-fit.ts';
 import { richFitOptions } from '../../../src/ui/state/rich-fit.svelte.ts';
 import { modelCurve, modelName } from '../../../src/ui/state/structure.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
@@ -40,17 +43,48 @@ describe('directionalModelCurve', () => {
 describe('rich-fit words', () => {
   it('comparisonLabel names the engine rows in plain words', () => {
     const row = (label: string) => ({ label, logLikelihood: 0, aic: 0, parameters: 3, chosen: false });
-    expect(['isotropic', 'anisotropic', 'one structure', 'two structures'].map((l) => comparisonLabel(row(l)))).toEqual([
-      'Same range in every direction', 'Range depends on direction', 'One range', 'Two ranges (short and long)',
+    expect(['isotropic', 'anisotropic', 'one structure', 'two structures', 'anisotropic, two structures'].map((l) => comparisonLabel(row(l)))).toEqual([
+      'Same range in every direction', 'Range depends on direction', 'One range', 'Two ranges (short and long)', 'Two ranges, both by direction',
     ]);
   });
 
   it('guardNote says one range is kept for each reason, and nothing when two are kept', () => {
-    const r = (notIdentifiable?: StructureFitResult['notIdentifiable']): StructureFitResult => ({ model: iso, simpler: iso, comparison: [], notIdentifiable });
+    const r = (notIdentifiable?: StructureFitResult['notIdentifiable']): StructureFitResult => ({ model: iso, simpler: iso, comparison: [], notIdentifiable, rowModels: {} });
     expect(guardNote(r('merged'))).toMatch(/could not be told apart.*one-range model is kept/);
     expect(guardNote(r('vanishing-sill'))).toMatch(/almost none of the variation.*one-range model is kept/);
     expect(guardNote(r('no-gain'))).toMatch(/AIC.*one-range model is kept/);
     expect(guardNote(r())).toBeNull();
+    const both: StructureFitResult = { ...r('no-gain'), comparison: [{ label: 'anisotropic, two structures', logLikelihood: 0, aic: 0, parameters: 8, chosen: false }] };
+    expect(guardNote(both)).toMatch(/one-range model with a range by direction is kept\.$/);
+  });
+
+  it('rowModel gives the model behind each row, and none for a row the fit left out', () => {
+    const result: StructureFitResult = {
+      model: aniso, simpler: iso, notIdentifiable: 'no-gain', rowModels: { isotropic: iso, anisotropic: aniso },
+      comparison: ['isotropic', 'anisotropic', 'anisotropic, two structures'].map((label) => ({ label, logLikelihood: 0, aic: 0, parameters: 4, chosen: label === 'anisotropic' })),
+    };
+    expect(result.comparison.map((row) => rowModel(result, row))).toEqual([iso, aniso, null]);
+  });
+});
+
+describe('the two boxes', () => {
+  it('choiceWith ticks and clears one box, keeping the other: both boxes ticked is the combined fit', () => {
+    expect(choiceWith('none', 'anisotropy', true)).toBe('anisotropy');
+    expect(choiceWith('anisotropy', 'nested', true)).toBe('both');
+    expect(choiceWith('nested', 'anisotropy', true)).toBe('both');
+    expect(choiceWith('both', 'anisotropy', false)).toBe('nested');
+    expect(choiceWith('both', 'nested', false)).toBe('anisotropy');
+    expect(choiceWith('nested', 'nested', false)).toBe('none');
+  });
+
+  it('structureChoiceOf asks the worker for what the boxes say; richFitWords names it', () => {
+    const choices: RichChoice[] = ['anisotropy', 'nested', 'both'];
+    expect(choices.map(structureChoiceOf)).toEqual([
+      { anisotropy: true, structures: 1 }, { anisotropy: false, structures: 2 }, { anisotropy: true, structures: 2 },
+    ]);
+    expect(choices.map((c) => richFitWords(c).button)).toEqual([
+      'Fit with a range by direction', 'Fit with two ranges', 'Fit with a range by direction and two ranges',
+    ]);
   });
 
   it('anisotropyText gives the long axis in degrees from north, the range along it and across it, and the ratio', () => {
@@ -72,6 +106,7 @@ describe('richFitOptions', () => {
     expect(richFitOptions('matern-free', 'anisotropy', null)).toEqual({ family: 'matern', method: 'reml', nu: 'free' });
     const fitted: CovarianceModel = { structures: [{ type: 'matern', sill: 1, scale: 10, nu: 0.8 }], trend: 'constant', transform: 'none' };
     expect(richFitOptions('matern-free', 'nested', fitted)).toEqual({ family: 'matern', method: 'reml', nu: 0.8 });
+    expect(richFitOptions('matern-free', 'both', fitted)).toEqual({ family: 'matern', method: 'reml', nu: 0.8 });
     expect(() => richFitOptions('', 'nested', null)).toThrow(/Fit the candidate models first/);
   });
 });
