@@ -18,7 +18,7 @@
  */
 import type { CovarianceModel } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
-import type { Warning } from '../shared/errors.ts';
+import { GapwiseError, type Warning } from '../shared/errors.ts';
 import {
   DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, choosePredictionPath, checkCount, referenceCost, type PathChoice, type Tolerance,
 } from '../prediction/path-choice.ts';
@@ -70,7 +70,9 @@ export function chooseDesignPath(job: DesignJob): PathChoice {
   const tolerance = job.tolerance ?? DEFAULT_TOLERANCE;
   const choice = (path: 'exact' | 'local', automatic: boolean, reason: string): PathChoice => ({ path, automatic, exactCost: ex, localCost: lo, reason });
   if (job.force === 'exact' && n > EXACT_SAMPLE_LIMIT) choosePredictionPath({ samples: n, targets: job.evaluation, force: 'exact' }); // throws its message
-  if (job.force === 'local' && job.covariates) choosePredictionPath({ samples: n, targets: 0, force: 'exact' });
+  if (job.force === 'local' && job.covariates) {
+    throw new GapwiseError('bad-option', 'A model with covariates estimates its trend from all samples, so its design takes the exact posterior; leave out --local.');
+  }
   if (job.force) return choice(job.force, false, `as asked (--${job.force})`);
   if (job.covariates) return choice('exact', true, 'a model with covariates estimates its trend from all samples');
   if (n > EXACT_SAMPLE_LIMIT) return choice('local', true, `more than ${EXACT_SAMPLE_LIMIT.toLocaleString('en-US')} samples are too many to factorise together`);

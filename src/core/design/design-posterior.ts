@@ -15,7 +15,7 @@
  */
 import type { CovarianceModel } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
-import { crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
+import { crossCovarianceMatrix, surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
 import { designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { buildKrigingSystem, weightsWithSystem } from '../prediction/kriging.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
@@ -59,8 +59,6 @@ export function createLocalPosterior(samples: Samples, model: CovarianceModel, n
   cx /= n; cy /= n;
   const iso = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, cx, cy);
   const index = new NeighborIndex(iso.u, iso.v);
-  const an = model.anisotropy;
-  const cov = (x1: number, y1: number, x2: number, y2: number): number => surfaceCovariance(model, effectiveDistance(x1 - x2, y1 - y2, an));
   const warnings: Warning[] = [];
   const seen = new Set<string>();
   const sub = { x: new Float64Array(k), y: new Float64Array(k), value: new Float64Array(k) };
@@ -96,15 +94,20 @@ export function createLocalPosterior(samples: Samples, model: CovarianceModel, n
   const cross = (A: LocalFeatures, B: LocalFeatures): Float64Array => {
     const out = crossCovarianceMatrix(model, A.x, A.y, B.x, B.y);
     const row = new Float64Array(Math.max(1, p));
+    const nx = new Float64Array(k), ny = new Float64Array(k);
     for (let j = 0; j < B.m; j++) {
+      // k(N_j, A) in one fill (k × mA), then λ_jᵀk(N_j, A_i) for every i.
+      for (let a = 0; a < k; a++) {
+        const id = B.ids[j * k + a];
+        nx[a] = samples.x[id];
+        ny[a] = samples.y[id];
+      }
+      const C = crossCovarianceMatrix(model, nx, ny, A.x, A.y);
       const frame = B.frames[j];
       const centred: CoordinateFrame = { ...frame, cx: 0, cy: 0 };
       for (let i = 0; i < A.m; i++) {
         let s = 0;
-        for (let a = 0; a < k; a++) {
-          const id = B.ids[j * k + a];
-          s += B.lambda[j * k + a] * cov(samples.x[id], samples.y[id], A.x[i], A.y[i]);
-        }
+        for (let a = 0; a < k; a++) s += B.lambda[j * k + a] * C[a * A.m + i];
         let t = 0;
         if (p > 0) {
           designRow(model.trend, A.x[i] - frame.cx, A.y[i] - frame.cy, centred, row, 0);
