@@ -6,7 +6,10 @@
  * circulant embedding alone and a 512 × 512 FFT. Target: the 100 realisations in under 30 s.
  * CPU seconds are the whole process's (worker threads included).
  * Run alone: `npx tsx bench/simulation.ts` (`--quick`: 100 × 100 grid, 20 realisations), or via
- * `npx tsx bench/run.ts simulation`.
+ * `npx tsx bench/run.ts simulation`. `--large` runs only the 5,000-sample case: 20 realisations of the
+ * 200 × 200 grid with the conditioning chosen by cost (src/core/simulation/simulation-path.ts), on
+ * local neighbourhoods of 64 as before the choice (which also built the 5,000 × 5,000 dense system:
+ * its time is printed apart), and on the exact path.
  */
 import { waveSamples, type Row } from './common.ts';
 import { pathToFileURL } from 'node:url';
@@ -15,6 +18,7 @@ import { simulateParallel, simulationThreads } from '../src/cli/simulation-pool.
 import { simulateConditional, type ConditionalSimulationResult } from '../src/core/simulation/conditional-simulation.ts';
 import { createCirculantEmbedding } from '../src/core/simulation/circulant-embedding.ts';
 import { createFft2Plan } from '../src/core/simulation/fft.ts';
+import { buildKrigingSystem } from '../src/core/prediction/kriging.ts';
 import type { CovarianceModel } from '../src/core/covariance/model.ts';
 import type { Samples } from '../src/core/shared/samples.ts';
 import type { Grid } from '../src/core/geometry/grid.ts';
@@ -45,8 +49,32 @@ function time(f: () => void): number {
   return (performance.now() - t) / 1000;
 }
 
+/** The 5,000-sample rows (see the header). */
+async function largeRows(): Promise<Row[]> {
+  const n = 5000;
+  const samples = makeSamples(n, 2);
+  const grid: Grid = { x0: 500000, y0: 6001000, cell: 5, nx: 200, ny: 200 };
+  const count = 20;
+  const log = (s: string) => console.error(`  ${s}`);
+  const auto = await timeAsync(() => simulateParallel(samples, MODEL, grid, { count, seed: 1, keepRealisations: false }, { workers: 1, choose: {} }));
+  const p = auto.value.path!;
+  const how = `${p.choice.path}${p.neighbors ? ` (${p.neighbors} neighbours)` : ''}: ${p.choice.reason}${p.accuracy ? `; measured mean ${p.accuracy.mean.max.toFixed(2)} %, sd ${p.accuracy.sd.max.toFixed(2)} % of the prior sd` : ''}`;
+  log(`5,000 samples, chosen by cost: ${auto.seconds.toFixed(2)} s (CPU ${auto.cpu.toFixed(2)} s), ${how}`);
+  const local = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, keepRealisations: false, path: 'local', neighbors: 64 }));
+  const dense = await timeAsync(async () => buildKrigingSystem(samples, MODEL));
+  log(`5,000 samples, local 64 without the dense system: ${local.seconds.toFixed(2)} s; the dense system the earlier code built as well: ${dense.seconds.toFixed(2)} s`);
+  const exact = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, keepRealisations: false, path: 'exact' }));
+  log(`5,000 samples, exact: ${exact.seconds.toFixed(2)} s (CPU ${exact.cpu.toFixed(2)} s)`);
+  return [
+    { name: `${count} realisations, 200 × 200, 5,000 samples, chosen by cost`, n, seconds: auto.seconds, note: `1 thread; ${how}` },
+    { name: `${count} realisations, 200 × 200, 5,000 samples, local 64 (before: + dense system)`, n, seconds: local.seconds + dense.seconds, note: `local ${local.seconds.toFixed(2)} s + the dense 5,000 × 5,000 system ${dense.seconds.toFixed(2)} s the earlier code built on this path too` },
+    { name: `${count} realisations, 200 × 200, 5,000 samples, exact`, n, seconds: exact.seconds, note: '1 thread; kriging from all samples' },
+  ];
+}
+
 /** Runs the simulation benchmarks and returns one row per figure. */
-export async function runSimulationBench(options: { quick?: boolean } = {}): Promise<Row[]> {
+export async function runSimulationBench(options: { quick?: boolean; large?: boolean } = {}): Promise<Row[]> {
+  if (options.large) return largeRows();
   const side = options.quick ? 100 : 200;
   const count = options.quick ? 20 : 100;
   const n = 500;
@@ -94,6 +122,6 @@ export async function runSimulationBench(options: { quick?: boolean } = {}): Pro
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
-  const rows = await runSimulationBench({ quick: process.argv.includes('--quick') });
+  const rows = await runSimulationBench({ quick: process.argv.includes('--quick'), large: process.argv.includes('--large') });
   for (const row of rows) console.log(`${row.name.padEnd(66)} n=${row.n}  ${row.seconds.toFixed(3)} s  ${row.note ?? ''}`);
 }

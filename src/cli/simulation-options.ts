@@ -16,11 +16,15 @@ import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { Samples } from '../core/shared/samples.ts';
 import type { Grid } from '../core/geometry/grid.ts';
 import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/prediction/block-kriging.ts';
-import { MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
+import { DEFAULT_SIMULATION_NEIGHBORS, MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, parseTolerance } from '../core/prediction/path-choice.ts';
+import { MAX_LOCAL_NEIGHBORS } from '../core/prediction/local-kriging.ts';
+import { describeAccuracy } from '../core/prediction/local-accuracy.ts';
+import type { SimulationPath } from '../core/simulation/simulation-path.ts';
 import type { ExceedanceAreaSummary } from '../core/prediction/exceedance-area.ts';
 import type { SurfaceResult } from '../core/prediction/surface.ts';
-import { numberOption, stringOption, type OptionSpec } from './args.ts';
-import { naming, type OptionValues } from './common.ts';
+import { booleanOption, numberOption, stringOption, type OptionSpec } from './args.ts';
+import { count as countText, naming, type OptionValues } from './common.ts';
 import { simulateParallel, simulationThreads } from './simulation-pool.ts';
 
 const SUPPORT: OptionSpec = {
@@ -63,6 +67,27 @@ export const GRID_SIMULATION_OPTIONS: OptionSpec[] = [
   DEPTH,
 ];
 
+/** How the choice of exact or local conditioning is made, for help texts (generated from its constants). */
+export const AUTOMATIC_SIMULATION_PATH_TEXT = 'automatic: the cheaper of kriging the residuals from all samples and from local neighbourhoods by estimated cost '
+  + '(samples, lattice nodes, realisations, threads); a local run is measured against exact kriging at seeded random nodes, grown when it misses '
+  + `--tolerance, or replaced by exact conditioning; never exact above ${countText(EXACT_SAMPLE_LIMIT)} samples`;
+
+/** The options of `simulate` that choose between exact and local conditioning. */
+export const SIMULATION_PATH_OPTIONS: OptionSpec[] = [
+  {
+    name: 'neighbors', kind: 'number', placeholder: 'M', unit: 'samples',
+    help: `local conditioning: the residuals at each lattice node are kriged from its M nearest samples (1 to ${countText(MAX_LOCAL_NEIGHBORS)}); a given M is not grown`,
+    defaultText: `${DEFAULT_SIMULATION_NEIGHBORS}, grown when the measured error misses --tolerance`,
+  },
+  { name: 'exact', kind: 'boolean', help: `condition by kriging from all samples whatever their number (memory 8·n² bytes per thread; up to ${countText(EXACT_SAMPLE_LIMIT)} samples)`, defaultText: AUTOMATIC_SIMULATION_PATH_TEXT },
+  { name: 'local', kind: 'boolean', help: 'condition from local neighbourhoods whatever the number of samples (their error is still measured and reported)', defaultText: 'automatic, as for --exact' },
+  {
+    name: 'tolerance', kind: 'string', placeholder: 'mean=P,sd=P',
+    help: 'how close local conditioning must come to exact kriging: largest difference of the realisations\' mean and sd, in % of the prior sd (0 takes exact conditioning)',
+    defaultText: `mean=${DEFAULT_TOLERANCE.mean},sd=${DEFAULT_TOLERANCE.sd}`,
+  },
+];
+
 /** Options `gapwise simulate` lists. */
 export const SIMULATE_OPTIONS: OptionSpec[] = [
   { name: 'count', kind: 'number', placeholder: 'N', help: `number of realisations (1 to ${MAX_REALISATIONS.toLocaleString('en')})`, required: true },
@@ -70,7 +95,52 @@ export const SIMULATE_OPTIONS: OptionSpec[] = [
   SUPPORT,
   BLOCK_POINTS,
   DEPTH,
+  ...SIMULATION_PATH_OPTIONS,
 ];
+
+/** What --exact, --local, --neighbors and --tolerance ask of the conditioning (plain data). */
+export interface SimulationPathRequest {
+  force?: 'exact' | 'local';
+  neighbors?: number;
+  tolerance: { mean: number; sd: number };
+}
+
+/** Reads --exact, --local, --neighbors and --tolerance. Throws GapwiseError('bad-option') for contradictory or out-of-range values. */
+export function readSimulationPathRequest(values: OptionValues): SimulationPathRequest {
+  const exact = booleanOption(values, 'exact');
+  const local = booleanOption(values, 'local');
+  const neighbors = numberOption(values, 'neighbors');
+  if (exact && local) throw new GapwiseError('bad-option', 'Options "--exact" and "--local" contradict each other; expected at most one of them.');
+  if (neighbors !== undefined && !(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Option "--neighbors" expects a whole number of samples from 1 to ${countText(MAX_LOCAL_NEIGHBORS)}, got ${neighbors}.`);
+  }
+  if (exact && neighbors !== undefined) {
+    throw new GapwiseError('bad-option', 'Option "--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact" (exact conditioning uses all samples).');
+  }
+  const toleranceText = stringOption(values, 'tolerance');
+  return {
+    ...(exact ? { force: 'exact' as const } : local ? { force: 'local' as const } : {}),
+    ...(neighbors !== undefined ? { neighbors } : {}),
+    tolerance: toleranceText === undefined ? { ...DEFAULT_TOLERANCE } : parseTolerance(toleranceText),
+  };
+}
+
+/**
+ * The notes that say how the realisations were conditioned and why, in the words predict uses:
+ * "conditioned by kriging from all 500 samples; chosen automatically: ... (--local overrides)", and for a
+ * local run its measured error.
+ */
+export function describeSimulationPath(p: SimulationPath, n: number): string[] {
+  const c = p.choice;
+  if (c.path === 'exact') {
+    return [`conditioned by kriging from all ${countText(n)} samples${c.automatic ? `; chosen automatically: ${c.reason} (--local overrides)` : ' (--exact)'}`];
+  }
+  const m = Math.min(p.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS, n);
+  const why = c.automatic ? `; chosen automatically: ${c.reason} (--exact overrides)` : ` (--local${c.reason.includes('grown') ? `; ${c.reason.slice(c.reason.indexOf('grown'))}` : ''})`;
+  const notes = [`conditioned from the ${m} nearest samples of each lattice node (local neighbourhoods); ${countText(n)} samples${why}`];
+  if (p.accuracy) notes.push(`measured error of the local conditioning ${describeAccuracy(p.accuracy)}`);
+  return notes;
+}
 
 /** What the options ask for (plain data). */
 export interface SimulationChoice {

@@ -20,6 +20,8 @@ import {
   type ConditionalSimulationOptions, type ConditionalSimulationResult,
 } from '../core/simulation/conditional-simulation.ts';
 import type { SimulateOptions } from '../worker/protocol.ts';
+import { planSimulationPath, type SimulationPath } from '../core/simulation/simulation-path.ts';
+import type { Tolerance } from '../core/prediction/path-choice.ts';
 import { startEngineThreads } from './engine-threads.ts';
 
 /** The options of one part, without the callbacks (plain data, structured-cloned to a worker). */
@@ -27,6 +29,13 @@ export type SimulationPartOptions = SimulateOptions;
 
 /** Options of a parallel simulation. */
 export interface ParallelSimulationOptions {
+  /**
+   * Choose exact or local conditioning by cost and tolerance for the whole run before it is shared
+   * out (core/simulation/simulation-path.ts), with the user's --exact / --local / --neighbors /
+   * --tolerance; the choice and the local path's measured error come back as `path`. Absent: as
+   * options.neighbors says (the core default).
+   */
+  choose?: { force?: 'exact' | 'local'; neighbors?: number; tolerance?: Tolerance };
   /** Worker threads; default os.availableParallelism(). */
   workers?: number;
   /** Realisations done so far (summed over the parts) and in total; default options.onProgress. */
@@ -56,12 +65,32 @@ export function simulationThreads(count: number, workers = availableParallelism(
  */
 export async function simulateParallel(
   samples: Samples, model: CovarianceModel, grid: Grid, options: ConditionalSimulationOptions, parallel: ParallelSimulationOptions = {},
+): Promise<ConditionalSimulationResult & { path?: SimulationPath }> {
+  const N = options.count;
+  const parts = simulationThreads(N, parallel.workers ?? availableParallelism());
+  if (!parallel.choose) return simulateInParts(samples, model, grid, options, parallel, parts);
+  const request = parallel.choose;
+  const path = planSimulationPath(samples, model, grid, {
+    realisations: N, threads: parts, ...(options.support ? { support: options.support } : {}),
+    ...(options.blockPoints !== undefined ? { blockPoints: options.blockPoints } : {}),
+    ...(request.force ? { force: request.force } : {}), ...(request.neighbors !== undefined ? { neighbors: request.neighbors } : {}),
+    ...(request.tolerance ? { tolerance: request.tolerance } : {}), ...(options.covariates ? { covariates: options.covariates } : {}),
+  });
+  const chosen: ConditionalSimulationOptions = { ...options, path: path.choice.path };
+  if (path.choice.path === 'local') chosen.neighbors = path.neighbors;
+  else delete chosen.neighbors;
+  const result = await simulateInParts(samples, model, grid, chosen, parallel, parts);
+  return { ...result, warnings: [...path.warnings, ...result.warnings], path };
+}
+
+/** The run shared out over `parts` threads (one runs here). */
+async function simulateInParts(
+  samples: Samples, model: CovarianceModel, grid: Grid, options: ConditionalSimulationOptions, parallel: ParallelSimulationOptions, parts: number,
 ): Promise<ConditionalSimulationResult> {
   const onProgress = parallel.onProgress ?? options.onProgress;
   const { onProgress: _p, isCancelled, ...plain } = options;
   const N = options.count;
   const start = options.first ?? 0;
-  const parts = simulationThreads(N, parallel.workers ?? availableParallelism());
   if (parts === 1 || !(Number.isInteger(start) && start >= 0)) {
     return simulateConditional(samples, model, grid, { ...plain, ...(onProgress ? { onProgress } : {}), ...(isCancelled ? { isCancelled } : {}) });
   }

@@ -17,7 +17,9 @@ import {
   readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { SIMULATE_OPTIONS, SIMULATION_WORKERS, areaFigures, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
+import {
+  SIMULATE_OPTIONS, SIMULATION_WORKERS, areaFigures, describeSimulationPath, namingAsync, readSimulationChoice, readSimulationPathRequest, threadsText,
+} from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 
@@ -35,6 +37,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const cell = numberOption(values, 'cell');
   if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
   const choice = readSimulationChoice(values, model, 'count');
+  const pathRequest = readSimulationPathRequest(values);
   const polygons = boundary ? boundary.polygons.map((p) => p.rings) : null;
   // A covariate model: the samples' covariate columns and the rasters' values at the grid's block points.
   const { samples, grid, nodeCovariates, warnings: covariateWarnings } = await gridWithCovariates(values, io.cwd, intake, model.trend, {
@@ -54,8 +57,11 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     blockPoints: choice.blockPoints,
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
-  }, { workers: threads, onProgress: progressLine(io, 'realisations') }));
-  printNotes(io, [`${count(n)} conditional realisations (seed ${choice.seed}, ${sim.support} support) on ${threadsText(threads)}`]);
+  }, { workers: threads, onProgress: progressLine(io, 'realisations'), choose: pathRequest }));
+  printNotes(io, [
+    `${count(n)} conditional realisations (seed ${choice.seed}, ${sim.support} support) on ${threadsText(threads)}`,
+    ...(sim.path ? describeSimulationPath(sim.path, samples.x.length) : []),
+  ]);
   const unit = intake.report.unit;
   const names = sim.realisations!.map((_, r) => `realisation ${r + 1}${unit ? ` (${unit})` : ''}`);
   const tif = bandsGeoTiff({ grid, bands: sim.realisations!, names, workCrs, title: `Gapwise conditional realisations (${sim.support} support).` });
@@ -74,6 +80,10 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     lattice: sim.lattice,
     placementError: sim.placementError,
     neighbors: sim.neighbors,
+    ...(sim.path ? {
+      path: { path: sim.path.choice.path, automatic: sim.path.choice.automatic, reason: sim.path.choice.reason, tolerance: pathRequest.tolerance },
+      ...(sim.path.accuracy ? { localError: sim.path.accuracy } : {}),
+    } : {}),
     caution: CAUTION,
   }));
   return 0;
@@ -94,8 +104,12 @@ export const simulateCommand: CommandSpec = {
     'A model with covariates (fit --covariates) needs --covariate-raster NAME=FILE.tif for each: the realisations are '
       + 'conditioned under the kriging mean with covariates, each lattice point with the rasters\' values there; without '
       + '--cell the grid is the first raster\'s lattice, and cells without a value are left empty.',
+    'The residuals are kriged from all samples or from each lattice node\'s --neighbors nearest, whichever is cheaper for this '
+      + 'job by estimated cost (samples, lattice nodes, realisations, threads) within --tolerance; the choice and its reason are said '
+      + 'on stderr ("chosen automatically: ... (--exact overrides)") and in the JSON summary ("path"), and a local run\'s measured '
+      + 'error against exact kriging at seeded nodes as "localError". --exact and --local override the choice.',
     'The realisations are shared out among --workers threads in consecutive parts (the same bands as one thread '
-      + 'draws); the thread count is said on stderr, and a run that lasts more than 2 s prints a progress line at every 10 %.',
+      + 'draws with the same conditioning: the thread count enters the cost, so near the switch --exact or --local fixes it); the thread count is said on stderr, and a run that lasts more than 2 s prints a progress line at every 10 %.',
     'The screening caution is in the summary and in the GeoTIFF description.',
   ],
   options: [

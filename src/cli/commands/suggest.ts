@@ -18,13 +18,28 @@ import { suggestionsToGpx } from '../../io/gpx.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, jsonText, modelWorkCrs, naming, outOption, printWarnings, progressLine, readModelFile, readSamplesFile,
+  CAUTION, SAMPLE_OPTIONS, count as countText, jsonText, modelWorkCrs, naming, outOption, printNotes, printWarnings, progressLine, readModelFile, readSamplesFile,
   readText, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, readCsvTable } from '../csv.ts';
 import { analyteRequest } from '../analytes.ts';
 import { modelFromSet, refuseSeveralAnalytes } from '../analyte-runs.ts';
+import { readSimulationPathRequest } from '../simulation-options.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
+import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
+import { DEFAULT_DESIGN_NEIGHBORS } from '../../core/design/design-path.ts';
+
+/** The notes that say which posterior chose the sites and why, in the words predict uses, and a local one's measured error. */
+function describeDesignPath(p: NonNullable<DesignResult['path']>, n: number): string[] {
+  if (p.path === 'exact') {
+    return [`sites chosen on the kriging posterior from all ${countText(n)} samples${p.automatic ? `; chosen automatically: ${p.reason} (--local overrides)` : ' (--exact)'}`];
+  }
+  const why = p.automatic ? `; chosen automatically: ${p.reason} (--exact overrides)` : ' (--local)';
+  const notes = [`sites chosen on the posterior from the ${p.neighbors ?? DEFAULT_DESIGN_NEIGHBORS} nearest samples of each point (local neighbourhoods); ${countText(n)} samples${why}`];
+  if (p.accuracy) notes.push(`measured error of the local posterior ${describeAccuracy(p.accuracy)}`);
+  return notes;
+}
 
 const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
 const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
@@ -164,6 +179,10 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   if (excludePath !== undefined) options.exclusions = readExclusions(io, excludePath, workCrs);
   const candidatesPath = stringOption(values, 'candidates');
   if (candidatesPath !== undefined) options.candidates = readCandidates(io, candidatesPath, values, intake);
+  const pathRequest = readSimulationPathRequest(values);
+  if (pathRequest.force) options.path = pathRequest.force;
+  if (pathRequest.neighbors !== undefined) options.neighbors = pathRequest.neighbors;
+  options.tolerance = pathRequest.tolerance;
 
   // A covariate model: the area grid and candidates with the rasters' values (--covariate-raster).
   const covariates = await designWithCovariates(values, io.cwd, intake, modelFile?.model.trend ?? null, options);
@@ -175,6 +194,7 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
     onProgress: (done, total, stage) => { if (stage === 'sites') sitesProgress(done, total); },
   }));
   const warnings: Warning[] = result.warnings;
+  if (result.path) printNotes(io, describeDesignPath(result.path, covariates.samples.x.length));
   printWarnings(io, warnings);
 
   const xs = result.suggestions.map((s) => s.x);
@@ -231,6 +251,10 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
       sd: rounded(s.sd),
       p_exceed: rounded(s.pExceed),
     })),
+    ...(result.path ? {
+      path: { path: result.path.path, automatic: result.path.automatic, reason: result.path.reason, tolerance: pathRequest.tolerance },
+      ...(result.path.accuracy ? { localError: result.path.accuracy } : {}),
+    } : {}),
     out: out ?? null,
     warnings: warnings.map((w) => w.message),
     caution: CAUTION,
@@ -276,6 +300,18 @@ export const suggestCommand: CommandSpec = {
     { name: 'cell', kind: 'number', placeholder: 'M', help: 'cell size of the area grid and the candidate grid', unit: 'm', defaultText: 'about 10,000 cells over the area (a covariate model: the raster\'s lattice)' },
     COVARIATE_RASTER_OPTION,
     { name: 'seed', kind: 'number', placeholder: 'N', help: 'seed of the coverage design', defaultText: '1' },
+    {
+      name: 'exact', kind: 'boolean', help: `variance and decision designs: the posterior from all samples (up to ${countText(EXACT_SAMPLE_LIMIT)})`,
+      defaultText: 'automatic: the cheaper of the posterior from all samples and from local neighbourhoods by estimated cost (samples, evaluation points, '
+        + 'candidates, sites); a local posterior is measured against exact kriging at seeded evaluation points and replaced by the exact one when it misses --tolerance',
+    },
+    { name: 'local', kind: 'boolean', help: 'variance and decision designs: the posterior from local neighbourhoods (its error is still measured and reported)', defaultText: 'automatic, as for --exact' },
+    { name: 'neighbors', kind: 'number', placeholder: 'M', unit: 'samples', help: 'local posterior: each point\'s M nearest samples', defaultText: String(DEFAULT_DESIGN_NEIGHBORS) },
+    {
+      name: 'tolerance', kind: 'string', placeholder: 'mean=P,sd=P',
+      help: 'how close a local posterior must come to exact kriging: largest difference of the mean and sd, in % of the prior sd (0 takes the exact posterior)',
+      defaultText: `mean=${DEFAULT_TOLERANCE.mean},sd=${DEFAULT_TOLERANCE.sd}`,
+    },
     outOption('sites file: .geojson, .csv or .gpx', 'not written (the sites are in the JSON summary)'),
     ...SAMPLE_OPTIONS,
   ],

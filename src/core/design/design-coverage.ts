@@ -85,19 +85,17 @@ function objectiveWith(points: Points, dFixed: Float64Array, sx: ArrayLike<numbe
   return total / m;
 }
 
-/** Runs the constrained k-means; fewer sites than asked when the constraints leave no room. */
-export function coverageDesign(problem: CoverageProblem, isCancelled?: () => boolean): CoverageResult {
-  const { points, fixed, candidates, count, minSpacing } = problem;
-  const m = points.x.length;
-  const mC = candidates.x.length;
-  if (m === 0) throw new GapwiseError('bad-option', 'The area holds no grid points; expected at least one: choose a smaller cell.');
-  const dFixed = fixedDistances(points, fixed);
-  const candIndex = new NeighborIndex(candidates.x, candidates.y);
-  // Squared distance of each candidate to the nearest fixed sample (for k-means++ seeding).
-  const candFixed = fixedDistances(candidates, fixed);
-  const spacing2 = minSpacing * minSpacing;
-  let best: { sites: number[]; objective: number; iterations: number } | null = null;
+/** The spacing rules of placed sites: whether a candidate keeps them, and the nearest candidate that does. */
+interface SpacingRules {
+  farEnough(c: number, placed: readonly number[], skipSlot: number): boolean;
+  /** The candidate nearest (x, y) that keeps the spacing to the other placed sites, or −1. */
+  snap(x: number, y: number, placed: readonly number[], slot: number): number;
+}
 
+function spacingRules(candidates: CoverageProblem['candidates'], minSpacing: number): SpacingRules {
+  const mC = candidates.x.length;
+  const candIndex = new NeighborIndex(candidates.x, candidates.y);
+  const spacing2 = minSpacing * minSpacing;
   const farEnough = (c: number, placed: readonly number[], skipSlot: number): boolean => {
     if (spacing2 <= 0) {
       for (let s = 0; s < placed.length; s++) if (s !== skipSlot && placed[s] === c) return false;
@@ -111,8 +109,6 @@ export function coverageDesign(problem: CoverageProblem, isCancelled?: () => boo
     }
     return true;
   };
-
-  /** The candidate nearest (x, y) that keeps the spacing to the other placed sites, or −1. */
   const snap = (x: number, y: number, placed: readonly number[], slot: number): number => {
     for (let k = 16; ; k *= 4) {
       const ids = candIndex.nearest(x, y, Math.min(k, mC));
@@ -120,81 +116,108 @@ export function coverageDesign(problem: CoverageProblem, isCancelled?: () => boo
       if (k >= mC) return -1;
     }
   };
+  return { farEnough, snap };
+}
 
+/** k-means++ seeding over the candidates, weighted by the squared distance to the nearest centre (fixed samples included). */
+function seedSites(problem: CoverageProblem, rules: SpacingRules, candFixed: Float64Array, rnd: ReturnType<typeof createRandom>): number[] {
+  const { candidates, count } = problem;
+  const mC = candidates.x.length;
+  const sites: number[] = [];
+  const dCand = Float64Array.from(candFixed);
+  for (let s = 0; s < count; s++) {
+    let total = 0;
+    for (let c = 0; c < mC; c++) if (rules.farEnough(c, sites, -1)) total += Number.isFinite(dCand[c]) ? dCand[c] : 1;
+    if (!(total > 0)) break;
+    let r = rnd.uniform() * total;
+    let pick = -1;
+    for (let c = 0; c < mC; c++) {
+      if (!rules.farEnough(c, sites, -1)) continue;
+      pick = c;
+      r -= Number.isFinite(dCand[c]) ? dCand[c] : 1;
+      if (r < 0) break;
+    }
+    if (pick < 0) break;
+    sites.push(pick);
+    for (let c = 0; c < mC; c++) {
+      const dx = candidates.x[c] - candidates.x[pick];
+      const dy = candidates.y[c] - candidates.y[pick];
+      const d = dx * dx + dy * dy;
+      if (!(d >= dCand[c])) dCand[c] = d;
+    }
+  }
+  return sites;
+}
+
+/** Lloyd iterations: each site moves to the candidate nearest the centroid of the points it owns, until none moves; returns the iterations. */
+function lloydIterations(problem: CoverageProblem, rules: SpacingRules, dFixed: Float64Array, sites: number[]): number {
+  const { points, candidates } = problem;
+  const m = points.x.length;
+  const k = sites.length;
+  const sx = new Float64Array(k);
+  const sy = new Float64Array(k);
+  const sumX = new Float64Array(k);
+  const sumY = new Float64Array(k);
+  const members = new Float64Array(k);
+  let iterations = 0;
+  for (; iterations < problem.maxIterations; iterations++) {
+    for (let s = 0; s < k; s++) {
+      sx[s] = candidates.x[sites[s]];
+      sy[s] = candidates.y[sites[s]];
+    }
+    sumX.fill(0);
+    sumY.fill(0);
+    members.fill(0);
+    for (let q = 0; q < m; q++) {
+      let bestD = dFixed[q];
+      let owner = -1;
+      const px = points.x[q];
+      const py = points.y[q];
+      for (let s = 0; s < k; s++) {
+        const dx = px - sx[s];
+        const dy = py - sy[s];
+        const d = dx * dx + dy * dy;
+        if (d < bestD) {
+          bestD = d;
+          owner = s;
+        }
+      }
+      if (owner >= 0) {
+        sumX[owner] += px;
+        sumY[owner] += py;
+        members[owner]++;
+      }
+    }
+    let moved = false;
+    for (let s = 0; s < k; s++) {
+      if (members[s] === 0) continue;
+      const c = rules.snap(sumX[s] / members[s], sumY[s] / members[s], sites, s);
+      if (c >= 0 && c !== sites[s]) {
+        sites[s] = c;
+        moved = true;
+      }
+    }
+    if (!moved) break;
+  }
+  return iterations;
+}
+
+/** Runs the constrained k-means; fewer sites than asked when the constraints leave no room. */
+export function coverageDesign(problem: CoverageProblem, isCancelled?: () => boolean): CoverageResult {
+  const { points, fixed, candidates } = problem;
+  const m = points.x.length;
+  if (m === 0) throw new GapwiseError('bad-option', 'The area holds no grid points; expected at least one: choose a smaller cell.');
+  const dFixed = fixedDistances(points, fixed);
+  // Squared distance of each candidate to the nearest fixed sample (for k-means++ seeding).
+  const candFixed = fixedDistances(candidates, fixed);
+  const rules = spacingRules(candidates, problem.minSpacing);
+  let best: { sites: number[]; objective: number; iterations: number } | null = null;
   let iterationsTotal = 0;
   for (let restart = 0; restart < problem.restarts; restart++) {
     if (isCancelled?.()) throw new GapwiseError('cancelled', `The coverage design was stopped after ${restart} restarts.`);
     const rnd = createRandom((problem.seed >>> 0) + 7919 * restart);
-    // k-means++ seeding over the candidates, weighted by the squared distance to the nearest centre.
-    const sites: number[] = [];
-    const dCand = Float64Array.from(candFixed);
-    for (let s = 0; s < count; s++) {
-      let total = 0;
-      for (let c = 0; c < mC; c++) if (farEnough(c, sites, -1)) total += Number.isFinite(dCand[c]) ? dCand[c] : 1;
-      if (!(total > 0)) break;
-      let r = rnd.uniform() * total;
-      let pick = -1;
-      for (let c = 0; c < mC; c++) {
-        if (!farEnough(c, sites, -1)) continue;
-        pick = c;
-        r -= Number.isFinite(dCand[c]) ? dCand[c] : 1;
-        if (r < 0) break;
-      }
-      if (pick < 0) break;
-      sites.push(pick);
-      for (let c = 0; c < mC; c++) {
-        const dx = candidates.x[c] - candidates.x[pick];
-        const dy = candidates.y[c] - candidates.y[pick];
-        const d = dx * dx + dy * dy;
-        if (!(d >= dCand[c])) dCand[c] = d;
-      }
-    }
-    const k = sites.length;
-    const sx = new Float64Array(k);
-    const sy = new Float64Array(k);
-    const sumX = new Float64Array(k);
-    const sumY = new Float64Array(k);
-    const members = new Float64Array(k);
-    let iterations = 0;
-    for (; iterations < problem.maxIterations; iterations++) {
-      for (let s = 0; s < k; s++) {
-        sx[s] = candidates.x[sites[s]];
-        sy[s] = candidates.y[sites[s]];
-      }
-      sumX.fill(0);
-      sumY.fill(0);
-      members.fill(0);
-      for (let q = 0; q < m; q++) {
-        let bestD = dFixed[q];
-        let owner = -1;
-        const px = points.x[q];
-        const py = points.y[q];
-        for (let s = 0; s < k; s++) {
-          const dx = px - sx[s];
-          const dy = py - sy[s];
-          const d = dx * dx + dy * dy;
-          if (d < bestD) {
-            bestD = d;
-            owner = s;
-          }
-        }
-        if (owner >= 0) {
-          sumX[owner] += px;
-          sumY[owner] += py;
-          members[owner]++;
-        }
-      }
-      let moved = false;
-      for (let s = 0; s < k; s++) {
-        if (members[s] === 0) continue;
-        const c = snap(sumX[s] / members[s], sumY[s] / members[s], sites, s);
-        if (c >= 0 && c !== sites[s]) {
-          sites[s] = c;
-          moved = true;
-        }
-      }
-      if (!moved) break;
-    }
+    const sites = seedSites(problem, rules, candFixed, rnd);
+    const iterations = lloydIterations(problem, rules, dFixed, sites);
     iterationsTotal += iterations + 1;
     const sxs = sites.map((c) => candidates.x[c]);
     const sys = sites.map((c) => candidates.y[c]);

@@ -32,6 +32,7 @@ import { solveLowerInPlace } from '../linalg/linalg.ts';
 import { covariateColumnCount, designRow, type CoordinateFrame } from '../covariance/trend.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { expectedMisclassification, misclassificationProbability } from './design-misclassification.ts';
+import type { LocalFeatures, LocalPosterior } from './design-posterior.ts';
 
 /** Points in working-CRS metres. */
 export interface Points {
@@ -68,7 +69,10 @@ export interface GreedyHooks {
 
 /** What the greedy search is told. */
 export interface GreedyProblem {
-  system: KrigingSystem;
+  /** The factorised system of the exact posterior (not needed with `local`). */
+  system?: KrigingSystem;
+  /** When given, the posterior comes from local neighbourhoods instead (./design-posterior.ts). */
+  local?: LocalPosterior;
   /** Evaluation points (the area) and the area each stands for (m²). */
   evaluation: Points;
   evaluationArea: number;
@@ -239,42 +243,250 @@ function checkCancelled(hooks: GreedyHooks, what: string): void {
   if (hooks.isCancelled?.()) throw new GapwiseError('cancelled', `The design was stopped ${what}.`);
 }
 
-/** Picks sites one at a time by the variance or decision criterion with exact rank-one updates. */
-export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): GreedyResult {
-  const { system: sys, evaluation, candidates, noise, count, minSpacing } = problem;
-  const n = sys.n;
-  const p = sys.p;
+/**
+ * The posterior the greedy search reads: features of point sets, their cross-covariances, one
+ * covariance between two single points, and the mean at the evaluation points.
+ */
+interface PosteriorView<F extends { m: number; variance: Float64Array }> {
+  c0: number;
+  features(px: ArrayLike<number>, py: ArrayLike<number>, covariates?: ArrayLike<number>): F;
+  cross(A: F, B: F): Float64Array;
+  /** k₀(q, s) of one-point feature sets. */
+  pairCovariance(f: F, g: F): number;
+  /** Kriging-scale mean at the evaluation points. */
+  meanAt(fE: F, evaluation: Points): Float64Array;
+}
+
+/** The exact posterior of the factorised system (features a, t of every point). */
+function exactView(sys: KrigingSystem): PosteriorView<Features> {
+  const { n, p } = sys;
+  return {
+    c0: sys.c0,
+    features: (px, py, covariates) => posteriorFeatures(sys, px, py, covariates),
+    cross: (A, B) => posteriorCrossCovariance(sys, A, B),
+    pairCovariance(f, g) {
+      let k = crossCovarianceMatrix(sys.model, [f.u[0]], [f.v[0]], [g.u[0]], [g.v[0]])[0];
+      for (let i = 0; i < n; i++) k -= f.a[i] * g.a[i];
+      for (let c = 0; c < p; c++) k += f.t[c] * g.t[c];
+      return k;
+    },
+    meanAt(fE, evaluation) {
+      // Mean at the evaluation points (kriging scale): m0 + x₀ᵀβ̂ + k₀ᵀα, for the decision sums.
+      const q = covariateColumnCount(sys.model.trend);
+      const mE = fE.m;
+      const mean = new Float64Array(mE);
+      const centred: CoordinateFrame = { ...sys.frame, cx: 0, cy: 0 };
+      const x0 = new Float64Array(p);
+      const kE = crossCovarianceMatrix(sys.model, fE.u, fE.v, sys.u, sys.v);
+      for (let e = 0; e < mE; e++) {
+        let s = sys.m0;
+        if (p > 0) {
+          designRow(sys.model.trend, fE.u[e], fE.v[e], centred, x0, 0, evaluation.covariates, e * q);
+          for (let c = 0; c < p; c++) s += x0[c] * sys.beta[c];
+        }
+        for (let i = 0; i < n; i++) s += sys.alpha[i] * kE[e * n + i];
+        mean[e] = s;
+      }
+      return mean;
+    },
+  };
+}
+
+/** The local-neighbourhood posterior (./design-posterior.ts). */
+function localView(local: LocalPosterior): PosteriorView<LocalFeatures> {
+  return {
+    c0: local.c0,
+    features: (px, py) => local.features(px, py),
+    cross: (A, B) => local.cross(A, B),
+    pairCovariance: (f, g) => local.cross(f, g)[0],
+    meanAt: (fE) => fE.mean,
+  };
+}
+
+/** Everything the greedy search updates as it picks (the pivoted partial Cholesky factor of the posterior). */
+interface GreedyState<F> {
+  mE: number;
+  mC: number;
+  screen: Uint32Array;
+  /** k_j(E, C), updated in place (mE × mC). */
+  P: Float64Array;
+  fE: F;
+  fC: F;
+  mean: Float64Array;
+  /** k_j(c, c), k_j(e, e) and the sd before any pick. */
+  dC: Float64Array;
+  vE: Float64Array;
+  sd0: Float64Array;
+  /** Decision bookkeeping: undecided evaluation points and their current expected misclassification. */
+  active: number[];
+  eNow: Float64Array;
+  allowed: Uint8Array;
+  /** Index into the screened list of each candidate, or −1. */
+  screened: Int32Array;
+  picks: GreedyPick[];
+  UE: Float64Array[];
+  UC: Float64Array[];
+  /** Features of each pick, U_l(s_j) for l < j, and δ_j. */
+  pickF: F[];
+  pickU: Float64Array[];
+  pickDelta: number[];
+  tiny: number;
+  refined: number;
+}
+
+/** The current column k_j(E, q), k_j(q, q) and U_l(q) of a candidate, from scratch. */
+interface Column<F> {
+  f: F;
+  colE: Float64Array;
+  d: number;
+  U: Float64Array;
+}
+
+/** Benefit of a site whose current column over E is col and whose current variance is d. */
+function benefitOf<F>(s: GreedyState<F>, problem: GreedyProblem, col: (e: number) => number, d: number): number {
+  const denom = d + problem.noise;
+  if (!(denom > s.tiny) || !(d > 0)) return 0;
+  const threshold = problem.threshold;
+  if (threshold === undefined) {
+    let sum = 0;
+    for (let e = 0; e < s.mE; e++) {
+      const k = col(e);
+      sum += k * k;
+    }
+    return sum / denom / s.mE;
+  }
+  let sum = 0;
+  for (const e of s.active) {
+    const k = col(e);
+    if (k === 0) continue;
+    const after = Math.max(0, s.vE[e] - (k * k) / denom);
+    sum += s.eNow[e] - expectedMisclassification(s.mean[e], s.sd0[e], Math.sqrt(after), threshold);
+  }
+  return sum * problem.evaluationArea;
+}
+
+/** The current column of candidate `id` (features from scratch, then the picks' updates). */
+function columnOf<F extends { m: number; variance: Float64Array }>(view: PosteriorView<F>, s: GreedyState<F>, candidates: Points, id: number, q: number): Column<F> {
+  const f = view.features([candidates.x[id]], [candidates.y[id]], covariatesOf(candidates, id, q));
+  const colE = view.cross(s.fE, f); // mE×1
+  let d = f.variance[0];
+  const j = s.picks.length;
+  const U = new Float64Array(j);
+  for (let l = 0; l < j; l++) {
+    // k₀(q, s_l) from the stored features of pick l.
+    let k = view.pairCovariance(f, s.pickF[l]);
+    for (let i = 0; i < l; i++) k -= U[i] * s.pickU[l][i];
+    U[l] = k / s.pickDelta[l];
+  }
+  for (let l = 0; l < j; l++) {
+    const ue = s.UE[l];
+    const ul = U[l];
+    for (let e = 0; e < s.mE; e++) colE[e] -= ul * ue[e];
+    d -= ul * ul;
+  }
+  return { f, colE, d: Math.max(0, d), U };
+}
+
+/** Step 1 of a pick: the best allowed screened candidate and its benefit (−1 when none is allowed). */
+function bestScreened<F>(s: GreedyState<F>, problem: GreedyProblem, colSq: Float64Array): { best: number; benefit: number } {
+  const { mE, mC, P, dC, screen, allowed, tiny } = s;
+  const noise = problem.noise;
+  let best = -1;
+  let bestBenefit = -Infinity;
+  if (problem.threshold === undefined) {
+    colSq.fill(0);
+    for (let e = 0; e < mE; e++) {
+      const row = e * mC;
+      for (let c = 0; c < mC; c++) {
+        const k = P[row + c];
+        colSq[c] += k * k;
+      }
+    }
+    for (let c = 0; c < mC; c++) {
+      if (!allowed[screen[c]]) continue;
+      const denom = dC[c] + noise;
+      const b = denom > tiny && dC[c] > 0 ? colSq[c] / denom / mE : 0;
+      if (b > bestBenefit) {
+        bestBenefit = b;
+        best = c;
+      }
+    }
+  } else {
+    for (let c = 0; c < mC; c++) {
+      if (!allowed[screen[c]]) continue;
+      const b = benefitOf(s, problem, (e) => P[e * mC + c], dC[c]);
+      if (b > bestBenefit) {
+        bestBenefit = b;
+        best = c;
+      }
+    }
+  }
+  return { best, benefit: bestBenefit };
+}
+
+/** Step 2: refines a screened pick among the full-resolution candidates within the refine radius. */
+function refinePick<F extends { m: number; variance: Float64Array }>(
+  view: PosteriorView<F>, s: GreedyState<F>, problem: GreedyProblem, q: number, chosen: number, bestBenefit: number,
+): { chosen: number; benefit: number; column: Column<F> | null } {
+  const { candidates } = problem;
+  let column: Column<F> | null = null;
+  if (problem.screen && problem.refineRadius && problem.refineRadius > 0) {
+    for (const id of problem.within(candidates.x[chosen], candidates.y[chosen], problem.refineRadius)) {
+      if (!s.allowed[id] || s.screened[id] >= 0) continue;
+      const col = columnOf(view, s, candidates, id, q);
+      s.refined++;
+      const b = benefitOf(s, problem, (e) => col.colE[e], col.d);
+      if (b > bestBenefit) {
+        bestBenefit = b;
+        chosen = id;
+        column = col;
+      }
+    }
+  }
+  return { chosen, benefit: bestBenefit, column };
+}
+
+/** Step 3: the rank-one update of k_j(E, C), k_j(e, e) and k_j(c, c) with the chosen site's column. */
+function rankOneUpdate<F>(view: PosteriorView<F & { m: number; variance: Float64Array }>, s: GreedyState<F & { m: number; variance: Float64Array }>, column: Column<F & { m: number; variance: Float64Array }>, noise: number): void {
+  const { mE, mC, P, vE, dC } = s;
+  const delta = Math.sqrt(column.d + noise);
+  const ue = new Float64Array(mE);
+  for (let e = 0; e < mE; e++) ue[e] = column.colE[e] / delta;
+  // k_j(C, s) = k₀(C, s) − Σ_l U_l(C)·U_l(s)
+  const colC = view.cross(s.fC, column.f);
+  for (let l = 0; l < s.picks.length; l++) {
+    const ul = column.U[l];
+    const uc = s.UC[l];
+    for (let c = 0; c < mC; c++) colC[c] -= ul * uc[c];
+  }
+  const uc = new Float64Array(mC);
+  for (let c = 0; c < mC; c++) uc[c] = colC[c] / delta;
+  for (let e = 0; e < mE; e++) {
+    const row = e * mC;
+    const a = ue[e];
+    if (a === 0) continue;
+    for (let c = 0; c < mC; c++) P[row + c] -= a * uc[c];
+    vE[e] = Math.max(0, vE[e] - a * a);
+  }
+  for (let c = 0; c < mC; c++) dC[c] = Math.max(0, dC[c] - uc[c] * uc[c]);
+  s.UE.push(ue);
+  s.UC.push(uc);
+  s.pickF.push(column.f);
+  s.pickU.push(column.U);
+  s.pickDelta.push(delta);
+}
+
+/** The evaluation points' features and mean, the screened candidates' features and k₀(E, C), and the decision bookkeeping. */
+function startSearch<F extends { m: number; variance: Float64Array }>(
+  view: PosteriorView<F>, problem: GreedyProblem, q: number, hooks: GreedyHooks, step: () => void,
+): { state: GreedyState<F>; misclassifiedBefore?: number; decidedSkipped: number } {
+  const { evaluation, candidates } = problem;
   const mE = evaluation.x.length;
   const screen = problem.screen ?? Uint32Array.from({ length: candidates.x.length }, (_, i) => i);
   const mC = screen.length;
-  const threshold = problem.threshold;
-  const decision = threshold !== undefined;
-  const reportThreshold = threshold ?? problem.reportThreshold;
-  const stepsTotal = 3 + count;
-  let stepsDone = 0;
-  const step = (): void => {
-    stepsDone++;
-    hooks.onProgress?.(stepsDone, stepsTotal);
-  };
-
-  // Mean at the evaluation points (kriging scale): m0 + x₀ᵀβ̂ + k₀ᵀα, for the decision sums.
-  const q = covariateColumnCount(sys.model.trend);
-  const fE = posteriorFeatures(sys, evaluation.x, evaluation.y, evaluation.covariates);
-  const mean = new Float64Array(mE);
-  {
-    const centred: CoordinateFrame = { ...sys.frame, cx: 0, cy: 0 };
-    const x0 = new Float64Array(p);
-    const kE = crossCovarianceMatrix(sys.model, fE.u, fE.v, sys.u, sys.v);
-    for (let e = 0; e < mE; e++) {
-      let s = sys.m0;
-      if (p > 0) {
-        designRow(sys.model.trend, fE.u[e], fE.v[e], centred, x0, 0, evaluation.covariates, e * q);
-        for (let c = 0; c < p; c++) s += x0[c] * sys.beta[c];
-      }
-      for (let i = 0; i < n; i++) s += sys.alpha[i] * kE[e * n + i];
-      mean[e] = s;
-    }
-  }
+  const reportThreshold = problem.threshold ?? problem.reportThreshold;
+  const fE = view.features(evaluation.x, evaluation.y, evaluation.covariates);
+  const mean = view.meanAt(fE, evaluation);
   step();
   checkCancelled(hooks, 'while preparing the evaluation points');
   const sx = new Float64Array(mC);
@@ -285,19 +497,15 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
     sy[c] = candidates.y[screen[c]];
     if (sc) sc.set(covariatesOf(candidates, screen[c], q)!, c * q);
   }
-  const fC = posteriorFeatures(sys, sx, sy, sc);
+  const fC = view.features(sx, sy, sc);
   step();
   checkCancelled(hooks, 'while preparing the candidates');
-  const P = posteriorCrossCovariance(sys, fE, fC); // k_j(E, C), updated in place
+  const P = view.cross(fE, fC); // k_j(E, C), updated in place
   step();
-  const dC = Float64Array.from(fC.variance); // k_j(c, c)
   const varianceBefore = Float64Array.from(fE.variance);
-  const vE = Float64Array.from(fE.variance); // k_j(e, e)
-  const sd0 = Float64Array.from(varianceBefore, Math.sqrt);
-
-  // Decision bookkeeping: the undecided evaluation points and their current expected misclassification.
   const active: number[] = [];
   const eNow = new Float64Array(mE);
+  const sd0 = Float64Array.from(varianceBefore, Math.sqrt);
   let decidedSkipped = 0;
   let misclassifiedBefore: number | undefined;
   if (reportThreshold !== undefined) {
@@ -310,172 +518,69 @@ export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): G
       else decidedSkipped++;
     }
   }
-
-  const allowed = Uint8Array.from(problem.allowed);
   const screened = new Int32Array(candidates.x.length).fill(-1);
   for (let c = 0; c < mC; c++) screened[screen[c]] = c;
-  const picks: GreedyPick[] = [];
-  const UE: Float64Array[] = [];
-  const UC: Float64Array[] = [];
-  const pickA: Float64Array[] = [];
-  const pickT: Float64Array[] = [];
-  const pickU: Float64Array[] = []; // U_l(s_j) for l < j
-  const pickDelta: number[] = [];
-  const pickU2: number[] = []; // coordinates of picks (centred)
-  const pickV2: number[] = [];
-  const tiny = 1e-12 * Math.max(sys.c0, 1e-300);
-  let refined = 0;
-
-  /** Benefit of a site whose current column over E is col and whose current variance is d. */
-  const benefitOf = (col: (e: number) => number, d: number): number => {
-    const denom = d + noise;
-    if (!(denom > tiny) || !(d > 0)) return 0;
-    if (!decision) {
-      let s = 0;
-      for (let e = 0; e < mE; e++) {
-        const k = col(e);
-        s += k * k;
-      }
-      return s / denom / mE;
-    }
-    let s = 0;
-    for (const e of active) {
-      const k = col(e);
-      if (k === 0) continue;
-      const after = Math.max(0, vE[e] - (k * k) / denom);
-      s += eNow[e] - expectedMisclassification(mean[e], sd0[e], Math.sqrt(after), threshold);
-    }
-    return s * problem.evaluationArea;
+  const state: GreedyState<F> = {
+    mE, mC, screen, P, fE, fC, mean, dC: Float64Array.from(fC.variance), vE: Float64Array.from(fE.variance), sd0,
+    active, eNow, allowed: Uint8Array.from(problem.allowed), screened,
+    picks: [], UE: [], UC: [], pickF: [], pickU: [], pickDelta: [],
+    tiny: 1e-12 * Math.max(view.c0, 1e-300), refined: 0,
   };
+  return { state, ...(misclassifiedBefore !== undefined ? { misclassifiedBefore } : {}), decidedSkipped };
+}
 
-  /** The current column k_j(E, q), k_j(q, q) and U_l(q) of candidate `id`, from scratch. */
-  const columnOf = (id: number) => {
-    const f = posteriorFeatures(sys, [candidates.x[id]], [candidates.y[id]], covariatesOf(candidates, id, q));
-    const colE = posteriorCrossCovariance(sys, fE, f); // mE×1
-    let d = f.variance[0];
-    const j = picks.length;
-    const U = new Float64Array(j);
-    for (let l = 0; l < j; l++) {
-      // k₀(q, s_l) from the stored features of pick l.
-      let k = crossCovarianceMatrix(sys.model, [f.u[0]], [f.v[0]], [pickU2[l]], [pickV2[l]])[0];
-      const al = pickA[l];
-      for (let i = 0; i < n; i++) k -= f.a[i] * al[i];
-      for (let c = 0; c < p; c++) k += f.t[c] * pickT[l][c];
-      for (let i = 0; i < l; i++) k -= U[i] * pickU[l][i];
-      U[l] = k / pickDelta[l];
-    }
-    for (let l = 0; l < j; l++) {
-      const ue = UE[l];
-      const ul = U[l];
-      for (let e = 0; e < mE; e++) colE[e] -= ul * ue[e];
-      d -= ul * ul;
-    }
-    return { f, colE, d: Math.max(0, d), U };
+/**
+ * Picks sites one at a time by the variance or decision criterion with exact rank-one updates of the
+ * posterior: exact from the factorised system, or from local neighbourhoods when `problem.local` is given.
+ */
+export function greedyDesign(problem: GreedyProblem, hooks: GreedyHooks = {}): GreedyResult {
+  if (problem.local) return greedySearch(localView(problem.local), problem, hooks, 0);
+  if (!problem.system) throw new GapwiseError('bad-option', 'Expected the factorised kriging system or a local posterior for the design.');
+  return greedySearch(exactView(problem.system), problem, hooks, covariateColumnCount(problem.system.model.trend));
+}
+
+/** The search itself over either posterior (q: covariate columns of the points). */
+function greedySearch<F extends { m: number; variance: Float64Array }>(view: PosteriorView<F>, problem: GreedyProblem, hooks: GreedyHooks, q: number): GreedyResult {
+  const { candidates, noise, count, minSpacing, threshold } = problem;
+  const reportThreshold = threshold ?? problem.reportThreshold;
+  const stepsTotal = 3 + count;
+  let stepsDone = 0;
+  const step = (): void => {
+    stepsDone++;
+    hooks.onProgress?.(stepsDone, stepsTotal);
   };
-
-  const colSq = new Float64Array(mC);
+  const { state: s, misclassifiedBefore, decidedSkipped } = startSearch(view, problem, q, hooks, step);
+  const varianceBefore = Float64Array.from(s.fE.variance);
+  const colSq = new Float64Array(s.mC);
   for (let j = 0; j < count; j++) {
     checkCancelled(hooks, `after ${j} of ${count} sites`);
-    // 1. Best screened candidate.
-    let best = -1;
-    let bestBenefit = -Infinity;
-    if (!decision) {
-      colSq.fill(0);
-      for (let e = 0; e < mE; e++) {
-        const row = e * mC;
-        for (let c = 0; c < mC; c++) {
-          const k = P[row + c];
-          colSq[c] += k * k;
-        }
-      }
-      for (let c = 0; c < mC; c++) {
-        if (!allowed[screen[c]]) continue;
-        const denom = dC[c] + noise;
-        const b = denom > tiny && dC[c] > 0 ? colSq[c] / denom / mE : 0;
-        if (b > bestBenefit) {
-          bestBenefit = b;
-          best = c;
-        }
-      }
-    } else {
-      for (let c = 0; c < mC; c++) {
-        if (!allowed[screen[c]]) continue;
-        const b = benefitOf((e) => P[e * mC + c], dC[c]);
-        if (b > bestBenefit) {
-          bestBenefit = b;
-          best = c;
-        }
-      }
-    }
-    if (best < 0) break;
-    let chosen = screen[best];
-    // 2. Refine among full-resolution candidates near the best screened one.
-    let column: ReturnType<typeof columnOf> | null = null;
-    if (problem.screen && problem.refineRadius && problem.refineRadius > 0) {
-      for (const id of problem.within(candidates.x[chosen], candidates.y[chosen], problem.refineRadius)) {
-        if (!allowed[id] || screened[id] >= 0) continue;
-        const col = columnOf(id);
-        refined++;
-        const b = benefitOf((e) => col.colE[e], col.d);
-        if (b > bestBenefit) {
-          bestBenefit = b;
-          chosen = id;
-          column = col;
-        }
-      }
-    }
-    if (!(bestBenefit > 0)) break;
-    column ??= columnOf(chosen);
-    // 3. Rank-one update with the chosen site.
-    const delta = Math.sqrt(column.d + noise);
-    const ue = new Float64Array(mE);
-    for (let e = 0; e < mE; e++) ue[e] = column.colE[e] / delta;
-    // k_j(C, s) = k₀(C, s) − Σ_l U_l(C)·U_l(s)
-    const colC = posteriorCrossCovariance(sys, fC, column.f);
-    for (let l = 0; l < picks.length; l++) {
-      const ul = column.U[l];
-      const uc = UC[l];
-      for (let c = 0; c < mC; c++) colC[c] -= ul * uc[c];
-    }
-    const uc = new Float64Array(mC);
-    for (let c = 0; c < mC; c++) uc[c] = colC[c] / delta;
-    for (let e = 0; e < mE; e++) {
-      const row = e * mC;
-      const a = ue[e];
-      if (a === 0) continue;
-      for (let c = 0; c < mC; c++) P[row + c] -= a * uc[c];
-      vE[e] = Math.max(0, vE[e] - a * a);
-    }
-    for (let c = 0; c < mC; c++) dC[c] = Math.max(0, dC[c] - uc[c] * uc[c]);
-    UE.push(ue);
-    UC.push(uc);
-    pickA.push(column.f.a);
-    pickT.push(column.f.t);
-    pickU.push(column.U);
-    pickDelta.push(delta);
-    pickU2.push(column.f.u[0]);
-    pickV2.push(column.f.v[0]);
-    if (decision) {
-      for (const e of active) eNow[e] = expectedMisclassification(mean[e], sd0[e], Math.sqrt(vE[e]), threshold);
+    const screened = bestScreened(s, problem, colSq);
+    if (screened.best < 0) break;
+    const refined = refinePick(view, s, problem, q, s.screen[screened.best], screened.benefit);
+    if (!(refined.benefit > 0)) break;
+    const chosen = refined.chosen;
+    rankOneUpdate(view, s, refined.column ?? columnOf(view, s, candidates, chosen, q), noise);
+    if (threshold !== undefined) {
+      for (const e of s.active) s.eNow[e] = expectedMisclassification(s.mean[e], s.sd0[e], Math.sqrt(s.vE[e]), threshold);
     }
     const x = candidates.x[chosen];
     const y = candidates.y[chosen];
-    picks.push({ index: chosen, x, y, benefit: bestBenefit });
+    s.picks.push({ index: chosen, x, y, benefit: refined.benefit });
     // 4. Constraints: no site twice, and the minimum spacing.
-    allowed[chosen] = 0;
-    if (minSpacing > 0) for (const id of problem.within(x, y, minSpacing)) if (dist(candidates, id, x, y) < minSpacing) allowed[id] = 0;
+    s.allowed[chosen] = 0;
+    if (minSpacing > 0) for (const id of problem.within(x, y, minSpacing)) if (dist(candidates, id, x, y) < minSpacing) s.allowed[id] = 0;
     step();
   }
 
   let misclassifiedAfter: number | undefined;
   if (reportThreshold !== undefined) {
     misclassifiedAfter = 0;
-    for (let e = 0; e < mE; e++) {
-      misclassifiedAfter += expectedMisclassification(mean[e], sd0[e], Math.sqrt(vE[e]), reportThreshold) * problem.evaluationArea;
+    for (let e = 0; e < s.mE; e++) {
+      misclassifiedAfter += expectedMisclassification(s.mean[e], s.sd0[e], Math.sqrt(s.vE[e]), reportThreshold) * problem.evaluationArea;
     }
   }
   return {
-    picks, mean, varianceBefore, varianceAfter: vE, misclassifiedBefore, misclassifiedAfter, refined, decidedSkipped,
+    picks: s.picks, mean: s.mean, varianceBefore, varianceAfter: s.vE, misclassifiedBefore, misclassifiedAfter, refined: s.refined, decidedSkipped,
   };
 }
 

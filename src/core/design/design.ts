@@ -27,7 +27,11 @@ import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
 import { CAUTION } from '../shared/caution.ts';
 import { cellCentres, gridForPolygons, gridFromExtent, type Grid, type Polygon } from '../geometry/grid.ts';
 import { pointInPolygons, polygonsArea, polygonsExtent } from '../geometry/polygon.ts';
-import { buildKrigingSystem, predictWithSystem } from '../prediction/kriging.ts';
+import { buildKrigingSystem, predictWithSystem, type Prediction } from '../prediction/kriging.ts';
+import { createLocalPredictor } from '../prediction/local-kriging.ts';
+import type { PathChoice, Tolerance } from '../prediction/path-choice.ts';
+import type { LocalAccuracy } from '../prediction/local-accuracy.ts';
+import { planDesignPath } from './design-path.ts';
 import { exceedanceProbability } from '../shared/normal.ts';
 import { NeighborIndex } from '../geometry/neighbors.ts';
 import { greedyDesign, type Points } from './design-greedy.ts';
@@ -75,6 +79,15 @@ export interface DesignOptions {
   /** Coverage: seed and restarts (defaults 1 and 4). */
   seed?: number;
   restarts?: number;
+  /**
+   * Variance and decision designs: 'exact' takes the posterior from all samples, 'local' from
+   * neighbourhoods; absent, ./design-path.ts chooses by cost and `tolerance`.
+   */
+  path?: 'exact' | 'local';
+  /** Samples per neighbourhood of a local posterior (default 64). */
+  neighbors?: number;
+  /** How close a local posterior must come to the exact one (% of the prior sd; default mean 1, sd 2). */
+  tolerance?: Tolerance;
 }
 
 /** Progress and cancellation (functions, so outside the JSON options). */
@@ -138,6 +151,8 @@ export interface DesignResult {
   screenedCandidates: number;
   warnings: Warning[];
   caution: string;
+  /** Variance and decision designs: the posterior used and why, and a local one's measured error. */
+  path?: PathChoice & { neighbors?: number; accuracy?: LocalAccuracy };
 }
 
 const DEFAULT_CELLS = 10_000;
@@ -294,14 +309,17 @@ function resolveMode(options: DesignOptions, model: CovarianceModel | null): Des
   return mode;
 }
 
-/**
- * Suggests where to sample next. `model` may be null (coverage design only).
- * Throws GapwiseError: 'bad-option' (count, cell, spacing, mode, no room for candidates),
- * 'bad-geometry' (boundary), 'cancelled', and the kriging errors of ./kriging.ts.
- */
-export function suggestSites(
-  samples: Samples, model: CovarianceModel | null, options: DesignOptions, hooks: DesignHooks = {},
-): DesignResult {
+/** The checked counts and limits of a design's options. */
+interface DesignLimits {
+  count: number;
+  mode: DesignMode;
+  minSpacing: number;
+  maxEval: number;
+  maxScreen: number;
+  maxCoverage: number;
+}
+
+function checkDesignOptions(options: DesignOptions, model: CovarianceModel | null): DesignLimits {
   if (!options || typeof options !== 'object') throw new GapwiseError('bad-option', 'Expected design options with at least a count.');
   const count = checkNumber(options.count, 'the count of new sites', 1, true);
   if (!Number.isInteger(count) || count > MAX_COUNT) {
@@ -318,23 +336,24 @@ export function suggestSites(
   checkCount(maxEval, MAX_DESIGN_POINTS, 'The evaluation points (maxEvaluationPoints)', 'choose fewer');
   checkCount(maxScreen, MAX_DESIGN_POINTS, 'The screened candidates (maxScreenCandidates)', 'choose fewer');
   checkCount(maxCoverage, MAX_COVERAGE_POINTS, 'The coverage points (maxCoveragePoints)', 'choose fewer');
-  const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
-  const exclusions = options.exclusions ?? [];
-  const log = model?.transform === 'log';
-  const warnings: Warning[] = [];
-  const n = samples.x.length;
-  const progress = (done: number, total: number, stage: string): void => hooks.onProgress?.(done, total, stage);
-  progress(0, 1, 'area');
+  return { count, mode, minSpacing, maxEval, maxScreen, maxCoverage };
+}
 
-  // The area and its grid.
+/** The area grid, its cells inside the area and their area, and the covariate columns of the model. */
+interface DesignArea {
+  grid: Grid;
+  extent: { xmin: number; ymin: number; xmax: number; ymax: number };
+  cell: number;
+  q: number;
+  cellsIn: ReturnType<typeof cellCentres>;
+  area: number;
+}
+
+function designArea(samples: Samples, model: CovarianceModel | null, options: DesignOptions, warnings: Warning[]): DesignArea {
   const given = options.candidates;
-  const gx = given ? Float64Array.from(given.x) : null;
-  const gy = given ? Float64Array.from(given.y) : null;
   const planned = designGrid(samples, options);
-  const { extent } = planned;
   warnings.push(...planned.warnings);
   const grid = options.grid ?? planned.grid;
-  const cell = grid.cell;
   const q = model ? covariateColumnCount(model.trend) : 0;
   if (q > 0) {
     if (!options.grid) throw new GapwiseError('bad-option', 'A model with covariates needs the area grid with the covariates of its cells; expected grid and covariates.');
@@ -342,15 +361,22 @@ export function suggestSites(
     if (given) checkCovariateRows(model!.trend, given.x.length, given.covariates, 'candidate');
   }
   const cellsIn = cellCentres(grid);
-  const area = cellsIn.x.length * cell * cell;
+  return { grid, extent: planned.extent, cell: grid.cell, q, cellsIn, area: cellsIn.x.length * grid.cell * grid.cell };
+}
 
-  // Candidates: inside the area, outside exclusions, spaced from the samples.
+/** Candidates inside the area, outside exclusions and spaced from the samples, with their covariate rows (a given point's own, or its cell's). */
+function keepCandidates(samples: Samples, options: DesignOptions, areaOf: DesignArea, minSpacing: number, warnings: Warning[]): Points {
+  const { grid, extent, q, cellsIn } = areaOf;
+  const boundary = options.boundary && options.boundary.length > 0 ? options.boundary : null;
+  const exclusions = options.exclusions ?? [];
+  const given = options.candidates;
+  const gx = given ? Float64Array.from(given.x) : null;
+  const gy = given ? Float64Array.from(given.y) : null;
   const rawX = gx ?? cellsIn.x;
   const rawY = gy ?? cellsIn.y;
-  // Their covariate rows: a given point's own, or its cell's.
   const rawCovariates = q === 0 ? undefined : given ? given.covariates! : cellPoints(grid, cellsIn.x, cellsIn.y, cellsIn.index, options.covariates).covariates!;
   const keepCovariates: number[] = [];
-  const sampleIndex = n > 0 ? new NeighborIndex(samples.x, samples.y) : null;
+  const sampleIndex = samples.x.length > 0 ? new NeighborIndex(samples.x, samples.y) : null;
   const keepX: number[] = [];
   const keepY: number[] = [];
   let outside = 0, excluded = 0, tooClose = 0;
@@ -386,66 +412,102 @@ export function suggestSites(
   if (keepX.length === 0) {
     throw new GapwiseError('bad-option', `No candidate site is left after the constraints (${outside} outside the area, ${excluded} excluded, ${tooClose} closer than ${minSpacing} m to a sample); expected at least one: relax the spacing or the exclusions.`);
   }
-  const candidates: Points = { x: Float64Array.from(keepX), y: Float64Array.from(keepY), ...(q > 0 ? { covariates: Float64Array.from(keepCovariates) } : {}) };
-  const covariatesAt = (ids: number[]): { covariates?: Float64Array } => (q > 0
+  return { x: Float64Array.from(keepX), y: Float64Array.from(keepY), ...(q > 0 ? { covariates: Float64Array.from(keepCovariates) } : {}) };
+}
+
+/** The candidates' covariate rows at `ids` (nothing without covariates). */
+function covariatesAtIds(candidates: Points, q: number, ids: number[]): { covariates?: Float64Array } {
+  return q > 0
     ? { covariates: Float64Array.from(ids.flatMap((id) => Array.from(candidates.covariates!.subarray(id * q, id * q + q)))) }
-    : {});
-  const candIndex = new NeighborIndex(candidates.x, candidates.y);
-  const within = (x: number, y: number, r: number): number[] => candIndex.within(x, y, r);
+    : {};
+}
 
-  const base = {
-    mode, requested: count, threshold: options.threshold ?? null, area, cell, minSpacing,
-    candidatePoints: candidates.x.length, warnings, caution: CAUTION,
-  };
-  const finish = (sites: Array<{ x: number; y: number; benefit: number }>, predicted: ReturnType<typeof predictWithSystem> | null): Suggestion[] =>
-    sites.map((s, k) => {
-      let pExceed: number | null = null;
-      if (predicted && options.threshold !== undefined) {
-        const t = options.threshold;
-        pExceed = log
-          ? t <= 0 ? 1 : exceedanceProbability(predicted.logMean![k], predicted.logSd![k], Math.log(t))
-          : exceedanceProbability(predicted.mean[k], predicted.sd[k], t);
-      }
-      return {
-        rank: k + 1, x: s.x, y: s.y, benefit: s.benefit,
-        mean: predicted ? predicted.mean[k] : null, sd: predicted ? predicted.sd[k] : null, pExceed,
-      };
-    });
-  const shortfall = (got: number): void => {
-    if (got < count) warnings.push({ code: 'too-few-sites', message: `Only ${got} of ${count} sites fit the constraints (area, exclusions, a spacing of ${minSpacing} m).` });
-  };
-
-  if (mode === 'coverage') {
-    const points = thinCells(grid, maxCoverage, options.covariates);
-    const result = coverageDesign({
-      points, fixed: { x: samples.x, y: samples.y }, candidates, count, minSpacing,
-      seed: options.seed ?? 1, restarts: Math.max(1, Math.floor(options.restarts ?? 4)), maxIterations: 100,
-    }, hooks.isCancelled);
-    shortfall(result.sites.length);
-    let predicted: ReturnType<typeof predictWithSystem> | null = null;
-    if (model && n > 0 && result.sites.length > 0) {
-      const sys = buildKrigingSystem(samples, model);
-      warnings.push(...sys.warnings);
-      predicted = predictWithSystem(sys, result.sites.map((s) => s.x), result.sites.map((s) => s.y), covariatesAt(result.sites.map((s) => s.index)));
+/** The suggestions with their current mean, sd and P(exceed) (from `predicted`, the kriging at the sites). */
+function rankedSuggestions(sites: Array<{ x: number; y: number; benefit: number }>, predicted: Prediction | null, threshold: number | undefined, log: boolean): Suggestion[] {
+  return sites.map((s, k) => {
+    let pExceed: number | null = null;
+    if (predicted && threshold !== undefined) {
+      const t = threshold;
+      pExceed = log
+        ? t <= 0 ? 1 : exceedanceProbability(predicted.logMean![k], predicted.logSd![k], Math.log(t))
+        : exceedanceProbability(predicted.mean[k], predicted.sd[k], t);
     }
-    progress(1, 1, 'done');
     return {
-      ...base,
-      suggestions: finish(result.sites, predicted),
-      benefitMeaning: 'how much the mean squared distance from the area to the nearest sample would rise without this site (m²)',
-      scale: log ? 'log' : 'data',
-      averageSdBefore: null, averageSdAfter: null,
-      misclassifiedAreaBefore: null, misclassifiedAreaAfter: null, areaDecided: null,
-      coverageDistanceBefore: Number.isFinite(result.objectiveBefore) ? Math.sqrt(result.objectiveBefore) : null,
-      coverageDistanceAfter: Math.sqrt(result.objectiveAfter),
-      evaluationPoints: points.x.length, screenedCandidates: candidates.x.length,
+      rank: k + 1, x: s.x, y: s.y, benefit: s.benefit,
+      mean: predicted ? predicted.mean[k] : null, sd: predicted ? predicted.sd[k] : null, pExceed,
     };
-  }
+  });
+}
 
-  const m = model as CovarianceModel;
-  const sys = buildKrigingSystem(samples, m);
-  warnings.push(...sys.warnings);
-  const noise = options.noise ?? nuggetOf(m);
+function shortfallWarning(got: number, count: number, minSpacing: number, warnings: Warning[]): void {
+  if (got < count) warnings.push({ code: 'too-few-sites', message: `Only ${got} of ${count} sites fit the constraints (area, exclusions, a spacing of ${minSpacing} m).` });
+}
+
+/** The fields every design result shares. */
+type DesignBase = Pick<DesignResult, 'mode' | 'requested' | 'threshold' | 'area' | 'cell' | 'minSpacing' | 'candidatePoints' | 'warnings' | 'caution'>;
+
+/** The coverage design (k-means with the samples fixed), and the kriging at its sites when there is a model. */
+function coverageSuggestions(
+  samples: Samples, model: CovarianceModel | null, options: DesignOptions, limits: DesignLimits, areaOf: DesignArea, candidates: Points,
+  base: DesignBase, hooks: DesignHooks,
+): DesignResult {
+  const { count, minSpacing, maxCoverage } = limits;
+  const warnings = base.warnings;
+  const log = model?.transform === 'log';
+  const points = thinCells(areaOf.grid, maxCoverage, options.covariates);
+  const result = coverageDesign({
+    points, fixed: { x: samples.x, y: samples.y }, candidates, count, minSpacing,
+    seed: options.seed ?? 1, restarts: Math.max(1, Math.floor(options.restarts ?? 4)), maxIterations: 100,
+  }, hooks.isCancelled);
+  shortfallWarning(result.sites.length, count, minSpacing, warnings);
+  let predicted: Prediction | null = null;
+  if (model && samples.x.length > 0 && result.sites.length > 0) {
+    const sys = buildKrigingSystem(samples, model);
+    warnings.push(...sys.warnings);
+    predicted = predictWithSystem(sys, result.sites.map((s) => s.x), result.sites.map((s) => s.y), covariatesAtIds(candidates, areaOf.q, result.sites.map((s) => s.index)));
+  }
+  hooks.onProgress?.(1, 1, 'done');
+  return {
+    ...base,
+    suggestions: rankedSuggestions(result.sites, predicted, options.threshold, log),
+    benefitMeaning: 'how much the mean squared distance from the area to the nearest sample would rise without this site (m²)',
+    scale: log ? 'log' : 'data',
+    averageSdBefore: null, averageSdAfter: null,
+    misclassifiedAreaBefore: null, misclassifiedAreaAfter: null, areaDecided: null,
+    coverageDistanceBefore: Number.isFinite(result.objectiveBefore) ? Math.sqrt(result.objectiveBefore) : null,
+    coverageDistanceAfter: Math.sqrt(result.objectiveAfter),
+    evaluationPoints: points.x.length, screenedCandidates: candidates.x.length,
+  };
+}
+
+/** The screened subset of a large candidate set and the radius its picks are refined within (with a warning), or nothing. */
+function screening(candidates: Points, maxScreen: number, areaOf: DesignArea, given: boolean, warnings: Warning[]): { screen?: Uint32Array; refineRadius?: number } {
+  if (candidates.x.length <= maxScreen) return {};
+  const spacing = given ? Math.sqrt(Math.max(areaOf.area, 1) / candidates.x.length) : areaOf.cell;
+  let size = spacing * Math.ceil(Math.sqrt(candidates.x.length / maxScreen));
+  let screen = screenSubset(candidates, size);
+  while (screen.length > maxScreen) {
+    size *= 1.15;
+    screen = screenSubset(candidates, size);
+  }
+  const refineRadius = 0.75 * size;
+  warnings.push({
+    code: 'screened',
+    message: `${candidates.x.length.toLocaleString('en')} candidates were screened on ${screen.length.toLocaleString('en')} of them, and each pick refined among the candidates within ${Math.round(refineRadius)} m.`,
+  });
+  return { screen, refineRadius };
+}
+
+/** The variance or decision design on the exact or local posterior (./design-path.ts chooses). */
+function greedySuggestions(
+  samples: Samples, model: CovarianceModel, options: DesignOptions, limits: DesignLimits, areaOf: DesignArea, candidates: Points,
+  base: DesignBase, hooks: DesignHooks,
+): DesignResult {
+  const { count, mode, minSpacing, maxEval, maxScreen } = limits;
+  const warnings = base.warnings;
+  const systemWarningsAt = warnings.length; // the kriging system's warnings come first
+  const log = model.transform === 'log';
+  const noise = options.noise ?? nuggetOf(model);
   if (noise === 0) warnings.push({ code: 'no-nugget', message: 'The model has no nugget: new measurements are treated as exact.' });
   let threshold: number | undefined;
   if (options.threshold !== undefined) {
@@ -454,49 +516,45 @@ export function suggestSites(
     }
     threshold = log ? Math.log(options.threshold) : options.threshold;
   }
-  const evaluation = thinCells(grid, maxEval, options.covariates);
+  const evaluation = thinCells(areaOf.grid, maxEval, options.covariates);
   const mE = evaluation.x.length;
-  let screen: Uint32Array | undefined;
-  let refineRadius: number | undefined;
-  if (candidates.x.length > maxScreen) {
-    const spacing = gx ? Math.sqrt(Math.max(area, 1) / candidates.x.length) : cell;
-    let size = spacing * Math.ceil(Math.sqrt(candidates.x.length / maxScreen));
-    screen = screenSubset(candidates, size);
-    while (screen.length > maxScreen) {
-      size *= 1.15;
-      screen = screenSubset(candidates, size);
-    }
-    refineRadius = 0.75 * size;
-    warnings.push({
-      code: 'screened',
-      message: `${candidates.x.length.toLocaleString('en')} candidates were screened on ${screen.length.toLocaleString('en')} of them, and each pick refined among the candidates within ${Math.round(refineRadius)} m.`,
-    });
+  const { screen, refineRadius } = screening(candidates, maxScreen, areaOf, options.candidates !== undefined, warnings);
+  if (mE < areaOf.cellsIn.x.length) {
+    warnings.push({ code: 'thinned-area', message: `The area's average is taken over ${mE.toLocaleString('en')} of its ${areaOf.cellsIn.x.length.toLocaleString('en')} cells (a regular sub-lattice).` });
   }
-  if (mE < cellsIn.x.length) {
-    warnings.push({ code: 'thinned-area', message: `The area's average is taken over ${mE.toLocaleString('en')} of its ${cellsIn.x.length.toLocaleString('en')} cells (a regular sub-lattice).` });
-  }
+  const path = planDesignPath(samples, model, evaluation, {
+    candidates: screen ? screen.length : candidates.x.length, sites: count, covariates: areaOf.q > 0,
+    ...(options.neighbors !== undefined ? { neighbors: options.neighbors } : {}),
+    ...(options.tolerance ? { tolerance: options.tolerance } : {}), ...(options.path ? { force: options.path } : {}),
+  });
+  warnings.push(...path.warnings);
+  const sys = path.local ? undefined : buildKrigingSystem(samples, model);
+  if (sys) warnings.splice(systemWarningsAt, 0, ...sys.warnings);
+  const candIndex = new NeighborIndex(candidates.x, candidates.y);
   const result = greedyDesign({
-    system: sys, evaluation, evaluationArea: area / mE, candidates, screen, refineRadius, within,
+    ...(sys ? { system: sys } : {}), ...(path.local ? { local: path.local } : {}),
+    evaluation, evaluationArea: areaOf.area / mE, candidates, screen, refineRadius, within: (x, y, r) => candIndex.within(x, y, r),
     allowed: new Uint8Array(candidates.x.length).fill(1), count, noise, minSpacing,
     threshold: mode === 'decision' ? threshold : undefined,
     reportThreshold: threshold,
-  }, { onProgress: (d, t) => progress(d, t, 'sites'), isCancelled: hooks.isCancelled });
-  shortfall(result.picks.length);
-  const predicted = result.picks.length > 0
-    ? predictWithSystem(sys, result.picks.map((s) => s.x), result.picks.map((s) => s.y), covariatesAt(result.picks.map((s) => s.index)))
-    : null;
+  }, { onProgress: (d, t) => hooks.onProgress?.(d, t, 'sites'), isCancelled: hooks.isCancelled });
+  shortfallWarning(result.picks.length, count, minSpacing, warnings);
+  const sites = { x: result.picks.map((s) => s.x), y: result.picks.map((s) => s.y) };
+  const predicted = result.picks.length === 0 ? null
+    : sys ? predictWithSystem(sys, sites.x, sites.y, covariatesAtIds(candidates, areaOf.q, result.picks.map((s) => s.index)))
+      : createLocalPredictor(samples, model, { neighbors: path.neighbors }).predict(sites.x, sites.y);
   let sdBefore = 0;
   let sdAfter = 0;
   for (let e = 0; e < mE; e++) {
     sdBefore += Math.sqrt(result.varianceBefore[e]);
     sdAfter += Math.sqrt(result.varianceAfter[e]);
   }
-  progress(1, 1, 'done');
+  hooks.onProgress?.(1, 1, 'done');
   const before = result.misclassifiedBefore ?? null;
   const after = result.misclassifiedAfter ?? null;
   return {
     ...base,
-    suggestions: finish(result.picks, predicted),
+    suggestions: rankedSuggestions(result.picks, predicted, options.threshold, log),
     benefitMeaning: mode === 'decision'
       ? 'drop of the expected misclassified area against the threshold (m²)'
       : `drop of the average variance of the surface over the area (${log ? 'ln(value)' : 'data unit'} squared)`,
@@ -510,5 +568,27 @@ export function suggestSites(
     coverageDistanceAfter: null,
     evaluationPoints: mE,
     screenedCandidates: screen ? screen.length : candidates.x.length,
+    path: { ...path.choice, ...(path.neighbors !== undefined ? { neighbors: path.neighbors } : {}), ...(path.accuracy ? { accuracy: path.accuracy } : {}) },
   };
+}
+
+/**
+ * Suggests where to sample next. `model` may be null (coverage design only).
+ * Throws GapwiseError: 'bad-option' (count, cell, spacing, mode, no room for candidates),
+ * 'bad-geometry' (boundary), 'cancelled', and the kriging errors of ./kriging.ts.
+ */
+export function suggestSites(
+  samples: Samples, model: CovarianceModel | null, options: DesignOptions, hooks: DesignHooks = {},
+): DesignResult {
+  const limits = checkDesignOptions(options, model);
+  const warnings: Warning[] = [];
+  hooks.onProgress?.(0, 1, 'area');
+  const areaOf = designArea(samples, model, options, warnings);
+  const candidates = keepCandidates(samples, options, areaOf, limits.minSpacing, warnings);
+  const base: DesignBase = {
+    mode: limits.mode, requested: limits.count, threshold: options.threshold ?? null, area: areaOf.area, cell: areaOf.cell, minSpacing: limits.minSpacing,
+    candidatePoints: candidates.x.length, warnings, caution: CAUTION,
+  };
+  if (limits.mode === 'coverage') return coverageSuggestions(samples, model, options, limits, areaOf, candidates, base, hooks);
+  return greedySuggestions(samples, model as CovarianceModel, options, limits, areaOf, candidates, base, hooks);
 }

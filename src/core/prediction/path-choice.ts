@@ -192,3 +192,17 @@ export function parseTolerance(text: string, defaults: Tolerance = DEFAULT_TOLER
 export function describeTolerance(t: Tolerance): string {
   return `mean within ${t.mean} %, sd within ${t.sd} % of the prior sd`;
 }
+
+/**
+ * Estimated multiply-adds of measuring a local run at `targets` targets against its reference (the
+ * `reference` term of localCost): exact kriging from all samples up to MAX_EXACT_SAMPLES, above that
+ * kriging from the REFERENCE_NEIGHBORS nearest at each checked target.
+ */
+export function referenceCost(samples: number, targets: number): number {
+  const n = samples;
+  const c = checkCount(n, targets);
+  const R = REFERENCE_NEIGHBORS;
+  return n <= MAX_EXACT_SAMPLES
+    ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + c * (n * n / 2 + KERNEL_COST * n)
+    : c * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);
+}

@@ -46,13 +46,13 @@
  * memory 8·N·cells bytes for the realisations (Float32 bands: 4·N·cells).
  */
 import type { CovarianceModel } from '../covariance/model.ts';
-import { isKnownTrend, nuggetOf } from '../covariance/model.ts';
+import { checkModelScale, isKnownTrend, nuggetOf } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
 import { acrossAxis, alongAxis, anisotropyFrame, crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from '../covariance/covariance.ts';
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from '../linalg/linalg.ts';
-import { buildKrigingSystem, type KrigingSystem } from '../prediction/kriging.ts';
-import { MAX_LOCAL_NEIGHBORS } from '../prediction/local-kriging.ts';
+import { buildKrigingSystem, checkModel, type KrigingSystem } from '../prediction/kriging.ts';
+import { MAX_LOCAL_NEIGHBORS, createLocalPredictor } from '../prediction/local-kriging.ts';
 import { checkCovariateRows, covariateColumnCount, designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from '../shared/random.ts';
@@ -102,6 +102,12 @@ export interface ConditionalSimulationOptions {
   depth?: number;
   /** Krige the residuals from the m nearest samples (default: all samples up to 2,000, else 64). */
   neighbors?: number;
+  /**
+   * 'exact': krige the residuals from all samples whatever `neighbors` says; 'local': from the
+   * `neighbors` nearest (default 64). Absent: the rule of `neighbors` above. ./simulation-path.ts
+   * chooses it by cost and tolerance.
+   */
+  path?: 'exact' | 'local';
   /** Keep every realisation (Float32, NaN outside the area); default true. */
   keepRealisations?: boolean;
   /** Passed to the circulant embedding (size cap, accepted truncation). */
@@ -326,6 +332,84 @@ function denseKriger(sys: KrigingSystem): ResidualKriger {
   };
 }
 
+/** One kriging neighbourhood of q samples (isotropic search) and its factorised system, reused while the neighbours stay the same. */
+interface Neighbourhood {
+  samples: Samples;
+  model: CovarianceModel;
+  q: number;
+  p: number;
+  frame: CoordinateFrame;
+  ids: Uint32Array;
+  /** q × q Cholesky factor of the neighbours' covariance (nugget on the diagonal). */
+  L: Float64Array;
+  /** L⁻¹X (q × p) and the factor of WᵀW (p × p). */
+  Wl: Float64Array;
+  Lg: Float64Array;
+  cov: (x1: number, y1: number, x2: number, y2: number) => number;
+  /** Neighbourhoods that needed a diagonal jitter since the last report. */
+  jittered: number;
+}
+
+/** Fills L with the neighbours' covariance, the diagonal scaled by 1 + rel. */
+function fillNeighbourhood(h: Neighbourhood, diagonal: number): void {
+  const { q, ids, L, samples, cov } = h;
+  for (let a = 0; a < q; a++) {
+    const ia = ids[a];
+    for (let b = 0; b < a; b++) L[a * q + b] = cov(samples.x[ia], samples.y[ia], samples.x[ids[b]], samples.y[ids[b]]);
+    L[a * q + a] = diagonal;
+    for (let b = a + 1; b < q; b++) L[a * q + b] = 0;
+  }
+}
+
+/** Factorises the neighbourhood's covariance (with a growing jitter when needed) and its trend's G = WᵀW. */
+function factorNeighbourhood(h: Neighbourhood, c0: number, nugget: number): void {
+  const { q, p, ids, L, Wl, Lg, samples, model, frame } = h;
+  fillNeighbourhood(h, c0 + nugget);
+  if (!choleskyInPlace(L, q)) {
+    let ok = false;
+    for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
+      fillNeighbourhood(h, (c0 + nugget) * (1 + rel));
+      ok = choleskyInPlace(L, q);
+    }
+    if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, samples.value, model)}.`);
+    h.jittered++;
+  }
+  if (p > 0) {
+    for (let a = 0; a < q; a++) designRow(model.trend, samples.x[ids[a]], samples.y[ids[a]], frame, Wl, a * p);
+    solveLowerBlock(L, q, Wl, p);
+    Lg.fill(0);
+    for (let a = 0; a < p; a++) for (let b = 0; b <= a; b++) {
+      let s = 0;
+      for (let i = 0; i < q; i++) s += Wl[i * p + a] * Wl[i * p + b];
+      Lg[a * p + b] = s;
+    }
+    if (!choleskyInPlace(Lg, p)) throw new GapwiseError('not-positive-definite', 'The trend cannot be estimated in a kriging neighbourhood (its samples lie on a line); use more neighbours or a constant trend.');
+  }
+}
+
+/** Kriging weights λ of the neighbourhood at (x, y): λ = L⁻ᵀ(v + W·t), v = L⁻¹k₀, t = G⁻¹(x₀ − Wᵀv) (as kriging.ts weightsWithSystem). */
+function neighbourhoodWeights(h: Neighbourhood, x: number, y: number, lambda: Float64Array, row: Float64Array, t: Float64Array): void {
+  const { q, p, ids, L, Wl, Lg, samples, model, frame, cov } = h;
+  for (let a = 0; a < q; a++) lambda[a] = cov(x, y, samples.x[ids[a]], samples.y[ids[a]]);
+  solveLowerInPlace(L, q, lambda);
+  if (p > 0) {
+    designRow(model.trend, x, y, frame, row);
+    for (let a = 0; a < p; a++) {
+      let s = row[a];
+      for (let i = 0; i < q; i++) s -= Wl[i * p + a] * lambda[i];
+      t[a] = s;
+    }
+    solveLowerInPlace(Lg, p, t);
+    solveUpperTransposeInPlace(Lg, p, t);
+    for (let i = 0; i < q; i++) {
+      let s = 0;
+      for (let a = 0; a < p; a++) s += Wl[i * p + a] * t[a];
+      lambda[i] += s;
+    }
+  }
+  solveUpperTransposeInPlace(L, q, lambda);
+}
+
 function localKriger(samples: Samples, model: CovarianceModel, neighbors: number, warnings: Warning[]): ResidualKriger {
   const n = samples.x.length;
   const trend = model.trend;
@@ -348,54 +432,19 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
   const index = new NeighborIndex(ix, iy);
   const nugget = nuggetOf(model);
   const c0 = surfaceVariance(model);
-  const ids = new Uint32Array(q);
+  const hood: Neighbourhood = {
+    samples, model, q, p, frame, ids: new Uint32Array(q), L: new Float64Array(q * q), Wl: new Float64Array(q * p), Lg: new Float64Array(p * p),
+    cov: (x1, y1, x2, y2) => surfaceCovariance(model, effectiveDistance(x1 - x2, y1 - y2, an)),
+    jittered: 0,
+  };
+  const { ids } = hood;
   const prev = new Uint32Array(q);
   let have = false;
-  const L = new Float64Array(q * q);
-  const Wl = new Float64Array(q * p);
-  const Lg = new Float64Array(p * p);
-  const k0 = new Float64Array(q);
   const lambda = new Float64Array(q);
   const row = new Float64Array(Math.max(1, p));
   const t = new Float64Array(p);
-  let jittered = 0;
   let r: Float64Array = new Float64Array(0);
   let B = 0;
-  const cov = (x1: number, y1: number, x2: number, y2: number) => surfaceCovariance(model, effectiveDistance(x1 - x2, y1 - y2, an));
-
-  const factor = (): void => {
-    for (let a = 0; a < q; a++) {
-      const ia = ids[a];
-      for (let b = 0; b < a; b++) L[a * q + b] = cov(samples.x[ia], samples.y[ia], samples.x[ids[b]], samples.y[ids[b]]);
-      L[a * q + a] = c0 + nugget;
-      for (let b = a + 1; b < q; b++) L[a * q + b] = 0;
-    }
-    if (!choleskyInPlace(L, q)) {
-      let ok = false;
-      for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
-        for (let a = 0; a < q; a++) {
-          const ia = ids[a];
-          for (let b = 0; b < a; b++) L[a * q + b] = cov(samples.x[ia], samples.y[ia], samples.x[ids[b]], samples.y[ids[b]]);
-          L[a * q + a] = (c0 + nugget) * (1 + rel);
-          for (let b = a + 1; b < q; b++) L[a * q + b] = 0;
-        }
-        ok = choleskyInPlace(L, q);
-      }
-      if (!ok) throw new GapwiseError('not-positive-definite', `A kriging neighbourhood of ${q} samples could not be factorised: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, samples.value, model)}.`);
-      jittered++;
-    }
-    if (p > 0) {
-      for (let a = 0; a < q; a++) designRow(trend, samples.x[ids[a]], samples.y[ids[a]], frame, Wl, a * p);
-      solveLowerBlock(L, q, Wl, p);
-      Lg.fill(0);
-      for (let a = 0; a < p; a++) for (let b = 0; b <= a; b++) {
-        let s = 0;
-        for (let i = 0; i < q; i++) s += Wl[i * p + a] * Wl[i * p + b];
-        Lg[a * p + b] = s;
-      }
-      if (!choleskyInPlace(Lg, p)) throw new GapwiseError('not-positive-definite', 'The trend cannot be estimated in a kriging neighbourhood (its samples lie on a line); use more neighbours or a constant trend.');
-    }
-  };
 
   return {
     prepare(res: Float64Array, count: number): void {
@@ -411,30 +460,11 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
         let same = have;
         if (same) for (let a = 0; a < q; a++) if (ids[a] !== prev[a]) { same = false; break; }
         if (!same) {
-          factor();
+          factorNeighbourhood(hood, c0, nugget);
           prev.set(ids);
           have = true;
         }
-        for (let a = 0; a < q; a++) k0[a] = cov(tx[j], ty[j], samples.x[ids[a]], samples.y[ids[a]]);
-        // λ = L⁻ᵀ(v + W·t), v = L⁻¹k₀, t = G⁻¹(x₀ − Wᵀv) (as kriging.ts weightsWithSystem).
-        lambda.set(k0);
-        solveLowerInPlace(L, q, lambda);
-        if (p > 0) {
-          designRow(trend, tx[j], ty[j], frame, row);
-          for (let a = 0; a < p; a++) {
-            let s = row[a];
-            for (let i = 0; i < q; i++) s -= Wl[i * p + a] * lambda[i];
-            t[a] = s;
-          }
-          solveLowerInPlace(Lg, p, t);
-          solveUpperTransposeInPlace(Lg, p, t);
-          for (let i = 0; i < q; i++) {
-            let s = 0;
-            for (let a = 0; a < p; a++) s += Wl[i * p + a] * t[a];
-            lambda[i] += s;
-          }
-        }
-        solveUpperTransposeInPlace(L, q, lambda);
+        neighbourhoodWeights(hood, tx[j], ty[j], lambda, row, t);
         const o = j * B;
         let sum = 0;
         for (let a = 0; a < q; a++) sum += lambda[a];
@@ -446,9 +476,9 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
           for (let b = 0; b < B; b++) out[o + b] += l * r[ri + b];
         }
       }
-      if (jittered > 0) {
-        warnings.push({ code: 'jitter', message: `${jittered} kriging neighbourhood${jittered === 1 ? ' was' : 's were'} not numerically positive definite and got a small diagonal jitter.` });
-        jittered = 0;
+      if (hood.jittered > 0) {
+        warnings.push({ code: 'jitter', message: `${hood.jittered} kriging neighbourhood${hood.jittered === 1 ? ' was' : 's were'} not numerically positive definite and got a small diagonal jitter.` });
+        hood.jittered = 0;
       }
     },
   };
@@ -540,16 +570,8 @@ function checkOptions(options: ConditionalSimulationOptions, log: boolean): void
   }
 }
 
-/**
- * N conditional realisations of the surface on the grid's active cells (see the file header), with
- * per-cell mean, sd, P(exceed) and the area (volume) above the threshold. Deterministic for a seed.
- * Throws GapwiseError for bad options and whatever kriging and the embedding throw.
- */
-export function simulateConditional(
-  samples: Samples, model: CovarianceModel, grid: Grid, options: ConditionalSimulationOptions,
-): ConditionalSimulationResult {
-  const log = model.transform === 'log';
-  checkOptions(options, log);
+/** Refuses a grid without cells and more kept values than MAX_KEPT_VALUES. */
+function checkGrid(grid: Grid, options: ConditionalSimulationOptions): void {
   if (!grid || !(grid.nx >= 1) || !(grid.ny >= 1) || !(grid.cell > 0)) {
     throw new GapwiseError('bad-option', `Expected a grid with at least one cell and a positive cell size, got ${JSON.stringify(grid && { nx: grid.nx, ny: grid.ny, cell: grid.cell })}.`);
   }
@@ -559,29 +581,57 @@ export function simulateConditional(
       `The realisations to keep (${N.toLocaleString('en')} × ${(grid.nx * grid.ny).toLocaleString('en')} cells)`,
       `draw fewer realisations, use a larger cell, or keep only the summaries (the limit is ${(MAX_KEPT_VALUES * 4 / 1e9).toFixed(0)} GB of 32-bit floats)`);
   }
-  const seed = options.seed ?? 1;
-  const first = options.first ?? 0;
-  const support = options.support ?? 'point';
-  const k = support === 'block' ? options.blockPoints ?? 4 : 1;
-  const warnings: Warning[] = [];
-  const n = samples.x.length;
-  const useLocal = options.neighbors !== undefined ? options.neighbors < n : n > DENSE_LIMIT;
-  const neighbors = useLocal ? options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS : n;
+}
 
+/** Whether the residuals are kriged from neighbourhoods, and of how many samples. */
+function neighbourhoodOf(options: ConditionalSimulationOptions, n: number): { useLocal: boolean; neighbors: number } {
+  const useLocal = options.path === 'exact' ? false
+    : options.path === 'local' ? (options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS) < n
+      : options.neighbors !== undefined ? options.neighbors < n : n > DENSE_LIMIT;
+  return { useLocal, neighbors: useLocal ? options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS : n };
+}
+
+/**
+ * The kriger of the residuals and the data on the kriging scale. The dense system is built when the
+ * residuals are kriged from all samples or a covariate trend needs its GLS estimate; otherwise the
+ * samples and model are checked as local kriging checks them and no n × n matrix is made.
+ */
+function residualKriger(samples: Samples, model: CovarianceModel, useLocal: boolean, neighbors: number, warnings: Warning[]): { kriger: ResidualKriger; z: Float64Array } {
+  const q = covariateColumnCount(model.trend);
+  if (useLocal && q === 0) {
+    checkModel(model);
+    createLocalPredictor(samples, model, { neighbors: Math.min(neighbors, MAX_LOCAL_NEIGHBORS) });
+    checkModelScale(model, samples.x, samples.y, samples.value);
+    const log = model.transform === 'log';
+    const z = Float64Array.from(samples.value, (v) => (log ? Math.log(v) : v));
+    return { kriger: localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbors, warnings), z };
+  }
   // The dense system also validates samples and model (values > 0 for a log model, ...).
   const sys = buildKrigingSystem(samples, model);
   warnings.push(...sys.warnings);
   const z = sys.z;
-  const q = covariateColumnCount(model.trend);
-  const kriger = !useLocal ? denseKriger(sys)
-    : q > 0 ? globalTrendLocalKriger(sys, { x: samples.x, y: samples.y, value: z }, model, neighbors, warnings)
-      : localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbors, warnings);
-  const c0 = surfaceVariance(model);
-  const nugget = nuggetOf(model);
-  const an = model.anisotropy;
-  const cov = (dx: number, dy: number) => surfaceCovariance(model, effectiveDistance(dx, dy, an));
+  const kriger = !useLocal ? denseKriger(sys) : globalTrendLocalKriger(sys, { x: samples.x, y: samples.y, value: z }, model, neighbors, warnings);
+  return { kriger, z };
+}
 
-  // Lattice: node (I, J) at (lx0 + I·h, ly0 − J·h); the grid's sub-node (i·k + a, j·k + b) is node (I0 + i·k + a, J0 + j·k + b).
+/** The simulation lattice: node (I, J) at (baseX + (I − I0)·h, baseY − (J − J0)·h), covering the grid and every sample's block. */
+interface Lattice {
+  h: number;
+  baseX: number;
+  baseY: number;
+  I0: number;
+  J0: number;
+  lnx: number;
+  lny: number;
+  /** Samples' fractional lattice positions (relative to the grid's first node). */
+  fI: Float64Array;
+  fJ: Float64Array;
+}
+
+/** Lays the lattice over the grid (spacing cell/k) and every sample's 6 × 6 block; refuses one whose torus exceeds the cap. */
+function layLattice(samples: Samples, grid: Grid, k: number, embedding: EmbeddingOptions | undefined): Lattice {
+  const n = samples.x.length;
+  // The grid's sub-node (i·k + a, j·k + b) is node (I0 + i·k + a, J0 + j·k + b).
   const h = grid.cell / k;
   const half = STENCIL / 2;
   let minI = 0, minJ = 0, maxI = grid.nx * k - 1, maxJ = grid.ny * k - 1;
@@ -598,16 +648,31 @@ export function simulateConditional(
   }
   const I0 = -minI, J0 = -minJ;
   const lnx = maxI - minI + 1, lny = maxJ - minJ + 1;
-  const cap = options.embedding?.maxCells ?? (1 << 22);
+  const cap = embedding?.maxCells ?? (1 << 22);
   if (4 * lnx * lny > cap) {
     throw new GapwiseError('bad-option',
       `The simulation lattice covering the grid and the samples would have ${lnx} × ${lny} nodes at ${h.toPrecision(3)} m; the torus for it exceeds ${cap.toLocaleString('en')} nodes: choose a larger cell, fewer block points, or a boundary closer to the samples.`);
   }
-  const emb = createCirculantEmbedding(model, { nx: lnx, ny: lny, spacing: h }, options.embedding);
-  warnings.push(...emb.warnings);
-  const sampler = createFieldSampler(emb);
+  return { h, baseX, baseY, I0, J0, lnx, lny, fI, fJ };
+}
 
-  // Sample placement: one 6 × 6 stencil, its covariance matrix factorised once.
+/** Each sample's 6 × 6 block of lattice nodes and its simple-kriging weights from the block (one weight of 1 on a node). */
+interface Placement {
+  originI: Int32Array;
+  originJ: Int32Array;
+  /** n × 36 weights. */
+  weights: Float64Array;
+  /** The block node a sample sits on, or −1. */
+  onNode: Int32Array;
+  /** C(sample d, node (I, J)). */
+  sampleNodeCov: (d: number, I: number, J: number) => number;
+}
+
+/** Places the samples between lattice nodes: one 6 × 6 stencil, its covariance matrix factorised once. */
+function placeSamples(samples: Samples, lattice: Lattice, cov: (dx: number, dy: number) => number, c0: number, warnings: Warning[]): Placement {
+  const n = samples.x.length;
+  const { h, baseX, baseY, I0, J0, fI, fJ } = lattice;
+  const half = STENCIL / 2;
   const S2 = STENCIL * STENCIL;
   const Kst = new Float64Array(S2 * S2);
   for (let p = 0; p < S2; p++) for (let q = 0; q < S2; q++) {
@@ -637,14 +702,24 @@ export function simulateConditional(
     solveUpperTransposeInPlace(stencilFactor.L, S2, kd);
     weights.set(kd, d * S2);
   }
-  // Node-to-node covariances by lag, looked up: lagCov(dI, dJ) = C(dI·h east, −dJ·h north).
+  return { originI, originJ, weights, onNode, sampleNodeCov };
+}
+
+/** Node-to-node covariances by lag, looked up: lagCov(dI, dJ) = C(dI·h east, −dJ·h north). */
+function lagCovariances(lattice: Lattice, cov: (dx: number, dy: number) => number): (dI: number, dJ: number) => number {
+  const { lnx, lny, h } = lattice;
   const spanI = lnx + STENCIL + 2 * COUPLING, spanJ = lny + STENCIL + 2 * COUPLING;
   const lagWidth = 2 * spanI + 1;
   const lagTable = new Float64Array(lagWidth * (2 * spanJ + 1));
   for (let dJ = -spanJ; dJ <= spanJ; dJ++) for (let dI = -spanI; dI <= spanI; dI++) lagTable[(dJ + spanJ) * lagWidth + dI + spanI] = cov(dI * h, -dJ * h);
-  const lagCov = (dI: number, dJ: number): number => lagTable[(dJ + spanJ) * lagWidth + dI + spanI];
-  // Residual covariance R_de = C(d, e) − w_dᵀC(N_d, e) − w_eᵀC(N_e, d) + w_dᵀC(N_d, N_e)w_e.
-  const residualCov = (d: number, e: number): number => {
+  return (dI: number, dJ: number): number => lagTable[(dJ + spanJ) * lagWidth + dI + spanI];
+}
+
+/** The residual covariance R_de = C(d, e) − w_dᵀC(N_d, e) − w_eᵀC(N_e, d) + w_dᵀC(N_d, N_e)w_e. */
+function residualCovariance(samples: Samples, placement: Placement, cov: (dx: number, dy: number) => number, lagCov: (dI: number, dJ: number) => number): (d: number, e: number) => number {
+  const { originI, originJ, weights, sampleNodeCov } = placement;
+  const S2 = STENCIL * STENCIL;
+  return (d: number, e: number): number => {
     let c = cov(samples.x[d] - samples.x[e], samples.y[d] - samples.y[e]);
     const wd = d * S2, we = e * S2;
     for (let s = 0; s < S2; s++) {
@@ -666,10 +741,22 @@ export function simulateConditional(
     }
     return c;
   };
+}
+
+/** A group of samples whose residuals are drawn jointly (Cholesky factor) or independently (sds). */
+type ResidualGroup = { members: number[]; L: Float64Array } | { members: number[]; sd: Float64Array };
+
+/**
+ * Groups the samples whose blocks lie within COUPLING nodes of each other and factorises each group's
+ * residual covariance (pairs farther apart left uncorrelated); groups too large or not factorisable
+ * are drawn independently, with a warning.
+ */
+function residualGroups(n: number, placement: Placement, residualCov: (d: number, e: number) => number, warnings: Warning[]): ResidualGroup[] {
+  const { originI, originJ, onNode } = placement;
   const near = (i: number, j: number): boolean => Math.abs(originI[i] - originI[j]) <= COUPLING && Math.abs(originJ[i] - originJ[j]) <= COUPLING;
   const cellIndex = new NeighborIndex(Float64Array.from(originI), Float64Array.from(originJ));
   const sampleGroups = groups(n, near, (i) => cellIndex.within(originI[i], originJ[i], COUPLING * Math.SQRT2 + 1e-9));
-  const groupFactors: Array<{ members: number[]; L: Float64Array } | { members: number[]; sd: Float64Array }> = [];
+  const groupFactors: ResidualGroup[] = [];
   let uncoupled = 0;
   const independent = (g: number[]) => ({ members: g, sd: Float64Array.from(g, (d) => Math.sqrt(Math.max(0, residualCov(d, d)))) });
   for (const g of sampleGroups) {
@@ -705,7 +792,13 @@ export function simulateConditional(
   if (uncoupled > 0) {
     warnings.push({ code: 'placement-uncoupled', message: `${uncoupled} samples lie so densely that their sub-cell residuals were drawn independently (a group above ${MAX_GROUP} samples, or one whose residual covariance could not be factorised); a smaller cell places them more exactly.` });
   }
-  // Diagnostic: the neglected covariance between each residual and nodes near its stencil.
+  return groupFactors;
+}
+
+/** The largest neglected covariance between a sample's residual and the nodes near its block, relative to the sill (warned above 1 %). */
+function placementErrorOf(n: number, placement: Placement, lagCov: (dI: number, dJ: number) => number, c0: number, warnings: Warning[]): number {
+  const { originI, originJ, onNode, weights, sampleNodeCov } = placement;
+  const S2 = STENCIL * STENCIL;
   let placementError = 0;
   const step = Math.max(1, Math.floor(n / 400));
   for (let d = 0; d < n; d += step) {
@@ -725,18 +818,39 @@ export function simulateConditional(
   if (placementError > 0.01) {
     warnings.push({ code: 'placement-error', message: `Samples between lattice nodes are placed with covariances off by up to ${(100 * placementError).toPrecision(2)} % of the sill; a smaller cell (or block points) reduces this.` });
   }
+  return placementError;
+}
 
-  // Output nodes of active cells, row-major by cell, then k × k sub-nodes.
+/** The nodes kriged for the output: active cells row-major, each its k × k sub-nodes or (averaged first) its centre. */
+interface OutputNodes {
+  active: number[];
+  nActive: number;
+  k: number;
+  kk: number;
+  /** A linear model with block support: the cell average commutes with the kriging, so average first. */
+  averageFirst: boolean;
+  perCell: number;
+  nodesOut: number;
+  outX: Float64Array;
+  outY: Float64Array;
+  /** Offsets of a cell's sub-nodes from its centre (averaged first only). */
+  blockShape: { dx: Float64Array; dy: Float64Array } | null;
+  /** Covariate trend: the covariates of every kriged node (active cells, k² nodes each) × q. */
+  nodeCovariates?: Float64Array;
+  cellsTotal: number;
+}
+
+function outputNodes(grid: Grid, lattice: Lattice, k: number, log: boolean, model: CovarianceModel, options: ConditionalSimulationOptions): OutputNodes {
+  const { h, baseX, baseY } = lattice;
+  const q = covariateColumnCount(model.trend);
   const cellsTotal = grid.nx * grid.ny;
   const active: number[] = [];
   for (let c = 0; c < cellsTotal; c++) if (!grid.mask || grid.mask[c] === 1) active.push(c);
   const nActive = active.length;
   const kk = k * k;
-  // For a linear model with block support the cell average commutes with the kriging: average first.
   const averageFirst = !log && k > 1;
   const perCell = averageFirst ? 1 : kk;
   const nodesOut = nActive * perCell;
-  // The covariates of every kriged node (active cells, k² nodes each), × q.
   let nodeCovariates: Float64Array | undefined;
   if (q > 0) {
     checkCovariateRows(model.trend, cellsTotal * kk, options.covariates?.length === cellsTotal * kk * q ? options.covariates : undefined, 'lattice node');
@@ -744,16 +858,6 @@ export function simulateConditional(
     const c = options.covariates as Float64Array;
     for (let a = 0; a < nActive; a++) nodeCovariates.set(c.subarray(active[a] * kk * q, (active[a] + 1) * kk * q), a * kk * q);
   }
-  const batch = Math.max(2, Math.min(N, Math.floor(BATCH_BYTES / (8 * Math.max(1, nodesOut)))));
-
-  const realisations: Float32Array[] | undefined = options.keepRealisations === false ? undefined : [];
-  const sum = new Float64Array(cellsTotal);
-  const sumSq = new Float64Array(cellsTotal);
-  const above = options.threshold !== undefined ? new Float64Array(cellsTotal) : undefined;
-  const counts = new Float64Array(N);
-  const threshold = options.threshold;
-  const lat = new Float64Array(lnx * lny);
-  const lat2 = new Float64Array(lnx * lny);
   const outX = new Float64Array(nodesOut), outY = new Float64Array(nodesOut);
   for (let a = 0; a < nActive; a++) {
     const c = active[a];
@@ -773,116 +877,164 @@ export function simulateConditional(
     blockShape.dx[s] = ((s % k) + 0.5 - k / 2) * h;
     blockShape.dy[s] = -(Math.floor(s / k) + 0.5 - k / 2) * h;
   }
-  const eps = new Float64Array(n);
-  const noise = new Float64Array(MAX_GROUP);
+  return { active, nActive, k, kk, averageFirst, perCell, nodesOut, outX, outY, blockShape, ...(nodeCovariates ? { nodeCovariates } : {}), cellsTotal };
+}
 
-  let reported = 0;
-  for (let r0 = 0; r0 < N; r0 += batch) {
-    const B = Math.min(batch, N - r0);
-    const G = new Float64Array(nodesOut * B);
-    const resid = new Float64Array(n * B);
-    for (let b = 0; b < B; b++) {
-      const rIndex = first + r0 + b;
-      // Fields come in pairs from one FFT; pair p gives realisations 2p and 2p + 1 whatever the batching.
-      const pairIndex = Math.floor(rIndex / 2);
-      if (rIndex % 2 === 0 || b === 0) sampler.pair(createRandom(mixSeed(seed, 0, pairIndex)), lat, lat2);
-      const field = rIndex % 2 === 0 ? lat : lat2;
-      for (let a = 0; a < nActive; a++) {
-        const c = active[a];
-        const i = c % grid.nx, j = Math.floor(c / grid.nx);
-        if (averageFirst) {
-          let s = 0;
-          for (let q = 0; q < kk; q++) s += field[(J0 + j * k + Math.floor(q / k)) * lnx + I0 + i * k + (q % k)];
-          G[a * B + b] = s / kk;
-        } else {
-          for (let q = 0; q < kk; q++) G[(a * kk + q) * B + b] = field[(J0 + j * k + Math.floor(q / k)) * lnx + I0 + i * k + (q % k)];
-        }
-      }
-      // Unconditional values at the samples, plus measurement noise: r = z − S − ε.
-      const rng = createRandom(mixSeed(seed, 1, rIndex));
-      eps.fill(0);
-      for (const g of groupFactors) {
-        const size = g.members.length;
-        for (let a = 0; a < size; a++) noise[a] = rng.normal();
-        if ('L' in g) {
-          for (let a = 0; a < size; a++) {
-            let s = 0;
-            for (let c = 0; c <= a; c++) s += g.L[a * size + c] * noise[c];
-            eps[g.members[a]] = s;
-          }
-        } else {
-          for (let a = 0; a < size; a++) eps[g.members[a]] = g.sd[a] * noise[a];
-        }
-      }
-      const tau = Math.sqrt(nugget);
-      for (let d = 0; d < n; d++) {
-        let s = eps[d];
-        for (let q = 0; q < S2; q++) {
-          const w = weights[d * S2 + q];
-          if (w !== 0) s += w * field[(originJ[d] + Math.floor(q / STENCIL)) * lnx + originI[d] + (q % STENCIL)];
-        }
-        resid[d * B + b] = z[d] - s - (tau > 0 ? tau * rng.normal() : 0);
-      }
-    }
-    kriger.prepare(resid, B);
-    // Kriged residuals at the output nodes, in chunks of nodes.
-    const chunk = Math.max(1, Math.floor(4096 / (averageFirst ? kk : 1)));
-    for (let q0 = 0; q0 < nodesOut; q0 += chunk) {
-      const m = Math.min(chunk, nodesOut - q0);
-      const Y = new Float64Array(m * B);
-      if (averageFirst && blockShape) {
-        const px = new Float64Array(m * kk), py = new Float64Array(m * kk);
-        for (let q = 0; q < m; q++) for (let s = 0; s < kk; s++) {
-          px[q * kk + s] = outX[q0 + q] + blockShape.dx[s];
-          py[q * kk + s] = outY[q0 + q] + blockShape.dy[s];
-        }
-        const Ysub = new Float64Array(m * kk * B);
-        kriger.apply(px, py, Ysub, nodeCovariates?.subarray(q0 * kk * q, (q0 + m) * kk * q));
-        for (let q = 0; q < m; q++) for (let s = 0; s < kk; s++) for (let b = 0; b < B; b++) Y[q * B + b] += Ysub[(q * kk + s) * B + b] / kk;
+/** What every batch of realisations reads: the field sampler, the lattice, the placement and the residual groups. */
+interface Draw {
+  sampler: ReturnType<typeof createFieldSampler>;
+  lattice: Lattice;
+  placement: Placement;
+  groups: ResidualGroup[];
+  z: Float64Array;
+  nugget: number;
+  seed: number;
+  first: number;
+}
+
+/**
+ * Unconditional values of B realisations from r0: G at the output nodes (nodes × B) and the residuals
+ * r = z − S − ε at the samples (n × B).
+ */
+function drawBatch(draw: Draw, out: OutputNodes, grid: Grid, r0: number, B: number, fields: { lat: Float64Array; lat2: Float64Array; eps: Float64Array; noise: Float64Array }): { G: Float64Array; resid: Float64Array } {
+  const { sampler, lattice, placement, z, nugget, seed, first } = draw;
+  const { lnx, I0, J0 } = lattice;
+  const { originI, originJ, weights } = placement;
+  const { active, nActive, k, kk, averageFirst, nodesOut } = out;
+  const { lat, lat2, eps, noise } = fields;
+  const n = z.length;
+  const S2 = STENCIL * STENCIL;
+  const G = new Float64Array(nodesOut * B);
+  const resid = new Float64Array(n * B);
+  for (let b = 0; b < B; b++) {
+    const rIndex = first + r0 + b;
+    // Fields come in pairs from one FFT; pair p gives realisations 2p and 2p + 1 whatever the batching.
+    const pairIndex = Math.floor(rIndex / 2);
+    if (rIndex % 2 === 0 || b === 0) sampler.pair(createRandom(mixSeed(seed, 0, pairIndex)), lat, lat2);
+    const field = rIndex % 2 === 0 ? lat : lat2;
+    for (let a = 0; a < nActive; a++) {
+      const c = active[a];
+      const i = c % grid.nx, j = Math.floor(c / grid.nx);
+      if (averageFirst) {
+        let s = 0;
+        for (let q = 0; q < kk; q++) s += field[(J0 + j * k + Math.floor(q / k)) * lnx + I0 + i * k + (q % k)];
+        G[a * B + b] = s / kk;
       } else {
-        kriger.apply(outX.subarray(q0, q0 + m), outY.subarray(q0, q0 + m), Y, nodeCovariates?.subarray(q0 * q, (q0 + m) * q));
+        for (let q = 0; q < kk; q++) G[(a * kk + q) * B + b] = field[(J0 + j * k + Math.floor(q / k)) * lnx + I0 + i * k + (q % k)];
       }
-      for (let q = 0; q < m; q++) for (let b = 0; b < B; b++) G[(q0 + q) * B + b] += Y[q * B + b];
-      // A batch may hold every realisation: report the share of its kriging done (whole realisations).
-      const part = r0 + Math.min(B - 1, Math.floor((B * (q0 + m)) / nodesOut));
-      if (part > reported) {
-        reported = part;
-        options.onProgress?.(part, N);
-      }
-      if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0} of ${N} realisations.`);
     }
-    // Back-transform, average to cells, accumulate.
-    for (let b = 0; b < B; b++) {
-      const values = realisations ? new Float32Array(cellsTotal).fill(NaN) : null;
-      let count = 0;
-      for (let a = 0; a < nActive; a++) {
-        let v: number;
-        if (perCell === 1) v = log ? Math.exp(G[a * B + b]) : G[a * B + b];
-        else {
+    // Unconditional values at the samples, plus measurement noise: r = z − S − ε.
+    const rng = createRandom(mixSeed(seed, 1, rIndex));
+    eps.fill(0);
+    for (const g of draw.groups) {
+      const size = g.members.length;
+      for (let a = 0; a < size; a++) noise[a] = rng.normal();
+      if ('L' in g) {
+        for (let a = 0; a < size; a++) {
           let s = 0;
-          for (let q = 0; q < kk; q++) {
-            const g = G[(a * kk + q) * B + b];
-            s += log ? Math.exp(g) : g;
-          }
-          v = s / kk;
+          for (let c = 0; c <= a; c++) s += g.L[a * size + c] * noise[c];
+          eps[g.members[a]] = s;
         }
-        const c = active[a];
-        if (values) values[c] = v;
-        sum[c] += v;
-        sumSq[c] += v * v;
-        if (above && v > (threshold as number)) {
-          above[c]++;
-          count++;
-        }
+      } else {
+        for (let a = 0; a < size; a++) eps[g.members[a]] = g.sd[a] * noise[a];
       }
-      counts[r0 + b] = count;
-      if (realisations && values) realisations.push(values);
     }
-    reported = r0 + B;
-    options.onProgress?.(r0 + B, N);
-    if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0 + B} of ${N} realisations.`);
+    const tau = Math.sqrt(nugget);
+    for (let d = 0; d < n; d++) {
+      let s = eps[d];
+      for (let q = 0; q < S2; q++) {
+        const w = weights[d * S2 + q];
+        if (w !== 0) s += w * field[(originJ[d] + Math.floor(q / STENCIL)) * lnx + originI[d] + (q % STENCIL)];
+      }
+      resid[d * B + b] = z[d] - s - (tau > 0 ? tau * rng.normal() : 0);
+    }
   }
+  return { G, resid };
+}
 
+/**
+ * Adds the kriged residuals of a prepared batch to G at the output nodes, in chunks of nodes,
+ * reporting progress (whole realisations) and polling cancellation.
+ */
+function krigeBatch(kriger: ResidualKriger, out: OutputNodes, G: Float64Array, r0: number, B: number, N: number, options: ConditionalSimulationOptions, progress: { reported: number }): void {
+  const { kk, averageFirst, blockShape, nodesOut, outX, outY, nodeCovariates } = out;
+  const q = nodeCovariates ? nodeCovariates.length / (out.nActive * kk) : 0;
+  const chunk = Math.max(1, Math.floor(4096 / (averageFirst ? kk : 1)));
+  for (let q0 = 0; q0 < nodesOut; q0 += chunk) {
+    const m = Math.min(chunk, nodesOut - q0);
+    const Y = new Float64Array(m * B);
+    if (averageFirst && blockShape) {
+      const px = new Float64Array(m * kk), py = new Float64Array(m * kk);
+      for (let t = 0; t < m; t++) for (let s = 0; s < kk; s++) {
+        px[t * kk + s] = outX[q0 + t] + blockShape.dx[s];
+        py[t * kk + s] = outY[q0 + t] + blockShape.dy[s];
+      }
+      const Ysub = new Float64Array(m * kk * B);
+      kriger.apply(px, py, Ysub, nodeCovariates?.subarray(q0 * kk * q, (q0 + m) * kk * q));
+      for (let t = 0; t < m; t++) for (let s = 0; s < kk; s++) for (let b = 0; b < B; b++) Y[t * B + b] += Ysub[(t * kk + s) * B + b] / kk;
+    } else {
+      kriger.apply(outX.subarray(q0, q0 + m), outY.subarray(q0, q0 + m), Y, nodeCovariates?.subarray(q0 * q, (q0 + m) * q));
+    }
+    for (let t = 0; t < m; t++) for (let b = 0; b < B; b++) G[(q0 + t) * B + b] += Y[t * B + b];
+    // A batch may hold every realisation: report the share of its kriging done (whole realisations).
+    const part = r0 + Math.min(B - 1, Math.floor((B * (q0 + m)) / nodesOut));
+    if (part > progress.reported) {
+      progress.reported = part;
+      options.onProgress?.(part, N);
+    }
+    if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0} of ${N} realisations.`);
+  }
+}
+
+/** Per-cell sums over realisations and the cells above the threshold in each. */
+interface Accumulated {
+  realisations?: Float32Array[];
+  sum: Float64Array;
+  sumSq: Float64Array;
+  above?: Float64Array;
+  counts: Float64Array;
+}
+
+/** Back-transforms a batch, averages it to cells and adds it to the sums (and keeps the realisations). */
+function accumulateBatch(acc: Accumulated, out: OutputNodes, G: Float64Array, r0: number, B: number, log: boolean, threshold: number | undefined): void {
+  const { active, nActive, kk, perCell, cellsTotal } = out;
+  const { realisations, sum, sumSq, above, counts } = acc;
+  for (let b = 0; b < B; b++) {
+    const values = realisations ? new Float32Array(cellsTotal).fill(NaN) : null;
+    let count = 0;
+    for (let a = 0; a < nActive; a++) {
+      let v: number;
+      if (perCell === 1) v = log ? Math.exp(G[a * B + b]) : G[a * B + b];
+      else {
+        let s = 0;
+        for (let q = 0; q < kk; q++) {
+          const g = G[(a * kk + q) * B + b];
+          s += log ? Math.exp(g) : g;
+        }
+        v = s / kk;
+      }
+      const c = active[a];
+      if (values) values[c] = v;
+      sum[c] += v;
+      sumSq[c] += v * v;
+      if (above && v > (threshold as number)) {
+        above[c]++;
+        count++;
+      }
+    }
+    counts[r0 + b] = count;
+    if (realisations && values) realisations.push(values);
+  }
+}
+
+/** Per-cell mean, sd and P(exceed) of the accumulated realisations, and the area summary. */
+function summarise(
+  acc: Accumulated, out: OutputNodes, N: number, grid: Grid, options: ConditionalSimulationOptions,
+  head: Omit<ConditionalSimulationResult, 'mean' | 'sd' | 'count' | 'grid'>,
+): ConditionalSimulationResult {
+  const { sum, sumSq, above, counts, realisations } = acc;
+  const { active, nActive, cellsTotal } = out;
+  const threshold = options.threshold;
   const mean = new Float64Array(cellsTotal).fill(NaN);
   const sd = new Float64Array(cellsTotal).fill(NaN);
   const pExceed = above ? new Float64Array(cellsTotal).fill(NaN) : undefined;
@@ -893,12 +1045,8 @@ export function simulateConditional(
     if (pExceed && above) pExceed[c] = above[c] / N;
   }
   const result: ConditionalSimulationResult = {
-    grid, support, points: k, count: N, mean, sd,
-    lattice: { nx: lnx, ny: lny, spacing: h, torus: [emb.mx, emb.my], paddingSteps: emb.paddingSteps, negativeFraction: emb.negativeFraction },
-    placementError,
-    neighbors: useLocal ? neighbors : 'all',
-    warnings,
-    first,
+    grid, support: head.support, points: head.points, count: N, mean, sd,
+    lattice: head.lattice, placementError: head.placementError, neighbors: head.neighbors, warnings: head.warnings, first: head.first,
   };
   if (options.keepTotals) result.totals = { sum, sumSq, above, counts: threshold !== undefined ? counts : new Float64Array(0), activeCells: nActive };
   if (realisations) result.realisations = realisations;
@@ -908,6 +1056,74 @@ export function simulateConditional(
     result.area = summariseExceedanceCounts(counts, { threshold, cell: grid.cell, activeCells: nActive, depth: options.depth });
   }
   return result;
+}
+
+/**
+ * N conditional realisations of the surface on the grid's active cells (see the file header), with
+ * per-cell mean, sd, P(exceed) and the area (volume) above the threshold. Deterministic for a seed.
+ * Throws GapwiseError for bad options and whatever kriging and the embedding throw.
+ */
+export function simulateConditional(
+  samples: Samples, model: CovarianceModel, grid: Grid, options: ConditionalSimulationOptions,
+): ConditionalSimulationResult {
+  const log = model.transform === 'log';
+  checkOptions(options, log);
+  checkGrid(grid, options);
+  const N = options.count;
+  const seed = options.seed ?? 1;
+  const first = options.first ?? 0;
+  const support = options.support ?? 'point';
+  const k = support === 'block' ? options.blockPoints ?? 4 : 1;
+  const warnings: Warning[] = [];
+  const n = samples.x.length;
+  const { useLocal, neighbors } = neighbourhoodOf(options, n);
+
+  // The kriger of the residuals; then the lattice, its embedding and the samples placed on it.
+  const { kriger, z } = residualKriger(samples, model, useLocal, neighbors, warnings);
+  const c0 = surfaceVariance(model);
+  const nugget = nuggetOf(model);
+  const an = model.anisotropy;
+  const cov = (dx: number, dy: number) => surfaceCovariance(model, effectiveDistance(dx, dy, an));
+  const lattice = layLattice(samples, grid, k, options.embedding);
+  const emb = createCirculantEmbedding(model, { nx: lattice.lnx, ny: lattice.lny, spacing: lattice.h }, options.embedding);
+  warnings.push(...emb.warnings);
+  const sampler = createFieldSampler(emb);
+  const placement = placeSamples(samples, lattice, cov, c0, warnings);
+  const lagCov = lagCovariances(lattice, cov);
+  const residualGroupsDrawn = residualGroups(n, placement, residualCovariance(samples, placement, cov, lagCov), warnings);
+  const placementError = placementErrorOf(n, placement, lagCov, c0, warnings);
+
+  // Realisations in batches: draw, krige the residuals, back-transform and accumulate.
+  const out = outputNodes(grid, lattice, k, log, model, options);
+  const batch = Math.max(2, Math.min(N, Math.floor(BATCH_BYTES / (8 * Math.max(1, out.nodesOut)))));
+  const acc: Accumulated = {
+    ...(options.keepRealisations === false ? {} : { realisations: [] }),
+    sum: new Float64Array(out.cellsTotal),
+    sumSq: new Float64Array(out.cellsTotal),
+    ...(options.threshold !== undefined ? { above: new Float64Array(out.cellsTotal) } : {}),
+    counts: new Float64Array(N),
+  };
+  const draw: Draw = { sampler, lattice, placement, groups: residualGroupsDrawn, z, nugget, seed, first };
+  const fields = {
+    lat: new Float64Array(lattice.lnx * lattice.lny), lat2: new Float64Array(lattice.lnx * lattice.lny),
+    eps: new Float64Array(n), noise: new Float64Array(MAX_GROUP),
+  };
+  const progress = { reported: 0 };
+  for (let r0 = 0; r0 < N; r0 += batch) {
+    const B = Math.min(batch, N - r0);
+    const { G, resid } = drawBatch(draw, out, grid, r0, B, fields);
+    kriger.prepare(resid, B);
+    krigeBatch(kriger, out, G, r0, B, N, options, progress);
+    accumulateBatch(acc, out, G, r0, B, log, options.threshold);
+    progress.reported = r0 + B;
+    options.onProgress?.(r0 + B, N);
+    if (options.isCancelled?.()) throw new GapwiseError('cancelled', `Simulation stopped after ${r0 + B} of ${N} realisations.`);
+  }
+  return summarise(acc, out, N, grid, options, {
+    support, points: k,
+    lattice: { nx: lattice.lnx, ny: lattice.lny, spacing: lattice.h, torus: [emb.mx, emb.my], paddingSteps: emb.paddingSteps, negativeFraction: emb.negativeFraction },
+    placementError, neighbors: useLocal ? neighbors : 'all', warnings, first,
+  });
 }
 
 /**

@@ -59,6 +59,137 @@ export function nextFastLength(n: number): number {
   return m;
 }
 
+/** The twiddle table W_n^k = cos − i·sin(2πk/n) of a plan and its scratch for odd radices. */
+interface Twiddles {
+  n: number;
+  cos: Float64Array;
+  sin: Float64Array;
+  tRe: Float64Array;
+  tIm: Float64Array;
+}
+
+/** The positions of one Stockham stage's butterflies: input block j of M, output stride Mp, twiddle step. */
+interface StageShape {
+  L: number;
+  M: number;
+  Mp: number;
+  step: number;
+  sign: number;
+}
+
+/** Radix-2 butterflies of block j. */
+function radix2(tw: Twiddles, inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, sh: StageShape, j: number, inBase: number): void {
+  const { cos, sin } = tw;
+  const { L, Mp, step, sign } = sh;
+  const w = j * step;
+  const wr = cos[w], wi = sign * sin[w];
+  const o0 = j * Mp, o1 = (j + L) * Mp;
+  for (let c = 0; c < Mp; c++) {
+    const a = inBase + c, b = a + Mp;
+    const xr = inRe[b] * wr - inIm[b] * wi;
+    const xi = inRe[b] * wi + inIm[b] * wr;
+    const ur = inRe[a], ui = inIm[a];
+    outRe[o0 + c] = ur + xr; outIm[o0 + c] = ui + xi;
+    outRe[o1 + c] = ur - xr; outIm[o1 + c] = ui - xi;
+  }
+}
+
+/** Radix-4 butterflies of block j. */
+function radix4(tw: Twiddles, inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, sh: StageShape, j: number, inBase: number): void {
+  const { cos, sin } = tw;
+  const { L, Mp, step, sign } = sh;
+  const w1 = j * step, w2 = 2 * w1, w3 = 3 * w1;
+  const c1 = cos[w1], s1 = sign * sin[w1];
+  const c2 = cos[w2], s2 = sign * sin[w2];
+  const c3 = cos[w3], s3 = sign * sin[w3];
+  const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp, o3 = (j + 3 * L) * Mp;
+  for (let c = 0; c < Mp; c++) {
+    const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp, i3 = i2 + Mp;
+    const a0r = inRe[i0], a0i = inIm[i0];
+    const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
+    const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
+    const a3r = inRe[i3] * c3 - inIm[i3] * s3, a3i = inRe[i3] * s3 + inIm[i3] * c3;
+    const e0r = a0r + a2r, e0i = a0i + a2i;
+    const e1r = a0r - a2r, e1i = a0i - a2i;
+    const f0r = a1r + a3r, f0i = a1i + a3i;
+    const f1r = a1r - a3r, f1i = a1i - a3i;
+    // W_4 = −i forward (+i inverse): −i·sign·f1 = sign·f1i − i·sign·f1r.
+    outRe[o0 + c] = e0r + f0r; outIm[o0 + c] = e0i + f0i;
+    outRe[o2 + c] = e0r - f0r; outIm[o2 + c] = e0i - f0i;
+    outRe[o1 + c] = e1r + sign * f1i; outIm[o1 + c] = e1i - sign * f1r;
+    outRe[o3 + c] = e1r - sign * f1i; outIm[o3 + c] = e1i + sign * f1r;
+  }
+}
+
+/** Radix-3 butterflies of block j. */
+function radix3(tw: Twiddles, inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, sh: StageShape, j: number, inBase: number): void {
+  const { cos, sin } = tw;
+  const { L, Mp, step, sign } = sh;
+  const SQRT3_2 = Math.sqrt(3) / 2;
+  const w1 = j * step, w2 = 2 * w1;
+  const c1 = cos[w1], s1 = sign * sin[w1];
+  const c2 = cos[w2], s2 = sign * sin[w2];
+  const k3 = sign * SQRT3_2;
+  const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp;
+  for (let c = 0; c < Mp; c++) {
+    const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp;
+    const a0r = inRe[i0], a0i = inIm[i0];
+    const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
+    const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
+    const sr = a1r + a2r, si = a1i + a2i;
+    const dr = a1r - a2r, di = a1i - a2i;
+    const mr = a0r - 0.5 * sr, mi = a0i - 0.5 * si;
+    // W_3 = −½ − i·sign·√3/2: X1 = a0 − s/2 − i·k3·d, X2 = a0 − s/2 + i·k3·d.
+    outRe[o0 + c] = a0r + sr; outIm[o0 + c] = a0i + si;
+    outRe[o1 + c] = mr + k3 * di; outIm[o1 + c] = mi - k3 * dr;
+    outRe[o2 + c] = mr - k3 * di; outIm[o2 + c] = mi + k3 * dr;
+  }
+}
+
+/** Butterflies of any other prime radix r of block j (a direct DFT of length r). */
+function radixAny(r: number, tw: Twiddles, inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, sh: StageShape, j: number, inBase: number): void {
+  const { cos, sin, tRe, tIm, n } = tw;
+  const { L, Mp, step, sign } = sh;
+  const stepR = n / r;
+  for (let c = 0; c < Mp; c++) {
+    for (let q = 0; q < r; q++) {
+      const idx = inBase + q * Mp + c;
+      const w = q * j * step;
+      const cw = cos[w], sw = sign * sin[w];
+      tRe[q] = inRe[idx] * cw - inIm[idx] * sw;
+      tIm[q] = inRe[idx] * sw + inIm[idx] * cw;
+    }
+    for (let s = 0; s < r; s++) {
+      let accR = 0, accI = 0;
+      for (let q = 0; q < r; q++) {
+        const w = ((q * s) % r) * stepR;
+        const cw = cos[w], sw = sign * sin[w];
+        accR += tRe[q] * cw - tIm[q] * sw;
+        accI += tRe[q] * sw + tIm[q] * cw;
+      }
+      const o = (j + s * L) * Mp + c;
+      outRe[o] = accR;
+      outIm[o] = accI;
+    }
+  }
+}
+
+/**
+ * One Stockham stage: from DFTs of length L of the M = n/L residue classes (stored y[j·M + c]) to
+ * DFTs of length L·r of the M/r classes (stored y'[j'·M' + c']), see the file header.
+ */
+function stockhamStage(tw: Twiddles, inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, L: number, r: number, sign: number): void {
+  const M = tw.n / L;
+  const sh: StageShape = { L, M, Mp: M / r, step: tw.n / (L * r), sign }; // W_{L'}^x = W_n^(x·step)
+  for (let j = 0; j < L; j++) {
+    const inBase = j * M;
+    if (r === 2) radix2(tw, inRe, inIm, outRe, outIm, sh, j, inBase);
+    else if (r === 4) radix4(tw, inRe, inIm, outRe, outIm, sh, j, inBase);
+    else if (r === 3) radix3(tw, inRe, inIm, outRe, outIm, sh, j, inBase);
+    else radixAny(r, tw, inRe, inIm, outRe, outIm, sh, j, inBase);
+  }
+}
+
 /**
  * A plan for transforms of length n (any n ≥ 1): factorisation, twiddle table and scratch space.
  * Throws RangeError for a length that is not a positive whole number.
@@ -78,100 +209,7 @@ export function createFftPlan(n: number): FftPlan {
   const maxR = Math.max(1, ...factors);
   const tRe = new Float64Array(maxR);
   const tIm = new Float64Array(maxR);
-  const SQRT3_2 = Math.sqrt(3) / 2;
-
-  /**
-   * One Stockham stage: from DFTs of length L of the M = n/L residue classes (stored y[j·M + c]) to
-   * DFTs of length L·r of the M/r classes (stored y'[j'·M' + c']), see the file header.
-   */
-  const stage = (
-    inRe: Float64Array, inIm: Float64Array, outRe: Float64Array, outIm: Float64Array, L: number, r: number, sign: number,
-  ): void => {
-    const M = n / L;
-    const Mp = M / r;
-    const Lp = L * r;
-    const step = n / Lp; // W_{L'}^x = W_n^(x·step)
-    const stepR = n / r;
-    for (let j = 0; j < L; j++) {
-      const inBase = j * M;
-      if (r === 2) {
-        const w = j * step;
-        const wr = cos[w], wi = sign * sin[w];
-        const o0 = j * Mp, o1 = (j + L) * Mp;
-        for (let c = 0; c < Mp; c++) {
-          const a = inBase + c, b = a + Mp;
-          const xr = inRe[b] * wr - inIm[b] * wi;
-          const xi = inRe[b] * wi + inIm[b] * wr;
-          const ur = inRe[a], ui = inIm[a];
-          outRe[o0 + c] = ur + xr; outIm[o0 + c] = ui + xi;
-          outRe[o1 + c] = ur - xr; outIm[o1 + c] = ui - xi;
-        }
-      } else if (r === 4) {
-        const w1 = j * step, w2 = 2 * w1, w3 = 3 * w1;
-        const c1 = cos[w1], s1 = sign * sin[w1];
-        const c2 = cos[w2], s2 = sign * sin[w2];
-        const c3 = cos[w3], s3 = sign * sin[w3];
-        const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp, o3 = (j + 3 * L) * Mp;
-        for (let c = 0; c < Mp; c++) {
-          const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp, i3 = i2 + Mp;
-          const a0r = inRe[i0], a0i = inIm[i0];
-          const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
-          const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
-          const a3r = inRe[i3] * c3 - inIm[i3] * s3, a3i = inRe[i3] * s3 + inIm[i3] * c3;
-          const e0r = a0r + a2r, e0i = a0i + a2i;
-          const e1r = a0r - a2r, e1i = a0i - a2i;
-          const f0r = a1r + a3r, f0i = a1i + a3i;
-          const f1r = a1r - a3r, f1i = a1i - a3i;
-          // W_4 = −i forward (+i inverse): −i·sign·f1 = sign·f1i − i·sign·f1r.
-          outRe[o0 + c] = e0r + f0r; outIm[o0 + c] = e0i + f0i;
-          outRe[o2 + c] = e0r - f0r; outIm[o2 + c] = e0i - f0i;
-          outRe[o1 + c] = e1r + sign * f1i; outIm[o1 + c] = e1i - sign * f1r;
-          outRe[o3 + c] = e1r - sign * f1i; outIm[o3 + c] = e1i + sign * f1r;
-        }
-      } else if (r === 3) {
-        const w1 = j * step, w2 = 2 * w1;
-        const c1 = cos[w1], s1 = sign * sin[w1];
-        const c2 = cos[w2], s2 = sign * sin[w2];
-        const k3 = sign * SQRT3_2;
-        const o0 = j * Mp, o1 = (j + L) * Mp, o2 = (j + 2 * L) * Mp;
-        for (let c = 0; c < Mp; c++) {
-          const i0 = inBase + c, i1 = i0 + Mp, i2 = i1 + Mp;
-          const a0r = inRe[i0], a0i = inIm[i0];
-          const a1r = inRe[i1] * c1 - inIm[i1] * s1, a1i = inRe[i1] * s1 + inIm[i1] * c1;
-          const a2r = inRe[i2] * c2 - inIm[i2] * s2, a2i = inRe[i2] * s2 + inIm[i2] * c2;
-          const sr = a1r + a2r, si = a1i + a2i;
-          const dr = a1r - a2r, di = a1i - a2i;
-          const mr = a0r - 0.5 * sr, mi = a0i - 0.5 * si;
-          // W_3 = −½ − i·sign·√3/2: X1 = a0 − s/2 − i·k3·d, X2 = a0 − s/2 + i·k3·d.
-          outRe[o0 + c] = a0r + sr; outIm[o0 + c] = a0i + si;
-          outRe[o1 + c] = mr + k3 * di; outIm[o1 + c] = mi - k3 * dr;
-          outRe[o2 + c] = mr - k3 * di; outIm[o2 + c] = mi + k3 * dr;
-        }
-      } else {
-        for (let c = 0; c < Mp; c++) {
-          for (let q = 0; q < r; q++) {
-            const idx = inBase + q * Mp + c;
-            const w = q * j * step;
-            const cw = cos[w], sw = sign * sin[w];
-            tRe[q] = inRe[idx] * cw - inIm[idx] * sw;
-            tIm[q] = inRe[idx] * sw + inIm[idx] * cw;
-          }
-          for (let s = 0; s < r; s++) {
-            let accR = 0, accI = 0;
-            for (let q = 0; q < r; q++) {
-              const w = ((q * s) % r) * stepR;
-              const cw = cos[w], sw = sign * sin[w];
-              accR += tRe[q] * cw - tIm[q] * sw;
-              accI += tRe[q] * sw + tIm[q] * cw;
-            }
-            const o = (j + s * L) * Mp + c;
-            outRe[o] = accR;
-            outIm[o] = accI;
-          }
-        }
-      }
-    }
-  };
+  const tw: Twiddles = { n, cos, sin, tRe, tIm };
 
   return {
     n,
@@ -184,7 +222,7 @@ export function createFftPlan(n: number): FftPlan {
       let L = 1;
       for (const r of factors) {
         const outRe = bufRe[which], outIm = bufIm[which];
-        stage(inRe, inIm, outRe, outIm, L, r, sign);
+        stockhamStage(tw, inRe, inIm, outRe, outIm, L, r, sign);
         inRe = outRe;
         inIm = outIm;
         which = 1 - which;

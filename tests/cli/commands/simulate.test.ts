@@ -95,4 +95,23 @@ describe('simulate command', () => {
     expect(csv.code).toBe(2);
     expect(csv.stderr).toMatch(/GeoTIFF/);
   });
+
+  it('simulate says which conditioning it chose and why; --local reports the measured error, --exact and --local together are refused', async () => {
+    const plain = await ws.run('simulate', ...COMMON, '--count', '2', '--workers', '1', '--out', 'p.tif');
+    expect(plain.code, plain.stderr).toBe(0);
+    expect(plain.stderr).toMatch(/note: conditioned by kriging from all \d+ samples; chosen automatically: .* \(--local overrides\)/);
+    expect(JSON.parse(plain.stdout).path).toMatchObject({ path: 'exact', automatic: true });
+    const local = await ws.run('simulate', ...COMMON, '--count', '2', '--workers', '1', '--local', '--neighbors', '8', '--out', 'l.tif');
+    expect(local.code, local.stderr).toBe(0);
+    expect(local.stderr).toMatch(/note: conditioned from the 8 nearest samples of each lattice node \(local neighbourhoods\); \d+ samples \(--local\)/);
+    expect(local.stderr).toMatch(/note: measured error of the local conditioning against exact kriging at \d+ of \d+ targets/);
+    const summary = JSON.parse(local.stdout);
+    expect(summary.path).toMatchObject({ path: 'local', automatic: false });
+    expect(summary.neighbors).toBe(8);
+    expect(summary.localError.neighbors).toBe(8);
+    expect(summary.localError.mean.max).toBeGreaterThan(0);
+    const both = await ws.run('simulate', ...COMMON, '--count', '2', '--exact', '--local', '--out', 'x.tif');
+    expect(both.code).toBe(2);
+    expect(both.stderr).toMatch(/contradict/);
+  });
 });
