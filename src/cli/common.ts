@@ -272,6 +272,10 @@ export function readGridSpacing(values: OptionValues): { cell?: number; padding?
   return assignDefined<{ cell?: number; padding?: number }>({}, { cell, padding });
 }
 
+/** Usual names of x and y coordinate columns in a targets or sites file (lower case, without a unit). */
+export const USUAL_X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
+export const USUAL_Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
+
 /**
  * The index of a coordinate column among `names`: `preferred` (the samples' own column name) when
  * present, else the first of the usual names (compared in lower case, without a unit in brackets); -1

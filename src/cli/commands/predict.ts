@@ -17,17 +17,14 @@ import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
 import { knownMean } from '../../core/covariance/trend.ts';
 import {
-  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, findUsualColumn, naming, outOption, printNotes,
-  printWarnings, readModelAndSamples, readPredictionPath, readText, writeOutput,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, describePredictionPath,
+  findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvCell, formatNumber, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
 import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
-
-const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
-const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
 
 /** Index of the coordinate column: the given name, else the samples' name, else a usual name. */
 function findColumn(
@@ -80,8 +77,8 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   if (table.records.length === 0) {
     throw new GapwiseError('bad-file', 'The targets file has a header but no rows; expected at least one target.', { file: targetsPath });
   }
-  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, X_NAMES, 'x');
-  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, Y_NAMES, 'y');
+  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, USUAL_X_NAMES, 'x');
+  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, USUAL_Y_NAMES, 'y');
   const tx = readCoordinates(table, targetsPath, xi);
   const ty = readCoordinates(table, targetsPath, yi);
   const targetsCrs = stringOption(values, 'targets-crs') ?? stringOption(values, 'crs') ?? intake.report.crs.input;

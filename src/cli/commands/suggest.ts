@@ -18,16 +18,15 @@ import { suggestionsToGpx } from '../../io/gpx.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, assignDefined, findUsualColumn, jsonText, modelWorkCrs, naming, outOption, printWarnings, progressLine, readModelFile,
-  readSamplesFile, readText, warnUnstatedWorkCrs, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, assignDefined, findUsualColumn, jsonText, modelWorkCrs, naming, outOption,
+  printWarnings, progressLine, readModelFile, readSamplesFile, readText, warnUnstatedWorkCrs, writeOutput,
+  type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, readCsvTable } from '../csv.ts';
 import { analyteRequest } from '../analytes.ts';
 import { modelFromSet, refuseSeveralAnalytes } from '../analyte-runs.ts';
 
-const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
-const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
 type Format = 'geojson' | 'csv' | 'gpx';
 
 function formatOf(file: string): Format {
@@ -75,11 +74,11 @@ function readCandidates(io: CliIo, file: string, values: OptionValues, intake: I
   } else {
     const table = readCsvTable(text, file);
     const names = table.header.cells.map((c) => c.trim());
-    const xi = findUsualColumn(names, intake.report.xColumn, X_NAMES);
-    const yi = findUsualColumn(names, intake.report.yColumn, Y_NAMES);
+    const xi = findUsualColumn(names, intake.report.xColumn, USUAL_X_NAMES);
+    const yi = findUsualColumn(names, intake.report.yColumn, USUAL_Y_NAMES);
     if (xi === -1 || yi === -1) {
       throw new GapwiseError('missing-column',
-        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${(xi === -1 ? X_NAMES : Y_NAMES).join(', ')}).`,
+        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${(xi === -1 ? USUAL_X_NAMES : USUAL_Y_NAMES).join(', ')}).`,
         { file, row: table.header.line });
     }
     const read = (col: number): Float64Array => {
