@@ -25,10 +25,10 @@ import { isCovariateTrend } from '../core/covariance/model.ts';
 import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../core/prediction/local-accuracy.ts';
 import { checkLocalSurface } from './local-check.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../io/project.ts';
-import { numberOption, stringOption } from './args.ts';
+import { stringOption } from './args.ts';
 import {
-  CAUTION, count, describePredictionPath, jsonText, naming, printNotes, printWarnings, progressLine, readPredictionPath,
-  readSamplesFile, readText, readWorkers, writeOutput, type CliIo, type OptionValues,
+  CAUTION, count, describePredictionPath, gridFigures, jsonText, naming, printNotes, printWarnings, progressLine, readGridSpacing,
+  readPredictionPath, readSamplesFile, readText, readWorkers, writeOutput, type CliIo, type OptionValues,
 } from './common.ts';
 import { readBoundaryFile } from './boundary-file.ts';
 import { computeSurfaceParallel, type SurfaceJob } from './parallel.ts';
@@ -184,8 +184,20 @@ export function singleThreshold(values: OptionValues): OptionValues {
 
 const UNSUPPORTED_IN_SET = ['project', 'support', 'realizations', 'levels', 'depth', 'seed', 'block-points'];
 
-/** `grid` for several analytes (point support, GeoTIFF or CSV). */
-export async function gridAnalytes(values: OptionValues, io: CliIo, request: string[] | typeof ALL_NUMERIC): Promise<number> {
+/** What `grid` for several analytes reads before it computes: the analytes, their models and samples. */
+interface AnalyteGridInput {
+  out: string;
+  format: 'tif' | 'csv';
+  modelPath: string;
+  names: string[];
+  models: Map<string, CovarianceModel>;
+  intakes: IntakeResult[];
+  workCrs: string;
+  thresholds: Map<string, number>;
+}
+
+/** Reads and checks the options, the model set and each analyte's samples. */
+function readAnalyteGridInput(values: OptionValues, io: CliIo, request: string[] | typeof ALL_NUMERIC): AnalyteGridInput {
   for (const name of UNSUPPORTED_IN_SET) {
     if (values[name] !== undefined) throw new GapwiseError('bad-option', `Option "--${name}" is not available with several analytes; map them one at a time for it.`);
   }
@@ -211,21 +223,33 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
   for (const [name, t] of thresholds) {
     if (models.get(name)!.transform === 'log' && !(t > 0)) throw new GapwiseError('bad-option', `Option "--threshold" for "${name}" must be above 0 with a log model, got ${t}.`);
   }
-  // One grid for all: planned from every analyte's sample locations.
+  return { out, format, modelPath, names, models, intakes, workCrs, thresholds };
+}
+
+/** One grid for all: planned from every analyte's sample locations (or --boundary), with --cell and --padding. */
+function planAnalyteGrid(values: OptionValues, io: CliIo, input: AnalyteGridInput): Grid {
+  const { intakes } = input;
   const x = Float64Array.from(intakes.flatMap((r) => Array.from(r.samples.x)));
   const y = Float64Array.from(intakes.flatMap((r) => Array.from(r.samples.y)));
   const boundaryPath = stringOption(values, 'boundary');
   const boundary = boundaryPath === undefined ? null : readBoundaryFile(io, boundaryPath, intakes[0]);
-  const cell = numberOption(values, 'cell');
-  const padding = numberOption(values, 'padding');
-  if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
-  if (padding !== undefined && !(padding >= 0)) throw new GapwiseError('bad-option', `Option "--padding" expects a fraction of 0 or more, got ${padding}.`);
-  const grid: Grid = planSurfaceGrid({
+  const { cell, padding } = readGridSpacing(values);
+  return planSurfaceGrid({
     x, y, padding: padding ?? DEFAULT_PADDING, cellSize: cell ?? 0, polygons: boundary ? boundary.polygons.map((p) => p.rings) : null,
-  }, workCrs);
+  }, input.workCrs);
+}
+
+/**
+ * Each analyte's surfaces on the grid, from one pool of workers (./analyte-surfaces.ts) by the path its
+ * own run would take; local neighbourhoods are measured against exact kriging and grown or replaced
+ * when they miss, as in a one-analyte run. Prints what was done for each.
+ */
+async function computeAnalyteSurfaces(
+  values: OptionValues, io: CliIo, input: AnalyteGridInput, grid: Grid,
+): Promise<{ results: SurfaceResult[]; accuracies: Map<string, LocalAccuracy> }> {
+  const { names, models, intakes, thresholds, modelPath } = input;
   const workers = readWorkers(values, io);
-  const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
-  const warnings: Warning[] = [];
+  const precision = input.format === 'csv' ? 'float64' as const : 'float32' as const;
   // The path and local settings each analyte's own run would take on this grid.
   const threads = Math.min(workers, grid.ny);
   const paths = intakes.map((intake) => readPredictionPath(values, intake.samples.value.length, { targets: cellCount(grid), threads }));
@@ -280,38 +304,56 @@ export async function gridAnalytes(values: OptionValues, io: CliIo, request: str
     }
     notes.push(`[${names[a]}] ${describePredictionPath(used, n)}; ${count(cellCount(grid))} cells`, ...extra.map((t) => `[${names[a]}] ${t}`));
   }
-  const surfaces = names.map((name, a) => ({ name, unit: intakes[a].report.unit, surface: results[a] }));
   printNotes(io, notes);
-  for (const s of surfaces) warnings.push(...s.surface.warnings.map((w) => ({ ...w, message: `[${s.name}] ${w.message}` })));
-  let bands: string[] | undefined;
-  if (format === 'tif') {
-    const layers: ArrayLike<number>[] = [];
-    const descriptions: string[] = [];
-    for (const s of surfaces) {
-      layers.push(s.surface.mean, s.surface.sd);
-      if (s.surface.pExceed) layers.push(s.surface.pExceed);
-      // As the one-analyte grid names them: the column name without its unit in brackets.
-      descriptions.push(...bandDescriptions(s.surface, s.unit, s.name.replace(/\s*\([^)]*\)\s*$/, '')));
-    }
-    // The measured error of each local analyte, its items prefixed by the analyte's column name.
-    const metadata: Record<string, string> = {};
-    for (const [name, acc] of accuracies) {
-      for (const [k, v] of Object.entries(localAccuracyMetadata(acc))) metadata[`${analyteColumnName(name).toUpperCase()}_${k}`] = v;
-    }
-    const tif = bandsGeoTiff({
-      grid, bands: layers, names: descriptions, workCrs, title: `Gapwise surfaces of ${surfaces.length} analytes.`,
-      ...(accuracies.size > 0 ? { metadata } : {}),
-    });
-    warnings.push(...tif.warnings);
-    bands = tif.bands;
-    await writeOutput(io, out, new Uint8Array(tif.buffer));
-  } else {
+  return { results, accuracies };
+}
+
+/** Writes the analytes' surfaces: a GeoTIFF with mean, sd (and P(exceed)) bands per analyte, or the grid CSV. */
+async function writeAnalyteFile(
+  io: CliIo, input: AnalyteGridInput, grid: Grid, surfaces: Array<{ name: string; unit: string; surface: SurfaceResult }>, accuracies: Map<string, LocalAccuracy>,
+): Promise<{ bands?: string[]; warnings: Warning[] }> {
+  const { out, workCrs } = input;
+  if (input.format !== 'tif') {
     await writeOutput(io, out, analyteGridCsvChunks({ grid, workCrs, analytes: surfaces }));
+    return { warnings: [] };
   }
+  const layers: ArrayLike<number>[] = [];
+  const descriptions: string[] = [];
+  for (const s of surfaces) {
+    layers.push(s.surface.mean, s.surface.sd);
+    if (s.surface.pExceed) layers.push(s.surface.pExceed);
+    // As the one-analyte grid names them: the column name without its unit in brackets.
+    descriptions.push(...bandDescriptions(s.surface, s.unit, s.name.replace(/\s*\([^)]*\)\s*$/, '')));
+  }
+  // The measured error of each local analyte, its items prefixed by the analyte's column name.
+  const metadata: Record<string, string> = {};
+  for (const [name, acc] of accuracies) {
+    for (const [k, v] of Object.entries(localAccuracyMetadata(acc))) metadata[`${analyteColumnName(name).toUpperCase()}_${k}`] = v;
+  }
+  const tif = bandsGeoTiff({
+    grid, bands: layers, names: descriptions, workCrs, title: `Gapwise surfaces of ${surfaces.length} analytes.`,
+    ...(accuracies.size > 0 ? { metadata } : {}),
+  });
+  await writeOutput(io, out, new Uint8Array(tif.buffer));
+  return { bands: tif.bands, warnings: [...tif.warnings] };
+}
+
+/** `grid` for several analytes (point support, GeoTIFF or CSV). */
+export async function gridAnalytes(values: OptionValues, io: CliIo, request: string[] | typeof ALL_NUMERIC): Promise<number> {
+  const input = readAnalyteGridInput(values, io, request);
+  const { out, format, workCrs, names, intakes, thresholds } = input;
+  const grid = planAnalyteGrid(values, io, input);
+  const { results, accuracies } = await computeAnalyteSurfaces(values, io, input, grid);
+  const surfaces = names.map((name, a) => ({ name, unit: intakes[a].report.unit, surface: results[a] }));
+  const warnings: Warning[] = [];
+  for (const s of surfaces) warnings.push(...s.surface.warnings.map((w) => ({ ...w, message: `[${s.name}] ${w.message}` })));
+  const written = await writeAnalyteFile(io, input, grid, surfaces, accuracies);
+  warnings.push(...written.warnings);
+  const bands = written.bands;
   printWarnings(io, warnings);
   io.stdout(jsonText({
     out, format, workCrs, analytes: names,
-    grid: { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) },
+    grid: gridFigures(grid),
     thresholds: Object.fromEntries(thresholds),
     ...(bands ? { bands } : {}),
     ranges: Object.fromEntries(surfaces.map((s) => [s.name, s.surface.range])),

@@ -4,7 +4,6 @@
  * printing warnings and notes, the choice between exact kriging and local neighbourhoods for
  * predict, cv and grid (`readPredictionPath`), and progress lines for long runs.
  */
-import { resolve } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
@@ -19,6 +18,7 @@ import { MAX_GROWN_NEIGHBORS } from '../core/prediction/local-accuracy.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 import { writeFileSafely, type OutputData } from './safe-write.ts';
 import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
+import { cellCount, type Grid } from '../core/geometry/grid.ts';
 
 /** Carried by every result, export and help text. */
 export const CAUTION =
@@ -121,24 +121,23 @@ export function printWarnings(io: CliIo, warnings: readonly (Warning | string)[]
   for (const w of warnings) io.stderr(`warning: ${typeof w === 'string' ? w : w.message}\n`);
 }
 
+/** Copies the entries of `from` that are defined onto `to`: an option not given stays out of the object. */
+export function assignDefined<T extends object>(to: T, from: { [K in keyof T]?: T[K] | undefined }): T {
+  for (const [key, value] of Object.entries(from)) if (value !== undefined) (to as Record<string, unknown>)[key] = value;
+  return to;
+}
+
 /** Intake options from the common command-line options. */
 export function intakeOptions(values: OptionValues, file: string, workCrs?: string): IntakeOptions {
-  const options: IntakeOptions = { fileName: file };
-  const value = stringOption(values, 'value');
-  const x = stringOption(values, 'x');
-  const y = stringOption(values, 'y');
-  const crs = stringOption(values, 'crs');
-  const work = workCrs ?? stringOption(values, 'work-crs');
-  const nonDetect = stringOption(values, 'non-detect');
-  const duplicates = stringOption(values, 'duplicates');
-  if (value !== undefined) options.value = value;
-  if (x !== undefined) options.x = x;
-  if (y !== undefined) options.y = y;
-  if (crs !== undefined) options.crs = crs;
-  if (work !== undefined) options.workCrs = work;
-  if (nonDetect !== undefined) options.nonDetect = nonDetect as NonDetectRule;
-  if (duplicates !== undefined) options.duplicates = duplicates as DuplicateRule;
-  return options;
+  return assignDefined<IntakeOptions>({ fileName: file }, {
+    value: stringOption(values, 'value'),
+    x: stringOption(values, 'x'),
+    y: stringOption(values, 'y'),
+    crs: stringOption(values, 'crs'),
+    workCrs: workCrs ?? stringOption(values, 'work-crs'),
+    nonDetect: stringOption(values, 'non-detect') as NonDetectRule | undefined,
+    duplicates: stringOption(values, 'duplicates') as DuplicateRule | undefined,
+  });
 }
 
 /**
@@ -229,6 +228,70 @@ export function modelWorkCrs(values: OptionValues, modelFile: ModelFile, file: s
       { file });
   }
   return modelFile.workCrs ?? given;
+}
+
+/** Warns that a model file does not say which working CRS its distances are in (the samples' is then assumed). */
+export function warnUnstatedWorkCrs(io: CliIo, modelFile: ModelFile, modelPath: string, workCrs: string): void {
+  if (modelFile.workCrs === undefined) printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
+}
+
+/** A model file and the samples read in its working CRS. */
+export interface ModelAndSamples {
+  modelPath: string;
+  modelFile: ModelFile;
+  model: CovarianceModel;
+  intake: IntakeResult;
+  /** The samples' working CRS (the model's when it says one). */
+  workCrs: string;
+}
+
+/**
+ * Reads `--model` and then `--samples` in the model's working CRS (modelWorkCrs), and warns when the
+ * model does not say its CRS: the start of every command that predicts with a given model.
+ */
+export function readModelAndSamples(io: CliIo, values: OptionValues): ModelAndSamples {
+  const modelPath = stringOption(values, 'model') as string;
+  const modelFile = readModelFile(io, modelPath);
+  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
+  const workCrs = intake.report.crs.work;
+  warnUnstatedWorkCrs(io, modelFile, modelPath, workCrs);
+  return { modelPath, modelFile, model: modelFile.model, intake, workCrs };
+}
+
+/** A grid as the commands' JSON summaries give it: origin, cell size, columns, rows and cell count. */
+export function gridFigures(grid: Grid): { x0: number; y0: number; cell: number; nx: number; ny: number; cells: number } {
+  return { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) };
+}
+
+/** `--cell` and `--padding` of a grid, checked: a cell size above 0 m, a padding fraction of 0 or more. */
+export function readGridSpacing(values: OptionValues): { cell?: number; padding?: number } {
+  const cell = numberOption(values, 'cell');
+  const padding = numberOption(values, 'padding');
+  if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
+  if (padding !== undefined && !(padding >= 0)) throw new GapwiseError('bad-option', `Option "--padding" expects a fraction of 0 or more, got ${padding}.`);
+  return assignDefined<{ cell?: number; padding?: number }>({}, { cell, padding });
+}
+
+/** Usual names of x and y coordinate columns in a targets or sites file (lower case, without a unit). */
+export const USUAL_X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
+export const USUAL_Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
+
+/**
+ * The index of a coordinate column among `names`: `preferred` (the samples' own column name) when
+ * present, else the first of the usual names (compared in lower case, without a unit in brackets); -1
+ * when none is there.
+ */
+export function findUsualColumn(names: readonly string[], preferred: string | undefined, usual: readonly string[]): number {
+  if (preferred !== undefined) {
+    const i = names.indexOf(preferred);
+    if (i !== -1) return i;
+  }
+  const lower = names.map((n) => n.toLowerCase().replace(/\s*\(.*\)\s*$/, ''));
+  for (const u of usual) {
+    const i = lower.indexOf(u);
+    if (i !== -1) return i;
+  }
+  return -1;
 }
 
 /**

@@ -99,38 +99,76 @@ function checkSamples(samples: unknown): asserts samples is Samples {
 }
 
 /**
+ * The last predictor built, kept while requests ask for the same key: `get(key, build)` returns it,
+ * or frees it and builds the one for the new key.
+ */
+function lastPredictor<P>(): (key: string, build: () => P) => P {
+  let cached: { key: string; predictor: P } | null = null;
+  return (key, build) => {
+    if (cached && cached.key === key) return cached.predictor;
+    cached = null; // free the old factor before building a new one
+    const predictor = build();
+    cached = { key, predictor };
+    return predictor;
+  };
+}
+
+/**
+ * The handler's predictor caches: the exact, local-neighbourhood and block predictors, each the last
+ * one built (keyed by predictorKey, and for local neighbourhoods their options too).
+ */
+function predictorCaches(ops: EngineOperations) {
+  const exact = lastPredictor<Predictor>();
+  const local = lastPredictor<SurfacePredictor>();
+  const block = lastPredictor<BlockPredictor>();
+  return {
+    predictorFor: (samples: Samples, model: CovarianceModel): Predictor => exact(predictorKey(samples, model), () => ops.createPredictor(samples, model)),
+    localPredictorFor: (samples: Samples, model: CovarianceModel, options: LocalKrigingOptions): SurfacePredictor =>
+      local(predictorKey(samples, model) + JSON.stringify(options), () => ops.createLocalPredictor(samples, model, options)),
+    blockPredictorFor: (samples: Samples, model: CovarianceModel): BlockPredictor => block(predictorKey(samples, model), () => ops.createBlockPredictor(samples, model)),
+  };
+}
+
+/** Runs one request of a known type; `progress` reports the fraction done. */
+type RunRequest = <K extends RequestType>(type: K, payload: RequestPayloads[K], progress: (done: number, total: number) => void) => ResultPayloads[K];
+
+/**
+ * Answers one incoming message: a message that is not a request gets an error naming the request
+ * types; a request gets progress (at most every PROGRESS_STEP), then exactly one result or error.
+ */
+function answer(message: unknown, send: Send, run: RunRequest): void {
+  if (!isEngineRequest(message)) {
+    const m = message as { id?: unknown; type?: unknown } | null;
+    const id = typeof m?.id === 'number' ? m.id : -1;
+    send({
+      id, type: 'error',
+      error: { code: 'bad-option', message: `Expected a request {id, type, payload} with type one of ${REQUEST_TYPES.join(', ')}; got type ${JSON.stringify(m?.type)}.`, place: {} },
+    }, []);
+    return;
+  }
+  const request = message as EngineRequest;
+  let lastFraction = -1;
+  const progress = (done: number, total: number): void => {
+    const fraction = total > 0 ? done / total : 1;
+    if (fraction - lastFraction >= PROGRESS_STEP || (done === total && lastFraction < 1)) {
+      lastFraction = fraction;
+      send({ id: request.id, type: 'progress', done, total, fraction }, []);
+    }
+  };
+  try {
+    const result = run(request.type, request.payload, progress);
+    send({ id: request.id, type: 'result', request: request.type, result } as EngineResponse, transferablesOf(result));
+  } catch (error) {
+    send({ id: request.id, type: 'error', error: errorData(error) }, []);
+  }
+}
+
+/**
  * Creates a handler with its own predictor cache. Call it with each incoming message; it posts
  * progress, then exactly one result or error for the request's id.
  */
 export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS): (message: unknown, send: Send) => void {
-  let cached: { key: string; predictor: Predictor } | null = null;
-
-  const predictorFor = (samples: Samples, model: CovarianceModel): Predictor => {
-    const key = predictorKey(samples, model);
-    if (cached && cached.key === key) return cached.predictor;
-    cached = null; // free the old factor before building a new one
-    const predictor = ops.createPredictor(samples, model);
-    cached = { key, predictor };
-    return predictor;
-  };
-  let cachedLocal: { key: string; predictor: SurfacePredictor } | null = null;
-  const localPredictorFor = (samples: Samples, model: CovarianceModel, local: LocalKrigingOptions): SurfacePredictor => {
-    const key = predictorKey(samples, model) + JSON.stringify(local);
-    if (cachedLocal && cachedLocal.key === key) return cachedLocal.predictor;
-    cachedLocal = null;
-    const predictor = ops.createLocalPredictor(samples, model, local);
-    cachedLocal = { key, predictor };
-    return predictor;
-  };
-  let cachedBlock: { key: string; predictor: BlockPredictor } | null = null;
-  const blockPredictorFor = (samples: Samples, model: CovarianceModel): BlockPredictor => {
-    const key = predictorKey(samples, model);
-    if (cachedBlock && cachedBlock.key === key) return cachedBlock.predictor;
-    cachedBlock = null;
-    const predictor = ops.createBlockPredictor(samples, model);
-    cachedBlock = { key, predictor };
-    return predictor;
-  };
+  const { predictorFor, localPredictorFor, blockPredictorFor } = predictorCaches(ops);
 
   const run = <K extends RequestType>(type: K, payload: RequestPayloads[K], progress: (done: number, total: number) => void): ResultPayloads[K] => {
     const p = payload as RequestPayloads[RequestType];
@@ -218,30 +256,5 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
     throw new GapwiseError('bad-option', `Unknown request type ${JSON.stringify(type)}.`);
   };
 
-  return (message: unknown, send: Send): void => {
-    if (!isEngineRequest(message)) {
-      const m = message as { id?: unknown; type?: unknown } | null;
-      const id = typeof m?.id === 'number' ? m.id : -1;
-      send({
-        id, type: 'error',
-        error: { code: 'bad-option', message: `Expected a request {id, type, payload} with type one of ${REQUEST_TYPES.join(', ')}; got type ${JSON.stringify(m?.type)}.`, place: {} },
-      }, []);
-      return;
-    }
-    const request = message as EngineRequest;
-    let lastFraction = -1;
-    const progress = (done: number, total: number): void => {
-      const fraction = total > 0 ? done / total : 1;
-      if (fraction - lastFraction >= PROGRESS_STEP || (done === total && lastFraction < 1)) {
-        lastFraction = fraction;
-        send({ id: request.id, type: 'progress', done, total, fraction }, []);
-      }
-    };
-    try {
-      const result = run(request.type, request.payload, progress);
-      send({ id: request.id, type: 'result', request: request.type, result } as EngineResponse, transferablesOf(result));
-    } catch (error) {
-      send({ id: request.id, type: 'error', error: errorData(error) }, []);
-    }
-  };
+  return (message: unknown, send: Send): void => answer(message, send, run);
 }

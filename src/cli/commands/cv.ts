@@ -23,8 +23,8 @@ import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
 import { measureLocalLeaveOneOut } from '../../core/validation/local-cross-validation.ts';
 import { stringOption } from '../args.ts';
 import {
-  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText, modelWorkCrs, naming, outOption,
-  printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile, writeOutput,
+  CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText, naming, outOption,
+  printNotes, printWarnings, progressLine, readModelAndSamples, readPredictionPath, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvLine, formatNumber, linePieces } from '../csv.ts';
@@ -38,17 +38,12 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const analytes = analyteRequest(values);
   if (analytes) return cvAnalytes(values, ioGiven, analytes, run);
   const io = modelFromSet(values, ioGiven);
-  const modelPath = stringOption(values, 'model') as string;
-  const modelFile = readModelFile(io, modelPath);
-  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
+  const { modelPath, modelFile, intake } = readModelAndSamples(io, values);
   const { table } = intake;
   // A covariate model: the samples' covariate columns (levels as the model records them).
   const { samples } = withSampleCovariates(intake, intake.samples, modelFile.model.trend);
   if (table.length !== samples.value.length) {
     throw new Error(`The intake returned ${table.length} rows for ${samples.value.length} samples; expected one row per sample.`);
-  }
-  if (modelFile.workCrs === undefined) {
-    printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${intake.report.crs.work} is assumed.`]);
   }
   if (samples.value.length < 3) {
     throw new GapwiseError('too-few-samples', `Expected at least 3 samples for cross-validation, got ${samples.value.length}.`, { file: stringOption(values, 'samples') });

@@ -23,14 +23,16 @@ import { surfaceGridCsvChunks } from '../../io/grid-csv.ts';
 import { DEFAULT_PADDING, openProject, planSurfaceGrid, projectGrid, type Project } from '../../io/project.ts';
 import { booleanOption, numberOption, stringOption } from '../args.ts';
 import {
-  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, jsonText,
-  modelWorkCrs, naming, printNotes, printWarnings, progressLine, readModelFile, readPredictionPath, readSamplesFile,
-  readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, count, describePredictionPath, gridFigures, jsonText,
+  printNotes, printWarnings, progressLine, readGridSpacing, readModelAndSamples, readPredictionPath,
+  readText, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues, type PredictionPath,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { COVARIATE_RASTER_OPTION, checkCovariateRasters, covariateLattice, readCovariateRasters, withSampleCovariates } from '../covariates.ts';
-import { gridCovariates } from '../../io/covariate-raster.ts';
-import { isCovariateTrend, type CovariateTrend } from '../../core/covariance/model.ts';
+import { gridCovariates, type CovariateRaster } from '../../io/covariate-raster.ts';
+import { isCovariateTrend, type CovarianceModel, type CovariateTrend } from '../../core/covariance/model.ts';
+import type { Samples } from '../../core/shared/samples.ts';
+import type { IntakeResult } from '../../io/types.ts';
 import { analyteRequest, gridAnalytes, singleThreshold } from '../analytes.ts';
 import { modelFromSet } from '../analyte-runs.ts';
 import { computeSurfaceParallel } from '../parallel.ts';
@@ -38,17 +40,8 @@ import { checkLocalSurface } from '../local-check.ts';
 import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
-import { GRID_SIMULATION_OPTIONS, addSimulationBands, readSimulationChoice } from '../simulation-options.ts';
+import { GRID_SIMULATION_OPTIONS, addSimulationBands, namingAsync, readSimulationChoice, type SimulationBand, type SimulationChoice } from '../simulation-options.ts';
 import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
-
-/** Like `naming`, for asynchronous work: an input problem without a file gets the file it concerns. */
-async function namingAsync<T>(files: { samples?: string; model?: string }, work: () => Promise<T>): Promise<T> {
-  try {
-    return await work();
-  } catch (e) {
-    return naming(files, () => { throw e; });
-  }
-}
 
 type Format = 'tif' | 'csv' | 'geojson';
 
@@ -70,30 +63,24 @@ export function parseLevels(raw: string, option: string): number[] {
   return out;
 }
 
-async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
-  const analytes = analyteRequest(valuesGiven);
-  if (analytes) return gridAnalytes(valuesGiven, ioGiven, analytes);
-  const values = singleThreshold(valuesGiven);
-  const io = modelFromSet(values, ioGiven);
-  const out = stringOption(values, 'out') as string;
-  const format = formatOf(out);
-  const levels = stringOption(values, 'levels');
-  const meanLevels = levels === undefined ? undefined : parseLevels(levels, 'levels');
-  const modelPath = stringOption(values, 'model') as string;
-  const modelFile = readModelFile(io, modelPath);
-  const { model } = modelFile;
-  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
-  const workCrs = intake.report.crs.work;
-  if (modelFile.workCrs === undefined) printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
+/** A planned grid with what it was planned from: the project, the covariate rasters, the samples with their covariates. */
+interface PlannedGrid {
+  grid: Grid;
+  samples: Samples;
+  project: Project | null;
+  rasters: CovariateRaster[];
+}
 
+/**
+ * The grid: the project's as stored (unless --padding or a different boundary changed its area), a
+ * covariate model's raster lattice, or planned over the samples' extent or --boundary.
+ */
+async function planGrid(io: CliIo, values: OptionValues, intake: IntakeResult, model: CovarianceModel): Promise<PlannedGrid> {
   const projectPath = stringOption(values, 'project');
   const project: Project | null = projectPath === undefined ? null : openProject(readText(io, projectPath), projectPath).project;
   const boundaryPath = stringOption(values, 'boundary');
   const boundary = boundaryPath === undefined ? null : readBoundaryFile(io, boundaryPath, intake);
-  const cell = numberOption(values, 'cell');
-  const padding = numberOption(values, 'padding');
-  if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
-  if (padding !== undefined && !(padding >= 0)) throw new GapwiseError('bad-option', `Option "--padding" expects a fraction of 0 or more, got ${padding}.`);
+  const { cell, padding } = readGridSpacing(values);
 
   // The project's grid as stored, unless the command line changed what it depends on.
   const projectBoundaryKey = project?.boundary ? `${projectPath}:${project.boundary.fileName}` : undefined;
@@ -104,6 +91,7 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   const covariateModel = isCovariateTrend(model.trend);
   checkCovariateRasters(model.trend, rasters);
   const samples = covariateModel ? withSampleCovariates(intake, intake.samples, model.trend).samples : intake.samples;
+  const workCrs = intake.report.crs.work;
   let grid: Grid;
   if (covariateModel && cell === undefined && !(project && sameArea)) {
     grid = covariateLattice(model.trend as CovariateTrend, rasters, workCrs, boundary ? boundary.polygons.map((p) => p.rings) : null);
@@ -115,29 +103,38 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
       padding: padding ?? project?.grid.padding ?? DEFAULT_PADDING,
       cellSize: cell ?? project?.grid.cellSize ?? 0,
       polygons: boundary ? boundary.polygons.map((p) => p.rings) : null,
-    }, intake.report.crs.work);
+    }, workCrs);
   }
+  return { grid, samples, project, rasters };
+}
 
-  const choice = readSimulationChoice(values, model);
-  const covariateWarnings: Warning[] = [];
-  let gridCovariateValues: Float64Array | undefined;
-  let nodeCovariateValues: Float64Array | undefined;
-  if (covariateModel) {
-    // Block support and realisations read the covariates at each cell's block points (or its centre).
-    const nodes = choice.support === 'block' || choice.realizations !== undefined ? choice.blockPoints : undefined;
-    const g = gridCovariates(grid, model.trend as CovariateTrend, rasters, workCrs, nodes !== undefined ? { nodes } : {});
-    grid = g.grid;
-    gridCovariateValues = g.covariates;
-    nodeCovariateValues = g.nodeCovariates;
-    covariateWarnings.push(...g.warnings);
-  }
+/** A covariate model's covariates on the grid: at each cell's centre, and for block support or realisations at its block points. */
+interface GridCovariates {
+  grid: Grid;
+  cells?: Float64Array;
+  nodes?: Float64Array;
+  warnings: Warning[];
+}
+
+function covariatesOnGrid(planned: PlannedGrid, model: CovarianceModel, workCrs: string, choice: SimulationChoice): GridCovariates {
+  if (!isCovariateTrend(model.trend)) return { grid: planned.grid, warnings: [] };
+  // Block support and realisations read the covariates at each cell's block points (or its centre).
+  const nodes = choice.support === 'block' || choice.realizations !== undefined ? choice.blockPoints : undefined;
+  const g = gridCovariates(planned.grid, model.trend, planned.rasters, workCrs, nodes !== undefined ? { nodes } : {});
+  return { grid: g.grid, ...(g.covariates ? { cells: g.covariates } : {}), ...(g.nodeCovariates ? { nodes: g.nodeCovariates } : {}), warnings: [...g.warnings] };
+}
+
+/** `--threshold`, refused when it is 0 or less with a log model. */
+function readThreshold(values: OptionValues, model: CovarianceModel): number | undefined {
   const threshold = numberOption(values, 'threshold');
   if (threshold !== undefined && model.transform === 'log' && !(threshold > 0)) {
     throw new GapwiseError('bad-option', `Option "--threshold" must be above 0 with a log model, got ${threshold}.`);
   }
-  const n = intake.samples.value.length;
-  const workers = readWorkers(values, io);
-  const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
+  return threshold;
+}
+
+/** Refuses block kriging from too many samples or with point-support options, and realisations beyond the resource limits. */
+function checkGridJob(values: OptionValues, model: CovarianceModel, choice: SimulationChoice, grid: Grid, n: number, workers: number): void {
   // Block kriging (block support of a model without a log transform) is exact: all samples, n³/3 flops.
   const blockKriging = choice.support === 'block' && model.transform !== 'log';
   if (blockKriging && n >= MAX_EXACT_SAMPLES) {
@@ -152,79 +149,139 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     const threads = simulationThreads(choice.realizations, workers);
     checkSimulationDemand({ grid, realisations: choice.realizations, blockPoints: choice.blockPoints, threads, keep: false }, 'realizations');
   }
-  printWarnings(io, path.warnings);
-  const files = { samples: intake.report.fileName, model: modelPath };
-  const precision = format === 'csv' ? 'float64' as const : 'float32' as const;
-  const cells = cellCount(grid);
-  let surface: SurfaceResult | undefined;
+}
+
+/** What a point surface needs: the samples, model and grid, and how to compute it. */
+interface PointSurfaceJob {
+  io: CliIo;
+  samples: Samples;
+  model: CovarianceModel;
+  grid: Grid;
+  path: PredictionPath;
+  files: { samples: string; model: string };
+  workers: number;
+  threshold: number | undefined;
+  precision: 'float32' | 'float64';
+  covariates: Float64Array | undefined;
+}
+
+/**
+ * The point surface by the chosen path over the worker threads; local neighbourhoods are measured
+ * against exact kriging and grown or replaced when they miss the tolerance. Prints what was done.
+ */
+async function computePointSurface(job: PointSurfaceJob): Promise<{ surface: SurfaceResult; accuracy?: LocalAccuracy; used: PredictionPath }> {
+  const { io, samples, model, grid, path, files, workers, threshold, precision, covariates } = job;
+  const n = samples.value.length;
+  const compute = (p: 'exact' | 'local', settings?: LocalSettings): Promise<SurfaceResult> => namingAsync(files, () => computeSurfaceParallel({
+    samples, model, grid, path: p,
+    ...(p === 'local' && settings ? { local: { ...settings } } : {}),
+    surface: { ...(threshold !== undefined ? { threshold } : {}), precision, ...(covariates ? { covariates } : {}) },
+  }, { workers, onProgress: progressLine(io, 'cells') }));
+  const settings = { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean && trendColumnCount(model.trend ?? 'constant') > 0 };
+  let surface = await compute(path.path, settings);
   let accuracy: LocalAccuracy | undefined;
   let used = path;
-  if (!blockKriging) {
-    const compute = (p: 'exact' | 'local', settings?: LocalSettings): Promise<SurfaceResult> => namingAsync(files, () => computeSurfaceParallel({
-      samples, model, grid, path: p,
-      ...(p === 'local' && settings ? { local: { ...settings } } : {}),
-      surface: { ...(threshold !== undefined ? { threshold } : {}), precision, ...(gridCovariateValues ? { covariates: gridCovariateValues } : {}) },
-    }, { workers, onProgress: progressLine(io, 'cells') }));
-    const settings = { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean && trendColumnCount(model.trend ?? 'constant') > 0 };
-    surface = await compute(path.path, settings);
-    const notes: string[] = [];
-    if (path.path === 'local') {
-      const checked = await namingAsync(files, () => checkLocalSurface({
-        samples, model, grid, surface: surface!, settings, tolerance: path.tolerance,
-        ...(gridCovariateValues ? { covariates: gridCovariateValues } : {}),
-        grow: !path.neighborsGiven, exactFallback: path.automatic,
-        rerun: (s) => (s === 'exact' ? compute('exact') : compute('local', s)),
-      }));
-      surface = checked.surface;
-      used = checked.path === 'exact'
-        ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
-        : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
-      if (checked.path === 'local') accuracy = checked.accuracy;
-      notes.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
-    }
-    const threads = Math.min(workers, grid.ny);
-    printNotes(io, [`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${count(cells)} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`, ...notes]);
-  } else {
-    printNotes(io, [`block kriging: each of ${count(cells)} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
+  const notes: string[] = [];
+  if (path.path === 'local') {
+    const checked = await namingAsync(files, () => checkLocalSurface({
+      samples, model, grid, surface, settings, tolerance: path.tolerance,
+      ...(covariates ? { covariates } : {}),
+      grow: !path.neighborsGiven, exactFallback: path.automatic,
+      rerun: (s) => (s === 'exact' ? compute('exact') : compute('local', s)),
+    }));
+    surface = checked.surface;
+    used = checked.path === 'exact'
+      ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
+      : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+    if (checked.path === 'local') accuracy = checked.accuracy;
+    notes.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
   }
-  const unit = project?.samples.unit || intake.report.unit;
-  const extra = await namingAsync(files, () => addSimulationBands({
-    samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
-    ...(nodeCovariateValues ? { covariates: nodeCovariateValues } : {}),
-    workers, onProgress: progressLine(io, 'realisations'),
-  }));
-  if (extra.surface) surface = extra.surface;
-  if (!surface) throw new Error('No surface was computed for block support.');
-  if (choice.realizations !== undefined) {
-    const t = extra.threads ?? 1;
-    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
-  }
-  const warnings: Warning[] = [...covariateWarnings, ...surface.warnings, ...extra.warnings];
-  const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
+  const threads = Math.min(workers, grid.ny);
+  printNotes(io, [`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${count(cellCount(grid))} cells on ${threads} worker thread${threads === 1 ? '' : 's'}`, ...notes]);
+  return { surface, ...(accuracy ? { accuracy } : {}), used };
+}
+
+/** Writes the surfaces by the format of --out; returns the GeoTIFF's bands or the number of contour features, and warnings. */
+async function writeGridFile(
+  io: CliIo, out: string, format: Format,
+  what: { grid: Grid; surface: SurfaceResult; workCrs: string; unit: string; valueName: string; extraBands: SimulationBand[]; accuracy?: LocalAccuracy; meanLevels?: number[] },
+): Promise<{ bands?: string[]; features?: number; warnings: Warning[] }> {
+  const { grid, surface, workCrs, unit, extraBands } = what;
+  const warnings: Warning[] = [];
   let bands: string[] | undefined;
   let features: number | undefined;
   if (format === 'tif') {
-    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName, extraBands: extra.bands, ...(accuracy ? { accuracy } : {}) });
+    const tif = surfaceGeoTiff({ grid, surface, workCrs, unit, valueName: what.valueName, extraBands, ...(what.accuracy ? { accuracy: what.accuracy } : {}) });
     warnings.push(...tif.warnings);
     bands = tif.bands;
     await writeOutput(io, out, new Uint8Array(tif.buffer));
   } else if (format === 'csv') {
     await writeOutput(io, out, surfaceGridCsvChunks({ grid, surface, workCrs, unit }));
   } else {
-    const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels });
+    const fc = surfaceContours({ grid, surface, workCrs, unit, meanLevels: what.meanLevels });
     features = fc.features.length;
     await writeOutput(io, out, `${JSON.stringify(fc)}\n`);
   }
-  if (format !== 'tif' && extra.bands.length > 0) {
+  if (format !== 'tif' && extraBands.length > 0) {
     warnings.push({
       code: 'bands-not-written',
-      message: `${extra.bands.length === 1 ? 'The band' : `The ${extra.bands.length} bands`} ${extra.bands.map((b) => `"${b.name}"`).join(', ')} from the realisations ${extra.bands.length === 1 ? 'is' : 'are'} written to GeoTIFF only; use --out FILE.tif to keep ${extra.bands.length === 1 ? 'it' : 'them'}.`,
+      message: `${extraBands.length === 1 ? 'The band' : `The ${extraBands.length} bands`} ${extraBands.map((b) => `"${b.name}"`).join(', ')} from the realisations ${extraBands.length === 1 ? 'is' : 'are'} written to GeoTIFF only; use --out FILE.tif to keep ${extraBands.length === 1 ? 'it' : 'them'}.`,
     });
   }
-  printWarnings(io, warnings);
+  return { ...(bands ? { bands } : {}), ...(features !== undefined ? { features } : {}), warnings };
+}
+
+async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
+  const analytes = analyteRequest(valuesGiven);
+  if (analytes) return gridAnalytes(valuesGiven, ioGiven, analytes);
+  const values = singleThreshold(valuesGiven);
+  const io = modelFromSet(values, ioGiven);
+  const out = stringOption(values, 'out') as string;
+  const format = formatOf(out);
+  const levels = stringOption(values, 'levels');
+  const meanLevels = levels === undefined ? undefined : parseLevels(levels, 'levels');
+  const { modelPath, model, intake, workCrs } = readModelAndSamples(io, values);
+  const planned = await planGrid(io, values, intake, model);
+  const { samples, project } = planned;
+  const choice = readSimulationChoice(values, model);
+  const covariates = covariatesOnGrid(planned, model, workCrs, choice);
+  const grid = covariates.grid;
+  const threshold = readThreshold(values, model);
+  const n = intake.samples.value.length;
+  const workers = readWorkers(values, io);
+  const path = readPredictionPath(values, n, { targets: cellCount(grid), threads: Math.min(workers, grid.ny) });
+  checkGridJob(values, model, choice, grid, n, workers);
+  const blockKriging = choice.support === 'block' && model.transform !== 'log';
+  printWarnings(io, path.warnings);
+  const files = { samples: intake.report.fileName, model: modelPath };
+  let point: { surface: SurfaceResult; accuracy?: LocalAccuracy; used: PredictionPath } | undefined;
+  if (!blockKriging) {
+    point = await computePointSurface({
+      io, samples, model, grid, path, files, workers, threshold, precision: format === 'csv' ? 'float64' : 'float32', covariates: covariates.cells,
+    });
+  } else {
+    printNotes(io, [`block kriging: each of ${count(cellCount(grid))} cells averaged over ${choice.blockPoints} × ${choice.blockPoints} points, from all ${count(n)} samples`]);
+  }
+  const used = point?.used ?? path;
+  const accuracy = point?.accuracy;
+  const unit = project?.samples.unit || intake.report.unit;
+  const extra = await namingAsync(files, () => addSimulationBands({
+    samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
+    ...(covariates.nodes ? { covariates: covariates.nodes } : {}),
+    workers, onProgress: progressLine(io, 'realisations'),
+  }));
+  const surface = extra.surface ?? point?.surface;
+  if (!surface) throw new Error('No surface was computed for block support.');
+  if (choice.realizations !== undefined) {
+    const t = extra.threads ?? 1;
+    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
+  }
+  const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
+  const written = await writeGridFile(io, out, format, { grid, surface, workCrs, unit, valueName, extraBands: extra.bands, ...(accuracy ? { accuracy } : {}), meanLevels });
+  printWarnings(io, [...covariates.warnings, ...surface.warnings, ...extra.warnings, ...written.warnings]);
   io.stdout(jsonText({
     out, format, workCrs,
-    grid: { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) },
+    grid: gridFigures(grid),
     threshold: threshold ?? null,
     support: choice.support,
     ...(choice.support === 'block' ? { blockPoints: choice.blockPoints } : {}),
@@ -233,8 +290,8 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     ...(blockKriging ? {} : { reason: used.reason }),
     ...(accuracy ? { localError: accuracy } : {}),
     n,
-    ...(bands ? { bands } : {}),
-    ...(features !== undefined ? { features } : {}),
+    ...(written.bands ? { bands: written.bands } : {}),
+    ...(written.features !== undefined ? { features: written.features } : {}),
     range: surface.range,
     ...(extra.area ? { realizations: extra.area.realizations, seed: extra.area.seed, areaAbove: extra.area.areaAbove } : {}),
     ...(extra.area?.volumeAbove ? { volumeAbove: extra.area.volumeAbove } : {}),

@@ -17,17 +17,14 @@ import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
 import { knownMean } from '../../core/covariance/trend.ts';
 import {
-  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath, modelWorkCrs, naming, outOption, printNotes,
-  printWarnings, readModelFile, readPredictionPath, readSamplesFile, readText, writeOutput,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, describePredictionPath,
+  findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvCell, formatNumber, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
 import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
-
-const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
-const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
 
 /** Index of the coordinate column: the given name, else the samples' name, else a usual name. */
 function findColumn(
@@ -42,15 +39,8 @@ function findColumn(
     }
     return i;
   }
-  if (fallback !== undefined) {
-    const i = names.indexOf(fallback);
-    if (i !== -1) return i;
-  }
-  const lower = names.map((n) => n.toLowerCase().replace(/\s*\(.*\)\s*$/, ''));
-  for (const u of usual) {
-    const i = lower.indexOf(u);
-    if (i !== -1) return i;
-  }
+  const i = findUsualColumn(names, fallback, usual);
+  if (i !== -1) return i;
   throw new GapwiseError('missing-column',
     `No ${axis} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected a usual name (${usual.join(', ')}) or --targets-${axis} COL.`,
     { file, row: table.header.line });
@@ -79,23 +69,16 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   if (analytes) return predictAnalytes(valuesGiven, ioGiven, analytes, run);
   const values = singleThreshold(valuesGiven);
   const io = modelFromSet(values, ioGiven);
-  const modelPath = stringOption(values, 'model') as string;
   const targetsPath = stringOption(values, 'targets') as string;
   const threshold = numberOption(values, 'threshold');
-  const modelFile = readModelFile(io, modelPath);
-  const { model } = modelFile;
-  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
-  const workCrs = intake.report.crs.work;
-  if (modelFile.workCrs === undefined) {
-    printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
-  }
+  const { modelPath, model, intake, workCrs } = readModelAndSamples(io, values);
 
   const table = readCsvTable(readText(io, targetsPath), targetsPath);
   if (table.records.length === 0) {
     throw new GapwiseError('bad-file', 'The targets file has a header but no rows; expected at least one target.', { file: targetsPath });
   }
-  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, X_NAMES, 'x');
-  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, Y_NAMES, 'y');
+  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, USUAL_X_NAMES, 'x');
+  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, USUAL_Y_NAMES, 'y');
   const tx = readCoordinates(table, targetsPath, xi);
   const ty = readCoordinates(table, targetsPath, yi);
   const targetsCrs = stringOption(values, 'targets-crs') ?? stringOption(values, 'crs') ?? intake.report.crs.input;

@@ -8,12 +8,11 @@
  */
 import { COVARIATE_RASTER_OPTION, gridWithCovariates } from '../covariates.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
-import { cellCount } from '../../core/geometry/grid.ts';
 import { bandsGeoTiff, USER_DEFINED_CRS } from '../../io/geotiff.ts';
 import { DEFAULT_PADDING, planSurfaceGrid } from '../../io/project.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, count, jsonText, modelWorkCrs, printNotes, printWarnings, progressLine, readModelFile, readSamplesFile,
+  CAUTION, SAMPLE_OPTIONS, count, gridFigures, jsonText, printNotes, printWarnings, progressLine, readGridSpacing, readModelAndSamples,
   readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
@@ -26,16 +25,10 @@ import { checkSimulationDemand } from '../resource-limits.ts';
 async function run(values: OptionValues, io: CliIo): Promise<number> {
   const out = stringOption(values, 'out') as string;
   if (!/\.tiff?$/i.test(out)) throw new GapwiseError('bad-option', `Option "--out ${out}" must name a GeoTIFF (.tif); realisations are written as its bands.`);
-  const modelPath = stringOption(values, 'model') as string;
-  const modelFile = readModelFile(io, modelPath);
-  const { model } = modelFile;
-  const intake = readSamplesFile(io, values, modelWorkCrs(values, modelFile, modelPath));
-  const workCrs = intake.report.crs.work;
-  if (modelFile.workCrs === undefined) printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
+  const { modelPath, model, intake, workCrs } = readModelAndSamples(io, values);
   const boundaryPath = stringOption(values, 'boundary');
   const boundary = boundaryPath === undefined ? null : readBoundaryFile(io, boundaryPath, intake);
-  const cell = numberOption(values, 'cell');
-  if (cell !== undefined && !(cell > 0)) throw new GapwiseError('bad-option', `Option "--cell" expects a cell size above 0 m, got ${cell}.`);
+  const { cell } = readGridSpacing(values);
   const choice = readSimulationChoice(values, model, 'count');
   const pathRequest = readSimulationPathRequest(values);
   const polygons = boundary ? boundary.polygons.map((p) => p.rings) : null;
@@ -70,7 +63,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const area = sim.area;
   io.stdout(jsonText({
     out, format: 'tif', workCrs, epsg: tif.epsg === USER_DEFINED_CRS ? null : tif.epsg,
-    grid: { x0: grid.x0, y0: grid.y0, cell: grid.cell, nx: grid.nx, ny: grid.ny, cells: cellCount(grid) },
+    grid: gridFigures(grid),
     realisations: sim.count, seed: choice.seed, support: sim.support, blockPoints: sim.points,
     unit,
     threshold: threshold ?? null,

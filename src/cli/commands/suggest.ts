@@ -18,8 +18,9 @@ import { suggestionsToGpx } from '../../io/gpx.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, count as countText, jsonText, modelWorkCrs, naming, outOption, printNotes, printWarnings, progressLine, readModelFile, readSamplesFile,
-  readText, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, assignDefined, count as countText, findUsualColumn, jsonText, modelWorkCrs, naming, outOption,
+  printNotes, printWarnings, progressLine, readModelFile, readSamplesFile, readText, warnUnstatedWorkCrs, writeOutput,
+  type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, readCsvTable } from '../csv.ts';
@@ -41,8 +42,6 @@ function describeDesignPath(p: NonNullable<DesignResult['path']>, n: number): st
   return notes;
 }
 
-const X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
-const Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
 type Format = 'geojson' | 'csv' | 'gpx';
 
 function formatOf(file: string): Format {
@@ -68,20 +67,6 @@ function readExclusions(io: CliIo, file: string, workCrs: string): CorePolygon[]
   }
 }
 
-/** Column index by usual names, the samples' own name first. */
-function findColumn(names: string[], preferred: string | undefined, usual: readonly string[]): number {
-  if (preferred !== undefined) {
-    const i = names.indexOf(preferred);
-    if (i !== -1) return i;
-  }
-  const lower = names.map((n) => n.toLowerCase().replace(/\s*\(.*\)\s*$/, ''));
-  for (const u of usual) {
-    const i = lower.indexOf(u);
-    if (i !== -1) return i;
-  }
-  return -1;
-}
-
 /** Accessible points: a CSV with coordinate columns, or GeoJSON points (WGS 84); returned in the working CRS. */
 function readCandidates(io: CliIo, file: string, values: OptionValues, intake: IntakeResult): { x: Float64Array; y: Float64Array } {
   const workCrs = intake.report.crs.work;
@@ -104,11 +89,11 @@ function readCandidates(io: CliIo, file: string, values: OptionValues, intake: I
   } else {
     const table = readCsvTable(text, file);
     const names = table.header.cells.map((c) => c.trim());
-    const xi = findColumn(names, intake.report.xColumn, X_NAMES);
-    const yi = findColumn(names, intake.report.yColumn, Y_NAMES);
+    const xi = findUsualColumn(names, intake.report.xColumn, USUAL_X_NAMES);
+    const yi = findUsualColumn(names, intake.report.yColumn, USUAL_Y_NAMES);
     if (xi === -1 || yi === -1) {
       throw new GapwiseError('missing-column',
-        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${(xi === -1 ? X_NAMES : Y_NAMES).join(', ')}).`,
+        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${(xi === -1 ? USUAL_X_NAMES : USUAL_Y_NAMES).join(', ')}).`,
         { file, row: table.header.line });
     }
     const read = (col: number): Float64Array => {
@@ -154,25 +139,19 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const intake = readSamplesFile(io, values, modelFile && modelPath ? modelWorkCrs(values, modelFile, modelPath) : undefined);
   const workCrs = intake.report.crs.work;
   const inputCrs = intake.report.crs.input;
-  if (modelFile && modelFile.workCrs === undefined) {
-    printWarnings(io, [`${modelPath} does not say which working CRS its distances are in; ${workCrs} is assumed.`]);
-  }
+  if (modelFile && modelPath) warnUnstatedWorkCrs(io, modelFile, modelPath, workCrs);
   const local = isLocal(workCrs);
   if (local && (format === 'geojson' || format === 'gpx')) {
     throw new GapwiseError('bad-option', `The samples have local coordinates without a CRS, so ${format === 'gpx' ? 'GPX' : 'GeoJSON'} (longitude, latitude) cannot be written; give --crs, or write .csv.`);
   }
 
-  const options: DesignOptions = { count: numberOption(values, 'count') ?? 10 };
-  const threshold = numberOption(values, 'threshold');
-  const mode = stringOption(values, 'mode') as DesignMode | undefined;
-  const cell = numberOption(values, 'cell');
-  const minSpacing = numberOption(values, 'min-spacing');
-  const seed = numberOption(values, 'seed');
-  if (threshold !== undefined) options.threshold = threshold;
-  if (mode !== undefined) options.mode = mode;
-  if (cell !== undefined) options.cell = cell;
-  if (minSpacing !== undefined) options.minSpacing = minSpacing;
-  if (seed !== undefined) options.seed = seed;
+  const options = assignDefined<DesignOptions>({ count: numberOption(values, 'count') ?? 10 }, {
+    threshold: numberOption(values, 'threshold'),
+    mode: stringOption(values, 'mode') as DesignMode | undefined,
+    cell: numberOption(values, 'cell'),
+    minSpacing: numberOption(values, 'min-spacing'),
+    seed: numberOption(values, 'seed'),
+  });
   const boundaryPath = stringOption(values, 'boundary');
   if (boundaryPath !== undefined) options.boundary = readBoundaryFile(io, boundaryPath, intake).polygons.map((p) => p.rings);
   const excludePath = stringOption(values, 'exclude');
