@@ -12,6 +12,9 @@ import {
   type CheckedValues, type GrowthAttempt, type LocalAccuracy, type LocalSettings,
 } from '../core/prediction/local-accuracy.ts';
 import { EXACT_SAMPLE_LIMIT, checkCount, type Tolerance } from '../core/prediction/path-choice.ts';
+import type { Warning } from '../core/shared/errors.ts';
+import type { LocalTargetRunner } from '../core/prediction/local-accuracy.ts';
+import { startEngineThreads } from './engine-threads.ts';
 
 /** What checkLocalSurface needs (the surface was computed with `settings` and tiles of the grid's cell). */
 export interface LocalSurfaceCheck {
@@ -99,4 +102,56 @@ export async function checkLocalSurface(c: LocalSurfaceCheck): Promise<CheckedSu
     return { surface, path: 'exact', settings, accuracy: first, attempts, notes: [`${missed}, and so did every larger neighbourhood tried; took exact kriging from all ${n.toLocaleString('en-US')} samples instead`] };
   }
   return { surface, path: 'local', settings, accuracy, attempts, notes: [`${missed}; no larger neighbourhood tried met it`] };
+}
+
+/** Fewest targets for which predict spreads local neighbourhoods over threads (below, starting them costs more than it saves). */
+export const THREADED_TARGETS = 5000;
+
+/**
+ * Local-neighbourhood predictions at points over `threads` worker threads of the engine's pool: the
+ * targets (in the order given, which predictLocalChecked makes spatial) in contiguous parts, four per
+ * thread, each a `localPredict` request; the values equal a one-thread run's (local results do not
+ * depend on which targets are predicted together). The threads start at once, so that they are ready
+ * while the global trend and the reference are computed. dispose() ends them.
+ */
+export function threadedTargetRunner(samples: Samples, model: CovarianceModel, threads: number): { run: LocalTargetRunner; dispose: () => Promise<void> } {
+  const size = Math.max(1, Math.floor(threads));
+  const pool = startEngineThreads(size);
+  const started = pool.run(Array.from({ length: size }, () => ({ type: 'ready' as const, payload: {} })), { name: 'start of the prediction threads' });
+  // A thread that fails to start is reported by the run that needs it.
+  started.catch(() => {});
+  const run: LocalTargetRunner = async (local, x, y, covariates) => {
+    await started;
+    const T = x.length;
+    const parts = Math.max(1, Math.min(T, 4 * size));
+    const bounds = Array.from({ length: parts + 1 }, (_, k) => Math.round((k * T) / parts));
+    const q = covariates && T > 0 ? covariates.length / T : 0;
+    const out: Record<string, Float64Array> = {};
+    const warnings = new Map<string, Warning>();
+    await pool.run(Array.from({ length: parts }, (_, k) => ({
+      type: 'localPredict' as const,
+      payload: {
+        samples, model, local,
+        x: x.slice(bounds[k], bounds[k + 1]), y: y.slice(bounds[k], bounds[k + 1]),
+        ...(covariates && q > 0 ? { covariates: covariates.slice(bounds[k] * q, bounds[k + 1] * q) } : {}),
+      },
+    })), {
+      name: 'prediction', parts: 'parts of the targets',
+      onResult: (k, r) => {
+        for (const key of ['mean', 'sd', 'sdObserved', 'median', 'logMean', 'logSd'] as const) {
+          const part = r[key];
+          if (!part) continue;
+          out[key] ??= new Float64Array(T);
+          out[key].set(part, bounds[k]);
+        }
+        for (const w of r.warnings) warnings.set(`${w.code}:${w.message.replace(/^\d+ /, '')}`, w);
+      },
+    });
+    return {
+      mean: out.mean ?? new Float64Array(0), sd: out.sd ?? new Float64Array(0), sdObserved: out.sdObserved ?? new Float64Array(0),
+      ...(out.median ? { median: out.median, logMean: out.logMean, logSd: out.logSd } : {}),
+      warnings: [...warnings.values()],
+    };
+  };
+  return { run, dispose: () => pool.dispose() };
 }
