@@ -103,6 +103,31 @@ describe('predictLocalChecked', () => {
     expectClose(res.accuracy.sd.max, 100 * maxSd, { rel: 1e-9 }, 'largest sd difference at the fresh subset');
   });
 
+  it('predictLocalChecked grows step by step at the targets still moving when few checked targets miss, and at every target at once when most do', async () => {
+    // Samples in one corner of the targets' square: targets far from them do not move with the neighbourhood's size.
+    const r = createRandom(4);
+    const x: number[] = [];
+    const y: number[] = [];
+    const v: number[] = [];
+    for (let i = 0; i < 300; i++) {
+      x.push(300000 + 200 * r.uniform());
+      y.push(5000000 + 200 * r.uniform());
+      v.push(10 + Math.sin(x[i] / 120) + Math.cos(y[i] / 170) + 0.3 * r.normal());
+    }
+    const tx = Float64Array.from({ length: 1500 }, () => 300000 + 1000 * r.uniform());
+    const ty = Float64Array.from({ length: 1500 }, () => 5000000 + 1000 * r.uniform());
+    const known: CovarianceModel = { ...MODEL, trend: { known: 10 } };
+    const few = await predictLocalChecked(makeSamples(x, y, v), known, tx, ty, { local: { neighbors: 16 } });
+    expect(few.notes.join(' ')).toMatch(/where the values still moved with the neighbourhood's size \(rerun: [\d,]+ with the \d+ nearest/);
+    expect(few.accuracy.within).toBe(true);
+    const { samples, tx: wx, ty: wy } = problem(800, 1200, 9);
+    const most = await predictLocalChecked(samples, MODEL, wx, wy, { local: { neighbors: 8 }, seed: 2 });
+    expect(most.notes.join(' ')).toMatch(/at \d+ of 200 checked targets; grown to the \d+ nearest.* at every target/);
+    // The values are those of one run with the grown setting.
+    const grown = createLocalPredictor(samples, MODEL, { ...most.settings, globalBeta: undefined }).predict(wx, wy);
+    expect(Array.from(most.prediction.mean)).toEqual(Array.from(grown.mean));
+  });
+
   it('predictLocalChecked stops a growth that would cost more than its budget and reports the first measurement', async () => {
     const { samples, tx, ty } = problem(800, 1200, 9);
     const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2, growthBudget: 2 });
