@@ -532,6 +532,8 @@ async function growEverywhere(
   job: CheckedJob, first: LocalAccuracy, missedCount: number, grown: LocalSettings, attempts: GrowthAttempt[],
 ): Promise<CheckedLocalPrediction> {
   const pending = job.run(grown);
+  // Awaited below; a failure of the reference first must not leave its rejection unhandled.
+  pending.catch(() => {});
   // The fresh reference while the run goes on (on other threads when the runner uses them).
   const fresh = measurementAt(job, freshSeed(job.seed));
   const prediction = await pending;
