@@ -218,6 +218,12 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
         checkSamples(q.samples);
         return checkLocalGrid(q.samples, q.model, q.grid, q.local, { ...(q.tolerance ? { tolerance: q.tolerance } : {}), grow: q.grow === true }) as ResultPayloads[K];
       }
+      case 'localPredict': {
+        const q = p as RequestPayloads['localPredict'];
+        checkSamples(q.samples);
+        const predictor = localPredictorFor(q.samples, q.model, q.local);
+        return predictor.predict(q.x, q.y, { ...(q.covariates ? { covariates: q.covariates } : {}), onProgress: progress }) as ResultPayloads[K];
+      }
       case 'fitNearestNeighbour': {
         const q = p as RequestPayloads['fitNearestNeighbour'];
         checkSamples(q.samples);

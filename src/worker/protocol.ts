@@ -18,7 +18,7 @@ import type { IntakeOptions, IntakeResult } from '../io/types.ts';
 import type { DesignResult } from '../core/design/design.ts';
 import type { BlockSurfaceOptions } from '../core/prediction/block-kriging.ts';
 import type { VecchiaFitOptions } from '../core/fitting/vecchia.ts';
-import type { LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
+import type { LocalKrigingOptions, LocalPrediction } from '../core/prediction/local-kriging.ts';
 import type { LocalGridCheck, LocalSettings } from '../core/prediction/local-accuracy.ts';
 import type { Tolerance } from '../core/prediction/path-choice.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
@@ -74,6 +74,8 @@ export interface RequestPayloads {
    * cells; with `grow`, the larger settings that meet the tolerance when it is missed.
    */
   localAccuracy: { samples: Samples; model: CovarianceModel; grid: Grid; local: LocalSettings; tolerance?: Tolerance; grow?: boolean };
+  /** Local-neighbourhood predictions at points (the command line's predict; values equal a one-thread run's). */
+  localPredict: { samples: Samples; model: CovarianceModel; local: LocalKrigingOptions; x: Float64Array; y: Float64Array; covariates?: Float64Array };
   /** Answers once the worker runs: starts workers ahead of work that blocks the caller (the likelihood passes). */
   ready: Record<string, never>;
   /** This worker's part of every nearest-neighbour likelihood pass, over shared memory until told to leave (./likelihood-part.ts). */
@@ -96,6 +98,7 @@ export interface ResultPayloads {
   prepareReport: ReportInput;
   design: DesignResult;
   localAccuracy: LocalGridCheck;
+  localPredict: LocalPrediction;
   ready: true;
   likelihoodPart: { passes: number };
 }
@@ -103,7 +106,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy',
+  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy', 'localPredict',
   'ready', 'likelihoodPart',
 ];
 

@@ -9,7 +9,9 @@
 import { SOFTWARE } from '../../core/shared/version.ts';
 import { GapwiseError, type Warning } from '../../core/shared/errors.ts';
 import { createPredictor, type Prediction } from '../../core/prediction/kriging.ts';
-import { describeAccuracy, predictLocalChecked } from '../../core/prediction/local-accuracy.ts';
+import { describeAccuracy, predictLocalChecked, type CheckedLocalPrediction } from '../../core/prediction/local-accuracy.ts';
+import { THREADED_TARGETS, threadedTargetRunner } from '../local-check.ts';
+import { namingAsync } from '../simulation-options.ts';
 import { denseTargetSpacing } from '../../core/prediction/target-spacing.ts';
 import { exceedanceProbability } from '../../core/shared/normal.ts';
 import { createTransform } from '../../io/crs.ts';
@@ -18,7 +20,7 @@ import { numberOption, stringOption } from '../args.ts';
 import { knownMean } from '../../core/covariance/trend.ts';
 import {
   AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, describePredictionPath,
-  findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, writeOutput,
+  findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, readWorkers, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { CSV_CAUTION, csvCell, formatNumber, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
@@ -110,11 +112,19 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   } else {
     // Targets denser than the samples share tile neighbourhoods, as grid cells do.
     const spacing = denseTargetSpacing(work.x, work.y, samples.x, samples.y);
-    const checked = naming(files, () => predictLocalChecked(samples, model, work.x, work.y, {
-      ...(covariates ? { covariates } : {}),
-      local: { neighbors: path.neighbors, globalMean: path.globalMean, ...(spacing !== undefined ? { targetSpacing: spacing } : {}) },
-      tolerance: path.tolerance, grow: !path.neighborsGiven, exactFallback: path.automatic,
-    }));
+    const threads = tx.length >= THREADED_TARGETS ? Math.min(readWorkers(values, io), Math.ceil(tx.length / THREADED_TARGETS)) : 1;
+    const runner = threads > 1 ? threadedTargetRunner(samples, model, threads) : null;
+    let checked: CheckedLocalPrediction;
+    try {
+      checked = await namingAsync(files, () => predictLocalChecked(samples, model, work.x, work.y, {
+        ...(covariates ? { covariates } : {}),
+        local: { neighbors: path.neighbors, globalMean: path.globalMean, ...(spacing !== undefined ? { targetSpacing: spacing } : {}) },
+        tolerance: path.tolerance, grow: !path.neighborsGiven, exactFallback: path.automatic,
+        threads, ...(runner ? { runTargets: runner.run } : {}),
+      }));
+    } finally {
+      await runner?.dispose();
+    }
     warnings.push(...checked.warnings);
     p = checked.prediction;
     const used = { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
@@ -178,6 +188,7 @@ export const predictCommand: CommandSpec = {
     { name: 'targets-crs', kind: 'string', placeholder: 'CRS', help: 'CRS of the target coordinates', defaultText: '--crs, else the samples\' CRS' },
     { name: 'threshold', kind: 'string', placeholder: 'T', help: 'action level: adds p_exceed = P(value > T); with several analytes (--value a,b) one number for all or NAME=T pairs, e.g. zinc=720,lead=530', unit: 'the samples\' unit', defaultText: 'none' },
     outOption('CSV file to write', 'stdout'),
+    { name: 'workers', kind: 'number', placeholder: 'N', help: `local neighbourhoods from ${THREADED_TARGETS.toLocaleString('en-US')} targets: worker threads that share out the targets (1 to 256)`, unit: 'threads', defaultText: 'one per core of this machine' },
     ...PREDICTION_PATH_OPTIONS,
     ...SAMPLE_OPTIONS,
   ],

@@ -8,24 +8,27 @@
  * samples of each checked target around the GLS mean of all samples. The differences of mean and sd
  * at those targets are reported as largest and root-mean-square, in % of the prior sd of the
  * surface (√ of its sill without the nugget; on the log scale for a log model, where kriging works).
- * When the largest difference misses the tolerance, larger settings are tried at the checked targets
- * only, cheapest first (the GLS mean of all samples, then twice the neighbours up to
- * maxGrownNeighbors(n)). Up to the first within the tolerance, each step reruns only the targets whose
- * own values still move as the neighbourhood grows (affectedTargets, calibrated on the checked
- * targets that missed); the result is then measured again at a fresh seeded subset against a new
- * reference, and that measurement is the one reported. When it misses, every target is rerun with the
- * grown setting (up to EXACT_SAMPLE_LIMIT samples), then exact kriging may be taken, or a warning says
- * the tolerance was missed. Local results do not depend on which targets are predicted together
- * (./local-kriging.ts), so a subset's values equal those of a full run.
+ * The starting settings are tried at the checked targets alone first (local values do not depend on
+ * which targets are predicted together, ./local-kriging.ts, so a subset's values equal those of a
+ * full run). When the largest difference misses the tolerance, larger settings are tried there too,
+ * cheapest first (the GLS mean of all samples, then 1.5 and 2 times the neighbours in turn up to
+ * maxGrownNeighbors(n)). When most checked targets missed, the first setting within the tolerance runs
+ * once at every target (a targeted rerun would rerun nearly all of them). Otherwise, after a first run,
+ * each step up to it reruns only the targets whose own values still move as the neighbourhood grows
+ * (affectedTargets, calibrated on the checked targets that missed). A grown result is measured again
+ * at a fresh seeded subset against a new reference, and that measurement is the one reported. When it
+ * misses, every target is rerun with the grown setting (up to EXACT_SAMPLE_LIMIT samples), then exact
+ * kriging may be taken, or a warning says the tolerance was missed.
  * Why the reference above MAX_EXACT_SAMPLES samples is kriging from the R nearest: with the mean
  * fixed at the GLS estimate, a sample beyond the R-th nearest changes the kriging answer only through
  * the screened remainder of the covariance; on the benchmark field (100,000 samples, scale 17 sample
  * spacings, 8 % nugget) the local answer converged geometrically (largest mean difference 4.5 %, 2.1 %,
- * 0.48 % of the prior sd from 800 at 64, 128, 256 neighbours), so at R = 800 the reference's own
- * distance from exact kriging is far below the 1 % tolerance.
- * Cost: the reference (see ./path-choice.ts localCost), per growth step c local predictions, the
- * signal (a run with half the starting neighbours, about an eighth of the first run) and the rerun
- * targets; a second reference for the fresh subset.
+ * 0.48 % of the prior sd from 800 at 64, 128, 256 neighbours; 800 and 1,200 differed by 0.05 % at 200
+ * targets), so at R = 800 the reference's own distance from exact kriging is far below the 1 % tolerance.
+ * Cost: the reference (see ./path-choice.ts localCost), per tried setting c local predictions; a
+ * growth at every target costs one run with the grown setting, a stepwise one the first run, the signal
+ * (a run with half the starting neighbours, about an eighth of the first run) and the rerun targets;
+ * a second reference for the fresh subset.
  */
 import type { CovarianceModel } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
@@ -37,7 +40,7 @@ import { cellCentres, type Grid } from '../geometry/grid.ts';
 import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
 import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
-import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, REFERENCE_NEIGHBORS, checkCount, localTargetCost, type Tolerance } from './path-choice.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, GROWTH_OPERATIONS_PER_THREAD, REFERENCE_NEIGHBORS, checkCount, localTargetCost, type Tolerance } from './path-choice.ts';
 import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
@@ -185,8 +188,19 @@ export interface LocalSettings {
 }
 
 /**
+ * The next neighbourhood size after m: the next of 1, 2, 3, 4, 6, 8, 12, 16, 24, 32, 48, 64, 96, 128,
+ * 192, 256, … (powers of two and 1.5 times them), so that a growth costs at most about 3.4 times
+ * the step before (a neighbourhood costs about m³) instead of 8 times for a doubling.
+ */
+export function nextNeighbors(m: number): number {
+  const p = 2 ** Math.floor(Math.log2(Math.max(1, m)));
+  const between = 1.5 * p;
+  return Number.isInteger(between) && between > m ? between : 2 * p;
+}
+
+/**
  * The larger settings to try after `start` missed the tolerance, cheapest first: the GLS mean of all
- * samples (when the trend is estimated), then twice the neighbours up to maxGrownNeighbors(n).
+ * samples (when the trend is estimated), then larger neighbourhoods (nextNeighbors) up to maxGrownNeighbors(n).
  */
 export function growthSteps(start: LocalSettings, samples: number, model: CovarianceModel): LocalSettings[] {
   const steps: LocalSettings[] = [];
@@ -198,7 +212,7 @@ export function growthSteps(start: LocalSettings, samples: number, model: Covari
   }
   const cap = maxGrownNeighbors(samples);
   while (s.neighbors < cap) {
-    s = { ...s, neighbors: Math.min(2 * s.neighbors, cap) };
+    s = { ...s, neighbors: Math.min(nextNeighbors(s.neighbors), cap) };
     steps.push(s);
   }
   return steps;
@@ -245,9 +259,14 @@ export interface CheckedLocalOptions {
   covariates?: ArrayLike<number>;
   /**
    * Most cost a growth may add, in multiples of the first run's estimated cost; default GROWTH_BUDGET
-   * above EXACT_SAMPLE_LIMIT samples, unlimited below (where exact kriging is the next step anyway).
+   * above EXACT_SAMPLE_LIMIT samples (or GROWTH_OPERATIONS_PER_THREAD per thread when that is more),
+   * unlimited below (where exact kriging is the next step anyway).
    */
   growthBudget?: number;
+  /** Threads the full-target runs are spread over (the growth budget grows with them); default 1. */
+  threads?: number;
+  /** Runs the full-target predictions (for example over worker threads); default: in this thread. */
+  runTargets?: LocalTargetRunner;
 }
 
 /** A local prediction with its measured error and what was done to meet the tolerance. */
@@ -364,176 +383,321 @@ export function freshSeed(seed: number): number {
 }
 
 /**
- * Local prediction at every target, its error measured at a seeded subset, grown or replaced by
- * exact kriging when the tolerance is missed (see the file header).
- *
- * Growth reruns only the targets that need it: the growth steps up to the first setting that met the
- * tolerance at the checked targets are taken one by one, each rerunning the targets whose own values
- * still move with the neighbourhood's size (affectedTargets). The grown result is then measured again
- * at a fresh seeded subset (freshSeed) against a new reference, and that is the error reported; when
- * it misses, exact kriging is taken (exactFallback, up to EXACT_SAMPLE_LIMIT samples) or a warning says so.
+ * Runs local predictions at many targets with the given local options, values in the order of the
+ * targets given (for example over worker threads); the values must equal createLocalPredictor's.
  */
-export function predictLocalChecked(
-  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, options: CheckedLocalOptions = {},
-): CheckedLocalPrediction {
-  const n = samples.x.length;
-  const T = x.length;
-  const log = model.transform === 'log';
-  const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
-  const seed = options.seed ?? DEFAULT_CHECK_SEED;
-  let base = options.local ?? {};
-  // The GLS mean of all samples only means something when the trend is estimated.
-  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
-  let settings: LocalSettings = { neighbors: Math.min(base.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, n), globalMean: base.globalMean === true && estimated };
-  // The global trend coefficients once for every run, the reference and the growth (n > 1,000: a
-  // nearest-neighbour GLS over all samples, the costliest step to repeat).
+export type LocalTargetRunner = (
+  local: LocalKrigingOptions, x: Float64Array, y: Float64Array, covariates: Float64Array | undefined,
+) => Promise<Prediction & { warnings?: Warning[] }>;
+
+/** One checked job: its inputs, the shared global trend, the targets' spatial order and the runs over them. */
+interface CheckedJob {
+  samples: Samples;
+  model: CovarianceModel;
+  x: ArrayLike<number>;
+  y: ArrayLike<number>;
+  options: CheckedLocalOptions;
+  n: number;
+  T: number;
+  log: boolean;
+  tolerance: Tolerance;
+  seed: number;
+  /** The local options with the global trend coefficients (when the trend is estimated). */
+  base: LocalKrigingOptions;
+  /** Targets visited cell by cell share neighbourhoods (./target-spacing.ts spatialOrder). */
+  order: Uint32Array;
+  warnings: Warning[];
+  priorSd: number;
+  /** The covariate rows of targets `at` (undefined without covariates). */
+  rows(at: ArrayLike<number>): Float64Array | undefined;
+  /** Predicts with settings `s` at the targets `at` (indices, in spatial order); values in that order. */
+  runAt(s: LocalSettings, at: Uint32Array): Promise<Prediction>;
+  /** Predicts with settings `s` at every target; values in the targets' order. */
+  run(s: LocalSettings): Promise<Prediction>;
+}
+
+/** The job: the global trend coefficients once for every run, the reference and the growth (n > 1,000: a nearest-neighbour GLS, the costliest step to repeat). */
+function startCheckedJob(samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, options: CheckedLocalOptions): CheckedJob {
   const warnings: Warning[] = [];
+  let base = options.local ?? {};
+  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
   if (estimated && base.globalBeta === undefined) {
     const g = globalMeanCoefficients(samples, model, base);
     base = { ...base, globalBeta: Array.from(g.beta) };
     warnings.push(...g.warnings);
   }
-  // Targets visited cell by cell share neighbourhoods; the results are put back in the targets' order.
   const order = spatialOrder(x, y);
   const q = covariateColumnCount(model.trend ?? 'constant');
-  const rows = (src: ArrayLike<number> | undefined, at: ArrayLike<number>): Float64Array | undefined => {
+  const rows = (at: ArrayLike<number>): Float64Array | undefined => {
+    const src = options.covariates;
     if (!src || q === 0) return undefined;
     const out = new Float64Array(at.length * q);
     for (let k = 0; k < at.length; k++) for (let j = 0; j < q; j++) out[k * q + j] = src[at[k] * q + j];
     return out;
   };
-  /** Predicts with settings `s` at the targets `at` (indices, in spatial order), values in that order. */
-  const runAt = (s: LocalSettings, at: Uint32Array): Prediction => {
-    const predictor = createLocalPredictor(samples, model, { ...base, ...s });
-    const ax = Float64Array.from(at, (i) => x[i]);
-    const ay = Float64Array.from(at, (i) => y[i]);
-    const ac = rows(options.covariates, at);
+  const inThisThread: LocalTargetRunner = async (local, ax, ay, ac) => {
+    const predictor = createLocalPredictor(samples, model, local);
     const p = predictor.predict(ax, ay, ac ? { covariates: ac } : {});
-    for (const w of predictor.warnings) if (!warnings.some((v) => v.message === w.message)) warnings.push(w);
+    return { ...p, warnings: predictor.warnings };
+  };
+  const runner = options.runTargets ?? inThisThread;
+  const runAt = async (s: LocalSettings, at: Uint32Array): Promise<Prediction> => {
+    const { warnings: said, ...p } = await runner({ ...base, ...s }, Float64Array.from(at, (i) => x[i]), Float64Array.from(at, (i) => y[i]), rows(at));
+    for (const w of said ?? []) if (!warnings.some((v) => v.message === w.message)) warnings.push(w);
     return p;
   };
-  const run = (s: LocalSettings): Prediction => unpermute(runAt(s, order), order);
-  let prediction = run(settings);
-  const priorSd = priorSdOf(model);
-  /** The measurement at the subset of `subsetSeed`: its targets, reference and comparison. */
-  const subset = (subsetSeed: number) => {
-    const idx = chooseCheckTargets(T, checkCount(n, T), subsetSeed);
-    const cx = Float64Array.from(idx, (i) => x[i]);
-    const cy = Float64Array.from(idx, (i) => y[i]);
-    const cc = rows(options.covariates, idx);
-    const reference = referencePredictions(samples, model, cx, cy, base.globalBeta, cc);
-    const measure = (p: Prediction, s: LocalSettings): LocalAccuracy =>
-      compareWithReference(model, reference, checkedValues(p, idx, log), { targets: T, seed: subsetSeed, ...s, tolerance });
-    return { idx, cx, cy, cc, reference, measure };
+  return {
+    samples, model, x, y, options, n: samples.x.length, T: x.length, log: model.transform === 'log',
+    tolerance: options.tolerance ?? DEFAULT_TOLERANCE, seed: options.seed ?? DEFAULT_CHECK_SEED,
+    base, order, warnings, priorSd: priorSdOf(model), rows, runAt,
+    run: async (s) => unpermute(await runAt(s, order), order),
   };
-  const check = subset(seed);
-  let accuracy = check.measure(prediction, settings);
+}
+
+/** The measurement at the seeded subset of the targets: its targets, reference, and comparisons. */
+interface Measurement {
+  seed: number;
+  idx: Uint32Array;
+  cx: Float64Array;
+  cy: Float64Array;
+  cc: Float64Array | undefined;
+  reference: ReferenceValues;
+  /** The measured error of values at every target (the checked ones are read). */
+  measure(p: Prediction, s: LocalSettings): LocalAccuracy;
+  /** The measured error of settings `s` computed at the checked targets only, and which of them miss. */
+  trial(s: LocalSettings): { accuracy: LocalAccuracy; misses: boolean[] };
+}
+
+function measurementAt(job: CheckedJob, subsetSeed: number): Measurement {
+  const { samples, model, x, y, T, log, tolerance } = job;
+  const idx = chooseCheckTargets(T, checkCount(job.n, T), subsetSeed);
+  const cx = Float64Array.from(idx, (i) => x[i]);
+  const cy = Float64Array.from(idx, (i) => y[i]);
+  const cc = job.rows(idx);
+  const reference = referencePredictions(samples, model, cx, cy, job.base.globalBeta, cc);
+  const compare = (values: CheckedValues, s: LocalSettings): LocalAccuracy =>
+    compareWithReference(model, reference, values, { targets: T, seed: subsetSeed, ...s, tolerance });
+  const all = Uint32Array.from({ length: idx.length }, (_, k) => k);
+  return {
+    seed: subsetSeed, idx, cx, cy, cc, reference,
+    measure: (p, s) => compare(checkedValues(p, idx, log), s),
+    trial: (s) => {
+      // Local values do not depend on which targets are predicted together: these are the full run's.
+      const p = createLocalPredictor(samples, model, { ...job.base, ...s }).predict(cx, cy, cc ? { covariates: cc } : {});
+      const values = checkedValues(p, all, log);
+      return { accuracy: compare(values, s), misses: missesAtEach(model, reference, values, tolerance) };
+    },
+  };
+}
+
+/** Neighbourhood operations a growth may spend, and that as a multiple of the first run's. */
+function growthBudgetOf(job: CheckedJob, first: LocalSettings): { operations: number; multiple: number } {
+  const firstCost = job.T * localTargetCost(first.neighbors);
+  const given = job.options.growthBudget;
+  if (given !== undefined) return { operations: given * firstCost, multiple: given };
+  // Up to EXACT_SAMPLE_LIMIT samples exact kriging is the next step anyway.
+  if (job.n <= EXACT_SAMPLE_LIMIT) return { operations: Infinity, multiple: Infinity };
+  const threads = Math.max(1, Math.floor(job.options.threads ?? 1));
+  const operations = Math.max(GROWTH_BUDGET * firstCost, GROWTH_OPERATIONS_PER_THREAD * threads);
+  return { operations, multiple: Number((operations / firstCost).toPrecision(2)) };
+}
+
+/** The sentence for a growth not done: what it would cost against the budget, and the option that does it. */
+function tooCostly(targets: number, grown: LocalSettings, projected: number, multiple: number): string {
+  return `rerunning ${targets.toLocaleString('en-US')} targets up to the ${grown.neighbors} nearest would cost about `
+    + `${Math.ceil(projected / 1e9)} billion operations, more than ${multiple} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
+}
+
+/** The first measurement's miss, in words. */
+function missedText(first: LocalAccuracy): string {
+  return `the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
+}
+
+/** Exact kriging from all samples instead, with the measurement that led there. */
+function exactInstead(
+  job: CheckedJob, why: string, measured: LocalAccuracy, settings: LocalSettings, attempts: GrowthAttempt[], notes: string[],
+): CheckedLocalPrediction {
+  const exact = createPredictor(job.samples, job.model);
+  notes.push(`${why}; took exact kriging from all ${job.n.toLocaleString('en-US')} samples instead`);
+  const covariates = job.options.covariates;
+  return {
+    prediction: exact.predict(job.x, job.y, covariates ? { covariates } : {}), path: 'exact', settings,
+    accuracy: measured, attempts, notes, warnings: [...job.warnings, ...exact.warnings],
+  };
+}
+
+/**
+ * The grown setting at every target in one run (when most checked targets missed, a targeted rerun
+ * would rerun nearly all of them after a first run that is then thrown away), measured at a fresh
+ * subset; exact kriging or a warning when that misses.
+ */
+async function growEverywhere(
+  job: CheckedJob, first: LocalAccuracy, missedCount: number, grown: LocalSettings, attempts: GrowthAttempt[],
+): Promise<CheckedLocalPrediction> {
+  const pending = job.run(grown);
+  // Awaited below; a failure of the reference first must not leave its rejection unhandled.
+  pending.catch(() => {});
+  // The fresh reference while the run goes on (on other threads when the runner uses them).
+  const fresh = measurementAt(job, freshSeed(job.seed));
+  const prediction = await pending;
+  const accuracy = fresh.measure(prediction, grown);
+  const gm = grown.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
+  const notes = [`${missedText(first)} at ${missedCount} of ${first.checked} checked targets; grown to the ${grown.neighbors} nearest${gm} at every target (the first setting within the tolerance there); measured again at a fresh subset (seed ${fresh.seed})`];
+  if (!accuracy.within && job.options.exactFallback !== false && job.n <= EXACT_SAMPLE_LIMIT) {
+    return exactInstead(job, `the grown neighbourhoods still missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %)`, accuracy, grown, attempts, notes);
+  }
+  if (!accuracy.within) {
+    job.warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance after growing (${describeAccuracy(accuracy)}); exact kriging was not taken.` });
+  }
+  return { prediction, path: 'local', settings: grown, accuracy, attempts, notes, warnings: job.warnings };
+}
+
+/**
+ * Step by step up to the grown setting after a first run at every target, each step rerunning only
+ * the targets still moving (affectedTargets), within the growth budget; then measured at a fresh
+ * subset, rerun everywhere or replaced by exact kriging when that misses (up to EXACT_SAMPLE_LIMIT samples).
+ */
+async function growStepwise(
+  job: CheckedJob, check: Measurement, firstRun: Prediction, first: LocalAccuracy, start: LocalSettings,
+  grown: LocalSettings, attempts: GrowthAttempt[],
+): Promise<CheckedLocalPrediction> {
+  const { n, T, log, tolerance, model } = job;
+  const steps = growthSteps(start, n, model);
+  const last = steps.findIndex((s) => s.neighbors === grown.neighbors && s.globalMean === grown.globalMean);
+  let prediction = firstRun;
+  let settings = start;
+  let previous = start;
+  // The values one step back, for the signal (null: none computed yet).
+  let before: Prediction | null = null;
+  const stepNotes: string[] = [];
   const notes: string[] = [];
-  if (accuracy.within || options.grow === false) {
-    return { prediction, path: 'local', settings, accuracy, attempts: [], notes, warnings };
+  const budget = growthBudgetOf(job, start);
+  let spent = 0;
+  let stopped: string | null = null;
+  for (const step of steps.slice(0, last + 1)) {
+    const perChecked = missesAtEach(model, check.reference, checkedValues(prediction, check.idx, log), tolerance);
+    if (!perChecked.some(Boolean)) break;
+    let at: Uint32Array;
+    if (step.neighbors > previous.neighbors && step.globalMean === previous.globalMean) {
+      // The signal: how far each target moved over the last step (the first time, from half the
+      // neighbours to the starting neighbourhood: about an eighth of the starting run's cost).
+      before ??= await job.run({ ...previous, neighbors: Math.max(1, Math.floor(previous.neighbors / 2)) });
+      at = affectedTargets(movement(prediction, before, log, job.priorSd), check.idx, perChecked, tolerance).rerun;
+    } else {
+      at = Uint32Array.from({ length: T }, (_, j) => j);
+    }
+    // What reaching the grown setting at these targets would cost (the last step dominates).
+    const projected = at.length * localTargetCost(grown.neighbors);
+    if (spent + projected > budget.operations) {
+      stopped = tooCostly(at.length, grown, projected, budget.multiple);
+      break;
+    }
+    spent += at.length * localTargetCost(step.neighbors);
+    const next = copyPrediction(prediction);
+    if (at.length > 0) {
+      // In spatial order, so consecutive targets share neighbourhoods.
+      const member = new Uint8Array(T);
+      for (const j of at) member[j] = 1;
+      const inOrder = job.order.filter((i) => member[i] === 1);
+      scatterInto(next, await job.runAt(step, inOrder), inOrder);
+    }
+    stepNotes.push(`${at.length.toLocaleString('en-US')} with the ${step.neighbors} nearest${step.globalMean && !previous.globalMean ? ' and the GLS mean' : ''}`);
+    before = prediction;
+    prediction = next;
+    previous = step;
+    settings = step;
   }
-  const first = accuracy;
-  const { settings: grown, attempts } = findGrowth(samples, model, check.cx, check.cy, check.reference, settings, base, tolerance, check.cc);
-  const missed = `the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
-  const takeExact = (why: string, measured: LocalAccuracy): CheckedLocalPrediction => {
-    const exact = createPredictor(samples, model);
-    notes.push(`${why}; took exact kriging from all ${n.toLocaleString('en-US')} samples instead`);
-    return {
-      prediction: exact.predict(x, y, options.covariates ? { covariates: options.covariates } : {}), path: 'exact', settings,
-      accuracy: measured, attempts, notes, warnings: [...warnings, ...exact.warnings],
-    };
-  };
-  if (grown) {
-    // Step by step up to the grown setting, each step rerunning only the targets still moving.
-    const steps = growthSteps(settings, n, model);
-    const last = steps.findIndex((s) => s.neighbors === grown.neighbors && s.globalMean === grown.globalMean);
-    let previous = settings;
-    // The values one step back, for the signal (null: none computed yet).
-    let before: Prediction | null = null;
-    const stepNotes: string[] = [];
-    // Above EXACT_SAMPLE_LIMIT samples no exact path follows a miss, and a rerun of many targets with
-    // many neighbours can cost minutes: growth stops at GROWTH_BUDGET times the first run's cost.
-    const budget = (options.growthBudget ?? (n > EXACT_SAMPLE_LIMIT ? GROWTH_BUDGET : Infinity)) * T * localTargetCost(first.neighbors);
-    let spent = 0;
-    let stopped: string | null = null;
-    for (const step of steps.slice(0, last + 1)) {
-      const perChecked = missesAtEach(model, check.reference, checkedValues(prediction, check.idx, log), tolerance);
-      if (!perChecked.some(Boolean)) break;
-      let at: Uint32Array;
-      if (step.neighbors > previous.neighbors && step.globalMean === previous.globalMean) {
-        // The signal: how far each target moved over the last step (the first time, from half the
-        // neighbours to the starting neighbourhood: about an eighth of the starting run's cost).
-        before ??= run({ ...previous, neighbors: Math.max(1, Math.floor(previous.neighbors / 2)) });
-        at = affectedTargets(movement(prediction, before, log, priorSd), check.idx, perChecked, tolerance).rerun;
-      } else {
-        at = Uint32Array.from({ length: T }, (_, j) => j);
-      }
-      // What reaching the grown setting at these targets would cost (the last step dominates).
-      const projected = at.length * localTargetCost(grown.neighbors);
-      if (spent + projected > budget) {
-        stopped = `rerunning ${at.length.toLocaleString('en-US')} targets up to the ${grown.neighbors} nearest would cost about `
-          + `${Math.ceil(projected / 1e9)} billion operations, more than ${options.growthBudget ?? GROWTH_BUDGET} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
-        break;
-      }
-      spent += at.length * localTargetCost(step.neighbors);
-      const next = copyPrediction(prediction);
-      if (at.length > 0) {
-        // In spatial order, so consecutive targets share neighbourhoods.
-        const member = new Uint8Array(T);
-        for (const j of at) member[j] = 1;
-        const inOrder = order.filter((i) => member[i] === 1);
-        scatterInto(next, runAt(step, inOrder), inOrder);
-      }
-      stepNotes.push(`${at.length.toLocaleString('en-US')} with the ${step.neighbors} nearest${step.globalMean && !previous.globalMean ? ' and the GLS mean' : ''}`);
-      before = prediction;
-      prediction = next;
-      previous = step;
-      settings = step;
-    }
-    if (stepNotes.length === 0 && stopped !== null) {
-      // Nothing was rerun: the first measurement describes the values returned.
-      notes.push(`${missed}; ${stopped}`);
-      warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); growing them here costs too much to do unasked.` });
-      return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
-    }
-    const fresh = subset(freshSeed(seed));
+  if (stepNotes.length === 0 && stopped !== null) {
+    // Nothing was rerun: the first measurement describes the values returned.
+    notes.push(`${missedText(first)}; ${stopped}`);
+    job.warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(first)}); growing them here costs too much to do unasked.` });
+    return { prediction, path: 'local', settings, accuracy: first, attempts, notes, warnings: job.warnings };
+  }
+  const fresh = measurementAt(job, freshSeed(job.seed));
+  let accuracy = fresh.measure(prediction, settings);
+  const gm = settings.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
+  notes.push(`${missedText(first)}; grown to the ${settings.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets)${stopped !== null ? `; then ${stopped}` : ''}; measured again at a fresh subset (seed ${fresh.seed})`);
+  if (!accuracy.within && n <= EXACT_SAMPLE_LIMIT) {
+    // The targeted rerun left out targets that needed it: rerun every target with the grown setting
+    // (above EXACT_SAMPLE_LIMIT samples the miss is reported instead: a full rerun there is the
+    // costliest step of all, and the figure says how far the values are).
+    notes.push(`that missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %); rerun for every target with the ${grown.neighbors} nearest`);
+    settings = grown;
+    prediction = await job.run(settings);
     accuracy = fresh.measure(prediction, settings);
-    const gm = settings.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
-    notes.push(`${missed}; grown to the ${settings.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets)${stopped !== null ? `; then ${stopped}` : ''}; measured again at a fresh subset (seed ${freshSeed(seed)})`);
-    if (!accuracy.within && n <= EXACT_SAMPLE_LIMIT) {
-      // The targeted rerun left out targets that needed it: rerun every target with the grown setting
-      // (above EXACT_SAMPLE_LIMIT samples the miss is reported instead: a full rerun there is the
-      // costliest step of all, and the figure says how far the values are).
-      notes.push(`that missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %); rerun for every target with the ${grown.neighbors} nearest`);
-      settings = grown;
-      prediction = run(settings);
-      accuracy = fresh.measure(prediction, settings);
-    }
-    if (!accuracy.within && options.exactFallback !== false && n <= EXACT_SAMPLE_LIMIT) {
-      return takeExact(`the grown neighbourhoods still missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %)`, accuracy);
-    }
-    if (!accuracy.within) {
-      warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance after growing (${describeAccuracy(accuracy)}); exact kriging was not taken.` });
-    }
-    return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
   }
-  if (options.exactFallback !== false && n <= EXACT_SAMPLE_LIMIT) {
-    return takeExact(`${missed}, and no neighbourhood up to ${maxGrownNeighbors(n)} samples met it (best mean ${Math.min(...attempts.map((a) => a.meanMax)).toFixed(2)} %)`, first);
+  if (!accuracy.within && job.options.exactFallback !== false && n <= EXACT_SAMPLE_LIMIT) {
+    return exactInstead(job, `the grown neighbourhoods still missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %)`, accuracy, settings, attempts, notes);
   }
-  // Keep the best attempt when nothing meets the tolerance.
-  let best = settings;
+  if (!accuracy.within) {
+    job.warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance after growing (${describeAccuracy(accuracy)}); exact kriging was not taken.` });
+  }
+  return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings: job.warnings };
+}
+
+/** No larger setting met the tolerance: exact kriging (automatic choice, up to EXACT_SAMPLE_LIMIT samples) or the best attempt with a warning. */
+async function noGrowthMet(
+  job: CheckedJob, check: Measurement, firstRun: Prediction, first: LocalAccuracy, start: LocalSettings, attempts: GrowthAttempt[],
+): Promise<CheckedLocalPrediction> {
+  const { tolerance } = job;
+  if (job.options.exactFallback !== false && job.n <= EXACT_SAMPLE_LIMIT) {
+    return exactInstead(job, `${missedText(first)}, and no neighbourhood up to ${maxGrownNeighbors(job.n)} samples met it (best mean ${Math.min(...attempts.map((a) => a.meanMax)).toFixed(2)} %)`, first, start, attempts, []);
+  }
+  let best: LocalSettings = start;
   let bestScore = first.mean.max / tolerance.mean + first.sd.max / tolerance.sd;
   for (const a of attempts) {
     const score = a.meanMax / tolerance.mean + a.sdMax / tolerance.sd;
     if (score < bestScore) { bestScore = score; best = a; }
   }
-  if (best !== settings) {
+  let settings = start;
+  let prediction = firstRun;
+  let accuracy = first;
+  if (best !== start) {
     settings = { neighbors: best.neighbors, globalMean: best.globalMean };
-    prediction = run(settings);
+    prediction = await job.run(settings);
     accuracy = check.measure(prediction, settings);
   }
-  warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); no larger neighbourhood met it and exact kriging was not taken.` });
-  return { prediction, path: 'local', settings, accuracy, attempts, notes, warnings };
+  job.warnings.push({ code: 'tolerance-missed', message: `Local neighbourhoods missed the tolerance (${describeAccuracy(accuracy)}); no larger neighbourhood met it and exact kriging was not taken.` });
+  return { prediction, path: 'local', settings, accuracy, attempts, notes: [], warnings: job.warnings };
+}
+
+/**
+ * Local prediction at every target, its error measured at a seeded subset, grown or replaced by
+ * exact kriging when the tolerance is missed (see the file header).
+ *
+ * The starting settings are first tried at the checked targets alone (their values equal a full
+ * run's there). Within the tolerance, one run at every target follows. When they miss, the growth
+ * steps are tried there too, and the first within the tolerance is taken: run at every target at once
+ * when most checked targets missed (within the growth budget), else after a first run, step by step,
+ * each step rerunning the targets whose own values still move with the neighbourhood's size
+ * (affectedTargets). A grown result is measured again at a fresh seeded subset (freshSeed), and that
+ * is the error reported; when it misses, exact kriging is taken (exactFallback, up to
+ * EXACT_SAMPLE_LIMIT samples) or a warning says so. `runTargets` runs the full-target predictions
+ * (worker threads on the command line).
+ */
+export async function predictLocalChecked(
+  samples: Samples, model: CovarianceModel, x: ArrayLike<number>, y: ArrayLike<number>, options: CheckedLocalOptions = {},
+): Promise<CheckedLocalPrediction> {
+  const job = startCheckedJob(samples, model, x, y, options);
+  // The GLS mean of all samples only means something when the trend is estimated.
+  const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
+  const local = options.local ?? {};
+  const start: LocalSettings = { neighbors: Math.min(local.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, job.n), globalMean: local.globalMean === true && estimated };
+  const check = measurementAt(job, job.seed);
+  const trial = check.trial(start);
+  if (trial.accuracy.within || options.grow === false) {
+    const prediction = await job.run(start);
+    return { prediction, path: 'local', settings: start, accuracy: check.measure(prediction, start), attempts: [], notes: [], warnings: job.warnings };
+  }
+  const { settings: grown, attempts } = findGrowth(samples, model, check.cx, check.cy, check.reference, start, job.base, job.tolerance, check.cc);
+  const missedCount = trial.misses.filter(Boolean).length;
+  if (grown && 2 * missedCount >= trial.misses.length && job.T * localTargetCost(grown.neighbors) <= growthBudgetOf(job, start).operations) {
+    return growEverywhere(job, trial.accuracy, missedCount, grown, attempts);
+  }
+  const firstRun = await job.run(start);
+  const first = check.measure(firstRun, start);
+  if (grown) return growStepwise(job, check, firstRun, first, start, grown, attempts);
+  return noGrowthMet(job, check, firstRun, first, start, attempts);
 }
 
 /** A grid surface's measured error and, when asked and the tolerance was missed, the growth that meets it. */

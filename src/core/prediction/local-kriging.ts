@@ -204,23 +204,27 @@ export function globalMeanCoefficients(
   return { beta: Float64Array.from(t.beta), warnings: t.warnings };
 }
 
-/**
- * Builds a local-neighbourhood predictor of the noise-free surface. Throws GapwiseError
- * ('bad-model', 'bad-value', 'too-few-samples', 'bad-option', 'not-positive-definite').
- */
-export function createLocalPredictor(samples: Samples, model: CovarianceModel, options: LocalKrigingOptions = {}): LocalPredictor {
+
+/** The samples as the neighbourhood systems see them: kriging-scale values, centred and isotropic coordinates, the index. */
+interface LocalSamples {
+  n: number;
+  frame: CoordinateFrame;
+  /** Values on the kriging scale (log for a log model). */
+  z: Float64Array;
+  /** Isotropic (rotated, stretched) coordinates: distances for the covariance and the search. */
+  iu: Float64Array;
+  iv: Float64Array;
+  /** Centred working coordinates: the local trend frame. */
+  cu: Float64Array;
+  cv: Float64Array;
+  index: NeighborIndex;
+}
+
+function prepareLocalSamples(samples: Samples, model: CovarianceModel): LocalSamples {
   const trend = model.trend ?? 'constant';
-  const pModel = trendColumnCount(trend);
-  checkInputs(samples, model, pModel);
-  const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
-  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(options.neighbors)}.`);
-  }
   const n = samples.x.length;
   const log = model.transform === 'log';
-  const warnings: Warning[] = [];
   const frame = trendFrame(trend, samples.x, samples.y, samples.covariates);
-  const covariateCount = covariateColumnCount(trend);
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) z[i] = log ? Math.log(samples.value[i]) : samples.value[i];
   const { u: iu, v: iv } = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, frame.cx, frame.cy);
@@ -230,15 +234,32 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
     cu[i] = samples.x[i] - frame.cx;
     cv[i] = samples.y[i] - frame.cy;
   }
-  const index = new NeighborIndex(iu, iv);
-  const q = Math.min(m, n);
-  if (pModel > 0 && q <= pModel) {
-    throw new GapwiseError('bad-option', `Expected more than ${pModel} samples per neighbourhood for this trend, got ${q}.`);
-  }
+  return { n, frame, z, iu, iv, cu, cv, index: new NeighborIndex(iu, iv) };
+}
 
-  // Global mean: β̂ from all samples, then residuals for simple kriging.
-  // A covariate trend always takes the global GLS trend (regression kriging of the residuals): the
-  // neighbourhood systems below hold only the constant and x, y columns.
+/** The mean the neighbourhoods krige around and the values they see. */
+interface LocalMean {
+  /** The global GLS trend is used as a known mean (globalMean, or a covariate trend). */
+  globalMean: boolean;
+  /** Global trend coefficients (globalMean only; empty otherwise). */
+  beta: Float64Array;
+  /** Trend columns estimated in each neighbourhood (0: known or global mean). */
+  p: number;
+  /** The known mean (simple kriging), 0 otherwise. */
+  m0: number;
+  /** Values the neighbourhood systems see: residuals from the known or global mean, else z. */
+  zr: Float64Array;
+}
+
+/**
+ * Global mean: β̂ from all samples, then residuals for simple kriging. A covariate trend always takes
+ * the global GLS trend (regression kriging of the residuals): the neighbourhood systems hold only the
+ * constant and x, y columns.
+ */
+function localMean(samples: Samples, model: CovarianceModel, options: LocalKrigingOptions, s: LocalSamples, warnings: Warning[]): LocalMean {
+  const trend = model.trend ?? 'constant';
+  const pModel = trendColumnCount(trend);
+  const covariateCount = covariateColumnCount(trend);
   const globalMean = (options.globalMean === true || covariateCount > 0) && pModel > 0;
   let beta: Float64Array = new Float64Array(0);
   if (globalMean) {
@@ -255,7 +276,7 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   }
   const p = globalMean ? 0 : pModel;
   const m0 = knownMean(trend) ?? 0;
-  // Values the neighbourhood systems see: residuals from the known or global mean, else z.
+  const { n, z, frame } = s;
   const zr = new Float64Array(n);
   const row = new Float64Array(Math.max(3, pModel));
   for (let i = 0; i < n; i++) {
@@ -268,50 +289,95 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       zr[i] = pModel === 0 ? z[i] - m0 : z[i];
     }
   }
+  return { globalMean, beta, p, m0, zr };
+}
 
-  const cov = covarianceFunction(model);
-  const c0 = surfaceVariance(model);
-  const nugget = nuggetOf(model);
-  const diagonal = c0 + nugget;
-  const allowJitter = options.jitter ?? true;
-  // Targets go through the same rotation and stretch as the samples (toIsotropicCoordinates).
-  const rotation = anisotropyFrame(model.anisotropy);
+/** One target in working (centred: pu, pv) and isotropic (qu, qv) coordinates, at position j of a call. */
+interface TargetPoint {
+  j: number;
+  x: number;
+  y: number;
+  pu: number;
+  pv: number;
+  qu: number;
+  qv: number;
+}
 
-  // Tiles: targets in one square tile of side w (isotropic coordinates) share one neighbourhood.
-  const tile = options.targetSpacing !== undefined ? chooseTile(n, q, iu, iv, options.targetSpacing) : null;
-  // Largest neighbourhood a tile may have; a denser tile falls back to per-target neighbourhoods.
-  const cap = tile ? tile.cap : q;
+/** A call's outputs and settings, written by Neighbourhood.predictAt. */
+interface TargetOutputs {
+  mean: Float64Array;
+  sd: Float64Array;
+  sdObserved: Float64Array;
+  wantSd: boolean;
+  /** The targets' encoded covariates (covariate trends). */
+  covariates?: ArrayLike<number>;
+}
 
-  // Work buffers, reused by every call. Matrices are size × size with stride size (size ≤ cap).
-  const found32 = new Uint32Array(q);
-  const tileFound = new Uint32Array(tile ? n : 0);
-  let ids = new Uint32Array(cap);
-  let prevIds = new Uint32Array(cap);
-  let size = 0; // samples in the current neighbourhood
-  let prevSize = 0;
-  let K = new Float64Array(cap * cap); // unfactored covariances (lower triangle) of the current set
-  let Kprev = new Float64Array(cap * cap);
-  const L = new Float64Array(cap * cap);
-  const map = new Int32Array(cap);
-  const W = new Float64Array(cap * 3);
-  const Lg = new Float64Array(9);
-  const r = new Float64Array(cap);
-  const betaLocal = new Float64Array(3);
-  const kv = new Float64Array(cap);
-  const w = new Float64Array(cap);
-  const x0 = new Float64Array(Math.max(3, pModel));
-  const t = new Float64Array(3);
-  /** The targets' encoded covariates of the current predict call (covariate trends). */
-  let targetCovariates: ArrayLike<number> | undefined;
-  let have = false; // a factor for `ids` is ready
-  let frameX = 0;
-  let frameY = 0;
-  let frameS = 1;
-  let jitterCount = 0;
-  let maxJitter = 0;
+/**
+ * The current neighbourhood and its factor, with the work buffers every call reuses. Matrices are
+ * size × size with stride size (size ≤ cap). Covariances of samples already in the previous set are
+ * copied rather than recomputed; a set equal to the current one keeps its factor.
+ */
+class Neighbourhood {
+  ids: Uint32Array;
+  prevIds: Uint32Array;
+  /** Samples in the current neighbourhood, and in the previous one. */
+  size = 0;
+  prevSize = 0;
+  /** Unfactored covariances (lower triangle) of the current set, and of the previous one. */
+  K: Float64Array;
+  Kprev: Float64Array;
+  readonly L: Float64Array;
+  readonly map: Int32Array;
+  readonly W: Float64Array;
+  readonly Lg = new Float64Array(9);
+  readonly r: Float64Array;
+  readonly betaLocal = new Float64Array(3);
+  readonly kv: Float64Array;
+  readonly w: Float64Array;
+  readonly x0: Float64Array;
+  readonly t = new Float64Array(3);
+  /** A factor for `ids` is ready. */
+  have = false;
+  /** The local trend frame: centre and scale. */
+  frameX = 0;
+  frameY = 0;
+  frameS = 1;
+  jitterCount = 0;
+  maxJitter = 0;
+
+  constructor(
+    readonly samples: Samples, readonly model: CovarianceModel, readonly s: LocalSamples, readonly mean: LocalMean,
+    readonly cov: (h: number) => number, readonly allowJitter: boolean, cap: number,
+  ) {
+    this.ids = new Uint32Array(cap);
+    this.prevIds = new Uint32Array(cap);
+    this.K = new Float64Array(cap * cap);
+    this.Kprev = new Float64Array(cap * cap);
+    this.L = new Float64Array(cap * cap);
+    this.map = new Int32Array(cap);
+    this.W = new Float64Array(cap * 3);
+    this.r = new Float64Array(cap);
+    this.kv = new Float64Array(cap);
+    this.w = new Float64Array(cap);
+    this.pModel = trendColumnCount(model.trend ?? 'constant');
+    this.covariateCount = covariateColumnCount(model.trend ?? 'constant');
+    this.x0 = new Float64Array(Math.max(3, this.pModel));
+    this.c0 = surfaceVariance(model);
+    this.nugget = nuggetOf(model);
+  }
+
+  readonly c0: number;
+  readonly nugget: number;
+  /** Trend columns of the model, and covariate columns among them. */
+  readonly pModel: number;
+  readonly covariateCount: number;
 
   /** Covariances of the new set, copying those of samples already in the previous set. */
-  const fillK = (reuse: boolean): void => {
+  fillK(reuse: boolean): void {
+    const { ids, prevIds, size, prevSize, map, cov } = this;
+    const { iu, iv } = this.s;
+    const diagonal = this.c0 + this.nugget;
     if (reuse) {
       // Both lists are sorted: merge to map each new position to its old one (or −1).
       let a = 0;
@@ -323,9 +389,10 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
     }
     // The current matrix becomes the previous one; the new one is written over the old previous.
-    const spare = Kprev;
-    Kprev = K;
-    K = spare;
+    const Kprev = this.K;
+    const K = this.Kprev;
+    this.Kprev = Kprev;
+    this.K = K;
     for (let a = 0; a < size; a++) {
       const ia = ids[a];
       const xa = iu[ia];
@@ -346,41 +413,62 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
       K[rowA + a] = diagonal;
     }
-  };
+  }
 
-  /** Factorises K (jitter if needed) and solves the neighbourhood's trend; (px, py) centres the local trend frame. */
-  const factor = (px: number, py: number): void => {
-    const q = size;
-    const Lq = L.subarray(0, q * q);
+  /** Factorises K into L, adding a reported jitter to the diagonal when it is needed and allowed. */
+  factorK(): void {
+    const q = this.size;
+    const Lq = this.L.subarray(0, q * q);
+    const K = this.K;
     Lq.set(K.subarray(0, q * q));
-    if (!factorLower(Lq, q)) {
-      let ok = false;
-      if (allowJitter) {
-        for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
-          Lq.set(K.subarray(0, q * q));
-          const add = rel * diagonal;
-          for (let a = 0; a < q; a++) Lq[a * q + a] += add;
-          ok = factorLower(Lq, q);
-          if (ok) {
-            jitterCount++;
-            maxJitter = Math.max(maxJitter, add);
-          }
+    if (factorLower(Lq, q)) return;
+    const diagonal = this.c0 + this.nugget;
+    let ok = false;
+    if (this.allowJitter) {
+      for (let rel = 1e-10; rel <= 1.0001e-4 && !ok; rel *= 10) {
+        Lq.set(K.subarray(0, q * q));
+        const add = rel * diagonal;
+        for (let a = 0; a < q; a++) Lq[a * q + a] += add;
+        ok = factorLower(Lq, q);
+        if (ok) {
+          this.jitterCount++;
+          this.maxJitter = Math.max(this.maxJitter, add);
         }
       }
-      if (!ok) {
-        throw new GapwiseError('not-positive-definite',
-          `The covariance matrix of a ${q}-sample neighbourhood is not positive definite: ${neighbourhoodFailureAdvice(ids, q, samples.x, samples.y, z, model)}.`);
-      }
     }
+    if (!ok) {
+      throw new GapwiseError('not-positive-definite',
+        `The covariance matrix of a ${q}-sample neighbourhood is not positive definite: ${neighbourhoodFailureAdvice(this.ids, q, this.samples.x, this.samples.y, this.s.z, this.model)}.`);
+    }
+  }
+
+  /** Factorises K (jitter if needed) and solves the neighbourhood's trend; (px, py) centres the local trend frame. */
+  factor(px: number, py: number): void {
+    const q = this.size;
+    this.factorK();
+    const Lq = this.L.subarray(0, q * q);
+    const { ids, r } = this;
+    const { zr, p } = this.mean;
     for (let a = 0; a < q; a++) r[a] = zr[ids[a]];
     solveLowerInPlace(Lq, q, r);
     if (p === 0) return;
+    this.solveLocalTrend(px, py);
+  }
+
+  /** The neighbourhood's own trend: W = L⁻¹X, G = WᵀW = Lg·Lgᵀ, β̂ local = G⁻¹Wᵀr, then r ← r − Wβ̂ (= L⁻¹(z − Xβ̂)). */
+  solveLocalTrend(px: number, py: number): void {
+    const q = this.size;
+    const Lq = this.L.subarray(0, q * q);
+    const { ids, r, W, Lg, w, betaLocal } = this;
+    const { cu, cv } = this.s;
+    const p = this.mean.p;
     // Local trend frame: centred on (px, py), scaled by the farthest neighbour.
-    frameX = px;
-    frameY = py;
+    this.frameX = px;
+    this.frameY = py;
     let far = 0;
     for (let a = 0; a < q; a++) far = Math.max(far, Math.hypot(cu[ids[a]] - px, cv[ids[a]] - py));
-    frameS = far > 0 ? far : 1;
+    this.frameS = far > 0 ? far : 1;
+    const { frameX, frameY, frameS } = this;
     for (let c = 0; c < p; c++) {
       for (let a = 0; a < q; a++) {
         const id = ids[a];
@@ -402,7 +490,6 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
         ? `The linear trend cannot be estimated in a ${q}-sample neighbourhood: its samples lie on a line; use a constant trend, the global mean, or more neighbours.`
         : 'The trend cannot be estimated in a neighbourhood; use a known mean or check the samples.');
     }
-    // β̂ local = G⁻¹ Wᵀr, then r ← r − Wβ̂ (= L⁻¹(z − Xβ̂)).
     for (let c = 0; c < p; c++) {
       let s = 0;
       for (let a = 0; a < q; a++) s += W[a * p + c] * r[a];
@@ -419,86 +506,179 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       for (let c = 0; c < p; c++) s -= W[a * p + c] * betaLocal[c];
       r[a] = s;
     }
-  };
+  }
 
   /** Makes the sorted sample set `found` the current neighbourhood (refactorising unless it already is). */
-  const useSet = (found: Uint32Array, px: number, py: number): void => {
+  useSet(found: Uint32Array, px: number, py: number): void {
     const count = found.length;
-    if (have && count === size) {
+    if (this.have && count === this.size) {
       let same = true;
-      for (let a = 0; a < count; a++) if (found[a] !== ids[a]) { same = false; break; }
+      for (let a = 0; a < count; a++) if (found[a] !== this.ids[a]) { same = false; break; }
       if (same) return;
     }
-    const spare = prevIds;
-    prevIds = ids;
-    ids = spare;
-    prevSize = size;
-    ids.set(found);
-    size = count;
-    fillK(have);
-    factor(px, py);
-    have = true;
-  };
+    const spare = this.prevIds;
+    this.prevIds = this.ids;
+    this.ids = spare;
+    this.prevSize = this.size;
+    this.ids.set(found);
+    this.size = count;
+    this.fillK(this.have);
+    this.factor(px, py);
+    this.have = true;
+  }
 
-  /** Mean and sd of one target from the current neighbourhood, written at position j. */
-  const predictAt = (
-    j: number, xj: number, yj: number, pu: number, pv: number, qu: number, qv: number, wantSd: boolean,
-    mean: Float64Array, sd: Float64Array, sdObserved: Float64Array,
-  ): void => {
-    const q = size;
+  /** The trend part of target t's mean: global, known or the neighbourhood's own (x0 holds its trend row). */
+  trendAt(t: TargetPoint, covariates: ArrayLike<number> | undefined): number {
+    const { globalMean, beta, p, m0 } = this.mean;
+    const x0 = this.x0;
+    const trend = this.model.trend ?? 'constant';
+    if (globalMean) {
+      designRow(trend, t.x, t.y, this.s.frame, x0, 0, covariates, t.j * this.covariateCount);
+      let mu = 0;
+      for (let a = 0; a < this.pModel; a++) mu += x0[a] * beta[a];
+      return mu;
+    }
+    if (p === 0) return m0;
+    x0[0] = 1;
+    if (p === 3) {
+      x0[1] = (t.pu - this.frameX) / this.frameS;
+      x0[2] = (t.pv - this.frameY) / this.frameS;
+    }
+    let mu = 0;
+    for (let c = 0; c < p; c++) mu += x0[c] * this.betaLocal[c];
+    return mu;
+  }
+
+  /** Mean and sd of one target from the current neighbourhood, written at its position. */
+  predictAt(t: TargetPoint, out: TargetOutputs): void {
+    const q = this.size;
+    const { ids, kv, r, W, x0, cov } = this;
+    const { iu, iv } = this.s;
+    const p = this.mean.p;
     // k₀ and v = L⁻¹k₀.
     for (let a = 0; a < q; a++) {
       const id = ids[a];
-      const dx = qu - iu[id];
-      const dy = qv - iv[id];
+      const dx = t.qu - iu[id];
+      const dy = t.qv - iv[id];
       kv[a] = cov(Math.sqrt(dx * dx + dy * dy));
     }
-    solveLowerInPlace(L.subarray(0, q * q), q, kv.subarray(0, q));
-    let mu: number;
-    if (globalMean) {
-      designRow(trend, xj, yj, frame, x0, 0, targetCovariates, j * covariateCount);
-      mu = 0;
-      for (let a = 0; a < pModel; a++) mu += x0[a] * beta[a];
-    } else if (p === 0) {
-      mu = m0;
-    } else {
-      x0[0] = 1;
-      if (p === 3) {
-        x0[1] = (pu - frameX) / frameS;
-        x0[2] = (pv - frameY) / frameS;
-      }
-      mu = 0;
-      for (let c = 0; c < p; c++) mu += x0[c] * betaLocal[c];
-    }
-    let s = mu;
+    solveLowerInPlace(this.L.subarray(0, q * q), q, kv.subarray(0, q));
+    let s = this.trendAt(t, out.covariates);
     for (let a = 0; a < q; a++) s += kv[a] * r[a];
-    mean[j] = s;
-    if (wantSd) {
-      let variance = c0;
-      for (let a = 0; a < q; a++) variance -= kv[a] * kv[a];
-      if (p > 0) {
-        for (let c = 0; c < p; c++) {
-          let e = x0[c];
-          for (let a = 0; a < q; a++) e -= W[a * p + c] * kv[a];
-          t[c] = e;
-        }
-        solveLowerInPlace(Lg, p, t);
-        for (let c = 0; c < p; c++) variance += t[c] * t[c];
-      }
-      const sj = Math.sqrt(Math.max(0, variance));
-      sd[j] = sj;
-      sdObserved[j] = Math.sqrt(sj * sj + nugget);
-    } else {
-      sd[j] = NaN;
-      sdObserved[j] = NaN;
+    const j = t.j;
+    out.mean[j] = s;
+    if (!out.wantSd) {
+      out.sd[j] = NaN;
+      out.sdObserved[j] = NaN;
+      return;
     }
-  };
+    let variance = this.c0;
+    for (let a = 0; a < q; a++) variance -= kv[a] * kv[a];
+    if (p > 0) {
+      const tt = this.t;
+      for (let c = 0; c < p; c++) {
+        let e = x0[c];
+        for (let a = 0; a < q; a++) e -= W[a * p + c] * kv[a];
+        tt[c] = e;
+      }
+      solveLowerInPlace(this.Lg, p, tt);
+      for (let c = 0; c < p; c++) variance += tt[c] * tt[c];
+    }
+    const sj = Math.sqrt(Math.max(0, variance));
+    out.sd[j] = sj;
+    out.sdObserved[j] = Math.sqrt(sj * sj + this.nugget);
+  }
+}
+
+/** The targets of a call in working (centred) and isotropic coordinates; throws on a coordinate that is not finite. */
+function targetCoordinates(tx: ArrayLike<number>, ty: ArrayLike<number>, frame: CoordinateFrame, rotation: ReturnType<typeof anisotropyFrame>) {
+  const total = tx.length;
+  const PU = new Float64Array(total);
+  const PV = new Float64Array(total);
+  const QU = new Float64Array(total);
+  const QV = new Float64Array(total);
+  for (let j = 0; j < total; j++) {
+    const xj = tx[j];
+    const yj = ty[j];
+    if (!Number.isFinite(xj) || !Number.isFinite(yj)) {
+      throw new GapwiseError('bad-value', `Target ${j + 1} has coordinates (${xj}, ${yj}); expected finite numbers.`);
+    }
+    const pu = xj - frame.cx;
+    const pv = yj - frame.cy;
+    PU[j] = pu;
+    PV[j] = pv;
+    QU[j] = rotation ? alongAxis(rotation, pu, pv) : pu;
+    QV[j] = rotation ? acrossAxis(rotation, pu, pv) : pv;
+  }
+  return { PU, PV, QU, QV };
+}
+
+/** Targets grouped by tile of width `width` (isotropic): sorted by tile, then by position. */
+function tileOrder(QU: Float64Array, QV: Float64Array, width: number): { order: Uint32Array; ti: Float64Array; tj: Float64Array } {
+  const total = QU.length;
+  const ti = new Float64Array(total);
+  const tj = new Float64Array(total);
+  for (let j = 0; j < total; j++) {
+    ti[j] = Math.floor(QU[j] / width);
+    tj[j] = Math.floor(QV[j] / width);
+  }
+  const order = Uint32Array.from({ length: total }, (_, j) => j);
+  order.sort((a, b) => tj[a] - tj[b] || ti[a] - ti[b] || a - b);
+  return { order, ti, tj };
+}
+
+/** The call's jitter warning, and the predictor's running total in `warnings` (surfaces report predictor.warnings). */
+function jitterWarnings(h: Neighbourhood, jitterBefore: number, warnings: Warning[]): Warning[] {
+  if (h.jitterCount <= jitterBefore) return [];
+  const said = (count: number): Warning => ({
+    code: 'jitter',
+    message: `${count} neighbourhood covariance matrices were not numerically positive definite; added up to ${h.maxJitter.toPrecision(3)} to their diagonal.`,
+  });
+  const total = said(h.jitterCount);
+  const at = warnings.findIndex((w) => w.code === 'jitter' && w.message.includes('neighbourhood covariance'));
+  if (at >= 0) warnings[at] = total;
+  else warnings.push(total);
+  return [said(h.jitterCount - jitterBefore)];
+}
+
+/**
+ * Builds a local-neighbourhood predictor of the noise-free surface. Throws GapwiseError
+ * ('bad-model', 'bad-value', 'too-few-samples', 'bad-option', 'not-positive-definite').
+ */
+export function createLocalPredictor(samples: Samples, model: CovarianceModel, options: LocalKrigingOptions = {}): LocalPredictor {
+  const trend = model.trend ?? 'constant';
+  const pModel = trendColumnCount(trend);
+  checkInputs(samples, model, pModel);
+  const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(options.neighbors)}.`);
+  }
+  const s = prepareLocalSamples(samples, model);
+  const { n, frame, iu, iv, index } = s;
+  const log = model.transform === 'log';
+  const warnings: Warning[] = [];
+  const covariateCount = covariateColumnCount(trend);
+  const q = Math.min(m, n);
+  if (pModel > 0 && q <= pModel) {
+    throw new GapwiseError('bad-option', `Expected more than ${pModel} samples per neighbourhood for this trend, got ${q}.`);
+  }
+  const mean = localMean(samples, model, options, s, warnings);
+  // Targets go through the same rotation and stretch as the samples (toIsotropicCoordinates).
+  const rotation = anisotropyFrame(model.anisotropy);
+  // Tiles: targets in one square tile of side w (isotropic coordinates) share one neighbourhood.
+  const tile = options.targetSpacing !== undefined ? chooseTile(n, q, iu, iv, options.targetSpacing) : null;
+  // Largest neighbourhood a tile may have; a denser tile falls back to per-target neighbourhoods.
+  const cap = tile ? tile.cap : q;
+  const h = new Neighbourhood(samples, model, s, mean, covarianceFunction(model), options.jitter ?? true, cap);
+  const found32 = new Uint32Array(q);
+  const tileFound = new Uint32Array(tile ? n : 0);
+  const tileDist2 = new Float64Array(q);
 
   /** The m nearest samples of a target (isotropic coordinates), sorted by id, as the current set. */
-  const useNearest = (qu: number, qv: number, pu: number, pv: number): void => {
-    const found = index.nearest(qu, qv, q, found32);
+  const useNearest = (t: TargetPoint): void => {
+    const found = index.nearest(t.qu, t.qv, q, found32);
     found.sort();
-    useSet(found, pu, pv);
+    h.useSet(found, t.pu, t.pv);
   };
 
   /**
@@ -508,49 +688,30 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
    * that set is larger than the cap (the tile's targets then take their own m nearest).
    */
   const useTile = (tu: number, tv: number, width: number): boolean => {
-    const dist2 = tileDist2;
-    const nearest = index.nearest(tu, tv, q, found32, dist2);
-    const radius = Math.sqrt(dist2[nearest.length - 1]) + Math.SQRT2 * width;
+    const nearest = index.nearest(tu, tv, q, found32, tileDist2);
+    const radius = Math.sqrt(tileDist2[nearest.length - 1]) + Math.SQRT2 * width;
     const count = index.withinInto(tu, tv, radius, tileFound);
     if (count > cap) return false;
     const found = tileFound.subarray(0, count);
     found.sort();
     // The local trend frame is centred on the tile centre (in centred working coordinates).
     const back = rotation ? fromStretched(rotation, tu, tv) : { dx: tu, dy: tv };
-    useSet(found, back.dx, back.dy);
+    h.useSet(found, back.dx, back.dy);
     return true;
   };
-  const tileDist2 = new Float64Array(q);
 
   const predict = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction => {
     if (tx.length !== ty.length) throw new GapwiseError('bad-value', `Expected target x and y of equal length, got ${tx.length} and ${ty.length}.`);
     const total = tx.length;
     if (covariateCount > 0) checkCovariateRows(trend, total, popts.covariates, 'target');
-    targetCovariates = popts.covariates;
-    const wantSd = log || popts.sd !== false;
-    const mean = new Float64Array(total);
-    const sd = new Float64Array(total);
-    const sdObserved = new Float64Array(total);
-    const jitterBefore = jitterCount;
+    const out: TargetOutputs = {
+      mean: new Float64Array(total), sd: new Float64Array(total), sdObserved: new Float64Array(total),
+      wantSd: log || popts.sd !== false, covariates: popts.covariates,
+    };
+    const jitterBefore = h.jitterCount;
     const progressEvery = Math.max(1, Math.floor(popts.blockSize ?? 512));
-    // Targets in working and isotropic coordinates (and, with tiles, their tile).
-    const PU = new Float64Array(total);
-    const PV = new Float64Array(total);
-    const QU = new Float64Array(total);
-    const QV = new Float64Array(total);
-    for (let j = 0; j < total; j++) {
-      const xj = tx[j];
-      const yj = ty[j];
-      if (!Number.isFinite(xj) || !Number.isFinite(yj)) {
-        throw new GapwiseError('bad-value', `Target ${j + 1} has coordinates (${xj}, ${yj}); expected finite numbers.`);
-      }
-      const pu = xj - frame.cx;
-      const pv = yj - frame.cy;
-      PU[j] = pu;
-      PV[j] = pv;
-      QU[j] = rotation ? alongAxis(rotation, pu, pv) : pu;
-      QV[j] = rotation ? acrossAxis(rotation, pu, pv) : pv;
-    }
+    const { PU, PV, QU, QV } = targetCoordinates(tx, ty, frame, rotation);
+    const point = (j: number): TargetPoint => ({ j, x: tx[j], y: ty[j], pu: PU[j], pv: PV[j], qu: QU[j], qv: QV[j] });
     let done = 0;
     const step = (): void => {
       done++;
@@ -560,60 +721,39 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
       }
     };
     const one = (j: number): void => {
-      useNearest(QU[j], QV[j], PU[j], PV[j]);
-      predictAt(j, tx[j], ty[j], PU[j], PV[j], QU[j], QV[j], wantSd, mean, sd, sdObserved);
+      const t = point(j);
+      useNearest(t);
+      h.predictAt(t, out);
       step();
     };
     if (!tile) {
       for (let j = 0; j < total; j++) one(j);
     } else {
-      // Group the targets by tile (sorted by tile, then by position), one neighbourhood per tile.
+      // One neighbourhood per tile (targets sorted by tile, then by position).
       const width = tile.width;
-      const ti = new Float64Array(total);
-      const tj = new Float64Array(total);
-      for (let j = 0; j < total; j++) {
-        ti[j] = Math.floor(QU[j] / width);
-        tj[j] = Math.floor(QV[j] / width);
-      }
-      const orderT = Uint32Array.from({ length: total }, (_, j) => j);
-      orderT.sort((a, b) => tj[a] - tj[b] || ti[a] - ti[b] || a - b);
+      const { order, ti, tj } = tileOrder(QU, QV, width);
       for (let g = 0; g < total;) {
         let e = g + 1;
-        while (e < total && ti[orderT[e]] === ti[orderT[g]] && tj[orderT[e]] === tj[orderT[g]]) e++;
-        const first = orderT[g];
+        while (e < total && ti[order[e]] === ti[order[g]] && tj[order[e]] === tj[order[g]]) e++;
+        const first = order[g];
         if (useTile((ti[first] + 0.5) * width, (tj[first] + 0.5) * width, width)) {
           for (let k = g; k < e; k++) {
-            const j = orderT[k];
-            predictAt(j, tx[j], ty[j], PU[j], PV[j], QU[j], QV[j], wantSd, mean, sd, sdObserved);
+            h.predictAt(point(order[k]), out);
             step();
           }
         } else {
-          for (let k = g; k < e; k++) one(orderT[k]);
+          for (let k = g; k < e; k++) one(order[k]);
         }
         g = e;
       }
     }
-    const callWarnings: Warning[] = [];
-    if (jitterCount > jitterBefore) {
-      callWarnings.push({
-        code: 'jitter',
-        message: `${jitterCount - jitterBefore} neighbourhood covariance matrices were not numerically positive definite; added up to ${maxJitter.toPrecision(3)} to their diagonal.`,
-      });
-      // The predictor's own list keeps one running total (surfaces report predictor.warnings).
-      const total: Warning = {
-        code: 'jitter',
-        message: `${jitterCount} neighbourhood covariance matrices were not numerically positive definite; added up to ${maxJitter.toPrecision(3)} to their diagonal.`,
-      };
-      const at = warnings.findIndex((w) => w.code === 'jitter' && w.message.includes('neighbourhood covariance'));
-      if (at >= 0) warnings[at] = total;
-      else warnings.push(total);
-    }
-    if (!log) return { mean, sd, sdObserved, warnings: callWarnings };
+    const callWarnings = jitterWarnings(h, jitterBefore, warnings);
+    if (!log) return { mean: out.mean, sd: out.sd, sdObserved: out.sdObserved, warnings: callWarnings };
     // Lognormal back-transform, as kriging.ts: mean exp(Ŷ + σ²/2), median exp(Ŷ).
-    return { ...logPredictionToDataScale(mean, sd, nugget), logMean: mean, logSd: sd, warnings: callWarnings };
+    return { ...logPredictionToDataScale(out.mean, out.sd, h.nugget), logMean: out.mean, logSd: out.sd, warnings: callWarnings };
   };
 
   const checked = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction =>
     checkPredictionFinite(model, predict(tx, ty, popts), tx, ty, popts.sd !== false || log);
-  return { n, neighbors: q, model, warnings, beta, frame, predict: checked };
+  return { n, neighbors: q, model, warnings, beta: mean.beta, frame, predict: checked };
 }

@@ -91,6 +91,13 @@ export function localTargetCost(neighbors: number): number {
  */
 export const GROWTH_BUDGET = 8;
 
+/**
+ * Above EXACT_SAMPLE_LIMIT samples a growth may always spend this many multiply-adds per thread
+ * (about half a minute of one thread here, at the 1–1.5 billion a second that neighbourhoods of a
+ * few hundred samples reach), however cheap the first run was.
+ */
+export const GROWTH_OPERATIONS_PER_THREAD = 30e9;
+
 /** Estimated multiply-adds of local neighbourhoods of m samples plus the measurement of their error. */
 export function localCost(samples: number, targets: number, neighbors = 64, threads = 1): number {
   const n = samples;
