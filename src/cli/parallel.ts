@@ -14,7 +14,7 @@ import { cellCount } from '../core/geometry/grid.ts';
 import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { createPredictor } from '../core/prediction/kriging.ts';
 import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
-import { computeSurfaceWith, rangeOf, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
+import { computeSurfaceWith, surfaceResult, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
 import { startEngineThreads } from './engine-threads.ts';
 
 export type SurfacePath = 'exact' | 'local';
@@ -129,17 +129,5 @@ export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelS
     await pool.dispose();
   }
 
-  const result: SurfaceResult = {
-    rows: [0, grid.ny], nx: grid.nx, mean, sd,
-    range: { mean: rangeOf(mean), sd: rangeOf(sd) },
-    cells: totalCells,
-    warnings: [...warnings.values()],
-  };
-  if (pExceed) {
-    result.pExceed = pExceed;
-    result.threshold = threshold;
-    result.range.pExceed = rangeOf(pExceed);
-  }
-  if (median) result.median = median;
-  return result;
+  return surfaceResult({ rows: [0, grid.ny], nx: grid.nx, mean, sd, pExceed, median, threshold, cells: totalCells, warnings: [...warnings.values()] });
 }
