@@ -53,7 +53,7 @@ export function chooseSurfacePath(n: number, cells: number): SurfacePath {
 }
 
 /** The predictor a job asks for (used by the workers and by the single-thread path). */
-export function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
+function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
   if (job.path === 'exact') return createPredictor(job.samples, job.model);
   // Grid cells one cell apart may share tile neighbourhoods (core/prediction/local-kriging.ts chooseTile).
   return createLocalPredictor(job.samples, job.model, { ...job.local, targetSpacing: job.local?.targetSpacing ?? job.grid.cell });

@@ -191,7 +191,7 @@ export function candidateLabel(family: string, nu?: number | 'free'): string {
  * cross-validates each, as the app's comparison table does. A candidate that cannot be fitted keeps
  * its row with `error`.
  */
-export function compareCandidates(
+function compareCandidates(
   intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log', onProgress?: (done: number, total: number) => void,
 ): ComparisonRow[] {
   const fitSamples = modelSamples(intake.samples, transform === 'log');

@@ -145,7 +145,7 @@ const MAX_COUNT = 500;
 /** The most evaluation points and screened candidates of a variance-based design (each a row of n features). */
 export const MAX_DESIGN_POINTS = 20_000;
 /** The most points of a coverage design's objective. */
-export const MAX_COVERAGE_POINTS = 200_000;
+const MAX_COVERAGE_POINTS = 200_000;
 
 function checkNumber(v: unknown, name: string, min: number, inclusive: boolean): number {
   if (typeof v !== 'number' || !Number.isFinite(v) || (inclusive ? v < min : v <= min)) {

@@ -171,7 +171,7 @@ export function cellCount(grid: Grid): number {
 }
 
 /** True when cell k (row-major index) is inside the area. */
-export function isActive(grid: Grid, k: number): boolean {
+function isActive(grid: Grid, k: number): boolean {
   return !grid.mask || grid.mask[k] === 1;
 }
 

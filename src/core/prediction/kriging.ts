@@ -415,7 +415,7 @@ export function predictWithSystem(
 }
 
 /** Kriging weights at one target from a factorised system (see Predictor.weights). */
-export function weightsWithSystem(sys: KrigingSystem, tx: number, ty: number, covariates?: ArrayLike<number>): KrigingWeights {
+function weightsWithSystem(sys: KrigingSystem, tx: number, ty: number, covariates?: ArrayLike<number>): KrigingWeights {
   checkTargets([tx], [ty]);
   if (covariateColumnCount(sys.model.trend) > 0) checkCovariateRows(sys.model.trend, 1, covariates, 'target');
   const { n, p, model, frame, u, v, W, Lg, beta, alpha, c0, m0 } = sys;
@@ -495,7 +495,7 @@ export function checkPredictionFinite<P extends Prediction>(model: CovarianceMod
  * Covariance of the GLS trend coefficients, (XᵀK⁻¹X)⁻¹ = Lg⁻ᵀLg⁻¹ in the system's columns (p×p,
  * row-major); on the kriging scale (ln for a log model).
  */
-export function trendCovariance(sys: KrigingSystem): Float64Array {
+function trendCovariance(sys: KrigingSystem): Float64Array {
   const p = sys.p;
   const V = new Float64Array(p * p);
   const e = new Float64Array(p);

@@ -43,7 +43,7 @@ import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
 export const MAX_GROWN_NEIGHBORS = 512;
 /** Largest neighbourhood the growth tries when the reference is itself a neighbourhood (REFERENCE_NEIGHBORS). */
-export const MAX_GROWN_NEIGHBORS_LARGE = 256;
+const MAX_GROWN_NEIGHBORS_LARGE = 256;
 
 /** The largest neighbourhood the growth tries for n samples. */
 export function maxGrownNeighbors(samples: number): number {
@@ -145,7 +145,7 @@ export function priorSdOf(model: CovarianceModel): number {
 }
 
 /** Largest and RMS differences of `local` from `reference`, % of `priorSd`. */
-export function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, priorSd: number): ErrorFigures {
+function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, priorSd: number): ErrorFigures {
   let max = 0;
   let ss = 0;
   for (let k = 0; k < reference.length; k++) {
@@ -314,7 +314,7 @@ function copyPrediction(p: Prediction): Prediction {
 }
 
 /** For each checked target, whether its own difference from the reference misses the tolerance. */
-export function missesAtEach(model: CovarianceModel, reference: CheckedValues, local: CheckedValues, tolerance: Tolerance): boolean[] {
+function missesAtEach(model: CovarianceModel, reference: CheckedValues, local: CheckedValues, tolerance: Tolerance): boolean[] {
   const priorSd = priorSdOf(model);
   return Array.from({ length: reference.mean.length }, (_, k) => {
     const dm = (100 * Math.abs(local.mean[k] - reference.mean[k])) / priorSd;

@@ -188,7 +188,3 @@ export function parseTolerance(text: string, defaults: Tolerance = DEFAULT_TOLER
   return out;
 }
 
-/** "mean 1 %, sd 2 %" */
-export function describeTolerance(t: Tolerance): string {
-  return `mean within ${t.mean} %, sd within ${t.sd} % of the prior sd`;
-}

@@ -97,12 +97,12 @@ export function linearSrgbToOklab(r: number, g: number, b: number): [number, num
 }
 
 /** sRGB transfer function (IEC 61966-2-1): encoded 0..1 → linear 0..1. */
-export function srgbToLinear(v: number): number {
+function srgbToLinear(v: number): number {
   return v <= 0.04045 ? v / 12.92 : ((v + 0.055) / 1.055) ** 2.4;
 }
 
 /** Linear 0..1 → encoded 0..1. */
-export function linearToSrgb(v: number): number {
+function linearToSrgb(v: number): number {
   return v <= 0.0031308 ? 12.92 * v : 1.055 * v ** (1 / 2.4) - 0.055;
 }
 
@@ -210,7 +210,7 @@ export function classColours(scale: ScaleName, steps: number): Rgb[] {
  * Machado, Oliveira & Fernandes (2009), "A physiologically-based model for simulation of color
  * vision deficiency", IEEE TVCG 15(6):1291–1298, Table 2, severity 1.0; applied to linear RGB.
  */
-export const CVD_MATRICES = {
+const CVD_MATRICES = {
   protanopia: [
     [0.152286, 1.052583, -0.204868],
     [0.114503, 0.786281, 0.099216],

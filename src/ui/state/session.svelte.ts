@@ -47,7 +47,7 @@ import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 /** Samples from which fits use the nearest-neighbour likelihood and surfaces local neighbourhoods. */
 export const MANY_SAMPLES = MAX_EXACT_SAMPLES;
 /** From this many samples the variograms are computed in a worker (below, at once on this thread). */
-export const ASYNC_VARIOGRAM_FROM = 3000;
+const ASYNC_VARIOGRAM_FROM = 3000;
 /** Pairs drawn in the variogram cloud. */
 const CLOUD_PAIRS = 6000;
 
@@ -141,7 +141,7 @@ export interface ShownError {
   choices?: string[];
 }
 
-export function showError(e: unknown): ShownError {
+function showError(e: unknown): ShownError {
   if (e instanceof GapwiseError) {
     const choices = (e as { numericColumns?: unknown }).numericColumns;
     return { message: e.describe(), code: e.code, ...(Array.isArray(choices) && choices.length ? { choices: choices.map(String) } : {}) };
@@ -1752,7 +1752,7 @@ function mark(name: string): void {
 }
 
 /** WGS 84 positions of the samples for the map (from the working CRS, as the surface is drawn). */
-export function placesOf(result: IntakeResult): SamplePlaces {
+function placesOf(result: IntakeResult): SamplePlaces {
   const { samples, report } = result;
   const n = samples.x.length;
   if (report.crs.work === LOCAL_CRS || report.crs.input === LOCAL_CRS) {
