@@ -91,7 +91,7 @@ async function runEachAnalyte(
 }
 
 /** Column-name bases of the analytes (as the grid CSV names them): unique, letters, digits and _. */
-export function analyteColumnBases(names: readonly string[]): string[] {
+function analyteColumnBases(names: readonly string[]): string[] {
   const used = new Set<string>();
   return names.map((name) => {
     let base = analyteColumnName(name);
@@ -188,7 +188,7 @@ export async function cvAnalytes(values: OptionValues, io: CliIo, request: strin
 }
 
 /** Each analyte's leave-one-out summary as a plain table (for reading; the JSON has every digit). */
-export function cvTable(names: readonly string[], summaries: ReadonlyArray<Record<string, unknown>>): string {
+function cvTable(names: readonly string[], summaries: ReadonlyArray<Record<string, unknown>>): string {
   const head = ['analyte', ...CV_FIGURES, 'scale'];
   const rows = names.map((name, a) => {
     const s = summaries[a];
@@ -240,7 +240,7 @@ const REPORT_ONE_ANALYTE = ['realizations', 'support', 'block-points', 'seed', '
  * model (the comparison table, suggestions, realisations) is kept only for that analyte with that
  * model; the threshold is the analyte's from --threshold, else the project's for its own analyte.
  */
-export function analyteProject(project: Project, own: string, name: string, model: CovarianceModel, threshold: number | undefined, title?: string): Project {
+function analyteProject(project: Project, own: string, name: string, model: CovarianceModel, threshold: number | undefined, title?: string): Project {
   const same = name === own && project.model !== null && JSON.stringify(project.model) === JSON.stringify(model);
   const p: Project = {
     ...project,

@@ -34,6 +34,26 @@ export interface ParsedArgs {
   help: boolean;
 }
 
+/**
+ * One spelling per word: option names are British (`--neighbours`, `--realisations`); the earlier,
+ * documented American names stay accepted as aliases and parse to the same option. Each pair is
+ * [canonical, alias]; a command whose spec carries either spelling takes both.
+ */
+export const OPTION_ALIASES: readonly (readonly [string, string])[] = [
+  ['neighbours', 'neighbors'], // rename-words: keep
+  ['realisations', 'realizations'], // rename-words: keep
+  ['nnl-neighbours', 'nnl-neighbors'], // rename-words: keep
+];
+
+/** The other spelling of an option name (either side of a pair), or undefined; the help shows it as "also". */
+export function optionAlias(name: string): string | undefined {
+  for (const [canonical, alias] of OPTION_ALIASES) {
+    if (name === alias) return canonical;
+    if (name === canonical) return alias;
+  }
+  return undefined;
+}
+
 // The option is named in the message itself; `place` is for files.
 function optionError(message: string, _option: string): GapwiseError {
   return new GapwiseError('bad-option', message);
@@ -56,10 +76,13 @@ export function parseArgs(argv: readonly string[], specs: readonly OptionSpec[],
       throw optionError(`Unexpected argument "${token}": expected an option starting with "--"; ${helpHint}.`, token);
     }
     const eq = token.indexOf('=');
-    const name = eq === -1 ? token.slice(2) : token.slice(2, eq);
-    const spec = byName.get(name);
-    if (!spec) throw optionError(`Unknown option "--${name}" for "gapwise ${command}"; ${helpHint}.`, `--${name}`);
-    if (name in values && !spec.repeatable) throw optionError(`Option "--${name}" is given twice; expected it once.`, `--${name}`);
+    const given = eq === -1 ? token.slice(2) : token.slice(2, eq);
+    const partner = optionAlias(given);
+    const spec = byName.get(given) ?? (partner === undefined ? undefined : byName.get(partner));
+    if (!spec) throw optionError(`Unknown option "--${given}" for "gapwise ${command}"; ${helpHint}.`, `--${given}`);
+    // Values are kept under the spec's own name, whichever spelling was typed; messages name the typed one.
+    const name = spec.name;
+    if (name in values && !spec.repeatable) throw optionError(`Option "--${given}" is given twice; expected it once.`, `--${given}`);
 
     let raw: string;
     if (spec.kind === 'boolean') {
@@ -69,7 +92,7 @@ export function parseArgs(argv: readonly string[], specs: readonly OptionSpec[],
       }
       raw = token.slice(eq + 1);
       if (raw !== 'true' && raw !== 'false') {
-        throw optionError(`Option "--${name}" is a switch: expected no value, "true" or "false", got "${raw}".`, `--${name}`);
+        throw optionError(`Option "--${given}" is a switch: expected no value, "true" or "false", got "${raw}".`, `--${given}`);
       }
       values[name] = raw === 'true';
       continue;
@@ -79,22 +102,22 @@ export function parseArgs(argv: readonly string[], specs: readonly OptionSpec[],
     } else {
       const next = argv[i + 1];
       if (next === undefined || next.startsWith('--')) {
-        throw optionError(`Option "--${name}" needs a value (${spec.placeholder ?? 'VALUE'}), got none.`, `--${name}`);
+        throw optionError(`Option "--${given}" needs a value (${spec.placeholder ?? 'VALUE'}), got none.`, `--${given}`);
       }
       raw = next;
       i++;
     }
-    if (raw === '') throw optionError(`Option "--${name}" needs a value (${spec.placeholder ?? 'VALUE'}), got an empty one.`, `--${name}`);
+    if (raw === '') throw optionError(`Option "--${given}" needs a value (${spec.placeholder ?? 'VALUE'}), got an empty one.`, `--${given}`);
     if (spec.kind === 'number') {
       const v = Number(raw.trim());
       if (raw.trim() === '' || !Number.isFinite(v)) {
-        throw optionError(`Option "--${name}" expects a number, got "${raw}".`, `--${name}`);
+        throw optionError(`Option "--${given}" expects a number, got "${raw}".`, `--${given}`);
       }
       values[name] = v;
       continue;
     }
     if (spec.choices && !spec.choices.includes(raw)) {
-      throw optionError(`Option "--${name}" expects one of ${spec.choices.join(', ')}; got "${raw}".`, `--${name}`);
+      throw optionError(`Option "--${given}" expects one of ${spec.choices.join(', ')}; got "${raw}".`, `--${given}`);
     }
     values[name] = spec.repeatable && name in values ? `${String(values[name])}\n${raw}` : raw;
   }

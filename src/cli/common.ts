@@ -328,7 +328,7 @@ export function count(n: number): string {
 }
 
 /** Most samples `--exact` accepts: the dense system takes 8·n² bytes (800 MB at 10,000) in each worker. */
-export const FORCED_EXACT_LIMIT = EXACT_SAMPLE_LIMIT;
+const FORCED_EXACT_LIMIT = EXACT_SAMPLE_LIMIT;
 /** Largest `--neighbors` (local-kriging.ts accepts up to 2,000). */
 const MAX_NEIGHBORS = 2000;
 
@@ -455,7 +455,7 @@ export interface ProgressLine {
 }
 
 /** Seconds a run lasts before it prints progress. */
-export const PROGRESS_AFTER_SECONDS = 2;
+const PROGRESS_AFTER_SECONDS = 2;
 /** Least time between two rewrites of the progress line on a terminal, in milliseconds. */
 const TERMINAL_REFRESH_MS = 250;
 
@@ -559,7 +559,7 @@ export function readWorkers(values: OptionValues, io?: CliIo): number {
 }
 
 /** The option every command takes to silence progress lines and notes. */
-export const QUIET_OPTION: OptionSpec = {
+const QUIET_OPTION: OptionSpec = {
   name: 'quiet', kind: 'boolean', help: 'no progress lines and no notes on stderr; warnings and errors are still printed',
 };
 

@@ -2,7 +2,7 @@
  * Help texts: the tool's overview and each command's usage, options (with default and unit),
  * examples and the screening caution.
  */
-import type { OptionSpec } from './args.ts';
+import { optionAlias, type OptionSpec } from './args.ts';
 import { AUTOMATIC_PATH_TEXT, CAUTION, count, type CommandSpec } from './common.ts';
 import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
 
@@ -31,6 +31,8 @@ function wrap(text: string, indent: number, first = 0): string {
 function optionLine(o: OptionSpec): string {
   const left = `  --${o.name}${o.kind === 'boolean' ? '' : ` ${o.placeholder ?? 'VALUE'}`}`;
   const parts = [o.help];
+  const alias = optionAlias(o.name);
+  if (alias !== undefined) parts.push(`also --${alias}`);
   if (o.choices) parts.push(`one of: ${o.choices.join(', ')}`);
   if (o.unit) parts.push(`unit: ${o.unit}`);
   if (o.required) parts.push('required');

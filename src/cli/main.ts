@@ -17,7 +17,7 @@ import { SOFTWARE } from '../core/shared/version.ts';
  * The process's own streams and working directory. Installs the signal handlers that remove a
  * half-written temporary output on SIGINT, SIGTERM and SIGHUP (./safe-write.ts).
  */
-export function processIo(): CliIo {
+function processIo(): CliIo {
   installSignalCleanup();
   return {
     stdout: (t) => void process.stdout.write(t),

@@ -14,7 +14,7 @@ import { cellCount } from '../core/geometry/grid.ts';
 import { GapwiseError, type Warning } from '../core/shared/errors.ts';
 import { createPredictor } from '../core/prediction/kriging.ts';
 import { createLocalPredictor, globalMeanCoefficients, type LocalKrigingOptions } from '../core/prediction/local-kriging.ts';
-import { computeSurfaceWith, rangeOf, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
+import { computeSurfaceWith, surfaceResult, type SurfaceOptions, type SurfaceResult, type SurfaceArray, type SurfacePredictor } from '../core/prediction/surface.ts';
 import { startEngineThreads } from './engine-threads.ts';
 
 export type SurfacePath = 'exact' | 'local';
@@ -53,7 +53,7 @@ export function chooseSurfacePath(n: number, cells: number): SurfacePath {
 }
 
 /** The predictor a job asks for (used by the workers and by the single-thread path). */
-export function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
+function buildSurfacePredictor(job: SurfaceJob): SurfacePredictor {
   if (job.path === 'exact') return createPredictor(job.samples, job.model);
   // Grid cells one cell apart may share tile neighbourhoods (core/prediction/local-kriging.ts chooseTile).
   return createLocalPredictor(job.samples, job.model, { ...job.local, targetSpacing: job.local?.targetSpacing ?? job.grid.cell });
@@ -129,17 +129,5 @@ export async function computeSurfaceParallel(job: SurfaceJob, options: ParallelS
     await pool.dispose();
   }
 
-  const result: SurfaceResult = {
-    rows: [0, grid.ny], nx: grid.nx, mean, sd,
-    range: { mean: rangeOf(mean), sd: rangeOf(sd) },
-    cells: totalCells,
-    warnings: [...warnings.values()],
-  };
-  if (pExceed) {
-    result.pExceed = pExceed;
-    result.threshold = threshold;
-    result.range.pExceed = rangeOf(pExceed);
-  }
-  if (median) result.median = median;
-  return result;
+  return surfaceResult({ rows: [0, grid.ny], nx: grid.nx, mean, sd, pExceed, median, threshold, cells: totalCells, warnings: [...warnings.values()] });
 }

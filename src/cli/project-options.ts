@@ -17,7 +17,7 @@ import { stringOption } from './args.ts';
 import { printWarnings, readText, type CliIo, type CommandSpec, type OptionValues } from './common.ts';
 
 /** The option itself, as every command lists it. */
-export const PROJECT_OPTION: OptionSpec = {
+const PROJECT_OPTION: OptionSpec = {
   name: 'project',
   kind: 'string',
   placeholder: 'FILE',
@@ -68,7 +68,7 @@ function fitValues(project: Project, model: CovarianceModel): OptionValues {
  * The values and I/O a command runs with under `--project FILE`: the project's values for the
  * options the command has and the command line left out, and the project's texts in memory.
  */
-export function projectRouting(command: CommandSpec, values: OptionValues, io: CliIo, file: string): { values: OptionValues; io: CliIo; project: Project } {
+function projectRouting(command: CommandSpec, values: OptionValues, io: CliIo, file: string): { values: OptionValues; io: CliIo; project: Project } {
   const { project } = readProjectFile(io, file);
   const has = (name: string) => command.options.some((o) => o.name === name) && values[name] === undefined;
   const kind = (name: string) => command.options.find((o) => o.name === name)?.kind;
@@ -113,7 +113,7 @@ export function projectRouting(command: CommandSpec, values: OptionValues, io: C
  * samples "lead-topsoil.csv" it holds), line 12: ...`. A missing column that a reading option of the
  * project named is the field of that option (`samples.intake.value`).
  */
-export function nameProjectField(e: GapwiseError, file: string, project: Project, values: OptionValues): void {
+function nameProjectField(e: GapwiseError, file: string, project: Project, values: OptionValues): void {
   const held = e.place.file;
   if (held === undefined || !held.startsWith(`${file}:`)) return;
   if (held === `${file}:model`) {

@@ -54,7 +54,7 @@ export function simulationEstimate(demand: SimulationDemand): SimulationEstimate
 }
 
 /** "1.6 GB" (decimal units, as file managers show them). */
-export function byteText(bytes: number): string {
+function byteText(bytes: number): string {
   if (bytes >= 1e9) return `${(bytes / 1e9).toFixed(1)} GB`;
   if (bytes >= 1e6) return `${(bytes / 1e6).toFixed(1)} MB`;
   return `${Math.ceil(bytes / 1e3)} kB`;

@@ -180,7 +180,7 @@ function processExists(pid: number): boolean {
  * outright (SIGKILL, a power cut): regular files named as `temporaryName` names them whose process id
  * no running process holds. A file of a writer still running is kept. Returns the names removed.
  */
-export function removeStaleTemporaries(target: string): string[] {
+function removeStaleTemporaries(target: string): string[] {
   const folder = dirname(target);
   const prefix = temporaryPrefix(target);
   let names: string[];
@@ -263,7 +263,7 @@ function removeQuietly(path: string): void {
 }
 
 /** Removes the temporary files of writes in progress (the signal handlers call it). */
-export function removePendingFiles(): void {
+function removePendingFiles(): void {
   for (const temp of pending) removeQuietly(temp);
   pending.clear();
 }

@@ -120,7 +120,7 @@ function paddedField(grid: Grid, values: ArrayLike<number>): Field {
 }
 
 /** What a local-coordinate contour file says about its positions. */
-export const LOCAL_CONTOURS_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
+const LOCAL_CONTOURS_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
 
 /** Maps d3 points to rounded lon/lat positions (local x, y for local coordinates). */
 function makeProjector(grid: Grid, workCrs: string): (p: readonly number[]) => Position {

@@ -541,7 +541,7 @@ function checkIndices(lon: ArrayLike<number>, lat: ArrayLike<number>): number[] 
  * The largest scale error of a projected CRS at the samples (WGS 84 longitude/latitude); see
  * `scaleFactors`. A place that cannot be projected counts as an infinite error.
  */
-export function crsDistortion(crs: string, lon: ArrayLike<number>, lat: ArrayLike<number>): CrsDistortion {
+function crsDistortion(crs: string, lon: ArrayLike<number>, lat: ArrayLike<number>): CrsDistortion {
   let worst: CrsDistortion = { scaleError: 0, at: 0, lon: lon[0], lat: lat[0] };
   const c = resolveCrs(crs);
   const t = createTransform('EPSG:4326', c.key);
@@ -555,7 +555,7 @@ export function crsDistortion(crs: string, lon: ArrayLike<number>, lat: ArrayLik
 }
 
 /** Longitude/latitude extent and centre of places, unwrapped across the antimeridian when that is shorter. */
-export function lonLatExtent(lon: ArrayLike<number>, lat: ArrayLike<number>): { west: number; east: number; south: number; north: number; centreLon: number; centreLat: number } {
+function lonLatExtent(lon: ArrayLike<number>, lat: ArrayLike<number>): { west: number; east: number; south: number; north: number; centreLon: number; centreLat: number } {
   let lonMin = Infinity, lonMax = -Infinity, south = Infinity, north = -Infinity, latSum = 0;
   for (let i = 0; i < lon.length; i++) {
     lonMin = Math.min(lonMin, lon[i]); lonMax = Math.max(lonMax, lon[i]);
@@ -588,7 +588,7 @@ function pct(v: number): string {
  * centred on them (areas exact, lengths off least around a centre) when its error stays within
  * WORK_CRS_SCALE_LIMIT, else null (no single projection serves: split the samples by region).
  */
-export function suggestWorkCrs(lon: ArrayLike<number>, lat: ArrayLike<number>): { crs: string; name: string; distortion: CrsDistortion } | null {
+function suggestWorkCrs(lon: ArrayLike<number>, lat: ArrayLike<number>): { crs: string; name: string; distortion: CrsDistortion } | null {
   const e = lonLatExtent(lon, lat);
   const utm = resolveCrs(utmZoneFor(e.centreLon, Math.max(-80, Math.min(84, e.centreLat))).code);
   const du = crsDistortion(utm.key, lon, lat);

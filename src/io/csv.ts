@@ -84,7 +84,7 @@ export function detectDelimiter(text: string): Delimiter {
 const DETECT_CHARS = 1 << 20;
 const DETECT_LINES = 200;
 /** A row still open after this many characters (an unclosed quote, most likely) is refused. */
-export const MAX_ROW_CHARS = 1 << 20;
+const MAX_ROW_CHARS = 1 << 20;
 
 /**
  * Reads delimited text into a table chunk by chunk: push text, then `end()`. The rows are the same as

@@ -137,7 +137,7 @@ export function bandDescriptions(surface: GeoTiffSurfaces, unit = '', valueName 
  * Band descriptions for the per-cell summaries of `count` conditional realisations (not the kriged
  * surface): "realisations' mean Pb (mg/kg), 100 drawn", sd, and the share above the threshold.
  */
-export function realisationBandDescriptions(surface: GeoTiffSurfaces, count: number, unit = '', valueName = ''): string[] {
+function realisationBandDescriptions(surface: GeoTiffSurfaces, count: number, unit = '', valueName = ''): string[] {
   const u = short(unit, 16);
   const name = short(valueName, 16);
   const withUnit = (s: string) => (u ? `${s} (${u})` : s);

@@ -112,15 +112,8 @@ export function analyteColumnName(name: string): string {
  * Several analytes' surfaces on one grid as a CSV table, one row per active cell: x, y (and lon, lat)
  * as surfaceGridCsv writes them, then NAME_mean, NAME_sd (and NAME_p_exceed) per analyte, NAME the
  * analyte's column name with other characters than letters, digits and _ made _. Same digits and
- * comment line as surfaceGridCsv.
+ * comment line as surfaceGridCsv. In pieces of whole lines of about `chunkChars` characters.
  */
-export function analyteGridCsv(input: AnalyteGridCsvInput): string {
-  let text = '';
-  for (const piece of analyteGridCsvChunks(input)) text += piece;
-  return text;
-}
-
-/** The same CSV text as `analyteGridCsv`, in pieces of whole lines of about `chunkChars` characters. */
 export function* analyteGridCsvChunks(input: AnalyteGridCsvInput, chunkChars = CHUNK_CHARS): Generator<string> {
   const { grid } = input;
   const { x, y, index } = cellCentres(grid);

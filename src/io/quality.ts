@@ -164,7 +164,7 @@ export function summarise(values: ArrayLike<number>, sortedValues?: Float64Array
 }
 
 /** Skewness above which a log transform is suggested (common practice: g1 > 1). */
-export const SKEWNESS_FOR_LOG = 1;
+const SKEWNESS_FOR_LOG = 1;
 
 /**
  * Advice on a log transform: suggested for strongly right-skewed positive data; when values ≤ 0

@@ -59,7 +59,7 @@ function entries(lut: Lut): number {
 }
 
 /** Position of a value on [min, max] as t in [0, 1] (clamped); NaN for NaN or an empty domain. */
-export function scaleT(value: number, domain: readonly [number, number]): number {
+function scaleT(value: number, domain: readonly [number, number]): number {
   const [a, b] = domain;
   if (Number.isNaN(value) || !Number.isFinite(a) || !Number.isFinite(b)) return NaN;
   if (b === a) return 0.5;

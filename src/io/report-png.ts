@@ -34,7 +34,7 @@ export function adler32(bytes: Uint8Array): number {
 }
 
 /** A zlib stream of stored deflate blocks holding `raw`. */
-export function zlibStored(raw: Uint8Array): Uint8Array {
+function zlibStored(raw: Uint8Array): Uint8Array {
   const blocks = Math.max(1, Math.ceil(raw.length / 65535));
   const out = new Uint8Array(2 + raw.length + 5 * blocks + 4);
   out[0] = 0x78;

@@ -287,7 +287,7 @@ export function cellText(col: StoredColumn, k: number): string {
 }
 
 /** "line 12" (CSV) or "feature 3" / "feature 3 (id "A-1")" (GeoJSON): where a source row is. */
-export function recordPlace(table: Pick<SampleTable, 'format' | 'recordLine' | 'featureIds'>, record: number): string {
+function recordPlace(table: Pick<SampleTable, 'format' | 'recordLine' | 'featureIds'>, record: number): string {
   const n = table.recordLine[record];
   if (table.format === 'csv') return `line ${n}`;
   const id = table.featureIds ? cellText(table.featureIds, record) : '';
@@ -317,7 +317,7 @@ function mergedIndex(table: SampleTable, i: number): number {
 }
 
 /** The source rows of sample i (one, or several for a merged sample). */
-export function sampleRecords(table: SampleTable, i: number): Uint32Array {
+function sampleRecords(table: SampleTable, i: number): Uint32Array {
   const m = mergedIndex(table, i);
   if (m < 0) return table.record.subarray(i, i + 1);
   return table.merged.records.subarray(table.merged.start[m], table.merged.start[m + 1]);

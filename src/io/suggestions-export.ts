@@ -30,7 +30,7 @@ export interface CsvExportOptions {
 }
 
 /** What a local-coordinate GeoJSON says about its positions (they are not RFC 7946 lon/lat). */
-export const LOCAL_COORDINATES_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
+const LOCAL_COORDINATES_NOTE = 'Positions are local planar x, y in the samples\' own coordinates (no coordinate reference system), not longitude/latitude.';
 
 /** Checks that every suggestion has WGS 84 longitude and latitude. */
 export function checkLonLat(suggestions: readonly Suggestion[]): void {

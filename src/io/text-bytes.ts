@@ -29,7 +29,7 @@ const SIGNATURES: Array<[string, number[]]> = [
 ];
 
 /** How many leading bytes are looked at before deciding what the file is. */
-export const SNIFF_BYTES = 4096;
+const SNIFF_BYTES = 4096;
 
 function startsWith(bytes: Uint8Array, sig: number[]): boolean {
   if (bytes.length < sig.length) return false;
@@ -68,7 +68,7 @@ function notText(fileName: string, looks: string): GapwiseError {
  * invalid byte (-1 when none). A sequence cut by the end of the chunk is not invalid: it is left for
  * the next chunk (`complete` stops before it) unless `final`.
  */
-export function utf8Check(b: Uint8Array, final: boolean): { complete: number; invalid: number } {
+function utf8Check(b: Uint8Array, final: boolean): { complete: number; invalid: number } {
   const n = b.length;
   let i = 0;
   while (i < n) {
@@ -230,9 +230,3 @@ export class TextFromBytes {
 const utf8 = new TextDecoder('utf-8', { ignoreBOM: true });
 const latin1 = new TextDecoder('windows-1252');
 
-/** Whole bytes to text (see TextFromBytes). */
-export function textFromBytes(bytes: Uint8Array, fileName: string): { text: string; warnings: Warning[] } {
-  const d = new TextFromBytes(fileName);
-  const text = d.push(bytes) + d.end();
-  return { text, warnings: d.warnings };
-}

@@ -19,9 +19,6 @@ export interface DesignRequestPayload {
   options: DesignOptions;
 }
 
-/** The request type name the protocol uses for designs. */
-export const DESIGN_REQUEST = 'design';
-
 /**
  * Runs one design request. Throws GapwiseError for a malformed payload and whatever suggestSites
  * throws; the handler turns both into error messages.

@@ -11,7 +11,7 @@ describe('commandHelp', () => {
     for (const name of ['predict', 'cv', 'grid']) {
       const text = help(name);
       expect(text, name).toContain('--neighbors M local neighbourhoods: each target is predicted from its M nearest samples');
-      expect(text, name).toContain('(unit: samples; default: 64, grown up to 512 when the measured error misses --tolerance)');
+      expect(text, name).toContain('unit: samples; default: 64, grown up to 512 when the measured error misses --tolerance)');
       expect(text, name).toContain('--exact exact kriging from all samples whatever their number');
       expect(text, name).toContain('default: automatic: the cheaper of exact kriging and local neighbourhoods by estimated cost (samples, targets, threads); '
         + 'a local run is checked against exact kriging at up to 200 seeded random targets');
@@ -39,7 +39,8 @@ describe('commandHelp', () => {
     const text = help('fit');
     expect(text).toContain('(one of: auto, reml, ml, wls, nnl; default: auto)');
     expect(text).toContain('auto (reml below 3,000 samples, nnl from there on)');
-    expect(text).toContain('--nnl-neighbors M nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000) (unit: samples; default: 30)');
+    expect(text).toContain('--nnl-neighbors M nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000) (also --');
+    expect(text).toContain('unit: samples; default: 30)');
   });
 });
 

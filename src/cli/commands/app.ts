@@ -15,7 +15,7 @@ import type { CliIo, CommandSpec, OptionValues } from '../common.ts';
 import { serveStatic } from '../static-server.ts';
 
 /** The default port of `gapwise app`. */
-export const APP_PORT = 4180;
+const APP_PORT = 4180;
 
 /** The folder of the gapwise package this module belongs to (the checkout, or the installed package). */
 export function packageRoot(from = fileURLToPath(import.meta.url)): string {

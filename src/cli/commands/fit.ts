@@ -30,7 +30,7 @@ import {
 type MethodOption = 'auto' | 'reml' | 'ml' | 'wls' | 'nnl';
 
 /** From this many samples a nearest-neighbour fit splits its passes over threads (starting them costs about a second). */
-export const THREADS_FROM = 10000;
+const THREADS_FROM = 10000;
 
 const METHOD_NAMES: Record<'reml' | 'ml' | 'wls', string> = {
   reml: 'the exact REML likelihood',

@@ -54,7 +54,7 @@ function formatOf(file: string): Format {
 }
 
 /** "50,100,200" → [50, 100, 200]. */
-export function parseLevels(raw: string, option: string): number[] {
+function parseLevels(raw: string, option: string): number[] {
   const parts = raw.split(',').map((s) => s.trim()).filter((s) => s !== '');
   const out = parts.map(Number);
   if (parts.length === 0 || out.some((v) => !Number.isFinite(v))) {

@@ -38,7 +38,7 @@ const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
  * command line leaves out come from the project's saved realisations (seed, support, block points,
  * depth), then from the defaults of `gapwise simulate`. Throws GapwiseError('bad-option').
  */
-export function reportSimulationSettings(values: OptionValues, project: Project): SimulationSettings | null {
+function reportSimulationSettings(values: OptionValues, project: Project): SimulationSettings | null {
   if (values.realizations === undefined) {
     const stray = SIMULATION_ONLY.find((name) => values[name] !== undefined);
     if (stray) throw new GapwiseError('bad-option', `Option "--${stray}" applies to the realisations; expected "--realizations N" with it.`);
@@ -90,7 +90,7 @@ export async function reportRasters(values: OptionValues, cwd: string, projectFi
 }
 
 /** The name and version written into the report (src/core/shared/version.ts, equal to package.json's). */
-export function softwareVersion(): { name: string; version: string } {
+function softwareVersion(): { name: string; version: string } {
   return { name: 'Gapwise', version: GAPWISE_VERSION };
 }
 

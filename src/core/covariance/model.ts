@@ -72,9 +72,9 @@ export function isKnownTrend(trend: Trend | undefined): trend is { known: number
 }
 
 /** Largest number of covariates in one trend. */
-export const MAX_COVARIATES = 20;
+const MAX_COVARIATES = 20;
 /** Largest number of levels of one categorical covariate. */
-export const MAX_LEVELS = 50;
+const MAX_LEVELS = 50;
 
 /** Checks a covariate trend's shape (parse or option) and returns a clean copy. */
 export function parseCovariateTrend(o: Record<string, unknown>, where = 'trend'): CovariateTrend {
@@ -159,13 +159,13 @@ export const MAX_SILL = 1e100;
 /** Largest |known mean| accepted on parse (data units, or ln units for a log model). */
 export const MAX_ABS_MEAN = 1e100;
 /** Shortest and longest scale accepted on parse, metres. */
-export const MIN_SCALE = 1e-6;
-export const MAX_SCALE = 1e9;
+const MIN_SCALE = 1e-6;
+const MAX_SCALE = 1e9;
 /** Matérn smoothness accepted on parse. */
-export const MIN_NU = 0.05;
-export const MAX_NU = 100;
+const MIN_NU = 0.05;
+const MAX_NU = 100;
 /** Smallest anisotropy ratio (short / long range) accepted on parse. */
-export const MIN_ANISOTROPY_RATIO = 0.001;
+const MIN_ANISOTROPY_RATIO = 0.001;
 /**
  * Where a model meets data: the largest ratio of √(total sill) and of |known mean − mean of the values|
  * to the values' standard deviation, and of a scale to the diagonal of the samples' extent.
@@ -245,7 +245,7 @@ export function nuggetOf(model: CovarianceModel): number {
 }
 
 /** Sum of all sills: the prior variance of a new measurement. */
-export function totalSill(model: CovarianceModel): number {
+function totalSill(model: CovarianceModel): number {
   let s = 0;
   for (const st of model.structures) s += st.sill;
   return s;
@@ -307,9 +307,6 @@ export function checkModelScale(model: CovarianceModel, x: ArrayLike<number>, y:
     });
   }
 }
-
-/** The largest 32-bit float: surfaces stored as Float32 hold nothing larger. */
-export const FLOAT32_MAX = 3.4028234663852886e38;
 
 /**
  * The error for a result that is not a finite number: GapwiseError 'non-finite' (exit 3 on the command

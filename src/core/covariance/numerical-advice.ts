@@ -11,9 +11,9 @@ import type { CovarianceModel } from './model.ts';
 /** Largest |value − mean| whose square and sums over many samples stay finite (1e150² = 1e300). */
 export const LARGEST_SQUARABLE = 1e150;
 /** Closest pair distance, as a fraction of the extent's diagonal, below which samples count as near-duplicates. */
-export const NEAR_DUPLICATE = 1e-7;
+const NEAR_DUPLICATE = 1e-7;
 /** A scale longer than this many extents makes the covariance nearly constant over the samples. */
-export const LONG_SCALE = 1e3;
+const LONG_SCALE = 1e3;
 
 function fmt(v: number): string {
   return Math.abs(v) >= 1e5 || (v !== 0 && Math.abs(v) < 1e-3) ? v.toExponential(2) : String(Number(v.toPrecision(4)));

@@ -126,7 +126,7 @@ const DECIDED = 1e-12;
  * Posterior features (a, t, k₀(q, q)) of points through the factorised system; a covariate trend reads
  * the points' encoded covariates (points × q, row-major).
  */
-export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py: ArrayLike<number>, covariates?: ArrayLike<number>): Features {
+function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py: ArrayLike<number>, covariates?: ArrayLike<number>): Features {
   const { n, p, model, frame, u, v, W, Lg, c0 } = sys;
   const nq = covariateColumnCount(model.trend);
   const m = px.length;
@@ -180,7 +180,7 @@ export function posteriorFeatures(sys: KrigingSystem, px: ArrayLike<number>, py:
  * out[i·mb + j] = c(Pᵢ, Qⱼ) − aᵢ·aⱼ + tᵢ·tⱼ for the features of two point sets: the posterior
  * cross-covariance (mA×mB, row-major). Dot products in 2×4 register blocks over contiguous rows.
  */
-export function posteriorCrossCovariance(sys: KrigingSystem, A: Features, B: Features): Float64Array {
+function posteriorCrossCovariance(sys: KrigingSystem, A: Features, B: Features): Float64Array {
   const { n, p, model } = sys;
   const mA = A.m;
   const mB = B.m;

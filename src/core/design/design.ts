@@ -25,7 +25,7 @@ import { nuggetOf } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
 import { CAUTION } from '../shared/caution.ts';
-import { cellCentres, gridForPolygons, gridFromExtent, type Grid, type Polygon } from '../geometry/grid.ts';
+import { cellCentres, extentOfAll, gridForPolygons, gridFromExtent, type Grid, type Polygon } from '../geometry/grid.ts';
 import { pointInPolygons, polygonsArea, polygonsExtent } from '../geometry/polygon.ts';
 import { buildKrigingSystem, predictWithSystem, type Prediction } from '../prediction/kriging.ts';
 import { createLocalPredictor } from '../prediction/local-kriging.ts';
@@ -160,7 +160,7 @@ const MAX_COUNT = 500;
 /** The most evaluation points and screened candidates of a variance-based design (each a row of n features). */
 export const MAX_DESIGN_POINTS = 20_000;
 /** The most points of a coverage design's objective. */
-export const MAX_COVERAGE_POINTS = 200_000;
+const MAX_COVERAGE_POINTS = 200_000;
 
 function checkNumber(v: unknown, name: string, min: number, inclusive: boolean): number {
   if (typeof v !== 'number' || !Number.isFinite(v) || (inclusive ? v < min : v <= min)) {
@@ -181,20 +181,6 @@ export function niceCell(raw: number): number {
 /** The default cell size: about 10,000 cells over the area (m² → m). */
 export function defaultCell(area: number): number {
   return niceCell(Math.sqrt(area / DEFAULT_CELLS));
-}
-
-function extentOf(xs: ArrayLike<number>[], ys: ArrayLike<number>[]): { xmin: number; ymin: number; xmax: number; ymax: number } {
-  let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
-  xs.forEach((x, k) => {
-    const y = ys[k];
-    for (let i = 0; i < x.length; i++) {
-      if (x[i] < xmin) xmin = x[i];
-      if (x[i] > xmax) xmax = x[i];
-      if (y[i] < ymin) ymin = y[i];
-      if (y[i] > ymax) ymax = y[i];
-    }
-  });
-  return { xmin, ymin, xmax, ymax };
 }
 
 /** Points at cells (indices into the grid) with their rows of the cells' covariates, when there are any. */
@@ -282,7 +268,7 @@ export function designGrid(
       xs.push(given.x);
       ys.push(given.y);
     }
-    extent = extentOf(xs, ys);
+    extent = extentOfAll(xs, ys);
     if (!(extent.xmax > extent.xmin && extent.ymax > extent.ymin)) {
       throw new GapwiseError('bad-option', 'Without a boundary the area is the samples\' bounding box, which is empty here; expected a boundary polygon or samples spread in both directions.');
     }

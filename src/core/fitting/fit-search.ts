@@ -25,9 +25,9 @@ import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
 import { subsetSamples } from './fit.ts';
 
 /** From this many samples the starts are searched on a subset. */
-export const SCREEN_ABOVE = 250;
+const SCREEN_ABOVE = 250;
 /** Samples in the search subset (the direction of an anisotropy needs more than the 150 of fit.ts). */
-export const SEARCH_SUBSET = 200;
+const SEARCH_SUBSET = 200;
 const SUBSET_SEED = 20240611;
 
 /** One parameter of the search: its box and scale, the first simplex step, the Newton unit. */

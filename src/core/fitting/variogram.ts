@@ -85,7 +85,7 @@ export interface EmpiricalVariogram {
 }
 
 /** Common practice (Webster & Oliver 2001): at least 30–50 pairs per lag, about 100 samples. */
-export const MIN_PAIRS_PER_LAG = 30;
+const MIN_PAIRS_PER_LAG = 30;
 export const RECOMMENDED_SAMPLES = 100;
 const DEFAULT_LAG_COUNT = 15;
 const DEFAULT_MAX_PAIRS = (5000 * 4999) / 2;

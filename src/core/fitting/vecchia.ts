@@ -176,7 +176,7 @@ function whiten(
 }
 
 /** Families by number, so a pass's parameters travel between threads as numbers. */
-export const PASS_FAMILIES: readonly Family[] = ['matern', 'exponential', 'spherical', 'gaussian'];
+const PASS_FAMILIES: readonly Family[] = ['matern', 'exponential', 'spherical', 'gaussian'];
 
 /**
  * Everything one whitening pass reads (ordered centred coordinates, earlier-neighbour lists, ordered

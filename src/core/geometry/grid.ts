@@ -171,7 +171,7 @@ export function cellCount(grid: Grid): number {
 }
 
 /** True when cell k (row-major index) is inside the area. */
-export function isActive(grid: Grid, k: number): boolean {
+function isActive(grid: Grid, k: number): boolean {
   return !grid.mask || grid.mask[k] === 1;
 }
 
@@ -268,12 +268,23 @@ export function autoCellSize(width: number, height: number, target = 40_000): nu
 
 /** Bounding box of points. */
 export function extentOf(x: ArrayLike<number>, y: ArrayLike<number>): { xmin: number; ymin: number; xmax: number; ymax: number } {
+  return extentOfAll([x], [y]);
+}
+
+/**
+ * Bounding box of several point sets together (`xs[k]`, `ys[k]` one set's coordinates), e.g. the
+ * samples and the candidate sites; Infinity/-Infinity bounds when there is no point at all.
+ */
+export function extentOfAll(xs: readonly ArrayLike<number>[], ys: readonly ArrayLike<number>[]): { xmin: number; ymin: number; xmax: number; ymax: number } {
   let xmin = Infinity, ymin = Infinity, xmax = -Infinity, ymax = -Infinity;
-  for (let i = 0; i < x.length; i++) {
-    if (x[i] < xmin) xmin = x[i];
-    if (x[i] > xmax) xmax = x[i];
-    if (y[i] < ymin) ymin = y[i];
-    if (y[i] > ymax) ymax = y[i];
+  for (let k = 0; k < xs.length; k++) {
+    const x = xs[k], y = ys[k];
+    for (let i = 0; i < x.length; i++) {
+      if (x[i] < xmin) xmin = x[i];
+      if (x[i] > xmax) xmax = x[i];
+      if (y[i] < ymin) ymin = y[i];
+      if (y[i] > ymax) ymax = y[i];
+    }
   }
   return { xmin, ymin, xmax, ymax };
 }

@@ -113,20 +113,30 @@ function factorBlockColumn(a: Float64Array, n: number, kb: number, ke: number): 
   for (let sb = kb; sb < ke; sb += SUB) {
     const se = Math.min(sb + SUB, ke);
     if (sb > kb) subtractRowProducts(a, n, sb, n, sb, se, kb, sb);
-    for (let j = sb; j < se; j++) {
-      const rowJ = j * n;
-      let d = a[rowJ + j];
-      for (let p = sb; p < j; p++) d -= a[rowJ + p] * a[rowJ + p];
-      if (!(d > 0)) return false;
-      const ljj = Math.sqrt(d);
-      a[rowJ + j] = ljj;
-      const inv = 1 / ljj;
-      for (let i = j + 1; i < n; i++) {
-        const rowI = i * n;
-        let s = a[rowI + j];
-        for (let p = sb; p < j; p++) s -= a[rowI + p] * a[rowJ + p];
-        a[rowI + j] = s * inv;
-      }
+    if (!factorColumns(a, n, sb, se)) return false;
+  }
+  return true;
+}
+
+/**
+ * Columns `from` to `to` − 1 of L, column by column, with the products of columns `from` onwards
+ * subtracted here (earlier columns' products already taken off): the pivot, then the rows below it.
+ * Returns false when a pivot is not positive.
+ */
+function factorColumns(a: Float64Array, n: number, from: number, to: number): boolean {
+  for (let j = from; j < to; j++) {
+    const rowJ = j * n;
+    let d = a[rowJ + j];
+    for (let p = from; p < j; p++) d -= a[rowJ + p] * a[rowJ + p];
+    if (!(d > 0)) return false;
+    const ljj = Math.sqrt(d);
+    a[rowJ + j] = ljj;
+    const inv = 1 / ljj;
+    for (let i = j + 1; i < n; i++) {
+      const rowI = i * n;
+      let s = a[rowI + j];
+      for (let p = from; p < j; p++) s -= a[rowI + p] * a[rowJ + p];
+      a[rowI + j] = s * inv;
     }
   }
   return true;
@@ -163,21 +173,7 @@ export function choleskyBlockedInPlace(a: Float64Array, n: number): boolean {
  * reference the blocked version is tested and benchmarked against.
  */
 export function choleskyUnblockedInPlace(a: Float64Array, n: number): boolean {
-  for (let j = 0; j < n; j++) {
-    const rowJ = j * n;
-    let d = a[rowJ + j];
-    for (let k = 0; k < j; k++) d -= a[rowJ + k] * a[rowJ + k];
-    if (!(d > 0)) return false;
-    const ljj = Math.sqrt(d);
-    a[rowJ + j] = ljj;
-    const inv = 1 / ljj;
-    for (let i = j + 1; i < n; i++) {
-      const rowI = i * n;
-      let s = a[rowI + j];
-      for (let k = 0; k < j; k++) s -= a[rowI + k] * a[rowJ + k];
-      a[rowI + j] = s * inv;
-    }
-  }
+  if (!factorColumns(a, n, 0, n)) return false;
   for (let i = 0; i < n; i++) a.fill(0, i * n + i + 1, i * n + n);
   return true;
 }

@@ -39,7 +39,7 @@ import { checkSurfaceCell, rangeOf, type SurfaceArray, type SurfaceResult } from
 /** Default discretisation: 4×4 points per block (common practice). */
 export const DEFAULT_BLOCK_POINTS = 4;
 /** Most discretisation points per side accepted (k² covariances per block and sample). */
-export const MAX_BLOCK_POINTS = 64;
+const MAX_BLOCK_POINTS = 64;
 
 /** Block shape (plain data). */
 export interface BlockShape {

@@ -74,7 +74,7 @@ export function countAbove(values: ArrayLike<number>, threshold: number): number
 }
 
 /** Number of non-NaN cells. */
-export function countActive(values: ArrayLike<number>): number {
+function countActive(values: ArrayLike<number>): number {
   let c = 0;
   for (let k = 0; k < values.length; k++) if (!Number.isNaN(values[k])) c++;
   return c;

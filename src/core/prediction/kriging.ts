@@ -495,7 +495,7 @@ export function checkPredictionFinite<P extends Prediction>(model: CovarianceMod
  * Covariance of the GLS trend coefficients, (XᵀK⁻¹X)⁻¹ = Lg⁻ᵀLg⁻¹ in the system's columns (p×p,
  * row-major); on the kriging scale (ln for a log model).
  */
-export function trendCovariance(sys: KrigingSystem): Float64Array {
+function trendCovariance(sys: KrigingSystem): Float64Array {
   const p = sys.p;
   const V = new Float64Array(p * p);
   const e = new Float64Array(p);

@@ -46,7 +46,7 @@ import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
 export const MAX_GROWN_NEIGHBORS = 512;
 /** Largest neighbourhood the growth tries when the reference is itself a neighbourhood (REFERENCE_NEIGHBORS). */
-export const MAX_GROWN_NEIGHBORS_LARGE = 256;
+const MAX_GROWN_NEIGHBORS_LARGE = 256;
 
 /** The largest neighbourhood the growth tries for n samples. */
 export function maxGrownNeighbors(samples: number): number {
@@ -148,7 +148,7 @@ export function priorSdOf(model: CovarianceModel): number {
 }
 
 /** Largest and RMS differences of `local` from `reference`, % of `priorSd`. */
-export function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, priorSd: number): ErrorFigures {
+function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, priorSd: number): ErrorFigures {
   let max = 0;
   let ss = 0;
   for (let k = 0; k < reference.length; k++) {

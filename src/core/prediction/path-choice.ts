@@ -195,11 +195,6 @@ export function parseTolerance(text: string, defaults: Tolerance = DEFAULT_TOLER
   return out;
 }
 
-/** "mean 1 %, sd 2 %" */
-export function describeTolerance(t: Tolerance): string {
-  return `mean within ${t.mean} %, sd within ${t.sd} % of the prior sd`;
-}
-
 /**
  * Estimated multiply-adds of measuring a local run at `targets` targets against its reference (the
  * `reference` term of localCost): exact kriging from all samples up to MAX_EXACT_SAMPLES, above that

@@ -164,12 +164,17 @@ export function computeSurfaceWith(
     done += m;
     onProgress?.(done, total);
   }
-  const result: SurfaceResult = {
-    rows: [r0, r1], nx, mean, sd,
-    range: { mean: rangeOf(mean), sd: rangeOf(sd) },
-    cells: total,
-    warnings: [...predictor.warnings],
-  };
+  return surfaceResult({ rows: [r0, r1], nx, mean, sd, pExceed, median, threshold, cells: total, warnings: [...predictor.warnings] });
+}
+
+/** The layers of a band as a SurfaceResult, with each layer's range; P(exceed) and the median only when computed. */
+export function surfaceResult(band: {
+  rows: [number, number]; nx: number; mean: SurfaceArray; sd: SurfaceArray;
+  pExceed?: SurfaceArray | null; median?: SurfaceArray | null; threshold?: number;
+  cells: number; warnings: Warning[];
+}): SurfaceResult {
+  const { rows, nx, mean, sd, pExceed, median, threshold, cells, warnings } = band;
+  const result: SurfaceResult = { rows, nx, mean, sd, range: { mean: rangeOf(mean), sd: rangeOf(sd) }, cells, warnings };
   if (pExceed) {
     result.pExceed = pExceed;
     result.threshold = threshold;

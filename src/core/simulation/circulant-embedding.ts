@@ -37,9 +37,9 @@ import { createFft2Plan, nextFastLength, type Fft2Plan } from './fft.ts';
 import type { Random } from '../shared/random.ts';
 
 /** Default cap on torus nodes (mx·my). */
-export const DEFAULT_MAX_EMBEDDING = 1 << 22;
+const DEFAULT_MAX_EMBEDDING = 1 << 22;
 /** Relative covariance error ε accepted without comment (round-off level). */
-export const EMBEDDING_TOLERANCE = 1e-8;
+const EMBEDDING_TOLERANCE = 1e-8;
 
 /** A lattice of nx columns (east) by ny rows (south) with spacing h metres. */
 export interface Lattice {

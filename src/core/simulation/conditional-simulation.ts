@@ -62,7 +62,7 @@ import type { Grid } from '../geometry/grid.ts';
 import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from '../prediction/exceedance-area.ts';
 
 /** Up to this many samples the residuals are kriged from all samples. */
-export const DENSE_LIMIT = 2000;
+const DENSE_LIMIT = 2000;
 /** Default neighbourhood for local kriging of the residuals. */
 export const DEFAULT_SIMULATION_NEIGHBORS = 64;
 /** Most realisations in one call. */

@@ -9,10 +9,10 @@ import { modelCurve } from '../state/structure.ts';
 import { formatValue } from '../../io/format.ts';
 
 /** MSSE outside [MSSE_LOW, MSSE_HIGH] is called poor (common practice: about 1 when the sd is right). */
-export const MSSE_LOW = 0.5;
-export const MSSE_HIGH = 2;
+const MSSE_LOW = 0.5;
+const MSSE_HIGH = 2;
 /** The model's semivariance at the largest lag below this share of the empirical plateau is called low. */
-export const PLATEAU_SHARE = 0.7;
+const PLATEAU_SHARE = 0.7;
 
 /**
  * The empirical plateau: the pair-weighted mean semivariance of the lag classes in the outer third of

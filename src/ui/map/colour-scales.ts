@@ -37,44 +37,34 @@ export interface ScaleSpec {
   stops: OklchStop[];
 }
 
+/** A scale from its stops written as [t, L, C, h] rows. */
+function scale(name: ScaleName, kind: ScaleSpec['kind'], purpose: string, rows: readonly (readonly [number, number, number, number])[]): ScaleSpec {
+  return { name, kind, purpose, stops: rows.map(([t, L, C, h]) => ({ t, L, C, h })) };
+}
+
 export const SCALES: Readonly<Record<ScaleName, ScaleSpec>> = {
-  loam: {
-    name: 'loam',
-    kind: 'sequential',
-    purpose: 'Estimated value (mean): darker is lower, lighter and warmer is higher.',
-    stops: [
-      { t: 0, L: 0.26, C: 0.06, h: 290 },
-      { t: 0.25, L: 0.42, C: 0.1, h: 340 },
-      { t: 0.5, L: 0.58, C: 0.13, h: 393 },
-      { t: 0.75, L: 0.75, C: 0.13, h: 432 },
-      { t: 1, L: 0.93, C: 0.1, h: 458 },
-    ],
-  },
-  haze: {
-    name: 'haze',
-    kind: 'sequential',
-    purpose: 'Uncertainty (sd): deep ink where the map is sure, pale fog where it is not.',
-    stops: [
-      { t: 0, L: 0.3, C: 0.1, h: 268 },
-      { t: 0.5, L: 0.62, C: 0.075, h: 232 },
-      { t: 1, L: 0.965, C: 0.015, h: 195 },
-    ],
-  },
-  tide: {
-    name: 'tide',
-    kind: 'diverging',
-    purpose: 'Chance of exceeding the threshold: blue unlikely, orange likely, pale at even odds.',
-    stops: [
-      { t: 0, L: 0.5, C: 0.13, h: 258 },
-      { t: 0.25, L: 0.73, C: 0.085, h: 250 },
-      // Two stops at 0.5, both grey: each arm fades to neutral in its own hue instead of turning
-      // through green on the way from blue to orange.
-      { t: 0.5, L: 0.96, C: 0, h: 245 },
-      { t: 0.5, L: 0.96, C: 0, h: 70 },
-      { t: 0.75, L: 0.73, C: 0.11, h: 62 },
-      { t: 1, L: 0.5, C: 0.14, h: 45 },
-    ],
-  },
+  loam: scale('loam', 'sequential', 'Estimated value (mean): darker is lower, lighter and warmer is higher.', [
+    [0, 0.26, 0.06, 290],
+    [0.25, 0.42, 0.1, 340],
+    [0.5, 0.58, 0.13, 393],
+    [0.75, 0.75, 0.13, 432],
+    [1, 0.93, 0.1, 458],
+  ]),
+  haze: scale('haze', 'sequential', 'Uncertainty (sd): deep ink where the map is sure, pale fog where it is not.', [
+    [0, 0.3, 0.1, 268],
+    [0.5, 0.62, 0.075, 232],
+    [1, 0.965, 0.015, 195],
+  ]),
+  tide: scale('tide', 'diverging', 'Chance of exceeding the threshold: blue unlikely, orange likely, pale at even odds.', [
+    [0, 0.5, 0.13, 258],
+    [0.25, 0.73, 0.085, 250],
+    // Two stops at 0.5, both grey: each arm fades to neutral in its own hue instead of turning
+    // through green on the way from blue to orange.
+    [0.5, 0.96, 0, 245],
+    [0.5, 0.96, 0, 70],
+    [0.75, 0.73, 0.11, 62],
+    [1, 0.5, 0.14, 45],
+  ]),
 };
 
 export const SCALE_NAMES: readonly ScaleName[] = ['loam', 'haze', 'tide'];
@@ -107,12 +97,12 @@ export function linearSrgbToOklab(r: number, g: number, b: number): [number, num
 }
 
 /** sRGB transfer function (IEC 61966-2-1): encoded 0..1 → linear 0..1. */
-export function srgbToLinear(v: number): number {
+function srgbToLinear(v: number): number {
   return v <= 0.04045 ? v / 12.92 : ((v + 0.055) / 1.055) ** 2.4;
 }
 
 /** Linear 0..1 → encoded 0..1. */
-export function linearToSrgb(v: number): number {
+function linearToSrgb(v: number): number {
   return v <= 0.0031308 ? 12.92 * v : 1.055 * v ** (1 / 2.4) - 0.055;
 }
 
@@ -220,7 +210,7 @@ export function classColours(scale: ScaleName, steps: number): Rgb[] {
  * Machado, Oliveira & Fernandes (2009), "A physiologically-based model for simulation of color
  * vision deficiency", IEEE TVCG 15(6):1291–1298, Table 2, severity 1.0; applied to linear RGB.
  */
-export const CVD_MATRICES = {
+const CVD_MATRICES = {
   protanopia: [
     [0.152286, 1.052583, -0.204868],
     [0.114503, 0.786281, 0.099216],

@@ -6,6 +6,7 @@
 import { SCALES, colourAt, hex, type ScaleName } from './colour-scales.ts';
 import { html, type Markup } from '../../io/markup.ts';
 import { niceTicks } from '../../io/ticks.ts';
+import { logTicks } from '../../io/report-svg.ts';
 
 export type LegendKind = 'mean' | 'sd' | 'pExceed';
 
@@ -63,19 +64,6 @@ export interface LegendData {
   note?: string;
 }
 
-/** Ticks for a log colour scale: 1, 2 and 5 × 10^k inside [min, max] (every decade when there are many). */
-export function logScaleTicks(min: number, max: number): number[] {
-  if (!(min > 0) || !(max > min)) return [];
-  const out: number[] = [];
-  for (let e = Math.floor(Math.log10(min)); e <= Math.ceil(Math.log10(max)); e++) {
-    for (const m of [1, 2, 5]) {
-      const v = Number((m * 10 ** e).toPrecision(12));
-      if (v >= min * (1 - 1e-12) && v <= max * (1 + 1e-12)) out.push(v);
-    }
-  }
-  return out.length > 7 ? out.filter((v) => Number(v.toPrecision(1)) === 10 ** Math.round(Math.log10(v))) : out;
-}
-
 const DEFAULT_SCALE: Record<LegendKind, ScaleName> = { mean: 'loam', sd: 'haze', pExceed: 'tide' };
 
 /** Decimals needed to show numbers spaced `step` apart. */
@@ -124,7 +112,7 @@ export function legendData(options: LegendOptions): LegendData {
     : (v: number) => (span > 0 ? (v - lo) / span : 0.5);
   const gradient = Array.from({ length: 11 }, (_, k) => ({ t: k / 10, colour: hex(colourAt(scale, k / 10)) }));
 
-  const logValues = log ? logScaleTicks(lo, hi) : [];
+  const logValues = log ? logTicks(lo, hi) : [];
   const values = kind === 'pExceed' && lo === 0 && hi === 1 ? [0, 0.25, 0.5, 0.75, 1]
     : logValues.length >= 2 ? logValues : niceTicks(lo, hi, options.ticks ?? 5);
   const step = values.length > 1 ? values[1] - values[0] : Math.abs(lo) / 100 || 1;

@@ -11,10 +11,10 @@
 import L from 'leaflet';
 
 /** Time spent placing markers in one task before the rest waits for the next one, ms. */
-export const MARKER_SLICE_MS = 20;
+const MARKER_SLICE_MS = 20;
 
-export const BASE_STYLE = { radius: 5, weight: 1.2, color: '#1f2b33' };
-export const SELECTED_STYLE = { radius: 8, weight: 3, color: '#000000' };
+const BASE_STYLE = { radius: 5, weight: 1.2, color: '#1f2b33' };
+const SELECTED_STYLE = { radius: 8, weight: 3, color: '#000000' };
 
 export class SampleMarkers {
   private markers: L.CircleMarker[] = [];

@@ -84,7 +84,7 @@ interface PaintJob {
 const PAINT_TASK_BUDGET_MS = 12;
 
 /** Pixels each tile reaches past its right and bottom edges (covers seams at fractional zoom). */
-export const OVERLAP = 1;
+const OVERLAP = 1;
 
 /** What the tests read back at a page position: the value drawn there and the cell centre. */
 export interface SurfaceProbe {
@@ -367,7 +367,3 @@ ownProto._initTile = function (this: GridInternals, ...args: unknown[]) {
 // Leaflet's way of declaring option defaults: on the prototype, inheriting GridLayer's.
 SurfaceLayer.prototype.options = L.Util.extend(Object.create(L.GridLayer.prototype.options), DEFAULTS);
 
-/** Factory in Leaflet's style (`L.gridLayer(...)`). */
-export function surfaceLayer(options?: SurfaceLayerOptions): SurfaceLayer {
-  return new SurfaceLayer(options);
-}

@@ -24,7 +24,7 @@ export interface SavedRaster {
 export const MAX_SAVED_RASTER_BYTES = 100 * 1024 * 1024;
 
 /** Rasters kept at most (one per covariate; a model rarely has more than a few). */
-export const MAX_SAVED_RASTERS = 20;
+const MAX_SAVED_RASTERS = 20;
 
 /** The stored raster list, checked: entries with a name, a file name and bytes; others dropped. */
 export function parseRasters(v: unknown): SavedRaster[] {
@@ -47,7 +47,7 @@ export interface KeyValueStore {
   del(key: string): Promise<void>;
 }
 
-export const indexedDbStore: KeyValueStore = {
+const indexedDbStore: KeyValueStore = {
   get: (key) => get(key),
   set: (key, value) => set(key, value),
   del: (key) => del(key),

@@ -29,7 +29,7 @@ export function previewColumn(intake: IntakeResult, name: string): SourceColumn 
 }
 
 /** The trend a list of chosen covariate columns gives (constant + those columns), or null for none. */
-export function chosenTrend(names: readonly string[]): CovariateTrend | null {
+function chosenTrend(names: readonly string[]): CovariateTrend | null {
   return names.length > 0 ? { covariates: [...names] } : null;
 }
 

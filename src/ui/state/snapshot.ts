@@ -8,10 +8,10 @@ import type { CovarianceModel } from '../../core/covariance/model.ts';
 import { parseModel } from '../../core/covariance/model.ts';
 import type { NonDetectRule } from '../../io/types.ts';
 
-export const SNAPSHOT_VERSION = 1;
+const SNAPSHOT_VERSION = 1;
 
 export type StepId = 'samples' | 'structure' | 'surface' | 'next' | 'report';
-export const STEP_IDS: readonly StepId[] = ['samples', 'structure', 'surface', 'next', 'report'];
+const STEP_IDS: readonly StepId[] = ['samples', 'structure', 'surface', 'next', 'report'];
 
 export type FitMethod = 'reml' | 'wls';
 export type SurfaceLayerId = 'mean' | 'sd' | 'exceed';

@@ -9,7 +9,7 @@ import type { Suggestion as ProjectSuggestion } from '../../io/project.ts';
 import type { Session } from './session.svelte.ts';
 import { CAUTION } from '../../core/shared/caution.ts';
 
-export class SuggestionsState {
+class SuggestionsState {
   /** The app's session (registered by the map view, which every page has). */
   session = $state.raw<Session | null>(null);
   /** The last design, its options and the samples version it was made from. */

@@ -20,7 +20,7 @@ export interface TestHook {
   contourLines(): Array<{ level: number; action: boolean; lines: number }> | null;
 }
 
-export function testHookEnabled(): boolean {
+function testHookEnabled(): boolean {
   if (import.meta.env.DEV) return true;
   try {
     return new URLSearchParams(globalThis.location?.search ?? '').has('gapwise-test');

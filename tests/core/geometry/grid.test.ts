@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import {
-  MAX_CELLS, MAX_GRID_SIDE, MAX_PADDING, cellCentre, cellCentres, cellCount, cellIndexAt, estimateSurfaceCost, fractionalIndex, planSurfaceGrid,
+  MAX_CELLS, MAX_GRID_SIDE, MAX_PADDING, cellCentre, extentOf, extentOfAll, cellCentres, cellCount, cellIndexAt, estimateSurfaceCost, fractionalIndex, planSurfaceGrid,
   gridBounds, gridForPolygons, gridFromExtent, type Polygon,
 } from '../../../src/core/geometry/grid.ts';
 import { GapwiseError } from '../../../src/core/shared/errors.ts';
@@ -36,6 +36,15 @@ function inside(poly: Polygon, x: number, y: number): boolean {
   }
   return c;
 }
+
+describe('extentOfAll', () => {
+  it('extentOfAll bounds every set together, extentOf one set, and no point gives empty bounds', () => {
+    const a = extentOfAll([[0, 4], new Float64Array([-2])], [[1, 3], new Float64Array([7])]);
+    expect(a).toEqual({ xmin: -2, ymin: 1, xmax: 4, ymax: 7 });
+    expect(extentOf([5, -1, 2], [0, 9, 3])).toEqual({ xmin: -1, ymin: 0, xmax: 5, ymax: 9 });
+    expect(extentOfAll([], [])).toEqual({ xmin: Infinity, ymin: Infinity, xmax: -Infinity, ymax: -Infinity });
+  });
+});
 
 describe('gridFromExtent', () => {
   it('gridFromExtent snaps corners outward to multiples of the cell and covers the padded extent', () => {

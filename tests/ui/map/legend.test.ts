@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { formatValue, legendData, legendSvg, logScaleTicks } from '../../../src/ui/map/legend.ts';
+import { formatValue, legendData, legendSvg } from '../../../src/ui/map/legend.ts';
+import { logTicks } from '../../../src/io/report-svg.ts';
 import { escapeText } from '../../../src/io/markup.ts';
 import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
 
@@ -87,7 +88,7 @@ describe('legendData with log colours and the action level', () => {
     expect(d.ticks.find((t) => t.value === 100)!.t).toBeCloseTo(0.5, 12); // ln-midpoint of 10 and 1000
     expect(d.mark!.t).toBeCloseTo(Math.log(20) / Math.log(100), 12);
     expect(d.mark!.label).toBe('action level 200 mg/kg');
-    expect(logScaleTicks(0.5, 3)).toEqual([0.5, 1, 2]);
+    expect(logTicks(0.5, 3)).toEqual([0.5, 1, 2]);
   });
 
   it('legendData names the action level in a line for exceedance, and when it lies outside the mean domain', () => {
