@@ -59,7 +59,7 @@ export async function runDesignBench(options: { quick?: boolean; large?: boolean
   const large: Row[] = [];
   if (options.large) {
     const big = makeSamples(5000, side, 2);
-    const pathText = (r: DesignResult) => `${r.path!.path}${r.path!.neighbors ? ` (${r.path!.neighbors} neighbours)` : ''}: ${r.path!.reason}${r.path!.accuracy ? `; measured mean ${r.path!.accuracy.mean.max.toFixed(2)} %, sd ${r.path!.accuracy.sd.max.toFixed(2)} % of the prior sd` : ''}`;
+    const pathText = (r: DesignResult) => `${r.path!.path}${r.path!.neighbours ? ` (${r.path!.neighbours} neighbours)` : ''}: ${r.path!.reason}${r.path!.accuracy ? `; measured mean ${r.path!.accuracy.mean.max.toFixed(2)} %, sd ${r.path!.accuracy.sd.max.toFixed(2)} % of the prior sd` : ''}`;
     const exact = time(() => suggestSites(big, MODEL, { ...base, mode: 'variance', path: 'exact' }));
     log(`variance, 5,000 samples, exact posterior: ${exact.seconds.toFixed(2)} s (CPU ${exact.cpu.toFixed(2)} s), average sd ${exact.value.averageSdBefore!.toFixed(4)} → ${exact.value.averageSdAfter!.toFixed(4)}`);
     const auto = time(() => suggestSites(big, MODEL, { ...base, mode: 'variance' }));

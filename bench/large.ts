@@ -128,7 +128,7 @@ async function partA(quick: boolean): Promise<Row[]> {
   let local = exact;
   for (let rep = 0; rep < 3; rep++) {
     t0 = performance.now();
-    local = createLocalPredictor(samples, model, { neighbors: 64, targetSpacing: side / g }).predict(tx, ty);
+    local = createLocalPredictor(samples, model, { neighbours: 64, targetSpacing: side / g }).predict(tx, ty);
     localTimes.push(seconds(t0));
   }
   let worstMean = 0;
@@ -149,7 +149,7 @@ async function partA(quick: boolean): Promise<Row[]> {
   const poolTimes: number[] = [];
   for (let rep = 0; rep < 3; rep++) {
     t0 = performance.now();
-    await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbors: 64 }, surface: { precision: 'float64' } });
+    await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbours: 64 }, surface: { precision: 'float64' } });
     poolTimes.push(seconds(t0));
   }
   const workers = availableParallelism();
@@ -222,7 +222,7 @@ async function partB(quick: boolean): Promise<Row[]> {
   const grid: Grid = { x0: 500000, y0: 6000000 + side, cell: side / cells, nx: cells, ny: cells };
   t0 = performance.now();
   c0 = process.cpuUsage();
-  const surface = await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbors: 64, globalMean: true } });
+  const surface = await computeSurfaceParallel({ samples, model, grid, path: 'local', local: { neighbours: 64, globalMean: true } });
   const surfaceSeconds = seconds(t0);
   const surfaceCpu = cpuSeconds(c0);
   let finite = 0;

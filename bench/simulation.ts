@@ -58,9 +58,9 @@ async function largeRows(): Promise<Row[]> {
   const log = (s: string) => console.error(`  ${s}`);
   const auto = await timeAsync(() => simulateParallel(samples, MODEL, grid, { count, seed: 1, keepRealisations: false }, { workers: 1, choose: {} }));
   const p = auto.value.path!;
-  const how = `${p.choice.path}${p.neighbors ? ` (${p.neighbors} neighbours)` : ''}: ${p.choice.reason}${p.accuracy ? `; measured mean ${p.accuracy.mean.max.toFixed(2)} %, sd ${p.accuracy.sd.max.toFixed(2)} % of the prior sd` : ''}`;
+  const how = `${p.choice.path}${p.neighbours ? ` (${p.neighbours} neighbours)` : ''}: ${p.choice.reason}${p.accuracy ? `; measured mean ${p.accuracy.mean.max.toFixed(2)} %, sd ${p.accuracy.sd.max.toFixed(2)} % of the prior sd` : ''}`;
   log(`5,000 samples, chosen by cost: ${auto.seconds.toFixed(2)} s (CPU ${auto.cpu.toFixed(2)} s), ${how}`);
-  const local = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, keepRealisations: false, path: 'local', neighbors: 64 }));
+  const local = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, keepRealisations: false, path: 'local', neighbours: 64 }));
   const dense = await timeAsync(async () => buildKrigingSystem(samples, MODEL));
   log(`5,000 samples, local 64 without the dense system: ${local.seconds.toFixed(2)} s; the dense system the earlier code built as well: ${dense.seconds.toFixed(2)} s`);
   const exact = await timeAsync(async () => simulateConditional(samples, MODEL, grid, { count, seed: 1, keepRealisations: false, path: 'exact' }));

@@ -16,19 +16,6 @@ const MAX_LINES = 120;
  * an entry leaves when its function is split (the second test below says when that has happened).
  */
 const ALLOWED: Record<string, string> = {
-  'core/prediction/local-kriging.ts:createLocalPredictor': 'being split',
-  'core/prediction/local-accuracy.ts:predictLocalChecked': 'being split',
-  'core/simulation/conditional-simulation.ts:simulateConditional': 'being split',
-  'core/simulation/conditional-simulation.ts:localKriger': 'being split',
-  'core/simulation/fft.ts:createFftPlan': 'being split',
-  'core/design/design-greedy.ts:greedyDesign': 'being split',
-  'core/design/design.ts:suggestSites': 'being split',
-  'core/design/design-coverage.ts:coverageDesign': 'being split',
-  'io/report.ts:reportMain': 'being split',
-  'core/fitting/likelihood.ts:createLikelihood': 'being split',
-  'core/fitting/vecchia.ts:vecchiaFit': 'being split',
-  'core/fitting/fit.ts:fitByLikelihood': 'being split',
-  'ui/state/session.svelte.ts:computeSurface': 'being split',
 };
 
 interface FunctionSpan {

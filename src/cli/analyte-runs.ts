@@ -232,7 +232,7 @@ export function refuseSeveralAnalytes(command: string, request: string[] | typeo
 }
 
 /** Options of `report` that need one analyte (realisations and their settings). */
-const REPORT_ONE_ANALYTE = ['realizations', 'support', 'block-points', 'seed', 'depth', 'workers'];
+const REPORT_ONE_ANALYTE = ['realisations', 'support', 'block-points', 'seed', 'depth', 'workers'];
 
 /**
  * The project as a one-analyte project of `name` with `model`: the same samples text, reading

@@ -182,7 +182,7 @@ export function singleThreshold(values: OptionValues): OptionValues {
   return { ...values, threshold: v };
 }
 
-const UNSUPPORTED_IN_SET = ['project', 'support', 'realizations', 'levels', 'depth', 'seed', 'block-points'];
+const UNSUPPORTED_IN_SET = ['project', 'support', 'realisations', 'levels', 'depth', 'seed', 'block-points'];
 
 /** What `grid` for several analytes reads before it computes: the analytes, their models and samples. */
 interface AnalyteGridInput {
@@ -255,7 +255,7 @@ async function computeAnalyteSurfaces(
   const paths = intakes.map((intake) => readPredictionPath(values, intake.samples.value.length, { targets: cellCount(grid), threads }));
   for (const p of paths) printWarnings(io, p.warnings);
   const settings: LocalSettings[] = names.map((name, a) => ({
-    neighbors: Math.min(paths[a].neighbors, intakes[a].samples.value.length),
+    neighbours: Math.min(paths[a].neighbours, intakes[a].samples.value.length),
     globalMean: paths[a].globalMean && trendColumnCount(models.get(name)!.trend ?? 'constant') > 0,
   }));
   const jobOf = (a: number, how: 'exact' | LocalSettings): SurfaceJob => {
@@ -292,13 +292,13 @@ async function computeAnalyteSurfaces(
       const path = paths[a];
       const checked = await checkLocalSurface({
         samples: intakes[a].samples, model: models.get(names[a])!, grid, surface: results[a], settings: settings[a], tolerance: path.tolerance,
-        grow: !path.neighborsGiven, exactFallback: path.automatic,
+        grow: !path.neighboursGiven, exactFallback: path.automatic,
         rerun: (s) => computeSurfaceParallel(jobOf(a, s), { workers, onProgress: progress[a] }),
       }).catch((e: unknown) => failed(a, e));
       results[a] = checked.surface;
       used = checked.path === 'exact'
         ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
-        : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+        : { ...path, neighbours: checked.settings.neighbours, globalMean: checked.settings.globalMean };
       if (checked.path === 'local') accuracies.set(names[a], checked.accuracy);
       extra.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
     }

@@ -12,9 +12,9 @@ import { openInputFile, readInputText } from './input-file.ts';
 import { sampleLimitsText } from '../io/intake-limits.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../core/prediction/local-kriging.ts';
-import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS, chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance } from '../core/prediction/path-choice.ts';
-import { MAX_GROWN_NEIGHBORS } from '../core/prediction/local-accuracy.ts';
+import { DEFAULT_LOCAL_NEIGHBOURS } from '../core/prediction/local-kriging.ts';
+import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBOURS, chooseLeaveOneOutPath, choosePredictionPath, parseTolerance, type Tolerance } from '../core/prediction/path-choice.ts';
+import { MAX_GROWN_NEIGHBOURS } from '../core/prediction/local-accuracy.ts';
 import { booleanOption, numberOption, stringOption, type OptionSpec, type OptionValue } from './args.ts';
 import { writeFileSafely, type OutputData } from './safe-write.ts';
 import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
@@ -128,7 +128,7 @@ export function assignDefined<T extends object>(to: T, from: { [K in keyof T]?: 
 }
 
 /** Intake options from the common command-line options. */
-export function intakeOptions(values: OptionValues, file: string, workCrs?: string): IntakeOptions {
+function intakeOptions(values: OptionValues, file: string, workCrs?: string): IntakeOptions {
   return assignDefined<IntakeOptions>({ fileName: file }, {
     value: stringOption(values, 'value'),
     x: stringOption(values, 'x'),
@@ -329,21 +329,21 @@ export function count(n: number): string {
 
 /** Most samples `--exact` accepts: the dense system takes 8·n² bytes (800 MB at 10,000) in each worker. */
 const FORCED_EXACT_LIMIT = EXACT_SAMPLE_LIMIT;
-/** Largest `--neighbors` (local-kriging.ts accepts up to 2,000). */
-const MAX_NEIGHBORS = 2000;
+/** Largest `--neighbours` (local-kriging.ts accepts up to 2,000). */
+const MAX_NEIGHBOURS = 2000;
 
 /** How the automatic choice is made, for help texts (generated from the constants it uses). */
 export const AUTOMATIC_PATH_TEXT = `automatic: the cheaper of exact kriging and local neighbourhoods by estimated cost (samples, targets, threads); `
   + `a local run is checked against exact kriging at up to ${count(CHECK_COUNT)} seeded random targets (from ${count(MAX_EXACT_SAMPLES + 1)} samples: `
-  + `against the ${count(REFERENCE_NEIGHBORS)} nearest samples at ${count(LARGE_CHECK_COUNT)} targets), grown when it misses --tolerance, `
+  + `against the ${count(REFERENCE_NEIGHBOURS)} nearest samples at ${count(LARGE_CHECK_COUNT)} targets), grown when it misses --tolerance, `
   + `or replaced by exact kriging; never exact above ${count(EXACT_SAMPLE_LIMIT)} samples`;
 
 /** The options of predict, cv and grid that choose between exact kriging and local neighbourhoods. */
 export const PREDICTION_PATH_OPTIONS: OptionSpec[] = [
   {
-    name: 'neighbors', kind: 'number', placeholder: 'M',
+    name: 'neighbours', kind: 'number', placeholder: 'M',
     help: 'local neighbourhoods: each target is predicted from its M nearest samples (distance as the model measures it, anisotropy included); a whole number from 1 to 2,000; a given M is not grown',
-    unit: 'samples', defaultText: `${DEFAULT_LOCAL_NEIGHBORS}, grown up to ${MAX_GROWN_NEIGHBORS} when the measured error misses --tolerance`,
+    unit: 'samples', defaultText: `${DEFAULT_LOCAL_NEIGHBOURS}, grown up to ${MAX_GROWN_NEIGHBOURS} when the measured error misses --tolerance`,
   },
   {
     name: 'exact', kind: 'boolean',
@@ -372,9 +372,9 @@ export const PREDICTION_PATH_OPTIONS: OptionSpec[] = [
 export interface PredictionPath {
   path: 'exact' | 'local';
   /** Samples per neighbourhood on the local path (min(M, n) are used). */
-  neighbors: number;
-  /** True when --neighbors was given (the neighbourhood is then not grown). */
-  neighborsGiven: boolean;
+  neighbours: number;
+  /** True when --neighbours was given (the neighbourhood is then not grown). */
+  neighboursGiven: boolean;
   /** Local path: the GLS mean of all samples in every neighbourhood. */
   globalMean: boolean;
   /** True when cost and tolerance chose the path (no --exact, no --local). */
@@ -395,38 +395,38 @@ export interface PathJob {
 }
 
 /**
- * Reads --neighbors, --exact, --local, --tolerance, --global-mean and --local-mean for `n` samples
+ * Reads --neighbours, --exact, --local, --tolerance, --global-mean and --local-mean for `n` samples
  * and chooses the path (core/prediction/path-choice.ts) unless --exact or --local says. Throws
  * GapwiseError('bad-option') for contradictory or out-of-range values.
  */
 export function readPredictionPath(values: OptionValues, n: number, job: PathJob = { targets: n }): PredictionPath {
   const exact = booleanOption(values, 'exact');
   const local = booleanOption(values, 'local');
-  const given = numberOption(values, 'neighbors');
+  const given = numberOption(values, 'neighbours');
   const localMean = booleanOption(values, 'local-mean');
   if (exact && local) throw new GapwiseError('bad-option', 'Options "--exact" and "--local" contradict each other; expected at most one of them.');
   if (localMean && booleanOption(values, 'global-mean')) {
     throw new GapwiseError('bad-option', 'Options "--global-mean" and "--local-mean" contradict each other; expected at most one of them.');
   }
-  if (given !== undefined && !(Number.isInteger(given) && given >= 1 && given <= MAX_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Option "--neighbors" expects a whole number of samples from 1 to ${count(MAX_NEIGHBORS)}, got ${given}.`);
+  if (given !== undefined && !(Number.isInteger(given) && given >= 1 && given <= MAX_NEIGHBOURS)) {
+    throw new GapwiseError('bad-option', `Option "--neighbours" expects a whole number of samples from 1 to ${count(MAX_NEIGHBOURS)}, got ${given}.`);
   }
   if (exact && given !== undefined) {
-    throw new GapwiseError('bad-option', 'Option "--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact" (exact kriging uses all samples).');
+    throw new GapwiseError('bad-option', 'Option "--neighbours" sets the size of local neighbourhoods; it does not apply with "--exact" (exact kriging uses all samples).');
   }
   const toleranceText = stringOption(values, 'tolerance');
   const tolerance = toleranceText === undefined ? { ...DEFAULT_TOLERANCE } : parseTolerance(toleranceText);
   const force = exact ? 'exact' as const : local ? 'local' as const : undefined;
-  const neighbors = given ?? DEFAULT_LOCAL_NEIGHBORS;
+  const neighbours = given ?? DEFAULT_LOCAL_NEIGHBOURS;
   const choice = job.leaveOneOut
     ? chooseLeaveOneOutPath({ samples: n, tolerance, ...(force ? { force } : {}) })
-    : choosePredictionPath({ samples: n, targets: job.targets, threads: job.threads ?? 1, neighbors, tolerance, ...(force ? { force } : {}) });
+    : choosePredictionPath({ samples: n, targets: job.targets, threads: job.threads ?? 1, neighbours, tolerance, ...(force ? { force } : {}) });
   const warnings: string[] = [];
   if (choice.path === 'exact' && choice.automatic && given !== undefined) {
-    warnings.push(`--neighbors ${given} is not used: exact kriging from all ${count(n)} samples was chosen (${choice.reason}); add --local to predict from neighbourhoods.`);
+    warnings.push(`--neighbours ${given} is not used: exact kriging from all ${count(n)} samples was chosen (${choice.reason}); add --local to predict from neighbourhoods.`);
   }
   return {
-    path: choice.path, neighbors, neighborsGiven: given !== undefined, globalMean: !localMean, automatic: choice.automatic,
+    path: choice.path, neighbours, neighboursGiven: given !== undefined, globalMean: !localMean, automatic: choice.automatic,
     reason: choice.reason, tolerance, warnings,
   };
 }
@@ -442,7 +442,7 @@ export function describePredictionPath(
   if (p.path === 'exact') {
     return `${verb} by exact kriging from all ${count(n)} samples${p.automatic ? `; chosen automatically: ${p.reason} (--local overrides)` : ' (--exact)'}`;
   }
-  const m = Math.min(p.neighbors, n);
+  const m = Math.min(p.neighbours, n);
   const how = knownMean ? 'local neighbourhoods, around the known mean'
     : p.globalMean ? 'local neighbourhoods, with the GLS mean of all samples' : 'local neighbourhoods, the mean re-estimated in each';
   const why = p.automatic ? `; chosen automatically: ${p.reason} (--exact overrides)` : ' (--local)';

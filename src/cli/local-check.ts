@@ -28,7 +28,7 @@ export interface LocalSurfaceCheck {
   surface: SurfaceResult;
   settings: LocalSettings;
   tolerance: Tolerance;
-  /** Grow the neighbourhood when the tolerance is missed (false when --neighbors was given). */
+  /** Grow the neighbourhood when the tolerance is missed (false when --neighbours was given). */
   grow: boolean;
   /** Take exact kriging when no larger neighbourhood meets the tolerance (automatic choice only). */
   exactFallback: boolean;
@@ -158,7 +158,7 @@ async function growAffectedCells(
   const cells = first.centres.index;
   // A change of mean is not a change of size: the signal below does not see it.
   if (grown.globalMean !== start.globalMean) return null;
-  const half = await c.rerun({ ...start, neighbors: Math.max(1, Math.floor(start.neighbors / 2)) });
+  const half = await c.rerun({ ...start, neighbours: Math.max(1, Math.floor(start.neighbours / 2)) });
   const signal = cellMovement(surface, half, cells, log, priorSdOf(model));
   const { rerun } = affectedTargets(signal, first.idx, first.misses(surface, start), c.tolerance);
   if (2 * rerun.length > cells.length) return null;
@@ -195,25 +195,25 @@ export async function checkLocalSurface(c: LocalSurfaceCheck): Promise<CheckedSu
   if (accuracy.within || !c.grow) return { surface, path: 'local', settings, accuracy, attempts: [], notes: [] };
   const first = accuracy;
   const { settings: grown, attempts } = findGrowth(samples, model, check.cx, check.cy, check.reference, settings, { targetSpacing: c.grid.cell, ...(globalBeta ? { globalBeta } : {}) }, c.tolerance, check.cc);
-  const missed = `the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
+  const missed = `the ${first.neighbours} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
   if (grown) {
     const gm = grown.globalMean ? ' with the GLS mean of all samples' : '';
     const targeted = await growAffectedCells(c, check, surface, settings, grown, globalBeta);
     if (targeted) {
       const fresh = cellMeasurement(c, freshSeed(seed), globalBeta);
       accuracy = fresh.measure(targeted.surface, grown);
-      const note = `${missed}; grown to the ${grown.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${targeted.rerun.toLocaleString('en-US')} of ${check.centres.index.length.toLocaleString('en-US')} cells); measured again at a fresh subset (seed ${freshSeed(seed)})`;
+      const note = `${missed}; grown to the ${grown.neighbours} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${targeted.rerun.toLocaleString('en-US')} of ${check.centres.index.length.toLocaleString('en-US')} cells); measured again at a fresh subset (seed ${freshSeed(seed)})`;
       if (accuracy.within) return { surface: targeted.surface, path: 'local', settings: grown, accuracy, attempts, notes: [note] };
       surface = await c.rerun(grown);
       accuracy = fresh.measure(surface, grown);
-      return { surface, path: 'local', settings: grown, accuracy, attempts, notes: [note, `that missed the tolerance at the fresh subset; rerun for every cell with the ${grown.neighbors} nearest`] };
+      return { surface, path: 'local', settings: grown, accuracy, attempts, notes: [note, `that missed the tolerance at the fresh subset; rerun for every cell with the ${grown.neighbours} nearest`] };
     }
     settings = grown;
     surface = await c.rerun(settings);
     accuracy = check.measure(surface, settings);
     return {
       surface, path: 'local', settings, accuracy, attempts,
-      notes: [`${missed}; grown to the ${settings.neighbors} nearest${gm} and rerun for every cell (most cells still moved with the neighbourhood's size)`],
+      notes: [`${missed}; grown to the ${settings.neighbours} nearest${gm} and rerun for every cell (most cells still moved with the neighbourhood's size)`],
     };
   }
   if (c.exactFallback && n <= EXACT_SAMPLE_LIMIT) {

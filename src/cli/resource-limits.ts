@@ -1,6 +1,6 @@
 /**
  * Memory and output size of conditional realisations, estimated before any is drawn, so that
- * `simulate --count 10000 --cell 0.5` (or `grid --realizations`, `report --realizations`) is refused
+ * `simulate --count 10000 --cell 0.5` (or `grid --realisations`, `report --realisations`) is refused
  * at once with the numbers and the limit instead of running for an hour and failing or swapping.
  *
  * Estimate (bytes; an upper bound of the large arrays, not of every small one):

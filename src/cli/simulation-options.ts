@@ -2,9 +2,9 @@
  * Support and simulation choices shared by `gapwise grid` and `gapwise simulate`: the option specs,
  * reading them into a plain choice, and the extra surfaces they produce.
  *
- * `grid` lists GRID_SIMULATION_OPTIONS (--support point|block, --block-points K, --realizations N,
+ * `grid` lists GRID_SIMULATION_OPTIONS (--support point|block, --block-points K, --realisations N,
  * --seed S, --depth D); `simulate` lists SIMULATE_OPTIONS (the same with --count N instead of
- * --realizations). With --support block and no realisations, cells are block-kriged averages
+ * --realisations). With --support block and no realisations, cells are block-kriged averages
  * (core/prediction/block-kriging.ts); with realisations, P(exceed) comes from conditional simulation
  * (core/simulation/conditional-simulation.ts) and the area above the threshold gets a median and 90 % interval.
  * A log model with --support block needs realisations (block averages of a lognormal surface have
@@ -16,9 +16,9 @@ import type { CovarianceModel } from '../core/covariance/model.ts';
 import type { Samples } from '../core/shared/samples.ts';
 import type { Grid } from '../core/geometry/grid.ts';
 import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/prediction/block-kriging.ts';
-import { DEFAULT_SIMULATION_NEIGHBORS, MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
+import { DEFAULT_SIMULATION_NEIGHBOURS, MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
 import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, parseTolerance } from '../core/prediction/path-choice.ts';
-import { MAX_LOCAL_NEIGHBORS } from '../core/prediction/local-kriging.ts';
+import { MAX_LOCAL_NEIGHBOURS } from '../core/prediction/local-kriging.ts';
 import { describeAccuracy } from '../core/prediction/local-accuracy.ts';
 import type { SimulationPath } from '../core/simulation/simulation-path.ts';
 import type { ExceedanceAreaSummary } from '../core/prediction/exceedance-area.ts';
@@ -62,22 +62,22 @@ export async function namingAsync<T>(files: { samples?: string; model?: string }
 export const GRID_SIMULATION_OPTIONS: OptionSpec[] = [
   SUPPORT,
   BLOCK_POINTS,
-  { name: 'realizations', kind: 'number', placeholder: 'N', help: 'conditional realisations for P(exceed) and the area above --threshold with its 5–95 % interval', defaultText: 'none (closed-form kriging)' },
+  { name: 'realisations', kind: 'number', placeholder: 'N', help: 'conditional realisations for P(exceed) and the area above --threshold with its 5–95 % interval', defaultText: 'none (closed-form kriging)' },
   SEED,
   DEPTH,
 ];
 
 /** How the choice of exact or local conditioning is made, for help texts (generated from its constants). */
-export const AUTOMATIC_SIMULATION_PATH_TEXT = 'automatic: the cheaper of kriging the residuals from all samples and from local neighbourhoods by estimated cost '
+const AUTOMATIC_SIMULATION_PATH_TEXT = 'automatic: the cheaper of kriging the residuals from all samples and from local neighbourhoods by estimated cost '
   + '(samples, lattice nodes, realisations, threads); a local run is measured against exact kriging at seeded random nodes, grown when it misses '
   + `--tolerance, or replaced by exact conditioning; never exact above ${countText(EXACT_SAMPLE_LIMIT)} samples`;
 
 /** The options of `simulate` that choose between exact and local conditioning. */
-export const SIMULATION_PATH_OPTIONS: OptionSpec[] = [
+const SIMULATION_PATH_OPTIONS: OptionSpec[] = [
   {
-    name: 'neighbors', kind: 'number', placeholder: 'M', unit: 'samples',
-    help: `local conditioning: the residuals at each lattice node are kriged from its M nearest samples (1 to ${countText(MAX_LOCAL_NEIGHBORS)}); a given M is not grown`,
-    defaultText: `${DEFAULT_SIMULATION_NEIGHBORS}, grown when the measured error misses --tolerance`,
+    name: 'neighbours', kind: 'number', placeholder: 'M', unit: 'samples',
+    help: `local conditioning: the residuals at each lattice node are kriged from its M nearest samples (1 to ${countText(MAX_LOCAL_NEIGHBOURS)}); a given M is not grown`,
+    defaultText: `${DEFAULT_SIMULATION_NEIGHBOURS}, grown when the measured error misses --tolerance`,
   },
   { name: 'exact', kind: 'boolean', help: `condition by kriging from all samples whatever their number (memory 8·n² bytes per thread; up to ${countText(EXACT_SAMPLE_LIMIT)} samples)`, defaultText: AUTOMATIC_SIMULATION_PATH_TEXT },
   { name: 'local', kind: 'boolean', help: 'condition from local neighbourhoods whatever the number of samples (their error is still measured and reported)', defaultText: 'automatic, as for --exact' },
@@ -98,29 +98,29 @@ export const SIMULATE_OPTIONS: OptionSpec[] = [
   ...SIMULATION_PATH_OPTIONS,
 ];
 
-/** What --exact, --local, --neighbors and --tolerance ask of the conditioning (plain data). */
+/** What --exact, --local, --neighbours and --tolerance ask of the conditioning (plain data). */
 export interface SimulationPathRequest {
   force?: 'exact' | 'local';
-  neighbors?: number;
+  neighbours?: number;
   tolerance: { mean: number; sd: number };
 }
 
-/** Reads --exact, --local, --neighbors and --tolerance. Throws GapwiseError('bad-option') for contradictory or out-of-range values. */
+/** Reads --exact, --local, --neighbours and --tolerance. Throws GapwiseError('bad-option') for contradictory or out-of-range values. */
 export function readSimulationPathRequest(values: OptionValues): SimulationPathRequest {
   const exact = booleanOption(values, 'exact');
   const local = booleanOption(values, 'local');
-  const neighbors = numberOption(values, 'neighbors');
+  const neighbours = numberOption(values, 'neighbours');
   if (exact && local) throw new GapwiseError('bad-option', 'Options "--exact" and "--local" contradict each other; expected at most one of them.');
-  if (neighbors !== undefined && !(Number.isInteger(neighbors) && neighbors >= 1 && neighbors <= MAX_LOCAL_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Option "--neighbors" expects a whole number of samples from 1 to ${countText(MAX_LOCAL_NEIGHBORS)}, got ${neighbors}.`);
+  if (neighbours !== undefined && !(Number.isInteger(neighbours) && neighbours >= 1 && neighbours <= MAX_LOCAL_NEIGHBOURS)) {
+    throw new GapwiseError('bad-option', `Option "--neighbours" expects a whole number of samples from 1 to ${countText(MAX_LOCAL_NEIGHBOURS)}, got ${neighbours}.`);
   }
-  if (exact && neighbors !== undefined) {
-    throw new GapwiseError('bad-option', 'Option "--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact" (exact conditioning uses all samples).');
+  if (exact && neighbours !== undefined) {
+    throw new GapwiseError('bad-option', 'Option "--neighbours" sets the size of local neighbourhoods; it does not apply with "--exact" (exact conditioning uses all samples).');
   }
   const toleranceText = stringOption(values, 'tolerance');
   return {
     ...(exact ? { force: 'exact' as const } : local ? { force: 'local' as const } : {}),
-    ...(neighbors !== undefined ? { neighbors } : {}),
+    ...(neighbours !== undefined ? { neighbours } : {}),
     tolerance: toleranceText === undefined ? { ...DEFAULT_TOLERANCE } : parseTolerance(toleranceText),
   };
 }
@@ -135,7 +135,7 @@ export function describeSimulationPath(p: SimulationPath, n: number): string[] {
   if (c.path === 'exact') {
     return [`conditioned by kriging from all ${countText(n)} samples${c.automatic ? `; chosen automatically: ${c.reason} (--local overrides)` : ' (--exact)'}`];
   }
-  const m = Math.min(p.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS, n);
+  const m = Math.min(p.neighbours ?? DEFAULT_SIMULATION_NEIGHBOURS, n);
   const why = c.automatic ? `; chosen automatically: ${c.reason} (--exact overrides)` : ` (--local${c.reason.includes('grown') ? `; ${c.reason.slice(c.reason.indexOf('grown'))}` : ''})`;
   const notes = [`conditioned from the ${m} nearest samples of each lattice node (local neighbourhoods); ${countText(n)} samples${why}`];
   if (p.accuracy) notes.push(`measured error of the local conditioning ${describeAccuracy(p.accuracy)}`);
@@ -148,16 +148,16 @@ export interface SimulationChoice {
   /** Points per cell side for block support. */
   blockPoints: number;
   /** Realisations, when asked for. */
-  realizations?: number;
+  realisations?: number;
   seed: number;
   depth?: number;
 }
 
 /**
  * Reads and checks the support and simulation options. `countOption` is the name of the option
- * holding N ('realizations' for grid, 'count' for simulate). Throws GapwiseError('bad-option').
+ * holding N ('realisations' for grid, 'count' for simulate). Throws GapwiseError('bad-option').
  */
-export function readSimulationChoice(values: OptionValues, model: CovarianceModel, countOption: 'realizations' | 'count' = 'realizations'): SimulationChoice {
+export function readSimulationChoice(values: OptionValues, model: CovarianceModel, countOption: 'realisations' | 'count' = 'realisations'): SimulationChoice {
   const support = (stringOption(values, 'support') ?? 'point') as 'point' | 'block';
   const k = numberOption(values, 'block-points');
   const n = numberOption(values, countOption);
@@ -180,15 +180,15 @@ export function readSimulationChoice(values: OptionValues, model: CovarianceMode
   if (depth !== undefined && threshold === undefined) {
     throw new GapwiseError('bad-option', 'Option "--depth" gives the volume above the action level; expected "--threshold T" with it.');
   }
-  if (countOption === 'realizations' && depth !== undefined && n === undefined) {
-    throw new GapwiseError('bad-option', 'Option "--depth" needs "--realizations N": the volume and its interval come from realisations.');
+  if (countOption === 'realisations' && depth !== undefined && n === undefined) {
+    throw new GapwiseError('bad-option', 'Option "--depth" needs "--realisations N": the volume and its interval come from realisations.');
   }
   if (support === 'block' && model.transform === 'log' && n === undefined) {
     throw new GapwiseError('bad-option',
       `Block averages of a log model come from simulation; expected "--${countOption} N" (for example 200) with "--support block".`);
   }
   const choice: SimulationChoice = { support, blockPoints: support === 'block' ? k ?? DEFAULT_BLOCK_POINTS : 1, seed: seed ?? 1 };
-  if (n !== undefined) choice.realizations = n;
+  if (n !== undefined) choice.realisations = n;
   if (depth !== undefined) choice.depth = depth;
   return choice;
 }
@@ -214,7 +214,7 @@ export function areaFigures(a: ExceedanceAreaSummary): Pick<AreaReport, 'areaAbo
 /** Area above the threshold across realisations (JSON-ready). */
 export interface AreaReport {
   threshold: number;
-  realizations: number;
+  realisations: number;
   seed: number;
   support: 'point' | 'block';
   areaAbove: { median: number; p5: number; p95: number; mean: number; unit: 'm²' };
@@ -246,10 +246,10 @@ export async function addSimulationBands(input: {
     });
     warnings.push(...surface.warnings);
   }
-  if (choice.realizations === undefined) return { ...(surface ? { surface } : {}), bands, warnings };
-  const threads = simulationThreads(choice.realizations, input.workers);
+  if (choice.realisations === undefined) return { ...(surface ? { surface } : {}), bands, warnings };
+  const threads = simulationThreads(choice.realisations, input.workers);
   const sim = await simulateParallel(samples, model, grid, {
-    count: choice.realizations, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints,
+    count: choice.realisations, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints,
     keepRealisations: false,
     ...(input.covariates ? { covariates: input.covariates } : {}),
     ...(threshold !== undefined ? { threshold } : {}),
@@ -264,7 +264,7 @@ export async function addSimulationBands(input: {
   if (sim.pExceed && sim.area && threshold !== undefined) {
     bands.push({ name: `P(${choice.support === 'block' ? 'block mean' : 'value'} > ${threshold}${u}) from ${sim.count} realisations`, values: Float32Array.from(sim.pExceed) });
     const { areaAbove, volumeAbove } = areaFigures(sim.area);
-    area = { threshold, realizations: sim.count, seed: choice.seed, support: choice.support, areaAbove, ...(volumeAbove ? { volumeAbove } : {}) };
+    area = { threshold, realisations: sim.count, seed: choice.seed, support: choice.support, areaAbove, ...(volumeAbove ? { volumeAbove } : {}) };
   }
   return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings, threads };
 }

@@ -1,5 +1,5 @@
-// Conditional realisations over worker threads, for the CLI (`simulate`, `grid --realizations`,
-// `report --realizations`).
+// Conditional realisations over worker threads, for the CLI (`simulate`, `grid --realisations`,
+// `report --realisations`).
 //
 // The N realisations are split into consecutive parts in whole pairs (the FFT gives fields in pairs):
 // core simulationPart gives part i of P, as the app splits them over its Web Workers
@@ -31,11 +31,11 @@ export type SimulationPartOptions = SimulateOptions;
 export interface ParallelSimulationOptions {
   /**
    * Choose exact or local conditioning by cost and tolerance for the whole run before it is shared
-   * out (core/simulation/simulation-path.ts), with the user's --exact / --local / --neighbors /
+   * out (core/simulation/simulation-path.ts), with the user's --exact / --local / --neighbours /
    * --tolerance; the choice and the local path's measured error come back as `path`. Absent: as
-   * options.neighbors says (the core default).
+   * options.neighbours says (the core default).
    */
-  choose?: { force?: 'exact' | 'local'; neighbors?: number; tolerance?: Tolerance };
+  choose?: { force?: 'exact' | 'local'; neighbours?: number; tolerance?: Tolerance };
   /** Worker threads; default os.availableParallelism(). */
   workers?: number;
   /** Realisations done so far (summed over the parts) and in total; default options.onProgress. */
@@ -73,12 +73,12 @@ export async function simulateParallel(
   const path = planSimulationPath(samples, model, grid, {
     realisations: N, threads: parts, ...(options.support ? { support: options.support } : {}),
     ...(options.blockPoints !== undefined ? { blockPoints: options.blockPoints } : {}),
-    ...(request.force ? { force: request.force } : {}), ...(request.neighbors !== undefined ? { neighbors: request.neighbors } : {}),
+    ...(request.force ? { force: request.force } : {}), ...(request.neighbours !== undefined ? { neighbours: request.neighbours } : {}),
     ...(request.tolerance ? { tolerance: request.tolerance } : {}), ...(options.covariates ? { covariates: options.covariates } : {}),
   });
   const chosen: ConditionalSimulationOptions = { ...options, path: path.choice.path };
-  if (path.choice.path === 'local') chosen.neighbors = path.neighbors;
-  else delete chosen.neighbors;
+  if (path.choice.path === 'local') chosen.neighbours = path.neighbours;
+  else delete chosen.neighbours;
   const result = await simulateInParts(samples, model, grid, chosen, parallel, parts);
   return { ...result, warnings: [...path.warnings, ...result.warnings], path };
 }

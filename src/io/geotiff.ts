@@ -68,9 +68,9 @@ export interface GeoTiffInput {
 export function localAccuracyMetadata(a: LocalAccuracy): Record<string, string> {
   const pct = (x: number): string => x.toPrecision(3);
   return {
-    LOCAL_NEIGHBORS: String(a.neighbors),
+    LOCAL_NEIGHBOURS: String(a.neighbours),
     LOCAL_GLOBAL_MEAN: a.globalMean ? 'yes' : 'no',
-    LOCAL_ERROR_REFERENCE: a.reference === 'exact' ? 'exact kriging from all samples' : `kriging from the ${a.referenceNeighbors} nearest samples`,
+    LOCAL_ERROR_REFERENCE: a.reference === 'exact' ? 'exact kriging from all samples' : `kriging from the ${a.referenceNeighbours} nearest samples`,
     LOCAL_ERROR_CHECKED: `${a.checked} of ${a.targets} cells, seed ${a.seed}`,
     LOCAL_ERROR_SCALE: a.scale,
     LOCAL_ERROR_MEAN_MAX_PCT: pct(a.mean.max),
@@ -331,7 +331,7 @@ export function surfaceGeoTiff(input: GeoTiffInput): GeoTiffOutput {
   const title = drawn ? `Gapwise: per-cell summaries of ${drawn} conditional realisations (not the kriged surface).` : 'Gapwise surfaces.';
   const a = input.accuracy;
   const measured = a
-    ? ` Local neighbourhoods of ${a.neighbors} samples; measured against ${a.reference === 'exact' ? 'exact kriging' : 'a large neighbourhood'} at ${a.checked} cells: mean within ${a.mean.max.toPrecision(2)} %, sd within ${a.sd.max.toPrecision(2)} % of the prior sd.`
+    ? ` Local neighbourhoods of ${a.neighbours} samples; measured against ${a.reference === 'exact' ? 'exact kriging' : 'a large neighbourhood'} at ${a.checked} cells: mean within ${a.mean.max.toPrecision(2)} %, sd within ${a.sd.max.toPrecision(2)} % of the prior sd.`
     : '';
   return bandsGeoTiff({
     grid: input.grid, bands: layers, names, workCrs: input.workCrs, title: title + measured,

@@ -17,7 +17,7 @@ import { compactRows, type ParsedRows } from './intake-values.ts';
 import type { IntakeOptions } from './types.ts';
 
 /** resolveCrs with the file named in the error's place. */
-export function resolveIn(crs: string, file: string, option: string): ResolvedCrs {
+function resolveIn(crs: string, file: string, option: string): ResolvedCrs {
   try {
     return resolveCrs(crs);
   } catch (e) {

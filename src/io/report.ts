@@ -51,8 +51,8 @@ export interface ReportSurface {
  * within 0.05 % of the prior sd (tolerance 1 % / 2 %: met)".
  */
 export function localAccuracyText(a: LocalAccuracy): string {
-  const against = a.reference === 'exact' ? 'exact kriging' : `kriging from the ${a.referenceNeighbors} nearest samples`;
-  return `local neighbourhoods of the ${a.neighbors} nearest samples${a.globalMean ? ' around the mean of all samples' : ''}; `
+  const against = a.reference === 'exact' ? 'exact kriging' : `kriging from the ${a.referenceNeighbours} nearest samples`;
+  return `local neighbourhoods of the ${a.neighbours} nearest samples${a.globalMean ? ' around the mean of all samples' : ''}; `
     + `against ${against} at ${a.checked.toLocaleString('en')} cells the mean is within ${formatPercent(a.mean.max / 100, 2)} `
     + `(RMS ${formatPercent(a.mean.rms / 100, 2)}) and the sd within ${formatPercent(a.sd.max / 100, 2)} (RMS ${formatPercent(a.sd.rms / 100, 2)}) of the prior sd`
     + `${a.scale === 'log' ? ' on the log scale' : ''} (tolerance ${a.tolerance.mean} % / ${a.tolerance.sd} %: ${a.within ? 'met' : 'missed'})`;
@@ -189,9 +189,9 @@ export function areaSection(sim: ProjectSimulation, o: { unit: string; threshold
 export function noAreaText(hasThreshold: boolean): string {
   return hasThreshold
     ? 'No area estimate with an interval was made: draw realisations in the app\'s Surface step, or run '
-      + '"gapwise report --project FILE --realizations 100" (add "--depth D" for a volume).'
+      + '"gapwise report --project FILE --realisations 100" (add "--depth D" for a volume).'
     : 'No area estimate with an interval was made: set an action level, then draw realisations in the app\'s Surface step, or run '
-      + '"gapwise report --project FILE --threshold T --realizations 100".';
+      + '"gapwise report --project FILE --threshold T --realisations 100".';
 }
 
 function structureText(s: Structure): string {
@@ -660,7 +660,7 @@ function reproducePart(c: ReportContext): Markup[] {
   if (model) page.push(html`<h3>Model (JSON)</h3><pre>${JSON.stringify(model, null, 2)}</pre>`);
   page.push(html`<p>The project file holds the samples text and all of the above. With it, the command line gives the same numbers:</p>`);
   const simArgs = sim
-    ? ` --realizations ${sim.count} --seed ${sim.seed}${sim.support === 'block' ? ` --support block --block-points ${sim.blockPoints}` : ''}${sim.depth !== null ? ` --depth ${sim.depth}` : ''}`
+    ? ` --realisations ${sim.count} --seed ${sim.seed}${sim.support === 'block' ? ` --support block --block-points ${sim.blockPoints}` : ''}${sim.depth !== null ? ` --depth ${sim.depth}` : ''}`
     : '';
   page.push(html`<pre>npx gapwise grid --project PROJECT.json --out surface.tif\nnpx gapwise report --project PROJECT.json${simArgs} --out report.html</pre>`);
   page.push(html`<div class="caution" role="note">${CAUTION}</div>`);

@@ -201,7 +201,7 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
       case 'crossValidate': {
         const q = p as RequestPayloads['crossValidate'];
         checkSamples(q.samples);
-        if (q.local) return ops.localLeaveOneOut(q.samples, q.model, { neighbors: q.local.neighbors }, progress) as ResultPayloads[K];
+        if (q.local) return ops.localLeaveOneOut(q.samples, q.model, { neighbours: q.local.neighbours }, progress) as ResultPayloads[K];
         return ops.leaveOneOut(q.samples, q.model) as ResultPayloads[K];
       }
       case 'surfaceRows': {
@@ -224,8 +224,8 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
         const predictor = localPredictorFor(q.samples, q.model, q.local);
         return predictor.predict(q.x, q.y, { ...(q.covariates ? { covariates: q.covariates } : {}), onProgress: progress }) as ResultPayloads[K];
       }
-      case 'fitNearestNeighbour': {
-        const q = p as RequestPayloads['fitNearestNeighbour'];
+      case 'fitVecchia': {
+        const q = p as RequestPayloads['fitVecchia'];
         checkSamples(q.samples);
         const m = ops.vecchiaFit(q.samples, q.options);
         // A covariate model carries its coefficients with standard errors, as an exact fit's does.

@@ -55,12 +55,12 @@ export interface RequestPayloads {
   /** The variogram with, on request, the four directions and the cloud (core/fitting/variogram.ts variogramSet). */
   variogramSet: { samples: Samples; options?: VariogramOptions; directional?: boolean; cloudPairs?: number };
   /** Leave-one-out: closed form from all samples, or with `local` from each sample's nearest others (many samples). */
-  crossValidate: { samples: Samples; model: CovarianceModel; local?: { neighbors: number } };
+  crossValidate: { samples: Samples; model: CovarianceModel; local?: { neighbours: number } };
   /** Surfaces on `options.rows` of the grid (all rows when absent). */
   /** With `local`, predictions come from local neighbourhoods (for many samples) instead of all samples. */
   surfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: SurfaceOptions; local?: LocalKrigingOptions };
   /** A model fitted by the nearest-neighbour (Vecchia) likelihood: for many samples. */
-  fitNearestNeighbour: { samples: Samples; options: VecchiaFitOptions };
+  fitVecchia: { samples: Samples; options: VecchiaFitOptions };
   /** Block (cell-average) surfaces on `options.rows` of the grid (all rows when absent). */
   blockSurfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: BlockSurfaceOptions };
   /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
@@ -91,7 +91,7 @@ export interface ResultPayloads {
   variogramSet: VariogramSet;
   crossValidate: LeaveOneOutResult;
   surfaceRows: SurfaceResult;
-  fitNearestNeighbour: CovarianceModel;
+  fitVecchia: CovarianceModel;
   blockSurfaceRows: BlockSurfaceResult;
   simulate: ConditionalSimulationResult;
   readSamples: IntakeResult;
@@ -106,7 +106,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitNearestNeighbour', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy', 'localPredict',
+  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitVecchia', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy', 'localPredict',
   'ready', 'likelihoodPart',
 ];
 

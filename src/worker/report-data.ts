@@ -202,7 +202,7 @@ export function candidateLabel(family: string, nu?: number | 'free'): string {
  * its row with `error`. With `trend` a covariate trend, every candidate has that mean (the samples then
  * carry its columns), so the rows compare with the chosen model.
  */
-export function compareCandidates(
+function compareCandidates(
   intake: IntakeResult, method: 'reml' | 'ml' | 'wls', transform: 'none' | 'log', onProgress?: (done: number, total: number) => void,
   covariates?: { samples: Samples; trend: CovariateTrend },
 ): ComparisonRow[] {

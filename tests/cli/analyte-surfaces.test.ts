@@ -50,7 +50,7 @@ describe('computeSurfacesShared', () => {
     const jobs: SurfaceJob[] = [
       { samples: samplesOf(120, 1), model: matern, grid, path: 'exact', surface: { threshold: 0.5 } },
       { samples: samplesOf(120, 2, true), model: exponentialLog, grid: masked, path: 'exact', surface: { threshold: 1.5, precision: 'float64' } },
-      { samples: samplesOf(400, 3), model: matern, grid, path: 'local', local: { neighbors: 24, globalMean: true } },
+      { samples: samplesOf(400, 3), model: matern, grid, path: 'local', local: { neighbours: 24, globalMean: true } },
     ];
     const last = new Map<number, [number, number]>();
     const shared = await computeSurfacesShared(jobs, { workers: 2, onProgress: (j, done, total) => last.set(j, [done, total]) });

@@ -95,12 +95,12 @@ describe('several analytes (--value a,b,c)', () => {
   }, 300_000);
 
   it('grid with a model set on local neighbourhoods: each analyte equals its one-analyte run, with its measured error', async () => {
-    const local = ['--local', '--neighbors', '12', '--cell', '25'];
+    const local = ['--local', '--neighbours', '12', '--cell', '25'];
     const multi = await ws.run('grid', ...base, '--model', 'set.json', '--value', 'zinc (mg/kg),copper', ...local, '--out', 'local.csv');
     expect(multi.code, multi.stderr).toBe(0);
     const summary = JSON.parse(multi.stdout);
     expect(Object.keys(summary.localError)).toEqual(['zinc (mg/kg)', 'copper']);
-    expect(summary.localError.copper.neighbors).toBe(12);
+    expect(summary.localError.copper.neighbours).toBe(12);
     expect(multi.stderr).toMatch(/note: \[copper\] measured error of the local neighbourhoods/);
     const m = csvRows(ws.read('local.csv'));
     const one = await ws.run('grid', ...base, '--model', 'copper.json', '--value', 'copper', ...local, '--out', 'copper-local.csv');
@@ -249,9 +249,9 @@ describe('several analytes (--value a,b,c)', () => {
     const noSet = await ws.run('report', '--project', 'zinc-project.json', '--value', 'zinc (mg/kg),copper');
     expect(noSet.code).toBe(2);
     expect(noSet.stderr).toMatch(/needs "--model FILE", a model set/);
-    const sims = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set.json', '--value', 'copper,zinc (mg/kg)', '--realizations', '10');
+    const sims = await ws.run('report', '--project', 'zinc-project.json', '--model', 'set.json', '--value', 'copper,zinc (mg/kg)', '--realisations', '10');
     expect(sims.code).toBe(2);
-    expect(sims.stderr).toMatch(/"--realizations" is not available with several analytes/);
+    expect(sims.stderr).toMatch(/"--realisations" is not available with several analytes/);
   }, 120_000);
 
   it('analyteColumnName keeps letters and digits, drops a unit in brackets', () => {

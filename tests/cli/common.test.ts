@@ -7,11 +7,11 @@ import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('readPredictionPath', () => {
   it('readPredictionPath chooses by cost (core/prediction/path-choice.ts): exact for few targets, local for many, always local above 10,000 samples', () => {
-    const common = { neighbors: 64, neighborsGiven: false, globalMean: true, automatic: true, tolerance: { mean: 1, sd: 2 }, warnings: [] };
+    const common = { neighbours: 64, neighboursGiven: false, globalMean: true, automatic: true, tolerance: { mean: 1, sd: 2 }, warnings: [] };
     expect(readPredictionPath({}, 2000, { targets: 100 })).toMatchObject({ ...common, path: 'exact' });
     expect(readPredictionPath({}, 2000, { targets: 40_000 })).toMatchObject({ ...common, path: 'local' });
-    expect(readPredictionPath({ neighbors: 32, 'local-mean': true }, 48211, { targets: 10 })).toMatchObject({
-      ...common, path: 'local', neighbors: 32, neighborsGiven: true, globalMean: false, reason: 'more than 10,000 samples are too many to factorise together',
+    expect(readPredictionPath({ neighbours: 32, 'local-mean': true }, 48211, { targets: 10 })).toMatchObject({
+      ...common, path: 'local', neighbours: 32, neighboursGiven: true, globalMean: false, reason: 'more than 10,000 samples are too many to factorise together',
     });
     expect(readPredictionPath({ tolerance: 'mean=0.5' }, 2000, { targets: 40_000 }).tolerance).toEqual({ mean: 0.5, sd: 2 });
     expect(readPredictionPath({ tolerance: 'sd=0' }, 2000, { targets: 40_000 }).path).toBe('exact');
@@ -22,20 +22,20 @@ describe('readPredictionPath', () => {
     expect(readPredictionPath({}, 3001, { targets: 3001, leaveOneOut: true }).path).toBe('local');
   });
 
-  it('readPredictionPath: --exact and --local override the choice; --neighbors unused on the exact path is a warning', () => {
+  it('readPredictionPath: --exact and --local override the choice; --neighbours unused on the exact path is a warning', () => {
     expect(readPredictionPath({ exact: true }, 9000, { targets: 1e6 })).toMatchObject({ path: 'exact', automatic: false });
-    expect(readPredictionPath({ local: true, neighbors: 10 }, 40)).toMatchObject({ path: 'local', neighbors: 10, automatic: false, warnings: [] });
-    expect(readPredictionPath({ neighbors: 10 }, 40).warnings).toEqual([
-      '--neighbors 10 is not used: exact kriging from all 40 samples was chosen (40 targets are few enough to krige exactly (the error check would do it anyway)); add --local to predict from neighbourhoods.',
+    expect(readPredictionPath({ local: true, neighbours: 10 }, 40)).toMatchObject({ path: 'local', neighbours: 10, automatic: false, warnings: [] });
+    expect(readPredictionPath({ neighbours: 10 }, 40).warnings).toEqual([
+      '--neighbours 10 is not used: exact kriging from all 40 samples was chosen (40 targets are few enough to krige exactly (the error check would do it anyway)); add --local to predict from neighbourhoods.',
     ]);
   });
 
   it('readPredictionPath refuses contradictions, bad neighbour counts, bad tolerances and --exact above 10,000 samples (GapwiseError bad-option)', () => {
     expect(() => readPredictionPath({ exact: true, local: true }, 10)).toThrow(GapwiseError);
     expect(() => readPredictionPath({ 'global-mean': true, 'local-mean': true }, 10)).toThrow('Options "--global-mean" and "--local-mean" contradict each other');
-    expect(() => readPredictionPath({ neighbors: 0 }, 10)).toThrow('Option "--neighbors" expects a whole number of samples from 1 to 2,000, got 0.');
-    expect(() => readPredictionPath({ neighbors: 2.5 }, 10)).toThrow('got 2.5');
-    expect(() => readPredictionPath({ exact: true, neighbors: 8 }, 10)).toThrow(/does not apply with "--exact"/);
+    expect(() => readPredictionPath({ neighbours: 0 }, 10)).toThrow('Option "--neighbours" expects a whole number of samples from 1 to 2,000, got 0.');
+    expect(() => readPredictionPath({ neighbours: 2.5 }, 10)).toThrow('got 2.5');
+    expect(() => readPredictionPath({ exact: true, neighbours: 8 }, 10)).toThrow(/does not apply with "--exact"/);
     expect(() => readPredictionPath({ tolerance: 'median=1' }, 10)).toThrow('Expected each part of the tolerance to be mean=P or sd=P');
     expect(() => readPredictionPath({ exact: true }, 10_001)).toThrow(
       'Exact kriging is limited to 10,000 samples (its matrix takes 8·n² bytes, here 0.8 GB), got 10,001; leave out --exact to predict from local neighbourhoods.');
@@ -47,7 +47,7 @@ describe('describePredictionPath', () => {
   it('describePredictionPath says which path, how many neighbours and samples, and why', () => {
     expect(describePredictionPath(readPredictionPath({}, 48211), 48211))
       .toBe('predicted from the 64 nearest samples at each target (local neighbourhoods, with the GLS mean of all samples); 48,211 samples; chosen automatically: more than 10,000 samples are too many to factorise together (--exact overrides)');
-    expect(describePredictionPath(readPredictionPath({ local: true, 'local-mean': true, neighbors: 100 }, 40), 40))
+    expect(describePredictionPath(readPredictionPath({ local: true, 'local-mean': true, neighbours: 100 }, 40), 40))
       .toBe('predicted from the 40 nearest samples at each target (local neighbourhoods, the mean re-estimated in each); 40 samples (--local)');
     expect(describePredictionPath(readPredictionPath({}, 25), 25))
       .toBe('predicted by exact kriging from all 25 samples; chosen automatically: 25 targets are few enough to krige exactly (the error check would do it anyway) (--local overrides)');

@@ -80,7 +80,7 @@ describe('the engine runner over worker threads', () => {
     expectSameBits(a.pExceed!, one.pExceed!, 'exact pExceed');
     const local: SurfaceJob = {
       samples: samplesOf(900, 22, 600, 450), model, grid: maskedGrid(36, 27), path: 'local',
-      local: { neighbors: 20, globalMean: true }, surface: { precision: 'float64' },
+      local: { neighbours: 20, globalMean: true }, surface: { precision: 'float64' },
     };
     const b = await computeSurfaceParallel(local, { workers: 3, bandRows: 4 });
     expectSameBits(b.sd, computeSurfaceSingle(local).sd, 'local sd');
@@ -111,7 +111,7 @@ describe('the engine runner over worker threads', () => {
 
     it('startVecchiaPool: a likelihood pass over 3 threads gives the pinned value bit for bit', () => {
       const s = samplesOf(1200, 24, 3000, 2000);
-      const setup = { family: 'matern' as const, nu: 1.5, trend: 'linear' as const, method: 'reml' as const, neighbors: 12 };
+      const setup = { family: 'matern' as const, nu: 1.5, trend: 'linear' as const, method: 'reml' as const, neighbours: 12 };
       const split = createVecchiaLikelihood(s, setup, pool.threads).evaluate({ scale: 400, nuggetRatio: 0.15 });
       expect(Object.is(split.logLikelihood, PINNED.logLikelihood)).toBe(true);
       expect(Object.is(split.sigma2, PINNED.sigma2)).toBe(true);

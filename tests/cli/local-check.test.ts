@@ -35,19 +35,19 @@ describe('checkLocalSurface', () => {
     const { samples, model, grid } = cornerProblem();
     const surfaceAt = (s: LocalKrigingOptions): SurfaceResult =>
       computeSurfaceWith(createLocalPredictor(samples, model, { ...s, targetSpacing: grid.cell }), grid, { precision: 'float64' });
-    const start = { neighbors: 16, globalMean: false };
+    const start = { neighbours: 16, globalMean: false };
     const first = surfaceAt(start);
     const reruns: string[] = [];
     const res = await checkLocalSurface({
       samples, model, grid, surface: first, settings: start, tolerance: { mean: 1, sd: 2 }, grow: true, exactFallback: true,
       rerun: async (s) => {
-        reruns.push(s === 'exact' ? 'exact' : String(s.neighbors));
+        reruns.push(s === 'exact' ? 'exact' : String(s.neighbours));
         if (s === 'exact') throw new Error('exact kriging was not expected here');
         return surfaceAt(s);
       },
     });
     expect(res.path).toBe('local');
-    expect(res.settings.neighbors).toBeGreaterThan(16);
+    expect(res.settings.neighbours).toBeGreaterThan(16);
     // Only the signal's half-size surface was computed whole, never the grown one.
     expect(reruns).toEqual(['8']);
     expect(res.notes.join(' ')).toMatch(/rerun: [\d,]+ of 2,500 cells/);
@@ -85,7 +85,7 @@ describe('threadedTargetRunner', () => {
     const r = createRandom(8);
     const tx = Float64Array.from({ length: 700 }, () => 300000 + 250 * r.uniform());
     const ty = Float64Array.from({ length: 700 }, () => 5000000 + 250 * r.uniform());
-    const local = { neighbors: 24 };
+    const local = { neighbours: 24 };
     const runner = threadedTargetRunner(samples, model, 2);
     try {
       const p = await runner.run(local, tx, ty, undefined);

@@ -46,7 +46,7 @@ describe('computeSurfaceParallel', () => {
   it('computeSurfaceParallel on the local path equals the single-thread surface bit for bit (default worker count)', async () => {
     const job: SurfaceJob = {
       samples: samplesOf(1500, 1), model, grid: grid(48, 30, true), path: 'local',
-      local: { neighbors: 32, globalMean: true }, surface: { threshold: 0.5 },
+      local: { neighbours: 32, globalMean: true }, surface: { threshold: 0.5 },
     };
     const single = computeSurfaceSingle(job);
     let lastDone = 0;

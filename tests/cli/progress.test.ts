@@ -50,10 +50,10 @@ describe('progress lines of fit, cv and report', () => {
     const wls = await shown.run('fit', ...COMMON, '--method', 'wls');
     expect(wls.code, wls.stderr).toBe(0);
     expect(progressLines(wls.stderr)).toEqual(expect.arrayContaining([expect.stringMatching(/^progress: 100 % of 3 fitting stages \(\d+ s\)$/)]));
-    const nnl = await shown.run('fit', ...COMMON, '--method', 'nnl', '--nnl-neighbors', '5', '--workers', '1');
+    const nnl = await shown.run('fit', ...COMMON, '--method', 'nnl', '--nnl-neighbours', '5', '--workers', '1');
     expect(nnl.code, nnl.stderr).toBe(0);
     expect(progressLines(nnl.stderr)[0]).toMatch(/^progress: \d+ likelihood passes over the samples \(\d+ s\)$/);
-    expect(progressLines((await shown.run('fit', ...COMMON, '--method', 'nnl', '--nnl-neighbors', '5', '--workers', '1', '--quiet')).stderr)).toEqual([]);
+    expect(progressLines((await shown.run('fit', ...COMMON, '--method', 'nnl', '--nnl-neighbours', '5', '--workers', '1', '--quiet')).stderr)).toEqual([]);
   });
 
   it('cv on the exact path prints its three leave-one-out stages, none with --quiet, the same figures', async () => {

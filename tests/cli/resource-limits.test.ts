@@ -28,7 +28,7 @@ describe('simulationEstimate', () => {
       .toThrow(/would write a GeoTIFF of about 21\.0 GB; the limit is 4\.3 GB \(what a classic TIFF can address\): use at most --count 2,044 or a larger --cell\./);
     expect(Math.floor(OUTPUT_LIMIT_BYTES / (525_074 * 4))).toBe(2044);
     expect(() => checkSimulationDemand({ grid, realisations: 100, blockPoints: 1, threads: 2, keep: true }, 'count', 8e9)).not.toThrow();
-    expect(() => checkSimulationDemand({ grid, realisations: 10_000, blockPoints: 1, threads: 2, keep: false }, 'realizations', 8e9)).not.toThrow();
+    expect(() => checkSimulationDemand({ grid, realisations: 10_000, blockPoints: 1, threads: 2, keep: false }, 'realisations', 8e9)).not.toThrow();
   });
 
   it('simulate --count 10000 --cell 0.1 is refused before any realisation is drawn (exit 2, no output, no temporary file)', async () => {

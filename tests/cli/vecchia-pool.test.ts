@@ -57,7 +57,7 @@ describe('startVecchiaPool', () => {
     const s = samplesOf(1500, 5);
     for (const family of ['matern', 'exponential', 'spherical', 'gaussian'] as const) {
       for (const method of ['reml', 'ml'] as const) {
-        const setup = { family, nu: 1.5, trend: 'linear' as const, method, neighbors: 12 };
+        const setup = { family, nu: 1.5, trend: 'linear' as const, method, neighbours: 12 };
         const one = createVecchiaLikelihood(s, setup);
         const split = createVecchiaLikelihood(s, setup, pool.threads);
         for (const theta of [{ scale: 300, nuggetRatio: 0.2 }, { scale: 900, nuggetRatio: 0.05 }]) {
@@ -69,7 +69,7 @@ describe('startVecchiaPool', () => {
           expect(b.beta.length).toBe(3);
           for (let c = 0; c < 3; c++) expectClose(b.beta[c], a.beta[c], { rel: 1e-10, abs: 1e-12 });
           // Fewer neighbours (the coarse stage) through the same split.
-          expectClose(split.evaluate(theta, { neighbors: 5 }).logLikelihood, one.evaluate(theta, { neighbors: 5 }).logLikelihood, { rel: 1e-12 });
+          expectClose(split.evaluate(theta, { neighbours: 5 }).logLikelihood, one.evaluate(theta, { neighbours: 5 }).logLikelihood, { rel: 1e-12 });
         }
       }
     }
@@ -77,7 +77,7 @@ describe('startVecchiaPool', () => {
 
   it('startVecchiaPool: a fit through the pool gives the one-thread fit', () => {
     const s = samplesOf(5000, 9);
-    const options = { family: 'matern' as const, nu: 1.5, trend: 'constant' as const, neighbors: 15 };
+    const options = { family: 'matern' as const, nu: 1.5, trend: 'constant' as const, neighbours: 15 };
     const one = vecchiaFit(s, options);
     const split = vecchiaFit(s, options, { threads: pool.threads });
     const scale = (m: typeof one) => m.structures.find((t): t is CorrelatedStructure => t.type === 'matern')!;
@@ -90,7 +90,7 @@ describe('startVecchiaPool', () => {
   it('startVecchiaPool: a second likelihood attached to the same pool still splits correctly', () => {
     const a = samplesOf(800, 1);
     const b = samplesOf(900, 2);
-    const setup = { family: 'matern' as const, nu: 2.5, trend: 'constant' as const, neighbors: 10 };
+    const setup = { family: 'matern' as const, nu: 2.5, trend: 'constant' as const, neighbours: 10 };
     const la = createVecchiaLikelihood(a, setup, pool.threads);
     const lb = createVecchiaLikelihood(b, setup, pool.threads);
     const theta = { scale: 400, nuggetRatio: 0.1 };

@@ -83,7 +83,7 @@ describe('localAccuracyText', () => {
     const own = prepareReport(p, { software: SOFTWARE, compare: false });
     const accuracy = {
       checked: 200, targets: 4000, seed: 1, reference: 'exact' as const, scale: 'data' as const, priorSd: Math.sqrt(12),
-      mean: { max: 0.134, rms: 0.021 }, sd: { max: 0.052, rms: 0.011 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbors: 64, globalMean: true,
+      mean: { max: 0.134, rms: 0.021 }, sd: { max: 0.052, rms: 0.011 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbours: 64, globalMean: true,
     };
     const html = reportHtml(prepareReport(p, { software: SOFTWARE, compare: false, surface: own.surface, localAccuracy: accuracy }));
     expect(html).toContain(escapeText(localAccuracyText(accuracy)));
@@ -260,14 +260,14 @@ describe('reportHtml: area above the action level', () => {
     expect(html).toContain('Area above the action level (realisations)</th><td>12,300 m² (1.23 ha) above 25 mg/L, 90 % interval 9,800 – 15,100 m² (0.98 – 1.51 ha), from 200 realisations');
     expect(html).toContain('the action level in this report is 30');
     expect(html).not.toContain('the maps in this report use');
-    expect(html).toContain('--realizations 200 --seed 7 --support block --block-points 3 --depth 0.5');
+    expect(html).toContain('--realisations 200 --seed 7 --support block --block-points 3 --depth 0.5');
     expect(html.split(CAUTION).length - 1).toBe(4);
   });
 
   it('reportHtml says in one line that no area estimate was made, and how to make one', () => {
     const html = reportHtml(prepareReport(project(), { software: SOFTWARE, compare: false }));
     expect(html).toContain(`<span data-no-area>${noAreaText(true).replace(/"/g, '&quot;').replace(/'/g, '&#39;')}</span>`);
-    expect(html).toContain('--realizations 100');
+    expect(html).toContain('--realisations 100');
     expect(html).not.toContain('id="area-above"');
     expect(noAreaText(false)).toMatch(/set an action level/);
     // A saved record without a summary (settings only) is not a figure.

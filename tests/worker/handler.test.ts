@@ -89,9 +89,9 @@ describe('createEngineHandler', () => {
 
   it('createEngineHandler answers crossValidate with local neighbours by localLeaveOneOut', () => {
     const { sent, run } = collect();
-    run({ id: 14, type: 'crossValidate', payload: { samples, model, local: { neighbors: 5 } } });
+    run({ id: 14, type: 'crossValidate', payload: { samples, model, local: { neighbours: 5 } } });
     const r = sent.find((s) => s.message.type === 'result')!.message as Extract<EngineResponse, { type: 'result' }>;
-    const expected = localLeaveOneOut(samples, model, { neighbors: 5 });
+    const expected = localLeaveOneOut(samples, model, { neighbours: 5 });
     expect((r.result as ReturnType<typeof leaveOneOut>).summary).toEqual(expected.summary);
     expect((r.result as ReturnType<typeof leaveOneOut>).summary).not.toEqual(leaveOneOut(samples, model).summary);
   });
@@ -309,12 +309,12 @@ describe('predictorKey', () => {
     expect(sent.map((s) => s.message)).toMatchObject([{ id: 19, type: 'error', error: { code: 'bad-option' } }]);
   });
 
-  it('createEngineHandler answers fitNearestNeighbour with the same model as vecchiaFit', () => {
+  it('createEngineHandler answers fitVecchia with the same model as vecchiaFit', () => {
     const { sent, run } = collect();
-    const options = { family: 'exponential' as const, neighbors: 8 };
-    run({ id: 14, type: 'fitNearestNeighbour', payload: { samples, options } });
+    const options = { family: 'exponential' as const, neighbours: 8 };
+    run({ id: 14, type: 'fitVecchia', payload: { samples, options } });
     const last = sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>;
-    expect(last).toMatchObject({ id: 14, type: 'result', request: 'fitNearestNeighbour' });
+    expect(last).toMatchObject({ id: 14, type: 'result', request: 'fitVecchia' });
     const direct = vecchiaFit(samples, options);
     expect(last.result).toEqual(JSON.parse(JSON.stringify(direct)));
     expect((last.result as CovarianceModel).fit?.method).toBe(direct.fit.method);
@@ -322,7 +322,7 @@ describe('predictorKey', () => {
 
   it('createEngineHandler answers surfaceRows with local neighbourhoods (global mean) as computeSurfaceWith on createLocalPredictor', () => {
     const { sent, run } = collect();
-    const local = { neighbors: 12, globalMean: true };
+    const local = { neighbours: 12, globalMean: true };
     run({ id: 15, type: 'surfaceRows', payload: { samples, model, grid, options: { threshold: 38, rows: [0, 6] }, local } });
     const result = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeSurface>;
     const direct = computeSurfaceWith(createLocalPredictor(samples, model, local), grid, { threshold: 38, rows: [0, 6] });
@@ -346,7 +346,7 @@ describe('predictorKey', () => {
     const s = makeSamples(xs, ys, vs);
     const m: CovarianceModel = { structures: [{ type: 'nugget', sill: 0.05 }, { type: 'matern', sill: 1, scale: 100, nu: 1.5 }], trend: 'constant', transform: 'none' };
     const g: Grid = { x0: 300000, y0: 5001000, cell: 25, nx: 40, ny: 40 };
-    const start = { neighbors: 8, globalMean: false };
+    const start = { neighbours: 8, globalMean: false };
     const { sent, run } = collect();
     run({ id: 16, type: 'localAccuracy', payload: { samples: s, model: m, grid: g, local: start, grow: true } });
     const check = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as LocalGridCheck;
@@ -355,7 +355,7 @@ describe('predictorKey', () => {
     expect(check.accuracy.within).toBe(false);
     expect(check.grown).not.toBeNull();
     expect(check.attempts.at(-1)).toMatchObject({ ...check.grown, within: true });
-    expect(check.grown!.neighbors > 8 || check.grown!.globalMean).toBe(true);
+    expect(check.grown!.neighbours > 8 || check.grown!.globalMean).toBe(true);
     // The surface rerun with the grown settings through the handler measures within the tolerance.
     run({ id: 17, type: 'surfaceRows', payload: { samples: s, model: m, grid: g, local: check.grown! } });
     const rerun = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as ReturnType<typeof computeSurface>;
@@ -375,7 +375,7 @@ describe('predictorKey', () => {
 
   it('createEngineHandler answers localAccuracy without grow: no growth tried even when the tolerance is missed', () => {
     const { sent, run } = collect();
-    run({ id: 19, type: 'localAccuracy', payload: { samples, model, grid, local: { neighbors: 3, globalMean: false }, tolerance: { mean: 1e-9, sd: 1e-9 } } });
+    run({ id: 19, type: 'localAccuracy', payload: { samples, model, grid, local: { neighbours: 3, globalMean: false }, tolerance: { mean: 1e-9, sd: 1e-9 } } });
     const check = (sent.at(-1)!.message as Extract<EngineResponse, { type: 'result' }>).result as LocalGridCheck;
     expect(check.accuracy.within).toBe(false);
     expect(check.grown).toBeNull();

@@ -15,10 +15,10 @@ import { localLeaveOneOut } from '../../core/validation/local-cross-validation.t
 import { createPredictor } from '../../core/prediction/kriging.ts';
 import { globalMeanCoefficients } from '../../core/prediction/local-kriging.ts';
 import type { CovarianceModel } from '../../core/covariance/model.ts';
-import { NeighborIndex } from '../../core/geometry/neighbors.ts';
+import { NeighbourIndex } from '../../core/geometry/neighbours.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import { coordinateFrame, designRow, trendColumnCount } from '../../core/covariance/trend.ts';
-import { CHECK_COUNT, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS } from '../../core/prediction/path-choice.ts';
+import { CHECK_COUNT, EXACT_SAMPLE_LIMIT, LARGE_CHECK_COUNT, REFERENCE_NEIGHBOURS } from '../../core/prediction/path-choice.ts';
 import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
 import { measureLocalLeaveOneOut } from '../../core/validation/local-cross-validation.ts';
 import { stringOption } from '../args.ts';
@@ -54,17 +54,17 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   const files = { samples: intake.report.fileName, model: modelPath };
   const cv = path.path === 'exact'
     ? naming(files, () => leaveOneOut(samples, modelFile.model, {}, progressLine(io, 'leave-one-out stages')))
-    : naming(files, () => localLeaveOneOut(samples, modelFile.model, { neighbors: path.neighbors, globalMean: path.globalMean }, progressLine(io, 'samples')));
+    : naming(files, () => localLeaveOneOut(samples, modelFile.model, { neighbours: path.neighbours, globalMean: path.globalMean }, progressLine(io, 'samples')));
   const notes = [describePredictionPath(path, n, 'each sample left out and predicted', 'nearest other samples')];
   // A local leave-one-out is measured against the reference at a seeded subset of the samples.
   const accuracy = path.path === 'local'
-    ? naming(files, () => measureLocalLeaveOneOut(samples, modelFile.model, cv, { neighbors: Math.min(path.neighbors, n - 1), globalMean: path.globalMean }, { tolerance: path.tolerance }))
+    ? naming(files, () => measureLocalLeaveOneOut(samples, modelFile.model, cv, { neighbours: Math.min(path.neighbours, n - 1), globalMean: path.globalMean }, { tolerance: path.tolerance }))
     : null;
   if (accuracy) notes.push(`measured error of the local leave-one-out ${describeAccuracy(accuracy, 'samples')}`);
   printNotes(io, notes);
   printWarnings(io, [
     ...(cv.warnings ?? []),
-    ...(accuracy && !accuracy.within ? [`The local leave-one-out missed the tolerance (${describeAccuracy(accuracy, 'samples')}); --neighbors with more samples, or --exact up to ${count(EXACT_SAMPLE_LIMIT)} samples, comes closer.`] : []),
+    ...(accuracy && !accuracy.within ? [`The local leave-one-out missed the tolerance (${describeAccuracy(accuracy, 'samples')}); --neighbours with more samples, or --exact up to ${count(EXACT_SAMPLE_LIMIT)} samples, comes closer.`] : []),
   ]);
 
   const log = cv.scale === 'log';
@@ -89,7 +89,7 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
     me: s.me, rmse: s.rmse, msse: s.msse, coverage95: s.coverage95, n: s.n,
     scale: cv.scale,
     method: path.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
-    ...(path.path === 'local' ? { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean } : {}),
+    ...(path.path === 'local' ? { neighbours: Math.min(path.neighbours, n), globalMean: path.globalMean } : {}),
     ...(accuracy ? { localError: accuracy } : {}),
     reason: path.reason,
     unit: log ? `ln(${unit || 'value'})` : unit,
@@ -111,12 +111,12 @@ export const cvCommand: CommandSpec = {
       + '(predicted − observed) and standardised_error (error / sd_obs). For a log model every figure is on the '
       + 'log scale ("scale": "log"; observed is then ln(value)).',
     `Up to ${count(MAX_EXACT_SAMPLES)} samples the closed form uses all samples (about n³/2 operations: no more than checking `
-      + `local neighbourhoods against it would cost). Above, each sample is left out and predicted from its --neighbors nearest `
+      + `local neighbourhoods against it would cost). Above, each sample is left out and predicted from its --neighbours nearest `
       + 'other samples (local neighbourhoods around the GLS mean of all samples, as predict and grid do there); --exact and '
       + '--local override the choice, which is said on stderr with its reason.',
     `A local leave-one-out is measured: at ${count(CHECK_COUNT)} seeded samples (${count(LARGE_CHECK_COUNT)} above ${count(MAX_EXACT_SAMPLES)} samples) `
       + `its prediction and sd_obs are compared with the closed form from all other samples (above ${count(MAX_EXACT_SAMPLES)} samples: `
-      + `kriging from the ${count(REFERENCE_NEIGHBORS)} nearest other samples), and the largest and RMS differences, in % of the prior sd, `
+      + `kriging from the ${count(REFERENCE_NEIGHBOURS)} nearest other samples), and the largest and RMS differences, in % of the prior sd, `
       + 'are said on stderr and given in the JSON summary ("localError"); a miss of --tolerance is a warning.',
     'Several analytes: with --value a,b,c (or \'*\') and a model set from "gapwise fit --value a,b,c" as --model, '
       + 'each analyte is cross-validated with its own model, exactly as a run with --value a would: a table of each '

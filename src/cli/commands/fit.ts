@@ -10,7 +10,7 @@
 import { SOFTWARE } from '../../core/shared/version.ts';
 import { GapwiseError } from '../../core/shared/errors.ts';
 import { type FitOptions } from '../../core/fitting/fit.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS, vecchiaFit, type VecchiaThreads } from '../../core/fitting/vecchia.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBOURS, vecchiaFit, type VecchiaThreads } from '../../core/fitting/vecchia.ts';
 import type { CovarianceModel, Family, Trend } from '../../core/covariance/model.ts';
 import type { Samples } from '../../core/shared/samples.ts';
 import type { IntakeResult } from '../../io/types.ts';
@@ -77,22 +77,22 @@ function logSamples(intake: IntakeResult): Samples {
 /**
  * The method a fit uses: --method as given, or for 'auto' the exact REML likelihood below MAX_EXACT_SAMPLES
  * samples and the nearest-neighbour likelihood from there on. Throws GapwiseError('bad-option') for
- * an exact likelihood on more samples than it can take, and for --nnl-neighbors without 'nnl'.
+ * an exact likelihood on more samples than it can take, and for --nnl-neighbours without 'nnl'.
  */
-export function resolveFitMethod(given: MethodOption, n: number, nnlNeighbors?: number): { method: 'reml' | 'ml' | 'wls' | 'nnl'; automatic: boolean } {
-  if (nnlNeighbors !== undefined && !(Number.isInteger(nnlNeighbors) && nnlNeighbors >= 1 && nnlNeighbors <= 1000)) {
-    throw new GapwiseError('bad-option', `Option "--nnl-neighbors" expects a whole number from 1 to 1,000, got ${nnlNeighbors}.`);
+export function resolveFitMethod(given: MethodOption, n: number, vecchiaNeighbours?: number): { method: 'reml' | 'ml' | 'wls' | 'nnl'; automatic: boolean } {
+  if (vecchiaNeighbours !== undefined && !(Number.isInteger(vecchiaNeighbours) && vecchiaNeighbours >= 1 && vecchiaNeighbours <= 1000)) {
+    throw new GapwiseError('bad-option', `Option "--nnl-neighbours" expects a whole number from 1 to 1,000, got ${vecchiaNeighbours}.`);
   }
   if (given === 'auto') {
     const method = chooseFitMethod(n) === 'nnl' ? 'nnl' : 'reml';
-    if (nnlNeighbors !== undefined && method !== 'nnl') {
+    if (vecchiaNeighbours !== undefined && method !== 'nnl') {
       throw new GapwiseError('bad-option',
-        `Option "--nnl-neighbors" applies to the nearest-neighbour likelihood, which is chosen from ${count(MAX_EXACT_SAMPLES)} samples; got ${count(n)} samples (add --method nnl to use it anyway).`);
+        `Option "--nnl-neighbours" applies to the nearest-neighbour likelihood, which is chosen from ${count(MAX_EXACT_SAMPLES)} samples; got ${count(n)} samples (add --method nnl to use it anyway).`);
     }
     return { method, automatic: true };
   }
-  if (nnlNeighbors !== undefined && given !== 'nnl') {
-    throw new GapwiseError('bad-option', `Option "--nnl-neighbors" applies to --method nnl only; got --method ${given}.`);
+  if (vecchiaNeighbours !== undefined && given !== 'nnl') {
+    throw new GapwiseError('bad-option', `Option "--nnl-neighbours" applies to --method nnl only; got --method ${given}.`);
   }
   if ((given === 'reml' || given === 'ml') && n > MAX_EXACT_SAMPLES) {
     throw new GapwiseError('bad-option',
@@ -127,11 +127,11 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   const nu = parseNu(nuRaw ?? '1.5');
   const givenTrend = trendWithCovariates(values, parseTrend(stringOption(values, 'trend') ?? 'constant'));
   const transform = (stringOption(values, 'transform') ?? 'none') as 'none' | 'log';
-  const nnlNeighbors = numberOption(values, 'nnl-neighbors');
+  const vecchiaNeighbours = numberOption(values, 'nnl-neighbours');
   const workers = readWorkers(values, io);
   const intake = readSamplesFile(io, values);
   const n = intake.samples.value.length;
-  const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, nnlNeighbors);
+  const { method, automatic } = resolveFitMethod((stringOption(values, 'method') ?? 'auto') as MethodOption, n, vecchiaNeighbours);
 
   const structureChoice = readStructureChoice(values, method);
   const nugget = !booleanOption(values, 'no-nugget');
@@ -143,7 +143,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     const passes = activityLine(io, 'likelihood passes over the samples');
     try {
       model = naming(files, () => vecchiaFit(samples, {
-        family, trend, nugget, method: 'reml', neighbors: nnlNeighbors ?? DEFAULT_VECCHIA_NEIGHBORS,
+        family, trend, nugget, method: 'reml', neighbours: vecchiaNeighbours ?? DEFAULT_VECCHIA_NEIGHBOURS,
         ...(family === 'matern' ? { nu } : {}),
       }, pool ? { threads: countingPasses(pool.threads, passes) } : { onPass: () => passes.step() }));
     } finally {
@@ -199,7 +199,7 @@ export const fitCommand: CommandSpec = {
       + 'the coordinate system its distances (metres) are measured in.',
     `By default the number of samples chooses the method: the exact REML likelihood below ${count(MAX_EXACT_SAMPLES)} samples `
       + '(n³/3 flops per evaluation), and from there on a nearest-neighbour (Vecchia) REML likelihood: each sample, '
-      + 'in a maxmin order, is conditioned on its --nnl-neighbors nearest earlier samples (n·m³/3 flops). The choice '
+      + 'in a maxmin order, is conditioned on its --nnl-neighbours nearest earlier samples (n·m³/3 flops). The choice '
       + 'is said on stderr ("note: fitted with a nearest-neighbour likelihood on 48,211 samples ...") and in the '
       + 'model\'s "fit": "note" and "choice" ("automatic" or "given"). --method overrides it.',
     '--anisotropy also estimates the azimuth of the long axis (degrees clockwise from grid north, 0 to 180) and the '
@@ -219,7 +219,7 @@ export const fitCommand: CommandSpec = {
       help: `fitting method: reml or ml (exact likelihood, up to ${count(MAX_EXACT_SAMPLES)} samples), wls (variogram), nnl (nearest-neighbour REML likelihood, any number of samples), auto (reml below ${count(MAX_EXACT_SAMPLES)} samples, nnl from there on)`,
       defaultText: 'auto',
     },
-    { name: 'nnl-neighbors', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBORS) },
+    { name: 'nnl-neighbours', kind: 'number', placeholder: 'M', help: 'nearest-neighbour likelihood: earlier neighbours each sample is conditioned on (1 to 1,000)', unit: 'samples', defaultText: String(DEFAULT_VECCHIA_NEIGHBOURS) },
     { name: 'workers', kind: 'number', placeholder: 'N', help: `nearest-neighbour likelihood from ${count(THREADS_FROM)} samples: threads that share each pass over the samples (1 to 256)`, unit: 'threads', defaultText: 'one per core of this machine' },
     { name: 'trend', kind: 'string', placeholder: 'T', help: 'mean: constant (unknown constant), linear (unknown 1, x, y drift) or known:VALUE (a known mean in the samples\' unit; with --transform log, VALUE is on the log scale)', defaultText: 'constant' },
     ...COVARIATE_OPTIONS,
@@ -231,7 +231,7 @@ export const fitCommand: CommandSpec = {
   examples: [
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --out lead-model.json',
     'gapwise fit --samples wells.csv --value nitrate --family exponential --method ml --trend linear',
-    'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbors 40 --out survey-model.json',
+    'gapwise fit --samples survey-48k.csv --method nnl --nnl-neighbours 40 --out survey-model.json',
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --covariates sqrt_dist_mill --out lead-covariate-model.json',
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --anisotropy --out lead-anisotropic.json',
     'gapwise fit --samples data-demo/lead-topsoil.csv --transform log --structures 2 --out lead-nested.json',

@@ -119,7 +119,7 @@ interface GridCovariates {
 function covariatesOnGrid(planned: PlannedGrid, model: CovarianceModel, workCrs: string, choice: SimulationChoice): GridCovariates {
   if (!isCovariateTrend(model.trend)) return { grid: planned.grid, warnings: [] };
   // Block support and realisations read the covariates at each cell's block points (or its centre).
-  const nodes = choice.support === 'block' || choice.realizations !== undefined ? choice.blockPoints : undefined;
+  const nodes = choice.support === 'block' || choice.realisations !== undefined ? choice.blockPoints : undefined;
   const g = gridCovariates(planned.grid, model.trend, planned.rasters, workCrs, nodes !== undefined ? { nodes } : {});
   return { grid: g.grid, ...(g.covariates ? { cells: g.covariates } : {}), ...(g.nodeCovariates ? { nodes: g.nodeCovariates } : {}), warnings: [...g.warnings] };
 }
@@ -142,12 +142,12 @@ function checkGridJob(values: OptionValues, model: CovarianceModel, choice: Simu
       `Block kriging (--support block) uses all samples and is limited to fewer than ${count(MAX_EXACT_SAMPLES)} of them; got ${count(n)}. `
       + 'Use --support point (local neighbourhoods from that many samples), or thin the samples.');
   }
-  if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbors') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
-    throw new GapwiseError('bad-option', 'Options "--local", "--neighbors", "--global-mean" and "--local-mean" apply to point support; block kriging uses all samples.');
+  if (blockKriging && (booleanOption(values, 'local') || numberOption(values, 'neighbours') !== undefined || booleanOption(values, 'global-mean') || booleanOption(values, 'local-mean'))) {
+    throw new GapwiseError('bad-option', 'Options "--local", "--neighbours", "--global-mean" and "--local-mean" apply to point support; block kriging uses all samples.');
   }
-  if (choice.realizations !== undefined) {
-    const threads = simulationThreads(choice.realizations, workers);
-    checkSimulationDemand({ grid, realisations: choice.realizations, blockPoints: choice.blockPoints, threads, keep: false }, 'realizations');
+  if (choice.realisations !== undefined) {
+    const threads = simulationThreads(choice.realisations, workers);
+    checkSimulationDemand({ grid, realisations: choice.realisations, blockPoints: choice.blockPoints, threads, keep: false }, 'realisations');
   }
 }
 
@@ -177,7 +177,7 @@ async function computePointSurface(job: PointSurfaceJob): Promise<{ surface: Sur
     ...(p === 'local' && settings ? { local: { ...settings } } : {}),
     surface: { ...(threshold !== undefined ? { threshold } : {}), precision, ...(covariates ? { covariates } : {}) },
   }, { workers, onProgress: progressLine(io, 'cells') }));
-  const settings = { neighbors: Math.min(path.neighbors, n), globalMean: path.globalMean && trendColumnCount(model.trend ?? 'constant') > 0 };
+  const settings = { neighbours: Math.min(path.neighbours, n), globalMean: path.globalMean && trendColumnCount(model.trend ?? 'constant') > 0 };
   let surface = await compute(path.path, settings);
   let accuracy: LocalAccuracy | undefined;
   let used = path;
@@ -186,13 +186,13 @@ async function computePointSurface(job: PointSurfaceJob): Promise<{ surface: Sur
     const checked = await namingAsync(files, () => checkLocalSurface({
       samples, model, grid, surface, settings, tolerance: path.tolerance,
       ...(covariates ? { covariates } : {}),
-      grow: !path.neighborsGiven, exactFallback: path.automatic,
+      grow: !path.neighboursGiven, exactFallback: path.automatic,
       rerun: (s) => (s === 'exact' ? compute('exact') : compute('local', s)),
     }));
     surface = checked.surface;
     used = checked.path === 'exact'
       ? { ...path, path: 'exact', reason: 'local neighbourhoods missed the tolerance' }
-      : { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+      : { ...path, neighbours: checked.settings.neighbours, globalMean: checked.settings.globalMean };
     if (checked.path === 'local') accuracy = checked.accuracy;
     notes.push(...checked.notes, `measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
   }
@@ -272,9 +272,9 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   }));
   const surface = extra.surface ?? point?.surface;
   if (!surface) throw new Error('No surface was computed for block support.');
-  if (choice.realizations !== undefined) {
+  if (choice.realisations !== undefined) {
     const t = extra.threads ?? 1;
-    printNotes(io, [`${count(choice.realizations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
+    printNotes(io, [`${count(choice.realisations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
   }
   const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
   const written = await writeGridFile(io, out, format, { grid, surface, workCrs, unit, valueName, extraBands: extra.bands, ...(accuracy ? { accuracy } : {}), meanLevels });
@@ -286,16 +286,16 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     support: choice.support,
     ...(choice.support === 'block' ? { blockPoints: choice.blockPoints } : {}),
     method: blockKriging ? 'block kriging' : used.path === 'exact' ? 'exact kriging' : 'local neighbourhoods',
-    ...(blockKriging || used.path === 'exact' ? {} : { neighbors: Math.min(used.neighbors, n), globalMean: used.globalMean }),
+    ...(blockKriging || used.path === 'exact' ? {} : { neighbours: Math.min(used.neighbours, n), globalMean: used.globalMean }),
     ...(blockKriging ? {} : { reason: used.reason }),
     ...(accuracy ? { localError: accuracy } : {}),
     n,
     ...(written.bands ? { bands: written.bands } : {}),
     ...(written.features !== undefined ? { features: written.features } : {}),
     range: surface.range,
-    ...(extra.area ? { realizations: extra.area.realizations, seed: extra.area.seed, areaAbove: extra.area.areaAbove } : {}),
+    ...(extra.area ? { realisations: extra.area.realisations, seed: extra.area.seed, areaAbove: extra.area.areaAbove } : {}),
     ...(extra.area?.volumeAbove ? { volumeAbove: extra.area.volumeAbove } : {}),
-    ...(!extra.area && choice.realizations !== undefined ? { realizations: choice.realizations, seed: choice.seed } : {}),
+    ...(!extra.area && choice.realisations !== undefined ? { realisations: choice.realisations, seed: choice.seed } : {}),
     unit,
     caution: CAUTION,
   }));
@@ -313,14 +313,14 @@ export const gridCommand: CommandSpec = {
       + 'the sd and, with --threshold, P(value > T), with the working CRS\'s EPSG code, band names and no-data '
       + '-9999 outside the area; .csv writes x, y, lon, lat, mean, sd (and p_exceed) for each cell inside the area; '
       + '.geojson writes filled bands and isolines of the mean (and of P(exceed)) in WGS 84 longitude/latitude.',
-    'Every cell is computed by exact kriging from all samples or from its --neighbors nearest samples (local '
+    'Every cell is computed by exact kriging from all samples or from its --neighbours nearest samples (local '
       + 'neighbourhoods from a kd-tree, shared by tiles of cells, around the GLS mean of all samples unless --local-mean), '
       + `${AUTOMATIC_PATH_TEXT}. --exact and --local override the choice, which is said on stderr with its reason; the `
       + 'measured error of local neighbourhoods (largest and RMS difference from exact kriging, % of the prior sd) is '
       + 'said on stderr, in the JSON summary ("localError") and in the GeoTIFF\'s metadata. The rows are shared out '
       + 'among --workers threads; a run that lasts more than 2 s prints a progress line at every 10 %.',
     'With --support block each cell holds the average over the cell (block kriging from all samples, fewer than '
-      + `${count(MAX_EXACT_SAMPLES)}) instead of the value at its centre. With --realizations N, N conditional realisations add a band `
+      + `${count(MAX_EXACT_SAMPLES)}) instead of the value at its centre. With --realisations N, N conditional realisations add a band `
       + '"P(... > T) from N realisations" (and, for a log model with block support, the realisations\' block mean) '
       + 'and the summary gives the area above --threshold (m²; with --depth the volume, m³) as the median with 5 % '
       + 'and 95 % values over the realisations, drawn over the same --workers threads. Those bands are written to GeoTIFF only.',
@@ -349,8 +349,8 @@ export const gridCommand: CommandSpec = {
     'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --boundary data-demo/site-boundary.geojson --cell 2 --threshold 200 --out lead.tif',
     'gapwise grid --project site.gapwise.json --out lead-contours.geojson',
     'gapwise grid --samples survey.csv --model models.json --value zinc,lead,copper --threshold zinc=720,lead=530 --cell 10 --out metals.tif',
-    'gapwise grid --samples survey-48k.csv --model survey-model.json --cell 10 --neighbors 48 --out survey.tif',
-    'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --cell 5 --support block --realizations 200 --seed 3 --threshold 200 --depth 0.3 --out lead-blocks.tif',
+    'gapwise grid --samples survey-48k.csv --model survey-model.json --cell 10 --neighbours 48 --out survey.tif',
+    'gapwise grid --samples data-demo/lead-topsoil.csv --model lead-model.json --cell 5 --support block --realisations 200 --seed 3 --threshold 200 --depth 0.3 --out lead-blocks.tif',
   ],
   run,
 };

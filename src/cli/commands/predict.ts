@@ -118,8 +118,8 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     try {
       checked = await namingAsync(files, () => predictLocalChecked(samples, model, work.x, work.y, {
         ...(covariates ? { covariates } : {}),
-        local: { neighbors: path.neighbors, globalMean: path.globalMean, ...(spacing !== undefined ? { targetSpacing: spacing } : {}) },
-        tolerance: path.tolerance, grow: !path.neighborsGiven, exactFallback: path.automatic,
+        local: { neighbours: path.neighbours, globalMean: path.globalMean, ...(spacing !== undefined ? { targetSpacing: spacing } : {}) },
+        tolerance: path.tolerance, grow: !path.neighboursGiven, exactFallback: path.automatic,
         threads, ...(runner ? { runTargets: runner.run } : {}),
       }));
     } finally {
@@ -127,7 +127,7 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     }
     warnings.push(...checked.warnings);
     p = checked.prediction;
-    const used = { ...path, neighbors: checked.settings.neighbors, globalMean: checked.settings.globalMean };
+    const used = { ...path, neighbours: checked.settings.neighbours, globalMean: checked.settings.globalMean };
     notes.push(`${describePredictionPath(used, n, undefined, undefined, knownMean(model.trend ?? 'constant') !== null)}; ${tx.length.toLocaleString('en-US')} targets${spacing !== undefined ? ' (dense: in shared tile neighbourhoods)' : ''}`);
     notes.push(...checked.notes);
     notes.push(`measured error of the local neighbourhoods ${describeAccuracy(checked.accuracy)}`);
@@ -169,7 +169,7 @@ export const predictCommand: CommandSpec = {
       + 'with --threshold, p_exceed = P(value > T) for the noise-free surface. For a log model mean is the '
       + 'bias-corrected data-scale mean and p_exceed is computed on the log scale. All values are in the unit of the '
       + 'samples.',
-    'Each target is predicted by exact kriging from all samples or from its --neighbors nearest samples (local '
+    'Each target is predicted by exact kriging from all samples or from its --neighbours nearest samples (local '
       + 'neighbourhoods, found with a kd-tree, around the GLS mean of all samples; targets denser than the samples '
       + `share tile neighbourhoods), ${AUTOMATIC_PATH_TEXT}. --exact and --local override the `
       + 'choice, which is said on stderr with its reason and, for local neighbourhoods, the measured error '

@@ -3,7 +3,7 @@
  * the text the project holds, the variogram, the model and its comparison, cross-validation, the
  * maps on the project's grid and the suggestions — with the software version and date.
  * The area (and volume) above the action level with its 90 % interval comes from the project's
- * saved realisations, or with --realizations N from realisations drawn here over --workers threads
+ * saved realisations, or with --realisations N from realisations drawn here over --workers threads
  * as `gapwise simulate` draws them (../simulation-pool.ts; options read by ../simulation-options.ts)
  * before the report is prepared; the figure and the thread count are also printed on stderr.
  * A model with covariates takes its covariates on the grid from rasters: --covariate-raster NAME=FILE.tif,
@@ -30,21 +30,21 @@ import { COVARIATE_RASTER_OPTION, checkCovariateRasters, readCovariateRasters } 
 import type { CovariateRaster } from '../../io/covariate-raster.ts';
 import { isCovariateTrend } from '../../core/covariance/model.ts';
 
-/** Options that only shape realisations, refused without --realizations. */
+/** Options that only shape realisations, refused without --realisations. */
 const SIMULATION_ONLY = ['support', 'block-points', 'seed', 'depth', 'workers'];
 
 /**
- * The realisations to draw for the report, or null when --realizations is not given. Settings the
+ * The realisations to draw for the report, or null when --realisations is not given. Settings the
  * command line leaves out come from the project's saved realisations (seed, support, block points,
  * depth), then from the defaults of `gapwise simulate`. Throws GapwiseError('bad-option').
  */
 function reportSimulationSettings(values: OptionValues, project: Project): SimulationSettings | null {
-  if (values.realizations === undefined) {
+  if (values.realisations === undefined) {
     const stray = SIMULATION_ONLY.find((name) => values[name] !== undefined);
-    if (stray) throw new GapwiseError('bad-option', `Option "--${stray}" applies to the realisations; expected "--realizations N" with it.`);
+    if (stray) throw new GapwiseError('bad-option', `Option "--${stray}" applies to the realisations; expected "--realisations N" with it.`);
     return null;
   }
-  if (!project.model) throw new GapwiseError('bad-option', 'Option "--realizations" needs a model, and the project has none; choose one in the app or with "gapwise fit" first.');
+  if (!project.model) throw new GapwiseError('bad-option', 'Option "--realisations" needs a model, and the project has none; choose one in the app or with "gapwise fit" first.');
   const stored = project.simulation;
   const filled: OptionValues = { ...values };
   if (project.threshold !== null) filled.threshold = project.threshold;
@@ -55,10 +55,10 @@ function reportSimulationSettings(values: OptionValues, project: Project): Simul
     if (filled.depth === undefined && stored.depth !== null) filled.depth = stored.depth;
   }
   if (project.threshold === null) {
-    throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected "--threshold T" with "--realizations".');
+    throw new GapwiseError('bad-option', 'The area above the action level needs an action level, and the project has none; expected "--threshold T" with "--realisations".');
   }
-  const choice = readSimulationChoice(filled, project.model, 'realizations');
-  return { count: choice.realizations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
+  const choice = readSimulationChoice(filled, project.model, 'realisations');
+  return { count: choice.realisations!, seed: choice.seed, support: choice.support, blockPoints: choice.blockPoints, depth: choice.depth ?? null };
 }
 
 /**
@@ -67,7 +67,7 @@ function reportSimulationSettings(values: OptionValues, project: Project): Simul
  * only), looked for beside the project file. None for other models (and --covariate-raster is then
  * refused). Throws GapwiseError 'bad-option' naming the covariate when the project's file cannot be read.
  */
-export async function reportRasters(values: OptionValues, cwd: string, projectFile: string, project: Project): Promise<CovariateRaster[]> {
+async function reportRasters(values: OptionValues, cwd: string, projectFile: string, project: Project): Promise<CovariateRaster[]> {
   const given = await readCovariateRasters(values, cwd);
   const trend = project.model?.trend;
   if (!trend || !isCovariateTrend(trend)) {
@@ -124,7 +124,7 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
     if (job) {
       threads = simulationThreads(job.options.count, workers);
       const blockPoints = job.options.support === 'block' ? simulate.blockPoints : 1;
-      checkSimulationDemand({ grid: job.grid, realisations: job.options.count, blockPoints, threads, keep: false }, 'realizations');
+      checkSimulationDemand({ grid: job.grid, realisations: job.options.count, blockPoints, threads, keep: false }, 'realisations');
       drawn = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations') }));
     }
   }
@@ -167,7 +167,7 @@ export const reportCommand: CommandSpec = {
       + 'seconds for a few hundred samples); --no-compare leaves the table out.',
     'The area above the action level (and with --depth the volume) is given as the median over conditional '
       + 'realisations with a 90 % interval (5 % and 95 %), in m², ha and m³, with the method behind it and the caution '
-      + 'that it is a screening estimate. It comes from the realisations saved in the project, or with --realizations N '
+      + 'that it is a screening estimate. It comes from the realisations saved in the project, or with --realisations N '
       + 'from N realisations drawn on the report\'s grid (as "gapwise simulate" draws them; seed, support, block points '
       + 'and depth not given here come from the project\'s saved settings), shared out among --workers threads. '
       + 'The figure is also printed on stderr. '
@@ -176,7 +176,7 @@ export const reportCommand: CommandSpec = {
       + 'report has a section per analyte, each what a report of the project with that value column and that model '
       + 'shows (caution, summary, samples, variogram with the model, comparison, cross-validation, maps, reproduction); '
       + '--threshold takes one number for all or NAME=T pairs. The comparison table, suggestions and realisations saved in '
-      + 'the project belong to its own analyte and model and appear only in that analyte\'s section; --realizations '
+      + 'the project belong to its own analyte and model and appear only in that analyte\'s section; --realisations '
       + 'takes one analyte at a time.',
     'A model with covariates (fit --covariates) needs each covariate on the report\'s grid: --covariate-raster NAME=FILE.tif '
       + '(repeatable; read as "gapwise grid" reads it), else the raster file the project names for it, looked for beside the project '
@@ -199,8 +199,8 @@ export const reportCommand: CommandSpec = {
   ],
   examples: [
     'gapwise report --project site.gapwise.json --out site-report.html',
-    'gapwise report --project site.gapwise.json --realizations 100 --depth 0.3 --seed 1 --out site-report.html',
-    'gapwise report --project site.gapwise.json --covariate-raster workshop_dist_m=workshop-distance.tif --realizations 100 --out site-report.html',
+    'gapwise report --project site.gapwise.json --realisations 100 --depth 0.3 --seed 1 --out site-report.html',
+    'gapwise report --project site.gapwise.json --covariate-raster workshop_dist_m=workshop-distance.tif --realisations 100 --out site-report.html',
     'gapwise report --project site.gapwise.json --model set.json --value zinc,lead --threshold zinc=720,lead=530 --out site-report.html',
   ],
   run,

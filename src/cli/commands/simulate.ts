@@ -39,7 +39,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
   });
   const threshold = numberOption(values, 'threshold');
   const files = { samples: intake.report.fileName, model: modelPath };
-  const n = choice.realizations ?? 0;
+  const n = choice.realisations ?? 0;
   const threads = simulationThreads(n, readWorkers(values, io));
   checkSimulationDemand({ grid, realisations: n, blockPoints: choice.blockPoints, threads, keep: true }, 'count');
   const sim = await namingAsync(files, () => simulateParallel(samples, model, grid, {
@@ -72,7 +72,7 @@ async function run(values: OptionValues, io: CliIo): Promise<number> {
     } : {}),
     lattice: sim.lattice,
     placementError: sim.placementError,
-    neighbors: sim.neighbors,
+    neighbours: sim.neighbours,
     ...(sim.path ? {
       path: { path: sim.path.choice.path, automatic: sim.path.choice.automatic, reason: sim.path.choice.reason, tolerance: pathRequest.tolerance },
       ...(sim.path.accuracy ? { localError: sim.path.accuracy } : {}),
@@ -97,7 +97,7 @@ export const simulateCommand: CommandSpec = {
     'A model with covariates (fit --covariates) needs --covariate-raster NAME=FILE.tif for each: the realisations are '
       + 'conditioned under the kriging mean with covariates, each lattice point with the rasters\' values there; without '
       + '--cell the grid is the first raster\'s lattice, and cells without a value are left empty.',
-    'The residuals are kriged from all samples or from each lattice node\'s --neighbors nearest, whichever is cheaper for this '
+    'The residuals are kriged from all samples or from each lattice node\'s --neighbours nearest, whichever is cheaper for this '
       + 'job by estimated cost (samples, lattice nodes, realisations, threads) within --tolerance; the choice and its reason are said '
       + 'on stderr ("chosen automatically: ... (--exact overrides)") and in the JSON summary ("path"), and a local run\'s measured '
       + 'error against exact kriging at seeded nodes as "localError". --exact and --local override the choice.',

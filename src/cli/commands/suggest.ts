@@ -29,7 +29,7 @@ import { modelFromSet, refuseSeveralAnalytes } from '../analyte-runs.ts';
 import { readSimulationPathRequest } from '../simulation-options.ts';
 import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
 import { describeAccuracy } from '../../core/prediction/local-accuracy.ts';
-import { DEFAULT_DESIGN_NEIGHBORS } from '../../core/design/design-path.ts';
+import { DEFAULT_DESIGN_NEIGHBOURS } from '../../core/design/design-path.ts';
 
 /** The notes that say which posterior chose the sites and why, in the words predict uses, and a local one's measured error. */
 function describeDesignPath(p: NonNullable<DesignResult['path']>, n: number): string[] {
@@ -37,7 +37,7 @@ function describeDesignPath(p: NonNullable<DesignResult['path']>, n: number): st
     return [`sites chosen on the kriging posterior from all ${countText(n)} samples${p.automatic ? `; chosen automatically: ${p.reason} (--local overrides)` : ' (--exact)'}`];
   }
   const why = p.automatic ? `; chosen automatically: ${p.reason} (--exact overrides)` : ' (--local)';
-  const notes = [`sites chosen on the posterior from the ${p.neighbors ?? DEFAULT_DESIGN_NEIGHBORS} nearest samples of each point (local neighbourhoods); ${countText(n)} samples${why}`];
+  const notes = [`sites chosen on the posterior from the ${p.neighbours ?? DEFAULT_DESIGN_NEIGHBOURS} nearest samples of each point (local neighbourhoods); ${countText(n)} samples${why}`];
   if (p.accuracy) notes.push(`measured error of the local posterior ${describeAccuracy(p.accuracy)}`);
   return notes;
 }
@@ -160,7 +160,7 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
   if (candidatesPath !== undefined) options.candidates = readCandidates(io, candidatesPath, values, intake);
   const pathRequest = readSimulationPathRequest(values);
   if (pathRequest.force) options.path = pathRequest.force;
-  if (pathRequest.neighbors !== undefined) options.neighbors = pathRequest.neighbors;
+  if (pathRequest.neighbours !== undefined) options.neighbours = pathRequest.neighbours;
   options.tolerance = pathRequest.tolerance;
 
   // A covariate model: the area grid and candidates with the rasters' values (--covariate-raster).
@@ -285,7 +285,7 @@ export const suggestCommand: CommandSpec = {
         + 'candidates, sites); a local posterior is measured against exact kriging at seeded evaluation points and replaced by the exact one when it misses --tolerance',
     },
     { name: 'local', kind: 'boolean', help: 'variance and decision designs: the posterior from local neighbourhoods (its error is still measured and reported)', defaultText: 'automatic, as for --exact' },
-    { name: 'neighbors', kind: 'number', placeholder: 'M', unit: 'samples', help: 'local posterior: each point\'s M nearest samples', defaultText: String(DEFAULT_DESIGN_NEIGHBORS) },
+    { name: 'neighbours', kind: 'number', placeholder: 'M', unit: 'samples', help: 'local posterior: each point\'s M nearest samples', defaultText: String(DEFAULT_DESIGN_NEIGHBOURS) },
     {
       name: 'tolerance', kind: 'string', placeholder: 'mean=P,sd=P',
       help: 'how close a local posterior must come to exact kriging: largest difference of the mean and sd, in % of the prior sd (0 takes the exact posterior)',

@@ -12,7 +12,7 @@
  * Benefit of a site: how much the MSSD would rise without it (m²).
  * Units: metres, m². Cost per iteration O(points·count + count·log(candidates)).
  */
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import { createRandom } from '../shared/random.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import type { Points } from './design-greedy.ts';
@@ -51,7 +51,7 @@ function fixedDistances(points: Points, fixed: Points): Float64Array {
   const m = points.x.length;
   const d = new Float64Array(m).fill(Infinity);
   if (fixed.x.length === 0) return d;
-  const index = new NeighborIndex(fixed.x, fixed.y);
+  const index = new NeighbourIndex(fixed.x, fixed.y);
   const id = new Uint32Array(1);
   const d2 = new Float64Array(1);
   for (let k = 0; k < m; k++) {
@@ -94,7 +94,7 @@ interface SpacingRules {
 
 function spacingRules(candidates: CoverageProblem['candidates'], minSpacing: number): SpacingRules {
   const mC = candidates.x.length;
-  const candIndex = new NeighborIndex(candidates.x, candidates.y);
+  const candIndex = new NeighbourIndex(candidates.x, candidates.y);
   const spacing2 = minSpacing * minSpacing;
   const farEnough = (c: number, placed: readonly number[], skipSlot: number): boolean => {
     if (spacing2 <= 0) {

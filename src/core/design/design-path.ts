@@ -27,7 +27,7 @@ import { createLocalPosterior, type LocalPosterior } from './design-posterior.ts
 import type { Points } from './design-greedy.ts';
 
 /** Default samples per neighbourhood of a local design posterior. */
-export const DEFAULT_DESIGN_NEIGHBORS = 64;
+export const DEFAULT_DESIGN_NEIGHBOURS = 64;
 
 /** The design job the posterior is chosen for (plain data). */
 export interface DesignJob {
@@ -35,7 +35,7 @@ export interface DesignJob {
   evaluation: number;
   candidates: number;
   sites: number;
-  neighbors?: number;
+  neighbours?: number;
   covariates?: boolean;
   tolerance?: Tolerance;
   force?: 'exact' | 'local';
@@ -49,9 +49,9 @@ export function designExactCost(samples: number, evaluation: number, candidates:
 }
 
 /** Estimated multiply-adds of a design on the local posterior, its measured error included. */
-export function designLocalCost(samples: number, evaluation: number, candidates: number, sites: number, neighbors = DEFAULT_DESIGN_NEIGHBORS): number {
+export function designLocalCost(samples: number, evaluation: number, candidates: number, sites: number, neighbours = DEFAULT_DESIGN_NEIGHBOURS): number {
   const n = samples;
-  const m = Math.min(neighbors, n);
+  const m = Math.min(neighbours, n);
   return (evaluation + candidates) * (m ** 3 / 6 + (KERNEL_COST * m * m) / 2 + m * m) + evaluation * candidates * KERNEL_COST * m
     + sites * candidates * KERNEL_COST * m + n * Math.log2(Math.max(2, n)) + referenceCost(n, evaluation);
 }
@@ -64,7 +64,7 @@ function billions(x: number): string {
 /** Chooses the exact or local posterior for a design (see the file header). Throws GapwiseError('bad-option') for --exact beyond EXACT_SAMPLE_LIMIT samples or --local with covariates. */
 export function chooseDesignPath(job: DesignJob): PathChoice {
   const n = job.samples;
-  const m = job.neighbors ?? DEFAULT_DESIGN_NEIGHBORS;
+  const m = job.neighbours ?? DEFAULT_DESIGN_NEIGHBOURS;
   const ex = n <= EXACT_SAMPLE_LIMIT ? designExactCost(n, job.evaluation, job.candidates, job.sites) : Infinity;
   const lo = designLocalCost(n, job.evaluation, job.candidates, job.sites, m);
   const tolerance = job.tolerance ?? DEFAULT_TOLERANCE;
@@ -86,7 +86,7 @@ export function chooseDesignPath(job: DesignJob): PathChoice {
 /** The posterior a design runs on, why, and the local one's measured error (plain data, and the posterior itself). */
 export interface DesignPath {
   choice: PathChoice;
-  neighbors?: number;
+  neighbours?: number;
   accuracy?: LocalAccuracy;
   warnings: Warning[];
   /** The local posterior to use (absent on the exact path). */
@@ -103,7 +103,7 @@ export function planDesignPath(samples: Samples, model: CovarianceModel, evaluat
   const tolerance = job.tolerance ?? DEFAULT_TOLERANCE;
   const first = chooseDesignPath({ ...job, samples: n, evaluation: mE });
   if (first.path === 'exact') return { choice: first, warnings: [] };
-  const local = createLocalPosterior(samples, model, job.neighbors ?? DEFAULT_DESIGN_NEIGHBORS);
+  const local = createLocalPosterior(samples, model, job.neighbours ?? DEFAULT_DESIGN_NEIGHBOURS);
   const seed = DEFAULT_CHECK_SEED;
   const idx = chooseCheckTargets(mE, checkCount(n, mE), seed);
   const x = Float64Array.from(idx, (i) => evaluation.x[i]);
@@ -111,10 +111,10 @@ export function planDesignPath(samples: Samples, model: CovarianceModel, evaluat
   const reference = referencePredictions(samples, model, x, y);
   const f = local.features(x, y);
   const accuracy = compareWithReference(model, reference, { mean: f.mean, sd: Float64Array.from(f.variance, Math.sqrt) },
-    { targets: mE, seed, neighbors: local.neighbors, globalMean: false, tolerance });
+    { targets: mE, seed, neighbours: local.neighbours, globalMean: false, tolerance });
   if (!accuracy.within && first.automatic && n <= EXACT_SAMPLE_LIMIT) {
     return {
-      choice: { ...first, path: 'exact', reason: `local neighbourhoods of ${local.neighbors} samples missed the tolerance (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} % of the prior sd)` },
+      choice: { ...first, path: 'exact', reason: `local neighbourhoods of ${local.neighbours} samples missed the tolerance (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} % of the prior sd)` },
       warnings: [],
     };
   }
@@ -122,5 +122,5 @@ export function planDesignPath(samples: Samples, model: CovarianceModel, evaluat
   if (!accuracy.within) {
     warnings.push({ code: 'tolerance-missed', message: `The local posterior missed the tolerance (${describeAccuracy(accuracy)}); more neighbours or the exact posterior come closer.` });
   }
-  return { choice: first, neighbors: local.neighbors, accuracy, warnings, local };
+  return { choice: first, neighbours: local.neighbours, accuracy, warnings, local };
 }

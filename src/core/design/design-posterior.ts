@@ -18,7 +18,7 @@ import type { Samples } from '../shared/samples.ts';
 import { crossCovarianceMatrix, surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
 import { designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { buildKrigingSystem, weightsWithSystem } from '../prediction/kriging.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import type { Warning } from '../shared/errors.ts';
 
 /** Posterior features of a set of points (what a column of the posterior covariance is built from). */
@@ -41,7 +41,7 @@ export interface LocalFeatures {
 /** Local-neighbourhood posterior of a design: build once, then features and cross-covariances. */
 export interface LocalPosterior {
   /** Samples per neighbourhood: min(m, n). */
-  neighbors: number;
+  neighbours: number;
   c0: number;
   features(px: ArrayLike<number>, py: ArrayLike<number>): LocalFeatures;
   /** k₀(A_i, B_j) (mA × mB, row-major), each column from B_j's neighbourhood. */
@@ -50,15 +50,15 @@ export interface LocalPosterior {
 }
 
 /** A local posterior from the m nearest samples of each point (no covariates: those need the global trend). */
-export function createLocalPosterior(samples: Samples, model: CovarianceModel, neighbors: number): LocalPosterior {
+export function createLocalPosterior(samples: Samples, model: CovarianceModel, neighbours: number): LocalPosterior {
   const n = samples.x.length;
-  const k = Math.min(neighbors, n);
+  const k = Math.min(neighbours, n);
   const p = trendColumnCount(model.trend);
   let cx = 0, cy = 0;
   for (let i = 0; i < n; i++) { cx += samples.x[i]; cy += samples.y[i]; }
   cx /= n; cy /= n;
   const iso = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, cx, cy);
-  const index = new NeighborIndex(iso.u, iso.v);
+  const index = new NeighbourIndex(iso.u, iso.v);
   const warnings: Warning[] = [];
   const seen = new Set<string>();
   const sub = { x: new Float64Array(k), y: new Float64Array(k), value: new Float64Array(k) };
@@ -119,5 +119,5 @@ export function createLocalPosterior(samples: Samples, model: CovarianceModel, n
     return out;
   };
 
-  return { neighbors: k, c0: surfaceVariance(model), features, cross, warnings };
+  return { neighbours: k, c0: surfaceVariance(model), features, cross, warnings };
 }

@@ -33,7 +33,7 @@ import type { PathChoice, Tolerance } from '../prediction/path-choice.ts';
 import type { LocalAccuracy } from '../prediction/local-accuracy.ts';
 import { planDesignPath } from './design-path.ts';
 import { exceedanceProbability } from '../shared/normal.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import { greedyDesign, type Points } from './design-greedy.ts';
 import { checkCovariateRows, covariateColumnCount } from '../covariance/trend.ts';
 import { coverageDesign } from './design-coverage.ts';
@@ -85,7 +85,7 @@ export interface DesignOptions {
    */
   path?: 'exact' | 'local';
   /** Samples per neighbourhood of a local posterior (default 64). */
-  neighbors?: number;
+  neighbours?: number;
   /** How close a local posterior must come to the exact one (% of the prior sd; default mean 1, sd 2). */
   tolerance?: Tolerance;
 }
@@ -152,7 +152,7 @@ export interface DesignResult {
   warnings: Warning[];
   caution: string;
   /** Variance and decision designs: the posterior used and why, and a local one's measured error. */
-  path?: PathChoice & { neighbors?: number; accuracy?: LocalAccuracy };
+  path?: PathChoice & { neighbours?: number; accuracy?: LocalAccuracy };
 }
 
 const DEFAULT_CELLS = 10_000;
@@ -362,7 +362,7 @@ function keepCandidates(samples: Samples, options: DesignOptions, areaOf: Design
   const rawY = gy ?? cellsIn.y;
   const rawCovariates = q === 0 ? undefined : given ? given.covariates! : cellPoints(grid, cellsIn.x, cellsIn.y, cellsIn.index, options.covariates).covariates!;
   const keepCovariates: number[] = [];
-  const sampleIndex = samples.x.length > 0 ? new NeighborIndex(samples.x, samples.y) : null;
+  const sampleIndex = samples.x.length > 0 ? new NeighbourIndex(samples.x, samples.y) : null;
   const keepX: number[] = [];
   const keepY: number[] = [];
   let outside = 0, excluded = 0, tooClose = 0;
@@ -510,13 +510,13 @@ function greedySuggestions(
   }
   const path = planDesignPath(samples, model, evaluation, {
     candidates: screen ? screen.length : candidates.x.length, sites: count, covariates: areaOf.q > 0,
-    ...(options.neighbors !== undefined ? { neighbors: options.neighbors } : {}),
+    ...(options.neighbours !== undefined ? { neighbours: options.neighbours } : {}),
     ...(options.tolerance ? { tolerance: options.tolerance } : {}), ...(options.path ? { force: options.path } : {}),
   });
   warnings.push(...path.warnings);
   const sys = path.local ? undefined : buildKrigingSystem(samples, model);
   if (sys) warnings.splice(systemWarningsAt, 0, ...sys.warnings);
-  const candIndex = new NeighborIndex(candidates.x, candidates.y);
+  const candIndex = new NeighbourIndex(candidates.x, candidates.y);
   const result = greedyDesign({
     ...(sys ? { system: sys } : {}), ...(path.local ? { local: path.local } : {}),
     evaluation, evaluationArea: areaOf.area / mE, candidates, screen, refineRadius, within: (x, y, r) => candIndex.within(x, y, r),
@@ -528,7 +528,7 @@ function greedySuggestions(
   const sites = { x: result.picks.map((s) => s.x), y: result.picks.map((s) => s.y) };
   const predicted = result.picks.length === 0 ? null
     : sys ? predictWithSystem(sys, sites.x, sites.y, covariatesAtIds(candidates, areaOf.q, result.picks.map((s) => s.index)))
-      : createLocalPredictor(samples, model, { neighbors: path.neighbors }).predict(sites.x, sites.y);
+      : createLocalPredictor(samples, model, { neighbours: path.neighbours }).predict(sites.x, sites.y);
   let sdBefore = 0;
   let sdAfter = 0;
   for (let e = 0; e < mE; e++) {
@@ -554,7 +554,7 @@ function greedySuggestions(
     coverageDistanceAfter: null,
     evaluationPoints: mE,
     screenedCandidates: screen ? screen.length : candidates.x.length,
-    path: { ...path.choice, ...(path.neighbors !== undefined ? { neighbors: path.neighbors } : {}), ...(path.accuracy ? { accuracy: path.accuracy } : {}) },
+    path: { ...path.choice, ...(path.neighbours !== undefined ? { neighbours: path.neighbours } : {}), ...(path.accuracy ? { accuracy: path.accuracy } : {}) },
   };
 }
 

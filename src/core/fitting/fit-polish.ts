@@ -9,7 +9,7 @@
 import type { CovarianceModel, CorrelatedStructure, Structure } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import { createLikelihood, NU_BOUNDS, type CorrelationParameters } from './likelihood.ts';
-import { minimizeBounded, type ParameterSpace } from '../linalg/optimize.ts';
+import { minimiseBounded, type ParameterSpace } from '../linalg/optimise.ts';
 import { practicalRange } from '../covariance/covariance.ts';
 
 /**
@@ -40,7 +40,7 @@ export function polishLikelihoodFit(samples: Samples, model: CovarianceModel, to
   });
   const f = (x: number[]) => -lik.evaluate(toTheta(x), { allowJitter: !fitNugget }).logLikelihood;
   const start = f(x0);
-  const res = minimizeBounded(f, x0, spaces, {
+  const res = minimiseBounded(f, x0, spaces, {
     step: 0.05, restarts: 1, xTolerance: 1e-5, fTolerance: tolerance / Math.max(1, Math.abs(start)), maxEvaluations: 400 * x0.length,
   });
   if (!(res.value < start)) return model;

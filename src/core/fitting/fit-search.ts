@@ -3,10 +3,10 @@
  * (fit-anisotropy.ts: azimuth and ratio; fit-nested.ts: two structures): profiled REML or ML
  * (likelihood.ts, with the caller's correlation model at θ) maximised over the caller's parameters.
  *
- * Method, as fit.ts does it for one structure: every start is evaluated, Nelder–Mead (optimize.ts)
+ * Method, as fit.ts does it for one structure: every start is evaluated, Nelder–Mead (optimise.ts)
  * runs from the best few; above SCREEN_ABOVE samples those runs use a seeded subset of
  * SEARCH_SUBSET samples, the subset optima are ranked on all samples and the best is polished there
- * by Newton steps (optimize.ts newtonRefine, a second round when the first does not settle; a short
+ * by Newton steps (optimise.ts newtonRefine, a second round when the first does not settle; a short
  * Nelder–Mead run when they still do not converge).
  * Newton steps work in one coordinate per parameter: ln x on a log scale, the logit of the position
  * in a two-sided box on a linear scale, x / unit otherwise (an angle in radians, say), so a finite
@@ -14,14 +14,14 @@
  * Units: the caller's. Cost: about 20–40 evaluations on all samples above SCREEN_ABOVE (n³/3 flops
  * each) plus a few hundred on the subset; 100–300 on all samples below.
  */
-import type { ParameterSpace } from '../linalg/optimize.ts';
+import type { ParameterSpace } from '../linalg/optimise.ts';
 import type { CorrelationModelAt, Likelihood, LikelihoodSetup, LikelihoodValue, CorrelationParameters } from './likelihood.ts';
 import type { Samples } from '../shared/samples.ts';
 import type { FitProgress } from './fit.ts';
 import { GapwiseError } from '../shared/errors.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
 import { createLikelihood } from './likelihood.ts';
-import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
+import { minimiseBounded, newtonRefine } from '../linalg/optimise.ts';
 import { subsetSamples } from './fit.ts';
 
 /** From this many samples the starts are searched on a subset. */
@@ -137,7 +137,7 @@ export function searchLikelihood(
   const candidates: { x: number[]; value: number; converged: boolean }[] = [];
   for (const start of ranked.slice(0, runs)) {
     if (!Number.isFinite(start.value)) break;
-    const res = minimizeBounded(fScreen, start.x, spaces, {
+    const res = minimiseBounded(fScreen, start.x, spaces, {
       step: steps, restarts: screening ? 0 : 1, xTolerance: screening ? 0.05 : 0.005,
       fTolerance: screening ? 1e-2 / Math.max(1, Math.abs(start.value)) : fTolerance(start.value), maxEvaluations: perRun,
     });
@@ -186,7 +186,7 @@ export function searchLikelihood(
       best = { x: refinedX, value: refined.value, converged: true };
     } else {
       const from = refined.value <= top.value ? { x: refinedX, value: refined.value } : top;
-      const res = minimizeBounded(fFull, from.x, spaces, {
+      const res = minimiseBounded(fFull, from.x, spaces, {
         step: steps.map((s) => s / 4), restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(from.value), maxEvaluations: options.maxEvaluations ?? 40 * d,
       });
       iterations += res.iterations;

@@ -3,13 +3,13 @@
  * empirical variogram; and fits the standard candidate set ranked by AIC.
  *
  * Likelihood fits (likelihood.ts; Patterson & Thompson 1971, Harville 1977) profile the sill out
- * and search θ = (scale, η = nugget/partial sill[, ν]) on log scales by Nelder–Mead (optimize.ts)
+ * and search θ = (scale, η = nugget/partial sill[, ν]) on log scales by Nelder–Mead (optimise.ts)
  * from several starts: scale from fractions of the largest sample distance, η from {0.01, 0.1, 0.5},
  * ν ∈ [0.2, 5] when free. Above 250 samples the starts are screened on a seeded 150-sample subset
  * before the best is polished on all samples, so most evaluations cost (150/n)³ of a full one. Above
  * 1,000 samples the best is first refined on the nearest-neighbour likelihood of all samples
  * (vecchia.ts, 30 neighbours, about n·10⁴ flops an evaluation) and then polished by Newton steps
- * on the exact likelihood (optimize.ts newtonRefine; Nelder–Mead when they do not converge).
+ * on the exact likelihood (optimise.ts newtonRefine; Nelder–Mead when they do not converge).
  * WLS minimises Cressie's (1985, Math. Geol. 17:563) criterion Σ N_j[γ̂(h_j)/γ(h_j; θ) − 1]² over
  * sill, scale and nugget (and ν when free): first with the sill and nugget solved by iteratively
  * reweighted linear least squares for each scale, then jointly; its REML log-likelihood at the fitted
@@ -25,7 +25,7 @@ import type { Anisotropy, CovarianceModel, Family, FitInfo, Structure, Trend } f
 import type { Samples } from '../shared/samples.ts';
 import type { VariogramOptions } from './variogram.ts';
 import type { CorrelationParameters, Likelihood, LikelihoodSetup, LikelihoodValue } from './likelihood.ts';
-import type { ParameterSpace } from '../linalg/optimize.ts';
+import type { ParameterSpace } from '../linalg/optimise.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
 import { fitWarning, withoutFitWarnings, type FitWarning } from '../covariance/fit-warnings.ts';
 import { GapwiseError } from '../shared/errors.ts';
@@ -34,7 +34,7 @@ import { isCovariateTrend } from '../covariance/model.ts';
 import { resolveFitTrend, leastSquaresResiduals, attachTrendCoefficients } from './covariate-fit.ts';
 import { polishLikelihoodFit } from './fit-polish.ts';
 import { createLikelihood, NU_BOUNDS } from './likelihood.ts';
-import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
+import { minimiseBounded, newtonRefine } from '../linalg/optimise.ts';
 import { createVecchiaLikelihood } from './vecchia.ts';
 import { empiricalVariogram } from './variogram.ts';
 import { correlation, practicalRange, toIsotropicCoordinates } from '../covariance/covariance.ts';
@@ -51,7 +51,7 @@ const SCREEN_ABOVE = 250;
 const SCREEN_SIZE = 150;
 const MID_ABOVE = 1000;
 /** Neighbours of the nearest-neighbour likelihood that stands in for the exact one above MID_ABOVE samples. */
-const NEAR_NEIGHBORS = 30;
+const NEAR_NEIGHBOURS = 30;
 const NUGGET_RATIO_BOUNDS = { lower: 1e-6, upper: 1e3 };
 const FAMILIES: ReadonlySet<string> = new Set(['matern', 'exponential', 'spherical', 'gaussian']);
 
@@ -296,7 +296,7 @@ function polishScreened(
   const d = L.spaces.length;
   const near = samples.value.length > MID_ABOVE;
   const fTolerance = (scaleOf: number) => 1e-3 / Math.max(1, Math.abs(scaleOf));
-  const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbors: NEAR_NEIGHBORS }) : undefined;
+  const nearLik = near ? createVecchiaLikelihood(samples, { ...setup, neighbours: NEAR_NEIGHBOURS }) : undefined;
   const fStage = nearLik ? negLogLik(nearLik, L, allowJitter, tick) : fFull;
   counter?.goTo(rank);
   let best: Point | undefined;
@@ -311,7 +311,7 @@ function polishScreened(
   let step = 0.2;
   counter?.goTo(rank + 1);
   if (nearLik) {
-    const res = minimizeBounded(fStage, top.x, L.spaces, {
+    const res = minimiseBounded(fStage, top.x, L.spaces, {
       step: 0.2, restarts: 0, xTolerance: 0.01, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
     });
     tally.iterations += res.iterations;
@@ -326,7 +326,7 @@ function polishScreened(
   }
   counter?.goTo(rank + 3);
   if (!best) {
-    const res = minimizeBounded(fFull, top.x, L.spaces, {
+    const res = minimiseBounded(fFull, top.x, L.spaces, {
       step, restarts: 0, xTolerance: 0.02, fTolerance: fTolerance(top.value), maxEvaluations: maxEvaluations ?? 80 * d,
     });
     tally.iterations += res.iterations;
@@ -412,7 +412,7 @@ function fitByLikelihood(samples: Samples, r: Resolved, maxEvaluations?: number,
   for (const start of grid.slice(0, r.starts)) {
     if (!Number.isFinite(start.value)) break;
     counter?.goTo(candidates.length + 1);
-    const res = minimizeBounded(fScreen, start.x, L.spaces, {
+    const res = minimiseBounded(fScreen, start.x, L.spaces, {
       step: 0.7, restarts: screening ? 0 : 1, xTolerance: screening ? 0.1 : 0.01,
       fTolerance: screening ? 1e-2 / Math.max(1, Math.abs(start.value)) : fTolerance(start.value), maxEvaluations: maxEvaluations ?? 150 * d,
     });
@@ -587,7 +587,7 @@ export function fitToEmpiricalLags(lagsIn: ReadonlyArray<LagPoint>, options: Lag
   for (const scale of scaleStarts(family, maxDistance)) {
     for (const nu of nuFree ? [0.5, 1.5, 2.5] : [undefined]) {
       const x0 = nu === undefined ? [scale] : [scale, nu];
-      const res = minimizeBounded(shapeObjective, x0, shapeSpaces, { step: 0.5, restarts: 1, xTolerance: 1e-6, fTolerance: 1e-12 });
+      const res = minimiseBounded(shapeObjective, x0, shapeSpaces, { step: 0.5, restarts: 1, xTolerance: 1e-6, fTolerance: 1e-12 });
       iterations += res.iterations;
       if (res.value < stage1.value) stage1 = { x: res.x, value: res.value };
     }
@@ -604,7 +604,7 @@ export function fitToEmpiricalLags(lagsIn: ReadonlyArray<LagPoint>, options: Lag
     return cressie(withNugget ? x[2] * x[2] : 0, x[1]);
   };
   const steps = x0.map((v, i) => (i === 2 && withNugget ? Math.max(0.05 * Math.sqrt(gMax), 0.2 * v) : 0.3));
-  const polish = minimizeBounded(joint, x0, spaces, {
+  const polish = minimiseBounded(joint, x0, spaces, {
     step: steps, restarts: 2, xTolerance: 1e-8, fTolerance: 1e-12, maxEvaluations: options.maxEvaluations ?? 2000 * x0.length,
   });
   iterations += polish.iterations;

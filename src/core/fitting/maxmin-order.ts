@@ -14,7 +14,7 @@
  * Units: the caller's coordinates. Cost: ordering about O(n log² n); neighbours O(n·m·log n) time,
  * n·m·4 bytes.
  */
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 
 /**
  * The maxmin order of the points: order[k] is the index of the k-th point. Deterministic (ties go
@@ -70,7 +70,7 @@ export function maxminOrder(x: ArrayLike<number>, y: ArrayLike<number>): Uint32A
     size++;
   }
   // Keys start as the distance to the first point; then heapify.
-  const index = new NeighborIndex(x, y);
+  const index = new NeighbourIndex(x, y);
   for (let i = 0; i < n; i++) key[i] = (x[i] - x[first]) ** 2 + (y[i] - y[first]) ** 2;
   for (let pos = (size >> 1) - 1; pos >= 0; pos--) siftDown(pos);
   order[0] = first;
@@ -108,7 +108,7 @@ export function maxminOrder(x: ArrayLike<number>, y: ArrayLike<number>): Uint32A
 }
 
 /** Each ordered position's earlier neighbours, in ordered positions (not original indices). */
-export interface OrderedNeighbors {
+export interface OrderedNeighbours {
   /** Number of points. */
   n: number;
   /** Largest neighbour count m. */
@@ -123,7 +123,7 @@ export interface OrderedNeighbors {
  * For points already in the order of evaluation (ox, oy), the up to m nearest earlier points of
  * each position (ties broken arbitrarily). Positions below m take all earlier points.
  */
-export function orderedNeighbors(ox: Float64Array, oy: Float64Array, m: number): OrderedNeighbors {
+export function orderedNeighbours(ox: Float64Array, oy: Float64Array, m: number): OrderedNeighbours {
   const n = ox.length;
   if (oy.length !== n) throw new Error(`Expected x and y of equal length, got ${n} and ${oy.length}.`);
   if (!(Number.isInteger(m) && m >= 1 && m <= 65535)) throw new Error(`Expected a neighbour count between 1 and 65535, got ${m}.`);
@@ -146,12 +146,12 @@ export function orderedNeighbors(ox: Float64Array, oy: Float64Array, m: number):
 
   // Prefix trees of doubling size, each built when first needed.
   let treeSize = 0;
-  let tree: NeighborIndex | null = null;
+  let tree: NeighbourIndex | null = null;
   let buf = new Uint32Array(4 * m + 2);
   for (let i = direct; i < n; i++) {
     if (i >= treeSize) {
       treeSize = Math.min(n, Math.max(2 * i, 4 * m));
-      tree = new NeighborIndex(ox.subarray(0, treeSize), oy.subarray(0, treeSize));
+      tree = new NeighbourIndex(ox.subarray(0, treeSize), oy.subarray(0, treeSize));
     }
     let want = Math.min(treeSize, 2 * m + 2);
     for (;;) {

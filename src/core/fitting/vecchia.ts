@@ -17,7 +17,7 @@
 import type { Anisotropy, CovarianceModel, Family, FitInfo, Structure, Trend } from '../covariance/model.ts';
 import type { FitOptions } from './fit-options.ts';
 import { NU_BOUNDS } from './likelihood.ts';
-import type { ParameterSpace } from '../linalg/optimize.ts';
+import type { ParameterSpace } from '../linalg/optimise.ts';
 import type { Samples } from '../shared/samples.ts';
 import { pickSamples } from '../shared/samples.ts';
 import { numericalFailureAdvice } from '../covariance/numerical-advice.ts';
@@ -26,18 +26,18 @@ import type { FitWarning } from '../covariance/fit-warnings.ts';
 import { choleskyInPlace, solveLowerInPlace } from '../linalg/linalg.ts';
 import { correlationFunction, covarianceFunction, practicalRange, surfaceVariance, toIsotropicCoordinates } from '../covariance/covariance.ts';
 import { nuggetOf } from '../covariance/model.ts';
-import { maxminOrder, orderedNeighbors, type OrderedNeighbors } from './maxmin-order.ts';
+import { maxminOrder, orderedNeighbours, type OrderedNeighbours } from './maxmin-order.ts';
 import {
   coordinateFrame, trendColumnCount, knownMean, designRow, covariateColumnCount, trendFrame, checkCovariateRows,
   type CoordinateFrame,
 } from '../covariance/trend.ts';
 import type { CorrelationParameters, LikelihoodMethod, LikelihoodSetup, LikelihoodValue } from './likelihood.ts';
-import { minimizeBounded, newtonRefine } from '../linalg/optimize.ts';
+import { minimiseBounded, newtonRefine } from '../linalg/optimise.ts';
 import { createRandom } from '../shared/random.ts';
 import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Default number of earlier neighbours each sample is conditioned on. */
-export const DEFAULT_VECCHIA_NEIGHBORS = 30;
+export const DEFAULT_VECCHIA_NEIGHBOURS = 30;
 
 const LN_2PI = Math.log(2 * Math.PI);
 
@@ -60,7 +60,7 @@ interface VecchiaContext {
   /** Ordered isotropic coordinates (centred). */
   ou: Float64Array;
   ov: Float64Array;
-  nb: OrderedNeighbors;
+  nb: OrderedNeighbours;
 }
 
 function prepareContext(x: ArrayLike<number>, y: ArrayLike<number>, cx: number, cy: number, anisotropy: Anisotropy | undefined, m: number): VecchiaContext {
@@ -74,7 +74,7 @@ function prepareContext(x: ArrayLike<number>, y: ArrayLike<number>, cx: number, 
     ov[k] = v[order[k]];
   }
   const mm = Math.max(1, Math.min(m, Math.max(1, n - 1)));
-  const nb = orderedNeighbors(ou, ov, mm);
+  const nb = orderedNeighbours(ou, ov, mm);
   return { n, m: mm, order, ou, ov, nb };
 }
 
@@ -304,7 +304,7 @@ function whitenedGls(yt: Float64Array, Xt: Float64Array, n: number, p: number): 
 /** Options of the nearest-neighbour likelihood: the dense setup plus the neighbour count. */
 export interface VecchiaSetup extends LikelihoodSetup {
   /** Earlier neighbours per sample, m; default 30. */
-  neighbors?: number;
+  neighbours?: number;
 }
 
 /** The nearest-neighbour likelihood of one data set, evaluated at many θ (same shape as likelihood.ts). */
@@ -313,7 +313,7 @@ export interface VecchiaLikelihood {
   readonly p: number;
   readonly method: LikelihoodMethod;
   /** Neighbours per sample actually used (min(m, n − 1)). */
-  readonly neighbors: number;
+  readonly neighbours: number;
   readonly centre: { cx: number; cy: number };
   /** Diagonal of the samples' bounding box in effective distance (an upper bound on the largest pair distance), metres. */
   readonly maxDistance: number;
@@ -328,8 +328,8 @@ export interface VecchiaEvaluateOptions {
   sigma2?: number;
   /** Add up to 1e-5 (relative) to a neighbourhood's diagonal when it cannot be factorised. */
   allowJitter?: boolean;
-  /** Use only the nearest `neighbors` ≤ m of each list (a cheaper, coarser approximation). */
-  neighbors?: number;
+  /** Use only the nearest `neighbours` ≤ m of each list (a cheaper, coarser approximation). */
+  neighbours?: number;
 }
 
 /**
@@ -340,7 +340,7 @@ export interface VecchiaEvaluateOptions {
 export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup, threads?: VecchiaThreads): VecchiaLikelihood {
   const n = samples.value.length;
   const method: LikelihoodMethod = setup.method ?? 'reml';
-  const m = setup.neighbors ?? DEFAULT_VECCHIA_NEIGHBORS;
+  const m = setup.neighbours ?? DEFAULT_VECCHIA_NEIGHBOURS;
   if (!(Number.isInteger(m) && m >= 1)) throw new GapwiseError('bad-option', `Expected the neighbour count to be a whole number of at least 1, got ${String(m)}.`);
   let cx = 0;
   let cy = 0;
@@ -388,7 +388,7 @@ export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup, t
       logLikelihood: -Infinity, sigma2: NaN, beta: [], logDetR, logDetInformation: NaN, quadraticForm: NaN, jitter,
     });
     const nu = theta.nu ?? setup.nu ?? 1.5;
-    const limit = Math.min(ctx.m, options.neighbors ?? ctx.m);
+    const limit = Math.min(ctx.m, options.neighbours ?? ctx.m);
     const allowJitter = options.allowJitter ?? false;
     const wh = shared
       ? shared.pass({ family: PASS_FAMILIES.indexOf(setup.family), scale: theta.scale, nu, diagonal: 1 + theta.nuggetRatio, allowJitter, limit })
@@ -412,7 +412,7 @@ export function createVecchiaLikelihood(samples: Samples, setup: VecchiaSetup, t
       logDetInformation: gls.logDetInformation, quadraticForm: gls.Q, jitter: wh.jitter,
     };
   };
-  return { n, p, method, neighbors: ctx.m, centre: { cx, cy }, maxDistance, medianSpacing, evaluate };
+  return { n, p, method, neighbours: ctx.m, centre: { cx, cy }, maxDistance, medianSpacing, evaluate };
 }
 
 /** The GLS trend of a full model through the nearest-neighbour factor. */
@@ -431,13 +431,13 @@ export interface VecchiaTrend {
  * with the covariance replaced by its nearest-neighbour approximation: β̂ = (X̃ᵀX̃)⁻¹X̃ᵀỹ.
  * Values are used as given (the caller applies any log transform). Cost O(n·m³).
  */
-export function vecchiaTrend(samples: Samples, model: CovarianceModel, options: { neighbors?: number } = {}): VecchiaTrend {
+export function vecchiaTrend(samples: Samples, model: CovarianceModel, options: { neighbours?: number } = {}): VecchiaTrend {
   const n = samples.value.length;
   const p = trendColumnCount(model.trend);
   const q = covariateColumnCount(model.trend);
   const frame = q > 0 ? trendFrame(model.trend, samples.x, samples.y, samples.covariates) : coordinateFrame(samples.x, samples.y);
   if (p === 0 || n === 0) return { beta: new Float64Array(0), frame, betaCovariance: new Float64Array(0), warnings: [] };
-  const ctx = prepareContext(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy, options.neighbors ?? DEFAULT_VECCHIA_NEIGHBORS);
+  const ctx = prepareContext(samples.x, samples.y, frame.cx, frame.cy, model.anisotropy, options.neighbours ?? DEFAULT_VECCHIA_NEIGHBOURS);
   const yo = new Float64Array(n);
   const Xo = new Float64Array(n * p);
   for (let k = 0; k < n; k++) {
@@ -486,7 +486,7 @@ export interface VecchiaFitOptions extends Omit<FitOptions, 'method' | 'variogra
   /** 'reml' (default) or 'ml'. */
   method?: LikelihoodMethod;
   /** Earlier neighbours per sample, m; default 30. */
-  neighbors?: number;
+  neighbours?: number;
   /** Optimiser runs from the best grid starts; default 1 (each run costs n·m³ per evaluation). */
   starts?: number;
   /** Seed of the subsample that screens the starting values; default 20240611. */
@@ -497,7 +497,7 @@ export interface VecchiaFitOptions extends Omit<FitOptions, 'method' | 'variogra
 const SCREEN_ABOVE = 4000;
 const SCREEN_SIZE = 2000;
 /** Neighbours used while searching; the final refinement uses all m. */
-const COARSE_NEIGHBORS = 10;
+const COARSE_NEIGHBOURS = 10;
 const NUGGET_RATIO_BOUNDS = { lower: 1e-6, upper: 1e3 };
 
 function subsample(samples: Samples, size: number, seed: number): Samples {
@@ -562,9 +562,9 @@ function resolveVecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
   const trend: Trend = options.trend ?? 'constant';
   const p = trendColumnCount(trend);
   const fitNugget = options.nugget ?? true;
-  const m = options.neighbors ?? DEFAULT_VECCHIA_NEIGHBORS;
+  const m = options.neighbours ?? DEFAULT_VECCHIA_NEIGHBOURS;
   if (!(Number.isInteger(m) && m >= 1 && m <= 1000)) {
-    throw new GapwiseError('bad-option', `Expected the neighbour count to be a whole number from 1 to 1000, got ${JSON.stringify(options.neighbors)}.`);
+    throw new GapwiseError('bad-option', `Expected the neighbour count to be a whole number from 1 to 1000, got ${JSON.stringify(options.neighbours)}.`);
   }
   const starts = options.starts ?? 1;
   if (!(Number.isInteger(starts) && starts >= 1 && starts <= 27)) {
@@ -591,7 +591,7 @@ function resolveVecchiaFit(samples: Samples, options: VecchiaFitOptions): Vecchi
 export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: { threads?: VecchiaThreads; onPass?: () => void } = {}): VecchiaFitResult {
   const r = resolveVecchiaFit(samples, options);
   const { family, method, nuFree, nuFixed, trend, p, fitNugget, m, starts, n } = r;
-  const setup: VecchiaSetup = { family, nu: nuFixed, trend, method, anisotropy: options.anisotropy, neighbors: m };
+  const setup: VecchiaSetup = { family, nu: nuFixed, trend, method, anisotropy: options.anisotropy, neighbours: m };
   const full = createVecchiaLikelihood(samples, setup, hooks.threads);
   if (!(full.maxDistance > 0)) throw new GapwiseError('too-few-samples', `Expected samples at two or more distinct places, got all ${n} at one place.`);
   const D = full.maxDistance;
@@ -604,13 +604,13 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   });
   const allowJitter = !fitNugget;
   const onPass = hooks.onPass;
-  const objective = (lik: VecchiaLikelihood, neighbors?: number) => (onPass && lik === full
+  const objective = (lik: VecchiaLikelihood, neighbours?: number) => (onPass && lik === full
     ? (x: number[]) => {
-      const v = -lik.evaluate(toTheta(x), { allowJitter, neighbors }).logLikelihood;
+      const v = -lik.evaluate(toTheta(x), { allowJitter, neighbours }).logLikelihood;
       onPass();
       return v;
     }
-    : (x: number[]) => -lik.evaluate(toTheta(x), { allowJitter, neighbors }).logLikelihood);
+    : (x: number[]) => -lik.evaluate(toTheta(x), { allowJitter, neighbours }).logLikelihood);
   // Absolute tolerance on ℓ of about 1e-4 (the approximation itself is coarser), relative to its size.
   const tolerance = (v: number) => 1e-4 / Math.max(1, Math.abs(v));
   let iterations = 0;
@@ -621,7 +621,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   // 1. Starting grid and searches from the best starts, with the nearest 10 neighbours, on a seeded
   //    subsample above 4,000 samples (on all samples otherwise).
   const screening = n > SCREEN_ABOVE;
-  const coarse = Math.min(m, COARSE_NEIGHBORS);
+  const coarse = Math.min(m, COARSE_NEIGHBOURS);
   const screen = screening ? createVecchiaLikelihood(subsample(samples, SCREEN_SIZE, options.seed ?? 20240611), setup) : full;
   const fScreen = objective(screen, coarse);
   const count = (k: number) => {
@@ -649,7 +649,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   let xValue = grid[0].value;
   for (const start of grid.slice(0, starts)) {
     if (!Number.isFinite(start.value)) break;
-    const res = minimizeBounded(fScreen, start.x, spaces, {
+    const res = minimiseBounded(fScreen, start.x, spaces, {
       step: 0.7, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(start.value)), maxEvaluations: 100 * d,
     });
     iterations += res.iterations;
@@ -668,7 +668,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
     coarseEvaluations += step.evaluations;
     x = step.x;
     if (!step.converged) {
-      const res = minimizeBounded(fCoarse, x, spaces, { step: 0.3, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(step.value)), maxEvaluations: 40 * d });
+      const res = minimiseBounded(fCoarse, x, spaces, { step: 0.3, restarts: 0, xTolerance: 0.02, fTolerance: 1e-3 / Math.max(1, Math.abs(step.value)), maxEvaluations: 40 * d });
       iterations += res.iterations;
       coarseEvaluations += res.evaluations;
       if (res.value <= step.value) x = res.x;
@@ -682,7 +682,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   iterations += refined.iterations;
   let best = { x: refined.x, value: refined.value, converged: refined.converged };
   if (!refined.converged) {
-    const res = minimizeBounded(fFull, refined.x, spaces, { step: 0.1, restarts: 0, xTolerance: 0.01, fTolerance: tolerance(refined.value), maxEvaluations: 25 * d });
+    const res = minimiseBounded(fFull, refined.x, spaces, { step: 0.1, restarts: 0, xTolerance: 0.01, fTolerance: tolerance(refined.value), maxEvaluations: 25 * d });
     iterations += res.iterations;
     evaluations += res.evaluations;
     if (res.value <= best.value) best = { x: res.x, value: res.value, converged: res.converged };
@@ -696,7 +696,7 @@ export function vecchiaFit(samples: Samples, options: VecchiaFitOptions, hooks: 
   const warnings = vecchiaWarnings(theta, spaces[0], fitNugget, best.converged, evaluations, final.jitter);
   return vecchiaModel(r, theta, final, options.anisotropy, {
     converged: best.converged, iterations, n, warnings, evaluations, coarseEvaluations, screenEvaluations,
-    neighbors: full.neighbors, centre: full.centre,
+    neighbours: full.neighbours, centre: full.centre,
   });
 }
 
@@ -717,7 +717,7 @@ function vecchiaWarnings(
 /** The fitted model of a nearest-neighbour fit at θ, with its fit details (method 'nnl'). */
 function vecchiaModel(
   r: VecchiaResolved, theta: CorrelationParameters, final: { sigma2: number; logLikelihood: number; beta: number[] }, anisotropy: Anisotropy | undefined,
-  details: { converged: boolean; iterations: number; n: number; warnings: FitWarning[]; evaluations: number; coarseEvaluations: number; screenEvaluations: number; neighbors: number; centre: { cx: number; cy: number } },
+  details: { converged: boolean; iterations: number; n: number; warnings: FitWarning[]; evaluations: number; coarseEvaluations: number; screenEvaluations: number; neighbours: number; centre: { cx: number; cy: number } },
 ): VecchiaFitResult {
   const sigma2 = final.sigma2;
   const k = 2 + (r.fitNugget ? 1 : 0) + (r.nuFree ? 1 : 0) + r.p;
@@ -733,8 +733,8 @@ function vecchiaModel(
       method: 'nnl', likelihood: r.method, logLikelihood: final.logLikelihood, aic: 2 * k - 2 * final.logLikelihood,
       converged: d.converged, iterations: d.iterations, n: d.n, warnings: d.warnings, parameters: k, evaluations: d.evaluations,
       coarseEvaluations: d.coarseEvaluations, screenEvaluations: d.screenEvaluations,
-      neighbors: d.neighbors, trendCoefficients: final.beta, centre: d.centre,
-      note: `fitted with a nearest-neighbour likelihood on ${d.n.toLocaleString('en-US')} samples (${d.neighbors} neighbours)`,
+      neighbours: d.neighbours, trendCoefficients: final.beta, centre: d.centre,
+      note: `fitted with a nearest-neighbour likelihood on ${d.n.toLocaleString('en-US')} samples (${d.neighbours} neighbours)`,
     },
   };
   if (anisotropy) model.anisotropy = { ...anisotropy };

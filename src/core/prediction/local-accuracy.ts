@@ -4,7 +4,7 @@
  *
  * After a local run, a seeded random subset of the targets (CHECK_COUNT, all when fewer; see
  * ./path-choice.ts) is kriged again by the reference: exact kriging from all samples up to
- * MAX_EXACT_SAMPLES samples (./kriging.ts), above that kriging from the REFERENCE_NEIGHBORS nearest
+ * MAX_EXACT_SAMPLES samples (./kriging.ts), above that kriging from the REFERENCE_NEIGHBOURS nearest
  * samples of each checked target around the GLS mean of all samples. The differences of mean and sd
  * at those targets are reported as largest and root-mean-square, in % of the prior sd of the
  * surface (√ of its sill without the nugget; on the log scale for a log model, where kriging works).
@@ -12,7 +12,7 @@
  * which targets are predicted together, ./local-kriging.ts, so a subset's values equal those of a
  * full run). When the largest difference misses the tolerance, larger settings are tried there too,
  * cheapest first (the GLS mean of all samples, then 1.5 and 2 times the neighbours in turn up to
- * maxGrownNeighbors(n)). When most checked targets missed, the first setting within the tolerance runs
+ * maxGrownNeighbours(n)). When most checked targets missed, the first setting within the tolerance runs
  * once at every target (a targeted rerun would rerun nearly all of them). Otherwise, after a first run,
  * each step up to it reruns only the targets whose own values still move as the neighbourhood grows
  * (affectedTargets, calibrated on the checked targets that missed). A grown result is measured again
@@ -39,18 +39,18 @@ import { covariateColumnCount, trendColumnCount } from '../covariance/trend.ts';
 import { cellCentres, type Grid } from '../geometry/grid.ts';
 import { spatialOrder } from './target-spacing.ts';
 import { createPredictor, type Prediction } from './kriging.ts';
-import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBORS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
-import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, GROWTH_OPERATIONS_PER_THREAD, REFERENCE_NEIGHBORS, checkCount, localTargetCost, type Tolerance } from './path-choice.ts';
+import { createLocalPredictor, DEFAULT_LOCAL_NEIGHBOURS, globalMeanCoefficients, type LocalKrigingOptions } from './local-kriging.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, GROWTH_BUDGET, GROWTH_OPERATIONS_PER_THREAD, REFERENCE_NEIGHBOURS, checkCount, localTargetCost, type Tolerance } from './path-choice.ts';
 import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 
 /** Largest neighbourhood the growth tries before the exact path (checked against exact kriging). */
-export const MAX_GROWN_NEIGHBORS = 512;
-/** Largest neighbourhood the growth tries when the reference is itself a neighbourhood (REFERENCE_NEIGHBORS). */
-const MAX_GROWN_NEIGHBORS_LARGE = 256;
+export const MAX_GROWN_NEIGHBOURS = 512;
+/** Largest neighbourhood the growth tries when the reference is itself a neighbourhood (REFERENCE_NEIGHBOURS). */
+const MAX_GROWN_NEIGHBOURS_LARGE = 256;
 
 /** The largest neighbourhood the growth tries for n samples. */
-export function maxGrownNeighbors(samples: number): number {
-  return Math.min(samples, samples <= MAX_EXACT_SAMPLES ? MAX_GROWN_NEIGHBORS : MAX_GROWN_NEIGHBORS_LARGE);
+export function maxGrownNeighbours(samples: number): number {
+  return Math.min(samples, samples <= MAX_EXACT_SAMPLES ? MAX_GROWN_NEIGHBOURS : MAX_GROWN_NEIGHBOURS_LARGE);
 }
 /** Seed of the checked subset when none is given. */
 export const DEFAULT_CHECK_SEED = 1;
@@ -67,9 +67,9 @@ export interface LocalAccuracy {
   checked: number;
   targets: number;
   seed: number;
-  /** 'exact': exact kriging from all samples; 'nearest': from the `referenceNeighbors` nearest samples. */
+  /** 'exact': exact kriging from all samples; 'nearest': from the `referenceNeighbours` nearest samples. */
   reference: 'exact' | 'nearest';
-  referenceNeighbors?: number;
+  referenceNeighbours?: number;
   /** 'log' when compared on the log scale (log models). */
   scale: 'data' | 'log';
   /** The prior sd the figures are relative to (on `scale`). */
@@ -79,7 +79,7 @@ export interface LocalAccuracy {
   tolerance: Tolerance;
   within: boolean;
   /** Settings of the local run measured. */
-  neighbors: number;
+  neighbours: number;
   globalMean: boolean;
 }
 
@@ -92,7 +92,7 @@ export interface CheckedValues {
 /** The reference at the checked targets (kriging scale) and what it is. */
 export interface ReferenceValues extends CheckedValues {
   reference: 'exact' | 'nearest';
-  referenceNeighbors?: number;
+  referenceNeighbours?: number;
 }
 
 /** `count` distinct target indices out of `total`, seeded, in increasing order (all when count ≥ total). */
@@ -138,8 +138,8 @@ export function referencePredictions(
     const p = createPredictor(samples, model).predict(x, y, withCovariates);
     return { ...checkedValues(p, all, log), reference: 'exact' };
   }
-  const p = createLocalPredictor(samples, model, { neighbors: REFERENCE_NEIGHBORS, globalMean: true, ...(globalBeta ? { globalBeta } : {}) }).predict(x, y, withCovariates);
-  return { ...checkedValues(p, all, log), reference: 'nearest', referenceNeighbors: Math.min(n, REFERENCE_NEIGHBORS) };
+  const p = createLocalPredictor(samples, model, { neighbours: REFERENCE_NEIGHBOURS, globalMean: true, ...(globalBeta ? { globalBeta } : {}) }).predict(x, y, withCovariates);
+  return { ...checkedValues(p, all, log), reference: 'nearest', referenceNeighbours: Math.min(n, REFERENCE_NEIGHBOURS) };
 }
 
 /** The prior sd of the surface on the kriging scale: √ of its sill without the nugget. */
@@ -164,7 +164,7 @@ function errorFigures(reference: ArrayLike<number>, local: ArrayLike<number>, pr
 /** Compares local values at the checked targets with the reference there. */
 export function compareWithReference(
   model: CovarianceModel, reference: ReferenceValues, local: CheckedValues,
-  info: { targets: number; seed: number; neighbors: number; globalMean: boolean; tolerance?: Tolerance },
+  info: { targets: number; seed: number; neighbours: number; globalMean: boolean; tolerance?: Tolerance },
 ): LocalAccuracy {
   const priorSd = priorSdOf(model);
   const tolerance = info.tolerance ?? DEFAULT_TOLERANCE;
@@ -173,17 +173,17 @@ export function compareWithReference(
   return {
     checked: reference.mean.length, targets: info.targets, seed: info.seed,
     reference: reference.reference,
-    ...(reference.referenceNeighbors !== undefined ? { referenceNeighbors: reference.referenceNeighbors } : {}),
+    ...(reference.referenceNeighbours !== undefined ? { referenceNeighbours: reference.referenceNeighbours } : {}),
     scale: model.transform === 'log' ? 'log' : 'data',
     priorSd, mean, sd, tolerance,
     within: mean.max <= tolerance.mean && sd.max <= tolerance.sd,
-    neighbors: info.neighbors, globalMean: info.globalMean,
+    neighbours: info.neighbours, globalMean: info.globalMean,
   };
 }
 
 /** Local settings the growth may change (the rest of LocalKrigingOptions is kept). */
 export interface LocalSettings {
-  neighbors: number;
+  neighbours: number;
   globalMean: boolean;
 }
 
@@ -192,7 +192,7 @@ export interface LocalSettings {
  * 192, 256, … (powers of two and 1.5 times them), so that a growth costs at most about 3.4 times
  * the step before (a neighbourhood costs about m³) instead of 8 times for a doubling.
  */
-export function nextNeighbors(m: number): number {
+export function nextNeighbours(m: number): number {
   const p = 2 ** Math.floor(Math.log2(Math.max(1, m)));
   const between = 1.5 * p;
   return Number.isInteger(between) && between > m ? between : 2 * p;
@@ -200,7 +200,7 @@ export function nextNeighbors(m: number): number {
 
 /**
  * The larger settings to try after `start` missed the tolerance, cheapest first: the GLS mean of all
- * samples (when the trend is estimated), then larger neighbourhoods (nextNeighbors) up to maxGrownNeighbors(n).
+ * samples (when the trend is estimated), then larger neighbourhoods (nextNeighbours) up to maxGrownNeighbours(n).
  */
 export function growthSteps(start: LocalSettings, samples: number, model: CovarianceModel): LocalSettings[] {
   const steps: LocalSettings[] = [];
@@ -210,9 +210,9 @@ export function growthSteps(start: LocalSettings, samples: number, model: Covari
     s = { ...s, globalMean: true };
     steps.push(s);
   }
-  const cap = maxGrownNeighbors(samples);
-  while (s.neighbors < cap) {
-    s = { ...s, neighbors: Math.min(nextNeighbors(s.neighbors), cap) };
+  const cap = maxGrownNeighbours(samples);
+  while (s.neighbours < cap) {
+    s = { ...s, neighbours: Math.min(nextNeighbours(s.neighbours), cap) };
     steps.push(s);
   }
   return steps;
@@ -301,7 +301,7 @@ function unpermute(p: Prediction, order: Uint32Array): Prediction {
 export function describeAccuracy(a: LocalAccuracy, what: 'targets' | 'samples' = 'targets'): string {
   const against = a.reference === 'exact'
     ? `exact ${what === 'samples' ? 'leave-one-out' : 'kriging'}`
-    : `kriging from the ${a.referenceNeighbors!.toLocaleString('en-US')} nearest ${what === 'samples' ? 'other ' : ''}samples`;
+    : `kriging from the ${a.referenceNeighbours!.toLocaleString('en-US')} nearest ${what === 'samples' ? 'other ' : ''}samples`;
   const f = (x: number): string => (x >= 10 ? x.toFixed(0) : x >= 1 ? x.toFixed(1) : x.toFixed(2));
   const sd = what === 'samples' ? 'sd_obs' : 'sd';
   return `against ${against} at ${a.checked.toLocaleString('en-US')} of ${a.targets.toLocaleString('en-US')} ${what} (seed ${a.seed}): `
@@ -492,7 +492,7 @@ function measurementAt(job: CheckedJob, subsetSeed: number): Measurement {
 
 /** Neighbourhood operations a growth may spend, and that as a multiple of the first run's. */
 function growthBudgetOf(job: CheckedJob, first: LocalSettings): { operations: number; multiple: number } {
-  const firstCost = job.T * localTargetCost(first.neighbors);
+  const firstCost = job.T * localTargetCost(first.neighbours);
   const given = job.options.growthBudget;
   if (given !== undefined) return { operations: given * firstCost, multiple: given };
   // Up to EXACT_SAMPLE_LIMIT samples exact kriging is the next step anyway.
@@ -504,13 +504,13 @@ function growthBudgetOf(job: CheckedJob, first: LocalSettings): { operations: nu
 
 /** The sentence for a growth not done: what it would cost against the budget, and the option that does it. */
 function tooCostly(targets: number, grown: LocalSettings, projected: number, multiple: number): string {
-  return `rerunning ${targets.toLocaleString('en-US')} targets up to the ${grown.neighbors} nearest would cost about `
-    + `${Math.ceil(projected / 1e9)} billion operations, more than ${multiple} times the first run, so it was not done unasked (--neighbors ${grown.neighbors} does it)`;
+  return `rerunning ${targets.toLocaleString('en-US')} targets up to the ${grown.neighbours} nearest would cost about `
+    + `${Math.ceil(projected / 1e9)} billion operations, more than ${multiple} times the first run, so it was not done unasked (--neighbours ${grown.neighbours} does it)`;
 }
 
 /** The first measurement's miss, in words. */
 function missedText(first: LocalAccuracy): string {
-  return `the ${first.neighbors} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
+  return `the ${first.neighbours} nearest samples${first.globalMean ? ' with the GLS mean' : ''} missed the tolerance (mean ${first.mean.max.toFixed(2)} %, sd ${first.sd.max.toFixed(2)} %)`;
 }
 
 /** Exact kriging from all samples instead, with the measurement that led there. */
@@ -542,7 +542,7 @@ async function growEverywhere(
   const prediction = await pending;
   const accuracy = fresh.measure(prediction, grown);
   const gm = grown.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
-  const notes = [`${missedText(first)} at ${missedCount} of ${first.checked} checked targets; grown to the ${grown.neighbors} nearest${gm} at every target (the first setting within the tolerance there); measured again at a fresh subset (seed ${fresh.seed})`];
+  const notes = [`${missedText(first)} at ${missedCount} of ${first.checked} checked targets; grown to the ${grown.neighbours} nearest${gm} at every target (the first setting within the tolerance there); measured again at a fresh subset (seed ${fresh.seed})`];
   if (!accuracy.within && job.options.exactFallback !== false && job.n <= EXACT_SAMPLE_LIMIT) {
     return exactInstead(job, `the grown neighbourhoods still missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %)`, accuracy, grown, attempts, notes);
   }
@@ -563,7 +563,7 @@ async function growStepwise(
 ): Promise<CheckedLocalPrediction> {
   const { n, T, log, tolerance, model } = job;
   const steps = growthSteps(start, n, model);
-  const last = steps.findIndex((s) => s.neighbors === grown.neighbors && s.globalMean === grown.globalMean);
+  const last = steps.findIndex((s) => s.neighbours === grown.neighbours && s.globalMean === grown.globalMean);
   let prediction = firstRun;
   let settings = start;
   let previous = start;
@@ -578,21 +578,21 @@ async function growStepwise(
     const perChecked = missesAtEach(model, check.reference, checkedValues(prediction, check.idx, log), tolerance);
     if (!perChecked.some(Boolean)) break;
     let at: Uint32Array;
-    if (step.neighbors > previous.neighbors && step.globalMean === previous.globalMean) {
+    if (step.neighbours > previous.neighbours && step.globalMean === previous.globalMean) {
       // The signal: how far each target moved over the last step (the first time, from half the
       // neighbours to the starting neighbourhood: about an eighth of the starting run's cost).
-      before ??= await job.run({ ...previous, neighbors: Math.max(1, Math.floor(previous.neighbors / 2)) });
+      before ??= await job.run({ ...previous, neighbours: Math.max(1, Math.floor(previous.neighbours / 2)) });
       at = affectedTargets(movement(prediction, before, log, job.priorSd), check.idx, perChecked, tolerance).rerun;
     } else {
       at = Uint32Array.from({ length: T }, (_, j) => j);
     }
     // What reaching the grown setting at these targets would cost (the last step dominates).
-    const projected = at.length * localTargetCost(grown.neighbors);
+    const projected = at.length * localTargetCost(grown.neighbours);
     if (spent + projected > budget.operations) {
       stopped = tooCostly(at.length, grown, projected, budget.multiple);
       break;
     }
-    spent += at.length * localTargetCost(step.neighbors);
+    spent += at.length * localTargetCost(step.neighbours);
     const next = copyPrediction(prediction);
     if (at.length > 0) {
       // In spatial order, so consecutive targets share neighbourhoods.
@@ -601,7 +601,7 @@ async function growStepwise(
       const inOrder = job.order.filter((i) => member[i] === 1);
       scatterInto(next, await job.runAt(step, inOrder), inOrder);
     }
-    stepNotes.push(`${at.length.toLocaleString('en-US')} with the ${step.neighbors} nearest${step.globalMean && !previous.globalMean ? ' and the GLS mean' : ''}`);
+    stepNotes.push(`${at.length.toLocaleString('en-US')} with the ${step.neighbours} nearest${step.globalMean && !previous.globalMean ? ' and the GLS mean' : ''}`);
     before = prediction;
     prediction = next;
     previous = step;
@@ -616,12 +616,12 @@ async function growStepwise(
   const fresh = measurementAt(job, freshSeed(job.seed));
   let accuracy = fresh.measure(prediction, settings);
   const gm = settings.globalMean && !first.globalMean ? ' with the GLS mean of all samples' : '';
-  notes.push(`${missedText(first)}; grown to the ${settings.neighbors} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets)${stopped !== null ? `; then ${stopped}` : ''}; measured again at a fresh subset (seed ${fresh.seed})`);
+  notes.push(`${missedText(first)}; grown to the ${settings.neighbours} nearest${gm} where the values still moved with the neighbourhood's size (rerun: ${stepNotes.join(', then ')} of ${T.toLocaleString('en-US')} targets)${stopped !== null ? `; then ${stopped}` : ''}; measured again at a fresh subset (seed ${fresh.seed})`);
   if (!accuracy.within && n <= EXACT_SAMPLE_LIMIT) {
     // The targeted rerun left out targets that needed it: rerun every target with the grown setting
     // (above EXACT_SAMPLE_LIMIT samples the miss is reported instead: a full rerun there is the
     // costliest step of all, and the figure says how far the values are).
-    notes.push(`that missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %); rerun for every target with the ${grown.neighbors} nearest`);
+    notes.push(`that missed the tolerance at the fresh subset (mean ${accuracy.mean.max.toFixed(2)} %, sd ${accuracy.sd.max.toFixed(2)} %); rerun for every target with the ${grown.neighbours} nearest`);
     settings = grown;
     prediction = await job.run(settings);
     accuracy = fresh.measure(prediction, settings);
@@ -641,7 +641,7 @@ async function noGrowthMet(
 ): Promise<CheckedLocalPrediction> {
   const { tolerance } = job;
   if (job.options.exactFallback !== false && job.n <= EXACT_SAMPLE_LIMIT) {
-    return exactInstead(job, `${missedText(first)}, and no neighbourhood up to ${maxGrownNeighbors(job.n)} samples met it (best mean ${Math.min(...attempts.map((a) => a.meanMax)).toFixed(2)} %)`, first, start, attempts, []);
+    return exactInstead(job, `${missedText(first)}, and no neighbourhood up to ${maxGrownNeighbours(job.n)} samples met it (best mean ${Math.min(...attempts.map((a) => a.meanMax)).toFixed(2)} %)`, first, start, attempts, []);
   }
   let best: LocalSettings = start;
   let bestScore = first.mean.max / tolerance.mean + first.sd.max / tolerance.sd;
@@ -653,7 +653,7 @@ async function noGrowthMet(
   let prediction = firstRun;
   let accuracy = first;
   if (best !== start) {
-    settings = { neighbors: best.neighbors, globalMean: best.globalMean };
+    settings = { neighbours: best.neighbours, globalMean: best.globalMean };
     prediction = await job.run(settings);
     accuracy = check.measure(prediction, settings);
   }
@@ -682,7 +682,7 @@ export async function predictLocalChecked(
   // The GLS mean of all samples only means something when the trend is estimated.
   const estimated = trendColumnCount(model.trend ?? 'constant') > 0;
   const local = options.local ?? {};
-  const start: LocalSettings = { neighbors: Math.min(local.neighbors ?? DEFAULT_LOCAL_NEIGHBORS, job.n), globalMean: local.globalMean === true && estimated };
+  const start: LocalSettings = { neighbours: Math.min(local.neighbours ?? DEFAULT_LOCAL_NEIGHBOURS, job.n), globalMean: local.globalMean === true && estimated };
   const check = measurementAt(job, job.seed);
   const trial = check.trial(start);
   if (trial.accuracy.within || options.grow === false) {
@@ -691,7 +691,7 @@ export async function predictLocalChecked(
   }
   const { settings: grown, attempts } = findGrowth(samples, model, check.cx, check.cy, check.reference, start, job.base, job.tolerance, check.cc);
   const missedCount = trial.misses.filter(Boolean).length;
-  if (grown && 2 * missedCount >= trial.misses.length && job.T * localTargetCost(grown.neighbors) <= growthBudgetOf(job, start).operations) {
+  if (grown && 2 * missedCount >= trial.misses.length && job.T * localTargetCost(grown.neighbours) <= growthBudgetOf(job, start).operations) {
     return growEverywhere(job, trial.accuracy, missedCount, grown, attempts);
   }
   const firstRun = await job.run(start);

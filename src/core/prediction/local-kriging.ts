@@ -33,16 +33,16 @@ import { choleskyInPlace, solveLowerInPlace } from '../linalg/linalg.ts';
 import {
   designRow, knownMean, trendColumnCount, trendFrame, covariateColumnCount, checkCovariateRows, type CoordinateFrame,
 } from '../covariance/trend.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import { vecchiaTrend } from '../fitting/vecchia.ts';
 import { checkModel, checkPredictionFinite, createPredictor, type PredictOptions, type Prediction } from './kriging.ts';
 import { logPredictionToDataScale } from '../shared/lognormal.ts';
 import { neighbourhoodFailureAdvice } from '../covariance/numerical-advice.ts';
 
 /** Default neighbourhood size. */
-export const DEFAULT_LOCAL_NEIGHBORS = 64;
+export const DEFAULT_LOCAL_NEIGHBOURS = 64;
 /** The most neighbours of a local neighbourhood (an m × m matrix is factorised per neighbourhood). */
-export const MAX_LOCAL_NEIGHBORS = 2000;
+export const MAX_LOCAL_NEIGHBOURS = 2000;
 /** From this size a neighbourhood is factorised by linalg.ts (its WebAssembly kernel) instead of the row-by-row loop below. */
 const LARGE_FACTOR = 96;
 /** Up to this many samples the global mean comes from the dense GLS; above, from the nearest-neighbour factor. */
@@ -51,11 +51,11 @@ const DENSE_GLOBAL_MEAN_LIMIT = 1000;
 /** Options of a local predictor (plain data). */
 export interface LocalKrigingOptions {
   /** Samples per neighbourhood, m; default 64 (all samples when there are fewer). */
-  neighbors?: number;
+  neighbours?: number;
   /** Use the GLS trend estimate from all samples as a known mean in each neighbourhood; default false. */
   globalMean?: boolean;
   /** Neighbours per sample in the nearest-neighbour GLS of the global mean; default 30. */
-  meanNeighbors?: number;
+  meanNeighbours?: number;
   /** Add a small diagonal jitter to a neighbourhood matrix that cannot be factorised (reported); default true. */
   jitter?: boolean;
   /**
@@ -119,7 +119,7 @@ export type LocalPrediction = Prediction & { warnings: Warning[] };
 export interface LocalPredictor {
   readonly n: number;
   /** Neighbourhood size actually used: min(m, n). */
-  readonly neighbors: number;
+  readonly neighbours: number;
   readonly model: CovarianceModel;
   /** Problems found so far: while building (jitter of the global GLS) and while predicting (a running jitter total). */
   readonly warnings: Warning[];
@@ -189,7 +189,7 @@ function factorLower(a: Float64Array, q: number): boolean {
  * transform): dense up to 1,000 samples, through the nearest-neighbour factor of ./vecchia.ts above.
  */
 export function globalMeanCoefficients(
-  samples: Samples, model: CovarianceModel, options: Pick<LocalKrigingOptions, 'meanNeighbors'> = {},
+  samples: Samples, model: CovarianceModel, options: Pick<LocalKrigingOptions, 'meanNeighbours'> = {},
 ): { beta: Float64Array; warnings: Warning[] } {
   const n = samples.value.length;
   const log = model.transform === 'log';
@@ -200,7 +200,7 @@ export function globalMeanCoefficients(
     const exact = createPredictor(zSamples, linear);
     return { beta: Float64Array.from(exact.beta), warnings: [...exact.warnings] };
   }
-  const t = vecchiaTrend(zSamples, linear, { neighbors: options.meanNeighbors });
+  const t = vecchiaTrend(zSamples, linear, { neighbours: options.meanNeighbours });
   return { beta: Float64Array.from(t.beta), warnings: t.warnings };
 }
 
@@ -217,7 +217,7 @@ interface LocalSamples {
   /** Centred working coordinates: the local trend frame. */
   cu: Float64Array;
   cv: Float64Array;
-  index: NeighborIndex;
+  index: NeighbourIndex;
 }
 
 function prepareLocalSamples(samples: Samples, model: CovarianceModel): LocalSamples {
@@ -234,7 +234,7 @@ function prepareLocalSamples(samples: Samples, model: CovarianceModel): LocalSam
     cu[i] = samples.x[i] - frame.cx;
     cv[i] = samples.y[i] - frame.cy;
   }
-  return { n, frame, z, iu, iv, cu, cv, index: new NeighborIndex(iu, iv) };
+  return { n, frame, z, iu, iv, cu, cv, index: new NeighbourIndex(iu, iv) };
 }
 
 /** The mean the neighbourhoods krige around and the values they see. */
@@ -649,9 +649,9 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
   const trend = model.trend ?? 'constant';
   const pModel = trendColumnCount(trend);
   checkInputs(samples, model, pModel);
-  const m = options.neighbors ?? DEFAULT_LOCAL_NEIGHBORS;
-  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(options.neighbors)}.`);
+  const m = options.neighbours ?? DEFAULT_LOCAL_NEIGHBOURS;
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBOURS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBOURS}, got ${JSON.stringify(options.neighbours)}.`);
   }
   const s = prepareLocalSamples(samples, model);
   const { n, frame, iu, iv, index } = s;
@@ -755,5 +755,5 @@ export function createLocalPredictor(samples: Samples, model: CovarianceModel, o
 
   const checked = (tx: ArrayLike<number>, ty: ArrayLike<number>, popts: PredictOptions = {}): LocalPrediction =>
     checkPredictionFinite(model, predict(tx, ty, popts), tx, ty, popts.sd !== false || log);
-  return { n, neighbors: q, model, warnings, beta: mean.beta, frame, predict: checked };
+  return { n, neighbours: q, model, warnings, beta: mean.beta, frame, predict: checked };
 }

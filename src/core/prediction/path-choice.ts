@@ -6,7 +6,7 @@
  *   exact = n³/6 + K·n²/2 + T·(n²/2 + K·n)/threads
  * Local neighbourhoods of m samples (./local-kriging.ts), plus the measurement of their error
  * (./local-accuracy.ts): exact kriging at c = min(T, CHECK_COUNT) targets, from all samples up to
- * MAX_EXACT_SAMPLES samples and from the REFERENCE_NEIGHBORS nearest of each checked target above:
+ * MAX_EXACT_SAMPLES samples and from the REFERENCE_NEIGHBOURS nearest of each checked target above:
  *   local = T·(m³/6 + m²/2 + K·(m + m²/16))/threads + n·log₂n + reference
  *   reference = n³/6 + K·n²/2 + c·(n²/2 + K·n)        (n ≤ MAX_EXACT_SAMPLES)
  *             = c·(R³/6 + K·R²/2 + R²/2 + K·R)       (above)
@@ -33,7 +33,7 @@ export const DEFAULT_TOLERANCE: Readonly<Tolerance> = Object.freeze({ mean: 1, s
 /** Targets at which the local path is checked against exact kriging (all of them when fewer). */
 export const CHECK_COUNT = 200;
 /** Above MAX_EXACT_SAMPLES, the check is against kriging from this many nearest samples of each checked target. */
-export const REFERENCE_NEIGHBORS = 800;
+export const REFERENCE_NEIGHBOURS = 800;
 /** Above MAX_EXACT_SAMPLES, at most this many targets are checked (each costs an R × R factorisation). */
 export const LARGE_CHECK_COUNT = 30;
 /** Most samples for which exact kriging is chosen automatically (or allowed with --exact): 8·n² bytes per thread. */
@@ -48,7 +48,7 @@ export interface PathChoiceInput {
   /** Threads sharing the targets; default 1. */
   threads?: number;
   /** Local neighbourhood size m; default 64. */
-  neighbors?: number;
+  neighbours?: number;
   tolerance?: Tolerance;
   /** The user's own choice (--exact / --local), if any. */
   force?: 'exact' | 'local';
@@ -78,8 +78,8 @@ export function exactCost(samples: number, targets: number, threads = 1): number
 }
 
 /** Estimated multiply-adds of one target predicted from its own neighbourhood of m samples. */
-export function localTargetCost(neighbors: number): number {
-  const m = neighbors;
+export function localTargetCost(neighbours: number): number {
+  const m = neighbours;
   return m ** 3 / 6 + (m * m) / 2 + KERNEL_COST * (m + (m * m) / 16);
 }
 
@@ -99,12 +99,12 @@ export const GROWTH_BUDGET = 8;
 export const GROWTH_OPERATIONS_PER_THREAD = 30e9;
 
 /** Estimated multiply-adds of local neighbourhoods of m samples plus the measurement of their error. */
-export function localCost(samples: number, targets: number, neighbors = 64, threads = 1): number {
+export function localCost(samples: number, targets: number, neighbours = 64, threads = 1): number {
   const n = samples;
-  const m = Math.min(neighbors, n);
+  const m = Math.min(neighbours, n);
   const perTarget = localTargetCost(m);
   const c = checkCount(n, targets);
-  const R = REFERENCE_NEIGHBORS;
+  const R = REFERENCE_NEIGHBOURS;
   const reference = n <= MAX_EXACT_SAMPLES
     ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + c * (n * n / 2 + KERNEL_COST * n)
     : c * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);
@@ -127,7 +127,7 @@ export function choosePredictionPath(input: PathChoiceInput): PathChoice {
   const threads = Math.max(1, input.threads ?? 1);
   const tolerance = input.tolerance ?? DEFAULT_TOLERANCE;
   const ex = n <= EXACT_SAMPLE_LIMIT ? exactCost(n, T, threads) : Infinity;
-  const lo = localCost(n, T, input.neighbors ?? 64, threads);
+  const lo = localCost(n, T, input.neighbours ?? 64, threads);
   const costs = `about ${billions(lo)} billion operations local, ${Number.isFinite(ex) ? billions(ex) : 'too many'} exact`;
   if (input.force === 'exact') {
     if (n > EXACT_SAMPLE_LIMIT) {
@@ -198,12 +198,12 @@ export function parseTolerance(text: string, defaults: Tolerance = DEFAULT_TOLER
 /**
  * Estimated multiply-adds of measuring a local run at `targets` targets against its reference (the
  * `reference` term of localCost): exact kriging from all samples up to MAX_EXACT_SAMPLES, above that
- * kriging from the REFERENCE_NEIGHBORS nearest at each checked target.
+ * kriging from the REFERENCE_NEIGHBOURS nearest at each checked target.
  */
 export function referenceCost(samples: number, targets: number): number {
   const n = samples;
   const c = checkCount(n, targets);
-  const R = REFERENCE_NEIGHBORS;
+  const R = REFERENCE_NEIGHBOURS;
   return n <= MAX_EXACT_SAMPLES
     ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + c * (n * n / 2 + KERNEL_COST * n)
     : c * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);

@@ -28,7 +28,7 @@
  * for block support: the k × k nodes of each cell are averaged, on the data scale). It covers the
  * grid and every sample's block, so the whole covariance between data and grid is simulated.
  * Large n: kriging of the residuals from all samples (the kriging.ts factor, n³/3 once and n² per
- * realisation) up to `DENSE_LIMIT` samples; beyond it (or with `neighbors`), from the m nearest
+ * realisation) up to `DENSE_LIMIT` samples; beyond it (or with `neighbours`), from the m nearest
  * samples of each node (m = 64 by default), with weights reused across realisations. Local
  * neighbourhoods are an approximation of the global posterior, as in local kriging.
  * Covariates in the mean (kriging with external drift): K[r] is universal kriging with the covariate
@@ -52,11 +52,11 @@ import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
 import { acrossAxis, alongAxis, anisotropyFrame, crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from '../covariance/covariance.ts';
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from '../linalg/linalg.ts';
 import { buildKrigingSystem, checkModel, type KrigingSystem } from '../prediction/kriging.ts';
-import { MAX_LOCAL_NEIGHBORS, createLocalPredictor } from '../prediction/local-kriging.ts';
+import { MAX_LOCAL_NEIGHBOURS, createLocalPredictor } from '../prediction/local-kriging.ts';
 import { checkCovariateRows, covariateColumnCount, designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
 import { createRandom } from '../shared/random.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import { neighbourhoodFailureAdvice } from '../covariance/numerical-advice.ts';
 import type { Grid } from '../geometry/grid.ts';
 import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from '../prediction/exceedance-area.ts';
@@ -64,7 +64,7 @@ import { MAX_DEPTH, summariseExceedanceCounts, type ExceedanceAreaSummary } from
 /** Up to this many samples the residuals are kriged from all samples. */
 const DENSE_LIMIT = 2000;
 /** Default neighbourhood for local kriging of the residuals. */
-export const DEFAULT_SIMULATION_NEIGHBORS = 64;
+export const DEFAULT_SIMULATION_NEIGHBOURS = 64;
 /** Most realisations in one call. */
 export const MAX_REALISATIONS = 10_000;
 /** The most values (realisations × grid cells) kept as Float32 maps: 1 GB. */
@@ -101,10 +101,10 @@ export interface ConditionalSimulationOptions {
   /** Depth in metres for the volume above the action level. */
   depth?: number;
   /** Krige the residuals from the m nearest samples (default: all samples up to 2,000, else 64). */
-  neighbors?: number;
+  neighbours?: number;
   /**
-   * 'exact': krige the residuals from all samples whatever `neighbors` says; 'local': from the
-   * `neighbors` nearest (default 64). Absent: the rule of `neighbors` above. ./simulation-path.ts
+   * 'exact': krige the residuals from all samples whatever `neighbours` says; 'local': from the
+   * `neighbours` nearest (default 64). Absent: the rule of `neighbours` above. ./simulation-path.ts
    * chooses it by cost and tolerance.
    */
   path?: 'exact' | 'local';
@@ -144,7 +144,7 @@ export interface ConditionalSimulationResult {
   /** Largest neglected covariance between a sample's residual and a lattice node, relative to the sill. */
   placementError: number;
   /** Samples per kriging neighbourhood, or 'all'. */
-  neighbors: number | 'all';
+  neighbours: number | 'all';
   warnings: Warning[];
   /** First realisation index of this run (0 unless a part). */
   first: number;
@@ -410,12 +410,12 @@ function neighbourhoodWeights(h: Neighbourhood, x: number, y: number, lambda: Fl
   solveUpperTransposeInPlace(L, q, lambda);
 }
 
-function localKriger(samples: Samples, model: CovarianceModel, neighbors: number, warnings: Warning[]): ResidualKriger {
+function localKriger(samples: Samples, model: CovarianceModel, neighbours: number, warnings: Warning[]): ResidualKriger {
   const n = samples.x.length;
   const trend = model.trend;
   const p = trendColumnCount(trend);
   const m0 = isKnownTrend(trend) ? trend.known : 0;
-  const q = Math.min(neighbors, n);
+  const q = Math.min(neighbours, n);
   if (p > 0 && q <= p) throw new GapwiseError('bad-option', `Expected more than ${p} samples per neighbourhood for this trend, got ${q}.`);
   // Neighbours by effective distance: search in coordinates where the model is isotropic.
   const an = model.anisotropy;
@@ -429,7 +429,7 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
   const frame: CoordinateFrame = { cx, cy, scale: Math.sqrt(ss / n) || 1 };
   const ix = new Float64Array(n), iy = new Float64Array(n);
   for (let i = 0; i < n; i++) [ix[i], iy[i]] = rot(samples.x[i] - cx, samples.y[i] - cy);
-  const index = new NeighborIndex(ix, iy);
+  const index = new NeighbourIndex(ix, iy);
   const nugget = nuggetOf(model);
   const c0 = surfaceVariance(model);
   const hood: Neighbourhood = {
@@ -488,8 +488,8 @@ function localKriger(samples: Samples, model: CovarianceModel, neighbors: number
  * Local kriging of residuals around the global GLS trend (covariate trends): β̂_r from all samples
  * through the dense system, then the neighbours krige r − Xβ̂_r with a known zero mean.
  */
-function globalTrendLocalKriger(sys: KrigingSystem, samples: Samples, model: CovarianceModel, neighbors: number, warnings: Warning[]): ResidualKriger {
-  const local = localKriger(samples, { ...model, trend: { known: 0 }, transform: 'none' }, neighbors, warnings);
+function globalTrendLocalKriger(sys: KrigingSystem, samples: Samples, model: CovarianceModel, neighbours: number, warnings: Warning[]): ResidualKriger {
+  const local = localKriger(samples, { ...model, trend: { known: 0 }, transform: 'none' }, neighbours, warnings);
   const { frame } = sys;
   let beta: Float64Array = new Float64Array(0);
   let B = 0;
@@ -564,9 +564,9 @@ function checkOptions(options: ConditionalSimulationOptions, log: boolean): void
     throw new GapwiseError('bad-option', `Expected the depth to be a positive number of metres up to ${MAX_DEPTH.toLocaleString('en')}, got ${String(d)}.`);
   }
   if (d !== undefined && t === undefined) throw new GapwiseError('bad-option', 'A depth gives the volume above the action level: expected a threshold with it.');
-  const m = options.neighbors;
-  if (m !== undefined && !(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${JSON.stringify(m)}.`);
+  const m = options.neighbours;
+  if (m !== undefined && !(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBOURS)) {
+    throw new GapwiseError('bad-option', `Expected the neighbourhood size to be a whole number from 1 to ${MAX_LOCAL_NEIGHBOURS}, got ${JSON.stringify(m)}.`);
   }
 }
 
@@ -584,11 +584,11 @@ function checkGrid(grid: Grid, options: ConditionalSimulationOptions): void {
 }
 
 /** Whether the residuals are kriged from neighbourhoods, and of how many samples. */
-function neighbourhoodOf(options: ConditionalSimulationOptions, n: number): { useLocal: boolean; neighbors: number } {
+function neighbourhoodOf(options: ConditionalSimulationOptions, n: number): { useLocal: boolean; neighbours: number } {
   const useLocal = options.path === 'exact' ? false
-    : options.path === 'local' ? (options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS) < n
-      : options.neighbors !== undefined ? options.neighbors < n : n > DENSE_LIMIT;
-  return { useLocal, neighbors: useLocal ? options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS : n };
+    : options.path === 'local' ? (options.neighbours ?? DEFAULT_SIMULATION_NEIGHBOURS) < n
+      : options.neighbours !== undefined ? options.neighbours < n : n > DENSE_LIMIT;
+  return { useLocal, neighbours: useLocal ? options.neighbours ?? DEFAULT_SIMULATION_NEIGHBOURS : n };
 }
 
 /**
@@ -596,21 +596,21 @@ function neighbourhoodOf(options: ConditionalSimulationOptions, n: number): { us
  * residuals are kriged from all samples or a covariate trend needs its GLS estimate; otherwise the
  * samples and model are checked as local kriging checks them and no n × n matrix is made.
  */
-function residualKriger(samples: Samples, model: CovarianceModel, useLocal: boolean, neighbors: number, warnings: Warning[]): { kriger: ResidualKriger; z: Float64Array } {
+function residualKriger(samples: Samples, model: CovarianceModel, useLocal: boolean, neighbours: number, warnings: Warning[]): { kriger: ResidualKriger; z: Float64Array } {
   const q = covariateColumnCount(model.trend);
   if (useLocal && q === 0) {
     checkModel(model);
-    createLocalPredictor(samples, model, { neighbors: Math.min(neighbors, MAX_LOCAL_NEIGHBORS) });
+    createLocalPredictor(samples, model, { neighbours: Math.min(neighbours, MAX_LOCAL_NEIGHBOURS) });
     checkModelScale(model, samples.x, samples.y, samples.value);
     const log = model.transform === 'log';
     const z = Float64Array.from(samples.value, (v) => (log ? Math.log(v) : v));
-    return { kriger: localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbors, warnings), z };
+    return { kriger: localKriger({ x: samples.x, y: samples.y, value: z }, { ...model, transform: 'none' }, neighbours, warnings), z };
   }
   // The dense system also validates samples and model (values > 0 for a log model, ...).
   const sys = buildKrigingSystem(samples, model);
   warnings.push(...sys.warnings);
   const z = sys.z;
-  const kriger = !useLocal ? denseKriger(sys) : globalTrendLocalKriger(sys, { x: samples.x, y: samples.y, value: z }, model, neighbors, warnings);
+  const kriger = !useLocal ? denseKriger(sys) : globalTrendLocalKriger(sys, { x: samples.x, y: samples.y, value: z }, model, neighbours, warnings);
   return { kriger, z };
 }
 
@@ -754,7 +754,7 @@ type ResidualGroup = { members: number[]; L: Float64Array } | { members: number[
 function residualGroups(n: number, placement: Placement, residualCov: (d: number, e: number) => number, warnings: Warning[]): ResidualGroup[] {
   const { originI, originJ, onNode } = placement;
   const near = (i: number, j: number): boolean => Math.abs(originI[i] - originI[j]) <= COUPLING && Math.abs(originJ[i] - originJ[j]) <= COUPLING;
-  const cellIndex = new NeighborIndex(Float64Array.from(originI), Float64Array.from(originJ));
+  const cellIndex = new NeighbourIndex(Float64Array.from(originI), Float64Array.from(originJ));
   const sampleGroups = groups(n, near, (i) => cellIndex.within(originI[i], originJ[i], COUPLING * Math.SQRT2 + 1e-9));
   const groupFactors: ResidualGroup[] = [];
   let uncoupled = 0;
@@ -1046,7 +1046,7 @@ function summarise(
   }
   const result: ConditionalSimulationResult = {
     grid, support: head.support, points: head.points, count: N, mean, sd,
-    lattice: head.lattice, placementError: head.placementError, neighbors: head.neighbors, warnings: head.warnings, first: head.first,
+    lattice: head.lattice, placementError: head.placementError, neighbours: head.neighbours, warnings: head.warnings, first: head.first,
   };
   if (options.keepTotals) result.totals = { sum, sumSq, above, counts: threshold !== undefined ? counts : new Float64Array(0), activeCells: nActive };
   if (realisations) result.realisations = realisations;
@@ -1076,10 +1076,10 @@ export function simulateConditional(
   const k = support === 'block' ? options.blockPoints ?? 4 : 1;
   const warnings: Warning[] = [];
   const n = samples.x.length;
-  const { useLocal, neighbors } = neighbourhoodOf(options, n);
+  const { useLocal, neighbours } = neighbourhoodOf(options, n);
 
   // The kriger of the residuals; then the lattice, its embedding and the samples placed on it.
-  const { kriger, z } = residualKriger(samples, model, useLocal, neighbors, warnings);
+  const { kriger, z } = residualKriger(samples, model, useLocal, neighbours, warnings);
   const c0 = surfaceVariance(model);
   const nugget = nuggetOf(model);
   const an = model.anisotropy;
@@ -1122,7 +1122,7 @@ export function simulateConditional(
   return summarise(acc, out, N, grid, options, {
     support, points: k,
     lattice: { nx: lattice.lnx, ny: lattice.lny, spacing: lattice.h, torus: [emb.mx, emb.my], paddingSteps: emb.paddingSteps, negativeFraction: emb.negativeFraction },
-    placementError, neighbors: useLocal ? neighbors : 'all', warnings, first,
+    placementError, neighbours: useLocal ? neighbours : 'all', warnings, first,
   });
 }
 

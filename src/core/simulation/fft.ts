@@ -32,7 +32,7 @@ export interface FftPlan {
 }
 
 /** Radices: 4 first (cheapest butterfly), then 2, 3, 5, then any remaining primes. */
-function factorize(n: number): number[] {
+function factorise(n: number): number[] {
   const out: number[] = [];
   let m = n;
   while (m % 4 === 0) { out.push(4); m /= 4; }
@@ -196,7 +196,7 @@ function stockhamStage(tw: Twiddles, inRe: Float64Array, inIm: Float64Array, out
  */
 export function createFftPlan(n: number): FftPlan {
   if (!(Number.isInteger(n) && n >= 1)) throw new RangeError(`Expected a transform length that is a whole number ≥ 1, got ${n}.`);
-  const factors = factorize(n);
+  const factors = factorise(n);
   const cos = new Float64Array(n);
   const sin = new Float64Array(n);
   for (let k = 0; k < n; k++) {

@@ -20,7 +20,7 @@
  * all samples for a covariate trend) against the reference (exact kriging up to MAX_EXACT_SAMPLES
  * samples) at a seeded subset of the nodes (../prediction/local-accuracy.ts), in % of the prior sd.
  * When it misses the tolerance and the neighbourhood was not given, twice the neighbours are tried at
- * the checked nodes (up to maxGrownNeighbors(n)); when the grown neighbourhood costs more than exact
+ * the checked nodes (up to maxGrownNeighbours(n)); when the grown neighbourhood costs more than exact
  * conditioning, or none meets the tolerance, exact conditioning is taken if the choice was automatic
  * (up to EXACT_SAMPLE_LIMIT samples), else the miss is warned.
  */
@@ -34,10 +34,10 @@ import {
   type PathChoice, type Tolerance,
 } from '../prediction/path-choice.ts';
 import {
-  DEFAULT_CHECK_SEED, checkedValues, describeAccuracy, chooseCheckTargets, compareWithReference, maxGrownNeighbors, referencePredictions, type LocalAccuracy,
+  DEFAULT_CHECK_SEED, checkedValues, describeAccuracy, chooseCheckTargets, compareWithReference, maxGrownNeighbours, referencePredictions, type LocalAccuracy,
 } from '../prediction/local-accuracy.ts';
 import { createLocalPredictor } from '../prediction/local-kriging.ts';
-import { DEFAULT_SIMULATION_NEIGHBORS } from './conditional-simulation.ts';
+import { DEFAULT_SIMULATION_NEIGHBOURS } from './conditional-simulation.ts';
 
 
 /** The simulation job the path is chosen for (plain data). */
@@ -49,7 +49,7 @@ export interface SimulationJob {
   /** Threads sharing the realisations; default 1. */
   threads?: number;
   /** Samples per neighbourhood on the local path; default 64. */
-  neighbors?: number;
+  neighbours?: number;
   /** A covariate trend (its GLS trend needs the dense system on both paths). */
   covariates?: boolean;
   tolerance?: Tolerance;
@@ -64,9 +64,9 @@ export function simulationExactCost(samples: number, nodes: number, realisations
 }
 
 /** Estimated multiply-adds of conditioning from neighbourhoods of m samples, its measured error included. */
-export function simulationLocalCost(samples: number, nodes: number, realisations: number, neighbors = DEFAULT_SIMULATION_NEIGHBORS, threads = 1, covariates = false): number {
+export function simulationLocalCost(samples: number, nodes: number, realisations: number, neighbours = DEFAULT_SIMULATION_NEIGHBOURS, threads = 1, covariates = false): number {
   const n = samples;
-  const m = Math.min(neighbors, n);
+  const m = Math.min(neighbours, n);
   const dense = covariates ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 : 0;
   return nodes * localTargetCost(m) + (realisations / Math.max(1, threads)) * nodes * m
     + n * Math.log2(Math.max(2, n)) + referenceCost(n, nodes) + dense;
@@ -83,7 +83,7 @@ function billions(x: number): string {
  */
 export function chooseSimulationPath(job: SimulationJob): PathChoice {
   const n = job.samples;
-  const m = job.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS;
+  const m = job.neighbours ?? DEFAULT_SIMULATION_NEIGHBOURS;
   const threads = Math.max(1, job.threads ?? 1);
   const ex = n <= EXACT_SAMPLE_LIMIT ? simulationExactCost(n, job.nodes, job.realisations, threads) : Infinity;
   const lo = simulationLocalCost(n, job.nodes, job.realisations, m, threads, job.covariates ?? false);
@@ -112,7 +112,7 @@ export function krigedNodes(grid: Grid, blockPoints = 1): number {
 export interface SimulationPath {
   choice: PathChoice;
   /** Samples per neighbourhood on the local path (after any growth). */
-  neighbors?: number;
+  neighbours?: number;
   /** The measured error of the local path. */
   accuracy?: LocalAccuracy;
   warnings: Warning[];
@@ -125,7 +125,7 @@ export interface SimulationPathOptions {
   support?: 'point' | 'block';
   blockPoints?: number;
   /** Samples per neighbourhood; a given size is not grown. */
-  neighbors?: number;
+  neighbours?: number;
   tolerance?: Tolerance;
   force?: 'exact' | 'local';
   /** Covariate trend: the encoded covariates at every lattice node (./conditional-simulation.ts order). */
@@ -166,7 +166,7 @@ export function planSimulationPath(samples: Samples, model: CovarianceModel, gri
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
   const job: SimulationJob = {
     samples: n, nodes: krigedNodes(grid, k), realisations: options.realisations, threads: options.threads,
-    neighbors: options.neighbors ?? DEFAULT_SIMULATION_NEIGHBORS, covariates: q > 0, tolerance, ...(options.force ? { force: options.force } : {}),
+    neighbours: options.neighbours ?? DEFAULT_SIMULATION_NEIGHBOURS, covariates: q > 0, tolerance, ...(options.force ? { force: options.force } : {}),
   };
   const first = chooseSimulationPath(job);
   if (first.path === 'exact') return { choice: first, warnings: [] };
@@ -177,15 +177,15 @@ export function planSimulationPath(samples: Samples, model: CovarianceModel, gri
   const log = model.transform === 'log';
   const all = Uint32Array.from({ length: nodes.x.length }, (_, i) => i);
   const measure = (m: number): LocalAccuracy => {
-    const p = createLocalPredictor(samples, model, { neighbors: m, globalMean: q > 0 }).predict(nodes.x, nodes.y, withCovariates);
-    return compareWithReference(model, reference, checkedValues(p, all, log), { targets: job.nodes, seed, neighbors: m, globalMean: q > 0, tolerance });
+    const p = createLocalPredictor(samples, model, { neighbours: m, globalMean: q > 0 }).predict(nodes.x, nodes.y, withCovariates);
+    return compareWithReference(model, reference, checkedValues(p, all, log), { targets: job.nodes, seed, neighbours: m, globalMean: q > 0, tolerance });
   };
-  let m = Math.min(job.neighbors!, n);
+  let m = Math.min(job.neighbours!, n);
   let accuracy = measure(m);
   const warnings: Warning[] = [];
-  const canGrow = options.neighbors === undefined;
-  while (!accuracy.within && canGrow && m < maxGrownNeighbors(n)) {
-    m = Math.min(2 * m, maxGrownNeighbors(n));
+  const canGrow = options.neighbours === undefined;
+  while (!accuracy.within && canGrow && m < maxGrownNeighbours(n)) {
+    m = Math.min(2 * m, maxGrownNeighbours(n));
     accuracy = measure(m);
   }
   const grownCost = simulationLocalCost(n, job.nodes, job.realisations, m, job.threads, q > 0);
@@ -198,10 +198,10 @@ export function planSimulationPath(samples: Samples, model: CovarianceModel, gri
   if (!accuracy.within) {
     warnings.push({
       code: 'tolerance-missed',
-      message: `Local conditioning missed the tolerance (${describeAccuracy(accuracy)}); more neighbours (--neighbors) or exact conditioning (--exact) come closer.`,
+      message: `Local conditioning missed the tolerance (${describeAccuracy(accuracy)}); more neighbours (--neighbours) or exact conditioning (--exact) come closer.`,
     });
   }
-  const grown = m !== Math.min(job.neighbors!, n);
+  const grown = m !== Math.min(job.neighbours!, n);
   const reason = grown ? `${first.reason}; grown to ${m.toLocaleString('en-US')} neighbours to meet the tolerance` : first.reason;
-  return { choice: { ...first, reason, localCost: grownCost }, neighbors: m, accuracy, warnings };
+  return { choice: { ...first, reason, localCost: grownCost }, neighbours: m, accuracy, warnings };
 }

@@ -10,11 +10,11 @@ import { checkLeaveOneOutFinite, leaveOneOut, summariseErrors, type LeaveOneOutR
 import {
   chooseCheckTargets, compareWithReference, DEFAULT_CHECK_SEED, type CheckedValues, type LocalAccuracy, type LocalSettings, type ReferenceValues,
 } from '../prediction/local-accuracy.ts';
-import { checkCount, REFERENCE_NEIGHBORS, type Tolerance } from '../prediction/path-choice.ts';
+import { checkCount, REFERENCE_NEIGHBOURS, type Tolerance } from '../prediction/path-choice.ts';
 import { createPredictor } from '../prediction/kriging.ts';
-import { globalMeanCoefficients, MAX_LOCAL_NEIGHBORS } from '../prediction/local-kriging.ts';
+import { globalMeanCoefficients, MAX_LOCAL_NEIGHBOURS } from '../prediction/local-kriging.ts';
 import { checkModelScale, type CovarianceModel } from '../covariance/model.ts';
-import { NeighborIndex } from '../geometry/neighbors.ts';
+import { NeighbourIndex } from '../geometry/neighbours.ts';
 import type { Samples } from '../shared/samples.ts';
 import { covariateColumnCount, designRow, knownMean, trendColumnCount, trendFrame } from '../covariance/trend.ts';
 import { toIsotropicCoordinates } from '../covariance/covariance.ts';
@@ -23,7 +23,7 @@ import { MAX_EXACT_SAMPLES } from '../shared/sizes.ts';
 /** Options of localLeaveOneOut (plain data). */
 export interface LocalLeaveOneOutOptions {
   /** Other samples each left-out sample is predicted from, M (min(M, n − 1) are used). */
-  neighbors: number;
+  neighbours: number;
   /** Use the GLS mean (trend) of all samples as a known mean in every neighbourhood. */
   globalMean?: boolean;
 }
@@ -42,9 +42,9 @@ export function localLeaveOneOut(
   const n = samples.value.length;
   const pModel = trendColumnCount(model.trend);
   if (n < pModel + 2) throw new GapwiseError('too-few-samples', `Expected at least ${pModel + 2} samples for leave-one-out with this trend, got ${n}.`);
-  const m = options.neighbors;
-  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBORS)) {
-    throw new GapwiseError('bad-option', `Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBORS}, got ${m}.`);
+  const m = options.neighbours;
+  if (!(Number.isInteger(m) && m >= 1 && m <= MAX_LOCAL_NEIGHBOURS)) {
+    throw new GapwiseError('bad-option', `Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBOURS}, got ${m}.`);
   }
   const log = model.transform === 'log';
   const z = new Float64Array(n);
@@ -78,7 +78,7 @@ export function localLeaveOneOut(
     throw new GapwiseError('bad-option', `Expected more than ${pModel} samples per neighbourhood for this trend, got ${q}.`);
   }
   const { u, v } = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, frame.cx, frame.cy);
-  const index = new NeighborIndex(u, v);
+  const index = new NeighbourIndex(u, v);
   const ids = new Uint32Array(q + 1);
   const sx = new Float64Array(q);
   const sy = new Float64Array(q);
@@ -134,7 +134,7 @@ export function localLeaveOneOut(
  * The measured error of a local leave-one-out (localLeaveOneOut above): at a seeded subset of the
  * samples (checkCount(n, n)), the local prediction and sd_obs of each left-out sample against the
  * reference leave-one-out there: the closed form from all other samples (./cross-validation.ts leaveOneOut) up to
- * MAX_EXACT_SAMPLES samples, above that kriging from the REFERENCE_NEIGHBORS nearest other samples
+ * MAX_EXACT_SAMPLES samples, above that kriging from the REFERENCE_NEIGHBOURS nearest other samples
  * around the GLS mean of all samples (the reference of core/prediction/local-accuracy.ts predictLocalChecked, for the same reason).
  * Largest and RMS differences in % of the prior sd (on the log scale for a log model, as leave-one-out
  * itself). `local` holds the local leave-one-out of every sample (the values the user gets).
@@ -153,8 +153,8 @@ export function measureLocalLeaveOneOut(
     const exact = leaveOneOut(samples, model);
     reference = { mean: pick(exact.prediction), sd: pick(exact.sdObserved), reference: 'exact' };
   } else {
-    const near = localLeaveOneOutAt(samples, model, idx, REFERENCE_NEIGHBORS);
-    reference = { ...near, reference: 'nearest', referenceNeighbors: Math.min(n - 1, REFERENCE_NEIGHBORS) };
+    const near = localLeaveOneOutAt(samples, model, idx, REFERENCE_NEIGHBOURS);
+    reference = { ...near, reference: 'nearest', referenceNeighbours: Math.min(n - 1, REFERENCE_NEIGHBOURS) };
   }
   return compareWithReference(model, reference, { mean: pick(local.prediction), sd: pick(local.sdObserved) }, {
     targets: n, seed, ...settings, ...(options.tolerance ? { tolerance: options.tolerance } : {}),
@@ -162,11 +162,11 @@ export function measureLocalLeaveOneOut(
 }
 
 /**
- * Leave-one-out at the samples `idx` only, each predicted from its `neighbors` nearest other samples
+ * Leave-one-out at the samples `idx` only, each predicted from its `neighbours` nearest other samples
  * around the GLS mean of all samples (kriging scale): prediction and sd_obs, in idx order.
  */
 function localLeaveOneOutAt(
-  samples: Samples, model: CovarianceModel, idx: Uint32Array, neighbors: number,
+  samples: Samples, model: CovarianceModel, idx: Uint32Array, neighbours: number,
 ): CheckedValues {
   const n = samples.x.length;
   const trend = model.trend ?? 'constant';
@@ -190,8 +190,8 @@ function localLeaveOneOutAt(
   }
   const simple: CovarianceModel = { ...model, transform: 'none', trend: { known: 0 } };
   const { u, v } = toIsotropicCoordinates(model.anisotropy, samples.x, samples.y, frame.cx, frame.cy);
-  const index = new NeighborIndex(u, v);
-  const q = Math.min(neighbors, n - 1);
+  const index = new NeighbourIndex(u, v);
+  const q = Math.min(neighbours, n - 1);
   const ids = new Uint32Array(q + 1);
   const mean = new Float64Array(idx.length);
   const sd = new Float64Array(idx.length);

@@ -13,8 +13,8 @@ import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
 import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
-import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBORS } from '../../core/fitting/vecchia.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
+import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBOURS } from '../../core/fitting/vecchia.ts';
+import { DEFAULT_LOCAL_NEIGHBOURS } from '../../core/prediction/local-kriging.ts';
 import type { LocalKrigingOptions } from '../../core/prediction/local-kriging.ts';
 import type { LocalGridCheck, LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { chooseLeaveOneOutPath } from '../../core/prediction/path-choice.ts';
@@ -71,15 +71,15 @@ function logSamples(s: Samples): Samples {
 export async function fitCandidateRows(req: FitRequest, onProgress?: Progress, signal?: AbortSignal): Promise<CandidateRow[]> {
   const p = enginePool();
   const fitSamples = req.transform === 'log' ? logSamples(req.samples) : req.samples;
-  const nnl = (req.likelihood ?? chooseFitMethod(req.samples.x.length)) === 'nnl';
+  const vecchia = (req.likelihood ?? chooseFitMethod(req.samples.x.length)) === 'nnl';
   let done = 0;
   const total = CANDIDATE_SPECS.length;
   onProgress?.(0, total, CANDIDATE_SPECS.map((c) => c.label).join(', '));
   const rows = await Promise.all(CANDIDATE_SPECS.map(async (spec): Promise<CandidateRow> => {
     try {
-      if (nnl) {
-        const m = await p.request('fitNearestNeighbour', {
-          samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: 'reml', neighbors: DEFAULT_VECCHIA_NEIGHBORS, ...(req.trend ? { trend: req.trend } : {}) },
+      if (vecchia) {
+        const m = await p.request('fitVecchia', {
+          samples: fitSamples, options: { family: spec.family, nu: spec.nu, method: 'reml', neighbours: DEFAULT_VECCHIA_NEIGHBOURS, ...(req.trend ? { trend: req.trend } : {}) },
         }, { signal });
         m.transform = req.transform;
         const cv = await p.request('crossValidate', { samples: req.samples, model: m, ...localCv(req.samples) }, { signal });
@@ -143,8 +143,8 @@ export function crossValidate(samples: Samples, model: CovarianceModel, signal?:
  * leave-one-out predicts each sample from its 64 nearest others (core/validation/local-cross-validation.ts,
  * n·64³/3 flops) instead of the closed form's n³/3 flops and 8n² bytes.
  */
-function localCv(samples: Samples): { local?: { neighbors: number } } {
-  return chooseLeaveOneOutPath({ samples: samples.x.length }).path === 'local' ? { local: { neighbors: DEFAULT_LOCAL_NEIGHBORS } } : {};
+function localCv(samples: Samples): { local?: { neighbours: number } } {
+  return chooseLeaveOneOutPath({ samples: samples.x.length }).path === 'local' ? { local: { neighbours: DEFAULT_LOCAL_NEIGHBOURS } } : {};
 }
 
 export interface SurfaceRequest {

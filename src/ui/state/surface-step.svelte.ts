@@ -11,7 +11,7 @@ import { isCovariateTrend, type CovarianceModel } from '../../core/covariance/mo
 import { covariatesOnGrid, missingRasterMessage } from './covariate-grid.ts';
 import type { Grid } from '../../core/geometry/grid.ts';
 import type { SurfaceResult } from '../../core/prediction/surface.ts';
-import { DEFAULT_LOCAL_NEIGHBORS } from '../../core/prediction/local-kriging.ts';
+import { DEFAULT_LOCAL_NEIGHBOURS } from '../../core/prediction/local-kriging.ts';
 import { choosePredictionPath, EXACT_SAMPLE_LIMIT } from '../../core/prediction/path-choice.ts';
 import type { LocalAccuracy, LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import type { IntakeResult } from '../../io/types.ts';
@@ -240,7 +240,7 @@ export class SurfaceState {
       return;
     }
     const { result, settings, accuracy, note } = answer.value;
-    this.shown = { ...this.view(job, result, true, settings?.neighbors ?? null, ms), ...(accuracy ? { accuracy } : {}), ...(note ? { pathNote: note } : {}) };
+    this.shown = { ...this.view(job, result, true, settings?.neighbours ?? null, ms), ...(accuracy ? { accuracy } : {}), ...(note ? { pathNote: note } : {}) };
     this.task = { ...this.task, status: 'done', done: plan.cells, total: plan.cells, what: '', ms };
     if (!su.sdLimit && Number.isFinite(result.range.sd.max)) su.sdLimit = +result.range.sd.max.toPrecision(2);
   }
@@ -278,10 +278,10 @@ export class SurfaceState {
   }
 
   /** The surface as the map shows it while it arrives (`done` false) or once finished. */
-  private view(job: SurfaceJob, result: SurfaceResult, done: boolean, neighbors: number | null, ms?: number): SurfaceView {
+  private view(job: SurfaceJob, result: SurfaceResult, done: boolean, neighbours: number | null, ms?: number): SurfaceView {
     return {
       grid: job.grid, result, work: job.work, threshold: job.threshold, key: job.key, bands: ++job.bands, done,
-      support: job.support, points: job.points, local: neighbors,
+      support: job.support, points: job.points, local: neighbours,
       ...(ms !== undefined ? { ms } : {}),
     };
   }
@@ -300,7 +300,7 @@ export class SurfaceState {
         progress.push({ seconds: (performance.now() - started) / 1000, done });
       },
       run.signal,
-      (merged) => { if (run.current()) this.shown = this.view(job, merged, false, settings?.neighbors ?? null); },
+      (merged) => { if (run.current()) this.shown = this.view(job, merged, false, settings?.neighbours ?? null); },
     );
   }
 
@@ -309,14 +309,14 @@ export class SurfaceState {
    * sample), measures the speed, and checks a local surface against exact kriging.
    */
   private async krigeChecked(job: SurfaceJob, run: Run): Promise<Kriged> {
-    const settings: LocalSettings | null = job.support === 'point' && this.local ? { neighbors: DEFAULT_LOCAL_NEIGHBORS, globalMean: true } : null;
+    const settings: LocalSettings | null = job.support === 'point' && this.local ? { neighbours: DEFAULT_LOCAL_NEIGHBOURS, globalMean: true } : null;
     const progress: Array<{ seconds: number; done: number }> = [];
     const result = await this.krige(job, run, settings, progress);
     run.check();
     const seconds = (performance.now() - job.t0) / 1000;
     this.rate = measureSurfaceSpeed({ n: job.n, cells: job.cells, workers: engine.workerCount(), seconds, progress }) ?? this.rate;
     if (!settings) return { result, settings, accuracy: null, note: null };
-    this.shown = this.view(job, result, false, settings.neighbors);
+    this.shown = this.view(job, result, false, settings.neighbours);
     return this.meetTolerance(job, run, settings, result);
   }
 
@@ -330,13 +330,13 @@ export class SurfaceState {
     // Chosen automatically, growth is tried only while a doubled neighbourhood stays cheaper than
     // exact kriging; otherwise a miss goes straight to exact kriging (cheaper and exact).
     const growthPays = this.method !== 'auto' || choosePredictionPath({
-      samples: job.samples.x.length, targets: job.cells, threads, neighbors: 2 * settings.neighbors,
+      samples: job.samples.x.length, targets: job.cells, threads, neighbours: 2 * settings.neighbours,
     }).path === 'local';
     const check = await engine.localAccuracy(job.samples, job.model, job.grid, settings, growthPays, run.signal);
     run.check();
     const first = check.accuracy;
     if (first.within) return { result, settings, accuracy: first, note: null };
-    const missed = `The ${first.neighbors} nearest samples${first.globalMean ? ' around the mean of all samples' : ''} missed the tolerance `
+    const missed = `The ${first.neighbours} nearest samples${first.globalMean ? ' around the mean of all samples' : ''} missed the tolerance `
       + `(mean within ${first.mean.max.toFixed(2)} %, sd within ${first.sd.max.toFixed(2)} % of the prior sd; aim ${first.tolerance.mean} % / ${first.tolerance.sd} %)`;
     const exactAllowed = this.method === 'auto' && job.n <= EXACT_SAMPLE_LIMIT;
     if (!check.grown && !exactAllowed) {
@@ -345,19 +345,19 @@ export class SurfaceState {
     // A grown neighbourhood that costs more than exact kriging (up to every sample) is not
     // worth it when the path is chosen automatically: exact kriging is then both cheaper and exact.
     const grownCostsMore = !!check.grown && exactAllowed && choosePredictionPath({
-      samples: job.samples.x.length, targets: job.cells, threads, neighbors: check.grown.neighbors,
+      samples: job.samples.x.length, targets: job.cells, threads, neighbours: check.grown.neighbours,
     }).path === 'exact';
     const grown = grownCostsMore ? null : check.grown;
-    this.task = { ...this.task, done: 0, what: grown ? `again with the ${grown.neighbors} nearest samples` : 'again from every sample' };
+    this.task = { ...this.task, done: 0, what: grown ? `again with the ${grown.neighbours} nearest samples` : 'again from every sample' };
     const again = await this.krige(job, run, grown, []);
     run.check();
     if (grown) {
       const accuracy = (await engine.localAccuracy(job.samples, job.model, job.grid, grown, false, run.signal)).accuracy;
       run.check();
-      return { result: again, settings: grown, accuracy, note: `${missed}, so the surface was computed again with the ${grown.neighbors} nearest samples.` };
+      return { result: again, settings: grown, accuracy, note: `${missed}, so the surface was computed again with the ${grown.neighbours} nearest samples.` };
     }
     const note = grownCostsMore
-      ? `${missed}; the ${check.grown!.neighbors} nearest would meet it but cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`
+      ? `${missed}; the ${check.grown!.neighbours} nearest would meet it but cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`
       : growthPays
         ? `${missed}, and so did every larger neighbourhood tried, so the surface was computed again by exact kriging from every sample.`
         : `${missed}; larger neighbourhoods would cost more than exact kriging here, so the surface was computed again by exact kriging from every sample.`;

@@ -189,10 +189,10 @@ describe('suggest, simulate and block support with covariates', () => {
     const p = JSON.parse(point.stdout);
     expect(b.grid).toEqual(p.grid);
     expect(b.range.sd.max).toBeLessThan(p.range.sd.max);
-    const sim = await ws.run('grid', ...COMMON, ...WITH_RASTER, '--cell', '20', '--realizations', '8', '--threshold', '25', '--out', 'sim.tif', '--workers', '1');
+    const sim = await ws.run('grid', ...COMMON, ...WITH_RASTER, '--cell', '20', '--realisations', '8', '--threshold', '25', '--out', 'sim.tif', '--workers', '1');
     expect(sim.code, sim.stderr).toBe(0);
     const summary = JSON.parse(sim.stdout);
-    expect(summary.realizations).toBe(8);
+    expect(summary.realisations).toBe(8);
     expect(summary.areaAbove.unit).toBe('m²');
   }, 120000);
 });

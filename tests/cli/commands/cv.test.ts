@@ -80,8 +80,8 @@ describe('cv command', () => {
     expect(r.stderr).toContain('Option "--model FILE" is required for "gapwise cv"');
   });
 
-  it('cv --local --neighbors 24 on 25 samples (every other sample) gives the closed form\'s numbers, and says how it was done', async () => {
-    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbors', '24', '--out', 'cv-local.csv');
+  it('cv --local --neighbours 24 on 25 samples (every other sample) gives the closed form\'s numbers, and says how it was done', async () => {
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbours', '24', '--out', 'cv-local.csv');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toContain('note: each sample left out and predicted from the 24 nearest other samples (local neighbourhoods, the mean re-estimated in each); 25 samples (--local)\n');
     const summary = JSON.parse(r.stdout);
@@ -90,16 +90,16 @@ describe('cv command', () => {
     expect(summary.coverage95).toBe(direct.coverage95);
     // The measurement: every sample checked against the closed form (24 others = all others: rounding only).
     expect(r.stderr).toContain('note: measured error of the local leave-one-out against exact leave-one-out at 25 of 25 samples (seed 1)');
-    expect(summary.localError).toMatchObject({ checked: 25, targets: 25, reference: 'exact', within: true, neighbors: 24, globalMean: false });
+    expect(summary.localError).toMatchObject({ checked: 25, targets: 25, reference: 'exact', within: true, neighbours: 24, globalMean: false });
     expect(summary.localError.mean.max).toBeLessThan(1e-6);
     expect(summary.localError.sd.max).toBeLessThan(1e-6);
   });
 
-  it('cv --local --neighbors 4 reports its measured error: the largest differences from the closed form at every sample', async () => {
-    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbors', '4');
+  it('cv --local --neighbours 4 reports its measured error: the largest differences from the closed form at every sample', async () => {
+    const r = await ws.run('cv', ...COMMON, '--model', 'model.json', '--local', '--local-mean', '--neighbours', '4');
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
-    const local = localLeaveOneOut(intake.samples, parseModel(MODEL), { neighbors: 4 });
+    const local = localLeaveOneOut(intake.samples, parseModel(MODEL), { neighbours: 4 });
     const exact = leaveOneOut(intake.samples, parseModel(MODEL));
     let mean = 0;
     let sd = 0;
@@ -124,14 +124,14 @@ describe('cv command', () => {
     const summary = JSON.parse(r.stdout);
     const field = readSamples(fieldSamplesCsv(3500, 7), { fileName: 'field.csv', crs: 'EPSG:32633' });
     expect(summary).toEqual({
-      ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbors: 64, globalMean: true }).summary, scale: 'data', unit: '', caution: CAUTION,
-      method: 'local neighbourhoods', neighbors: 64, globalMean: true, reason: 'above 3,000 samples exact leave-one-out (about n³/2 operations) costs too much',
+      ...localLeaveOneOut(field.samples, parseModel(FIELD_MODEL), { neighbours: 64, globalMean: true }).summary, scale: 'data', unit: '', caution: CAUTION,
+      method: 'local neighbourhoods', neighbours: 64, globalMean: true, reason: 'above 3,000 samples exact leave-one-out (about n³/2 operations) costs too much',
       localError: expect.any(Object),
     });
     // The measured error, recomputed independently: the same 30 seeded samples, each kriged from its
     // 800 nearest others found by sorting all distances, around the GLS mean of all samples.
     const model = parseModel(FIELD_MODEL);
-    const local = localLeaveOneOut(field.samples, model, { neighbors: 64, globalMean: true });
+    const local = localLeaveOneOut(field.samples, model, { neighbours: 64, globalMean: true });
     const beta = globalMeanCoefficients(field.samples, model).beta[0];
     const { x, y, value } = field.samples;
     let largest = 0;
@@ -142,7 +142,7 @@ describe('cv command', () => {
         .predict([x[i]], [y[i]]);
       largest = Math.max(largest, Math.abs(local.prediction[i] - (p.mean[0] + beta)));
     }
-    expect(summary.localError).toMatchObject({ checked: 30, targets: 3500, reference: 'nearest', referenceNeighbors: 800, seed: 1 });
+    expect(summary.localError).toMatchObject({ checked: 30, targets: 3500, reference: 'nearest', referenceNeighbours: 800, seed: 1 });
     expectClose(summary.localError.mean.max, (100 * largest) / Math.sqrt(surfaceVariance(model)), { rel: 1e-6 }, 'largest prediction difference');
     expect(r.stderr).toContain('note: measured error of the local leave-one-out against kriging from the 800 nearest other samples at 30 of 3,500 samples (seed 1)');
     // The field's noise has sd 0.5 (run-cli.ts): errors of about that size, honest sds.

@@ -51,12 +51,12 @@ describe('fit command', () => {
 
   it('fit on 5,000 samples chooses the nearest-neighbour likelihood by itself and says so on stderr and in the model', async () => {
     ws.write('field-5k.csv', fieldSamplesCsv(5000, 3));
-    const r = await ws.run('fit', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--nnl-neighbors', '10', '--out', 'field.json');
+    const r = await ws.run('fit', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--nnl-neighbours', '10', '--out', 'field.json');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toContain('note: fitted with a nearest-neighbour likelihood on 5,000 samples (10 neighbours); chosen automatically from 3,000 samples (--method reml|ml|wls overrides)\n');
     const out = JSON.parse(ws.read('field.json'));
     expect(out.fit).toMatchObject({
-      method: 'nnl', likelihood: 'reml', choice: 'automatic', n: 5000, neighbors: 10,
+      method: 'nnl', likelihood: 'reml', choice: 'automatic', n: 5000, neighbours: 10,
       note: 'fitted with a nearest-neighbour likelihood on 5,000 samples (10 neighbours)',
     });
     expect(out.data.n).toBe(5000);
@@ -67,14 +67,14 @@ describe('fit command', () => {
 
   it('fit --method nnl on few samples passes family, smoothness, trend and neighbours to vecchiaFit', async () => {
     ws.write('field-600.csv', fieldSamplesCsv(600, 4));
-    const r = await ws.run('fit', '--samples', 'field-600.csv', '--crs', 'EPSG:32633', '--method', 'nnl', '--nnl-neighbors', '12', '--family', 'exponential', '--trend', 'linear');
+    const r = await ws.run('fit', '--samples', 'field-600.csv', '--crs', 'EPSG:32633', '--method', 'nnl', '--nnl-neighbours', '12', '--family', 'exponential', '--trend', 'linear');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toContain('note: fitted with a nearest-neighbour likelihood on 600 samples (12 neighbours); --method nnl\n');
     const out = JSON.parse(r.stdout);
     const samples = readSamples(fieldSamplesCsv(600, 4), { fileName: 'field-600.csv', crs: 'EPSG:32633' }).samples;
-    const direct = vecchiaFit(samples, { family: 'exponential', trend: 'linear', neighbors: 12, method: 'reml', nugget: true });
+    const direct = vecchiaFit(samples, { family: 'exponential', trend: 'linear', neighbours: 12, method: 'reml', nugget: true });
     expect(out.structures).toEqual(direct.structures);
-    expect(out.fit).toMatchObject({ method: 'nnl', choice: 'given', neighbors: 12 });
+    expect(out.fit).toMatchObject({ method: 'nnl', choice: 'given', neighbours: 12 });
   });
 
   it('fit --method reml on more than 3,000 samples refuses and says what to use instead (exit 2)', async () => {
@@ -137,9 +137,9 @@ describe('resolveFitMethod', () => {
     expect(resolveFitMethod('nnl', 50, 5)).toEqual({ method: 'nnl', automatic: false });
     expect(resolveFitMethod('ml', 3000)).toEqual({ method: 'ml', automatic: false });
     expect(() => resolveFitMethod('ml', 3001)).toThrow(/limited to 3,000 samples/);
-    expect(() => resolveFitMethod('auto', 100, 10)).toThrow('Option "--nnl-neighbors" applies to the nearest-neighbour likelihood, which is chosen from 3,000 samples; got 100 samples (add --method nnl to use it anyway).');
-    expect(() => resolveFitMethod('reml', 100, 10)).toThrow('Option "--nnl-neighbors" applies to --method nnl only; got --method reml.');
-    expect(() => resolveFitMethod('nnl', 100, 0)).toThrow('Option "--nnl-neighbors" expects a whole number from 1 to 1,000, got 0.');
+    expect(() => resolveFitMethod('auto', 100, 10)).toThrow('Option "--nnl-neighbours" applies to the nearest-neighbour likelihood, which is chosen from 3,000 samples; got 100 samples (add --method nnl to use it anyway).');
+    expect(() => resolveFitMethod('reml', 100, 10)).toThrow('Option "--nnl-neighbours" applies to --method nnl only; got --method reml.');
+    expect(() => resolveFitMethod('nnl', 100, 0)).toThrow('Option "--nnl-neighbours" expects a whole number from 1 to 1,000, got 0.');
   });
 });
 

@@ -117,9 +117,9 @@ describe('gapwise grid', () => {
     for (let k = 0; k < sd.length; k++) expect(sd[k]).toBeLessThan(point.sd[k]);
   });
 
-  it('grid --realizations adds P(exceed) from the realisations as a band and the area and volume above the threshold (median, p5, p95) to the summary', async () => {
+  it('grid --realisations adds P(exceed) from the realisations as a band and the area and volume above the threshold (median, p5, p95) to the summary', async () => {
     // Three threads share out the realisations; the area and the band equal one core run's.
-    const r = await ws.run('grid', ...base20, '--realizations', '24', '--seed', '4', '--threshold', '25', '--depth', '0.5', '--workers', '3', '--out', 'sim.tif');
+    const r = await ws.run('grid', ...base20, '--realisations', '24', '--seed', '4', '--threshold', '25', '--depth', '0.5', '--workers', '3', '--out', 'sim.tif');
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
     expect(summary.bands).toEqual(['mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 25 mg/L)', 'P(value > 25 mg/L) from 24 realisations']);
@@ -127,7 +127,7 @@ describe('gapwise grid', () => {
     const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
     const sim = simulateConditional(intake.samples, parseModel(MODEL), gridOf(summary), { count: 24, seed: 4, threshold: 25, depth: 0.5, keepRealisations: false });
     const a = sim.area!;
-    expect(summary.realizations).toBe(24);
+    expect(summary.realisations).toBe(24);
     expect(summary.seed).toBe(4);
     expect(summary.areaAbove).toEqual({ median: a.area.median, p5: a.area.p05, p95: a.area.p95, mean: a.area.mean, unit: 'm²' });
     expect(summary.volumeAbove).toEqual({ median: a.volume!.median, p5: a.volume!.p05, p95: a.volume!.p95, mean: a.volume!.mean, unit: 'm³', depth: 0.5 });
@@ -140,24 +140,24 @@ describe('gapwise grid', () => {
     for (let k = 0; k < bands[3].length; k++) expect(Math.abs(bands[3][k] - bands[2][k])).toBeLessThan(0.35);
   });
 
-  it('grid --realizations with a .csv output warns that the realisation bands go to GeoTIFF only, and keeps the area in the summary', async () => {
-    const r = await ws.run('grid', ...base20, '--realizations', '5', '--threshold', '25', '--out', 'sim.csv');
+  it('grid --realisations with a .csv output warns that the realisation bands go to GeoTIFF only, and keeps the area in the summary', async () => {
+    const r = await ws.run('grid', ...base20, '--realisations', '5', '--threshold', '25', '--out', 'sim.csv');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toContain('warning: The band "P(value > 25 mg/L) from 5 realisations" from the realisations is written to GeoTIFF only; use --out FILE.tif to keep it.\n');
     expect(JSON.parse(r.stdout).areaAbove.unit).toBe('m²');
   });
 
-  it('grid refuses contradictory path options, --neighbors with --exact, --workers 0 and --depth without realisations (exit 2)', async () => {
+  it('grid refuses contradictory path options, --neighbours with --exact, --workers 0 and --depth without realisations (exit 2)', async () => {
     const both = await ws.run('grid', ...base, '--exact', '--local', '--out', 'x.tif');
     expect(both.stderr).toBe('error: Options "--exact" and "--local" contradict each other; expected at most one of them.\n');
-    const m = await ws.run('grid', ...base, '--exact', '--neighbors', '10', '--out', 'x.tif');
+    const m = await ws.run('grid', ...base, '--exact', '--neighbours', '10', '--out', 'x.tif');
     expect(m.code).toBe(2);
-    expect(m.stderr).toContain('"--neighbors" sets the size of local neighbourhoods; it does not apply with "--exact"');
+    expect(m.stderr).toContain('"--neighbours" sets the size of local neighbourhoods; it does not apply with "--exact"');
     const w = await ws.run('grid', ...base, '--workers', '0', '--out', 'x.tif');
     expect(w.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
     const d = await ws.run('grid', ...base, '--threshold', '25', '--depth', '1', '--out', 'x.tif');
     expect(d.code).toBe(2);
-    expect(d.stderr).toContain('"--depth" needs "--realizations N"');
+    expect(d.stderr).toContain('"--depth" needs "--realisations N"');
     const block = await ws.run('grid', ...base, '--support', 'block', '--local', '--out', 'x.tif');
     expect(block.stderr).toContain('apply to point support; block kriging uses all samples');
   });
@@ -178,15 +178,15 @@ describe('gapwise grid on many samples', () => {
     const r = await ws.run('grid', '--samples', 'field-5k.csv', '--crs', 'EPSG:32633', '--model', 'field.json', '--cell', '50', '--padding', '0', '--workers', '2', '--threshold', '35', '--out', 'big.tif');
     expect(r.code, r.stderr).toBe(0);
     const summary = JSON.parse(r.stdout);
-    expect(summary).toMatchObject({ method: 'local neighbourhoods', neighbors: 64, globalMean: true, n: 5000 });
+    expect(summary).toMatchObject({ method: 'local neighbourhoods', neighbours: 64, globalMean: true, n: 5000 });
     // The measured error: against the 800 nearest samples at 30 cells (above 3,000 samples), within the default tolerance.
-    expect(summary.localError).toMatchObject({ reference: 'nearest', referenceNeighbors: 800, checked: 30, targets: summary.grid.cells, tolerance: { mean: 1, sd: 2 }, within: true });
+    expect(summary.localError).toMatchObject({ reference: 'nearest', referenceNeighbours: 800, checked: 30, targets: summary.grid.cells, tolerance: { mean: 1, sd: 2 }, within: true });
     expect(summary.localError.mean.max).toBeGreaterThanOrEqual(summary.localError.mean.rms);
     const cells = summary.grid.cells.toLocaleString('en-US');
     expect(r.stderr).toMatch(new RegExp(`note: predicted from the 64 nearest samples at each target \\(local neighbourhoods, with the GLS mean of all samples\\); 5,000 samples; chosen automatically: local neighbourhoods are cheaper here \\(about [\\d.]+ billion operations local, [\\d.]+ exact\\) \\(--exact overrides\\); ${cells} cells on 2 worker threads\n`));
     expect(r.stderr).toContain(`note: measured error of the local neighbourhoods against kriging from the 800 nearest samples at 30 of ${cells} targets (seed 1): mean largest`);
     const intake = readSamples(fieldSamplesCsv(5000, 1), { fileName: 'field-5k.csv', crs: 'EPSG:32633' });
-    const single = computeSurfaceSingle({ samples: intake.samples, model, grid: gridOf(summary), path: 'local', local: { neighbors: 64, globalMean: true }, surface: { threshold: 35 } });
+    const single = computeSurfaceSingle({ samples: intake.samples, model, grid: gridOf(summary), path: 'local', local: { neighbours: 64, globalMean: true }, surface: { threshold: 35 } });
     const [mean, sd, p] = await readBands(ws, 'big.tif');
     expect(Array.from(mean)).toEqual(asWritten(single.mean));
     expect(Array.from(sd)).toEqual(asWritten(single.sd));

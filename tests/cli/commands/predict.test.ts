@@ -148,17 +148,17 @@ describe('predict command', () => {
     expect(r.stderr).not.toMatch(/\n\s+at /);
   });
 
-  it('predict --local --neighbors 8 gives the local predictor\'s numbers (p_exceed on the log scale for a log model) and says so on stderr', async () => {
+  it('predict --local --neighbours 8 gives the local predictor\'s numbers (p_exceed on the log scale for a log model) and says so on stderr', async () => {
     const logModel = { structures: [{ type: 'nugget', sill: 0.01 }, { type: 'matern', sill: 0.05, scale: 70, nu: 1.5 }], trend: 'constant', transform: 'log' };
     ws.write('log-local.json', JSON.stringify({ ...logModel, crs: { work: 'EPSG:32633' } }));
     ws.write('two.csv', 'easting,northing\n500050,5400050\n500170,5400020\n');
-    const r = await ws.run('predict', ...COMMON, '--model', 'log-local.json', '--targets', 'two.csv', '--threshold', '22', '--local', '--neighbors', '8');
+    const r = await ws.run('predict', ...COMMON, '--model', 'log-local.json', '--targets', 'two.csv', '--threshold', '22', '--local', '--neighbours', '8');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toContain('note: predicted from the 8 nearest samples at each target (local neighbourhoods, with the GLS mean of all samples); 25 samples (--local); 2 targets\n');
     expect(r.stderr).toMatch(/note: measured error of the local neighbourhoods against exact kriging at 2 of 2 targets \(seed 1\): mean largest [\d.]+ %, RMS [\d.]+ %; sd largest [\d.]+ %, RMS [\d.]+ % of the prior sd \(log scale\); tolerance 1 % \/ 2 % (met|MISSED)\n/);
     const rows = csvRows(r.stdout).slice(1).map((c) => c.map(Number));
     const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
-    const p = createLocalPredictor(intake.samples, parseModel(logModel), { neighbors: 8, globalMean: true }).predict([500050, 500170], [5400050, 5400020]);
+    const p = createLocalPredictor(intake.samples, parseModel(logModel), { neighbours: 8, globalMean: true }).predict([500050, 500170], [5400050, 5400020]);
     for (let i = 0; i < 2; i++) {
       expectClose(rows[i][2], p.mean[i], { rel: 1e-10 }, `mean ${i}`);
       expectClose(rows[i][3], p.sd[i], { rel: 1e-10 }, `sd ${i}`);
@@ -186,10 +186,10 @@ describe('predict command', () => {
     expectClose(rows.map((c) => c[3]), p.sd, { rel: 1e-10 }, 'sd');
   });
 
-  it('predict --neighbors on few samples is not used (exact kriging) and says so', async () => {
-    const r = await ws.run('predict', ...COMMON, '--model', 'smooth.json', '--targets', SAMPLES, '--neighbors', '10');
+  it('predict --neighbours on few samples is not used (exact kriging) and says so', async () => {
+    const r = await ws.run('predict', ...COMMON, '--model', 'smooth.json', '--targets', SAMPLES, '--neighbours', '10');
     expect(r.code, r.stderr).toBe(0);
-    expect(r.stderr).toContain('warning: --neighbors 10 is not used: exact kriging from all 25 samples was chosen (25 targets are few enough to krige exactly (the error check would do it anyway)); add --local to predict from neighbourhoods.\n');
+    expect(r.stderr).toContain('warning: --neighbours 10 is not used: exact kriging from all 25 samples was chosen (25 targets are few enough to krige exactly (the error check would do it anyway)); add --local to predict from neighbourhoods.\n');
     expect(r.stderr).toContain('note: predicted by exact kriging from all 25 samples; chosen automatically: 25 targets are few enough to krige exactly (the error check would do it anyway) (--local overrides); 25 targets\n');
   });
 });

@@ -39,8 +39,8 @@ describe('gapwise report with covariates', () => {
   }, 120_000);
   afterAll(() => ws.remove());
 
-  it('report --project --realizations takes the raster the project names beside it and lists the coefficients, standard errors and variance explained', async () => {
-    const r = await ws.run('report', '--project', 'named.json', '--realizations', '12', '--seed', '1', '--no-compare', '--out', 'r.html');
+  it('report --project --realisations takes the raster the project names beside it and lists the coefficients, standard errors and variance explained', async () => {
+    const r = await ws.run('report', '--project', 'named.json', '--realisations', '12', '--seed', '1', '--no-compare', '--out', 'r.html');
     expect(r.code, r.stderr).toBe(0);
     const html = ws.read('r.html');
     const f = figures(html);
@@ -61,7 +61,7 @@ describe('gapwise report with covariates', () => {
     expect(r.stderr).toMatch(/area: .* from 12 realisations/);
     // The same with the raster given on the command line, to a project that names none.
     const given = await ws.run('report', '--project', 'unnamed.json', '--covariate-raster', 'workshop_dist_m=workshop-distance.tif',
-      '--realizations', '12', '--seed', '1', '--no-compare', '--out', 'given.html');
+      '--realisations', '12', '--seed', '1', '--no-compare', '--out', 'given.html');
     expect(given.code, given.stderr).toBe(0);
     const g = figures(ws.read('given.html'));
     for (const k of ['area-median', 'area-p05', 'area-p95', 'expected-area', 'coefficient workshop_dist_m']) expect(g[k], k).toBe(f[k]);
@@ -92,7 +92,7 @@ describe('gapwise report with covariates', () => {
     expect(none.stderr).toContain('"workshop_dist_m"');
     expect(none.stderr).toContain('--covariate-raster');
     ws.write('elsewhere.json', project({ covariateRasters: [{ covariate: 'workshop_dist_m', fileName: 'moved-away.tif' }] }));
-    const moved = await ws.run('report', '--project', 'elsewhere.json', '--realizations', '5', '--no-compare', '--out', 'x.html');
+    const moved = await ws.run('report', '--project', 'elsewhere.json', '--realisations', '5', '--no-compare', '--out', 'x.html');
     expect(moved.code).toBe(2);
     expect(moved.stderr).toContain('"moved-away.tif" for the covariate "workshop_dist_m"');
     // A raster for a model without covariates is refused too.

@@ -85,8 +85,8 @@ describe('gapwise report: area above the action level', () => {
   });
   afterAll(() => ws.remove());
 
-  it('report --realizations --depth --seed on the demo prints and writes the median and interval exceedanceArea gives for the same realisations', async () => {
-    const r = await ws.run('report', '--project', 'demo.json', '--realizations', '30', '--depth', '0.3', '--seed', '3', '--workers', '3', '--no-compare', '--out', 'r.html');
+  it('report --realisations --depth --seed on the demo prints and writes the median and interval exceedanceArea gives for the same realisations', async () => {
+    const r = await ws.run('report', '--project', 'demo.json', '--realisations', '30', '--depth', '0.3', '--seed', '3', '--workers', '3', '--no-compare', '--out', 'r.html');
     expect(r.code, r.stderr).toBe(0);
     expect(r.stderr).toMatch(/; drawn in \d+\.\d s on 3 worker threads\n/);
     // The same realisations drawn here, kept, and summarised by core/prediction/exceedance-area.ts.
@@ -111,7 +111,7 @@ describe('gapwise report: area above the action level', () => {
     expect(r.stderr).toContain('from 30 realisations (seed 3, point support); volume to 0.3 m:');
     expect(html).toContain('back-transformed cell by cell');
     expect(html).toContain('data-area-caution');
-    expect(html).toContain('--realizations 30 --seed 3 --depth 0.3');
+    expect(html).toContain('--realisations 30 --seed 3 --depth 0.3');
   });
 
   it('report shows the area the project saved, and says in one line that none was made when there is none', async () => {
@@ -122,33 +122,33 @@ describe('gapwise report: area above the action level', () => {
     const none = await ws.run('report', '--project', 'demo.json', '--no-compare', '--out', 'n.html');
     expect(none.code, none.stderr).toBe(0);
     expect(ws.read('n.html')).toContain('data-no-area');
-    expect(none.stderr).toMatch(/area: No area estimate with an interval was made: .*--realizations 100/);
+    expect(none.stderr).toMatch(/area: No area estimate with an interval was made: .*--realisations 100/);
   });
 
-  it('report --realizations takes the seed the project saved unless --seed is given', async () => {
-    const r = await ws.run('report', '--project', 'saved.json', '--realizations', '3', '--no-compare', '--out', 'x.html');
+  it('report --realisations takes the seed the project saved unless --seed is given', async () => {
+    const r = await ws.run('report', '--project', 'saved.json', '--realisations', '3', '--no-compare', '--out', 'x.html');
     expect(r.code, r.stderr).toBe(0);
     expect(figures(ws.read('x.html')).seed).toBe(4);
     expect(r.stderr).toContain('from 3 realisations (seed 4, point support)');
     expect(r.stderr).toMatch(/; drawn in \d+\.\d s on 1 worker thread\n/); // fewer than 4 realisations: this thread
   });
 
-  it('report refuses realisation options without --realizations, and --realizations without an action level (exit 2)', async () => {
+  it('report refuses realisation options without --realisations, and --realisations without an action level (exit 2)', async () => {
     const seed = await ws.run('report', '--project', 'demo.json', '--seed', '5', '--no-compare');
     expect(seed.code).toBe(2);
-    expect(seed.stderr).toContain('Option "--seed" applies to the realisations; expected "--realizations N" with it.');
+    expect(seed.stderr).toContain('Option "--seed" applies to the realisations; expected "--realisations N" with it.');
     ws.write('no-threshold.json', saveProject({ ...openProject(ws.read('demo.json'), 'demo.json').project, threshold: null }));
-    const none = await ws.run('report', '--project', 'no-threshold.json', '--realizations', '5', '--no-compare');
+    const none = await ws.run('report', '--project', 'no-threshold.json', '--realisations', '5', '--no-compare');
     expect(none.code).toBe(2);
     expect(none.stderr).toMatch(/needs an action level.*"--threshold T"/);
     const workers = await ws.run('report', '--project', 'demo.json', '--workers', '2', '--no-compare');
     expect(workers.code).toBe(2);
-    expect(workers.stderr).toContain('Option "--workers" applies to the realisations; expected "--realizations N" with it.');
-    const zero = await ws.run('report', '--project', 'demo.json', '--realizations', '5', '--workers', '0', '--no-compare');
+    expect(workers.stderr).toContain('Option "--workers" applies to the realisations; expected "--realisations N" with it.');
+    const zero = await ws.run('report', '--project', 'demo.json', '--realisations', '5', '--workers', '0', '--no-compare');
     expect(zero.code).toBe(2);
     expect(zero.stderr).toBe('error: Option "--workers" expects a whole number of threads from 1 to 256, got 0.\n');
-    const count = await ws.run('report', '--project', 'demo.json', '--realizations', '0', '--no-compare');
+    const count = await ws.run('report', '--project', 'demo.json', '--realisations', '0', '--no-compare');
     expect(count.code).toBe(2);
-    expect(count.stderr).toContain('Option "--realizations" expects a whole number from 1 to 10,000, got 0.');
+    expect(count.stderr).toContain('Option "--realisations" expects a whole number from 1 to 10,000, got 0.');
   });
 });

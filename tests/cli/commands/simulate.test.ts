@@ -101,14 +101,14 @@ describe('simulate command', () => {
     expect(plain.code, plain.stderr).toBe(0);
     expect(plain.stderr).toMatch(/note: conditioned by kriging from all \d+ samples; chosen automatically: .* \(--local overrides\)/);
     expect(JSON.parse(plain.stdout).path).toMatchObject({ path: 'exact', automatic: true });
-    const local = await ws.run('simulate', ...COMMON, '--count', '2', '--workers', '1', '--local', '--neighbors', '8', '--out', 'l.tif');
+    const local = await ws.run('simulate', ...COMMON, '--count', '2', '--workers', '1', '--local', '--neighbours', '8', '--out', 'l.tif');
     expect(local.code, local.stderr).toBe(0);
     expect(local.stderr).toMatch(/note: conditioned from the 8 nearest samples of each lattice node \(local neighbourhoods\); \d+ samples \(--local\)/);
     expect(local.stderr).toMatch(/note: measured error of the local conditioning against exact kriging at \d+ of \d+ targets/);
     const summary = JSON.parse(local.stdout);
     expect(summary.path).toMatchObject({ path: 'local', automatic: false });
-    expect(summary.neighbors).toBe(8);
-    expect(summary.localError.neighbors).toBe(8);
+    expect(summary.neighbours).toBe(8);
+    expect(summary.localError.neighbours).toBe(8);
     expect(summary.localError.mean.max).toBeGreaterThan(0);
     const both = await ws.run('simulate', ...COMMON, '--count', '2', '--exact', '--local', '--out', 'x.tif');
     expect(both.code).toBe(2);

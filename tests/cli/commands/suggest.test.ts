@@ -131,12 +131,12 @@ describe('suggest command', () => {
     expect(plain.code, plain.stderr).toBe(0);
     expect(plain.stderr).toMatch(/note: sites chosen on the kriging posterior from all \d+ samples; chosen automatically: .* \(--local overrides\)/);
     expect(JSON.parse(plain.stdout).path).toMatchObject({ path: 'exact', automatic: true });
-    const local = await ws.run('suggest', ...COMMON, '--model', 'model.json', '--count', '2', '--cell', '10', '--local', '--neighbors', '8');
+    const local = await ws.run('suggest', ...COMMON, '--model', 'model.json', '--count', '2', '--cell', '10', '--local', '--neighbours', '8');
     expect(local.code, local.stderr).toBe(0);
     expect(local.stderr).toMatch(/note: sites chosen on the posterior from the 8 nearest samples of each point \(local neighbourhoods\); \d+ samples \(--local\)/);
     expect(local.stderr).toMatch(/note: measured error of the local posterior against exact kriging/);
     const summary = JSON.parse(local.stdout);
     expect(summary.path).toMatchObject({ path: 'local', automatic: false });
-    expect(summary.localError.neighbors).toBe(8);
+    expect(summary.localError.neighbours).toBe(8);
   });
 });

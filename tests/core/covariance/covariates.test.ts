@@ -185,7 +185,7 @@ describe('local kriging and leave-one-out with covariates', () => {
   const samples = samplesFor(trend, false);
   const targets = encodeCovariates(trend, columnsOf(T), T.x.length);
   it('createLocalPredictor with all samples as the neighbourhood equals simple kriging of the residuals from the global GLS trend', () => {
-    const local = createLocalPredictor(samples, model, { neighbors: samples.value.length }).predict(T.x, T.y, { covariates: targets });
+    const local = createLocalPredictor(samples, model, { neighbours: samples.value.length }).predict(T.x, T.y, { covariates: targets });
     // Independent path: the exact predictor's β̂ and trend, then simple kriging (known mean 0) of the residuals.
     const exact = createPredictor(samples, model);
     const k = systemTrendCoefficients(exact.system).map((c) => c.estimate);
@@ -214,14 +214,14 @@ describe('nearest-neighbour likelihood with covariates', () => {
   it('createVecchiaLikelihood with m ≥ n − 1 equals the exact REML likelihood with covariates and coordinates (1e-8)', () => {
     const setup = { family: 'exponential' as const, trend, method: 'reml' as const };
     const exact = createLikelihood(samples, setup).evaluate({ scale: 120, nuggetRatio: 0.08 });
-    const nn = createVecchiaLikelihood(samples, { ...setup, neighbors: samples.value.length - 1 }).evaluate({ scale: 120, nuggetRatio: 0.08 });
+    const nn = createVecchiaLikelihood(samples, { ...setup, neighbours: samples.value.length - 1 }).evaluate({ scale: 120, nuggetRatio: 0.08 });
     expectClose(nn.logLikelihood, exact.logLikelihood, { rel: 1e-8 }, 'logLikelihood');
     expectClose(nn.sigma2, exact.sigma2, { rel: 1e-8 }, 'sigma2');
     expectClose(nn.beta, exact.beta, { rel: 1e-7, abs: 1e-9 }, 'beta');
   });
   it('vecchiaTrend with all earlier samples as neighbours gives the exact GLS coefficients and standard errors', () => {
     const model = parseModel({ structures: [{ type: 'nugget', sill: 0.05 }, { type: 'exponential', sill: 0.6, scale: 150 }], trend });
-    const t = vecchiaTrend(samples, model, { neighbors: samples.value.length - 1 });
+    const t = vecchiaTrend(samples, model, { neighbours: samples.value.length - 1 });
     const viaNn = trendCoefficients(trend, t.frame, t.beta, t.betaCovariance);
     const exact = systemTrendCoefficients(createPredictor(samples, model).system);
     expectClose(viaNn.map((c) => c.estimate), exact.map((c) => c.estimate), { rel: 1e-7, abs: 1e-10 }, 'estimates');

@@ -58,7 +58,7 @@ describe('checkModelScale', () => {
     expect(e.message).toMatch(/^The model's structures\[0\]\.sill \(1\.00e\+90\) is out of scale with the data: the square root of the total sill is .* times the standard deviation of the values \(.*\); expected at most 1\.00e\+6 times/);
     // The same model through every predictor that takes a whole sample set.
     expect(thrown(() => createPredictor(samples, model)).code).toBe('non-finite');
-    expect(thrown(() => createLocalPredictor(samples, model, { neighbors: 5 })).code).toBe('non-finite');
+    expect(thrown(() => createLocalPredictor(samples, model, { neighbours: 5 })).code).toBe('non-finite');
     expect(thrown(() => leaveOneOut(samples, model)).code).toBe('non-finite');
   });
 

@@ -51,7 +51,7 @@ describe('numerical advice on the local-neighbourhood and nearest-neighbour path
   // The ten samples above, all in one neighbourhood; no jitter, so a singular matrix fails.
   const target = { x: Float64Array.of(45), y: Float64Array.of(5) };
   const localFailure = (sx: Float64Array, sy: Float64Array, model: CovarianceModel) =>
-    thrown(() => createLocalPredictor({ x: sx, y: sy, value }, model, { jitter: false, neighbors: 10 }).predict(target.x, target.y));
+    thrown(() => createLocalPredictor({ x: sx, y: sy, value }, model, { jitter: false, neighbours: 10 }).predict(target.x, target.y));
 
   it('createLocalPredictor: duplicated samples with no nugget are named as such', () => {
     const dx = Float64Array.from(x); dx[3] = dx[2]; const dy = Float64Array.from(y); dy[3] = dy[2];
@@ -75,7 +75,7 @@ describe('numerical advice on the local-neighbourhood and nearest-neighbour path
   });
 
   it('vecchiaTrend: a model that cannot be factorised with no duplicates does not blame duplicates', () => {
-    const e = thrown(() => vecchiaTrend({ x, y, value }, parseModel({ structures: [{ type: 'exponential', sill: 0, scale: 30 }] }), { neighbors: 5 }));
+    const e = thrown(() => vecchiaTrend({ x, y, value }, parseModel({ structures: [{ type: 'exponential', sill: 0, scale: 30 }] }), { neighbours: 5 }));
     expect(e.code).toBe('not-positive-definite');
     expect(e.message).toBe('The covariance of neighbouring samples is not positive definite: try another family, a nugget, or a log transform for positive, right-skewed values.');
   });

@@ -71,7 +71,7 @@ describe('suggestSites on the local posterior', () => {
 
   it('planDesignPath measures the local posterior at seeded evaluation points against exact kriging', () => {
     const evaluation = { x: Float64Array.from({ length: 50 }, (_, i) => 500010 + 12 * i), y: Float64Array.from({ length: 50 }, (_, i) => 6000590 - 11 * i) };
-    const plan = planDesignPath(samples, model, evaluation, { candidates: 900, sites: 5, force: 'local', neighbors: 32 });
+    const plan = planDesignPath(samples, model, evaluation, { candidates: 900, sites: 5, force: 'local', neighbours: 32 });
     expect(plan.choice.path).toBe('local');
     expect(plan.accuracy!.checked).toBe(50);
     expect(plan.accuracy!.reference).toBe('exact');
@@ -83,9 +83,9 @@ describe('suggestSites on the local posterior', () => {
     // sd difference bounds the difference of the averages exactly (prior sd 1: % / 100).
     const opts = { ...base, cell: 45 };
     const exact = suggestSites(samples, model, { ...opts, path: 'exact' });
-    const local = suggestSites(samples, model, { ...opts, path: 'local', neighbors: 48 });
+    const local = suggestSites(samples, model, { ...opts, path: 'local', neighbours: 48 });
     expect(exact.path).toMatchObject({ path: 'exact', automatic: false });
-    expect(local.path).toMatchObject({ path: 'local', automatic: false, neighbors: 48 });
+    expect(local.path).toMatchObject({ path: 'local', automatic: false, neighbours: 48 });
     const a = local.path!.accuracy!;
     expect(a.checked).toBe(a.targets);
     expect(local.evaluationPoints).toBe(exact.evaluationPoints);
@@ -98,7 +98,7 @@ describe('suggestSites on the local posterior', () => {
     const small = suggestSites(samples, model, { ...base, cell: 45 });
     expect(small.path).toMatchObject({ path: 'exact', automatic: true });
     expect(small.path!.reason).toMatch(/^the exact posterior is cheaper here/);
-    const few = suggestSites(samples, model, { ...base, cell: 45, neighbors: 8, maxEvaluationPoints: 50 });
+    const few = suggestSites(samples, model, { ...base, cell: 45, neighbours: 8, maxEvaluationPoints: 50 });
     expect(few.path).toMatchObject({ path: 'exact', automatic: true });
     expect(few.path!.reason).toMatch(/^local neighbourhoods of 8 samples missed the tolerance \(mean [\d.]+ %, sd [\d.]+ % of the prior sd\)$/);
   });

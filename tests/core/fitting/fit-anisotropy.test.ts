@@ -49,7 +49,7 @@ describe('createLikelihood with a correlation model at θ (anisotropy)', () => {
 });
 
 describe('fitAnisotropic', () => {
-  it('fitAnisotropic finds the REML optimum scipy finds on the same likelihood (structures.json, scipy.optimize)', () => {
+  it('fitAnisotropic finds the REML optimum scipy finds on the same likelihood (structures.json, scipy.optimise)', () => {
     const { model, isotropic, comparison } = fitAnisotropic(samples, { family: 'matern', nu: 1.5 });
     const fit = model.fit!;
     // scipy's optimum is the reference maximum: ours may not exceed it by more than rounding.

@@ -1,7 +1,7 @@
-// maxminOrder and orderedNeighbors against their definitions, computed by brute force.
+// maxminOrder and orderedNeighbours against their definitions, computed by brute force.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { maxminOrder, orderedNeighbors } from '../../../src/core/fitting/maxmin-order.ts';
+import { maxminOrder, orderedNeighbours } from '../../../src/core/fitting/maxmin-order.ts';
 import { createRandom } from '../../../src/core/shared/random.ts';
 
 const d2 = (x: ArrayLike<number>, y: ArrayLike<number>, i: number, j: number) => (x[i] - x[j]) ** 2 + (y[i] - y[j]) ** 2;
@@ -48,8 +48,8 @@ describe('maxminOrder', () => {
   });
 });
 
-describe('orderedNeighbors', () => {
-  it('orderedNeighbors lists the m nearest earlier points, nearest first (property, brute force)', () => {
+describe('orderedNeighbours', () => {
+  it('orderedNeighbours lists the m nearest earlier points, nearest first (property, brute force)', () => {
     fc.assert(
       fc.property(
         fc.array(fc.tuple(coord, coord), { minLength: 1, maxLength: 150 }),
@@ -57,7 +57,7 @@ describe('orderedNeighbors', () => {
         (pts, m) => {
           const x = Float64Array.from(pts.map((p) => p[0]));
           const y = Float64Array.from(pts.map((p) => p[1]));
-          const nb = orderedNeighbors(x, y, m);
+          const nb = orderedNeighbours(x, y, m);
           for (let i = 0; i < x.length; i++) {
             const c = nb.count[i];
             expect(c).toBe(Math.min(i, m));
@@ -73,7 +73,7 @@ describe('orderedNeighbors', () => {
     );
   });
 
-  it('orderedNeighbors agrees with brute force on 3,000 maxmin-ordered points', () => {
+  it('orderedNeighbours agrees with brute force on 3,000 maxmin-ordered points', () => {
     const rng = createRandom(9);
     const n = 3000;
     const x0 = new Float64Array(n);
@@ -83,7 +83,7 @@ describe('orderedNeighbors', () => {
     const x = Float64Array.from(order, (i) => x0[i]);
     const y = Float64Array.from(order, (i) => y0[i]);
     const m = 30;
-    const nb = orderedNeighbors(x, y, m);
+    const nb = orderedNeighbours(x, y, m);
     for (let i = 0; i < n; i += 37) {
       const want = [...Array(i).keys()].sort((a, b) => d2(x, y, i, a) - d2(x, y, i, b)).slice(0, Math.min(i, m));
       expect(Array.from(nb.ids.subarray(i * m, i * m + nb.count[i]))).toEqual(want);

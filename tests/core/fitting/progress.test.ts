@@ -79,8 +79,8 @@ describe('fit progress', () => {
   it('vecchiaFit calls onPass once per likelihood pass over all samples, with the same model', () => {
     const field = simulateSamples(truth, { count: 200, extent: square, seed: 9 });
     let passes = 0;
-    const withPasses = vecchiaFit(field, { family: 'exponential', neighbors: 10 }, { onPass: () => { passes++; } });
-    expect(withPasses).toStrictEqual(vecchiaFit(field, { family: 'exponential', neighbors: 10 }));
+    const withPasses = vecchiaFit(field, { family: 'exponential', neighbours: 10 }, { onPass: () => { passes++; } });
+    expect(withPasses).toStrictEqual(vecchiaFit(field, { family: 'exponential', neighbours: 10 }));
     // 200 samples are not subsampled, so every evaluation of the search is a pass over all samples.
     expect(passes).toBeGreaterThan(10);
   });

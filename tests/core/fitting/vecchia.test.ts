@@ -30,7 +30,7 @@ describe('createVecchiaLikelihood', () => {
   it('createVecchiaLikelihood with m ≥ n − 1 equals the dense likelihood of numpy in every fixture case (1e-8)', () => {
     expect(likFixture.cases.length).toBeGreaterThanOrEqual(40);
     for (const c of likFixture.cases) {
-      const lik = createVecchiaLikelihood(small, { family: c.family, nu: c.nu, trend: c.trend, method: c.method, anisotropy: c.anisotropy, neighbors: small.value.length - 1 });
+      const lik = createVecchiaLikelihood(small, { family: c.family, nu: c.nu, trend: c.trend, method: c.method, anisotropy: c.anisotropy, neighbours: small.value.length - 1 });
       const v = lik.evaluate(c.theta);
       const what = `${c.method} ${c.family} ${JSON.stringify(c.trend)}${c.anisotropy ? ' anisotropic' : ''}`;
       expectClose(v.logLikelihood, c.expected.logLikelihood, { rel: 1e-8 }, `${what}: ℓ (numpy)`);
@@ -44,8 +44,8 @@ describe('createVecchiaLikelihood', () => {
 
   it('createVecchiaLikelihood with 30 neighbours is close to the dense REML value at its optimum and improves with m', () => {
     const e = fitFixture.cases[0].expected;
-    const lik = createVecchiaLikelihood(big, { family: 'matern', nu: 1.5, trend: 'constant', neighbors: 30 });
-    const at = (m: number) => lik.evaluate({ scale: e.scale, nuggetRatio: e.nuggetRatio }, { neighbors: m }).logLikelihood;
+    const lik = createVecchiaLikelihood(big, { family: 'matern', nu: 1.5, trend: 'constant', neighbours: 30 });
+    const at = (m: number) => lik.evaluate({ scale: e.scale, nuggetRatio: e.nuggetRatio }, { neighbours: m }).logLikelihood;
     const gaps = [5, 10, 30].map((m) => Math.abs(at(m) - e.logLikelihood));
     expect(gaps[2]).toBeLessThan(gaps[1]);
     expect(gaps[1]).toBeLessThan(gaps[0]);
@@ -66,7 +66,7 @@ describe('vecchiaFit', () => {
     expectClose(nugget.sill, c.expected.nugget, tol, 'nugget (scipy REML)');
     expect(model.fit.method).toBe('nnl');
     expect(model.fit.note).toBe('fitted with a nearest-neighbour likelihood on 2,000 samples (30 neighbours)');
-    expect(model.fit.neighbors).toBe(30);
+    expect(model.fit.neighbours).toBe(30);
     expect(model.practicalRange).toBeGreaterThan(2.7 * (main.type === 'matern' ? main.scale : 0));
     // AIC = 2k − 2ℓ with k = sill, scale, nugget, mean.
     expectClose(model.fit.aic!, 8 - 2 * model.fit.logLikelihood!, { rel: 1e-12 }, 'AIC');
@@ -85,7 +85,7 @@ describe('vecchiaTrend', () => {
       structures: [{ type: 'nugget', sill: 0.2 }, { type: 'spherical', sill: 1, scale: 250 }, { type: 'gaussian', sill: 0.4, scale: 90 }],
       trend: 'linear', transform: 'none', anisotropy: { azimuth: 60, ratio: 0.5 },
     };
-    const t = vecchiaTrend(small, model, { neighbors: small.value.length - 1 });
+    const t = vecchiaTrend(small, model, { neighbours: small.value.length - 1 });
     expectClose(t.beta, createPredictor(small, model).beta, { rel: 1e-9, abs: 1e-12 }, 'β̂');
   });
 });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  affectedTargets, chooseCheckTargets, freshSeed, growthSteps, maxGrownNeighbors, nextNeighbors, predictLocalChecked, priorSdOf,
+  affectedTargets, chooseCheckTargets, freshSeed, growthSteps, maxGrownNeighbours, nextNeighbours, predictLocalChecked, priorSdOf,
 } from '../../../src/core/prediction/local-accuracy.ts';
 import { createPredictor } from '../../../src/core/prediction/kriging.ts';
 import { createLocalPredictor } from '../../../src/core/prediction/local-kriging.ts';
@@ -50,7 +50,7 @@ describe('chooseCheckTargets', () => {
 describe('predictLocalChecked', () => {
   it('predictLocalChecked reports the largest and RMS differences over the checked subset, recomputed independently', async () => {
     const { samples, tx, ty } = problem(600, 1500, 3);
-    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 16 }, seed: 5, grow: false });
+    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 16 }, seed: 5, grow: false });
     expect(res.path).toBe('local');
     const idx = chooseCheckTargets(1500, 200, 5);
     // Independently: exact kriging at the subset, against the values returned for every target.
@@ -72,19 +72,19 @@ describe('predictLocalChecked', () => {
     expectClose(res.accuracy.mean.rms, (100 * Math.sqrt(ssMean / 200)) / prior, { rel: 1e-9 }, 'RMS mean difference');
     expect(res.accuracy.mean.max).toBeGreaterThan(0);
     // The subset's values equal a full local run's: the figures describe what was returned.
-    const full = createLocalPredictor(samples, MODEL, { neighbors: 16 }).predict(tx, ty);
+    const full = createLocalPredictor(samples, MODEL, { neighbours: 16 }).predict(tx, ty);
     expect(Array.from(res.prediction.mean)).toEqual(Array.from(full.mean));
   });
 
   it('predictLocalChecked grows a neighbourhood that misses the tolerance and ends within it', async () => {
     // Few neighbours and a locally re-estimated mean: far from exact kriging on this problem.
     const { samples, tx, ty } = problem(800, 1200, 9);
-    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2 });
+    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 8 }, seed: 2 });
     expect(res.attempts.length).toBeGreaterThan(0);
     expect(res.attempts[res.attempts.length - 1].within).toBe(true);
     expect(res.notes.join(' ')).toMatch(/missed the tolerance.*grown to the \d+ nearest/);
     expect(res.path).toBe('local');
-    expect(res.settings.neighbors > 8 || res.settings.globalMean).toBe(true);
+    expect(res.settings.neighbours > 8 || res.settings.globalMean).toBe(true);
     expect(res.accuracy.within).toBe(true);
     expect(res.accuracy.mean.max).toBeLessThanOrEqual(1);
     expect(res.accuracy.sd.max).toBeLessThanOrEqual(2);
@@ -117,11 +117,11 @@ describe('predictLocalChecked', () => {
     const tx = Float64Array.from({ length: 1500 }, () => 300000 + 1000 * r.uniform());
     const ty = Float64Array.from({ length: 1500 }, () => 5000000 + 1000 * r.uniform());
     const known: CovarianceModel = { ...MODEL, trend: { known: 10 } };
-    const few = await predictLocalChecked(makeSamples(x, y, v), known, tx, ty, { local: { neighbors: 16 } });
+    const few = await predictLocalChecked(makeSamples(x, y, v), known, tx, ty, { local: { neighbours: 16 } });
     expect(few.notes.join(' ')).toMatch(/where the values still moved with the neighbourhood's size \(rerun: [\d,]+ with the \d+ nearest/);
     expect(few.accuracy.within).toBe(true);
     const { samples, tx: wx, ty: wy } = problem(800, 1200, 9);
-    const most = await predictLocalChecked(samples, MODEL, wx, wy, { local: { neighbors: 8 }, seed: 2 });
+    const most = await predictLocalChecked(samples, MODEL, wx, wy, { local: { neighbours: 8 }, seed: 2 });
     expect(most.notes.join(' ')).toMatch(/at \d+ of 200 checked targets; grown to the \d+ nearest.* at every target/);
     // The values are those of one run with the grown setting.
     const grown = createLocalPredictor(samples, MODEL, { ...most.settings, globalBeta: undefined }).predict(wx, wy);
@@ -130,21 +130,21 @@ describe('predictLocalChecked', () => {
 
   it('predictLocalChecked stops a growth that would cost more than its budget and reports the first measurement', async () => {
     const { samples, tx, ty } = problem(800, 1200, 9);
-    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, seed: 2, growthBudget: 2 });
+    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 8 }, seed: 2, growthBudget: 2 });
     expect(res.path).toBe('local');
-    expect(res.settings).toEqual({ neighbors: 8, globalMean: false });
-    expect(res.notes.join(' ')).toMatch(/would cost about \d+ billion operations, more than 2 times the first run, so it was not done unasked \(--neighbors \d+ does it\)/);
+    expect(res.settings).toEqual({ neighbours: 8, globalMean: false });
+    expect(res.notes.join(' ')).toMatch(/would cost about \d+ billion operations, more than 2 times the first run, so it was not done unasked \(--neighbours \d+ does it\)/);
     expect(res.accuracy.seed).toBe(2);
     expect(res.accuracy.within).toBe(false);
     expect(res.warnings.some((w) => w.code === 'tolerance-missed')).toBe(true);
     // The values are the first run's, unchanged.
-    const plain = createLocalPredictor(samples, MODEL, { neighbors: 8 }).predict(tx, ty);
+    const plain = createLocalPredictor(samples, MODEL, { neighbours: 8 }).predict(tx, ty);
     expect(Array.from(res.prediction.mean)).toEqual(Array.from(plain.mean));
   });
 
   it('predictLocalChecked takes exact kriging when no neighbourhood meets the tolerance, and says so', async () => {
     const { samples, tx, ty } = problem(300, 600, 4);
-    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 8 }, tolerance: { mean: 1e-9, sd: 1e-9 } });
+    const res = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 8 }, tolerance: { mean: 1e-9, sd: 1e-9 } });
     expect(res.path).toBe('exact');
     expect(res.notes.join(' ')).toMatch(/took exact kriging from all 300 samples/);
     const exact = createPredictor(samples, MODEL).predict(tx, ty);
@@ -154,7 +154,7 @@ describe('predictLocalChecked', () => {
   it('predictLocalChecked compares a log model on the log scale', async () => {
     const { samples, tx, ty } = problem(400, 500, 6);
     const model: CovarianceModel = { ...MODEL, transform: 'log' };
-    const res = await predictLocalChecked(samples, model, tx, ty, { local: { neighbors: 32, globalMean: true }, grow: false });
+    const res = await predictLocalChecked(samples, model, tx, ty, { local: { neighbours: 32, globalMean: true }, grow: false });
     expect(res.accuracy.scale).toBe('log');
     expect(res.accuracy.priorSd).toBe(priorSdOf(model));
     const idx = chooseCheckTargets(500, 200, 1);
@@ -184,16 +184,16 @@ describe('affectedTargets', () => {
 });
 
 describe('growthSteps', () => {
-  it('growthSteps tries the GLS mean first, then 1.5 and 2 times the neighbours in turn up to maxGrownNeighbors(n)', () => {
-    expect(growthSteps({ neighbors: 64, globalMean: false }, 2000, MODEL)).toEqual([
-      { neighbors: 64, globalMean: true }, { neighbors: 96, globalMean: true }, { neighbors: 128, globalMean: true },
-      { neighbors: 192, globalMean: true }, { neighbors: 256, globalMean: true }, { neighbors: 384, globalMean: true }, { neighbors: 512, globalMean: true },
+  it('growthSteps tries the GLS mean first, then 1.5 and 2 times the neighbours in turn up to maxGrownNeighbours(n)', () => {
+    expect(growthSteps({ neighbours: 64, globalMean: false }, 2000, MODEL)).toEqual([
+      { neighbours: 64, globalMean: true }, { neighbours: 96, globalMean: true }, { neighbours: 128, globalMean: true },
+      { neighbours: 192, globalMean: true }, { neighbours: 256, globalMean: true }, { neighbours: 384, globalMean: true }, { neighbours: 512, globalMean: true },
     ]);
-    expect([1, 2, 3, 5, 8, 12, 100, 192].map(nextNeighbors)).toEqual([2, 3, 4, 6, 12, 16, 128, 256]);
-    expect(maxGrownNeighbors(100_000)).toBe(256);
-    expect(growthSteps({ neighbors: 64, globalMean: true }, 100, MODEL)).toEqual([{ neighbors: 96, globalMean: true }, { neighbors: 100, globalMean: true }]);
+    expect([1, 2, 3, 5, 8, 12, 100, 192].map(nextNeighbours)).toEqual([2, 3, 4, 6, 12, 16, 128, 256]);
+    expect(maxGrownNeighbours(100_000)).toBe(256);
+    expect(growthSteps({ neighbours: 64, globalMean: true }, 100, MODEL)).toEqual([{ neighbours: 96, globalMean: true }, { neighbours: 100, globalMean: true }]);
     // A known mean has nothing to estimate globally.
-    expect(growthSteps({ neighbors: 200, globalMean: false }, 300, { ...MODEL, trend: { known: 10 } })).toEqual([{ neighbors: 256, globalMean: false }, { neighbors: 300, globalMean: false }]);
+    expect(growthSteps({ neighbours: 200, globalMean: false }, 300, { ...MODEL, trend: { known: 10 } })).toEqual([{ neighbours: 256, globalMean: false }, { neighbours: 300, globalMean: false }]);
   });
 });
 
@@ -212,8 +212,8 @@ describe('denseTargetSpacing', () => {
     const { samples, tx, ty } = problem(600, 8000, 12);
     const spacing = denseTargetSpacing(tx, ty, samples.x, samples.y);
     expect(spacing).toBeDefined();
-    const plain = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 64 }, grow: false });
-    const tiled = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbors: 64, targetSpacing: spacing }, grow: false });
+    const plain = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 64 }, grow: false });
+    const tiled = await predictLocalChecked(samples, MODEL, tx, ty, { local: { neighbours: 64, targetSpacing: spacing }, grow: false });
     expect(tiled.accuracy.mean.max).toBeLessThan(plain.accuracy.mean.max);
   });
 });

@@ -54,7 +54,7 @@ describe('createLocalPredictor', () => {
   for (const [name, model] of variants) {
     it(`createLocalPredictor with all samples in the neighbourhood equals exact ${name} kriging`, () => {
       const exact = createPredictor(samples, model).predict(tx, ty);
-      const local = createLocalPredictor(samples, model, { neighbors: 70 }).predict(tx, ty);
+      const local = createLocalPredictor(samples, model, { neighbours: 70 }).predict(tx, ty);
       expectClose(local.mean, exact.mean, { rel: 1e-9, abs: 1e-9 }, `${name} mean`);
       expectClose(local.sd, exact.sd, { rel: 1e-8, abs: 1e-9 }, `${name} sd`);
       expectClose(local.sdObserved, exact.sdObserved, { rel: 1e-8, abs: 1e-9 }, `${name} sdObserved`);
@@ -65,7 +65,7 @@ describe('createLocalPredictor', () => {
   it('createLocalPredictor with globalMean and all samples equals exact simple kriging with the GLS mean', () => {
     const model = modelWith('constant');
     const exact = createPredictor(samples, model);
-    const local = createLocalPredictor(samples, model, { neighbors: 70, globalMean: true });
+    const local = createLocalPredictor(samples, model, { neighbours: 70, globalMean: true });
     expectClose(local.beta, exact.beta, { rel: 1e-12 }, 'β̂ (dense GLS)');
     const sk = createPredictor(samples, { ...model, trend: { known: exact.beta[0] } }).predict(tx, ty);
     const got = local.predict(tx, ty);
@@ -75,18 +75,18 @@ describe('createLocalPredictor', () => {
 
   it('createLocalPredictor interpolates the data with no nugget (mean = value, sd = 0)', () => {
     const model: CovarianceModel = { structures: [{ type: 'matern', sill: 1, scale: 60, nu: 2.5 }], trend: 'constant', transform: 'none' };
-    const local = createLocalPredictor(samples, model, { neighbors: 16 }).predict(samples.x, samples.y);
+    const local = createLocalPredictor(samples, model, { neighbours: 16 }).predict(samples.x, samples.y);
     expectClose(local.mean, samples.value, { abs: 1e-6 }, 'mean at the samples');
     for (const s of local.sd) expect(s).toBeLessThan(1e-4);
   });
 
   it('predict gives the same bits whatever the order of the targets', () => {
     const model = modelWith('linear');
-    const p = createLocalPredictor(samples, model, { neighbors: 20 });
+    const p = createLocalPredictor(samples, model, { neighbours: 20 });
     const forward = p.predict(tx, ty);
     const rx = [...tx].reverse();
     const ry = [...ty].reverse();
-    const backward = createLocalPredictor(samples, model, { neighbors: 20 }).predict(rx, ry);
+    const backward = createLocalPredictor(samples, model, { neighbours: 20 }).predict(rx, ry);
     for (let j = 0; j < tx.length; j++) {
       expect(backward.mean[tx.length - 1 - j]).toBe(forward.mean[j]);
       expect(backward.sd[tx.length - 1 - j]).toBe(forward.sd[j]);
@@ -100,7 +100,7 @@ describe('createLocalPredictor', () => {
   for (const c of fixture.cases) {
     it(`createLocalPredictor with 64 neighbours is within ${tol.meanAbsOverPriorSd * 100} % of the prior sd (mean) and ${tol.sdRel * 100} % (sd) of exact ${c.name} kriging on 2,000 samples`, () => {
       const priorSd = Math.sqrt(1);
-      const local = createLocalPredictor(big, c.model, { neighbors: 64, globalMean: c.name === 'ordinary' });
+      const local = createLocalPredictor(big, c.model, { neighbours: 64, globalMean: c.name === 'ordinary' });
       const got = local.predict(targets.x, targets.y);
       if (c.beta !== undefined) expectClose(local.beta[0], c.beta, { abs: 0.01 * priorSd }, 'nearest-neighbour GLS β̂ vs dense (numpy)');
       expectClose(got.mean, c.mean, { abs: tol.meanAbsOverPriorSd * priorSd }, `${c.name} mean (numpy)`);
@@ -113,13 +113,13 @@ describe('createLocalPredictor', () => {
   const sampleSpacing = Math.sqrt((extent(data.x) * extent(data.y)) / data.x.length);
   for (const c of fixture.cases) {
     it(`createLocalPredictor with tile neighbourhoods (targetSpacing) is within the same tolerances of exact ${c.name} kriging (numpy)`, () => {
-      const local = createLocalPredictor(big, c.model, { neighbors: 64, globalMean: c.name === 'ordinary', targetSpacing: sampleSpacing / 4 });
+      const local = createLocalPredictor(big, c.model, { neighbours: 64, globalMean: c.name === 'ordinary', targetSpacing: sampleSpacing / 4 });
       const got = local.predict(targets.x, targets.y);
       expectClose(got.mean, c.mean, { abs: tol.meanAbsOverPriorSd }, `${c.name} mean with tiles (numpy)`);
       expectClose(got.sd, c.sd, { rel: tol.sdRel }, `${c.name} sd with tiles (numpy)`);
       // Tiles hold more than the 64 nearest, so the worst error is no larger than per-target
       // neighbourhoods' on this problem (both measured against numpy).
-      const per = createLocalPredictor(big, c.model, { neighbors: 64, globalMean: c.name === 'ordinary' }).predict(targets.x, targets.y);
+      const per = createLocalPredictor(big, c.model, { neighbours: 64, globalMean: c.name === 'ordinary' }).predict(targets.x, targets.y);
       const worst = (a: Float64Array) => Math.max(...Array.from(a, (v, k) => Math.abs(v - c.mean[k])));
       expect(worst(got.mean)).toBeLessThanOrEqual(worst(per.mean));
     });
@@ -141,7 +141,7 @@ describe('createLocalPredictor', () => {
 
   it('predict with tiles gives the same bits whatever the order of the targets and however they are split', () => {
     const c = fixture.cases.find((k) => k.name === 'ordinary')!;
-    const opts = { neighbors: 64, targetSpacing: sampleSpacing / 4 };
+    const opts = { neighbours: 64, targetSpacing: sampleSpacing / 4 };
     const whole = createLocalPredictor(big, c.model, opts).predict(targets.x, targets.y);
     const p = createLocalPredictor(big, c.model, opts);
     const half = targets.x.length >> 1;
@@ -162,14 +162,14 @@ describe('createLocalPredictor', () => {
 
   it('createLocalPredictor local ordinary kriging keeps its sd within 2 % of exact on 2,000 samples', () => {
     const c = fixture.cases.find((k) => k.name === 'ordinary')!;
-    const got = createLocalPredictor(big, c.model, { neighbors: 64 }).predict(targets.x, targets.y);
+    const got = createLocalPredictor(big, c.model, { neighbours: 64 }).predict(targets.x, targets.y);
     expectClose(got.sd, c.sd, { rel: 0.02 }, 'local ordinary kriging sd (numpy)');
   });
 
   it('createLocalPredictor with globalBeta uses the given coefficients (as workers do) and checks their count', () => {
     const model = modelWith('linear');
-    const computed = createLocalPredictor(samples, model, { neighbors: 20, globalMean: true });
-    const given = createLocalPredictor(samples, model, { neighbors: 20, globalMean: true, globalBeta: Array.from(computed.beta) });
+    const computed = createLocalPredictor(samples, model, { neighbours: 20, globalMean: true });
+    const given = createLocalPredictor(samples, model, { neighbours: 20, globalMean: true, globalBeta: Array.from(computed.beta) });
     expect(Array.from(given.beta)).toEqual(Array.from(computed.beta));
     expect(Array.from(given.predict(tx, ty).mean)).toEqual(Array.from(computed.predict(tx, ty).mean));
     expect(() => createLocalPredictor(samples, model, { globalMean: true, globalBeta: [1] })).toThrow(/Expected 3 finite global trend coefficients/);
@@ -177,9 +177,9 @@ describe('createLocalPredictor', () => {
 
   it('createLocalPredictor rejects a bad neighbourhood size and mismatched targets', () => {
     const model = modelWith('constant');
-    expect(() => createLocalPredictor(samples, model, { neighbors: 0 })).toThrow(/neighbourhood size/);
-    expect(() => createLocalPredictor(samples, model, { neighbors: 2.5 })).toThrow(/whole number/);
-    expect(() => createLocalPredictor(samples, modelWith('linear'), { neighbors: 3 })).toThrow(/more than 3 samples per neighbourhood/);
+    expect(() => createLocalPredictor(samples, model, { neighbours: 0 })).toThrow(/neighbourhood size/);
+    expect(() => createLocalPredictor(samples, model, { neighbours: 2.5 })).toThrow(/whole number/);
+    expect(() => createLocalPredictor(samples, modelWith('linear'), { neighbours: 3 })).toThrow(/more than 3 samples per neighbourhood/);
     expect(() => createLocalPredictor(samples, model).predict([1, 2], [1])).toThrow(/equal length/);
   });
 });

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, LARGE_CHECK_COUNT, REFERENCE_NEIGHBORS, checkCount, chooseLeaveOneOutPath, choosePredictionPath, exactCost, localCost, localTargetCost, parseTolerance } from '../../../src/core/prediction/path-choice.ts';
+import { CHECK_COUNT, DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, LARGE_CHECK_COUNT, REFERENCE_NEIGHBOURS, checkCount, chooseLeaveOneOutPath, choosePredictionPath, exactCost, localCost, localTargetCost, parseTolerance } from '../../../src/core/prediction/path-choice.ts';
 import { thrown } from '../../helpers/thrown.ts';
 import { MAX_EXACT_SAMPLES } from '../../../src/core/shared/sizes.ts';
 
@@ -29,7 +29,7 @@ describe('exactCost / localCost', () => {
     const ref = n ** 3 / 6 + (KERNEL_COST * n * n) / 2 + CHECK_COUNT * (n * n / 2 + KERNEL_COST * n);
     expect(localCost(n, 10_000, m)).toBeCloseTo(10_000 * perTarget + n * Math.log2(n) + ref, -3);
     const N = MAX_EXACT_SAMPLES + 1;
-    const R = REFERENCE_NEIGHBORS;
+    const R = REFERENCE_NEIGHBOURS;
     const refN = LARGE_CHECK_COUNT * (R ** 3 / 6 + (KERNEL_COST * R * R) / 2 + R * R / 2 + KERNEL_COST * R);
     expect(localCost(N, 10_000, m)).toBeCloseTo(10_000 * perTarget + N * Math.log2(N) + refN, -3);
   });

@@ -4,7 +4,7 @@ import { resolve } from 'node:path';
 import { GapwiseError, checkCount } from '../../../src/core/shared/errors.ts';
 import { empiricalVariogram, MAX_LAG_CLASSES } from '../../../src/core/fitting/variogram.ts';
 import { localLeaveOneOut } from '../../../src/core/validation/local-cross-validation.ts';
-import { MAX_LOCAL_NEIGHBORS } from '../../../src/core/prediction/local-kriging.ts';
+import { MAX_LOCAL_NEIGHBOURS } from '../../../src/core/prediction/local-kriging.ts';
 import { simulateConditional, MAX_KEPT_VALUES } from '../../../src/core/simulation/conditional-simulation.ts';
 import { suggestSites, MAX_DESIGN_POINTS } from '../../../src/core/design/design.ts';
 import { gridFromExtent } from '../../../src/core/geometry/grid.ts';
@@ -40,8 +40,8 @@ describe('checkCount', () => {
   });
 
   it('localLeaveOneOut refuses a neighbour count above the local limit', () => {
-    const e = thrown(() => localLeaveOneOut(samples, model, { neighbors: 1e9 }));
-    expect(e.message).toBe(`Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBORS}, got 1000000000.`);
+    const e = thrown(() => localLeaveOneOut(samples, model, { neighbours: 1e9 }));
+    expect(e.message).toBe(`Expected a whole number of neighbours from 1 to ${MAX_LOCAL_NEIGHBOURS}, got 1000000000.`);
   });
 
   it('simulateConditional refuses to keep realisations × cells beyond the limit before any work', () => {

@@ -36,7 +36,7 @@ describe('simulateConditional', () => {
       const model: CovarianceModel = { ...matern, trend };
       const N = 3000;
       const sim = simulateConditional(offNode, model, grid, { count: N, seed: 3 });
-      expect(sim.neighbors).toBe('all');
+      expect(sim.neighbours).toBe('all');
       expect(sim.placementError).toBeLessThan(0.01);
       const c = cellCentres(grid);
       const p = createPredictor(offNode, model).predict(c.x, c.y);
@@ -121,12 +121,12 @@ describe('simulateConditional', () => {
 
   it('simulateConditional with local neighbourhoods: all samples reproduce the dense result; fewer still honour data', () => {
     const dense = simulateConditional(offNode, matern, grid, { count: 4, seed: 2 });
-    const local = simulateConditional(offNode, matern, grid, { count: 4, seed: 2, neighbors: 7 });
+    const local = simulateConditional(offNode, matern, grid, { count: 4, seed: 2, neighbours: 7 });
     for (let r = 0; r < 4; r++) expectClose(local.realisations![r], dense.realisations![r], { abs: 1e-5 }, `realisation ${r}`);
     const model: CovarianceModel = { structures: [{ type: 'exponential', sill: 1, scale: 25 }], trend: 'constant', transform: 'none' };
     const s = makeSamples([15, 45, 75, 25, 5, 65], [-5, -35, -75, -55, -75, -15], [3, -1, 2, 0.5, 1, 1]);
-    const few = simulateConditional(s, model, grid, { count: 3, seed: 1, neighbors: 3 });
-    expect(few.neighbors).toBe(3);
+    const few = simulateConditional(s, model, grid, { count: 3, seed: 1, neighbours: 3 });
+    expect(few.neighbours).toBe(3);
     for (const r of few.realisations!) expectClose(r[3 * 8 + 4], -1, { abs: 1e-6 });
   });
 
@@ -281,10 +281,10 @@ describe('simulateConditional with covariates in the mean', () => {
     // the GLS trend of all samples); Monte Carlo standard error from the realisations' own sd.
     const N = 3000;
     const cov = nodeCovariates(grid, 1);
-    const sim = simulateConditional(samples, model, grid, { count: N, seed: 4, neighbors: 4, covariates: cov });
-    expect(sim.neighbors).toBe(4);
+    const sim = simulateConditional(samples, model, grid, { count: N, seed: 4, neighbours: 4, covariates: cov });
+    expect(sim.neighbours).toBe(4);
     const c = cellCentres(grid);
-    const p = createLocalPredictor(samples, model, { neighbors: 4 }).predict(c.x, c.y, { covariates: cov });
+    const p = createLocalPredictor(samples, model, { neighbours: 4 }).predict(c.x, c.y, { covariates: cov });
     const dense = createPredictor(samples, model).predict(c.x, c.y, { covariates: cov });
     let apart = 0;
     for (let k = 0; k < 64; k++) {

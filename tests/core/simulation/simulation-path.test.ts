@@ -67,9 +67,9 @@ const grid: Grid = { x0: 500000, y0: 6000600, cell: 20, nx: 30, ny: 30 };
 
 describe('planSimulationPath', () => {
   it('planSimulationPath reports the largest difference that recomputing local and exact kriging at the same seeded nodes gives', () => {
-    const plan = planSimulationPath(samples, model, grid, { realisations: 10, force: 'local', neighbors: 12 });
+    const plan = planSimulationPath(samples, model, grid, { realisations: 10, force: 'local', neighbours: 12 });
     expect(plan.choice.path).toBe('local');
-    expect(plan.neighbors).toBe(12);
+    expect(plan.neighbours).toBe(12);
     const a = plan.accuracy!;
     expect(a.checked).toBe(200);
     expect(a.targets).toBe(900);
@@ -78,7 +78,7 @@ describe('planSimulationPath', () => {
     const x = Float64Array.from(idx, (c) => grid.x0 + ((c % 30) + 0.5) * 20);
     const y = Float64Array.from(idx, (c) => grid.y0 - (Math.floor(c / 30) + 0.5) * 20);
     const exact = createPredictor(samples, model).predict(x, y);
-    const local = createLocalPredictor(samples, model, { neighbors: 12 }).predict(x, y);
+    const local = createLocalPredictor(samples, model, { neighbours: 12 }).predict(x, y);
     let meanMax = 0, sdMax = 0;
     for (let t = 0; t < x.length; t++) {
       meanMax = Math.max(meanMax, Math.abs(local.mean[t] - exact.mean[t]));
@@ -95,7 +95,7 @@ describe('planSimulationPath', () => {
     const plan = planSimulationPath(samples, model, grid, { realisations: 10, force: 'local' });
     expect(plan.choice.path).toBe('local');
     expect(plan.accuracy!.within).toBe(true);
-    expect(plan.neighbors).toBeGreaterThan(64);
+    expect(plan.neighbours).toBeGreaterThan(64);
     expect(plan.choice.reason).toMatch(/grown to \d+ neighbours to meet the tolerance/);
   });
 });
@@ -108,11 +108,11 @@ describe('simulateConditional local against exact', () => {
     const m: CovarianceModel = { ...model, structures: [{ type: 'nugget', sill: 0.1 }, { type: 'matern', sill: 1, scale: 40, nu: 1.5 }] };
     const g: Grid = { x0: 500000, y0: 6000200, cell: 20, nx: 10, ny: 10 };
     const N = 2000;
-    const sim = simulateConditional(few, m, g, { count: N, seed: 3, path: 'local', neighbors: 10, keepRealisations: false });
-    expect(sim.neighbors).toBe(10);
+    const sim = simulateConditional(few, m, g, { count: N, seed: 3, path: 'local', neighbours: 10, keepRealisations: false });
+    expect(sim.neighbours).toBe(10);
     const x = Float64Array.from({ length: 100 }, (_, c) => g.x0 + ((c % 10) + 0.5) * 20);
     const y = Float64Array.from({ length: 100 }, (_, c) => g.y0 - (Math.floor(c / 10) + 0.5) * 20);
-    const local = createLocalPredictor(few, m, { neighbors: 10 }).predict(x, y);
+    const local = createLocalPredictor(few, m, { neighbours: 10 }).predict(x, y);
     for (let c = 0; c < 100; c++) {
       expect(Math.abs(sim.mean[c] - local.mean[c]), `mean cell ${c}`).toBeLessThan(4 * local.sd[c] / Math.sqrt(N));
       expect(Math.abs(sim.sd[c] - local.sd[c]), `sd cell ${c}`).toBeLessThan(4 * local.sd[c] / Math.sqrt(2 * N));
@@ -126,7 +126,7 @@ describe('simulateConditional local against exact', () => {
     const plan = planSimulationPath(samples, model, g, { realisations: 2000, force: 'local' });
     expect(plan.accuracy!.within).toBe(true);
     const N = 2000;
-    const sim = simulateConditional(samples, model, g, { count: N, seed: 8, path: 'local', neighbors: plan.neighbors, keepRealisations: false });
+    const sim = simulateConditional(samples, model, g, { count: N, seed: 8, path: 'local', neighbours: plan.neighbours, keepRealisations: false });
     const x = Float64Array.from({ length: 100 }, (_, c) => g.x0 + ((c % 10) + 0.5) * 60);
     const y = Float64Array.from({ length: 100 }, (_, c) => g.y0 - (Math.floor(c / 10) + 0.5) * 60);
     const exact = createPredictor(samples, model).predict(x, y);

@@ -33,9 +33,9 @@ const grid: Grid = { x0: 500000, y0: 6000400, cell: 20, nx: 20, ny: 20 };
 describe('simulateConditional pins (bit for bit across refactoring)', () => {
   const cases: Array<[string, () => ConditionalSimulationResult]> = [
     ['dense, point, threshold', () => simulateConditional(samples, model, grid, { count: 6, seed: 5, threshold: 42 })],
-    ['local 16 neighbours, point', () => simulateConditional(samples, model, grid, { count: 4, seed: 2, neighbors: 16 })],
+    ['local 16 neighbours, point', () => simulateConditional(samples, model, grid, { count: 4, seed: 2, neighbours: 16 })],
     ['dense, block 2 × 2, linear trend', () => simulateConditional(samples, { ...model, trend: 'linear' }, grid, { count: 3, seed: 9, support: 'block', blockPoints: 2 })],
-    ['local, block 2 × 2, log model', () => simulateConditional(samples, { ...model, transform: 'log' }, grid, { count: 3, seed: 9, support: 'block', blockPoints: 2, neighbors: 20 })],
+    ['local, block 2 × 2, log model', () => simulateConditional(samples, { ...model, transform: 'log' }, grid, { count: 3, seed: 9, support: 'block', blockPoints: 2, neighbours: 20 })],
     ['dense, part from 3', () => simulateConditional(samples, model, grid, { count: 3, first: 3, seed: 5, threshold: 42 })],
   ];
   it('simulateConditional dense and local, point and block, parts', () => {

@@ -22,7 +22,7 @@ describe('localLeaveOneOut', () => {
     for (const m of models) {
       const model = parseModel(m);
       const closed = leaveOneOut(intake.samples, model);
-      const local = localLeaveOneOut(intake.samples, model, { neighbors: 24 });
+      const local = localLeaveOneOut(intake.samples, model, { neighbours: 24 });
       const what = JSON.stringify(m.trend) + (model.anisotropy ? ' anisotropic' : '') + model.transform;
       expect(local.scale, what).toBe(closed.scale);
       expectClose(local.prediction, closed.prediction, { rel: 1e-9 }, `${what} prediction`);
@@ -33,7 +33,7 @@ describe('localLeaveOneOut', () => {
 
   it('localLeaveOneOut with few neighbours leaves the sample itself out (a coincident copy is still used) and differs from the closed form', () => {
     const model = parseModel(MODEL);
-    const few = localLeaveOneOut(intake.samples, model, { neighbors: 6 });
+    const few = localLeaveOneOut(intake.samples, model, { neighbours: 6 });
     const closed = leaveOneOut(intake.samples, model);
     expect(Array.from(few.prediction)).not.toEqual(Array.from(closed.prediction));
     // Leaving a sample out never predicts it perfectly here (no zero errors) and sds include the nugget.
@@ -45,17 +45,17 @@ describe('localLeaveOneOut', () => {
     const x = Float64Array.from([...intake.samples.x, intake.samples.x[0]]);
     const y = Float64Array.from([...intake.samples.y, intake.samples.y[0]]);
     const v = Float64Array.from([...intake.samples.value, intake.samples.value[0]]);
-    const twin = localLeaveOneOut({ x, y, value: v }, parseModel({ ...MODEL, structures: [{ type: 'nugget', sill: 1e-6 }, MODEL.structures[1]] }), { neighbors: 6 });
+    const twin = localLeaveOneOut({ x, y, value: v }, parseModel({ ...MODEL, structures: [{ type: 'nugget', sill: 1e-6 }, MODEL.structures[1]] }), { neighbours: 6 });
     expect(Math.abs(twin.error[0])).toBeLessThan(1e-3);
     expect(Math.abs(twin.error[25])).toBeLessThan(1e-3);
   });
 
   it('localLeaveOneOut with the global mean uses the GLS mean of all samples as a known mean', () => {
     const model = parseModel(MODEL);
-    const global = localLeaveOneOut(intake.samples, model, { neighbors: 24, globalMean: true });
+    const global = localLeaveOneOut(intake.samples, model, { neighbours: 24, globalMean: true });
     // With every other sample it is simple kriging around the GLS mean β̂ of all 25 samples.
     const beta = createPredictor(intake.samples, model).beta[0];
-    const simple = localLeaveOneOut(intake.samples, parseModel({ ...MODEL, trend: { known: beta } }), { neighbors: 24 });
+    const simple = localLeaveOneOut(intake.samples, parseModel({ ...MODEL, trend: { known: beta } }), { neighbours: 24 });
     expectClose(global.prediction, simple.prediction, { rel: 1e-9 }, 'prediction');
     expectClose(global.sdObserved, simple.sdObserved, { rel: 1e-9 }, 'sdObserved');
   });

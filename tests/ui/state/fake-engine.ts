@@ -106,7 +106,7 @@ export function simulate(req: SimulateRequest, _progress?: unknown, signal?: Abo
     return {
       grid: req.grid, support: 'point', points: 1, count: req.options.count, mean: new Float64Array(cells).fill(7), sd: new Float64Array(cells).fill(2),
       realisations: [new Float32Array(cells).fill(6)], lattice: { nx: 1, ny: 1, spacing: 1, torus: [1, 1], paddingSteps: 0, negativeFraction: 0 },
-      placementError: 0, neighbors: 'all', warnings: [], first: 0,
+      placementError: 0, neighbours: 'all', warnings: [], first: 0,
     } as ConditionalSimulationResult;
   });
 }

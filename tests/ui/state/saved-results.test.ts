@@ -112,7 +112,7 @@ describe('parseResults', () => {
   it('parseResults keeps a local-neighbourhood surface only with its measured error', () => {
     const accuracy = {
       checked: 6, targets: 6, seed: 1, reference: 'exact' as const, scale: 'data' as const, priorSd: 20,
-      mean: { max: 0.4, rms: 0.2 }, sd: { max: 0.9, rms: 0.5 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbors: 64, globalMean: true,
+      mean: { max: 0.4, rms: 0.2 }, sd: { max: 0.9, rms: 0.5 }, tolerance: { mean: 1, sd: 2 }, within: true, neighbours: 64, globalMean: true,
     };
     const measured = record();
     measured.surface = { ...measured.surface!, local: 64, accuracy, pathNote: 'The 32 nearest samples missed the tolerance.' };

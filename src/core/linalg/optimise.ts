@@ -28,8 +28,8 @@ export interface NelderMeadOptions {
   restarts?: number;
 }
 
-export interface MinimizeResult {
-  /** The best point found (in the caller's units for `minimizeBounded`). */
+export interface MinimiseResult {
+  /** The best point found (in the caller's units for `minimiseBounded`). */
   x: number[];
   value: number;
   iterations: number;
@@ -43,7 +43,7 @@ export interface MinimizeResult {
  * After convergence the search restarts from the best vertex (a guard against a collapsed simplex);
  * it stops early when a restart does not improve the value by more than the tolerance.
  */
-export function nelderMead(f: Objective, x0: ArrayLike<number>, options: NelderMeadOptions = {}): MinimizeResult {
+export function nelderMead(f: Objective, x0: ArrayLike<number>, options: NelderMeadOptions = {}): MinimiseResult {
   const d = x0.length;
   if (d === 0) throw new Error('Expected at least one parameter to optimise, got none.');
   const fTol = options.fTolerance ?? 1e-8;
@@ -209,12 +209,12 @@ function makeTransform(p: ParameterSpace): Transform {
  * coordinates (log, then logistic for a two-sided box). x0 must lie inside the box; it is pulled a
  * hair inside when on a bound. The result's x is in the caller's units.
  */
-export function minimizeBounded(
+export function minimiseBounded(
   f: (x: number[]) => number,
   x0: ArrayLike<number>,
   space: ParameterSpace[],
   options: BoundedOptions = {},
-): MinimizeResult {
+): MinimiseResult {
   const d = x0.length;
   if (space.length !== d) throw new Error(`Expected ${d} parameter spaces, got ${space.length}.`);
   const transforms = space.map(makeTransform);

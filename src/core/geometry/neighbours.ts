@@ -11,7 +11,7 @@ import KDBush from 'kdbush';
 /** Leaf size of the kd-tree: small leaves suit k-nearest queries better than kdbush's default 64. */
 const NODE_SIZE = 16;
 
-export class NeighborIndex {
+export class NeighbourIndex {
   /** Number of indexed points. */
   readonly size: number;
   private readonly tree: KDBush;

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { minimizeBounded, nelderMead } from '../../../src/core/linalg/optimize.ts';
+import { minimiseBounded, nelderMead } from '../../../src/core/linalg/optimise.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 
 // Rosenbrock's function (Rosenbrock 1960, Comput. J. 3:175): minimum 0 at (1, 1), a curved valley.
@@ -43,24 +43,24 @@ describe('nelderMead', () => {
   });
 });
 
-describe('minimizeBounded', () => {
-  it('minimizeBounded on log scale finds an interior optimum (analytic: x* = e, y* = 0.1)', () => {
+describe('minimiseBounded', () => {
+  it('minimiseBounded on log scale finds an interior optimum (analytic: x* = e, y* = 0.1)', () => {
     const f = (p: number[]) => (Math.log(p[0]) - 1) ** 2 + (Math.log(p[1]) - Math.log(0.1)) ** 2;
-    const r = minimizeBounded(f, [1, 1], [{ log: true, lower: 1e-3, upper: 1e3 }, { log: true }], { xTolerance: 1e-10, fTolerance: 1e-16 });
+    const r = minimiseBounded(f, [1, 1], [{ log: true, lower: 1e-3, upper: 1e3 }, { log: true }], { xTolerance: 1e-10, fTolerance: 1e-16 });
     expectClose(r.x, [Math.E, 0.1], { rel: 1e-6 }, 'x*');
   });
 
-  it('minimizeBounded keeps the answer inside the box and stops at the active bound', () => {
+  it('minimiseBounded keeps the answer inside the box and stops at the active bound', () => {
     // Unconstrained minimum at (−3, 5); box [0, 2] × [1, 4] puts it at the corner (0, 4).
     const f = (p: number[]) => (p[0] + 3) ** 2 + (p[1] - 5) ** 2;
-    const r = minimizeBounded(f, [1, 2], [{ lower: 0, upper: 2 }, { lower: 1, upper: 4 }], { maxEvaluations: 2000 });
+    const r = minimiseBounded(f, [1, 2], [{ lower: 0, upper: 2 }, { lower: 1, upper: 4 }], { maxEvaluations: 2000 });
     expect(r.x[0]).toBeGreaterThanOrEqual(0);
     expect(r.x[1]).toBeLessThanOrEqual(4);
     expectClose(r.x, [0, 4], { abs: 1e-3 }, 'x*');
   });
 
-  it('minimizeBounded solves Rosenbrock with one-sided bounds not active', () => {
-    const r = minimizeBounded((p) => rosenbrock(p), [0.5, 0.5], [{ lower: 0 }, { upper: 10 }], { xTolerance: 1e-10, fTolerance: 1e-16, maxEvaluations: 5000 });
+  it('minimiseBounded solves Rosenbrock with one-sided bounds not active', () => {
+    const r = minimiseBounded((p) => rosenbrock(p), [0.5, 0.5], [{ lower: 0 }, { upper: 10 }], { xTolerance: 1e-10, fTolerance: 1e-16, maxEvaluations: 5000 });
     expectClose(r.x, [1, 1], { abs: 1e-4 }, 'x*');
   });
 });

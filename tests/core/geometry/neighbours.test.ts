@@ -1,7 +1,7 @@
-// NeighborIndex against brute force (the definition of nearest: sort all distances).
+// NeighbourIndex against brute force (the definition of nearest: sort all distances).
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { NeighborIndex } from '../../../src/core/geometry/neighbors.ts';
+import { NeighbourIndex } from '../../../src/core/geometry/neighbours.ts';
 import { createRandom } from '../../../src/core/shared/random.ts';
 
 function bruteDist2(x: ArrayLike<number>, y: ArrayLike<number>, px: number, py: number): number[] {
@@ -14,7 +14,7 @@ const coord = fc.double({ min: -1000, max: 1000, noNaN: true, noDefaultInfinity:
 // Many repeated coordinates (duplicates and ties) on a coarse lattice.
 const lattice = fc.integer({ min: -5, max: 5 }).map((v) => v * 10);
 
-describe('NeighborIndex', () => {
+describe('NeighbourIndex', () => {
   it('nearest returns the k smallest distances, nearest first (property, against brute force)', () => {
     fc.assert(
       fc.property(
@@ -24,7 +24,7 @@ describe('NeighborIndex', () => {
         (pts, [px, py], k) => {
           const x = pts.map((p) => p[0]);
           const y = pts.map((p) => p[1]);
-          const index = new NeighborIndex(x, y);
+          const index = new NeighbourIndex(x, y);
           const d2 = new Float64Array(k);
           const ids = index.nearest(px, py, k, undefined, d2);
           const all = bruteDist2(x, y, px, py);
@@ -46,7 +46,7 @@ describe('NeighborIndex', () => {
     const x = new Float64Array(n);
     const y = new Float64Array(n);
     for (let i = 0; i < n; i++) { x[i] = rng.uniform() * 5000; y[i] = rng.uniform() * 3000; }
-    const index = new NeighborIndex(x, y);
+    const index = new NeighbourIndex(x, y);
     const buf = new Uint32Array(64);
     for (let q = 0; q < 30; q++) {
       const px = rng.uniform() * 6000 - 500;
@@ -68,7 +68,7 @@ describe('NeighborIndex', () => {
         (pts, [px, py], r) => {
           const x = pts.map((p) => p[0]);
           const y = pts.map((p) => p[1]);
-          const got = new NeighborIndex(x, y).within(px, py, r).sort((a, b) => a - b);
+          const got = new NeighbourIndex(x, y).within(px, py, r).sort((a, b) => a - b);
           const all = bruteDist2(x, y, px, py);
           const expected = [...all.keys()].filter((i) => all[i] <= r * r);
           expect(got).toEqual(expected);
@@ -78,8 +78,8 @@ describe('NeighborIndex', () => {
     );
   });
 
-  it('NeighborIndex rejects mismatched lengths and non-finite coordinates', () => {
-    expect(() => new NeighborIndex([1, 2], [1])).toThrow(/equal length/);
-    expect(() => new NeighborIndex([1, NaN], [1, 2])).toThrow(/finite/);
+  it('NeighbourIndex rejects mismatched lengths and non-finite coordinates', () => {
+    expect(() => new NeighbourIndex([1, 2], [1])).toThrow(/equal length/);
+    expect(() => new NeighbourIndex([1, NaN], [1, 2])).toThrow(/finite/);
   });
 });
