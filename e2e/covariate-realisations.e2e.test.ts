@@ -68,6 +68,9 @@ describe('realisations and next samples with covariates in the app', () => {
     await page.waitForSelector('[data-testid=sim-done]', { timeout: WAIT });
     expect(await page.locator('#surface-body [role=alert]').count()).toBe(0);
     expect(await page.locator('[data-testid=sim-done]').innerText()).toMatch(/^20 realisations/);
+    // The conditioning was chosen by cost in a worker (150 samples: kriging from all of them) and is said.
+    expect(await page.locator('[data-testid=sim-path]').getAttribute('data-path')).toBe('exact');
+    expect(await page.locator('[data-testid=sim-path]').innerText()).toMatch(/^Conditioned by kriging from all samples; chosen automatically: /);
     // Four realisations drawn small, each with coloured cells.
     const painted = await page.$$eval('[data-testid=realisation-canvas]', (cs) => (cs as HTMLCanvasElement[]).map((c) => {
       const d = c.getContext('2d')!.getImageData(0, 0, c.width, c.height).data;

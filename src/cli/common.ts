@@ -20,9 +20,8 @@ import { writeFileSafely, type OutputData } from './safe-write.ts';
 import { MAX_EXACT_SAMPLES } from '../core/shared/sizes.ts';
 import { cellCount, type Grid } from '../core/geometry/grid.ts';
 
-/** Carried by every result, export and help text. */
-export const CAUTION =
-  'Screening only: results that feed remediation or safety decisions need a licensed professional and local regulation.';
+/** Carried by every result, export and help text: the engine's one text. */
+export { CAUTION } from '../core/shared/caution.ts';
 
 /** Where a command writes; tests pass their own to capture the text. */
 export interface CliIo {

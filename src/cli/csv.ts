@@ -7,13 +7,12 @@ import Papa from 'papaparse';
 import { GapwiseError } from '../core/shared/errors.ts';
 import { CSV_PARSE, detectDelimiter, normaliseText } from '../io/csv.ts';
 import { csvLine, neutraliseFormula } from '../io/csv-cells.ts';
-import { formatFullPrecision } from '../io/format.ts';
 
 /** Cells are written by io/csv-cells.ts: quoted (RFC 4180), formula-leading text neutralised. */
 export { csvCell, csvLine, CSV_CAUTION, FORMULA_NOTE, PIECE_CHARS, linePieces } from '../io/csv-cells.ts';
 
-/** A number for a CSV: up to 12 significant digits, no trailing zeros; NaN as empty, inf / -inf. */
-export const formatNumber = formatFullPrecision;
+/** A number for a CSV: io/format.ts formatFullPrecision (up to 12 significant digits, NaN as empty, inf / -inf). */
+export { formatFullPrecision } from '../io/format.ts';
 
 export interface CsvRecord {
   /** The cells, unquoted. */

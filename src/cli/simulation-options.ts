@@ -235,7 +235,7 @@ export async function addSimulationBands(input: {
   workers?: number; onProgress?: (done: number, total: number) => void;
   /** Covariate model: the encoded covariates at the block points of every cell (core/prediction/block-kriging.ts order; one per cell for point support). */
   covariates?: Float64Array;
-}): Promise<{ surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[]; threads?: number }> {
+}): Promise<{ surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[]; threads?: number; path?: SimulationPath }> {
   const { samples, model, grid, choice, threshold, unit } = input;
   const bands: SimulationBand[] = [];
   const warnings: Warning[] = [];
@@ -254,7 +254,7 @@ export async function addSimulationBands(input: {
     ...(input.covariates ? { covariates: input.covariates } : {}),
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
-  }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}) });
+  }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}), choose: {} });
   warnings.push(...sim.warnings);
   const u = unit ? ` ${unit}` : '';
   if (choice.support === 'block' && model.transform === 'log') {
@@ -266,5 +266,5 @@ export async function addSimulationBands(input: {
     const { areaAbove, volumeAbove } = areaFigures(sim.area);
     area = { threshold, realisations: sim.count, seed: choice.seed, support: choice.support, areaAbove, ...(volumeAbove ? { volumeAbove } : {}) };
   }
-  return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings, threads };
+  return { ...(surface ? { surface } : {}), bands, ...(area ? { area } : {}), warnings, threads, ...(sim.path ? { path: sim.path } : {}) };
 }

@@ -16,6 +16,7 @@ import { createPredictor, type Predictor } from '../core/prediction/kriging.ts';
 import { computeSurfaceWith } from '../core/prediction/surface.ts';
 import { computeBlockSurfaceWith, createBlockPredictor, type BlockPredictor } from '../core/prediction/block-kriging.ts';
 import { simulateConditional } from '../core/simulation/conditional-simulation.ts';
+import { planSimulationPath } from '../core/simulation/simulation-path.ts';
 import { vecchiaFit } from '../core/fitting/vecchia.ts';
 import { createLocalPredictor } from '../core/prediction/local-kriging.ts';
 import { checkLocalGrid } from '../core/prediction/local-accuracy.ts';
@@ -240,6 +241,11 @@ export function createEngineHandler(ops: EngineOperations = COMPUTE_OPERATIONS):
         const q = p as RequestPayloads['simulate'];
         checkSamples(q.samples);
         return ops.simulateConditional(q.samples, q.model, q.grid, { ...q.options, onProgress: progress }) as ResultPayloads[K];
+      }
+      case 'simulationPath': {
+        const q = p as RequestPayloads['simulationPath'];
+        checkSamples(q.samples);
+        return planSimulationPath(q.samples, q.model, q.grid, q.options) as ResultPayloads[K];
       }
       case 'readSamples': {
         const q = p as RequestPayloads['readSamples'];

@@ -22,6 +22,7 @@ import type { LocalKrigingOptions, LocalPrediction } from '../core/prediction/lo
 import type { LocalGridCheck, LocalSettings } from '../core/prediction/local-accuracy.ts';
 import type { Tolerance } from '../core/prediction/path-choice.ts';
 import type { ConditionalSimulationOptions, ConditionalSimulationResult } from '../core/simulation/conditional-simulation.ts';
+import type { SimulationPath, SimulationPathOptions } from '../core/simulation/simulation-path.ts';
 
 /** Simulation options that cross postMessage (no callbacks). */
 export type SimulateOptions = Omit<ConditionalSimulationOptions, 'onProgress' | 'isCancelled'>;
@@ -65,6 +66,8 @@ export interface RequestPayloads {
   blockSurfaceRows: { samples: Samples; model: CovarianceModel; grid: Grid; options?: BlockSurfaceOptions };
   /** Conditional realisations on the grid, with P(exceed) and the area above the action level. */
   simulate: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulateOptions };
+  /** Exact or local conditioning for realisations on `grid`, chosen by cost and measured (core/simulation/simulation-path.ts). */
+  simulationPath: { samples: Samples; model: CovarianceModel; grid: Grid; options: SimulationPathOptions };
   readSamples: { text: string; options: IntakeOptions };
   /** The data of a report from a project (./report-data.ts prepareReport; the app's worker only, like readSamples). */
   prepareReport: { project: Project; options: PrepareRequestOptions };
@@ -94,6 +97,7 @@ export interface ResultPayloads {
   fitVecchia: CovarianceModel;
   blockSurfaceRows: BlockSurfaceResult;
   simulate: ConditionalSimulationResult;
+  simulationPath: SimulationPath;
   readSamples: IntakeResult;
   prepareReport: ReportInput;
   design: DesignResult;
@@ -106,7 +110,7 @@ export interface ResultPayloads {
 export type RequestType = keyof RequestPayloads;
 
 export const REQUEST_TYPES: readonly RequestType[] = [
-  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitVecchia', 'blockSurfaceRows', 'simulate', 'readSamples', 'prepareReport', 'design', 'localAccuracy', 'localPredict',
+  'fit', 'fitCandidates', 'fitStructure', 'variogram', 'variogramSet', 'crossValidate', 'surfaceRows', 'fitVecchia', 'blockSurfaceRows', 'simulate', 'simulationPath', 'readSamples', 'prepareReport', 'design', 'localAccuracy', 'localPredict',
   'ready', 'likelihoodPart',
 ];
 

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { csvCell, csvLine, formatNumber, linePieces, readCsvTable, recordText } from '../../src/cli/csv.ts';
+import { csvCell, csvLine, formatFullPrecision, linePieces, readCsvTable, recordText } from '../../src/cli/csv.ts';
 import { GapwiseError } from '../../src/core/shared/errors.ts';
 
 describe('readCsvTable', () => {
@@ -63,14 +63,14 @@ describe('recordText', () => {
   });
 });
 
-describe('formatNumber', () => {
-  it('formatNumber keeps 12 significant digits and drops float noise', () => {
-    expect(formatNumber(173.40000000000003)).toBe('173.4');
-    expect(formatNumber(5312345.123456789)).toBe('5312345.12346');
-    expect(formatNumber(11.2490007)).toBe('11.2490007');
-    expect(formatNumber(-0.000012345)).toBe('-0.000012345');
-    expect(formatNumber(NaN)).toBe('');
-    expect(formatNumber(0)).toBe('0');
+describe('formatFullPrecision', () => {
+  it('formatFullPrecision keeps 12 significant digits and drops float noise', () => {
+    expect(formatFullPrecision(173.40000000000003)).toBe('173.4');
+    expect(formatFullPrecision(5312345.123456789)).toBe('5312345.12346');
+    expect(formatFullPrecision(11.2490007)).toBe('11.2490007');
+    expect(formatFullPrecision(-0.000012345)).toBe('-0.000012345');
+    expect(formatFullPrecision(NaN)).toBe('');
+    expect(formatFullPrecision(0)).toBe('0');
   });
 });
 

@@ -27,7 +27,7 @@ import {
   printNotes, printWarnings, progressLine, readModelAndSamples, readPredictionPath, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { CSV_CAUTION, csvLine, formatNumber, linePieces } from '../csv.ts';
+import { CSV_CAUTION, csvLine, formatFullPrecision, linePieces } from '../csv.ts';
 import { withSampleCovariates } from '../covariates.ts';
 import { sampleId } from '../../io/sample-table.ts';
 import { analyteRequest } from '../analytes.ts';
@@ -78,8 +78,8 @@ async function run(values: OptionValues, ioGiven: CliIo): Promise<number> {
       // The observation on the scale the errors are on (ln for a log model).
       const observed = log ? Math.log(samples.value[i]) : samples.value[i];
       return csvLine([
-        sampleId(table, i), formatNumber(table.inputX[i]), formatNumber(table.inputY[i]), formatNumber(observed),
-        formatNumber(cv.prediction[i]), formatNumber(cv.sdObserved[i]), formatNumber(cv.error[i]), formatNumber(cv.standardisedError[i]),
+        sampleId(table, i), formatFullPrecision(table.inputX[i]), formatFullPrecision(table.inputY[i]), formatFullPrecision(observed),
+        formatFullPrecision(cv.prediction[i]), formatFullPrecision(cv.sdObserved[i]), formatFullPrecision(cv.error[i]), formatFullPrecision(cv.standardisedError[i]),
       ]);
     }));
     io.stderr(`caution: ${CSV_CAUTION} Written by ${SOFTWARE}.\n`);

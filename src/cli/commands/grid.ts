@@ -40,7 +40,7 @@ import { checkLocalSurface } from '../local-check.ts';
 import { describeAccuracy, type LocalAccuracy, type LocalSettings } from '../../core/prediction/local-accuracy.ts';
 import { simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
-import { GRID_SIMULATION_OPTIONS, addSimulationBands, namingAsync, readSimulationChoice, type SimulationBand, type SimulationChoice } from '../simulation-options.ts';
+import { GRID_SIMULATION_OPTIONS, addSimulationBands, describeSimulationPath, namingAsync, readSimulationChoice, type SimulationBand, type SimulationChoice } from '../simulation-options.ts';
 import { MAX_EXACT_SAMPLES } from '../../core/shared/sizes.ts';
 
 type Format = 'tif' | 'csv' | 'geojson';
@@ -274,7 +274,10 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   if (!surface) throw new Error('No surface was computed for block support.');
   if (choice.realisations !== undefined) {
     const t = extra.threads ?? 1;
-    printNotes(io, [`${count(choice.realisations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`]);
+    printNotes(io, [
+      `${count(choice.realisations)} conditional realisations (seed ${choice.seed}, ${choice.support} support) on ${t} worker thread${t === 1 ? '' : 's'}`,
+      ...(extra.path ? describeSimulationPath(extra.path, samples.x.length) : []),
+    ]);
   }
   const valueName = intake.report.valueColumn.replace(/\s*\([^)]*\)\s*$/, '');
   const written = await writeGridFile(io, out, format, { grid, surface, workCrs, unit, valueName, extraBands: extra.bands, ...(accuracy ? { accuracy } : {}), meanLevels });

@@ -9,7 +9,7 @@ import {
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
-import { CSV_CAUTION, PIECE_CHARS, csvLine, formatNumber, linePieces } from '../csv.ts';
+import { CSV_CAUTION, PIECE_CHARS, csvLine, formatFullPrecision, linePieces } from '../csv.ts';
 import { sampleFlags, sampleId, type SampleTable } from '../../io/sample-table.ts';
 
 /**
@@ -21,7 +21,7 @@ export function samplesCsvChunks(t: SampleTable, chunkChars = PIECE_CHARS): Gene
   return linePieces(t.length + 1, (k) => {
     if (k === 0) return csvLine(['id', 'x', 'y', 'value', 'flags']);
     const i = k - 1;
-    return csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]);
+    return csvLine([sampleId(t, i), formatFullPrecision(t.inputX[i]), formatFullPrecision(t.inputY[i]), formatFullPrecision(t.value[i]), sampleFlags(t, i).join(';')]);
   }, '\n', chunkChars);
 }
 

@@ -23,7 +23,7 @@ import {
   findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, readWorkers, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
-import { CSV_CAUTION, csvCell, formatNumber, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
+import { CSV_CAUTION, csvCell, formatFullPrecision, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
 import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
@@ -142,13 +142,13 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   const line = (k: number): string => {
     if (k === 0) return recordText(table.header, d) + d + added.map((a) => csvCell(a, d)).join(d);
     const i = k - 1;
-    const cells = [formatNumber(p.mean[i]), formatNumber(p.sd[i]), formatNumber(p.sdObserved[i])];
+    const cells = [formatFullPrecision(p.mean[i]), formatFullPrecision(p.sd[i]), formatFullPrecision(p.sdObserved[i])];
     if (threshold !== undefined) {
       // The noise-free surface; for a log model on the log scale, where the kriging error is normal.
       const prob = log
         ? threshold <= 0 ? 1 : exceedanceProbability(p.logMean![i], p.logSd![i], Math.log(threshold))
         : exceedanceProbability(p.mean[i], p.sd[i], threshold);
-      cells.push(formatNumber(prob));
+      cells.push(formatFullPrecision(prob));
     }
     return recordText(table.records[i], d) + d + cells.join(d);
   };

@@ -17,10 +17,10 @@ import { areaFigureText, formatQuantity, noAreaText, reportHtml } from '../../io
 import { prepareReport, reportSimulationJob } from '../../worker/report-data.ts';
 import type { Project, SimulationSettings } from '../../io/project.ts';
 import {
-  CAUTION, naming, outOption, printWarnings, progressLine, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
+  CAUTION, naming, outOption, printNotes, printWarnings, progressLine, readWorkers, writeOutput, type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
 import { readProjectFile } from '../project-options.ts';
-import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
+import { GRID_SIMULATION_OPTIONS, SIMULATION_WORKERS, describeSimulationPath, namingAsync, readSimulationChoice, threadsText } from '../simulation-options.ts';
 import { simulateParallel, simulationThreads } from '../simulation-pool.ts';
 import { checkSimulationDemand } from '../resource-limits.ts';
 import type { ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
@@ -125,7 +125,10 @@ async function run(valuesGiven: OptionValues, io: CliIo): Promise<number> {
       threads = simulationThreads(job.options.count, workers);
       const blockPoints = job.options.support === 'block' ? simulate.blockPoints : 1;
       checkSimulationDemand({ grid: job.grid, realisations: job.options.count, blockPoints, threads, keep: false }, 'realisations');
-      drawn = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations') }));
+      const sim = await namingAsync(files, () => simulateParallel(job.samples, job.model, job.grid, job.options, { workers: threads, onProgress: progressLine(io, 'realisations'), choose: {} }));
+      // Exact or local conditioning, chosen by cost and measured as `simulate` chooses it.
+      if (sim.path) printNotes(io, describeSimulationPath(sim.path, job.samples.x.length));
+      drawn = sim;
     }
   }
   const drawSeconds = (performance.now() - t0) / 1000;

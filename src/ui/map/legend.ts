@@ -73,7 +73,7 @@ function decimalsFor(step: number): number {
 }
 
 /** A value as text with the decimals its spacing needs ('−' for negatives, thin-space thousands kept out). */
-export function formatValue(value: number, step: number): string {
+export function formatAtStep(value: number, step: number): string {
   if (!Number.isFinite(value)) return '–';
   const text = value.toFixed(decimalsFor(step));
   const clean = /^-0(\.0*)?$/.test(text) ? text.slice(1) : text;
@@ -81,7 +81,7 @@ export function formatValue(value: number, step: number): string {
 }
 
 function percent(p: number, step: number): string {
-  return `${formatValue(p * 100, step * 100)} %`;
+  return `${formatAtStep(p * 100, step * 100)} %`;
 }
 
 function titleFor(o: LegendOptions, unit: string): string {
@@ -120,7 +120,7 @@ export function legendData(options: LegendOptions): LegendData {
   const ticks = values.map((value) => ({
     t: position(value),
     value,
-    label: kind === 'pExceed' ? percent(value, step) : formatValue(value, logValues.length >= 2 ? value : step),
+    label: kind === 'pExceed' ? percent(value, step) : formatAtStep(value, logValues.length >= 2 ? value : step),
   }));
 
   const data: LegendData = { kind, title: options.title ?? titleFor(options, unit), unit, scale, domain: [lo, hi], gradient, ticks, log };
@@ -143,7 +143,7 @@ export function legendData(options: LegendOptions): LegendData {
     const labelStep = width > 0 ? width : 1;
     data.classes = Array.from({ length: n }, (_, k) => {
       const from = lo + k * width, to = k === n - 1 ? hi : lo + (k + 1) * width;
-      const fmt = (v: number) => (kind === 'pExceed' ? percent(v, labelStep) : formatValue(v, labelStep));
+      const fmt = (v: number) => (kind === 'pExceed' ? percent(v, labelStep) : formatAtStep(v, labelStep));
       return { from, to, label: `${fmt(from)} – ${fmt(to)}`, colour: hex(colourAt(scale, (k + 0.5) / n)) };
     });
   }

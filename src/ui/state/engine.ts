@@ -12,6 +12,7 @@ import { GapwiseError } from '../../core/shared/errors.ts';
 import { EnginePool } from '../../worker/pool.ts';
 import { CANDIDATE_SPECS, type CandidateRow } from './structure.ts';
 import { mergeSimulationParts, simulationPart, type ConditionalSimulationResult } from '../../core/simulation/conditional-simulation.ts';
+import type { SimulationPath } from '../../core/simulation/simulation-path.ts';
 import type { SimulateOptions } from '../../worker/protocol.ts';
 import { chooseFitMethod, DEFAULT_VECCHIA_NEIGHBOURS } from '../../core/fitting/vecchia.ts';
 import { DEFAULT_LOCAL_NEIGHBOURS } from '../../core/prediction/local-kriging.ts';
@@ -199,10 +200,23 @@ export interface SimulateRequest {
  * (whole pairs of realisations) over the workers and merged (core mergeSimulationParts), which gives
  * what one run gives: each realisation has its own random stream.
  */
-export async function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult> {
+export async function simulate(req: SimulateRequest, onProgress?: Progress, signal?: AbortSignal): Promise<ConditionalSimulationResult & { path: SimulationPath }> {
   const N = req.options.count;
   const parts = Math.max(1, Math.min(workerCount(), Math.floor(N / 2)));
   const keep = req.options.keepRealisations === false ? 0 : req.keepFirst ?? N;
+  // Exact or local conditioning, chosen by cost and measured in a worker as the command line chooses it.
+  const o = req.options;
+  const path = await enginePool().request('simulationPath', {
+    samples: req.samples, model: req.model, grid: req.grid,
+    options: {
+      realisations: N, threads: parts, ...(o.support ? { support: o.support } : {}), ...(o.blockPoints !== undefined ? { blockPoints: o.blockPoints } : {}),
+      ...(o.covariates ? { covariates: o.covariates } : {}),
+    },
+  }, { signal });
+  const chosen: SimulateOptions = { ...o, path: path.choice.path };
+  if (path.choice.path === 'local') chosen.neighbours = path.neighbours;
+  else delete chosen.neighbours;
+  req = { ...req, options: chosen };
   const done = new Array<number>(parts).fill(0);
   const results = new Array<ConditionalSimulationResult>(parts);
   await enginePool().run(Array.from({ length: parts }, (_, i) => {
@@ -220,7 +234,7 @@ export async function simulate(req: SimulateRequest, onProgress?: Progress, sign
   const merged = mergeSimulationParts(results, { depth: req.options.depth });
   delete merged.totals;
   if (merged.realisations && keep < merged.realisations.length) merged.realisations = merged.realisations.slice(0, keep);
-  return merged;
+  return { ...merged, warnings: [...path.warnings, ...merged.warnings], path };
 }
 
 /** The variogram, and on request the four directions and the cloud, computed in a worker (many samples). */

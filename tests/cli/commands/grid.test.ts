@@ -124,6 +124,8 @@ describe('gapwise grid', () => {
     const summary = JSON.parse(r.stdout);
     expect(summary.bands).toEqual(['mean nitrate (mg/L)', 'sd nitrate (mg/L)', 'P(nitrate > 25 mg/L)', 'P(value > 25 mg/L) from 24 realisations']);
     expect(r.stderr).toContain('note: 24 conditional realisations (seed 4, point support) on 3 worker threads\n');
+    // The conditioning is chosen by cost as `simulate` chooses it: a few samples take exact kriging.
+    expect(r.stderr).toMatch(/note: conditioned by kriging from all \d+ samples; chosen automatically: .* \(--local overrides\)/);
     const intake = readSamples(planarSamplesCsv(), { fileName: 'wells.csv', crs: 'EPSG:32633' });
     const sim = simulateConditional(intake.samples, parseModel(MODEL), gridOf(summary), { count: 24, seed: 4, threshold: 25, depth: 0.5, keepRealisations: false });
     const a = sim.area!;

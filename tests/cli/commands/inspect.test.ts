@@ -5,14 +5,14 @@ import { loadFixture } from '../../helpers/fixtures.ts';
 import { expectClose } from '../../helpers/tolerance.ts';
 import { planarSamplesCsv, workspace } from '../run-cli.ts';
 import { samplesCsvChunks } from '../../../src/cli/commands/inspect.ts';
-import { csvLine, formatNumber } from '../../../src/cli/csv.ts';
+import { csvLine, formatFullPrecision } from '../../../src/cli/csv.ts';
 import { sampleFlags, sampleId, type SampleTable } from '../../../src/io/sample-table.ts';
 
 /** The CSV as the command wrote it before it wrote pieces: one string of every line. */
 function wholeSamplesCsv(t: SampleTable): string {
   const lines = [csvLine(['id', 'x', 'y', 'value', 'flags'])];
   for (let i = 0; i < t.length; i++) {
-    lines.push(csvLine([sampleId(t, i), formatNumber(t.inputX[i]), formatNumber(t.inputY[i]), formatNumber(t.value[i]), sampleFlags(t, i).join(';')]));
+    lines.push(csvLine([sampleId(t, i), formatFullPrecision(t.inputX[i]), formatFullPrecision(t.inputY[i]), formatFullPrecision(t.value[i]), sampleFlags(t, i).join(';')]));
   }
   return `${lines.join('\n')}\n`;
 }

@@ -1,16 +1,16 @@
 import { describe, expect, it } from 'vitest';
-import { formatValue, legendData, legendSvg } from '../../../src/ui/map/legend.ts';
+import { formatAtStep, legendData, legendSvg } from '../../../src/ui/map/legend.ts';
 import { logTicks } from '../../../src/io/report-svg.ts';
 import { escapeText } from '../../../src/io/markup.ts';
 import { colourAt, hex } from '../../../src/ui/map/colour-scales.ts';
 
-describe('formatValue', () => {
-  it('formatValue uses the decimals the spacing needs and a true minus sign', () => {
-    expect(formatValue(40, 20)).toBe('40');
-    expect(formatValue(0.05, 0.01)).toBe('0.05');
-    expect(formatValue(-2, 1)).toBe('−2');
-    expect(formatValue(-0.0001, 1)).toBe('0');
-    expect(formatValue(NaN, 1)).toBe('–');
+describe('formatAtStep', () => {
+  it('formatAtStep uses the decimals the spacing needs and a true minus sign', () => {
+    expect(formatAtStep(40, 20)).toBe('40');
+    expect(formatAtStep(0.05, 0.01)).toBe('0.05');
+    expect(formatAtStep(-2, 1)).toBe('−2');
+    expect(formatAtStep(-0.0001, 1)).toBe('0');
+    expect(formatAtStep(NaN, 1)).toBe('–');
   });
 });
 
