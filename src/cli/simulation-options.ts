@@ -17,7 +17,7 @@ import type { Samples } from '../core/shared/samples.ts';
 import type { Grid } from '../core/geometry/grid.ts';
 import { computeBlockSurface, DEFAULT_BLOCK_POINTS } from '../core/prediction/block-kriging.ts';
 import { DEFAULT_SIMULATION_NEIGHBOURS, MAX_REALISATIONS } from '../core/simulation/conditional-simulation.ts';
-import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, parseTolerance } from '../core/prediction/path-choice.ts';
+import { DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, parseTolerance, type Tolerance } from '../core/prediction/path-choice.ts';
 import { MAX_LOCAL_NEIGHBOURS } from '../core/prediction/local-kriging.ts';
 import { describeAccuracy } from '../core/prediction/local-accuracy.ts';
 import type { SimulationPath } from '../core/simulation/simulation-path.ts';
@@ -235,6 +235,8 @@ export async function addSimulationBands(input: {
   workers?: number; onProgress?: (done: number, total: number) => void;
   /** Covariate model: the encoded covariates at the block points of every cell (core/prediction/block-kriging.ts order; one per cell for point support). */
   covariates?: Float64Array;
+  /** Exact or local conditioning: forced, or chosen by cost within this tolerance (default: chosen, default tolerance). */
+  choose?: { force?: 'exact' | 'local'; tolerance?: Tolerance };
 }): Promise<{ surface?: SurfaceResult; bands: SimulationBand[]; area?: AreaReport; warnings: Warning[]; threads?: number; path?: SimulationPath }> {
   const { samples, model, grid, choice, threshold, unit } = input;
   const bands: SimulationBand[] = [];
@@ -254,7 +256,7 @@ export async function addSimulationBands(input: {
     ...(input.covariates ? { covariates: input.covariates } : {}),
     ...(threshold !== undefined ? { threshold } : {}),
     ...(choice.depth !== undefined ? { depth: choice.depth } : {}),
-  }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}), choose: {} });
+  }, { workers: threads, ...(input.onProgress ? { onProgress: input.onProgress } : {}), choose: input.choose ?? {} });
   warnings.push(...sim.warnings);
   const u = unit ? ` ${unit}` : '';
   if (choice.support === 'block' && model.transform === 'log') {

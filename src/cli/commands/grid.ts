@@ -269,6 +269,11 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
     samples, model, grid, choice, ...(threshold !== undefined ? { threshold } : {}), ...(unit ? { unit } : {}),
     ...(covariates.nodes ? { covariates: covariates.nodes } : {}),
     workers, onProgress: progressLine(io, 'realisations'),
+    // --exact / --local and --tolerance apply to the realisations' conditioning as to the surface.
+    choose: {
+      ...(booleanOption(values, 'exact') ? { force: 'exact' as const } : booleanOption(values, 'local') ? { force: 'local' as const } : {}),
+      tolerance: path.tolerance,
+    },
   }));
   const surface = extra.surface ?? point?.surface;
   if (!surface) throw new Error('No surface was computed for block support.');

@@ -433,13 +433,7 @@ export function weightsWithSystem(sys: KrigingSystem, tx: number, ty: number, co
   solveLowerInPlace(L, n, w);
   let variance = c0;
   for (let i = 0; i < n; i++) variance -= w[i] * w[i];
-  const t = new Float64Array(p);
-  for (let a = 0; a < p; a++) {
-    let s = x0[a];
-    for (let i = 0; i < n; i++) s -= W[i * p + a] * w[i];
-    t[a] = s;
-  }
-  solveLowerInPlace(Lg, p, t);
+  const t = trendGap(W, w, x0, n, p, Lg);
   for (let a = 0; a < p; a++) variance += t[a] * t[a];
   solveUpperTransposeInPlace(Lg, p, t);
   const lambda = Float64Array.from(w);
@@ -529,4 +523,20 @@ export function predictAt(
 /** Kriging weights λ (and Lagrange multipliers) for one target; ordinary-kriging weights sum to one. */
 export function krigingWeights(samples: Samples, model: CovarianceModel, tx: number, ty: number): KrigingWeights {
   return createPredictor(samples, model).weights(tx, ty);
+}
+
+/**
+ * t = G⁻¹ᐟ²(x₀ − Wᵀw) of universal kriging: how far the target's trend row x₀ is from what the
+ * whitened sample trend W (n × p, row-major) reproduces through w = L⁻¹k₀, through the factor Lg of
+ * G = WᵀW (p × p). Its squared length adds to the kriging variance; Lg⁻ᵀt is −μ.
+ */
+export function trendGap(W: ArrayLike<number>, w: ArrayLike<number>, x0: ArrayLike<number>, n: number, p: number, Lg: Float64Array): Float64Array {
+  const t = new Float64Array(p);
+  for (let a = 0; a < p; a++) {
+    let s = x0[a];
+    for (let i = 0; i < n; i++) s -= W[i * p + a] * w[i];
+    t[a] = s;
+  }
+  solveLowerInPlace(Lg, p, t);
+  return t;
 }

@@ -51,7 +51,7 @@ import type { Samples } from '../shared/samples.ts';
 import { GapwiseError, checkCount, type Warning } from '../shared/errors.ts';
 import { acrossAxis, alongAxis, anisotropyFrame, crossCovarianceMatrix, effectiveDistance, surfaceCovariance, surfaceVariance } from '../covariance/covariance.ts';
 import { cholesky, choleskyInPlace, solveLowerBlock, solveLowerInPlace, solveUpperTransposeInPlace, solveUpperTransposeMultiple } from '../linalg/linalg.ts';
-import { buildKrigingSystem, checkModel, type KrigingSystem } from '../prediction/kriging.ts';
+import { buildKrigingSystem, checkModel, trendGap, type KrigingSystem } from '../prediction/kriging.ts';
 import { MAX_LOCAL_NEIGHBOURS, createLocalPredictor } from '../prediction/local-kriging.ts';
 import { checkCovariateRows, covariateColumnCount, designRow, trendColumnCount, type CoordinateFrame } from '../covariance/trend.ts';
 import { createCirculantEmbedding, createFieldSampler, type EmbeddingOptions } from './circulant-embedding.ts';
@@ -188,14 +188,7 @@ export function posteriorCovariance(
     solveLowerInPlace(L, n, w);
     const x0 = new Float64Array(p);
     designRow(model.trend, tu, tv, centred, x0, 0, c);
-    const t = new Float64Array(p);
-    for (let a = 0; a < p; a++) {
-      let s = x0[a];
-      for (let i = 0; i < n; i++) s -= W[i * p + a] * w[i];
-      t[a] = s;
-    }
-    solveLowerInPlace(Lg, p, t);
-    return { w, t };
+    return { w, t: trendGap(W, w, x0, n, p, Lg) };
   };
   const A = one(ax, ay, covariatesA);
   const B = one(bx, by, covariatesB);
