@@ -10,6 +10,7 @@ import { parseModel, type CovarianceModel } from '../core/covariance/model.ts';
 import { SampleIntake, readSamples } from '../io/intake.ts';
 import { openInputFile, readInputText } from './input-file.ts';
 import { sampleLimitsText } from '../io/intake-limits.ts';
+import { usualCoordinateColumn } from '../io/intake-columns.ts';
 import { jsonErrorOffset } from '../io/geojson.ts';
 import type { IntakeOptions, IntakeResult, NonDetectRule, DuplicateRule } from '../io/types.ts';
 import { DEFAULT_LOCAL_NEIGHBOURS } from '../core/prediction/local-kriging.ts';
@@ -271,26 +272,17 @@ export function readGridSpacing(values: OptionValues): { cell?: number; padding?
   return assignDefined<{ cell?: number; padding?: number }>({}, { cell, padding });
 }
 
-/** Usual names of x and y coordinate columns in a targets or sites file (lower case, without a unit). */
-export const USUAL_X_NAMES = ['x', 'lon', 'long', 'lng', 'longitude', 'easting', 'east', 'e'];
-export const USUAL_Y_NAMES = ['y', 'lat', 'latitude', 'northing', 'north', 'n'];
-
 /**
  * The index of a coordinate column among `names`: `preferred` (the samples' own column name) when
- * present, else the first of the usual names (compared in lower case, without a unit in brackets); -1
- * when none is there.
+ * present, else the column the samples' intake would read as that coordinate (io/intake-columns.ts
+ * usualCoordinateColumn: longitude / latitude names, then x / easting and y / northing); -1 when none.
  */
-export function findUsualColumn(names: readonly string[], preferred: string | undefined, usual: readonly string[]): number {
+export function findUsualColumn(names: readonly string[], preferred: string | undefined, axis: 'x' | 'y'): number {
   if (preferred !== undefined) {
     const i = names.indexOf(preferred);
     if (i !== -1) return i;
   }
-  const lower = names.map((n) => n.toLowerCase().replace(/\s*\(.*\)\s*$/, ''));
-  for (const u of usual) {
-    const i = lower.indexOf(u);
-    if (i !== -1) return i;
-  }
-  return -1;
+  return usualCoordinateColumn(names, axis);
 }
 
 /**

@@ -46,6 +46,22 @@ const ID = /^(id|sample|samples|sample_id|sampleid|sample_no|sample_number|sampl
 const QUALIFIER = /(qualif|flag|detect|censor|^nd$|^q$|_q$|^lt$|remark)/;
 const DL_COLUMN = /^(dl|lod|loq|mdl|rl|detection_limit|detection_limits|det_limit|reporting_limit|limit_of_detection)$|_dl$|^dl_/;
 
+/** Examples of the coordinate names intake reads, for messages. */
+export const USUAL_COORDINATE_NAMES = { x: 'lon, longitude, x, easting', y: 'lat, latitude, y, northing' } as const;
+
+/**
+ * The column intake would read as the x (or y) coordinate among `columns`: a longitude (latitude)
+ * name first, else a planar one (x, easting, …), compared as normaliseName gives them; -1 when none.
+ * The command line finds the coordinates of targets and sites files with it, so they follow the same
+ * rule as the samples.
+ */
+export function usualCoordinateColumn(columns: readonly string[], axis: 'x' | 'y'): number {
+  const norm = columns.map(normaliseName);
+  const [geographic, planar] = axis === 'x' ? [LON, PLANAR_X] : [LAT, PLANAR_Y];
+  const i = norm.findIndex((n) => geographic.test(n));
+  return i !== -1 ? i : norm.findIndex((n) => planar.test(n));
+}
+
 /** Lowercase, unit removed, spaces and dashes as underscores: 'Sample ID' → 'sample_id'. */
 export function normaliseName(name: string): string {
   return splitUnit(name).base.toLowerCase().trim().replace(/[\s\-.]+/g, '_');

@@ -19,10 +19,11 @@ import { chooseMark, isMissing, parseColumnNumber } from '../../io/numbers.ts';
 import { numberOption, stringOption } from '../args.ts';
 import { knownMean } from '../../core/covariance/trend.ts';
 import {
-  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, describePredictionPath,
+  AUTOMATIC_PATH_TEXT, CAUTION, PREDICTION_PATH_OPTIONS, SAMPLE_OPTIONS, describePredictionPath,
   findUsualColumn, naming, outOption, printNotes, printWarnings, readModelAndSamples, readPredictionPath, readText, readWorkers, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
+import { USUAL_COORDINATE_NAMES } from '../../io/intake-columns.ts';
 import { CSV_CAUTION, csvCell, formatFullPrecision, linePieces, readCsvTable, recordText, type CsvTable } from '../csv.ts';
 import { tableCovariates, withSampleCovariates } from '../covariates.ts';
 import { analyteRequest, singleThreshold } from '../analytes.ts';
@@ -30,7 +31,7 @@ import { modelFromSet, predictAnalytes } from '../analyte-runs.ts';
 
 /** Index of the coordinate column: the given name, else the samples' name, else a usual name. */
 function findColumn(
-  table: CsvTable, file: string, given: string | undefined, fallback: string | undefined, usual: readonly string[], axis: string,
+  table: CsvTable, file: string, given: string | undefined, fallback: string | undefined, axis: 'x' | 'y',
 ): number {
   const names = table.header.cells.map((c) => c.trim());
   if (given !== undefined) {
@@ -41,10 +42,10 @@ function findColumn(
     }
     return i;
   }
-  const i = findUsualColumn(names, fallback, usual);
+  const i = findUsualColumn(names, fallback, axis);
   if (i !== -1) return i;
   throw new GapwiseError('missing-column',
-    `No ${axis} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected a usual name (${usual.join(', ')}) or --targets-${axis} COL.`,
+    `No ${axis} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected a usual name (${USUAL_COORDINATE_NAMES[axis]}) or --targets-${axis} COL.`,
     { file, row: table.header.line });
 }
 
@@ -79,8 +80,8 @@ async function run(valuesGiven: OptionValues, ioGiven: CliIo): Promise<number> {
   if (table.records.length === 0) {
     throw new GapwiseError('bad-file', 'The targets file has a header but no rows; expected at least one target.', { file: targetsPath });
   }
-  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, USUAL_X_NAMES, 'x');
-  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, USUAL_Y_NAMES, 'y');
+  const xi = findColumn(table, targetsPath, stringOption(values, 'targets-x'), intake.report.xColumn, 'x');
+  const yi = findColumn(table, targetsPath, stringOption(values, 'targets-y'), intake.report.yColumn, 'y');
   const tx = readCoordinates(table, targetsPath, xi);
   const ty = readCoordinates(table, targetsPath, yi);
   const targetsCrs = stringOption(values, 'targets-crs') ?? stringOption(values, 'crs') ?? intake.report.crs.input;

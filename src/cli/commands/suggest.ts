@@ -18,10 +18,11 @@ import { suggestionsToGpx } from '../../io/gpx.ts';
 import type { IntakeResult } from '../../io/types.ts';
 import { numberOption, stringOption } from '../args.ts';
 import {
-  CAUTION, SAMPLE_OPTIONS, USUAL_X_NAMES, USUAL_Y_NAMES, assignDefined, count as countText, findUsualColumn, jsonText, modelWorkCrs, naming, outOption,
+  CAUTION, SAMPLE_OPTIONS, assignDefined, count as countText, findUsualColumn, jsonText, modelWorkCrs, naming, outOption,
   printNotes, printWarnings, progressLine, readModelFile, readSamplesFile, readText, warnUnstatedWorkCrs, writeOutput,
   type CliIo, type CommandSpec, type OptionValues,
 } from '../common.ts';
+import { USUAL_COORDINATE_NAMES } from '../../io/intake-columns.ts';
 import { readBoundaryFile } from '../boundary-file.ts';
 import { CSV_CAUTION, readCsvTable } from '../csv.ts';
 import { analyteRequest } from '../analytes.ts';
@@ -89,11 +90,11 @@ function readCandidates(io: CliIo, file: string, values: OptionValues, intake: I
   } else {
     const table = readCsvTable(text, file);
     const names = table.header.cells.map((c) => c.trim());
-    const xi = findUsualColumn(names, intake.report.xColumn, USUAL_X_NAMES);
-    const yi = findUsualColumn(names, intake.report.yColumn, USUAL_Y_NAMES);
+    const xi = findUsualColumn(names, intake.report.xColumn, 'x');
+    const yi = findUsualColumn(names, intake.report.yColumn, 'y');
     if (xi === -1 || yi === -1) {
       throw new GapwiseError('missing-column',
-        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${(xi === -1 ? USUAL_X_NAMES : USUAL_Y_NAMES).join(', ')}).`,
+        `No ${xi === -1 ? 'x' : 'y'} coordinate column was found among ${names.map((n) => `"${n}"`).join(', ')}; expected the samples' column name or a usual name (${USUAL_COORDINATE_NAMES[xi === -1 ? 'x' : 'y']}).`,
         { file, row: table.header.line });
     }
     const read = (col: number): Float64Array => {
