@@ -20,7 +20,7 @@ import type { CovarianceModel } from '../covariance/model.ts';
 import type { Samples } from '../shared/samples.ts';
 import { GapwiseError, type Warning } from '../shared/errors.ts';
 import {
-  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, choosePredictionPath, checkCount, referenceCost, type PathChoice, type Tolerance,
+  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, billions, KERNEL_COST, choosePredictionPath, checkCount, referenceCost, type PathChoice, type Tolerance,
 } from '../prediction/path-choice.ts';
 import { DEFAULT_CHECK_SEED, chooseCheckTargets, compareWithReference, describeAccuracy, referencePredictions, type LocalAccuracy } from '../prediction/local-accuracy.ts';
 import { createLocalPosterior, type LocalPosterior } from './design-posterior.ts';
@@ -54,11 +54,6 @@ export function designLocalCost(samples: number, evaluation: number, candidates:
   const m = Math.min(neighbours, n);
   return (evaluation + candidates) * (m ** 3 / 6 + (KERNEL_COST * m * m) / 2 + m * m) + evaluation * candidates * KERNEL_COST * m
     + sites * candidates * KERNEL_COST * m + n * Math.log2(Math.max(2, n)) + referenceCost(n, evaluation);
-}
-
-function billions(x: number): string {
-  const b = x / 1e9;
-  return b >= 10 ? b.toFixed(0) : b >= 0.1 ? b.toFixed(1) : b.toPrecision(1);
 }
 
 /** Chooses the exact or local posterior for a design (see the file header). Throws GapwiseError('bad-option') for --exact beyond EXACT_SAMPLE_LIMIT samples or --local with covariates. */

@@ -111,7 +111,8 @@ export function localCost(samples: number, targets: number, neighbours = 64, thr
   return (targets * perTarget) / Math.max(1, threads) + n * Math.log2(Math.max(2, n)) + reference;
 }
 
-function billions(x: number): string {
+/** Operations in billions as the path notes print them: whole from 10, one decimal from 0.1, else one digit. */
+export function billions(x: number): string {
   const b = x / 1e9;
   return b >= 10 ? b.toFixed(0) : b >= 0.1 ? b.toFixed(1) : b.toPrecision(1);
 }

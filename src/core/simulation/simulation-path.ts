@@ -30,7 +30,7 @@ import type { Warning } from '../shared/errors.ts';
 import type { Grid } from '../geometry/grid.ts';
 import { covariateColumnCount } from '../covariance/trend.ts';
 import {
-  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, KERNEL_COST, choosePredictionPath, checkCount, localTargetCost, referenceCost,
+  DEFAULT_TOLERANCE, EXACT_SAMPLE_LIMIT, billions, KERNEL_COST, choosePredictionPath, checkCount, localTargetCost, referenceCost,
   type PathChoice, type Tolerance,
 } from '../prediction/path-choice.ts';
 import {
@@ -70,11 +70,6 @@ export function simulationLocalCost(samples: number, nodes: number, realisations
   const dense = covariates ? n ** 3 / 6 + (KERNEL_COST * n * n) / 2 : 0;
   return nodes * localTargetCost(m) + (realisations / Math.max(1, threads)) * nodes * m
     + n * Math.log2(Math.max(2, n)) + referenceCost(n, nodes) + dense;
-}
-
-function billions(x: number): string {
-  const b = x / 1e9;
-  return b >= 10 ? b.toFixed(0) : b >= 0.1 ? b.toFixed(1) : b.toPrecision(1);
 }
 
 /**
